@@ -1,0 +1,50 @@
+"""The package's exceptions: one base class, each subclass also a built-in error."""
+
+__all__ = [
+    "AlignerError",
+    "InputFormatError",
+    "InvalidParameterError",
+    "NoCandidatesError",
+    "ConvergenceError",
+    "AlignerWarning",
+]
+
+
+class AlignerError(Exception):
+    """Base class of every error raised on purpose by aligner."""
+
+
+class InputFormatError(AlignerError, ValueError):
+    """An input file or table is malformed; the message names the file and line."""
+
+    def __init__(self, message: str, *, path: str | None = None, line: int | None = None):
+        self.path = path
+        self.line = line
+        where = ""
+        if path is not None:
+            where = f"{path}"
+            if line is not None:
+                where += f", line {line}"
+            where += ": "
+        super().__init__(where + message)
+
+
+class InvalidParameterError(AlignerError, ValueError, TypeError):
+    """A parameter is out of its allowed range or of the wrong type."""
+
+
+class NoCandidatesError(AlignerError, ValueError):
+    """No candidate pair is left to align after filtering the prior."""
+
+
+class ConvergenceError(AlignerError, RuntimeError):
+    """A solver stopped at its work cap before reaching the requested residual."""
+
+    def __init__(self, message: str, *, iterations: int, residual: float):
+        self.iterations = iterations
+        self.residual = residual
+        super().__init__(f"{message} (stopped after {iterations} steps with 1-norm residual {residual:.3e})")
+
+
+class AlignerWarning(UserWarning):
+    """A recoverable problem with the input or the parameters."""
