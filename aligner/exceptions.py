@@ -7,6 +7,7 @@ __all__ = [
     "NoCandidatesError",
     "ConvergenceError",
     "AlignerWarning",
+    "MemoryBudgetError",
 ]
 
 
@@ -48,3 +49,7 @@ class ConvergenceError(AlignerError, RuntimeError):
 
 class AlignerWarning(UserWarning):
     """A recoverable problem with the input or the parameters."""
+
+
+class MemoryBudgetError(AlignerError, MemoryError):
+    """A stage would need more memory than the budget allows; the message says what to change."""

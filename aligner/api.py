@@ -1,0 +1,418 @@
+"""The Python API: ``align`` validates its inputs and runs the stages in order."""
+
+from __future__ import annotations
+
+import os
+import time
+import warnings
+from dataclasses import dataclass, field
+from pathlib import Path
+from typing import Callable
+
+import numpy as np
+import pandas as pd
+
+from . import __version__
+from ._validation import check_choice, check_int, check_real
+from .candidates import CandidateSet, build_candidates
+from .diffusion import NORMALIZATIONS, SOLVERS, DiffusionResult, column_scale, diffuse, prior_vector
+from .exceptions import AlignerWarning, InputFormatError, InvalidParameterError, MemoryBudgetError, NoCandidatesError
+from .io import (PairTable, PriorTable, prior_from_columns, read_network, read_pairs, read_prior,
+                 write_json_atomic, write_table_atomic)
+from .network import Network, network_from_edges
+from .product import ProductGraph, build_product, estimate_product_edges
+from .rounding import METHODS, Matching, round_matching
+from .scoring import Scores, conserved_per_node, score_matching
+
+__all__ = ["align", "score", "AlignmentResult", "as_network", "OUTPUT_FILES", "check_outdir", "write_outputs"]
+
+SCORE_KINDS = ("similarity", "evalue", "distance")
+OUTPUT_FILES = ("alignment.tsv", "conserved_edges.tsv", "summary.json")
+#: bytes per stored product-graph entry while building and solving (index + share of pointers,
+#: queue and float work arrays), used by the memory check
+BYTES_PER_PRODUCT_ENTRY = 4
+
+
+# --------------------------------------------------------------------------- coercion
+
+def as_network(obj, *, delimiter: str | None = None, header: str = "auto", name: str = "network") -> Network:
+    """A :class:`Network` from a path, a networkx graph, an edge DataFrame or a Network."""
+    if isinstance(obj, Network):
+        return obj
+    if isinstance(obj, (str, os.PathLike)):
+        return read_network(obj, delimiter=delimiter, header=header)
+    try:
+        import networkx as nx
+    except ImportError:  # pragma: no cover - networkx is a dependency
+        nx = None
+    if nx is not None and isinstance(obj, nx.Graph):
+        if obj.is_directed():
+            raise InvalidParameterError(f"The '{name}' parameter of align must be an undirected graph; "
+                                        "got a directed one (use graph.to_undirected()).")
+        nodes = [str(v) for v in obj.nodes()]
+        if len(set(nodes)) != len(nodes):
+            raise InvalidParameterError(f"The '{name}' parameter of align has nodes whose string forms clash.")
+        names = np.array(sorted(nodes), dtype=object)
+        pos = {v: i for i, v in enumerate(names)}
+        edges = [(pos[str(u)], pos[str(v)]) for u, v in obj.edges()]
+        e = np.array(edges, dtype=np.int64).reshape(-1, 2)
+        w = None
+        if obj.number_of_edges() and all("weight" in d for _, _, d in obj.edges(data=True)):
+            w = np.array([float(d["weight"]) for _, _, d in obj.edges(data=True)])
+        return network_from_edges(names, e[:, 0], e[:, 1], w, source=f"<networkx {name}>")
+    if isinstance(obj, pd.DataFrame):
+        if obj.shape[1] < 2:
+            raise InvalidParameterError(f"The '{name}' parameter of align must have at least two columns "
+                                        f"(node, node[, weight]). Got {obj.shape[1]} instead.")
+        a = obj.iloc[:, 0].astype(str).to_numpy(dtype=object)
+        b = obj.iloc[:, 1].astype(str).to_numpy(dtype=object)
+        w = None
+        if obj.shape[1] >= 3:
+            w = pd.to_numeric(obj.iloc[:, 2], errors="coerce").to_numpy(dtype=np.float64)
+            if not np.isfinite(w).all() or (w < 0).any():
+                raise InvalidParameterError(f"The '{name}' parameter of align has a weight that is not a "
+                                            "finite non-negative number.")
+        codes, names = pd.factorize(np.concatenate([a, b]), sort=True)
+        return network_from_edges(np.asarray(names, dtype=object), codes[: len(a)], codes[len(a):], w,
+                                  source=f"<DataFrame {name}>")
+    raise InvalidParameterError(f"The '{name}' parameter of align must be a path, a networkx graph, a pandas "
+                                f"DataFrame or a Network. Got {type(obj).__name__} instead.")
+
+
+def _as_prior(obj, net_a: Network, net_b: Network, kind: str, delimiter, header) -> PriorTable:
+    if isinstance(obj, PriorTable):
+        return obj
+    if isinstance(obj, (str, os.PathLike)):
+        return read_prior(obj, net_a, net_b, kind=kind, delimiter=delimiter, header=header)
+    if isinstance(obj, pd.DataFrame):
+        if obj.shape[1] < 3:
+            raise InvalidParameterError("The 'prior' parameter of align must have three columns "
+                                        f"(node_a, node_b, score). Got {obj.shape[1]} instead.")
+        values = pd.to_numeric(obj.iloc[:, 2], errors="coerce").to_numpy(dtype=np.float64)
+        return prior_from_columns(obj.iloc[:, 0].astype(str).to_numpy(dtype=object),
+                                  obj.iloc[:, 1].astype(str).to_numpy(dtype=object), values, net_a, net_b,
+                                  kind=kind, source="<DataFrame prior>", line_of=lambda r: None)
+    raise InvalidParameterError("The 'prior' parameter of align must be a path or a pandas DataFrame. "
+                                f"Got {type(obj).__name__} instead.")
+
+
+def _as_pairs(obj, net_a: Network, net_b: Network, what: str, delimiter, header) -> PairTable:
+    if isinstance(obj, PairTable):
+        return obj
+    if isinstance(obj, (str, os.PathLike)):
+        return read_pairs(obj, net_a, net_b, delimiter=delimiter, header=header, what=what)
+    if isinstance(obj, pd.DataFrame):
+        df = pd.DataFrame({"a": obj.iloc[:, 0].astype(str), "b": obj.iloc[:, 1].astype(str)})
+    else:
+        df = pd.DataFrame(list(obj), columns=["a", "b"]).astype(str)
+    a = df["a"].to_numpy(dtype=object)
+    b = df["b"].to_numpy(dtype=object)
+    from .io import _lookup
+
+    ia, ib = _lookup(net_a.names, a), _lookup(net_b.names, b)
+    ok = (ia >= 0) & (ib >= 0)
+    ex = [f"{a[r]} / {b[r]}" for r in np.flatnonzero(~ok)[:3]]
+    return PairTable(np.stack([ia[ok], ib[ok]], 1).astype(np.int32), len(a), int((~ok).sum()), ex, f"<{what}>")
+
+
+def _memory_budget(max_memory: float | None) -> float:
+    if max_memory is not None:
+        return float(max_memory)
+    try:
+        total = os.sysconf("SC_PAGE_SIZE") * os.sysconf("SC_PHYS_PAGES")
+    except (ValueError, OSError, AttributeError):  # pragma: no cover
+        total = 8 * 2**30
+    return 0.5 * total
+
+
+# --------------------------------------------------------------------------- result
+
+@dataclass(frozen=True, eq=False)
+class AlignmentResult:
+    """Everything a run produced.
+
+    Attributes
+    ----------
+    pairs : DataFrame
+        One row per matched pair: ``node_a``, ``node_b``, ``score`` (diffusion score),
+        ``prior`` (prior similarity after the score-kind transformation), ``conserved``
+        (conserved edges at the pair). Sorted by ``node_a``.
+    scores : Scores
+        EC, ICS, S3, largest common connected subgraph, NC (with a truth table).
+    diffusion : DiffusionResult
+        Solver figures: steps, edge touches, residual and error bound.
+    summary : dict
+        Inputs, parameters, sizes, scores, solver figures, stage timings and version, as
+        written to ``summary.json``.
+    """
+
+    network_a: Network
+    network_b: Network
+    candidates: CandidateSet
+    product: ProductGraph
+    diffusion: DiffusionResult
+    matching: Matching
+    scores: Scores
+    pairs: pd.DataFrame
+    conserved_edges: pd.DataFrame
+    summary: dict = field(default_factory=dict)
+
+
+def _conserved_frame(net_a: Network, net_b: Network, matched: np.ndarray, cons: np.ndarray) -> pd.DataFrame:
+    f = np.full(net_a.n, -1, dtype=np.int64)
+    f[matched[:, 0]] = matched[:, 1]
+    ce = net_a.edges[cons]
+    return pd.DataFrame({
+        "node_a1": net_a.names[ce[:, 0]], "node_a2": net_a.names[ce[:, 1]],
+        "node_b1": net_b.names[f[ce[:, 0]]], "node_b2": net_b.names[f[ce[:, 1]]],
+    })
+
+
+def _network_summary(net: Network) -> dict:
+    return {"source": str(net.source), "nodes": net.n, "edges": net.n_edges,
+            "self_loops_dropped": net.n_self_loops, "duplicate_edges_merged": net.n_duplicate_edges}
+
+
+def align(
+    network_a,
+    network_b,
+    prior,
+    *,
+    alpha: float = 0.8,
+    top_k: int | None = 25,
+    min_score: float = 0.0,
+    score_kind: str = "similarity",
+    solver: str = "push",
+    tol: float = 1e-6,
+    normalization: str = "restricted",
+    rounding: str = "auto",
+    truth=None,
+    delimiter: str | None = None,
+    header: str = "auto",
+    max_memory: float | None = None,
+    progress: Callable[[str], None] | None = None,
+) -> AlignmentResult:
+    """Align two networks: a one-to-one map between their nodes.
+
+    Parameters
+    ----------
+    network_a, network_b : path, networkx.Graph, pandas.DataFrame or Network
+        The two undirected networks (edge lists: node, node[, weight]).
+    prior : path or pandas.DataFrame
+        The prior similarity table: node of A, node of B, score.
+    alpha : float in [0, 1)
+        Weight of the wiring against the prior in the diffusion; 0 returns the prior.
+    top_k : int >= 1 or None
+        Candidates: every node's ``top_k`` best prior pairs on each side (their union).
+    min_score : float
+        Prior pairs below this score (after the score-kind transformation) are dropped.
+    score_kind : {"similarity", "evalue", "distance"}
+        How to read the prior scores: similarity (higher is better), E-value (smaller is
+        better; -log10, capped at 310 for 0; rows with E > 1 dropped), distance (smaller is
+        better; 1 / (1 + d)).
+    solver : {"push", "power"}
+        Diffusion solver.
+    tol : float > 0
+        1-norm residual tolerance of the diffusion (the prior sums to 1).
+    normalization : {"restricted", "product"}
+        Random-walk normalisation of the product graph (see :func:`aligner.diffusion.column_scale`).
+    rounding : {"auto", "sparse", "dense", "scipy"}
+        Linear-assignment solver (see :func:`aligner.rounding.round_matching`).
+    truth : path, DataFrame or iterable of pairs, optional
+        Known true pairs, for node correctness.
+    delimiter, header :
+        How to read the input files (see :func:`aligner.io.read_network`).
+    max_memory : float, optional
+        Memory budget in bytes for the product graph; default half the machine's memory.
+    progress : callable, optional
+        Called with the name of each stage as it starts.
+
+    Returns
+    -------
+    AlignmentResult
+
+    Raises
+    ------
+    InputFormatError, InvalidParameterError, NoCandidatesError, MemoryBudgetError, ConvergenceError
+
+    Examples
+    --------
+    >>> import networkx as nx, pandas as pd
+    >>> g = nx.path_graph(3)
+    >>> prior = pd.DataFrame({"a": ["0", "1", "2"], "b": ["0", "1", "2"], "s": [1.0, 1.0, 1.0]})
+    >>> res = align(g, g, prior)
+    >>> res.scores.conserved_edges, res.scores.ec
+    (2, 1.0)
+    """
+    where = "align"
+    alpha = check_real(alpha, "alpha", where, low=0.0, high=1.0, closed="left")
+    if top_k is not None:
+        top_k = check_int(top_k, "top_k", where, low=1)
+    min_score = check_real(min_score, "min_score", where)
+    score_kind = check_choice(score_kind, "score_kind", where, SCORE_KINDS)
+    solver = check_choice(solver, "solver", where, SOLVERS)
+    tol = check_real(tol, "tol", where, low=0.0, closed="neither")
+    normalization = check_choice(normalization, "normalization", where, NORMALIZATIONS)
+    rounding = check_choice(rounding, "rounding", where, METHODS)
+    say = progress or (lambda stage: None)
+    timings: dict[str, float] = {}
+
+    def stage(name: str):
+        say(name)
+        timings[name] = time.perf_counter()
+
+    def done(name: str):
+        timings[name] = round(time.perf_counter() - timings[name], 4)
+
+    stage("read")
+    net_a = as_network(network_a, delimiter=delimiter, header=header, name="network_a")
+    net_b = as_network(network_b, delimiter=delimiter, header=header, name="network_b")
+    prior_t = _as_prior(prior, net_a, net_b, score_kind, delimiter, header)
+    truth_t = None if truth is None else _as_pairs(truth, net_a, net_b, "truth table", delimiter, header)
+    done("read")
+    if prior_t.n_unknown:
+        warnings.warn(f"{prior_t.n_unknown} of {prior_t.n_rows} prior rows name a node missing from its network "
+                      f"and were skipped (for example {', '.join(prior_t.unknown_examples)})", AlignerWarning,
+                      stacklevel=2)
+    if truth_t is not None and truth_t.n_unknown:
+        warnings.warn(f"{truth_t.n_unknown} of {truth_t.n_rows} truth rows name a node missing from its network "
+                      f"and were skipped (for example {', '.join(truth_t.unknown_examples)})", AlignerWarning,
+                      stacklevel=2)
+    if len(prior_t.pairs) == 0:
+        hint = ""
+        if prior_t.n_unknown == prior_t.n_rows and prior_t.n_rows:
+            hint = (" None of its rows names a node of network A in the first column and a node of network B "
+                    "in the second: are the columns swapped, or are these the wrong networks?")
+        raise NoCandidatesError(f"{prior_t.source}: no usable prior pair is left.{hint}")
+
+    stage("candidates")
+    cand = build_candidates(prior_t.pairs, prior_t.scores, net_a.n, net_b.n, min_score=min_score, top_k=top_k)
+    done("candidates")
+    if cand.m == 0:
+        raise NoCandidatesError(f"{prior_t.source}: no prior pair scores at least the minimum score "
+                                f"{min_score:g}; lower --min-score (the highest score is "
+                                f"{prior_t.scores.max():g}).")
+
+    estimate = estimate_product_edges(net_a.indptr, net_a.indices, net_b.indptr, cand)
+    budget = _memory_budget(max_memory)
+    need = estimate * BYTES_PER_PRODUCT_ENTRY + cand.m * 64
+    if need > budget:
+        raise MemoryBudgetError(
+            f"the product graph over {cand.m:,} candidate pairs may have up to {estimate:,} stored entries "
+            f"(about {need / 2**30:.2f} GiB), over the memory budget of {budget / 2**30:.2f} GiB; lower "
+            "--top-k, raise --min-score, or raise --max-memory")
+
+    stage("product")
+    prod = build_product(net_a.indptr, net_a.indices, net_b.indptr, net_b.indices, cand)
+    done("product")
+
+    stage("diffusion")
+    h = prior_vector(cand.prior)
+    scale = column_scale(prod, normalization, deg_a=net_a.degree, deg_b=net_b.degree, pairs=cand.pairs)
+    diff = diffuse(prod, h, scale, alpha=alpha, tol=tol, solver=solver)
+    done("diffusion")
+
+    stage("rounding")
+    match = round_matching(cand, diff.x, method=rounding)
+    done("rounding")
+
+    stage("scoring")
+    matched = cand.pairs[match.index].astype(np.int64)
+    scores, cons = score_matching(net_a.edges, net_b.edges, matched, net_a.n, net_b.n,
+                                  truth=None if truth_t is None else truth_t.pairs)
+    per_node = conserved_per_node(net_a.edges, cons, net_a.n)
+    pairs_df = pd.DataFrame({
+        "node_a": net_a.names[matched[:, 0]],
+        "node_b": net_b.names[matched[:, 1]],
+        "score": diff.x[match.index],
+        "prior": cand.prior[match.index],
+        "conserved": per_node[matched[:, 0]],
+    })
+    cons_df = _conserved_frame(net_a, net_b, matched, cons)
+    done("scoring")
+
+    cov_a, cov_b = cand.coverage()
+    summary = {
+        "version": __version__,
+        "inputs": {
+            "network_a": _network_summary(net_a),
+            "network_b": _network_summary(net_b),
+            "prior": {"source": str(prior_t.source), "rows": prior_t.n_rows, "unknown_node_rows": prior_t.n_unknown,
+                      "unknown_examples": prior_t.unknown_examples, "dropped_by_score_kind": prior_t.n_dropped_kind,
+                      "duplicate_pairs_merged": prior_t.n_duplicates, "pairs": int(len(prior_t.pairs))},
+            "truth": None if truth_t is None else {"source": str(truth_t.source), "rows": truth_t.n_rows,
+                                                    "unknown_node_rows": truth_t.n_unknown},
+        },
+        "parameters": {"alpha": alpha, "top_k": top_k, "min_score": min_score, "score_kind": score_kind,
+                       "solver": solver, "tol": tol, "normalization": normalization, "rounding": rounding},
+        "sizes": {"candidates": cand.m, "coverage_a": cov_a, "coverage_b": cov_b,
+                  "product_edges": prod.n_edges, "product_edges_estimate": estimate // 2,
+                  "matched_pairs": scores.n_matched},
+        "scores": scores.as_dict(),
+        "solver": diff.report() | {"rounding": match.method, "matched_weight": match.weight,
+                                   "rounding_seconds": round(match.seconds, 4)},
+        "timings": timings,
+    }
+    if scores.nc_detail:
+        summary["scores"]["nc_detail"] = scores.nc_detail
+    return AlignmentResult(net_a, net_b, cand, prod, diff, match, scores, pairs_df, cons_df, summary)
+
+
+def score(network_a, network_b, alignment, *, truth=None, delimiter: str | None = None,
+          header: str = "auto") -> tuple[Scores, pd.DataFrame]:
+    """Score an existing alignment (a table whose first two columns are node_a, node_b).
+
+    Returns the scores and the conserved edges. Raises InputFormatError when a node is in two
+    pairs (the map must be one-to-one).
+    """
+    net_a = as_network(network_a, delimiter=delimiter, header=header, name="network_a")
+    net_b = as_network(network_b, delimiter=delimiter, header=header, name="network_b")
+    tab = _as_pairs(alignment, net_a, net_b, "alignment", delimiter, header)
+    if tab.n_unknown:
+        warnings.warn(f"{tab.n_unknown} of {tab.n_rows} alignment rows name a node missing from its network and "
+                      f"were skipped (for example {', '.join(tab.unknown_examples)})", AlignerWarning, stacklevel=2)
+    p = tab.pairs.astype(np.int64)
+    for side, name in ((0, "A"), (1, "B")):
+        u, c = np.unique(p[:, side], return_counts=True)
+        if (c > 1).any():
+            node = (net_a if side == 0 else net_b).names[u[np.argmax(c > 1)]]
+            raise InputFormatError(f"node {node!r} of network {name} is in more than one pair; an alignment "
+                                   "must be one-to-one", path=str(tab.source))
+    truth_t = None if truth is None else _as_pairs(truth, net_a, net_b, "truth table", delimiter, header)
+    sc, cons = score_matching(net_a.edges, net_b.edges, p, net_a.n, net_b.n,
+                              truth=None if truth_t is None else truth_t.pairs)
+    return sc, _conserved_frame(net_a, net_b, p, cons)
+
+
+def check_outdir(outdir: str | os.PathLike, *, force: bool = False) -> Path:
+    """Refuse an output path that is a file, or a directory holding outputs of an earlier run."""
+    out = Path(outdir)
+    if out.exists() and not out.is_dir():
+        raise InvalidParameterError(f"The output '{out}' exists and is not a directory.")
+    existing = [f for f in OUTPUT_FILES if (out / f).exists()]
+    if existing and not force:
+        raise InvalidParameterError(f"The output directory '{out}' already holds {', '.join(existing)}; "
+                                    "choose another directory or pass --force to replace them.")
+    return out
+
+
+def write_outputs(outdir: str | os.PathLike, result: AlignmentResult, *, force: bool = False) -> list[Path]:
+    """Write alignment.tsv, conserved_edges.tsv and summary.json into ``outdir``.
+
+    Each file is written to a temporary file in ``outdir`` and renamed into place when
+    complete; summary.json is written last, so its presence marks a finished run.
+    """
+    out = check_outdir(outdir, force=force)
+    try:
+        out.mkdir(parents=True, exist_ok=True)
+        probe = out / ".aligner-write-test"
+        probe.write_text("")
+        probe.unlink()
+    except OSError as exc:
+        raise InvalidParameterError(f"The output directory '{out}' cannot be written: {exc.strerror}.") from None
+    pairs = result.pairs.sort_values(["node_a", "node_b"], kind="stable")
+    write_table_atomic(out / "alignment.tsv", pairs)
+    cons = result.conserved_edges.sort_values(["node_a1", "node_a2"], kind="stable")
+    write_table_atomic(out / "conserved_edges.tsv", cons)
+    write_json_atomic(out / "summary.json", result.summary)
+    return [out / f for f in OUTPUT_FILES]

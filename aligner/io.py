@@ -1,0 +1,456 @@
+"""Read networks and similarity tables from files; write the outputs of a run.
+
+Everything that touches the file system lives here. Readers return the canonical
+array forms of :mod:`aligner.network` and plain arrays; they never print.
+"""
+
+from __future__ import annotations
+
+import csv
+import gzip
+import io as _io
+import json
+import math
+import os
+import tempfile
+from dataclasses import dataclass, field
+from pathlib import Path
+from typing import Iterator
+
+import numpy as np
+import pandas as pd
+
+from .exceptions import InputFormatError
+from .network import Network, network_from_edges
+
+__all__ = [
+    "read_network",
+    "read_prior",
+    "read_pairs",
+    "PriorTable",
+    "PairTable",
+    "write_text_atomic",
+    "write_table_atomic",
+    "EVALUE_CAP",
+]
+
+#: -log10 of an E-value of exactly 0 is taken as this value (the smallest positive double is
+#: about 1e-308, so no finite E-value gives more).
+EVALUE_CAP = 310.0
+
+HEADER_WORDS = {
+    "node", "node_a", "node_b", "node1", "node2", "source", "target", "src", "dst", "from", "to",
+    "u", "v", "a", "b", "id1", "id2", "protein1", "protein2", "weight", "score", "similarity",
+    "evalue", "e_value", "distance", "gene1", "gene2", "neuron1", "neuron2", "left", "right",
+}
+DELIMITERS = {"tab": "\t", "comma": ",", "semicolon": ";", "space": " ", "whitespace": None}
+
+
+def _open_text(path: str) -> Iterator[str]:
+    """Yield the lines of a text file, gzip-compressed or not, with any UTF-8 byte-order mark removed."""
+    with open(path, "rb") as fh:
+        magic = fh.read(2)
+    opener = gzip.open if magic == b"\x1f\x8b" else open
+    with opener(path, "rt", encoding="utf-8-sig", newline="") as fh:
+        yield from fh
+
+
+def _check_readable(path: str) -> None:
+    p = Path(path)
+    if not p.exists():
+        raise InputFormatError("no such file; check the path", path=path)
+    if p.is_dir():
+        raise InputFormatError("is a directory, not a file", path=path)
+    if not os.access(p, os.R_OK):
+        raise InputFormatError("the file cannot be read (permission denied)", path=path)
+
+
+def _data_lines(path: str) -> Iterator[tuple[int, str]]:
+    """Yield (line number, text) of the non-blank, non-comment lines."""
+    for no, line in enumerate(_open_text(path), 1):
+        text = line.rstrip("\r\n")
+        stripped = text.strip()
+        if stripped and not stripped.startswith("#"):
+            yield no, text
+
+
+def _detect_delimiter(path: str, first: str) -> str | None:
+    if "\t" in first:
+        return "\t"
+    if "," in first:
+        return ","
+    if ";" in first:
+        return ";"
+    return None  # runs of white space
+
+
+def _split(line: str, sep: str | None) -> list[str]:
+    if sep is None:
+        return line.split()
+    return next(csv.reader([line], delimiter=sep))
+
+
+def _is_number(text: str) -> bool:
+    try:
+        float(text)
+    except ValueError:
+        return False
+    return True
+
+
+@dataclass
+class _RawTable:
+    columns: list[np.ndarray]
+    line_numbers: np.ndarray | None  # filled only on the slow path
+    has_header: bool
+    header: list[str] | None
+    path: str
+    first_line: int  # file line number of the first data row
+
+
+def _read_raw(path: str, *, min_cols: int, max_cols: int, delimiter: str | None, header: str,
+              what: str) -> _RawTable:
+    """Read a delimited table of strings with ``min_cols``..``max_cols`` columns.
+
+    Fast path: pandas' C reader. The file is scanned line by line only to locate an error.
+    """
+    _check_readable(path)
+    try:
+        lines = _data_lines(path)
+        first = next(lines, None)
+        second = next(lines, None)
+    except UnicodeDecodeError as exc:
+        raise InputFormatError(f"is not UTF-8 text ({exc.reason} at byte {exc.start}); "
+                               "save it as UTF-8", path=path) from None
+    except (OSError, EOFError, gzip.BadGzipFile) as exc:
+        raise InputFormatError(f"cannot be read: {exc}", path=path) from None
+    if first is None:
+        raise InputFormatError(f"is empty: expected a {what} with {min_cols} to {max_cols} columns",
+                               path=path)
+    if delimiter is None:
+        sep = _detect_delimiter(path, first[1])
+    else:
+        sep = DELIMITERS.get(delimiter, delimiter)
+    fields = _split(first[1], sep)
+    if header == "auto":
+        low = [f.strip().lower() for f in fields]
+        has_header = all(f in HEADER_WORDS for f in low) or (
+            len(fields) >= 3 and not _is_number(fields[2]) and second is not None
+            and len(_split(second[1], sep)) >= 3 and _is_number(_split(second[1], sep)[2]))
+    else:
+        has_header = header == "yes"
+    if has_header and second is None:
+        raise InputFormatError(f"has a header line but no data rows: expected a {what}", path=path,
+                               line=first[0])
+    ncols = len(fields)
+    start_no, start_text = (second if has_header else first)
+    ncols = len(_split(start_text, sep))
+    if ncols < min_cols:
+        raise InputFormatError(
+            f"has {ncols} column{'s' if ncols != 1 else ''}, expected {min_cols} to {max_cols} for a {what}"
+            + ("" if sep is not None else " (the delimiter was taken to be white space; give --delimiter)"),
+            path=path, line=start_no)
+    if ncols > max_cols:
+        raise InputFormatError(f"has {ncols} columns, expected at most {max_cols} for a {what}; "
+                               "remove the extra columns", path=path, line=start_no)
+    try:
+        df = pd.read_csv(
+            path,
+            sep=r"\s+" if sep is None else sep,
+            header=None,
+            names=list(range(ncols)),
+            skiprows=[first[0] - 1] if has_header else None,
+            comment="#",
+            dtype=str,
+            keep_default_na=False,
+            skip_blank_lines=True,
+            encoding="utf-8-sig",
+            compression="infer" if not _is_gzip(path) else "gzip",
+            engine="c",
+            on_bad_lines="error",
+        )
+    except pd.errors.ParserError as exc:
+        _raise_bad_row(path, sep, ncols, has_header, what)
+        raise InputFormatError(f"cannot be parsed: {exc}", path=path) from None
+    except UnicodeDecodeError as exc:
+        raise InputFormatError(f"is not UTF-8 text ({exc.reason}); save it as UTF-8", path=path) from None
+    cols = [df[c].to_numpy(dtype=object) for c in range(ncols)]
+    # A short row shows up as empty strings in its last columns.
+    bad = np.zeros(len(df), dtype=bool)
+    for c in range(min_cols):
+        bad |= cols[c] == ""
+    if bad.any():
+        row = int(np.argmax(bad))
+        no, text = _locate(path, has_header, row)
+        raise InputFormatError(f"has an empty field or too few columns (expected {ncols}); "
+                               f"check the delimiter: {text[:80]!r}", path=path, line=no)
+    return _RawTable(cols, None, has_header, fields if has_header else None, path, start_no)
+
+
+def _is_gzip(path: str) -> bool:
+    with open(path, "rb") as fh:
+        return fh.read(2) == b"\x1f\x8b"
+
+
+def _locate(path: str, has_header: bool, row: int) -> tuple[int, str]:
+    """The file line number and text of data row ``row`` (0-based, after the header)."""
+    skip = 1 if has_header else 0
+    for k, (no, text) in enumerate(_data_lines(path)):
+        if k == row + skip:
+            return no, text
+    return -1, ""
+
+
+def _raise_bad_row(path: str, sep: str | None, ncols: int, has_header: bool, what: str) -> None:
+    for k, (no, text) in enumerate(_data_lines(path)):
+        if has_header and k == 0:
+            continue
+        got = len(_split(text, sep))
+        if got != ncols:
+            raise InputFormatError(
+                f"has {got} field{'s' if got != 1 else ''} where the first row has {ncols}; "
+                f"mixed delimiters or a stray column? {text[:80]!r}", path=path, line=no)
+
+
+def _numeric(raw: _RawTable, col: int, label: str) -> np.ndarray:
+    """Column ``col`` as float64; a non-numeric or non-finite entry is an error naming its line."""
+    values = pd.to_numeric(pd.Series(raw.columns[col]), errors="coerce").to_numpy(dtype=np.float64)
+    bad = ~np.isfinite(values)
+    if bad.any():
+        row = int(np.argmax(bad))
+        no, _ = _locate(raw.path, raw.has_header, row)
+        raise InputFormatError(f"the {label} {raw.columns[col][row]!r} is not a finite number",
+                               path=raw.path, line=no)
+    return values
+
+
+def _line_of(raw: _RawTable, row: int) -> int:
+    return _locate(raw.path, raw.has_header, row)[0]
+
+
+# --------------------------------------------------------------------------- networks
+
+def read_network(path: str | os.PathLike, *, delimiter: str | None = None, header: str = "auto") -> Network:
+    """Read an undirected network from an edge list.
+
+    Parameters
+    ----------
+    path : str or path-like
+        A TSV/CSV/white-space edge list, optionally gzip-compressed: two columns of node
+        identifiers and an optional third column of non-negative edge weights. Lines starting
+        with ``#`` and blank lines are ignored.
+    delimiter : str, optional
+        ``"tab"``, ``"comma"``, ``"semicolon"``, ``"whitespace"`` or a literal character.
+        Detected from the first data line when omitted.
+    header : {"auto", "yes", "no"}
+        Whether the first data line is a header. ``"auto"`` takes it as one when its fields
+        are common column names (``source``, ``target``, ``node_a`` ...) or when its third
+        field is text while the next line's is a number.
+
+    Returns
+    -------
+    Network
+        Self-loops dropped and duplicate edges merged (weights summed), each counted.
+
+    Raises
+    ------
+    InputFormatError
+        The file is missing, empty, not UTF-8, or a row is malformed; the message names the line.
+    """
+    path = os.fspath(path)
+    raw = _read_raw(path, min_cols=2, max_cols=3, delimiter=delimiter, header=header, what="edge list")
+    weights = None
+    if len(raw.columns) == 3:
+        weights = _numeric(raw, 2, "edge weight")
+        if (weights < 0).any():
+            row = int(np.argmax(weights < 0))
+            raise InputFormatError(f"the edge weight {weights[row]:g} is negative; weights must be >= 0",
+                                   path=path, line=_line_of(raw, row))
+    a = raw.columns[0]
+    b = raw.columns[1]
+    codes, names = pd.factorize(np.concatenate([a, b]), sort=True)
+    m = len(a)
+    return network_from_edges(np.asarray(names, dtype=object), codes[:m], codes[m:], weights, source=path)
+
+
+# --------------------------------------------------------------------------- priors
+
+@dataclass(frozen=True)
+class PriorTable:
+    """A prior similarity table mapped onto two networks.
+
+    ``pairs[:, 0]`` indexes network A, ``pairs[:, 1]`` network B; ``scores`` are similarities
+    (higher is better, >= 0) after the transformation of the score kind.
+    """
+
+    pairs: np.ndarray
+    scores: np.ndarray
+    n_rows: int
+    n_unknown: int
+    unknown_examples: list[str] = field(default_factory=list)
+    n_dropped_kind: int = 0  # rows dropped by the score kind (E-values above 1)
+    n_duplicates: int = 0
+    source: str = "<memory>"
+
+
+def transform_scores(values: np.ndarray, kind: str) -> tuple[np.ndarray, np.ndarray]:
+    """Turn raw prior values into similarities; return them and a mask of rows to keep.
+
+    ``similarity``: used as given (must be >= 0). ``evalue``: ``-log10(E)``, with E = 0 given
+    :data:`EVALUE_CAP`; rows with E > 1 carry no evidence of similarity and are dropped.
+    ``distance``: ``1 / (1 + d)`` (must be >= 0).
+    """
+    keep = np.ones(len(values), dtype=bool)
+    if kind == "similarity":
+        return values.astype(np.float64), keep
+    if kind == "evalue":
+        keep = values <= 1.0
+        with np.errstate(divide="ignore"):
+            s = np.where(values > 0, -np.log10(np.where(values > 0, values, 1.0)), EVALUE_CAP)
+        return np.minimum(s, EVALUE_CAP), keep
+    if kind == "distance":
+        return 1.0 / (1.0 + values), keep
+    raise ValueError(kind)
+
+
+def prior_from_columns(
+    a: np.ndarray, b: np.ndarray, values: np.ndarray, net_a: Network, net_b: Network, *,
+    kind: str = "similarity", source: str = "<memory>", line_of=None,
+) -> PriorTable:
+    """Map a prior given as three columns onto the node indices of two networks.
+
+    Unknown nodes are counted and skipped; duplicate pairs keep the highest similarity.
+    """
+    values = np.asarray(values, dtype=np.float64)
+    bad = ~np.isfinite(values)
+    if kind in ("similarity", "distance", "evalue"):
+        bad |= values < 0
+    if bad.any():
+        row = int(np.argmax(bad))
+        what = "not a finite number" if not np.isfinite(values[row]) else "negative"
+        need = {"similarity": "similarities must be >= 0 (use --score-kind distance for dissimilarities)",
+                "distance": "distances must be >= 0", "evalue": "E-values must be >= 0"}[kind]
+        raise InputFormatError(f"the score {values[row]!r} is {what}; {need}", path=source,
+                               line=None if line_of is None else line_of(row))
+    scores, keep = transform_scores(values, kind)
+    ia = _lookup(net_a.names, a)
+    ib = _lookup(net_b.names, b)
+    known = (ia >= 0) & (ib >= 0)
+    n_unknown = int((~known).sum())
+    examples = [f"{a[r]} / {b[r]}" for r in np.flatnonzero(~known)[:3]]
+    ok = known & keep
+    pairs = np.stack([ia[ok], ib[ok]], axis=1).astype(np.int32) if ok.any() else np.empty((0, 2), np.int32)
+    sc = scores[ok]
+    # duplicate pairs: the highest similarity wins
+    n_dup = 0
+    if len(pairs):
+        key = pairs[:, 0].astype(np.int64) * net_b.n + pairs[:, 1]
+        order = np.lexsort((-sc, key))
+        key_s = key[order]
+        first = np.ones(len(key_s), dtype=bool)
+        first[1:] = key_s[1:] != key_s[:-1]
+        n_dup = int(len(key_s) - first.sum())
+        sel = order[first]
+        pairs, sc = pairs[sel], sc[sel]
+    return PriorTable(pairs=pairs, scores=sc, n_rows=len(values), n_unknown=n_unknown,
+                      unknown_examples=examples, n_dropped_kind=int((known & ~keep).sum()),
+                      n_duplicates=n_dup, source=source)
+
+
+def _lookup(names: np.ndarray, query: np.ndarray) -> np.ndarray:
+    """Index of each query identifier in the sorted ``names`` array, -1 where absent."""
+    if len(names) == 0:
+        return np.full(len(query), -1, dtype=np.int64)
+    q = np.asarray(query, dtype=object).astype(str)
+    sorted_names = np.asarray(names, dtype=object).astype(str)
+    pos = np.searchsorted(sorted_names, q)
+    pos = np.minimum(pos, len(sorted_names) - 1)
+    hit = sorted_names[pos] == q
+    return np.where(hit, pos, -1).astype(np.int64)
+
+
+def read_prior(path: str | os.PathLike, net_a: Network, net_b: Network, *, kind: str = "similarity",
+               delimiter: str | None = None, header: str = "auto") -> PriorTable:
+    """Read a prior similarity table ``node_a, node_b, score`` and map it onto two networks.
+
+    Raises
+    ------
+    InputFormatError
+        A row is malformed or a score is non-numeric, NaN, infinite or negative; the message
+        names the file and line.
+    """
+    path = os.fspath(path)
+    raw = _read_raw(path, min_cols=3, max_cols=3, delimiter=delimiter, header=header, what="prior table")
+    values = _numeric(raw, 2, "score")
+    return prior_from_columns(raw.columns[0], raw.columns[1], values, net_a, net_b, kind=kind,
+                              source=path, line_of=lambda r: _line_of(raw, r))
+
+
+@dataclass(frozen=True)
+class PairTable:
+    """Two columns of node pairs (a truth table or an alignment), mapped onto two networks."""
+
+    pairs: np.ndarray
+    n_rows: int
+    n_unknown: int
+    unknown_examples: list[str]
+    source: str
+
+
+def read_pairs(path: str | os.PathLike, net_a: Network, net_b: Network, *, delimiter: str | None = None,
+               header: str = "auto", what: str = "pair table") -> PairTable:
+    """Read a table whose first two columns are node pairs (extra columns are ignored)."""
+    path = os.fspath(path)
+    raw = _read_raw(path, min_cols=2, max_cols=64, delimiter=delimiter, header=header, what=what)
+    a, b = raw.columns[0], raw.columns[1]
+    ia = _lookup(net_a.names, a)
+    ib = _lookup(net_b.names, b)
+    known = (ia >= 0) & (ib >= 0)
+    examples = [f"{a[r]} / {b[r]}" for r in np.flatnonzero(~known)[:3]]
+    pairs = np.stack([ia[known], ib[known]], axis=1).astype(np.int32) if known.any() else np.empty((0, 2), np.int32)
+    return PairTable(pairs=pairs, n_rows=len(a), n_unknown=int((~known).sum()), unknown_examples=examples,
+                     source=path)
+
+
+# --------------------------------------------------------------------------- writing
+
+def write_text_atomic(path: str | os.PathLike, text: str) -> None:
+    """Write ``text`` to a temporary file beside ``path`` and rename it into place when complete."""
+    path = Path(path)
+    fd, tmp = tempfile.mkstemp(prefix=f".{path.name}.", suffix=".part", dir=path.parent)
+    try:
+        with os.fdopen(fd, "w", encoding="utf-8", newline="\n") as fh:
+            fh.write(text)
+            fh.flush()
+            os.fsync(fh.fileno())
+        os.replace(tmp, path)
+    except BaseException:
+        try:
+            os.unlink(tmp)
+        except FileNotFoundError:
+            pass
+        raise
+
+
+def write_table_atomic(path: str | os.PathLike, df: pd.DataFrame) -> None:
+    """Write a DataFrame as TSV (header, no index, ``%.10g`` floats), atomically."""
+    buf = _io.StringIO()
+    df.to_csv(buf, sep="\t", index=False, float_format="%.10g", lineterminator="\n")
+    write_text_atomic(path, buf.getvalue())
+
+
+def write_json_atomic(path: str | os.PathLike, obj: object) -> None:
+    """Write ``obj`` as indented JSON, atomically. Non-finite floats become null."""
+    write_text_atomic(path, json.dumps(_finite(obj), indent=2, sort_keys=False) + "\n")
+
+
+def _finite(obj):
+    if isinstance(obj, float):
+        return obj if math.isfinite(obj) else None
+    if isinstance(obj, dict):
+        return {k: _finite(v) for k, v in obj.items()}
+    if isinstance(obj, (list, tuple)):
+        return [_finite(v) for v in obj]
+    if isinstance(obj, np.generic):
+        return _finite(obj.item())
+    return obj

@@ -1,0 +1,76 @@
+"""Human-readable views of a result: the summary table printed by the command line."""
+
+from __future__ import annotations
+
+from rich.table import Table
+
+__all__ = ["summary_table", "scores_table"]
+
+
+def _fmt(v) -> str:
+    if v is None:
+        return "—"
+    if isinstance(v, float):
+        return f"{v:.4f}"
+    if isinstance(v, int):
+        return f"{v:,}"
+    return str(v)
+
+
+def scores_table(scores: dict, title: str = "Scores") -> Table:
+    """A two-column table of the alignment scores."""
+    t = Table(title=title, show_header=True, header_style="bold")
+    t.add_column("measure")
+    t.add_column("value", justify="right")
+    labels = [
+        ("conserved_edges", "conserved edges"),
+        ("ec", "EC (edge correctness)"),
+        ("ics", "ICS (induced conserved structure)"),
+        ("s3", "S3 (symmetric substructure score)"),
+        ("lccs_nodes", "largest common connected subgraph: nodes"),
+        ("lccs_edges", "largest common connected subgraph: edges"),
+        ("nc", "NC (node correctness)"),
+        ("n_matched", "matched pairs"),
+    ]
+    for key, label in labels:
+        if key == "nc" and scores.get("nc") is None:
+            continue
+        t.add_row(label, _fmt(scores.get(key)))
+    return t
+
+
+def summary_table(summary: dict) -> Table:
+    """The run summary: sizes, solver figures and scores in one table."""
+    t = Table(title="aligner run", show_header=True, header_style="bold")
+    t.add_column("item")
+    t.add_column("value", justify="right")
+    ia, ib = summary["inputs"]["network_a"], summary["inputs"]["network_b"]
+    t.add_row("network A: nodes / edges", f"{ia['nodes']:,} / {ia['edges']:,}")
+    t.add_row("network B: nodes / edges", f"{ib['nodes']:,} / {ib['edges']:,}")
+    for tag, net in (("A", ia), ("B", ib)):
+        if net["self_loops_dropped"] or net["duplicate_edges_merged"]:
+            t.add_row(f"network {tag}: self-loops dropped / duplicates merged",
+                      f"{net['self_loops_dropped']:,} / {net['duplicate_edges_merged']:,}")
+    pr = summary["inputs"]["prior"]
+    t.add_row("prior rows / usable pairs", f"{pr['rows']:,} / {pr['pairs']:,}")
+    if pr["unknown_node_rows"]:
+        t.add_row("prior rows naming unknown nodes", f"{pr['unknown_node_rows']:,}")
+    s = summary["sizes"]
+    t.add_row("candidate pairs", f"{s['candidates']:,}")
+    t.add_row("coverage A / B", f"{s['coverage_a']:.1%} / {s['coverage_b']:.1%}")
+    t.add_row("product-graph edges", f"{s['product_edges']:,}")
+    sv = summary["solver"]
+    steps = sv.get("pushes", sv.get("iterations"))
+    t.add_row(f"{sv['solver']} solve: {'pushes' if 'pushes' in sv else 'iterations'} / edge touches",
+              f"{steps:,} / {sv['edge_touches']:,}")
+    t.add_row("residual (1-norm) / error bound", f"{sv['residual_l1']:.2e} / {sv['error_bound_l1']:.2e}")
+    sc = summary["scores"]
+    t.add_row("matched pairs", f"{sc['n_matched']:,}")
+    t.add_row("conserved edges", f"{sc['conserved_edges']:,}")
+    t.add_row("EC / ICS / S3", f"{sc['ec']:.4f} / {sc['ics']:.4f} / {sc['s3']:.4f}")
+    t.add_row("largest common connected subgraph", f"{sc['lccs_nodes']:,} nodes, {sc['lccs_edges']:,} edges")
+    if sc.get("nc") is not None:
+        t.add_row("NC (node correctness)", f"{sc['nc']:.4f}")
+    total = sum(v for v in summary["timings"].values())
+    t.add_row("time", f"{total:.2f} s")
+    return t
