@@ -178,7 +178,7 @@ def align(
     network_b,
     prior,
     *,
-    alpha: float = 0.8,
+    alpha: float = 0.9,
     top_k: int | None = 25,
     min_score: float = 0.0,
     score_kind: str = "similarity",

@@ -113,7 +113,7 @@ def align(
     outdir: Annotated[Path, typer.Option("--out", "-o", help="Output directory for alignment.tsv, "
                                          "conserved_edges.tsv and summary.json.")],
     alpha: Annotated[float, typer.Option(help="Weight of the wiring against the prior, in [0, 1); 0 returns "
-                                         "the prior's own best matching.")] = 0.8,
+                                         "the prior's own best matching.")] = 0.9,
     top_k: Annotated[int, typer.Option("--top-k", help="Candidates: each node's top-k prior pairs on each "
                                        "side (their union).")] = 25,
     min_score: Annotated[float, typer.Option("--min-score", help="Drop prior pairs scoring below this (after "
@@ -187,7 +187,7 @@ def demo(
         if not quiet:
             out.print(f"demo: aligning {d / 'network_a.tsv'} to {d / 'network_b.tsv'} with prior "
                       f"{d / 'prior.tsv'}", highlight=False, soft_wrap=True)
-        _run_align(d / "network_a.tsv", d / "network_b.tsv", d / "prior.tsv", target, alpha=0.8, top_k=25,
+        _run_align(d / "network_a.tsv", d / "network_b.tsv", d / "prior.tsv", target, alpha=0.9, top_k=25,
                    min_score=0.0, score_kind="similarity", solver="push", tol=1e-6, normalization="restricted",
                    rounding="auto", truth=d / "truth.tsv", delimiter=None, header="auto", force=force,
                    max_memory=None, quiet=quiet)

@@ -91,7 +91,7 @@ def diffuse(
     h: npt.NDArray[np.float64],
     scale: npt.NDArray[np.float64],
     *,
-    alpha: float = 0.8,
+    alpha: float = 0.9,
     tol: float = 1e-6,
     solver: str = "push",
     x0: npt.NDArray[np.float64] | None = None,

@@ -40,7 +40,7 @@ EVALUE_CAP = 310.0
 
 HEADER_WORDS = {
     "node", "node_a", "node_b", "node1", "node2", "source", "target", "src", "dst", "from", "to",
-    "u", "v", "a", "b", "id1", "id2", "protein1", "protein2", "weight", "score", "similarity",
+    "id1", "id2", "protein1", "protein2", "weight", "score", "similarity",
     "evalue", "e_value", "distance", "gene1", "gene2", "neuron1", "neuron2", "left", "right",
 }
 DELIMITERS = {"tab": "\t", "comma": ",", "semicolon": ";", "space": " ", "whitespace": None}
@@ -125,7 +125,8 @@ def _read_raw(path: str, *, min_cols: int, max_cols: int, delimiter: str | None,
     except (OSError, EOFError, gzip.BadGzipFile) as exc:
         raise InputFormatError(f"cannot be read: {exc}", path=path) from None
     if first is None:
-        raise InputFormatError(f"is empty: expected a {what} with {min_cols} to {max_cols} columns",
+        raise InputFormatError(f"is empty: expected a {what} with {min_cols}"
+                               f"{'' if min_cols == max_cols else f' to {max_cols}'} columns",
                                path=path)
     if delimiter is None:
         sep = _detect_delimiter(path, first[1])
@@ -145,9 +146,10 @@ def _read_raw(path: str, *, min_cols: int, max_cols: int, delimiter: str | None,
     ncols = len(fields)
     start_no, start_text = (second if has_header else first)
     ncols = len(_split(start_text, sep))
+    expect = f"{min_cols}" if min_cols == max_cols else f"{min_cols} to {max_cols}"
     if ncols < min_cols:
         raise InputFormatError(
-            f"has {ncols} column{'s' if ncols != 1 else ''}, expected {min_cols} to {max_cols} for a {what}"
+            f"has {ncols} column{'s' if ncols != 1 else ''}, expected {expect} for a {what}"
             + ("" if sep is not None else " (the delimiter was taken to be white space; give --delimiter)"),
             path=path, line=start_no)
     if ncols > max_cols:
@@ -180,10 +182,10 @@ def _read_raw(path: str, *, min_cols: int, max_cols: int, delimiter: str | None,
     for c in range(min_cols):
         bad |= cols[c] == ""
     if bad.any():
+        _raise_bad_row(path, sep, ncols, has_header, what)
         row = int(np.argmax(bad))
         no, text = _locate(path, has_header, row)
-        raise InputFormatError(f"has an empty field or too few columns (expected {ncols}); "
-                               f"check the delimiter: {text[:80]!r}", path=path, line=no)
+        raise InputFormatError(f"has an empty field: {text[:80]!r}", path=path, line=no)
     return _RawTable(cols, None, has_header, fields if has_header else None, path, start_no)
 
 
@@ -330,7 +332,7 @@ def prior_from_columns(
         what = "not a finite number" if not np.isfinite(values[row]) else "negative"
         need = {"similarity": "similarities must be >= 0 (use --score-kind distance for dissimilarities)",
                 "distance": "distances must be >= 0", "evalue": "E-values must be >= 0"}[kind]
-        raise InputFormatError(f"the score {values[row]!r} is {what}; {need}", path=source,
+        raise InputFormatError(f"the score {float(values[row])!r} is {what}; {need}", path=source,
                                line=None if line_of is None else line_of(row))
     scores, keep = transform_scores(values, kind)
     ia = _lookup(net_a.names, a)

@@ -1,0 +1,141 @@
+import networkx as nx
+import numpy as np
+import pandas as pd
+import pytest
+from scipy.optimize import linear_sum_assignment
+
+import aligner
+from aligner import AlignerWarning, InvalidParameterError, NoCandidatesError
+
+
+def _relabelled(n, seed, decoys=10, noise=0.0):
+    """B = a random relabelling of A (optionally with edges moved); prior = truth + random decoys."""
+    rng = np.random.default_rng(seed)
+    g = nx.powerlaw_cluster_graph(n, 3, 0.3, seed=seed)
+    perm = rng.permutation(n)
+    edges = np.array(g.edges())
+    if noise:
+        k = int(noise * len(edges))
+        drop = rng.choice(len(edges), k, replace=False)
+        edges = np.delete(edges, drop, axis=0)
+        extra = rng.integers(0, n, size=(k, 2))
+        edges = np.concatenate([edges, extra[extra[:, 0] != extra[:, 1]]])
+    a = pd.DataFrame({"u": [f"a{u}" for u, v in g.edges()], "v": [f"a{v}" for u, v in g.edges()]})
+    b = pd.DataFrame({"u": [f"b{perm[u]}" for u in edges[:, 0]], "v": [f"b{perm[v]}" for v in edges[:, 1]]})
+    rows = []
+    for i in range(n):
+        rows.append((f"a{i}", f"b{perm[i]}", rng.uniform(0.5, 1.0)))
+        for d in rng.choice(np.delete(np.arange(n), perm[i]), decoys, replace=False):
+            rows.append((f"a{i}", f"b{d}", rng.uniform(0.2, 0.9)))
+    prior = pd.DataFrame(rows, columns=["a", "b", "s"])
+    truth = pd.DataFrame({"a": [f"a{i}" for i in range(n)], "b": [f"b{perm[i]}" for i in range(n)]})
+    return a, b, prior, truth
+
+
+def test_noise_free_relabelled_copy_is_recovered_exactly():
+    # Common practice check: with no edge noise and the true pair among the candidates, the
+    # wiring singles out the identity, so NC = 1.
+    a, b, prior, truth = _relabelled(400, seed=1)
+    res = aligner.align(a, b, prior, truth=truth)
+    assert res.scores.nc == 1.0
+    assert res.scores.ec == 1.0
+    assert res.diffusion.residual <= 1e-6
+
+
+def test_alpha_zero_is_maximum_weight_matching_of_prior():
+    # Reference: scipy.optimize.linear_sum_assignment on the dense prior matrix.
+    a, b, prior, truth = _relabelled(150, seed=2)
+    res = aligner.align(a, b, prior, alpha=0.0, top_k=None)
+    na, nb = res.network_a, res.network_b
+    W = np.zeros((na.n, nb.n))
+    ia = pd.Index(na.names).get_indexer(prior["a"])
+    ib = pd.Index(nb.names).get_indexer(prior["b"])
+    W[ia, ib] = prior["s"]
+    r, c = linear_sum_assignment(W, maximize=True)
+    assert res.pairs["prior"].sum() == pytest.approx(W[r, c].sum(), rel=1e-12)
+
+
+def test_relabelling_nodes_permutes_alignment():
+    a, b, prior, truth = _relabelled(200, seed=3, noise=0.1)
+    res = aligner.align(a, b, prior, alpha=0.7)
+    rng = np.random.default_rng(9)
+    names_a = sorted(set(a.u) | set(a.v))
+    new = dict(zip(names_a, [f"x{k}" for k in rng.permutation(len(names_a))]))
+    a2 = a.replace({"u": new, "v": new})
+    prior2 = prior.assign(a=prior.a.map(new))
+    res2 = aligner.align(a2, b, prior2, alpha=0.7)
+    got = dict(zip(res.pairs.node_a.map(new), res.pairs.node_b))
+    got2 = dict(zip(res2.pairs.node_a, res2.pairs.node_b))
+    assert got == got2
+    assert res.scores.conserved_edges == res2.scores.conserved_edges
+
+
+def test_networkx_and_dataframe_and_file_inputs_agree(tmp_path):
+    a, b, prior, truth = _relabelled(120, seed=4, noise=0.05)
+    a.to_csv(tmp_path / "a.tsv", sep="\t", index=False, header=False)
+    b.to_csv(tmp_path / "b.csv", index=False)
+    prior.to_csv(tmp_path / "p.tsv", sep="\t", index=False, header=False)
+    r1 = aligner.align(a, b, prior)
+    r2 = aligner.align(tmp_path / "a.tsv", tmp_path / "b.csv", tmp_path / "p.tsv")
+    ga = nx.from_pandas_edgelist(a, "u", "v")
+    r3 = aligner.align(ga, b, prior)
+    for r in (r2, r3):
+        pd.testing.assert_frame_equal(r1.pairs.reset_index(drop=True), r.pairs.reset_index(drop=True))
+
+
+def test_inputs_unchanged():
+    a, b, prior, truth = _relabelled(80, seed=5)
+    copies = [x.copy() for x in (a, b, prior)]
+    aligner.align(a, b, prior)
+    for x, y in zip(copies, (a, b, prior)):
+        pd.testing.assert_frame_equal(x, y)
+
+
+def test_unknown_prior_rows_warn_and_swapped_columns_explained():
+    a, b, prior, truth = _relabelled(60, seed=6)
+    extra = pd.DataFrame({"a": ["nope"], "b": ["b1"], "s": [1.0]})
+    with pytest.warns(AlignerWarning, match="1 of .* prior rows name a node missing"):
+        res = aligner.align(a, b, pd.concat([prior, extra]))
+    assert res.summary["inputs"]["prior"]["unknown_node_rows"] == 1
+    swapped = prior[["b", "a", "s"]]
+    with pytest.warns(AlignerWarning), pytest.raises(NoCandidatesError, match="columns swapped"):
+        aligner.align(a, b, swapped)
+
+
+def test_min_score_leaving_nothing():
+    a, b, prior, truth = _relabelled(30, seed=7)
+    with pytest.raises(NoCandidatesError, match="minimum score"):
+        aligner.align(a, b, prior, min_score=5.0)
+
+
+@pytest.mark.parametrize("kw, pattern", [
+    ({"alpha": 1.0}, r"'alpha' parameter of align must be a real number in \[0, 1\)"),
+    ({"top_k": 0}, r"'top_k' parameter of align must be an integer >= 1"),
+    ({"tol": 0.0}, r"'tol' parameter of align must be a real number in \(0, inf\)"),
+    ({"solver": "magic"}, r"'solver' parameter of align must be one of 'push', 'power'"),
+    ({"score_kind": "pvalue"}, r"'score_kind' parameter of align must be one of"),
+])
+def test_parameters_checked(kw, pattern):
+    a, b, prior, truth = _relabelled(20, seed=8)
+    with pytest.raises(InvalidParameterError, match=pattern):
+        aligner.align(a, b, prior, **kw)
+
+
+def test_summary_keys_and_solver_agreement():
+    a, b, prior, truth = _relabelled(300, seed=10, noise=0.05)
+    r1 = aligner.align(a, b, prior, truth=truth, solver="push", tol=1e-9)
+    r2 = aligner.align(a, b, prior, truth=truth, solver="power", tol=1e-9)
+    for key in ("ec", "ics", "s3", "nc", "conserved_edges"):
+        assert key in r1.summary["scores"]
+    assert r1.summary["sizes"]["candidates"] == r1.candidates.m
+    assert r1.summary["sizes"]["product_edges"] == r1.product.n_edges
+    assert np.abs(r1.diffusion.x - r2.diffusion.x).sum() <= r1.diffusion.error_bound + r2.diffusion.error_bound
+    assert r1.scores.nc > 0.95
+
+
+def test_score_api_matches_align(tmp_path):
+    a, b, prior, truth = _relabelled(100, seed=11, noise=0.1)
+    res = aligner.align(a, b, prior, truth=truth)
+    sc, cons = aligner.score(a, b, res.pairs, truth=truth)
+    assert sc == res.scores
+    assert len(cons) == res.scores.conserved_edges
