@@ -12,16 +12,22 @@ import io as _io
 import json
 import math
 import os
+import re
 import tempfile
+import zlib
 from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Iterator
 
 import numpy as np
 import pandas as pd
+import pyarrow as pa
+import pyarrow.compute as pac
+import pyarrow.csv as pacsv
 
-from .exceptions import InputFormatError
-from .network import Network, network_from_edges
+from ._validation import check_choice
+from .exceptions import InputFormatError, InvalidParameterError
+from .network import Network, merge_duplicate_pairs, network_from_edges
 
 __all__ = [
     "read_network",
@@ -60,9 +66,9 @@ def _check_readable(path: str) -> None:
     if not p.exists():
         raise InputFormatError("no such file; check the path", path=path)
     if p.is_dir():
-        raise InputFormatError("is a directory, not a file", path=path)
+        raise InputFormatError("is a directory, not a file; give the path of a file", path=path)
     if not os.access(p, os.R_OK):
-        raise InputFormatError("the file cannot be read (permission denied)", path=path)
+        raise InputFormatError("the file cannot be read (permission denied); check its permissions", path=path)
 
 
 def _data_lines(path: str) -> Iterator[tuple[int, str]]:
@@ -86,8 +92,15 @@ def _detect_delimiter(path: str, first: str) -> str | None:
 
 def _split(line: str, sep: str | None) -> list[str]:
     if sep is None:
-        return line.split()
-    return next(csv.reader([line], delimiter=sep))
+        # runs of spaces and tabs only, as pandas' sep=r"\s+" (str.split would also split at
+        # other Unicode white space, which pandas keeps inside a field)
+        return re.split(r"[ \t]+", line.strip(" \t"))
+    try:
+        return next(csv.reader([line], delimiter=sep))
+    except csv.Error:
+        if '"' not in line:  # e.g. a field over csv.field_size_limit(); csv would split as str.split
+            return line.split(sep)
+        raise
 
 
 def _is_number(text: str) -> bool:
@@ -113,8 +126,32 @@ def _read_raw(path: str, *, min_cols: int, max_cols: int, delimiter: str | None,
     """Read a delimited table of strings with ``min_cols``..``max_cols`` columns.
 
     Fast path: pandas' C reader. The file is scanned line by line only to locate an error.
+    Any failure to read or decode the file becomes an InputFormatError naming it.
     """
+    try:
+        return _read_raw_unchecked(path, min_cols=min_cols, max_cols=max_cols, delimiter=delimiter,
+                                   header=header, what=what)
+    except UnicodeDecodeError as exc:
+        raise InputFormatError(f"is not UTF-8 text ({exc.reason} at byte {exc.start}); save it as UTF-8",
+                               path=path) from None
+    except (OSError, EOFError, zlib.error) as exc:  # gzip.BadGzipFile is an OSError
+        raise InputFormatError(f"cannot be read ({exc}); check that the file is complete and not "
+                               "damaged", path=path) from None
+    except csv.Error as exc:
+        raise InputFormatError(f"cannot be parsed ({exc}); check the quoting and the delimiter (give "
+                               "--delimiter)", path=path) from None
+
+
+def _read_raw_unchecked(path: str, *, min_cols: int, max_cols: int, delimiter: str | None, header: str,
+                        what: str) -> _RawTable:
+    check_choice(header, "header", "the file readers", ("auto", "yes", "no"))
+    if delimiter is not None and delimiter not in DELIMITERS and (
+            not isinstance(delimiter, str) or len(delimiter) != 1 or delimiter in '"#\r\n'):
+        raise InvalidParameterError(
+            "The 'delimiter' parameter of the file readers must be tab, comma, semicolon, space, whitespace "
+            f"or one character other than a quote, '#' or a line break. Got {delimiter!r} instead.")
     _check_readable(path)
+    a_what = f"{'an' if what[:1] in 'aeiou' else 'a'} {what}"
     try:
         lines = _data_lines(path)
         first = next(lines, None)
@@ -123,11 +160,12 @@ def _read_raw(path: str, *, min_cols: int, max_cols: int, delimiter: str | None,
         raise InputFormatError(f"is not UTF-8 text ({exc.reason} at byte {exc.start}); "
                                "save it as UTF-8", path=path) from None
     except (OSError, EOFError, gzip.BadGzipFile) as exc:
-        raise InputFormatError(f"cannot be read: {exc}", path=path) from None
+        raise InputFormatError(f"cannot be read ({exc}); check that the file is complete and not damaged",
+                               path=path) from None
     if first is None:
-        raise InputFormatError(f"is empty: expected a {what} with {min_cols}"
-                               f"{'' if min_cols == max_cols else f' to {max_cols}'} columns",
-                               path=path)
+        raise InputFormatError(f"is empty: expected {a_what} with {min_cols}"
+                               f"{'' if min_cols == max_cols else f' to {max_cols}'} columns "
+                               "(blank lines and lines starting with # are skipped)", path=path)
     if delimiter is None:
         sep = _detect_delimiter(path, first[1])
     else:
@@ -141,7 +179,7 @@ def _read_raw(path: str, *, min_cols: int, max_cols: int, delimiter: str | None,
     else:
         has_header = header == "yes"
     if has_header and second is None:
-        raise InputFormatError(f"has a header line but no data rows: expected a {what}", path=path,
+        raise InputFormatError(f"has a header line but no data rows: expected {a_what} below it", path=path,
                                line=first[0])
     ncols = len(fields)
     start_no, start_text = (second if has_header else first)
@@ -149,12 +187,15 @@ def _read_raw(path: str, *, min_cols: int, max_cols: int, delimiter: str | None,
     expect = f"{min_cols}" if min_cols == max_cols else f"{min_cols} to {max_cols}"
     if ncols < min_cols:
         raise InputFormatError(
-            f"has {ncols} column{'s' if ncols != 1 else ''}, expected {expect} for a {what}"
+            f"has {ncols} column{'s' if ncols != 1 else ''}, expected {expect} for {a_what}"
             + ("" if sep is not None else " (the delimiter was taken to be white space; give --delimiter)"),
             path=path, line=start_no)
     if ncols > max_cols:
-        raise InputFormatError(f"has {ncols} columns, expected at most {max_cols} for a {what}; "
+        raise InputFormatError(f"has {ncols} columns, expected at most {max_cols} for {a_what}; "
                                "remove the extra columns", path=path, line=start_no)
+    cols = _read_arrow(path, sep, ncols, first[0] - 1 + (1 if has_header else 0))
+    if cols is not None:
+        return _RawTable(cols, None, has_header, fields if has_header else None, path, start_no)
     try:
         df = pd.read_csv(
             path,
@@ -185,8 +226,57 @@ def _read_raw(path: str, *, min_cols: int, max_cols: int, delimiter: str | None,
         _raise_bad_row(path, sep, ncols, has_header, what)
         row = int(np.argmax(bad))
         no, text = _locate(path, has_header, row)
-        raise InputFormatError(f"has an empty field: {text[:80]!r}", path=path, line=no)
+        raise InputFormatError(f"has an empty field: {text[:80]!r}; fill it in or remove the row", path=path,
+                               line=no)
     return _RawTable(cols, None, has_header, fields if has_header else None, path, start_no)
+
+
+def _read_arrow(path: str, sep: str | None, ncols: int, skip: int) -> list | None:
+    """Fast path: pyarrow's multi-threaded CSV reader, for a single-character delimiter.
+
+    ``skip`` lines (leading comments, blank lines, the header) are skipped. Returns the
+    columns (strings as pyarrow arrays; a third column as float64 when every value parses), or
+    None when the file needs the careful reader: white-space delimited, a comment or a short
+    row further down, a value that does not parse. The careful reader then finds and names
+    the line at fault, so this path never has to.
+    """
+    if sep is None:
+        return None
+    names = [f"c{k}" for k in range(ncols)]
+    types = {n: pa.string() for n in names[:2]}
+    try:
+        source = pa.input_stream(path, compression="gzip" if _is_gzip(path) else None)
+        try:
+            table = pacsv.read_csv(
+                source,
+                read_options=pacsv.ReadOptions(column_names=names, skip_rows=skip, encoding="utf8"),
+                parse_options=pacsv.ParseOptions(delimiter=sep, newlines_in_values=False),
+                convert_options=pacsv.ConvertOptions(column_types=types, null_values=[],
+                                                     strings_can_be_null=False, quoted_strings_can_be_null=False),
+            )
+        finally:
+            source.close()
+    except (pa.ArrowException, OSError, ValueError):
+        return None
+    cols = []
+    for k, name in enumerate(names):
+        col = table.column(name)
+        col = col.combine_chunks() if isinstance(col, pa.ChunkedArray) else col
+        if k < 2:
+            if len(col) and (pac.any(pac.starts_with(col, "#")).as_py()
+                             or pac.any(pac.equal(pac.utf8_length(col), 0)).as_py()):
+                return None  # a comment line or an empty field: the careful reader handles it
+            if k == 0 and len(col) and col[0].as_py().startswith("\ufeff"):
+                return None  # a byte-order mark pyarrow kept
+            cols.append(col)
+        else:
+            values = None
+            if pa.types.is_floating(col.type) or pa.types.is_integer(col.type):
+                values = col.to_numpy(zero_copy_only=False).astype(np.float64)
+            # a column that is not all finite numbers stays as text for the careful checks
+            cols.append(values if values is not None and np.isfinite(values).all()
+                        else col.cast(pa.string()).to_numpy(zero_copy_only=False))
+    return cols
 
 
 def _is_gzip(path: str) -> bool:
@@ -216,13 +306,15 @@ def _raise_bad_row(path: str, sep: str | None, ncols: int, has_header: bool, wha
 
 def _numeric(raw: _RawTable, col: int, label: str) -> np.ndarray:
     """Column ``col`` as float64; a non-numeric or non-finite entry is an error naming its line."""
+    if isinstance(raw.columns[col], np.ndarray) and raw.columns[col].dtype == np.float64:
+        return raw.columns[col]  # parsed and checked finite by the fast reader
     values = pd.to_numeric(pd.Series(raw.columns[col]), errors="coerce").to_numpy(dtype=np.float64)
     bad = ~np.isfinite(values)
     if bad.any():
         row = int(np.argmax(bad))
         no, _ = _locate(raw.path, raw.has_header, row)
-        raise InputFormatError(f"the {label} {raw.columns[col][row]!r} is not a finite number",
-                               path=raw.path, line=no)
+        raise InputFormatError(f"the {label} {raw.columns[col][row]!r} is not a finite number; the column "
+                               "must hold numbers such as 0.5 or 1e-3", path=raw.path, line=no)
     return values
 
 
@@ -270,9 +362,9 @@ def read_network(path: str | os.PathLike, *, delimiter: str | None = None, heade
                                    path=path, line=_line_of(raw, row))
     a = raw.columns[0]
     b = raw.columns[1]
-    codes, names = pd.factorize(np.concatenate([a, b]), sort=True)
+    names, codes = _intern(a, b)
     m = len(a)
-    return network_from_edges(np.asarray(names, dtype=object), codes[:m], codes[m:], weights, source=path)
+    return network_from_edges(names, codes[:m], codes[m:], weights, source=path)
 
 
 # --------------------------------------------------------------------------- priors
@@ -339,36 +431,50 @@ def prior_from_columns(
     ib = _lookup(net_b.names, b)
     known = (ia >= 0) & (ib >= 0)
     n_unknown = int((~known).sum())
-    examples = [f"{a[r]} / {b[r]}" for r in np.flatnonzero(~known)[:3]]
+    examples = [f"{_at(a, r)} / {_at(b, r)}" for r in np.flatnonzero(~known)[:3]]
     ok = known & keep
     pairs = np.stack([ia[ok], ib[ok]], axis=1).astype(np.int32) if ok.any() else np.empty((0, 2), np.int32)
     sc = scores[ok]
     # duplicate pairs: the highest similarity wins
-    n_dup = 0
-    if len(pairs):
-        key = pairs[:, 0].astype(np.int64) * net_b.n + pairs[:, 1]
-        order = np.lexsort((-sc, key))
-        key_s = key[order]
-        first = np.ones(len(key_s), dtype=bool)
-        first[1:] = key_s[1:] != key_s[:-1]
-        n_dup = int(len(key_s) - first.sum())
-        sel = order[first]
-        pairs, sc = pairs[sel], sc[sel]
+    pairs, sc, n_dup = merge_duplicate_pairs(pairs, sc, net_b.n)
+    pairs = pairs.astype(np.int32)
     return PriorTable(pairs=pairs, scores=sc, n_rows=len(values), n_unknown=n_unknown,
                       unknown_examples=examples, n_dropped_kind=int((known & ~keep).sum()),
                       n_duplicates=n_dup, source=source)
 
 
-def _lookup(names: np.ndarray, query: np.ndarray) -> np.ndarray:
-    """Index of each query identifier in the sorted ``names`` array, -1 where absent."""
+def _arrow_strings(values) -> pa.Array:
+    if isinstance(values, pa.ChunkedArray):
+        return values.combine_chunks()
+    if isinstance(values, pa.Array):
+        return values
+    return pa.array(np.asarray(values, dtype=object), type=pa.string())
+
+
+def _intern(a, b) -> tuple[np.ndarray, np.ndarray]:
+    """Sorted unique identifiers of two columns and the index of every entry among them.
+
+    Identifiers sort by code point (UTF-8 byte order), the same order as Python's ``sorted``.
+    """
+    both = pa.concat_arrays([_arrow_strings(a), _arrow_strings(b)])
+    uniq = pac.unique(both)
+    uniq = uniq.take(pac.array_sort_indices(uniq))
+    codes = pac.index_in(both, value_set=uniq).to_numpy(zero_copy_only=False)
+    return uniq.to_numpy(zero_copy_only=False).astype(object), codes.astype(np.int64)
+
+
+def _at(values, row: int) -> str:
+    """Entry ``row`` of a string column (numpy or pyarrow) as a Python string."""
+    v = values[int(row)]
+    return v.as_py() if isinstance(v, pa.Scalar) else str(v)
+
+
+def _lookup(names: np.ndarray, query) -> np.ndarray:
+    """Index of each query identifier in the ``names`` array, -1 where absent (a hash look-up)."""
     if len(names) == 0:
         return np.full(len(query), -1, dtype=np.int64)
-    q = np.asarray(query, dtype=object).astype(str)
-    sorted_names = np.asarray(names, dtype=object).astype(str)
-    pos = np.searchsorted(sorted_names, q)
-    pos = np.minimum(pos, len(sorted_names) - 1)
-    hit = sorted_names[pos] == q
-    return np.where(hit, pos, -1).astype(np.int64)
+    idx = pac.index_in(_arrow_strings(query), value_set=_arrow_strings(names))
+    return pac.fill_null(idx, -1).to_numpy(zero_copy_only=False).astype(np.int64)
 
 
 def read_prior(path: str | os.PathLike, net_a: Network, net_b: Network, *, kind: str = "similarity",
@@ -408,7 +514,7 @@ def read_pairs(path: str | os.PathLike, net_a: Network, net_b: Network, *, delim
     ia = _lookup(net_a.names, a)
     ib = _lookup(net_b.names, b)
     known = (ia >= 0) & (ib >= 0)
-    examples = [f"{a[r]} / {b[r]}" for r in np.flatnonzero(~known)[:3]]
+    examples = [f"{_at(a, r)} / {_at(b, r)}" for r in np.flatnonzero(~known)[:3]]
     pairs = np.stack([ia[known], ib[known]], axis=1).astype(np.int32) if known.any() else np.empty((0, 2), np.int32)
     return PairTable(pairs=pairs, n_rows=len(a), n_unknown=int((~known).sum()), unknown_examples=examples,
                      source=path)

@@ -127,3 +127,25 @@ def adjacency(edges: npt.NDArray[np.integer], n: int) -> tuple[npt.NDArray[np.in
     indptr = np.zeros(n + 1, dtype=np.int64)
     np.cumsum(counts, out=indptr[1:])
     return indptr, dst[order].astype(INDEX)
+
+
+def merge_duplicate_pairs(
+    pairs: npt.NDArray[np.integer], scores: npt.NDArray[np.float64], n2: int
+) -> tuple[npt.NDArray[np.int64], npt.NDArray[np.float64], int]:
+    """Unique (node of A, node of B) pairs sorted by (i, i'), each with its highest score.
+
+    Returns the pairs, their scores and the number of duplicate rows merged. One sort.
+    """
+    pairs = np.asarray(pairs, dtype=np.int64).reshape(-1, 2)
+    scores = np.asarray(scores, dtype=np.float64).reshape(-1)
+    if len(pairs) == 0:
+        return pairs, scores, 0
+    key = pairs[:, 0] * n2 + pairs[:, 1]
+    order = np.argsort(key)
+    ks = key[order]
+    first = np.ones(len(ks), dtype=bool)
+    first[1:] = ks[1:] != ks[:-1]
+    starts = np.flatnonzero(first)
+    best = np.maximum.reduceat(scores[order], starts)
+    ks = ks[starts]
+    return np.stack([ks // n2, ks % n2], axis=1), best, int(len(key) - len(starts))
