@@ -27,6 +27,8 @@ from .scoring import Scores, conserved_per_node, score_matching
 __all__ = ["align", "score", "AlignmentResult", "as_network", "OUTPUT_FILES", "check_outdir", "write_outputs"]
 
 SCORE_KINDS = ("similarity", "evalue", "distance")
+#: the stages of a run, in order, as named to the ``progress`` callback of :func:`align`
+STAGES = ("read", "candidates", "product", "diffusion", "rounding", "scoring", "writing")
 OUTPUT_FILES = ("alignment.tsv", "conserved_edges.tsv", "summary.json")
 #: bytes per stored product-graph entry while building and solving (index + share of pointers,
 #: queue and float work arrays), used by the memory check

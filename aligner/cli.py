@@ -16,7 +16,7 @@ from rich.console import Console
 from . import __version__
 from .api import align as _align
 from .api import score as _score
-from .api import check_outdir, write_outputs
+from .api import STAGES, check_outdir, write_outputs
 from .exceptions import AlignerError, AlignerWarning
 from .report import scores_table, summary_table
 
@@ -78,12 +78,24 @@ def _flush(caught, quiet: bool):
 
 @contextmanager
 def _progress(quiet: bool):
-    """A status line naming the running stage, on a terminal only."""
+    """A progress bar over the pipeline's stages, naming the running one; on a terminal only."""
     if quiet or not err.is_terminal:
         yield lambda stage: None
         return
-    with err.status("starting") as status:
-        yield lambda stage: status.update(f"[bold]{stage}[/] …")
+    from rich.progress import BarColumn, MofNCompleteColumn, Progress, SpinnerColumn, TextColumn, TimeElapsedColumn
+
+    with Progress(SpinnerColumn(), TextColumn("[bold]{task.description:<12}"), BarColumn(), MofNCompleteColumn(),
+                  TimeElapsedColumn(), console=err, transient=True) as bar:
+        task = bar.add_task("starting", total=len(STAGES))
+        seen: list[str] = []
+
+        def say(stage: str) -> None:
+            if seen:
+                bar.advance(task)
+            seen.append(stage)
+            bar.update(task, description=stage)
+
+        yield say
 
 
 def _run_align(a, b, prior, outdir, *, alpha, top_k, min_score, score_kind, solver, tol, normalization,
