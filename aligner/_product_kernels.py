@@ -5,49 +5,69 @@ import numpy as np
 
 
 @numba.njit(cache=True, nogil=True)
-def _contains(indices, lo, hi, value):
-    """Binary search for ``value`` in the sorted slice ``indices[lo:hi]``."""
-    while lo < hi:
-        mid = (lo + hi) >> 1
-        v = indices[mid]
-        if v < value:
-            lo = mid + 1
-        elif v > value:
-            hi = mid
-        else:
-            return True
-    return False
-
-
-@numba.njit(cache=True, nogil=True)
-def _product_pass(a_indptr, a_indices, b_indptr, b_indices, c_indptr, c_b, pair_a, pair_b, out_indptr,
-                  out_indices, fill):
+def _product_pass(a_indptr, a_indices, b_indptr, b_indices, c_indptr, c_b, n2, out_indptr, out_indices, fill):
     """Count (``fill`` False) or write (``fill`` True) the product-graph neighbours of every pair.
 
-    Pair k = (i, i') and pair l = (j, j') are adjacent when j is a neighbour of i in A and j'
-    a neighbour of i' in B. For each neighbour j of i, the candidates of j are scanned and
-    j' is looked up in the sorted neighbour list of i' by binary search.
+    Pair k = (i, i') and pair u = (j, j') are adjacent when j is a neighbour of i in A and j'
+    a neighbour of i' in B. Node i of A is handled at once for all its candidates: every
+    neighbour b of every candidate partner i' is entered in a table keyed by b (``head`` /
+    ``nxt`` chains over n2 slots, cleared after each i), then the candidates u = (j, j') of
+    the neighbours j of i look up j' in it. Work per i: sum of deg_B(i') over its candidates,
+    plus the candidates of its neighbours, plus the output. Since candidates are sorted by
+    (i, i'), each pair's neighbour list comes out sorted.
     """
-    m = pair_a.shape[0]
+    n1 = c_indptr.shape[0] - 1
+    head = np.full(n2, -1, dtype=np.int64)
+    cap = 16
+    ent_k = np.empty(cap, dtype=np.int64)
+    nxt = np.empty(cap, dtype=np.int64)
+    cursor = np.zeros(0, dtype=np.int64)
+    if fill:
+        cursor = out_indptr[:-1].copy()
     total = 0
-    for k in range(m):
-        i = pair_a[k]
-        ip = pair_b[k]
-        blo = b_indptr[ip]
-        bhi = b_indptr[ip + 1]
-        pos = out_indptr[k] if fill else 0
-        cnt = 0
-        if bhi > blo:
-            for s in range(a_indptr[i], a_indptr[i + 1]):
-                j = a_indices[s]
-                for u in range(c_indptr[j], c_indptr[j + 1]):
-                    if _contains(b_indices, blo, bhi, c_b[u]):
-                        if fill:
-                            out_indices[pos + cnt] = u
-                        cnt += 1
-        if not fill:
-            out_indptr[k + 1] = cnt
-        total += cnt
+    for i in range(n1):
+        k0 = c_indptr[i]
+        k1 = c_indptr[i + 1]
+        if k1 == k0 or a_indptr[i + 1] == a_indptr[i]:
+            continue
+        # table: neighbour b of a candidate partner i' -> the candidate index k of (i, i')
+        ne = 0
+        for k in range(k0, k1):
+            ip = c_b[k]
+            for t in range(b_indptr[ip], b_indptr[ip + 1]):
+                if ne == cap:
+                    cap *= 2
+                    ent_k2 = np.empty(cap, dtype=np.int64)
+                    nxt2 = np.empty(cap, dtype=np.int64)
+                    ent_k2[:ne] = ent_k[:ne]
+                    nxt2[:ne] = nxt[:ne]
+                    ent_k = ent_k2
+                    nxt = nxt2
+                b = b_indices[t]
+                ent_k[ne] = k
+                nxt[ne] = head[b]
+                head[b] = ne
+                ne += 1
+        if ne == 0:
+            continue
+        for s in range(a_indptr[i], a_indptr[i + 1]):
+            j = a_indices[s]
+            for u in range(c_indptr[j], c_indptr[j + 1]):
+                e = head[c_b[u]]
+                while e != -1:
+                    k = ent_k[e]
+                    if fill:
+                        out_indices[cursor[k]] = u
+                        cursor[k] += 1
+                    else:
+                        out_indptr[k + 1] += 1
+                    total += 1
+                    e = nxt[e]
+        # clear the table
+        for k in range(k0, k1):
+            ip = c_b[k]
+            for t in range(b_indptr[ip], b_indptr[ip + 1]):
+                head[b_indices[t]] = -1
     return total
 
 

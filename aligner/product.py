@@ -67,10 +67,12 @@ def build_product(
     Notes
     -----
     Pairs (i, i') and (j, j') of L are adjacent when (i, j) is an edge of A and (i', j') an
-    edge of B: the tensor (Kronecker) product graph restricted to L. Two passes over L (count,
-    then fill). Work: sum over pairs (i, i') of sum over neighbours j of i of c_j log deg_B(i'),
-    with c_j the number of candidates of j; memory O(m + product edges). No n1 x n2 or m x m
-    dense object is formed.
+    edge of B: the tensor (Kronecker) product graph restricted to L. Two passes over the nodes
+    of A (count, then fill). For node i, the neighbours of its candidate partners are entered
+    in a table keyed by node of B, and the candidates (j, j') of its neighbours j look up j'
+    there. Work: sum over i of (sum of deg_B(i') over its candidates + sum of c_j over its
+    neighbours j) plus the output, with c_j the number of candidates of j; memory O(n2 + m +
+    product edges). No n1 x n2 or m x m dense object is formed.
 
     Examples
     --------
@@ -84,18 +86,15 @@ def build_product(
     2
     """
     m = cand.m
-    pair_a = np.ascontiguousarray(cand.pairs[:, 0])
     pair_b = np.ascontiguousarray(cand.pairs[:, 1])
     indptr = np.zeros(m + 1, dtype=np.int64)
     dummy = np.empty(0, dtype=np.int32)
     if m == 0:
         return ProductGraph(indptr=indptr, indices=dummy)
-    _product_pass(a_indptr, a_indices, b_indptr, b_indices, cand.a_indptr, pair_b, pair_a, pair_b, indptr,
-                  dummy, False)
+    _product_pass(a_indptr, a_indices, b_indptr, b_indices, cand.a_indptr, pair_b, cand.n2, indptr, dummy, False)
     np.cumsum(indptr, out=indptr)
     indices = np.empty(int(indptr[-1]), dtype=np.int32)
-    _product_pass(a_indptr, a_indices, b_indptr, b_indices, cand.a_indptr, pair_b, pair_a, pair_b, indptr,
-                  indices, True)
+    _product_pass(a_indptr, a_indices, b_indptr, b_indices, cand.a_indptr, pair_b, cand.n2, indptr, indices, True)
     return ProductGraph(indptr=indptr, indices=indices)
 
 
