@@ -71,11 +71,17 @@ def _check_readable(path: str) -> None:
         raise InputFormatError("the file cannot be read (permission denied); check its permissions", path=path)
 
 
-def _data_lines(path: str) -> Iterator[tuple[int, str]]:
-    """Yield (line number, text) of the non-blank, non-comment lines."""
+def _data_lines(path: str, sep: str | None = None) -> Iterator[tuple[int, str]]:
+    """Yield (line number, text) of the non-blank, non-comment lines.
+
+    Blank as pandas' C reader sees it: only spaces and tabs (only spaces in a tab-delimited
+    file, where a tab separates empty fields); other white space such as a form feed or a
+    no-break space is data. A comment line starts with '#' after such blanks.
+    """
+    blank = " " if sep == "\t" else " \t"
     for no, line in enumerate(_open_text(path), 1):
         text = line.rstrip("\r\n")
-        stripped = text.strip()
+        stripped = text.lstrip(blank)
         if stripped and not stripped.startswith("#"):
             yield no, text
 
@@ -119,6 +125,7 @@ class _RawTable:
     header: list[str] | None
     path: str
     first_line: int  # file line number of the first data row
+    sep: str | None = None  # the delimiter (None: runs of white space)
 
 
 def _read_raw(path: str, *, min_cols: int, max_cols: int, delimiter: str | None, header: str,
@@ -193,42 +200,73 @@ def _read_raw_unchecked(path: str, *, min_cols: int, max_cols: int, delimiter: s
     if ncols > max_cols:
         raise InputFormatError(f"has {ncols} columns, expected at most {max_cols} for {a_what}; "
                                "remove the extra columns", path=path, line=start_no)
-    cols = _read_arrow(path, sep, ncols, first[0] - 1 + (1 if has_header else 0))
+    # both readers skip every line before the first data row (comments, blanks, the header)
+    cols = _read_arrow(path, sep, ncols, start_no - 1)
     if cols is not None:
-        return _RawTable(cols, None, has_header, fields if has_header else None, path, start_no)
+        return _RawTable(cols, None, has_header, fields if has_header else None, path, start_no, sep)
+    # pandas' comment="#" would also cut a line at a '#' inside it ("gene#1"); only whole-line
+    # comments are comments, so when a '#' appears anywhere the comment lines are skipped by number
+    skip = list(range(start_no - 1))
+    if _contains_hash(path):
+        skip += [no - 1 for no in _comment_lines(path, sep) if no > start_no]
     try:
         df = pd.read_csv(
             path,
             sep=r"\s+" if sep is None else sep,
             header=None,
             names=list(range(ncols)),
-            skiprows=[first[0] - 1] if has_header else None,
-            comment="#",
+            skiprows=skip,
+            comment=None,
             dtype=str,
             keep_default_na=False,
             skip_blank_lines=True,
             encoding="utf-8-sig",
-            compression="infer" if not _is_gzip(path) else "gzip",
+            compression="gzip" if _is_gzip(path) else None,  # by content, as _open_text
             engine="c",
             on_bad_lines="error",
         )
     except pd.errors.ParserError as exc:
-        _raise_bad_row(path, sep, ncols, has_header, what)
-        raise InputFormatError(f"cannot be parsed: {exc}", path=path) from None
+        _raise_bad_row(path, sep, ncols, start_no, what)
+        raise InputFormatError(f"cannot be parsed ({exc}); check the quoting and the delimiter",
+                               path=path) from None
     except UnicodeDecodeError as exc:
         raise InputFormatError(f"is not UTF-8 text ({exc.reason}); save it as UTF-8", path=path) from None
     cols = [df[c].to_numpy(dtype=object) for c in range(ncols)]
+    if any(df[c].str.contains("[\r\n]", regex=True).any() for c in range(ncols)):
+        # a quoted field running over a line break: one record per line is the format
+        no, text = next(((no, t) for no, t in _data_lines(path, sep) if no >= start_no and t.count('"') % 2),
+                        (None, ""))
+        raise InputFormatError(f"has a quote that is not closed on its line: {text[:80]!r}; close it or "
+                               "remove the quote", path=path, line=no)
     # A short row shows up as empty strings in its last columns.
     bad = np.zeros(len(df), dtype=bool)
     for c in range(min_cols):
         bad |= cols[c] == ""
     if bad.any():
-        _raise_bad_row(path, sep, ncols, has_header, what)
+        _raise_bad_row(path, sep, ncols, start_no, what)
         row = int(np.argmax(bad))
-        no, text = _locate(path, has_header, row)
+        no, text = _locate(path, start_no, row, sep)
         raise InputFormatError(f"has an empty field: {text[:80]!r}; fill it in or remove the row", path=path,
                                line=no)
-    return _RawTable(cols, None, has_header, fields if has_header else None, path, start_no)
+    return _RawTable(cols, None, has_header, fields if has_header else None, path, start_no, sep)
+
+
+def _contains_hash(path: str) -> bool:
+    """Whether a '#' occurs anywhere in the (decompressed) file; a fast byte scan."""
+    opener = gzip.open if _is_gzip(path) else open
+    with opener(path, "rb") as fh:
+        while chunk := fh.read(1 << 20):
+            if b"#" in chunk:
+                return True
+    return False
+
+
+def _comment_lines(path: str, sep: str | None) -> Iterator[int]:
+    """Line numbers of the comment lines (see :func:`_data_lines`)."""
+    blank = " " if sep == "\t" else " \t"
+    for no, line in enumerate(_open_text(path), 1):
+        if line.lstrip(blank).startswith("#"):
+            yield no
 
 
 def _read_arrow(path: str, sep: str | None, ncols: int, skip: int) -> list | None:
@@ -263,14 +301,17 @@ def _read_arrow(path: str, sep: str | None, ncols: int, skip: int) -> list | Non
         col = table.column(name)
         col = col.combine_chunks() if isinstance(col, pa.ChunkedArray) else col
         if k < 2:
-            if len(col) and (pac.any(pac.starts_with(col, "#")).as_py()
-                             or pac.any(pac.equal(pac.utf8_length(col), 0)).as_py()):
-                return None  # a comment line or an empty field: the careful reader handles it
+            if len(col) and (pac.any(pac.starts_with(pac.utf8_ltrim(col, characters=" \t"), "#")).as_py()
+                             or pac.any(pac.equal(pac.utf8_length(col), 0)).as_py()
+                             or pac.any(pac.match_substring_regex(col, "[\r\n]")).as_py()):
+                return None  # a comment line, an empty field, a quoted line break: the careful reader
             if k == 0 and len(col) and col[0].as_py().startswith("\ufeff"):
                 return None  # a byte-order mark pyarrow kept
             cols.append(col)
         else:
             values = None
+            if pa.types.is_string(col.type) and len(col) and pac.any(pac.match_substring_regex(col, "[\r\n]")).as_py():
+                return None  # a quoted line break
             if pa.types.is_floating(col.type) or pa.types.is_integer(col.type):
                 values = col.to_numpy(zero_copy_only=False).astype(np.float64)
             # a column that is not all finite numbers stays as text for the careful checks
@@ -284,18 +325,21 @@ def _is_gzip(path: str) -> bool:
         return fh.read(2) == b"\x1f\x8b"
 
 
-def _locate(path: str, has_header: bool, row: int) -> tuple[int, str]:
-    """The file line number and text of data row ``row`` (0-based, after the header)."""
-    skip = 1 if has_header else 0
-    for k, (no, text) in enumerate(_data_lines(path)):
-        if k == row + skip:
+def _locate(path: str, start: int, row: int, sep: str | None) -> tuple[int | None, str]:
+    """The file line number and text of data row ``row`` (0-based, from line ``start`` on)."""
+    k = 0
+    for no, text in _data_lines(path, sep):
+        if no < start:
+            continue
+        if k == row:
             return no, text
-    return -1, ""
+        k += 1
+    return None, ""
 
 
-def _raise_bad_row(path: str, sep: str | None, ncols: int, has_header: bool, what: str) -> None:
-    for k, (no, text) in enumerate(_data_lines(path)):
-        if has_header and k == 0:
+def _raise_bad_row(path: str, sep: str | None, ncols: int, start: int, what: str) -> None:
+    for no, text in _data_lines(path, sep):
+        if no < start:
             continue
         got = len(_split(text, sep))
         if got != ncols:
@@ -312,14 +356,14 @@ def _numeric(raw: _RawTable, col: int, label: str) -> np.ndarray:
     bad = ~np.isfinite(values)
     if bad.any():
         row = int(np.argmax(bad))
-        no, _ = _locate(raw.path, raw.has_header, row)
+        no, _ = _locate(raw.path, raw.first_line, row, raw.sep)
         raise InputFormatError(f"the {label} {raw.columns[col][row]!r} is not a finite number; the column "
                                "must hold numbers such as 0.5 or 1e-3", path=raw.path, line=no)
     return values
 
 
 def _line_of(raw: _RawTable, row: int) -> int:
-    return _locate(raw.path, raw.has_header, row)[0]
+    return _locate(raw.path, raw.first_line, row, raw.sep)[0]
 
 
 # --------------------------------------------------------------------------- networks
