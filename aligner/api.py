@@ -17,8 +17,8 @@ from ._validation import check_choice, check_int, check_real
 from .candidates import CandidateSet, build_candidates
 from .diffusion import NORMALIZATIONS, SOLVERS, DiffusionResult, column_scale, diffuse, prior_vector
 from .exceptions import AlignerWarning, InputFormatError, InvalidParameterError, MemoryBudgetError, NoCandidatesError
-from .io import (PairTable, PriorTable, prior_from_columns, read_network, read_pairs, read_prior,
-                 write_json_atomic, write_table_atomic)
+from .io import (PairTable, PriorTable, json_text, prior_from_columns, publish_outputs, read_network, read_pairs,
+                 read_prior, recover_interrupted, table_text)
 from .network import Network, network_from_edges
 from .product import ProductGraph, build_product, estimate_product_edges
 from .rounding import METHODS, Matching, round_matching
@@ -387,10 +387,29 @@ def score(network_a, network_b, alignment, *, truth=None, delimiter: str | None 
 
 
 def check_outdir(outdir: str | os.PathLike, *, force: bool = False) -> Path:
-    """Refuse an output path that is a file, or a directory holding outputs of an earlier run."""
+    """Refuse an output path that is a file, cannot be made or written, or holds outputs of an earlier run.
+
+    First puts back what a killed run left half-swapped (see :func:`aligner.io.recover_interrupted`).
+    """
     out = Path(outdir)
     if out.exists() and not out.is_dir():
-        raise InvalidParameterError(f"The output '{out}' exists and is not a directory.")
+        raise InvalidParameterError(f"The output '{out}' exists and is not a directory; choose another "
+                                    "directory with --out.")
+    up = out.absolute()
+    while not up.exists() and up != up.parent:
+        up = up.parent
+    if not up.is_dir():
+        raise InvalidParameterError(f"The output directory '{out}' cannot be made: '{up}' is a file, not a "
+                                    "directory; choose another directory with --out.")
+    if not os.access(up, os.W_OK | os.X_OK):
+        raise InvalidParameterError(f"The output directory '{out}' cannot be written: permission denied on "
+                                    f"'{up}'; choose another directory with --out.")
+    try:
+        for note in recover_interrupted(out, OUTPUT_FILES):
+            warnings.warn(note, AlignerWarning, stacklevel=2)
+    except OSError as exc:
+        warnings.warn(f"could not tidy up after an interrupted run in '{out}': {exc}", AlignerWarning,
+                      stacklevel=2)
     existing = [f for f in OUTPUT_FILES if (out / f).exists()]
     if existing and not force:
         raise InvalidParameterError(f"The output directory '{out}' already holds {', '.join(existing)}; "
@@ -399,22 +418,21 @@ def check_outdir(outdir: str | os.PathLike, *, force: bool = False) -> Path:
 
 
 def write_outputs(outdir: str | os.PathLike, result: AlignmentResult, *, force: bool = False) -> list[Path]:
-    """Write alignment.tsv, conserved_edges.tsv and summary.json into ``outdir``.
+    """Write alignment.tsv, conserved_edges.tsv and summary.json into ``outdir``, as one set.
 
-    Each file is written to a temporary file in ``outdir`` and renamed into place when
-    complete; summary.json is written last, so its presence marks a finished run.
+    The three files appear together or not at all: they are written into a staging directory
+    beside ``outdir`` that is then swapped into place by renames (see
+    :func:`aligner.io.publish_outputs`), so an interrupted run (Ctrl-C, a killed process)
+    leaves the previous outputs or none, never a mix. Other files in ``outdir`` are kept.
     """
     out = check_outdir(outdir, force=force)
-    try:
-        out.mkdir(parents=True, exist_ok=True)
-        probe = out / ".aligner-write-test"
-        probe.write_text("")
-        probe.unlink()
-    except OSError as exc:
-        raise InvalidParameterError(f"The output directory '{out}' cannot be written: {exc.strerror}.") from None
     pairs = result.pairs.sort_values(["node_a", "node_b"], kind="stable")
-    write_table_atomic(out / "alignment.tsv", pairs)
     cons = result.conserved_edges.sort_values(["node_a1", "node_a2"], kind="stable")
-    write_table_atomic(out / "conserved_edges.tsv", cons)
-    write_json_atomic(out / "summary.json", result.summary)
+    texts = {"alignment.tsv": table_text(pairs), "conserved_edges.tsv": table_text(cons),
+             "summary.json": json_text(result.summary)}
+    try:
+        publish_outputs(out, texts)
+    except OSError as exc:
+        raise InvalidParameterError(f"The output directory '{out}' cannot be written: "
+                                    f"{exc.strerror or exc}; choose another directory with --out.") from None
     return [out / f for f in OUTPUT_FILES]

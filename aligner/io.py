@@ -13,8 +13,12 @@ import json
 import math
 import os
 import re
+import shutil
+import signal
+import stat
 import tempfile
 import zlib
+from contextlib import contextmanager, suppress
 from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Iterator
@@ -204,24 +208,25 @@ def _read_raw_unchecked(path: str, *, min_cols: int, max_cols: int, delimiter: s
     cols = _read_arrow(path, sep, ncols, start_no - 1)
     if cols is not None:
         return _RawTable(cols, None, has_header, fields if has_header else None, path, start_no, sep)
-    # pandas' comment="#" would also cut a line at a '#' inside it ("gene#1"); only whole-line
-    # comments are comments, so when a '#' appears anywhere the comment lines are skipped by number
-    skip = list(range(start_no - 1))
-    if _contains_hash(path):
-        skip += [no - 1 for no in _comment_lines(path, sep) if no > start_no]
+    # pandas' comment="#" would also cut a line at a '#' inside it ("gene#1"), and its skiprows
+    # does not count a blank line ended by a lone CR: in those cases pandas is given the data
+    # lines as _data_lines sees them (a slower Python pass), otherwise the file itself
+    source = path
+    if _needs_line_filter(path):
+        source = _io.StringIO("\n".join(t for no, t in _data_lines(path, sep) if no >= start_no))
     try:
         df = pd.read_csv(
-            path,
+            source,
             sep=r"\s+" if sep is None else sep,
             header=None,
             names=list(range(ncols)),
-            skiprows=skip,
+            skiprows=range(start_no - 1) if source is path else None,
             comment=None,
             dtype=str,
             keep_default_na=False,
             skip_blank_lines=True,
             encoding="utf-8-sig",
-            compression="gzip" if _is_gzip(path) else None,  # by content, as _open_text
+            compression=("gzip" if _is_gzip(path) else None) if source is path else None,  # by content
             engine="c",
             on_bad_lines="error",
         )
@@ -251,22 +256,14 @@ def _read_raw_unchecked(path: str, *, min_cols: int, max_cols: int, delimiter: s
     return _RawTable(cols, None, has_header, fields if has_header else None, path, start_no, sep)
 
 
-def _contains_hash(path: str) -> bool:
-    """Whether a '#' occurs anywhere in the (decompressed) file; a fast byte scan."""
+def _needs_line_filter(path: str) -> bool:
+    """Whether the (decompressed) file holds a '#' or a lone CR; a fast byte scan."""
     opener = gzip.open if _is_gzip(path) else open
     with opener(path, "rb") as fh:
         while chunk := fh.read(1 << 20):
-            if b"#" in chunk:
+            if b"#" in chunk or re.search(rb"\r(?!\n)", chunk):
                 return True
     return False
-
-
-def _comment_lines(path: str, sep: str | None) -> Iterator[int]:
-    """Line numbers of the comment lines (see :func:`_data_lines`)."""
-    blank = " " if sep == "\t" else " \t"
-    for no, line in enumerate(_open_text(path), 1):
-        if line.lstrip(blank).startswith("#"):
-            yield no
 
 
 def _read_arrow(path: str, sep: str | None, ncols: int, skip: int) -> list | None:
@@ -310,8 +307,10 @@ def _read_arrow(path: str, sep: str | None, ncols: int, skip: int) -> list | Non
             cols.append(col)
         else:
             values = None
-            if pa.types.is_string(col.type) and len(col) and pac.any(pac.match_substring_regex(col, "[\r\n]")).as_py():
-                return None  # a quoted line break
+            if pa.types.is_string(col.type) and len(col) and (
+                    pac.any(pac.match_substring_regex(col, "[\r\n]")).as_py()
+                    or pac.any(pac.equal(pac.utf8_length(col), 0)).as_py()):
+                return None  # a quoted line break or an empty field
             if pa.types.is_floating(col.type) or pa.types.is_integer(col.type):
                 values = col.to_numpy(zero_copy_only=False).astype(np.float64)
             # a column that is not all finite numbers stays as text for the careful checks
@@ -606,3 +605,178 @@ def _finite(obj):
     if isinstance(obj, np.generic):
         return _finite(obj.item())
     return obj
+
+
+# --------------------------------------------------------------------------- publishing a set of outputs
+
+def table_text(df: pd.DataFrame) -> str:
+    """A DataFrame as TSV text (header, no index, ``%.10g`` floats), as the outputs are written."""
+    buf = _io.StringIO()
+    df.to_csv(buf, sep="\t", index=False, float_format="%.10g", lineterminator="\n")
+    return buf.getvalue()
+
+
+def json_text(obj: object) -> str:
+    """``obj`` as indented JSON text; non-finite floats become null."""
+    return json.dumps(_finite(obj), indent=2, sort_keys=False) + "\n"
+
+
+@contextmanager
+def _signals_deferred():
+    """Hold back SIGINT, SIGTERM and SIGHUP (delivered on exit) around a few renames."""
+    sigs = {getattr(signal, s) for s in ("SIGINT", "SIGTERM", "SIGHUP") if hasattr(signal, s)}
+    if not hasattr(signal, "pthread_sigmask"):  # pragma: no cover - not POSIX
+        yield
+        return
+    old = signal.pthread_sigmask(signal.SIG_BLOCK, sigs)
+    try:
+        yield
+    finally:
+        signal.pthread_sigmask(signal.SIG_SETMASK, old)
+
+
+def _fsync_dir(path: Path) -> None:
+    try:
+        fd = os.open(path, os.O_RDONLY)
+    except OSError:  # pragma: no cover - e.g. Windows
+        return
+    try:
+        os.fsync(fd)
+    except OSError:  # pragma: no cover
+        pass
+    finally:
+        os.close(fd)
+
+
+def _staging_name(out: Path, kind: str) -> str:
+    return f".{out.name}.aligner-{kind}-{os.getpid()}-{os.urandom(4).hex()}"
+
+
+def _can_swap(out: Path) -> bool:
+    """Whether ``out`` may be renamed aside: not a mount point, not (holding) the working directory."""
+    try:
+        cwd = os.getcwd()
+    except OSError:
+        cwd = ""
+    inside = cwd == str(out) or cwd.startswith(str(out).rstrip(os.sep) + os.sep)
+    return not inside and not os.path.ismount(out) and os.access(out.parent, os.W_OK | os.X_OK)
+
+
+def publish_outputs(outdir: str | os.PathLike, texts: dict[str, str]) -> None:
+    """Make the files ``texts`` (name -> text) appear in the directory ``outdir`` as one set.
+
+    A reader, or a run killed at any moment (Ctrl-C, SIGKILL), sees either the previous
+    outputs or the new ones, never a mix; other files in ``outdir`` are kept. The scheme
+    (one ``rename`` is atomic on POSIX; three are not, so the directory is swapped):
+
+    1. The files are written, flushed and fsynced into a new staging directory
+       ``.<name>.aligner-new-<pid>-<random>`` beside ``outdir`` (same file system).
+    2. No ``outdir`` yet: the staging directory is renamed to ``outdir``: one atomic step.
+    3. ``outdir`` exists: it is renamed aside to ``.<name>.aligner-old-<pid>-<random>``, the
+       staging directory is renamed to ``outdir``, the user's other entries are moved from the
+       old directory into the new one, and the old outputs and directory are removed. Between
+       the two renames ``outdir`` is briefly absent (no outputs); it never holds a mix.
+
+    The renames run with SIGINT/SIGTERM/SIGHUP held back (delivered when they are done). If
+    the process is killed during step 3 anyway, :func:`recover_interrupted` (called by
+    ``check_outdir`` before the next run) puts the user's files back. When ``outdir`` cannot
+    be renamed (a mount point, the working directory or one holding it, an unwritable
+    parent), the files are staged inside it and renamed into place one by one, summary
+    last, signals held back: atomic against Ctrl-C, but not against SIGKILL in that window.
+    """
+    out = Path(os.path.realpath(outdir))
+    parent = out.parent
+    swap = not out.exists() or _can_swap(out)
+    if not out.exists():
+        parent.mkdir(parents=True, exist_ok=True)
+    new = (parent if swap else out) / _staging_name(out, "new")
+    os.mkdir(new)  # mode 0o777 less the umask, as a plain mkdir
+    try:
+        for name, text in texts.items():
+            with open(new / name, "x", encoding="utf-8", newline="\n") as fh:
+                fh.write(text)
+                fh.flush()
+                os.fsync(fh.fileno())
+        _fsync_dir(new)
+        if swap and out.exists():
+            os.chmod(new, stat.S_IMODE(os.stat(out).st_mode))
+        with _signals_deferred():
+            if swap and not out.exists():
+                os.rename(new, out)
+            elif swap:
+                old = parent / _staging_name(out, "old")
+                os.rename(out, old)
+                try:
+                    os.rename(new, out)
+                except OSError:
+                    os.rename(old, out)
+                    raise
+                for entry in os.listdir(old):
+                    if entry not in texts:
+                        os.rename(old / entry, out / entry)
+                for name in texts:
+                    with suppress(FileNotFoundError):
+                        os.unlink(old / name)
+                os.rmdir(old)
+            else:
+                for name in sorted(texts, key=lambda n: n == "summary.json"):
+                    os.replace(new / name, out / name)
+                os.rmdir(new)
+        _fsync_dir(parent if swap else out)
+    except BaseException:
+        shutil.rmtree(new, ignore_errors=True)
+        raise
+
+
+def _dead(pid: str) -> bool:
+    if not pid.isdigit() or int(pid) == os.getpid():
+        return False
+    try:
+        os.kill(int(pid), 0)
+    except ProcessLookupError:
+        return True
+    except OSError:
+        return False
+    return False
+
+
+def recover_interrupted(outdir: str | os.PathLike, names) -> list[str]:
+    """Undo what a killed :func:`publish_outputs` left behind for ``outdir``; return notes.
+
+    Staging directories of dead processes are removed; an ``-old-`` directory (the process
+    was killed while swapping) is put back as ``outdir`` when that is missing, or else the
+    user's files in it are moved back into ``outdir``. A note names anything left over.
+    """
+    out = Path(os.path.realpath(outdir))
+    notes = []
+    for where, prefix in ((out.parent, f".{out.name}.aligner-"), (out, f".{out.name}.aligner-new-")):
+        try:
+            entries = sorted(os.listdir(where))
+        except OSError:
+            continue
+        for entry in entries:
+            if not entry.startswith(prefix):
+                continue
+            kind, _, rest = entry[len(f".{out.name}.aligner-"):].partition("-")
+            if kind not in ("new", "old") or not _dead(rest.split("-")[0]):
+                continue
+            path = where / entry
+            if kind == "new":
+                shutil.rmtree(path, ignore_errors=True)
+                continue
+            if not out.exists():
+                os.rename(path, out)
+                notes.append(f"restored '{out}' from an interrupted run")
+                continue
+            for item in os.listdir(path):
+                if item in names:
+                    with suppress(FileNotFoundError):
+                        os.unlink(path / item)
+                elif not os.path.lexists(out / item):
+                    os.rename(path / item, out / item)
+            with suppress(OSError):
+                os.rmdir(path)
+            if path.exists():
+                notes.append(f"'{path}' holds files left by an interrupted run; move back what you need "
+                             "and delete it")
+    return notes
