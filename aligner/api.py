@@ -85,17 +85,43 @@ def _as_prior(obj, net_a: Network, net_b: Network, kind: str, delimiter, header)
     if isinstance(obj, PriorTable):
         return obj
     if isinstance(obj, (str, os.PathLike)):
-        return read_prior(obj, net_a, net_b, kind=kind, delimiter=delimiter, header=header)
+        return _prior_notes(read_prior(obj, net_a, net_b, kind=kind, delimiter=delimiter, header=header))
     if isinstance(obj, pd.DataFrame):
         if obj.shape[1] < 3:
             raise InvalidParameterError("The 'prior' parameter of align must have three columns "
                                         f"(node_a, node_b, score). Got {obj.shape[1]} instead.")
         values = pd.to_numeric(obj.iloc[:, 2], errors="coerce").to_numpy(dtype=np.float64)
-        return prior_from_columns(obj.iloc[:, 0].astype(str).to_numpy(dtype=object),
-                                  obj.iloc[:, 1].astype(str).to_numpy(dtype=object), values, net_a, net_b,
-                                  kind=kind, source="<DataFrame prior>", line_of=lambda r: None)
+        return _prior_notes(prior_from_columns(obj.iloc[:, 0].astype(str).to_numpy(dtype=object),
+                                               obj.iloc[:, 1].astype(str).to_numpy(dtype=object), values, net_a,
+                                               net_b, kind=kind, source="<DataFrame prior>", line_of=lambda r: None))
     raise InvalidParameterError("The 'prior' parameter of align must be a path or a pandas DataFrame. "
                                 f"Got {type(obj).__name__} instead.")
+
+
+def _prior_notes(t: PriorTable) -> PriorTable:
+    """Warn about merged duplicate pairs and rows dropped by the score kind; refuse a prior they empty."""
+    if t.n_duplicates:
+        warnings.warn(f"{t.source}: {t.n_duplicates} prior rows repeat a pair given on another row; each pair "
+                      "keeps its highest score", AlignerWarning, stacklevel=3)
+    if t.n_dropped_kind:
+        known = t.n_rows - t.n_unknown
+        if len(t.pairs) == 0 and t.n_dropped_kind == known:
+            raise NoCandidatesError(f"{t.source}: every one of the {known} prior rows naming known nodes has an "
+                                    "E-value above 1, and --score-kind evalue drops such rows as no evidence of "
+                                    "similarity; if the third column is a similarity score, use --score-kind "
+                                    "similarity")
+        warnings.warn(f"{t.source}: {t.n_dropped_kind} of {t.n_rows} prior rows have an E-value above 1 and were "
+                      "dropped as no evidence of similarity", AlignerWarning, stacklevel=3)
+    return t
+
+
+def _known_pairs(t: PairTable, what: str) -> PairTable:
+    """Refuse a pair table none of whose rows names a node of A and a node of B."""
+    if t.n_rows and len(t.pairs) == 0:
+        raise InputFormatError(f"none of its {t.n_rows} rows names a node of network A in the first column and "
+                               f"a node of network B in the second, so the {what} is of no use; are the columns "
+                               "swapped, or are these the wrong networks?", path=str(t.source))
+    return t
 
 
 def _as_pairs(obj, net_a: Network, net_b: Network, what: str, delimiter, header) -> PairTable:
@@ -119,12 +145,18 @@ def _as_pairs(obj, net_a: Network, net_b: Network, what: str, delimiter, header)
 
 def _memory_budget(max_memory: float | None) -> float:
     if max_memory is not None:
-        return float(max_memory)
+        return check_real(max_memory, "max_memory", "align", low=0.0, closed="neither")
     try:
         total = os.sysconf("SC_PAGE_SIZE") * os.sysconf("SC_PHYS_PAGES")
     except (ValueError, OSError, AttributeError):  # pragma: no cover
         total = 8 * 2**30
     return 0.5 * total
+
+
+def _gib(nbytes: float) -> str:
+    """A byte count in GiB, with enough digits to be non-zero."""
+    g = nbytes / 2**30
+    return f"{g:.2f} GiB" if g >= 0.01 or g == 0 else f"{g:.2g} GiB"
 
 
 # --------------------------------------------------------------------------- result
@@ -270,7 +302,8 @@ def align(
     net_a = as_network(network_a, delimiter=delimiter, header=header, name="network_a")
     net_b = as_network(network_b, delimiter=delimiter, header=header, name="network_b")
     prior_t = _as_prior(prior, net_a, net_b, score_kind, delimiter, header)
-    truth_t = None if truth is None else _as_pairs(truth, net_a, net_b, "truth table", delimiter, header)
+    truth_t = None if truth is None else _known_pairs(
+        _as_pairs(truth, net_a, net_b, "truth table", delimiter, header), "truth table")
     done("read")
     if prior_t.n_unknown:
         warnings.warn(f"{prior_t.n_unknown} of {prior_t.n_rows} prior rows name a node missing from its network "
@@ -301,8 +334,8 @@ def align(
     if need > budget:
         raise MemoryBudgetError(
             f"the product graph over {cand.m:,} candidate pairs may have up to {estimate:,} stored entries "
-            f"(about {need / 2**30:.2f} GiB), over the memory budget of {budget / 2**30:.2f} GiB; lower "
-            "--top-k, raise --min-score, or raise --max-memory")
+            f"(about {_gib(need)}), over the memory budget of {_gib(budget)}; lower "
+            "--top-k, raise --min-score, or raise --max-memory (in GiB)")
 
     stage("product")
     prod = build_product(net_a.indptr, net_a.indices, net_b.indptr, net_b.indices, cand)
@@ -369,7 +402,7 @@ def score(network_a, network_b, alignment, *, truth=None, delimiter: str | None 
     """
     net_a = as_network(network_a, delimiter=delimiter, header=header, name="network_a")
     net_b = as_network(network_b, delimiter=delimiter, header=header, name="network_b")
-    tab = _as_pairs(alignment, net_a, net_b, "alignment", delimiter, header)
+    tab = _known_pairs(_as_pairs(alignment, net_a, net_b, "alignment", delimiter, header), "alignment")
     if tab.n_unknown:
         warnings.warn(f"{tab.n_unknown} of {tab.n_rows} alignment rows name a node missing from its network and "
                       f"were skipped (for example {', '.join(tab.unknown_examples)})", AlignerWarning, stacklevel=2)
@@ -380,7 +413,8 @@ def score(network_a, network_b, alignment, *, truth=None, delimiter: str | None 
             node = (net_a if side == 0 else net_b).names[u[np.argmax(c > 1)]]
             raise InputFormatError(f"node {node!r} of network {name} is in more than one pair; an alignment "
                                    "must be one-to-one", path=str(tab.source))
-    truth_t = None if truth is None else _as_pairs(truth, net_a, net_b, "truth table", delimiter, header)
+    truth_t = None if truth is None else _known_pairs(
+        _as_pairs(truth, net_a, net_b, "truth table", delimiter, header), "truth table")
     sc, cons = score_matching(net_a.edges, net_b.edges, p, net_a.n, net_b.n,
                               truth=None if truth_t is None else truth_t.pairs)
     return sc, _conserved_frame(net_a, net_b, p, cons)

@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import re
 import sys
 import tempfile
 import warnings
@@ -12,12 +13,13 @@ from typing import Annotated, Optional
 
 import typer
 from rich.console import Console
+from rich.markup import escape
 
 from . import __version__
 from .api import align as _align
 from .api import score as _score
 from .api import STAGES, check_outdir, write_outputs
-from .exceptions import AlignerError, AlignerWarning
+from .exceptions import AlignerError, AlignerWarning, InvalidParameterError
 from .report import scores_table, summary_table
 
 app = typer.Typer(
@@ -53,6 +55,22 @@ def main(
     """One-to-one alignment of two networks from a prior similarity table and their wiring."""
 
 
+#: parameters of the Python API and the command-line options that set them, to name the option
+#: in an error message
+OPTION_OF = {"alpha": "--alpha", "top_k": "--top-k", "min_score": "--min-score", "score_kind": "--score-kind",
+             "solver": "--solver", "tol": "--tol", "normalization": "--normalization", "rounding": "--rounding",
+             "header": "--header", "delimiter": "--delimiter", "max_memory": "--max-memory"}
+
+
+def _message(exc: AlignerError) -> str:
+    """The error's text, with the command-line option named when a parameter is at fault."""
+    text = str(exc)
+    m = re.match(r"The '(\w+)' parameter of ", text)
+    if isinstance(exc, InvalidParameterError) and m and m.group(1) in OPTION_OF:
+        text += f" (command-line option {OPTION_OF[m.group(1)]})"
+    return text
+
+
 @contextmanager
 def _user_errors(quiet: bool):
     """Turn the package's errors into a one-line message and exit status 2; show warnings."""
@@ -62,7 +80,7 @@ def _user_errors(quiet: bool):
             yield
         except AlignerError as exc:
             _flush(caught, quiet)
-            err.print(f"[bold red]error:[/] {exc}", highlight=False, soft_wrap=True)
+            err.print(f"[bold red]error:[/] {escape(_message(exc))}", highlight=False, soft_wrap=True, emoji=False)
             raise typer.Exit(code=2) from None
         except KeyboardInterrupt:
             err.print("interrupted; no output was left half-written")
@@ -73,7 +91,7 @@ def _user_errors(quiet: bool):
 def _flush(caught, quiet: bool):
     for w in caught:
         if issubclass(w.category, AlignerWarning) and not quiet:
-            err.print(f"[yellow]warning:[/] {w.message}", highlight=False, soft_wrap=True)
+            err.print(f"[yellow]warning:[/] {escape(str(w.message))}", highlight=False, soft_wrap=True, emoji=False)
 
 
 @contextmanager
@@ -112,7 +130,8 @@ def _run_align(a, b, prior, outdir, *, alpha, top_k, min_score, score_kind, solv
     if not quiet:
         out.print(summary_table(res.summary))
         if written:
-            out.print(f"wrote {', '.join(str(p) for p in written)}", highlight=False, soft_wrap=True)
+            out.print(f"wrote {', '.join(str(p) for p in written)}", highlight=False, soft_wrap=True,
+                      markup=False, emoji=False)
     return res
 
 
@@ -154,6 +173,9 @@ def align(
     quiet: Quiet = False,
 ):
     """Align network A to network B and write the one-to-one map with its scores."""
+    if max_memory is not None and not max_memory > 0:  # a usage error (exit 2), in the option's own unit
+        raise typer.BadParameter(f"must be a positive number of GiB, such as 4 or 0.5; got {max_memory:g}",
+                                 param_hint="'--max-memory'")
     _run_align(network_a, network_b, prior, outdir, alpha=alpha, top_k=top_k, min_score=min_score,
                score_kind=score_kind, solver=solver, tol=tol, normalization=normalization, rounding=rounding,
                truth=truth, delimiter=delimiter, header=header, force=force,
@@ -198,7 +220,7 @@ def demo(
         target = Path(outdir) if outdir is not None else Path(tempfile.mkdtemp(prefix="aligner-demo-"))
         if not quiet:
             out.print(f"demo: aligning {d / 'network_a.tsv'} to {d / 'network_b.tsv'} with prior "
-                      f"{d / 'prior.tsv'}", highlight=False, soft_wrap=True)
+                      f"{d / 'prior.tsv'}", highlight=False, soft_wrap=True, markup=False, emoji=False)
         _run_align(d / "network_a.tsv", d / "network_b.tsv", d / "prior.tsv", target, alpha=0.9, top_k=25,
                    min_score=0.0, score_kind="similarity", solver="push", tol=1e-6, normalization="restricted",
                    rounding="auto", truth=d / "truth.tsv", delimiter=None, header="auto", force=force,

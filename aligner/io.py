@@ -342,9 +342,11 @@ def _raise_bad_row(path: str, sep: str | None, ncols: int, start: int, what: str
             continue
         got = len(_split(text, sep))
         if got != ncols:
+            why = ("a quote that is not closed on its line? close it or remove the quote" if text.count('"') % 2
+                   else "mixed delimiters or a stray column?")
             raise InputFormatError(
                 f"has {got} field{'s' if got != 1 else ''} where the first row has {ncols}; "
-                f"mixed delimiters or a stray column? {text[:80]!r}", path=path, line=no)
+                f"{why} {text[:80]!r}", path=path, line=no)
 
 
 def _numeric(raw: _RawTable, col: int, label: str) -> np.ndarray:
