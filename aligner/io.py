@@ -285,7 +285,9 @@ def _read_arrow(path: str, sep: str | None, ncols: int, skip: int) -> list | Non
             table = pacsv.read_csv(
                 source,
                 read_options=pacsv.ReadOptions(column_names=names, skip_rows=skip, encoding="utf8"),
-                parse_options=pacsv.ParseOptions(delimiter=sep, newlines_in_values=False),
+                # no quoting here: a file with quotes goes to the careful reader, so that quoting
+                # follows one set of rules (pyarrow accepted a quote left open at the end of the file)
+                parse_options=pacsv.ParseOptions(delimiter=sep, quote_char=False, newlines_in_values=False),
                 convert_options=pacsv.ConvertOptions(column_types=types, null_values=[],
                                                      strings_can_be_null=False, quoted_strings_can_be_null=False),
             )
@@ -300,17 +302,17 @@ def _read_arrow(path: str, sep: str | None, ncols: int, skip: int) -> list | Non
         if k < 2:
             if len(col) and (pac.any(pac.starts_with(pac.utf8_ltrim(col, characters=" \t"), "#")).as_py()
                              or pac.any(pac.equal(pac.utf8_length(col), 0)).as_py()
-                             or pac.any(pac.match_substring_regex(col, "[\r\n]")).as_py()):
-                return None  # a comment line, an empty field, a quoted line break: the careful reader
+                             or pac.any(pac.match_substring_regex(col, "[\r\n\"]")).as_py()):
+                return None  # a comment line, an empty field, a quote: the careful reader
             if k == 0 and len(col) and col[0].as_py().startswith("\ufeff"):
                 return None  # a byte-order mark pyarrow kept
             cols.append(col)
         else:
             values = None
             if pa.types.is_string(col.type) and len(col) and (
-                    pac.any(pac.match_substring_regex(col, "[\r\n]")).as_py()
+                    pac.any(pac.match_substring_regex(col, "[\r\n\"]")).as_py()
                     or pac.any(pac.equal(pac.utf8_length(col), 0)).as_py()):
-                return None  # a quoted line break or an empty field
+                return None  # a quote or an empty field
             if pa.types.is_floating(col.type) or pa.types.is_integer(col.type):
                 values = col.to_numpy(zero_copy_only=False).astype(np.float64)
             # a column that is not all finite numbers stays as text for the careful checks

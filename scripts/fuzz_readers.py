@@ -176,21 +176,20 @@ class Stats:
             raise  # cannot happen: run_one catches them
         except Exception as exc:  # noqa: BLE001 - anything but an AlignerError is a crash
             self.crashed += 1
-            tb = traceback.format_exc()
             frame = traceback.extract_tb(exc.__traceback__)[-1]
             sig = f"{type(exc).__name__} at {Path(frame.filename).name}:{frame.lineno}"
             if isinstance(exc, InvariantError):  # one kind per broken invariant, not per line
                 sig = f"InvariantError: {str(exc).split(':')[0]}"
             if sig not in self.kinds:
-                self.kinds[sig] = self._save(data, opts, exc, tb) if self.save else ""
-                print(f"crash #{len(self.kinds)}: {type(exc).__name__}: {str(exc)[:300]}", file=sys.stderr, flush=True)
+                self.kinds[sig] = self._save(data, opts, exc) if self.save else ""
+                print(f"crash #{len(self.kinds)}: {type(exc).__name__}: {str(exc)[:300]}", file=sys.stderr,
+                      flush=True)
 
-
-    def _save(self, data: bytes, opts: dict, exc: BaseException, tb: str) -> str:
+    def _save(self, data: bytes, opts: dict, exc: BaseException) -> str:
         """Write the input and a JSON note (options, error, call sites by file name only)."""
         self.save_dir.mkdir(parents=True, exist_ok=True)
         sha = hashlib.sha1(data + json.dumps(opts, sort_keys=True).encode()).hexdigest()[:16]
-        error = re.sub(r"\S*aligner-fuzz-\w+[/\\]input\.\w+", "<input>", f"{type(exc).__name__}: {exc}")
+        error = re.sub(r"[^\s'\"]*aligner-fuzz-\w+[/\\]input\.\w+", "<input>", f"{type(exc).__name__}: {exc}")
         where = [f"{Path(f.filename).name}:{f.lineno} in {f.name}" for f in traceback.extract_tb(exc.__traceback__)]
         (self.save_dir / f"{sha}.input").write_bytes(data)
         (self.save_dir / f"{sha}.json").write_text(json.dumps({
@@ -283,6 +282,7 @@ def fuzz_atheris(stats: Stats, seconds: float, seed: int) -> None:
 
     with atheris.instrument_imports(include=["aligner"]):
         _load()
+
     def target(data: bytes) -> None:
         if len(data) < 3:
             return
@@ -295,6 +295,7 @@ def fuzz_atheris(stats: Stats, seconds: float, seed: int) -> None:
     def timed(data: bytes) -> None:
         target(data)
         if time.monotonic() > end:
+            print(f"engine atheris, {seconds:.0f} s", flush=True)
             report(stats)
             os._exit(1 if stats.crashed else 0)
 
