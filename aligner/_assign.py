@@ -311,7 +311,9 @@ def _row_reduction_pass(rstart, ent, free, n_free, max_steps, v, rec,
                     active -= 1
                     continue
                 i0 = np.int64(rec[j1, _OWNER])
-            if i0 >= 0:
+            nbeg = 0
+            nend = 0
+            if i0 >= 0:  # the owner's entries, before _take overwrites
                 nbeg = np.int64(rec[j1, _BEG])
                 nend = np.int64(rec[j1, _END])
             _take(rec, rstart, row_to_col, row_cost, i, j1, c1)
