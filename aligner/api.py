@@ -23,6 +23,10 @@ from .network import Network, network_from_edges
 from .product import ProductGraph, build_product, estimate_product_edges
 from .rounding import METHODS, Matching, round_matching
 from .scoring import Scores, conserved_per_node, score_matching
+from .confidence import pair_confidence
+from .significance import significance as _significance
+from .seeds import (DEFAULT_SEED_WEIGHT, add_seed_pairs, as_seeds, expand_from_seeds, round_with_fixed, seed_index,
+                    seed_summary, seed_vector)
 
 __all__ = ["align", "score", "AlignmentResult", "as_network", "OUTPUT_FILES", "check_outdir", "write_outputs"]
 
@@ -170,7 +174,8 @@ class AlignmentResult:
     pairs : DataFrame
         One row per matched pair: ``node_a``, ``node_b``, ``score`` (diffusion score),
         ``prior`` (prior similarity after the score-kind transformation), ``conserved``
-        (conserved edges at the pair). Sorted by ``node_a``.
+        (conserved edges at the pair), ``confidence`` (margin over the best competing
+        candidate, see :func:`aligner.confidence.pair_confidence`). Sorted by ``node_a``.
     scores : Scores
         EC, ICS, S3, largest common connected subgraph, NC (with a truth table).
     diffusion : DiffusionResult
@@ -210,7 +215,7 @@ def _network_summary(net: Network) -> dict:
 def align(
     network_a,
     network_b,
-    prior,
+    prior=None,
     *,
     alpha: float = 0.9,
     top_k: int | None = 25,
@@ -225,6 +230,11 @@ def align(
     header: str = "auto",
     max_memory: float | None = None,
     progress: Callable[[str], None] | None = None,
+    seeds=None,
+    seed_weight: float = DEFAULT_SEED_WEIGHT,
+    permutations: int = 0,
+    permutation_seed: int = 0,
+    permutation_progress: Callable[[int, int], None] | None = None,
 ) -> AlignmentResult:
     """Align two networks: a one-to-one map between their nodes.
 
@@ -232,8 +242,10 @@ def align(
     ----------
     network_a, network_b : path, networkx.Graph, pandas.DataFrame or Network
         The two undirected networks (edge lists: node, node[, weight]).
-    prior : path or pandas.DataFrame
-        The prior similarity table: node of A, node of B, score.
+    prior : path or pandas.DataFrame, optional
+        The prior similarity table: node of A, node of B, score. May be left out when
+        ``seeds`` are given: the candidates are then grown from the seeds through the wiring
+        (see :func:`aligner.seeds.expand_from_seeds`).
     alpha : float in [0, 1)
         Weight of the wiring against the prior in the diffusion; 0 returns the prior.
     top_k : int >= 1 or None
@@ -260,6 +272,16 @@ def align(
         Memory budget in bytes for the product graph; default half the machine's memory.
     progress : callable, optional
         Called with the name of each stage as it starts.
+    seeds : path, DataFrame or iterable of pairs, optional
+        Anchor pairs (node of A, node of B) known to correspond: fixed in the matching, extra
+        diffusion sources, and reported apart in ``summary["seeds"]`` (see :mod:`aligner.seeds`).
+    seed_weight : float >= 0
+        Total mass of the seed pairs in h relative to the prior's (default 1: as much as the
+        whole prior); 0 keeps them out of h (they stay fixed).
+    permutations : int >= 0
+        Random candidate maps for the empirical p-value of the conserved edges (0: only the
+        closed-form null; see :mod:`aligner.significance`), drawn with ``permutation_seed``;
+        ``permutation_progress(done, total)`` is called after each.
 
     Returns
     -------
@@ -288,6 +310,11 @@ def align(
     tol = check_real(tol, "tol", where, low=0.0, closed="neither")
     normalization = check_choice(normalization, "normalization", where, NORMALIZATIONS)
     rounding = check_choice(rounding, "rounding", where, METHODS)
+    permutations = check_int(permutations, "permutations", where, low=0)
+    seed_weight = check_real(seed_weight, "seed_weight", where, low=0.0)
+    if prior is None and seeds is None:
+        raise InvalidParameterError("align needs a prior or seeds: give a prior similarity table (--prior), or "
+                                    "anchor pairs (--seeds) to align from the wiring alone.")
     say = progress or (lambda stage: None)
     timings: dict[str, float] = {}
 
@@ -301,11 +328,12 @@ def align(
     stage("read")
     net_a = as_network(network_a, delimiter=delimiter, header=header, name="network_a")
     net_b = as_network(network_b, delimiter=delimiter, header=header, name="network_b")
-    prior_t = _as_prior(prior, net_a, net_b, score_kind, delimiter, header)
+    prior_t = None if prior is None else _as_prior(prior, net_a, net_b, score_kind, delimiter, header)
+    seeds_t = None if seeds is None else as_seeds(seeds, net_a, net_b, delimiter=delimiter, header=header)
     truth_t = None if truth is None else _known_pairs(
         _as_pairs(truth, net_a, net_b, "truth table", delimiter, header), "truth table")
     done("read")
-    if prior_t.n_unknown:
+    if prior_t is not None and prior_t.n_unknown:
         warnings.warn(f"{prior_t.n_unknown} of {prior_t.n_rows} prior rows name a node missing from its network "
                       f"and were skipped (for example {', '.join(prior_t.unknown_examples)})", AlignerWarning,
                       stacklevel=2)
@@ -313,7 +341,7 @@ def align(
         warnings.warn(f"{truth_t.n_unknown} of {truth_t.n_rows} truth rows name a node missing from its network "
                       f"and were skipped (for example {', '.join(truth_t.unknown_examples)})", AlignerWarning,
                       stacklevel=2)
-    if len(prior_t.pairs) == 0:
+    if prior_t is not None and len(prior_t.pairs) == 0:
         hint = ""
         if prior_t.n_unknown == prior_t.n_rows and prior_t.n_rows:
             hint = (" None of its rows names a node of network A in the first column and a node of network B "
@@ -321,12 +349,20 @@ def align(
         raise NoCandidatesError(f"{prior_t.source}: no usable prior pair is left.{hint}")
 
     stage("candidates")
-    cand = build_candidates(prior_t.pairs, prior_t.scores, net_a.n, net_b.n, min_score=min_score, top_k=top_k)
+    expansion = None
+    if prior_t is None:  # seeds only: candidates grown from them through the wiring
+        expansion = expand_from_seeds(net_a, net_b, seeds_t, top_k=top_k)
+        cand = expansion.candidates
+    else:
+        cand = build_candidates(prior_t.pairs, prior_t.scores, net_a.n, net_b.n, min_score=min_score, top_k=top_k)
     done("candidates")
     if cand.m == 0:
         raise NoCandidatesError(f"{prior_t.source}: no prior pair scores at least the minimum score "
                                 f"{min_score:g}; lower --min-score (the highest score is "
                                 f"{prior_t.scores.max():g}).")
+    if seeds_t is not None:
+        cand = add_seed_pairs(cand, seeds_t)
+        seed_idx = seed_index(cand, seeds_t)
 
     estimate = estimate_product_edges(net_a.indptr, net_a.indices, net_b.indptr, cand)
     budget = _memory_budget(max_memory)
@@ -342,13 +378,16 @@ def align(
     done("product")
 
     stage("diffusion")
-    h = prior_vector(cand.prior)
+    h = prior_vector(cand.prior) if seeds_t is None else seed_vector(cand.prior, seed_idx, seed_weight)
     scale = column_scale(prod, normalization, deg_a=net_a.degree, deg_b=net_b.degree, pairs=cand.pairs)
     diff = diffuse(prod, h, scale, alpha=alpha, tol=tol, solver=solver)
     done("diffusion")
 
     stage("rounding")
-    match = round_matching(cand, diff.x, method=rounding)
+    if seeds_t is None:
+        match = round_matching(cand, diff.x, method=rounding)
+    else:  # seed pairs fixed, their nodes out of the competition
+        match = round_with_fixed(cand, diff.x, seed_idx, method=rounding)
     done("rounding")
 
     stage("scoring")
@@ -362,6 +401,7 @@ def align(
         "score": diff.x[match.index],
         "prior": cand.prior[match.index],
         "conserved": per_node[matched[:, 0]],
+        "confidence": pair_confidence(cand, diff.x, match.index),
     })
     cons_df = _conserved_frame(net_a, net_b, matched, cons)
     done("scoring")
@@ -372,9 +412,10 @@ def align(
         "inputs": {
             "network_a": _network_summary(net_a),
             "network_b": _network_summary(net_b),
-            "prior": {"source": str(prior_t.source), "rows": prior_t.n_rows, "unknown_node_rows": prior_t.n_unknown,
-                      "unknown_examples": prior_t.unknown_examples, "dropped_by_score_kind": prior_t.n_dropped_kind,
-                      "duplicate_pairs_merged": prior_t.n_duplicates, "pairs": int(len(prior_t.pairs))},
+            "prior": None if prior_t is None else {
+                "source": str(prior_t.source), "rows": prior_t.n_rows, "unknown_node_rows": prior_t.n_unknown,
+                "unknown_examples": prior_t.unknown_examples, "dropped_by_score_kind": prior_t.n_dropped_kind,
+                "duplicate_pairs_merged": prior_t.n_duplicates, "pairs": int(len(prior_t.pairs))},
             "truth": None if truth_t is None else {"source": str(truth_t.source), "rows": truth_t.n_rows,
                                                     "unknown_node_rows": truth_t.n_unknown},
         },
@@ -390,6 +431,14 @@ def align(
     }
     if scores.nc_detail:
         summary["scores"]["nc_detail"] = scores.nc_detail
+    if seeds_t is not None:
+        summary["parameters"]["seed_weight"] = seed_weight
+        summary["seeds"] = seed_summary(net_a, net_b, matched, seeds_t,
+                                        truth=None if truth_t is None else truth_t.pairs)
+        summary["seeds"]["expansion"] = None if expansion is None else expansion.report()
+    summary["significance"] = _significance(net_a.edges, net_b.edges, cand, matched, scores.conserved_edges,
+                                            permutations=permutations, seed=permutation_seed,
+                                            progress=permutation_progress)
     return AlignmentResult(net_a, net_b, cand, prod, diff, match, scores, pairs_df, cons_df, summary)
 
 

@@ -52,9 +52,15 @@ def summary_table(summary: dict) -> Table:
             t.add_row(f"network {tag}: self-loops dropped / duplicates merged",
                       f"{net['self_loops_dropped']:,} / {net['duplicate_edges_merged']:,}")
     pr = summary["inputs"]["prior"]
-    t.add_row("prior rows / usable pairs", f"{pr['rows']:,} / {pr['pairs']:,}")
-    if pr["unknown_node_rows"]:
+    if pr is None:
+        t.add_row("prior", "none: candidates grown from the seeds")
+    else:
+        t.add_row("prior rows / usable pairs", f"{pr['rows']:,} / {pr['pairs']:,}")
+    if pr is not None and pr["unknown_node_rows"]:
         t.add_row("prior rows naming unknown nodes", f"{pr['unknown_node_rows']:,}")
+    sd = summary.get("seeds")
+    if sd:
+        t.add_row("seed pairs / conserved edges among them", f"{sd['pairs']:,} / {sd['conserved_among_seeds']:,}")
     s = summary["sizes"]
     t.add_row("candidate pairs", f"{s['candidates']:,}")
     t.add_row("coverage A / B", f"{s['coverage_a']:.1%} / {s['coverage_b']:.1%}")
@@ -71,6 +77,18 @@ def summary_table(summary: dict) -> Table:
     t.add_row("largest common connected subgraph", f"{sc['lccs_nodes']:,} nodes, {sc['lccs_edges']:,} edges")
     if sc.get("nc") is not None:
         t.add_row("NC (node correctness)", f"{sc['nc']:.4f}")
+    if sd:
+        fr = sd["scores_without_seed_edges"]
+        t.add_row("without seed-seed edges: EC / S3" + (" / NC (non-seed nodes)" if fr.get("nc") is not None else ""),
+                  f"{fr['ec']:.4f} / {fr['s3']:.4f}" + (f" / {fr['nc']:.4f}" if fr.get("nc") is not None else ""))
+    sig = summary.get("significance") or {}
+    rb, cm = sig.get("random_bijection"), sig.get("candidate_maps")
+    if rb:
+        z = "—" if rb.get("z") is None else f"{rb['z']:.1f}"
+        t.add_row("chance (random bijection): mean ± sd / z", f"{rb['mean']:.1f} ± {rb['sd']:.1f} / {z}")
+    if cm:
+        t.add_row(f"chance ({cm['permutations']:,} candidate maps): max / p-value",
+                  f"{cm['null_max']:,} / {cm['p_value']:.3g}")
     total = sum(v for v in summary["timings"].values())
     t.add_row("time", f"{total:.2f} s")
     return t
