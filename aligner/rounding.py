@@ -16,8 +16,9 @@ __all__ = ["Matching", "round_matching", "METHODS"]
 
 METHODS = ("auto", "sparse", "dense", "scipy")
 #: ``auto`` uses the dense Jonker–Volgenant solver (lapjv) when the padded square matrix has at
-#: most this many entries (8 bytes each: 32 MB) and the sparse kernel otherwise.
-DENSE_MAX_ENTRIES = 4_000_000
+#: most this many entries (500 x 500; 2 MB) and the sparse kernel otherwise. Measured on the demo
+#: (1,481 x 1,461 nodes, 8,870 candidates): lapjv on the padded matrix 0.47 s, sparse kernel 0.006 s.
+DENSE_MAX_ENTRIES = 250_000
 
 
 @dataclass(frozen=True)
@@ -61,7 +62,7 @@ def round_matching(cand: CandidateSet, w: npt.ArrayLike, *, method: str = "auto"
         ``dense``: lapjv (Jonker–Volgenant) on the zero-padded square matrix, in double
         precision. ``scipy``: scipy.sparse.csgraph.min_weight_full_bipartite_matching with a
         zero-cost dummy partner for every node. ``auto``: dense when the padded matrix has at
-        most 4 million entries, sparse otherwise.
+        most 250,000 entries (500 x 500), sparse otherwise.
 
     Returns
     -------
