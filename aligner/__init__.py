@@ -13,10 +13,13 @@ from .exceptions import (  # noqa: E402
 )
 from .api import AlignmentResult, align, score  # noqa: E402
 from .scoring import Scores  # noqa: E402
+from .query import QueryResult, query  # noqa: E402  (the function shadows the submodule name)
 
 __all__ = [
     "align",
     "score",
+    "query",
+    "QueryResult",
     "AlignmentResult",
     "Scores",
     "AlignerError",
