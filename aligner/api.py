@@ -21,6 +21,7 @@ from .io import (PairTable, PriorTable, json_text, prior_from_columns, publish_o
                  read_prior, recover_interrupted, table_text)
 from .network import Network, network_from_edges
 from .product import ProductGraph, build_product, estimate_product_edges
+from .refine import DEFAULT_BETA, DEFAULT_MAX_ITER, refine_matching
 from .rounding import METHODS, Matching, round_matching
 from .scoring import Scores, conserved_per_node, score_matching
 from .confidence import pair_confidence
@@ -32,7 +33,7 @@ __all__ = ["align", "score", "AlignmentResult", "as_network", "OUTPUT_FILES", "c
 
 SCORE_KINDS = ("similarity", "evalue", "distance")
 #: the stages of a run, in order, as named to the ``progress`` callback of :func:`align`
-STAGES = ("read", "candidates", "product", "diffusion", "rounding", "scoring", "writing")
+STAGES = ("read", "candidates", "product", "diffusion", "rounding", "refine", "scoring", "writing")
 OUTPUT_FILES = ("alignment.tsv", "conserved_edges.tsv", "summary.json")
 #: bytes per stored product-graph entry while building and solving (index + share of pointers,
 #: queue and float work arrays), used by the memory check
@@ -235,6 +236,9 @@ def align(
     permutations: int = 0,
     permutation_seed: int = 0,
     permutation_progress: Callable[[int, int], None] | None = None,
+    refine: bool = True,
+    beta: float = DEFAULT_BETA,
+    refine_iter: int = DEFAULT_MAX_ITER,
 ) -> AlignmentResult:
     """Align two networks: a one-to-one map between their nodes.
 
@@ -278,6 +282,16 @@ def align(
     seed_weight : float >= 0
         Total mass of the seed pairs in h relative to the prior's (default 1: as much as the
         whole prior); 0 keeps them out of h (they stay fixed).
+    refine : bool
+        Refine the rounded matching for conserved edges (on by default): Frank–Wolfe steps
+        on β·(normalised diffusion weight) + (conserved edges), then a local search; see
+        :func:`aligner.refine.refine_matching`. With seeds, a refined matching that moves a
+        seed pair is not used. Off when ``alpha = 0``, which returns the prior's own matching.
+    beta : float >= 0
+        Weight of the normalised diffusion weight of a matched pair against one conserved
+        edge in the refinement (default 0.1).
+    refine_iter : int >= 0
+        Cap on refinement iterations (default 30).
     permutations : int >= 0
         Random candidate maps for the empirical p-value of the conserved edges (0: only the
         closed-form null; see :mod:`aligner.significance`), drawn with ``permutation_seed``;
@@ -311,6 +325,8 @@ def align(
     normalization = check_choice(normalization, "normalization", where, NORMALIZATIONS)
     rounding = check_choice(rounding, "rounding", where, METHODS)
     permutations = check_int(permutations, "permutations", where, low=0)
+    beta = check_real(beta, "beta", where, low=0.0)
+    refine_iter = check_int(refine_iter, "refine_iter", where, low=0)
     seed_weight = check_real(seed_weight, "seed_weight", where, low=0.0)
     if prior is None and seeds is None:
         raise InvalidParameterError("align needs a prior or seeds: give a prior similarity table (--prior), or "
@@ -390,10 +406,28 @@ def align(
         match = round_with_fixed(cand, diff.x, seed_idx, method=rounding)
     done("rounding")
 
+    refined = None
+    refine_note = None
+    refine = refine and alpha > 0  # alpha = 0 asks for the prior's own matching
+    if refine:
+        stage("refine")
+        refined = refine_matching(prod, cand, diff.x, match.index, beta=beta, max_iter=refine_iter,
+                                  method=rounding)
+        if seeds_t is not None and not np.isin(seed_idx, refined.index).all():
+            refine_note = "refinement moved a seed pair, so its matching was not used"
+            refined = None
+        done("refine")
+
     stage("scoring")
+    truth_pairs = None if truth_t is None else truth_t.pairs
+    before = None
+    if refined is not None:
+        before, _ = score_matching(net_a.edges, net_b.edges, cand.pairs[match.index].astype(np.int64),
+                                   net_a.n, net_b.n, truth=truth_pairs)
+        match = Matching(index=refined.index, method=match.method, weight=float(diff.x[refined.index].sum()),
+                         seconds=match.seconds)
     matched = cand.pairs[match.index].astype(np.int64)
-    scores, cons = score_matching(net_a.edges, net_b.edges, matched, net_a.n, net_b.n,
-                                  truth=None if truth_t is None else truth_t.pairs)
+    scores, cons = score_matching(net_a.edges, net_b.edges, matched, net_a.n, net_b.n, truth=truth_pairs)
     per_node = conserved_per_node(net_a.edges, cons, net_a.n)
     pairs_df = pd.DataFrame({
         "node_a": net_a.names[matched[:, 0]],
@@ -431,6 +465,13 @@ def align(
     }
     if scores.nc_detail:
         summary["scores"]["nc_detail"] = scores.nc_detail
+    summary["parameters"] |= {"refine": refine, "beta": beta, "refine_iter": refine_iter}
+    summary["refine"] = None if not refine else (
+        {"skipped": refine_note} if refined is None else
+        refined.report() | {"objective_per_iteration": refined.objective,
+                            "conserved_edges_gained": refined.conserved_after - refined.conserved_before})
+    if before is not None:
+        summary["scores_before_refine"] = before.as_dict()
     if seeds_t is not None:
         summary["parameters"]["seed_weight"] = seed_weight
         summary["seeds"] = seed_summary(net_a, net_b, matched, seeds_t,

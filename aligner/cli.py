@@ -19,6 +19,7 @@ from . import __version__
 from .api import align as _align
 from .api import score as _score
 from .api import STAGES, check_outdir, write_outputs
+from .refine import DEFAULT_BETA, DEFAULT_MAX_ITER
 from .exceptions import AlignerError, AlignerWarning, InvalidParameterError
 from .report import scores_table, summary_table
 
@@ -65,7 +66,8 @@ def main(
 #: in an error message
 OPTION_OF = {"alpha": "--alpha", "top_k": "--top-k", "min_score": "--min-score", "score_kind": "--score-kind",
              "solver": "--solver", "tol": "--tol", "normalization": "--normalization", "rounding": "--rounding",
-             "header": "--header", "delimiter": "--delimiter", "max_memory": "--max-memory"}
+             "header": "--header", "delimiter": "--delimiter", "max_memory": "--max-memory", "beta": "--beta",
+             "refine_iter": "--refine-iter"}
 
 
 def _message(exc: AlignerError) -> str:
@@ -125,7 +127,8 @@ def _progress(quiet: bool):
 
 def _run_align(a, b, prior, outdir, *, alpha, top_k, min_score, score_kind, solver, tol, normalization,
                rounding, truth, delimiter, header, force, max_memory, quiet, permutations=0,
-               permutation_seed=0, seeds=None, seed_weight=1.0):
+               permutation_seed=0, seeds=None, seed_weight=1.0, refine=True, beta=DEFAULT_BETA,
+               refine_iter=DEFAULT_MAX_ITER):
     with _user_errors(quiet):
         if outdir is not None:
             check_outdir(outdir, force=force)  # refuse before any work, not after it
@@ -134,7 +137,8 @@ def _run_align(a, b, prior, outdir, *, alpha, top_k, min_score, score_kind, solv
                          solver=solver, tol=tol, normalization=normalization, rounding=rounding, truth=truth,
                          delimiter=delimiter, header=header, max_memory=max_memory, progress=say,
                          permutations=permutations, permutation_seed=permutation_seed,
-                         permutation_progress=getattr(say, "count", None), seeds=seeds, seed_weight=seed_weight)
+                         permutation_progress=getattr(say, "count", None), seeds=seeds, seed_weight=seed_weight,
+                         refine=refine, beta=beta, refine_iter=refine_iter)
             say("writing")
             written = write_outputs(outdir, res, force=force) if outdir is not None else []
     if not quiet:
@@ -187,6 +191,12 @@ def align(
     permutation_seed: Annotated[int, typer.Option("--permutation-seed", help="Seed of the random maps.")] = 0,
     seeds: SeedsOption = None,
     seed_weight: SeedWeight = 1.0,
+    refine: Annotated[bool, typer.Option("--refine/--no-refine", help="Refine the rounded matching for conserved "
+                                         "edges (Frank-Wolfe steps, then a local search).")] = True,
+    beta: Annotated[float, typer.Option("--beta", help="Refinement: weight of a pair's normalised diffusion score "
+                                        "against one conserved edge.")] = DEFAULT_BETA,
+    refine_iter: Annotated[int, typer.Option("--refine-iter", help="Refinement: cap on iterations (each one "
+                                             "sparse product and one assignment).")] = DEFAULT_MAX_ITER,
     quiet: Quiet = False,
 ):
     """Align network A to network B and write the one-to-one map with its scores."""
@@ -200,7 +210,8 @@ def align(
                score_kind=score_kind, solver=solver, tol=tol, normalization=normalization, rounding=rounding,
                truth=truth, delimiter=delimiter, header=header, force=force,
                max_memory=None if max_memory is None else max_memory * 2**30, quiet=quiet,
-               permutations=permutations, permutation_seed=permutation_seed, seeds=seeds, seed_weight=seed_weight)
+               permutations=permutations, permutation_seed=permutation_seed, seeds=seeds, seed_weight=seed_weight,
+               refine=refine, beta=beta, refine_iter=refine_iter)
 
 
 @app.command()

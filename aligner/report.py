@@ -71,6 +71,12 @@ def summary_table(summary: dict) -> Table:
               f"{steps:,} / {sv['edge_touches']:,}")
     t.add_row("residual (1-norm) / error bound", f"{sv['residual_l1']:.2e} / {sv['error_bound_l1']:.2e}")
     sc = summary["scores"]
+    rf = summary.get("refine")
+    if rf and "skipped" not in rf:
+        t.add_row("refinement: iterations / conserved edges gained",
+                  f"{rf['iterations']:,} / {rf['conserved_after'] - rf['conserved_before']:+,}")
+    elif rf:
+        t.add_row("refinement", rf["skipped"])
     t.add_row("matched pairs", f"{sc['n_matched']:,}")
     t.add_row("conserved edges", f"{sc['conserved_edges']:,}")
     t.add_row("EC / ICS / S3", f"{sc['ec']:.4f} / {sc['ics']:.4f} / {sc['s3']:.4f}")

@@ -109,7 +109,7 @@ def connectome(seed: int) -> Instance:
     truth = pd.DataFrame({"a": cls["neuron"].map(hide_a), "b": cls["neuron"].map(hide_b)})
     truth = truth[truth["a"].isin(in_a) & truth["b"].isin(in_b)]
     t0 = time.perf_counter()
-    res = aligner.align(net_a, net_b, prior, top_k=None)
+    res = aligner.align(net_a, net_b, prior, top_k=None, refine=False)
     seconds = time.perf_counter() - t0
     na, nb = res.network_a, res.network_b
     t = np.stack([pd.Index(na.names).get_indexer(truth["a"]), pd.Index(nb.names).get_indexer(truth["b"])], 1)

@@ -20,7 +20,10 @@ from aligner.api import align
 from aligner.exceptions import AlignerWarning
 
 SETTINGS = settings(max_examples=40, deadline=None, suppress_health_check=[HealthCheck.too_slow])
-TIGHT = dict(solver="power", tol=1e-13, top_k=None)
+# Refinement is left out here: its objective counts conserved edges, an integer with many exact
+# ties, so equal-quality matchings legitimately differ with node numbering. Its own properties
+# (objective never lowered, local optimality) are tested in test_refine.py.
+TIGHT = dict(solver="power", tol=1e-13, top_k=None, refine=False)
 
 
 @st.composite

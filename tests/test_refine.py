@@ -218,7 +218,7 @@ def test_connectome_pair_with_class_prior(seed):
     net_a, net_b, prior, truth = _hidden_connectome(seed)
     assert len(prior) == 500 and len(truth) == 180
     identity, _ = aligner.score(net_a, net_b, truth, truth=truth)
-    res = aligner.align(net_a, net_b, prior, truth=truth, top_k=None)
+    res = aligner.align(net_a, net_b, prior, truth=truth, top_k=None, refine=False)
     ref = refine_matching(res.product, res.candidates, res.diffusion.x, res.matching.index)
     pairs = res.candidates.pairs[ref.index]
     table = pd.DataFrame({"a": res.network_a.names[pairs[:, 0]], "b": res.network_b.names[pairs[:, 1]]})
