@@ -22,6 +22,9 @@ from numba.core.extending import intrinsic
 
 __all__ = ["sparse_max_weight_matching", "max_weight_matching_dense"]
 
+#: significant bits kept in the costs handed to lapjv (see max_weight_matching_dense)
+SNAP_BITS = 36
+
 # Work allowed to the augmenting row reduction phase, in row scans per
 # stored positive entry; the shortest-path phase finishes whatever is left.
 _ARR_BUDGET = 16.0
@@ -713,6 +716,12 @@ def max_weight_matching_dense(weights_dense):
     of least cost is a maximum-weight matching once the cells with zero cost
     (non-positive weights and padding) are dropped.
 
+    The costs are first rounded to ``SNAP_BITS`` (36) significant bits: lapjv
+    1.3.29 was seen not to terminate on costs that differ only in their last
+    bits. The matching is optimal for the rounded weights, so its total is
+    within a relative 2**-36 per pair of the double-precision optimum; the
+    sparse kernel has no such rounding.
+
     Cost: ``O(n^2)`` memory and ``O(n^3)`` time in the worst case, so this is
     meant for small problems and for cross-checking
     :func:`sparse_max_weight_matching`.
@@ -739,7 +748,10 @@ def max_weight_matching_dense(weights_dense):
         return out
     n = max(n_rows, n_cols)
     cost = np.zeros((n, n), dtype=np.float64)
-    cost[:n_rows, :n_cols] = np.where(positive, -w, 0.0)
+    # lapjv 1.3.29 was seen to loop forever on costs that differ only in their last bits;
+    # rounding to SNAP_BITS significant bits turns such near-ties into exact ties
+    mant, expo = np.frexp(np.where(positive, -w, 0.0))
+    cost[:n_rows, :n_cols] = np.ldexp(np.round(mant * 2.0**SNAP_BITS) / 2.0**SNAP_BITS, expo)
     if n == 1:
         x = np.zeros(1, dtype=np.int64)
     else:

@@ -15,10 +15,9 @@ from .candidates import CandidateSet
 __all__ = ["Matching", "round_matching", "METHODS"]
 
 METHODS = ("auto", "sparse", "dense", "scipy")
-#: ``auto`` uses the dense Jonker–Volgenant solver (lapjv) when the padded square matrix has at
-#: most this many entries (500 x 500; 2 MB) and the sparse kernel otherwise. Measured on the demo
-#: (1,481 x 1,461 nodes, 8,870 candidates): lapjv on the padded matrix 0.47 s, sparse kernel 0.006 s.
-DENSE_MAX_ENTRIES = 250_000
+#: ``auto`` uses the sparse kernel: measured on the demo (1,481 x 1,461 nodes, 8,870 candidates),
+#: lapjv on the padded matrix took 0.47 s and the sparse kernel 0.006 s, and lapjv has been seen
+#: not to terminate on near-tied costs (see aligner._assign.max_weight_matching_dense).
 
 
 @dataclass(frozen=True)
@@ -60,9 +59,9 @@ def round_matching(cand: CandidateSet, w: npt.ArrayLike, *, method: str = "auto"
     method : {"auto", "sparse", "dense", "scipy"}
         ``sparse``: the package's sparse shortest-augmenting-path kernel (double precision).
         ``dense``: lapjv (Jonker–Volgenant) on the zero-padded square matrix, in double
-        precision. ``scipy``: scipy.sparse.csgraph.min_weight_full_bipartite_matching with a
-        zero-cost dummy partner for every node. ``auto``: dense when the padded matrix has at
-        most 250,000 entries (500 x 500), sparse otherwise.
+        precision, after rounding the costs to 36 significant bits (lapjv can fail to terminate
+        on near-ties otherwise). ``scipy``: scipy.sparse.csgraph.min_weight_full_bipartite_matching
+        with a zero-cost dummy partner for every node. ``auto``: sparse.
 
     Returns
     -------
@@ -89,7 +88,7 @@ def round_matching(cand: CandidateSet, w: npt.ArrayLike, *, method: str = "auto"
     if nr == 0:
         return Matching(np.empty(0, dtype=np.int64), method, 0.0, time.perf_counter() - t0)
     if method == "auto":
-        method = "dense" if max(nr, nc) ** 2 <= DENSE_MAX_ENTRIES else "sparse"
+        method = "sparse"
     if method == "sparse":
         from ._assign import sparse_max_weight_matching
 
