@@ -15,8 +15,9 @@ are correct by construction), with EC with and without the edges among seed node
 
     python scripts/bench_seeds.py                              # n = 2000, m = 4, 3 repetitions
     python scripts/bench_seeds.py --m 3 --with-prior --reps 2  # a sparser, harder pair
+    python scripts/bench_seeds.py --no-refine                  # the seeds without the refinement stage
 
-Writes OUT/bench_seeds_m<m>.csv and OUT/bench_seeds_m<m>.md (OUT defaults to bench_out/, git-ignored).
+Writes OUT/bench_seeds_m<m>[_norefine].csv and .md (OUT defaults to bench_out/, git-ignored).
 """
 
 from __future__ import annotations
@@ -62,6 +63,8 @@ def main(argv=None) -> int:
     ap.add_argument("--reps", type=int, default=3)
     ap.add_argument("--seed-weight", type=float, default=None, help="default: the package default")
     ap.add_argument("--with-prior", action="store_true", help="also run a weak prior with the same seeds")
+    ap.add_argument("--no-refine", action="store_true", help="align without the refinement stage, to see what "
+                    "the seeds do on their own")
     ap.add_argument("--seed", type=int, default=11)
     ap.add_argument("--out", default="bench_out")
     args = ap.parse_args(argv)
@@ -90,7 +93,8 @@ def main(argv=None) -> int:
                     with warnings.catch_warnings():
                         warnings.simplefilter("ignore")
                         res = aligner.align(net_a, net_b, prior if mode != "seeds only" else None, truth=truth,
-                                            seeds=seeds, seed_weight=weight, permutations=0)
+                                            seeds=seeds, seed_weight=weight, permutations=0,
+                                            refine=not args.no_refine)
                     sec = time.perf_counter() - t0
                     s = res.summary.get("seeds")
                     free = s["scores_without_seed_edges"] if s else res.summary["scores"]
@@ -104,13 +108,14 @@ def main(argv=None) -> int:
                     rows.append(row)
                     print({k2: (round(v, 4) if isinstance(v, float) else v) for k2, v in row.items()}, flush=True)
 
-    tag = f"m{args.m}"
+    tag = f"m{args.m}" + ("_norefine" if args.no_refine else "")
     with open(out / f"bench_seeds_{tag}.csv", "w", newline="") as fh:
         w = csv.DictWriter(fh, fieldnames=list(rows[0]))
         w.writeheader()
         w.writerows(rows)
     cmd = "python scripts/bench_seeds.py " + " ".join(argv if argv is not None else sys.argv[1:])
     lines = [f"Seeds, n = {args.n:,}, powerlaw_graph(m = {args.m}, p = 0.3), seed weight {weight:g}, "
+             f"refinement {'off' if args.no_refine else 'on'}, "
              f"{args.reps} repetitions (mean, min in brackets). `{cmd.strip()}` on {platform.machine()} / "
              f"Python {platform.python_version()}.", "",
              "| mode | edge noise | seeds | NC | NC (non-seed nodes) | EC | EC without seed-seed edges | s per run |",
