@@ -9,6 +9,8 @@ nodes of A.
 import numba
 import numpy as np
 
+from ._kernel_utils import _find
+
 
 @numba.njit(cache=True, nogil=True)
 def _matched_neighbours(s_indptr, s_indices, sel, out):
@@ -21,21 +23,6 @@ def _matched_neighbours(s_indptr, s_indices, sel, out):
         k = sel[t]
         for e in range(s_indptr[k], s_indptr[k + 1]):
             out[s_indices[e]] += 1.0
-
-
-@numba.njit(cache=True, nogil=True)
-def _find(arr, lo, hi, value):
-    """Position of ``value`` in the sorted slice ``arr[lo:hi]``, or -1."""
-    while lo < hi:
-        mid = (lo + hi) >> 1
-        v = arr[mid]
-        if v < value:
-            lo = mid + 1
-        elif v > value:
-            hi = mid
-        else:
-            return mid
-    return -1
 
 
 @numba.njit(cache=True, nogil=True)
