@@ -5,8 +5,13 @@ import numpy as np
 
 
 @numba.njit(cache=True, nogil=True)
-def _product_pass(a_indptr, a_indices, b_indptr, b_indices, c_indptr, c_b, n2, out_indptr, out_indices, fill):
+def _product_pass(a_indptr, a_indices, b_indptr, b_indices, c_indptr, c_b, n2, out_indptr, out_indices, fill,
+                  a_w, b_w, out_w):
     """Count (``fill`` False) or write (``fill`` True) the product-graph neighbours of every pair.
+
+    With non-empty ``a_w`` and ``b_w`` (weights of the adjacency entries) the fill pass also
+    writes ``out_w``: the weight w_A(i, j) * w_B(i', j') of every product entry. Given
+    out-adjacencies of directed networks, the lists are the out-lists of the product graph.
 
     Pair k = (i, i') and pair u = (j, j') are adjacent when j is a neighbour of i in A and j'
     a neighbour of i' in B. Node i of A is handled at once for all its candidates: every
@@ -17,9 +22,11 @@ def _product_pass(a_indptr, a_indices, b_indptr, b_indices, c_indptr, c_b, n2, o
     (i, i'), each pair's neighbour list comes out sorted.
     """
     n1 = c_indptr.shape[0] - 1
+    weighted = a_w.shape[0] > 0
     head = np.full(n2, -1, dtype=np.int64)
     cap = 16
     ent_k = np.empty(cap, dtype=np.int64)
+    ent_w = np.empty(cap, dtype=np.float64)
     nxt = np.empty(cap, dtype=np.int64)
     cursor = np.zeros(0, dtype=np.int64)
     if fill:
@@ -38,13 +45,18 @@ def _product_pass(a_indptr, a_indices, b_indptr, b_indices, c_indptr, c_b, n2, o
                 if ne == cap:
                     cap *= 2
                     ent_k2 = np.empty(cap, dtype=np.int64)
+                    ent_w2 = np.empty(cap, dtype=np.float64)
                     nxt2 = np.empty(cap, dtype=np.int64)
                     ent_k2[:ne] = ent_k[:ne]
+                    ent_w2[:ne] = ent_w[:ne]
                     nxt2[:ne] = nxt[:ne]
                     ent_k = ent_k2
+                    ent_w = ent_w2
                     nxt = nxt2
                 b = b_indices[t]
                 ent_k[ne] = k
+                if weighted:
+                    ent_w[ne] = b_w[t]
                 nxt[ne] = head[b]
                 head[b] = ne
                 ne += 1
@@ -58,6 +70,8 @@ def _product_pass(a_indptr, a_indices, b_indptr, b_indices, c_indptr, c_b, n2, o
                     k = ent_k[e]
                     if fill:
                         out_indices[cursor[k]] = u
+                        if weighted:
+                            out_w[cursor[k]] = a_w[s] * ent_w[e]
                         cursor[k] += 1
                     else:
                         out_indptr[k + 1] += 1

@@ -5,17 +5,19 @@ import numpy as np
 
 
 @numba.njit(cache=True, nogil=True)
-def _push(indptr, indices, col_scale, alpha, x, r, thresh, max_pushes):
+def _push(indptr, indices, weights, col_scale, alpha, x, r, thresh, max_pushes):
     """Gauss–Southwell relaxation of x = alpha * P x + b with a FIFO work queue.
 
     On entry ``r`` holds the residual of ``x`` (b - (I - alpha P) x); both are updated in
-    place. P[k, l] = col_scale[l] for every stored (k, l) of the symmetric pattern. An entry
-    l is pushed while |r[l]| > thresh[l]: x[l] += r[l], r[l] = 0, and every neighbour k of l
-    gains alpha * col_scale[l] * r[l]. At a normal exit |r[l]| <= thresh[l] for all l.
+    place. P[k, l] = weights[t] * col_scale[l] for every stored entry t = (l -> k) of l's list
+    (``weights`` empty: all 1). An entry l is pushed while |r[l]| > thresh[l]: x[l] += r[l],
+    r[l] = 0, and every listed neighbour k of l gains alpha * P[k, l] * r[l]. At a normal exit
+    |r[l]| <= thresh[l] for all l.
 
     Returns (pushes, edge touches, stopped_at_cap).
     """
     m = x.shape[0]
+    weighted = weights.shape[0] > 0
     queue = np.empty(m, dtype=np.int64)
     inq = np.zeros(m, dtype=np.bool_)
     head = 0
@@ -48,7 +50,10 @@ def _push(indptr, indices, col_scale, alpha, x, r, thresh, max_pushes):
         touches += hi - lo
         for t in range(lo, hi):
             k = indices[t]
-            r[k] += w
+            if weighted:
+                r[k] += w * weights[t]
+            else:
+                r[k] += w
             if not inq[k] and abs(r[k]) > thresh[k]:
                 queue[(head + size) % m] = k
                 size += 1
@@ -57,16 +62,20 @@ def _push(indptr, indices, col_scale, alpha, x, r, thresh, max_pushes):
 
 
 @numba.njit(cache=True, nogil=True)
-def _residual(indptr, indices, col_scale, alpha, x, b, out):
+def _residual(indptr, indices, weights, col_scale, alpha, x, b, out):
     """out = b - x + alpha * P x, computed exactly from the CSR pattern; returns its 1-norm."""
     m = x.shape[0]
+    weighted = weights.shape[0] > 0
     for k in range(m):
         out[k] = b[k] - x[k]
     for l in range(m):
         w = alpha * col_scale[l] * x[l]
         if w != 0.0:
             for t in range(indptr[l], indptr[l + 1]):
-                out[indices[t]] += w
+                if weighted:
+                    out[indices[t]] += w * weights[t]
+                else:
+                    out[indices[t]] += w
     s = 0.0
     for k in range(m):
         s += abs(out[k])

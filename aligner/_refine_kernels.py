@@ -27,8 +27,23 @@ def _matched_neighbours(s_indptr, s_indices, sel, out):
 
 @numba.njit(cache=True, nogil=True)
 def _adjacent(s_indptr, s_indices, k, l):
-    """1.0 when pairs k and l are adjacent in S, else 0.0."""
-    return 1.0 if _find(s_indices, s_indptr[k], s_indptr[k + 1], l) >= 0 else 0.0
+    """S[k, l]: how many times l is stored among the neighbours of k (0, 1, or 2 in the
+    symmetrised product graph of directed networks, where reciprocal arcs give two entries)."""
+    lo = s_indptr[k]
+    hi = s_indptr[k + 1]
+    t = _find(s_indices, lo, hi, l)
+    if t < 0:
+        return 0.0
+    c = 1.0
+    u = t - 1
+    while u >= lo and s_indices[u] == l:
+        c += 1.0
+        u -= 1
+    u = t + 1
+    while u < hi and s_indices[u] == l:
+        c += 1.0
+        u += 1
+    return c
 
 
 @numba.njit(cache=True, nogil=True)

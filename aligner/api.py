@@ -42,20 +42,31 @@ BYTES_PER_PRODUCT_ENTRY = 4
 
 # --------------------------------------------------------------------------- coercion
 
-def as_network(obj, *, delimiter: str | None = None, header: str = "auto", name: str = "network") -> Network:
-    """A :class:`Network` from a path, a networkx graph, an edge DataFrame or a Network."""
+def as_network(obj, *, delimiter: str | None = None, header: str = "auto", name: str = "network",
+               directed: bool = False) -> Network:
+    """A :class:`Network` from a path, a networkx graph, an edge DataFrame or a Network.
+
+    ``directed``: rows (or a networkx DiGraph's edges) are arcs; a Network given must then be
+    a directed one.
+    """
     if isinstance(obj, Network):
+        if directed and not obj.directed:
+            raise InvalidParameterError(f"The '{name}' parameter of align is an undirected Network, but directed "
+                                        "alignment was asked for; build it with directed=True.")
         return obj
     if isinstance(obj, (str, os.PathLike)):
-        return read_network(obj, delimiter=delimiter, header=header)
+        return read_network(obj, delimiter=delimiter, header=header, directed=directed)
     try:
         import networkx as nx
     except ImportError:  # pragma: no cover - networkx is a dependency
         nx = None
     if nx is not None and isinstance(obj, nx.Graph):
-        if obj.is_directed():
-            raise InvalidParameterError(f"The '{name}' parameter of align must be an undirected graph; "
-                                        "got a directed one (use graph.to_undirected()).")
+        if obj.is_directed() != directed:
+            raise InvalidParameterError(
+                f"The '{name}' parameter of align must be an undirected graph; got a directed one (pass "
+                "directed=True to align by direction, or use graph.to_undirected())." if not directed else
+                f"The '{name}' parameter of align must be a directed graph when directed=True; got an "
+                "undirected one (use graph.to_directed(), which gives each edge both directions).")
         nodes = [str(v) for v in obj.nodes()]
         if len(set(nodes)) != len(nodes):
             raise InvalidParameterError(f"The '{name}' parameter of align has nodes whose string forms clash.")
@@ -66,7 +77,7 @@ def as_network(obj, *, delimiter: str | None = None, header: str = "auto", name:
         w = None
         if obj.number_of_edges() and all("weight" in d for _, _, d in obj.edges(data=True)):
             w = np.array([float(d["weight"]) for _, _, d in obj.edges(data=True)])
-        return network_from_edges(names, e[:, 0], e[:, 1], w, source=f"<networkx {name}>")
+        return network_from_edges(names, e[:, 0], e[:, 1], w, source=f"<networkx {name}>", directed=directed)
     if isinstance(obj, pd.DataFrame):
         if obj.shape[1] < 2:
             raise InvalidParameterError(f"The '{name}' parameter of align must have at least two columns "
@@ -81,7 +92,7 @@ def as_network(obj, *, delimiter: str | None = None, header: str = "auto", name:
                                             "finite non-negative number.")
         codes, names = pd.factorize(np.concatenate([a, b]), sort=True)
         return network_from_edges(np.asarray(names, dtype=object), codes[: len(a)], codes[len(a):], w,
-                                  source=f"<DataFrame {name}>")
+                                  source=f"<DataFrame {name}>", directed=directed)
     raise InvalidParameterError(f"The '{name}' parameter of align must be a path, a networkx graph, a pandas "
                                 f"DataFrame or a Network. Got {type(obj).__name__} instead.")
 
@@ -198,10 +209,11 @@ class AlignmentResult:
     summary: dict = field(default_factory=dict)
 
 
-def _conserved_frame(net_a: Network, net_b: Network, matched: np.ndarray, cons: np.ndarray) -> pd.DataFrame:
+def _conserved_frame(net_a: Network, net_b: Network, matched: np.ndarray, cons: np.ndarray,
+                     directed: bool = False) -> pd.DataFrame:
     f = np.full(net_a.n, -1, dtype=np.int64)
     f[matched[:, 0]] = matched[:, 1]
-    ce = net_a.edges[cons]
+    ce = net_a.scored_edges(directed)[0][cons]
     return pd.DataFrame({
         "node_a1": net_a.names[ce[:, 0]], "node_a2": net_a.names[ce[:, 1]],
         "node_b1": net_b.names[f[ce[:, 0]]], "node_b2": net_b.names[f[ce[:, 1]]],
@@ -209,8 +221,29 @@ def _conserved_frame(net_a: Network, net_b: Network, matched: np.ndarray, cons: 
 
 
 def _network_summary(net: Network) -> dict:
-    return {"source": str(net.source), "nodes": net.n, "edges": net.n_edges,
-            "self_loops_dropped": net.n_self_loops, "duplicate_edges_merged": net.n_duplicate_edges}
+    out = {"source": str(net.source), "nodes": net.n, "edges": net.n_edges,
+           "self_loops_dropped": net.n_self_loops, "duplicate_edges_merged": net.n_duplicate_edges}
+    if net.directed:
+        out["arcs"] = len(net.arcs)
+    if net.weights is not None:
+        out["total_weight"] = float(net.weights.sum())
+    return out
+
+
+def _check_modes(net_a: Network, net_b: Network, weighted: bool) -> None:
+    """Refuse --weighted when a network has no weight column."""
+    if weighted:
+        for net, side in ((net_a, "A"), (net_b, "B")):
+            if net.weights is None:
+                raise InvalidParameterError(f"The 'weighted' parameter of align needs edge weights, but network "
+                                            f"{side} ({net.source}) has no third column of weights.")
+
+
+def _scores_of(net_a: Network, net_b: Network, matched, truth_pairs, directed: bool, weighted: bool):
+    ea, wa = net_a.scored_edges(directed)
+    eb, wb = net_b.scored_edges(directed)
+    return score_matching(ea, eb, matched, net_a.n, net_b.n, truth=truth_pairs, directed=directed,
+                          weights_a=wa if weighted else None, weights_b=wb if weighted else None)
 
 
 def align(
@@ -239,6 +272,8 @@ def align(
     refine: bool = True,
     beta: float = DEFAULT_BETA,
     refine_iter: int = DEFAULT_MAX_ITER,
+    directed: bool = False,
+    weighted: bool = False,
 ) -> AlignmentResult:
     """Align two networks: a one-to-one map between their nodes.
 
@@ -292,6 +327,17 @@ def align(
         edge in the refinement (default 0.1).
     refine_iter : int >= 0
         Cap on refinement iterations (default 30).
+    directed : bool
+        Read the edge lists as arcs (first column -> second). The product graph follows the
+        arcs, (i, i') -> (j, j') when i -> j and i' -> j', and the walk divides by out-degree
+        (a pair with no out-arcs gives a zero column: P is sub-stochastic there); an edge is
+        conserved only onto an arc pointing the same way, and EC, ICS and S3 count arcs. The
+        refinement counts conserved arcs; the significance figures are not computed.
+    weighted : bool
+        Use the edge weights (the third column of both edge lists): the product entry of
+        (i, i') and (j, j') weighs w_A(i, j) w_B(i', j') and the walk divides by strength
+        (summed weights) instead of degree; the scores gain the conserved weight and weighted
+        EC (see :class:`aligner.scoring.Scores`). The refinement still counts edges.
     permutations : int >= 0
         Random candidate maps for the empirical p-value of the conserved edges (0: only the
         closed-form null; see :mod:`aligner.significance`), drawn with ``permutation_seed``;
@@ -342,8 +388,9 @@ def align(
         timings[name] = round(time.perf_counter() - timings[name], 4)
 
     stage("read")
-    net_a = as_network(network_a, delimiter=delimiter, header=header, name="network_a")
-    net_b = as_network(network_b, delimiter=delimiter, header=header, name="network_b")
+    net_a = as_network(network_a, delimiter=delimiter, header=header, name="network_a", directed=directed)
+    net_b = as_network(network_b, delimiter=delimiter, header=header, name="network_b", directed=directed)
+    _check_modes(net_a, net_b, weighted)
     prior_t = None if prior is None else _as_prior(prior, net_a, net_b, score_kind, delimiter, header)
     seeds_t = None if seeds is None else as_seeds(seeds, net_a, net_b, delimiter=delimiter, header=header)
     truth_t = None if truth is None else _known_pairs(
@@ -380,7 +427,9 @@ def align(
         cand = add_seed_pairs(cand, seeds_t)
         seed_idx = seed_index(cand, seeds_t)
 
-    estimate = estimate_product_edges(net_a.indptr, net_a.indices, net_b.indptr, cand)
+    a_ip, a_ix, a_w = net_a.walk_adjacency(directed, weighted)
+    b_ip, b_ix, b_w = net_b.walk_adjacency(directed, weighted)
+    estimate = estimate_product_edges(a_ip, a_ix, b_ip, cand)
     budget = _memory_budget(max_memory)
     need = estimate * BYTES_PER_PRODUCT_ENTRY + cand.m * 64
     if need > budget:
@@ -390,12 +439,14 @@ def align(
             "--top-k, raise --min-score, or raise --max-memory (in GiB)")
 
     stage("product")
-    prod = build_product(net_a.indptr, net_a.indices, net_b.indptr, net_b.indices, cand)
+    prod = build_product(a_ip, a_ix, b_ip, b_ix, cand, a_weights=a_w if weighted else None,
+                         b_weights=b_w if weighted else None, directed=directed)
     done("product")
 
     stage("diffusion")
     h = prior_vector(cand.prior) if seeds_t is None else seed_vector(cand.prior, seed_idx, seed_weight)
-    scale = column_scale(prod, normalization, deg_a=net_a.degree, deg_b=net_b.degree, pairs=cand.pairs)
+    scale = column_scale(prod, normalization, deg_a=net_a.strength(directed, weighted),
+                         deg_b=net_b.strength(directed, weighted), pairs=cand.pairs)
     diff = diffuse(prod, h, scale, alpha=alpha, tol=tol, solver=solver)
     done("diffusion")
 
@@ -411,8 +462,8 @@ def align(
     refine = refine and alpha > 0  # alpha = 0 asks for the prior's own matching
     if refine:
         stage("refine")
-        refined = refine_matching(prod, cand, diff.x, match.index, beta=beta, max_iter=refine_iter,
-                                  method=rounding)
+        refined = refine_matching(prod.symmetrised() if directed else prod, cand, diff.x, match.index, beta=beta,
+                                  max_iter=refine_iter, method=rounding)
         if seeds_t is not None and not np.isin(seed_idx, refined.index).all():
             refine_note = "refinement moved a seed pair, so its matching was not used"
             refined = None
@@ -422,13 +473,13 @@ def align(
     truth_pairs = None if truth_t is None else truth_t.pairs
     before = None
     if refined is not None:
-        before, _ = score_matching(net_a.edges, net_b.edges, cand.pairs[match.index].astype(np.int64),
-                                   net_a.n, net_b.n, truth=truth_pairs)
+        before, _ = _scores_of(net_a, net_b, cand.pairs[match.index].astype(np.int64), truth_pairs, directed,
+                               weighted)
         match = Matching(index=refined.index, method=match.method, weight=float(diff.x[refined.index].sum()),
                          seconds=match.seconds)
     matched = cand.pairs[match.index].astype(np.int64)
-    scores, cons = score_matching(net_a.edges, net_b.edges, matched, net_a.n, net_b.n, truth=truth_pairs)
-    per_node = conserved_per_node(net_a.edges, cons, net_a.n)
+    scores, cons = _scores_of(net_a, net_b, matched, truth_pairs, directed, weighted)
+    per_node = conserved_per_node(net_a.scored_edges(directed)[0], cons, net_a.n)
     pairs_df = pd.DataFrame({
         "node_a": net_a.names[matched[:, 0]],
         "node_b": net_b.names[matched[:, 1]],
@@ -437,7 +488,7 @@ def align(
         "conserved": per_node[matched[:, 0]],
         "confidence": pair_confidence(cand, diff.x, match.index),
     })
-    cons_df = _conserved_frame(net_a, net_b, matched, cons)
+    cons_df = _conserved_frame(net_a, net_b, matched, cons, directed)
     done("scoring")
 
     cov_a, cov_b = cand.coverage()
@@ -454,7 +505,8 @@ def align(
                                                     "unknown_node_rows": truth_t.n_unknown},
         },
         "parameters": {"alpha": alpha, "top_k": top_k, "min_score": min_score, "score_kind": score_kind,
-                       "solver": solver, "tol": tol, "normalization": normalization, "rounding": rounding},
+                       "solver": solver, "tol": tol, "normalization": normalization, "rounding": rounding,
+                       "directed": directed, "weighted": weighted},
         "sizes": {"candidates": cand.m, "coverage_a": cov_a, "coverage_b": cov_b,
                   "product_edges": prod.n_edges, "product_edges_estimate": estimate // 2,
                   "matched_pairs": scores.n_matched},
@@ -477,21 +529,23 @@ def align(
         summary["seeds"] = seed_summary(net_a, net_b, matched, seeds_t,
                                         truth=None if truth_t is None else truth_t.pairs)
         summary["seeds"]["expansion"] = None if expansion is None else expansion.report()
-    summary["significance"] = _significance(net_a.edges, net_b.edges, cand, matched, scores.conserved_edges,
-                                            permutations=permutations, seed=permutation_seed,
-                                            progress=permutation_progress)
+    summary["significance"] = {"skipped": "not computed for directed networks: its null model counts "
+                                          "undirected edges"} if directed else _significance(
+        net_a.edges, net_b.edges, cand, matched, scores.conserved_edges, permutations=permutations,
+        seed=permutation_seed, progress=permutation_progress)
     return AlignmentResult(net_a, net_b, cand, prod, diff, match, scores, pairs_df, cons_df, summary)
 
 
 def score(network_a, network_b, alignment, *, truth=None, delimiter: str | None = None,
-          header: str = "auto") -> tuple[Scores, pd.DataFrame]:
+          header: str = "auto", directed: bool = False, weighted: bool = False) -> tuple[Scores, pd.DataFrame]:
     """Score an existing alignment (a table whose first two columns are node_a, node_b).
 
     Returns the scores and the conserved edges. Raises InputFormatError when a node is in two
-    pairs (the map must be one-to-one).
+    pairs (the map must be one-to-one). ``directed`` and ``weighted`` as for :func:`align`.
     """
-    net_a = as_network(network_a, delimiter=delimiter, header=header, name="network_a")
-    net_b = as_network(network_b, delimiter=delimiter, header=header, name="network_b")
+    net_a = as_network(network_a, delimiter=delimiter, header=header, name="network_a", directed=directed)
+    net_b = as_network(network_b, delimiter=delimiter, header=header, name="network_b", directed=directed)
+    _check_modes(net_a, net_b, weighted)
     tab = _known_pairs(_as_pairs(alignment, net_a, net_b, "alignment", delimiter, header), "alignment")
     if tab.n_unknown:
         warnings.warn(f"{tab.n_unknown} of {tab.n_rows} alignment rows name a node missing from its network and "
@@ -505,9 +559,8 @@ def score(network_a, network_b, alignment, *, truth=None, delimiter: str | None 
                                    "must be one-to-one", path=str(tab.source))
     truth_t = None if truth is None else _known_pairs(
         _as_pairs(truth, net_a, net_b, "truth table", delimiter, header), "truth table")
-    sc, cons = score_matching(net_a.edges, net_b.edges, p, net_a.n, net_b.n,
-                              truth=None if truth_t is None else truth_t.pairs)
-    return sc, _conserved_frame(net_a, net_b, p, cons)
+    sc, cons = _scores_of(net_a, net_b, p, None if truth_t is None else truth_t.pairs, directed, weighted)
+    return sc, _conserved_frame(net_a, net_b, p, cons, directed)
 
 
 def check_outdir(outdir: str | os.PathLike, *, force: bool = False) -> Path:

@@ -43,6 +43,12 @@ Quiet = Annotated[bool, typer.Option("--quiet", "-q", help="Print nothing but er
 SeedsOption = Annotated[Optional[Path], typer.Option(
     "--seeds", help="Anchor pairs known to correspond (node_a, node_b): fixed in the matching, extra diffusion "
     "sources; with no --prior the candidates are grown from them through the wiring.")]
+Directed = Annotated[bool, typer.Option(
+    "--directed", help="Read edge lists as arcs (first column -> second): the walk follows the arcs and divides "
+    "by out-degree; an edge is conserved only onto an arc pointing the same way.")]
+Weighted = Annotated[bool, typer.Option(
+    "--weighted", help="Use the third column of both edge lists as edge weights: the walk divides by strength "
+    "(summed weights), and the scores add the conserved weight and weighted EC.")]
 SeedWeight = Annotated[float, typer.Option(
     "--seed-weight", min=0.0, help="Total mass of the seed pairs in the diffusion's h, relative to the prior's "
     "(1: as much as the whole prior; 0: fixed only).")]
@@ -67,7 +73,7 @@ def main(
 OPTION_OF = {"alpha": "--alpha", "top_k": "--top-k", "min_score": "--min-score", "score_kind": "--score-kind",
              "solver": "--solver", "tol": "--tol", "normalization": "--normalization", "rounding": "--rounding",
              "header": "--header", "delimiter": "--delimiter", "max_memory": "--max-memory", "beta": "--beta",
-             "refine_iter": "--refine-iter"}
+             "refine_iter": "--refine-iter", "weighted": "--weighted", "directed": "--directed"}
 
 
 def _message(exc: AlignerError) -> str:
@@ -128,7 +134,7 @@ def _progress(quiet: bool):
 def _run_align(a, b, prior, outdir, *, alpha, top_k, min_score, score_kind, solver, tol, normalization,
                rounding, truth, delimiter, header, force, max_memory, quiet, permutations=0,
                permutation_seed=0, seeds=None, seed_weight=1.0, refine=True, beta=DEFAULT_BETA,
-               refine_iter=DEFAULT_MAX_ITER):
+               refine_iter=DEFAULT_MAX_ITER, directed=False, weighted=False):
     with _user_errors(quiet):
         if outdir is not None:
             check_outdir(outdir, force=force)  # refuse before any work, not after it
@@ -138,7 +144,7 @@ def _run_align(a, b, prior, outdir, *, alpha, top_k, min_score, score_kind, solv
                          delimiter=delimiter, header=header, max_memory=max_memory, progress=say,
                          permutations=permutations, permutation_seed=permutation_seed,
                          permutation_progress=getattr(say, "count", None), seeds=seeds, seed_weight=seed_weight,
-                         refine=refine, beta=beta, refine_iter=refine_iter)
+                         refine=refine, beta=beta, refine_iter=refine_iter, directed=directed, weighted=weighted)
             say("writing")
             written = write_outputs(outdir, res, force=force) if outdir is not None else []
     if not quiet:
@@ -197,6 +203,8 @@ def align(
                                         "against one conserved edge.")] = DEFAULT_BETA,
     refine_iter: Annotated[int, typer.Option("--refine-iter", help="Refinement: cap on iterations (each one "
                                              "sparse product and one assignment).")] = DEFAULT_MAX_ITER,
+    directed: Directed = False,
+    weighted: Weighted = False,
     quiet: Quiet = False,
 ):
     """Align network A to network B and write the one-to-one map with its scores."""
@@ -211,7 +219,7 @@ def align(
                truth=truth, delimiter=delimiter, header=header, force=force,
                max_memory=None if max_memory is None else max_memory * 2**30, quiet=quiet,
                permutations=permutations, permutation_seed=permutation_seed, seeds=seeds, seed_weight=seed_weight,
-               refine=refine, beta=beta, refine_iter=refine_iter)
+               refine=refine, beta=beta, refine_iter=refine_iter, directed=directed, weighted=weighted)
 
 
 @app.command()
@@ -224,13 +232,16 @@ def score(
     delimiter: Delimiter = None,
     header: Header = "auto",
     as_json: Annotated[bool, typer.Option("--json", help="Print the scores as JSON.")] = False,
+    directed: Directed = False,
+    weighted: Weighted = False,
     quiet: Quiet = False,
 ):
     """Score an existing alignment of A to B with the same measures as align."""
     import json
 
     with _user_errors(quiet):
-        sc, _ = _score(network_a, network_b, alignment, truth=truth, delimiter=delimiter, header=header)
+        sc, _ = _score(network_a, network_b, alignment, truth=truth, delimiter=delimiter, header=header,
+                       directed=directed, weighted=weighted)
     if as_json:
         typer.echo(json.dumps(sc.as_dict(), indent=2))
     elif not quiet:

@@ -72,15 +72,23 @@ def column_scale(
     deg_b: npt.NDArray[np.integer] | None = None,
     pairs: npt.NDArray[np.integer] | None = None,
 ) -> npt.NDArray[np.float64]:
-    """The column scale of P: P[k, l] = scale[l] for every product edge (k, l).
+    """The column scale of P: P[k, l] = w(l -> k) scale[l] for every product edge l -> k.
 
     ``restricted``: 1 / deg_S(l), the number of neighbours of l inside L (the random walk on
     the restricted product graph; 0 for a pair with no neighbours). ``product``:
     1 / (deg_A(j) deg_B(j')) for l = (j, j'), the walk on the whole product graph restricted
-    to L afterwards.
+    to L afterwards. On a directed product graph the degrees are out-degrees, so a pair with
+    no out-arcs keeps its mass out of the walk (a zero column: P is sub-stochastic there).
+    Weighted: the product entry weighs w_A(i, j) w_B(i', j') and degrees become strengths
+    (summed weights): ``restricted`` divides by the pair's summed entry weights, ``product``
+    by s_A(j) s_B(j'), with ``deg_a``, ``deg_b`` given as strengths.
     """
     if normalization == "restricted":
-        d = graph.degree.astype(np.float64)
+        if graph.weights is None:
+            d = graph.degree.astype(np.float64)
+        else:
+            rows = np.repeat(np.arange(graph.m), graph.degree)
+            d = np.bincount(rows, weights=graph.weights, minlength=graph.m)
     else:
         d = deg_a[pairs[:, 0]].astype(np.float64) * deg_b[pairs[:, 1]]
     out = np.zeros(len(d), dtype=np.float64)
@@ -163,7 +171,8 @@ def diffuse(
         return DiffusionResult(x, solver, alpha, tol, 0, 0, 0.0, 0.0, time.perf_counter() - t0)
     x = np.zeros(m) if x0 is None else np.array(x0, dtype=np.float64)
     r = np.empty(m)
-    _residual(graph.indptr, graph.indices, scale, alpha, x, b, r)
+    wts = np.empty(0) if graph.weights is None else graph.weights
+    _residual(graph.indptr, graph.indices, wts, scale, alpha, x, b, r)
     if solver == "push":
         deg = graph.degree.astype(np.float64) + 1.0
         thresh = tol * deg / deg.sum()
@@ -180,20 +189,21 @@ def diffuse(
             if n_active < SWEEP_FRACTION * m or steps + n_active > cap:
                 break
             if P is None:
-                P = sp.csr_array((alpha * scale[graph.indices], graph.indices, graph.indptr), shape=(m, m))
+                P = graph.transition(scale, alpha)
             delta = np.where(active, r, 0.0)
             x += delta
             r += P @ delta - delta
             steps += n_active
             touches += int(graph.indptr[-1])
             sweeps += 1
-        pushes, t2, capped = _push(graph.indptr, graph.indices, scale, alpha, x, r, thresh, max(cap - steps, 0))
+        pushes, t2, capped = _push(graph.indptr, graph.indices, wts, scale, alpha, x, r, thresh,
+                                   max(cap - steps, 0))
         steps += pushes
         touches += t2
     else:
         cap = max_work if max_work is not None else int(100 * np.log(1 / min(tol, 0.5)) / (1 - alpha)) + 10
         check_int(cap, "max_work", "diffuse", low=0)
-        P = sp.csr_array((alpha * scale[graph.indices], graph.indices, graph.indptr), shape=(m, m))
+        P = graph.transition(scale, alpha)
         steps = touches = 0
         capped = True
         while steps < cap:
@@ -206,7 +216,7 @@ def diffuse(
             touches += int(graph.indptr[-1])
         else:
             capped = np.abs(r).sum() > tol
-    resid = float(_residual(graph.indptr, graph.indices, scale, alpha, x, b, r))
+    resid = float(_residual(graph.indptr, graph.indices, wts, scale, alpha, x, b, r))
     seconds = time.perf_counter() - t0
     if capped and resid > tol:
         raise ConvergenceError(f"the {solver} solver reached its work cap before the residual tolerance "

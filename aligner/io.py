@@ -371,8 +371,9 @@ def _line_of(raw: _RawTable, row: int) -> int:
 
 # --------------------------------------------------------------------------- networks
 
-def read_network(path: str | os.PathLike, *, delimiter: str | None = None, header: str = "auto") -> Network:
-    """Read an undirected network from an edge list.
+def read_network(path: str | os.PathLike, *, delimiter: str | None = None, header: str = "auto",
+                 directed: bool = False) -> Network:
+    """Read a network from an edge list (undirected unless ``directed``).
 
     Parameters
     ----------
@@ -387,11 +388,13 @@ def read_network(path: str | os.PathLike, *, delimiter: str | None = None, heade
         Whether the first data line is a header. ``"auto"`` takes it as one when its fields
         are common column names (``source``, ``target``, ``node_a`` ...) or when its third
         field is text while the next line's is a number.
+    directed : bool
+        Read each row as an arc from the first column to the second.
 
     Returns
     -------
     Network
-        Self-loops dropped and duplicate edges merged (weights summed), each counted.
+        Self-loops dropped and duplicate edges (arcs) merged (weights summed), each counted.
 
     Raises
     ------
@@ -411,7 +414,7 @@ def read_network(path: str | os.PathLike, *, delimiter: str | None = None, heade
     b = raw.columns[1]
     names, codes = _intern(a, b)
     m = len(a)
-    return network_from_edges(names, codes[:m], codes[m:], weights, source=path)
+    return network_from_edges(names, codes[:m], codes[m:], weights, source=path, directed=directed)
 
 
 # --------------------------------------------------------------------------- priors

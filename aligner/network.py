@@ -1,4 +1,8 @@
-"""The canonical in-memory form of an undirected network: interned names and CSR adjacency."""
+"""The canonical in-memory form of a network: interned names, edges and CSR adjacency.
+
+A network is undirected unless built with ``directed=True``; a directed one keeps its arcs and
+an out-adjacency beside the undirected view that the direction-blind stages use.
+"""
 
 from __future__ import annotations
 
@@ -7,14 +11,14 @@ from dataclasses import dataclass
 import numpy as np
 import numpy.typing as npt
 
-__all__ = ["Network", "network_from_edges", "canonical_edges"]
+__all__ = ["Network", "network_from_edges", "canonical_edges", "canonical_arcs"]
 
 INDEX = np.int32  # node and pair indices; indptr arrays are int64
 
 
 @dataclass(frozen=True, eq=False)
 class Network:
-    """An undirected simple network.
+    """A simple network: undirected, or directed with its undirected view alongside.
 
     Attributes
     ----------
@@ -31,6 +35,17 @@ class Network:
         How many self-loops were dropped and duplicate edges merged on the way in.
     source : str
         Where the network came from (a path or a description).
+    adj_weights : ndarray of float64 or None
+        The weight of every entry of ``indices`` (the symmetric adjacency), when weighted.
+    directed : bool
+        Whether the edges have a direction.
+    arcs : ndarray of int32, shape (E', 2), or None
+        Directed networks: each arc (u, v) once, u != v, sorted; (u, v) and (v, u) are two arcs.
+        ``edges`` is then the undirected view (reciprocal arcs merged, their weights summed).
+    arc_weights : ndarray of float64 or None
+        Weights of ``arcs`` (duplicates summed).
+    out_indptr, out_indices, out_weights : ndarray or None
+        Directed networks: the out-adjacency (sorted successor lists) and its entry weights.
     """
 
     names: np.ndarray
@@ -41,6 +56,13 @@ class Network:
     n_self_loops: int = 0
     n_duplicate_edges: int = 0
     source: str = "<memory>"
+    adj_weights: npt.NDArray[np.float64] | None = None
+    directed: bool = False
+    arcs: npt.NDArray[np.int32] | None = None
+    arc_weights: npt.NDArray[np.float64] | None = None
+    out_indptr: npt.NDArray[np.int64] | None = None
+    out_indices: npt.NDArray[np.int32] | None = None
+    out_weights: npt.NDArray[np.float64] | None = None
 
     @property
     def n(self) -> int:
@@ -53,6 +75,44 @@ class Network:
     @property
     def degree(self) -> npt.NDArray[np.int64]:
         return np.diff(self.indptr)
+
+    @property
+    def weighted(self) -> bool:
+        return self.weights is not None
+
+    def scored_edges(self, directed: bool = False) -> tuple[npt.NDArray[np.int32], npt.NDArray[np.float64] | None]:
+        """The edges the scores count, with their weights: the arcs when ``directed``, else the edges."""
+        if directed:
+            if not self.directed:
+                raise ValueError("an undirected network has no arcs")
+            return self.arcs, self.arc_weights
+        return self.edges, self.weights
+
+    def walk_adjacency(self, directed: bool = False, weighted: bool = False):
+        """(indptr, indices, weights) of the adjacency the diffusion walks on.
+
+        The out-adjacency when ``directed`` (a directed network only), else the symmetric one;
+        ``weights`` is an empty array unless ``weighted``.
+        """
+        if directed:
+            if not self.directed:
+                raise ValueError("an undirected network has no out-adjacency")
+            ip, ix, w = self.out_indptr, self.out_indices, self.out_weights
+        else:
+            ip, ix, w = self.indptr, self.indices, self.adj_weights
+        if weighted:
+            if w is None:
+                raise ValueError("the network has no edge weights")
+            return ip, ix, w
+        return ip, ix, np.empty(0, dtype=np.float64)
+
+    def strength(self, directed: bool = False, weighted: bool = False) -> npt.NDArray[np.float64]:
+        """Degree (out-degree when ``directed``), or the summed weights when ``weighted``."""
+        ip, ix, w = self.walk_adjacency(directed, weighted)
+        if not weighted:
+            return np.diff(ip).astype(np.float64)
+        rows = np.repeat(np.arange(len(ip) - 1), np.diff(ip))
+        return np.bincount(rows, weights=w, minlength=len(ip) - 1)
 
     def index_of(self) -> dict:
         """A dict from node identifier to index (built on demand; not used on hot paths)."""
@@ -94,6 +154,35 @@ def canonical_edges(
     return edges, w, n_loops, n_dup
 
 
+def canonical_arcs(
+    u: npt.NDArray[np.integer], v: npt.NDArray[np.integer], weights: npt.NDArray[np.float64] | None = None
+) -> tuple[npt.NDArray[np.int32], npt.NDArray[np.float64] | None, int, int]:
+    """Drop self-loops and merge duplicate arcs (u, v), keeping direction.
+
+    Returns the sorted unique arcs, their summed weights, the self-loops dropped and the
+    duplicate arcs merged.
+    """
+    u = np.asarray(u, dtype=np.int64)
+    v = np.asarray(v, dtype=np.int64)
+    keep = u != v
+    n_loops = int((~keep).sum())
+    u, v = u[keep], v[keep]
+    w = None if weights is None else np.asarray(weights, dtype=np.float64)[keep]
+    if len(u) == 0:
+        return np.empty((0, 2), dtype=INDEX), (None if w is None else np.empty(0)), n_loops, 0
+    span = int(max(u.max(), v.max())) + 1
+    key = u * span + v
+    order = np.argsort(key, kind="stable")
+    key = key[order]
+    first = np.ones(len(key), dtype=bool)
+    first[1:] = key[1:] != key[:-1]
+    uniq = key[first]
+    arcs = np.stack([uniq // span, uniq % span], axis=1).astype(INDEX)
+    if w is not None:
+        w = np.bincount(np.cumsum(first) - 1, weights=w[order], minlength=len(uniq))
+    return arcs, w, n_loops, int(len(key) - len(uniq))
+
+
 def network_from_edges(
     names: np.ndarray,
     u: npt.NDArray[np.integer],
@@ -101,11 +190,24 @@ def network_from_edges(
     weights: npt.NDArray[np.float64] | None = None,
     *,
     source: str = "<memory>",
+    directed: bool = False,
 ) -> Network:
-    """Build a :class:`Network` from endpoint index arrays over ``names``."""
+    """Build a :class:`Network` from endpoint index arrays over ``names``.
+
+    With ``directed`` the rows are arcs u -> v: duplicates of an arc are merged (weights
+    summed), while (u, v) and (v, u) stay two arcs; the undirected view merges them.
+    """
     n = len(names)
-    edges, w, n_loops, n_dup = canonical_edges(u, v, weights)
-    indptr, indices = adjacency(edges, n)
+    arcs = arc_w = out_ip = out_ix = out_w = None
+    if directed:
+        arcs, arc_w, n_loops, n_dup = canonical_arcs(u, v, weights)
+        edges, w, _, _ = canonical_edges(arcs[:, 0], arcs[:, 1], arc_w)
+        out_ip, out_ix, *rest = adjacency(arcs, n, arc_w, symmetric=False)
+        out_w = rest[0] if rest else None
+    else:
+        edges, w, n_loops, n_dup = canonical_edges(u, v, weights)
+    indptr, indices, *rest = adjacency(edges, n, w)
+    adj_w = rest[0] if rest else None
     return Network(
         names=np.asarray(names, dtype=object),
         edges=edges,
@@ -115,18 +217,39 @@ def network_from_edges(
         n_self_loops=n_loops,
         n_duplicate_edges=n_dup,
         source=source,
+        adj_weights=adj_w,
+        directed=directed,
+        arcs=arcs,
+        arc_weights=arc_w,
+        out_indptr=out_ip,
+        out_indices=out_ix,
+        out_weights=out_w,
     )
 
 
-def adjacency(edges: npt.NDArray[np.integer], n: int) -> tuple[npt.NDArray[np.int64], npt.NDArray[np.int32]]:
-    """Symmetric CSR adjacency (indptr, sorted indices) of undirected ``edges`` over ``n`` nodes."""
-    src = np.concatenate([edges[:, 0], edges[:, 1]]).astype(np.int64)
-    dst = np.concatenate([edges[:, 1], edges[:, 0]]).astype(np.int64)
+def adjacency(edges: npt.NDArray[np.integer], n: int, weights: npt.NDArray[np.float64] | None = None, *,
+              symmetric: bool = True):
+    """CSR adjacency (indptr, sorted indices[, entry weights]) of ``edges`` over ``n`` nodes.
+
+    ``symmetric``: every edge is stored from both ends (an undirected network); otherwise each
+    row (u, v) is the arc u -> v, stored in u's list. With ``weights`` a third array gives the
+    weight of every stored entry.
+    """
+    if symmetric:
+        src = np.concatenate([edges[:, 0], edges[:, 1]]).astype(np.int64)
+        dst = np.concatenate([edges[:, 1], edges[:, 0]]).astype(np.int64)
+    else:
+        src = np.asarray(edges[:, 0], dtype=np.int64)
+        dst = np.asarray(edges[:, 1], dtype=np.int64)
     order = np.lexsort((dst, src))
     counts = np.bincount(src, minlength=n)
     indptr = np.zeros(n + 1, dtype=np.int64)
     np.cumsum(counts, out=indptr[1:])
-    return indptr, dst[order].astype(INDEX)
+    if weights is None:
+        return indptr, dst[order].astype(INDEX)
+    w = np.asarray(weights, dtype=np.float64)
+    w = np.concatenate([w, w]) if symmetric else w
+    return indptr, dst[order].astype(INDEX), w[order]
 
 
 def merge_duplicate_pairs(

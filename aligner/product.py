@@ -16,14 +16,18 @@ __all__ = ["ProductGraph", "build_product", "estimate_product_edges"]
 
 @dataclass(frozen=True, eq=False)
 class ProductGraph:
-    """Symmetric adjacency of the restricted product graph over the m candidate pairs.
+    """Adjacency of the restricted product graph over the m candidate pairs.
 
-    ``indices[indptr[k]:indptr[k+1]]`` are the pairs adjacent to pair k, sorted. Each
-    undirected product edge is stored twice (once from each end).
+    ``indices[indptr[k]:indptr[k+1]]`` are the pairs adjacent to pair k, sorted. Undirected:
+    each product edge is stored twice (once from each end). ``directed``: the lists are
+    out-lists, pair k = (i, i') pointing to (j, j') when i -> j in A and i' -> j' in B.
+    ``weights`` (when the networks are weighted) holds w_A(i, j) * w_B(i', j') per entry.
     """
 
     indptr: npt.NDArray[np.int64]
     indices: npt.NDArray[np.int32]
+    directed: bool = False
+    weights: npt.NDArray[np.float64] | None = None
 
     @property
     def m(self) -> int:
@@ -31,17 +35,46 @@ class ProductGraph:
 
     @property
     def n_edges(self) -> int:
-        """Number of undirected product edges."""
-        return int(self.indptr[-1]) // 2
+        """Number of product edges (arcs, when directed)."""
+        return int(self.indptr[-1]) if self.directed else int(self.indptr[-1]) // 2
+
+    def entry_weights(self) -> npt.NDArray[np.float64]:
+        """The weight of every stored entry (ones when unweighted)."""
+        return np.ones(len(self.indices)) if self.weights is None else self.weights
+
+    def transition(self, scale: npt.NDArray[np.float64], alpha: float = 1.0) -> sp.csr_array:
+        """alpha * P as a sparse matrix: P[k, l] = weight(l -> k) * scale[l] for every stored l -> k."""
+        scale = alpha * np.asarray(scale, dtype=np.float64)
+        if not self.directed:  # symmetric pattern and weights: row l holds P[l, k] = w(k, l) scale[k]
+            data = scale[self.indices] if self.weights is None else scale[self.indices] * self.weights
+            return sp.csr_array((data, self.indices, self.indptr), shape=(self.m, self.m))
+        col = np.repeat(scale, self.degree)
+        return sp.csc_array((col * self.entry_weights(), self.indices, self.indptr), shape=(self.m, self.m)).tocsr()
+
+    def symmetrised(self) -> "ProductGraph":
+        """The undirected pattern S + S^T, with multiplicity (reciprocal arcs give two entries).
+
+        For a directed product graph S, 1/2 x^T (S + S^T) x = x^T S x: on a matching's
+        indicator, the conserved arcs. Unweighted, neighbour lists sorted.
+        """
+        if not self.directed:
+            return ProductGraph(self.indptr, self.indices)
+        m = self.m
+        rows = np.repeat(np.arange(m, dtype=np.int64), self.degree)
+        src = np.concatenate([rows, self.indices.astype(np.int64)])
+        dst = np.concatenate([self.indices.astype(np.int64), rows])
+        order = np.lexsort((dst, src))
+        indptr = np.zeros(m + 1, dtype=np.int64)
+        np.cumsum(np.bincount(src, minlength=m), out=indptr[1:])
+        return ProductGraph(indptr, dst[order].astype(np.int32))
 
     @property
     def degree(self) -> npt.NDArray[np.int64]:
         return np.diff(self.indptr)
 
     def to_csr(self) -> sp.csr_array:
-        """The adjacency as a scipy CSR array of ones."""
-        data = np.ones(len(self.indices), dtype=np.float64)
-        return sp.csr_array((data, self.indices, self.indptr), shape=(self.m, self.m))
+        """The adjacency as a scipy CSR array: row k holds k's (out-)neighbours, with weights."""
+        return sp.csr_array((self.entry_weights(), self.indices, self.indptr), shape=(self.m, self.m))
 
 
 def build_product(
@@ -50,15 +83,25 @@ def build_product(
     b_indptr: npt.NDArray[np.int64],
     b_indices: npt.NDArray[np.int32],
     cand: CandidateSet,
+    *,
+    a_weights: npt.NDArray[np.float64] | None = None,
+    b_weights: npt.NDArray[np.float64] | None = None,
+    directed: bool = False,
 ) -> ProductGraph:
     """Build the product graph of A and B restricted to the candidate pairs.
 
     Parameters
     ----------
     a_indptr, a_indices, b_indptr, b_indices : ndarray
-        Symmetric CSR adjacencies of A and B with sorted neighbour lists.
+        CSR adjacencies of A and B with sorted neighbour lists: symmetric, or the
+        out-adjacencies of directed networks (with ``directed``).
     cand : CandidateSet
         The candidate pairs, sorted by (node of A, node of B).
+    a_weights, b_weights : ndarray, optional
+        Weights of the adjacency entries (both or neither); the product entry of
+        (i, i') -> (j, j') then weighs w_A(i, j) * w_B(i', j').
+    directed : bool
+        The adjacencies are out-adjacencies; the result holds out-lists.
 
     Returns
     -------
@@ -89,13 +132,22 @@ def build_product(
     pair_b = np.ascontiguousarray(cand.pairs[:, 1])
     indptr = np.zeros(m + 1, dtype=np.int64)
     dummy = np.empty(0, dtype=np.int32)
+    weighted = a_weights is not None
+    if weighted != (b_weights is not None):
+        raise ValueError("give the edge weights of both networks or of neither")
+    none = np.empty(0, dtype=np.float64)
+    a_w = none if not weighted else np.ascontiguousarray(a_weights, dtype=np.float64)
+    b_w = none if not weighted else np.ascontiguousarray(b_weights, dtype=np.float64)
     if m == 0:
-        return ProductGraph(indptr=indptr, indices=dummy)
-    _product_pass(a_indptr, a_indices, b_indptr, b_indices, cand.a_indptr, pair_b, cand.n2, indptr, dummy, False)
+        return ProductGraph(indptr=indptr, indices=dummy, directed=directed, weights=none if weighted else None)
+    _product_pass(a_indptr, a_indices, b_indptr, b_indices, cand.a_indptr, pair_b, cand.n2, indptr, dummy, False,
+                  a_w, b_w, none)
     np.cumsum(indptr, out=indptr)
     indices = np.empty(int(indptr[-1]), dtype=np.int32)
-    _product_pass(a_indptr, a_indices, b_indptr, b_indices, cand.a_indptr, pair_b, cand.n2, indptr, indices, True)
-    return ProductGraph(indptr=indptr, indices=indices)
+    out_w = np.empty(len(indices) if weighted else 0, dtype=np.float64)
+    _product_pass(a_indptr, a_indices, b_indptr, b_indices, cand.a_indptr, pair_b, cand.n2, indptr, indices, True,
+                  a_w, b_w, out_w)
+    return ProductGraph(indptr=indptr, indices=indices, directed=directed, weights=out_w if weighted else None)
 
 
 def estimate_product_edges(

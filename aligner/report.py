@@ -30,10 +30,14 @@ def scores_table(scores: dict, title: str = "Scores") -> Table:
         ("lccs_nodes", "largest common connected subgraph: nodes"),
         ("lccs_edges", "largest common connected subgraph: edges"),
         ("nc", "NC (node correctness)"),
+        ("conserved_weight", "conserved weight"),
+        ("weighted_ec", "weighted EC"),
         ("n_matched", "matched pairs"),
     ]
+    if scores.get("directed"):
+        labels[0] = ("conserved_edges", "conserved arcs")
     for key, label in labels:
-        if key == "nc" and scores.get("nc") is None:
+        if key in ("nc", "conserved_weight", "weighted_ec") and scores.get(key) is None:
             continue
         t.add_row(label, _fmt(scores.get(key)))
     return t
@@ -78,7 +82,9 @@ def summary_table(summary: dict) -> Table:
     elif rf:
         t.add_row("refinement", rf["skipped"])
     t.add_row("matched pairs", f"{sc['n_matched']:,}")
-    t.add_row("conserved edges", f"{sc['conserved_edges']:,}")
+    t.add_row("conserved arcs" if sc.get("directed") else "conserved edges", f"{sc['conserved_edges']:,}")
+    if sc.get("conserved_weight") is not None:
+        t.add_row("conserved weight / weighted EC", f"{sc['conserved_weight']:,.4g} / {sc['weighted_ec']:.4f}")
     t.add_row("EC / ICS / S3", f"{sc['ec']:.4f} / {sc['ics']:.4f} / {sc['s3']:.4f}")
     t.add_row("largest common connected subgraph", f"{sc['lccs_nodes']:,} nodes, {sc['lccs_edges']:,} edges")
     if sc.get("nc") is not None:

@@ -32,6 +32,13 @@ class Scores:
         Nodes and edges of the largest connected component of the conserved subgraph.
     nc : float or None
         Node correctness against a truth table, when one is given.
+    conserved_weight, weighted_ec : float or None
+        Weighted networks: the summed conserved weight, sum over conserved edges e of
+        min(w_A(e), w_B(f(e))) (the weight both networks agree on), and weighted edge
+        correctness, conserved_weight / min(W_A, W_B) with W the total edge weights. With
+        unit weights they are the conserved edges and EC.
+    directed : bool
+        Whether edges were counted as arcs: (u, v) conserved only onto the arc (f(u), f(v)).
     n_matched : int
         Number of mapped nodes.
     induced_edges_b : int
@@ -50,6 +57,9 @@ class Scores:
     n_edges_b: int
     nc: float | None = None
     nc_detail: dict = field(default_factory=dict)
+    conserved_weight: float | None = None
+    weighted_ec: float | None = None
+    directed: bool = False
 
     def as_dict(self) -> dict:
         return {
@@ -64,17 +74,53 @@ class Scores:
             "induced_edges_b": self.induced_edges_b,
             "edges_a": self.n_edges_a,
             "edges_b": self.n_edges_b,
-        }
+        } | ({"directed": True} if self.directed else {}) | (
+            {} if self.conserved_weight is None else {"conserved_weight": self.conserved_weight,
+                                                       "weighted_ec": self.weighted_ec})
 
 
-def _edge_keys(edges: npt.NDArray[np.integer], n: int) -> npt.NDArray[np.int64]:
-    lo = np.minimum(edges[:, 0], edges[:, 1]).astype(np.int64)
-    hi = np.maximum(edges[:, 0], edges[:, 1]).astype(np.int64)
-    return np.sort(lo * n + hi)
+def _keys(u, v, n: int, directed: bool) -> npt.NDArray[np.int64]:
+    u = np.asarray(u, dtype=np.int64)
+    v = np.asarray(v, dtype=np.int64)
+    if directed:
+        return u * n + v
+    return np.minimum(u, v) * n + np.maximum(u, v)
+
+
+def _edge_keys(edges: npt.NDArray[np.integer], n: int, directed: bool = False) -> npt.NDArray[np.int64]:
+    return np.sort(_keys(edges[:, 0], edges[:, 1], n, directed))
+
+
+def conserved_image(
+    edges_a: npt.NDArray[np.integer], edges_b: npt.NDArray[np.integer], f: npt.NDArray[np.int64], n2: int,
+    directed: bool = False,
+) -> npt.NDArray[np.int64]:
+    """For every edge of A, the row of ``edges_b`` it is carried onto by ``f``, or -1.
+
+    ``f`` maps nodes of A to nodes of B (-1 = unmapped). Directed: (u, v) is conserved only
+    onto the arc (f(u), f(v)).
+    """
+    out = np.full(len(edges_a), -1, dtype=np.int64)
+    if len(edges_a) == 0 or len(edges_b) == 0:
+        return out
+    fu = f[edges_a[:, 0]]
+    fv = f[edges_a[:, 1]]
+    both = (fu >= 0) & (fv >= 0)
+    if not both.any():
+        return out
+    kb = _keys(edges_b[:, 0], edges_b[:, 1], n2, directed)
+    order = np.argsort(kb, kind="stable")
+    keys_b = kb[order]
+    q = _keys(fu[both], fv[both], n2, directed)
+    pos = np.minimum(np.searchsorted(keys_b, q), len(keys_b) - 1)
+    hit = keys_b[pos] == q
+    out[np.flatnonzero(both)[hit]] = order[pos[hit]]
+    return out
 
 
 def conserved_mask(
-    edges_a: npt.NDArray[np.integer], edges_b: npt.NDArray[np.integer], f: npt.NDArray[np.int64], n2: int
+    edges_a: npt.NDArray[np.integer], edges_b: npt.NDArray[np.integer], f: npt.NDArray[np.int64], n2: int,
+    directed: bool = False,
 ) -> npt.NDArray[np.bool_]:
     """For every edge of A, whether the map ``f`` (``-1`` = unmapped) carries it onto an edge of B."""
     fu = f[edges_a[:, 0]]
@@ -83,10 +129,8 @@ def conserved_mask(
     out = np.zeros(len(edges_a), dtype=bool)
     if not both.any() or len(edges_b) == 0:
         return out
-    keys_b = _edge_keys(edges_b, n2)
-    lo = np.minimum(fu[both], fv[both])
-    hi = np.maximum(fu[both], fv[both])
-    q = lo * n2 + hi
+    keys_b = _edge_keys(edges_b, n2, directed)
+    q = _keys(fu[both], fv[both], n2, directed)
     pos = np.minimum(np.searchsorted(keys_b, q), len(keys_b) - 1)
     out[both] = keys_b[pos] == q
     return out
@@ -119,6 +163,9 @@ def score_matching(
     n2: int,
     *,
     truth: npt.NDArray[np.integer] | None = None,
+    directed: bool = False,
+    weights_a: npt.NDArray[np.float64] | None = None,
+    weights_b: npt.NDArray[np.float64] | None = None,
 ) -> tuple[Scores, npt.NDArray[np.bool_]]:
     """Score a one-to-one map given as matched pairs.
 
@@ -132,6 +179,13 @@ def score_matching(
         Node counts.
     truth : ndarray of int, shape (T, 2), optional
         Known true pairs, for node correctness.
+    directed : bool
+        The edge lists are arcs (u, v): an arc is conserved only onto the arc (f(u), f(v)),
+        and EC, ICS and S3 count arcs. The largest common connected subgraph is then weakly
+        connected.
+    weights_a, weights_b : ndarray, optional
+        Edge weights (both or neither), for the weighted variants (conserved weight,
+        weighted EC; see :class:`Scores`).
 
     Returns
     -------
@@ -166,8 +220,18 @@ def score_matching(
     matched = np.asarray(matched, dtype=np.int64).reshape(-1, 2)
     f = np.full(n1, -1, dtype=np.int64)
     f[matched[:, 0]] = matched[:, 1]
-    cons = conserved_mask(edges_a, edges_b, f, n2)
+    image_row = conserved_image(edges_a, edges_b, f, n2, directed)
+    cons = image_row >= 0
     c = int(cons.sum())
+    cw = wec = None
+    if (weights_a is None) != (weights_b is None):
+        raise ValueError("give the edge weights of both networks or of neither")
+    if weights_a is not None:
+        wa = np.asarray(weights_a, dtype=np.float64)
+        wb = np.asarray(weights_b, dtype=np.float64)
+        cw = float(np.minimum(wa[cons], wb[image_row[cons]]).sum())
+        den = min(float(wa.sum()), float(wb.sum()))
+        wec = cw / den if den > 0 else 0.0
     image = np.zeros(n2, dtype=bool)
     image[matched[:, 1]] = True
     induced = int((image[edges_b[:, 0]] & image[edges_b[:, 1]]).sum()) if len(edges_b) else 0
@@ -191,6 +255,7 @@ def score_matching(
     return Scores(
         conserved_edges=c, ec=ec, ics=ics, s3=s3, lccs_nodes=lccs_nodes, lccs_edges=lccs_edges,
         n_matched=len(matched), induced_edges_b=induced, n_edges_a=ea, n_edges_b=eb, nc=nc, nc_detail=detail,
+        conserved_weight=cw, weighted_ec=wec, directed=directed,
     ), cons
 
 
