@@ -26,6 +26,7 @@ from .rounding import METHODS, Matching, round_matching
 from .scoring import Scores, conserved_per_node, score_matching
 from .confidence import pair_confidence
 from .significance import significance as _significance
+from .structural import FEATURE_NAMES, combine_priors, structural_candidates
 from .seeds import (DEFAULT_SEED_WEIGHT, add_seed_pairs, as_seeds, expand_from_seeds, round_with_fixed, seed_index,
                     seed_summary, seed_vector)
 
@@ -274,6 +275,8 @@ def align(
     refine_iter: int = DEFAULT_MAX_ITER,
     directed: bool = False,
     weighted: bool = False,
+    structural: bool = False,
+    structural_weight: float = 0.5,
 ) -> AlignmentResult:
     """Align two networks: a one-to-one map between their nodes.
 
@@ -282,9 +285,11 @@ def align(
     network_a, network_b : path, networkx.Graph, pandas.DataFrame or Network
         The two undirected networks (edge lists: node, node[, weight]).
     prior : path or pandas.DataFrame, optional
-        The prior similarity table: node of A, node of B, score. May be left out when
-        ``seeds`` are given: the candidates are then grown from the seeds through the wiring
-        (see :func:`aligner.seeds.expand_from_seeds`).
+        The prior similarity table: node of A, node of B, score. Left out, the candidates
+        and their prior come from structure: grown from the ``seeds`` through the wiring when
+        seeds are given (see :func:`aligner.seeds.expand_from_seeds`), else each node's
+        ``top_k`` nearest nodes of the other network in structural-feature space (see
+        :func:`aligner.structural.structural_candidates`).
     alpha : float in [0, 1)
         Weight of the wiring against the prior in the diffusion; 0 returns the prior.
     top_k : int >= 1 or None
@@ -338,6 +343,13 @@ def align(
         (i, i') and (j, j') weighs w_A(i, j) w_B(i', j') and the walk divides by strength
         (summed weights) instead of degree; the scores gain the conserved weight and weighted
         EC (see :class:`aligner.scoring.Scores`). The refinement still counts edges.
+    structural : bool
+        Add structural candidates (as used when there is no prior) to the prior's: the union
+        of the pairs, each table rescaled to a maximum of 1, a pair scoring
+        prior + ``structural_weight`` * structural (see :func:`aligner.structural.combine_priors`).
+        For a weak prior that misses true partners.
+    structural_weight : float >= 0
+        Weight of the structural similarity against the prior's with ``structural``.
     permutations : int >= 0
         Random candidate maps for the empirical p-value of the conserved edges (0: only the
         closed-form null; see :mod:`aligner.significance`), drawn with ``permutation_seed``;
@@ -374,9 +386,8 @@ def align(
     beta = check_real(beta, "beta", where, low=0.0)
     refine_iter = check_int(refine_iter, "refine_iter", where, low=0)
     seed_weight = check_real(seed_weight, "seed_weight", where, low=0.0)
-    if prior is None and seeds is None:
-        raise InvalidParameterError("align needs a prior or seeds: give a prior similarity table (--prior), or "
-                                    "anchor pairs (--seeds) to align from the wiring alone.")
+    structural_weight = check_real(structural_weight, "structural_weight", where, low=0.0)
+    structural = bool(structural) or (prior is None and seeds is None)
     say = progress or (lambda stage: None)
     timings: dict[str, float] = {}
 
@@ -413,12 +424,24 @@ def align(
 
     stage("candidates")
     expansion = None
-    if prior_t is None:  # seeds only: candidates grown from them through the wiring
+    struct_info = None
+    if structural:  # structural nearest neighbours, alone or added to the prior
+        s_pairs, s_scores = structural_candidates(net_a, net_b, k=top_k or 25)
+        struct_info = {"pairs": int(len(s_pairs)), "k": top_k or 25, "features": list(FEATURE_NAMES),
+                       "weight": None if prior_t is None else structural_weight}
+        if prior_t is not None:
+            ok = prior_t.scores >= min_score
+            s_pairs, s_scores = combine_priors(prior_t.pairs[ok], prior_t.scores[ok], s_pairs, s_scores, net_b.n,
+                                               weight=structural_weight)
+        cand = build_candidates(s_pairs, s_scores, net_a.n, net_b.n, top_k=top_k)
+    elif prior_t is None:  # seeds only: candidates grown from them through the wiring
         expansion = expand_from_seeds(net_a, net_b, seeds_t, top_k=top_k)
         cand = expansion.candidates
     else:
         cand = build_candidates(prior_t.pairs, prior_t.scores, net_a.n, net_b.n, min_score=min_score, top_k=top_k)
     done("candidates")
+    if cand.m == 0 and struct_info is not None:
+        raise NoCandidatesError("no structural candidate pair: a network has no nodes")
     if cand.m == 0:
         raise NoCandidatesError(f"{prior_t.source}: no prior pair scores at least the minimum score "
                                 f"{min_score:g}; lower --min-score (the highest score is "
@@ -517,7 +540,8 @@ def align(
     }
     if scores.nc_detail:
         summary["scores"]["nc_detail"] = scores.nc_detail
-    summary["parameters"] |= {"refine": refine, "beta": beta, "refine_iter": refine_iter}
+    summary["parameters"] |= {"refine": refine, "beta": beta, "refine_iter": refine_iter, "structural": structural}
+    summary["structural"] = struct_info
     summary["refine"] = None if not refine else (
         {"skipped": refine_note} if refined is None else
         refined.report() | {"objective_per_iteration": refined.objective,

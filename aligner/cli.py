@@ -73,7 +73,8 @@ def main(
 OPTION_OF = {"alpha": "--alpha", "top_k": "--top-k", "min_score": "--min-score", "score_kind": "--score-kind",
              "solver": "--solver", "tol": "--tol", "normalization": "--normalization", "rounding": "--rounding",
              "header": "--header", "delimiter": "--delimiter", "max_memory": "--max-memory", "beta": "--beta",
-             "refine_iter": "--refine-iter", "weighted": "--weighted", "directed": "--directed"}
+             "refine_iter": "--refine-iter", "weighted": "--weighted", "directed": "--directed",
+             "structural_weight": "--structural-weight"}
 
 
 def _message(exc: AlignerError) -> str:
@@ -134,7 +135,8 @@ def _progress(quiet: bool):
 def _run_align(a, b, prior, outdir, *, alpha, top_k, min_score, score_kind, solver, tol, normalization,
                rounding, truth, delimiter, header, force, max_memory, quiet, permutations=0,
                permutation_seed=0, seeds=None, seed_weight=1.0, refine=True, beta=DEFAULT_BETA,
-               refine_iter=DEFAULT_MAX_ITER, directed=False, weighted=False):
+               refine_iter=DEFAULT_MAX_ITER, directed=False, weighted=False, structural=False,
+               structural_weight=0.5):
     with _user_errors(quiet):
         if outdir is not None:
             check_outdir(outdir, force=force)  # refuse before any work, not after it
@@ -144,7 +146,8 @@ def _run_align(a, b, prior, outdir, *, alpha, top_k, min_score, score_kind, solv
                          delimiter=delimiter, header=header, max_memory=max_memory, progress=say,
                          permutations=permutations, permutation_seed=permutation_seed,
                          permutation_progress=getattr(say, "count", None), seeds=seeds, seed_weight=seed_weight,
-                         refine=refine, beta=beta, refine_iter=refine_iter, directed=directed, weighted=weighted)
+                         refine=refine, beta=beta, refine_iter=refine_iter, directed=directed, weighted=weighted,
+                         structural=structural, structural_weight=structural_weight)
             say("writing")
             written = write_outputs(outdir, res, force=force) if outdir is not None else []
     if not quiet:
@@ -163,7 +166,8 @@ def align(
     outdir: Annotated[Path, typer.Option("--out", "-o", help="Output directory for alignment.tsv, "
                                          "conserved_edges.tsv and summary.json.")],
     prior: Annotated[Optional[Path], typer.Option("--prior", "-p", help="Prior similarity table: node_a, node_b, "
-                                                  "score. Required unless --seeds is given.")] = None,
+                                                  "score. Without it (and without --seeds) the candidates come from "
+                                                  "structural features.")] = None,
     alpha: Annotated[float, typer.Option(help="Weight of the wiring against the prior, in [0, 1); 0 returns "
                                          "the prior's own best matching.")] = 0.9,
     top_k: Annotated[int, typer.Option("--top-k", help="Candidates: each node's top-k prior pairs on each "
@@ -205,12 +209,16 @@ def align(
                                              "sparse product and one assignment).")] = DEFAULT_MAX_ITER,
     directed: Directed = False,
     weighted: Weighted = False,
+    structural: Annotated[bool, typer.Option("--structural-candidates", help="Add each node's top-k nearest nodes "
+                                             "in structural-feature space to the prior's candidates (for a weak "
+                                             "prior; used alone when there is no prior).")] = False,
+    structural_weight: Annotated[float, typer.Option("--structural-weight", min=0.0, help="With "
+                                                     "--structural-candidates and a prior: weight of the structural "
+                                                     "similarity against the prior's (both rescaled to max 1).")]
+    = 0.5,
     quiet: Quiet = False,
 ):
     """Align network A to network B and write the one-to-one map with its scores."""
-    if prior is None and seeds is None:
-        raise typer.BadParameter("give a prior similarity table, or --seeds to align from known pairs and the "
-                                 "wiring alone", param_hint="'--prior'")
     if max_memory is not None and not max_memory > 0:  # a usage error (exit 2), in the option's own unit
         raise typer.BadParameter(f"must be a positive number of GiB, such as 4 or 0.5; got {max_memory:g}",
                                  param_hint="'--max-memory'")
@@ -219,7 +227,8 @@ def align(
                truth=truth, delimiter=delimiter, header=header, force=force,
                max_memory=None if max_memory is None else max_memory * 2**30, quiet=quiet,
                permutations=permutations, permutation_seed=permutation_seed, seeds=seeds, seed_weight=seed_weight,
-               refine=refine, beta=beta, refine_iter=refine_iter, directed=directed, weighted=weighted)
+               refine=refine, beta=beta, refine_iter=refine_iter, directed=directed, weighted=weighted,
+               structural=structural, structural_weight=structural_weight)
 
 
 @app.command()

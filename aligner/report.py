@@ -56,10 +56,15 @@ def summary_table(summary: dict) -> Table:
             t.add_row(f"network {tag}: self-loops dropped / duplicates merged",
                       f"{net['self_loops_dropped']:,} / {net['duplicate_edges_merged']:,}")
     pr = summary["inputs"]["prior"]
-    if pr is None:
+    st = summary.get("structural")
+    if pr is None and st is None:
         t.add_row("prior", "none: candidates grown from the seeds")
+    elif pr is None:
+        t.add_row("prior", f"none: structural candidates ({st['pairs']:,} pairs, k = {st['k']})")
     else:
         t.add_row("prior rows / usable pairs", f"{pr['rows']:,} / {pr['pairs']:,}")
+        if st is not None:
+            t.add_row("structural candidates added", f"{st['pairs']:,} (weight {st['weight']:g})")
     if pr is not None and pr["unknown_node_rows"]:
         t.add_row("prior rows naming unknown nodes", f"{pr['unknown_node_rows']:,}")
     sd = summary.get("seeds")

@@ -198,9 +198,11 @@ def test_cli_seeds_without_prior_and_errors(tmp_path):
     assert {"seed_edges_a", "conserved_among_seeds", "scores_without_seed_edges"} <= set(summary["seeds"])
     tab = pd.read_csv(tmp_path / "out" / "alignment.tsv", sep="\t", keep_default_na=False)
     assert set(map(tuple, one.iloc[::10, :2].values)) <= set(zip(tab.node_a, tab.node_b))
-    # neither a prior nor seeds
-    res = runner.invoke(app, ["align", *nets, "-o", str(tmp_path / "o2")])
-    assert res.exit_code == 2 and "--seeds" in res.output
+    # neither a prior nor seeds: the candidates come from structural features
+    res = runner.invoke(app, ["align", *nets, "-o", str(tmp_path / "o2"), "-q"])
+    assert res.exit_code == 0, res.output
+    summary2 = json.loads((tmp_path / "o2" / "summary.json").read_text())
+    assert summary2["inputs"]["prior"] is None and summary2["structural"]["pairs"] > 0
     # a node in two seed pairs: exit 2, the message names the file and line
     bad = tmp_path / "bad.tsv"
     rows = one.iloc[:2, :2].values.tolist()
