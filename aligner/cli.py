@@ -74,7 +74,8 @@ OPTION_OF = {"alpha": "--alpha", "top_k": "--top-k", "min_score": "--min-score",
              "solver": "--solver", "tol": "--tol", "normalization": "--normalization", "rounding": "--rounding",
              "header": "--header", "delimiter": "--delimiter", "max_memory": "--max-memory", "beta": "--beta",
              "refine_iter": "--refine-iter", "weighted": "--weighted", "directed": "--directed",
-             "structural_weight": "--structural-weight"}
+             "structural_weight": "--structural-weight", "top_k_labels": "--top-k",
+             "min_similarity": "--min-similarity"}
 
 
 def _message(exc: AlignerError) -> str:
@@ -263,10 +264,17 @@ def demo(
                                                    "a new temporary directory.")] = None,
     force: Annotated[bool, typer.Option("--force", help="Replace outputs already in the output directory.")]
     = False,
+    scenario: Annotated[str, typer.Option("--scenario", help="firefly: two invented firefly protein-interaction "
+                                          "maps with a sequence-similarity prior; registry: two invented trade "
+                                          "registries' records of the same companies, with a prior from their "
+                                          "names (aligner prior-from-labels).")] = "firefly",
     quiet: Quiet = False,
 ):
-    """Run the bundled example (two invented firefly interaction maps) end to end."""
-    base = resources.files("aligner") / "demo_data" / "firefly"
+    """Run a bundled example end to end (default: two invented firefly interaction maps)."""
+    if scenario not in SCENARIOS:
+        raise typer.BadParameter(f"must be one of {', '.join(SCENARIOS)}; got {scenario!r}",
+                                 param_hint="'--scenario'")
+    base = resources.files("aligner") / "demo_data" / scenario
     with resources.as_file(base) as d:
         d = Path(d)
         target = Path(outdir) if outdir is not None else Path(tempfile.mkdtemp(prefix="aligner-demo-"))
@@ -277,6 +285,10 @@ def demo(
                    min_score=0.0, score_kind="similarity", solver="push", tol=1e-6, normalization="restricted",
                    rounding="auto", truth=d / "truth.tsv", delimiter=None, header="auto", force=force,
                    max_memory=None, quiet=quiet, permutations=100)
+
+
+#: the bundled demo scenarios (folders of aligner/demo_data)
+SCENARIOS = ("firefly", "registry")
 
 
 def _alpha_list(text: str) -> list[float]:
@@ -432,6 +444,55 @@ def query(
         out.print(f"  {w['candidates']} candidates · {w['pairs_touched']:,} pairs touched · "
                   f"{w['product_edges_scanned']:,} product edges scanned · {w['pushes']:,} pushes · "
                   f"{1000 * w['seconds']:.1f} ms", highlight=False, markup=False, emoji=False)
+
+
+@app.command("prior-from-labels")
+def prior_from_labels(
+    labels_a: Annotated[Path, typer.Argument(help="Labels of network A's nodes: identifier, a tab, the label "
+                                             "text (a line without a tab: the identifier is its own label).")],
+    labels_b: Annotated[Path, typer.Argument(help="Labels of network B's nodes, the same way.")],
+    output: Annotated[Path, typer.Option("--out", "-o", help="Prior table to write (TSV: node_a, node_b, "
+                                         "score).")],
+    top_k: Annotated[int, typer.Option("--top-k", min=1, help="Keep each node's top-k most similar labels on "
+                                       "each side (their union).")] = 10,
+    min_similarity: Annotated[float, typer.Option("--min-similarity", help="Drop pairs whose cosine similarity "
+                                                  "is below this, in (0, 1].")] = 0.1,
+    from_networks: Annotated[bool, typer.Option("--from-networks", help="The two arguments are edge lists: the "
+                                                "node identifiers themselves are the labels.")] = False,
+    delimiter: Delimiter = None,
+    header: Header = "auto",
+    force: Annotated[bool, typer.Option("--force", help="Replace the output file if it exists.")] = False,
+    quiet: Quiet = False,
+):
+    """Build a prior from node names or attribute text: character n-gram TF-IDF cosine similarity."""
+    from .io import read_network
+    from .labels import label_prior, read_labels, write_prior
+
+    with _user_errors(quiet):
+        if output.exists() and not force:
+            raise InvalidParameterError(f"The output '{output}' already exists; choose another path or pass "
+                                        "--force to replace it.")
+        if output.exists() and output.is_dir():
+            raise InvalidParameterError(f"The output '{output}' is a directory; give a file path with --out.")
+        if from_networks:
+            la, lb = (_identity_labels(read_network(p, delimiter=delimiter, header=header).names)
+                      for p in (labels_a, labels_b))
+        else:
+            la, lb = read_labels(labels_a), read_labels(labels_b)
+        table = label_prior(la, lb, top_k=top_k, min_similarity=min_similarity)
+        write_prior(table, output)
+    if not quiet:
+        out.print(f"wrote {len(table):,} pairs ({len(la):,} x {len(lb):,} labels, top {top_k} per node, "
+                  f"similarity >= {min_similarity:g}) to {output}", highlight=False, soft_wrap=True, markup=False,
+                  emoji=False)
+
+
+def _identity_labels(names):
+    """Node identifiers as their own labels."""
+    import pandas as pd
+
+    ids = [str(n) for n in names]
+    return pd.Series(ids, index=ids, dtype=object)
 
 
 if __name__ == "__main__":  # pragma: no cover
