@@ -283,8 +283,9 @@ def label_prior(labels_a, labels_b, *, top_k: int = 10, min_similarity: float = 
     filter this would be ``sum_g df_A(g) df_B(g)``, nearly ``n_A n_B`` times the n-grams per
     label, since common n-grams (``" co"``, ``"ltd"``) are in most labels. The head still
     holds words shared by many labels (an industry word), so the time grows about as
-    ``n_A n_B``: 35 s at 2 x 10^4 names per side on 2 threads, see
-    ``scripts/bench_labels.py`` for 10^5. Memory ``O(nnz(X) + n_B + block_rows * top_k)``
+    ``n_A n_B``: on 2 threads, 35 s at 2 x 10^4 names per side and 540 s (peak resident
+    memory 1.1 GiB) at 10^5 per side, the names of ``scripts/make_registry_demo.py``
+    (``scripts/bench_labels.py``). Memory ``O(nnz(X) + n_B + block_rows * top_k)``
     per pass, plus the output: no n_A x n_B array of any kind.
 
     Examples
