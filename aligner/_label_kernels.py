@@ -168,15 +168,4 @@ def pair_dots(a_indptr, a_indices, a_data, b_indptr, b_indices, b_data, ia, ib, 
     for t in range(ia.shape[0]):
         p, pe = a_indptr[ia[t]], a_indptr[ia[t] + 1]
         q, qe = b_indptr[ib[t]], b_indptr[ib[t] + 1]
-        s = 0.0
-        while p < pe and q < qe:
-            u, v = a_indices[p], b_indices[q]
-            if u == v:
-                s += a_data[p] * b_data[q]
-                p += 1
-                q += 1
-            elif u < v:
-                p += 1
-            else:
-                q += 1
-        out[t] = s
+        out[t] = _merge_dot(a_indices, a_data, p, pe, b_indices, b_data, q, qe)

@@ -441,7 +441,7 @@ def align(
         cand = build_candidates(prior_t.pairs, prior_t.scores, net_a.n, net_b.n, min_score=min_score, top_k=top_k)
     done("candidates")
     if cand.m == 0 and struct_info is not None:
-        raise NoCandidatesError("no structural candidate pair: a network has no nodes")
+        raise NoCandidatesError("no structural candidate pair: one of the networks has no node with an edge")
     if cand.m == 0:
         raise NoCandidatesError(f"{prior_t.source}: no prior pair scores at least the minimum score "
                                 f"{min_score:g}; lower --min-score (the highest score is "
@@ -531,7 +531,7 @@ def align(
                        "solver": solver, "tol": tol, "normalization": normalization, "rounding": rounding,
                        "directed": directed, "weighted": weighted},
         "sizes": {"candidates": cand.m, "coverage_a": cov_a, "coverage_b": cov_b,
-                  "product_edges": prod.n_edges, "product_edges_estimate": estimate // 2,
+                  "product_edges": prod.n_edges, "product_edges_estimate": estimate if directed else estimate // 2,
                   "matched_pairs": scores.n_matched},
         "scores": scores.as_dict(),
         "solver": diff.report() | {"rounding": match.method, "matched_weight": match.weight,

@@ -74,8 +74,7 @@ OPTION_OF = {"alpha": "--alpha", "top_k": "--top-k", "min_score": "--min-score",
              "solver": "--solver", "tol": "--tol", "normalization": "--normalization", "rounding": "--rounding",
              "header": "--header", "delimiter": "--delimiter", "max_memory": "--max-memory", "beta": "--beta",
              "refine_iter": "--refine-iter", "weighted": "--weighted", "directed": "--directed",
-             "structural_weight": "--structural-weight", "top_k_labels": "--top-k",
-             "min_similarity": "--min-similarity"}
+             "structural_weight": "--structural-weight", "min_similarity": "--min-similarity"}
 
 
 def _message(exc: AlignerError) -> str:

@@ -12,6 +12,7 @@ import scipy.sparse as sp
 from ._push import _push, _residual
 from ._validation import check_choice, check_int, check_real
 from .exceptions import ConvergenceError
+from .network import row_sums
 from .product import ProductGraph
 
 __all__ = ["DiffusionResult", "diffuse", "column_scale", "prior_vector"]
@@ -84,11 +85,7 @@ def column_scale(
     by s_A(j) s_B(j'), with ``deg_a``, ``deg_b`` given as strengths.
     """
     if normalization == "restricted":
-        if graph.weights is None:
-            d = graph.degree.astype(np.float64)
-        else:
-            rows = np.repeat(np.arange(graph.m), graph.degree)
-            d = np.bincount(rows, weights=graph.weights, minlength=graph.m)
+        d = graph.degree.astype(np.float64) if graph.weights is None else row_sums(graph.indptr, graph.weights)
     else:
         d = deg_a[pairs[:, 0]].astype(np.float64) * deg_b[pairs[:, 1]]
     out = np.zeros(len(d), dtype=np.float64)

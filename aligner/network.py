@@ -109,14 +109,17 @@ class Network:
     def strength(self, directed: bool = False, weighted: bool = False) -> npt.NDArray[np.float64]:
         """Degree (out-degree when ``directed``), or the summed weights when ``weighted``."""
         ip, ix, w = self.walk_adjacency(directed, weighted)
-        if not weighted:
-            return np.diff(ip).astype(np.float64)
-        rows = np.repeat(np.arange(len(ip) - 1), np.diff(ip))
-        return np.bincount(rows, weights=w, minlength=len(ip) - 1)
+        return row_sums(ip, w) if weighted else np.diff(ip).astype(np.float64)
 
     def index_of(self) -> dict:
         """A dict from node identifier to index (built on demand; not used on hot paths)."""
         return {name: i for i, name in enumerate(self.names)}
+
+
+def row_sums(indptr: npt.NDArray[np.int64], data: npt.NDArray[np.float64]) -> npt.NDArray[np.float64]:
+    """The sum of every CSR row's entries (0 for an empty row)."""
+    n = len(indptr) - 1
+    return np.bincount(np.repeat(np.arange(n), np.diff(indptr)), weights=data, minlength=n)
 
 
 def canonical_edges(

@@ -87,10 +87,6 @@ def _keys(u, v, n: int, directed: bool) -> npt.NDArray[np.int64]:
     return np.minimum(u, v) * n + np.maximum(u, v)
 
 
-def _edge_keys(edges: npt.NDArray[np.integer], n: int, directed: bool = False) -> npt.NDArray[np.int64]:
-    return np.sort(_keys(edges[:, 0], edges[:, 1], n, directed))
-
-
 def conserved_image(
     edges_a: npt.NDArray[np.integer], edges_b: npt.NDArray[np.integer], f: npt.NDArray[np.int64], n2: int,
     directed: bool = False,
@@ -123,17 +119,7 @@ def conserved_mask(
     directed: bool = False,
 ) -> npt.NDArray[np.bool_]:
     """For every edge of A, whether the map ``f`` (``-1`` = unmapped) carries it onto an edge of B."""
-    fu = f[edges_a[:, 0]]
-    fv = f[edges_a[:, 1]]
-    both = (fu >= 0) & (fv >= 0)
-    out = np.zeros(len(edges_a), dtype=bool)
-    if not both.any() or len(edges_b) == 0:
-        return out
-    keys_b = _edge_keys(edges_b, n2, directed)
-    q = _keys(fu[both], fv[both], n2, directed)
-    pos = np.minimum(np.searchsorted(keys_b, q), len(keys_b) - 1)
-    out[both] = keys_b[pos] == q
-    return out
+    return conserved_image(edges_a, edges_b, f, n2, directed) >= 0
 
 
 def node_correctness(matched: npt.NDArray[np.integer], truth: npt.NDArray[np.integer], n1: int) -> tuple[float, dict]:

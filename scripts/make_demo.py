@@ -11,13 +11,14 @@ entirely synthetic: the species, the proteins and the interactions are invented.
 
 from __future__ import annotations
 
-import argparse
 import sys
 from pathlib import Path
 
 import numpy as np
 
 ROOT = Path(__file__).resolve().parent.parent
+sys.path.insert(0, str(Path(__file__).resolve().parent))
+from _demo_files import write_or_check  # noqa: E402
 try:
     from aligner.synthetic import evolved_pair
 except ImportError:  # running from a checkout without installing the package
@@ -204,24 +205,7 @@ decimal. Proteins left without any interaction after the rewiring are left out o
 
 
 def main(argv: list[str] | None = None) -> int:
-    parser = argparse.ArgumentParser(description=__doc__.split("\n\n")[0])
-    parser.add_argument("--check", action="store_true",
-                        help="do not write; exit 1 if any file differs from what would be written")
-    args = parser.parse_args(argv)
-    files, stats = build()
-    targets = [(d / name, text) for d in OUT_DIRS for name, text in files.items()]
-    targets.append((OUT_DIRS[0] / "README.md", readme(stats)))
-    if args.check:
-        stale = [str(p.relative_to(ROOT)) for p, text in targets
-                 if not p.exists() or p.read_bytes() != text.encode("utf-8")]
-        for p in stale:
-            print(f"out of date: {p}")
-        return 1 if stale else 0
-    for path, text in targets:
-        path.parent.mkdir(parents=True, exist_ok=True)
-        path.write_bytes(text.encode("utf-8"))
-        print(f"wrote {path.relative_to(ROOT)}")
-    return 0
+    return write_or_check(argv, __doc__.split("\n\n")[0], build, readme, OUT_DIRS, ROOT)
 
 
 if __name__ == "__main__":
