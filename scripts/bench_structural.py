@@ -16,6 +16,7 @@ Usage::
 
     python scripts/bench_structural.py [--sizes 2000 10000] [--seeds 0 1] [--k 25] [--top-k 25]
                                        [--noise 0 0.01 0.05 0.15] [--csv bench_out/structural.csv]
+    python scripts/bench_structural.py --timing 100000 1000000   # cost of the features and candidates
 """
 
 from __future__ import annotations
@@ -64,6 +65,24 @@ def markdown(table: pd.DataFrame) -> str:
     return "\n".join(lines + ["| " + " | ".join(r) + " |" for r in cells])
 
 
+def timing(n: int, k: int, candidates: bool) -> None:
+    """Time node_features on an n-node power-law graph, and structural_candidates against itself."""
+    from aligner.structural import node_features, structural_candidates
+    from aligner.synthetic import powerlaw_graph
+
+    e = powerlaw_graph(n, seed=0)
+    net = network_from_edges(np.arange(n).astype(str).astype(object), e[:, 0], e[:, 1])
+    node_features(net)  # compile
+    t0 = time.perf_counter()
+    node_features(net)
+    line = f"n={n:,} edges={net.n_edges:,}: node_features {time.perf_counter() - t0:.2f} s"
+    if candidates:
+        t0 = time.perf_counter()
+        pairs, _ = structural_candidates(net, net, k=k)
+        line += f", structural_candidates (k={k}) {time.perf_counter() - t0:.1f} s, {len(pairs):,} pairs"
+    print(line, flush=True)
+
+
 def main(argv=None) -> pd.DataFrame:
     ap = argparse.ArgumentParser(description=__doc__.splitlines()[0])
     ap.add_argument("--sizes", type=int, nargs="+", default=[2000])
@@ -73,7 +92,13 @@ def main(argv=None) -> pd.DataFrame:
     ap.add_argument("--k", type=int, default=25)
     ap.add_argument("--top-k", type=int, default=25, help="top_k of aligner.align")
     ap.add_argument("--csv", default=None)
+    ap.add_argument("--timing", type=int, nargs="+", default=None,
+                    help="instead: time the features (and, up to 2e5 nodes, the candidates) at these sizes")
     args = ap.parse_args(argv)
+    if args.timing:
+        for n in args.timing:
+            timing(n, args.k, candidates=n <= 200_000)
+        return pd.DataFrame()
     rows = [run_one(g, n, noise, seed, args.k, args.top_k)
             for g in args.graphs for n in args.sizes for noise in args.noise for seed in args.seeds]
     table = pd.DataFrame(rows)
