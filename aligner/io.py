@@ -697,8 +697,8 @@ def publish_outputs(outdir: str | os.PathLike, texts: dict[str, str]) -> None:
     if not out.exists():
         parent.mkdir(parents=True, exist_ok=True)
     new = (parent if swap else out) / _staging_name(out, "new")
-    os.mkdir(new)  # mode 0o777 less the umask, as a plain mkdir
-    try:
+    try:  # from the mkdir on: a Ctrl-C landing just after it must still remove the staging directory
+        os.mkdir(new)  # mode 0o777 less the umask, as a plain mkdir
         for name, text in texts.items():
             with open(new / name, "x", encoding="utf-8", newline="\n") as fh:
                 fh.write(text)
