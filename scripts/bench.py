@@ -31,7 +31,7 @@ import numpy as np
 
 def make_instance(path: Path, n: int, model: str, noise: float, decoys: str, seed: int) -> None:
     """Write network_a.tsv, network_b.tsv, prior.tsv, truth.tsv for one case (skipped if present)."""
-    from aligner.synthetic import duplication_divergence_graph, powerlaw_graph, relabelled_pair
+    from aligner.datasets.synthetic import duplication_divergence_graph, powerlaw_graph, relabelled_pair
 
     if (path / "truth.tsv").exists():
         return
@@ -62,8 +62,8 @@ def worker(inst: Path, result: Path, power: bool) -> None:
     """Child process: one end-to-end run on the files in ``inst``; figures written to ``result``."""
     t0 = time.perf_counter()
     import aligner
-    from aligner.api import write_outputs
-    from aligner.diffusion import column_scale, diffuse, prior_vector
+    from aligner.pipeline import write_outputs
+    from aligner.core.diffusion import column_scale, diffuse, prior_vector
 
     t_import = time.perf_counter() - t0
     with tempfile.TemporaryDirectory() as out:

@@ -28,8 +28,8 @@ import numpy as np
 import pandas as pd
 
 import aligner
-from aligner.priors import prior_from_classes
-from aligner.synthetic import noisy_prior, opaque_names
+from aligner.priors.classes import prior_from_classes
+from aligner.datasets.synthetic import noisy_prior, opaque_names
 
 DATA = Path(__file__).resolve().parent.parent / "tests" / "data"
 

@@ -1,6 +1,6 @@
 """Align simulated cross-species pairs evolved from a common ancestor, across divergence levels.
 
-Simulation (aligner.synthetic.evolved_pair): an ancestral network of N nodes grows by
+Simulation (aligner.datasets.synthetic.evolved_pair): an ancestral network of N nodes grows by
 duplication with divergence; two species then evolve from it independently by further
 duplications until each has N * growth nodes, and a fraction of their edges is moved. The
 truth is every pair of nodes descended from the same ancestral node (several partners after
@@ -22,7 +22,7 @@ import numpy as np
 import pandas as pd
 
 import aligner
-from aligner.synthetic import evolved_pair
+from aligner.datasets.synthetic import evolved_pair
 
 
 def frames(pair):

@@ -8,7 +8,7 @@ Usage::
     python scripts/bench_labels.py --csv out.csv   # also write the rows as CSV
 
 The table aligns the two registries of ``demo_pairs/registry`` (see its README) with the prior
-from :func:`aligner.labels.label_prior`: ``alpha=0`` is the prior's own best one-to-one matching
+from :func:`aligner.priors.labels.label_prior`: ``alpha=0`` is the prior's own best one-to-one matching
 (labels alone), the default ``alpha=0.9`` adds the contract networks (and the refinement).
 The timing run makes ``n`` invented names and ``n`` corrupted copies with the generator of
 ``scripts/make_registry_demo.py`` (seeded) and times ``label_prior`` on them; peak memory is
@@ -35,8 +35,8 @@ except ImportError:  # running from a checkout without installing the package
     sys.path.insert(0, str(ROOT))
 import make_registry_demo as demo  # noqa: E402
 
-from aligner.api import align  # noqa: E402
-from aligner.labels import label_prior  # noqa: E402
+from aligner.pipeline import align  # noqa: E402
+from aligner.priors.labels import label_prior  # noqa: E402
 
 DATA = ROOT / "demo_pairs" / "registry"
 SEED = 7

@@ -10,7 +10,7 @@ discovery, pushes, and wall time. The preparation (building the networks, the ca
 the query index, once per size) is timed apart.
 
 With ``--check N`` the first N queries of the smallest size are also solved on the full
-product graph (``aligner.diffusion.diffuse`` with the same h, tolerance 1e-12) and the largest
+product graph (``aligner.core.diffusion.diffuse`` with the same h, tolerance 1e-12) and the largest
 violation of the certified per-score bound is reported (it must be <= 0), with how often the
 query's top counterpart is the true partner.
 
@@ -33,9 +33,9 @@ import numpy as np
 
 
 def build(n: int, seed: int, noise: float):
-    from aligner.candidates import build_candidates
-    from aligner.network import network_from_edges
-    from aligner.synthetic import powerlaw_graph, relabelled_pair
+    from aligner.core.candidates import build_candidates
+    from aligner.core.network import network_from_edges
+    from aligner.datasets.synthetic import powerlaw_graph, relabelled_pair
 
     edges = powerlaw_graph(n, m=4, p=0.3, seed=seed)
     pair = relabelled_pair(edges, n, noise=noise, decoys=10, seed=seed + 1)
@@ -68,7 +68,7 @@ def main(argv=None) -> int:
     ap.add_argument("--out", default="bench_out")
     args = ap.parse_args(argv)
 
-    from aligner.query import DEFAULT_QUERY_TOL, QueryEngine
+    from aligner.analysis.query import DEFAULT_QUERY_TOL, QueryEngine
 
     tol = DEFAULT_QUERY_TOL if args.tol is None else args.tol
     sizes = [int(s) for s in args.sizes.split(",")]
@@ -98,8 +98,8 @@ def main(argv=None) -> int:
                 top1_prior += 1
         viol = None
         if si == 0 and args.check:
-            from aligner.diffusion import column_scale, diffuse
-            from aligner.product import build_product
+            from aligner.core.diffusion import column_scale, diffuse
+            from aligner.core.product import build_product
 
             prod = build_product(net_a.indptr, net_a.indices, net_b.indptr, net_b.indices, cand)
             scale = column_scale(prod)

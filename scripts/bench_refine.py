@@ -1,8 +1,8 @@
-"""Benchmark of the overlap-aware refinement (aligner.refine): before/after tables.
+"""Benchmark of the overlap-aware refinement (aligner.core.refine): before/after tables.
 
 Instances:
 
-* synthetic relabelled noisy pairs (aligner.synthetic.relabelled_pair on a power-law graph
+* synthetic relabelled noisy pairs (aligner.datasets.synthetic.relabelled_pair on a power-law graph
   with triangle formation) of 1,000 and 10,000 nodes at 5% and 15% edge noise, whose prior
   lists the true partner and decoys within two steps of it, with true and decoy scores drawn
   from the same distribution (so the prior only says which pairs are candidates). Two
@@ -38,14 +38,14 @@ import numpy as np
 import pandas as pd
 
 import aligner
-from aligner.candidates import build_candidates
-from aligner.diffusion import column_scale, diffuse, prior_vector
-from aligner.network import network_from_edges
-from aligner.product import build_product
-from aligner.refine import DEFAULT_BETA, normalise_weights, refine_matching
-from aligner.rounding import round_matching
-from aligner.scoring import score_matching
-from aligner.synthetic import powerlaw_graph, relabelled_pair
+from aligner.core.candidates import build_candidates
+from aligner.core.diffusion import column_scale, diffuse, prior_vector
+from aligner.core.network import network_from_edges
+from aligner.core.product import build_product
+from aligner.core.refine import DEFAULT_BETA, normalise_weights, refine_matching
+from aligner.core.rounding import round_matching
+from aligner.core.scoring import score_matching
+from aligner.datasets.synthetic import powerlaw_graph, relabelled_pair
 
 DATA = Path(__file__).resolve().parents[1] / "tests" / "data"
 

@@ -34,8 +34,8 @@ import numpy as np
 
 
 def instance(n, m, noise, seed, with_prior):
-    from aligner.network import network_from_edges
-    from aligner.synthetic import powerlaw_graph, relabelled_pair
+    from aligner.core.network import network_from_edges
+    from aligner.datasets.synthetic import powerlaw_graph, relabelled_pair
 
     edges = powerlaw_graph(n, m=m, p=0.3, seed=seed)
     kw = dict(decoys=10, decoy_mode="near", true_score=(1.0, 0.3), decoy_score=(0.9, 0.3)) if with_prior else {}
@@ -70,7 +70,7 @@ def main(argv=None) -> int:
     args = ap.parse_args(argv)
 
     import aligner
-    from aligner.seeds import DEFAULT_SEED_WEIGHT
+    from aligner.priors.seeds import DEFAULT_SEED_WEIGHT
 
     weight = DEFAULT_SEED_WEIGHT if args.seed_weight is None else args.seed_weight
     fractions = [float(f) for f in args.fractions.split(",")]

@@ -1,9 +1,9 @@
-"""Benchmark of alignment from structure alone (aligner.structural): no prior table at all.
+"""Benchmark of alignment from structure alone (aligner.priors.structural): no prior table at all.
 
-Instances: relabelled noisy copies (aligner.synthetic.relabelled_pair; its own prior is
-ignored) of a power-law graph with triangle formation (aligner.synthetic.powerlaw_graph,
+Instances: relabelled noisy copies (aligner.datasets.synthetic.relabelled_pair; its own prior is
+ignored) of a power-law graph with triangle formation (aligner.datasets.synthetic.powerlaw_graph,
 defaults m=4, p=0.3) and of a duplication-divergence graph
-(aligner.synthetic.duplication_divergence_graph, defaults), at edge noise 0, 0.01, 0.05 and
+(aligner.datasets.synthetic.duplication_divergence_graph, defaults), at edge noise 0, 0.01, 0.05 and
 0.15. The prior handed to aligner.align is the output of structural_candidates (k given by
 ``--k``) as a node_a, node_b, score table; align runs with its defaults (refinement on) except
 ``top_k`` (``--top-k``, default 25 as in align).
@@ -28,9 +28,9 @@ import numpy as np
 import pandas as pd
 
 import aligner
-from aligner.network import network_from_edges
-from aligner.structural import structural_candidates
-from aligner.synthetic import duplication_divergence_graph, powerlaw_graph, relabelled_pair
+from aligner.core.network import network_from_edges
+from aligner.priors.structural import structural_candidates
+from aligner.datasets.synthetic import duplication_divergence_graph, powerlaw_graph, relabelled_pair
 
 GRAPHS = {"powerlaw": powerlaw_graph, "dupdiv": duplication_divergence_graph}
 
@@ -67,8 +67,8 @@ def markdown(table: pd.DataFrame) -> str:
 
 def timing(n: int, k: int, candidates: bool) -> None:
     """Time node_features on an n-node power-law graph, and structural_candidates against itself."""
-    from aligner.structural import node_features, structural_candidates
-    from aligner.synthetic import powerlaw_graph
+    from aligner.priors.structural import node_features, structural_candidates
+    from aligner.datasets.synthetic import powerlaw_graph
 
     e = powerlaw_graph(n, seed=0)
     net = network_from_edges(np.arange(n).astype(str).astype(object), e[:, 0], e[:, 1])

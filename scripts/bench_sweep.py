@@ -14,9 +14,9 @@ from pathlib import Path
 import numpy as np
 import pandas as pd
 
-from aligner.api import align
-from aligner.sweep import sweep
-from aligner.synthetic import powerlaw_graph, relabelled_pair
+from aligner.pipeline import align
+from aligner.analysis.sweep import sweep
+from aligner.datasets.synthetic import powerlaw_graph, relabelled_pair
 
 ALPHAS = [0.0, 0.1, 0.2, 0.3, 0.4, 0.5, 0.6, 0.7, 0.8, 0.85, 0.9, 0.95]
 

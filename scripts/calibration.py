@@ -11,8 +11,8 @@ import networkx as nx
 import numpy as np
 import pandas as pd
 
-from aligner.api import align
-from aligner.synthetic import powerlaw_graph, relabelled_pair
+from aligner.pipeline import align
+from aligner.datasets.synthetic import powerlaw_graph, relabelled_pair
 
 
 def table(res, truth: set[tuple[str, str]]) -> pd.DataFrame:

@@ -1,4 +1,4 @@
-"""Fuzz the file readers of :mod:`aligner.io` for a fixed time.
+"""Fuzz the file readers of :mod:`aligner.io.readers` for a fixed time.
 
 Usage::
 
@@ -57,9 +57,9 @@ class InvariantError(AssertionError):
 def _load() -> None:
     """Import the package lazily, so that the atheris engine can instrument it on import."""
     global AlignerError, _lookup, read_network, read_pairs, read_prior, network_from_edges
-    from aligner.exceptions import AlignerError
-    from aligner.io import _lookup, read_network, read_pairs, read_prior
-    from aligner.network import network_from_edges
+    from aligner.errors import AlignerError
+    from aligner.io.readers import _lookup, read_network, read_pairs, read_prior
+    from aligner.core.network import network_from_edges
 
 
 def _fixed_network():
@@ -138,7 +138,7 @@ def run_one(data: bytes, opts: dict) -> list:
     """
     if "read_network" not in globals():
         _load()
-    import aligner.io as aio
+    import aligner.io.readers as aio
 
     with tempfile.TemporaryDirectory(prefix="aligner-fuzz-") as d, warnings.catch_warnings():
         warnings.simplefilter("ignore")

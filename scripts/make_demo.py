@@ -20,10 +20,10 @@ ROOT = Path(__file__).resolve().parent.parent
 sys.path.insert(0, str(Path(__file__).resolve().parent))
 from _demo_files import write_or_check  # noqa: E402
 try:
-    from aligner.synthetic import evolved_pair
+    from aligner.datasets.synthetic import evolved_pair
 except ImportError:  # running from a checkout without installing the package
     sys.path.insert(0, str(ROOT))
-    from aligner.synthetic import evolved_pair
+    from aligner.datasets.synthetic import evolved_pair
 
 SEED = 20240611
 N_ANCESTOR = 1400
@@ -190,7 +190,7 @@ writes this directory and an identical copy of the four data files into
 directory). The script uses a fixed seed ({SEED}); rerunning it rewrites byte-identical files,
 and `{COMMAND} --check` verifies that the files on disk are current.
 
-The script calls `aligner.synthetic.evolved_pair`: an ancestral network of {N_ANCESTOR}
+The script calls `aligner.datasets.synthetic.evolved_pair`: an ancestral network of {N_ANCESTOR}
 proteins is grown by duplication with divergence (each copy keeps each interaction of its
 parent with probability {P_RETAIN}); each species then grows from it independently by the same
 process to {N_FINAL[0]} and {N_FINAL[1]} proteins; {EDGE_NOISE:.0%} of each species' interactions

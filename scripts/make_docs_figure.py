@@ -7,7 +7,7 @@ from __future__ import annotations
 
 from pathlib import Path
 
-from aligner.sweep import plot_sweep, sweep
+from aligner.analysis.sweep import plot_sweep, sweep
 
 ROOT = Path(__file__).resolve().parent.parent
 

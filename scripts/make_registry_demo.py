@@ -20,12 +20,12 @@ ROOT = Path(__file__).resolve().parent.parent
 sys.path.insert(0, str(Path(__file__).resolve().parent))
 from _demo_files import write_or_check  # noqa: E402
 try:
-    from aligner.labels import label_prior
-    from aligner.synthetic import powerlaw_graph
+    from aligner.priors.labels import label_prior
+    from aligner.datasets.synthetic import powerlaw_graph
 except ImportError:  # running from a checkout without installing the package
     sys.path.insert(0, str(ROOT))
-    from aligner.labels import label_prior
-    from aligner.synthetic import powerlaw_graph
+    from aligner.priors.labels import label_prior
+    from aligner.datasets.synthetic import powerlaw_graph
 
 SEED = 20240917
 N_COMPANIES = 1500
@@ -241,7 +241,7 @@ def build() -> tuple[dict[str, str], dict[str, object]]:
                         min_similarity=MIN_SIMILARITY)
     lines = [
         f"# Name similarity of {REGISTRY_A[0]} companies (node_a) to {REGISTRY_B[0]} companies (node_b).",
-        f"# score: character 2-4-gram TF-IDF cosine of the names, from aligner.labels.label_prior(top_k={TOP_K},",
+        f"# score: character 2-4-gram TF-IDF cosine of the names, from aligner.priors.labels.label_prior(top_k={TOP_K},",
         f"# min_similarity={MIN_SIMILARITY}). Entirely synthetic. Written by `{COMMAND}` (seed {SEED}).",
         "node_a\tnode_b\tscore",
     ]
@@ -306,14 +306,14 @@ top are comments that describe the file.
 | `network_b.tsv` | `node_a`, `node_b` | contracts on record at the {b[0]}: {stats["n"]} companies, {stats["e_b"]} undirected contracts |
 | `labels_a.tsv` | `node`, `label` | the registered name of each company at the {a[0]} |
 | `labels_b.tsv` | `node`, `label` | the registered name of each company at the {b[0]} |
-| `prior.tsv` | `node_a`, `node_b`, `score` | {stats["n_prior"]} name-similarity pairs from `aligner.labels.label_prior` ({stats["truth_in_prior"]} of them true) |
+| `prior.tsv` | `node_a`, `node_b`, `score` | {stats["n_prior"]} name-similarity pairs from `aligner.priors.labels.label_prior` ({stats["truth_in_prior"]} of them true) |
 | `truth.tsv` | `node_a`, `node_b` | the {stats["n"]} true pairs |
 
 Run it from Python:
 
 ```python
-from aligner.api import align
-from aligner.labels import label_prior
+from aligner.pipeline import align
+from aligner.priors.labels import label_prior
 prior = label_prior("labels_a.tsv", "labels_b.tsv")
 res = align("network_a.tsv", "network_b.tsv", prior, truth="truth.tsv")   # names and contracts
 alone = align("network_a.tsv", "network_b.tsv", prior, alpha=0.0, truth="truth.tsv")  # names alone
@@ -348,7 +348,7 @@ disk are current.
   Co, International to Intl, and to &, ...); then a misspelling with probability {P_TYPO:g}, and
   a second one with probability {P_TYPO ** 2:.3g}: two neighbouring letters swapped, a letter
   dropped or a letter doubled (in a word of four letters or more).
-* **Contracts.** Registry A's network is `aligner.synthetic.powerlaw_graph({stats["n"]}, m={ATTACH_M},
+* **Contracts.** Registry A's network is `aligner.datasets.synthetic.powerlaw_graph({stats["n"]}, m={ATTACH_M},
   p={TRIANGLE_P})` (preferential attachment with triangles: a few large suppliers, many small
   firms). Registry B records the same contracts except {EDGE_NOISE:.0%} of them, replaced by as many
   random ones (never leaving a company without a contract). The companies are shuffled.

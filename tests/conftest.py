@@ -1,8 +1,8 @@
 import numpy as np
 import pytest
 
-from aligner.candidates import build_candidates
-from aligner.network import adjacency, canonical_edges
+from aligner.core.candidates import build_candidates
+from aligner.core.network import adjacency, canonical_edges
 
 
 def random_edges(n, p, rng):

@@ -32,7 +32,7 @@ import numpy as np
 import pytest
 from typer.testing import CliRunner
 
-from aligner.cli import app
+from aligner.cli.app import app
 
 runner = CliRunner()
 N = 150
@@ -124,7 +124,7 @@ def test_other_process_and_hash_seed_same_bytes(instance, tmp_path):
     ref = _run(instance, tmp_path / "ref")
     env = dict(os.environ, PYTHONHASHSEED="12345")
     out = tmp_path / "proc"
-    proc = subprocess.run([sys.executable, "-c", "from aligner.cli import app; app()", "align",
+    proc = subprocess.run([sys.executable, "-c", "from aligner.cli.app import app; app()", "align",
                            str(instance / "a_shuffled.tsv"), str(instance / "b_shuffled.tsv"),
                            "--prior", str(instance / "p_shuffled.tsv"), "-o", str(out), "-q"],
                           env=env, capture_output=True, timeout=300)
@@ -137,7 +137,7 @@ def test_ties_are_broken_the_same_way_every_time():
     import networkx as nx
     import pandas as pd
 
-    from aligner.api import align
+    from aligner.pipeline import align
 
     ga = nx.star_graph(5)  # hub 0, leaves 1..5: every leaf pair ties
     gb = nx.relabel_nodes(nx.star_graph(5), lambda v: f"b{v}")

@@ -16,8 +16,8 @@ from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 from scipy.optimize import linear_sum_assignment
 
-from aligner.api import align
-from aligner.exceptions import AlignerWarning
+from aligner.pipeline import align
+from aligner.errors import AlignerWarning
 
 SETTINGS = settings(max_examples=40, deadline=None, suppress_health_check=[HealthCheck.too_slow])
 # Refinement is left out here: its objective counts conserved edges, an integer with many exact

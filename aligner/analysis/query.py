@@ -1,0 +1,475 @@
+"""Counterpart queries: which nodes of B best correspond to a node of A, without a global solve.
+
+A query solves the same diffusion as :func:`aligner.align`, x = alpha P x + (1 - alpha) h on
+the product graph of A and B restricted to the candidate pairs L, but with h seeded at the
+asked node's candidate pairs only, by push (Andersen, Chung & Lang 2006) from those pairs. The
+product graph is never built: a pair's neighbours are discovered when the push first needs
+them, from the two adjacency lists and the candidate index, and kept for the rest of the
+query (see :mod:`aligner.kernels.query`). Work and memory depend on the part of the product
+graph the push reaches, not on the size of the networks.
+"""
+
+from __future__ import annotations
+
+import math
+import os
+import time
+import warnings
+from dataclasses import dataclass, field
+
+import numpy as np
+import numpy.typing as npt
+import pandas as pd
+
+from aligner.kernels.query import _local_push, _reset_slots
+from aligner.checks import check_choice, check_int, check_real
+from aligner.core.candidates import CandidateSet, build_candidates
+from aligner.core.diffusion import NORMALIZATIONS
+from aligner.errors import AlignerWarning, ConvergenceError, InvalidParameterError, NoCandidatesError
+from aligner.core.network import Network
+from aligner.priors.seeds import DEFAULT_SEED_WEIGHT, SeedTable, add_seed_pairs, as_seeds, expand_from_seeds, seed_index, seed_vector
+
+__all__ = ["query", "QueryEngine", "QueryResult", "LocalSolution", "DEFAULT_QUERY_TOL", "SIDES"]
+
+#: Default push tolerance of a query, relative to the mass of its h (which is 1): an entry is
+#: pushed while its residual exceeds tol * deg_S, so every score is certified to within
+#: tol * deg_S / (1 - alpha) (see :class:`LocalSolution`).
+DEFAULT_QUERY_TOL = 1e-6
+SIDES = ("a", "b")
+TABLE_COLUMNS = ["query", "side", "rank", "counterpart", "score", "error_bound", "prior", "support", "fixed"]
+WORK_COLUMNS = ["query", "side", "candidates", "seeds_near", "excluded_by_seeds", "pairs_touched", "pairs_expanded",
+                "degrees_counted", "product_edges_scanned", "search_probes", "pushes", "residual_l1", "eps",
+                "seconds"]
+
+
+@dataclass(frozen=True, eq=False)
+class LocalSolution:
+    """A local solve of x = alpha P x + (1 - alpha) h over the pairs it reached.
+
+    Attributes
+    ----------
+    pairs : ndarray of int64
+        Global candidate indices of the pairs touched (held with a residual or a score); x
+        and r are zero on every other candidate.
+    x, r, h : ndarray of float64
+        Scores, exact residual r = (1 - alpha) h - (I - alpha P) x, and personalization, on
+        ``pairs``.
+    degree : ndarray of int64
+        deg_S of each touched pair (its number of product-graph neighbours), -1 where it was
+        never needed.
+    expanded : ndarray of bool
+        Whether the pair's neighbour list was discovered and kept (the pairs pushed from).
+    weight : ndarray of float64
+        The threshold weight v of each pair: deg_S (restricted normalisation; a lower bound
+        where not expanded) or deg_A deg_B (product normalisation).
+    eps, alpha : float
+        Push threshold (entry l pushed while |r_l| > eps v_l) and the wiring weight.
+    pushes, edges_scanned, probes, rounds : int
+        Pushes made; neighbour-list entries read by them (product edges scanned); binary
+        searches made while counting and discovering neighbour lists; queue rounds.
+    residual_l1 : float
+        ||r||_1, recomputed exactly from x at the end.
+    seconds : float
+
+    Notes
+    -----
+    **What is certified.** Let x* be the exact solution over the whole candidate set L
+    (what :func:`aligner.core.diffusion.diffuse` with the same h converges to). With
+    G = (I - alpha P)^-1 >= 0 entrywise, x* - x = G r. At exit |r_l| <= eps v_l for every
+    pair of L (pairs never touched have r = 0), and P v <= v (with equality for the
+    restricted walk, P[k, l] = 1/deg_S(l): (P deg_S)_k = deg_S(k)), so
+    |x*_k - x_k| <= eps G v <= eps v_k / (1 - alpha) for **every** pair k of L. Also
+    ||x* - x||_1 <= ||r||_1 / (1 - alpha), so each entry is within that too.
+    :meth:`error_bound` gives the smaller of the two. Since h >= 0 the residual stays >= 0
+    and x_k <= x*_k: a score can only rise towards the exact one. The bounds are exact
+    arithmetic statements; the double-precision rounding of the sums is below 1e-12 here.
+    """
+
+    pairs: npt.NDArray[np.int64]
+    x: npt.NDArray[np.float64]
+    r: npt.NDArray[np.float64]
+    h: npt.NDArray[np.float64]
+    degree: npt.NDArray[np.int64]
+    expanded: npt.NDArray[np.bool_]
+    weight: npt.NDArray[np.float64]
+    eps: float
+    alpha: float
+    pushes: int
+    edges_scanned: int
+    probes: int
+    rounds: int
+    residual_l1: float
+    seconds: float
+
+    @property
+    def pairs_touched(self) -> int:
+        return len(self.pairs)
+
+    @property
+    def pairs_expanded(self) -> int:
+        return int(self.expanded.sum())
+
+    @property
+    def degrees_counted(self) -> int:
+        return int((self.degree >= 0).sum())
+
+    def error_bound(self, local: npt.ArrayLike | None = None) -> npt.NDArray[np.float64]:
+        """Certified bound on |x*_k - x_k| for the touched pairs at local positions ``local``.
+
+        min(eps v_k, ||r||_1) / (1 - alpha), with v_k = deg_S(k) (restricted) for an expanded
+        pair whose deg_S was counted; for any other pair only ||r||_1 / (1 - alpha) is used.
+        """
+        idx = np.arange(len(self.pairs)) if local is None else np.asarray(local, dtype=np.int64)
+        glob = np.full(len(idx), self.residual_l1)
+        known = self.degree[idx] >= 0
+        glob[known] = np.minimum(self.eps * self.weight[idx][known], self.residual_l1)
+        return glob / (1.0 - self.alpha)
+
+
+class QueryEngine:
+    """Answers counterpart queries on two networks and a candidate set, one node at a time.
+
+    Building it costs O(m) once (a B-side index of the candidates and one int64 slot per
+    candidate, reset entry by entry after each query); each query then touches only the part
+    of the product graph its push reaches.
+
+    Parameters
+    ----------
+    net_a, net_b : Network
+    cand : CandidateSet
+        The candidate pairs; with seeds, they must include the seed pairs
+        (:func:`aligner.priors.seeds.add_seed_pairs`).
+    alpha : float in [0, 1)
+    tol : float > 0
+        Push tolerance relative to the mass of h (see :data:`DEFAULT_QUERY_TOL`).
+    normalization : {"restricted", "product"}
+    seeds : SeedTable, optional
+    seed_weight : float >= 0
+    max_pushes : int, optional
+        Cap on the pushes of one query (default 10^8).
+    """
+
+    def __init__(self, net_a: Network, net_b: Network, cand: CandidateSet, *, alpha: float = 0.9,
+                 tol: float = DEFAULT_QUERY_TOL, normalization: str = "restricted", seeds: SeedTable | None = None,
+                 seed_weight: float = DEFAULT_SEED_WEIGHT, max_pushes: int | None = None):
+        where = "QueryEngine"
+        self.alpha = check_real(alpha, "alpha", where, low=0.0, high=1.0, closed="left")
+        self.tol = check_real(tol, "tol", where, low=0.0, closed="neither")
+        self.normalization = check_choice(normalization, "normalization", where, NORMALIZATIONS)
+        self.seed_weight = check_real(seed_weight, "seed_weight", where, low=0.0)
+        self.max_pushes = 10**8 if max_pushes is None else check_int(max_pushes, "max_pushes", where, low=0)
+        self.net_a, self.net_b, self.cand = net_a, net_b, cand
+        self.seeds = seeds
+        self._c_a = np.ascontiguousarray(cand.pairs[:, 0], dtype=np.int64)
+        self._c_b = np.ascontiguousarray(cand.pairs[:, 1], dtype=np.int64)
+        self._b_order = np.argsort(self._c_b, kind="stable").astype(np.int64)
+        self._b_indptr = np.zeros(cand.n2 + 1, dtype=np.int64)
+        np.cumsum(np.bincount(self._c_b, minlength=cand.n2), out=self._b_indptr[1:])
+        self._slot = np.full(cand.m, -1, dtype=np.int64)
+        self._deg_a = net_a.degree.astype(np.int64)
+        self._deg_b = net_b.degree.astype(np.int64)
+        self._seed_idx = np.empty(0, dtype=np.int64) if seeds is None else seed_index(cand, seeds)
+        self._h = seed_vector(cand.prior, self._seed_idx, self.seed_weight)
+        self._mate_a = np.full(cand.n1, -1, dtype=np.int64)
+        self._mate_b = np.full(cand.n2, -1, dtype=np.int64)
+        if seeds is not None and seeds.n:
+            self._mate_a[seeds.pairs[:, 0]] = self._seed_idx
+            self._mate_b[seeds.pairs[:, 1]] = self._seed_idx
+
+    def warm_up(self) -> None:
+        """Load (or compile) the push kernel, so that the first query's timing is its own."""
+        none_i = np.empty(0, dtype=np.int64)
+        _local_push(self.net_a.indptr, self.net_a.indices, self.net_b.indptr, self.net_b.indices,
+                    self.cand.a_indptr, self._c_a, self._c_b, self._deg_a, self._deg_b,
+                    self.normalization == "restricted", self._slot, none_i, np.empty(0, dtype=np.float64), none_i,
+                    self.alpha, self.tol, 0)
+        _reset_slots(self._slot, none_i)
+
+    # ----------------------------------------------------------------- the pieces of a query
+
+    def candidates_of(self, node: int, side: str = "a") -> npt.NDArray[np.int64]:
+        """Global candidate indices of the pairs of ``node`` (of A for side a, of B for side b)."""
+        if side == "a":
+            return np.arange(self.cand.a_indptr[node], self.cand.a_indptr[node + 1], dtype=np.int64)
+        return np.sort(self._b_order[self._b_indptr[node]:self._b_indptr[node + 1]])
+
+    def seeds_near(self, node: int, side: str = "a") -> npt.NDArray[np.int64]:
+        """Candidate indices of the seed pairs next to ``node``: (s, s') with s in N_A(node) (side a)."""
+        if not len(self._seed_idx):
+            return np.empty(0, dtype=np.int64)
+        net, mate = (self.net_a, self._mate_a) if side == "a" else (self.net_b, self._mate_b)
+        nb = net.indices[net.indptr[node]:net.indptr[node + 1]]
+        got = mate[nb]
+        return np.unique(got[got >= 0])
+
+    def personalization(self, node: int, side: str = "a") -> tuple[npt.NDArray[np.int64], npt.NDArray[np.float64]]:
+        """The query's h: align's h restricted to the node's candidates and the seeds next to it.
+
+        align's h is ``seed_vector(prior, seeds, seed_weight)`` (the prior normalised to sum 1,
+        plus ``seed_weight`` spread over the seed pairs). The query keeps its entries on the
+        asked node's candidate pairs and on the seed pairs next to the node, and normalises
+        them to sum 1 (uniform over the node's candidates when they are all 0).
+        """
+        own = self.candidates_of(node, side)
+        near = self.seeds_near(node, side)
+        idx = np.unique(np.concatenate([own, near]))
+        h = self._h[idx].copy()
+        if h.sum() <= 0:
+            h = np.isin(idx, own).astype(np.float64)
+        total = h.sum()
+        return idx, (h / total if total > 0 else h)
+
+    def solve(self, node: int, side: str = "a", *, idx=None, h=None) -> LocalSolution:
+        """The local push from the node's h (or from a given sparse ``idx``, ``h``)."""
+        side = check_choice(side, "side", "QueryEngine.solve", SIDES)
+        if idx is None:
+            idx, h = self.personalization(node, side)
+        own = self.candidates_of(node, side)
+        idx = np.ascontiguousarray(idx, dtype=np.int64)
+        h = np.ascontiguousarray(h, dtype=np.float64)
+        mass = float(h.sum())
+        eps = self.tol * mass
+        t0 = time.perf_counter()
+        try:
+            ints, floats, pool, pushes, scanned, probes, rounds, res, capped = _local_push(
+                self.net_a.indptr, self.net_a.indices, self.net_b.indptr, self.net_b.indices, self.cand.a_indptr,
+                self._c_a, self._c_b, self._deg_a, self._deg_b, self.normalization == "restricted", self._slot,
+                idx, h, own, self.alpha, eps, self.max_pushes)
+        except BaseException:
+            self._slot[:] = -1  # rare: leave the engine usable
+            raise
+        _reset_slots(self._slot, ints[:, 0])
+        seconds = time.perf_counter() - t0
+        if capped:
+            raise ConvergenceError(f"the query's push reached its cap of {self.max_pushes:,} pushes before the "
+                                   "tolerance; raise the tolerance (--tol) or lower alpha", iterations=int(pushes),
+                                   residual=float(res))
+        return LocalSolution(pairs=ints[:, 0].copy(), x=floats[:, 0].copy(), r=floats[:, 1].copy(),
+                             h=floats[:, 2].copy(), degree=ints[:, 2].copy(), expanded=ints[:, 1] >= 0,
+                             weight=floats[:, 4].copy(),
+                             eps=eps, alpha=self.alpha, pushes=int(pushes), edges_scanned=int(scanned),
+                             probes=int(probes), rounds=int(rounds), residual_l1=float(res), seconds=seconds)
+
+    def counterparts(self, node: int, side: str = "a", top: int | None = 10) -> tuple[pd.DataFrame, dict]:
+        """The node's best counterparts by score, and the work of the query.
+
+        Returns a table with columns ``rank, counterpart, score, error_bound, prior, support,
+        fixed`` (counterparts as node indices) and a dict of work figures. With seeds, a node
+        in a seed pair gets its seed partner only (``fixed`` True); candidates whose partner
+        is fixed to another node by a seed are left out (``excluded_by_seeds`` counts them),
+        as in the rounding of :func:`aligner.align`.
+        """
+        side = check_choice(side, "side", "QueryEngine.counterparts", SIDES)
+        own = self.candidates_of(node, side)
+        idx, h = self.personalization(node, side)
+        sol = self.solve(node, side, idx=idx, h=h)
+        order = np.argsort(sol.pairs)
+        loc = order[np.searchsorted(sol.pairs[order], own)]  # every own pair is touched (expanded first)
+        other_col = 1 if side == "a" else 0
+        mate_self = self._mate_a if side == "a" else self._mate_b
+        mate_other = self._mate_b if side == "a" else self._mate_a
+        fixed = np.zeros(len(own), dtype=bool)
+        keep = np.ones(len(own), dtype=bool)
+        if mate_self[node] >= 0:
+            fixed = own == mate_self[node]
+            keep = fixed
+        elif len(self._seed_idx):
+            keep = mate_other[self.cand.pairs[own, other_col]] < 0
+        score = sol.x[loc]
+        prior = self.cand.prior[own]
+        other = self.cand.pairs[own, other_col].astype(np.int64)
+        tab = pd.DataFrame({"counterpart": other, "score": score, "error_bound": sol.error_bound(loc),
+                            "prior": prior, "support": sol.degree[loc], "fixed": fixed})[keep]
+        tab = tab.sort_values(["score", "prior", "counterpart"], ascending=[False, False, True], kind="stable")
+        if top is not None:
+            tab = tab.head(top)
+        tab.insert(0, "rank", np.arange(1, len(tab) + 1))
+        work = {"candidates": int(len(own)), "seeds_near": int(len(self.seeds_near(node, side))),
+                "excluded_by_seeds": int((~keep).sum()) if mate_self[node] < 0 else 0,
+                "pairs_touched": sol.pairs_touched, "pairs_expanded": sol.pairs_expanded,
+                "degrees_counted": sol.degrees_counted,
+                "product_edges_scanned": sol.edges_scanned, "search_probes": sol.probes, "pushes": sol.pushes,
+                "residual_l1": sol.residual_l1, "eps": sol.eps, "seconds": round(sol.seconds, 6)}
+        return tab.reset_index(drop=True), work
+
+
+@dataclass(frozen=True, eq=False)
+class QueryResult:
+    """The answer to a counterpart query.
+
+    Attributes
+    ----------
+    table : DataFrame
+        One row per (asked node, counterpart): ``query`` (the asked node), ``side`` (a: the
+        asked node is in A and counterparts in B; b: the reverse), ``rank``, ``counterpart``,
+        ``score`` (diffusion score x), ``error_bound`` (certified bound on |x - x*|, see
+        :class:`LocalSolution`), ``prior`` (prior similarity after the score-kind
+        transformation; the derived seed score without a prior), ``support`` (conserved-edge
+        support: the number of product-graph neighbours of the pair, i.e. of candidate pairs
+        (j, j') with (node, j) an edge of A and (counterpart, j') an edge of B -- each an edge
+        that matching both pairs would conserve), ``fixed`` (the pair is a seed).
+    work : DataFrame
+        One row per asked node: its candidates, the seeds next to it, pairs touched and
+        expanded, product edges scanned, binary-search probes, pushes, final residual, eps and
+        seconds.
+    summary : dict
+        Parameters and sizes, plus ``queries``: the same figures as JSON-ready records.
+    """
+
+    table: pd.DataFrame
+    work: pd.DataFrame
+    summary: dict = field(default_factory=dict)
+
+    def as_dict(self) -> dict:
+        return self.summary
+
+
+def _node_index(net: Network, name: str, side: str) -> int:
+    from aligner.io.readers import _lookup
+
+    i = int(_lookup(net.names, np.array([str(name)], dtype=object))[0])
+    if i < 0:
+        here, there = ("A", "b") if side == "a" else ("B", "a")
+        raise InvalidParameterError(f"{name!r} is not a node of network {here}; check the name (for a node of "
+                                    f"network {'B' if there == 'b' else 'A'}, ask with --side {there}).")
+    return i
+
+
+def query(
+    network_a,
+    network_b,
+    prior=None,
+    *,
+    nodes,
+    side: str = "a",
+    top: int | None = 10,
+    seeds=None,
+    seed_weight: float = DEFAULT_SEED_WEIGHT,
+    alpha: float = 0.9,
+    tol: float = DEFAULT_QUERY_TOL,
+    top_k: int | None = 25,
+    min_score: float = 0.0,
+    score_kind: str = "similarity",
+    normalization: str = "restricted",
+    delimiter: str | None = None,
+    header: str = "auto",
+    max_pushes: int | None = None,
+) -> QueryResult:
+    """Which nodes of B best correspond to these nodes of A (or the reverse), without a global solve.
+
+    Parameters
+    ----------
+    network_a, network_b : path, networkx.Graph, pandas.DataFrame or Network
+    prior : path or DataFrame, optional
+        The prior similarity table; may be left out when ``seeds`` are given (the candidates
+        are then grown from the seeds, a global step).
+    nodes : str or iterable of str
+        The asked nodes (of A for side "a", of B for side "b").
+    side : {"a", "b"}
+    top : int or None
+        Counterparts listed per node (None: all its candidates).
+    seeds, seed_weight :
+        Anchor pairs and their weight in h, as for :func:`aligner.align`.
+    alpha, top_k, min_score, score_kind, normalization, delimiter, header :
+        As for :func:`aligner.align`.
+    tol : float > 0
+        Push tolerance relative to the mass of the query's h: every score is certified to
+        within tol * support / (1 - alpha) of the exact solution (see :class:`LocalSolution`).
+    max_pushes : int, optional
+        Cap on the pushes of one query.
+
+    Returns
+    -------
+    QueryResult
+
+    Notes
+    -----
+    The query's h is align's h restricted to the asked node's candidate pairs (and to the
+    seed pairs next to the node) and normalised to sum 1; the push runs to the tolerance
+    ``tol`` relative to that mass. The scores are those of the exact solution of
+    x = alpha P x + (1 - alpha) h over the whole candidate set, to within the certified
+    bound; the product graph is not built.
+    """
+    from aligner.pipeline import _as_prior, as_network
+
+    where = "query"
+    side = check_choice(side, "side", where, SIDES)
+    if top is not None:
+        top = check_int(top, "top", where, low=1)
+    alpha = check_real(alpha, "alpha", where, low=0.0, high=1.0, closed="left")
+    tol = check_real(tol, "tol", where, low=0.0, closed="neither")
+    if top_k is not None:
+        top_k = check_int(top_k, "top_k", where, low=1)
+    min_score = check_real(min_score, "min_score", where)
+    normalization = check_choice(normalization, "normalization", where, NORMALIZATIONS)
+    seed_weight = check_real(seed_weight, "seed_weight", where, low=0.0)
+    if isinstance(nodes, (str, os.PathLike)) or not hasattr(nodes, "__iter__"):
+        nodes = [nodes]
+    nodes = [str(v) for v in nodes]
+    if not nodes:
+        raise InvalidParameterError("The 'nodes' parameter of query must name at least one node (--node).")
+    if prior is None and seeds is None:
+        raise InvalidParameterError("query needs a prior or seeds: give a prior similarity table (--prior), or "
+                                    "anchor pairs (--seeds).")
+    t0 = time.perf_counter()
+    net_a = as_network(network_a, delimiter=delimiter, header=header, name="network_a")
+    net_b = as_network(network_b, delimiter=delimiter, header=header, name="network_b")
+    seeds_t = None if seeds is None else as_seeds(seeds, net_a, net_b, delimiter=delimiter, header=header)
+    asked = [_node_index(net_a if side == "a" else net_b, v, side) for v in nodes]
+    if prior is not None:
+        prior_t = _as_prior(prior, net_a, net_b, score_kind, delimiter, header)
+        if prior_t.n_unknown:
+            warnings.warn(f"{prior_t.n_unknown} of {prior_t.n_rows} prior rows name a node missing from its "
+                          f"network and were skipped (for example {', '.join(prior_t.unknown_examples)})",
+                          AlignerWarning, stacklevel=2)
+        cand = build_candidates(prior_t.pairs, prior_t.scores, net_a.n, net_b.n, min_score=min_score, top_k=top_k)
+        if cand.m == 0 and seeds_t is None:
+            raise NoCandidatesError(f"{prior_t.source}: no usable prior pair is left (after the minimum score "
+                                    f"{min_score:g}).")
+    else:
+        cand = expand_from_seeds(net_a, net_b, seeds_t, top_k=top_k).candidates
+    if seeds_t is not None:
+        cand = add_seed_pairs(cand, seeds_t)
+    engine = QueryEngine(net_a, net_b, cand, alpha=alpha, tol=tol, normalization=normalization, seeds=seeds_t,
+                         seed_weight=seed_weight, max_pushes=max_pushes)
+    engine.warm_up()
+    prep = time.perf_counter() - t0
+    tables, works, records = [], [], []
+    other_names = net_b.names if side == "a" else net_a.names
+    for name, node in zip(nodes, asked):
+        tab, work = engine.counterparts(node, side, top)
+        if work["candidates"] == 0:
+            warnings.warn(f"{name!r} has no candidate pairs (no prior row, or none above the minimum score); "
+                          "it has no counterparts to rank", AlignerWarning, stacklevel=2)
+        tab["counterpart"] = other_names[tab["counterpart"].to_numpy()] if len(tab) else pd.Series(dtype=object)
+        tab.insert(0, "side", side)
+        tab.insert(0, "query", name)
+        tables.append(tab)
+        works.append({"query": name, "side": side} | work)
+        records.append({"query": name, "side": side, "counterparts": tab.drop(columns=["query", "side"])
+                        .to_dict(orient="records"), "work": work})
+    table = pd.concat(tables, ignore_index=True) if tables else pd.DataFrame(columns=TABLE_COLUMNS)
+    table = table[TABLE_COLUMNS]
+    work_df = pd.DataFrame(works)
+    summary = {
+        "parameters": {"side": side, "top": top, "alpha": alpha, "tol": tol, "top_k": top_k, "min_score": min_score,
+                       "score_kind": score_kind, "normalization": normalization,
+                       "seed_weight": seed_weight if seeds_t is not None else None},
+        "sizes": {"nodes_a": net_a.n, "nodes_b": net_b.n, "candidates": cand.m,
+                  "seeds": 0 if seeds_t is None else seeds_t.n},
+        "preparation_seconds": round(prep, 4),
+        "queries": records,
+    }
+    return QueryResult(table=table, work=work_df, summary=_jsonable(summary))
+
+
+def _jsonable(obj):
+    if isinstance(obj, dict):
+        return {k: _jsonable(v) for k, v in obj.items()}
+    if isinstance(obj, (list, tuple)):
+        return [_jsonable(v) for v in obj]
+    if isinstance(obj, np.generic):
+        obj = obj.item()
+    if isinstance(obj, float) and not math.isfinite(obj):
+        return None
+    return obj

@@ -1,0 +1,222 @@
+"""Diffusion on the restricted product graph: solve x = alpha P x + (1 - alpha) h."""
+
+from __future__ import annotations
+
+import time
+from dataclasses import dataclass
+
+import numpy as np
+import numpy.typing as npt
+import scipy.sparse as sp
+
+from aligner.kernels.push import _push, _residual
+from aligner.checks import check_choice, check_int, check_real
+from aligner.errors import ConvergenceError
+from aligner.core.network import row_sums
+from aligner.core.product import ProductGraph
+
+__all__ = ["DiffusionResult", "diffuse", "column_scale", "prior_vector"]
+
+SOLVERS = ("push", "power")
+#: the push solver sweeps all active entries at once while at least this share of them is active
+SWEEP_FRACTION = 0.25
+NORMALIZATIONS = ("restricted", "product")
+
+
+@dataclass(frozen=True)
+class DiffusionResult:
+    """The diffusion scores and what it cost to get them.
+
+    ``error_bound`` bounds ||x - x*||_1 by ||r||_1 / (1 - alpha), with r the exact residual
+    recomputed after the solve.
+    """
+
+    x: npt.NDArray[np.float64]
+    solver: str
+    alpha: float
+    tol: float
+    steps: int  # pushes (push) or iterations (power)
+    edge_touches: int
+    residual: float
+    error_bound: float
+    seconds: float
+
+    def report(self) -> dict:
+        return {
+            "solver": self.solver,
+            "alpha": self.alpha,
+            "tol": self.tol,
+            "pushes" if self.solver == "push" else "iterations": self.steps,
+            "edge_touches": self.edge_touches,
+            "residual_l1": self.residual,
+            "error_bound_l1": self.error_bound,
+            "seconds": round(self.seconds, 4),
+        }
+
+
+def prior_vector(prior: npt.NDArray[np.float64]) -> npt.NDArray[np.float64]:
+    """h: the prior normalised to sum 1 (uniform when every prior score is 0)."""
+    prior = np.asarray(prior, dtype=np.float64)
+    total = prior.sum()
+    if len(prior) == 0:
+        return prior.copy()
+    if total <= 0:
+        return np.full(len(prior), 1.0 / len(prior))
+    return prior / total
+
+
+def column_scale(
+    graph: ProductGraph,
+    normalization: str = "restricted",
+    *,
+    deg_a: npt.NDArray[np.integer] | None = None,
+    deg_b: npt.NDArray[np.integer] | None = None,
+    pairs: npt.NDArray[np.integer] | None = None,
+) -> npt.NDArray[np.float64]:
+    """The column scale of P: P[k, l] = w(l -> k) scale[l] for every product edge l -> k.
+
+    ``restricted``: 1 / deg_S(l), the number of neighbours of l inside L (the random walk on
+    the restricted product graph; 0 for a pair with no neighbours). ``product``:
+    1 / (deg_A(j) deg_B(j')) for l = (j, j'), the walk on the whole product graph restricted
+    to L afterwards. On a directed product graph the degrees are out-degrees, so a pair with
+    no out-arcs keeps its mass out of the walk (a zero column: P is sub-stochastic there).
+    Weighted: the product entry weighs w_A(i, j) w_B(i', j') and degrees become strengths
+    (summed weights): ``restricted`` divides by the pair's summed entry weights, ``product``
+    by s_A(j) s_B(j'), with ``deg_a``, ``deg_b`` given as strengths.
+    """
+    if normalization == "restricted":
+        d = graph.degree.astype(np.float64) if graph.weights is None else row_sums(graph.indptr, graph.weights)
+    else:
+        d = deg_a[pairs[:, 0]].astype(np.float64) * deg_b[pairs[:, 1]]
+    out = np.zeros(len(d), dtype=np.float64)
+    np.divide(1.0, d, out=out, where=d > 0)
+    return out
+
+
+def diffuse(
+    graph: ProductGraph,
+    h: npt.NDArray[np.float64],
+    scale: npt.NDArray[np.float64],
+    *,
+    alpha: float = 0.9,
+    tol: float = 1e-6,
+    solver: str = "push",
+    x0: npt.NDArray[np.float64] | None = None,
+    max_work: int | None = None,
+) -> DiffusionResult:
+    """Solve the personalized PageRank system on the restricted product graph.
+
+    Parameters
+    ----------
+    graph : ProductGraph
+        The restricted product graph over the m candidate pairs.
+    h : ndarray, shape (m,)
+        The personalization (the prior normalised to sum 1).
+    scale : ndarray, shape (m,)
+        Column scale of P (see :func:`column_scale`).
+    alpha : float in [0, 1)
+        Weight of the wiring against the prior. ``alpha = 0`` returns ``h``.
+    tol : float > 0
+        Target 1-norm of the residual (1 - alpha) h - (I - alpha P) x.
+    solver : {"push", "power"}
+        ``push``: Gauss–Southwell relaxation with a FIFO work queue; ``power``: power
+        (Jacobi) iteration with sparse matrix–vector products, the reference.
+    x0 : ndarray, optional
+        A warm start.
+    max_work : int, optional
+        Cap on pushes (push) or iterations (power); default 200 m / (1 - alpha) + 10^6 pushes,
+        or 100 log(1/tol) / (1 - alpha) iterations.
+
+    Returns
+    -------
+    DiffusionResult
+
+    Raises
+    ------
+    ConvergenceError
+        The cap was reached first; the message gives the steps done and the residual.
+
+    Notes
+    -----
+    The system is x = alpha P x + (1 - alpha) h with P column sub-stochastic, so
+    ||(I - alpha P)^{-1}||_1 <= 1 / (1 - alpha) and ||x - x*||_1 <= ||r||_1 / (1 - alpha).
+    Push keeps the invariant x* = x + (I - alpha P)^{-1} r; an entry l is pushed while
+    |r_l| > tol * (deg_l + 1) / sum(deg + 1), so at exit ||r||_1 <= tol. While at least a
+    quarter of the entries are active, all of them are pushed at once in one vectorized sweep
+    (the same pushes, applied together: a Jacobi step); the FIFO queue then finishes the
+    solve, so a localized residual costs only what it touches. Each push of r_l
+    lowers ||r||_1 by at least (1 - alpha) |r_l| when residuals share a sign (they do
+    without a warm start), which bounds the work by O(log(1/tol) * |product edges| / (1 - alpha)).
+
+    References
+    ----------
+    .. [1] R. Singh, J. Xu, B. Berger, "Global alignment of multiple protein interaction
+       networks with application to functional orthology detection", PNAS 105 (2008)
+       12763-12768. doi:10.1073/pnas.0806627105
+    .. [2] R. Andersen, F. Chung, K. Lang, "Local graph partitioning using PageRank
+       vectors", FOCS 2006, 475-486. doi:10.1109/FOCS.2006.44
+    """
+    alpha = check_real(alpha, "alpha", "diffuse", low=0.0, high=1.0, closed="left")
+    tol = check_real(tol, "tol", "diffuse", low=0.0, closed="neither")
+    solver = check_choice(solver, "solver", "diffuse", SOLVERS)
+    m = graph.m
+    h = np.ascontiguousarray(h, dtype=np.float64)
+    b = (1.0 - alpha) * h
+    t0 = time.perf_counter()
+    if alpha == 0.0 or m == 0:
+        x = h.copy()
+        return DiffusionResult(x, solver, alpha, tol, 0, 0, 0.0, 0.0, time.perf_counter() - t0)
+    x = np.zeros(m) if x0 is None else np.array(x0, dtype=np.float64)
+    r = np.empty(m)
+    wts = np.empty(0) if graph.weights is None else graph.weights
+    _residual(graph.indptr, graph.indices, wts, scale, alpha, x, b, r)
+    if solver == "push":
+        deg = graph.degree.astype(np.float64) + 1.0
+        thresh = tol * deg / deg.sum()
+        cap = max_work if max_work is not None else int(200 * m / (1 - alpha)) + 10**6
+        check_int(cap, "max_work", "diffuse", low=0)
+        steps = touches = sweeps = 0
+        # While most entries are above their threshold, push them all at once: one vectorized
+        # sweep (a Jacobi step, streaming through memory) does the work of that many queued
+        # pushes at a fraction of the cost of visiting them one by one in queue order.
+        P = None
+        while steps < cap:
+            active = np.abs(r) > thresh
+            n_active = int(np.count_nonzero(active))
+            if n_active < SWEEP_FRACTION * m or steps + n_active > cap:
+                break
+            if P is None:
+                P = graph.transition(scale, alpha)
+            delta = np.where(active, r, 0.0)
+            x += delta
+            r += P @ delta - delta
+            steps += n_active
+            touches += int(graph.indptr[-1])
+            sweeps += 1
+        pushes, t2, capped = _push(graph.indptr, graph.indices, wts, scale, alpha, x, r, thresh,
+                                   max(cap - steps, 0))
+        steps += pushes
+        touches += t2
+    else:
+        cap = max_work if max_work is not None else int(100 * np.log(1 / min(tol, 0.5)) / (1 - alpha)) + 10
+        check_int(cap, "max_work", "diffuse", low=0)
+        P = graph.transition(scale, alpha)
+        steps = touches = 0
+        capped = True
+        while steps < cap:
+            if np.abs(r).sum() <= tol:
+                capped = False
+                break
+            x = x + r  # x_{t+1} = alpha P x_t + b
+            r = b - x + P @ x
+            steps += 1
+            touches += int(graph.indptr[-1])
+        else:
+            capped = np.abs(r).sum() > tol
+    resid = float(_residual(graph.indptr, graph.indices, wts, scale, alpha, x, b, r))
+    seconds = time.perf_counter() - t0
+    if capped and resid > tol:
+        raise ConvergenceError(f"the {solver} solver reached its work cap before the residual tolerance "
+                               f"{tol:g}; raise max_work or the tolerance, or lower alpha",
+                               iterations=steps, residual=resid)
+    return DiffusionResult(x, solver, alpha, tol, int(steps), int(touches), resid, resid / (1 - alpha), seconds)

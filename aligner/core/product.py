@@ -1,0 +1,175 @@
+"""The product graph of A and B restricted to the candidate pairs, as CSR arrays."""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+import numpy as np
+import numpy.typing as npt
+import scipy.sparse as sp
+
+from aligner.kernels.product import _product_pass
+from aligner.core.candidates import CandidateSet
+
+__all__ = ["ProductGraph", "build_product", "estimate_product_edges"]
+
+
+@dataclass(frozen=True, eq=False)
+class ProductGraph:
+    """Adjacency of the restricted product graph over the m candidate pairs.
+
+    ``indices[indptr[k]:indptr[k+1]]`` are the pairs adjacent to pair k, sorted. Undirected:
+    each product edge is stored twice (once from each end). ``directed``: the lists are
+    out-lists, pair k = (i, i') pointing to (j, j') when i -> j in A and i' -> j' in B.
+    ``weights`` (when the networks are weighted) holds w_A(i, j) * w_B(i', j') per entry.
+    """
+
+    indptr: npt.NDArray[np.int64]
+    indices: npt.NDArray[np.int32]
+    directed: bool = False
+    weights: npt.NDArray[np.float64] | None = None
+
+    @property
+    def m(self) -> int:
+        return len(self.indptr) - 1
+
+    @property
+    def n_edges(self) -> int:
+        """Number of product edges (arcs, when directed)."""
+        return int(self.indptr[-1]) if self.directed else int(self.indptr[-1]) // 2
+
+    def entry_weights(self) -> npt.NDArray[np.float64]:
+        """The weight of every stored entry (ones when unweighted)."""
+        return np.ones(len(self.indices)) if self.weights is None else self.weights
+
+    def transition(self, scale: npt.NDArray[np.float64], alpha: float = 1.0) -> sp.csr_array:
+        """alpha * P as a sparse matrix: P[k, l] = weight(l -> k) * scale[l] for every stored l -> k."""
+        scale = alpha * np.asarray(scale, dtype=np.float64)
+        if not self.directed:  # symmetric pattern and weights: row l holds P[l, k] = w(k, l) scale[k]
+            data = scale[self.indices] if self.weights is None else scale[self.indices] * self.weights
+            return sp.csr_array((data, self.indices, self.indptr), shape=(self.m, self.m))
+        col = np.repeat(scale, self.degree)
+        return sp.csc_array((col * self.entry_weights(), self.indices, self.indptr), shape=(self.m, self.m)).tocsr()
+
+    def symmetrised(self) -> "ProductGraph":
+        """The undirected pattern S + S^T, with multiplicity (reciprocal arcs give two entries).
+
+        For a directed product graph S, 1/2 x^T (S + S^T) x = x^T S x: on a matching's
+        indicator, the conserved arcs. Unweighted, neighbour lists sorted.
+        """
+        if not self.directed:
+            return ProductGraph(self.indptr, self.indices)
+        m = self.m
+        rows = np.repeat(np.arange(m, dtype=np.int64), self.degree)
+        src = np.concatenate([rows, self.indices.astype(np.int64)])
+        dst = np.concatenate([self.indices.astype(np.int64), rows])
+        order = np.lexsort((dst, src))
+        indptr = np.zeros(m + 1, dtype=np.int64)
+        np.cumsum(np.bincount(src, minlength=m), out=indptr[1:])
+        return ProductGraph(indptr, dst[order].astype(np.int32))
+
+    @property
+    def degree(self) -> npt.NDArray[np.int64]:
+        return np.diff(self.indptr)
+
+    def to_csr(self) -> sp.csr_array:
+        """The adjacency as a scipy CSR array: row k holds k's (out-)neighbours, with weights."""
+        return sp.csr_array((self.entry_weights(), self.indices, self.indptr), shape=(self.m, self.m))
+
+
+def build_product(
+    a_indptr: npt.NDArray[np.int64],
+    a_indices: npt.NDArray[np.int32],
+    b_indptr: npt.NDArray[np.int64],
+    b_indices: npt.NDArray[np.int32],
+    cand: CandidateSet,
+    *,
+    a_weights: npt.NDArray[np.float64] | None = None,
+    b_weights: npt.NDArray[np.float64] | None = None,
+    directed: bool = False,
+) -> ProductGraph:
+    """Build the product graph of A and B restricted to the candidate pairs.
+
+    Parameters
+    ----------
+    a_indptr, a_indices, b_indptr, b_indices : ndarray
+        CSR adjacencies of A and B with sorted neighbour lists: symmetric, or the
+        out-adjacencies of directed networks (with ``directed``).
+    cand : CandidateSet
+        The candidate pairs, sorted by (node of A, node of B).
+    a_weights, b_weights : ndarray, optional
+        Weights of the adjacency entries (both or neither); the product entry of
+        (i, i') -> (j, j') then weighs w_A(i, j) * w_B(i', j').
+    directed : bool
+        The adjacencies are out-adjacencies; the result holds out-lists.
+
+    Returns
+    -------
+    ProductGraph
+
+    Notes
+    -----
+    Pairs (i, i') and (j, j') of L are adjacent when (i, j) is an edge of A and (i', j') an
+    edge of B: the tensor (Kronecker) product graph restricted to L. Two passes over the nodes
+    of A (count, then fill). For node i, the neighbours of its candidate partners are entered
+    in a table keyed by node of B, and the candidates (j, j') of its neighbours j look up j'
+    there. Work: sum over i of (sum of deg_B(i') over its candidates + sum of c_j over its
+    neighbours j) plus the output, with c_j the number of candidates of j; memory O(n2 + m +
+    product edges). No n1 x n2 or m x m dense object is formed.
+
+    Examples
+    --------
+    >>> import numpy as np
+    >>> from aligner.core.network import adjacency
+    >>> from aligner.core.candidates import build_candidates
+    >>> e = np.array([[0, 1], [1, 2]])
+    >>> ip, ix = adjacency(e, 3)
+    >>> c = build_candidates([[0, 0], [1, 1], [2, 2]], [1.0, 1.0, 1.0], 3, 3)
+    >>> build_product(ip, ix, ip, ix, c).n_edges
+    2
+    """
+    m = cand.m
+    pair_b = np.ascontiguousarray(cand.pairs[:, 1])
+    indptr = np.zeros(m + 1, dtype=np.int64)
+    dummy = np.empty(0, dtype=np.int32)
+    weighted = a_weights is not None
+    if weighted != (b_weights is not None):
+        raise ValueError("give the edge weights of both networks or of neither")
+    none = np.empty(0, dtype=np.float64)
+    a_w = none if not weighted else np.ascontiguousarray(a_weights, dtype=np.float64)
+    b_w = none if not weighted else np.ascontiguousarray(b_weights, dtype=np.float64)
+    if m == 0:
+        return ProductGraph(indptr=indptr, indices=dummy, directed=directed, weights=none if weighted else None)
+    _product_pass(a_indptr, a_indices, b_indptr, b_indices, cand.a_indptr, pair_b, cand.n2, indptr, dummy, False,
+                  a_w, b_w, none)
+    np.cumsum(indptr, out=indptr)
+    indices = np.empty(int(indptr[-1]), dtype=np.int32)
+    out_w = np.empty(len(indices) if weighted else 0, dtype=np.float64)
+    _product_pass(a_indptr, a_indices, b_indptr, b_indices, cand.a_indptr, pair_b, cand.n2, indptr, indices, True,
+                  a_w, b_w, out_w)
+    return ProductGraph(indptr=indptr, indices=indices, directed=directed, weights=out_w if weighted else None)
+
+
+def estimate_product_edges(
+    a_indptr: npt.NDArray[np.int64],
+    a_indices: npt.NDArray[np.int32],
+    b_indptr: npt.NDArray[np.int64],
+    cand: CandidateSet,
+) -> int:
+    """An upper bound on the stored product-graph entries, from degrees and candidate counts.
+
+    For pair (i, i') the bound is min(sum over neighbours j of i of c_j, deg_A(i) * deg_B(i')),
+    with c_j the number of candidates of j. Cost O(m + |E_A|); used to refuse a build that
+    would not fit in memory before any of it is allocated.
+    """
+    if cand.m == 0:
+        return 0
+    c = np.diff(cand.a_indptr).astype(np.float64)
+    deg_a = np.diff(a_indptr)
+    rows = np.repeat(np.arange(len(deg_a)), deg_a)
+    reach = np.bincount(rows, weights=c[a_indices], minlength=len(deg_a))
+    i = cand.pairs[:, 0]
+    ip = cand.pairs[:, 1]
+    deg_b = np.diff(b_indptr)
+    bound = np.minimum(reach[i], deg_a[i].astype(np.float64) * deg_b[ip])
+    return int(bound.sum())

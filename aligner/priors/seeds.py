@@ -1,0 +1,437 @@
+"""Anchor pairs (seeds): known corresponding nodes that fix part of the map and guide the rest.
+
+A seed table lists pairs (node of A, node of B) known to correspond. Seeds
+
+* are **fixed** in the final matching: their nodes take no part in the assignment
+  (:func:`round_with_fixed`);
+* are **extra diffusion sources**: the personalization h gains mass on the seed pairs
+  (:func:`seed_vector`, weight ``seed_weight``);
+* may **replace the prior**: without a prior, the candidate pairs are grown outward from the
+  seeds through the wiring alone (:func:`expand_from_seeds`);
+* are **reported apart**: the edges among seed nodes are conserved by construction, so the
+  summary gives the scores without them as well (:func:`seed_summary`).
+"""
+
+from __future__ import annotations
+
+import os
+import time
+from dataclasses import dataclass, field
+
+import numpy as np
+import numpy.typing as npt
+import pandas as pd
+
+from aligner.kernels.query import _witness_rows
+from aligner.checks import check_int, check_real
+from aligner.core.candidates import CandidateSet, build_candidates
+from aligner.errors import InputFormatError, InvalidParameterError
+from aligner.core.network import Network
+from aligner.core.rounding import Matching, round_matching
+from aligner.core.scoring import score_matching
+
+__all__ = ["SeedTable", "SeedExpansion", "read_seeds", "as_seeds", "add_seed_pairs", "seed_index",
+           "seed_vector", "expand_from_seeds", "round_with_fixed", "seed_summary", "DEFAULT_SEED_WEIGHT"]
+
+#: Default total mass of the seed pairs in h, relative to the prior's (which sums to 1): the
+#: seeds together weigh as much as the whole prior.
+DEFAULT_SEED_WEIGHT = 1.0
+#: Default cap on the rounds of :func:`expand_from_seeds`.
+DEFAULT_MAX_ROUNDS = 100
+
+
+@dataclass(frozen=True)
+class SeedTable:
+    """Seed pairs mapped onto two networks: one-to-one, sorted by node of A.
+
+    Attributes
+    ----------
+    pairs : ndarray of int32, shape (s, 2)
+        The seed pairs (node of A, node of B).
+    n_rows : int
+        Data rows read (repeated identical rows are merged).
+    n_repeated : int
+        Rows that repeated an earlier row exactly.
+    source : str
+        Where the seeds came from.
+    """
+
+    pairs: npt.NDArray[np.int32]
+    n_rows: int
+    n_repeated: int = 0
+    source: str = "<memory>"
+
+    @property
+    def n(self) -> int:
+        return len(self.pairs)
+
+
+# --------------------------------------------------------------------------- reading
+
+def _check_seed_columns(a: np.ndarray, b: np.ndarray, net_a: Network, net_b: Network, source: str,
+                        where) -> SeedTable:
+    """Map identifier columns onto node indices; refuse unknown nodes and nodes in two pairs.
+
+    ``where(r)`` names data row r for a message ("line 7" in a file, "row 3" in a table).
+    """
+    from aligner.io.readers import _at, _lookup
+
+    hint = "fix or remove it (every seed must name a node of A, then a node of B)"
+    if len(a) == 0:
+        raise InputFormatError("holds no seed pairs; give a table of known pairs node_a, node_b (one pair per "
+                               "line), or leave out the seeds", path=source)
+    ia = _lookup(net_a.names, a)
+    ib = _lookup(net_b.names, b)
+    for col, idx, net, name in ((0, ia, net_a, "A"), (1, ib, net_b, "B")):
+        if (idx < 0).any():
+            r = int(np.argmax(idx < 0))
+            value = _at(a if col == 0 else b, r)
+            extra = ""
+            other = net_b if col == 0 else net_a
+            if _lookup(other.names, np.array([value], dtype=object))[0] >= 0:
+                extra = f"; it is a node of network {'B' if col == 0 else 'A'}: are the columns swapped?"
+            elif r == 0:
+                extra = "; if this line is a header, give --header yes"
+            raise InputFormatError(f"{where(r)}: {value!r} in column {col + 1} is not a node of network {name}"
+                                   f"{extra}; {hint}", path=source)
+    pairs = np.stack([ia, ib], axis=1).astype(np.int64)
+    # repeated identical rows are merged; a node in two different pairs is an error
+    key = pairs[:, 0] * max(net_b.n, 1) + pairs[:, 1]
+    _, first = np.unique(key, return_index=True)
+    first = np.sort(first)
+    n_rep = len(pairs) - len(first)
+    rows = first
+    for col, name in ((0, "A"), (1, "B")):
+        v = pairs[rows, col]
+        order = np.argsort(v, kind="stable")
+        sv = v[order]
+        dup = np.flatnonzero(sv[1:] == sv[:-1])
+        if len(dup):
+            r1, r2 = sorted((int(rows[order[dup[0]]]), int(rows[order[dup[0] + 1]])))
+            node = (net_a if col == 0 else net_b).names[sv[dup[0]]]
+            raise InputFormatError(
+                f"{where(r2)}: node {node!r} of network {name} is already in the seed pair of {where(r1)}; "
+                "a node can be in one seed pair only (seeds are one-to-one): keep one of the two lines",
+                path=source)
+    pairs = pairs[rows]
+    pairs = pairs[np.lexsort((pairs[:, 1], pairs[:, 0]))].astype(np.int32)
+    return SeedTable(pairs=pairs, n_rows=len(a), n_repeated=int(n_rep), source=source)
+
+
+def read_seeds(path: str | os.PathLike, net_a: Network, net_b: Network, *, delimiter: str | None = None,
+               header: str = "auto") -> SeedTable:
+    """Read a seed table: first column a node of A, second its known counterpart in B.
+
+    Further columns are ignored. Lines starting with ``#`` and blank lines are skipped.
+
+    Raises
+    ------
+    InputFormatError
+        The file is missing, empty or malformed, names a node missing from its network, or
+        puts a node in two different pairs; the message names the file and line.
+    """
+    from aligner.io.readers import _data_lines, _line_of, _read_raw
+
+    path = os.fspath(path)
+    try:
+        empty = next(_data_lines(path), None) is None
+    except (OSError, UnicodeDecodeError, EOFError):
+        empty = False  # let the reader give its message
+    if empty:
+        raise InputFormatError("is empty: it holds no seed pairs; give a table of known pairs node_a, node_b "
+                               "(one pair per line), or leave out --seeds", path=path)
+    raw = _read_raw(path, min_cols=2, max_cols=64, delimiter=delimiter, header=header, what="seed table")
+    return _check_seed_columns(raw.columns[0], raw.columns[1], net_a, net_b, path,
+                               lambda r: f"line {_line_of(raw, r)}")
+
+
+def as_seeds(obj, net_a: Network, net_b: Network, *, delimiter: str | None = None,
+             header: str = "auto") -> SeedTable:
+    """A :class:`SeedTable` from a path, a DataFrame (first two columns) or an iterable of pairs."""
+    if isinstance(obj, SeedTable):
+        return obj
+    if isinstance(obj, (str, os.PathLike)):
+        return read_seeds(obj, net_a, net_b, delimiter=delimiter, header=header)
+    if isinstance(obj, pd.DataFrame):
+        if obj.shape[1] < 2:
+            raise InvalidParameterError("The 'seeds' parameter of align must have two columns (node_a, node_b). "
+                                        f"Got {obj.shape[1]} instead.")
+        a = obj.iloc[:, 0].astype(str).to_numpy(dtype=object)
+        b = obj.iloc[:, 1].astype(str).to_numpy(dtype=object)
+    else:
+        try:
+            rows = [tuple(r) for r in obj]
+        except TypeError:
+            raise InvalidParameterError("The 'seeds' parameter of align must be a path, a pandas DataFrame or "
+                                        f"an iterable of (node_a, node_b) pairs. Got {type(obj).__name__} "
+                                        "instead.") from None
+        if any(len(r) != 2 for r in rows):
+            raise InvalidParameterError("The 'seeds' parameter of align must hold (node_a, node_b) pairs.")
+        a = np.array([str(r[0]) for r in rows], dtype=object)
+        b = np.array([str(r[1]) for r in rows], dtype=object)
+    return _check_seed_columns(a, b, net_a, net_b, "<seeds>", lambda r: f"row {r + 1}")
+
+
+# --------------------------------------------------------------------------- candidates and h
+
+def _keys(pairs: np.ndarray, n2: int) -> np.ndarray:
+    return pairs[:, 0].astype(np.int64) * max(n2, 1) + pairs[:, 1].astype(np.int64)
+
+
+def seed_index(cand: CandidateSet, seeds: SeedTable) -> npt.NDArray[np.int64]:
+    """Candidate index of every seed pair (all must be candidates; see :func:`add_seed_pairs`)."""
+    if seeds.n == 0:
+        return np.empty(0, dtype=np.int64)
+    key = _keys(cand.pairs, cand.n2)
+    want = _keys(seeds.pairs, cand.n2)
+    pos = np.minimum(np.searchsorted(key, want), max(len(key) - 1, 0))
+    if len(key) == 0 or (key[pos] != want).any():
+        raise InvalidParameterError("a seed pair is not among the candidate pairs; add them with add_seed_pairs")
+    return pos.astype(np.int64)
+
+
+def add_seed_pairs(cand: CandidateSet, seeds: SeedTable) -> CandidateSet:
+    """The candidate set with the seed pairs added (a seed pair missing from it gets prior 0)."""
+    if seeds.n == 0:
+        return cand
+    key = _keys(cand.pairs, cand.n2)
+    want = _keys(seeds.pairs, cand.n2)
+    new = ~np.isin(want, key)
+    if not new.any():
+        return cand
+    pairs = np.concatenate([cand.pairs.astype(np.int64), seeds.pairs[new].astype(np.int64)])
+    prior = np.concatenate([cand.prior, np.zeros(int(new.sum()))])
+    order = np.argsort(_keys(pairs, cand.n2), kind="stable")
+    pairs, prior = pairs[order].astype(np.int32), prior[order]
+    a_indptr = np.zeros(cand.n1 + 1, dtype=np.int64)
+    np.cumsum(np.bincount(pairs[:, 0], minlength=cand.n1), out=a_indptr[1:])
+    return CandidateSet(pairs=pairs, prior=prior, a_indptr=a_indptr, n1=cand.n1, n2=cand.n2)
+
+
+def seed_vector(prior: npt.ArrayLike, seed_idx: npt.ArrayLike, weight: float = DEFAULT_SEED_WEIGHT
+                ) -> npt.NDArray[np.float64]:
+    """h = (prior / sum(prior) + weight * 1_S / |S|) / (1 + weight), over the candidate pairs.
+
+    The prior part sums to 1 (uniform when every prior score is 0), the seed part to
+    ``weight``, spread evenly over the seed pairs S; h sums to 1. Without seeds, or with
+    ``weight = 0``, this is :func:`aligner.core.diffusion.prior_vector`.
+    """
+    from aligner.core.diffusion import prior_vector
+
+    h = prior_vector(np.asarray(prior, dtype=np.float64))
+    seed_idx = np.asarray(seed_idx, dtype=np.int64)
+    if len(seed_idx) == 0 or weight == 0 or len(h) == 0:
+        return h
+    if np.asarray(prior).sum() <= 0:  # no prior evidence at all: the seeds alone
+        h = np.zeros(len(h))
+        h[seed_idx] = 1.0 / len(seed_idx)
+        return h
+    h = h.copy()
+    np.add.at(h, seed_idx, weight / len(seed_idx))
+    return h / (1.0 + weight)
+
+
+# --------------------------------------------------------------------------- growing from the seeds
+
+@dataclass(frozen=True, eq=False)
+class SeedExpansion:
+    """Candidate pairs grown from the seeds through the wiring, with the provisional matching.
+
+    Attributes
+    ----------
+    candidates : CandidateSet
+        The candidate pairs; ``prior`` holds their derived score (witness count plus half
+        the degree similarity, see :func:`expand_from_seeds`). Seed pairs are included.
+    provisional : ndarray of int64, shape (k, 2)
+        The provisional one-to-one matching the rounds grew (seeds included).
+    rounds : int
+        Rounds run.
+    accepted : list of int
+        Pairs accepted in each round.
+    seconds : float
+    """
+
+    candidates: CandidateSet
+    provisional: npt.NDArray[np.int64]
+    rounds: int
+    accepted: list = field(default_factory=list)
+    seconds: float = 0.0
+
+    def report(self) -> dict:
+        return {"rounds": self.rounds, "provisional_pairs": int(len(self.provisional)),
+                "accepted_per_round": [int(v) for v in self.accepted], "candidates": self.candidates.m,
+                "seconds": round(self.seconds, 4)}
+
+
+def _frontier(net_a: Network, anchored: np.ndarray) -> np.ndarray:
+    """Nodes of A that are not anchored and have an anchored neighbour."""
+    src = np.repeat(np.arange(net_a.n), np.diff(net_a.indptr))
+    near = np.zeros(net_a.n, dtype=bool)
+    near[src[anchored[net_a.indices]]] = True
+    return np.flatnonzero(near & ~anchored)
+
+
+def expand_from_seeds(net_a: Network, net_b: Network, seeds: SeedTable, *, top_k: int | None = 25,
+                      max_rounds: int = DEFAULT_MAX_ROUNDS) -> SeedExpansion:
+    """Candidate pairs without a prior: grown outward from the seeds through the wiring.
+
+    Parameters
+    ----------
+    net_a, net_b : Network
+    seeds : SeedTable
+        At least one seed pair.
+    top_k : int or None
+        Candidates per node on each side in the final set (as for a prior); None keeps 50.
+    max_rounds : int
+        Cap on the growing rounds.
+
+    Returns
+    -------
+    SeedExpansion
+
+    Notes
+    -----
+    The **witness count** of a pair (j, j') against a one-to-one set of anchor pairs M is
+    the number of anchors (a, a') with a in N_A(j) and a' in N_B(j'): the edges at j that
+    matching j to j' would conserve with the anchors. Starting from M = the seeds, each
+    round
+
+    1. takes every unanchored node j of A next to an anchor, and its best 2 top_k
+       unanchored partners j' by witness count (ties: degree similarity
+       min(d, d') / max(d, d'), then the smaller index) -- only pairs (j, j') with j in
+       N(a), j' in N(a') for some anchor, so the work is the sum over anchors of
+       deg_A(a) deg_B(a'), never n_A n_B;
+    2. keeps the pairs whose count reaches the floor (2 at first; 1 once no pair reaches 2);
+    3. solves a maximum-weight one-to-one matching of them, weight = count + 0.5 degree
+       similarity (:func:`aligner.core.rounding.round_matching`), and
+    4. accepts the matched pairs whose count is at least half the round's highest count:
+       the best-supported pairs go first, so early mistakes are rare and later rounds have
+       more anchors to count with.
+
+    Rounds stop when no pair can be accepted. The final candidates are, for every node of A,
+    its best ``top_k`` partners by witness count against the provisional matching (anchored
+    partners included), united with each node of B's best ``top_k`` (as
+    :func:`aligner.core.candidates.build_candidates` does for a prior), with the provisional
+    pairs and the seeds; their score (count + 0.5 degree similarity) serves as the prior.
+    Growing a matching from seeds by counting such witnesses follows the percolation idea
+    of Yartseva & Grossglauser (2013); the matching per round and the half-the-best
+    acceptance rule are this package's.
+    """
+    max_rounds = check_int(max_rounds, "max_rounds", "expand_from_seeds", low=0)
+    if seeds.n == 0:
+        raise InvalidParameterError("expand_from_seeds needs at least one seed pair")
+    t0 = time.perf_counter()
+    n1, n2 = net_a.n, net_b.n
+    kcap = 2 * (top_k if top_k is not None else 25)
+    mate_a = np.full(n1, -1, dtype=np.int64)
+    mate_b = np.full(n2, -1, dtype=np.int64)
+    mate_a[seeds.pairs[:, 0]] = seeds.pairs[:, 1]
+    mate_b[seeds.pairs[:, 1]] = seeds.pairs[:, 0]
+    deg_a = net_a.degree.astype(np.int64)
+    deg_b = net_b.degree.astype(np.int64)
+    floor = 2
+    accepted: list[int] = []
+    rounds = 0
+    while rounds < max_rounds:
+        rows = _frontier(net_a, mate_a >= 0)
+        if len(rows) == 0:
+            break
+        p, c, d = _witness_rows(net_a.indptr, net_a.indices, net_b.indptr, net_b.indices, mate_a, mate_b,
+                                rows.astype(np.int64), kcap, deg_a, deg_b, True)
+        keep = c >= floor
+        if not keep.any():
+            if floor > 1:
+                floor -= 1
+                continue
+            break
+        rounds += 1
+        p, c, d = p[keep], c[keep], d[keep]
+        cs = build_candidates(p, c + 0.5 * d, n1, n2, top_k=None)
+        match = round_matching(cs, cs.prior)
+        got = cs.pairs[match.index].astype(np.int64)
+        count = np.floor(cs.prior[match.index])
+        got = got[count >= max(floor, np.ceil(0.5 * c.max()))]
+        mate_a[got[:, 0]] = got[:, 1]
+        mate_b[got[:, 1]] = got[:, 0]
+        accepted.append(len(got))
+    # final candidates: witness counts against the provisional matching, every node of A
+    rows = np.arange(n1, dtype=np.int64)
+    k_final = top_k if top_k is not None else 50
+    p, c, d = _witness_rows(net_a.indptr, net_a.indices, net_b.indptr, net_b.indices, mate_a, mate_b, rows,
+                            k_final, deg_a, deg_b, False)
+    prov_a = np.flatnonzero(mate_a >= 0)
+    prov = np.stack([prov_a, mate_a[prov_a]], axis=1)
+    pairs = np.concatenate([p, prov])
+    score = np.concatenate([c + 0.5 * d, np.zeros(len(prov))])  # merging keeps a pair's best score
+    cand = build_candidates(pairs, score, n1, n2, top_k=top_k)
+    missing = ~np.isin(_keys(prov, n2), _keys(cand.pairs, n2))
+    if missing.any():  # a provisional pair cut by the top-k of its B node: keep it
+        cand = add_seed_pairs(cand, SeedTable(prov[missing].astype(np.int32), int(missing.sum())))
+    cand = add_seed_pairs(cand, seeds)
+    return SeedExpansion(cand, prov, rounds, accepted, time.perf_counter() - t0)
+
+
+# --------------------------------------------------------------------------- rounding and scores
+
+def round_with_fixed(cand: CandidateSet, w: npt.ArrayLike, fixed_idx: npt.ArrayLike, *,
+                     method: str = "auto") -> Matching:
+    """Maximum-weight one-to-one matching that contains the pairs ``fixed_idx``.
+
+    The nodes of the fixed pairs are removed from competition: every other candidate that
+    touches one of them gets weight 0 (so is never used), the rest is solved optimally by
+    :func:`aligner.core.rounding.round_matching`, and the fixed pairs are added. ``weight`` is the
+    total of ``w`` over the final matching, fixed pairs included.
+    """
+    t0 = time.perf_counter()
+    w = np.asarray(w, dtype=np.float64)
+    fixed_idx = np.asarray(fixed_idx, dtype=np.int64)
+    if len(fixed_idx) == 0:
+        return round_matching(cand, w, method=method)
+    busy_a = np.zeros(cand.n1, dtype=bool)
+    busy_b = np.zeros(cand.n2, dtype=bool)
+    busy_a[cand.pairs[fixed_idx, 0]] = True
+    busy_b[cand.pairs[fixed_idx, 1]] = True
+    free = w.copy()
+    free[busy_a[cand.pairs[:, 0]] | busy_b[cand.pairs[:, 1]]] = 0.0
+    m = round_matching(cand, free, method=method)
+    index = np.sort(np.concatenate([m.index, fixed_idx]))
+    return Matching(index=index, method=m.method, weight=float(w[index].sum()), seconds=time.perf_counter() - t0)
+
+
+def seed_summary(net_a: Network, net_b: Network, matched: npt.ArrayLike, seeds: SeedTable, *,
+                 truth: npt.ArrayLike | None = None) -> dict:
+    """The seed figures of a run, and its scores with the edges among seed nodes left out.
+
+    ``seed_edges_a`` / ``seed_edges_b`` count the edges of A among seed nodes of A and of B
+    among their images; ``conserved_among_seeds`` the edges of A among seed nodes that the
+    seeds carry onto edges of B. These are conserved whatever the aligner does, so
+    ``scores_without_seed_edges`` recomputes every score on A and B with those edges
+    removed (EC, ICS and S3 over the remaining edges), and NC over the truth nodes that are
+    not seeds.
+    """
+    matched = np.asarray(matched, dtype=np.int64).reshape(-1, 2)
+    sa = np.zeros(net_a.n, dtype=bool)
+    sb = np.zeros(net_b.n, dtype=bool)
+    sa[seeds.pairs[:, 0]] = True
+    sb[seeds.pairs[:, 1]] = True
+    ea, eb = net_a.edges, net_b.edges
+    in_a = sa[ea[:, 0]] & sa[ea[:, 1]]
+    in_b = sb[eb[:, 0]] & sb[eb[:, 1]]
+    f = seeds.pairs.astype(np.int64)
+    sc_seed, _ = score_matching(ea[in_a], eb[in_b], f, net_a.n, net_b.n)
+    t = None
+    if truth is not None:
+        t = np.asarray(truth, dtype=np.int64).reshape(-1, 2)
+        t = t[~sa[t[:, 0]]]
+    sc, _ = score_matching(ea[~in_a], eb[~in_b], matched, net_a.n, net_b.n, truth=t)
+    out = {"source": str(seeds.source), "rows": seeds.n_rows, "pairs": seeds.n,
+           "repeated_rows_merged": seeds.n_repeated, "seed_edges_a": int(in_a.sum()),
+           "seed_edges_b": int(in_b.sum()), "conserved_among_seeds": sc_seed.conserved_edges,
+           "scores_without_seed_edges": sc.as_dict()}
+    if sc.nc_detail:
+        out["scores_without_seed_edges"]["nc_detail"] = sc.nc_detail
+    return out
+
+
+def _check_seed_weight(weight, where: str) -> float:
+    return check_real(weight, "seed_weight", where, low=0.0)

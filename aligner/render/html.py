@@ -1,0 +1,318 @@
+"""One self-contained HTML page from a finished run: every figure embedded, nothing fetched."""
+
+from __future__ import annotations
+
+import base64
+import html
+import io
+import json
+from pathlib import Path
+
+import numpy as np
+import pandas as pd
+
+from aligner.errors import InvalidParameterError
+from aligner.io.readers import read_network
+
+__all__ = ["build_report", "REPORT_FILE", "MAX_DRAWN_NODES"]
+
+REPORT_FILE = "report.html"
+#: the conserved subgraph drawing keeps at most this many nodes (a breadth-first ball around its
+#: best-connected node), so the picture stays readable
+MAX_DRAWN_NODES = 150
+TOP_ROWS = 20
+
+_CSS = """
+body{font-family:system-ui,-apple-system,"Segoe UI",sans-serif;margin:0;background:#f6f5f1;color:#1d232b}
+header{background:#23384d;color:#f3efe6;padding:18px 28px}
+header h1{margin:0;font-size:1.45em;font-weight:600}
+header p{margin:4px 0 0;opacity:.8;font-size:.9em}
+main{max-width:1080px;margin:0 auto;padding:12px 24px 40px}
+section{background:#fff;border:1px solid #e2ded5;border-radius:6px;margin:16px 0;padding:12px 18px}
+h2{font-size:1.08em;color:#23384d;border-bottom:2px solid #d0542c;display:inline-block;padding-bottom:2px}
+table{border-collapse:collapse;font-size:.86em;margin:6px 0}
+td,th{padding:3px 10px;border-bottom:1px solid #ece9e2;text-align:left}
+th{background:#f0ede6}
+td.n{text-align:right;font-variant-numeric:tabular-nums}
+.grid{display:flex;flex-wrap:wrap;gap:14px}
+.grid figure{margin:0;flex:1 1 460px}
+figcaption{font-size:.8em;color:#5b636d}
+img{max-width:100%;height:auto}
+.note{font-size:.82em;color:#5b636d}
+"""
+
+# fills #page-check once every image has loaded, so a headless browser's DOM dump tells a test
+# whether the figures decoded; errors in the page land there too
+_CHECK = """
+<script>
+window.addEventListener('error', function (e) {
+  document.getElementById('page-errors').textContent += 'error: ' + e.message + ';';
+});
+window.addEventListener('load', function () {
+  var imgs = document.images, ok = 0;
+  for (var i = 0; i < imgs.length; i++) { if (imgs[i].complete && imgs[i].naturalWidth > 0) ok++; }
+  document.getElementById('page-check').textContent = 'images ' + imgs.length + ' decoded ' + ok;
+});
+</script>
+"""
+
+
+def _esc(v) -> str:
+    return html.escape(str(v))
+
+
+def _fmt(v) -> str:
+    if v is None or (isinstance(v, float) and np.isnan(v)):
+        return "—"
+    if isinstance(v, bool):
+        return str(v)
+    if isinstance(v, (int, np.integer)):
+        return f"{int(v):,}"
+    if isinstance(v, (float, np.floating)):
+        v = float(v)
+        return f"{v:.3g}" if (abs(v) < 1e-3 and v != 0) or abs(v) >= 1e6 else f"{v:.4f}".rstrip("0").rstrip(".")
+    return str(v)
+
+
+def _kv_table(rows) -> str:
+    body = "".join(f"<tr><th>{_esc(k)}</th><td class='n'>{_esc(_fmt(v))}</td></tr>" for k, v in rows)
+    return f"<table>{body}</table>"
+
+
+def _frame_table(df: pd.DataFrame) -> str:
+    head = "".join(f"<th>{_esc(c)}</th>" for c in df.columns)
+    body = "".join("<tr>" + "".join(
+        f"<td class='n'>{_esc(_fmt(v))}</td>" if isinstance(v, (int, float, np.number)) else f"<td>{_esc(v)}</td>"
+        for v in row) + "</tr>" for row in df.itertuples(index=False))
+    return f"<table><tr>{head}</tr>{body}</table>"
+
+
+def _png(fig) -> str:
+    import matplotlib.pyplot as plt
+
+    buf = io.BytesIO()
+    fig.savefig(buf, format="png")
+    plt.close(fig)
+    return base64.b64encode(buf.getvalue()).decode("ascii")
+
+
+def _figure(b64: str, alt: str, caption: str) -> str:
+    return (f"<figure><img alt='{_esc(alt)}' src='data:image/png;base64,{b64}'>"
+            f"<figcaption>{_esc(caption)}</figcaption></figure>")
+
+
+def _plt():
+    import matplotlib
+
+    matplotlib.use("Agg")
+    import matplotlib.pyplot as plt
+
+    return plt
+
+
+def _hist(values, xlabel: str, color: str, log: bool = False):
+    plt = _plt()
+    fig, ax = plt.subplots(figsize=(5.2, 3.4), dpi=100)
+    v = np.asarray(values, dtype=float)
+    v = v[np.isfinite(v)]
+    if log:
+        v = v[v > 0]
+        bins = np.logspace(np.log10(v.min()), np.log10(v.max()), 40) if len(v) and v.max() > v.min() else 20
+        ax.set_xscale("log")
+    else:
+        bins = 40
+    ax.hist(v, bins=bins, color=color, edgecolor="white", linewidth=0.4)
+    ax.set_xlabel(xlabel)
+    ax.set_ylabel("pairs")
+    ax.grid(alpha=0.25)
+    fig.tight_layout()
+    return fig
+
+
+def _degree_plot(pairs: pd.DataFrame, degree: dict):
+    plt = _plt()
+    fig, ax = plt.subplots(figsize=(5.2, 3.4), dpi=100)
+    d = pairs["node_a"].map(degree).to_numpy(dtype=float)
+    c = pairs["conserved"].to_numpy(dtype=float)
+    jitter = np.random.default_rng(0).uniform(-0.2, 0.2, len(d))
+    ax.scatter(d + jitter, c, s=7, alpha=0.45, color="#1f5f8b", linewidths=0)
+    top = max(d.max() if len(d) else 1, 1)
+    ax.plot([0, top], [0, top], ":", color="#d0542c", lw=1, label="all edges conserved")
+    ax.set_xlabel("degree of the node in A")
+    ax.set_ylabel("conserved edges at the pair")
+    ax.legend(fontsize=8, frameon=False)
+    ax.grid(alpha=0.25)
+    fig.tight_layout()
+    return fig
+
+
+def _conserved_subgraph(cons: pd.DataFrame, cap: int):
+    """The largest connected component of the conserved edges (on A's names), capped to ``cap``
+    nodes by a breadth-first ball around its highest-degree node; and its full size."""
+    import networkx as nx
+
+    g = nx.Graph()
+    g.add_edges_from(zip(cons["node_a1"].astype(str), cons["node_a2"].astype(str)))
+    if g.number_of_nodes() == 0:
+        return g, 0, 0
+    comp = max(nx.connected_components(g), key=len)
+    sub = g.subgraph(comp)
+    full_n, full_e = sub.number_of_nodes(), sub.number_of_edges()
+    if full_n > cap:
+        hub = max(sub.degree, key=lambda t: (t[1], t[0]))[0]
+        keep = []
+        for node in nx.bfs_tree(sub, hub):
+            keep.append(node)
+            if len(keep) == cap:
+                break
+        sub = sub.subgraph(keep)
+    return sub.copy(), full_n, full_e
+
+
+def _draw_subgraph(sub, mapping: dict):
+    import networkx as nx
+
+    plt = _plt()
+    fig, ax = plt.subplots(figsize=(9.6, 7.0), dpi=100)
+    pos = nx.spring_layout(sub, seed=1, k=1.4 / max(np.sqrt(sub.number_of_nodes()), 1))
+    deg = dict(sub.degree)
+    nx.draw_networkx_edges(sub, pos, ax=ax, width=0.7, edge_color="#9aa7b5")
+    nx.draw_networkx_nodes(sub, pos, ax=ax, node_size=[18 + 9 * deg[v] for v in sub.nodes],
+                           node_color="#1f5f8b", linewidths=0)
+    if sub.number_of_nodes() <= 60:
+        labels = {v: f"{v}\n{mapping.get(v, '')}" for v in sub.nodes}
+        nx.draw_networkx_labels(sub, pos, labels=labels, ax=ax, font_size=6)
+    ax.set_axis_off()
+    fig.tight_layout()
+    return fig
+
+
+def _significance_rows(sig: dict | None):
+    if not sig:
+        return []
+    rows = []
+    rb = sig.get("random_bijection") or {}
+    if rb:
+        rows += [("uniform random bijection: expected conserved edges", rb.get("mean")),
+                 ("uniform random bijection: standard deviation", rb.get("sd")),
+                 ("z-score of the observed count", rb.get("z"))]
+    cm = sig.get("candidate_maps")
+    if cm:
+        rows += [("random candidate maps", cm.get("permutations")),
+                 ("random candidate maps: mean / max conserved edges",
+                  f"{_fmt(cm.get('null_mean'))} / {_fmt(cm.get('null_max'))}"),
+                 ("empirical p-value, (1 + #≥ observed) / (N + 1)", cm.get("p_value"))]
+    return rows
+
+
+def build_report(outdir, *, network_a=None, network_b=None, delimiter: str | None = None,
+                 header: str = "auto") -> Path:
+    """Write ``outdir/report.html`` from the outputs of a finished run in ``outdir``.
+
+    Reads summary.json, alignment.tsv and conserved_edges.tsv (and sweep.tsv when a sweep was
+    written there), and re-reads network A from ``summary["inputs"]["network_a"]["source"]``
+    unless ``network_a`` overrides it (network B is only needed for its size, which the summary
+    holds; ``network_b`` is accepted for symmetry and checked to exist). Figures are PNG, embedded
+    as base64; the page loads no external resource.
+    """
+    out = Path(outdir)
+    need = [out / "summary.json", out / "alignment.tsv", out / "conserved_edges.tsv"]
+    missing = [p.name for p in need if not p.is_file()]
+    if missing:
+        raise InvalidParameterError(f"'{out}' does not hold a finished run: {', '.join(missing)} missing; run "
+                                    "aligner align -o there first.")
+    summary = json.loads((out / "summary.json").read_text(encoding="utf-8"))
+    pairs = pd.read_csv(out / "alignment.tsv", sep="\t", keep_default_na=False, dtype={"node_a": str, "node_b": str})
+    cons = pd.read_csv(out / "conserved_edges.tsv", sep="\t", keep_default_na=False, dtype=str)
+    src_a = network_a if network_a is not None else summary["inputs"]["network_a"]["source"]
+    if network_b is not None and not Path(network_b).exists():
+        raise InvalidParameterError(f"network B '{network_b}' does not exist")
+    try:
+        net_a = read_network(src_a, delimiter=delimiter, header=header)
+    except (OSError, FileNotFoundError) as exc:
+        raise InvalidParameterError(f"cannot re-read network A from '{src_a}' ({exc}); give it with --a") from None
+    degree = dict(zip(net_a.names.astype(str), net_a.degree.astype(int)))
+
+    sections = []
+    ins = summary["inputs"]
+    in_rows = [("network A", ins["network_a"]["source"]),
+               ("network A: nodes / edges", f"{ins['network_a']['nodes']:,} / {ins['network_a']['edges']:,}"),
+               ("network B", ins["network_b"]["source"]),
+               ("network B: nodes / edges", f"{ins['network_b']['nodes']:,} / {ins['network_b']['edges']:,}")]
+    if ins.get("prior"):
+        in_rows += [("prior", ins["prior"]["source"]), ("prior rows / usable pairs",
+                                                         f"{ins['prior']['rows']:,} / {ins['prior']['pairs']:,}")]
+    if ins.get("truth"):
+        in_rows.append(("truth table", ins["truth"]["source"]))
+    params = list(summary.get("parameters", {}).items())
+    sizes = list(summary.get("sizes", {}).items())
+    sections.append("<section><h2>Inputs and parameters</h2><div class='grid'><div>" + _kv_table(in_rows)
+                    + "</div><div>" + _kv_table(params) + "</div><div>" + _kv_table(sizes) + "</div></div></section>")
+
+    sc = summary["scores"]
+    score_rows = [("conserved edges", sc.get("conserved_edges")), ("EC (edge correctness)", sc.get("ec")),
+                  ("ICS (induced conserved structure)", sc.get("ics")),
+                  ("S3 (symmetric substructure score)", sc.get("s3")),
+                  ("largest common connected subgraph: nodes", sc.get("lccs_nodes")),
+                  ("largest common connected subgraph: edges", sc.get("lccs_edges")),
+                  ("matched pairs", sc.get("n_matched"))]
+    if sc.get("nc") is not None:
+        score_rows.append(("NC (node correctness)", sc.get("nc")))
+    sig_rows = _significance_rows(summary.get("significance"))
+    sections.append("<section><h2>Scores</h2><div class='grid'><div>" + _kv_table(score_rows) + "</div><div>"
+                    + (_kv_table(sig_rows) if sig_rows else "<p class='note'>no significance in this run</p>")
+                    + "<p class='note'>Null 1: a uniformly random one-to-one map between the matched nodes of A "
+                      "and their images (exact mean and variance). Null 2: random one-to-one maps using candidate "
+                      "pairs only.</p></div></div></section>")
+
+    if (out / "sweep.tsv").is_file():
+        from aligner.analysis.sweep import KNEE_RULE, knee_index, plot_sweep
+
+        tab = pd.read_csv(out / "sweep.tsv", sep="\t")
+        knee = knee_index(tab["prior_weight"], tab["conserved_edges"])
+        fig = plot_sweep(tab, knee)
+        cap = f"One point per α from sweep.tsv. Knee: {KNEE_RULE}."
+        if knee is not None:
+            cap += f" Suggested α = {tab['alpha'].iloc[knee]:g}."
+        sections.append("<section><h2>Trade-off across α</h2>" + _figure(_png(fig), "trade-off curve", cap)
+                        + "</section>")
+
+    figs = [_figure(_png(_hist(pairs["score"], "diffusion score (log scale)", "#1f5f8b", log=True)),
+                    "score histogram", "Diffusion scores of the matched pairs.")]
+    if "confidence" in pairs:
+        figs.append(_figure(_png(_hist(pairs["confidence"], "confidence", "#6a8d3a")), "confidence histogram",
+                            "Confidence: (x − best competitor) / x, clipped at 0."))
+    figs.append(_figure(_png(_degree_plot(pairs, degree)), "conserved edges against degree",
+                        "Each matched pair: its node's degree in A against its conserved edges."))
+    sections.append("<section><h2>Distributions</h2><div class='grid'>" + "".join(figs) + "</div></section>")
+
+    sub, full_n, full_e = _conserved_subgraph(cons, MAX_DRAWN_NODES)
+    if sub.number_of_nodes():
+        mapping = dict(zip(pairs["node_a"], pairs["node_b"]))
+        cap = (f"Largest connected component of the conserved edges: {full_n:,} nodes, {full_e:,} edges"
+               + (f"; drawn: the {sub.number_of_nodes()} nodes nearest its best-connected node" if full_n >
+                  sub.number_of_nodes() else "") + ". Labels (when drawn): node of A over its partner in B.")
+        sections.append("<section><h2>Conserved subgraph</h2>"
+                        + _figure(_png(_draw_subgraph(sub, mapping)), "largest conserved subgraph", cap)
+                        + "</section>")
+
+    cols = [c for c in ("node_a", "node_b", "score", "prior", "conserved", "confidence") if c in pairs]
+    key = "confidence" if "confidence" in pairs else "score"
+    top = pairs.sort_values([key, "score"], ascending=False, kind="stable").head(TOP_ROWS)[cols]
+    low = pairs.sort_values([key, "score"], ascending=True, kind="stable").head(TOP_ROWS)[cols]
+    sections.append(f"<section><h2>Most confident pairs</h2>{_frame_table(top)}</section>"
+                    f"<section><h2>Least confident pairs</h2><p class='note'>Check these first.</p>"
+                    f"{_frame_table(low)}</section>")
+
+    page = ("<!DOCTYPE html><html lang='en'><head><meta charset='utf-8'>"
+            "<meta name='viewport' content='width=device-width, initial-scale=1'>"
+            f"<title>aligner report — {_esc(out.name)}</title><style>{_CSS}</style></head><body>"
+            f"<header><h1>Alignment report</h1><p>{_esc(out)} · aligner {_esc(summary.get('version', ''))}</p>"
+            "</header><main>" + "".join(sections)
+            + "<p class='note' id='page-check'></p><p class='note' id='page-errors'></p></main>" + _CHECK
+            + "</body></html>")
+    path = out / REPORT_FILE
+    tmp = out / (REPORT_FILE + ".tmp")
+    tmp.write_text(page, encoding="utf-8")
+    tmp.replace(path)
+    return path

@@ -1,0 +1,225 @@
+import json
+
+import networkx as nx
+import numpy as np
+import pandas as pd
+import pytest
+import scipy.sparse as sp
+from scipy.sparse.linalg import spsolve
+from typer.testing import CliRunner
+
+import aligner
+from aligner.core.candidates import build_candidates
+from aligner.cli.app import app
+from aligner.core.diffusion import column_scale, diffuse
+from aligner.core.network import network_from_edges
+from aligner.core.product import build_product
+from aligner.analysis.query import QueryEngine
+from aligner.datasets.synthetic import powerlaw_graph, relabelled_pair
+from conftest import random_edges
+
+runner = CliRunner()
+
+
+def _net(edges, n):
+    names = np.array([f"{i:04d}" for i in range(n)], dtype=object)  # sorted as strings = as integers
+    e = np.asarray(edges, dtype=np.int64).reshape(-1, 2)
+    return network_from_edges(names, e[:, 0], e[:, 1])
+
+
+def _random_instance(seed, n1=40, n2=45, p=0.12, share=0.25):
+    rng = np.random.default_rng(seed)
+    a = _net(random_edges(n1, p, rng), n1)
+    b = _net(random_edges(n2, p, rng), n2)
+    pairs = np.array([(i, j) for i in range(n1) for j in range(n2) if rng.random() < share])
+    cand = build_candidates(pairs, rng.random(len(pairs)) + 0.05, n1, n2, top_k=None)
+    return a, b, cand
+
+
+def _full_solve(a, b, cand, idx, h, alpha, normalization="restricted"):
+    prod = build_product(a.indptr, a.indices, b.indptr, b.indices, cand)
+    hf = np.zeros(cand.m)
+    hf[idx] = h
+    scale = column_scale(prod, normalization, deg_a=a.degree, deg_b=b.degree, pairs=cand.pairs)
+    return prod, diffuse(prod, hf, scale, alpha=alpha, tol=1e-13)
+
+
+@pytest.mark.parametrize("seed", [0, 1, 2])
+@pytest.mark.parametrize("normalization", ["restricted", "product"])
+def test_query_equals_same_seeded_full_solve_within_certified_bound(seed, normalization):
+    # Reference: aligner.core.diffusion.diffuse on the whole restricted product graph with the same h
+    # (itself checked against scipy.sparse.linalg.spsolve in test_diffusion.py).
+    a, b, cand = _random_instance(seed)
+    alpha = 0.85
+    eng = QueryEngine(a, b, cand, alpha=alpha, tol=1e-4, normalization=normalization)
+    for node in range(0, a.n, 7):
+        own = eng.candidates_of(node)
+        if len(own) < 2:
+            continue
+        idx, h = eng.personalization(node)
+        assert h.sum() == pytest.approx(1.0)
+        assert np.array_equal(idx, own)  # no seeds: h lives on the node's own candidates only
+        sol = eng.solve(node)
+        prod, ref = _full_solve(a, b, cand, idx, h, alpha, normalization)
+        xq = np.zeros(cand.m)
+        xq[sol.pairs] = sol.x
+        slack = ref.error_bound + 1e-12
+        # every pair of L, touched or not: |x* - x| <= min(eps v, ||r||_1) / (1 - alpha)
+        v = prod.degree if normalization == "restricted" else a.degree[cand.pairs[:, 0]] * b.degree[cand.pairs[:, 1]]
+        bound_all = np.minimum(sol.eps * v, sol.residual_l1) / (1 - alpha)
+        assert np.all(np.abs(ref.x - xq) <= bound_all + slack)
+        assert np.all(xq <= ref.x + slack)  # h >= 0: the query's scores approach from below
+        assert np.abs(ref.x - xq).sum() <= sol.residual_l1 / (1 - alpha) + slack
+        # the ranking of the node's counterparts
+        tab, work = eng.counterparts(node, top=None)
+        full = pd.Series(ref.x[own], index=cand.pairs[own, 1])
+        assert np.all(np.abs(full[tab.counterpart].to_numpy() - tab.score.to_numpy())
+                      <= tab.error_bound.to_numpy() + slack)
+        s, e = full[tab.counterpart].to_numpy(), tab.error_bound.to_numpy()
+        for u in range(len(s)):
+            for w in range(u + 1, len(s)):  # tab is sorted by the query's score
+                if abs(s[u] - s[w]) > 2 * max(e[u], e[w]) + 2 * slack:
+                    assert s[u] > s[w]  # clearly separated in the full solve: same order
+        assert work["pairs_touched"] <= cand.m
+
+
+def test_query_equals_spsolve_of_explicit_system():
+    # Reference: scipy.sparse.linalg.spsolve on (I - alpha P) x = (1 - alpha) h with P built from
+    # networkx.tensor_product restricted to the candidates and the column scale 1/deg_S.
+    a, b, cand = _random_instance(5, n1=12, n2=13, p=0.3, share=0.5)
+    ga = nx.Graph(); ga.add_nodes_from(range(a.n)); ga.add_edges_from(a.edges.tolist())
+    gb = nx.Graph(); gb.add_nodes_from(range(b.n)); gb.add_edges_from(b.edges.tolist())
+    prs = [tuple(p) for p in cand.pairs.tolist()]
+    sub = nx.tensor_product(ga, gb).subgraph(prs)
+    S = nx.to_scipy_sparse_array(sub, nodelist=prs, format="csr")
+    deg = np.asarray(S.sum(axis=0), dtype=np.float64).ravel()
+    alpha = 0.8
+    P = S @ sp.diags(np.divide(1.0, deg, out=np.zeros_like(deg), where=deg > 0))
+    eng = QueryEngine(a, b, cand, alpha=alpha, tol=1e-9)
+    node = int(np.argmax(np.diff(cand.a_indptr)))
+    idx, h = eng.personalization(node)
+    hf = np.zeros(cand.m)
+    hf[idx] = h
+    want = spsolve(sp.eye(cand.m, format="csc") - alpha * P.tocsc(), (1 - alpha) * hf)
+    sol = eng.solve(node)
+    got = np.zeros(cand.m)
+    got[sol.pairs] = sol.x
+    assert np.abs(got - want).max() <= sol.error_bound().max() + 1e-12
+    # the support of the node's pairs is its number of neighbours in the tensor product
+    tab, _ = eng.counterparts(node, top=None)
+    nb = {b.names[p[1]]: sub.degree(p) for p in prs if p[0] == node}
+    assert all(nb[b.names[c]] == s for c, s in zip(tab.counterpart, tab.support))
+
+
+def test_far_away_structure_changes_nothing():
+    # Common practice (locality): adding a large component far from the asked node, to both
+    # networks and the candidates, leaves the query's scores and its work unchanged.
+    a, b, cand = _random_instance(3)
+    rng = np.random.default_rng(9)
+    extra = 400
+    ea = np.concatenate([a.edges, random_edges(extra, 0.02, rng) + a.n])
+    eb = np.concatenate([b.edges, random_edges(extra, 0.02, rng) + b.n])
+    a2, b2 = _net(ea, a.n + extra), _net(eb, b.n + extra)
+    more = np.concatenate([np.stack([np.arange(extra) + a.n, rng.permutation(extra) + b.n], 1),
+                           np.stack([np.arange(extra) + a.n, rng.permutation(extra) + b.n], 1)])
+    pairs = np.concatenate([cand.pairs, more])
+    scores = np.concatenate([cand.prior, rng.random(len(more)) + 0.05])
+    cand2 = build_candidates(pairs, scores, a2.n, b2.n, top_k=None)
+    t1, w1 = QueryEngine(a, b, cand, tol=1e-6).counterparts(4, top=None)
+    t2, w2 = QueryEngine(a2, b2, cand2, tol=1e-6).counterparts(4, top=None)
+    assert np.array_equal(t1.counterpart, t2.counterpart)
+    assert np.allclose(t1.score, t2.score, rtol=0, atol=1e-15)
+    for key in ("pairs_touched", "pairs_expanded", "product_edges_scanned", "search_probes", "pushes"):
+        assert w1[key] == w2[key], key
+
+
+def test_side_b_is_side_a_of_the_swapped_problem():
+    # Common practice (symmetry): asking about a node of B equals asking about it as a node of A
+    # after swapping the two networks and transposing the prior.
+    a, b, cand = _random_instance(4)
+    swapped = build_candidates(cand.pairs[:, ::-1], cand.prior, b.n, a.n, top_k=None)
+    for node in (0, 5, 11):
+        t1, _ = QueryEngine(a, b, cand, tol=1e-8).counterparts(node, "b", top=None)
+        t2, _ = QueryEngine(b, a, swapped, tol=1e-8).counterparts(node, "a", top=None)
+        assert np.array_equal(t1.counterpart, t2.counterpart)
+        # the candidates are numbered differently, so the pushes run in another order: equal
+        # within the two certified bounds
+        assert np.all(np.abs(t1.score - t2.score) <= t1.error_bound + t2.error_bound + 1e-15)
+        assert np.array_equal(t1.support, t2.support)
+
+
+def _relabelled_frames(n=600, seed=1, noise=0.05):
+    pair = relabelled_pair(powerlaw_graph(n, seed=seed), n, noise=noise, seed=seed + 1)
+    name_a = np.char.add("a", np.arange(n).astype(str))
+    name_b = np.char.add("b", np.arange(n).astype(str))
+    A = pd.DataFrame({"u": name_a[pair.edges_a[:, 0]], "v": name_a[pair.edges_a[:, 1]]})
+    B = pd.DataFrame({"u": name_b[pair.edges_b[:, 0]], "v": name_b[pair.edges_b[:, 1]]})
+    P = pd.DataFrame({"a": name_a[pair.prior_pairs[:, 0]], "b": name_b[pair.prior_pairs[:, 1]],
+                      "s": pair.prior_scores})
+    T = pd.DataFrame({"a": name_a[pair.truth[:, 0]], "b": name_b[pair.truth[:, 1]]})
+    return A, B, P, T
+
+
+def test_python_api_table_and_work():
+    # Common practice: the documented columns, ranks 1..top in descending score, JSON-ready.
+    A, B, P, T = _relabelled_frames()
+    res = aligner.query(A, B, P, nodes=["a3", "a10"], top=4)
+    assert list(res.table.columns) == ["query", "side", "rank", "counterpart", "score", "error_bound", "prior",
+                                       "support", "fixed"]
+    for name, grp in res.table.groupby("query"):
+        assert grp["rank"].tolist() == list(range(1, len(grp) + 1)) and len(grp) == 4
+        assert grp["score"].is_monotonic_decreasing
+        assert (grp["error_bound"] < 1e-3).all()
+    assert set(res.work["query"]) == {"a3", "a10"}
+    for key in ("pairs_touched", "product_edges_scanned", "pushes", "residual_l1"):
+        assert (res.work[key] > 0).all()
+    json.dumps(res.as_dict())
+    with pytest.raises(aligner.InvalidParameterError, match="not a node of network A"):
+        aligner.query(A, B, P, nodes=["b3"])
+    with pytest.raises(aligner.InvalidParameterError, match="prior or seeds"):
+        aligner.query(A, B, None, nodes=["a3"])
+
+
+def test_seeds_in_a_query():
+    # Common practice: a seeded node answers with its seed partner only; the seeds next to a node
+    # are sources of its h; a partner fixed to another node by a seed is left out of the ranking.
+    A, B, P, T = _relabelled_frames()
+    seeds = T.iloc[::10]
+    res = aligner.query(A, B, P, nodes=["a0"], seeds=seeds)
+    assert res.table[["counterpart", "fixed"]].values.tolist() == [[T.b[0], True]]
+    res = aligner.query(A, B, P, nodes=["a1"], seeds=seeds, top=None)
+    nb = set(A.v[A.u == "a1"]) | set(A.u[A.v == "a1"])
+    assert res.work.seeds_near.iloc[0] == len(nb & set(seeds.a))
+    assert not res.table.fixed.any()
+    assert not set(res.table.counterpart) & set(seeds.b)
+    plain = aligner.query(A, B, P, nodes=["a1"], top=None)
+    assert res.work.excluded_by_seeds.iloc[0] == len(set(plain.table.counterpart) & set(seeds.b))
+
+
+def _demo():
+    from pathlib import Path
+
+    d = Path(__file__).resolve().parents[2] / "demo_pairs" / "firefly"
+    return [str(d / "network_a.tsv"), str(d / "network_b.tsv")], str(d / "prior.tsv"), d
+
+
+def test_cli_query_prints_and_json():
+    nets, prior, d = _demo()
+    node = pd.read_csv(d / "truth.tsv", sep="\t", comment="#").iloc[0, 0]
+    res = runner.invoke(app, ["query", *nets, "--prior", prior, "--node", node, "--top", "3"])
+    assert res.exit_code == 0, res.output
+    assert f"Counterparts in B of {node}" in res.output and "pairs touched" in res.output
+    res = runner.invoke(app, ["query", *nets, "--prior", prior, "--node", node, "--top", "3", "--json"])
+    assert res.exit_code == 0, res.output
+    got = json.loads(res.output)
+    assert got["queries"][0]["query"] == node and len(got["queries"][0]["counterparts"]) == 3
+    assert {"pairs_touched", "product_edges_scanned", "seconds"} <= set(got["queries"][0]["work"])
+
+
+def test_cli_query_errors_exit_2():
+    nets, prior, d = _demo()
+    res = runner.invoke(app, ["query", *nets, "--prior", prior, "--node", "no-such-protein"])
+    assert res.exit_code == 2 and "no-such-protein" in res.output and "--side b" in res.output
+    res = runner.invoke(app, ["query", *nets, "--node", "x"])
+    assert res.exit_code == 2 and "--seeds" in res.output
+    assert "Traceback" not in res.output

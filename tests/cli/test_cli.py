@@ -1,0 +1,91 @@
+import json
+from pathlib import Path
+
+import pandas as pd
+import pytest
+from typer.testing import CliRunner
+
+from aligner.cli.app import app
+
+DEMO = Path(__file__).resolve().parents[2] / "demo_pairs" / "firefly"
+runner = CliRunner()
+
+
+def _align(tmp_path, *extra, out="out"):
+    args = ["align", str(DEMO / "network_a.tsv"), str(DEMO / "network_b.tsv"), "--prior", str(DEMO / "prior.tsv"),
+            "-o", str(tmp_path / out), "--truth", str(DEMO / "truth.tsv"), *extra]
+    return runner.invoke(app, args)
+
+
+def test_align_writes_documented_outputs(tmp_path):
+    res = _align(tmp_path)
+    assert res.exit_code == 0, res.output
+    out = tmp_path / "out"
+    tab = pd.read_csv(out / "alignment.tsv", sep="\t", keep_default_na=False)
+    assert list(tab.columns) == ["node_a", "node_b", "score", "prior", "conserved", "confidence"]
+    assert tab.node_a.is_unique and tab.node_b.is_unique
+    summary = json.loads((out / "summary.json").read_text())
+    for key in ("ec", "ics", "s3", "nc", "conserved_edges"):
+        assert key in summary["scores"]
+    assert summary["scores"]["conserved_edges"] == int(tab.conserved.sum()) // 2
+    cons = pd.read_csv(out / "conserved_edges.tsv", sep="\t", keep_default_na=False)
+    assert list(cons.columns) == ["node_a1", "node_a2", "node_b1", "node_b2"]
+    assert len(cons) == summary["scores"]["conserved_edges"]
+    assert "conserved edges" in res.output and "EC / ICS / S3" in res.output
+    # the demo's evidence is strong: most proteins map to their true counterpart
+    assert summary["scores"]["nc"] > 0.8
+
+
+def test_existing_output_refused_unless_force(tmp_path):
+    assert _align(tmp_path).exit_code == 0
+    res = _align(tmp_path)
+    assert res.exit_code == 2
+    assert "already holds" in res.output and "--force" in res.output
+    assert "Traceback" not in res.output
+    assert _align(tmp_path, "--force").exit_code == 0
+
+
+def test_score_command_reproduces_align_scores(tmp_path):
+    assert _align(tmp_path).exit_code == 0
+    summary = json.loads((tmp_path / "out" / "summary.json").read_text())
+    res = runner.invoke(app, ["score", str(DEMO / "network_a.tsv"), str(DEMO / "network_b.tsv"),
+                              str(tmp_path / "out" / "alignment.tsv"), "--truth", str(DEMO / "truth.tsv"), "--json"])
+    assert res.exit_code == 0, res.output
+    got = json.loads(res.output)
+    for key in ("conserved_edges", "ec", "ics", "s3", "nc", "lccs_nodes", "lccs_edges"):
+        assert got[key] == pytest.approx(summary["scores"][key]), key
+
+
+def test_demo_runs_from_any_directory(tmp_path, monkeypatch):
+    monkeypatch.chdir(tmp_path)
+    res = runner.invoke(app, ["demo", "-o", "demo_out"])
+    assert res.exit_code == 0, res.output
+    assert (tmp_path / "demo_out" / "summary.json").exists()
+    assert "demo_out" in res.output
+
+
+def test_bad_option_value_is_a_clear_error(tmp_path):
+    res = _align(tmp_path, "--alpha", "1.5")
+    assert res.exit_code == 2
+    assert "'alpha' parameter of align must be a real number in [0, 1). Got 1.5 instead." in res.output
+    assert not (tmp_path / "out").exists()
+    res = _align(tmp_path, "--top-k", "0")
+    assert res.exit_code == 2 and "top_k" in res.output
+
+
+def test_bad_input_file_names_file_and_line(tmp_path):
+    bad = tmp_path / "bad.tsv"
+    bad.write_text("a\tb\nb\tc\tnot-a-number\n")
+    res = runner.invoke(app, ["align", str(bad), str(DEMO / "network_b.tsv"), "--prior", str(DEMO / "prior.tsv"),
+                              "-o", str(tmp_path / "o")])
+    assert res.exit_code == 2
+    assert "bad.tsv" in res.output and "line 2" in res.output
+    assert "Traceback" not in res.output
+
+
+def test_help_states_defaults():
+    res = runner.invoke(app, ["align", "--help"])
+    assert res.exit_code == 0
+    for opt in ("--alpha", "--top-k", "--min-score", "--score-kind", "--solver", "--tol", "--truth"):
+        assert opt in res.output
+    assert "0.9" in res.output and "default" in res.output.lower()

@@ -1,0 +1,53 @@
+"""The prior-from-labels command: files in, a prior table out, clear errors."""
+
+import pandas as pd
+from typer.testing import CliRunner
+
+from aligner.cli.app import app
+
+runner = CliRunner()
+
+
+def _write(path, rows):
+    path.write_text("".join(f"{a}\t{b}\n" for a, b in rows), encoding="utf-8")
+    return path
+
+
+def test_writes_a_prior_whose_best_pairs_are_the_same_names(tmp_path):
+    # common practice: misspelled, abbreviated and reordered names of one firm stay each other's best match
+    la = _write(tmp_path / "a.tsv", [("a1", "Quorvel Shipping Limited"), ("a2", "Tessaly Glassworks & Co"),
+                                     ("a3", "Ombrin Dairy Cooperative")])
+    lb = _write(tmp_path / "b.tsv", [("b1", "Dairy Cooperative Ombrin"), ("b2", "Quorvell Shipping Ltd"),
+                                     ("b3", "Tessaly Glass Works and Company")])
+    r = runner.invoke(app, ["prior-from-labels", str(la), str(lb), "-o", str(tmp_path / "p.tsv"), "-q"])
+    assert r.exit_code == 0, r.output
+    p = pd.read_csv(tmp_path / "p.tsv", sep="\t")
+    assert list(p.columns) == ["node_a", "node_b", "score"]
+    best = p.loc[p.groupby("node_a")["score"].idxmax()]
+    assert dict(zip(best.node_a, best.node_b)) == {"a1": "b2", "a2": "b3", "a3": "b1"}
+    assert ((p.score > 0) & (p.score <= 1)).all()
+
+
+def test_identifiers_are_labels_from_networks(tmp_path):
+    a = _write(tmp_path / "a.tsv", [("ALPHA-1", "ALPHA-2"), ("ALPHA-2", "BETA-7")])
+    b = _write(tmp_path / "b.tsv", [("alpha_1", "alpha_2"), ("alpha_2", "beta_7")])
+    r = runner.invoke(app, ["prior-from-labels", str(a), str(b), "-o", str(tmp_path / "p.tsv"), "--from-networks",
+                            "-q"])
+    assert r.exit_code == 0, r.output
+    p = pd.read_csv(tmp_path / "p.tsv", sep="\t")
+    best = p.loc[p.groupby("node_a")["score"].idxmax()]
+    assert dict(zip(best.node_a, best.node_b)) == {"ALPHA-1": "alpha_1", "ALPHA-2": "alpha_2", "BETA-7": "beta_7"}
+
+
+def test_errors_exit_2_and_write_nothing(tmp_path):
+    la = _write(tmp_path / "a.tsv", [("a1", "Quorvel Shipping"), ("a1", "Tessaly Glass")])
+    lb = _write(tmp_path / "b.tsv", [("b1", "Quorvel Shipping")])
+    out = tmp_path / "p.tsv"
+    r = runner.invoke(app, ["prior-from-labels", str(la), str(lb), "-o", str(out)])
+    assert r.exit_code == 2 and "a.tsv" in r.output and "line 2" in r.output
+    assert not out.exists()
+    r = runner.invoke(app, ["prior-from-labels", str(tmp_path / "none.tsv"), str(lb), "-o", str(out)])
+    assert r.exit_code == 2 and "none.tsv" in r.output and not out.exists()
+    out.write_text("keep\n")
+    r = runner.invoke(app, ["prior-from-labels", str(lb), str(lb), "-o", str(out)])
+    assert r.exit_code == 2 and "--force" in r.output and out.read_text() == "keep\n"

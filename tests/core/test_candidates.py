@@ -1,0 +1,38 @@
+import numpy as np
+
+from aligner.core.candidates import build_candidates
+
+
+def test_top_k_union_by_hand():
+    # Worked by hand: A node 0 prefers B0 (0.9) then B1 (0.8); A node 1 prefers B1 (0.5).
+    # top_k = 1 on the A side keeps (0,0), (1,1); on the B side B0 keeps (0,0), B1 keeps (0,1).
+    c = build_candidates([[0, 0], [0, 1], [1, 1]], [0.9, 0.8, 0.5], 2, 2, top_k=1)
+    assert c.pairs.tolist() == [[0, 0], [0, 1], [1, 1]]
+    c = build_candidates([[0, 0], [0, 1], [1, 1]], [0.9, 0.3, 0.5], 2, 2, top_k=1)
+    assert c.pairs.tolist() == [[0, 0], [1, 1]]
+
+
+def test_min_score_and_duplicates_keep_highest():
+    c = build_candidates([[0, 0], [0, 0], [1, 0]], [0.2, 0.7, 0.1], 2, 1, min_score=0.15, top_k=None)
+    assert c.pairs.tolist() == [[0, 0]]
+    assert c.prior.tolist() == [0.7]
+
+
+def test_order_of_rows_does_not_matter(rng):
+    pairs = rng.integers(0, 30, size=(300, 2))
+    scores = rng.integers(0, 5, size=300).astype(float)  # many ties
+    a = build_candidates(pairs, scores, 30, 30, top_k=3)
+    perm = rng.permutation(300)
+    b = build_candidates(pairs[perm], scores[perm], 30, 30, top_k=3)
+    assert np.array_equal(a.pairs, b.pairs) and np.array_equal(a.prior, b.prior)
+
+
+def test_index_and_coverage():
+    c = build_candidates([[2, 1], [0, 0]], [1.0, 1.0], 4, 2, top_k=None)
+    assert c.a_indptr.tolist() == [0, 1, 1, 2, 2]
+    assert c.coverage() == (0.5, 1.0)
+
+
+def test_empty():
+    c = build_candidates(np.empty((0, 2)), np.empty(0), 3, 3)
+    assert c.m == 0 and c.a_indptr.tolist() == [0, 0, 0, 0]

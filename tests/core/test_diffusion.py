@@ -1,0 +1,124 @@
+import networkx as nx
+import numpy as np
+import pytest
+import scipy.sparse as sp
+from scipy.sparse.linalg import spsolve
+
+from aligner.core.diffusion import column_scale, diffuse, prior_vector
+from aligner.errors import ConvergenceError, InvalidParameterError
+from aligner.core.product import build_product
+from conftest import all_pairs_candidates, csr, random_edges
+
+
+def _connected_random(n, p, rng):
+    while True:
+        e = random_edges(n, p, rng)
+        g = nx.Graph(); g.add_nodes_from(range(n)); g.add_edges_from(e.tolist())
+        if nx.is_connected(g):
+            return e
+
+
+def _instance(seed, n1=7, n2=8):
+    rng = np.random.default_rng(seed)
+    ea, ia, xa = csr(_connected_random(n1, 0.45, rng), n1)
+    eb, ib, xb = csr(_connected_random(n2, 0.4, rng), n2)
+    cand = all_pairs_candidates(n1, n2, rng)
+    prod = build_product(ia, xa, ib, xb, cand)
+    return (ea, ia, xa), (eb, ib, xb), cand, prod
+
+
+@pytest.mark.parametrize("seed", [0, 1, 2, 3])
+@pytest.mark.parametrize("alpha", [0.3, 0.85])
+def test_push_and_power_equal_spsolve_on_kronecker_system(seed, alpha):
+    # Reference: scipy.sparse.linalg.spsolve on the explicit system (I - alpha P) x = (1 - alpha) h,
+    # with P built from scipy.sparse.kron(A, B) (every pair is a candidate, so the restricted
+    # product graph is the whole Kronecker product and deg_S(j, j') = deg_A(j) deg_B(j')).
+    (ea, ia, xa), (eb, ib, xb), cand, prod = _instance(seed)
+    n1, n2 = len(ia) - 1, len(ib) - 1
+    A = sp.csr_array((np.ones(len(xa)), xa, ia), shape=(n1, n1))
+    B = sp.csr_array((np.ones(len(xb)), xb, ib), shape=(n2, n2))
+    K = sp.kron(A, B, format="csr")  # row index i * n2 + i', the same order as the sorted candidates
+    d = np.asarray(K.sum(axis=0)).ravel()
+    P = K @ sp.diags(1.0 / d)
+    h = prior_vector(cand.prior)
+    want = spsolve(sp.csc_matrix(sp.identity(n1 * n2) - alpha * P), (1 - alpha) * h)
+    scale = column_scale(prod, "restricted")
+    for solver in ("push", "power"):
+        res = diffuse(prod, h, scale, alpha=alpha, tol=1e-10, solver=solver)
+        assert res.residual <= 1e-10
+        err = np.abs(res.x - want).sum()
+        assert err <= res.error_bound + 1e-13
+        assert err < 1e-9
+
+
+@pytest.mark.parametrize("seed", [0, 5])
+def test_equals_networkx_pagerank_on_explicit_product(seed):
+    # Reference: networkx.pagerank on networkx.tensor_product(A, B) with the prior as personalization.
+    # Both graphs connected without isolated nodes: the product has no dangling nodes, so
+    # networkx's x (normalised to sum 1) solves the same system x = alpha P x + (1 - alpha) h and
+    # ours also sums to 1: no rescaling is needed beyond that shared normalisation.
+    (ea, ia, xa), (eb, ib, xb), cand, prod = _instance(seed)
+    ga = nx.Graph(ea.tolist()); gb = nx.Graph(eb.tolist())
+    T = nx.tensor_product(ga, gb)
+    h = prior_vector(cand.prior)
+    pers = {tuple(p): h[k] for k, p in enumerate(cand.pairs.tolist())}
+    ref = nx.pagerank(T, alpha=0.7, personalization=pers, tol=1e-13, max_iter=10_000)
+    res = diffuse(prod, h, column_scale(prod), alpha=0.7, tol=1e-11)
+    want = np.array([ref[tuple(p)] for p in cand.pairs.tolist()])
+    assert res.x.sum() == pytest.approx(1.0, abs=1e-9)
+    np.testing.assert_allclose(res.x, want, atol=1e-9)
+
+
+def test_push_and_power_agree_within_bounds(rng):
+    (ea, ia, xa), (eb, ib, xb), cand, prod = _instance(11, 12, 12)
+    h = prior_vector(cand.prior)
+    s = column_scale(prod)
+    a = diffuse(prod, h, s, alpha=0.9, tol=1e-7, solver="push")
+    b = diffuse(prod, h, s, alpha=0.9, tol=1e-7, solver="power")
+    assert np.abs(a.x - b.x).sum() <= a.error_bound + b.error_bound
+    assert a.steps > 0 and a.edge_touches > 0 and b.steps > 0
+
+
+def test_alpha_zero_returns_prior(rng):
+    *_, cand, prod = _instance(2)
+    h = prior_vector(cand.prior)
+    res = diffuse(prod, h, column_scale(prod), alpha=0.0)
+    assert np.array_equal(res.x, h)
+
+
+def test_product_normalization_and_warm_start():
+    (ea, ia, xa), (eb, ib, xb), cand, prod = _instance(4)
+    h = prior_vector(cand.prior)
+    s = column_scale(prod, "product", deg_a=np.diff(ia), deg_b=np.diff(ib), pairs=cand.pairs)
+    # every pair is a candidate, so both normalisations coincide here (common practice: the
+    # restricted walk is the whole-product walk when nothing is cut away)
+    np.testing.assert_allclose(s, column_scale(prod, "restricted"))
+    cold = diffuse(prod, h, s, alpha=0.8, tol=1e-9)
+    warm = diffuse(prod, h, s, alpha=0.85, tol=1e-9, x0=cold.x)
+    ref = diffuse(prod, h, s, alpha=0.85, tol=1e-9)
+    assert np.abs(warm.x - ref.x).sum() <= warm.error_bound + ref.error_bound
+
+
+def test_cap_raises_convergence_error_with_figures():
+    *_, cand, prod = _instance(3)
+    h = prior_vector(cand.prior)
+    with pytest.raises(ConvergenceError, match="stopped after 5 steps") as info:
+        diffuse(prod, h, column_scale(prod), alpha=0.9, tol=1e-12, max_work=5)
+    assert info.value.iterations == 5 and info.value.residual > 1e-12
+    with pytest.raises(ConvergenceError):
+        diffuse(prod, h, column_scale(prod), alpha=0.9, tol=1e-12, solver="power", max_work=0)
+
+
+@pytest.mark.parametrize("alpha", [1.0, -0.1, 1.5, float("nan")])
+def test_alpha_out_of_range(alpha):
+    *_, cand, prod = _instance(3)
+    with pytest.raises(InvalidParameterError, match=r"'alpha' parameter of diffuse must be a real number in \[0, 1\)"):
+        diffuse(prod, prior_vector(cand.prior), column_scale(prod), alpha=alpha)
+
+
+def test_input_unchanged():
+    *_, cand, prod = _instance(6)
+    h = prior_vector(cand.prior)
+    h0, ip, ix = h.copy(), prod.indptr.copy(), prod.indices.copy()
+    diffuse(prod, h, column_scale(prod), alpha=0.6)
+    assert np.array_equal(h, h0) and np.array_equal(prod.indptr, ip) and np.array_equal(prod.indices, ix)

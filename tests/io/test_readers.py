@@ -1,0 +1,122 @@
+import gzip
+
+import numpy as np
+import pytest
+
+from aligner.errors import InputFormatError
+from aligner.io.readers import EVALUE_CAP, read_network, read_pairs, read_prior
+
+
+def _w(tmp_path, name, text, mode="w"):
+    p = tmp_path / name
+    if mode == "wb":
+        p.write_bytes(text)
+    else:
+        p.write_text(text, encoding="utf-8", newline="")
+    return p
+
+
+def test_edge_list_forms(tmp_path):
+    # the same graph as TSV with header and comments, CSV with CRLF and a BOM, white space, gzip
+    tsv = _w(tmp_path, "a.tsv", "# comment\nsource\ttarget\nx\ty\ny\tz\n\nz\tz\ny\tx\n")
+    csv = _w(tmp_path, "a.csv", "\ufeffx,y\r\ny,z\r\nz,z\r\n")
+    ws = _w(tmp_path, "a.txt", "x  y\ny\tz\n")
+    gz = _w(tmp_path, "a.tsv.gz", gzip.compress(b"x\ty\ny\tz\n"), mode="wb")
+    for p in (tsv, csv, ws, gz):
+        net = read_network(p)
+        assert net.names.tolist() == ["x", "y", "z"], p
+        assert net.edges.tolist() == [[0, 1], [1, 2]], p
+    net = read_network(tsv)
+    assert net.n_self_loops == 1 and net.n_duplicate_edges == 1
+
+
+def test_weights_and_identifiers_with_spaces_quotes_unicode(tmp_path):
+    p = _w(tmp_path, "w.tsv", 'node a\t"q,uoted"\t2.5\nnode a\tß-7\t1\nß-7\t"q,uoted"\t0\n"q,uoted"\tnode a\t1.5\n')
+    net = read_network(p)
+    assert set(net.names) == {"node a", "q,uoted", "ß-7"}
+    assert net.n_edges == 3 and net.n_duplicate_edges == 1
+    k = {tuple(sorted((net.names[u], net.names[v]))): w for (u, v), w in zip(net.edges, net.weights)}
+    assert k[("node a", "q,uoted")] == 4.0  # duplicate weights are summed
+
+
+def test_line_order_does_not_change_numbering(tmp_path):
+    a = read_network(_w(tmp_path, "1.tsv", "b\tc\na\tb\n"))
+    b = read_network(_w(tmp_path, "2.tsv", "a\tb\nb\tc\n"))
+    assert a.names.tolist() == b.names.tolist() and np.array_equal(a.edges, b.edges)
+
+
+@pytest.mark.parametrize("text, pattern", [
+    ("", r"is empty"),
+    ("# only a comment\n", r"is empty"),
+    ("source\ttarget\n", r"header line but no data rows"),
+    ("a\nb\n", r"line 1: has 1 column, expected 2 to 3"),
+    ("a\tb\tc\td\n", r"line 1: has 4 columns, expected at most 3"),
+    ("a\tb\t1\nb\tc\tlots\n", r"line 2: the edge weight 'lots' is not a finite number"),
+    ("a\tb\t1\nb\tc\t-2\n", r"line 2: the edge weight -2 is negative"),
+    ("a\tb\n# c\nb\tc\nc,d\n", r"line 4: has 1 field where the first row has 2"),
+    ("a\tb\nb\tc\td\n", r"line 2: has 3 fields where the first row has 2"),
+])
+def test_malformed_edge_lists_name_the_line(tmp_path, text, pattern):
+    p = _w(tmp_path, "bad.tsv", text)
+    with pytest.raises(InputFormatError, match=pattern) as info:
+        read_network(p)
+    assert str(p) in str(info.value)
+
+
+def test_missing_and_binary_files(tmp_path):
+    with pytest.raises(InputFormatError, match="no such file"):
+        read_network(tmp_path / "nope.tsv")
+    with pytest.raises(InputFormatError, match="is a directory"):
+        read_network(tmp_path)
+    p = _w(tmp_path, "bin.tsv", b"\xff\xfe\x00a\tb\n", mode="wb")
+    with pytest.raises(InputFormatError, match="not UTF-8"):
+        read_network(p)
+
+
+def _nets(tmp_path):
+    a = read_network(_w(tmp_path, "a.tsv", "a1\ta2\na2\ta3\n"))
+    b = read_network(_w(tmp_path, "b.tsv", "b1\tb2\nb2\tb3\n"))
+    return a, b
+
+
+def test_prior_kinds(tmp_path):
+    a, b = _nets(tmp_path)
+    p = _w(tmp_path, "p.tsv", "node_a\tnode_b\tscore\na1\tb1\t1e-30\na2\tb2\t0\na3\tb3\t0.5\na1\tb2\t3\n")
+    t = read_prior(p, a, b, kind="evalue")
+    got = dict(zip(map(tuple, t.pairs.tolist()), t.scores))
+    assert got[(0, 0)] == pytest.approx(30.0)
+    assert got[(1, 1)] == EVALUE_CAP
+    assert got[(2, 2)] == pytest.approx(-np.log10(0.5))
+    assert (0, 1) not in got and t.n_dropped_kind == 1  # E > 1 carries no evidence
+    d = read_prior(p, a, b, kind="distance")
+    assert dict(zip(map(tuple, d.pairs.tolist()), d.scores))[(0, 1)] == pytest.approx(0.25)
+
+
+def test_prior_unknown_and_duplicates(tmp_path):
+    a, b = _nets(tmp_path)
+    p = _w(tmp_path, "p.tsv", "a1\tb1\t1\na1\tb1\t3\nzz\tb1\t1\na2\tqq\t1\n")
+    t = read_prior(p, a, b)
+    assert t.pairs.tolist() == [[0, 0]] and t.scores.tolist() == [3.0]  # the highest score wins
+    assert t.n_unknown == 2 and t.n_duplicates == 1 and t.unknown_examples == ["zz / b1", "a2 / qq"]
+
+
+@pytest.mark.parametrize("text, kind, pattern", [
+    ("a1\tb1\t1\na2\tb2\tx\n", "similarity", r"line 2: the score 'x' is not a finite number"),
+    ("a1\tb1\t1\na2\tb2\tnan\n", "similarity", r"line 2: the score 'nan' is not a finite number"),
+    ("a1\tb1\tinf\n", "similarity", r"line 1: the score 'inf' is not a finite number"),
+    ("# c\na1\tb1\t-1\n", "similarity", r"line 2: the score -1.0 is negative; similarities must be >= 0"),
+    ("a1\tb1\t-1\n", "evalue", r"E-values must be >= 0"),
+    ("a1\tb1\n", "similarity", r"has 2 columns, expected 3 for a prior table"),
+])
+def test_bad_prior_scores_name_file_and_line(tmp_path, text, kind, pattern):
+    a, b = _nets(tmp_path)
+    p = _w(tmp_path, "p.tsv", text)
+    with pytest.raises(InputFormatError, match=pattern):
+        read_prior(p, a, b, kind=kind)
+
+
+def test_read_pairs_ignores_extra_columns(tmp_path):
+    a, b = _nets(tmp_path)
+    p = _w(tmp_path, "al.tsv", "node_a\tnode_b\tscore\tprior\tconserved\na1\tb2\t0.1\t1\t0\nzz\tb1\t1\t1\t1\n")
+    t = read_pairs(p, a, b)
+    assert t.pairs.tolist() == [[0, 1]] and t.n_unknown == 1
