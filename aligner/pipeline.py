@@ -17,8 +17,8 @@ from aligner.checks import check_choice, check_int, check_real
 from aligner.core.candidates import CandidateSet, build_candidates
 from aligner.core.diffusion import NORMALIZATIONS, SOLVERS, DiffusionResult, column_scale, diffuse, prior_vector
 from aligner.errors import AlignerWarning, InputFormatError, InvalidParameterError, MemoryBudgetError, NoCandidatesError
-from aligner.io.readers import (PairTable, PriorTable, json_text, prior_from_columns, publish_outputs, read_network, read_pairs,
-                 read_prior, recover_interrupted, table_text)
+from aligner.io.inputs import as_network, as_pairs, as_prior, known_pairs
+from aligner.io.outputs import OUTPUT_FILES, check_outdir, write_outputs
 from aligner.core.network import Network, network_from_edges
 from aligner.core.product import ProductGraph, build_product, estimate_product_edges
 from aligner.core.refine import DEFAULT_BETA, DEFAULT_MAX_ITER, refine_matching
@@ -35,130 +35,12 @@ __all__ = ["align", "score", "AlignmentResult", "as_network", "OUTPUT_FILES", "c
 SCORE_KINDS = ("similarity", "evalue", "distance")
 #: the stages of a run, in order, as named to the ``progress`` callback of :func:`align`
 STAGES = ("read", "candidates", "product", "diffusion", "rounding", "refine", "scoring", "writing")
-OUTPUT_FILES = ("alignment.tsv", "conserved_edges.tsv", "summary.json")
 #: bytes per stored product-graph entry while building and solving (index + share of pointers,
 #: queue and float work arrays), used by the memory check
 BYTES_PER_PRODUCT_ENTRY = 4
 
 
 # --------------------------------------------------------------------------- coercion
-
-def as_network(obj, *, delimiter: str | None = None, header: str = "auto", name: str = "network",
-               directed: bool = False) -> Network:
-    """A :class:`Network` from a path, a networkx graph, an edge DataFrame or a Network.
-
-    ``directed``: rows (or a networkx DiGraph's edges) are arcs; a Network given must then be
-    a directed one.
-    """
-    if isinstance(obj, Network):
-        if directed and not obj.directed:
-            raise InvalidParameterError(f"The '{name}' parameter of align is an undirected Network, but directed "
-                                        "alignment was asked for; build it with directed=True.")
-        return obj
-    if isinstance(obj, (str, os.PathLike)):
-        return read_network(obj, delimiter=delimiter, header=header, directed=directed)
-    try:
-        import networkx as nx
-    except ImportError:  # pragma: no cover - networkx is a dependency
-        nx = None
-    if nx is not None and isinstance(obj, nx.Graph):
-        if obj.is_directed() != directed:
-            raise InvalidParameterError(
-                f"The '{name}' parameter of align must be an undirected graph; got a directed one (pass "
-                "directed=True to align by direction, or use graph.to_undirected())." if not directed else
-                f"The '{name}' parameter of align must be a directed graph when directed=True; got an "
-                "undirected one (use graph.to_directed(), which gives each edge both directions).")
-        nodes = [str(v) for v in obj.nodes()]
-        if len(set(nodes)) != len(nodes):
-            raise InvalidParameterError(f"The '{name}' parameter of align has nodes whose string forms clash.")
-        names = np.array(sorted(nodes), dtype=object)
-        pos = {v: i for i, v in enumerate(names)}
-        edges = [(pos[str(u)], pos[str(v)]) for u, v in obj.edges()]
-        e = np.array(edges, dtype=np.int64).reshape(-1, 2)
-        w = None
-        if obj.number_of_edges() and all("weight" in d for _, _, d in obj.edges(data=True)):
-            w = np.array([float(d["weight"]) for _, _, d in obj.edges(data=True)])
-        return network_from_edges(names, e[:, 0], e[:, 1], w, source=f"<networkx {name}>", directed=directed)
-    if isinstance(obj, pd.DataFrame):
-        if obj.shape[1] < 2:
-            raise InvalidParameterError(f"The '{name}' parameter of align must have at least two columns "
-                                        f"(node, node[, weight]). Got {obj.shape[1]} instead.")
-        a = obj.iloc[:, 0].astype(str).to_numpy(dtype=object)
-        b = obj.iloc[:, 1].astype(str).to_numpy(dtype=object)
-        w = None
-        if obj.shape[1] >= 3:
-            w = pd.to_numeric(obj.iloc[:, 2], errors="coerce").to_numpy(dtype=np.float64)
-            if not np.isfinite(w).all() or (w < 0).any():
-                raise InvalidParameterError(f"The '{name}' parameter of align has a weight that is not a "
-                                            "finite non-negative number.")
-        codes, names = pd.factorize(np.concatenate([a, b]), sort=True)
-        return network_from_edges(np.asarray(names, dtype=object), codes[: len(a)], codes[len(a):], w,
-                                  source=f"<DataFrame {name}>", directed=directed)
-    raise InvalidParameterError(f"The '{name}' parameter of align must be a path, a networkx graph, a pandas "
-                                f"DataFrame or a Network. Got {type(obj).__name__} instead.")
-
-
-def _as_prior(obj, net_a: Network, net_b: Network, kind: str, delimiter, header) -> PriorTable:
-    if isinstance(obj, PriorTable):
-        return obj
-    if isinstance(obj, (str, os.PathLike)):
-        return _prior_notes(read_prior(obj, net_a, net_b, kind=kind, delimiter=delimiter, header=header))
-    if isinstance(obj, pd.DataFrame):
-        if obj.shape[1] < 3:
-            raise InvalidParameterError("The 'prior' parameter of align must have three columns "
-                                        f"(node_a, node_b, score). Got {obj.shape[1]} instead.")
-        values = pd.to_numeric(obj.iloc[:, 2], errors="coerce").to_numpy(dtype=np.float64)
-        return _prior_notes(prior_from_columns(obj.iloc[:, 0].astype(str).to_numpy(dtype=object),
-                                               obj.iloc[:, 1].astype(str).to_numpy(dtype=object), values, net_a,
-                                               net_b, kind=kind, source="<DataFrame prior>", line_of=lambda r: None))
-    raise InvalidParameterError("The 'prior' parameter of align must be a path or a pandas DataFrame. "
-                                f"Got {type(obj).__name__} instead.")
-
-
-def _prior_notes(t: PriorTable) -> PriorTable:
-    """Warn about merged duplicate pairs and rows dropped by the score kind; refuse a prior they empty."""
-    if t.n_duplicates:
-        warnings.warn(f"{t.source}: {t.n_duplicates} prior rows repeat a pair given on another row; each pair "
-                      "keeps its highest score", AlignerWarning, stacklevel=3)
-    if t.n_dropped_kind:
-        known = t.n_rows - t.n_unknown
-        if len(t.pairs) == 0 and t.n_dropped_kind == known:
-            raise NoCandidatesError(f"{t.source}: every one of the {known} prior rows naming known nodes has an "
-                                    "E-value above 1, and --score-kind evalue drops such rows as no evidence of "
-                                    "similarity; if the third column is a similarity score, use --score-kind "
-                                    "similarity")
-        warnings.warn(f"{t.source}: {t.n_dropped_kind} of {t.n_rows} prior rows have an E-value above 1 and were "
-                      "dropped as no evidence of similarity", AlignerWarning, stacklevel=3)
-    return t
-
-
-def _known_pairs(t: PairTable, what: str) -> PairTable:
-    """Refuse a pair table none of whose rows names a node of A and a node of B."""
-    if t.n_rows and len(t.pairs) == 0:
-        raise InputFormatError(f"none of its {t.n_rows} rows names a node of network A in the first column and "
-                               f"a node of network B in the second, so the {what} is of no use; are the columns "
-                               "swapped, or are these the wrong networks?", path=str(t.source))
-    return t
-
-
-def _as_pairs(obj, net_a: Network, net_b: Network, what: str, delimiter, header) -> PairTable:
-    if isinstance(obj, PairTable):
-        return obj
-    if isinstance(obj, (str, os.PathLike)):
-        return read_pairs(obj, net_a, net_b, delimiter=delimiter, header=header, what=what)
-    if isinstance(obj, pd.DataFrame):
-        df = pd.DataFrame({"a": obj.iloc[:, 0].astype(str), "b": obj.iloc[:, 1].astype(str)})
-    else:
-        df = pd.DataFrame(list(obj), columns=["a", "b"]).astype(str)
-    a = df["a"].to_numpy(dtype=object)
-    b = df["b"].to_numpy(dtype=object)
-    from aligner.io.readers import _lookup
-
-    ia, ib = _lookup(net_a.names, a), _lookup(net_b.names, b)
-    ok = (ia >= 0) & (ib >= 0)
-    ex = [f"{a[r]} / {b[r]}" for r in np.flatnonzero(~ok)[:3]]
-    return PairTable(np.stack([ia[ok], ib[ok]], 1).astype(np.int32), len(a), int((~ok).sum()), ex, f"<{what}>")
-
 
 def _memory_budget(max_memory: float | None) -> float:
     if max_memory is not None:
@@ -402,10 +284,10 @@ def align(
     net_a = as_network(network_a, delimiter=delimiter, header=header, name="network_a", directed=directed)
     net_b = as_network(network_b, delimiter=delimiter, header=header, name="network_b", directed=directed)
     _check_modes(net_a, net_b, weighted)
-    prior_t = None if prior is None else _as_prior(prior, net_a, net_b, score_kind, delimiter, header)
+    prior_t = None if prior is None else as_prior(prior, net_a, net_b, score_kind, delimiter, header)
     seeds_t = None if seeds is None else as_seeds(seeds, net_a, net_b, delimiter=delimiter, header=header)
-    truth_t = None if truth is None else _known_pairs(
-        _as_pairs(truth, net_a, net_b, "truth table", delimiter, header), "truth table")
+    truth_t = None if truth is None else known_pairs(
+        as_pairs(truth, net_a, net_b, "truth table", delimiter, header), "truth table")
     done("read")
     if prior_t is not None and prior_t.n_unknown:
         warnings.warn(f"{prior_t.n_unknown} of {prior_t.n_rows} prior rows name a node missing from its network "
@@ -570,7 +452,7 @@ def score(network_a, network_b, alignment, *, truth=None, delimiter: str | None 
     net_a = as_network(network_a, delimiter=delimiter, header=header, name="network_a", directed=directed)
     net_b = as_network(network_b, delimiter=delimiter, header=header, name="network_b", directed=directed)
     _check_modes(net_a, net_b, weighted)
-    tab = _known_pairs(_as_pairs(alignment, net_a, net_b, "alignment", delimiter, header), "alignment")
+    tab = known_pairs(as_pairs(alignment, net_a, net_b, "alignment", delimiter, header), "alignment")
     if tab.n_unknown:
         warnings.warn(f"{tab.n_unknown} of {tab.n_rows} alignment rows name a node missing from its network and "
                       f"were skipped (for example {', '.join(tab.unknown_examples)})", AlignerWarning, stacklevel=2)
@@ -581,59 +463,9 @@ def score(network_a, network_b, alignment, *, truth=None, delimiter: str | None 
             node = (net_a if side == 0 else net_b).names[u[np.argmax(c > 1)]]
             raise InputFormatError(f"node {node!r} of network {name} is in more than one pair; an alignment "
                                    "must be one-to-one", path=str(tab.source))
-    truth_t = None if truth is None else _known_pairs(
-        _as_pairs(truth, net_a, net_b, "truth table", delimiter, header), "truth table")
+    truth_t = None if truth is None else known_pairs(
+        as_pairs(truth, net_a, net_b, "truth table", delimiter, header), "truth table")
     sc, cons = _scores_of(net_a, net_b, p, None if truth_t is None else truth_t.pairs, directed, weighted)
     return sc, _conserved_frame(net_a, net_b, p, cons, directed)
 
 
-def check_outdir(outdir: str | os.PathLike, *, force: bool = False) -> Path:
-    """Refuse an output path that is a file, cannot be made or written, or holds outputs of an earlier run.
-
-    First puts back what a killed run left half-swapped (see :func:`aligner.io.readers.recover_interrupted`).
-    """
-    out = Path(outdir)
-    if out.exists() and not out.is_dir():
-        raise InvalidParameterError(f"The output '{out}' exists and is not a directory; choose another "
-                                    "directory with --out.")
-    up = out.absolute()
-    while not up.exists() and up != up.parent:
-        up = up.parent
-    if not up.is_dir():
-        raise InvalidParameterError(f"The output directory '{out}' cannot be made: '{up}' is a file, not a "
-                                    "directory; choose another directory with --out.")
-    if not os.access(up, os.W_OK | os.X_OK):
-        raise InvalidParameterError(f"The output directory '{out}' cannot be written: permission denied on "
-                                    f"'{up}'; choose another directory with --out.")
-    try:
-        for note in recover_interrupted(out, OUTPUT_FILES):
-            warnings.warn(note, AlignerWarning, stacklevel=2)
-    except OSError as exc:
-        warnings.warn(f"could not tidy up after an interrupted run in '{out}': {exc}", AlignerWarning,
-                      stacklevel=2)
-    existing = [f for f in OUTPUT_FILES if (out / f).exists()]
-    if existing and not force:
-        raise InvalidParameterError(f"The output directory '{out}' already holds {', '.join(existing)}; "
-                                    "choose another directory or pass --force to replace them.")
-    return out
-
-
-def write_outputs(outdir: str | os.PathLike, result: AlignmentResult, *, force: bool = False) -> list[Path]:
-    """Write alignment.tsv, conserved_edges.tsv and summary.json into ``outdir``, as one set.
-
-    The three files appear together or not at all: they are written into a staging directory
-    beside ``outdir`` that is then swapped into place by renames (see
-    :func:`aligner.io.readers.publish_outputs`), so an interrupted run (Ctrl-C, a killed process)
-    leaves the previous outputs or none, never a mix. Other files in ``outdir`` are kept.
-    """
-    out = check_outdir(outdir, force=force)
-    pairs = result.pairs.sort_values(["node_a", "node_b"], kind="stable")
-    cons = result.conserved_edges.sort_values(["node_a1", "node_a2"], kind="stable")
-    texts = {"alignment.tsv": table_text(pairs), "conserved_edges.tsv": table_text(cons),
-             "summary.json": json_text(result.summary)}
-    try:
-        publish_outputs(out, texts)
-    except OSError as exc:
-        raise InvalidParameterError(f"The output directory '{out}' cannot be written: "
-                                    f"{exc.strerror or exc}; choose another directory with --out.") from None
-    return [out / f for f in OUTPUT_FILES]

@@ -62,7 +62,7 @@ def worker(inst: Path, result: Path, power: bool) -> None:
     """Child process: one end-to-end run on the files in ``inst``; figures written to ``result``."""
     t0 = time.perf_counter()
     import aligner
-    from aligner.pipeline import write_outputs
+    from aligner.io.outputs import write_outputs
     from aligner.core.diffusion import column_scale, diffuse, prior_vector
 
     t_import = time.perf_counter() - t0

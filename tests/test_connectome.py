@@ -19,8 +19,8 @@ from bench_connectome import hidden_task  # noqa: E402
 def test_data_as_published():
     # Counts of the extracted files (tests/data/README.md): 180 neurons and 1843 / 1800 edges.
     ea, eb, prior, truth = hidden_task("class", seed=0)
-    a = aligner.pipeline.as_network(ea)
-    b = aligner.pipeline.as_network(eb)
+    a = aligner.io.inputs.as_network(ea)
+    b = aligner.io.inputs.as_network(eb)
     assert (a.n, a.n_edges, b.n, b.n_edges) == (180, 1843, 180, 1800)
     assert len(truth) == 180 and len(prior) == 500
 

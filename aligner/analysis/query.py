@@ -390,7 +390,7 @@ def query(
     x = alpha P x + (1 - alpha) h over the whole candidate set, to within the certified
     bound; the product graph is not built.
     """
-    from aligner.pipeline import _as_prior, as_network
+    from aligner.io.inputs import as_network, as_prior
 
     where = "query"
     side = check_choice(side, "side", where, SIDES)
@@ -417,7 +417,7 @@ def query(
     seeds_t = None if seeds is None else as_seeds(seeds, net_a, net_b, delimiter=delimiter, header=header)
     asked = [_node_index(net_a if side == "a" else net_b, v, side) for v in nodes]
     if prior is not None:
-        prior_t = _as_prior(prior, net_a, net_b, score_kind, delimiter, header)
+        prior_t = as_prior(prior, net_a, net_b, score_kind, delimiter, header)
         if prior_t.n_unknown:
             warnings.warn(f"{prior_t.n_unknown} of {prior_t.n_rows} prior rows name a node missing from its "
                           f"network and were skipped (for example {', '.join(prior_t.unknown_examples)})",

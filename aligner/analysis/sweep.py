@@ -19,7 +19,8 @@ import numpy as np
 import pandas as pd
 
 from aligner.checks import check_real
-from aligner.pipeline import AlignmentResult, _as_pairs, _as_prior, _known_pairs, align, as_network
+from aligner.io.inputs import as_network, as_pairs, as_prior, known_pairs
+from aligner.pipeline import AlignmentResult, align
 from aligner.core.diffusion import column_scale, diffuse, prior_vector
 from aligner.errors import InvalidParameterError
 from aligner.core.rounding import round_matching
@@ -130,9 +131,9 @@ def sweep(
     t0 = time.perf_counter()
     net_a = as_network(network_a, delimiter=delimiter, header=header, name="network_a")
     net_b = as_network(network_b, delimiter=delimiter, header=header, name="network_b")
-    prior_t = _as_prior(prior, net_a, net_b, score_kind, delimiter, header)
-    truth_t = None if truth is None else _known_pairs(
-        _as_pairs(truth, net_a, net_b, "truth table", delimiter, header), "truth table")
+    prior_t = as_prior(prior, net_a, net_b, score_kind, delimiter, header)
+    truth_t = None if truth is None else known_pairs(
+        as_pairs(truth, net_a, net_b, "truth table", delimiter, header), "truth table")
     say(alphas[0])
     base = align(net_a, net_b, prior_t, alpha=alphas[0], top_k=top_k, min_score=min_score, score_kind=score_kind,
                  solver=solver, tol=tol, normalization=normalization, rounding=rounding, truth=truth_t,

@@ -18,7 +18,8 @@ from rich.markup import escape
 from aligner import __version__
 from aligner.pipeline import align as _align
 from aligner.pipeline import score as _score
-from aligner.pipeline import STAGES, check_outdir, write_outputs
+from aligner.pipeline import STAGES
+from aligner.io.outputs import check_outdir, write_outputs
 from aligner.core.refine import DEFAULT_BETA, DEFAULT_MAX_ITER
 from aligner.errors import AlignerError, AlignerWarning, InvalidParameterError
 from aligner.render.console import scores_table, summary_table

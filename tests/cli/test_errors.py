@@ -30,7 +30,7 @@ import pandas as pd
 import pytest
 from typer.testing import CliRunner
 
-from aligner.pipeline import OUTPUT_FILES
+from aligner.io.outputs import OUTPUT_FILES
 from aligner.cli.app import app
 from aligner.errors import AlignerError
 

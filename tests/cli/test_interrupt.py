@@ -18,7 +18,7 @@ import time
 import numpy as np
 import pytest
 
-from aligner.pipeline import OUTPUT_FILES, check_outdir
+from aligner.io.outputs import OUTPUT_FILES, check_outdir
 
 pytestmark = pytest.mark.skipif(not hasattr(signal, "SIGKILL"), reason="POSIX signals needed")
 
