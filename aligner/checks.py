@@ -1,4 +1,9 @@
-"""Parameter checks shared by every stage: one message shape for every failure."""
+"""Parameter checks shared by every stage: one message shape for every failure.
+
+A failed check raises :class:`~aligner.errors.InvalidParameterError` whose text reads
+``<name> must be <what>; got <value>`` and whose ``param`` attribute is the keyword, so that
+the command line can put the option as the user typed it in place of the keyword.
+"""
 
 from __future__ import annotations
 
@@ -8,56 +13,53 @@ from typing import Iterable
 
 from aligner.errors import InvalidParameterError
 
-__all__ = ["check_real", "check_int", "check_choice"]
+__all__ = ["check_real", "check_int", "check_choice", "interval_text", "bad_parameter"]
 
 
-def _fail(name: str, where: str, must: str, value: object) -> InvalidParameterError:
-    return InvalidParameterError(f"The '{name}' parameter of {where} must be {must}. Got {value!r} instead.")
+def bad_parameter(name: str, must: str, value: object) -> InvalidParameterError:
+    """The error for parameter ``name``, which must be ``must`` and is ``value``."""
+    return InvalidParameterError(f"{name} must be {must}; got {value!r}", param=name)
 
 
-def check_real(
-    value: object,
-    name: str,
-    where: str,
-    *,
-    low: float | None = None,
-    high: float | None = None,
-    closed: str = "both",
-) -> float:
-    """Return ``value`` as a float after checking it lies in the stated interval.
+def interval_text(low: float | None, high: float | None, closed: str = "both") -> str:
+    """``[0, 1)``-style text of an interval; ``closed`` says which ends belong to it."""
+    left = "[" if closed in ("both", "left") and low is not None else "("
+    right = "]" if closed in ("both", "right") and high is not None else ")"
+    lo = "-inf" if low is None else f"{low:g}"
+    hi = "inf" if high is None else f"{high:g}"
+    return f"{left}{lo}, {hi}{right}"
+
+
+def check_real(value: object, name: str, *, low: float | None = None, high: float | None = None,
+               closed: str = "both") -> float:
+    """Return ``value`` as a float after checking it is a number in the stated interval.
 
     ``closed`` is one of "both", "left", "right", "neither" and says which ends belong to it.
     """
-    left = "[" if closed in ("both", "left") else "("
-    right = "]" if closed in ("both", "right") else ")"
-    lo = "-inf" if low is None else f"{low:g}"
-    hi = "inf" if high is None else f"{high:g}"
-    must = f"a real number in {left}{lo}, {hi}{right}"
-    if isinstance(value, bool) or not isinstance(value, Real):
-        raise _fail(name, where, must, value)
+    must = "a number" if low is None and high is None else f"a number in {interval_text(low, high, closed)}"
+    if isinstance(value, bool) or not isinstance(value, Real) or math.isnan(float(value)):
+        raise bad_parameter(name, must, value)
     v = float(value)
-    if math.isnan(v):
-        raise _fail(name, where, must, value)
-    if low is not None and (v < low or (v == low and left == "(")):
-        raise _fail(name, where, must, value)
-    if high is not None and (v > high or (v == high and right == ")")):
-        raise _fail(name, where, must, value)
+    if low is not None and (v < low or (v == low and closed in ("right", "neither"))):
+        raise bad_parameter(name, must, value)
+    if high is not None and (v > high or (v == high and closed in ("left", "neither"))):
+        raise bad_parameter(name, must, value)
     return v
 
 
-def check_int(value: object, name: str, where: str, *, low: int | None = None) -> int:
-    """Return ``value`` as an int after checking it is an integer of at least ``low``."""
-    must = "an integer" if low is None else f"an integer >= {low}"
+def check_int(value: object, name: str, *, low: int | None = None) -> int:
+    """Return ``value`` as an int after checking it is a whole number of at least ``low``."""
+    must = "a whole number" if low is None else f"a whole number >= {low}"
     if isinstance(value, bool) or not isinstance(value, Integral):
-        raise _fail(name, where, must, value)
+        raise bad_parameter(name, must, value)
     if low is not None and value < low:
-        raise _fail(name, where, must, value)
+        raise bad_parameter(name, must, value)
     return int(value)
 
 
-def check_choice(value: object, name: str, where: str, options: Iterable[str]) -> str:
+def check_choice(value: object, name: str, options: Iterable[str]) -> str:
     """Return ``value`` after checking it is one of ``options``."""
     opts = list(options)
     if value not in opts:
-        raise _fail(name, where, "one of " + ", ".join(repr(o) for o in opts), value)
+        raise bad_parameter(name, "one of " + ", ".join(opts), value)
     return str(value)

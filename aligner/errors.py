@@ -31,7 +31,15 @@ class InputFormatError(AlignerError, ValueError):
 
 
 class InvalidParameterError(AlignerError, ValueError, TypeError):
-    """A parameter is out of its allowed range or of the wrong type."""
+    """A parameter is out of its allowed range or of the wrong type.
+
+    ``param`` is the Python keyword at fault (None when the message names no single one); a
+    message that starts with it can be shown with the command-line option in its place.
+    """
+
+    def __init__(self, message: str, *, param: str | None = None):
+        self.param = param
+        super().__init__(message)
 
 
 class NoCandidatesError(AlignerError, ValueError):

@@ -44,7 +44,7 @@ BYTES_PER_PRODUCT_ENTRY = 4
 
 def _memory_budget(max_memory: float | None) -> float:
     if max_memory is not None:
-        return check_real(max_memory, "max_memory", "align", low=0.0, closed="neither")
+        return check_real(max_memory, "max_memory", low=0.0, closed="neither")
     try:
         total = os.sysconf("SC_PAGE_SIZE") * os.sysconf("SC_PHYS_PAGES")
     except (ValueError, OSError, AttributeError):  # pragma: no cover
@@ -255,20 +255,20 @@ def align(
     (2, 1.0)
     """
     where = "align"
-    alpha = check_real(alpha, "alpha", where, low=0.0, high=1.0, closed="left")
+    alpha = check_real(alpha, "alpha", low=0.0, high=1.0, closed="left")
     if top_k is not None:
-        top_k = check_int(top_k, "top_k", where, low=1)
-    min_score = check_real(min_score, "min_score", where)
-    score_kind = check_choice(score_kind, "score_kind", where, SCORE_KINDS)
-    solver = check_choice(solver, "solver", where, SOLVERS)
-    tol = check_real(tol, "tol", where, low=0.0, closed="neither")
-    normalization = check_choice(normalization, "normalization", where, NORMALIZATIONS)
-    rounding = check_choice(rounding, "rounding", where, METHODS)
-    permutations = check_int(permutations, "permutations", where, low=0)
-    beta = check_real(beta, "beta", where, low=0.0)
-    refine_iter = check_int(refine_iter, "refine_iter", where, low=0)
-    seed_weight = check_real(seed_weight, "seed_weight", where, low=0.0)
-    structural_weight = check_real(structural_weight, "structural_weight", where, low=0.0)
+        top_k = check_int(top_k, "top_k", low=1)
+    min_score = check_real(min_score, "min_score")
+    score_kind = check_choice(score_kind, "score_kind", SCORE_KINDS)
+    solver = check_choice(solver, "solver", SOLVERS)
+    tol = check_real(tol, "tol", low=0.0, closed="neither")
+    normalization = check_choice(normalization, "normalization", NORMALIZATIONS)
+    rounding = check_choice(rounding, "rounding", METHODS)
+    permutations = check_int(permutations, "permutations", low=0)
+    beta = check_real(beta, "beta", low=0.0)
+    refine_iter = check_int(refine_iter, "refine_iter", low=0)
+    seed_weight = check_real(seed_weight, "seed_weight", low=0.0)
+    structural_weight = check_real(structural_weight, "structural_weight", low=0.0)
     structural = bool(structural) or (prior is None and seeds is None)
     say = progress or (lambda stage: None)
     timings: dict[str, float] = {}

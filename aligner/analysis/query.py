@@ -153,11 +153,11 @@ class QueryEngine:
                  tol: float = DEFAULT_QUERY_TOL, normalization: str = "restricted", seeds: SeedTable | None = None,
                  seed_weight: float = DEFAULT_SEED_WEIGHT, max_pushes: int | None = None):
         where = "QueryEngine"
-        self.alpha = check_real(alpha, "alpha", where, low=0.0, high=1.0, closed="left")
-        self.tol = check_real(tol, "tol", where, low=0.0, closed="neither")
-        self.normalization = check_choice(normalization, "normalization", where, NORMALIZATIONS)
-        self.seed_weight = check_real(seed_weight, "seed_weight", where, low=0.0)
-        self.max_pushes = 10**8 if max_pushes is None else check_int(max_pushes, "max_pushes", where, low=0)
+        self.alpha = check_real(alpha, "alpha", low=0.0, high=1.0, closed="left")
+        self.tol = check_real(tol, "tol", low=0.0, closed="neither")
+        self.normalization = check_choice(normalization, "normalization", NORMALIZATIONS)
+        self.seed_weight = check_real(seed_weight, "seed_weight", low=0.0)
+        self.max_pushes = 10**8 if max_pushes is None else check_int(max_pushes, "max_pushes", low=0)
         self.net_a, self.net_b, self.cand = net_a, net_b, cand
         self.seeds = seeds
         self._c_a = np.ascontiguousarray(cand.pairs[:, 0], dtype=np.int64)
@@ -221,7 +221,7 @@ class QueryEngine:
 
     def solve(self, node: int, side: str = "a", *, idx=None, h=None) -> LocalSolution:
         """The local push from the node's h (or from a given sparse ``idx``, ``h``)."""
-        side = check_choice(side, "side", "QueryEngine.solve", SIDES)
+        side = check_choice(side, "side", SIDES)
         if idx is None:
             idx, h = self.personalization(node, side)
         own = self.candidates_of(node, side)
@@ -259,7 +259,7 @@ class QueryEngine:
         is fixed to another node by a seed are left out (``excluded_by_seeds`` counts them),
         as in the rounding of :func:`aligner.align`.
         """
-        side = check_choice(side, "side", "QueryEngine.counterparts", SIDES)
+        side = check_choice(side, "side", SIDES)
         own = self.candidates_of(node, side)
         idx, h = self.personalization(node, side)
         sol = self.solve(node, side, idx=idx, h=h)
@@ -393,16 +393,16 @@ def query(
     from aligner.io.inputs import as_network, as_prior
 
     where = "query"
-    side = check_choice(side, "side", where, SIDES)
+    side = check_choice(side, "side", SIDES)
     if top is not None:
-        top = check_int(top, "top", where, low=1)
-    alpha = check_real(alpha, "alpha", where, low=0.0, high=1.0, closed="left")
-    tol = check_real(tol, "tol", where, low=0.0, closed="neither")
+        top = check_int(top, "top", low=1)
+    alpha = check_real(alpha, "alpha", low=0.0, high=1.0, closed="left")
+    tol = check_real(tol, "tol", low=0.0, closed="neither")
     if top_k is not None:
-        top_k = check_int(top_k, "top_k", where, low=1)
-    min_score = check_real(min_score, "min_score", where)
-    normalization = check_choice(normalization, "normalization", where, NORMALIZATIONS)
-    seed_weight = check_real(seed_weight, "seed_weight", where, low=0.0)
+        top_k = check_int(top_k, "top_k", low=1)
+    min_score = check_real(min_score, "min_score")
+    normalization = check_choice(normalization, "normalization", NORMALIZATIONS)
+    seed_weight = check_real(seed_weight, "seed_weight", low=0.0)
     if isinstance(nodes, (str, os.PathLike)) or not hasattr(nodes, "__iter__"):
         nodes = [nodes]
     nodes = [str(v) for v in nodes]

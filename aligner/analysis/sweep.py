@@ -96,7 +96,7 @@ def knee_index(x: Sequence[float], y: Sequence[float]) -> int | None:
 
 
 def _check_alphas(alphas) -> list[float]:
-    vals = sorted({check_real(a, "alphas", "sweep", low=0.0, high=1.0, closed="left") for a in alphas})
+    vals = sorted({check_real(a, "alphas", low=0.0, high=1.0, closed="left") for a in alphas})
     if not vals:
         raise InvalidParameterError("The 'alphas' parameter of sweep must hold at least one value in [0, 1).")
     return vals

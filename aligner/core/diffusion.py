@@ -156,9 +156,9 @@ def diffuse(
     .. [2] R. Andersen, F. Chung, K. Lang, "Local graph partitioning using PageRank
        vectors", FOCS 2006, 475-486. doi:10.1109/FOCS.2006.44
     """
-    alpha = check_real(alpha, "alpha", "diffuse", low=0.0, high=1.0, closed="left")
-    tol = check_real(tol, "tol", "diffuse", low=0.0, closed="neither")
-    solver = check_choice(solver, "solver", "diffuse", SOLVERS)
+    alpha = check_real(alpha, "alpha", low=0.0, high=1.0, closed="left")
+    tol = check_real(tol, "tol", low=0.0, closed="neither")
+    solver = check_choice(solver, "solver", SOLVERS)
     m = graph.m
     h = np.ascontiguousarray(h, dtype=np.float64)
     b = (1.0 - alpha) * h
@@ -174,7 +174,7 @@ def diffuse(
         deg = graph.degree.astype(np.float64) + 1.0
         thresh = tol * deg / deg.sum()
         cap = max_work if max_work is not None else int(200 * m / (1 - alpha)) + 10**6
-        check_int(cap, "max_work", "diffuse", low=0)
+        check_int(cap, "max_work", low=0)
         steps = touches = sweeps = 0
         # While most entries are above their threshold, push them all at once: one vectorized
         # sweep (a Jacobi step, streaming through memory) does the work of that many queued
@@ -199,7 +199,7 @@ def diffuse(
         touches += t2
     else:
         cap = max_work if max_work is not None else int(100 * np.log(1 / min(tol, 0.5)) / (1 - alpha)) + 10
-        check_int(cap, "max_work", "diffuse", low=0)
+        check_int(cap, "max_work", low=0)
         P = graph.transition(scale, alpha)
         steps = touches = 0
         capped = True

@@ -312,13 +312,13 @@ def refine_matching(
     """
     t0 = time.perf_counter()
     where = "refine_matching"
-    beta = check_real(beta, "beta", where, low=0.0)
-    max_iter = check_int(max_iter, "max_iter", where, low=0)
-    patience = check_int(patience, "patience", where, low=1)
-    rounds = check_int(rounds, "rounds", where, low=1)
-    local_sweeps = check_int(local_sweeps, "local_sweeps", where, low=0)
-    step = check_choice(step, "step", where, STEPS)
-    method = check_choice(method, "method", where, METHODS)
+    beta = check_real(beta, "beta", low=0.0)
+    max_iter = check_int(max_iter, "max_iter", low=0)
+    patience = check_int(patience, "patience", low=1)
+    rounds = check_int(rounds, "rounds", low=1)
+    local_sweeps = check_int(local_sweeps, "local_sweeps", low=0)
+    step = check_choice(step, "step", STEPS)
+    method = check_choice(method, "method", METHODS)
     w = np.asarray(w, dtype=np.float64).reshape(-1)
     if len(w) != cand.m or prod.m != cand.m:
         raise InvalidParameterError(f"The 'w' parameter of {where} must have one entry per candidate pair "

@@ -80,7 +80,7 @@ def round_matching(cand: CandidateSet, w: npt.ArrayLike, *, method: str = "auto"
     .. [1] R. Jonker, A. Volgenant, "A shortest augmenting path algorithm for dense and sparse
        linear assignment problems", Computing 38 (1987) 325-340. doi:10.1007/BF02278710
     """
-    method = check_choice(method, "method", "round_matching", METHODS)
+    method = check_choice(method, "method", METHODS)
     t0 = time.perf_counter()
     w = np.asarray(w, dtype=np.float64)
     use, rows_u, cols_u, indptr, cols, ww = _compact(cand, w)

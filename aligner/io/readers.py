@@ -155,7 +155,7 @@ def _read_raw(path: str, *, min_cols: int, max_cols: int, delimiter: str | None,
 
 def _read_raw_unchecked(path: str, *, min_cols: int, max_cols: int, delimiter: str | None, header: str,
                         what: str) -> _RawTable:
-    check_choice(header, "header", "the file readers", ("auto", "yes", "no"))
+    check_choice(header, "header", ("auto", "yes", "no"))
     if delimiter is not None and delimiter not in DELIMITERS and (
             not isinstance(delimiter, str) or len(delimiter) != 1 or delimiter in '"#\r\n'):
         raise InvalidParameterError(

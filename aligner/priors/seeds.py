@@ -317,7 +317,7 @@ def expand_from_seeds(net_a: Network, net_b: Network, seeds: SeedTable, *, top_k
     of Yartseva & Grossglauser (2013); the matching per round and the half-the-best
     acceptance rule are this package's.
     """
-    max_rounds = check_int(max_rounds, "max_rounds", "expand_from_seeds", low=0)
+    max_rounds = check_int(max_rounds, "max_rounds", low=0)
     if seeds.n == 0:
         raise InvalidParameterError("expand_from_seeds needs at least one seed pair")
     t0 = time.perf_counter()
@@ -434,4 +434,4 @@ def seed_summary(net_a: Network, net_b: Network, matched: npt.ArrayLike, seeds: 
 
 
 def _check_seed_weight(weight, where: str) -> float:
-    return check_real(weight, "seed_weight", where, low=0.0)
+    return check_real(weight, "seed_weight", low=0.0)

@@ -218,7 +218,7 @@ def structural_candidates(
     >>> pairs[scores == 1.0].tolist()  # the two end nodes are alike; the middle one is unique
     [[0, 0], [0, 2], [1, 1], [2, 0], [2, 2]]
     """
-    k = check_int(k, "k", "structural_candidates", low=1)
+    k = check_int(k, "k", low=1)
     za, zb = standardise(node_features(net_a), node_features(net_b))
     za[:, len(BASE_FEATURES):] *= AGGREGATE_WEIGHT
     zb[:, len(BASE_FEATURES):] *= AGGREGATE_WEIGHT
@@ -279,8 +279,8 @@ def combine_priors(
     >>> p.tolist(), s.tolist()
     ([[0, 0], [1, 0], [1, 1]], [1.0, 0.25, 1.0])
     """
-    n2 = check_int(n2, "n2", "combine_priors", low=1)
-    weight = check_real(weight, "weight", "combine_priors", low=0.0)
+    n2 = check_int(n2, "n2", low=1)
+    weight = check_real(weight, "weight", low=0.0)
     tables = []
     for pairs, scores, w in ((prior_pairs, prior_scores, 1.0), (struct_pairs, struct_scores, weight)):
         pairs, scores, _ = merge_duplicate_pairs(pairs, scores, n2)

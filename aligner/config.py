@@ -1,0 +1,262 @@
+"""Every option of aligner, declared once.
+
+Each option is a field of a frozen dataclass, and its declaration (:func:`option`) holds all
+there is to know about it: default, allowed values, help text and the command-line flag. From
+these declarations come
+
+- the checks and their messages (``AlignConfig(alpha=1.5)`` raises
+  ``alpha must be a number in [0, 1); got 1.5``),
+- the keyword options of :func:`aligner.align`, :func:`aligner.sweep` and :func:`aligner.query`
+  and the Parameters sections of their docstrings (:func:`describe`),
+- the command-line options of every command that takes them (:mod:`aligner.cli.options`),
+- the ``parameters`` section of ``summary.json`` (:meth:`AlignConfig.as_dict`).
+
+This module imports nothing heavy: the command line reads it to build its help.
+
+Examples
+--------
+>>> cfg = AlignConfig(alpha=0.8)
+>>> cfg.alpha, cfg.top_k
+(0.8, 25)
+>>> cfg.replace(alpha=0.5).alpha
+0.5
+"""
+
+from __future__ import annotations
+
+import dataclasses
+from dataclasses import dataclass, field
+from typing import Any, Iterable, Mapping
+
+from aligner.checks import bad_parameter, check_choice, check_int, check_real
+from aligner.errors import InvalidParameterError
+
+__all__ = ["Spec", "option", "AlignConfig", "QueryConfig", "LabelConfig", "specs", "describe", "from_options",
+           "SCORE_KINDS", "SOLVERS", "NORMALIZATIONS", "ROUNDINGS", "HEADERS", "SIDES"]
+
+SCORE_KINDS = ("similarity", "evalue", "distance")
+SOLVERS = ("push", "power")
+NORMALIZATIONS = ("restricted", "product")
+ROUNDINGS = ("auto", "sparse", "dense", "scipy")
+HEADERS = ("auto", "yes", "no")
+SIDES = ("a", "b")
+
+
+@dataclass(frozen=True)
+class Spec:
+    """What an option is: its kind and bounds, its help, its flag and the group it is shown in.
+
+    ``kind`` is one of "real", "int", "choice", "bool", "text". ``optional``: None is allowed
+    (and means what the help says). ``flag`` is the command-line option ("--top-k"); a boolean's
+    flag may be a pair ("--refine/--no-refine").
+    """
+
+    kind: str
+    help: str
+    flag: str
+    group: str
+    low: float | None = None
+    high: float | None = None
+    closed: str = "both"
+    choices: tuple[str, ...] = ()
+    optional: bool = False
+    metavar: str | None = None
+
+    def check(self, name: str, value: Any) -> Any:
+        """``value`` in canonical form, or InvalidParameterError naming ``name``."""
+        if value is None and self.optional:
+            return None
+        if self.kind == "real":
+            return check_real(value, name, low=self.low, high=self.high, closed=self.closed)
+        if self.kind == "int":
+            return check_int(value, name, low=None if self.low is None else int(self.low))
+        if self.kind == "choice":
+            return check_choice(value, name, self.choices)
+        if self.kind == "bool":
+            if not isinstance(value, bool):
+                raise bad_parameter(name, "True or False", value)
+            return value
+        if not isinstance(value, str):
+            raise bad_parameter(name, "a string", value)
+        return value
+
+    @property
+    def python_type(self) -> type:
+        return {"real": float, "int": int, "choice": str, "bool": bool, "text": str}[self.kind]
+
+
+def option(default: Any, help: str, *, flag: str, group: str, kind: str, **spec: Any) -> Any:
+    """Declare a configuration field: its default and its :class:`Spec`."""
+    return field(default=default, metadata={"spec": Spec(kind=kind, help=help, flag=flag, group=group, **spec)})
+
+
+class _Config:
+    """Checks every field against its declaration; shared by the configuration classes."""
+
+    def __post_init__(self) -> None:
+        for f in dataclasses.fields(self):
+            object.__setattr__(self, f.name, f.metadata["spec"].check(f.name, getattr(self, f.name)))
+
+    def replace(self, **changes: Any):
+        """A copy with ``changes`` (checked like the original)."""
+        _refuse_unknown(type(self), changes)
+        return dataclasses.replace(self, **changes)
+
+    def as_dict(self) -> dict[str, Any]:
+        """The options as a plain dict (``summary.json``'s ``parameters``)."""
+        return dataclasses.asdict(self)
+
+
+# --------------------------------------------------------------------------- alignment
+
+READ, CANDIDATES, DIFFUSION, MATCHING, ANALYSIS, LIMITS = (
+    "Reading", "Candidates", "Diffusion", "Matching", "Significance", "Limits")
+
+
+@dataclass(frozen=True, kw_only=True)
+class AlignConfig(_Config):
+    """The options of an alignment run: what :func:`aligner.align` and ``aligner align`` take.
+
+    Every field is checked when the object is made; build variants with :meth:`replace`.
+    """
+
+    delimiter: str | None = option(
+        None, "Column delimiter of the input files: tab, comma, semicolon, whitespace, or one character. "
+        "Default: detected from the first data line.", flag="--delimiter", group=READ, kind="text", optional=True)
+    header: str = option(
+        "auto", "Whether input files start with a header line: auto, yes or no. 'auto' takes the first line as a "
+        "header when its fields are column names such as node_a/source/target.", flag="--header", group=READ,
+        kind="choice", choices=HEADERS)
+    directed: bool = option(
+        False, "Read edge lists as arcs (first column -> second): the walk follows the arcs and divides by "
+        "out-degree; an edge is conserved only onto an arc pointing the same way.", flag="--directed",
+        group=READ, kind="bool")
+    weighted: bool = option(
+        False, "Use the third column of both edge lists as edge weights: the product entry of two edges weighs "
+        "w_A * w_B, the walk divides by strength (summed weights), and the scores add the conserved weight "
+        "and weighted EC.", flag="--weighted", group=READ, kind="bool")
+    top_k: int | None = option(
+        25, "Candidates: every node's top-k prior pairs on each side (their union); None keeps all.",
+        flag="--top-k", group=CANDIDATES, kind="int", low=1, optional=True)
+    min_score: float = option(
+        0.0, "Drop prior pairs scoring below this (after the score-kind transformation).", flag="--min-score",
+        group=CANDIDATES, kind="real")
+    score_kind: str = option(
+        "similarity", "How to read the prior's scores: similarity (higher is better), evalue (-log10, 0 capped "
+        "at 310, rows with E > 1 dropped) or distance (1/(1+d)).", flag="--score-kind", group=CANDIDATES,
+        kind="choice", choices=SCORE_KINDS)
+    structural: bool = option(
+        False, "Add each node's top-k nearest nodes in structural-feature space to the prior's candidates (for a "
+        "weak prior); used alone when there is neither prior nor seeds.", flag="--structural-candidates",
+        group=CANDIDATES, kind="bool")
+    structural_weight: float = option(
+        0.5, "With structural candidates and a prior: weight of the structural similarity against the prior's "
+        "(both rescaled to a maximum of 1).", flag="--structural-weight", group=CANDIDATES, kind="real", low=0.0)
+    seed_weight: float = option(
+        1.0, "Total mass of the seed pairs in the diffusion's h, relative to the prior's (1: as much as the "
+        "whole prior; 0: seeds are only fixed in the matching).", flag="--seed-weight", group=CANDIDATES,
+        kind="real", low=0.0)
+    alpha: float = option(
+        0.9, "Weight of the wiring against the prior, in [0, 1); 0 returns the prior's own best matching.",
+        flag="--alpha", group=DIFFUSION, kind="real", low=0.0, high=1.0, closed="left")
+    tol: float = option(
+        1e-6, "1-norm residual tolerance of the diffusion (h sums to 1); every score is then within "
+        "tol / (1 - alpha) of the exact solution.", flag="--tol", group=DIFFUSION, kind="real", low=0.0,
+        closed="neither")
+    solver: str = option(
+        "push", "Diffusion solver: push (Gauss-Southwell) or power (power iteration, the reference).",
+        flag="--solver", group=DIFFUSION, kind="choice", choices=SOLVERS)
+    normalization: str = option(
+        "restricted", "Random walk on the product graph: restricted (divide by the neighbours inside the "
+        "candidates) or product (divide by deg_A * deg_B).", flag="--normalization", group=DIFFUSION,
+        kind="choice", choices=NORMALIZATIONS)
+    rounding: str = option(
+        "auto", "Linear-assignment solver: auto, sparse (compiled shortest augmenting paths), dense (lapjv) or "
+        "scipy.", flag="--rounding", group=MATCHING, kind="choice", choices=ROUNDINGS)
+    refine: bool = option(
+        True, "Refine the rounded matching for conserved edges (Frank-Wolfe steps, then a local search); off at "
+        "alpha 0, which asks for the prior's own matching.", flag="--refine/--no-refine", group=MATCHING,
+        kind="bool")
+    beta: float = option(
+        0.1, "Refinement: weight of a pair's normalised diffusion score against one conserved edge.",
+        flag="--beta", group=MATCHING, kind="real", low=0.0)
+    refine_iter: int = option(
+        30, "Refinement: cap on iterations (each one sparse product and one assignment).", flag="--refine-iter",
+        group=MATCHING, kind="int", low=0)
+    permutations: int = option(
+        0, "Random one-to-one maps over the candidate pairs for the empirical p-value of the conserved edges "
+        "(0: the closed-form null only).", flag="--permutations", group=ANALYSIS, kind="int", low=0)
+    permutation_seed: int = option(
+        0, "Seed of the random maps of --permutations.", flag="--permutation-seed", group=ANALYSIS, kind="int")
+    max_memory: float | None = option(
+        None, "Memory budget for the product graph, in GiB. Default: half the machine's memory.",
+        flag="--max-memory", group=LIMITS, kind="real", low=0.0, closed="neither", optional=True)
+
+
+# --------------------------------------------------------------------------- queries and labels
+
+@dataclass(frozen=True, kw_only=True)
+class QueryConfig(_Config):
+    """The options of a counterpart query that an alignment does not have."""
+
+    side: str = option("a", "a: the asked nodes are in A and their counterparts in B; b: the reverse.",
+                       flag="--side", group="Query", kind="choice", choices=SIDES)
+    top: int | None = option(10, "Counterparts listed per node (None: all its candidates).", flag="--top",
+                             group="Query", kind="int", low=1, optional=True)
+    tol: float = option(1e-6, "Push tolerance relative to the query's mass: each score is certified within "
+                        "tol * support / (1 - alpha).", flag="--tol", group="Query", kind="real", low=0.0,
+                        closed="neither")
+    max_pushes: int | None = option(None, "Cap on the pushes of one query (None: no cap).", flag="--max-pushes",
+                                    group="Query", kind="int", low=0, optional=True)
+
+
+@dataclass(frozen=True, kw_only=True)
+class LabelConfig(_Config):
+    """The options of the label-similarity prior (``aligner prior-from-labels``)."""
+
+    top_k: int = option(10, "Keep each node's top-k most similar labels on each side (their union).",
+                        flag="--top-k", group="Labels", kind="int", low=1)
+    min_similarity: float = option(0.1, "Drop pairs whose cosine similarity is below this, in (0, 1].",
+                                   flag="--min-similarity", group="Labels", kind="real", low=0.0, high=1.0,
+                                   closed="right")
+
+
+# --------------------------------------------------------------------------- helpers
+
+def specs(cls: type) -> dict[str, tuple[Any, Spec]]:
+    """``{name: (default, spec)}`` of a configuration class, in declaration order."""
+    return {f.name: (f.default, f.metadata["spec"]) for f in dataclasses.fields(cls)}
+
+
+def _refuse_unknown(cls: type, options: Mapping[str, Any]) -> None:
+    unknown = sorted(set(options) - set(specs(cls)))
+    if unknown:
+        raise InvalidParameterError(f"unknown option {unknown[0]!r}; the options are {', '.join(specs(cls))}",
+                                    param=unknown[0])
+
+
+def from_options(cls: type, config: Any = None, options: Mapping[str, Any] | None = None):
+    """A ``cls`` from an optional base ``config`` and keyword ``options`` that override it.
+
+    Unknown keywords are refused with the list of known ones.
+    """
+    options = dict(options or {})
+    _refuse_unknown(cls, options)
+    if config is None:
+        return cls(**options)
+    if not isinstance(config, cls):
+        raise InvalidParameterError(f"config must be a {cls.__name__}; got {type(config).__name__}", param="config")
+    return config.replace(**options) if options else config
+
+
+def describe(cls: type, names: Iterable[str] | None = None, indent: str = "    ") -> str:
+    """numpydoc "Parameters" entries for options of ``cls`` (all, or ``names``), from the declarations."""
+    table = specs(cls)
+    lines = []
+    for name in table if names is None else names:
+        default, spec = table[name]
+        kind = "{" + ", ".join(repr(c) for c in spec.choices) + "}" if spec.kind == "choice" else \
+            spec.python_type.__name__
+        lines.append(f"{indent}{name} : {kind}{', optional' if spec.optional else ''}, default {default!r}")
+        lines.append(f"{indent}    {spec.help} (command line: ``{spec.flag}``)")
+    return "\n".join(lines)
