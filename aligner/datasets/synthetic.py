@@ -7,9 +7,9 @@ give equal outputs (bit for bit) on the same numpy and numba versions.
 Edge lists are returned in canonical form: an ``(E, 2)`` ``int64`` array whose rows satisfy
 ``i < j``, without self-loops or duplicate rows, sorted by ``(i, j)``.
 
-The growth processes run in numba-compiled kernels (compiled once, cached on disk when the
-package directory is writable). The numpy ``Generator`` is passed into the kernels, so the
-kernels advance the same random stream as the surrounding numpy code.
+The growth processes run in the numba kernels of :mod:`aligner.kernels.synthetic` (compiled
+once, cached on disk when the package directory is writable). The numpy ``Generator`` is passed
+into the kernels, so the kernels advance the same random stream as the surrounding numpy code.
 
 Functions
 ---------
@@ -28,10 +28,18 @@ from __future__ import annotations
 
 from dataclasses import dataclass
 
-import numba
 import numpy as np
 
+from aligner.checks import bad_parameter, check_choice, check_int, check_real
 from aligner.errors import InvalidParameterError
+from aligner.kernels.synthetic import (
+    decoy_kernel,
+    duplication_kernel,
+    family_decoy_kernel,
+    holme_kim_kernel,
+    lineage_kernel,
+    sort_rows,
+)
 
 __all__ = [
     "SyntheticPair",
@@ -111,32 +119,18 @@ class EvolvedPair(SyntheticPair):
 # --------------------------------------------------------------------------------------------
 
 
-def _check_int(name: str, value, minimum: int) -> int:
-    if isinstance(value, (bool, np.bool_)) or not isinstance(value, (int, np.integer)):
-        raise InvalidParameterError(f"{name} must be an integer, got {value!r}")
-    value = int(value)
-    if value < minimum:
-        raise InvalidParameterError(f"{name} must be at least {minimum}, got {value}")
-    return value
-
-
 def _check_prob(name: str, value) -> float:
-    try:
-        value = float(value)
-    except (TypeError, ValueError):
-        raise InvalidParameterError(f"{name} must be a number in [0, 1], got {value!r}") from None
-    if not 0.0 <= value <= 1.0:
-        raise InvalidParameterError(f"{name} must be in [0, 1], got {value}")
-    return value
+    return check_real(value, name, low=0.0, high=1.0)
 
 
 def _check_normal(name: str, value) -> tuple[float, float]:
+    """``value`` as a finite (mean, sd) pair with sd >= 0."""
     try:
         mean, sd = (float(x) for x in value)
     except (TypeError, ValueError):
-        raise InvalidParameterError(f"{name} must be a pair (mean, sd), got {value!r}") from None
+        raise bad_parameter(name, "a pair (mean, sd) of numbers", value) from None
     if not (np.isfinite(mean) and np.isfinite(sd)) or sd < 0:
-        raise InvalidParameterError(f"{name} must be a finite (mean, sd) with sd >= 0, got {value!r}")
+        raise bad_parameter(name, "a finite pair (mean, sd) with sd >= 0", value)
     return mean, sd
 
 
@@ -146,12 +140,13 @@ def _canonical_edges(edges, n: int, name: str = "edges") -> np.ndarray:
     if arr.size == 0:
         return np.empty((0, 2), dtype=np.int64)
     if arr.ndim != 2 or arr.shape[1] != 2:
-        raise InvalidParameterError(f"{name} must have shape (E, 2), got {arr.shape}")
+        raise InvalidParameterError(f"{name} must have shape (E, 2); got shape {arr.shape}", param=name)
     if not np.issubdtype(arr.dtype, np.integer):
-        raise InvalidParameterError(f"{name} must hold integers, got dtype {arr.dtype}")
+        raise InvalidParameterError(f"{name} must hold integers; got dtype {arr.dtype}", param=name)
     arr = arr.astype(np.int64, copy=False)
     if arr.min() < 0 or arr.max() >= n:
-        raise InvalidParameterError(f"{name} name nodes outside 0 .. {n - 1}")
+        raise InvalidParameterError(f"{name} must name nodes in 0 .. {n - 1}; got nodes "
+                                    f"{arr.min()} .. {arr.max()}", param=name)
     keys = arr[:, 0] * n + arr[:, 1]
     if (arr[:, 0] < arr[:, 1]).all() and (keys[1:] > keys[:-1]).all():
         return arr.copy()  # already canonical
@@ -222,9 +217,11 @@ def _move_edges(edges: np.ndarray, n: int, k: int, rng: np.random.Generator) -> 
     if k == 0:
         return edges.copy()
     if k > m:
-        raise InvalidParameterError(f"cannot move {k} edges of a graph with {m} edges")
+        raise InvalidParameterError(f"noise must move at most the {m} edges of the graph; got {k} edges to "
+                                    "move", param="noise")
     if k > n * (n - 1) // 2 - m:
-        raise InvalidParameterError(f"a graph on {n} nodes with {m} edges has fewer than {k} non-edges")
+        raise InvalidParameterError(f"noise must move at most the {n * (n - 1) // 2 - m} non-edges of a graph "
+                                    f"on {n} nodes with {m} edges; got {k} edges to move", param="noise")
     keys = edges[:, 0] * n + edges[:, 1]  # sorted, since edges are canonical
     drop = rng.choice(m, size=k, replace=False)
     keep = np.ones(m, dtype=bool)
@@ -254,319 +251,6 @@ def _move_edges(edges: np.ndarray, n: int, k: int, rng: np.random.Generator) -> 
 
 
 # --------------------------------------------------------------------------------------------
-# Numba kernels
-# --------------------------------------------------------------------------------------------
-
-
-# Growable adjacency lists ("arena"): the neighbours of node u are
-# pool[meta[u, 0] : meta[u, 0] + meta[u, 1]], in a block whose capacity is a function of the
-# count (0, 4, 8, 16, ...). A full block moves to the end of the pool with twice the capacity;
-# when the pool is full it is rebuilt, compacted, at twice the live size. Neighbour lists are
-# contiguous, so a uniform random neighbour costs O(1) and a scan is sequential; start and count
-# share one 16-byte row, so touching a node costs one cache miss.
-
-
-@numba.njit(cache=True)
-def _block_cap(count):  # pragma: no cover - compiled
-    if count == 0:
-        return 0
-    c = 4
-    while c < count:
-        c *= 2
-    return c
-
-
-@numba.njit(cache=True)
-def _arena_compact(pool, meta, grow_node):  # pragma: no cover - compiled
-    n = meta.shape[0]
-    live = 0
-    for i in range(n):
-        live += _block_cap(meta[i, 1] + 1 if i == grow_node else meta[i, 1])
-    new = np.empty(max(2 * live, 1024), dtype=pool.dtype)
-    pos = 0
-    for i in range(n):
-        c = meta[i, 1]
-        s = meta[i, 0]
-        for j in range(c):
-            new[pos + j] = pool[s + j]
-        meta[i, 0] = pos
-        pos += _block_cap(c + 1 if i == grow_node else c)
-    return new, pos
-
-
-@numba.njit(cache=True)
-def _arena_append(pool, used, meta, u, v):  # pragma: no cover - compiled
-    c = meta[u, 1]
-    if c == _block_cap(c):  # block full (or absent)
-        new_cap = _block_cap(c + 1)
-        if used + new_cap > pool.shape[0]:
-            pool, used = _arena_compact(pool, meta, u)
-        else:
-            old = meta[u, 0]
-            for j in range(c):
-                pool[used + j] = pool[old + j]
-            meta[u, 0] = used
-            used += new_cap
-    pool[meta[u, 0] + c] = v
-    meta[u, 1] = c + 1
-    return pool, used
-
-
-@numba.njit(cache=True)
-def _arena_edges(pool, meta, n_edges):  # pragma: no cover - compiled
-    """Edge list (u, v), u < v, of an arena holding each edge in both end points' lists."""
-    out = np.empty((n_edges, 2), dtype=np.int64)
-    e = 0
-    for u in range(meta.shape[0]):
-        s = meta[u, 0]
-        for j in range(meta[u, 1]):
-            v = np.int64(pool[s + j])
-            if v > u:
-                out[e, 0] = u
-                out[e, 1] = v
-                e += 1
-    return out[:e]
-
-
-@numba.njit(cache=True)
-def _linked(pool, meta, u, v):  # pragma: no cover - compiled
-    s = meta[u, 0]
-    for j in range(meta[u, 1]):
-        if pool[s + j] == v:
-            return True
-    return False
-
-
-@numba.njit(cache=True)
-def _holme_kim_kernel(n, m, p, rng):  # pragma: no cover - compiled
-    meta = np.zeros((n, 2), dtype=np.int64)
-    pool = np.empty(max(1024, 3 * m * n), dtype=np.int32)
-    used = np.int64(0)  # not a literal: one compiled signature of _arena_append
-    rep = np.empty(m + 2 * m * (n - m), dtype=np.int32)  # each node once per incident edge
-    for i in range(m):
-        rep[i] = i
-    n_rep = m
-    buf = np.empty(2 * m + 3, dtype=np.int64)
-    targets = np.empty(m, dtype=np.int64)
-    n_edges = np.int64(0)
-    small = 2 * m + 2  # above this degree a triangle partner surely exists: use rejection
-    for source in range(m, n):
-        # m distinct targets, each drawn with probability proportional to degree
-        k = 0
-        while k < m:
-            x = np.int64(rep[rng.integers(0, n_rep)])
-            fresh = True
-            for j in range(k):
-                if targets[j] == x:
-                    fresh = False
-                    break
-            if fresh:
-                targets[k] = x
-                k += 1
-        # they are used in the order drawn: the k-th attachment step takes the k-th draw
-        ti = 0
-        count = 0
-        target = -1
-        while count < m:
-            if count > 0 and rng.random() < p:
-                # triangle step: a uniform neighbour of the last target not yet linked to source
-                d = meta[target, 1]
-                s = meta[target, 0]
-                v = -1
-                if d <= small:
-                    c = 0
-                    for j in range(d):
-                        w = np.int64(pool[s + j])
-                        if w != source and not _linked(pool, meta, source, w):
-                            buf[c] = w
-                            c += 1
-                    if c > 0:
-                        v = buf[rng.integers(0, c)]
-                else:
-                    # at most m of the d > 2m + 2 neighbours are excluded: accept with odds > 1/2
-                    while True:
-                        w = np.int64(pool[s + rng.integers(0, d)])
-                        if w != source and not _linked(pool, meta, source, w):
-                            v = w
-                            break
-                if v >= 0:
-                    pool, used = _arena_append(pool, used, meta, source, v)
-                    pool, used = _arena_append(pool, used, meta, v, source)
-                    n_edges += 1
-                    rep[n_rep] = v
-                    n_rep += 1
-                    count += 1
-                    continue
-            # preferential attachment step
-            target = targets[ti]
-            ti += 1
-            if not _linked(pool, meta, source, target):
-                pool, used = _arena_append(pool, used, meta, source, target)
-                pool, used = _arena_append(pool, used, meta, target, source)
-                n_edges += 1
-            rep[n_rep] = target  # counted even when the edge existed already
-            n_rep += 1
-            count += 1
-        for j in range(m):
-            rep[n_rep] = source
-            n_rep += 1
-    return _arena_edges(pool, meta, n_edges)
-
-
-@numba.njit(cache=True)
-def _dd_kernel(n_init, init_edges, n_final, p_retain, p_parent, max_redraws, rng):  # pragma: no cover
-    meta = np.zeros((n_final, 2), dtype=np.int64)
-    pool = np.empty(max(1024, 4 * init_edges.shape[0] + 12 * (n_final - n_init)), dtype=np.int32)
-    used = np.int64(0)  # not a literal: one compiled signature of _arena_append
-    parent = np.full(n_final, -1, dtype=np.int64)
-    buf = np.empty(n_final, dtype=np.int64)
-    n_edges = np.int64(0)
-    for i in range(init_edges.shape[0]):
-        u = init_edges[i, 0]
-        v = init_edges[i, 1]
-        pool, used = _arena_append(pool, used, meta, u, v)
-        pool, used = _arena_append(pool, used, meta, v, u)
-        n_edges += 1
-    node = n_init
-    failures = 0
-    while node < n_final:
-        par = rng.integers(0, node)
-        c = 0
-        s = meta[par, 0]
-        for j in range(meta[par, 1]):
-            if rng.random() < p_retain:
-                buf[c] = np.int64(pool[s + j])
-                c += 1
-        link_parent = rng.random() < p_parent
-        if c == 0 and not link_parent:
-            failures += 1
-            if failures <= max_redraws:
-                continue
-            link_parent = True
-        failures = 0
-        if link_parent:
-            buf[c] = par
-            c += 1
-        for j in range(c):
-            v = buf[j]
-            pool, used = _arena_append(pool, used, meta, node, v)
-            pool, used = _arena_append(pool, used, meta, v, node)
-        n_edges += c
-        parent[node] = par
-        node += 1
-    return _arena_edges(pool, meta, n_edges), parent
-
-
-@numba.njit(cache=True)
-def _lineage_kernel(parent, n_root):  # pragma: no cover - compiled
-    """Root (node < n_root) and duplication count of every node, replaying the duplications."""
-    n = parent.shape[0]
-    root = np.empty(n, dtype=np.int64)
-    dups = np.zeros(n, dtype=np.int64)
-    for i in range(n_root):
-        root[i] = i
-    for i in range(n_root, n):
-        par = parent[i]
-        root[i] = root[par]
-        dups[par] += 1
-        dups[i] = dups[par]
-    return root, dups
-
-
-@numba.njit(cache=True)
-def _decoy_kernel(partner, n_b, k, near, indptr, indices, rng):  # pragma: no cover - compiled
-    """``k`` distinct decoys per row, never the row's partner; near: by 1- or 2-step walks."""
-    n = partner.shape[0]
-    out = np.empty((n, k), dtype=np.int64)
-    max_attempts = 10 * k + 10
-    for a in range(n):
-        t = partner[a]
-        c = 0
-        if near and indptr[t + 1] > indptr[t]:
-            attempts = 0
-            while c < k and attempts < max_attempts:
-                attempts += 1
-                lo = indptr[t]
-                x = indices[lo + rng.integers(0, indptr[t + 1] - lo)]
-                if rng.random() < 0.5:
-                    lo = indptr[x]
-                    x = indices[lo + rng.integers(0, indptr[x + 1] - lo)]
-                if x == t:
-                    continue
-                fresh = True
-                for j in range(c):
-                    if out[a, j] == x:
-                        fresh = False
-                        break
-                if fresh:
-                    out[a, c] = x
-                    c += 1
-        while c < k:
-            x = rng.integers(0, n_b - 1)
-            if x >= t:
-                x += 1  # uniform over B without t
-            fresh = True
-            for j in range(c):
-                if out[a, j] == x:
-                    fresh = False
-                    break
-            if fresh:
-                out[a, c] = x
-                c += 1
-    return out
-
-
-@numba.njit(cache=True)
-def _sort_rows(keys, values):  # pragma: no cover - compiled
-    """Sort each row of ``keys`` in place (insertion sort: rows are short), moving ``values``."""
-    n, k = keys.shape
-    for i in range(n):
-        for j in range(1, k):
-            x = keys[i, j]
-            y = values[i, j]
-            h = j - 1
-            while h >= 0 and keys[i, h] > x:
-                keys[i, h + 1] = keys[i, h]
-                values[i, h + 1] = values[i, h]
-                h -= 1
-            keys[i, h + 1] = x
-            values[i, h + 1] = y
-
-
-@numba.njit(cache=True)
-def _family_decoy_kernel(anc_a, anc_b, family_size_b, k, rng):  # pragma: no cover - compiled
-    """Up to ``k`` distinct nodes of B per node of A, each from a different ancestral family."""
-    n_a = anc_a.shape[0]
-    n_b = anc_b.shape[0]
-    rows = np.empty(n_a * k, dtype=np.int64)
-    cols = np.empty(n_a * k, dtype=np.int64)
-    chosen = np.empty(k, dtype=np.int64)
-    e = 0
-    for a in range(n_a):
-        fam = anc_a[a]
-        eligible = n_b - family_size_b[fam]
-        want = min(k, eligible)
-        c = 0
-        while c < want:
-            x = rng.integers(0, n_b)
-            if anc_b[x] == fam:
-                continue
-            fresh = True
-            for j in range(c):
-                if chosen[j] == x:
-                    fresh = False
-                    break
-            if fresh:
-                chosen[c] = x
-                c += 1
-        for j in range(c):
-            rows[e] = a
-            cols[e] = chosen[j]
-            e += 1
-    return rows[:e], cols[:e]
-
-
-# --------------------------------------------------------------------------------------------
 # Graph generators
 # --------------------------------------------------------------------------------------------
 
@@ -583,9 +267,9 @@ def powerlaw_graph(n: int, *, m: int = 4, p: float = 0.3, seed) -> np.ndarray:
     was already reached by a triangle step), so there are at most ``(n - m) * m`` edges.
 
     This is the process of ``networkx.powerlaw_cluster_graph``, written as an independent numba
-    kernel with contiguous adjacency lists and rejection sampling of triangle partners: about
-    50 times faster than networkx at 10^5 nodes and a few seconds at 10^6 nodes (networkx needs
-    over a minute there), with output that does not depend on the networkx version. One
+    kernel with contiguous adjacency lists and rejection sampling of triangle partners (a step
+    costs time independent of the graph's size, so 10^6 nodes are practical), with output that
+    does not depend on the networkx version. One
     difference: networkx uses its drawn targets in hash-set order, which favours small node
     labels, that is the oldest nodes; here they are used in draw order, as in the sequential
     attachment steps of the paper. Edge counts and mean degrees agree; networkx's hubs come out
@@ -613,17 +297,17 @@ def powerlaw_graph(n: int, *, m: int = 4, p: float = 0.3, seed) -> np.ndarray:
     >>> edges.shape[1], bool((edges[:, 0] < edges[:, 1]).all())
     (2, True)
     """
-    m = _check_int("m", m, 1)
-    n = _check_int("n", n, m)
+    m = check_int(m, "m", low=1)
+    n = check_int(n, "n", low=m)
     p = _check_prob("p", p)
     rng = np.random.default_rng(seed)
-    edges = _holme_kim_kernel(n, m, p, rng)
+    edges = holme_kim_kernel(n, m, p, rng)
     keys = np.sort(edges[:, 0] * n + edges[:, 1])
     return _edges_from_keys(keys, n)
 
 
 def _dd_grow(edges, n_init, n_final, p_retain, p_parent, max_redraws, rng):
-    edges, parent = _dd_kernel(n_init, np.ascontiguousarray(edges, dtype=np.int64), n_final,
+    edges, parent = duplication_kernel(n_init, np.ascontiguousarray(edges, dtype=np.int64), n_final,
                                p_retain, p_parent, max_redraws, rng)
     keys = np.sort(edges[:, 0] * n_final + edges[:, 1])
     return _edges_from_keys(keys, n_final), parent
@@ -644,8 +328,7 @@ def duplication_divergence_graph(n: int, *, p_retain: float = 0.4, p_parent: flo
     discarded, which bounds the running time when ``p_retain`` and ``p_parent`` are tiny.
 
     The numba kernel keeps contiguous growable adjacency lists; a step costs time proportional
-    to the parent's degree, so 10^5 nodes take well under a second and 10^6 nodes a few seconds
-    (at 10^6 the time is dominated by cache misses on the neighbours' lists).
+    to the parent's degree, so the whole growth costs about one pass over the final edges.
 
     Parameters
     ----------
@@ -665,10 +348,10 @@ def duplication_divergence_graph(n: int, *, p_retain: float = 0.4, p_parent: flo
     ndarray of int64, shape (E, 2)
         Canonical edge list on nodes ``0 .. n - 1``.
     """
-    n = _check_int("n", n, 2)
+    n = check_int(n, "n", low=2)
     p_retain = _check_prob("p_retain", p_retain)
     p_parent = _check_prob("p_parent", p_parent)
-    max_redraws = _check_int("max_redraws", max_redraws, 0)
+    max_redraws = check_int(max_redraws, "max_redraws", low=0)
     rng = np.random.default_rng(seed)
     edges, _ = _dd_grow(np.array([[0, 1]], dtype=np.int64), 2, n, p_retain, p_parent, max_redraws, rng)
     return edges
@@ -722,43 +405,55 @@ def relabelled_pair(edges_a, n: int, *, noise: float = 0.05, decoys: int = 10,
         ``truth`` holds ``(a, pi(a))`` for every node ``a``; ``edges_a`` is the canonical form
         of the input.
     """
-    n = _check_int("n", n, 1)
+    n = check_int(n, "n", low=1)
     edges_a = _canonical_edges(edges_a, n, "edges_a")
     noise = _check_prob("noise", noise)
-    decoys = _check_int("decoys", decoys, 0)
+    decoys = check_int(decoys, "decoys", low=0)
     if decoys > n - 1:
-        raise InvalidParameterError(f"decoys must be at most n - 1 = {n - 1}, got {decoys}")
-    if decoy_mode not in ("uniform", "near"):
-        raise InvalidParameterError(f"decoy_mode must be 'uniform' or 'near', got {decoy_mode!r}")
-    t_mean, t_sd = _check_normal("true_score", true_score)
-    d_mean, d_sd = _check_normal("decoy_score", decoy_score)
+        raise bad_parameter("decoys", f"at most n - 1 = {n - 1}", decoys)
+    near = check_choice(decoy_mode, "decoy_mode", ("uniform", "near")) == "near"
+    scores = _check_normal("true_score", true_score), _check_normal("decoy_score", decoy_score)
     rng = np.random.default_rng(seed)
 
     perm = rng.permutation(n).astype(np.int64)
-    pb = perm[edges_a]
-    lo = np.minimum(pb[:, 0], pb[:, 1])
-    hi = np.maximum(pb[:, 0], pb[:, 1])
-    edges_pb = _edges_from_keys(np.sort(lo * n + hi), n)
-    k = int(round(noise * len(edges_a)))
-    edges_b = _move_edges(edges_pb, n, k, rng)
+    edges_b = _move_edges(_relabel(edges_a, perm, n), n, int(round(noise * len(edges_a))), rng)
+    prior_pairs, prior_scores = _decoy_prior(perm, edges_b, decoys, near, *scores, rng)
+    truth = np.stack([np.arange(n, dtype=np.int64), perm], axis=1)
+    return SyntheticPair(n_a=n, n_b=n, edges_a=edges_a, edges_b=edges_b, prior_pairs=prior_pairs,
+                         prior_scores=prior_scores, truth=truth)
 
-    if decoy_mode == "near":
+
+def _relabel(edges: np.ndarray, perm: np.ndarray, n: int) -> np.ndarray:
+    """Canonical edge list of the graph whose node ``i`` is renamed ``perm[i]``."""
+    pe = perm[edges]
+    lo = np.minimum(pe[:, 0], pe[:, 1])
+    hi = np.maximum(pe[:, 0], pe[:, 1])
+    return _edges_from_keys(np.sort(lo * n + hi), n)
+
+
+def _decoy_prior(partner: np.ndarray, edges_b: np.ndarray, decoys: int, near: bool,
+                 true_score: tuple[float, float], decoy_score: tuple[float, float],
+                 rng: np.random.Generator) -> tuple[np.ndarray, np.ndarray]:
+    """The prior of :func:`relabelled_pair`: each node's partner and its decoys, sorted by (a, b).
+
+    ``partner[a]`` is the true partner of node ``a``; B has as many nodes as A.
+    """
+    n = len(partner)
+    if near:
         indptr, indices = _csr(edges_b, n)
     else:
         indptr, indices = np.zeros(1, dtype=np.int64), np.zeros(1, dtype=np.int64)
-    dec = _decoy_kernel(perm, n, decoys, decoy_mode == "near", indptr, indices, rng)
-    true_s = _clipped_normal(rng, t_mean, t_sd, n)
-    dec_s = _clipped_normal(rng, d_mean, d_sd, n * decoys).reshape(n, decoys)
+    dec = decoy_kernel(partner, n, decoys, near, indptr, indices, rng)
+    true_s = _clipped_normal(rng, *true_score, n)
+    dec_s = _clipped_normal(rng, *decoy_score, n * decoys).reshape(n, decoys)
 
-    cols = np.concatenate([perm[:, None], dec], axis=1)
+    cols = np.concatenate([partner[:, None], dec], axis=1)
     scores = np.concatenate([true_s[:, None], dec_s], axis=1)
-    _sort_rows(cols, scores)  # rows of A are in order already; sort B within rows
-    prior_pairs = np.empty((n * (decoys + 1), 2), dtype=np.int64)
-    prior_pairs[:, 0] = np.repeat(np.arange(n, dtype=np.int64), decoys + 1)
-    prior_pairs[:, 1] = cols.ravel()
-    truth = np.stack([np.arange(n, dtype=np.int64), perm], axis=1)
-    return SyntheticPair(n_a=n, n_b=n, edges_a=edges_a, edges_b=edges_b, prior_pairs=prior_pairs,
-                         prior_scores=scores.ravel().astype(np.float64, copy=False), truth=truth)
+    sort_rows(cols, scores)  # rows of A are in order already; sort B within rows
+    pairs = np.empty((n * (decoys + 1), 2), dtype=np.int64)
+    pairs[:, 0] = np.repeat(np.arange(n, dtype=np.int64), decoys + 1)
+    pairs[:, 1] = cols.ravel()
+    return pairs, scores.ravel().astype(np.float64, copy=False)
 
 
 def evolved_pair(n_ancestor: int, *, n_final: int | tuple[int, int], p_retain: float = 0.4,
@@ -816,71 +511,90 @@ def evolved_pair(n_ancestor: int, *, n_final: int | tuple[int, int], p_retain: f
         A :class:`SyntheticPair` with the ancestral network, the ancestral node and the
         duplication count of every node of A and B.
     """
-    n_ancestor = _check_int("n_ancestor", n_ancestor, 2)
-    if isinstance(n_final, (tuple, list)):
-        if len(n_final) != 2:
-            raise InvalidParameterError(f"n_final must be an int or a pair of ints, got {n_final!r}")
-        n_fa, n_fb = (_check_int("n_final", x, n_ancestor) for x in n_final)
-    else:
-        n_fa = n_fb = _check_int("n_final", n_final, n_ancestor)
+    n_ancestor = check_int(n_ancestor, "n_ancestor", low=2)
+    n_fa, n_fb = _final_sizes(n_final, n_ancestor)
     p_retain = _check_prob("p_retain", p_retain)
     p_parent = _check_prob("p_parent", p_parent)
     edge_noise = _check_prob("edge_noise", edge_noise)
-    decoys = _check_int("decoys", decoys, 0)
-    max_redraws = _check_int("max_redraws", max_redraws, 0)
-    t_mean, t_sd = _check_normal("true_score", true_score)
-    d_mean, d_sd = _check_normal("decoy_score", decoy_score)
-    try:
-        decay = float(decay)
-    except (TypeError, ValueError):
-        raise InvalidParameterError(f"decay must be a number in (0, 1], got {decay!r}") from None
-    if not 0.0 < decay <= 1.0:
-        raise InvalidParameterError(f"decay must be in (0, 1], got {decay}")
+    decoys = check_int(decoys, "decoys", low=0)
+    grow = (p_retain, p_parent, check_int(max_redraws, "max_redraws", low=0))
+    scores = _check_normal("true_score", true_score), _check_normal("decoy_score", decoy_score)
+    decay = check_real(decay, "decay", low=0.0, high=1.0, closed="right")
     rng = np.random.default_rng(seed)
 
-    anc_edges, _ = _dd_grow(np.array([[0, 1]], dtype=np.int64), 2, n_ancestor, p_retain, p_parent,
-                            max_redraws, rng)
-    species = []
-    for n_f in (n_fa, n_fb):
-        edges, parent = _dd_grow(anc_edges, n_ancestor, n_f, p_retain, p_parent, max_redraws, rng)
-        root, dups = _lineage_kernel(parent, n_ancestor)
-        k = int(round(edge_noise * len(edges)))
-        edges = _move_edges(edges, n_f, k, rng)
-        perm = rng.permutation(n_f).astype(np.int64)  # old label i becomes perm[i]
-        pe = perm[edges]
-        lo = np.minimum(pe[:, 0], pe[:, 1])
-        hi = np.maximum(pe[:, 0], pe[:, 1])
-        edges = _edges_from_keys(np.sort(lo * n_f + hi), n_f)
-        new_root = np.empty(n_f, dtype=np.int64)
-        new_dups = np.empty(n_f, dtype=np.int64)
-        new_root[perm] = root
-        new_dups[perm] = dups
-        species.append((edges, new_root, new_dups))
-    (edges_a, anc_a, dup_a), (edges_b, anc_b, dup_b) = species
+    anc_edges, _ = _dd_grow(np.array([[0, 1]], dtype=np.int64), 2, n_ancestor, *grow, rng)
+    edges_a, anc_a, dup_a = _evolve_species(anc_edges, n_ancestor, n_fa, grow, edge_noise, rng)
+    edges_b, anc_b, dup_b = _evolve_species(anc_edges, n_ancestor, n_fb, grow, edge_noise, rng)
+    truth = _family_truth(anc_a, anc_b, n_ancestor)
+    pairs, prior_scores = _evolved_prior(truth, (anc_a, dup_a), (anc_b, dup_b), n_ancestor, decoys,
+                                         *scores, decay, rng)
+    return EvolvedPair(n_a=n_fa, n_b=n_fb, edges_a=edges_a, edges_b=edges_b, prior_pairs=pairs,
+                       prior_scores=prior_scores, truth=truth, n_ancestor=n_ancestor,
+                       edges_ancestor=anc_edges, ancestor_a=anc_a, ancestor_b=anc_b,
+                       duplications_a=dup_a, duplications_b=dup_b)
 
-    # truth: all pairs within each ancestral family
+
+def _final_sizes(n_final, n_ancestor: int) -> tuple[int, int]:
+    """``n_final`` of :func:`evolved_pair` as the final sizes of A and of B."""
+    if isinstance(n_final, (tuple, list)):
+        if len(n_final) != 2:
+            raise bad_parameter("n_final", "a whole number or a pair of whole numbers", n_final)
+        n_fa, n_fb = (check_int(x, "n_final", low=n_ancestor) for x in n_final)
+        return n_fa, n_fb
+    n_f = check_int(n_final, "n_final", low=n_ancestor)
+    return n_f, n_f
+
+
+def _evolve_species(anc_edges: np.ndarray, n_ancestor: int, n_final: int, grow: tuple, edge_noise: float,
+                    rng: np.random.Generator) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+    """One species grown from the ancestral network: edges, ancestral node and duplications of each node.
+
+    ``grow`` is ``(p_retain, p_parent, max_redraws)``. The species grows by duplication, a share
+    ``edge_noise`` of its edges is moved, and its nodes are relabelled by a uniform permutation.
+    """
+    edges, parent = _dd_grow(anc_edges, n_ancestor, n_final, *grow, rng)
+    root, dups = lineage_kernel(parent, n_ancestor)
+    edges = _move_edges(edges, n_final, int(round(edge_noise * len(edges))), rng)
+    perm = rng.permutation(n_final).astype(np.int64)  # old label i becomes perm[i]
+    new_root = np.empty(n_final, dtype=np.int64)
+    new_dups = np.empty(n_final, dtype=np.int64)
+    new_root[perm] = root
+    new_dups[perm] = dups
+    return _relabel(edges, perm, n_final), new_root, new_dups
+
+
+def _family_truth(anc_a: np.ndarray, anc_b: np.ndarray, n_ancestor: int) -> np.ndarray:
+    """Every pair (a, b) with the same ancestral node, sorted by (a, b)."""
     order_b = np.argsort(anc_b, kind="stable")
     size_b = np.bincount(anc_b, minlength=n_ancestor)
     start_b = np.zeros(n_ancestor + 1, dtype=np.int64)
     np.cumsum(size_b, out=start_b[1:])
     per_a = size_b[anc_a]
-    t_rows = np.repeat(np.arange(n_fa, dtype=np.int64), per_a)
+    t_rows = np.repeat(np.arange(len(anc_a), dtype=np.int64), per_a)
     offs = np.arange(len(t_rows), dtype=np.int64) - np.repeat(np.cumsum(per_a) - per_a, per_a)
     t_cols = order_b[start_b[anc_a[t_rows]] + offs]
-    truth = np.stack([t_rows, t_cols], axis=1)
-    (truth,) = _sort_pairs(truth, n_fb)
+    (truth,) = _sort_pairs(np.stack([t_rows, t_cols], axis=1), len(anc_b))
+    return truth
 
+
+def _evolved_prior(truth: np.ndarray, lineage_a: tuple[np.ndarray, np.ndarray],
+                   lineage_b: tuple[np.ndarray, np.ndarray], n_ancestor: int, decoys: int,
+                   true_score: tuple[float, float], decoy_score: tuple[float, float], decay: float,
+                   rng: np.random.Generator) -> tuple[np.ndarray, np.ndarray]:
+    """The prior of :func:`evolved_pair`: true pairs scored by divergence, decoys from other families.
+
+    ``lineage_a`` and ``lineage_b`` are (ancestral node, duplications) of every node.
+    """
+    (anc_a, dup_a), (anc_b, dup_b) = lineage_a, lineage_b
+    t_mean, t_sd = true_score
     mean = t_mean * decay ** (dup_a[truth[:, 0]] + dup_b[truth[:, 1]]).astype(np.float64)
     true_s = np.maximum(mean + t_sd * rng.standard_normal(len(truth)), SCORE_FLOOR)
-    d_rows, d_cols = _family_decoy_kernel(anc_a, anc_b, size_b, decoys, rng)
-    dec_s = _clipped_normal(rng, d_mean, d_sd, len(d_rows))
+    size_b = np.bincount(anc_b, minlength=n_ancestor)
+    d_rows, d_cols = family_decoy_kernel(anc_a, anc_b, size_b, decoys, rng)
+    dec_s = _clipped_normal(rng, *decoy_score, len(d_rows))
     pairs = np.concatenate([truth, np.stack([d_rows, d_cols], axis=1)])
     scores = np.concatenate([true_s, dec_s])
-    pairs, scores = _sort_pairs(pairs, n_fb, scores)
-    return EvolvedPair(n_a=n_fa, n_b=n_fb, edges_a=edges_a, edges_b=edges_b, prior_pairs=pairs,
-                       prior_scores=scores, truth=truth, n_ancestor=n_ancestor,
-                       edges_ancestor=anc_edges, ancestor_a=anc_a, ancestor_b=anc_b,
-                       duplications_a=dup_a, duplications_b=dup_b)
+    return _sort_pairs(pairs, len(anc_b), scores)
 
 
 # --------------------------------------------------------------------------------------------
@@ -893,7 +607,7 @@ def opaque_names(n: int, *, seed, prefix: str = "n") -> np.ndarray:
     Replacing real identifiers with these before aligning makes sure that no tie-breaking by
     identifier order can help an aligner: the order of the opaque names says nothing.
     """
-    n = _check_int("n", n, 0)
+    n = check_int(n, "n", low=0)
     rng = np.random.default_rng(seed)
     width = len(str(max(10 * n, 10)))
     codes = rng.choice(10 ** width, size=n, replace=False)
@@ -915,10 +629,10 @@ def noisy_prior(truth: np.ndarray, n_b: int, *, decoys: int = 10, true_score=(1.
     scores : ndarray of float64, shape (K,)
     """
     truth = np.asarray(truth, dtype=np.int64).reshape(-1, 2)
-    n_b = _check_int("n_b", n_b, 1)
-    decoys = _check_int("decoys", decoys, 0)
+    n_b = check_int(n_b, "n_b", low=1)
+    decoys = check_int(decoys, "decoys", low=0)
     if decoys > n_b - 1:
-        raise InvalidParameterError(f"decoys must be at most n_b - 1 = {n_b - 1}, got {decoys}")
+        raise bad_parameter("decoys", f"at most n_b - 1 = {n_b - 1}", decoys)
     tm, ts = _check_normal("true_score", true_score)
     dm, ds = _check_normal("decoy_score", decoy_score)
     rng = np.random.default_rng(seed)
