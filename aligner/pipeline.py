@@ -1,38 +1,53 @@
-"""The Python API: ``align`` validates its inputs and runs the stages in order."""
+"""The stages of an alignment, as functions over explicit data, and ``align`` composed of them.
+
+Data flows one way::
+
+    read_inputs -> find_candidates -> prepare (product graph, h, column scale) = Problem
+    Problem -> solve (diffusion) -> match (rounding) -> improve (refinement)
+            -> evaluate (scores, tables, significance) -> summarize (summary.json)
+
+A :class:`Problem` (the networks, the candidate pairs, the product graph, the prior vector and
+the options) is what :func:`align`, :func:`aligner.sweep` and :func:`aligner.query` start
+from; each later stage is a plain function of it and of the stage before, so any of them can
+be rerun on its own (the sweep reruns ``solve`` onwards at each alpha). Seeds are data here,
+not branches: pairs added to the candidates, mass added to h, pairs fixed in the matching.
+"""
 
 from __future__ import annotations
 
+import dataclasses
 import os
 import time
 import warnings
-from dataclasses import dataclass, field
-from pathlib import Path
-from typing import Callable
+from contextlib import contextmanager, nullcontext
+from dataclasses import dataclass
+from typing import Any, Callable
 
 import numpy as np
+import numpy.typing as npt
 import pandas as pd
 
 from aligner import __version__
-from aligner.checks import check_choice, check_int, check_real
+from aligner.config import AlignConfig, describe, from_options
 from aligner.core.candidates import CandidateSet, build_candidates
-from aligner.core.diffusion import NORMALIZATIONS, SOLVERS, DiffusionResult, column_scale, diffuse, prior_vector
+from aligner.core.confidence import pair_confidence
+from aligner.core.diffusion import DiffusionResult, column_scale, diffuse, prior_vector
+from aligner.core.network import Network
+from aligner.core.product import ProductGraph, build_product, estimate_product_edges
+from aligner.core.refine import RefineResult, refine_matching
+from aligner.core.rounding import Matching, round_matching
+from aligner.core.scoring import Scores, conserved_per_node, score_matching
+from aligner.core.significance import significance
 from aligner.errors import AlignerWarning, InputFormatError, InvalidParameterError, MemoryBudgetError, NoCandidatesError
 from aligner.io.inputs import as_network, as_pairs, as_prior, known_pairs
-from aligner.io.outputs import OUTPUT_FILES, check_outdir, write_outputs
-from aligner.core.network import Network, network_from_edges
-from aligner.core.product import ProductGraph, build_product, estimate_product_edges
-from aligner.core.refine import DEFAULT_BETA, DEFAULT_MAX_ITER, refine_matching
-from aligner.core.rounding import METHODS, Matching, round_matching
-from aligner.core.scoring import Scores, conserved_per_node, score_matching
-from aligner.core.confidence import pair_confidence
-from aligner.core.significance import significance as _significance
+from aligner.io.readers import PairTable, PriorTable
+from aligner.priors.seeds import (SeedExpansion, SeedTable, add_seed_pairs, as_seeds, expand_from_seeds,
+                                  round_with_fixed, seed_index, seed_summary, seed_vector)
 from aligner.priors.structural import FEATURE_NAMES, combine_priors, structural_candidates
-from aligner.priors.seeds import (DEFAULT_SEED_WEIGHT, add_seed_pairs, as_seeds, expand_from_seeds, round_with_fixed, seed_index,
-                    seed_summary, seed_vector)
 
-__all__ = ["align", "score", "AlignmentResult", "as_network", "OUTPUT_FILES", "check_outdir", "write_outputs"]
+__all__ = ["STAGES", "Inputs", "Problem", "Improvement", "Evaluation", "AlignmentResult", "read_inputs",
+           "find_candidates", "prepare", "solve", "match", "improve", "evaluate", "summarize", "align", "score"]
 
-SCORE_KINDS = ("similarity", "evalue", "distance")
 #: the stages of a run, in order, as named to the ``progress`` callback of :func:`align`
 STAGES = ("read", "candidates", "product", "diffusion", "rounding", "refine", "scoring", "writing")
 #: bytes per stored product-graph entry while building and solving (index + share of pointers,
@@ -40,11 +55,130 @@ STAGES = ("read", "candidates", "product", "diffusion", "rounding", "refine", "s
 BYTES_PER_PRODUCT_ENTRY = 4
 
 
-# --------------------------------------------------------------------------- coercion
+class Clock:
+    """Stage timings, and the ``progress`` callback told as each stage starts."""
 
-def _memory_budget(max_memory: float | None) -> float:
-    if max_memory is not None:
-        return check_real(max_memory, "max_memory", low=0.0, closed="neither")
+    def __init__(self, progress: Callable[[str], None] | None = None):
+        self.progress = progress or (lambda stage: None)
+        self.timings: dict[str, float] = {}
+
+    @contextmanager
+    def stage(self, name: str):
+        self.progress(name)
+        t0 = time.perf_counter()
+        yield
+        self.timings[name] = round(self.timings.get(name, 0.0) + time.perf_counter() - t0, 4)
+
+
+# --------------------------------------------------------------------------- reading
+
+@dataclass(frozen=True, eq=False)
+class Inputs:
+    """The inputs of a run in canonical form; ``prior``, ``seeds`` and ``truth`` may be None."""
+
+    network_a: Network
+    network_b: Network
+    prior: PriorTable | None
+    seeds: SeedTable | None
+    truth: PairTable | None
+
+
+def _warn_unknown(table, what: str) -> None:
+    if table is not None and table.n_unknown:
+        warnings.warn(f"{table.n_unknown} of {table.n_rows} {what} rows name a node missing from its network and "
+                      f"were skipped (for example {', '.join(table.unknown_examples)})", AlignerWarning,
+                      stacklevel=4)
+
+
+def _check_weighted(net_a: Network, net_b: Network, weighted: bool) -> None:
+    """Refuse weighted mode when a network has no weight column."""
+    for net, side in ((net_a, "A"), (net_b, "B")):
+        if weighted and net.weights is None:
+            raise InvalidParameterError(f"weighted needs edge weights, but network {side} ({net.source}) has no "
+                                        "third column of weights", param="weighted")
+
+
+def read_inputs(network_a, network_b, prior=None, *, seeds=None, truth=None,
+                config: AlignConfig | None = None) -> Inputs:
+    """Read and check every input (paths, DataFrames, graphs or tables already read).
+
+    Warns about prior and truth rows naming unknown nodes; raises NoCandidatesError when the
+    prior has no usable pair left.
+    """
+    cfg = config or AlignConfig()
+    read = {"delimiter": cfg.delimiter, "header": cfg.header}
+    net_a = as_network(network_a, name="network_a", directed=cfg.directed, **read)
+    net_b = as_network(network_b, name="network_b", directed=cfg.directed, **read)
+    _check_weighted(net_a, net_b, cfg.weighted)
+    prior_t = None if prior is None else as_prior(prior, net_a, net_b, cfg.score_kind, cfg.delimiter, cfg.header)
+    seeds_t = None if seeds is None else as_seeds(seeds, net_a, net_b, **read)
+    truth_t = None if truth is None else known_pairs(
+        as_pairs(truth, net_a, net_b, "truth table", cfg.delimiter, cfg.header), "truth table")
+    _warn_unknown(prior_t, "prior")
+    _warn_unknown(truth_t, "truth")
+    if prior_t is not None and len(prior_t.pairs) == 0:
+        hint = ""
+        if prior_t.n_unknown == prior_t.n_rows and prior_t.n_rows:
+            hint = (" None of its rows names a node of network A in the first column and a node of network B "
+                    "in the second: are the columns swapped, or are these the wrong networks?")
+        raise NoCandidatesError(f"{prior_t.source}: no usable prior pair is left.{hint}")
+    return Inputs(net_a, net_b, prior_t, seeds_t, truth_t)
+
+
+# --------------------------------------------------------------------------- candidates
+
+@dataclass(frozen=True, eq=False)
+class Candidates:
+    """The candidate pairs and where they came from."""
+
+    candidates: CandidateSet
+    structural: dict | None = None
+    expansion: SeedExpansion | None = None
+
+
+def _structural(inputs: Inputs, cfg: AlignConfig) -> Candidates:
+    net_a, net_b, prior_t = inputs.network_a, inputs.network_b, inputs.prior
+    k = cfg.top_k or 25
+    pairs, scores = structural_candidates(net_a, net_b, k=k)
+    info = {"pairs": int(len(pairs)), "k": k, "features": list(FEATURE_NAMES),
+            "weight": None if prior_t is None else cfg.structural_weight}
+    if prior_t is not None:
+        ok = prior_t.scores >= cfg.min_score
+        pairs, scores = combine_priors(prior_t.pairs[ok], prior_t.scores[ok], pairs, scores, net_b.n,
+                                       weight=cfg.structural_weight)
+    cand = build_candidates(pairs, scores, net_a.n, net_b.n, top_k=cfg.top_k)
+    if cand.m == 0:
+        raise NoCandidatesError("no structural candidate pair: one of the networks has no node with an edge")
+    return Candidates(cand, structural=info)
+
+
+def find_candidates(inputs: Inputs, config: AlignConfig) -> Candidates:
+    """Candidate pairs from the prior, from structure (no prior and no seeds, or
+    ``config.structural``), or grown from the seeds (seeds only); seed pairs always included."""
+    cfg, prior_t = config, inputs.prior
+    if cfg.structural or (prior_t is None and inputs.seeds is None):
+        found = _structural(inputs, cfg)
+    elif prior_t is None:
+        expansion = expand_from_seeds(inputs.network_a, inputs.network_b, inputs.seeds, top_k=cfg.top_k)
+        found = Candidates(expansion.candidates, expansion=expansion)
+    else:
+        cand = build_candidates(prior_t.pairs, prior_t.scores, inputs.network_a.n, inputs.network_b.n,
+                                min_score=cfg.min_score, top_k=cfg.top_k)
+        if cand.m == 0:
+            raise NoCandidatesError(f"{prior_t.source}: no prior pair scores at least the minimum score "
+                                    f"{cfg.min_score:g}; lower --min-score (the highest score is "
+                                    f"{prior_t.scores.max():g}).")
+        found = Candidates(cand)
+    if inputs.seeds is not None:
+        found = dataclasses.replace(found, candidates=add_seed_pairs(found.candidates, inputs.seeds))
+    return found
+
+
+# --------------------------------------------------------------------------- the prepared problem
+
+def _memory_budget(max_memory_gib: float | None) -> float:
+    if max_memory_gib is not None:
+        return max_memory_gib * 2**30
     try:
         total = os.sysconf("SC_PAGE_SIZE") * os.sysconf("SC_PHYS_PAGES")
     except (ValueError, OSError, AttributeError):  # pragma: no cover
@@ -58,50 +192,241 @@ def _gib(nbytes: float) -> str:
     return f"{g:.2f} GiB" if g >= 0.01 or g == 0 else f"{g:.2g} GiB"
 
 
-# --------------------------------------------------------------------------- result
+def _check_memory(inputs: Inputs, cand: CandidateSet, cfg: AlignConfig) -> int:
+    """The product graph's estimated stored entries; MemoryBudgetError when over the budget."""
+    a_ip, a_ix, _ = inputs.network_a.walk_adjacency(cfg.directed, cfg.weighted)
+    b_ip, _, _ = inputs.network_b.walk_adjacency(cfg.directed, cfg.weighted)
+    estimate = estimate_product_edges(a_ip, a_ix, b_ip, cand)
+    budget = _memory_budget(cfg.max_memory)
+    need = estimate * BYTES_PER_PRODUCT_ENTRY + cand.m * 64
+    if need > budget:
+        raise MemoryBudgetError(
+            f"the product graph over {cand.m:,} candidate pairs may have up to {estimate:,} stored entries "
+            f"(about {_gib(need)}), over the memory budget of {_gib(budget)}; lower "
+            "--top-k, raise --min-score, or raise --max-memory (in GiB)")
+    return estimate
+
+
+def _build_product(inputs: Inputs, cand: CandidateSet, cfg: AlignConfig) -> ProductGraph:
+    a_ip, a_ix, a_w = inputs.network_a.walk_adjacency(cfg.directed, cfg.weighted)
+    b_ip, b_ix, b_w = inputs.network_b.walk_adjacency(cfg.directed, cfg.weighted)
+    return build_product(a_ip, a_ix, b_ip, b_ix, cand, a_weights=a_w if cfg.weighted else None,
+                         b_weights=b_w if cfg.weighted else None, directed=cfg.directed)
+
 
 @dataclass(frozen=True, eq=False)
-class AlignmentResult:
-    """Everything a run produced.
+class Problem:
+    """A prepared alignment problem: what every solve starts from.
 
     Attributes
     ----------
-    pairs : DataFrame
-        One row per matched pair: ``node_a``, ``node_b``, ``score`` (diffusion score),
-        ``prior`` (prior similarity after the score-kind transformation), ``conserved``
-        (conserved edges at the pair), ``confidence`` (margin over the best competing
-        candidate, see :func:`aligner.core.confidence.pair_confidence`). Sorted by ``node_a``.
-    scores : Scores
-        EC, ICS, S3, largest common connected subgraph, NC (with a truth table).
-    diffusion : DiffusionResult
-        Solver figures: steps, edge touches, residual and error bound.
-    summary : dict
-        Inputs, parameters, sizes, scores, solver figures, stage timings and version, as
-        written to ``summary.json``.
+    config : AlignConfig
+    inputs : Inputs
+        The networks, prior, seeds and truth in canonical form.
+    candidates : CandidateSet
+        The candidate pairs L (seed pairs included), with their prior scores.
+    h : ndarray of float64, shape (m,)
+        The diffusion's source vector (the prior normalised to sum 1, plus seed mass).
+    seed_index : ndarray of int64 or None
+        Positions of the seed pairs in ``candidates``: fixed in the matching.
+    product : ProductGraph or None
+        The product graph restricted to L (None when prepared without it, as queries are).
+    scale : ndarray of float64 or None
+        The column scale of the random walk (see :func:`aligner.core.diffusion.column_scale`).
+    origin : Candidates
+        Where the candidates came from (structural features, seed expansion, the prior).
+    product_estimate : int
+        The memory check's bound on the product graph's stored entries.
     """
 
-    network_a: Network
-    network_b: Network
+    config: AlignConfig
+    inputs: Inputs
     candidates: CandidateSet
-    product: ProductGraph
-    diffusion: DiffusionResult
+    h: npt.NDArray[np.float64]
+    seed_index: npt.NDArray[np.int64] | None
+    product: ProductGraph | None
+    scale: npt.NDArray[np.float64] | None
+    origin: Candidates
+    product_estimate: int
+
+    @property
+    def network_a(self) -> Network:
+        return self.inputs.network_a
+
+    @property
+    def network_b(self) -> Network:
+        return self.inputs.network_b
+
+    def with_options(self, **options: Any) -> "Problem":
+        """The same problem under other solve options (alpha, tol, solver, rounding, refinement,
+        permutations); options that would change the candidates or the product graph are refused."""
+        fixed = {"delimiter", "header", "directed", "weighted", "top_k", "min_score", "score_kind", "structural",
+                 "structural_weight", "seed_weight", "normalization", "max_memory"}
+        changed = sorted(k for k in fixed & set(options) if options[k] != getattr(self.config, k))
+        if changed:
+            raise InvalidParameterError(f"{changed[0]} changes the prepared candidates or product graph; prepare "
+                                        "a new problem instead", param=changed[0])
+        return dataclasses.replace(self, config=self.config.replace(**options))
+
+
+def prepare(network_a, network_b, prior=None, *, seeds=None, truth=None, config: AlignConfig | None = None,
+            with_product: bool = True, clock: Clock | None = None, **options: Any) -> Problem:
+    """Read the inputs, choose the candidates and build the product graph: a :class:`Problem`.
+
+    ``with_product=False`` skips the product graph (local queries discover it on demand).
+    Other arguments as for :func:`align`.
+    """
+    cfg = from_options(AlignConfig, config, options)
+    clock = clock or Clock()
+    with clock.stage("read"):
+        inputs = read_inputs(network_a, network_b, prior, seeds=seeds, truth=truth, config=cfg)
+    with clock.stage("candidates"):
+        found = find_candidates(inputs, cfg)
+    cand = found.candidates
+    seed_idx = None if inputs.seeds is None else seed_index(cand, inputs.seeds)
+    h = prior_vector(cand.prior) if seed_idx is None else seed_vector(cand.prior, seed_idx, cfg.seed_weight)
+    product = scale = None
+    estimate = 0
+    if with_product:
+        estimate = _check_memory(inputs, cand, cfg)
+        with clock.stage("product"):
+            product = _build_product(inputs, cand, cfg)
+            scale = column_scale(product, cfg.normalization, pairs=cand.pairs,
+                                 deg_a=inputs.network_a.strength(cfg.directed, cfg.weighted),
+                                 deg_b=inputs.network_b.strength(cfg.directed, cfg.weighted))
+    return Problem(cfg, inputs, cand, h, seed_idx, product, scale, found, estimate)
+
+
+# --------------------------------------------------------------------------- solve, match, improve
+
+def solve(problem: Problem, *, x0: npt.ArrayLike | None = None) -> DiffusionResult:
+    """The diffusion x = alpha P x + (1 - alpha) h on the problem's product graph, to ``config.tol``.
+
+    ``x0`` warm-starts the solver (the sweep passes the solution at the previous alpha).
+    """
+    if problem.product is None:
+        raise InvalidParameterError("this problem was prepared without its product graph (with_product=False); "
+                                    "prepare it with the product graph to solve it", param="with_product")
+    cfg = problem.config
+    return diffuse(problem.product, problem.h, problem.scale, alpha=cfg.alpha, tol=cfg.tol, solver=cfg.solver,
+                   x0=x0)
+
+
+def match(problem: Problem, diffusion: DiffusionResult) -> Matching:
+    """The maximum-weight one-to-one matching of the candidates under the diffusion scores,
+    with the seed pairs fixed (their nodes out of the competition)."""
+    if problem.seed_index is None:
+        return round_matching(problem.candidates, diffusion.x, method=problem.config.rounding)
+    return round_with_fixed(problem.candidates, diffusion.x, problem.seed_index, method=problem.config.rounding)
+
+
+@dataclass(frozen=True, eq=False)
+class Improvement:
+    """The matching after refinement, the rounded one it started from, and the refinement's record.
+
+    ``refined`` is None when refinement was off (``config.refine`` false or alpha 0) or its
+    result was not used (``note`` says why).
+    """
+
     matching: Matching
+    rounded: Matching
+    refined: RefineResult | None
+    note: str | None = None
+
+    @property
+    def ran(self) -> bool:
+        return self.refined is not None or self.note is not None
+
+
+def improve(problem: Problem, diffusion: DiffusionResult, rounded: Matching) -> Improvement:
+    """Refine the rounded matching for conserved edges (see :func:`aligner.core.refine.refine_matching`).
+
+    Off when ``config.refine`` is false or alpha is 0 (which asks for the prior's own matching).
+    A refined matching that moves a seed pair is not used.
+    """
+    cfg = problem.config
+    if not cfg.refine or cfg.alpha == 0:
+        return Improvement(rounded, rounded, None)
+    prod = problem.product.symmetrised() if cfg.directed else problem.product
+    refined = refine_matching(prod, problem.candidates, diffusion.x, rounded.index, beta=cfg.beta,
+                              max_iter=cfg.refine_iter, method=cfg.rounding)
+    if problem.seed_index is not None and not np.isin(problem.seed_index, refined.index).all():
+        return Improvement(rounded, rounded, None, "refinement moved a seed pair, so its matching was not used")
+    final = Matching(index=refined.index, method=rounded.method, weight=float(diffusion.x[refined.index].sum()),
+                     seconds=rounded.seconds)
+    return Improvement(final, rounded, refined)
+
+
+# --------------------------------------------------------------------------- evaluate
+
+@dataclass(frozen=True, eq=False)
+class Evaluation:
+    """Scores of the final matching (and of the rounded one when refinement changed it), the
+    tables written to the output files, and the significance and seed figures."""
+
     scores: Scores
+    scores_before: Scores | None
     pairs: pd.DataFrame
     conserved_edges: pd.DataFrame
-    summary: dict = field(default_factory=dict)
+    significance: dict
+    seeds: dict | None
 
 
-def _conserved_frame(net_a: Network, net_b: Network, matched: np.ndarray, cons: np.ndarray,
-                     directed: bool = False) -> pd.DataFrame:
+def _score(inputs: Inputs, matched: np.ndarray, cfg: AlignConfig) -> tuple[Scores, np.ndarray]:
+    ea, wa = inputs.network_a.scored_edges(cfg.directed)
+    eb, wb = inputs.network_b.scored_edges(cfg.directed)
+    truth = None if inputs.truth is None else inputs.truth.pairs
+    return score_matching(ea, eb, matched, inputs.network_a.n, inputs.network_b.n, truth=truth,
+                          directed=cfg.directed, weights_a=wa if cfg.weighted else None,
+                          weights_b=wb if cfg.weighted else None)
+
+
+def conserved_frame(net_a: Network, net_b: Network, matched: np.ndarray, cons: np.ndarray,
+                    directed: bool = False) -> pd.DataFrame:
+    """The conserved edges of A with their images in B, by name."""
     f = np.full(net_a.n, -1, dtype=np.int64)
     f[matched[:, 0]] = matched[:, 1]
     ce = net_a.scored_edges(directed)[0][cons]
-    return pd.DataFrame({
-        "node_a1": net_a.names[ce[:, 0]], "node_a2": net_a.names[ce[:, 1]],
-        "node_b1": net_b.names[f[ce[:, 0]]], "node_b2": net_b.names[f[ce[:, 1]]],
-    })
+    return pd.DataFrame({"node_a1": net_a.names[ce[:, 0]], "node_a2": net_a.names[ce[:, 1]],
+                         "node_b1": net_b.names[f[ce[:, 0]]], "node_b2": net_b.names[f[ce[:, 1]]]})
 
+
+def _pairs_frame(problem: Problem, diffusion: DiffusionResult, index: np.ndarray, cons: np.ndarray) -> pd.DataFrame:
+    net_a, net_b, cand = problem.network_a, problem.network_b, problem.candidates
+    matched = cand.pairs[index].astype(np.int64)
+    per_node = conserved_per_node(net_a.scored_edges(problem.config.directed)[0], cons, net_a.n)
+    return pd.DataFrame({"node_a": net_a.names[matched[:, 0]], "node_b": net_b.names[matched[:, 1]],
+                         "score": diffusion.x[index], "prior": cand.prior[index],
+                         "conserved": per_node[matched[:, 0]],
+                         "confidence": pair_confidence(cand, diffusion.x, index)})
+
+
+def evaluate(problem: Problem, diffusion: DiffusionResult, improvement: Improvement, *,
+             permutation_progress: Callable[[int, int], None] | None = None) -> Evaluation:
+    """Score the final matching: EC, ICS, S3, LCCS, NC; the output tables; significance; seed figures."""
+    cfg, inputs, cand = problem.config, problem.inputs, problem.candidates
+    index = improvement.matching.index
+    matched = cand.pairs[index].astype(np.int64)
+    scores, cons = _score(inputs, matched, cfg)
+    before = None
+    if improvement.refined is not None:
+        before = _score(inputs, cand.pairs[improvement.rounded.index].astype(np.int64), cfg)[0]
+    if cfg.directed:
+        sig = {"skipped": "not computed for directed networks: its null model counts undirected edges"}
+    else:
+        sig = significance(inputs.network_a.edges, inputs.network_b.edges, cand, matched, scores.conserved_edges,
+                           permutations=cfg.permutations, seed=cfg.permutation_seed, progress=permutation_progress)
+    seeds = None
+    if inputs.seeds is not None:
+        seeds = seed_summary(inputs.network_a, inputs.network_b, matched, inputs.seeds,
+                             truth=None if inputs.truth is None else inputs.truth.pairs)
+        expansion = problem.origin.expansion
+        seeds["expansion"] = None if expansion is None else expansion.report()
+    return Evaluation(scores, before, _pairs_frame(problem, diffusion, index, cons),
+                      conserved_frame(inputs.network_a, inputs.network_b, matched, cons, cfg.directed), sig, seeds)
+
+
+# --------------------------------------------------------------------------- summary
 
 def _network_summary(net: Network) -> dict:
     out = {"source": str(net.source), "nodes": net.n, "edges": net.n_edges,
@@ -113,129 +438,153 @@ def _network_summary(net: Network) -> dict:
     return out
 
 
-def _check_modes(net_a: Network, net_b: Network, weighted: bool) -> None:
-    """Refuse --weighted when a network has no weight column."""
-    if weighted:
-        for net, side in ((net_a, "A"), (net_b, "B")):
-            if net.weights is None:
-                raise InvalidParameterError(f"The 'weighted' parameter of align needs edge weights, but network "
-                                            f"{side} ({net.source}) has no third column of weights.")
+def _inputs_summary(inputs: Inputs) -> dict:
+    p, t = inputs.prior, inputs.truth
+    return {
+        "network_a": _network_summary(inputs.network_a),
+        "network_b": _network_summary(inputs.network_b),
+        "prior": None if p is None else {
+            "source": str(p.source), "rows": p.n_rows, "unknown_node_rows": p.n_unknown,
+            "unknown_examples": p.unknown_examples, "dropped_by_score_kind": p.n_dropped_kind,
+            "duplicate_pairs_merged": p.n_duplicates, "pairs": int(len(p.pairs))},
+        "truth": None if t is None else {"source": str(t.source), "rows": t.n_rows, "unknown_node_rows": t.n_unknown},
+    }
 
 
-def _scores_of(net_a: Network, net_b: Network, matched, truth_pairs, directed: bool, weighted: bool):
-    ea, wa = net_a.scored_edges(directed)
-    eb, wb = net_b.scored_edges(directed)
-    return score_matching(ea, eb, matched, net_a.n, net_b.n, truth=truth_pairs, directed=directed,
-                          weights_a=wa if weighted else None, weights_b=wb if weighted else None)
+def _refine_summary(improvement: Improvement) -> dict | None:
+    if not improvement.ran:
+        return None
+    if improvement.refined is None:
+        return {"skipped": improvement.note}
+    r = improvement.refined
+    return r.report() | {"objective_per_iteration": r.objective,
+                         "conserved_edges_gained": r.conserved_after - r.conserved_before}
 
 
-def align(
-    network_a,
-    network_b,
-    prior=None,
-    *,
-    alpha: float = 0.9,
-    top_k: int | None = 25,
-    min_score: float = 0.0,
-    score_kind: str = "similarity",
-    solver: str = "push",
-    tol: float = 1e-6,
-    normalization: str = "restricted",
-    rounding: str = "auto",
-    truth=None,
-    delimiter: str | None = None,
-    header: str = "auto",
-    max_memory: float | None = None,
-    progress: Callable[[str], None] | None = None,
-    seeds=None,
-    seed_weight: float = DEFAULT_SEED_WEIGHT,
-    permutations: int = 0,
-    permutation_seed: int = 0,
-    permutation_progress: Callable[[int, int], None] | None = None,
-    refine: bool = True,
-    beta: float = DEFAULT_BETA,
-    refine_iter: int = DEFAULT_MAX_ITER,
-    directed: bool = False,
-    weighted: bool = False,
-    structural: bool = False,
-    structural_weight: float = 0.5,
-) -> AlignmentResult:
-    """Align two networks: a one-to-one map between their nodes.
+def summarize(problem: Problem, diffusion: DiffusionResult, improvement: Improvement, evaluation: Evaluation,
+              timings: dict[str, float]) -> dict:
+    """The run's record, as written to ``summary.json`` (schema in docs/formats.md)."""
+    cfg, cand, scores = problem.config, problem.candidates, evaluation.scores
+    cov_a, cov_b = cand.coverage()
+    match_ = improvement.matching
+    est = problem.product_estimate
+    summary = {
+        "version": __version__,
+        "inputs": _inputs_summary(problem.inputs),
+        "parameters": cfg.as_dict() | {"refine": improvement.ran,
+                                       "structural": problem.origin.structural is not None},
+        "sizes": {"candidates": cand.m, "coverage_a": cov_a, "coverage_b": cov_b,
+                  "product_edges": problem.product.n_edges,
+                  "product_edges_estimate": est if cfg.directed else est // 2, "matched_pairs": scores.n_matched},
+        "scores": scores.as_dict() | ({"nc_detail": scores.nc_detail} if scores.nc_detail else {}),
+        "solver": diffusion.report() | {"rounding": match_.method, "matched_weight": match_.weight,
+                                        "rounding_seconds": round(match_.seconds, 4)},
+        "timings": dict(timings),
+        "structural": problem.origin.structural,
+        "refine": _refine_summary(improvement),
+    }
+    if evaluation.scores_before is not None:
+        summary["scores_before_refine"] = evaluation.scores_before.as_dict()
+    if evaluation.seeds is not None:
+        summary["seeds"] = evaluation.seeds
+    summary["significance"] = evaluation.significance
+    return summary
+
+
+# --------------------------------------------------------------------------- align
+
+@dataclass(frozen=True, eq=False)
+class AlignmentResult:
+    """Everything a run produced.
+
+    Attributes
+    ----------
+    problem : Problem
+        The prepared problem (networks, candidates, product graph, h, options).
+    diffusion : DiffusionResult
+        Solver figures: steps, edge touches, residual and error bound, and x.
+    matching : Matching
+        The final one-to-one matching (after refinement when it ran).
+    improvement : Improvement
+        The rounded matching and the refinement's record.
+    scores : Scores
+        EC, ICS, S3, largest common connected subgraph, NC (with a truth table).
+    pairs : DataFrame
+        One row per matched pair: ``node_a``, ``node_b``, ``score`` (diffusion score), ``prior``
+        (prior similarity after the score-kind transformation), ``conserved`` (conserved edges at
+        the pair), ``confidence`` (margin over the best competing candidate).
+    conserved_edges : DataFrame
+        The conserved edges of A (``node_a1``, ``node_a2``) and their images (``node_b1``, ``node_b2``).
+    summary : dict
+        The run's record as written to ``summary.json``.
+    """
+
+    problem: Problem
+    diffusion: DiffusionResult
+    improvement: Improvement
+    evaluation: Evaluation
+    summary: dict
+
+    config = property(lambda self: self.problem.config)
+    network_a = property(lambda self: self.problem.network_a)
+    network_b = property(lambda self: self.problem.network_b)
+    candidates = property(lambda self: self.problem.candidates)
+    product = property(lambda self: self.problem.product)
+    matching = property(lambda self: self.improvement.matching)
+    scores = property(lambda self: self.evaluation.scores)
+    pairs = property(lambda self: self.evaluation.pairs)
+    conserved_edges = property(lambda self: self.evaluation.conserved_edges)
+
+
+def run_stages(problem: Problem, clock: Clock, *, x0=None, permutation_progress=None) -> AlignmentResult:
+    """Solve, match, improve, evaluate and summarize a prepared problem."""
+    with clock.stage("diffusion"):
+        diffusion = solve(problem, x0=x0)
+    with clock.stage("rounding"):
+        rounded = match(problem, diffusion)
+    refining = problem.config.refine and problem.config.alpha > 0
+    with clock.stage("refine") if refining else nullcontext():
+        improvement = improve(problem, diffusion, rounded)
+    with clock.stage("scoring"):
+        evaluation = evaluate(problem, diffusion, improvement, permutation_progress=permutation_progress)
+    return AlignmentResult(problem, diffusion, improvement, evaluation,
+                           summarize(problem, diffusion, improvement, evaluation, clock.timings))
+
+
+def align(network_a, network_b, prior=None, *, seeds=None, truth=None, config: AlignConfig | None = None,
+          progress: Callable[[str], None] | None = None,
+          permutation_progress: Callable[[int, int], None] | None = None, **options: Any) -> AlignmentResult:
+    """Align two networks: a one-to-one map between their nodes."""
+    clock = Clock(progress)
+    problem = prepare(network_a, network_b, prior, seeds=seeds, truth=truth, config=config, clock=clock, **options)
+    return run_stages(problem, clock, permutation_progress=permutation_progress)
+
+
+_DATA_PARAMETERS = """\
+    network_a, network_b : path, networkx.Graph, pandas.DataFrame or Network
+        The two networks (edge lists: node, node[, weight]).
+    prior : path or pandas.DataFrame, optional
+        The prior similarity table: node of A, node of B, score. Left out, the candidates and their
+        prior come from structure: grown from the ``seeds`` through the wiring when seeds are given,
+        else each node's ``top_k`` nearest nodes of the other network in structural-feature space.
+    seeds : path, DataFrame or iterable of pairs, optional
+        Anchor pairs (node of A, node of B) known to correspond: fixed in the matching, extra
+        diffusion sources, reported apart in ``summary["seeds"]``.
+    truth : path, DataFrame or iterable of pairs, optional
+        Known true pairs, for node correctness.
+    config : AlignConfig, optional
+        The options as one object; keyword options below override its fields.
+    progress : callable, optional
+        Called with the name of each stage (:data:`STAGES`) as it starts.
+    permutation_progress : callable, optional
+        ``permutation_progress(done, total)`` after each random map of ``permutations``."""
+
+align.__doc__ += f"""
 
     Parameters
     ----------
-    network_a, network_b : path, networkx.Graph, pandas.DataFrame or Network
-        The two undirected networks (edge lists: node, node[, weight]).
-    prior : path or pandas.DataFrame, optional
-        The prior similarity table: node of A, node of B, score. Left out, the candidates
-        and their prior come from structure: grown from the ``seeds`` through the wiring when
-        seeds are given (see :func:`aligner.priors.seeds.expand_from_seeds`), else each node's
-        ``top_k`` nearest nodes of the other network in structural-feature space (see
-        :func:`aligner.priors.structural.structural_candidates`).
-    alpha : float in [0, 1)
-        Weight of the wiring against the prior in the diffusion; 0 returns the prior.
-    top_k : int >= 1 or None
-        Candidates: every node's ``top_k`` best prior pairs on each side (their union).
-    min_score : float
-        Prior pairs below this score (after the score-kind transformation) are dropped.
-    score_kind : {"similarity", "evalue", "distance"}
-        How to read the prior scores: similarity (higher is better), E-value (smaller is
-        better; -log10, capped at 310 for 0; rows with E > 1 dropped), distance (smaller is
-        better; 1 / (1 + d)).
-    solver : {"push", "power"}
-        Diffusion solver.
-    tol : float > 0
-        1-norm residual tolerance of the diffusion (the prior sums to 1).
-    normalization : {"restricted", "product"}
-        Random-walk normalisation of the product graph (see :func:`aligner.core.diffusion.column_scale`).
-    rounding : {"auto", "sparse", "dense", "scipy"}
-        Linear-assignment solver (see :func:`aligner.core.rounding.round_matching`).
-    truth : path, DataFrame or iterable of pairs, optional
-        Known true pairs, for node correctness.
-    delimiter, header :
-        How to read the input files (see :func:`aligner.io.readers.read_network`).
-    max_memory : float, optional
-        Memory budget in bytes for the product graph; default half the machine's memory.
-    progress : callable, optional
-        Called with the name of each stage as it starts.
-    seeds : path, DataFrame or iterable of pairs, optional
-        Anchor pairs (node of A, node of B) known to correspond: fixed in the matching, extra
-        diffusion sources, and reported apart in ``summary["seeds"]`` (see :mod:`aligner.priors.seeds`).
-    seed_weight : float >= 0
-        Total mass of the seed pairs in h relative to the prior's (default 1: as much as the
-        whole prior); 0 keeps them out of h (they stay fixed).
-    refine : bool
-        Refine the rounded matching for conserved edges (on by default): Frank–Wolfe steps
-        on β·(normalised diffusion weight) + (conserved edges), then a local search; see
-        :func:`aligner.core.refine.refine_matching`. With seeds, a refined matching that moves a
-        seed pair is not used. Off when ``alpha = 0``, which returns the prior's own matching.
-    beta : float >= 0
-        Weight of the normalised diffusion weight of a matched pair against one conserved
-        edge in the refinement (default 0.1).
-    refine_iter : int >= 0
-        Cap on refinement iterations (default 30).
-    directed : bool
-        Read the edge lists as arcs (first column -> second). The product graph follows the
-        arcs, (i, i') -> (j, j') when i -> j and i' -> j', and the walk divides by out-degree
-        (a pair with no out-arcs gives a zero column: P is sub-stochastic there); an edge is
-        conserved only onto an arc pointing the same way, and EC, ICS and S3 count arcs. The
-        refinement counts conserved arcs; the significance figures are not computed.
-    weighted : bool
-        Use the edge weights (the third column of both edge lists): the product entry of
-        (i, i') and (j, j') weighs w_A(i, j) w_B(i', j') and the walk divides by strength
-        (summed weights) instead of degree; the scores gain the conserved weight and weighted
-        EC (see :class:`aligner.core.scoring.Scores`). The refinement still counts edges.
-    structural : bool
-        Add structural candidates (as used when there is no prior) to the prior's: the union
-        of the pairs, each table rescaled to a maximum of 1, a pair scoring
-        prior + ``structural_weight`` * structural (see :func:`aligner.priors.structural.combine_priors`).
-        For a weak prior that misses true partners.
-    structural_weight : float >= 0
-        Weight of the structural similarity against the prior's with ``structural``.
-    permutations : int >= 0
-        Random candidate maps for the empirical p-value of the conserved edges (0: only the
-        closed-form null; see :mod:`aligner.core.significance`), drawn with ``permutation_seed``;
-        ``permutation_progress(done, total)`` is called after each.
+{_DATA_PARAMETERS}
+{describe(AlignConfig)}
 
     Returns
     -------
@@ -245,227 +594,42 @@ def align(
     ------
     InputFormatError, InvalidParameterError, NoCandidatesError, MemoryBudgetError, ConvergenceError
 
+    Notes
+    -----
+    The composition of the stages: :func:`prepare` (:func:`read_inputs`, :func:`find_candidates`,
+    the product graph), :func:`solve`, :func:`match`, :func:`improve`, :func:`evaluate`,
+    :func:`summarize`. Method and references: docs/method.md.
+
     Examples
     --------
     >>> import networkx as nx, pandas as pd
     >>> g = nx.path_graph(3)
-    >>> prior = pd.DataFrame({"a": ["0", "1", "2"], "b": ["0", "1", "2"], "s": [1.0, 1.0, 1.0]})
+    >>> prior = pd.DataFrame({{"a": ["0", "1", "2"], "b": ["0", "1", "2"], "s": [1.0, 1.0, 1.0]}})
     >>> res = align(g, g, prior)
     >>> res.scores.conserved_edges, res.scores.ec
     (2, 1.0)
     """
-    where = "align"
-    alpha = check_real(alpha, "alpha", low=0.0, high=1.0, closed="left")
-    if top_k is not None:
-        top_k = check_int(top_k, "top_k", low=1)
-    min_score = check_real(min_score, "min_score")
-    score_kind = check_choice(score_kind, "score_kind", SCORE_KINDS)
-    solver = check_choice(solver, "solver", SOLVERS)
-    tol = check_real(tol, "tol", low=0.0, closed="neither")
-    normalization = check_choice(normalization, "normalization", NORMALIZATIONS)
-    rounding = check_choice(rounding, "rounding", METHODS)
-    permutations = check_int(permutations, "permutations", low=0)
-    beta = check_real(beta, "beta", low=0.0)
-    refine_iter = check_int(refine_iter, "refine_iter", low=0)
-    seed_weight = check_real(seed_weight, "seed_weight", low=0.0)
-    structural_weight = check_real(structural_weight, "structural_weight", low=0.0)
-    structural = bool(structural) or (prior is None and seeds is None)
-    say = progress or (lambda stage: None)
-    timings: dict[str, float] = {}
-
-    def stage(name: str):
-        say(name)
-        timings[name] = time.perf_counter()
-
-    def done(name: str):
-        timings[name] = round(time.perf_counter() - timings[name], 4)
-
-    stage("read")
-    net_a = as_network(network_a, delimiter=delimiter, header=header, name="network_a", directed=directed)
-    net_b = as_network(network_b, delimiter=delimiter, header=header, name="network_b", directed=directed)
-    _check_modes(net_a, net_b, weighted)
-    prior_t = None if prior is None else as_prior(prior, net_a, net_b, score_kind, delimiter, header)
-    seeds_t = None if seeds is None else as_seeds(seeds, net_a, net_b, delimiter=delimiter, header=header)
-    truth_t = None if truth is None else known_pairs(
-        as_pairs(truth, net_a, net_b, "truth table", delimiter, header), "truth table")
-    done("read")
-    if prior_t is not None and prior_t.n_unknown:
-        warnings.warn(f"{prior_t.n_unknown} of {prior_t.n_rows} prior rows name a node missing from its network "
-                      f"and were skipped (for example {', '.join(prior_t.unknown_examples)})", AlignerWarning,
-                      stacklevel=2)
-    if truth_t is not None and truth_t.n_unknown:
-        warnings.warn(f"{truth_t.n_unknown} of {truth_t.n_rows} truth rows name a node missing from its network "
-                      f"and were skipped (for example {', '.join(truth_t.unknown_examples)})", AlignerWarning,
-                      stacklevel=2)
-    if prior_t is not None and len(prior_t.pairs) == 0:
-        hint = ""
-        if prior_t.n_unknown == prior_t.n_rows and prior_t.n_rows:
-            hint = (" None of its rows names a node of network A in the first column and a node of network B "
-                    "in the second: are the columns swapped, or are these the wrong networks?")
-        raise NoCandidatesError(f"{prior_t.source}: no usable prior pair is left.{hint}")
-
-    stage("candidates")
-    expansion = None
-    struct_info = None
-    if structural:  # structural nearest neighbours, alone or added to the prior
-        s_pairs, s_scores = structural_candidates(net_a, net_b, k=top_k or 25)
-        struct_info = {"pairs": int(len(s_pairs)), "k": top_k or 25, "features": list(FEATURE_NAMES),
-                       "weight": None if prior_t is None else structural_weight}
-        if prior_t is not None:
-            ok = prior_t.scores >= min_score
-            s_pairs, s_scores = combine_priors(prior_t.pairs[ok], prior_t.scores[ok], s_pairs, s_scores, net_b.n,
-                                               weight=structural_weight)
-        cand = build_candidates(s_pairs, s_scores, net_a.n, net_b.n, top_k=top_k)
-    elif prior_t is None:  # seeds only: candidates grown from them through the wiring
-        expansion = expand_from_seeds(net_a, net_b, seeds_t, top_k=top_k)
-        cand = expansion.candidates
-    else:
-        cand = build_candidates(prior_t.pairs, prior_t.scores, net_a.n, net_b.n, min_score=min_score, top_k=top_k)
-    done("candidates")
-    if cand.m == 0 and struct_info is not None:
-        raise NoCandidatesError("no structural candidate pair: one of the networks has no node with an edge")
-    if cand.m == 0:
-        raise NoCandidatesError(f"{prior_t.source}: no prior pair scores at least the minimum score "
-                                f"{min_score:g}; lower --min-score (the highest score is "
-                                f"{prior_t.scores.max():g}).")
-    if seeds_t is not None:
-        cand = add_seed_pairs(cand, seeds_t)
-        seed_idx = seed_index(cand, seeds_t)
-
-    a_ip, a_ix, a_w = net_a.walk_adjacency(directed, weighted)
-    b_ip, b_ix, b_w = net_b.walk_adjacency(directed, weighted)
-    estimate = estimate_product_edges(a_ip, a_ix, b_ip, cand)
-    budget = _memory_budget(max_memory)
-    need = estimate * BYTES_PER_PRODUCT_ENTRY + cand.m * 64
-    if need > budget:
-        raise MemoryBudgetError(
-            f"the product graph over {cand.m:,} candidate pairs may have up to {estimate:,} stored entries "
-            f"(about {_gib(need)}), over the memory budget of {_gib(budget)}; lower "
-            "--top-k, raise --min-score, or raise --max-memory (in GiB)")
-
-    stage("product")
-    prod = build_product(a_ip, a_ix, b_ip, b_ix, cand, a_weights=a_w if weighted else None,
-                         b_weights=b_w if weighted else None, directed=directed)
-    done("product")
-
-    stage("diffusion")
-    h = prior_vector(cand.prior) if seeds_t is None else seed_vector(cand.prior, seed_idx, seed_weight)
-    scale = column_scale(prod, normalization, deg_a=net_a.strength(directed, weighted),
-                         deg_b=net_b.strength(directed, weighted), pairs=cand.pairs)
-    diff = diffuse(prod, h, scale, alpha=alpha, tol=tol, solver=solver)
-    done("diffusion")
-
-    stage("rounding")
-    if seeds_t is None:
-        match = round_matching(cand, diff.x, method=rounding)
-    else:  # seed pairs fixed, their nodes out of the competition
-        match = round_with_fixed(cand, diff.x, seed_idx, method=rounding)
-    done("rounding")
-
-    refined = None
-    refine_note = None
-    refine = refine and alpha > 0  # alpha = 0 asks for the prior's own matching
-    if refine:
-        stage("refine")
-        refined = refine_matching(prod.symmetrised() if directed else prod, cand, diff.x, match.index, beta=beta,
-                                  max_iter=refine_iter, method=rounding)
-        if seeds_t is not None and not np.isin(seed_idx, refined.index).all():
-            refine_note = "refinement moved a seed pair, so its matching was not used"
-            refined = None
-        done("refine")
-
-    stage("scoring")
-    truth_pairs = None if truth_t is None else truth_t.pairs
-    before = None
-    if refined is not None:
-        before, _ = _scores_of(net_a, net_b, cand.pairs[match.index].astype(np.int64), truth_pairs, directed,
-                               weighted)
-        match = Matching(index=refined.index, method=match.method, weight=float(diff.x[refined.index].sum()),
-                         seconds=match.seconds)
-    matched = cand.pairs[match.index].astype(np.int64)
-    scores, cons = _scores_of(net_a, net_b, matched, truth_pairs, directed, weighted)
-    per_node = conserved_per_node(net_a.scored_edges(directed)[0], cons, net_a.n)
-    pairs_df = pd.DataFrame({
-        "node_a": net_a.names[matched[:, 0]],
-        "node_b": net_b.names[matched[:, 1]],
-        "score": diff.x[match.index],
-        "prior": cand.prior[match.index],
-        "conserved": per_node[matched[:, 0]],
-        "confidence": pair_confidence(cand, diff.x, match.index),
-    })
-    cons_df = _conserved_frame(net_a, net_b, matched, cons, directed)
-    done("scoring")
-
-    cov_a, cov_b = cand.coverage()
-    summary = {
-        "version": __version__,
-        "inputs": {
-            "network_a": _network_summary(net_a),
-            "network_b": _network_summary(net_b),
-            "prior": None if prior_t is None else {
-                "source": str(prior_t.source), "rows": prior_t.n_rows, "unknown_node_rows": prior_t.n_unknown,
-                "unknown_examples": prior_t.unknown_examples, "dropped_by_score_kind": prior_t.n_dropped_kind,
-                "duplicate_pairs_merged": prior_t.n_duplicates, "pairs": int(len(prior_t.pairs))},
-            "truth": None if truth_t is None else {"source": str(truth_t.source), "rows": truth_t.n_rows,
-                                                    "unknown_node_rows": truth_t.n_unknown},
-        },
-        "parameters": {"alpha": alpha, "top_k": top_k, "min_score": min_score, "score_kind": score_kind,
-                       "solver": solver, "tol": tol, "normalization": normalization, "rounding": rounding,
-                       "directed": directed, "weighted": weighted},
-        "sizes": {"candidates": cand.m, "coverage_a": cov_a, "coverage_b": cov_b,
-                  "product_edges": prod.n_edges, "product_edges_estimate": estimate if directed else estimate // 2,
-                  "matched_pairs": scores.n_matched},
-        "scores": scores.as_dict(),
-        "solver": diff.report() | {"rounding": match.method, "matched_weight": match.weight,
-                                   "rounding_seconds": round(match.seconds, 4)},
-        "timings": timings,
-    }
-    if scores.nc_detail:
-        summary["scores"]["nc_detail"] = scores.nc_detail
-    summary["parameters"] |= {"refine": refine, "beta": beta, "refine_iter": refine_iter, "structural": structural}
-    summary["structural"] = struct_info
-    summary["refine"] = None if not refine else (
-        {"skipped": refine_note} if refined is None else
-        refined.report() | {"objective_per_iteration": refined.objective,
-                            "conserved_edges_gained": refined.conserved_after - refined.conserved_before})
-    if before is not None:
-        summary["scores_before_refine"] = before.as_dict()
-    if seeds_t is not None:
-        summary["parameters"]["seed_weight"] = seed_weight
-        summary["seeds"] = seed_summary(net_a, net_b, matched, seeds_t,
-                                        truth=None if truth_t is None else truth_t.pairs)
-        summary["seeds"]["expansion"] = None if expansion is None else expansion.report()
-    summary["significance"] = {"skipped": "not computed for directed networks: its null model counts "
-                                          "undirected edges"} if directed else _significance(
-        net_a.edges, net_b.edges, cand, matched, scores.conserved_edges, permutations=permutations,
-        seed=permutation_seed, progress=permutation_progress)
-    return AlignmentResult(net_a, net_b, cand, prod, diff, match, scores, pairs_df, cons_df, summary)
 
 
-def score(network_a, network_b, alignment, *, truth=None, delimiter: str | None = None,
-          header: str = "auto", directed: bool = False, weighted: bool = False) -> tuple[Scores, pd.DataFrame]:
+def score(network_a, network_b, alignment, *, truth=None, config: AlignConfig | None = None,
+          **options: Any) -> tuple[Scores, pd.DataFrame]:
     """Score an existing alignment (a table whose first two columns are node_a, node_b).
 
     Returns the scores and the conserved edges. Raises InputFormatError when a node is in two
-    pairs (the map must be one-to-one). ``directed`` and ``weighted`` as for :func:`align`.
+    pairs (the map must be one-to-one). Options (``directed``, ``weighted``, ``delimiter``,
+    ``header``) as for :func:`align`.
     """
-    net_a = as_network(network_a, delimiter=delimiter, header=header, name="network_a", directed=directed)
-    net_b = as_network(network_b, delimiter=delimiter, header=header, name="network_b", directed=directed)
-    _check_modes(net_a, net_b, weighted)
-    tab = known_pairs(as_pairs(alignment, net_a, net_b, "alignment", delimiter, header), "alignment")
-    if tab.n_unknown:
-        warnings.warn(f"{tab.n_unknown} of {tab.n_rows} alignment rows name a node missing from its network and "
-                      f"were skipped (for example {', '.join(tab.unknown_examples)})", AlignerWarning, stacklevel=2)
+    cfg = from_options(AlignConfig, config, options)
+    inputs = read_inputs(network_a, network_b, None, truth=truth, config=cfg)
+    tab = known_pairs(as_pairs(alignment, inputs.network_a, inputs.network_b, "alignment", cfg.delimiter,
+                               cfg.header), "alignment")
+    _warn_unknown(tab, "alignment")
     p = tab.pairs.astype(np.int64)
     for side, name in ((0, "A"), (1, "B")):
         u, c = np.unique(p[:, side], return_counts=True)
         if (c > 1).any():
-            node = (net_a if side == 0 else net_b).names[u[np.argmax(c > 1)]]
+            node = (inputs.network_a if side == 0 else inputs.network_b).names[u[np.argmax(c > 1)]]
             raise InputFormatError(f"node {node!r} of network {name} is in more than one pair; an alignment "
                                    "must be one-to-one", path=str(tab.source))
-    truth_t = None if truth is None else known_pairs(
-        as_pairs(truth, net_a, net_b, "truth table", delimiter, header), "truth table")
-    sc, cons = _scores_of(net_a, net_b, p, None if truth_t is None else truth_t.pairs, directed, weighted)
-    return sc, _conserved_frame(net_a, net_b, p, cons, directed)
-
-
+    sc, cons = _score(inputs, p, cfg)
+    return sc, conserved_frame(inputs.network_a, inputs.network_b, p, cons, cfg.directed)

@@ -16,6 +16,7 @@ import os
 import time
 import warnings
 from dataclasses import dataclass, field
+from typing import Any
 
 import numpy as np
 import numpy.typing as npt
@@ -23,19 +24,19 @@ import pandas as pd
 
 from aligner.kernels.query import _local_push, _reset_slots
 from aligner.checks import check_choice, check_int, check_real
-from aligner.core.candidates import CandidateSet, build_candidates
-from aligner.core.diffusion import NORMALIZATIONS
-from aligner.errors import AlignerWarning, ConvergenceError, InvalidParameterError, NoCandidatesError
+from aligner.core.candidates import CandidateSet
+from aligner.errors import AlignerWarning, ConvergenceError, InvalidParameterError
 from aligner.core.network import Network
-from aligner.priors.seeds import DEFAULT_SEED_WEIGHT, SeedTable, add_seed_pairs, as_seeds, expand_from_seeds, seed_index, seed_vector
+from aligner.config import NORMALIZATIONS, SIDES, AlignConfig, QueryConfig, describe, from_options, specs
+from aligner.pipeline import prepare
+from aligner.priors.seeds import SeedTable, seed_index, seed_vector
 
 __all__ = ["query", "QueryEngine", "QueryResult", "LocalSolution", "DEFAULT_QUERY_TOL", "SIDES"]
 
 #: Default push tolerance of a query, relative to the mass of its h (which is 1): an entry is
 #: pushed while its residual exceeds tol * deg_S, so every score is certified to within
 #: tol * deg_S / (1 - alpha) (see :class:`LocalSolution`).
-DEFAULT_QUERY_TOL = 1e-6
-SIDES = ("a", "b")
+DEFAULT_QUERY_TOL = QueryConfig.tol
 TABLE_COLUMNS = ["query", "side", "rank", "counterpart", "score", "error_bound", "prior", "support", "fixed"]
 WORK_COLUMNS = ["query", "side", "candidates", "seeds_near", "excluded_by_seeds", "pairs_touched", "pairs_expanded",
                 "degrees_counted", "product_edges_scanned", "search_probes", "pushes", "residual_l1", "eps",
@@ -149,10 +150,10 @@ class QueryEngine:
         Cap on the pushes of one query (default 10^8).
     """
 
-    def __init__(self, net_a: Network, net_b: Network, cand: CandidateSet, *, alpha: float = 0.9,
-                 tol: float = DEFAULT_QUERY_TOL, normalization: str = "restricted", seeds: SeedTable | None = None,
-                 seed_weight: float = DEFAULT_SEED_WEIGHT, max_pushes: int | None = None):
-        where = "QueryEngine"
+    def __init__(self, net_a: Network, net_b: Network, cand: CandidateSet, *, alpha: float = AlignConfig.alpha,
+                 tol: float = DEFAULT_QUERY_TOL, normalization: str = AlignConfig.normalization,
+                 seeds: SeedTable | None = None, seed_weight: float = AlignConfig.seed_weight,
+                 max_pushes: int | None = None):
         self.alpha = check_real(alpha, "alpha", low=0.0, high=1.0, closed="left")
         self.tol = check_real(tol, "tol", low=0.0, closed="neither")
         self.normalization = check_choice(normalization, "normalization", NORMALIZATIONS)
@@ -175,6 +176,14 @@ class QueryEngine:
         if seeds is not None and seeds.n:
             self._mate_a[seeds.pairs[:, 0]] = self._seed_idx
             self._mate_b[seeds.pairs[:, 1]] = self._seed_idx
+
+    @classmethod
+    def from_problem(cls, problem, query: QueryConfig | None = None) -> "QueryEngine":
+        """An engine over a prepared problem (:func:`aligner.pipeline.prepare`), with its options."""
+        cfg, q = problem.config, query or QueryConfig()
+        return cls(problem.network_a, problem.network_b, problem.candidates, alpha=cfg.alpha, tol=q.tol,
+                   normalization=cfg.normalization, seeds=problem.inputs.seeds, seed_weight=cfg.seed_weight,
+                   max_pushes=q.max_pushes)
 
     def warm_up(self) -> None:
         """Load (or compile) the push kernel, so that the first query's timing is its own."""
@@ -335,48 +344,57 @@ def _node_index(net: Network, name: str, side: str) -> int:
     return i
 
 
-def query(
-    network_a,
-    network_b,
-    prior=None,
-    *,
-    nodes,
-    side: str = "a",
-    top: int | None = 10,
-    seeds=None,
-    seed_weight: float = DEFAULT_SEED_WEIGHT,
-    alpha: float = 0.9,
-    tol: float = DEFAULT_QUERY_TOL,
-    top_k: int | None = 25,
-    min_score: float = 0.0,
-    score_kind: str = "similarity",
-    normalization: str = "restricted",
-    delimiter: str | None = None,
-    header: str = "auto",
-    max_pushes: int | None = None,
-) -> QueryResult:
+def _node_list(nodes) -> list[str]:
+    if isinstance(nodes, (str, os.PathLike)) or not hasattr(nodes, "__iter__"):
+        nodes = [nodes]
+    nodes = [str(v) for v in nodes]
+    if not nodes:
+        raise InvalidParameterError("nodes must name at least one node; got none", param="nodes")
+    return nodes
+
+
+def _split_options(config, query_config, options: dict) -> tuple[AlignConfig, QueryConfig]:
+    """Keyword options to the two configuration objects: the query's own first (its ``tol`` is
+    relative to the query's mass), the alignment's for the rest."""
+    own = {k: v for k, v in options.items() if k in specs(QueryConfig)}
+    rest = {k: v for k, v in options.items() if k not in own}
+    cfg = from_options(AlignConfig, config, rest)
+    if cfg.directed or cfg.weighted:
+        raise InvalidParameterError("counterpart queries read undirected, unweighted networks; drop "
+                                    f"{'directed' if cfg.directed else 'weighted'}",
+                                    param="directed" if cfg.directed else "weighted")
+    return cfg, from_options(QueryConfig, query_config, own)
+
+
+def _answer(engine: QueryEngine, name: str, node: int, qcfg: QueryConfig, other_names) -> tuple:
+    """One asked node's table, work figures and JSON record."""
+    side = qcfg.side
+    tab, work = engine.counterparts(node, side, qcfg.top)
+    if work["candidates"] == 0:
+        warnings.warn(f"{name!r} has no candidate pairs (no prior row, or none above the minimum score); "
+                      "it has no counterparts to rank", AlignerWarning, stacklevel=3)
+    tab["counterpart"] = other_names[tab["counterpart"].to_numpy()] if len(tab) else pd.Series(dtype=object)
+    tab.insert(0, "side", side)
+    tab.insert(0, "query", name)
+    record = {"query": name, "side": side, "counterparts": tab.drop(columns=["query", "side"])
+              .to_dict(orient="records"), "work": work}
+    return tab, {"query": name, "side": side} | work, record
+
+
+def query(network_a, network_b, prior=None, *, nodes, seeds=None, config: AlignConfig | None = None,
+          query: QueryConfig | None = None, **options: Any) -> QueryResult:
     """Which nodes of B best correspond to these nodes of A (or the reverse), without a global solve.
 
     Parameters
     ----------
-    network_a, network_b : path, networkx.Graph, pandas.DataFrame or Network
-    prior : path or DataFrame, optional
-        The prior similarity table; may be left out when ``seeds`` are given (the candidates
-        are then grown from the seeds, a global step).
+    network_a, network_b, prior, seeds, config :
+        As for :func:`aligner.align`; the prior may be left out when ``seeds`` are given (the
+        candidates are then grown from the seeds, a global step).
     nodes : str or iterable of str
         The asked nodes (of A for side "a", of B for side "b").
-    side : {"a", "b"}
-    top : int or None
-        Counterparts listed per node (None: all its candidates).
-    seeds, seed_weight :
-        Anchor pairs and their weight in h, as for :func:`aligner.align`.
-    alpha, top_k, min_score, score_kind, normalization, delimiter, header :
-        As for :func:`aligner.align`.
-    tol : float > 0
-        Push tolerance relative to the mass of the query's h: every score is certified to
-        within tol * support / (1 - alpha) of the exact solution (see :class:`LocalSolution`).
-    max_pushes : int, optional
-        Cap on the pushes of one query.
+    query : QueryConfig, optional
+        The query's own options; keyword options override it.
+{options}
 
     Returns
     -------
@@ -384,83 +402,43 @@ def query(
 
     Notes
     -----
-    The query's h is align's h restricted to the asked node's candidate pairs (and to the
-    seed pairs next to the node) and normalised to sum 1; the push runs to the tolerance
-    ``tol`` relative to that mass. The scores are those of the exact solution of
-    x = alpha P x + (1 - alpha) h over the whole candidate set, to within the certified
-    bound; the product graph is not built.
+    The query starts from the same prepared problem as :func:`aligner.align`
+    (:func:`aligner.pipeline.prepare`, without the product graph). Its h is align's h restricted
+    to the asked node's candidate pairs (and to the seed pairs next to the node) and normalised to
+    sum 1; the push runs to the tolerance ``tol`` relative to that mass. The scores are those of
+    the exact solution of x = alpha P x + (1 - alpha) h over the whole candidate set, to within
+    the certified bound; the product graph is not built.
     """
-    from aligner.io.inputs import as_network, as_prior
-
-    where = "query"
-    side = check_choice(side, "side", SIDES)
-    if top is not None:
-        top = check_int(top, "top", low=1)
-    alpha = check_real(alpha, "alpha", low=0.0, high=1.0, closed="left")
-    tol = check_real(tol, "tol", low=0.0, closed="neither")
-    if top_k is not None:
-        top_k = check_int(top_k, "top_k", low=1)
-    min_score = check_real(min_score, "min_score")
-    normalization = check_choice(normalization, "normalization", NORMALIZATIONS)
-    seed_weight = check_real(seed_weight, "seed_weight", low=0.0)
-    if isinstance(nodes, (str, os.PathLike)) or not hasattr(nodes, "__iter__"):
-        nodes = [nodes]
-    nodes = [str(v) for v in nodes]
-    if not nodes:
-        raise InvalidParameterError("The 'nodes' parameter of query must name at least one node (--node).")
+    cfg, qcfg = _split_options(config, query, options)
+    nodes = _node_list(nodes)
     if prior is None and seeds is None:
         raise InvalidParameterError("query needs a prior or seeds: give a prior similarity table (--prior), or "
-                                    "anchor pairs (--seeds).")
+                                    "anchor pairs (--seeds)", param="prior")
     t0 = time.perf_counter()
-    net_a = as_network(network_a, delimiter=delimiter, header=header, name="network_a")
-    net_b = as_network(network_b, delimiter=delimiter, header=header, name="network_b")
-    seeds_t = None if seeds is None else as_seeds(seeds, net_a, net_b, delimiter=delimiter, header=header)
-    asked = [_node_index(net_a if side == "a" else net_b, v, side) for v in nodes]
-    if prior is not None:
-        prior_t = as_prior(prior, net_a, net_b, score_kind, delimiter, header)
-        if prior_t.n_unknown:
-            warnings.warn(f"{prior_t.n_unknown} of {prior_t.n_rows} prior rows name a node missing from its "
-                          f"network and were skipped (for example {', '.join(prior_t.unknown_examples)})",
-                          AlignerWarning, stacklevel=2)
-        cand = build_candidates(prior_t.pairs, prior_t.scores, net_a.n, net_b.n, min_score=min_score, top_k=top_k)
-        if cand.m == 0 and seeds_t is None:
-            raise NoCandidatesError(f"{prior_t.source}: no usable prior pair is left (after the minimum score "
-                                    f"{min_score:g}).")
-    else:
-        cand = expand_from_seeds(net_a, net_b, seeds_t, top_k=top_k).candidates
-    if seeds_t is not None:
-        cand = add_seed_pairs(cand, seeds_t)
-    engine = QueryEngine(net_a, net_b, cand, alpha=alpha, tol=tol, normalization=normalization, seeds=seeds_t,
-                         seed_weight=seed_weight, max_pushes=max_pushes)
+    problem = prepare(network_a, network_b, prior, seeds=seeds, config=cfg, with_product=False)
+    net_a, net_b = problem.network_a, problem.network_b
+    asked = [_node_index(net_a if qcfg.side == "a" else net_b, v, qcfg.side) for v in nodes]
+    engine = QueryEngine.from_problem(problem, qcfg)
     engine.warm_up()
     prep = time.perf_counter() - t0
-    tables, works, records = [], [], []
-    other_names = net_b.names if side == "a" else net_a.names
-    for name, node in zip(nodes, asked):
-        tab, work = engine.counterparts(node, side, top)
-        if work["candidates"] == 0:
-            warnings.warn(f"{name!r} has no candidate pairs (no prior row, or none above the minimum score); "
-                          "it has no counterparts to rank", AlignerWarning, stacklevel=2)
-        tab["counterpart"] = other_names[tab["counterpart"].to_numpy()] if len(tab) else pd.Series(dtype=object)
-        tab.insert(0, "side", side)
-        tab.insert(0, "query", name)
-        tables.append(tab)
-        works.append({"query": name, "side": side} | work)
-        records.append({"query": name, "side": side, "counterparts": tab.drop(columns=["query", "side"])
-                        .to_dict(orient="records"), "work": work})
-    table = pd.concat(tables, ignore_index=True) if tables else pd.DataFrame(columns=TABLE_COLUMNS)
-    table = table[TABLE_COLUMNS]
-    work_df = pd.DataFrame(works)
+    other_names = net_b.names if qcfg.side == "a" else net_a.names
+    answers = [_answer(engine, name, node, qcfg, other_names) for name, node in zip(nodes, asked)]
+    tables, works, records = zip(*answers)
+    table = pd.concat(tables, ignore_index=True)[TABLE_COLUMNS]
     summary = {
-        "parameters": {"side": side, "top": top, "alpha": alpha, "tol": tol, "top_k": top_k, "min_score": min_score,
-                       "score_kind": score_kind, "normalization": normalization,
-                       "seed_weight": seed_weight if seeds_t is not None else None},
-        "sizes": {"nodes_a": net_a.n, "nodes_b": net_b.n, "candidates": cand.m,
-                  "seeds": 0 if seeds_t is None else seeds_t.n},
+        "parameters": {"side": qcfg.side, "top": qcfg.top, "alpha": cfg.alpha, "tol": qcfg.tol, "top_k": cfg.top_k,
+                       "min_score": cfg.min_score, "score_kind": cfg.score_kind, "normalization": cfg.normalization,
+                       "seed_weight": cfg.seed_weight if problem.inputs.seeds is not None else None},
+        "sizes": {"nodes_a": net_a.n, "nodes_b": net_b.n, "candidates": problem.candidates.m,
+                  "seeds": 0 if problem.inputs.seeds is None else problem.inputs.seeds.n},
         "preparation_seconds": round(prep, 4),
-        "queries": records,
+        "queries": list(records),
     }
-    return QueryResult(table=table, work=work_df, summary=_jsonable(summary))
+    return QueryResult(table=table, work=pd.DataFrame(list(works)), summary=_jsonable(summary))
+
+
+query.__doc__ = query.__doc__.format(options=describe(QueryConfig) + "\n" + describe(
+    AlignConfig, ["alpha", "top_k", "min_score", "score_kind", "normalization", "seed_weight", "delimiter", "header"]))
 
 
 def _jsonable(obj):

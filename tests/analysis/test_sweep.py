@@ -34,30 +34,77 @@ def test_knee_of_known_curves():
     assert knee_index([0, 1], [0, 5]) is None
 
 
-def test_sweep_matches_separate_runs(tmp_path):
-    # reference: the pipeline itself — each alpha of a sweep equals an independent align run at that
-    # alpha up to the solver tolerance (warm starts change x by at most 2 tol / (1 - alpha))
+def _same_or_certified_tie(cand, x_sweep, x_align, idx_sweep, idx_align, bound):
+    """True when two roundings agree, or differ only as far as the solver's bound allows.
+
+    Each x is within its error bound (1-norm) of the exact solution, so for any matching M the
+    two weights differ by at most ``bound`` = sum of both bounds; if the sweep's matching were
+    not optimal for align's x by more than 2 * bound, the two could not both be optimal roundings
+    (common practice: perturbation bound of a linear objective).
+    """
+    if np.array_equal(np.sort(idx_sweep), np.sort(idx_align)):
+        return True
+    return x_align[idx_align].sum() - x_align[idx_sweep].sum() <= 2 * bound
+
+
+@pytest.mark.parametrize("refine", [True, False])
+def test_sweep_rows_equal_align_at_each_alpha(tmp_path, refine):
+    # Reference: align itself at each alpha with the same options (issue: the first row of a sweep
+    # was refined and the others were not). The first alpha is > 0, so the first row is a real solve.
     a, b, p, t = _write(tmp_path)
-    res = sweep(a, b, p, alphas=[0.9, 0.0, 0.5, 0.5], truth=t, tol=1e-9)
+    res = sweep(a, b, p, alphas=[0.9, 0.5, 0.7, 0.7], truth=t, refine=refine)
     assert list(res.table.columns) == list(SWEEP_COLUMNS)
-    assert res.table["alpha"].tolist() == [0.0, 0.5, 0.9]  # sorted, duplicates dropped
-    for alpha, row in zip(res.table["alpha"], res.table.itertuples()):
-        one = align(a, b, p, alpha=alpha, truth=t, tol=1e-9, refine=False)
-        assert row.conserved_edges == one.scores.conserved_edges
-        assert row.nc == pytest.approx(one.scores.nc)
-        w = float(one.pairs["prior"].sum())
-        assert row.prior_weight == pytest.approx(w)
-    assert res.table["solver_steps"].iloc[0] == 0  # alpha = 0 returns the prior
+    assert res.table["alpha"].tolist() == [0.5, 0.7, 0.9]  # sorted, duplicates dropped
+    for row, got in zip(res.table.itertuples(), res.results):
+        one = align(a, b, p, alpha=row.alpha, truth=t, refine=refine)
+        bound = got.diffusion.error_bound + one.diffusion.error_bound
+        assert np.abs(got.diffusion.x - one.diffusion.x).sum() <= bound
+        rounded_s, rounded_a = got.improvement.rounded.index, one.improvement.rounded.index
+        assert _same_or_certified_tie(one.candidates, got.diffusion.x, one.diffusion.x, rounded_s, rounded_a, bound)
+        if np.array_equal(np.sort(rounded_s), np.sort(rounded_a)):
+            # same start, same options: the refinement must end in the same matching
+            pd.testing.assert_frame_equal(got.pairs[["node_a", "node_b"]], one.pairs[["node_a", "node_b"]])
+            assert row.conserved_edges == one.scores.conserved_edges
+            assert row.nc == pytest.approx(one.scores.nc)
+            assert row.prior_weight == pytest.approx(float(one.pairs["prior"].sum()))
+        assert got.summary["parameters"]["refine"] is refine
+
+
+def test_sweep_of_one_alpha_equals_two(tmp_path):
+    # The symptom the issue reports: `--alphas 0.9` and `--alphas 0.8,0.9` must agree at 0.9.
+    a, b, p, t = _write(tmp_path)
+    one = sweep(a, b, p, alphas=[0.9], truth=t).table.iloc[-1]
+    two = sweep(a, b, p, alphas=[0.8, 0.9], truth=t).table.iloc[-1]
+    assert one.conserved_edges == two.conserved_edges and one.nc == two.nc
+
+
+def test_sweep_alpha_zero_returns_prior(tmp_path):
+    # Common practice: at alpha 0 the diffusion is h itself, no push, and refinement is off.
+    a, b, p, t = _write(tmp_path)
+    res = sweep(a, b, p, alphas=[0.0, 0.5])
+    assert res.table["solver_steps"].iloc[0] == 0
+    assert res.results[0].summary["refine"] is None
 
 
 def test_warm_start_saves_pushes(tmp_path):
     # common practice: a warm start from a nearby solution needs less work than a cold start
     a, b, p, _ = _write(tmp_path)
     alphas = [0.5, 0.6, 0.7, 0.8, 0.9]
-    warm = sweep(a, b, p, alphas=alphas)
-    cold = sweep(a, b, p, alphas=alphas, warm_start=False)
+    warm = sweep(a, b, p, alphas=alphas, refine=False)
+    cold = sweep(a, b, p, alphas=alphas, warm_start=False, refine=False)
     assert warm.table["edge_touches"].iloc[1:].sum() < cold.table["edge_touches"].iloc[1:].sum()
-    assert warm.base.candidates is not None
+    assert warm.problem.product is not None
+
+
+def test_sweep_takes_align_options(tmp_path):
+    # Seeds, directed, weighted and refinement reach every row (the options of align).
+    a, b, p, t = _write(tmp_path)
+    seeds = pd.read_csv(t, sep="\t", header=None).head(5)
+    res = sweep(a, b, p, alphas=[0.6, 0.9], seeds=seeds, directed=True, refine=False, truth=t)
+    for r in res.results:
+        assert r.summary["parameters"]["directed"] is True
+        assert r.summary["seeds"]["pairs"] == 5
+        assert r.summary["refine"] is None
 
 
 def test_bad_alphas():
