@@ -32,7 +32,7 @@ from aligner.checks import bad_parameter, check_choice, check_int, check_real
 from aligner.errors import InvalidParameterError
 
 __all__ = ["Spec", "option", "AlignConfig", "QueryConfig", "LabelConfig", "specs", "describe", "from_options",
-           "SCORE_KINDS", "SOLVERS", "NORMALIZATIONS", "ROUNDINGS", "HEADERS", "SIDES"]
+           "with_options", "SCORE_KINDS", "SOLVERS", "NORMALIZATIONS", "ROUNDINGS", "HEADERS", "SIDES"]
 
 SCORE_KINDS = ("similarity", "evalue", "distance")
 SOLVERS = ("push", "power")
@@ -247,6 +247,32 @@ def from_options(cls: type, config: Any = None, options: Mapping[str, Any] | Non
     if not isinstance(config, cls):
         raise InvalidParameterError(f"config must be a {cls.__name__}; got {type(config).__name__}", param="config")
     return config.replace(**options) if options else config
+
+
+def with_options(*classes: type, names: Iterable[str] | None = None):
+    """Decorator: show the options of ``classes`` as keyword-only parameters of a function that takes
+    ``**options``, with their declared defaults, in its ``inspect.signature`` (help(), IDEs).
+
+    The function itself still receives them through ``**options`` and checks them with
+    :func:`from_options`; nothing is retyped.
+    """
+    import inspect
+
+    def wrap(func):
+        sig = inspect.signature(func)
+        params = [p for p in sig.parameters.values() if p.kind is not inspect.Parameter.VAR_KEYWORD]
+        taken = {p.name for p in params}
+        for cls in classes:
+            for name, (default, spec) in specs(cls).items():
+                if (names is None or name in names) and name not in taken:
+                    annotation = spec.python_type | None if spec.optional else spec.python_type
+                    params.append(inspect.Parameter(name, inspect.Parameter.KEYWORD_ONLY, default=default,
+                                                    annotation=annotation))
+                    taken.add(name)
+        func.__signature__ = sig.replace(parameters=params)
+        return func
+
+    return wrap
 
 
 def describe(cls: type, names: Iterable[str] | None = None, indent: str = "    ") -> str:

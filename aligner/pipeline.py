@@ -28,7 +28,7 @@ import numpy.typing as npt
 import pandas as pd
 
 from aligner import __version__
-from aligner.config import AlignConfig, describe, from_options
+from aligner.config import AlignConfig, describe, from_options, with_options
 from aligner.core.candidates import CandidateSet, build_candidates
 from aligner.core.confidence import pair_confidence
 from aligner.core.diffusion import DiffusionResult, column_scale, diffuse, prior_vector
@@ -269,6 +269,7 @@ class Problem:
         return dataclasses.replace(self, config=self.config.replace(**options))
 
 
+@with_options(AlignConfig)
 def prepare(network_a, network_b, prior=None, *, seeds=None, truth=None, config: AlignConfig | None = None,
             with_product: bool = True, clock: Clock | None = None, **options: Any) -> Problem:
     """Read the inputs, choose the candidates and build the product graph: a :class:`Problem`.
@@ -551,6 +552,7 @@ def run_stages(problem: Problem, clock: Clock, *, x0=None, permutation_progress=
                            summarize(problem, diffusion, improvement, evaluation, clock.timings))
 
 
+@with_options(AlignConfig)
 def align(network_a, network_b, prior=None, *, seeds=None, truth=None, config: AlignConfig | None = None,
           progress: Callable[[str], None] | None = None,
           permutation_progress: Callable[[int, int], None] | None = None, **options: Any) -> AlignmentResult:
@@ -611,6 +613,7 @@ align.__doc__ += f"""
     """
 
 
+@with_options(AlignConfig, names=("directed", "weighted", "delimiter", "header"))
 def score(network_a, network_b, alignment, *, truth=None, config: AlignConfig | None = None,
           **options: Any) -> tuple[Scores, pd.DataFrame]:
     """Score an existing alignment (a table whose first two columns are node_a, node_b).

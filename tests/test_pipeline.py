@@ -170,3 +170,16 @@ def test_score_api_matches_align(tmp_path):
     sc, cons = aligner.score(a, b, res.pairs, truth=truth)
     assert sc == res.scores
     assert len(cons) == res.scores.conserved_edges
+
+
+def test_signature_shows_every_declared_option_with_its_default():
+    # Source: the declarations in aligner.config; help() and IDEs read inspect.signature.
+    import inspect
+
+    from aligner.config import AlignConfig, specs
+
+    params = inspect.signature(aligner.align).parameters
+    for name, (default, _) in specs(AlignConfig).items():
+        assert params[name].kind is inspect.Parameter.KEYWORD_ONLY
+        assert params[name].default == default
+    assert "alpha : float, default 0.9" in aligner.align.__doc__

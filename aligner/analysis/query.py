@@ -27,7 +27,7 @@ from aligner.checks import check_choice, check_int, check_real
 from aligner.core.candidates import CandidateSet
 from aligner.errors import AlignerWarning, ConvergenceError, InvalidParameterError
 from aligner.core.network import Network
-from aligner.config import NORMALIZATIONS, SIDES, AlignConfig, QueryConfig, describe, from_options, specs
+from aligner.config import NORMALIZATIONS, SIDES, AlignConfig, QueryConfig, describe, from_options, specs, with_options
 from aligner.pipeline import prepare
 from aligner.priors.seeds import SeedTable, seed_index, seed_vector
 
@@ -381,6 +381,7 @@ def _answer(engine: QueryEngine, name: str, node: int, qcfg: QueryConfig, other_
     return tab, {"query": name, "side": side} | work, record
 
 
+@with_options(QueryConfig, AlignConfig, names=("side", "top", "tol", "max_pushes", "alpha", "top_k", "min_score", "score_kind", "normalization", "seed_weight", "delimiter", "header"))
 def query(network_a, network_b, prior=None, *, nodes, seeds=None, config: AlignConfig | None = None,
           query: QueryConfig | None = None, **options: Any) -> QueryResult:
     """Which nodes of B best correspond to these nodes of A (or the reverse), without a global solve.

@@ -20,7 +20,7 @@ import numpy as np
 import pandas as pd
 
 from aligner.checks import check_real
-from aligner.config import AlignConfig, from_options
+from aligner.config import AlignConfig, from_options, with_options
 from aligner.errors import InvalidParameterError
 from aligner.pipeline import AlignmentResult, Clock, Problem, prepare, run_stages
 
@@ -112,6 +112,7 @@ def _row(res: AlignmentResult, seconds: float) -> dict:
             "solve_seconds": diff.seconds, "seconds": seconds}
 
 
+@with_options(AlignConfig)
 def sweep(network_a, network_b, prior=None, *, alphas: Sequence[float] = DEFAULT_ALPHAS, seeds=None, truth=None,
           config: AlignConfig | None = None, warm_start: bool = True,
           progress: Callable[[float], None] | None = None, **options: Any) -> SweepResult:
