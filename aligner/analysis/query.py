@@ -334,9 +334,9 @@ class QueryResult:
 
 
 def _node_index(net: Network, name: str, side: str) -> int:
-    from aligner.io.readers import _lookup
+    from aligner.io.identifiers import lookup
 
-    i = int(_lookup(net.names, np.array([str(name)], dtype=object))[0])
+    i = int(lookup(net.names, np.array([str(name)], dtype=object))[0])
     if i < 0:
         here, there = ("A", "b") if side == "a" else ("B", "a")
         raise InvalidParameterError(f"{name!r} is not a node of network {here}; check the name (for a node of "
