@@ -1,4 +1,19 @@
-"""Edge-conservation and coverage measures of a one-to-one map between two networks."""
+"""Edge-conservation and coverage measures of a one-to-one map between two networks.
+
+One function per measure (edge correctness [1]_, induced conserved structure [2]_, the
+symmetric substructure score [3]_, the largest common connected subgraph, node correctness
+and the weighted variants); :func:`score_matching` computes them all.
+
+References
+----------
+.. [1] O. Kuchaiev, T. Milenković, V. Memišević, W. Hayes, N. Pržulj, "Topological network
+   alignment uncovers biological function and phylogeny", J. R. Soc. Interface 7 (2010)
+   1341-1354. doi:10.1098/rsif.2010.0063
+.. [2] R. Patro, C. Kingsford, "Global network alignment using multiscale spectral
+   signatures", Bioinformatics 28 (2012) 3105-3114. doi:10.1093/bioinformatics/bts592
+.. [3] V. Saraph, T. Milenković, Bioinformatics 30 (2014) 2931-2940 (the symmetric
+   substructure score). doi:10.1093/bioinformatics/btu409
+"""
 
 from __future__ import annotations
 
@@ -9,7 +24,10 @@ import numpy.typing as npt
 import scipy.sparse as sp
 from scipy.sparse.csgraph import connected_components
 
-__all__ = ["Scores", "score_matching", "node_correctness"]
+from aligner.errors import InvalidParameterError
+
+__all__ = ["Scores", "score_matching", "node_correctness", "edge_correctness", "induced_conserved_structure",
+           "symmetric_substructure", "induced_edges", "largest_common_component", "conserved_weight"]
 
 
 @dataclass(frozen=True)
@@ -122,6 +140,18 @@ def conserved_mask(
     return conserved_image(edges_a, edges_b, f, n2, directed) >= 0
 
 
+def _map_of(matched: npt.NDArray[np.int64], n1: int) -> npt.NDArray[np.int64]:
+    """The map f as an array over the nodes of A: f[i] = partner of i, -1 when unmatched."""
+    f = np.full(n1, -1, dtype=np.int64)
+    f[matched[:, 0]] = matched[:, 1]
+    return f
+
+
+def _ratio(num: float, den: float) -> float:
+    """``num / den``, or 0.0 when the denominator is not positive."""
+    return num / den if den > 0 else 0.0
+
+
 def node_correctness(matched: npt.NDArray[np.integer], truth: npt.NDArray[np.integer], n1: int) -> tuple[float, dict]:
     """Share of the nodes of A named in the truth table that are mapped to a true partner.
 
@@ -132,13 +162,60 @@ def node_correctness(matched: npt.NDArray[np.integer], truth: npt.NDArray[np.int
     truth = np.asarray(truth, dtype=np.int64).reshape(-1, 2)
     if len(truth) == 0:
         return float("nan"), {"truth_nodes": 0, "correct": 0}
-    f = np.full(n1, -1, dtype=np.int64)
-    matched = np.asarray(matched, dtype=np.int64).reshape(-1, 2)
-    f[matched[:, 0]] = matched[:, 1]
+    f = _map_of(np.asarray(matched, dtype=np.int64).reshape(-1, 2), n1)
     hit = f[truth[:, 0]] == truth[:, 1]
     nodes = np.unique(truth[:, 0])
     correct = np.unique(truth[hit, 0])
     return len(correct) / len(nodes), {"truth_nodes": int(len(nodes)), "correct": int(len(correct))}
+
+
+def edge_correctness(conserved: int, n_edges_a: int, n_edges_b: int) -> float:
+    """EC: conserved edges over the smaller edge count, min(|E_A|, |E_B|) (reference 1 of the module)."""
+    return _ratio(conserved, min(n_edges_a, n_edges_b))
+
+
+def induced_conserved_structure(conserved: int, induced_edges_b: int) -> float:
+    """ICS: conserved edges over |E(B[f(V_A)])|, the edges of B among the image (reference 2)."""
+    return _ratio(conserved, induced_edges_b)
+
+
+def symmetric_substructure(conserved: int, n_edges_a: int, induced_edges_b: int) -> float:
+    """S3: conserved / (|E_A| + |E(B[f(V_A)])| - conserved) (reference 3)."""
+    return _ratio(conserved, n_edges_a + induced_edges_b - conserved)
+
+
+def induced_edges(edges_b: npt.NDArray[np.int64], image: npt.NDArray[np.int64], n2: int) -> int:
+    """|E(B[image])|: the edges of B with both ends among the nodes ``image``."""
+    if len(edges_b) == 0:
+        return 0
+    inside = np.zeros(n2, dtype=bool)
+    inside[image] = True
+    return int((inside[edges_b[:, 0]] & inside[edges_b[:, 1]]).sum())
+
+
+def largest_common_component(edges_a: npt.NDArray[np.int64], cons: npt.NDArray[np.bool_], n1: int) -> tuple[int, int]:
+    """Nodes and edges of the largest (weakly) connected component of the conserved edges of A."""
+    ce = edges_a[cons]
+    if len(ce) == 0:
+        return 0, 0
+    g = sp.coo_array((np.ones(len(ce)), (ce[:, 0], ce[:, 1])), shape=(n1, n1)).tocsr()
+    _, label = connected_components(g, directed=False)
+    in_sub = np.zeros(n1, dtype=bool)
+    in_sub[ce.ravel()] = True
+    sizes = np.bincount(label[in_sub], minlength=label.max() + 1)
+    best = int(np.argmax(sizes))
+    return int(sizes[best]), int((label[ce[:, 0]] == best).sum())
+
+
+def conserved_weight(weights_a: npt.ArrayLike, weights_b: npt.ArrayLike,
+                     image_row: npt.NDArray[np.int64]) -> tuple[float, float]:
+    """Summed conserved weight, sum of min(w_A(e), w_B(f(e))) over conserved edges e, and
+    weighted EC, that sum over min(W_A, W_B); ``image_row`` is :func:`conserved_image`'s."""
+    wa = np.asarray(weights_a, dtype=np.float64)
+    wb = np.asarray(weights_b, dtype=np.float64)
+    cons = image_row >= 0
+    cw = float(np.minimum(wa[cons], wb[image_row[cons]]).sum())
+    return cw, _ratio(cw, min(float(wa.sum()), float(wb.sum())))
 
 
 def score_matching(
@@ -181,17 +258,8 @@ def score_matching(
 
     Notes
     -----
-    Cost O((|E_A| + |E_B|) log |E_B|). The ratios are 0 when their denominator is 0.
-
-    References
-    ----------
-    .. [1] O. Kuchaiev, T. Milenković, V. Memišević, W. Hayes, N. Pržulj, "Topological network
-       alignment uncovers biological function and phylogeny", J. R. Soc. Interface 7 (2010)
-       1341-1354. doi:10.1098/rsif.2010.0063
-    .. [2] R. Patro, C. Kingsford, "Global network alignment using multiscale spectral
-       signatures", Bioinformatics 28 (2012) 3105-3114. doi:10.1093/bioinformatics/bts592
-    .. [3] V. Saraph, T. Milenković, Bioinformatics 30 (2014) 2931-2940 (the symmetric
-       substructure score). doi:10.1093/bioinformatics/btu409
+    Cost O((|E_A| + |E_B|) log |E_B|). The ratios are 0 when their denominator is 0. The
+    measures and their sources are listed in :mod:`aligner.core.scoring`.
 
     Examples
     --------
@@ -201,45 +269,24 @@ def score_matching(
     >>> s.conserved_edges, s.ec, s.s3
     (2, 1.0, 1.0)
     """
+    if (weights_a is None) != (weights_b is None):
+        given = "weights_a" if weights_b is None else "weights_b"
+        raise InvalidParameterError("weights_a and weights_b must be given together or not at all; "
+                                    f"got {given} only", param=given)
     edges_a = np.asarray(edges_a, dtype=np.int64).reshape(-1, 2)
     edges_b = np.asarray(edges_b, dtype=np.int64).reshape(-1, 2)
     matched = np.asarray(matched, dtype=np.int64).reshape(-1, 2)
-    f = np.full(n1, -1, dtype=np.int64)
-    f[matched[:, 0]] = matched[:, 1]
-    image_row = conserved_image(edges_a, edges_b, f, n2, directed)
+    image_row = conserved_image(edges_a, edges_b, _map_of(matched, n1), n2, directed)
     cons = image_row >= 0
     c = int(cons.sum())
-    cw = wec = None
-    if (weights_a is None) != (weights_b is None):
-        raise ValueError("give the edge weights of both networks or of neither")
-    if weights_a is not None:
-        wa = np.asarray(weights_a, dtype=np.float64)
-        wb = np.asarray(weights_b, dtype=np.float64)
-        cw = float(np.minimum(wa[cons], wb[image_row[cons]]).sum())
-        den = min(float(wa.sum()), float(wb.sum()))
-        wec = cw / den if den > 0 else 0.0
-    image = np.zeros(n2, dtype=bool)
-    image[matched[:, 1]] = True
-    induced = int((image[edges_b[:, 0]] & image[edges_b[:, 1]]).sum()) if len(edges_b) else 0
+    cw, wec = (None, None) if weights_a is None else conserved_weight(weights_a, weights_b, image_row)
+    induced = induced_edges(edges_b, matched[:, 1], n2)
     ea, eb = len(edges_a), len(edges_b)
-    ec = c / min(ea, eb) if min(ea, eb) > 0 else 0.0
-    ics = c / induced if induced > 0 else 0.0
-    s3_den = ea + induced - c
-    s3 = c / s3_den if s3_den > 0 else 0.0
-    lccs_nodes = lccs_edges = 0
-    if c:
-        ce = edges_a[cons]
-        g = sp.coo_array((np.ones(c), (ce[:, 0], ce[:, 1])), shape=(n1, n1)).tocsr()
-        _, label = connected_components(g, directed=False)
-        in_sub = np.zeros(n1, dtype=bool)
-        in_sub[ce.ravel()] = True
-        sizes = np.bincount(label[in_sub], minlength=label.max() + 1)
-        best = int(np.argmax(sizes))
-        lccs_nodes = int(sizes[best])
-        lccs_edges = int((label[ce[:, 0]] == best).sum())
+    lccs_nodes, lccs_edges = largest_common_component(edges_a, cons, n1)
     nc, detail = (None, {}) if truth is None else node_correctness(matched, truth, n1)
     return Scores(
-        conserved_edges=c, ec=ec, ics=ics, s3=s3, lccs_nodes=lccs_nodes, lccs_edges=lccs_edges,
+        conserved_edges=c, ec=edge_correctness(c, ea, eb), ics=induced_conserved_structure(c, induced),
+        s3=symmetric_substructure(c, ea, induced), lccs_nodes=lccs_nodes, lccs_edges=lccs_edges,
         n_matched=len(matched), induced_edges_b=induced, n_edges_a=ea, n_edges_b=eb, nc=nc, nc_detail=detail,
         conserved_weight=cw, weighted_ec=wec, directed=directed,
     ), cons
