@@ -1,4 +1,13 @@
-"""Diffusion on the restricted product graph: solve x = alpha P x + (1 - alpha) h."""
+"""Diffusion on the restricted product graph: solve x = alpha P x + (1 - alpha) h.
+
+References
+----------
+.. [1] R. Singh, J. Xu, B. Berger, "Global alignment of multiple protein interaction
+   networks with application to functional orthology detection", PNAS 105 (2008)
+   12763-12768. doi:10.1073/pnas.0806627105
+.. [2] R. Andersen, F. Chung, K. Lang, "Local graph partitioning using PageRank
+   vectors", FOCS 2006, 475-486. doi:10.1109/FOCS.2006.44
+"""
 
 from __future__ import annotations
 
@@ -7,8 +16,6 @@ from dataclasses import dataclass
 
 import numpy as np
 import numpy.typing as npt
-import scipy.sparse as sp
-
 from aligner.kernels.push import _push, _residual
 from aligner.checks import check_choice, check_int, check_real
 from aligner.errors import ConvergenceError
@@ -130,93 +137,103 @@ def diffuse(
     Returns
     -------
     DiffusionResult
+        Converged: the exact residual, recomputed after the solve, is finite and <= ``tol``.
 
     Raises
     ------
     ConvergenceError
-        The cap was reached first; the message gives the steps done and the residual.
+        However the solver stopped (work cap or early exit), the exact residual is above
+        ``tol``, or a score or the residual is not finite; it gives the steps and the residual.
 
     Notes
     -----
-    The system is x = alpha P x + (1 - alpha) h with P column sub-stochastic, so
-    ||(I - alpha P)^{-1}||_1 <= 1 / (1 - alpha) and ||x - x*||_1 <= ||r||_1 / (1 - alpha).
-    Push keeps the invariant x* = x + (I - alpha P)^{-1} r; an entry l is pushed while
-    |r_l| > tol * (deg_l + 1) / sum(deg + 1), so at exit ||r||_1 <= tol. While at least a
-    quarter of the entries are active, all of them are pushed at once in one vectorized sweep
-    (the same pushes, applied together: a Jacobi step); the FIFO queue then finishes the
-    solve, so a localized residual costs only what it touches. Each push of r_l
-    lowers ||r||_1 by at least (1 - alpha) |r_l| when residuals share a sign (they do
-    without a warm start), which bounds the work by O(log(1/tol) * |product edges| / (1 - alpha)).
+    P is column sub-stochastic, so ||(I - alpha P)^{-1}||_1 <= 1 / (1 - alpha) and
+    ||x - x*||_1 <= ||r||_1 / (1 - alpha). The solvers: :func:`_solve_push`, :func:`_solve_power`.
 
-    References
-    ----------
-    .. [1] R. Singh, J. Xu, B. Berger, "Global alignment of multiple protein interaction
-       networks with application to functional orthology detection", PNAS 105 (2008)
-       12763-12768. doi:10.1073/pnas.0806627105
-    .. [2] R. Andersen, F. Chung, K. Lang, "Local graph partitioning using PageRank
-       vectors", FOCS 2006, 475-486. doi:10.1109/FOCS.2006.44
+    See the module docstring for the references.
     """
     alpha = check_real(alpha, "alpha", low=0.0, high=1.0, closed="left")
     tol = check_real(tol, "tol", low=0.0, closed="neither")
     solver = check_choice(solver, "solver", SOLVERS)
-    m = graph.m
     h = np.ascontiguousarray(h, dtype=np.float64)
-    b = (1.0 - alpha) * h
     t0 = time.perf_counter()
-    if alpha == 0.0 or m == 0:
-        x = h.copy()
-        return DiffusionResult(x, solver, alpha, tol, 0, 0, 0.0, 0.0, time.perf_counter() - t0)
-    x = np.zeros(m) if x0 is None else np.array(x0, dtype=np.float64)
-    r = np.empty(m)
+    if alpha == 0.0 or graph.m == 0:
+        return DiffusionResult(h.copy(), solver, alpha, tol, 0, 0, 0.0, 0.0, time.perf_counter() - t0)
+    b = (1.0 - alpha) * h
+    x = np.zeros(graph.m) if x0 is None else np.array(x0, dtype=np.float64)
+    r = np.empty(graph.m)
+    _exact_residual(graph, scale, alpha, x, b, r)
+    solve = _solve_push if solver == "push" else _solve_power
+    x, steps, touches = solve(graph, scale, alpha, tol, x, r, b, max_work)
+    resid = _exact_residual(graph, scale, alpha, x, b, r)
+    _check_converged(solver, tol, x, resid, steps)
+    return DiffusionResult(x, solver, alpha, tol, int(steps), int(touches), resid, resid / (1 - alpha),
+                           time.perf_counter() - t0)
+
+
+def _exact_residual(graph: ProductGraph, scale, alpha: float, x, b, out) -> float:
+    """out = b - (I - alpha P) x computed from the CSR pattern; returns its 1-norm."""
     wts = np.empty(0) if graph.weights is None else graph.weights
-    _residual(graph.indptr, graph.indices, wts, scale, alpha, x, b, r)
-    if solver == "push":
-        deg = graph.degree.astype(np.float64) + 1.0
-        thresh = tol * deg / deg.sum()
-        cap = max_work if max_work is not None else int(200 * m / (1 - alpha)) + 10**6
-        check_int(cap, "max_work", low=0)
-        steps = touches = sweeps = 0
-        # While most entries are above their threshold, push them all at once: one vectorized
-        # sweep (a Jacobi step, streaming through memory) does the work of that many queued
-        # pushes at a fraction of the cost of visiting them one by one in queue order.
-        P = None
-        while steps < cap:
-            active = np.abs(r) > thresh
-            n_active = int(np.count_nonzero(active))
-            if n_active < SWEEP_FRACTION * m or steps + n_active > cap:
-                break
-            if P is None:
-                P = graph.transition(scale, alpha)
-            delta = np.where(active, r, 0.0)
-            x += delta
-            r += P @ delta - delta
-            steps += n_active
-            touches += int(graph.indptr[-1])
-            sweeps += 1
-        pushes, t2, capped = _push(graph.indptr, graph.indices, wts, scale, alpha, x, r, thresh,
-                                   max(cap - steps, 0))
-        steps += pushes
-        touches += t2
-    else:
-        cap = max_work if max_work is not None else int(100 * np.log(1 / min(tol, 0.5)) / (1 - alpha)) + 10
-        check_int(cap, "max_work", low=0)
-        P = graph.transition(scale, alpha)
-        steps = touches = 0
-        capped = True
-        while steps < cap:
-            if np.abs(r).sum() <= tol:
-                capped = False
-                break
-            x = x + r  # x_{t+1} = alpha P x_t + b
-            r = b - x + P @ x
-            steps += 1
-            touches += int(graph.indptr[-1])
-        else:
-            capped = np.abs(r).sum() > tol
-    resid = float(_residual(graph.indptr, graph.indices, wts, scale, alpha, x, b, r))
-    seconds = time.perf_counter() - t0
-    if capped and resid > tol:
-        raise ConvergenceError(f"the {solver} solver reached its work cap before the residual tolerance "
-                               f"{tol:g}; raise max_work or the tolerance, or lower alpha",
+    return float(_residual(graph.indptr, graph.indices, wts, scale, alpha, x, b, out))
+
+
+def _check_converged(solver: str, tol: float, x: npt.NDArray[np.float64], resid: float, steps: int) -> None:
+    """Raise ConvergenceError unless the exact residual is finite and within ``tol`` and x is finite."""
+    if not np.isfinite(resid) or not np.isfinite(x).all():
+        raise ConvergenceError(f"the {solver} solver produced a score or residual that is not a finite "
+                               "number; check the prior and the edge weights for inf or NaN",
                                iterations=steps, residual=resid)
-    return DiffusionResult(x, solver, alpha, tol, int(steps), int(touches), resid, resid / (1 - alpha), seconds)
+    if resid > tol:
+        raise ConvergenceError(f"the {solver} solver stopped before the residual tolerance {tol:g}; "
+                               "raise max_work or the tolerance, or lower alpha",
+                               iterations=steps, residual=resid)
+
+
+def _solve_push(graph: ProductGraph, scale, alpha: float, tol: float, x, r, b, max_work: int | None):
+    """Push solver: vectorised sweeps while many entries are active, then the FIFO queue.
+
+    Push keeps the invariant x* = x + (I - alpha P)^{-1} r; an entry l is pushed while
+    |r_l| > tol * (deg_l + 1) / sum(deg + 1), so at a normal exit ||r||_1 <= tol. While at
+    least ``SWEEP_FRACTION`` of the entries are active, all of them are pushed at once in one
+    vectorised sweep (the same pushes, applied together: a Jacobi step, streaming through
+    memory); the queue kernel then finishes the solve, so a localized residual costs only
+    what it touches. Each push of r_l lowers ||r||_1 by at least (1 - alpha) |r_l| when
+    residuals share a sign (they do without a warm start), which bounds the work by
+    O(log(1/tol) * |product edges| / (1 - alpha)). Returns (x, pushes, edge touches).
+    """
+    m = graph.m
+    deg = graph.degree.astype(np.float64) + 1.0
+    thresh = tol * deg / deg.sum()
+    cap = max_work if max_work is not None else int(200 * m / (1 - alpha)) + 10**6
+    check_int(cap, "max_work", low=0)
+    steps = touches = 0
+    P = None
+    while steps < cap:
+        active = np.abs(r) > thresh
+        n_active = int(np.count_nonzero(active))
+        if n_active < SWEEP_FRACTION * m or steps + n_active > cap:
+            break
+        if P is None:
+            P = graph.transition(scale, alpha)
+        delta = np.where(active, r, 0.0)
+        x += delta
+        r += P @ delta - delta
+        steps += n_active
+        touches += int(graph.indptr[-1])
+    wts = np.empty(0) if graph.weights is None else graph.weights
+    pushes, t2, _ = _push(graph.indptr, graph.indices, wts, scale, alpha, x, r, thresh, max(cap - steps, 0))
+    return x, steps + pushes, touches + t2
+
+
+def _solve_power(graph: ProductGraph, scale, alpha: float, tol: float, x, r, b, max_work: int | None):
+    """Power (Jacobi) iteration x <- alpha P x + b until ||r||_1 <= tol. Returns (x, iterations, touches)."""
+    cap = max_work if max_work is not None else int(100 * np.log(1 / min(tol, 0.5)) / (1 - alpha)) + 10
+    check_int(cap, "max_work", low=0)
+    P = graph.transition(scale, alpha)
+    steps = touches = 0
+    while steps < cap and np.abs(r).sum() > tol:
+        x = x + r  # x_{t+1} = alpha P x_t + b
+        r = b - x + P @ x
+        steps += 1
+        touches += int(graph.indptr[-1])
+    return x, steps, touches

@@ -112,8 +112,9 @@ def test_cap_raises_convergence_error_with_figures():
 @pytest.mark.parametrize("alpha", [1.0, -0.1, 1.5, float("nan")])
 def test_alpha_out_of_range(alpha):
     *_, cand, prod = _instance(3)
-    with pytest.raises(InvalidParameterError, match=r"'alpha' parameter of diffuse must be a real number in \[0, 1\)"):
+    with pytest.raises(InvalidParameterError, match=r"^alpha must be a number in \[0, 1\); got ") as info:
         diffuse(prod, prior_vector(cand.prior), column_scale(prod), alpha=alpha)
+    assert info.value.param == "alpha"
 
 
 def test_input_unchanged():
@@ -122,3 +123,70 @@ def test_input_unchanged():
     h0, ip, ix = h.copy(), prod.indptr.copy(), prod.indices.copy()
     diffuse(prod, h, column_scale(prod), alpha=0.6)
     assert np.array_equal(h, h0) and np.array_equal(prod.indptr, ip) and np.array_equal(prod.indices, ix)
+
+
+# --------------------------------------------------------------------------- never an unconverged result
+
+def _early_exit_push(indptr, indices, weights, col_scale, alpha, x, r, thresh, max_pushes):
+    """A queue kernel that gives up at once and says it finished normally (a planted fault)."""
+    return 0, 0, False
+
+
+def _nan_push(indptr, indices, weights, col_scale, alpha, x, r, thresh, max_pushes):
+    """A queue kernel that leaves a NaN in the scores and says it finished normally."""
+    x[0] = np.nan
+    return 1, 0, False
+
+
+@pytest.mark.parametrize("fault", [_early_exit_push, _nan_push])
+def test_push_that_stops_early_or_returns_nan_raises(monkeypatch, fault):
+    # the exact residual is recomputed after the solve, whatever the kernel reports
+    import aligner.core.diffusion as diffusion
+
+    *_, cand, prod = _instance(3)
+    h = prior_vector(cand.prior)
+    monkeypatch.setattr(diffusion, "_push", fault)
+    monkeypatch.setattr(diffusion, "SWEEP_FRACTION", 2.0)  # no sweeps: the kernel alone
+    with pytest.raises(ConvergenceError) as info:
+        diffuse(prod, h, column_scale(prod), alpha=0.9, tol=1e-8)
+    if fault is _early_exit_push:
+        # nothing was pushed: the residual is still ||(1 - alpha) h||_1 = 0.1 (h sums to 1)
+        assert info.value.iterations == 0
+        assert info.value.residual == pytest.approx(0.1, rel=1e-12)
+        assert "stopped before the residual tolerance" in str(info.value)
+    else:
+        assert not np.isfinite(info.value.residual)
+        assert "not a finite number" in str(info.value)
+
+
+@pytest.mark.filterwarnings("ignore::RuntimeWarning")  # inf - inf on the way, on purpose
+@pytest.mark.parametrize("solver", ["push", "power"])
+@pytest.mark.parametrize("bad", [np.nan, np.inf])
+def test_non_finite_prior_raises_convergence_error(solver, bad):
+    *_, cand, prod = _instance(3)
+    h = prior_vector(cand.prior)
+    h[2] = bad
+    with pytest.raises(ConvergenceError, match="not a finite number"):
+        diffuse(prod, h, column_scale(prod), alpha=0.5, tol=1e-8, solver=solver)
+
+
+def test_power_cap_raises_and_the_error_gives_figures():
+    *_, cand, prod = _instance(3)
+    h = prior_vector(cand.prior)
+    with pytest.raises(ConvergenceError, match="stopped after 3 steps") as info:
+        diffuse(prod, h, column_scale(prod), alpha=0.9, tol=1e-12, solver="power", max_work=3)
+    assert info.value.iterations == 3 and info.value.residual > 1e-12
+
+
+@pytest.mark.parametrize("solver", ["push", "power"])
+def test_every_returned_result_is_converged(solver):
+    # the result's residual is the exact one, recomputed from the CSR pattern by a dense
+    # product here (numpy), and within the tolerance
+    (ea, ia, xa), (eb, ib, xb), cand, prod = _instance(7, 9, 8)
+    h = prior_vector(cand.prior)
+    s = column_scale(prod)
+    res = diffuse(prod, h, s, alpha=0.85, tol=1e-9, solver=solver)
+    P = prod.transition(s, 1.0).toarray()
+    r = 0.15 * h - (res.x - 0.85 * P @ res.x)
+    assert np.abs(r).sum() == pytest.approx(res.residual, rel=1e-6, abs=1e-15)
+    assert res.residual <= 1e-9 and res.error_bound == pytest.approx(res.residual / 0.15)
