@@ -49,3 +49,76 @@ def test_ties_and_near_ties_in_double_precision():
 def test_empty_and_all_zero():
     cand = build_candidates([[0, 0]], [1.0], 1, 1, top_k=None)
     assert len(round_matching(cand, np.zeros(1)).index) == 0
+
+
+# --------------------------------------------------------------------------- no pair without evidence
+
+VARIANTS = ["sparse", "dense", "scipy", "auto", "sparse, shortest paths only"]
+
+
+def _round(cand, w, variant, monkeypatch):
+    """round_matching with ``variant``; the last one runs the sparse kernel with its warm-start
+    phase (augmenting row reduction) switched off, so the shortest-path phase does all the work."""
+    if variant == "sparse, shortest paths only":
+        import aligner.kernels.assign as assign
+
+        monkeypatch.setattr(assign, "sparse_max_weight_matching",
+                            lambda indptr, indices, weights, n_cols: assign._solve(
+                                indptr.astype(np.int64), indices.astype(np.int64), weights, n_cols, 0.0))
+        return round_matching(cand, w, method="sparse")
+    return round_matching(cand, w, method=variant)
+
+
+def _zero_rows_instance(seed):
+    """Random candidates where some rows and columns have only zero-weight candidates."""
+    rng = np.random.default_rng([seed, 21])
+    n1, n2 = int(rng.integers(3, 9)), int(rng.integers(3, 9))
+    pairs = np.array([(i, j) for i in range(n1) for j in range(n2) if rng.random() < 0.6] or [(0, 0)])
+    cand = build_candidates(pairs, np.ones(len(pairs)), n1, n2, top_k=None)
+    w = rng.random(cand.m)
+    w[rng.random(cand.m) < 0.4] = 0.0
+    w[np.isin(cand.pairs[:, 0], rng.choice(n1, n1 // 2, replace=False))] = 0.0  # rows without evidence
+    w[cand.pairs[:, 1] == rng.integers(n2)] = 0.0  # a column without evidence
+    return cand, w
+
+
+@pytest.mark.parametrize("variant", VARIANTS)
+def test_zero_weight_candidates_are_never_matched(variant, monkeypatch):
+    # Decision (round_matching docstring): no pair without evidence is matched. Hand-worked:
+    # node 0 of A has only a zero-weight candidate, so it stays unmatched even though matching
+    # it would cost nothing; node 1 takes its only positive candidate.
+    cand = build_candidates([[0, 0], [1, 1], [1, 0]], np.ones(3), 2, 2, top_k=None)
+    w = np.array([0.0, 0.0, 0.5])  # sorted pairs: (0,0), (1,0), (1,1)
+    m = _round(cand, w, variant, monkeypatch)
+    assert cand.pairs[m.index].tolist() == [[1, 1]] and m.weight == 0.5
+    # random instances: every matched pair has positive weight and the total is the optimum
+    # (reference: scipy.optimize.linear_sum_assignment, see _optimum)
+    for seed in range(60):
+        cand, w = _zero_rows_instance(seed)
+        m = _round(cand, w, variant, monkeypatch)
+        assert np.all(w[m.index] > 0), (seed, cand.pairs[m.index][w[m.index] <= 0])
+        assert m.weight == pytest.approx(_optimum(cand, w), rel=1e-12, abs=1e-12)
+
+
+@pytest.mark.parametrize("variant", VARIANTS)
+def test_all_zero_and_nan_weights_match_nothing(variant, monkeypatch):
+    cand = build_candidates([[i, j] for i in range(3) for j in range(3)], np.ones(9), 3, 3, top_k=None)
+    for w in (np.zeros(9), np.full(9, np.nan), np.where(np.arange(9) % 2, np.nan, 0.0)):
+        m = _round(cand, w, variant, monkeypatch)
+        assert len(m.index) == 0 and m.weight == 0.0
+
+
+@pytest.mark.parametrize("shape", [(12, 12), (9, 15), (15, 9), (40, 40)])
+@pytest.mark.parametrize("density", [1.0, 0.3])
+def test_shortest_path_phase_alone_is_optimal(shape, density, monkeypatch):
+    # The assignment kernel with its warm-start phase switched off, through round_matching.
+    # Reference: scipy.optimize.linear_sum_assignment (see _optimum).
+    rng = np.random.default_rng([shape[0], shape[1], int(density * 10)])
+    n1, n2 = shape
+    pairs = np.array([(i, j) for i in range(n1) for j in range(n2) if rng.random() < density])
+    cand = build_candidates(pairs, np.ones(len(pairs)), n1, n2, top_k=None)
+    w = np.round(rng.random(cand.m) * 8) / 8  # few distinct values: many ties for the heap
+    m = _round(cand, w, "sparse, shortest paths only", monkeypatch)
+    got = cand.pairs[m.index]
+    assert len(np.unique(got[:, 0])) == len(got) and len(np.unique(got[:, 1])) == len(got)
+    assert m.weight == pytest.approx(_optimum(cand, w), rel=1e-12, abs=1e-12)
