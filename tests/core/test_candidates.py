@@ -36,3 +36,22 @@ def test_index_and_coverage():
 def test_empty():
     c = build_candidates(np.empty((0, 2)), np.empty(0), 3, 3)
     assert c.m == 0 and c.a_indptr.tolist() == [0, 0, 0, 0]
+
+
+def test_top_k_ties_go_to_the_smaller_index_on_an_all_ties_grid():
+    # The documented rule (build_candidates, Notes): ties in the top-k cut are broken by the
+    # smaller index of the other node. Worked by hand on a full n1 x n2 grid where every score
+    # is equal: node i of A keeps (i, 0..k-1), node j of B keeps (0..k-1, j), so the union is
+    # exactly the pairs with j < k or i < k.
+    n1, n2, k = 6, 5, 2
+    grid = np.array([(i, j) for i in range(n1) for j in range(n2)])
+    want = [[i, j] for i in range(n1) for j in range(n2) if j < k or i < k]
+    for perm in (np.arange(len(grid)), np.random.default_rng(0).permutation(len(grid)), np.arange(len(grid))[::-1]):
+        c = build_candidates(grid[perm], np.full(len(grid), 0.5), n1, n2, top_k=k)
+        assert c.pairs.tolist() == want
+    # a strictly better score still beats the index: B node 4 is node 5's best
+    scores = np.full(len(grid), 0.5)
+    scores[(grid[:, 0] == 5) & (grid[:, 1] == 4)] = 0.9
+    c = build_candidates(grid, scores, n1, n2, top_k=1)
+    want = {(i, 0) for i in range(n1) if i != 5} | {(0, j) for j in range(n2 - 1)} | {(5, 4)}
+    assert c.pairs.tolist() == [list(p) for p in sorted(want)]
