@@ -62,3 +62,27 @@ def test_node_correctness_with_several_true_partners():
     truth = np.array([[0, 0], [0, 1], [1, 2], [2, 2]])
     nc, d = node_correctness(np.array([[0, 1], [1, 2], [2, 0]]), truth, 3)
     assert nc == pytest.approx(2 / 3) and d == {"truth_nodes": 3, "correct": 2}
+
+
+def test_hand_worked_example_with_more_edges_in_a_than_in_b():
+    # |E_A| > |E_B|, so EC's denominator min(|E_A|, |E_B|) is |E_B| (Kuchaiev et al. 2010).
+    # A: triangle 0-1-2 plus 2-3 and 3-0 (5 edges). B: path 0-1-4-5 (3 edges), nodes 2, 3 bare.
+    # Map f: identity on 0..3.
+    # Conserved: (0,1) yes; (1,2), (0,2), (2,3), (3,0) land on non-edges  => 1.
+    # EC = 1 / min(5, 3) = 1/3 (dividing by |E_A| would give 1/5).
+    # Induced edges of B on the image {0,1,2,3}: only (0,1) => 1; ICS = 1 / 1 = 1.
+    # S3 = 1 / (|E_A| + induced - conserved) = 1 / (5 + 1 - 1) = 1/5.
+    # Largest connected conserved subgraph: the edge 0-1, 2 nodes and 1 edge.
+    ea = np.array([[0, 1], [1, 2], [0, 2], [2, 3], [0, 3]])
+    eb = np.array([[0, 1], [1, 4], [4, 5]])
+    m = np.array([[0, 0], [1, 1], [2, 2], [3, 3]])
+    s, cons = score_matching(ea, eb, m, 4, 6)
+    assert (s.conserved_edges, s.n_edges_a, s.n_edges_b) == (1, 5, 3)
+    assert s.ec == pytest.approx(1 / 3, rel=1e-15)
+    assert (s.induced_edges_b, s.ics) == (1, 1.0)
+    assert s.s3 == pytest.approx(1 / 5, rel=1e-15)
+    assert (s.lccs_nodes, s.lccs_edges) == (2, 1)
+    assert cons.tolist() == [True, False, False, False, False]
+    # the same map read from B's side: swap the roles, EC is symmetric in the two edge counts
+    s2, _ = score_matching(eb, ea, m[:, ::-1], 6, 4)
+    assert s2.ec == s.ec and s2.conserved_edges == 1
