@@ -5,22 +5,26 @@ animals, so names give the exact truth while the wiring differs between the anim
 hidden behind random opaque identifiers before aligning.
 """
 
-import sys
 from pathlib import Path
 
 import pytest
 
 import aligner
+from aligner.datasets.instances import hidden_connectome, read_connectome
+from aligner.io.inputs import as_network
 
-sys.path.insert(0, str(Path(__file__).resolve().parent.parent / "scripts"))
-from bench_connectome import hidden_task  # noqa: E402
+DATA = Path(__file__).resolve().parent / "data"
+
+
+def hidden_task(task, seed):
+    return hidden_connectome(*read_connectome(DATA), task, seed=seed)
 
 
 def test_data_as_published():
     # Counts of the extracted files (tests/data/README.md): 180 neurons and 1843 / 1800 edges.
     ea, eb, prior, truth = hidden_task("class", seed=0)
-    a = aligner.io.inputs.as_network(ea)
-    b = aligner.io.inputs.as_network(eb)
+    a = as_network(ea)
+    b = as_network(eb)
     assert (a.n, a.n_edges, b.n, b.n_edges) == (180, 1843, 180, 1800)
     assert len(truth) == 180 and len(prior) == 500
 

@@ -236,21 +236,3 @@ def test_evolved_pair_checks():
         evolved_pair(100, n_final=50, seed=0)
     with pytest.raises(InvalidParameterError):
         evolved_pair(100, n_final=200, decay=0.0, seed=0)
-
-
-# ------------------------------------------------------------------ the bundled demo
-
-
-def test_demo_files_are_current_and_identical_in_both_places():
-    # scripts/make_demo.py must rewrite byte-identical files; rerun it after changing a generator
-    import importlib.util
-    from pathlib import Path
-
-    root = Path(__file__).resolve().parents[2]
-    spec = importlib.util.spec_from_file_location("make_demo", root / "scripts" / "make_demo.py")
-    mod = importlib.util.module_from_spec(spec)
-    spec.loader.exec_module(mod)
-    assert mod.main(["--check"]) == 0, "demo files are stale: run python scripts/make_demo.py"
-    for name in mod.DATA_FILES:
-        assert (root / "demo_pairs" / "firefly" / name).read_bytes() == \
-            (root / "aligner" / "demo_data" / "firefly" / name).read_bytes()

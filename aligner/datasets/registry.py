@@ -1,31 +1,19 @@
-"""Write the registry demo: two invented trade registries' records of the same companies.
+"""The registry demo scenario: two invented trade registries' records of the same companies.
 
-Usage::
-
-    python scripts/make_registry_demo.py          # (re)write demo_pairs/registry/ and aligner/demo_data/registry/
-    python scripts/make_registry_demo.py --check  # exit 1 if the files on disk differ from what would be written
-
-Everything comes from one fixed seed, so a rerun writes byte-identical files. The data are
-entirely synthetic: the registries, the companies, their names and their contracts are invented.
+:func:`build` returns the text of every file of ``demo_pairs/registry/`` (and statistics for its
+README, :func:`readme`). Everything comes from one fixed seed, so the text is the same on every
+run; ``scripts/data/make_registry_demo.py`` writes it, and a test checks that
+``demo_pairs/registry/`` equals it byte for byte. :func:`company_names` and :func:`corrupt` also
+serve the label-prior benchmark. The data are entirely synthetic: the registries, the
+companies, their names and their contracts are invented.
 """
 
 from __future__ import annotations
 
-import sys
-from pathlib import Path
-
 import numpy as np
 
-ROOT = Path(__file__).resolve().parent.parent
-sys.path.insert(0, str(Path(__file__).resolve().parent))
-from _demo_files import write_or_check  # noqa: E402
-try:
-    from aligner.priors.labels import label_prior
-    from aligner.datasets.synthetic import powerlaw_graph
-except ImportError:  # running from a checkout without installing the package
-    sys.path.insert(0, str(ROOT))
-    from aligner.priors.labels import label_prior
-    from aligner.datasets.synthetic import powerlaw_graph
+from aligner.datasets.synthetic import powerlaw_graph
+from aligner.priors.labels import label_prior
 
 SEED = 20240917
 N_COMPANIES = 1500
@@ -47,8 +35,8 @@ REGISTRY_A = ("Corvalen Chamber of Trade", "R1")
 REGISTRY_B = ("Ostrevia Commerce Bureau", "R2")
 
 DATA_FILES = ("network_a.tsv", "network_b.tsv", "labels_a.tsv", "labels_b.tsv", "prior.tsv", "truth.tsv")
-OUT_DIRS = (ROOT / "demo_pairs" / "registry", ROOT / "aligner" / "demo_data" / "registry")
-COMMAND = "python scripts/make_registry_demo.py"
+#: the command that writes the files, named in their headers and in the README
+COMMAND = "python scripts/data/make_demo.py --scenario registry"
 
 ONSETS = ("b", "br", "d", "dr", "f", "g", "gr", "k", "kr", "l", "m", "n", "p", "pr", "r", "s", "st", "t",
           "tr", "v", "z", "th", "qu", "h", "j", "c", "cl", "pl")
@@ -270,6 +258,11 @@ def build() -> tuple[dict[str, str], dict[str, object]]:
 
 
 def readme(stats: dict[str, object]) -> str:
+    """The README.md of the scenario, from the statistics that :func:`build` returns."""
+    return _readme_files(stats) + _readme_generation(stats)
+
+
+def _readme_files(stats: dict[str, object]) -> str:
     a, b = REGISTRY_A, REGISTRY_B
     examples = "\n".join(f"| {x} | {y} |" for x, y in stats["examples"])
     return f"""# Demo: two invented trade registries' records of the same companies
@@ -320,20 +313,23 @@ alone = align("network_a.tsv", "network_b.tsv", prior, alpha=0.0, truth="truth.t
 print(alone.scores.nc, res.scores.nc)
 ```
 
-`python scripts/bench_labels.py --n 0` prints this comparison; when the files were made it gave
+`python scripts/bench/bench_labels.py --n 0` prints this comparison; when the files were made it gave
 node correctness 0.719 (edge conservation 0.510) for the names alone and 0.990 (0.937) for names
 and contracts together.
 
-## How it was generated
+"""
+
+
+def _readme_generation(stats: dict[str, object]) -> str:
+    return f"""## How it was generated
 
 ```
 {COMMAND}
 ```
 
-writes this directory and an identical copy of the data files into
-`aligner/demo_data/registry/` (shipped with the package). The script uses a fixed seed ({SEED});
-rerunning it rewrites byte-identical files, and `{COMMAND} --check` verifies that the files on
-disk are current.
+writes this directory from `aligner.datasets.registry` (the build configuration ships it with the
+package). The script uses a fixed seed ({SEED}); rerunning it rewrites byte-identical files,
+and `{COMMAND} --check` verifies that the files on disk are current.
 
 * **Names.** {stats["n_families"]} invented stems of one to three random syllables; each stem
   heads a family of firms (geometric sizes, mean {FAMILY_MEAN:g}, largest {stats["largest_family"]};
@@ -354,11 +350,3 @@ disk are current.
   random ones (never leaving a company without a contract). The companies are shuffled.
 * **Prior.** `label_prior(labels_a, labels_b, top_k={TOP_K}, min_similarity={MIN_SIMILARITY})`.
 """
-
-
-def main(argv: list[str] | None = None) -> int:
-    return write_or_check(argv, __doc__.split("\n\n")[0], build, readme, OUT_DIRS, ROOT)
-
-
-if __name__ == "__main__":
-    sys.exit(main())

@@ -1,29 +1,17 @@
-"""Write the bundled demo: two invented firefly interaction maps with a known alignment.
+"""The firefly demo scenario: two invented glow-beetle interaction maps with a known alignment.
 
-Usage::
-
-    python scripts/make_demo.py          # (re)write demo_pairs/firefly/ and aligner/demo_data/firefly/
-    python scripts/make_demo.py --check  # exit 1 if the files on disk differ from what would be written
-
-Everything comes from one fixed seed, so a rerun writes byte-identical files. The data are
-entirely synthetic: the species, the proteins and the interactions are invented.
+:func:`build` returns the text of every file of ``demo_pairs/firefly/`` (and statistics for its
+README, :func:`readme`). Everything comes from one fixed seed, so the text is the same on every
+run; ``scripts/data/make_demo.py`` writes it, and a test checks that ``demo_pairs/firefly/``
+equals it byte for byte. The data are entirely synthetic: the species, the proteins and the
+interactions are invented.
 """
 
 from __future__ import annotations
 
-import sys
-from pathlib import Path
-
 import numpy as np
 
-ROOT = Path(__file__).resolve().parent.parent
-sys.path.insert(0, str(Path(__file__).resolve().parent))
-from _demo_files import write_or_check  # noqa: E402
-try:
-    from aligner.datasets.synthetic import evolved_pair
-except ImportError:  # running from a checkout without installing the package
-    sys.path.insert(0, str(ROOT))
-    from aligner.datasets.synthetic import evolved_pair
+from aligner.datasets.synthetic import evolved_pair
 
 SEED = 20240611
 N_ANCESTOR = 1400
@@ -40,8 +28,8 @@ SPECIES_A = ("Lampyra vesperis", "LVES", "dusk glow-beetle")
 SPECIES_B = ("Lampyra matutina", "LMAT", "dawn glow-beetle")
 
 DATA_FILES = ("network_a.tsv", "network_b.tsv", "prior.tsv", "truth.tsv")
-OUT_DIRS = (ROOT / "demo_pairs" / "firefly", ROOT / "aligner" / "demo_data" / "firefly")
-COMMAND = "python scripts/make_demo.py"
+#: the command that writes the files, named in their headers and in the README
+COMMAND = "python scripts/data/make_demo.py --scenario firefly"
 
 
 def _names(prefix: str, n: int, rng: np.random.Generator) -> np.ndarray:
@@ -52,6 +40,8 @@ def _names(prefix: str, n: int, rng: np.random.Generator) -> np.ndarray:
 
 def _network_text(edges: np.ndarray, names: np.ndarray, species: tuple[str, str, str],
                   rng: np.random.Generator) -> str:
+    """An edge file: header comments, then the edges in random order and orientation, with planted
+    self-loops and repeated edges."""
     name, prefix, common = species
     n_nodes = len(names)
     rows = edges.copy()
@@ -139,6 +129,7 @@ def build() -> tuple[dict[str, str], dict[str, object]]:
 
 
 def readme(stats: dict[str, object]) -> str:
+    """The README.md of the scenario, from the statistics that :func:`build` returns."""
     a, b = SPECIES_A, SPECIES_B
     return f"""# Demo: two invented glow-beetle interaction maps
 
@@ -185,12 +176,12 @@ top are comments that describe the file.
 {COMMAND}
 ```
 
-writes this directory and an identical copy of the four data files into
-`aligner/demo_data/firefly/` (shipped with the package so that `aligner demo` runs from any
-directory). The script uses a fixed seed ({SEED}); rerunning it rewrites byte-identical files,
-and `{COMMAND} --check` verifies that the files on disk are current.
+writes this directory from `aligner.datasets.firefly` (the build configuration ships it with
+the package, so that `aligner demo` runs from any directory). The script uses a fixed seed
+({SEED}); rerunning it rewrites byte-identical files, and `{COMMAND} --check`
+verifies that the files on disk are current.
 
-The script calls `aligner.datasets.synthetic.evolved_pair`: an ancestral network of {N_ANCESTOR}
+The generator calls `aligner.datasets.synthetic.evolved_pair`: an ancestral network of {N_ANCESTOR}
 proteins is grown by duplication with divergence (each copy keeps each interaction of its
 parent with probability {P_RETAIN}); each species then grows from it independently by the same
 process to {N_FINAL[0]} and {N_FINAL[1]} proteins; {EDGE_NOISE:.0%} of each species' interactions
@@ -202,11 +193,3 @@ scores. Similarities `s` are written as `{BITS_OFFSET:g} + {BITS_SCALE:g} * s`, 
 decimal. Proteins left without any interaction after the rewiring are left out of all files
 ({stats["dropped_a"]} of *{a[0]}*, {stats["dropped_b"]} of *{b[0]}*).
 """
-
-
-def main(argv: list[str] | None = None) -> int:
-    return write_or_check(argv, __doc__.split("\n\n")[0], build, readme, OUT_DIRS, ROOT)
-
-
-if __name__ == "__main__":
-    sys.exit(main())
