@@ -156,7 +156,8 @@ def test_small_cases_against_exhaustive_search():
         assert all(cons[q] <= cons[got] for q in near)
         hits += res.conserved_after == best
         worst = min(worst, res.conserved_after)
-    assert best == 8 and hits >= 400 and worst >= 6
+    assert best == 8  # the exhaustive search's own figure
+    assert hits >= 400 and worst >= 6  # regression guards: measured 438 starts and worst 6 (above)
 
 
 # --------------------------------------------------------------------------- true map
@@ -225,9 +226,9 @@ def test_connectome_pair_with_class_prior(seed):
     scores, _ = aligner.score(net_a, net_b, table, truth=truth)
     assert ref.conserved_before == res.scores.conserved_edges
     assert scores.conserved_edges == ref.conserved_after
-    assert scores.conserved_edges >= identity.conserved_edges
-    assert scores.nc >= 0.95
-    assert scores.nc > res.scores.nc + 0.3
+    assert scores.conserved_edges >= identity.conserved_edges  # derived: the refined map is at least as good
+    assert scores.nc >= 0.95  # regression guard: measured 0.967 (seeds 0-5), not an outside fact
+    assert scores.nc > res.scores.nc + 0.3  # regression guard: measured gain 0.417
 
 
 # --------------------------------------------------------------------------- arguments

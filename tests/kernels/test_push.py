@@ -105,4 +105,4 @@ def test_weights_change_the_answer():
     prod_u, scale_u, _, P_u = _problem(True, False)
     a = spsolve(sp.csc_matrix(np.eye(len(h)) - 0.9 * P_w), 0.1 * h)
     b = spsolve(sp.csc_matrix(np.eye(len(h)) - 0.9 * P_u), 0.1 * h)
-    assert np.abs(a - b).max() > 1e-3
+    assert np.abs(a - b).max() > 1e-3  # measured 0.024: far above the tests' 1e-11
