@@ -26,7 +26,7 @@ from aligner.config import AlignConfig, LabelConfig, QueryConfig, specs
 ROOT = Path(__file__).resolve().parents[2]
 TARGET = ROOT / "docs" / "commands.md"
 #: options that are inputs of the Python functions under the same name, though not configuration
-PYTHON_INPUTS = {"prior", "truth", "seeds"}
+PYTHON_INPUTS = {"prior", "truth", "seeds", "alphas", "nodes"}
 
 HEADER = """# Command reference
 
@@ -56,7 +56,7 @@ def _default(param) -> str:
         return "off" if not param.default else "on"
     if param.required:
         return "(required)"
-    if param.default is None or param.default == ():
+    if param.default is None or param.default in ((), ""):
         return ""
     return f"`{param.default}`"
 
