@@ -122,6 +122,35 @@ def row_sums(indptr: npt.NDArray[np.int64], data: npt.NDArray[np.float64]) -> np
     return np.bincount(np.repeat(np.arange(n), np.diff(indptr)), weights=data, minlength=n)
 
 
+def _canonical_rows(
+    u: npt.NDArray[np.integer], v: npt.NDArray[np.integer], weights: npt.NDArray[np.float64] | None, *,
+    undirected: bool,
+) -> tuple[npt.NDArray[np.int32], npt.NDArray[np.float64] | None, int, int]:
+    """Rows (u, v) without self-loops, unique and sorted (``u < v`` first when ``undirected``).
+
+    Returns the rows, their summed weights, the self-loops dropped and the duplicate rows merged.
+    """
+    u = np.asarray(u, dtype=np.int64)
+    v = np.asarray(v, dtype=np.int64)
+    keep = u != v
+    n_loops = int((~keep).sum())
+    a, b = (np.minimum(u[keep], v[keep]), np.maximum(u[keep], v[keep])) if undirected else (u[keep], v[keep])
+    w = None if weights is None else np.asarray(weights, dtype=np.float64)[keep]
+    if len(a) == 0:
+        return np.empty((0, 2), dtype=INDEX), (None if w is None else np.empty(0)), n_loops, 0
+    span = int(max(a.max(), b.max())) + 1
+    key = a * span + b
+    order = np.argsort(key, kind="stable")
+    key = key[order]
+    first = np.ones(len(key), dtype=bool)
+    first[1:] = key[1:] != key[:-1]
+    uniq = key[first]
+    rows = np.stack([uniq // span, uniq % span], axis=1).astype(INDEX)
+    if w is not None:
+        w = np.bincount(np.cumsum(first) - 1, weights=w[order], minlength=len(uniq))
+    return rows, w, n_loops, int(len(key) - len(uniq))
+
+
 def canonical_edges(
     u: npt.NDArray[np.integer], v: npt.NDArray[np.integer], weights: npt.NDArray[np.float64] | None = None
 ) -> tuple[npt.NDArray[np.int32], npt.NDArray[np.float64] | None, int, int]:
@@ -130,31 +159,7 @@ def canonical_edges(
     Returns the sorted unique edges with ``u < v``, their summed weights, the number of
     self-loops dropped and the number of duplicate edges merged.
     """
-    u = np.asarray(u, dtype=np.int64)
-    v = np.asarray(v, dtype=np.int64)
-    loop = u == v
-    n_loops = int(loop.sum())
-    keep = ~loop
-    lo = np.minimum(u[keep], v[keep])
-    hi = np.maximum(u[keep], v[keep])
-    w = None if weights is None else np.asarray(weights, dtype=np.float64)[keep]
-    if len(lo) == 0:
-        return np.empty((0, 2), dtype=INDEX), (None if w is None else np.empty(0)), n_loops, 0
-    span = int(hi.max()) + 1
-    key = lo * span + hi
-    order = np.argsort(key, kind="stable")
-    key = key[order]
-    first = np.ones(len(key), dtype=bool)
-    first[1:] = key[1:] != key[:-1]
-    n_dup = int(len(key) - first.sum())
-    uniq = key[first]
-    edges = np.empty((len(uniq), 2), dtype=INDEX)
-    edges[:, 0] = uniq // span
-    edges[:, 1] = uniq % span
-    if w is not None:
-        group = np.cumsum(first) - 1
-        w = np.bincount(group, weights=w[order], minlength=len(uniq))
-    return edges, w, n_loops, n_dup
+    return _canonical_rows(u, v, weights, undirected=True)
 
 
 def canonical_arcs(
@@ -165,25 +170,7 @@ def canonical_arcs(
     Returns the sorted unique arcs, their summed weights, the self-loops dropped and the
     duplicate arcs merged.
     """
-    u = np.asarray(u, dtype=np.int64)
-    v = np.asarray(v, dtype=np.int64)
-    keep = u != v
-    n_loops = int((~keep).sum())
-    u, v = u[keep], v[keep]
-    w = None if weights is None else np.asarray(weights, dtype=np.float64)[keep]
-    if len(u) == 0:
-        return np.empty((0, 2), dtype=INDEX), (None if w is None else np.empty(0)), n_loops, 0
-    span = int(max(u.max(), v.max())) + 1
-    key = u * span + v
-    order = np.argsort(key, kind="stable")
-    key = key[order]
-    first = np.ones(len(key), dtype=bool)
-    first[1:] = key[1:] != key[:-1]
-    uniq = key[first]
-    arcs = np.stack([uniq // span, uniq % span], axis=1).astype(INDEX)
-    if w is not None:
-        w = np.bincount(np.cumsum(first) - 1, weights=w[order], minlength=len(uniq))
-    return arcs, w, n_loops, int(len(key) - len(uniq))
+    return _canonical_rows(u, v, weights, undirected=False)
 
 
 def network_from_edges(
