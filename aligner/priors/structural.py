@@ -5,8 +5,37 @@ networks' vectors are z-scored with one pooled transform (:func:`standardise`); 
 node is paired with its nearest nodes of the other network in that space
 (:func:`structural_candidates`). The resulting pairs and scores are a prior for
 :func:`aligner.align`, alone or added to a weak prior (:func:`combine_priors`).
-"""
 
+**Why these features.** Degree, triangles and the size of the two-step neighbourhood
+describe how much wiring surrounds a node at radii one and two; clustering is the share of
+that wiring closed into triangles; the neighbours' degree statistics tell a hub among
+leaves from a leaf hanging off a hub. Counts go through ``log1p`` because they are
+heavy-tailed in real networks, and a difference of one edge matters far more at degree 3
+than at 300: on a log scale a few moved edges (noise) move a feature a little whatever the
+degree. Nodes that are alike on their own features are told apart by their neighbours'
+features, hence one round of neighbour aggregation (recursive features [1]_). It also
+spreads each moved edge over the neighbours' features, and a second round lowered the
+share of true pairs among the candidates at high noise
+(``scripts/bench/bench_structural.py``), so there is one.
+
+**Why this score.** The Gaussian kernel with the nearest-neighbour scale gives a pair as
+close as a typical best match the score ``exp(-1/2) = 0.61`` and pairs three times farther
+``0.011``: the prior mass concentrates on each node's few best matches, and the wiring
+(diffusion) decides among them: what limits the result is whether the true partner is among
+the candidates, not its score.
+
+**Cost.** Triangles and the distance-two counts come from one pass over all two-step walks,
+``sum_v deg(v)^2`` steps, with two ``n``-long stamp arrays (no ``A @ A``, whose fill is
+quadratic in the hub degrees); the rest of the features is linear in the edges. The
+candidates then need two k-d tree searches in 16 dimensions, where k-d trees prune poorly:
+the search, not the features, bounds the size this is practical for.
+``scripts/bench/bench_structural.py --timing`` measures both.
+
+References
+----------
+.. [1] K. Henderson et al., "It's who you know: graph mining using recursive structural
+   features", KDD 2011, doi:10.1145/2020408.2020512.
+"""
 from __future__ import annotations
 
 import numpy as np
@@ -14,8 +43,9 @@ import numpy.typing as npt
 from scipy.spatial import cKDTree
 
 from aligner.kernels.structural import _neighbour_mean, _neighbour_stats, _triangles_and_distance_two
-from aligner.checks import check_int, check_real
+from aligner.checks import bad_parameter, check_int, check_real
 from aligner.core.network import Network, merge_duplicate_pairs
+from aligner.errors import InvalidParameterError
 
 __all__ = [
     "FEATURE_NAMES",
@@ -69,32 +99,7 @@ def node_features(net: Network) -> npt.NDArray[np.float64]:
 
     Notes
     -----
-    Why these: degree, triangles and the size of the two-step neighbourhood describe how
-    much wiring surrounds a node at radii one and two; clustering is the share of that
-    wiring closed into triangles; the neighbours' degree statistics tell a hub among leaves
-    from a leaf hanging off a hub. Counts go through ``log1p`` because they are heavy-tailed
-    in real networks, and a difference of one edge matters far more at degree 3 than at 300:
-    on a log scale a few moved edges (noise) move a feature a little whatever the degree.
-    Nodes that are alike on their own features are told apart by their neighbours' features,
-    hence the aggregation round. On noisy relabelled copies of 2,000-node synthetic graphs
-    (``scripts/bench_structural.py``) the round raised the share of true pairs among 25
-    structural candidates per node from 0.96 to 0.98 at 1 % edge noise and from 0.80 to 0.84
-    at 5 %, but it also spreads each moved edge over the neighbours' features; a second round
-    lowered that share at 15 % noise on power-law graphs (0.43 to 0.33, all columns at full
-    weight), so there is one.
-
-    Measured (2 cores, power-law graphs of ``aligner.datasets.synthetic.powerlaw_graph``): 0.6 s at
-    10^5 nodes and 4 * 10^5 edges, 17.5 s at 10^6 nodes and 4 * 10^6 edges (of which 16.5 s
-    the two-step pass, bound by cache misses).
-
-    Cost: triangles and the distance-two counts come from one pass over all two-step walks,
-    ``sum_v deg(v)^2`` steps, with two ``n``-long stamp arrays (no ``A @ A``, whose fill is
-    quadratic in the hub degrees); the rest is linear in the edges.
-
-    References
-    ----------
-    K. Henderson et al., "It's who you know: graph mining using recursive structural
-    features", KDD 2011, doi:10.1145/2020408.2020512.
+    The choice of features and their cost are discussed in :mod:`aligner.priors.structural`.
 
     Examples
     --------
@@ -141,7 +146,8 @@ def standardise(
     fa = np.asarray(fa, dtype=np.float64)
     fb = np.asarray(fb, dtype=np.float64)
     if fa.ndim != 2 or fb.ndim != 2 or fa.shape[1] != fb.shape[1]:
-        raise ValueError(f"feature tables must be 2-d with equal column counts; got {fa.shape} and {fb.shape}")
+        raise InvalidParameterError("fa and fb must be 2-d feature tables with equal column counts; "
+                                    f"got shapes {fa.shape} and {fb.shape}")
     both = np.vstack([fa, fb])
     if len(both) == 0:
         return fa.copy(), fb.copy()
@@ -160,6 +166,25 @@ def _knn(tree_pts: np.ndarray, query_pts: np.ndarray, k: int) -> tuple[np.ndarra
     return d.reshape(len(query_pts), k), j.reshape(len(query_pts), k)
 
 
+def _search_space(net_a: Network, net_b: Network) -> tuple[np.ndarray, np.ndarray]:
+    """Both networks' features, z-scored together, neighbour-mean columns times :data:`AGGREGATE_WEIGHT`."""
+    za, zb = standardise(node_features(net_a), node_features(net_b))
+    za[:, len(BASE_FEATURES):] *= AGGREGATE_WEIGHT
+    zb[:, len(BASE_FEATURES):] *= AGGREGATE_WEIGHT
+    return za, zb
+
+
+def _kernel_scores(d: np.ndarray, nearest: np.ndarray) -> np.ndarray:
+    """Gaussian scores ``exp(-d^2 / (2 s^2))`` of distances ``d``, floored at the smallest normal float.
+
+    ``s`` is the median of ``nearest`` (1 if that is not positive).
+    """
+    s = float(np.median(nearest))
+    if not s > 0:
+        s = 1.0
+    return np.maximum(np.exp(-(d * d) / (2.0 * s * s)), np.finfo(np.float64).tiny)
+
+
 def structural_candidates(
     net_a: Network, net_b: Network, *, k: int = 25
 ) -> tuple[npt.NDArray[np.int64], npt.NDArray[np.float64]]:
@@ -170,10 +195,8 @@ def structural_candidates(
     :func:`standardise` (Euclidean distance, exact search with a k-d tree); the union is
     returned, each pair once. The eight neighbour-mean columns are multiplied by
     :data:`AGGREGATE_WEIGHT` (1/2) before the search: they pool the noise of many neighbours,
-    and at full weight their block counts as much as the node's own features. On noisy
-    power-law copies this raised the share of true pairs among the candidates (at 15 % edge
-    noise, 2,000 nodes, two seeds: 0.42 to 0.49-0.50) and changed duplication-divergence
-    copies by at most 0.01.
+    and at full weight their block counts as much as the node's own features
+    (``scripts/bench/bench_structural.py`` compares the two).
 
     Parameters
     ----------
@@ -196,17 +219,7 @@ def structural_candidates(
     tell them apart, and pairing every isolated node of A with ``k`` arbitrary isolated
     nodes of B would only add guesses. They are left out of both searches.
 
-    The Gaussian kernel with the nearest-neighbour scale gives a pair as close as a typical
-    best match the score ``exp(-1/2) = 0.61`` and pairs three times farther ``0.011``: the
-    prior mass concentrates on each node's few best matches, and the wiring (diffusion)
-    decides among them. In the benchmark the node correctness after alignment is within about
-    0.02 of the share of true pairs among the candidates, so the candidate set, not the
-    score, is what limits the result.
-
-    Cost: the features (see :func:`node_features`), then two k-d tree searches in 16
-    dimensions, where k-d trees prune poorly: about 10 s for two 2 * 10^4-node networks and
-    about 3 minutes for two 10^5-node ones at ``k=25`` (2 cores); the search, not the
-    features, bounds the size this is practical for.
+    The choice of score and the cost are discussed in :mod:`aligner.priors.structural`.
 
     Examples
     --------
@@ -219,24 +232,18 @@ def structural_candidates(
     [[0, 0], [0, 2], [1, 1], [2, 0], [2, 2]]
     """
     k = check_int(k, "k", low=1)
-    za, zb = standardise(node_features(net_a), node_features(net_b))
-    za[:, len(BASE_FEATURES):] *= AGGREGATE_WEIGHT
-    zb[:, len(BASE_FEATURES):] *= AGGREGATE_WEIGHT
     live_a = np.flatnonzero(net_a.degree > 0)
     live_b = np.flatnonzero(net_b.degree > 0)
     if len(live_a) == 0 or len(live_b) == 0:
         return np.empty((0, 2), dtype=np.int64), np.empty(0, dtype=np.float64)
+    za, zb = _search_space(net_a, net_b)
     za, zb = za[live_a], zb[live_b]
     d_ab, j_ab = _knn(zb, za, k)  # for each node of A, its nearest of B
     d_ba, j_ba = _knn(za, zb, k)  # for each node of B, its nearest of A
-    nearest = np.concatenate([d_ab[:, 0], d_ba[:, 0]])
-    s = float(np.median(nearest))
-    if not s > 0:
-        s = 1.0
     pa = np.concatenate([np.repeat(live_a, d_ab.shape[1]), live_a[j_ba.ravel()]])
     pb = np.concatenate([live_b[j_ab.ravel()], np.repeat(live_b, d_ba.shape[1])])
     d = np.concatenate([d_ab.ravel(), d_ba.ravel()])
-    scores = np.maximum(np.exp(-(d * d) / (2.0 * s * s)), np.finfo(np.float64).tiny)
+    scores = _kernel_scores(d, np.concatenate([d_ab[:, 0], d_ba[:, 0]]))
     pairs, scores, _ = merge_duplicate_pairs(np.stack([pa, pb], axis=1), scores, net_b.n)
     return pairs, scores
 
@@ -282,10 +289,12 @@ def combine_priors(
     n2 = check_int(n2, "n2", low=1)
     weight = check_real(weight, "weight", low=0.0)
     tables = []
-    for pairs, scores, w in ((prior_pairs, prior_scores, 1.0), (struct_pairs, struct_scores, weight)):
+    for name, pairs, scores, w in (("prior_scores", prior_pairs, prior_scores, 1.0),
+                                   ("struct_scores", struct_pairs, struct_scores, weight)):
         pairs, scores, _ = merge_duplicate_pairs(pairs, scores, n2)
-        if len(scores) and (not np.isfinite(scores).all() or scores.min() < 0):
-            raise ValueError("scores must be finite and >= 0")
+        bad = scores[~(np.isfinite(scores) & (scores >= 0))]
+        if len(bad):
+            raise bad_parameter(name, "finite numbers >= 0", float(bad[0]))
         top = scores.max() if len(scores) else 0.0
         tables.append((pairs, scores * (w / top) if top > 0 else scores * 0.0))
     pairs = np.concatenate([tables[0][0], tables[1][0]])
