@@ -1,0 +1,66 @@
+"""``aligner align`` and ``aligner score``."""
+
+from __future__ import annotations
+
+import json
+from pathlib import Path
+from typing import Annotated
+
+import typer
+
+from aligner.cli.options import Force, Json, Out, Prior, Quiet, Seeds, Truth, Use, command
+from aligner.cli.runtime import check_inputs, out, progress, say
+from aligner.config import AlignConfig
+
+NetworkA = Annotated[Path, typer.Argument(help="Edge list of network A (TSV/CSV, optional weight column, may be "
+                                          "gzip-compressed).")]
+NetworkB = Annotated[Path, typer.Argument(help="Edge list of network B, the same way.")]
+
+
+def run_align(network_a: Path, network_b: Path, prior: Path | None, outdir: Path | None, *, config: AlignConfig,
+              truth: Path | None = None, seeds: Path | None = None, force: bool = False, quiet: bool = False):
+    """Check the inputs and the output directory, align with a progress line, write, print the summary.
+
+    Shared by ``align`` and ``demo``; returns the :class:`~aligner.pipeline.AlignmentResult`.
+    """
+    check_inputs(network_a, network_b, prior, truth, seeds)
+    from aligner.io.outputs import check_outdir, write_outputs
+    from aligner.pipeline import STAGES, align
+    from aligner.render.console import summary_table
+
+    if outdir is not None:
+        check_outdir(outdir, force=force)  # refuse before any work, not after it
+    with progress(quiet, len(STAGES)) as bar:
+        res = align(network_a, network_b, prior, seeds=seeds, truth=truth, config=config, progress=bar.stage,
+                    permutation_progress=bar.count)
+        bar.stage("writing")
+        written = write_outputs(outdir, res, force=force) if outdir is not None else []
+    if not quiet:
+        out.print(summary_table(res.summary))
+        if written:
+            say(f"wrote {', '.join(str(p) for p in written)}")
+    return res
+
+
+@command(Use(AlignConfig))
+def align(network_a: NetworkA, network_b: NetworkB, outdir: Out, prior: Prior = None, truth: Truth = None,
+          seeds: Seeds = None, force: Force = False, quiet: Quiet = False, *, config: AlignConfig):
+    """Align network A to network B; write alignment.tsv, conserved_edges.tsv and summary.json to --out."""
+    run_align(network_a, network_b, prior, outdir, config=config, truth=truth, seeds=seeds, force=force, quiet=quiet)
+
+
+@command(Use(AlignConfig, ("delimiter", "header", "directed", "weighted")))
+def score(network_a: NetworkA, network_b: NetworkB,
+          alignment: Annotated[Path, typer.Argument(help="Alignment table; its first two columns are node_a, "
+                                                    "node_b (an alignment.tsv works as it is).")],
+          truth: Truth = None, as_json: Json = False, quiet: Quiet = False, *, config: AlignConfig):
+    """Score an existing alignment of A to B with the same measures as align."""
+    check_inputs(network_a, network_b, alignment, truth)
+    from aligner.pipeline import score as score_alignment
+    from aligner.render.console import scores_table
+
+    sc, _ = score_alignment(network_a, network_b, alignment, truth=truth, config=config)
+    if as_json:
+        typer.echo(json.dumps(sc.as_dict(), indent=2))
+    elif not quiet:
+        out.print(scores_table(sc.as_dict(), title=f"Scores of {alignment}"))

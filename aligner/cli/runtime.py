@@ -1,0 +1,122 @@
+"""What every command shares at run time: the two consoles, user errors as exit status 2, warnings,
+the stage progress line, and the cheap check that input files exist.
+
+Imports nothing heavy; the pipeline is imported by the command bodies that need it.
+"""
+
+from __future__ import annotations
+
+import os
+import warnings
+from contextlib import contextmanager
+from pathlib import Path
+from typing import Callable, Iterator, Mapping
+
+import typer
+from rich.console import Console
+from rich.markup import escape
+
+from aligner.errors import AlignerError, AlignerWarning, InputFormatError
+
+__all__ = ["out", "err", "say", "message", "user_errors", "progress", "check_inputs"]
+
+out = Console()
+err = Console(stderr=True)
+
+
+def say(text: str, *, console: Console | None = None) -> None:
+    """Print ``text`` as it is: no markup, no highlighting, no emoji codes, no wrapping of paths."""
+    (console or out).print(text, highlight=False, soft_wrap=True, markup=False, emoji=False)
+
+
+def message(exc: AlignerError, flags: Mapping[str, str]) -> str:
+    """The error's text, with the option as the user typed it in place of the keyword it starts with."""
+    text = str(exc)
+    param = getattr(exc, "param", None)
+    if param and param in flags and (text == param or text.startswith(param + " ")):
+        text = flags[param] + text[len(param):]
+    return text
+
+
+def _show_warning(quiet: bool, original: Callable) -> Callable:
+    def show(msg, category, filename, lineno, file=None, line=None):
+        if not issubclass(category, AlignerWarning):
+            original(msg, category, filename, lineno, file, line)
+        elif not quiet:
+            err.print(f"[yellow]warning:[/] {escape(str(msg))}", highlight=False, soft_wrap=True, emoji=False)
+    return show
+
+
+@contextmanager
+def user_errors(*, quiet: bool = False, flags: Mapping[str, str] | None = None) -> Iterator[None]:
+    """Run a command body: warnings shown as they come, an :class:`AlignerError` as one line and exit 2.
+
+    ``flags`` maps keywords to the options that set them (see :func:`message`). Ctrl-C exits 130
+    with a note that nothing was left half-written (the writers publish outputs as one set).
+    """
+    with warnings.catch_warnings():
+        warnings.simplefilter("always", AlignerWarning)
+        warnings.showwarning = _show_warning(quiet, warnings.showwarning)
+        try:
+            yield
+        except AlignerError as exc:
+            err.print(f"[bold red]error:[/] {escape(message(exc, flags or {}))}", highlight=False, soft_wrap=True,
+                      emoji=False)
+            raise typer.Exit(code=2) from None
+        except KeyboardInterrupt:
+            err.print("interrupted; no output was left half-written")
+            raise typer.Exit(code=130) from None
+
+
+class _Stages:
+    """Progress callbacks over a rich bar: ``stage(name)`` as each stage starts, ``count(done, total)``."""
+
+    def __init__(self, bar, task):
+        self.bar, self.task, self.seen = bar, task, 0
+
+    def stage(self, name: str) -> None:
+        if self.seen:
+            self.bar.advance(self.task)
+        self.seen += 1
+        self.bar.update(self.task, description=name)
+
+    def count(self, done: int, total: int) -> None:
+        self.bar.update(self.task, description=f"null maps {done}/{total}")
+
+
+class _Silent:
+    def stage(self, name: str) -> None:
+        pass
+
+    def count(self, done: int, total: int) -> None:
+        pass
+
+
+@contextmanager
+def progress(quiet: bool, total: int) -> Iterator[_Stages | _Silent]:
+    """A progress line over ``total`` stages naming the running one, on a terminal and unless ``quiet``."""
+    if quiet or not err.is_terminal:
+        yield _Silent()
+        return
+    from rich.progress import BarColumn, MofNCompleteColumn, Progress, SpinnerColumn, TextColumn, TimeElapsedColumn
+
+    with Progress(SpinnerColumn(), TextColumn("[bold]{task.description:<12}"), BarColumn(), MofNCompleteColumn(),
+                  TimeElapsedColumn(), console=err, transient=True) as bar:
+        yield _Stages(bar, bar.add_task("starting", total=total))
+
+
+def check_inputs(*paths: Path | None) -> None:
+    """Refuse a missing, directory or unreadable input path before the pipeline is imported.
+
+    The same checks, in the same words, as the readers make (so the early exit reads like the
+    late one); None is skipped.
+    """
+    for p in paths:
+        if p is None:
+            continue
+        if not p.exists():
+            raise InputFormatError("no such file; check the path", path=str(p))
+        if p.is_dir():
+            raise InputFormatError("is a directory, not a file; give the path of a file", path=str(p))
+        if not os.access(p, os.R_OK):
+            raise InputFormatError("the file cannot be read (permission denied); check its permissions", path=str(p))
