@@ -1,10 +1,20 @@
-"""Human-readable views of a result: the summary table printed by the command line."""
+"""Human-readable views of results already computed: the tables and lines the command line prints.
+
+Takes plain data (summary dicts, a sweep table, a query summary) and returns rich tables or
+text; prints nothing itself and imports nothing heavy.
+"""
 
 from __future__ import annotations
 
+import shlex
+from pathlib import Path
+from typing import Iterable, Mapping
+
+from rich.markup import escape
 from rich.table import Table
 
-__all__ = ["summary_table", "scores_table"]
+__all__ = ["summary_table", "scores_table", "sweep_table", "sweep_lines", "query_tables", "prior_message",
+           "next_steps"]
 
 
 def _fmt(v) -> str:
@@ -109,3 +119,67 @@ def summary_table(summary: dict) -> Table:
     total = sum(v for v in summary["timings"].values())
     t.add_row("time", f"{total:.2f} s")
     return t
+
+
+def sweep_table(table) -> Table:
+    """One row per alpha of a sweep table (columns of :data:`aligner.analysis.sweep.SWEEP_COLUMNS`)."""
+    t = Table(title="aligner sweep", header_style="bold")
+    for c in ("alpha", "conserved", "EC", "S3", "prior weight", "NC", "steps", "seconds"):
+        t.add_column(c, justify="right")
+    for r in table.itertuples(index=False):
+        t.add_row(f"{r.alpha:g}", f"{r.conserved_edges:,}", f"{r.ec:.4f}", f"{r.s3:.4f}", f"{r.prior_weight:,.4g}",
+                  "—" if r.nc != r.nc else f"{r.nc:.4f}", f"{r.solver_steps:,}", f"{r.seconds:.2f}")
+    return t
+
+
+def sweep_lines(knee_alpha: float | None, knee_rule: str, written: Iterable[Path]) -> list[str]:
+    """The lines after a sweep's table: the suggested alpha (or why there is none) and the files written."""
+    if knee_alpha is None:
+        first = "no knee: fewer than three alphas or a straight curve"
+    else:
+        first = f"suggested alpha = {knee_alpha:g} (knee rule: {knee_rule})"
+    return [first, "wrote " + ", ".join(str(p) for p in written)]
+
+
+def query_tables(summary: Mapping, *, side: str) -> list[tuple[Table, str]]:
+    """For each asked node: a table of its counterparts and a line of the work its query took."""
+    other = "B" if side == "a" else "A"
+    shown = []
+    for rec in summary["queries"]:
+        t = Table(title=f"Counterparts in {other} of {escape(str(rec['query']))}", header_style="bold")
+        for col, just in (("rank", "right"), ("counterpart", "left"), ("score", "right"), ("± bound", "right"),
+                          ("prior", "right"), ("support", "right"), ("seed", "left")):
+            t.add_column(col, justify=just)
+        for row in rec["counterparts"]:
+            t.add_row(str(row["rank"]), escape(str(row["counterpart"])), f"{row['score']:.6f}",
+                      f"{row['error_bound']:.1e}", f"{row['prior']:.4g}", f"{row['support']:,}",
+                      "fixed" if row["fixed"] else "")
+        w = rec["work"]
+        work = (f"  {w['candidates']} candidates · {w['pairs_touched']:,} pairs touched · "
+                f"{w['product_edges_scanned']:,} product edges scanned · {w['pushes']:,} pushes · "
+                f"{1000 * w['seconds']:.1f} ms")
+        shown.append((t, work))
+    return shown
+
+
+def prior_message(pairs: int, labels_a: int, labels_b: int, top_k: int, min_similarity: float, path) -> str:
+    """What ``prior-from-labels`` wrote."""
+    return (f"wrote {pairs:,} pairs ({labels_a:,} x {labels_b:,} labels, top {top_k} per node, "
+            f"similarity >= {min_similarity:g}) to {path}")
+
+
+def next_steps(outdir: Path, inputs: Mapping[str, Path], *, node: str) -> list[str]:
+    """The closing lines of ``aligner demo``: where the outputs are and the commands to try next.
+
+    ``inputs`` holds the paths of ``network_a``, ``network_b``, ``prior`` and ``truth``; ``node``
+    is a node of A to ask about. Paths and names are quoted for a POSIX shell.
+    """
+    q = lambda p: shlex.quote(str(p))  # noqa: E731
+    a, b, prior = q(inputs["network_a"]), q(inputs["network_b"]), q(inputs["prior"])
+    return [
+        f"outputs are in {outdir}",
+        "next, try:",
+        f"  aligner query {a} {b} -p {prior} --node {q(node)}",
+        f"  aligner sweep {a} {b} -p {prior} --truth {q(inputs['truth'])} -o {q(outdir)} --alphas 0,0.5,0.8,0.9,0.95",
+        f"  aligner report {q(outdir)}",
+    ]

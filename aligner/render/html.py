@@ -4,8 +4,8 @@ from __future__ import annotations
 
 import base64
 import html
-import io
 import json
+from dataclasses import dataclass
 from pathlib import Path
 
 import numpy as np
@@ -13,6 +13,7 @@ import pandas as pd
 
 from aligner.errors import InvalidParameterError
 from aligner.io.readers import read_network
+from aligner.render.figures import degree_plot, figure_bytes, histogram, subgraph_drawing, sweep_figure
 
 __all__ = ["build_report", "REPORT_FILE", "MAX_DRAWN_NODES"]
 
@@ -88,62 +89,12 @@ def _frame_table(df: pd.DataFrame) -> str:
 
 
 def _png(fig) -> str:
-    import matplotlib.pyplot as plt
-
-    buf = io.BytesIO()
-    fig.savefig(buf, format="png")
-    plt.close(fig)
-    return base64.b64encode(buf.getvalue()).decode("ascii")
+    return base64.b64encode(figure_bytes(fig, ("png",))["png"]).decode("ascii")
 
 
 def _figure(b64: str, alt: str, caption: str) -> str:
     return (f"<figure><img alt='{_esc(alt)}' src='data:image/png;base64,{b64}'>"
             f"<figcaption>{_esc(caption)}</figcaption></figure>")
-
-
-def _plt():
-    import matplotlib
-
-    matplotlib.use("Agg")
-    import matplotlib.pyplot as plt
-
-    return plt
-
-
-def _hist(values, xlabel: str, color: str, log: bool = False):
-    plt = _plt()
-    fig, ax = plt.subplots(figsize=(5.2, 3.4), dpi=100)
-    v = np.asarray(values, dtype=float)
-    v = v[np.isfinite(v)]
-    if log:
-        v = v[v > 0]
-        bins = np.logspace(np.log10(v.min()), np.log10(v.max()), 40) if len(v) and v.max() > v.min() else 20
-        ax.set_xscale("log")
-    else:
-        bins = 40
-    ax.hist(v, bins=bins, color=color, edgecolor="white", linewidth=0.4)
-    ax.set_xlabel(xlabel)
-    ax.set_ylabel("pairs")
-    ax.grid(alpha=0.25)
-    fig.tight_layout()
-    return fig
-
-
-def _degree_plot(pairs: pd.DataFrame, degree: dict):
-    plt = _plt()
-    fig, ax = plt.subplots(figsize=(5.2, 3.4), dpi=100)
-    d = pairs["node_a"].map(degree).to_numpy(dtype=float)
-    c = pairs["conserved"].to_numpy(dtype=float)
-    jitter = np.random.default_rng(0).uniform(-0.2, 0.2, len(d))
-    ax.scatter(d + jitter, c, s=7, alpha=0.45, color="#1f5f8b", linewidths=0)
-    top = max(d.max() if len(d) else 1, 1)
-    ax.plot([0, top], [0, top], ":", color="#d0542c", lw=1, label="all edges conserved")
-    ax.set_xlabel("degree of the node in A")
-    ax.set_ylabel("conserved edges at the pair")
-    ax.legend(fontsize=8, frameon=False)
-    ax.grid(alpha=0.25)
-    fig.tight_layout()
-    return fig
 
 
 def _conserved_subgraph(cons: pd.DataFrame, cap: int):
@@ -169,24 +120,6 @@ def _conserved_subgraph(cons: pd.DataFrame, cap: int):
     return sub.copy(), full_n, full_e
 
 
-def _draw_subgraph(sub, mapping: dict):
-    import networkx as nx
-
-    plt = _plt()
-    fig, ax = plt.subplots(figsize=(9.6, 7.0), dpi=100)
-    pos = nx.spring_layout(sub, seed=1, k=1.4 / max(np.sqrt(sub.number_of_nodes()), 1))
-    deg = dict(sub.degree)
-    nx.draw_networkx_edges(sub, pos, ax=ax, width=0.7, edge_color="#9aa7b5")
-    nx.draw_networkx_nodes(sub, pos, ax=ax, node_size=[18 + 9 * deg[v] for v in sub.nodes],
-                           node_color="#1f5f8b", linewidths=0)
-    if sub.number_of_nodes() <= 60:
-        labels = {v: f"{v}\n{mapping.get(v, '')}" for v in sub.nodes}
-        nx.draw_networkx_labels(sub, pos, labels=labels, ax=ax, font_size=6)
-    ax.set_axis_off()
-    fig.tight_layout()
-    return fig
-
-
 def _significance_rows(sig: dict | None):
     if not sig:
         return []
@@ -205,17 +138,18 @@ def _significance_rows(sig: dict | None):
     return rows
 
 
-def build_report(outdir, *, network_a=None, network_b=None, delimiter: str | None = None,
-                 header: str = "auto") -> Path:
-    """Write ``outdir/report.html`` from the outputs of a finished run in ``outdir``.
+@dataclass(frozen=True, eq=False)
+class _Run:
+    """The files of a finished run, read back: its directory, summary, pairs, conserved edges, A's degrees."""
 
-    Reads summary.json, alignment.tsv and conserved_edges.tsv (and sweep.tsv when a sweep was
-    written there), and re-reads network A from ``summary["inputs"]["network_a"]["source"]``
-    unless ``network_a`` overrides it (network B is only needed for its size, which the summary
-    holds; ``network_b`` is accepted for symmetry and checked to exist). Figures are PNG, embedded
-    as base64; the page loads no external resource.
-    """
-    out = Path(outdir)
+    out: Path
+    summary: dict
+    pairs: pd.DataFrame
+    conserved: pd.DataFrame
+    degree: dict
+
+
+def _load_run(out: Path, network_a, network_b, delimiter: str | None, header: str) -> _Run:
     need = [out / "summary.json", out / "alignment.tsv", out / "conserved_edges.tsv"]
     missing = [p.name for p in need if not p.is_file()]
     if missing:
@@ -231,88 +165,117 @@ def build_report(outdir, *, network_a=None, network_b=None, delimiter: str | Non
         net_a = read_network(src_a, delimiter=delimiter, header=header)
     except (OSError, FileNotFoundError) as exc:
         raise InvalidParameterError(f"cannot re-read network A from '{src_a}' ({exc}); give it with --a") from None
-    degree = dict(zip(net_a.names.astype(str), net_a.degree.astype(int)))
+    return _Run(out, summary, pairs, cons, dict(zip(net_a.names.astype(str), net_a.degree.astype(int))))
 
-    sections = []
+
+def _inputs_section(summary: dict) -> str:
     ins = summary["inputs"]
-    in_rows = [("network A", ins["network_a"]["source"]),
-               ("network A: nodes / edges", f"{ins['network_a']['nodes']:,} / {ins['network_a']['edges']:,}"),
-               ("network B", ins["network_b"]["source"]),
-               ("network B: nodes / edges", f"{ins['network_b']['nodes']:,} / {ins['network_b']['edges']:,}")]
+    rows = [("network A", ins["network_a"]["source"]),
+            ("network A: nodes / edges", f"{ins['network_a']['nodes']:,} / {ins['network_a']['edges']:,}"),
+            ("network B", ins["network_b"]["source"]),
+            ("network B: nodes / edges", f"{ins['network_b']['nodes']:,} / {ins['network_b']['edges']:,}")]
     if ins.get("prior"):
-        in_rows += [("prior", ins["prior"]["source"]), ("prior rows / usable pairs",
-                                                         f"{ins['prior']['rows']:,} / {ins['prior']['pairs']:,}")]
+        rows += [("prior", ins["prior"]["source"]),
+                 ("prior rows / usable pairs", f"{ins['prior']['rows']:,} / {ins['prior']['pairs']:,}")]
     if ins.get("truth"):
-        in_rows.append(("truth table", ins["truth"]["source"]))
+        rows.append(("truth table", ins["truth"]["source"]))
     params = list(summary.get("parameters", {}).items())
     sizes = list(summary.get("sizes", {}).items())
-    sections.append("<section><h2>Inputs and parameters</h2><div class='grid'><div>" + _kv_table(in_rows)
-                    + "</div><div>" + _kv_table(params) + "</div><div>" + _kv_table(sizes) + "</div></div></section>")
+    return ("<section><h2>Inputs and parameters</h2><div class='grid'><div>" + _kv_table(rows) + "</div><div>"
+            + _kv_table(params) + "</div><div>" + _kv_table(sizes) + "</div></div></section>")
 
+
+def _scores_section(summary: dict) -> str:
     sc = summary["scores"]
-    score_rows = [("conserved edges", sc.get("conserved_edges")), ("EC (edge correctness)", sc.get("ec")),
-                  ("ICS (induced conserved structure)", sc.get("ics")),
-                  ("S3 (symmetric substructure score)", sc.get("s3")),
-                  ("largest common connected subgraph: nodes", sc.get("lccs_nodes")),
-                  ("largest common connected subgraph: edges", sc.get("lccs_edges")),
-                  ("matched pairs", sc.get("n_matched"))]
+    rows = [("conserved edges", sc.get("conserved_edges")), ("EC (edge correctness)", sc.get("ec")),
+            ("ICS (induced conserved structure)", sc.get("ics")), ("S3 (symmetric substructure score)", sc.get("s3")),
+            ("largest common connected subgraph: nodes", sc.get("lccs_nodes")),
+            ("largest common connected subgraph: edges", sc.get("lccs_edges")), ("matched pairs", sc.get("n_matched"))]
     if sc.get("nc") is not None:
-        score_rows.append(("NC (node correctness)", sc.get("nc")))
+        rows.append(("NC (node correctness)", sc.get("nc")))
     sig_rows = _significance_rows(summary.get("significance"))
-    sections.append("<section><h2>Scores</h2><div class='grid'><div>" + _kv_table(score_rows) + "</div><div>"
-                    + (_kv_table(sig_rows) if sig_rows else "<p class='note'>no significance in this run</p>")
-                    + "<p class='note'>Null 1: a uniformly random one-to-one map between the matched nodes of A "
-                      "and their images (exact mean and variance). Null 2: random one-to-one maps using candidate "
-                      "pairs only.</p></div></div></section>")
+    return ("<section><h2>Scores</h2><div class='grid'><div>" + _kv_table(rows) + "</div><div>"
+            + (_kv_table(sig_rows) if sig_rows else "<p class='note'>no significance in this run</p>")
+            + "<p class='note'>Null 1: a uniformly random one-to-one map between the matched nodes of A and their "
+              "images (exact mean and variance). Null 2: random one-to-one maps using candidate pairs only.</p>"
+              "</div></div></section>")
 
-    if (out / "sweep.tsv").is_file():
-        from aligner.analysis.sweep import KNEE_RULE, knee_index, plot_sweep
 
-        tab = pd.read_csv(out / "sweep.tsv", sep="\t")
-        knee = knee_index(tab["prior_weight"], tab["conserved_edges"])
-        fig = plot_sweep(tab, knee)
-        cap = f"One point per α from sweep.tsv. Knee: {KNEE_RULE}."
-        if knee is not None:
-            cap += f" Suggested α = {tab['alpha'].iloc[knee]:g}."
-        sections.append("<section><h2>Trade-off across α</h2>" + _figure(_png(fig), "trade-off curve", cap)
-                        + "</section>")
+def _sweep_section(out: Path) -> str:
+    """The trade-off curve of a sweep written into the run's directory, or nothing."""
+    if not (out / "sweep.tsv").is_file():
+        return ""
+    from aligner.analysis.sweep import KNEE_RULE, knee_index
 
-    figs = [_figure(_png(_hist(pairs["score"], "diffusion score (log scale)", "#1f5f8b", log=True)),
+    tab = pd.read_csv(out / "sweep.tsv", sep="\t")
+    knee = knee_index(tab["prior_weight"], tab["conserved_edges"])
+    cap = f"One point per α from sweep.tsv. Knee: {KNEE_RULE}."
+    if knee is not None:
+        cap += f" Suggested α = {tab['alpha'].iloc[knee]:g}."
+    return ("<section><h2>Trade-off across α</h2>" + _figure(_png(sweep_figure(tab, knee)), "trade-off curve", cap)
+            + "</section>")
+
+
+def _distributions_section(run: _Run) -> str:
+    pairs = run.pairs
+    figs = [_figure(_png(histogram(pairs["score"], "diffusion score (log scale)", "#1f5f8b", log=True)),
                     "score histogram", "Diffusion scores of the matched pairs.")]
     if "confidence" in pairs:
-        figs.append(_figure(_png(_hist(pairs["confidence"], "confidence", "#6a8d3a")), "confidence histogram",
+        figs.append(_figure(_png(histogram(pairs["confidence"], "confidence", "#6a8d3a")), "confidence histogram",
                             "Confidence: (x − best competitor) / x, clipped at 0."))
-    figs.append(_figure(_png(_degree_plot(pairs, degree)), "conserved edges against degree",
+    figs.append(_figure(_png(degree_plot(pairs, run.degree)), "conserved edges against degree",
                         "Each matched pair: its node's degree in A against its conserved edges."))
-    sections.append("<section><h2>Distributions</h2><div class='grid'>" + "".join(figs) + "</div></section>")
+    return "<section><h2>Distributions</h2><div class='grid'>" + "".join(figs) + "</div></section>"
 
-    sub, full_n, full_e = _conserved_subgraph(cons, MAX_DRAWN_NODES)
-    if sub.number_of_nodes():
-        mapping = dict(zip(pairs["node_a"], pairs["node_b"]))
-        cap = (f"Largest connected component of the conserved edges: {full_n:,} nodes, {full_e:,} edges"
-               + (f"; drawn: the {sub.number_of_nodes()} nodes nearest its best-connected node" if full_n >
-                  sub.number_of_nodes() else "") + ". Labels (when drawn): node of A over its partner in B.")
-        sections.append("<section><h2>Conserved subgraph</h2>"
-                        + _figure(_png(_draw_subgraph(sub, mapping)), "largest conserved subgraph", cap)
-                        + "</section>")
 
+def _subgraph_section(run: _Run) -> str:
+    sub, full_n, full_e = _conserved_subgraph(run.conserved, MAX_DRAWN_NODES)
+    if not sub.number_of_nodes():
+        return ""
+    mapping = dict(zip(run.pairs["node_a"], run.pairs["node_b"]))
+    drawn = sub.number_of_nodes()
+    cap = (f"Largest connected component of the conserved edges: {full_n:,} nodes, {full_e:,} edges"
+           + (f"; drawn: the {drawn} nodes nearest its best-connected node" if full_n > drawn else "")
+           + ". Labels (when drawn): node of A over its partner in B.")
+    return ("<section><h2>Conserved subgraph</h2>"
+            + _figure(_png(subgraph_drawing(sub, mapping)), "largest conserved subgraph", cap) + "</section>")
+
+
+def _pairs_sections(pairs: pd.DataFrame) -> str:
     cols = [c for c in ("node_a", "node_b", "score", "prior", "conserved", "confidence") if c in pairs]
     key = "confidence" if "confidence" in pairs else "score"
     top = pairs.sort_values([key, "score"], ascending=False, kind="stable").head(TOP_ROWS)[cols]
     low = pairs.sort_values([key, "score"], ascending=True, kind="stable").head(TOP_ROWS)[cols]
-    sections.append(f"<section><h2>Most confident pairs</h2>{_frame_table(top)}</section>"
-                    f"<section><h2>Least confident pairs</h2><p class='note'>Check these first.</p>"
-                    f"{_frame_table(low)}</section>")
+    return (f"<section><h2>Most confident pairs</h2>{_frame_table(top)}</section>"
+            f"<section><h2>Least confident pairs</h2><p class='note'>Check these first.</p>"
+            f"{_frame_table(low)}</section>")
 
-    page = ("<!DOCTYPE html><html lang='en'><head><meta charset='utf-8'>"
+
+def _page(out: Path, version: str, sections: list[str]) -> str:
+    return ("<!DOCTYPE html><html lang='en'><head><meta charset='utf-8'>"
             "<meta name='viewport' content='width=device-width, initial-scale=1'>"
             f"<title>aligner report — {_esc(out.name)}</title><style>{_CSS}</style></head><body>"
-            f"<header><h1>Alignment report</h1><p>{_esc(out)} · aligner {_esc(summary.get('version', ''))}</p>"
+            f"<header><h1>Alignment report</h1><p>{_esc(out)} · aligner {_esc(version)}</p>"
             "</header><main>" + "".join(sections)
             + "<p class='note' id='page-check'></p><p class='note' id='page-errors'></p></main>" + _CHECK
             + "</body></html>")
-    path = out / REPORT_FILE
-    tmp = out / (REPORT_FILE + ".tmp")
-    tmp.write_text(page, encoding="utf-8")
-    tmp.replace(path)
+
+
+def build_report(outdir, *, network_a=None, network_b=None, delimiter: str | None = None,
+                 header: str = "auto") -> Path:
+    """Write ``outdir/report.html`` from the outputs of a finished run in ``outdir``.
+
+    Reads summary.json, alignment.tsv and conserved_edges.tsv (and sweep.tsv when a sweep was
+    written there), and re-reads network A from ``summary["inputs"]["network_a"]["source"]``
+    unless ``network_a`` overrides it (network B is only needed for its size, which the summary
+    holds; ``network_b`` is accepted for symmetry and checked to exist). Figures are PNG, embedded
+    as base64; the page loads no external resource. Returns the path of the page.
+    """
+    from aligner.io.outputs import write_text_atomic
+
+    run = _load_run(Path(outdir), network_a, network_b, delimiter, header)
+    sections = [_inputs_section(run.summary), _scores_section(run.summary), _sweep_section(run.out),
+                _distributions_section(run), _subgraph_section(run), _pairs_sections(run.pairs)]
+    path = run.out / REPORT_FILE
+    write_text_atomic(path, _page(run.out, run.summary.get("version", ""), [s for s in sections if s]))
     return path
