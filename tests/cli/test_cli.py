@@ -1,4 +1,5 @@
 import json
+import shlex
 from pathlib import Path
 
 import pandas as pd
@@ -62,15 +63,30 @@ def test_demo_runs_from_any_directory(tmp_path, monkeypatch):
     assert res.exit_code == 0, res.output
     assert (tmp_path / "demo_out" / "summary.json").exists()
     assert "demo_out" in res.output
+    # it ends by naming the output directory and the next commands, with the real paths
+    tail = res.output.strip().splitlines()[-5:]
+    assert tail[0] == f"outputs are in {Path('demo_out')}" and tail[1] == "next, try:"
+    assert tail[-1] == "  aligner report demo_out"
+    for line in tail[2:4]:
+        words = line.split()
+        assert words[:2] in (["aligner", "query"], ["aligner", "sweep"])
+        assert Path(words[2]).is_file() and Path(words[3]).is_file()  # network A and B as real paths
+    # the suggested query runs as printed (its node is a node of A)
+    query = shlex.split(tail[2])
+    assert query[:2] == ["aligner", "query"]
+    res = runner.invoke(app, query[1:] + ["--json"])
+    assert res.exit_code == 0, res.output
+    assert json.loads(res.output)["queries"][0]["query"] == query[query.index("--node") + 1]
 
 
 def test_bad_option_value_is_a_clear_error(tmp_path):
     res = _align(tmp_path, "--alpha", "1.5")
     assert res.exit_code == 2
-    assert "'alpha' parameter of align must be a real number in [0, 1). Got 1.5 instead." in res.output
+    # the option as the user typed it, the allowed interval and the value (the declaration in aligner.config)
+    assert "error: --alpha must be a number in [0, 1); got 1.5" in res.output
     assert not (tmp_path / "out").exists()
     res = _align(tmp_path, "--top-k", "0")
-    assert res.exit_code == 2 and "top_k" in res.output
+    assert res.exit_code == 2 and "--top-k must be a whole number >= 1; got 0" in res.output
 
 
 def test_bad_input_file_names_file_and_line(tmp_path):

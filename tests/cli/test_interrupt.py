@@ -112,17 +112,20 @@ def test_killed_runs_leave_previous_outputs_or_none(inputs, tmp_path):
     plans = [(signal.SIGKILL, 0.6), (signal.SIGKILL, None), (signal.SIGINT, 0.6), (signal.SIGINT, None)]
     for sig, frac in plans:
         rc, err = _kill_when(_start(inputs, out), tmp_path, out, sig, None if frac is None else frac * full)
+        kind = _check_state(out, previous, user_file)
         if sig == signal.SIGINT and rc == -signal.SIGINT:
             # on a slow machine the signal can land while Python is still importing the package,
-            # before the command line runs: Python's own KeyboardInterrupt exit; nothing was touched
-            assert "KeyboardInterrupt" in err, err
+            # before the command line runs: Python's own KeyboardInterrupt exit; nothing was touched.
+            # Or it lands after the command has finished, while the interpreter shuts down: Python
+            # has put SIGINT back to the system default by then (CPython's signal finalisation), so
+            # the process dies without a word, and the outputs are the complete new set.
+            assert "KeyboardInterrupt" in err or (err == "" and kind == "new"), (err, kind)
         else:
             assert "Traceback" not in err, err
         if sig == signal.SIGINT and rc not in (0, -signal.SIGINT):
             assert rc == 130 and "interrupted" in err, (rc, err)
             # Ctrl-C cleans up after itself: no staging directory is left behind
             assert not _staging(tmp_path, out), _staging(tmp_path, out)
-        kind = _check_state(out, previous, user_file)
         # what a SIGKILL left behind is put right before the next run writes anything
         check_outdir(out, force=True)
         assert not _staging(tmp_path, out), _staging(tmp_path, out)

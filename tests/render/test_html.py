@@ -8,12 +8,26 @@ import tempfile
 import pytest
 from typer.testing import CliRunner
 
+import pandas as pd
+
 from aligner.cli.app import app
+from aligner.datasets.synthetic import powerlaw_graph, relabelled_pair
 from aligner.render.html import build_report
 
-from test_sweep import _write
-
 BROWSERS = ("chromium", "chromium-browser", "google-chrome", "google-chrome-stable")
+
+
+def _write(tmp_path, n=150, seed=4):
+    """A seeded power-law graph, its noisy relabelled copy, a prior with decoys and the truth, as TSV files."""
+    sp = relabelled_pair(powerlaw_graph(n, m=3, seed=seed), n, noise=0.1, decoys=6, seed=seed + 1)
+    name = lambda prefix, v: [f"{prefix}{int(i)}" for i in v]  # noqa: E731
+    frames = {"a.tsv": (name("a", sp.edges_a[:, 0]), name("a", sp.edges_a[:, 1])),
+              "b.tsv": (name("b", sp.edges_b[:, 0]), name("b", sp.edges_b[:, 1])),
+              "p.tsv": (name("a", sp.prior_pairs[:, 0]), name("b", sp.prior_pairs[:, 1]), sp.prior_scores),
+              "t.tsv": (name("a", sp.truth[:, 0]), name("b", sp.truth[:, 1]))}
+    for file, cols in frames.items():
+        pd.DataFrame(dict(enumerate(cols))).to_csv(tmp_path / file, sep="\t", index=False, header=False)
+    return [tmp_path / f for f in frames]
 
 
 def _browser():

@@ -1,0 +1,249 @@
+"""Command-line options derived from the declarations in aligner.config.
+
+The reference for every check here is the declarations themselves (``aligner.config.specs``):
+each field's flag must appear in the help of the commands that take it, and a bad value typed
+on the command line must fail with the same message as the Python keyword, the flag in the
+keyword's place (that is the point of declaring every option once).
+"""
+
+import json
+import re
+import subprocess
+import sys
+from pathlib import Path
+
+import pandas as pd
+import pytest
+import typer
+from typer.testing import CliRunner
+
+from aligner.cli.app import app
+from aligner.cli.options import Use, command
+from aligner.cli.runtime import message
+from aligner.config import AlignConfig, LabelConfig, QueryConfig, specs
+from aligner.errors import InvalidParameterError
+
+ASSETS = Path(__file__).resolve().parents[1] / "assets"
+A, B, PRIOR, TRUTH = (ASSETS / f"small_{n}.tsv" for n in ("a", "b", "prior", "truth"))
+runner = CliRunner(env={"COLUMNS": "250"})  # wide enough that no flag is cut short in the help
+
+
+def _help(*cmd: str) -> str:
+    res = runner.invoke(app, [*cmd, "--help"])
+    assert res.exit_code == 0, res.output
+    return " ".join(res.output.replace("│", " ").split())
+
+
+def _has_flag(text: str, flag: str) -> bool:
+    return re.search(rf"(?<![\w-]){re.escape(flag)}(?![\w-])", text) is not None
+
+
+def _flags(spec) -> list[str]:
+    return spec.flag.split("/")  # a boolean may declare its pair, "--refine/--no-refine"
+
+
+# --------------------------------------------------------------------------- every option in the help
+
+@pytest.mark.parametrize("cmd, skip", [("align", ()), ("sweep", ("alpha",))])
+def test_every_align_option_is_in_the_help(cmd, skip):
+    text = _help(cmd)
+    for name, (default, spec) in specs(AlignConfig).items():
+        if name in skip:
+            continue
+        for flag in _flags(spec):
+            assert _has_flag(text, flag), (cmd, name, flag)
+        assert spec.group in text, (cmd, name, spec.group)  # shown in its declared panel
+        if spec.kind == "choice":
+            assert f"Choices: {', '.join(spec.choices)}." in text, (cmd, name)
+        if default is not None and spec.kind != "bool":
+            assert f"[default: {default}]" in text, (cmd, name, default)
+    if cmd == "sweep":  # the sweep's own option, in place of --alpha
+        assert _has_flag(text, "--alphas") and not _has_flag(text, "--alpha")
+
+
+def test_query_and_label_options_are_in_their_help():
+    text = _help("query")
+    for _, spec in specs(QueryConfig).values():
+        assert _has_flag(text, spec.flag), spec.flag
+    text = _help("prior-from-labels")
+    for _, spec in specs(LabelConfig).values():
+        assert _has_flag(text, spec.flag), spec.flag
+
+
+def test_shared_options_are_the_same_everywhere():
+    # --quiet/-q is declared once in aligner.cli.options and taken by every command
+    for cmd in ("align", "sweep", "query", "demo", "score", "report", "prior-from-labels"):
+        text = _help(cmd)
+        assert _has_flag(text, "--quiet") and _has_flag(text, "-q"), cmd
+    for cmd in ("align", "sweep", "query"):
+        text = _help(cmd)
+        for flag in ("--prior", "-p", "--seeds", "--delimiter", "--header", "--top-k", "--seed-weight"):
+            assert _has_flag(text, flag), (cmd, flag)
+
+
+# --------------------------------------------------------------------------- bad values name the flag
+
+def _bad_value(default, spec):
+    """A value the declaration refuses, as typed on the command line."""
+    if spec.kind == "choice":
+        return "no-such-choice"
+    if spec.low is not None:
+        return str(spec.low - 1)
+    if spec.high is not None:
+        return str(spec.high + 1)
+    return "x" if spec.kind == "real" else "1.5"  # not a number / not a whole number
+
+
+def _as_python(typed: str, kind: str):
+    """The value Python receives for ``typed`` (a number when it reads as one; else the text)."""
+    try:
+        return {"real": float, "int": int}[kind](typed)
+    except (KeyError, ValueError):
+        return typed
+
+
+BAD = [(n, d, s) for n, (d, s) in specs(AlignConfig).items() if s.kind in ("real", "int", "choice")]
+
+
+@pytest.mark.parametrize("name, default, spec", BAD, ids=[b[0] for b in BAD])
+@pytest.mark.parametrize("cmd", ["align", "sweep"])
+def test_bad_value_exits_2_naming_the_flag(tmp_path, cmd, name, default, spec):
+    if cmd == "sweep" and name == "alpha":
+        pytest.skip("sweep takes --alphas instead of --alpha")
+    typed = _bad_value(default, spec)
+    res = runner.invoke(app, [cmd, str(A), str(B), "-p", str(PRIOR), "-o", str(tmp_path / "out"), spec.flag, typed])
+    assert res.exit_code == 2, res.output
+    assert "Traceback" not in res.output
+    # the same value given to Python: the message names the keyword; the command line puts the flag there
+    value = _as_python(typed, spec.kind)
+    with pytest.raises(InvalidParameterError) as info:
+        AlignConfig(**{name: value})
+    expected = str(info.value)
+    assert expected.startswith(f"{name} must be ")
+    text = " ".join(res.output.split())
+    assert f"error: {spec.flag}{expected[len(name):]}" in text, (text, expected)
+    assert typed in text  # the value as typed
+    assert not (tmp_path / "out").exists()  # nothing written
+
+
+def test_message_puts_the_flag_only_in_place_of_a_leading_keyword():
+    flags = {"alpha": "--alpha", "top_k": "--top-k"}
+    assert message(InvalidParameterError("top_k must be x; got 0", param="top_k"), flags) == "--top-k must be x; got 0"
+    # a message that does not start with the keyword is left as it is
+    text = "the alpha of this run must be x"
+    assert message(InvalidParameterError(text, param="alpha"), flags) == text
+    # a keyword that is a prefix of another word is not replaced
+    assert message(InvalidParameterError("alphas must be x", param="alpha"), flags) == "alphas must be x"
+    # a keyword the command does not know stays the keyword
+    assert message(InvalidParameterError("beta must be x", param="beta"), flags) == "beta must be x"
+
+
+def test_optional_numbers_accept_none(tmp_path):
+    # top_k and max_memory are declared optional: "none" gives None (every candidate; the default budget)
+    res = runner.invoke(app, ["align", str(A), str(B), "-p", str(PRIOR), "-o", str(tmp_path / "out"),
+                              "--top-k", "none", "--max-memory", "none", "-q"])
+    assert res.exit_code == 0, res.output
+    params = json.loads((tmp_path / "out" / "summary.json").read_text())["parameters"]
+    assert params["top_k"] is None and params["max_memory"] is None
+
+
+# --------------------------------------------------------------------------- the decorator itself
+
+def test_command_hands_one_config_object():
+    got = {}
+    toy = typer.Typer()
+
+    @toy.command()
+    @command(Use(LabelConfig, into="labels"), Use(AlignConfig, ("delimiter", "header")))
+    def run(name: str, *, labels: LabelConfig, config: AlignConfig):
+        got.update(name=name, labels=labels, config=config)
+
+    res = CliRunner().invoke(toy, ["x", "--top-k", "3", "--header", "no"])
+    assert res.exit_code == 0, res.output
+    assert got["labels"] == LabelConfig(top_k=3) and got["config"] == AlignConfig(header="no")
+    res = CliRunner().invoke(toy, ["x"])
+    assert got["labels"] == LabelConfig() and got["config"] == AlignConfig()  # defaults from the declarations
+    res = CliRunner().invoke(toy, ["x", "--min-similarity", "0"])
+    assert res.exit_code == 2 and "--min-similarity must be a number in (0, 1]; got 0.0" in res.output
+
+
+def test_an_option_declared_twice_is_refused():
+    with pytest.raises(TypeError, match="declared twice"):
+        command(Use(AlignConfig, ("top_k",)), Use(LabelConfig, into="labels"))(lambda *, config, labels: None)
+
+
+# --------------------------------------------------------------------------- sweep takes align's options
+
+def _weighted_copy(src: Path, dst: Path) -> Path:
+    rows = [line.split("\t") for line in src.read_text().splitlines() if line and not line.startswith("#")]
+    rows = [r for r in rows if r[0] not in ("node_a", "source")]
+    dst.write_text("".join(f"{u}\t{v.strip()}\t{1 + i % 3}\n" for i, (u, v) in enumerate(rows)))
+    return dst
+
+
+def test_sweep_takes_seeds_directed_weighted_and_no_refine(tmp_path, monkeypatch):
+    import aligner.analysis.sweep as sweep_module
+
+    real, seen = sweep_module.sweep, {}
+
+    def spy(*args, **kwargs):
+        seen.update(kwargs)
+        return real(*args, **kwargs)
+
+    monkeypatch.setattr(sweep_module, "sweep", spy)
+    a, b = _weighted_copy(A, tmp_path / "a.tsv"), _weighted_copy(B, tmp_path / "b.tsv")
+    seeds = tmp_path / "seeds.tsv"
+    seeds.write_text("a1\tb1\n")
+    out = tmp_path / "out"
+    res = runner.invoke(app, ["sweep", str(a), str(b), "-p", str(PRIOR), "-o", str(out), "--alphas", "0.9,0,0.5",
+                              "--seeds", str(seeds), "--directed", "--weighted", "--no-refine", "--truth", str(TRUTH),
+                              "-q"])
+    assert res.exit_code == 0, res.output
+    cfg = seen["config"]
+    assert cfg.directed and cfg.weighted and not cfg.refine, cfg
+    assert Path(seen["seeds"]) == seeds and list(seen["alphas"]) == [0.9, 0.0, 0.5]
+    table = pd.read_csv(out / "sweep.tsv", sep="\t")
+    assert table["alpha"].tolist() == [0.0, 0.5, 0.9]  # ascending (the sweep's documented order)
+    assert (out / "sweep.png").read_bytes()[:8] == b"\x89PNG\r\n\x1a\n"  # PNG signature (PNG specification)
+    assert b"<svg" in (out / "sweep.svg").read_bytes()[:1000]
+
+
+def test_sweep_refuses_an_earlier_sweep_before_any_work(tmp_path, monkeypatch):
+    import aligner.analysis.sweep as sweep_module
+
+    out = tmp_path / "out"
+    out.mkdir()
+    (out / "sweep.tsv").write_text("keep\n")
+    monkeypatch.setattr(sweep_module, "sweep", lambda *a, **k: pytest.fail("the sweep ran"))
+    res = runner.invoke(app, ["sweep", str(A), str(B), "-p", str(PRIOR), "-o", str(out)])
+    assert res.exit_code == 2 and "already holds sweep.tsv" in " ".join(res.output.split())
+    assert (out / "sweep.tsv").read_text() == "keep\n"
+
+
+def test_bad_alphas_name_the_option(tmp_path):
+    res = runner.invoke(app, ["sweep", str(A), str(B), "-p", str(PRIOR), "-o", str(tmp_path / "o"),
+                              "--alphas", "0,high"])
+    assert res.exit_code == 2
+    assert "error: --alphas must be comma-separated numbers such as 0,0.5,0.9; got '0,high'" in res.output
+
+
+# --------------------------------------------------------------------------- a quick start
+
+def test_early_exits_do_not_import_the_numerical_stack(tmp_path):
+    # common practice for a command line: --help, --version and an error exit for a missing input
+    # file load none of numpy, pandas, scipy, numba, matplotlib (fresh interpreter each)
+    cases = [["--help"], ["--version"], ["align", "--help"], ["sweep", "--help"],
+             ["align", str(tmp_path / "missing.tsv"), str(B), "-o", str(tmp_path / "o")],
+             ["align", str(A), str(B), "-o", str(tmp_path / "o"), "--alpha", "2"]]
+    for argv in cases:
+        code = ("import sys\nfrom aligner.cli import app\n"
+                f"sys.argv = ['aligner'] + {argv!r}\n"
+                "code = None\ntry:\n    app()\nexcept SystemExit as e:\n    code = e.code\n"
+                "heavy = [m for m in ('numpy', 'pandas', 'scipy', 'numba', 'matplotlib') if m in sys.modules]\n"
+                "print('HEAVY', ','.join(heavy), 'EXIT', code)\n")
+        proc = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, timeout=120)
+        last = proc.stdout.strip().splitlines()[-1]
+        assert last.startswith("HEAVY  EXIT"), (argv, last, proc.stderr)
+        assert last.endswith("EXIT 2" if len(argv) > 2 else "EXIT 0"), (argv, last, proc.stderr)
+        if len(argv) > 2 and "missing.tsv" in argv[1]:
+            assert "missing.tsv: no such file; check the path" in proc.stderr
