@@ -2,7 +2,9 @@ import networkx as nx
 import numpy as np
 import pytest
 
-from aligner.core.scoring import node_correctness, score_matching
+from aligner.core.scoring import (conserved_image, conserved_mask, conserved_per_node, node_correctness,
+                                   score_matching)
+from aligner.errors import InvalidParameterError
 
 
 def test_hand_worked_example_from_published_definitions():
@@ -86,3 +88,87 @@ def test_hand_worked_example_with_more_edges_in_a_than_in_b():
     # the same map read from B's side: swap the roles, EC is symmetric in the two edge counts
     s2, _ = score_matching(eb, ea, m[:, ::-1], 6, 4)
     assert s2.ec == s.ec and s2.conserved_edges == 1
+
+
+def test_conserved_image_rows_and_defaults():
+    # hand-worked: A edges (0,1), (1,2), (2,3); f = identity on 0..2, 3 unmapped;
+    # B edges, in this order: (2,1), (0,1). (0,1) -> row 1 of B; (1,2) -> row 0 of B (written the
+    # other way round: the same undirected edge); (2,3) has an unmapped end -> -1.
+    ea = np.array([[0, 1], [1, 2], [2, 3]])
+    eb = np.array([[2, 1], [0, 1]])
+    f = np.array([0, 1, 2, -1])
+    assert conserved_image(ea, eb, f, 3).tolist() == [1, 0, -1]  # undirected unless asked
+    assert conserved_image(ea, eb, f, 3, directed=True).tolist() == [1, -1, -1]  # arcs keep their way
+    assert conserved_mask(ea, eb, f, 3).tolist() == [True, True, False]
+    # B without edges: nothing is conserved (and nothing is looked up in an empty list)
+    assert conserved_image(ea, np.empty((0, 2), np.int64), f, 3).tolist() == [-1, -1, -1]
+
+
+def test_conserved_image_with_node_numbers_near_two_to_the_31():
+    # common practice: edge keys must be exact integers. B has 2**31 nodes (only numbers: no
+    # array of that size is made); its edges (N-3, N-1) and (N-2, N-1) differ by one in the first
+    # end, far below double-precision resolution at that magnitude, so float keys would collide.
+    n2 = 2**31
+    eb = np.array([[n2 - 3, n2 - 1]])
+    ea = np.array([[0, 1], [1, 2]])
+    f = np.array([n2 - 2, n2 - 1, n2 - 3])  # (0,1) -> (N-2, N-1): not in B; (1,2) -> (N-1, N-3): in B
+    assert conserved_image(ea, eb, f, n2).tolist() == [-1, 0]
+    assert conserved_image(ea, eb, f, n2, directed=True).tolist() == [-1, -1]
+    assert conserved_image(ea[::-1, ::-1], eb, f, n2, directed=True).tolist() == [0, -1]
+
+
+def test_empty_b_empty_truth_and_empty_map():
+    # hand-worked: B has no edge, so nothing is conserved and no edge of B is induced.
+    ea = np.array([[0, 1], [1, 2]])
+    s, cons = score_matching(ea, np.empty((0, 2), np.int64), np.array([[0, 0], [1, 1]]), 3, 2)
+    assert (s.conserved_edges, s.induced_edges_b, s.ec, s.ics, s.s3) == (0, 0, 0.0, 0.0, 0.0)
+    assert cons.tolist() == [False, False] and s.n_edges_b == 0
+    # an empty truth table: node correctness is undefined (nan), with zero counts
+    nc, detail = node_correctness(np.array([[0, 0]]), np.empty((0, 2), np.int64), 3)
+    assert np.isnan(nc) and detail == {"truth_nodes": 0, "correct": 0}
+    s, _ = score_matching(ea, ea, np.array([[0, 0]]), 3, 3, truth=[])
+    assert np.isnan(s.nc) and s.nc_detail == {"truth_nodes": 0, "correct": 0}
+    # an empty map given as a plain list
+    s, cons = score_matching(ea, ea, [], 3, 3, truth=[[0, 0]])
+    assert (s.conserved_edges, s.n_matched, s.nc) == (0, 0, 0.0) and not cons.any()
+
+
+def test_scores_record_what_was_counted():
+    # the hand-worked example above, read through as_dict (the keys summary.json carries)
+    ea = np.array([[0, 1], [1, 2], [0, 2], [2, 3]])
+    eb = np.array([[0, 1], [1, 2], [2, 3], [0, 3], [0, 2], [3, 4]])
+    m = np.array([[0, 0], [1, 1], [2, 2], [3, 4]])
+    s, _ = score_matching(ea, eb, m, 4, 5, truth=np.array([[0, 0], [1, 1], [2, 2], [3, 3]]))
+    assert s.as_dict() == {"conserved_edges": 3, "ec": 0.75, "ics": 1.0, "s3": 0.75, "lccs_nodes": 3,
+                           "lccs_edges": 3, "nc": 0.75, "n_matched": 4, "induced_edges_b": 3,
+                           "edges_a": 4, "edges_b": 6}
+    assert s.nc_detail == {"truth_nodes": 4, "correct": 3} and s.directed is False
+    # directed and weighted runs add their keys
+    d, _ = score_matching(ea, eb, m, 4, 5, directed=True, weights_a=np.ones(4), weights_b=np.full(6, 2.0))
+    got = d.as_dict()
+    assert got["directed"] is True and d.directed is True and got["nc"] is None
+    # arcs (0,1), (1,2), (0,2) land on arcs of B; unit weights in A, 2 in B: min is 1 each
+    assert (got["conserved_edges"], got["conserved_weight"], got["weighted_ec"]) == (3, 3.0, 3 / 4)
+
+
+@pytest.mark.parametrize("given", ["weights_a", "weights_b"])
+def test_weights_of_one_network_only_is_an_error(given):
+    ea = np.array([[0, 1]])
+    with pytest.raises(InvalidParameterError, match=rf"^weights_a and weights_b must be given together "
+                                                    rf"or not at all; got {given} only$") as info:
+        score_matching(ea, ea, [[0, 0], [1, 1]], 2, 2, **{given: np.ones(1)})
+    assert info.value.param == given
+
+
+def test_conserved_per_node_against_networkx(rng):
+    # Reference: networkx degrees in the conserved subgraph (edges counted at both ends).
+    g = nx.gnm_random_graph(30, 80, seed=5)
+    h = nx.gnm_random_graph(30, 80, seed=6)
+    ea, eb = np.array(g.edges()), np.array(h.edges())
+    m = np.stack([np.arange(30), rng.permutation(30)], 1)
+    _, cons = score_matching(ea, eb, m, 30, 30)
+    sub = nx.Graph()
+    sub.add_nodes_from(range(31))
+    sub.add_edges_from(ea[cons].tolist())
+    assert conserved_per_node(ea, cons, 31).tolist() == [sub.degree(v) for v in range(31)]
+    assert conserved_per_node(ea, np.zeros(len(ea), bool), 4).tolist() == [0, 0, 0, 0]
