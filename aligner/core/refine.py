@@ -47,7 +47,7 @@ O(m log d) for 2-exchanges and O(m c log d) with rotations (c: candidates per no
 largest candidate or product degree), plus O(product degree) per move. Memory O(m).
 
 The measured effect of each part and of beta, and the running times, are produced by
-``scripts/bench_refine.py``.
+``scripts/bench/bench_refine.py``.
 
 References
 ----------
@@ -68,6 +68,7 @@ import numpy.typing as npt
 
 from aligner.kernels.refine import _local_search, _matched_neighbours
 from aligner.checks import bad_parameter, check_choice, check_int, check_real
+from aligner.config import AlignConfig, specs
 from aligner.core.candidates import CandidateSet
 from aligner.errors import InvalidParameterError
 from aligner.core.product import ProductGraph
@@ -76,15 +77,16 @@ from aligner.core.rounding import METHODS, round_matching
 __all__ = ["RefineResult", "refine_matching", "refine_objective", "normalise_weights",
            "DEFAULT_BETA", "DEFAULT_MAX_ITER", "DEFAULT_PATIENCE", "STEPS"]
 
-#: Default weight of the normalised matched weight against one conserved edge. The weights
-#: are divided by their mean, so a pair of mean weight counts a tenth of a conserved edge:
-#: enough to break ties and plateaus of the conserved-edge count, too little to outvote the
-#: wiring. ``scripts/bench_refine.py`` measures other values against it.
-DEFAULT_BETA = 0.1
-#: Default cap on Frank–Wolfe iterations over all rounds (each iteration: one sparse product
-#: and one assignment). The stall rule is meant to end the run first; the cap bounds the
-#: worst case to 30 assignments.
-DEFAULT_MAX_ITER = 30
+#: Default weight of the normalised matched weight against one conserved edge (the ``beta``
+#: of :class:`aligner.config.AlignConfig`). The weights are divided by their mean, so a pair
+#: of mean weight counts beta conserved edges: the default, a fraction of one, is meant to
+#: break ties and plateaus of the conserved-edge count without outvoting the wiring.
+#: ``scripts/bench/bench_refine.py`` measures other values against it.
+DEFAULT_BETA: float = specs(AlignConfig)["beta"][0]
+#: Default cap on Frank–Wolfe iterations over all rounds, each one sparse product and one
+#: assignment (the ``refine_iter`` of :class:`aligner.config.AlignConfig`). The stall rule is
+#: meant to end the run first; the cap bounds the worst case.
+DEFAULT_MAX_ITER: int = specs(AlignConfig)["refine_iter"][0]
 #: Iterations without a better matching after which a Frank–Wolfe round ends.
 DEFAULT_PATIENCE = 3
 STEPS = ("line", "unit")
@@ -406,14 +408,14 @@ def refine_matching(prod: ProductGraph, cand: CandidateSet, w: npt.ArrayLike, in
         mean over the candidates with w > 0 (W~), so only its shape matters.
     index : array_like of int
         Candidate indices of the start matching, one-to-one (e.g. ``round_matching(cand, w).index``).
-    beta : float >= 0, default 0.1
+    beta : float >= 0, default :data:`DEFAULT_BETA`
         Weight of the normalised matched weight against one conserved edge.
-    max_iter : int >= 0, default 30
+    max_iter : int >= 0, default :data:`DEFAULT_MAX_ITER`
         Cap on Frank–Wolfe iterations over all rounds; 0 runs the local search only.
     step : {"line", "unit"}, default "line"
         ``line``: exact line search on the continuous relaxation, every assignment's matching
         a candidate for the incumbent; ``unit``: unit steps kept while F rises.
-    patience : int >= 1, default 3
+    patience : int >= 1, default :data:`DEFAULT_PATIENCE`
         A Frank–Wolfe round ends after this many iterations without a better matching.
     rounds : int >= 1, default 1
         Rounds of Frank–Wolfe then local search, each from the best matching so far; a round

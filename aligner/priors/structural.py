@@ -44,6 +44,7 @@ from scipy.spatial import cKDTree
 
 from aligner.kernels.structural import _neighbour_mean, _neighbour_stats, _triangles_and_distance_two
 from aligner.checks import bad_parameter, check_int, check_real
+from aligner.config import AlignConfig, specs
 from aligner.core.network import Network, merge_duplicate_pairs
 from aligner.errors import InvalidParameterError
 
@@ -70,6 +71,10 @@ FEATURE_NAMES = BASE_FEATURES + tuple(f"nbr_mean_{f}" for f in BASE_FEATURES)
 """Names of the columns of :func:`node_features`, in order."""
 AGGREGATE_WEIGHT = 0.5
 """Factor on the z-scored neighbour-mean columns in the distance of :func:`structural_candidates`."""
+DEFAULT_K: int = specs(AlignConfig)["top_k"][0]
+"""Default neighbours per node of :func:`structural_candidates` (the ``top_k`` of :class:`aligner.config.AlignConfig`)."""
+DEFAULT_WEIGHT: float = specs(AlignConfig)["structural_weight"][0]
+"""Default ``weight`` of :func:`combine_priors` (the ``structural_weight`` of :class:`aligner.config.AlignConfig`)."""
 
 
 def node_features(net: Network) -> npt.NDArray[np.float64]:
@@ -186,7 +191,7 @@ def _kernel_scores(d: np.ndarray, nearest: np.ndarray) -> np.ndarray:
 
 
 def structural_candidates(
-    net_a: Network, net_b: Network, *, k: int = 25
+    net_a: Network, net_b: Network, *, k: int = DEFAULT_K
 ) -> tuple[npt.NDArray[np.int64], npt.NDArray[np.float64]]:
     """Candidate pairs and prior scores from structural features alone.
 
@@ -255,7 +260,7 @@ def combine_priors(
     struct_scores: npt.ArrayLike,
     n2: int,
     *,
-    weight: float = 0.5,
+    weight: float = DEFAULT_WEIGHT,
 ) -> tuple[npt.NDArray[np.int64], npt.NDArray[np.float64]]:
     """A weak prior plus structural candidates: the union of the pairs, scores added.
 
