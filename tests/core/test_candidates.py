@@ -55,3 +55,39 @@ def test_top_k_ties_go_to_the_smaller_index_on_an_all_ties_grid():
     c = build_candidates(grid, scores, n1, n2, top_k=1)
     want = {(i, 0) for i in range(n1) if i != 5} | {(0, j) for j in range(n2 - 1)} | {(5, 4)}
     assert c.pairs.tolist() == [list(p) for p in sorted(want)]
+
+
+def test_ties_on_a_large_grid_follow_the_rule_too():
+    # The same rule where an unstable sort would show: numpy's default sort is not stable
+    # (numpy.argsort documentation), and on many equal keys it does reorder them.
+    n1, n2, k = 45, 40, 3
+    grid = np.array([(i, j) for i in range(n1) for j in range(n2)])
+    c = build_candidates(grid, np.full(len(grid), 2.0), n1, n2, top_k=k)
+    assert c.pairs.tolist() == [[i, j] for i in range(n1) for j in range(n2) if j < k or i < k]
+    # ties below a strict winner (worked by hand): pair (10, 39) scores 3.0, the rest 2.0. A node 10
+    # keeps (10, 39), (10, 0), (10, 1), so (10, 2) is lost; B node 39 keeps (10, 39), (0, 39),
+    # (1, 39), so (2, 39), which A node 2 does not keep either, is lost.
+    scores = np.full(len(grid), 2.0)
+    scores[10 * n2 + 39] = 3.0
+    c = build_candidates(grid, scores, n1, n2, top_k=k)
+    want = {(i, j) for i in range(n1) for j in range(n2) if j < k or i < k}
+    want = (want - {(10, 2), (2, 39)}) | {(10, 39)}
+    assert c.pairs.tolist() == [list(p) for p in sorted(want)]
+
+
+def test_defaults_bounds_and_types():
+    # the documented default top_k is 25: on an all-ties 30 x 30 grid, pair (i, j) is kept when
+    # j < 25 (A side) or i < 25 (B side): all but the 5 x 5 corner
+    grid = np.array([(i, j) for i in range(30) for j in range(30)])
+    c = build_candidates(grid, np.ones(900), 30, 30)
+    assert c.pairs.tolist() == [[i, j] for i in range(30) for j in range(30) if i < 25 or j < 25]
+    # min_score is inclusive: "pairs scoring below this are never candidates"
+    c = build_candidates([[0, 0], [1, 1]], [0.5, 0.49], 2, 2, min_score=0.5, top_k=None)
+    assert c.pairs.tolist() == [[0, 0]]
+    # documented dtypes, whatever the input's
+    c = build_candidates([[0, 1], [1, 0]], [1, 2], 2, 2, top_k=None)
+    assert c.prior.dtype == np.float64 and c.a_indptr.dtype == np.int64 and c.pairs.dtype == np.int32
+    assert c.prior.tolist() == [1.0, 2.0]
+    # no nodes at all: coverage is 0, not a division by zero
+    assert build_candidates(np.empty((0, 2)), np.empty(0), 0, 0).coverage() == (0.0, 0.0)
+    assert build_candidates(np.empty((0, 2)), np.empty(0), 0, 3).coverage() == (0.0, 0.0)
