@@ -1,9 +1,12 @@
+import time
+
 import numpy as np
 import pytest
 from scipy.optimize import linear_sum_assignment
 
 from aligner.core.candidates import build_candidates
 from aligner.core.rounding import round_matching
+from aligner.errors import InvalidParameterError
 
 
 def _optimum(cand, w):
@@ -122,3 +125,47 @@ def test_shortest_path_phase_alone_is_optimal(shape, density, monkeypatch):
     got = cand.pairs[m.index]
     assert len(np.unique(got[:, 0])) == len(got) and len(np.unique(got[:, 1])) == len(got)
     assert m.weight == pytest.approx(_optimum(cand, w), rel=1e-12, abs=1e-12)
+
+
+# --------------------------------------------------------------------------- which solver, what is reported
+
+@pytest.mark.parametrize("method, solver", [("auto", "sparse"), ("sparse", "sparse"), ("dense", "dense"),
+                                            ("scipy", "scipy")])
+def test_method_selects_the_solver_and_is_reported(method, solver, monkeypatch):
+    # documented: auto = sparse; each method runs its own solver and no other
+    import aligner.core.rounding as rounding
+    import aligner.kernels.assign as assign
+
+    ran = []
+    for mod, name, tag in ((assign, "sparse_max_weight_matching", "sparse"),
+                           (assign, "max_weight_matching_dense", "dense"), (rounding, "_scipy_matching", "scipy")):
+        real = getattr(mod, name)
+        monkeypatch.setattr(mod, name, lambda *a, _real=real, _tag=tag: ran.append(_tag) or _real(*a))
+    cand = build_candidates([[0, 0], [0, 1], [1, 0]], np.ones(3), 2, 2, top_k=None)
+    w = np.array([3.0, 2.0, 2.0])
+    before = time.perf_counter()
+    m = round_matching(cand, w, method=method)
+    elapsed = time.perf_counter() - before
+    assert ran == [solver]
+    assert m.method == solver and m.weight == 4.0 and sorted(m.index.tolist()) == [1, 2]
+    assert 0.0 <= m.seconds <= elapsed  # the time of the call, measured inside it
+    empty = round_matching(cand, np.zeros(3), method=method)
+    assert empty.method == method and empty.weight == 0.0 and 0.0 <= empty.seconds <= time.perf_counter() - before
+
+
+def test_unknown_method_is_refused():
+    cand = build_candidates([[0, 0]], [1.0], 1, 1, top_k=None)
+    with pytest.raises(InvalidParameterError, match=r"^method must be one of auto, sparse, dense, scipy; "
+                                                    r"got 'hungarian'$") as info:
+        round_matching(cand, np.ones(1), method="hungarian")
+    assert info.value.param == "method"
+
+
+def test_scipy_path_keeps_a_weight_one_below_the_largest():
+    # hand-worked: (0,0) = 3, (0,1) = 2, (1,0) = 2; the optimum takes (0,1) and (1,0), total 4.
+    # The scipy path turns weights into costs (max w + 1) - w; a weight of exactly max w - 1
+    # must stay a stored entry of positive cost (a cost of 0 may be taken for "no entry").
+    cand = build_candidates([[0, 0], [0, 1], [1, 0]], np.ones(3), 2, 2, top_k=None)
+    for w in (np.array([3.0, 2.0, 2.0]), np.array([1.0, 0.5, 0.75]), np.array([5.0, 4.0, 4.0])):
+        m = round_matching(cand, w, method="scipy")
+        assert m.weight == pytest.approx(_optimum(cand, w), rel=1e-15)
