@@ -43,7 +43,7 @@ from aligner.io.inputs import as_network, as_pairs, as_prior, known_pairs
 from aligner.io.readers import PairTable, PriorTable
 from aligner.priors.seeds import (SeedExpansion, SeedTable, add_seed_pairs, as_seeds, expand_from_seeds,
                                   round_with_fixed, seed_index, seed_summary, seed_vector)
-from aligner.priors.structural import FEATURE_NAMES, combine_priors, structural_candidates
+from aligner.priors.structural import DEFAULT_K, FEATURE_NAMES, combine_priors, structural_candidates
 
 __all__ = ["STAGES", "Inputs", "Problem", "Improvement", "Evaluation", "AlignmentResult", "read_inputs",
            "find_candidates", "prepare", "solve", "match", "improve", "evaluate", "summarize", "align", "score"]
@@ -138,7 +138,7 @@ class Candidates:
 
 def _structural(inputs: Inputs, cfg: AlignConfig) -> Candidates:
     net_a, net_b, prior_t = inputs.network_a, inputs.network_b, inputs.prior
-    k = cfg.top_k or 25
+    k = cfg.top_k or DEFAULT_K
     pairs, scores = structural_candidates(net_a, net_b, k=k)
     info = {"pairs": int(len(pairs)), "k": k, "features": list(FEATURE_NAMES),
             "weight": None if prior_t is None else cfg.structural_weight}
