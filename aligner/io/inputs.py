@@ -1,36 +1,120 @@
 """From whatever a caller holds to the canonical objects the stages take.
 
 Every input of the pipeline can be a path, a pandas DataFrame, a networkx graph (networks only),
-an iterable of pairs (pair tables), or an object already read; each ``as_*`` function here is
-the one place that decides which, so the readers only parse and the stages only compute.
+an iterable of rows, a mapping (key -> value, as two columns), or an object already read.
+:func:`as_table` is the one place that turns a path or an object into columns, with the name
+of its source for messages; each ``as_*`` function here (and
+:func:`aligner.priors.seeds.as_seeds`, :func:`aligner.priors.labels.label_prior`) goes through
+it, so the readers only parse and the stages only compute.
 """
 
 from __future__ import annotations
 
 import os
 import warnings
+from collections.abc import Mapping
+from typing import Callable
 
 import numpy as np
 import pandas as pd
 
 from aligner.core.network import Network, network_from_edges
 from aligner.errors import AlignerWarning, InputFormatError, InvalidParameterError, NoCandidatesError
-from aligner.io.readers import PairTable, PriorTable, _lookup, prior_from_columns, read_network, read_pairs, read_prior
+from aligner.io.identifiers import PairTable, pairs_from_columns
+from aligner.io.readers import Table, network_from_table, read_network, read_table
+from aligner.priors.scores import PriorTable, prior_from_columns
 
-__all__ = ["as_network", "as_prior", "as_pairs", "known_pairs"]
+__all__ = ["as_table", "as_network", "as_prior", "as_pairs", "known_pairs"]
+
+
+def as_table(obj, *, name: str, layout: str, min_cols: int, max_cols: int, what: str = "table",
+             delimiter: str | None = None, header: str = "auto", source: str | None = None,
+             read: Callable[[str], object] | None = None) -> Table:
+    """Columns of a table from a path, a DataFrame, a mapping or Series, or an iterable of rows.
+
+    Parameters
+    ----------
+    obj : path, DataFrame, Mapping, Series or iterable of rows
+        A path is read with :func:`aligner.io.readers.read_table` (or ``read``); a DataFrame
+        gives its first ``max_cols`` columns; a mapping or Series gives two columns, its keys
+        (index) and its values; an iterable gives one row per item (a tuple or list of
+        ``min_cols`` to ``max_cols`` values).
+    name : str
+        The keyword the caller passed ``obj`` as ("prior", "seeds"), for messages.
+    layout : str
+        The columns expected, for messages ("node_a, node_b, score").
+    min_cols, max_cols : int
+        The number of columns allowed; a DataFrame's columns beyond ``max_cols`` are ignored.
+    what : str
+        What the table is ("prior table"), for the messages of the file reader.
+    delimiter, header
+        How to read a file (see :func:`aligner.io.readers.read_table`).
+    source : str, optional
+        The name of an object's table in messages; default ``<name>``.
+    read : callable, optional
+        Reads a path instead of ``read_table``; what it returns is taken as the object, with
+        the path as its source.
+
+    Returns
+    -------
+    Table
+        Its ``where(row)`` names a file line or an object's row (1-based) in messages.
+
+    Raises
+    ------
+    InvalidParameterError
+        ``obj`` is of no accepted type, or has too few columns; ``param`` is ``name``.
+    InputFormatError
+        A file is malformed (see :func:`aligner.io.readers.read_table`).
+    """
+    if isinstance(obj, (str, os.PathLike)):
+        if read is None:
+            return read_table(obj, min_cols=min_cols, max_cols=max_cols, delimiter=delimiter, header=header,
+                              what=what)
+        source, obj = os.fspath(obj), read(os.fspath(obj))
+    source = source or f"<{name}>"
+    if isinstance(obj, pd.DataFrame):
+        if obj.shape[1] < min_cols:
+            raise InvalidParameterError(f"{name} must have at least {min_cols} columns ({layout}); got "
+                                        f"{obj.shape[1]}", param=name)
+        return Table(tuple(obj.iloc[:, k].to_numpy() for k in range(min(obj.shape[1], max_cols))), source)
+    if isinstance(obj, (Mapping, pd.Series)) and min_cols <= 2 <= max_cols:
+        s = pd.Series(obj, dtype=object) if not isinstance(obj, pd.Series) else obj
+        return Table((s.index.to_numpy(dtype=object), s.to_numpy(dtype=object)), source)
+    return _rows_table(obj, name=name, layout=layout, min_cols=min_cols, max_cols=max_cols, source=source)
+
+
+def _rows_table(obj, *, name: str, layout: str, min_cols: int, max_cols: int, source: str) -> Table:
+    """:func:`as_table` for an iterable of rows."""
+    must = f"a path, a pandas DataFrame or an iterable of rows ({layout})"
+    if isinstance(obj, (bytes, Network)):
+        raise InvalidParameterError(f"{name} must be {must}; got {type(obj).__name__}", param=name)
+    try:
+        rows = list(obj)
+    except TypeError:
+        raise InvalidParameterError(f"{name} must be {must}; got {type(obj).__name__}", param=name) from None
+    for r, row in enumerate(rows):
+        if isinstance(row, (str, bytes)) or not hasattr(row, "__len__") or not min_cols <= len(row) <= max_cols:
+            n = f"{min_cols}" if min_cols == max_cols else f"{min_cols} to {max_cols}"
+            raise InvalidParameterError(f"{name} must hold rows of {n} values ({layout}); got {row!r} in row "
+                                        f"{r + 1}", param=name)
+    ncols = min(len(r) for r in rows) if rows else min_cols
+    cols = tuple(np.array([row[k] for row in rows], dtype=object) for k in range(ncols))
+    return Table(cols, source)
 
 
 def as_network(obj, *, delimiter: str | None = None, header: str = "auto", name: str = "network",
                directed: bool = False) -> Network:
-    """A :class:`Network` from a path, a networkx graph, an edge DataFrame or a Network.
+    """A :class:`Network` from a path, a networkx graph, an edge table or a Network.
 
+    An edge table is anything :func:`as_table` takes: a DataFrame or rows (node, node[, weight]).
     ``directed``: rows (or a networkx DiGraph's edges) are arcs; a Network given must then be
     a directed one.
     """
     if isinstance(obj, Network):
         if directed and not obj.directed:
-            raise InvalidParameterError(f"The '{name}' parameter of align is an undirected Network, but directed "
-                                        "alignment was asked for; build it with directed=True.")
+            raise InvalidParameterError(f"{name} must be a directed Network when directed=True; got an undirected "
+                                        "one (build it with directed=True)", param=name)
         return obj
     if isinstance(obj, (str, os.PathLike)):
         return read_network(obj, delimiter=delimiter, header=header, directed=directed)
@@ -39,57 +123,51 @@ def as_network(obj, *, delimiter: str | None = None, header: str = "auto", name:
     except ImportError:  # pragma: no cover - networkx is a dependency
         nx = None
     if nx is not None and isinstance(obj, nx.Graph):
-        if obj.is_directed() != directed:
-            raise InvalidParameterError(
-                f"The '{name}' parameter of align must be an undirected graph; got a directed one (pass "
-                "directed=True to align by direction, or use graph.to_undirected())." if not directed else
-                f"The '{name}' parameter of align must be a directed graph when directed=True; got an "
-                "undirected one (use graph.to_directed(), which gives each edge both directions).")
-        nodes = [str(v) for v in obj.nodes()]
-        if len(set(nodes)) != len(nodes):
-            raise InvalidParameterError(f"The '{name}' parameter of align has nodes whose string forms clash.")
-        names = np.array(sorted(nodes), dtype=object)
-        pos = {v: i for i, v in enumerate(names)}
-        edges = [(pos[str(u)], pos[str(v)]) for u, v in obj.edges()]
-        e = np.array(edges, dtype=np.int64).reshape(-1, 2)
-        w = None
-        if obj.number_of_edges() and all("weight" in d for _, _, d in obj.edges(data=True)):
-            w = np.array([float(d["weight"]) for _, _, d in obj.edges(data=True)])
-        return network_from_edges(names, e[:, 0], e[:, 1], w, source=f"<networkx {name}>", directed=directed)
-    if isinstance(obj, pd.DataFrame):
-        if obj.shape[1] < 2:
-            raise InvalidParameterError(f"The '{name}' parameter of align must have at least two columns "
-                                        f"(node, node[, weight]). Got {obj.shape[1]} instead.")
-        a = obj.iloc[:, 0].astype(str).to_numpy(dtype=object)
-        b = obj.iloc[:, 1].astype(str).to_numpy(dtype=object)
-        w = None
-        if obj.shape[1] >= 3:
-            w = pd.to_numeric(obj.iloc[:, 2], errors="coerce").to_numpy(dtype=np.float64)
-            if not np.isfinite(w).all() or (w < 0).any():
-                raise InvalidParameterError(f"The '{name}' parameter of align has a weight that is not a "
-                                            "finite non-negative number.")
-        codes, names = pd.factorize(np.concatenate([a, b]), sort=True)
-        return network_from_edges(np.asarray(names, dtype=object), codes[: len(a)], codes[len(a):], w,
-                                  source=f"<DataFrame {name}>", directed=directed)
-    raise InvalidParameterError(f"The '{name}' parameter of align must be a path, a networkx graph, a pandas "
-                                f"DataFrame or a Network. Got {type(obj).__name__} instead.")
+        return _from_networkx(obj, name=name, directed=directed)
+    source = f"<DataFrame {name}>" if isinstance(obj, pd.DataFrame) else f"<{name}>"
+    table = as_table(obj, name=name, layout="node, node[, weight]", min_cols=2, max_cols=3, source=source)
+    return network_from_table(table, directed=directed)
+
+
+def _from_networkx(graph, *, name: str, directed: bool) -> Network:
+    """A :class:`Network` from a networkx graph; weights when every edge has one."""
+    if graph.is_directed() != directed:
+        raise InvalidParameterError(
+            f"{name} must be an undirected graph; got a directed one (pass directed=True to align by "
+            "direction, or use graph.to_undirected())" if not directed else
+            f"{name} must be a directed graph when directed=True; got an undirected one (use "
+            "graph.to_directed(), which gives each edge both directions)", param=name)
+    nodes = [str(v) for v in graph.nodes()]
+    if len(set(nodes)) != len(nodes):
+        raise InvalidParameterError(f"{name} must have nodes whose string forms differ; got two that clash",
+                                    param=name)
+    names = np.array(sorted(nodes), dtype=object)
+    pos = {v: i for i, v in enumerate(names)}
+    e = np.array([(pos[str(u)], pos[str(v)]) for u, v in graph.edges()], dtype=np.int64).reshape(-1, 2)
+    w = None
+    if graph.number_of_edges() and all("weight" in d for _, _, d in graph.edges(data=True)):
+        w = np.array([float(d["weight"]) for _, _, d in graph.edges(data=True)])
+    return network_from_edges(names, e[:, 0], e[:, 1], w, source=f"<networkx {name}>", directed=directed)
 
 
 def as_prior(obj, net_a: Network, net_b: Network, kind: str, delimiter, header) -> PriorTable:
+    """A :class:`PriorTable` from a path, a DataFrame or rows (node_a, node_b, score), or one already made.
+
+    The scores are read as ``kind`` says (:func:`aligner.priors.scores.prior_from_columns`);
+    repeated pairs and rows dropped by the score kind are warned about.
+
+    Raises
+    ------
+    NoCandidatesError
+        Every row naming known nodes was dropped by the score kind (E-values above 1).
+    """
     if isinstance(obj, PriorTable):
         return obj
-    if isinstance(obj, (str, os.PathLike)):
-        return _prior_notes(read_prior(obj, net_a, net_b, kind=kind, delimiter=delimiter, header=header))
-    if isinstance(obj, pd.DataFrame):
-        if obj.shape[1] < 3:
-            raise InvalidParameterError("The 'prior' parameter of align must have three columns "
-                                        f"(node_a, node_b, score). Got {obj.shape[1]} instead.")
-        values = pd.to_numeric(obj.iloc[:, 2], errors="coerce").to_numpy(dtype=np.float64)
-        return _prior_notes(prior_from_columns(obj.iloc[:, 0].astype(str).to_numpy(dtype=object),
-                                               obj.iloc[:, 1].astype(str).to_numpy(dtype=object), values, net_a,
-                                               net_b, kind=kind, source="<DataFrame prior>", line_of=lambda r: None))
-    raise InvalidParameterError("The 'prior' parameter of align must be a path or a pandas DataFrame. "
-                                f"Got {type(obj).__name__} instead.")
+    table = as_table(obj, name="prior", layout="node_a, node_b, score", min_cols=3, max_cols=3,
+                     what="prior table", delimiter=delimiter, header=header,
+                     source="<DataFrame prior>" if isinstance(obj, pd.DataFrame) else None)
+    return _prior_notes(prior_from_columns(table.text(0), table.text(1), table.numeric(2, "score"), net_a, net_b,
+                                           kind=kind, source=table.source, line_of=table.line_of))
 
 
 def _prior_notes(t: PriorTable) -> PriorTable:
@@ -119,17 +197,13 @@ def known_pairs(t: PairTable, what: str) -> PairTable:
 
 
 def as_pairs(obj, net_a: Network, net_b: Network, what: str, delimiter, header) -> PairTable:
+    """A :class:`PairTable` from a path, a DataFrame (first two columns), rows or a mapping a -> b.
+
+    ``what`` ("truth", "alignment") names the table in messages and is its source when it is
+    not a file.
+    """
     if isinstance(obj, PairTable):
         return obj
-    if isinstance(obj, (str, os.PathLike)):
-        return read_pairs(obj, net_a, net_b, delimiter=delimiter, header=header, what=what)
-    if isinstance(obj, pd.DataFrame):
-        df = pd.DataFrame({"a": obj.iloc[:, 0].astype(str), "b": obj.iloc[:, 1].astype(str)})
-    else:
-        df = pd.DataFrame(list(obj), columns=["a", "b"]).astype(str)
-    a = df["a"].to_numpy(dtype=object)
-    b = df["b"].to_numpy(dtype=object)
-    ia, ib = _lookup(net_a.names, a), _lookup(net_b.names, b)
-    ok = (ia >= 0) & (ib >= 0)
-    ex = [f"{a[r]} / {b[r]}" for r in np.flatnonzero(~ok)[:3]]
-    return PairTable(np.stack([ia[ok], ib[ok]], 1).astype(np.int32), len(a), int((~ok).sum()), ex, f"<{what}>")
+    table = as_table(obj, name=what.split()[0], layout="node_a, node_b", min_cols=2, max_cols=64, what=what,
+                     delimiter=delimiter, header=header, source=f"<{what}>")
+    return pairs_from_columns(table.text(0), table.text(1), net_a, net_b, source=table.source)

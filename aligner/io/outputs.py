@@ -1,23 +1,286 @@
-"""Writing results: output directories checked before any work, outputs published as one set."""
+"""Writing results: one atomic writer, outputs published as one set, directories checked first.
+
+Every file the package writes goes through :func:`write_text_atomic` (one file, renamed into
+place when complete) or :func:`publish_outputs` (a set of files that appear together or not
+at all, even when the process is killed). :func:`check_outdir` refuses an unusable output
+directory before any work is done and tidies up after a killed run; :func:`write_outputs`,
+:func:`write_sweep_outputs` and :func:`write_prior_table` write the outputs of ``align``,
+``sweep`` and ``prior-from-labels``.
+"""
 
 from __future__ import annotations
 
+import io as _io
+import json
+import math
 import os
+import shutil
+import signal
+import stat
+import tempfile
 import warnings
+from contextlib import contextmanager, suppress
 from pathlib import Path
 
+import numpy as np
+import pandas as pd
+
 from aligner.errors import AlignerWarning, InvalidParameterError
-from aligner.io.readers import json_text, publish_outputs, recover_interrupted, table_text
 
-__all__ = ["OUTPUT_FILES", "check_outdir", "write_outputs"]
+__all__ = ["OUTPUT_FILES", "SWEEP_TABLE", "PRIOR_COLUMNS", "check_outdir", "write_outputs", "write_sweep_outputs",
+           "write_prior_table", "write_text_atomic", "publish_outputs", "recover_interrupted", "table_text",
+           "json_text"]
 
+#: The files :func:`write_outputs` writes, as one set.
 OUTPUT_FILES = ("alignment.tsv", "conserved_edges.tsv", "summary.json")
+#: The table :func:`write_sweep_outputs` writes beside its figures.
+SWEEP_TABLE = "sweep.tsv"
+#: The columns of a prior table, in the order they are written.
+PRIOR_COLUMNS = ("node_a", "node_b", "score")
 
 
-def check_outdir(outdir: str | os.PathLike, *, force: bool = False) -> Path:
+# --------------------------------------------------------------------------- text of a file
+
+def table_text(df: pd.DataFrame, *, float_format: str = "%.10g", na_rep: str = "") -> str:
+    """A DataFrame as TSV text: header, no index, ``\\n`` line ends, floats as ``float_format``."""
+    buf = _io.StringIO()
+    df.to_csv(buf, sep="\t", index=False, float_format=float_format, na_rep=na_rep, lineterminator="\n")
+    return buf.getvalue()
+
+
+def json_text(obj: object) -> str:
+    """``obj`` as indented JSON text; non-finite floats become null (JSON has no NaN, RFC 8259)."""
+    return json.dumps(_finite(obj), indent=2, sort_keys=False) + "\n"
+
+
+def _finite(obj):
+    if isinstance(obj, float):
+        return obj if math.isfinite(obj) else None
+    if isinstance(obj, dict):
+        return {k: _finite(v) for k, v in obj.items()}
+    if isinstance(obj, (list, tuple)):
+        return [_finite(v) for v in obj]
+    if isinstance(obj, np.generic):
+        return _finite(obj.item())
+    return obj
+
+
+def _as_bytes(data: str | bytes) -> bytes:
+    return data if isinstance(data, bytes) else data.encode("utf-8")
+
+
+# --------------------------------------------------------------------------- one file
+
+def write_text_atomic(path: str | os.PathLike, data: str | bytes) -> Path:
+    """Write ``data`` (text as UTF-8, or bytes) to ``path`` atomically; return the path.
+
+    The data goes to a temporary file beside ``path`` (same directory, so the same file
+    system), is flushed and fsynced, and the file is renamed into place: a reader, or a run
+    killed at any moment, sees the old file or the new one, never a part (``rename`` is
+    atomic on POSIX). The temporary file is removed if anything fails.
+    """
+    path = Path(path)
+    fd, tmp = tempfile.mkstemp(prefix=f".{path.name}.", suffix=".part", dir=path.parent)
+    try:
+        with os.fdopen(fd, "wb") as fh:
+            fh.write(_as_bytes(data))
+            fh.flush()
+            os.fsync(fh.fileno())
+        os.replace(tmp, path)
+    except BaseException:
+        with suppress(FileNotFoundError):
+            os.unlink(tmp)
+        raise
+    return path
+
+
+# --------------------------------------------------------------------------- a set of files
+
+@contextmanager
+def _signals_deferred():
+    """Hold back SIGINT, SIGTERM and SIGHUP (delivered on exit) around a few renames."""
+    sigs = {getattr(signal, s) for s in ("SIGINT", "SIGTERM", "SIGHUP") if hasattr(signal, s)}
+    if not hasattr(signal, "pthread_sigmask"):  # pragma: no cover - not POSIX
+        yield
+        return
+    old = signal.pthread_sigmask(signal.SIG_BLOCK, sigs)
+    try:
+        yield
+    finally:
+        signal.pthread_sigmask(signal.SIG_SETMASK, old)
+
+
+def _fsync_dir(path: Path) -> None:
+    try:
+        fd = os.open(path, os.O_RDONLY)
+    except OSError:  # pragma: no cover - e.g. Windows
+        return
+    try:
+        os.fsync(fd)
+    except OSError:  # pragma: no cover
+        pass
+    finally:
+        os.close(fd)
+
+
+def _staging_name(out: Path, kind: str) -> str:
+    return f".{out.name}.aligner-{kind}-{os.getpid()}-{os.urandom(4).hex()}"
+
+
+def _can_swap(out: Path) -> bool:
+    """Whether ``out`` may be renamed aside: not a mount point, not (holding) the working directory."""
+    try:
+        cwd = os.getcwd()
+    except OSError:
+        cwd = ""
+    inside = cwd == str(out) or cwd.startswith(str(out).rstrip(os.sep) + os.sep)
+    return not inside and not os.path.ismount(out) and os.access(out.parent, os.W_OK | os.X_OK)
+
+
+def publish_outputs(outdir: str | os.PathLike, files: dict[str, str | bytes]) -> None:
+    """Make the files ``files`` (name -> text or bytes) appear in the directory ``outdir`` as one set.
+
+    A reader, or a run killed at any moment (Ctrl-C, SIGKILL), sees either the previous
+    outputs or the new ones, never a mix; other files in ``outdir`` are kept. The scheme
+    (one ``rename`` is atomic on POSIX; three are not, so the directory is swapped):
+
+    1. The files are written, flushed and fsynced into a new staging directory
+       ``.<name>.aligner-new-<pid>-<random>`` beside ``outdir`` (same file system).
+    2. No ``outdir`` yet: the staging directory is renamed to ``outdir``: one atomic step.
+    3. ``outdir`` exists: it is renamed aside to ``.<name>.aligner-old-<pid>-<random>``, the
+       staging directory is renamed to ``outdir``, the user's other entries are moved from the
+       old directory into the new one, and the old outputs and directory are removed. Between
+       the two renames ``outdir`` is briefly absent (no outputs); it never holds a mix.
+
+    The renames run with SIGINT/SIGTERM/SIGHUP held back (delivered when they are done). If
+    the process is killed during step 3 anyway, :func:`recover_interrupted` (called by
+    :func:`check_outdir` before the next run) puts the user's files back. When ``outdir``
+    cannot be renamed (a mount point, the working directory or one holding it, an unwritable
+    parent), the files are staged inside it and renamed into place one by one, summary
+    last, signals held back: atomic against Ctrl-C, but not against SIGKILL in that window.
+    """
+    out = Path(os.path.realpath(outdir))
+    parent = out.parent
+    swap = not out.exists() or _can_swap(out)
+    if not out.exists():
+        parent.mkdir(parents=True, exist_ok=True)
+    new = (parent if swap else out) / _staging_name(out, "new")
+    try:  # from the mkdir on: a Ctrl-C landing just after it must still remove the staging directory
+        os.mkdir(new)  # mode 0o777 less the umask, as a plain mkdir
+        _write_new(new, files)
+        if swap and out.exists():
+            os.chmod(new, stat.S_IMODE(os.stat(out).st_mode))
+        with _signals_deferred():
+            if swap:
+                _swap_in(new, out, files)
+            else:
+                for name in sorted(files, key=lambda n: n == "summary.json"):
+                    os.replace(new / name, out / name)
+                os.rmdir(new)
+        _fsync_dir(parent if swap else out)
+    except BaseException:
+        shutil.rmtree(new, ignore_errors=True)
+        raise
+
+
+def _write_new(new: Path, files: dict[str, str | bytes]) -> None:
+    """Write each file into the (new, empty) staging directory, flushed and fsynced."""
+    for name, data in files.items():
+        with open(new / name, "xb") as fh:
+            fh.write(_as_bytes(data))
+            fh.flush()
+            os.fsync(fh.fileno())
+    _fsync_dir(new)
+
+
+def _swap_in(new: Path, out: Path, files) -> None:
+    """Steps 2 and 3 of :func:`publish_outputs`: rename the staging directory to ``out``."""
+    if not out.exists():
+        os.rename(new, out)
+        return
+    old = out.parent / _staging_name(out, "old")
+    os.rename(out, old)
+    try:
+        os.rename(new, out)
+    except OSError:
+        os.rename(old, out)
+        raise
+    for entry in os.listdir(old):
+        if entry not in files:
+            os.rename(old / entry, out / entry)
+    for name in files:
+        with suppress(FileNotFoundError):
+            os.unlink(old / name)
+    os.rmdir(old)
+
+
+def _dead(pid: str) -> bool:
+    if not pid.isdigit() or int(pid) == os.getpid():
+        return False
+    try:
+        os.kill(int(pid), 0)
+    except ProcessLookupError:
+        return True
+    except OSError:
+        return False
+    return False
+
+
+def recover_interrupted(outdir: str | os.PathLike, names) -> list[str]:
+    """Undo what a killed :func:`publish_outputs` left behind for ``outdir``; return notes.
+
+    Staging directories of dead processes are removed; an ``-old-`` directory (the process
+    was killed while swapping) is put back as ``outdir`` when that is missing, or else the
+    user's files in it are moved back into ``outdir``. A note names anything left over.
+    """
+    out = Path(os.path.realpath(outdir))
+    notes = []
+    for where, prefix in ((out.parent, f".{out.name}.aligner-"), (out, f".{out.name}.aligner-new-")):
+        try:
+            entries = sorted(os.listdir(where))
+        except OSError:
+            continue
+        for entry in entries:
+            if not entry.startswith(prefix):
+                continue
+            kind, _, rest = entry[len(f".{out.name}.aligner-"):].partition("-")
+            if kind not in ("new", "old") or not _dead(rest.split("-")[0]):
+                continue
+            path = where / entry
+            if kind == "new":
+                shutil.rmtree(path, ignore_errors=True)
+                continue
+            if not out.exists():
+                os.rename(path, out)
+                notes.append(f"restored '{out}' from an interrupted run")
+                continue
+            for item in os.listdir(path):
+                if item in names:
+                    with suppress(FileNotFoundError):
+                        os.unlink(path / item)
+                elif not os.path.lexists(out / item):
+                    os.rename(path / item, out / item)
+            with suppress(OSError):
+                os.rmdir(path)
+            if path.exists():
+                notes.append(f"'{path}' holds files left by an interrupted run; move back what you need "
+                             "and delete it")
+    return notes
+
+
+# --------------------------------------------------------------------------- output directories and files
+
+def check_outdir(outdir: str | os.PathLike, *, force: bool = False, files=OUTPUT_FILES) -> Path:
     """Refuse an output path that is a file, cannot be made or written, or holds outputs of an earlier run.
 
-    First puts back what a killed run left half-swapped (see :func:`aligner.io.readers.recover_interrupted`).
+    First puts back what a killed run left half-swapped (see :func:`recover_interrupted`).
+    ``files`` are the outputs about to be written (default: those of :func:`write_outputs`);
+    any of them already there is refused unless ``force``.
+
+    Raises
+    ------
+    InvalidParameterError
+        Saying what is wrong with the directory and what to do.
     """
     out = Path(outdir)
     if out.exists() and not out.is_dir():
@@ -33,34 +296,99 @@ def check_outdir(outdir: str | os.PathLike, *, force: bool = False) -> Path:
         raise InvalidParameterError(f"The output directory '{out}' cannot be written: permission denied on "
                                     f"'{up}'; choose another directory with --out.")
     try:
-        for note in recover_interrupted(out, OUTPUT_FILES):
+        for note in recover_interrupted(out, files):
             warnings.warn(note, AlignerWarning, stacklevel=2)
     except OSError as exc:
         warnings.warn(f"could not tidy up after an interrupted run in '{out}': {exc}", AlignerWarning,
                       stacklevel=2)
-    existing = [f for f in OUTPUT_FILES if (out / f).exists()]
+    existing = [f for f in files if (out / f).exists()]
     if existing and not force:
+        them = "them" if len(existing) > 1 else "it"
         raise InvalidParameterError(f"The output directory '{out}' already holds {', '.join(existing)}; "
-                                    "choose another directory or pass --force to replace them.")
+                                    f"choose another directory or pass --force to replace {them}.")
     return out
 
 
-def write_outputs(outdir: str | os.PathLike, result: AlignmentResult, *, force: bool = False) -> list[Path]:
-    """Write alignment.tsv, conserved_edges.tsv and summary.json into ``outdir``, as one set.
+def _publish(out: Path, files: dict[str, str | bytes]) -> list[Path]:
+    try:
+        publish_outputs(out, files)
+    except OSError as exc:
+        raise InvalidParameterError(f"The output directory '{out}' cannot be written: "
+                                    f"{exc.strerror or exc}; choose another directory with --out.") from None
+    return [out / f for f in files]
 
-    The three files appear together or not at all: they are written into a staging directory
-    beside ``outdir`` that is then swapped into place by renames (see
-    :func:`aligner.io.readers.publish_outputs`), so an interrupted run (Ctrl-C, a killed process)
-    leaves the previous outputs or none, never a mix. Other files in ``outdir`` are kept.
+
+def write_outputs(outdir: str | os.PathLike, result, *, force: bool = False) -> list[Path]:
+    """Write alignment.tsv, conserved_edges.tsv and summary.json of an alignment into ``outdir``, as one set.
+
+    ``result`` is an :class:`~aligner.pipeline.AlignmentResult` (``.pairs``,
+    ``.conserved_edges``, ``.summary``). The three files appear together or not at all (see
+    :func:`publish_outputs`), so an interrupted run (Ctrl-C, a killed process) leaves the
+    previous outputs or none, never a mix. Other files in ``outdir`` are kept.
     """
     out = check_outdir(outdir, force=force)
     pairs = result.pairs.sort_values(["node_a", "node_b"], kind="stable")
     cons = result.conserved_edges.sort_values(["node_a1", "node_a2"], kind="stable")
-    texts = {"alignment.tsv": table_text(pairs), "conserved_edges.tsv": table_text(cons),
-             "summary.json": json_text(result.summary)}
+    return _publish(out, {"alignment.tsv": table_text(pairs), "conserved_edges.tsv": table_text(cons),
+                          "summary.json": json_text(result.summary)})
+
+
+def write_sweep_outputs(outdir: str | os.PathLike, table: pd.DataFrame, figures: dict[str, bytes], *,
+                        force: bool = False) -> list[Path]:
+    """Write a sweep's table (sweep.tsv) and its figures into ``outdir``, as one set.
+
+    Parameters
+    ----------
+    outdir : path
+        The output directory (made if missing); other files in it are kept.
+    table : DataFrame
+        One row per alpha; written as TSV, floats with 6 significant digits (``%.6g``),
+        missing values as ``NA``.
+    figures : dict of str to bytes
+        File name -> content of each figure (``sweep.png``, ``sweep.svg``).
+    force : bool
+        Replace a sweep.tsv already in ``outdir``; without it, one there is refused.
+
+    Returns
+    -------
+    list of Path
+        The files written, sweep.tsv first.
+    """
+    files = {SWEEP_TABLE: table_text(table, float_format="%.6g", na_rep="NA"), **figures}
+    if SWEEP_TABLE in figures:
+        raise InvalidParameterError(f"figures must not hold a file named {SWEEP_TABLE}; got {sorted(figures)}",
+                                    param="figures")
+    out = check_outdir(outdir, force=force, files=(SWEEP_TABLE,))
+    return _publish(out, files)
+
+
+def write_prior_table(df: pd.DataFrame, path: str | os.PathLike, *, force: bool = False) -> Path:
+    """Write a prior table as TSV with the header ``node_a, node_b, score``, atomically.
+
+    Scores are written with ten significant digits. An existing file is refused unless
+    ``force``; a directory always is.
+
+    Raises
+    ------
+    InvalidParameterError
+        ``df`` lacks a column, or ``path`` is a directory, an existing file (without
+        ``force``) or in a directory that does not exist.
+    """
+    missing = [c for c in PRIOR_COLUMNS if c not in df.columns]
+    if missing:
+        raise InvalidParameterError(f"df must have the columns {', '.join(PRIOR_COLUMNS)}; got a table without "
+                                    f"{', '.join(missing)}", param="df")
+    path = Path(path)
+    if path.is_dir():
+        raise InvalidParameterError(f"The output '{path}' is a directory; give a file path with --out.")
+    if path.exists() and not force:
+        raise InvalidParameterError(f"The output '{path}' already exists; choose another path with --out or pass "
+                                    "--force to replace it.")
+    if not path.parent.is_dir():
+        raise InvalidParameterError(f"The output '{path}' cannot be written: '{path.parent}' is not a directory; "
+                                    "choose another path with --out.")
     try:
-        publish_outputs(out, texts)
+        return write_text_atomic(path, table_text(df[list(PRIOR_COLUMNS)]))
     except OSError as exc:
-        raise InvalidParameterError(f"The output directory '{out}' cannot be written: "
-                                    f"{exc.strerror or exc}; choose another directory with --out.") from None
-    return [out / f for f in OUTPUT_FILES]
+        raise InvalidParameterError(f"The output '{path}' cannot be written: {exc.strerror or exc}; choose "
+                                    "another path with --out.") from None

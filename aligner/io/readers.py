@@ -1,7 +1,10 @@
-"""Read networks and similarity tables from files; write the outputs of a run.
+"""Parse delimited files (edge lists, prior, pair and seed tables) into columns and arrays.
 
-Everything that touches the file system lives here. Readers return the canonical
-array forms of :mod:`aligner.core.network` and plain arrays; they never print.
+Parsing only: every reader here turns a file into columns of strings (and numbers) with
+line-accurate errors; the one exception, :func:`read_network`, also numbers the nodes, since
+an edge list's canonical form is a :class:`~aligner.core.network.Network`. What a prior score
+means is :mod:`aligner.priors.scores`; turning a caller's object into a table is
+:mod:`aligner.io.inputs`; writing is :mod:`aligner.io.outputs`. Readers never print.
 """
 
 from __future__ import annotations
@@ -9,18 +12,10 @@ from __future__ import annotations
 import csv
 import gzip
 import io as _io
-import json
-import math
 import os
 import re
-import shutil
-import signal
-import stat
-import tempfile
 import zlib
-from contextlib import contextmanager, suppress
-from dataclasses import dataclass, field
-from pathlib import Path
+from dataclasses import dataclass
 from typing import Iterator
 
 import numpy as np
@@ -29,35 +24,43 @@ import pyarrow as pa
 import pyarrow.compute as pac
 import pyarrow.csv as pacsv
 
-from aligner.checks import check_choice
-from aligner.errors import InputFormatError, InvalidParameterError
-from aligner.core.network import Network, merge_duplicate_pairs, network_from_edges
+from aligner.checks import bad_parameter, check_choice
+from aligner.core.network import Network, network_from_edges
+from aligner.errors import InputFormatError
+from aligner.io.identifiers import intern, pairs_from_columns, PairTable
+from aligner.priors.scores import PriorTable, prior_from_columns
 
 __all__ = [
+    "Table",
+    "read_table",
     "read_network",
+    "network_from_table",
     "read_prior",
     "read_pairs",
-    "PriorTable",
     "PairTable",
-    "write_text_atomic",
-    "write_table_atomic",
-    "EVALUE_CAP",
+    "PriorTable",
+    "open_text",
+    "check_readable",
+    "data_lines",
+    "DELIMITERS",
 ]
-
-#: -log10 of an E-value of exactly 0 is taken as this value (the smallest positive double is
-#: about 1e-308, so no finite E-value gives more).
-EVALUE_CAP = 310.0
 
 HEADER_WORDS = {
     "node", "node_a", "node_b", "node1", "node2", "source", "target", "src", "dst", "from", "to",
     "id1", "id2", "protein1", "protein2", "weight", "score", "similarity",
     "evalue", "e_value", "distance", "gene1", "gene2", "neuron1", "neuron2", "left", "right",
 }
+#: The names ``delimiter`` / ``--delimiter`` accepts besides a single character.
 DELIMITERS = {"tab": "\t", "comma": ",", "semicolon": ";", "space": " ", "whitespace": None}
 
 
-def _open_text(path: str) -> Iterator[str]:
-    """Yield the lines of a text file, gzip-compressed or not, with any UTF-8 byte-order mark removed."""
+# --------------------------------------------------------------------------- lines of a file
+
+def open_text(path: str) -> Iterator[str]:
+    """Yield the lines of a text file, gzip-compressed or not, with any UTF-8 byte-order mark removed.
+
+    Compression is detected by content (the gzip magic bytes, RFC 1952), not by the file name.
+    """
     with open(path, "rb") as fh:
         magic = fh.read(2)
     opener = gzip.open if magic == b"\x1f\x8b" else open
@@ -65,38 +68,41 @@ def _open_text(path: str) -> Iterator[str]:
         yield from fh
 
 
-def _check_readable(path: str) -> None:
-    p = Path(path)
-    if not p.exists():
+def check_readable(path: str) -> None:
+    """Refuse a path that is missing, a directory or unreadable, saying what to do.
+
+    Raises
+    ------
+    InputFormatError
+        Naming the path.
+    """
+    if not os.path.exists(path):
         raise InputFormatError("no such file; check the path", path=path)
-    if p.is_dir():
+    if os.path.isdir(path):
         raise InputFormatError("is a directory, not a file; give the path of a file", path=path)
-    if not os.access(p, os.R_OK):
+    if not os.access(path, os.R_OK):
         raise InputFormatError("the file cannot be read (permission denied); check its permissions", path=path)
 
 
-def _data_lines(path: str, sep: str | None = None) -> Iterator[tuple[int, str]]:
-    """Yield (line number, text) of the non-blank, non-comment lines.
+def data_lines(path: str, sep: str | None = None) -> Iterator[tuple[int, str]]:
+    """Yield (line number, text) of the non-blank, non-comment lines of a file.
 
     Blank as pandas' C reader sees it: only spaces and tabs (only spaces in a tab-delimited
     file, where a tab separates empty fields); other white space such as a form feed or a
     no-break space is data. A comment line starts with '#' after such blanks.
     """
     blank = " " if sep == "\t" else " \t"
-    for no, line in enumerate(_open_text(path), 1):
+    for no, line in enumerate(open_text(path), 1):
         text = line.rstrip("\r\n")
         stripped = text.lstrip(blank)
         if stripped and not stripped.startswith("#"):
             yield no, text
 
 
-def _detect_delimiter(path: str, first: str) -> str | None:
-    if "\t" in first:
-        return "\t"
-    if "," in first:
-        return ","
-    if ";" in first:
-        return ";"
+def _detect_delimiter(first: str) -> str | None:
+    for sep in ("\t", ",", ";"):
+        if sep in first:
+            return sep
     return None  # runs of white space
 
 
@@ -121,27 +127,122 @@ def _is_number(text: str) -> bool:
     return True
 
 
-@dataclass
-class _RawTable:
-    columns: list[np.ndarray]
-    line_numbers: np.ndarray | None  # filled only on the slow path
-    has_header: bool
-    header: list[str] | None
-    path: str
-    first_line: int  # file line number of the first data row
-    sep: str | None = None  # the delimiter (None: runs of white space)
+def _locate(path: str, start: int, row: int, sep: str | None) -> tuple[int | None, str]:
+    """The file line number and text of data row ``row`` (0-based, from line ``start`` on)."""
+    k = 0
+    for no, text in data_lines(path, sep):
+        if no < start:
+            continue
+        if k == row:
+            return no, text
+        k += 1
+    return None, ""
 
 
-def _read_raw(path: str, *, min_cols: int, max_cols: int, delimiter: str | None, header: str,
-              what: str) -> _RawTable:
-    """Read a delimited table of strings with ``min_cols``..``max_cols`` columns.
+# --------------------------------------------------------------------------- tables
 
-    Fast path: pandas' C reader. The file is scanned line by line only to locate an error.
-    Any failure to read or decode the file becomes an InputFormatError naming it.
+@dataclass(frozen=True, eq=False)
+class Table:
+    """The columns of a table and where its rows came from, for messages.
+
+    Attributes
+    ----------
+    columns : tuple
+        One entry per column: a numpy array (object strings, or float64 for a numeric column
+        the fast reader parsed) or a pyarrow string array; from an object, its own values.
+    source : str
+        The file path, or a label such as ``<DataFrame prior>`` for a caller's object.
+    first_line : int or None
+        File line of the first data row; None when the table did not come from a file.
+    sep : str or None
+        The delimiter of the file (None: runs of white space).
+    header : tuple of str or None
+        The header line's fields, when the file had one.
     """
+
+    columns: tuple
+    source: str
+    first_line: int | None = None
+    sep: str | None = None
+    header: tuple | None = None
+
+    @property
+    def n_rows(self) -> int:
+        return len(self.columns[0]) if self.columns else 0
+
+    def line_of(self, row: int) -> int | None:
+        """File line of data row ``row`` (0-based); None for a table not read from a file."""
+        if self.first_line is None:
+            return None
+        return _locate(self.source, self.first_line, row, self.sep)[0]
+
+    def where(self, row: int) -> str:
+        """``line 7`` for a file, ``row 3`` (1-based) for an object: where data row ``row`` is."""
+        return f"row {row + 1}" if self.first_line is None else f"line {self.line_of(row)}"
+
+    def text(self, col: int):
+        """Column ``col`` as identifiers: pyarrow strings as read, else a numpy array of str."""
+        c = self.columns[col]
+        if isinstance(c, (pa.Array, pa.ChunkedArray)) or self.first_line is not None:
+            return c
+        return np.array([str(v) for v in c], dtype=object)
+
+    def numeric(self, col: int, label: str) -> np.ndarray:
+        """Column ``col`` as float64; a non-numeric or non-finite entry is an error naming its line.
+
+        ``label`` names the values in the message ("score", "edge weight").
+        """
+        c = self.columns[col]
+        if isinstance(c, np.ndarray) and c.dtype == np.float64 and self.first_line is not None:
+            return c  # parsed and checked finite by the fast reader
+        values = pd.to_numeric(pd.Series(np.asarray(c, dtype=object)), errors="coerce").to_numpy(np.float64)
+        bad = ~np.isfinite(values)
+        if bad.any():
+            row = int(np.argmax(bad))
+            where = "" if self.first_line is not None else f"{self.where(row)}: "
+            raise InputFormatError(f"{where}the {label} {c[row]!r} is not a finite number; the column must hold "
+                                   "numbers such as 0.5 or 1e-3", path=self.source, line=self.line_of(row))
+        return values
+
+
+def read_table(path: str | os.PathLike, *, min_cols: int, max_cols: int, delimiter: str | None = None,
+               header: str = "auto", what: str = "table") -> Table:
+    """Read a delimited table of strings with ``min_cols`` to ``max_cols`` columns.
+
+    Parameters
+    ----------
+    path : str or path-like
+        UTF-8 text, gzip-compressed or not (detected by content). Blank lines and lines
+        starting with ``#`` are skipped.
+    min_cols, max_cols : int
+        The number of columns allowed (taken from the first data row).
+    delimiter : str, optional
+        A name of :data:`DELIMITERS` or one character; detected from the first data line
+        when omitted (tab, comma, semicolon, else runs of white space).
+    header : {"auto", "yes", "no"}
+        Whether the first data line is a header (see :func:`read_network`).
+    what : str
+        What the table is ("edge list", "prior table"), for messages.
+
+    Returns
+    -------
+    Table
+
+    Raises
+    ------
+    InputFormatError
+        The file is missing, unreadable, empty, not UTF-8, damaged, or a row is malformed;
+        the message names the file and the line.
+
+    Notes
+    -----
+    Fast path: pyarrow's CSV reader; else pandas' C reader. The file is scanned line by
+    line only to locate an error.
+    """
+    path = os.fspath(path)
     try:
-        return _read_raw_unchecked(path, min_cols=min_cols, max_cols=max_cols, delimiter=delimiter,
-                                   header=header, what=what)
+        return _read_table(path, min_cols=min_cols, max_cols=max_cols, delimiter=delimiter, header=header,
+                           what=what)
     except UnicodeDecodeError as exc:
         raise InputFormatError(f"is not UTF-8 text ({exc.reason} at byte {exc.start}); save it as UTF-8",
                                path=path) from None
@@ -153,85 +254,79 @@ def _read_raw(path: str, *, min_cols: int, max_cols: int, delimiter: str | None,
                                "--delimiter)", path=path) from None
 
 
-def _read_raw_unchecked(path: str, *, min_cols: int, max_cols: int, delimiter: str | None, header: str,
-                        what: str) -> _RawTable:
+def _check_options(delimiter, header) -> None:
     check_choice(header, "header", ("auto", "yes", "no"))
     if delimiter is not None and delimiter not in DELIMITERS and (
             not isinstance(delimiter, str) or len(delimiter) != 1 or delimiter in '"#\r\n'):
-        raise InvalidParameterError(
-            "The 'delimiter' parameter of the file readers must be tab, comma, semicolon, space, whitespace "
-            f"or one character other than a quote, '#' or a line break. Got {delimiter!r} instead.")
-    _check_readable(path)
-    a_what = f"{'an' if what[:1] in 'aeiou' else 'a'} {what}"
-    try:
-        lines = _data_lines(path)
-        first = next(lines, None)
-        second = next(lines, None)
-    except UnicodeDecodeError as exc:
-        raise InputFormatError(f"is not UTF-8 text ({exc.reason} at byte {exc.start}); "
-                               "save it as UTF-8", path=path) from None
-    except (OSError, EOFError, gzip.BadGzipFile) as exc:
-        raise InputFormatError(f"cannot be read ({exc}); check that the file is complete and not damaged",
-                               path=path) from None
-    if first is None:
-        raise InputFormatError(f"is empty: expected {a_what} with {min_cols}"
-                               f"{'' if min_cols == max_cols else f' to {max_cols}'} columns "
-                               "(blank lines and lines starting with # are skipped)", path=path)
-    if delimiter is None:
-        sep = _detect_delimiter(path, first[1])
-    else:
-        sep = DELIMITERS.get(delimiter, delimiter)
-    fields = _split(first[1], sep)
-    if header == "auto":
-        low = [f.strip().lower() for f in fields]
-        has_header = all(f in HEADER_WORDS for f in low) or (
-            len(fields) >= 3 and not _is_number(fields[2]) and second is not None
-            and len(_split(second[1], sep)) >= 3 and _is_number(_split(second[1], sep)[2]))
-    else:
-        has_header = header == "yes"
-    if has_header and second is None:
-        raise InputFormatError(f"has a header line but no data rows: expected {a_what} below it", path=path,
-                               line=first[0])
-    ncols = len(fields)
-    start_no, start_text = (second if has_header else first)
-    ncols = len(_split(start_text, sep))
+        raise bad_parameter("delimiter", "tab, comma, semicolon, space, whitespace or one character other "
+                            "than a quote, '#' or a line break", delimiter)
+
+
+def _a(what: str) -> str:
+    return f"{'an' if what[:1] in 'aeiou' else 'a'} {what}"
+
+
+def _read_table(path: str, *, min_cols: int, max_cols: int, delimiter, header: str, what: str) -> Table:
+    """:func:`read_table` without its translation of decoding and reading errors."""
+    _check_options(delimiter, header)
+    check_readable(path)
+    lines = data_lines(path)
+    first, second = next(lines, None), next(lines, None)
     expect = f"{min_cols}" if min_cols == max_cols else f"{min_cols} to {max_cols}"
+    if first is None:
+        raise InputFormatError(f"is empty: expected {_a(what)} with {expect} columns (blank lines and lines "
+                               "starting with # are skipped)", path=path)
+    sep = _detect_delimiter(first[1]) if delimiter is None else DELIMITERS.get(delimiter, delimiter)
+    fields = _split(first[1], sep)
+    has_header = header == "yes" or (header == "auto" and _looks_like_header(fields, second, sep))
+    if has_header and second is None:
+        raise InputFormatError(f"has a header line but no data rows: expected {_a(what)} below it", path=path,
+                               line=first[0])
+    start_no, start_text = second if has_header else first
+    ncols = len(_split(start_text, sep))
     if ncols < min_cols:
         raise InputFormatError(
-            f"has {ncols} column{'s' if ncols != 1 else ''}, expected {expect} for {a_what}"
+            f"has {ncols} column{'s' if ncols != 1 else ''}, expected {expect} for {_a(what)}"
             + ("" if sep is not None else " (the delimiter was taken to be white space; give --delimiter)"),
             path=path, line=start_no)
     if ncols > max_cols:
-        raise InputFormatError(f"has {ncols} columns, expected at most {max_cols} for {a_what}; "
+        raise InputFormatError(f"has {ncols} columns, expected at most {max_cols} for {_a(what)}; "
                                "remove the extra columns", path=path, line=start_no)
     # both readers skip every line before the first data row (comments, blanks, the header)
     cols = _read_arrow(path, sep, ncols, start_no - 1)
-    if cols is not None:
-        return _RawTable(cols, None, has_header, fields if has_header else None, path, start_no, sep)
+    if cols is None:
+        cols = _read_careful(path, sep, ncols, start_no, min_cols, what)
+    return Table(tuple(cols), path, start_no, sep, tuple(fields) if has_header else None)
+
+
+def _looks_like_header(fields: list[str], second, sep: str | None) -> bool:
+    """``header="auto"``: every field a common column name, or a text third field above a number."""
+    if all(f.strip().lower() in HEADER_WORDS for f in fields):
+        return True
+    if len(fields) < 3 or _is_number(fields[2]) or second is None:
+        return False
+    below = _split(second[1], sep)
+    return len(below) >= 3 and _is_number(below[2])
+
+
+def _read_careful(path: str, sep: str | None, ncols: int, start_no: int, min_cols: int, what: str) -> list:
+    """The slow path: pandas' C reader, then the checks that name the line at fault."""
     # pandas' comment="#" would also cut a line at a '#' inside it ("gene#1"), and its skiprows
     # does not count a blank line ended by a lone CR: in those cases pandas is given the data
-    # lines as _data_lines sees them (a slower Python pass), otherwise the file itself
+    # lines as data_lines sees them (a slower Python pass), otherwise the file itself
     source = path
     if _needs_line_filter(path):
-        source = _io.StringIO("\n".join(t for no, t in _data_lines(path, sep) if no >= start_no))
+        source = _io.StringIO("\n".join(t for no, t in data_lines(path, sep) if no >= start_no))
     try:
         df = pd.read_csv(
-            source,
-            sep=r"\s+" if sep is None else sep,
-            header=None,
-            names=list(range(ncols)),
-            skiprows=range(start_no - 1) if source is path else None,
-            comment=None,
-            dtype=str,
-            keep_default_na=False,
-            skip_blank_lines=True,
-            encoding="utf-8-sig",
+            source, sep=r"\s+" if sep is None else sep, header=None, names=list(range(ncols)),
+            skiprows=range(start_no - 1) if source is path else None, comment=None, dtype=str,
+            keep_default_na=False, skip_blank_lines=True, encoding="utf-8-sig",
             compression=("gzip" if _is_gzip(path) else None) if source is path else None,  # by content
-            engine="c",
-            on_bad_lines="error",
+            engine="c", on_bad_lines="error",
         )
     except pd.errors.ParserError as exc:
-        _raise_bad_row(path, sep, ncols, start_no, what)
+        _raise_bad_row(path, sep, ncols, start_no)
         raise InputFormatError(f"cannot be parsed ({exc}); check the quoting and the delimiter",
                                path=path) from None
     except UnicodeDecodeError as exc:
@@ -239,7 +334,7 @@ def _read_raw_unchecked(path: str, *, min_cols: int, max_cols: int, delimiter: s
     cols = [df[c].to_numpy(dtype=object) for c in range(ncols)]
     if any(df[c].str.contains("[\r\n]", regex=True).any() for c in range(ncols)):
         # a quoted field running over a line break: one record per line is the format
-        no, text = next(((no, t) for no, t in _data_lines(path, sep) if no >= start_no and t.count('"') % 2),
+        no, text = next(((no, t) for no, t in data_lines(path, sep) if no >= start_no and t.count('"') % 2),
                         (None, ""))
         raise InputFormatError(f"has a quote that is not closed on its line: {text[:80]!r}; close it or "
                                "remove the quote", path=path, line=no)
@@ -248,12 +343,25 @@ def _read_raw_unchecked(path: str, *, min_cols: int, max_cols: int, delimiter: s
     for c in range(min_cols):
         bad |= cols[c] == ""
     if bad.any():
-        _raise_bad_row(path, sep, ncols, start_no, what)
-        row = int(np.argmax(bad))
-        no, text = _locate(path, start_no, row, sep)
+        _raise_bad_row(path, sep, ncols, start_no)
+        no, text = _locate(path, start_no, int(np.argmax(bad)), sep)
         raise InputFormatError(f"has an empty field: {text[:80]!r}; fill it in or remove the row", path=path,
                                line=no)
-    return _RawTable(cols, None, has_header, fields if has_header else None, path, start_no, sep)
+    return cols
+
+
+def _raise_bad_row(path: str, sep: str | None, ncols: int, start: int) -> None:
+    """Raise for the first data row whose number of fields differs from ``ncols``, if any."""
+    for no, text in data_lines(path, sep):
+        if no < start:
+            continue
+        got = len(_split(text, sep))
+        if got != ncols:
+            why = ("a quote that is not closed on its line? close it or remove the quote" if text.count('"') % 2
+                   else "mixed delimiters or a stray column?")
+            raise InputFormatError(
+                f"has {got} field{'s' if got != 1 else ''} where the first row has {ncols}; "
+                f"{why} {text[:80]!r}", path=path, line=no)
 
 
 def _needs_line_filter(path: str) -> bool:
@@ -326,50 +434,7 @@ def _is_gzip(path: str) -> bool:
         return fh.read(2) == b"\x1f\x8b"
 
 
-def _locate(path: str, start: int, row: int, sep: str | None) -> tuple[int | None, str]:
-    """The file line number and text of data row ``row`` (0-based, from line ``start`` on)."""
-    k = 0
-    for no, text in _data_lines(path, sep):
-        if no < start:
-            continue
-        if k == row:
-            return no, text
-        k += 1
-    return None, ""
-
-
-def _raise_bad_row(path: str, sep: str | None, ncols: int, start: int, what: str) -> None:
-    for no, text in _data_lines(path, sep):
-        if no < start:
-            continue
-        got = len(_split(text, sep))
-        if got != ncols:
-            why = ("a quote that is not closed on its line? close it or remove the quote" if text.count('"') % 2
-                   else "mixed delimiters or a stray column?")
-            raise InputFormatError(
-                f"has {got} field{'s' if got != 1 else ''} where the first row has {ncols}; "
-                f"{why} {text[:80]!r}", path=path, line=no)
-
-
-def _numeric(raw: _RawTable, col: int, label: str) -> np.ndarray:
-    """Column ``col`` as float64; a non-numeric or non-finite entry is an error naming its line."""
-    if isinstance(raw.columns[col], np.ndarray) and raw.columns[col].dtype == np.float64:
-        return raw.columns[col]  # parsed and checked finite by the fast reader
-    values = pd.to_numeric(pd.Series(raw.columns[col]), errors="coerce").to_numpy(dtype=np.float64)
-    bad = ~np.isfinite(values)
-    if bad.any():
-        row = int(np.argmax(bad))
-        no, _ = _locate(raw.path, raw.first_line, row, raw.sep)
-        raise InputFormatError(f"the {label} {raw.columns[col][row]!r} is not a finite number; the column "
-                               "must hold numbers such as 0.5 or 1e-3", path=raw.path, line=no)
-    return values
-
-
-def _line_of(raw: _RawTable, row: int) -> int:
-    return _locate(raw.path, raw.first_line, row, raw.sep)[0]
-
-
-# --------------------------------------------------------------------------- networks
+# --------------------------------------------------------------------------- networks, priors, pairs
 
 def read_network(path: str | os.PathLike, *, delimiter: str | None = None, header: str = "auto",
                  directed: bool = False) -> Network:
@@ -401,135 +466,40 @@ def read_network(path: str | os.PathLike, *, delimiter: str | None = None, heade
     InputFormatError
         The file is missing, empty, not UTF-8, or a row is malformed; the message names the line.
     """
-    path = os.fspath(path)
-    raw = _read_raw(path, min_cols=2, max_cols=3, delimiter=delimiter, header=header, what="edge list")
+    table = read_table(path, min_cols=2, max_cols=3, delimiter=delimiter, header=header, what="edge list")
+    return network_from_table(table, directed=directed)
+
+
+def network_from_table(table: Table, *, directed: bool = False) -> Network:
+    """A :class:`Network` from a table of edges: node, node and an optional weight column.
+
+    Nodes are numbered in the sorted order of their identifiers (code points), so the order
+    of the rows does not matter. A weight must be a finite number >= 0.
+
+    Raises
+    ------
+    InputFormatError
+        A weight is not a finite number or is negative; the message names the line (the row).
+    """
     weights = None
-    if len(raw.columns) == 3:
-        weights = _numeric(raw, 2, "edge weight")
+    if len(table.columns) >= 3:
+        weights = table.numeric(2, "edge weight")
         if (weights < 0).any():
             row = int(np.argmax(weights < 0))
-            raise InputFormatError(f"the edge weight {weights[row]:g} is negative; weights must be >= 0",
-                                   path=path, line=_line_of(raw, row))
-    a = raw.columns[0]
-    b = raw.columns[1]
-    names, codes = _intern(a, b)
+            where = "" if table.first_line is not None else f"{table.where(row)}: "
+            raise InputFormatError(f"{where}the edge weight {weights[row]:g} is negative; weights must be >= 0",
+                                   path=table.source, line=table.line_of(row))
+    a, b = table.text(0), table.text(1)
+    names, codes = intern(a, b)
     m = len(a)
-    return network_from_edges(names, codes[:m], codes[m:], weights, source=path, directed=directed)
-
-
-# --------------------------------------------------------------------------- priors
-
-@dataclass(frozen=True)
-class PriorTable:
-    """A prior similarity table mapped onto two networks.
-
-    ``pairs[:, 0]`` indexes network A, ``pairs[:, 1]`` network B; ``scores`` are similarities
-    (higher is better, >= 0) after the transformation of the score kind.
-    """
-
-    pairs: np.ndarray
-    scores: np.ndarray
-    n_rows: int
-    n_unknown: int
-    unknown_examples: list[str] = field(default_factory=list)
-    n_dropped_kind: int = 0  # rows dropped by the score kind (E-values above 1)
-    n_duplicates: int = 0
-    source: str = "<memory>"
-
-
-def transform_scores(values: np.ndarray, kind: str) -> tuple[np.ndarray, np.ndarray]:
-    """Turn raw prior values into similarities; return them and a mask of rows to keep.
-
-    ``similarity``: used as given (must be >= 0). ``evalue``: ``-log10(E)``, with E = 0 given
-    :data:`EVALUE_CAP`; rows with E > 1 carry no evidence of similarity and are dropped.
-    ``distance``: ``1 / (1 + d)`` (must be >= 0).
-    """
-    keep = np.ones(len(values), dtype=bool)
-    if kind == "similarity":
-        return values.astype(np.float64), keep
-    if kind == "evalue":
-        keep = values <= 1.0
-        with np.errstate(divide="ignore"):
-            s = np.where(values > 0, -np.log10(np.where(values > 0, values, 1.0)), EVALUE_CAP)
-        return np.minimum(s, EVALUE_CAP), keep
-    if kind == "distance":
-        return 1.0 / (1.0 + values), keep
-    raise ValueError(kind)
-
-
-def prior_from_columns(
-    a: np.ndarray, b: np.ndarray, values: np.ndarray, net_a: Network, net_b: Network, *,
-    kind: str = "similarity", source: str = "<memory>", line_of=None,
-) -> PriorTable:
-    """Map a prior given as three columns onto the node indices of two networks.
-
-    Unknown nodes are counted and skipped; duplicate pairs keep the highest similarity.
-    """
-    values = np.asarray(values, dtype=np.float64)
-    bad = ~np.isfinite(values)
-    if kind in ("similarity", "distance", "evalue"):
-        bad |= values < 0
-    if bad.any():
-        row = int(np.argmax(bad))
-        what = "not a finite number" if not np.isfinite(values[row]) else "negative"
-        need = {"similarity": "similarities must be >= 0 (use --score-kind distance for dissimilarities)",
-                "distance": "distances must be >= 0", "evalue": "E-values must be >= 0"}[kind]
-        raise InputFormatError(f"the score {float(values[row])!r} is {what}; {need}", path=source,
-                               line=None if line_of is None else line_of(row))
-    scores, keep = transform_scores(values, kind)
-    ia = _lookup(net_a.names, a)
-    ib = _lookup(net_b.names, b)
-    known = (ia >= 0) & (ib >= 0)
-    n_unknown = int((~known).sum())
-    examples = [f"{_at(a, r)} / {_at(b, r)}" for r in np.flatnonzero(~known)[:3]]
-    ok = known & keep
-    pairs = np.stack([ia[ok], ib[ok]], axis=1).astype(np.int32) if ok.any() else np.empty((0, 2), np.int32)
-    sc = scores[ok]
-    # duplicate pairs: the highest similarity wins
-    pairs, sc, n_dup = merge_duplicate_pairs(pairs, sc, net_b.n)
-    pairs = pairs.astype(np.int32)
-    return PriorTable(pairs=pairs, scores=sc, n_rows=len(values), n_unknown=n_unknown,
-                      unknown_examples=examples, n_dropped_kind=int((known & ~keep).sum()),
-                      n_duplicates=n_dup, source=source)
-
-
-def _arrow_strings(values) -> pa.Array:
-    if isinstance(values, pa.ChunkedArray):
-        return values.combine_chunks()
-    if isinstance(values, pa.Array):
-        return values
-    return pa.array(np.asarray(values, dtype=object), type=pa.string())
-
-
-def _intern(a, b) -> tuple[np.ndarray, np.ndarray]:
-    """Sorted unique identifiers of two columns and the index of every entry among them.
-
-    Identifiers sort by code point (UTF-8 byte order), the same order as Python's ``sorted``.
-    """
-    both = pa.concat_arrays([_arrow_strings(a), _arrow_strings(b)])
-    uniq = pac.unique(both)
-    uniq = uniq.take(pac.array_sort_indices(uniq))
-    codes = pac.index_in(both, value_set=uniq).to_numpy(zero_copy_only=False)
-    return uniq.to_numpy(zero_copy_only=False).astype(object), codes.astype(np.int64)
-
-
-def _at(values, row: int) -> str:
-    """Entry ``row`` of a string column (numpy or pyarrow) as a Python string."""
-    v = values[int(row)]
-    return v.as_py() if isinstance(v, pa.Scalar) else str(v)
-
-
-def _lookup(names: np.ndarray, query) -> np.ndarray:
-    """Index of each query identifier in the ``names`` array, -1 where absent (a hash look-up)."""
-    if len(names) == 0:
-        return np.full(len(query), -1, dtype=np.int64)
-    idx = pac.index_in(_arrow_strings(query), value_set=_arrow_strings(names))
-    return pac.fill_null(idx, -1).to_numpy(zero_copy_only=False).astype(np.int64)
+    return network_from_edges(names, codes[:m], codes[m:], weights, source=table.source, directed=directed)
 
 
 def read_prior(path: str | os.PathLike, net_a: Network, net_b: Network, *, kind: str = "similarity",
                delimiter: str | None = None, header: str = "auto") -> PriorTable:
     """Read a prior similarity table ``node_a, node_b, score`` and map it onto two networks.
+
+    The scores are read as ``kind`` says (see :func:`aligner.priors.scores.prior_from_columns`).
 
     Raises
     ------
@@ -537,253 +507,13 @@ def read_prior(path: str | os.PathLike, net_a: Network, net_b: Network, *, kind:
         A row is malformed or a score is non-numeric, NaN, infinite or negative; the message
         names the file and line.
     """
-    path = os.fspath(path)
-    raw = _read_raw(path, min_cols=3, max_cols=3, delimiter=delimiter, header=header, what="prior table")
-    values = _numeric(raw, 2, "score")
-    return prior_from_columns(raw.columns[0], raw.columns[1], values, net_a, net_b, kind=kind,
-                              source=path, line_of=lambda r: _line_of(raw, r))
-
-
-@dataclass(frozen=True)
-class PairTable:
-    """Two columns of node pairs (a truth table or an alignment), mapped onto two networks."""
-
-    pairs: np.ndarray
-    n_rows: int
-    n_unknown: int
-    unknown_examples: list[str]
-    source: str
+    table = read_table(path, min_cols=3, max_cols=3, delimiter=delimiter, header=header, what="prior table")
+    return prior_from_columns(table.text(0), table.text(1), table.numeric(2, "score"), net_a, net_b, kind=kind,
+                              source=table.source, line_of=table.line_of)
 
 
 def read_pairs(path: str | os.PathLike, net_a: Network, net_b: Network, *, delimiter: str | None = None,
                header: str = "auto", what: str = "pair table") -> PairTable:
     """Read a table whose first two columns are node pairs (extra columns are ignored)."""
-    path = os.fspath(path)
-    raw = _read_raw(path, min_cols=2, max_cols=64, delimiter=delimiter, header=header, what=what)
-    a, b = raw.columns[0], raw.columns[1]
-    ia = _lookup(net_a.names, a)
-    ib = _lookup(net_b.names, b)
-    known = (ia >= 0) & (ib >= 0)
-    examples = [f"{_at(a, r)} / {_at(b, r)}" for r in np.flatnonzero(~known)[:3]]
-    pairs = np.stack([ia[known], ib[known]], axis=1).astype(np.int32) if known.any() else np.empty((0, 2), np.int32)
-    return PairTable(pairs=pairs, n_rows=len(a), n_unknown=int((~known).sum()), unknown_examples=examples,
-                     source=path)
-
-
-# --------------------------------------------------------------------------- writing
-
-def write_text_atomic(path: str | os.PathLike, text: str) -> None:
-    """Write ``text`` to a temporary file beside ``path`` and rename it into place when complete."""
-    path = Path(path)
-    fd, tmp = tempfile.mkstemp(prefix=f".{path.name}.", suffix=".part", dir=path.parent)
-    try:
-        with os.fdopen(fd, "w", encoding="utf-8", newline="\n") as fh:
-            fh.write(text)
-            fh.flush()
-            os.fsync(fh.fileno())
-        os.replace(tmp, path)
-    except BaseException:
-        try:
-            os.unlink(tmp)
-        except FileNotFoundError:
-            pass
-        raise
-
-
-def write_table_atomic(path: str | os.PathLike, df: pd.DataFrame) -> None:
-    """Write a DataFrame as TSV (header, no index, ``%.10g`` floats), atomically."""
-    buf = _io.StringIO()
-    df.to_csv(buf, sep="\t", index=False, float_format="%.10g", lineterminator="\n")
-    write_text_atomic(path, buf.getvalue())
-
-
-def write_json_atomic(path: str | os.PathLike, obj: object) -> None:
-    """Write ``obj`` as indented JSON, atomically. Non-finite floats become null."""
-    write_text_atomic(path, json.dumps(_finite(obj), indent=2, sort_keys=False) + "\n")
-
-
-def _finite(obj):
-    if isinstance(obj, float):
-        return obj if math.isfinite(obj) else None
-    if isinstance(obj, dict):
-        return {k: _finite(v) for k, v in obj.items()}
-    if isinstance(obj, (list, tuple)):
-        return [_finite(v) for v in obj]
-    if isinstance(obj, np.generic):
-        return _finite(obj.item())
-    return obj
-
-
-# --------------------------------------------------------------------------- publishing a set of outputs
-
-def table_text(df: pd.DataFrame) -> str:
-    """A DataFrame as TSV text (header, no index, ``%.10g`` floats), as the outputs are written."""
-    buf = _io.StringIO()
-    df.to_csv(buf, sep="\t", index=False, float_format="%.10g", lineterminator="\n")
-    return buf.getvalue()
-
-
-def json_text(obj: object) -> str:
-    """``obj`` as indented JSON text; non-finite floats become null."""
-    return json.dumps(_finite(obj), indent=2, sort_keys=False) + "\n"
-
-
-@contextmanager
-def _signals_deferred():
-    """Hold back SIGINT, SIGTERM and SIGHUP (delivered on exit) around a few renames."""
-    sigs = {getattr(signal, s) for s in ("SIGINT", "SIGTERM", "SIGHUP") if hasattr(signal, s)}
-    if not hasattr(signal, "pthread_sigmask"):  # pragma: no cover - not POSIX
-        yield
-        return
-    old = signal.pthread_sigmask(signal.SIG_BLOCK, sigs)
-    try:
-        yield
-    finally:
-        signal.pthread_sigmask(signal.SIG_SETMASK, old)
-
-
-def _fsync_dir(path: Path) -> None:
-    try:
-        fd = os.open(path, os.O_RDONLY)
-    except OSError:  # pragma: no cover - e.g. Windows
-        return
-    try:
-        os.fsync(fd)
-    except OSError:  # pragma: no cover
-        pass
-    finally:
-        os.close(fd)
-
-
-def _staging_name(out: Path, kind: str) -> str:
-    return f".{out.name}.aligner-{kind}-{os.getpid()}-{os.urandom(4).hex()}"
-
-
-def _can_swap(out: Path) -> bool:
-    """Whether ``out`` may be renamed aside: not a mount point, not (holding) the working directory."""
-    try:
-        cwd = os.getcwd()
-    except OSError:
-        cwd = ""
-    inside = cwd == str(out) or cwd.startswith(str(out).rstrip(os.sep) + os.sep)
-    return not inside and not os.path.ismount(out) and os.access(out.parent, os.W_OK | os.X_OK)
-
-
-def publish_outputs(outdir: str | os.PathLike, texts: dict[str, str]) -> None:
-    """Make the files ``texts`` (name -> text) appear in the directory ``outdir`` as one set.
-
-    A reader, or a run killed at any moment (Ctrl-C, SIGKILL), sees either the previous
-    outputs or the new ones, never a mix; other files in ``outdir`` are kept. The scheme
-    (one ``rename`` is atomic on POSIX; three are not, so the directory is swapped):
-
-    1. The files are written, flushed and fsynced into a new staging directory
-       ``.<name>.aligner-new-<pid>-<random>`` beside ``outdir`` (same file system).
-    2. No ``outdir`` yet: the staging directory is renamed to ``outdir``: one atomic step.
-    3. ``outdir`` exists: it is renamed aside to ``.<name>.aligner-old-<pid>-<random>``, the
-       staging directory is renamed to ``outdir``, the user's other entries are moved from the
-       old directory into the new one, and the old outputs and directory are removed. Between
-       the two renames ``outdir`` is briefly absent (no outputs); it never holds a mix.
-
-    The renames run with SIGINT/SIGTERM/SIGHUP held back (delivered when they are done). If
-    the process is killed during step 3 anyway, :func:`recover_interrupted` (called by
-    ``check_outdir`` before the next run) puts the user's files back. When ``outdir`` cannot
-    be renamed (a mount point, the working directory or one holding it, an unwritable
-    parent), the files are staged inside it and renamed into place one by one, summary
-    last, signals held back: atomic against Ctrl-C, but not against SIGKILL in that window.
-    """
-    out = Path(os.path.realpath(outdir))
-    parent = out.parent
-    swap = not out.exists() or _can_swap(out)
-    if not out.exists():
-        parent.mkdir(parents=True, exist_ok=True)
-    new = (parent if swap else out) / _staging_name(out, "new")
-    try:  # from the mkdir on: a Ctrl-C landing just after it must still remove the staging directory
-        os.mkdir(new)  # mode 0o777 less the umask, as a plain mkdir
-        for name, text in texts.items():
-            with open(new / name, "x", encoding="utf-8", newline="\n") as fh:
-                fh.write(text)
-                fh.flush()
-                os.fsync(fh.fileno())
-        _fsync_dir(new)
-        if swap and out.exists():
-            os.chmod(new, stat.S_IMODE(os.stat(out).st_mode))
-        with _signals_deferred():
-            if swap and not out.exists():
-                os.rename(new, out)
-            elif swap:
-                old = parent / _staging_name(out, "old")
-                os.rename(out, old)
-                try:
-                    os.rename(new, out)
-                except OSError:
-                    os.rename(old, out)
-                    raise
-                for entry in os.listdir(old):
-                    if entry not in texts:
-                        os.rename(old / entry, out / entry)
-                for name in texts:
-                    with suppress(FileNotFoundError):
-                        os.unlink(old / name)
-                os.rmdir(old)
-            else:
-                for name in sorted(texts, key=lambda n: n == "summary.json"):
-                    os.replace(new / name, out / name)
-                os.rmdir(new)
-        _fsync_dir(parent if swap else out)
-    except BaseException:
-        shutil.rmtree(new, ignore_errors=True)
-        raise
-
-
-def _dead(pid: str) -> bool:
-    if not pid.isdigit() or int(pid) == os.getpid():
-        return False
-    try:
-        os.kill(int(pid), 0)
-    except ProcessLookupError:
-        return True
-    except OSError:
-        return False
-    return False
-
-
-def recover_interrupted(outdir: str | os.PathLike, names) -> list[str]:
-    """Undo what a killed :func:`publish_outputs` left behind for ``outdir``; return notes.
-
-    Staging directories of dead processes are removed; an ``-old-`` directory (the process
-    was killed while swapping) is put back as ``outdir`` when that is missing, or else the
-    user's files in it are moved back into ``outdir``. A note names anything left over.
-    """
-    out = Path(os.path.realpath(outdir))
-    notes = []
-    for where, prefix in ((out.parent, f".{out.name}.aligner-"), (out, f".{out.name}.aligner-new-")):
-        try:
-            entries = sorted(os.listdir(where))
-        except OSError:
-            continue
-        for entry in entries:
-            if not entry.startswith(prefix):
-                continue
-            kind, _, rest = entry[len(f".{out.name}.aligner-"):].partition("-")
-            if kind not in ("new", "old") or not _dead(rest.split("-")[0]):
-                continue
-            path = where / entry
-            if kind == "new":
-                shutil.rmtree(path, ignore_errors=True)
-                continue
-            if not out.exists():
-                os.rename(path, out)
-                notes.append(f"restored '{out}' from an interrupted run")
-                continue
-            for item in os.listdir(path):
-                if item in names:
-                    with suppress(FileNotFoundError):
-                        os.unlink(path / item)
-                elif not os.path.lexists(out / item):
-                    os.rename(path / item, out / item)
-            with suppress(OSError):
-                os.rmdir(path)
-            if path.exists():
-                notes.append(f"'{path}' holds files left by an interrupted run; move back what you need "
-                             "and delete it")
-    return notes
+    table = read_table(path, min_cols=2, max_cols=64, delimiter=delimiter, header=header, what=what)
+    return pairs_from_columns(table.text(0), table.text(1), net_a, net_b, source=table.source)

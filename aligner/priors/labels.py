@@ -3,7 +3,48 @@
 For deduplication, the nodes of both networks carry a label (a company name, a title) and
 the prior is how alike two labels read. :func:`read_labels` reads a label file,
 :func:`label_prior` turns two label sets into a sparse prior table (node_a, node_b, score)
-that :func:`aligner.pipeline.align` accepts, and :func:`write_prior` writes it as TSV.
+that :func:`aligner.pipeline.align` accepts; :func:`aligner.io.outputs.write_prior_table` writes it.
+
+How the similarity is computed
+------------------------------
+Each label is normalised (:func:`normalise_label`: lower case, accents removed by NFKD,
+punctuation replaced by spaces) and turned into a vector of sublinear TF-IDF weights of its
+character n-grams, ``(1 + log tf) * idf``, with the smoothed idf ``1 + log((1 + N) /
+(1 + df))`` fitted on all ``N = n_A + n_B`` labels, then scaled to unit length; the score
+of a pair is the cosine ``x_a . x_b``. This is
+``sklearn.feature_extraction.text.TfidfVectorizer(analyzer="char_wb", sublinear_tf=True)``.
+
+The n_A x n_B similarity matrix is never formed, densely or sparsely; the result is exact
+(the same pairs as a dense ``cosine_similarity`` and a per-row sort, up to rounding in the
+last bits of a score). The n-grams are numbered from the rarest to the most common and a
+compiled kernel (:mod:`aligner.kernels.labels`, rows in parallel over the numba threads)
+takes each row x_a of A in turn:
+
+1. the rarest n-grams of x_a give at least ``top_k`` columns; their exact scores give
+   tau >= ``min_similarity``, a lower bound of the row's ``top_k``-th best score;
+2. x_a is split into a head and a tail of common n-grams whose norm is below tau / 2. A
+   column scoring at least tau shares an n-gram with the head (prefix filtering), so only
+   the postings lists of the head's n-grams are followed, summing ``x_a @ X_b.T`` into a
+   dense accumulator of length n_B (row-by-row sparse product); a touched column gets the
+   tail's share by merging the two sorted rows, unless a Cauchy-Schwarz bound shows that it
+   cannot reach tau;
+3. the columns at or above tau are sorted by score, then column, and the best ``top_k``
+   kept.
+
+The same is then done for the rows of B against A, and the two sets are united. Ties are
+broken by node order (the identifiers sorted as strings), so the output does not depend on
+the input order, nor on the number of threads. Each kept pair's score is recomputed once
+as the dot product of the two sorted rows, so a pair found from both sides has one value.
+
+Cost: the vectoriser is linear in the total label length. The kernel does, per row,
+``sum_{g in head} df(g)`` multiply-adds (``df(g)``: labels of the other side holding n-gram
+g) and a merge for each touched column; without the filter this would be
+``sum_g df_A(g) df_B(g)``, nearly ``n_A n_B`` times the n-grams per label, since common
+n-grams (``" co"``, ``"ltd"``) are in most labels. The head still holds words shared by many
+labels (an industry word), so the time grows about as ``n_A n_B``; ``scripts/bench_labels.py``
+measures it on the names of ``scripts/make_registry_demo.py``. Memory
+``O(nnz(X) + n_B + block_rows * top_k)`` per pass, plus the output: no n_A x n_B array of any
+kind.
 """
 
 from __future__ import annotations
@@ -12,7 +53,7 @@ import os
 import re
 import unicodedata
 import zlib
-from numbers import Integral, Real
+from numbers import Integral
 
 import numba
 import numpy as np
@@ -20,10 +61,12 @@ import pandas as pd
 import scipy.sparse as sp
 
 import aligner.kernels.labels as _k
+from aligner.checks import bad_parameter, check_int, check_real
 from aligner.errors import InputFormatError, InvalidParameterError
-from aligner.io.readers import _check_readable, _open_text, write_table_atomic
+from aligner.io.inputs import as_table
+from aligner.io.readers import check_readable, open_text
 
-__all__ = ["read_labels", "label_prior", "write_prior", "normalise_label", "tfidf_matrices"]
+__all__ = ["read_labels", "label_prior", "normalise_label", "tfidf_matrices"]
 
 #: rows of one block of the similarity product (the output buffers hold BLOCK_ROWS * top_k pairs)
 BLOCK_ROWS = 8192
@@ -68,23 +111,12 @@ def read_labels(path: str | os.PathLike) -> pd.Series:
     {'R1-1': 'Vantric Freight, Ltd', 'R1-2': 'R1-2'}
     """
     path = os.fspath(path)
-    _check_readable(path)
+    check_readable(path)
     ids: list[str] = []
     texts: list[str] = []
     seen: dict[str, int] = {}
-    first = True
     try:
-        for no, line in enumerate(_open_text(path), 1):
-            text = line.rstrip("\r\n")
-            stripped = text.strip()
-            if not stripped or stripped.startswith("#"):
-                continue
-            node, tab, label = text.partition("\t")
-            node, label = node.strip(), label.strip()
-            if first:
-                first = False
-                if tab and (node.lower(), label.lower()) == _HEADER:
-                    continue
+        for no, text, node, label in _label_lines(path):
             if not node:
                 raise InputFormatError(f"has an empty node identifier: {text[:80]!r}; give each node an "
                                        "identifier before the tab", path=path, line=no)
@@ -103,23 +135,34 @@ def read_labels(path: str | os.PathLike) -> pd.Series:
     return pd.Series(texts, index=pd.Index(ids, dtype=object, name="node"), dtype=object, name="label")
 
 
+def _label_lines(path: str):
+    """Yield (line number, text, identifier, label) of the data lines of a label file.
+
+    Blank and comment lines are skipped, and so is a first data line ``node<TAB>label``.
+    """
+    first = True
+    for no, line in enumerate(open_text(path), 1):
+        text = line.rstrip("\r\n")
+        stripped = text.strip()
+        if not stripped or stripped.startswith("#"):
+            continue
+        node, tab, label = text.partition("\t")
+        node, label = node.strip(), label.strip()
+        if first:
+            first = False
+            if tab and (node.lower(), label.lower()) == _HEADER:
+                continue
+        yield no, text, node, label
+
+
 def _as_labels(labels, name: str) -> pd.Series:
-    """Series, dict or path -> Series of str indexed by str, sorted by identifier."""
-    if isinstance(labels, (str, os.PathLike)):
-        s = read_labels(labels)
-    elif isinstance(labels, pd.Series):
-        s = labels
-    elif isinstance(labels, dict):
-        s = pd.Series(labels, dtype=object)
-    else:
-        raise InvalidParameterError(f"The '{name}' parameter of label_prior must be a pandas Series, a dict "
-                                    f"or a path. Got {type(labels).__name__} instead.")
-    ids = np.array([str(k) for k in s.index], dtype=object)
+    """Series, dict, rows (identifier, label) or path -> Series of str indexed by str, sorted by identifier."""
+    table = as_table(labels, name=name, layout="node, label", min_cols=2, max_cols=2, read=read_labels)
+    ids = table.text(0)
     values = np.array(["" if v is None or (isinstance(v, float) and np.isnan(v)) else str(v)
-                       for v in s.to_numpy()], dtype=object)
+                       for v in table.columns[1]], dtype=object)
     if len(set(ids)) != len(ids):
-        raise InvalidParameterError(f"The '{name}' parameter of label_prior must have unique node "
-                                    "identifiers. Got repeated identifiers instead.")
+        raise InvalidParameterError(f"{name} must name each node once; got repeated identifiers", param=name)
     order = np.argsort(ids.astype(str), kind="stable") if len(ids) else np.empty(0, np.int64)
     return pd.Series(values[order], index=ids[order], dtype=object)
 
@@ -137,23 +180,16 @@ def normalise_label(text: str) -> str:
     return " ".join(_NON_WORD.sub(" ", text.lower()).split())
 
 
-def _check_params(top_k, min_similarity, ngram_range, block_rows):
-    where = "label_prior"
-    if isinstance(top_k, bool) or not isinstance(top_k, Integral) or top_k < 1:
-        raise InvalidParameterError(f"The 'top_k' parameter of {where} must be an int >= 1. Got {top_k!r} instead.")
-    if isinstance(min_similarity, bool) or not isinstance(min_similarity, Real) or not 0 < min_similarity <= 1:
-        raise InvalidParameterError(f"The 'min_similarity' parameter of {where} must be in (0, 1]. "
-                                    f"Got {min_similarity!r} instead.")
+def _check_params(top_k, min_similarity, ngram_range, block_rows) -> None:
+    check_int(top_k, "top_k", low=1)
+    check_real(min_similarity, "min_similarity", low=0.0, high=1.0, closed="right")
     ok = (isinstance(ngram_range, (tuple, list)) and len(ngram_range) == 2
           and all(isinstance(v, Integral) and not isinstance(v, bool) for v in ngram_range)
           and 1 <= ngram_range[0] <= ngram_range[1])
     if not ok:
-        raise InvalidParameterError(f"The 'ngram_range' parameter of {where} must be a pair (lo, hi) of ints "
-                                    f"with 1 <= lo <= hi. Got {ngram_range!r} instead.")
-    if block_rows is not None and (isinstance(block_rows, bool) or not isinstance(block_rows, Integral)
-                                   or block_rows < 1):
-        raise InvalidParameterError(f"The 'block_rows' parameter of {where} must be an int >= 1 or None. "
-                                    f"Got {block_rows!r} instead.")
+        raise bad_parameter("ngram_range", "a pair (lo, hi) of whole numbers with 1 <= lo <= hi", ngram_range)
+    if block_rows is not None:
+        check_int(block_rows, "block_rows", low=1)
 
 
 def tfidf_matrices(docs_a, docs_b, *, ngram_range=(2, 4)) -> tuple[sp.csr_array, sp.csr_array]:
@@ -219,7 +255,7 @@ def label_prior(labels_a, labels_b, *, top_k: int = 10, min_similarity: float = 
 
     Parameters
     ----------
-    labels_a, labels_b : pandas.Series, dict or path
+    labels_a, labels_b : pandas.Series, dict, rows (node, label) or path
         Label text indexed (keyed) by node identifier, or a label file (see :func:`read_labels`).
         Identifiers are compared as str.
     top_k : int >= 1, default 10
@@ -248,45 +284,11 @@ def label_prior(labels_a, labels_b, *, top_k: int = 10, min_similarity: float = 
 
     Notes
     -----
-    Each label is normalised (:func:`normalise_label`: lower case, accents removed by NFKD,
-    punctuation replaced by spaces) and turned into a vector of sublinear TF-IDF weights of its
-    character n-grams, ``(1 + log tf) * idf``, with the smoothed idf ``1 + log((1 + N) /
-    (1 + df))`` fitted on all ``N = n_A + n_B`` labels, then scaled to unit length; the score
-    of a pair is the cosine ``x_a . x_b``. This is
-    ``sklearn.feature_extraction.text.TfidfVectorizer(analyzer="char_wb", sublinear_tf=True)``.
-
-    The n_A x n_B similarity matrix is never formed, densely or sparsely; the result is exact
-    (the same pairs as a dense ``cosine_similarity`` and a per-row sort, up to rounding in the
-    last bits of a score). The n-grams are numbered from the rarest to the most common and a
-    compiled kernel (:mod:`aligner.kernels.labels`, rows in parallel over the numba threads)
-    takes each row x_a of A in turn:
-
-    1. the rarest n-grams of x_a give at least ``top_k`` columns; their exact scores give
-       tau >= ``min_similarity``, a lower bound of the row's ``top_k``-th best score;
-    2. x_a is split into a head and a tail of common n-grams whose norm is below tau / 2. A
-       column scoring at least tau shares an n-gram with the head (prefix filtering), so only
-       the postings lists of the head's n-grams are followed, summing ``x_a @ X_b.T`` into a
-       dense accumulator of length n_B (Gustavson's row-by-row sparse product); a touched
-       column gets the tail's share by merging the two sorted rows, unless a Cauchy-Schwarz
-       bound shows that it cannot reach tau;
-    3. the columns at or above tau are sorted by score, then column, and the best ``top_k``
-       kept.
-
-    The same is then done for the rows of B against A, and the two sets are united. Ties are
-    broken by node order (the identifiers sorted as strings), so the output does not depend on
-    the input order, nor on the number of threads. Each kept pair's score is recomputed once
-    as the dot product of the two sorted rows, so a pair found from both sides has one value.
-
-    Cost: the vectoriser is linear in the total label length (about 3 s per 10^5 labels, in
-    Python). The kernel does, per row, ``sum_{g in head} df(g)`` multiply-adds (``df(g)``:
-    labels of the other side holding n-gram g) and a merge for each touched column; without the
-    filter this would be ``sum_g df_A(g) df_B(g)``, nearly ``n_A n_B`` times the n-grams per
-    label, since common n-grams (``" co"``, ``"ltd"``) are in most labels. The head still
-    holds words shared by many labels (an industry word), so the time grows about as
-    ``n_A n_B``: on 2 threads, 35 s at 2 x 10^4 names per side and 540 s (peak resident
-    memory 1.1 GiB) at 10^5 per side, the names of ``scripts/make_registry_demo.py``
-    (``scripts/bench_labels.py``). Memory ``O(nnz(X) + n_B + block_rows * top_k)``
-    per pass, plus the output: no n_A x n_B array of any kind.
+    The score of a pair is the cosine of the two labels' sublinear TF-IDF vectors, exact (the
+    same pairs as a dense ``cosine_similarity`` and a per-row sort, up to rounding in the last
+    bits); the n_A x n_B matrix is never formed. The weighting, the search (prefix filtering
+    over n-grams numbered from the rarest) and its cost are described in the module
+    docstring; ``scripts/bench_labels.py`` measures the time.
 
     Examples
     --------
@@ -299,6 +301,17 @@ def label_prior(labels_a, labels_b, *, top_k: int = 10, min_similarity: float = 
     _check_params(top_k, min_similarity, ngram_range, block_rows)
     sa, sb = _as_labels(labels_a, "labels_a"), _as_labels(labels_b, "labels_b")
     xa, xb = tfidf_matrices(sa.to_numpy(), sb.to_numpy(), ngram_range=ngram_range)
+    ia, ib, score = _similar_pairs(xa, xb, top_k, min_similarity, BLOCK_ROWS if block_rows is None else block_rows)
+    return pd.DataFrame({
+        "node_a": pd.Series(sa.index.to_numpy()[ia], dtype=object),
+        "node_b": pd.Series(sb.index.to_numpy()[ib], dtype=object),
+        "score": score.astype(np.float64),
+    })
+
+
+def _similar_pairs(xa: sp.csr_array, xb: sp.csr_array, top_k: int, min_similarity: float,
+                   block_rows: int) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+    """Row of A, row of B and score of the union of both sides' top_k pairs, sorted by (a, b)."""
     # number the n-grams from the rarest to the most common (ties by vocabulary order), so
     # that each row's common n-grams come last (the kernel's prefix filter); the per-thread
     # accumulators are dense over the nodes, never over the pairs
@@ -306,8 +319,6 @@ def label_prior(labels_a, labels_b, *, top_k: int = 10, min_similarity: float = 
     rank = np.empty(len(df), dtype=np.int64)
     rank[np.argsort(df, kind="stable")] = np.arange(len(df))
     xa, xb = _renumber(xa, rank), _renumber(xb, rank)
-    if block_rows is None:
-        block_rows = BLOCK_ROWS
     ra, ca = _top_k(xa, xb, top_k, min_similarity, block_rows)
     rb, cb = _top_k(xb, xa, top_k, min_similarity, block_rows)
     nb = xb.shape[0]
@@ -316,24 +327,4 @@ def label_prior(labels_a, labels_b, *, top_k: int = 10, min_similarity: float = 
     # one score per pair however it was found: the dot product in the order of the n-grams
     score = np.empty(len(key))
     _k.pair_dots(xa.indptr, xa.indices, xa.data, xb.indptr, xb.indices, xb.data, ia, ib, score)
-    score = np.minimum(score, 1.0)
-    return pd.DataFrame({
-        "node_a": pd.Series(sa.index.to_numpy()[ia], dtype=object),
-        "node_b": pd.Series(sb.index.to_numpy()[ib], dtype=object),
-        "score": score.astype(np.float64),
-    })
-
-
-# --------------------------------------------------------------------------- writing
-
-def write_prior(df: pd.DataFrame, path: str | os.PathLike) -> None:
-    """Write a prior table as TSV with the header ``node_a, node_b, score``, atomically.
-
-    The file is written beside ``path`` and renamed into place when complete; scores are
-    written with ten significant digits.
-    """
-    missing = [c for c in ("node_a", "node_b", "score") if c not in df.columns]
-    if missing:
-        raise InvalidParameterError("The 'df' parameter of write_prior must have the columns node_a, node_b "
-                                    f"and score. Got a table without {', '.join(missing)} instead.")
-    write_table_atomic(path, df[["node_a", "node_b", "score"]])
+    return ia, ib, np.minimum(score, 1.0)

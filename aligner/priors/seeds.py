@@ -20,13 +20,15 @@ from dataclasses import dataclass, field
 
 import numpy as np
 import numpy.typing as npt
-import pandas as pd
 
 from aligner.kernels.query import _witness_rows
 from aligner.checks import check_int, check_real
 from aligner.core.candidates import CandidateSet, build_candidates
 from aligner.errors import InputFormatError, InvalidParameterError
 from aligner.core.network import Network
+from aligner.io.identifiers import lookup, text_at
+from aligner.io.inputs import as_table
+from aligner.io.readers import data_lines, read_table
 from aligner.core.rounding import Matching, round_matching
 from aligner.core.scoring import score_matching
 
@@ -68,27 +70,24 @@ class SeedTable:
 
 # --------------------------------------------------------------------------- reading
 
-def _check_seed_columns(a: np.ndarray, b: np.ndarray, net_a: Network, net_b: Network, source: str,
-                        where) -> SeedTable:
+def _check_seed_columns(a, b, net_a: Network, net_b: Network, source: str, where) -> SeedTable:
     """Map identifier columns onto node indices; refuse unknown nodes and nodes in two pairs.
 
     ``where(r)`` names data row r for a message ("line 7" in a file, "row 3" in a table).
     """
-    from aligner.io.readers import _at, _lookup
-
     hint = "fix or remove it (every seed must name a node of A, then a node of B)"
     if len(a) == 0:
         raise InputFormatError("holds no seed pairs; give a table of known pairs node_a, node_b (one pair per "
                                "line), or leave out the seeds", path=source)
-    ia = _lookup(net_a.names, a)
-    ib = _lookup(net_b.names, b)
+    ia = lookup(net_a.names, a)
+    ib = lookup(net_b.names, b)
     for col, idx, net, name in ((0, ia, net_a, "A"), (1, ib, net_b, "B")):
         if (idx < 0).any():
             r = int(np.argmax(idx < 0))
-            value = _at(a if col == 0 else b, r)
+            value = text_at(a if col == 0 else b, r)
             extra = ""
             other = net_b if col == 0 else net_a
-            if _lookup(other.names, np.array([value], dtype=object))[0] >= 0:
+            if lookup(other.names, np.array([value], dtype=object))[0] >= 0:
                 extra = f"; it is a node of network {'B' if col == 0 else 'A'}: are the columns swapped?"
             elif r == 0:
                 extra = "; if this line is a header, give --header yes"
@@ -98,9 +97,8 @@ def _check_seed_columns(a: np.ndarray, b: np.ndarray, net_a: Network, net_b: Net
     # repeated identical rows are merged; a node in two different pairs is an error
     key = pairs[:, 0] * max(net_b.n, 1) + pairs[:, 1]
     _, first = np.unique(key, return_index=True)
-    first = np.sort(first)
-    n_rep = len(pairs) - len(first)
-    rows = first
+    rows = np.sort(first)
+    n_rep = len(pairs) - len(rows)
     for col, name in ((0, "A"), (1, "B")):
         v = pairs[rows, col]
         order = np.argsort(v, kind="stable")
@@ -130,46 +128,31 @@ def read_seeds(path: str | os.PathLike, net_a: Network, net_b: Network, *, delim
         The file is missing, empty or malformed, names a node missing from its network, or
         puts a node in two different pairs; the message names the file and line.
     """
-    from aligner.io.readers import _data_lines, _line_of, _read_raw
-
     path = os.fspath(path)
     try:
-        empty = next(_data_lines(path), None) is None
+        empty = next(data_lines(path), None) is None
     except (OSError, UnicodeDecodeError, EOFError):
         empty = False  # let the reader give its message
     if empty:
         raise InputFormatError("is empty: it holds no seed pairs; give a table of known pairs node_a, node_b "
                                "(one pair per line), or leave out --seeds", path=path)
-    raw = _read_raw(path, min_cols=2, max_cols=64, delimiter=delimiter, header=header, what="seed table")
-    return _check_seed_columns(raw.columns[0], raw.columns[1], net_a, net_b, path,
-                               lambda r: f"line {_line_of(raw, r)}")
+    table = read_table(path, min_cols=2, max_cols=64, delimiter=delimiter, header=header, what="seed table")
+    return _check_seed_columns(table.text(0), table.text(1), net_a, net_b, table.source, table.where)
 
 
 def as_seeds(obj, net_a: Network, net_b: Network, *, delimiter: str | None = None,
              header: str = "auto") -> SeedTable:
-    """A :class:`SeedTable` from a path, a DataFrame (first two columns) or an iterable of pairs."""
+    """A :class:`SeedTable` from a path, a DataFrame (first two columns), rows or a mapping a -> b.
+
+    Objects go through :func:`aligner.io.inputs.as_table`; a message names their rows
+    ("row 2", 1-based) as it names a file's lines.
+    """
     if isinstance(obj, SeedTable):
         return obj
     if isinstance(obj, (str, os.PathLike)):
         return read_seeds(obj, net_a, net_b, delimiter=delimiter, header=header)
-    if isinstance(obj, pd.DataFrame):
-        if obj.shape[1] < 2:
-            raise InvalidParameterError("The 'seeds' parameter of align must have two columns (node_a, node_b). "
-                                        f"Got {obj.shape[1]} instead.")
-        a = obj.iloc[:, 0].astype(str).to_numpy(dtype=object)
-        b = obj.iloc[:, 1].astype(str).to_numpy(dtype=object)
-    else:
-        try:
-            rows = [tuple(r) for r in obj]
-        except TypeError:
-            raise InvalidParameterError("The 'seeds' parameter of align must be a path, a pandas DataFrame or "
-                                        f"an iterable of (node_a, node_b) pairs. Got {type(obj).__name__} "
-                                        "instead.") from None
-        if any(len(r) != 2 for r in rows):
-            raise InvalidParameterError("The 'seeds' parameter of align must hold (node_a, node_b) pairs.")
-        a = np.array([str(r[0]) for r in rows], dtype=object)
-        b = np.array([str(r[1]) for r in rows], dtype=object)
-    return _check_seed_columns(a, b, net_a, net_b, "<seeds>", lambda r: f"row {r + 1}")
+    table = as_table(obj, name="seeds", layout="node_a, node_b", min_cols=2, max_cols=64, source="<seeds>")
+    return _check_seed_columns(table.text(0), table.text(1), net_a, net_b, table.source, table.where)
 
 
 # --------------------------------------------------------------------------- candidates and h
@@ -313,20 +296,31 @@ def expand_from_seeds(net_a: Network, net_b: Network, seeds: SeedTable, *, top_k
     partners included), united with each node of B's best ``top_k`` (as
     :func:`aligner.core.candidates.build_candidates` does for a prior), with the provisional
     pairs and the seeds; their score (count + 0.5 degree similarity) serves as the prior.
-    Growing a matching from seeds by counting such witnesses follows the percolation idea
-    of Yartseva & Grossglauser (2013); the matching per round and the half-the-best
-    acceptance rule are this package's.
+    Growing a matching from seeds by counting such witnesses follows the idea of percolation
+    graph matching (the reference is in ``docs/method.md``); the matching per round and the
+    half-the-best acceptance rule are this package's.
     """
     max_rounds = check_int(max_rounds, "max_rounds", low=0)
     if seeds.n == 0:
-        raise InvalidParameterError("expand_from_seeds needs at least one seed pair")
+        raise InvalidParameterError("seeds must hold at least one seed pair to grow candidates from; got none",
+                                    param="seeds")
     t0 = time.perf_counter()
-    n1, n2 = net_a.n, net_b.n
-    kcap = 2 * (top_k if top_k is not None else 25)
-    mate_a = np.full(n1, -1, dtype=np.int64)
-    mate_b = np.full(n2, -1, dtype=np.int64)
+    mate_a = np.full(net_a.n, -1, dtype=np.int64)
+    mate_b = np.full(net_b.n, -1, dtype=np.int64)
     mate_a[seeds.pairs[:, 0]] = seeds.pairs[:, 1]
     mate_b[seeds.pairs[:, 1]] = seeds.pairs[:, 0]
+    rounds, accepted = _grow(net_a, net_b, mate_a, mate_b, kcap=2 * (top_k if top_k is not None else 25),
+                             max_rounds=max_rounds)
+    cand, prov = _final_candidates(net_a, net_b, mate_a, mate_b, seeds, top_k)
+    return SeedExpansion(cand, prov, rounds, accepted, time.perf_counter() - t0)
+
+
+def _grow(net_a: Network, net_b: Network, mate_a: np.ndarray, mate_b: np.ndarray, *, kcap: int,
+          max_rounds: int) -> tuple[int, list[int]]:
+    """The rounds of :func:`expand_from_seeds`: extend the matching ``mate_a``/``mate_b`` in place.
+
+    Returns the rounds run and the pairs accepted in each.
+    """
     deg_a = net_a.degree.astype(np.int64)
     deg_b = net_b.degree.astype(np.int64)
     floor = 2
@@ -346,7 +340,7 @@ def expand_from_seeds(net_a: Network, net_b: Network, seeds: SeedTable, *, top_k
             break
         rounds += 1
         p, c, d = p[keep], c[keep], d[keep]
-        cs = build_candidates(p, c + 0.5 * d, n1, n2, top_k=None)
+        cs = build_candidates(p, c + 0.5 * d, net_a.n, net_b.n, top_k=None)
         match = round_matching(cs, cs.prior)
         got = cs.pairs[match.index].astype(np.int64)
         count = np.floor(cs.prior[match.index])
@@ -354,11 +348,20 @@ def expand_from_seeds(net_a: Network, net_b: Network, seeds: SeedTable, *, top_k
         mate_a[got[:, 0]] = got[:, 1]
         mate_b[got[:, 1]] = got[:, 0]
         accepted.append(len(got))
-    # final candidates: witness counts against the provisional matching, every node of A
+    return rounds, accepted
+
+
+def _final_candidates(net_a: Network, net_b: Network, mate_a: np.ndarray, mate_b: np.ndarray,
+                      seeds: SeedTable, top_k: int | None) -> tuple[CandidateSet, np.ndarray]:
+    """Candidates by witness count against the provisional matching, with its pairs and the seeds.
+
+    Returns the candidate set and the provisional pairs.
+    """
+    n1, n2 = net_a.n, net_b.n
     rows = np.arange(n1, dtype=np.int64)
     k_final = top_k if top_k is not None else 50
     p, c, d = _witness_rows(net_a.indptr, net_a.indices, net_b.indptr, net_b.indices, mate_a, mate_b, rows,
-                            k_final, deg_a, deg_b, False)
+                            k_final, net_a.degree.astype(np.int64), net_b.degree.astype(np.int64), False)
     prov_a = np.flatnonzero(mate_a >= 0)
     prov = np.stack([prov_a, mate_a[prov_a]], axis=1)
     pairs = np.concatenate([p, prov])
@@ -367,8 +370,7 @@ def expand_from_seeds(net_a: Network, net_b: Network, seeds: SeedTable, *, top_k
     missing = ~np.isin(_keys(prov, n2), _keys(cand.pairs, n2))
     if missing.any():  # a provisional pair cut by the top-k of its B node: keep it
         cand = add_seed_pairs(cand, SeedTable(prov[missing].astype(np.int32), int(missing.sum())))
-    cand = add_seed_pairs(cand, seeds)
-    return SeedExpansion(cand, prov, rounds, accepted, time.perf_counter() - t0)
+    return add_seed_pairs(cand, seeds), prov
 
 
 # --------------------------------------------------------------------------- rounding and scores

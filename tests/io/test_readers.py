@@ -3,8 +3,9 @@ import gzip
 import numpy as np
 import pytest
 
-from aligner.errors import InputFormatError
-from aligner.io.readers import EVALUE_CAP, read_network, read_pairs, read_prior
+from aligner.errors import InputFormatError, InvalidParameterError
+from aligner.io.readers import data_lines, read_network, read_pairs, read_prior, read_table
+from aligner.priors.scores import EVALUE_CAP
 
 
 def _w(tmp_path, name, text, mode="w"):
@@ -120,3 +121,27 @@ def test_read_pairs_ignores_extra_columns(tmp_path):
     p = _w(tmp_path, "al.tsv", "node_a\tnode_b\tscore\tprior\tconserved\na1\tb2\t0.1\t1\t0\nzz\tb1\t1\t1\t1\n")
     t = read_pairs(p, a, b)
     assert t.pairs.tolist() == [[0, 1]] and t.n_unknown == 1
+
+
+def test_read_table_columns_and_lines(tmp_path):
+    # hand-worked: the header line is recognised by its column names, the comment and the blank
+    # line are skipped, and each data row keeps its own file line number
+    p = _w(tmp_path, "t.csv", "# pairs\nnode_a,node_b\n\nx,y\n# late comment\nz,w\n")
+    t = read_table(p, min_cols=2, max_cols=2, what="pair table")
+    assert t.header == ("node_a", "node_b") and t.n_rows == 2
+    assert [list(map(str, t.text(k))) for k in (0, 1)] == [["x", "z"], ["y", "w"]]
+    assert [t.line_of(r) for r in (0, 1)] == [4, 6] and t.where(1) == "line 6"
+    assert [no for no, _ in data_lines(str(p))] == [2, 4, 6]
+
+
+@pytest.mark.parametrize("kw, message", [
+    ({"delimiter": "ab"}, "delimiter must be tab, comma, semicolon, space, whitespace or one character other "
+                          "than a quote, '#' or a line break; got 'ab'"),
+    ({"header": "maybe"}, "header must be one of auto, yes, no; got 'maybe'"),
+])
+def test_reader_options_are_checked_in_the_package_words(tmp_path, kw, message):
+    # the package's message shape "x must be ...; got y" (aligner.checks), naming the keyword
+    p = _w(tmp_path, "a.tsv", "x\ty\n")
+    with pytest.raises(InvalidParameterError) as info:
+        read_network(p, **kw)
+    assert str(info.value) == message and info.value.param == next(iter(kw))

@@ -9,7 +9,8 @@ from sklearn.metrics.pairwise import cosine_similarity
 
 from aligner.pipeline import align
 from aligner.errors import InputFormatError, InvalidParameterError
-from aligner.priors.labels import label_prior, normalise_label, read_labels, tfidf_matrices, write_prior
+from aligner.io.outputs import write_prior_table
+from aligner.priors.labels import label_prior, normalise_label, read_labels, tfidf_matrices
 
 STEMS = ["Vantric", "Olmera", "Korvex", "Dralune", "Pesquo", "Tirabel", "Zundor"]
 WORDS = ["Freight", "Foods", "Marine", "Steel", "North", "South", "Holdings", "Limited", "Co", "and", "&"]
@@ -108,13 +109,31 @@ def test_normalisation():
     assert got["score"].tolist() == pytest.approx([1.0])
 
 
-def test_parameters_are_checked():
-    for kw in ({"top_k": 0}, {"min_similarity": 0}, {"min_similarity": 1.5}, {"ngram_range": (3, 2)},
-               {"block_rows": 0}):
-        with pytest.raises(InvalidParameterError, match="parameter of label_prior"):
-            label_prior({"a": "x"}, {"b": "x"}, **kw)
-    with pytest.raises(InvalidParameterError, match="labels_a"):
+@pytest.mark.parametrize("kw, message", [
+    ({"top_k": 0}, "top_k must be a whole number >= 1; got 0"),
+    ({"min_similarity": 0}, "min_similarity must be a number in (0, 1]; got 0"),
+    ({"min_similarity": 1.5}, "min_similarity must be a number in (0, 1]; got 1.5"),
+    ({"ngram_range": (3, 2)}, "ngram_range must be a pair (lo, hi) of whole numbers with 1 <= lo <= hi; got (3, 2)"),
+    ({"block_rows": 0}, "block_rows must be a whole number >= 1; got 0"),
+])
+def test_parameters_are_checked(kw, message):
+    # the package's message shape "x must be ...; got y" (aligner.checks), naming the keyword
+    with pytest.raises(InvalidParameterError) as info:
+        label_prior({"a": "x"}, {"b": "x"}, **kw)
+    assert str(info.value) == message and info.value.param == next(iter(kw))
+
+
+def test_label_sets_are_checked():
+    with pytest.raises(InvalidParameterError, match="labels_a") as info:
         label_prior([1, 2], {"b": "x"})
+    assert info.value.param == "labels_a"
+    with pytest.raises(InvalidParameterError, match="labels_b must name each node once") as info:
+        label_prior({"a": "x"}, pd.Series(["x", "y"], index=["b", "b"]))
+    assert info.value.param == "labels_b"
+    # rows (node, label) and a DataFrame are label sets too, the same as a dict
+    want = label_prior({"a1": "Vantric Freight"}, {"b1": "Vantric Frieght"})
+    pd.testing.assert_frame_equal(label_prior([("a1", "Vantric Freight")], pd.DataFrame({"n": ["b1"], "l": [
+        "Vantric Frieght"]})), want)
 
 
 # --------------------------------------------------------------------------- reading and writing
@@ -172,13 +191,13 @@ def test_read_labels_unreadable(tmp_path):
 def test_write_prior_round_trip(tmp_path):
     df = label_prior({"a1": "Vantric Freight", "a2": "Olmera"}, {"b1": "Vantric Frieght", "b2": "Olmera Co"})
     out = tmp_path / "prior.tsv"
-    write_prior(df, out)
+    assert write_prior_table(df, out) == out
     back = pd.read_csv(out, sep="\t", dtype={"node_a": str, "node_b": str})
     assert list(back.columns) == ["node_a", "node_b", "score"]
     np.testing.assert_allclose(back["score"], df["score"], rtol=1e-9)
     assert [p.name for p in tmp_path.iterdir()] == ["prior.tsv"]  # no temporary file left
     with pytest.raises(InvalidParameterError, match="score"):
-        write_prior(df[["node_a", "node_b"]], out)
+        write_prior_table(df[["node_a", "node_b"]], out, force=True)
 
 
 # --------------------------------------------------------------------------- the registry demo

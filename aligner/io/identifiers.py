@@ -1,0 +1,138 @@
+"""Node identifiers as columns of strings: look-up, numbering and single entries.
+
+Identifier columns come as numpy object arrays (from a DataFrame or a list of rows) or as
+pyarrow string arrays (from the fast file reader); every function here takes either, so the
+readers, the coercion of inputs and the priors share one way of naming nodes.
+:func:`pairs_from_columns` maps two identifier columns onto two networks (a truth table, an
+alignment).
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+
+import numpy as np
+import pyarrow as pa
+import pyarrow.compute as pac
+
+__all__ = ["as_arrow_strings", "intern", "lookup", "text_at", "PairTable", "pairs_from_columns"]
+
+
+def as_arrow_strings(values) -> pa.Array:
+    """A column of identifiers as one pyarrow string array (chunks combined, no copy if already one).
+
+    Parameters
+    ----------
+    values : pyarrow.Array, pyarrow.ChunkedArray or array-like of str
+
+    Returns
+    -------
+    pyarrow.Array
+    """
+    if isinstance(values, pa.ChunkedArray):
+        return values.combine_chunks()
+    if isinstance(values, pa.Array):
+        return values
+    return pa.array(np.asarray(values, dtype=object), type=pa.string())
+
+
+def intern(a, b) -> tuple[np.ndarray, np.ndarray]:
+    """Sorted unique identifiers of two columns and the index of every entry among them.
+
+    Identifiers sort by code point (UTF-8 byte order), the same order as Python's ``sorted``.
+
+    Parameters
+    ----------
+    a, b : column of str (see :func:`as_arrow_strings`)
+
+    Returns
+    -------
+    names : ndarray of object
+        The sorted unique identifiers of ``a`` and ``b`` together.
+    codes : ndarray of int64
+        Index in ``names`` of every entry of ``a`` followed by every entry of ``b``.
+    """
+    both = pa.concat_arrays([as_arrow_strings(a), as_arrow_strings(b)])
+    uniq = pac.unique(both)
+    uniq = uniq.take(pac.array_sort_indices(uniq))
+    codes = pac.index_in(both, value_set=uniq).to_numpy(zero_copy_only=False)
+    return uniq.to_numpy(zero_copy_only=False).astype(object), codes.astype(np.int64)
+
+
+def lookup(names: np.ndarray, query) -> np.ndarray:
+    """Index of each query identifier in ``names``, -1 where absent (a hash look-up).
+
+    Parameters
+    ----------
+    names : ndarray of object
+        The identifiers of a network (``Network.names``), each once.
+    query : column of str (see :func:`as_arrow_strings`)
+
+    Returns
+    -------
+    ndarray of int64, one entry per query identifier
+
+    Examples
+    --------
+    >>> lookup(np.array(["a", "b"], dtype=object), ["b", "z"]).tolist()
+    [1, -1]
+    """
+    if len(names) == 0:
+        return np.full(len(query), -1, dtype=np.int64)
+    idx = pac.index_in(as_arrow_strings(query), value_set=as_arrow_strings(names))
+    return pac.fill_null(idx, -1).to_numpy(zero_copy_only=False).astype(np.int64)
+
+
+def text_at(values, row: int) -> str:
+    """Entry ``row`` of a column of identifiers (numpy or pyarrow) as a Python string."""
+    v = values[int(row)]
+    return v.as_py() if isinstance(v, pa.Scalar) else str(v)
+
+
+@dataclass(frozen=True)
+class PairTable:
+    """Two columns of node pairs (a truth table or an alignment), mapped onto two networks.
+
+    Attributes
+    ----------
+    pairs : ndarray of int32, shape (k, 2)
+        The rows naming a node of A and a node of B, as (index in A, index in B), in row order.
+    n_rows : int
+        Rows given.
+    n_unknown : int
+        Rows naming a node missing from its network (left out of ``pairs``).
+    unknown_examples : list of str
+        Up to three of those rows, as ``"a / b"``.
+    source : str
+        Where the table came from.
+    """
+
+    pairs: np.ndarray
+    n_rows: int
+    n_unknown: int
+    unknown_examples: list[str] = field(default_factory=list)
+    source: str = "<memory>"
+
+
+def pairs_from_columns(a, b, net_a, net_b, *, source: str = "<memory>") -> PairTable:
+    """Map two identifier columns onto the nodes of two networks; rows naming an unknown node are counted.
+
+    Parameters
+    ----------
+    a, b : column of str (see :func:`as_arrow_strings`)
+        Identifiers of nodes of A and of B, row by row.
+    net_a, net_b : Network
+    source : str
+        Where the columns came from, kept as ``PairTable.source``.
+
+    Returns
+    -------
+    PairTable
+    """
+    ia = lookup(net_a.names, a)
+    ib = lookup(net_b.names, b)
+    known = (ia >= 0) & (ib >= 0)
+    examples = [f"{text_at(a, r)} / {text_at(b, r)}" for r in np.flatnonzero(~known)[:3]]
+    pairs = np.stack([ia[known], ib[known]], axis=1).astype(np.int32) if known.any() else np.empty((0, 2), np.int32)
+    return PairTable(pairs=pairs, n_rows=len(a), n_unknown=int((~known).sum()), unknown_examples=examples,
+                     source=source)

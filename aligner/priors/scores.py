@@ -1,0 +1,144 @@
+"""What a prior score means: score kinds turned into similarities, and the prior table.
+
+A prior arrives as three columns (node of A, node of B, score) from a file or a DataFrame;
+:func:`prior_from_columns` checks the scores, turns them into similarities by their kind
+(:func:`transform_scores`), maps the identifiers onto two networks and merges repeated pairs,
+giving the :class:`PriorTable` the candidate stage starts from. Parsing the file is the
+readers' business (:mod:`aligner.io.readers`); this module only does the arithmetic.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+from typing import Callable
+
+import numpy as np
+
+from aligner.core.network import Network, merge_duplicate_pairs
+from aligner.errors import InputFormatError
+from aligner.io.identifiers import lookup, text_at
+
+__all__ = ["EVALUE_CAP", "SCORE_KINDS", "PriorTable", "check_scores", "transform_scores", "prior_from_columns"]
+
+#: -log10 of an E-value of exactly 0 is taken as this value (the smallest positive double is
+#: about 1e-308, so no finite E-value gives more).
+EVALUE_CAP = 310.0
+
+#: The kinds of prior score, as ``score_kind`` / ``--score-kind`` names them.
+SCORE_KINDS = ("similarity", "evalue", "distance")
+
+_NEED = {"similarity": "similarities must be >= 0 (use --score-kind distance for dissimilarities)",
+         "distance": "distances must be >= 0", "evalue": "E-values must be >= 0"}
+
+
+@dataclass(frozen=True)
+class PriorTable:
+    """A prior similarity table mapped onto two networks.
+
+    ``pairs[:, 0]`` indexes network A, ``pairs[:, 1]`` network B; ``scores`` are similarities
+    (higher is better, >= 0) after the transformation of the score kind.
+    """
+
+    pairs: np.ndarray
+    scores: np.ndarray
+    n_rows: int
+    n_unknown: int
+    unknown_examples: list[str] = field(default_factory=list)
+    n_dropped_kind: int = 0  # rows dropped by the score kind (E-values above 1)
+    n_duplicates: int = 0
+    source: str = "<memory>"
+
+
+def check_scores(values: np.ndarray, kind: str, *, source: str = "<memory>",
+                 line_of: Callable[[int], int | None] | None = None) -> None:
+    """Refuse a score that is not a finite number, or a negative one; the message names the line.
+
+    Parameters
+    ----------
+    values : ndarray of float64
+        The raw scores, one per row.
+    kind : {"similarity", "evalue", "distance"}
+    source : str
+        The file (or ``<DataFrame prior>``) the scores came from, for the message.
+    line_of : callable, optional
+        ``line_of(row)`` gives the file line of data row ``row``.
+
+    Raises
+    ------
+    InputFormatError
+        The first bad score, with its file and line.
+    """
+    bad = ~np.isfinite(values)
+    if kind in _NEED:
+        bad |= values < 0
+    if bad.any():
+        row = int(np.argmax(bad))
+        what = "not a finite number" if not np.isfinite(values[row]) else "negative"
+        raise InputFormatError(f"the score {float(values[row])!r} is {what}; {_NEED[kind]}", path=source,
+                               line=None if line_of is None else line_of(row))
+
+
+def transform_scores(values: np.ndarray, kind: str) -> tuple[np.ndarray, np.ndarray]:
+    """Turn raw prior values into similarities; return them and a mask of rows to keep.
+
+    ``similarity``: used as given (must be >= 0). ``evalue``: ``-log10(E)``, with E = 0 given
+    :data:`EVALUE_CAP`; rows with E > 1 carry no evidence of similarity and are dropped.
+    ``distance``: ``1 / (1 + d)`` (must be >= 0).
+
+    Examples
+    --------
+    >>> s, keep = transform_scores(np.array([1e-30, 0.0, 5.0]), "evalue")
+    >>> s.round(6).tolist(), keep.tolist()
+    ([30.0, 310.0, -0.69897], [True, True, False])
+    """
+    keep = np.ones(len(values), dtype=bool)
+    if kind == "similarity":
+        return values.astype(np.float64), keep
+    if kind == "evalue":
+        keep = values <= 1.0
+        with np.errstate(divide="ignore"):
+            s = np.where(values > 0, -np.log10(np.where(values > 0, values, 1.0)), EVALUE_CAP)
+        return np.minimum(s, EVALUE_CAP), keep
+    if kind == "distance":
+        return 1.0 / (1.0 + values), keep
+    raise ValueError(kind)
+
+
+def prior_from_columns(
+    a, b, values: np.ndarray, net_a: Network, net_b: Network, *,
+    kind: str = "similarity", source: str = "<memory>", line_of: Callable[[int], int | None] | None = None,
+) -> PriorTable:
+    """Map a prior given as three columns onto the node indices of two networks.
+
+    Parameters
+    ----------
+    a, b : column of str
+        Identifiers of nodes of A and of B (numpy object or pyarrow string arrays).
+    values : array-like of float
+        The raw scores, read as ``kind`` says.
+    net_a, net_b : Network
+    kind : {"similarity", "evalue", "distance"}
+    source : str
+        Where the table came from, for messages and ``PriorTable.source``.
+    line_of : callable, optional
+        ``line_of(row)`` gives the file line of data row ``row``, for messages.
+
+    Returns
+    -------
+    PriorTable
+        Unknown nodes are counted and skipped; duplicate pairs keep the highest similarity.
+    """
+    values = np.asarray(values, dtype=np.float64)
+    check_scores(values, kind, source=source, line_of=line_of)
+    scores, keep = transform_scores(values, kind)
+    ia = lookup(net_a.names, a)
+    ib = lookup(net_b.names, b)
+    known = (ia >= 0) & (ib >= 0)
+    examples = [f"{text_at(a, r)} / {text_at(b, r)}" for r in np.flatnonzero(~known)[:3]]
+    ok = known & keep
+    pairs = np.stack([ia[ok], ib[ok]], axis=1).astype(np.int32) if ok.any() else np.empty((0, 2), np.int32)
+    # duplicate pairs: the highest similarity wins
+    pairs, sc, n_dup = merge_duplicate_pairs(pairs, scores[ok], net_b.n)
+    return PriorTable(pairs=pairs.astype(np.int32), scores=sc, n_rows=len(values),
+                      n_unknown=int((~known).sum()), unknown_examples=examples,
+                      n_dropped_kind=int((known & ~keep).sum()), n_duplicates=n_dup, source=source)

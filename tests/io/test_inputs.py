@@ -1,0 +1,127 @@
+"""The one coercion helper: a path, a DataFrame, rows or a mapping give the same table.
+
+Every expected value below is worked by hand from the small tables written here; the
+networkx case is checked against networkx's own view of the graph (``nx.to_edgelist``).
+"""
+
+import networkx as nx
+import numpy as np
+import pandas as pd
+import pytest
+
+from aligner.errors import InputFormatError, InvalidParameterError
+from aligner.io.inputs import as_network, as_pairs, as_prior, as_table
+from aligner.io.readers import read_network
+from aligner.priors.seeds import as_seeds
+
+
+def _w(tmp_path, name, text):
+    p = tmp_path / name
+    p.write_text(text, encoding="utf-8")
+    return p
+
+
+@pytest.fixture
+def nets(tmp_path):
+    a = read_network(_w(tmp_path, "a.tsv", "a1\ta2\na2\ta3\n"))
+    b = read_network(_w(tmp_path, "b.tsv", "b1\tb2\nb2\tb3\n"))
+    return a, b
+
+
+def _forms(tmp_path, rows, name="t.tsv"):
+    """The same table as a file, a DataFrame, a list of rows and (two columns) a dict."""
+    path = _w(tmp_path, name, "".join("\t".join(map(str, r)) + "\n" for r in rows))
+    forms = {"path": path, "frame": pd.DataFrame(rows), "rows": [tuple(r) for r in rows]}
+    if len(rows[0]) == 2:
+        forms["dict"] = dict(rows)
+    return forms
+
+
+def test_as_table_forms_agree_and_name_rows(tmp_path):
+    rows = [("x", "y"), ("y", "z"), ("z", "x")]
+    for kind, obj in _forms(tmp_path, rows).items():
+        t = as_table(obj, name="pairs", layout="node_a, node_b", min_cols=2, max_cols=2, header="no")
+        assert [list(map(str, t.text(k))) for k in (0, 1)] == [["x", "y", "z"], ["y", "z", "x"]], kind
+        # a file names its lines, an object its rows (1-based)
+        assert t.where(1) == ("line 2" if kind == "path" else "row 2"), kind
+    t = as_table([("a", "b")], name="pairs", layout="node_a, node_b", min_cols=2, max_cols=2)
+    assert t.source == "<pairs>" and t.line_of(0) is None
+
+
+def test_as_table_refuses_what_it_cannot_read():
+    kw = dict(name="seeds", layout="node_a, node_b", min_cols=2, max_cols=3)
+    for bad, got in ((5, "got int"), (b"ab", "got bytes")):
+        with pytest.raises(InvalidParameterError) as info:
+            as_table(bad, **kw)
+        assert str(info.value) == (f"seeds must be a path, a pandas DataFrame or an iterable of rows "
+                                   f"(node_a, node_b); {got}") and info.value.param == "seeds"
+    with pytest.raises(InvalidParameterError, match=r"seeds must hold rows of 2 to 3 values \(node_a, node_b\); "
+                                                    r"got \('a',\) in row 2"):
+        as_table([("a", "b"), ("a",)], **kw)
+    with pytest.raises(InvalidParameterError, match=r"seeds must hold rows .*; got 'ab' in row 1"):
+        as_table(["ab"], **kw)  # a string is not a row of two identifiers
+    with pytest.raises(InvalidParameterError, match=r"seeds must have at least 2 columns \(node_a, node_b\); got 1"):
+        as_table(pd.DataFrame({"a": ["x"]}), **kw)
+
+
+def test_pairs_from_every_form(tmp_path, nets):
+    a, b = nets
+    rows = [("a1", "b2"), ("zz", "b1"), ("a3", "b3")]
+    for kind, obj in _forms(tmp_path, rows).items():
+        t = as_pairs(obj, a, b, "truth table", None, "no")
+        # a1 -> 0, a3 -> 2 in A; b2 -> 1, b3 -> 2 in B (names sorted); zz is unknown
+        assert t.pairs.tolist() == [[0, 1], [2, 2]] and t.n_rows == 3 and t.n_unknown == 1, kind
+        assert t.unknown_examples == ["zz / b1"], kind
+        assert t.source == (str(obj) if kind == "path" else "<truth table>"), kind
+
+
+def test_prior_from_a_frame_equals_the_file(tmp_path, nets):
+    a, b = nets
+    rows = [("a1", "b1", 0.5), ("a2", "b2", 2.0), ("a1", "b1", 1.5)]
+    forms = _forms(tmp_path, rows)
+    with pytest.warns(UserWarning, match="1 prior rows repeat a pair"):
+        ref = as_prior(forms["path"], a, b, "similarity", None, "no")
+    for kind in ("frame", "rows"):
+        with pytest.warns(UserWarning, match="1 prior rows repeat a pair"):
+            t = as_prior(forms[kind], a, b, "similarity", None, "no")
+        assert t.pairs.tolist() == ref.pairs.tolist() == [[0, 0], [1, 1]], kind
+        assert t.scores.tolist() == ref.scores.tolist() == [1.5, 2.0], kind  # the highest score wins
+        assert t.source == ("<DataFrame prior>" if kind == "frame" else "<prior>"), kind
+
+
+def test_bad_scores_in_an_object_name_the_row(nets):
+    a, b = nets
+    with pytest.raises(InputFormatError, match=r"^<DataFrame prior>: row 2: the score 'high' is not a finite"):
+        as_prior(pd.DataFrame([("a1", "b1", 1.0), ("a2", "b2", "high")]), a, b, "similarity", None, "auto")
+    with pytest.raises(InputFormatError, match=r"^<prior>: the score -1.0 is negative"):
+        as_prior([("a1", "b1", -1.0)], a, b, "similarity", None, "auto")
+
+
+def test_network_from_a_frame_rows_file_and_graph_agree(tmp_path):
+    rows = [("u", "v", 2.0), ("v", "w", 1.0), ("w", "u", 0.5)]
+    forms = _forms(tmp_path, rows)
+    ref = as_network(forms["path"], header="no")
+    g = nx.Graph()
+    g.add_weighted_edges_from(rows)
+    for obj in (forms["frame"], forms["rows"], g):
+        net = as_network(obj)
+        assert net.names.tolist() == ref.names.tolist() == ["u", "v", "w"]
+        assert net.edges.tolist() == ref.edges.tolist() and net.weights.tolist() == ref.weights.tolist()
+    # networkx's own edge list, in the network's numbering
+    pos = {n: i for i, n in enumerate(ref.names)}
+    assert sorted(tuple(sorted((pos[u], pos[v]))) + (d["weight"],) for u, v, d in nx.to_edgelist(g)) == sorted(
+        (int(u), int(v), float(w)) for (u, v), w in zip(ref.edges, ref.weights))
+    with pytest.raises(InputFormatError, match=r"^<DataFrame network_a>: row 2: the edge weight -1 is negative"):
+        as_network(pd.DataFrame([("u", "v", 1.0), ("v", "w", -1.0)]), name="network_a")
+    with pytest.raises(InvalidParameterError, match=r"^network_a must be an undirected graph; got a directed one"):
+        as_network(nx.DiGraph([("u", "v")]), name="network_a")
+
+
+def test_seeds_from_every_form(tmp_path, nets):
+    a, b = nets
+    for kind, obj in _forms(tmp_path, [("a3", "b1"), ("a1", "b2")], name="seeds.tsv").items():
+        s = as_seeds(obj, a, b, header="no")
+        assert s.pairs.tolist() == [[0, 1], [2, 0]] and s.n_rows == 2, kind  # sorted by node of A
+    with pytest.raises(InvalidParameterError, match=r"^seeds must hold rows of 2 to 64 values") as info:
+        as_seeds([("a1",)], a, b)
+    assert info.value.param == "seeds"

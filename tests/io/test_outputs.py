@@ -1,0 +1,129 @@
+"""Writing: the one atomic writer, sets of files published together, sweep and prior tables.
+
+Outside references: POSIX rename(2) (replacing a file by renaming is atomic, so a reader sees
+the old file or the new one), RFC 8259 (JSON has no NaN or infinity), pandas' own TSV reader
+for reading back what was written.
+"""
+
+import json
+import math
+import os
+
+import numpy as np
+import pandas as pd
+import pytest
+
+from aligner.errors import InvalidParameterError
+from aligner.io.outputs import (OUTPUT_FILES, SWEEP_TABLE, check_outdir, json_text, publish_outputs,
+                                write_prior_table, write_sweep_outputs, write_text_atomic)
+
+
+def _staging(tmp_path, out):
+    return [e for e in os.listdir(tmp_path) if e.startswith(f".{out.name}.aligner-")]
+
+
+def test_write_text_atomic_text_and_bytes(tmp_path):
+    p = tmp_path / "f.txt"
+    assert write_text_atomic(p, "ß\n") == p
+    assert p.read_bytes() == "ß\n".encode("utf-8")  # text is written as UTF-8, line ends untouched
+    write_text_atomic(p, b"\x89PNG\r\n")
+    assert p.read_bytes() == b"\x89PNG\r\n"  # bytes as they are, replacing the file (POSIX rename)
+    assert os.listdir(tmp_path) == ["f.txt"]  # no temporary file left
+
+
+def test_write_text_atomic_failure_leaves_nothing(tmp_path):
+    with pytest.raises(OSError):
+        write_text_atomic(tmp_path / "missing" / "f.txt", "x")
+    assert os.listdir(tmp_path) == []
+
+
+def test_publish_outputs_replaces_the_set_and_keeps_other_files(tmp_path):
+    out = tmp_path / "out"
+    publish_outputs(out, {"a.tsv": "one\n", "b.png": b"\x00\x01"})
+    (out / "mine.txt").write_text("keep\n")
+    publish_outputs(out, {"a.tsv": "two\n", "b.png": b"\x02"})
+    assert sorted(os.listdir(out)) == ["a.tsv", "b.png", "mine.txt"]
+    assert (out / "a.tsv").read_text() == "two\n" and (out / "b.png").read_bytes() == b"\x02"
+    assert (out / "mine.txt").read_text() == "keep\n"
+    assert not _staging(tmp_path, out)
+
+
+def test_publish_outputs_failing_midway_changes_nothing(tmp_path):
+    out = tmp_path / "out"
+    publish_outputs(out, {"a.tsv": "one\n"})
+    with pytest.raises(OSError):  # the second file cannot be made: the first must not appear either
+        publish_outputs(out, {"a.tsv": "two\n", "no/such/dir.tsv": "x"})
+    assert os.listdir(out) == ["a.tsv"] and (out / "a.tsv").read_text() == "one\n"
+    assert not _staging(tmp_path, out)
+
+
+def test_json_text_writes_non_finite_numbers_as_null():
+    # RFC 8259, section 6: NaN and Infinity are not permitted in JSON
+    got = json.loads(json_text({"a": math.nan, "b": [np.float64(math.inf), 1.5], "c": np.int64(3)}))
+    assert got == {"a": None, "b": [None, 1.5], "c": 3}
+
+
+def _sweep_table():
+    return pd.DataFrame({"alpha": [0.5, 0.9], "ec": [1 / 3, 0.123456789], "nc": [math.nan, 0.5]})
+
+
+def test_write_sweep_outputs(tmp_path):
+    out = tmp_path / "out"
+    figures = {"sweep.png": b"\x89PNG fake", "sweep.svg": b"<svg/>"}
+    written = write_sweep_outputs(out, _sweep_table(), figures)
+    assert written == [out / SWEEP_TABLE, out / "sweep.png", out / "sweep.svg"]
+    assert (out / SWEEP_TABLE).read_text() == "alpha\tec\tnc\n0.5\t0.333333\tNA\n0.9\t0.123457\t0.5\n"
+    # read back by pandas: %.6g keeps 6 significant digits (C printf %g), NA is a missing value
+    back = pd.read_csv(out / SWEEP_TABLE, sep="\t")
+    np.testing.assert_allclose(back["ec"], _sweep_table()["ec"], rtol=5e-6)
+    assert back["nc"].isna().tolist() == [True, False]
+    assert {f: (out / f).read_bytes() for f in figures} == figures
+
+
+def test_write_sweep_outputs_refuses_an_existing_sweep_without_force(tmp_path):
+    out = tmp_path / "out"
+    publish_outputs(out, {f: "x\n" for f in OUTPUT_FILES})  # an alignment there is no obstacle
+    write_sweep_outputs(out, _sweep_table(), {"sweep.png": b"1"})
+    with pytest.raises(InvalidParameterError, match=r"already holds sweep.tsv; .* pass --force to replace it"):
+        write_sweep_outputs(out, _sweep_table().head(1), {"sweep.png": b"2"})
+    assert (out / "sweep.png").read_bytes() == b"1"
+    write_sweep_outputs(out, _sweep_table().head(1), {"sweep.png": b"2"}, force=True)
+    assert (out / "sweep.png").read_bytes() == b"2" and len(pd.read_csv(out / SWEEP_TABLE, sep="\t")) == 1
+    assert all((out / f).read_text() == "x\n" for f in OUTPUT_FILES)
+    with pytest.raises(InvalidParameterError, match="figures must not hold a file named sweep.tsv"):
+        write_sweep_outputs(out, _sweep_table(), {SWEEP_TABLE: b""}, force=True)
+
+
+def test_write_sweep_outputs_refuses_a_file_as_directory(tmp_path):
+    (tmp_path / "plain").write_text("x")
+    with pytest.raises(InvalidParameterError, match="exists and is not a directory"):
+        write_sweep_outputs(tmp_path / "plain", _sweep_table(), {})
+
+
+def test_write_prior_table_refusals(tmp_path):
+    df = pd.DataFrame({"score": [0.5, 1 / 3], "node_b": ["b1", "b2"], "node_a": ["a1", "a2"], "extra": [1, 2]})
+    p = tmp_path / "prior.tsv"
+    write_prior_table(df, p)
+    # the column order is fixed, extra columns are left out, ten significant digits
+    assert p.read_text() == "node_a\tnode_b\tscore\na1\tb1\t0.5\na2\tb2\t0.3333333333\n"
+    with pytest.raises(InvalidParameterError, match=r"already exists; .*--out or pass --force"):
+        write_prior_table(df, p)
+    write_prior_table(df.head(1), p, force=True)
+    assert len(p.read_text().splitlines()) == 2
+    with pytest.raises(InvalidParameterError, match=r"is a directory; give a file path with --out"):
+        write_prior_table(df, tmp_path, force=True)
+    with pytest.raises(InvalidParameterError, match=r"'.*missing' is not a directory"):
+        write_prior_table(df, tmp_path / "missing" / "p.tsv")
+    with pytest.raises(InvalidParameterError) as info:
+        write_prior_table(df[["node_a", "score"]], tmp_path / "q.tsv")
+    assert str(info.value) == "df must have the columns node_a, node_b, score; got a table without node_b"
+    assert not (tmp_path / "q.tsv").exists()
+
+
+def test_check_outdir_names_the_files_asked_about(tmp_path):
+    out = tmp_path / "out"
+    out.mkdir()
+    (out / "sweep.tsv").write_text("x")
+    assert check_outdir(out) == out  # an alignment's outputs are not there
+    with pytest.raises(InvalidParameterError, match=r"already holds sweep.tsv; choose another directory"):
+        check_outdir(out, files=("sweep.tsv",))
