@@ -334,7 +334,7 @@ class QueryResult:
 
 
 def _node_index(net: Network, name: str, side: str) -> int:
-    from aligner.io.identifiers import lookup
+    from aligner.core.identifiers import lookup
 
     i = int(lookup(net.names, np.array([str(name)], dtype=object))[0])
     if i < 0:

@@ -20,9 +20,9 @@ import pandas as pd
 
 from aligner.core.network import Network, network_from_edges
 from aligner.errors import AlignerWarning, InputFormatError, InvalidParameterError, NoCandidatesError
-from aligner.io.identifiers import PairTable, pairs_from_columns
+from aligner.core.identifiers import PairTable, pairs_from_columns
 from aligner.io.readers import Table, network_from_table, read_network, read_table
-from aligner.priors.scores import PriorTable, prior_from_columns
+from aligner.core.prior import PriorTable, prior_from_columns
 
 __all__ = ["as_table", "as_network", "as_prior", "as_pairs", "known_pairs"]
 
@@ -153,7 +153,7 @@ def _from_networkx(graph, *, name: str, directed: bool) -> Network:
 def as_prior(obj, net_a: Network, net_b: Network, kind: str, delimiter, header) -> PriorTable:
     """A :class:`PriorTable` from a path, a DataFrame or rows (node_a, node_b, score), or one already made.
 
-    The scores are read as ``kind`` says (:func:`aligner.priors.scores.prior_from_columns`);
+    The scores are read as ``kind`` says (:func:`aligner.core.prior.prior_from_columns`);
     repeated pairs and rows dropped by the score kind are warned about.
 
     Raises

@@ -3,7 +3,7 @@
 Parsing only: every reader here turns a file into columns of strings (and numbers) with
 line-accurate errors; the one exception, :func:`read_network`, also numbers the nodes, since
 an edge list's canonical form is a :class:`~aligner.core.network.Network`. What a prior score
-means is :mod:`aligner.priors.scores`; turning a caller's object into a table is
+means is :mod:`aligner.core.prior`; turning a caller's object into a table is
 :mod:`aligner.io.inputs`; writing is :mod:`aligner.io.outputs`. Readers never print.
 """
 
@@ -27,8 +27,8 @@ import pyarrow.csv as pacsv
 from aligner.checks import bad_parameter, check_choice
 from aligner.core.network import Network, network_from_edges
 from aligner.errors import InputFormatError
-from aligner.io.identifiers import intern, pairs_from_columns, PairTable
-from aligner.priors.scores import PriorTable, prior_from_columns
+from aligner.core.identifiers import intern, pairs_from_columns, PairTable
+from aligner.core.prior import PriorTable, prior_from_columns
 
 __all__ = [
     "Table",
@@ -499,7 +499,7 @@ def read_prior(path: str | os.PathLike, net_a: Network, net_b: Network, *, kind:
                delimiter: str | None = None, header: str = "auto") -> PriorTable:
     """Read a prior similarity table ``node_a, node_b, score`` and map it onto two networks.
 
-    The scores are read as ``kind`` says (see :func:`aligner.priors.scores.prior_from_columns`).
+    The scores are read as ``kind`` says (see :func:`aligner.core.prior.prior_from_columns`).
 
     Raises
     ------

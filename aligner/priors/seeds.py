@@ -26,7 +26,7 @@ from aligner.checks import check_int, check_real
 from aligner.core.candidates import CandidateSet, build_candidates
 from aligner.errors import InputFormatError, InvalidParameterError
 from aligner.core.network import Network
-from aligner.io.identifiers import lookup, text_at
+from aligner.core.identifiers import lookup, text_at
 from aligner.io.inputs import as_table
 from aligner.io.readers import data_lines, read_table
 from aligner.core.rounding import Matching, round_matching

@@ -5,7 +5,7 @@ import pytest
 
 from aligner.errors import InputFormatError, InvalidParameterError
 from aligner.io.readers import data_lines, read_network, read_pairs, read_prior, read_table
-from aligner.priors.scores import EVALUE_CAP
+from aligner.core.prior import EVALUE_CAP
 
 
 def _w(tmp_path, name, text, mode="w"):

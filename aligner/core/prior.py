@@ -16,7 +16,7 @@ import numpy as np
 
 from aligner.core.network import Network, merge_duplicate_pairs
 from aligner.errors import InputFormatError
-from aligner.io.identifiers import lookup, text_at
+from aligner.core.identifiers import lookup, text_at
 
 __all__ = ["EVALUE_CAP", "SCORE_KINDS", "PriorTable", "check_scores", "transform_scores", "prior_from_columns"]
 
