@@ -40,7 +40,8 @@ from aligner.core.scoring import Scores, conserved_per_node, score_matching
 from aligner.core.significance import significance
 from aligner.errors import AlignerWarning, InputFormatError, InvalidParameterError, MemoryBudgetError, NoCandidatesError
 from aligner.io.inputs import as_network, as_pairs, as_prior, known_pairs
-from aligner.io.readers import PairTable, PriorTable
+from aligner.core.identifiers import PairTable
+from aligner.core.prior import PriorTable
 from aligner.priors.seeds import (SeedExpansion, SeedTable, add_seed_pairs, as_seeds, expand_from_seeds,
                                   round_with_fixed, seed_index, seed_summary, seed_vector)
 from aligner.priors.structural import DEFAULT_K, FEATURE_NAMES, combine_priors, structural_candidates
