@@ -21,6 +21,8 @@ import pandas as pd
 from aligner.checks import check_choice
 from aligner.datasets.synthetic import (
     SyntheticPair,
+    _relabel,
+    _sort_pairs,
     duplication_divergence_graph,
     noisy_prior,
     opaque_names,
@@ -28,7 +30,7 @@ from aligner.datasets.synthetic import (
     relabelled_pair,
 )
 
-__all__ = ["GRAPHS", "base_graph", "noisy_relabelled", "node_names", "as_networks", "as_frames",
+__all__ = ["GRAPHS", "base_graph", "noisy_relabelled", "node_names", "in_reader_order", "as_networks", "as_frames",
            "write_instance", "read_connectome", "hidden_connectome", "CONNECTOME_TASKS"]
 
 #: base graph models: a power-law graph with clustering, and growth by duplication-divergence
@@ -82,11 +84,34 @@ def noisy_relabelled(n: int, *, graph: str = "powerlaw", graph_options: dict | N
                            decoy_score=decoy_score, seed=seed + 1 if pair_seed is None else pair_seed)
 
 
-def node_names(n: int, prefix: str = "") -> np.ndarray:
-    """``prefix`` + zero-padded decimal index for nodes ``0 .. n - 1`` (their string order is
-    their numeric order, so a reader numbers them as the generator did)."""
-    width = len(str(max(n - 1, 0)))
+def node_names(n: int, prefix: str = "", *, pad: bool = True) -> np.ndarray:
+    """``prefix`` + decimal index for nodes ``0 .. n - 1``.
+
+    With ``pad`` (the default) the indices are zero-padded to one width, so that the names'
+    string order is their numeric order and a reader numbers the nodes as the generator did.
+    """
+    width = len(str(max(n - 1, 0))) if pad else 0
     return np.array([f"{prefix}{i:0{width}d}" for i in range(n)], dtype=object)
+
+
+def in_reader_order(pair: SyntheticPair, names_a, names_b) -> tuple[SyntheticPair, np.ndarray, np.ndarray]:
+    """``pair`` with its nodes renumbered in the string order of their names, as a reader numbers them.
+
+    Node ``i`` of A is named ``names_a[i]`` (likewise for B). Returns the renumbered pair (edges,
+    prior and truth canonical and sorted again) and the names in their new order.
+    """
+    na, nb = np.asarray(names_a, dtype=object), np.asarray(names_b, dtype=object)
+    pos_a, pos_b = (np.argsort(np.argsort(names.astype(str), kind="stable")) for names in (na, nb))
+
+    def pairs(rows):
+        return np.stack([pos_a[rows[:, 0]], pos_b[rows[:, 1]]], axis=1)
+
+    prior, scores = _sort_pairs(pairs(pair.prior_pairs), pair.n_b, pair.prior_scores)
+    (truth,) = _sort_pairs(pairs(pair.truth), pair.n_b)
+    moved = SyntheticPair(n_a=pair.n_a, n_b=pair.n_b, edges_a=_relabel(pair.edges_a, pos_a, pair.n_a),
+                          edges_b=_relabel(pair.edges_b, pos_b, pair.n_b), prior_pairs=prior,
+                          prior_scores=scores, truth=truth)
+    return moved, np.sort(na.astype(str)).astype(object), np.sort(nb.astype(str)).astype(object)
 
 
 def _names(pair: SyntheticPair, names_a, names_b) -> tuple[np.ndarray, np.ndarray]:

@@ -11,56 +11,31 @@ Two tasks:
   noisy   a simulated sequence-similarity prior: the true partner scores N(1.0, 0.25) and ten
           uniformly drawn decoys score N(0.5, 0.25), clipped at 1e-3 (seed 11).
 
-    python scripts/bench_connectome.py [--out bench_out/connectome.md] [--seeds 5]
+    python scripts/bench/bench_connectome.py [--markdown bench_out/connectome.md] [--seeds 5]
 
-Reports NC, EC, S3 and conserved edges of the alignment (with and without refinement where the
-installed version has it) and of the identity map (the oracle), and the time.
+Reports NC, EC, S3 and conserved edges of the alignment (without and with refinement) and of
+the identity map (the oracle), and the time. The tasks are built by
+:func:`aligner.datasets.instances.hidden_connectome`. Writes the Markdown table to
+``--markdown`` and the rows as CSV next to it.
 """
 
 from __future__ import annotations
 
 import argparse
-import inspect
 import time
 from pathlib import Path
 
-import numpy as np
 import pandas as pd
 
 import aligner
-from aligner.priors.classes import prior_from_classes
-from aligner.datasets.synthetic import noisy_prior, opaque_names
+from aligner.datasets.instances import hidden_connectome, read_connectome
 
-DATA = Path(__file__).resolve().parent.parent / "tests" / "data"
-
-
-def load():
-    a = pd.read_csv(DATA / "witvliet2021_adult7.tsv", sep="\t")
-    b = pd.read_csv(DATA / "witvliet2021_adult8.tsv", sep="\t")
-    classes = pd.read_csv(DATA / "neuron_classes.tsv", sep="\t").set_index("neuron")["class"]
-    return a, b, classes
+DATA = Path(__file__).resolve().parents[2] / "tests" / "data"
 
 
 def hidden_task(task: str, seed: int):
-    """Edge tables with opaque names, the prior, the truth table, and the identity alignment."""
-    a, b, classes = load()
-    names_a = sorted(set(a.node_a) | set(a.node_b))
-    names_b = sorted(set(b.node_a) | set(b.node_b))
-    ha = dict(zip(names_a, opaque_names(len(names_a), seed=seed, prefix="a")))
-    hb = dict(zip(names_b, opaque_names(len(names_b), seed=seed + 1, prefix="b")))
-    ea = pd.DataFrame({"u": a.node_a.map(ha), "v": a.node_b.map(ha)})
-    eb = pd.DataFrame({"u": b.node_a.map(hb), "v": b.node_b.map(hb)})
-    shared = sorted(set(names_a) & set(names_b))
-    truth = pd.DataFrame({"a": [ha[n] for n in shared], "b": [hb[n] for n in shared]})
-    if task == "class":
-        prior = prior_from_classes({ha[n]: classes[n] for n in names_a}, {hb[n]: classes[n] for n in names_b})
-    else:
-        ib = {n: k for k, n in enumerate(names_b)}
-        t = np.array([(k, ib[n]) for k, n in enumerate(names_a) if n in ib])
-        pairs, scores = noisy_prior(t, len(names_b), decoys=10, seed=11 + seed)
-        prior = pd.DataFrame({"a": [ha[names_a[i]] for i in pairs[:, 0]],
-                              "b": [hb[names_b[j]] for j in pairs[:, 1]], "s": scores})
-    return ea, eb, prior, truth
+    """Edge tables with opaque names, the prior and the truth table (see ``hidden_connectome``)."""
+    return hidden_connectome(*read_connectome(DATA), task, seed=seed)
 
 
 def run(task: str, seed: int, **kw) -> dict:
@@ -76,12 +51,11 @@ def run(task: str, seed: int, **kw) -> dict:
 
 def main() -> None:
     ap = argparse.ArgumentParser(description=__doc__, formatter_class=argparse.RawDescriptionHelpFormatter)
-    ap.add_argument("--out", default="bench_out/connectome.md")
+    ap.add_argument("--markdown", "--out", dest="markdown", default="bench_out/connectome.md",
+                    help="Markdown file to write (the CSV goes next to it)")
     ap.add_argument("--seeds", type=int, default=5, help="name-hiding seeds (and noisy-prior seeds)")
     args = ap.parse_args()
-    variants = [("diffusion + assignment", {})]
-    if "refine" in inspect.signature(aligner.align).parameters:
-        variants = [("diffusion + assignment", {"refine": False}), ("+ refinement", {"refine": True})]
+    variants = [("diffusion + assignment", {"refine": False}), ("+ refinement", {"refine": True})]
     rows = []
     for task in ("class", "noisy"):
         for label, kw in variants:
@@ -95,7 +69,7 @@ def main() -> None:
         s3=("s3", "mean"), conserved=("conserved", "mean"), conserved_min=("conserved", "min"),
         oracle_conserved=("oracle_conserved", "first"), oracle_ec=("oracle_ec", "first"),
         oracle_s3=("oracle_s3", "first"), seconds=("seconds", "mean")).reset_index()
-    out = Path(args.out)
+    out = Path(args.markdown)
     out.parent.mkdir(parents=True, exist_ok=True)
     df.to_csv(out.with_suffix(".csv"), index=False)
     lines = [f"Real data: C. elegans adult datasets 7 -> 8 (Witvliet et al. 2021), names hidden, "

@@ -6,11 +6,13 @@ product graph, push solve, rounding, scoring and writing the outputs. In the sam
 diffusion is solved again with power iteration to the same residual, for the push-versus-power
 comparison of work.
 
-    python scripts/bench.py --quick                 # one 10^4 case, under a minute
-    python scripts/bench.py --sizes 10000,100000    # the grid at 10^4 and 10^5
-    python scripts/bench.py --sizes 1000000 --models powerlaw --noise 0.05 --decoys uniform
+    python scripts/bench/bench.py --quick                 # one 10^4 case, under a minute
+    python scripts/bench/bench.py --sizes 10000,100000    # the grid at 10^4 and 10^5
+    python scripts/bench/bench.py --sizes 1000000 --models powerlaw --noise 0.05 --decoys uniform
 
-Writes OUT/bench.csv and OUT/bench.md (OUT defaults to bench_out/, which git ignores).
+Instances come from :func:`aligner.datasets.instances.noisy_relabelled` (models ``powerlaw`` and
+``dd``, duplication-divergence, 10 decoys per node). Writes OUT/bench.csv and the Markdown table to OUT/bench.md or
+to ``--markdown FILE`` (OUT defaults to bench_out/, which git ignores).
 """
 
 from __future__ import annotations
@@ -26,36 +28,19 @@ import tempfile
 import time
 from pathlib import Path
 
-import numpy as np
+
+#: --models name -> base graph of aligner.datasets.instances
+MODELS = {"powerlaw": "powerlaw", "dd": "dupdiv"}
 
 
 def make_instance(path: Path, n: int, model: str, noise: float, decoys: str, seed: int) -> None:
     """Write network_a.tsv, network_b.tsv, prior.tsv, truth.tsv for one case (skipped if present)."""
-    from aligner.datasets.synthetic import duplication_divergence_graph, powerlaw_graph, relabelled_pair
+    from aligner.datasets.instances import noisy_relabelled, write_instance
 
     if (path / "truth.tsv").exists():
         return
-    path.mkdir(parents=True, exist_ok=True)
-    if model == "powerlaw":
-        edges = powerlaw_graph(n, m=4, p=0.3, seed=seed)
-    else:
-        edges = duplication_divergence_graph(n, p_retain=0.4, seed=seed)
-    pair = relabelled_pair(edges, n, noise=noise, decoys=10, decoy_mode=decoys, seed=seed + 1)
-    na = np.char.add("a", np.arange(pair.n_a).astype(str))
-    nb = np.char.add("b", np.arange(pair.n_b).astype(str))
-
-    def write(name, cols, header):
-        tmp = path / (name + ".part")
-        with open(tmp, "w") as fh:
-            fh.write("\t".join(header) + "\n")
-            np.savetxt(fh, np.column_stack(cols), fmt="%s", delimiter="\t")
-        os.replace(tmp, path / name)
-
-    write("network_a.tsv", [na[pair.edges_a[:, 0]], na[pair.edges_a[:, 1]]], ["node_a", "node_b"])
-    write("network_b.tsv", [nb[pair.edges_b[:, 0]], nb[pair.edges_b[:, 1]]], ["node_a", "node_b"])
-    write("prior.tsv", [na[pair.prior_pairs[:, 0]], nb[pair.prior_pairs[:, 1]],
-                        np.char.mod("%.6g", pair.prior_scores)], ["node_a", "node_b", "score"])
-    write("truth.tsv", [na[pair.truth[:, 0]], nb[pair.truth[:, 1]]], ["node_a", "node_b"])
+    pair = noisy_relabelled(n, graph=MODELS[model], noise=noise, decoys=10, decoy_mode=decoys, seed=seed)
+    write_instance(pair, path, [f"a{i}" for i in range(pair.n_a)], [f"b{i}" for i in range(pair.n_b)])
 
 
 def worker(inst: Path, result: Path, power: bool) -> None:
@@ -105,6 +90,8 @@ def main() -> None:
     ap.add_argument("--decoys", default="uniform,near")
     ap.add_argument("--seed", type=int, default=7)
     ap.add_argument("--out", default="bench_out")
+    ap.add_argument("--markdown", type=Path, default=None, help="where to write the Markdown table "
+                    "(default: OUT/bench.md)")
     ap.add_argument("--quick", action="store_true", help="one 10^4 case (under a minute)")
     ap.add_argument("--no-power", action="store_true", help="skip the power-iteration comparison")
     ap.add_argument("--cold", action="store_true", help="also time a first run with an empty compile cache")
@@ -167,7 +154,7 @@ def main() -> None:
                 v = f"{v:,}"
             cells.append(str(v))
         lines.append("| " + " | ".join(cells) + " |")
-    (out / "bench.md").write_text("\n".join(lines) + "\n")
+    (args.markdown or out / "bench.md").write_text("\n".join(lines) + "\n")
     print("\n".join(lines))
 
 

@@ -1,21 +1,30 @@
 """Does accuracy rise with confidence? Accuracy of the matched pairs by confidence decile.
 
-Usage: python scripts/calibration.py   (prints a Markdown table for the demo and a synthetic pair)
+Usage::
+
+    python scripts/bench/calibration.py                          # prints the Markdown tables
+    python scripts/bench/calibration.py --markdown bench_out/calibration.md
+
+Two inputs: the bundled firefly demo, and a relabelled power-law pair with 20 % edge noise and
+a noisy prior (:func:`aligner.datasets.instances.noisy_relabelled`).
 """
 
 from __future__ import annotations
 
+import argparse
 from pathlib import Path
 
 import networkx as nx
 import numpy as np
 import pandas as pd
 
+from aligner.datasets.demo import scenario_dir
+from aligner.datasets.instances import noisy_relabelled
 from aligner.pipeline import align
-from aligner.datasets.synthetic import powerlaw_graph, relabelled_pair
 
 
 def table(res, truth: set[tuple[str, str]]) -> pd.DataFrame:
+    """Pairs, confidence range and accuracy of each confidence decile of the matched pairs."""
     p = res.pairs.copy()
     p["correct"] = [(a, b) in truth for a, b in zip(p["node_a"], p["node_b"])]
     # deciles by rank, so ties (many pairs at confidence 0 or 1) still split into ten equal groups
@@ -32,16 +41,17 @@ def markdown(name: str, t: pd.DataFrame) -> str:
     return "\n".join(lines)
 
 
-def main():
-    d = Path(__file__).resolve().parent.parent / "demo_pairs" / "firefly"
+def demo_table() -> str:
+    d = scenario_dir("firefly")
     res = align(d / "network_a.tsv", d / "network_b.tsv", d / "prior.tsv")
     tr = pd.read_csv(d / "truth.tsv", sep="\t", dtype=str, keep_default_na=False, comment="#", header=None)
     truth = set(zip(tr.iloc[:, 0], tr.iloc[:, 1]))
-    print(markdown("demo (firefly), alpha 0.9", table(res, truth)))
-    print()
-    n = 2000
-    sp = relabelled_pair(powerlaw_graph(n, m=3, seed=11), n, noise=0.2, decoys=10,
-                         true_score=(1.0, 0.5), decoy_score=(0.7, 0.5), seed=12)
+    return markdown("demo (firefly), alpha 0.9", table(res, truth))
+
+
+def synthetic_table(n: int = 2000) -> str:
+    sp = noisy_relabelled(n, graph_options={"m": 3}, noise=0.2, decoys=10, true_score=(1.0, 0.5),
+                          decoy_score=(0.7, 0.5), seed=11, pair_seed=12)
     ga, gb = nx.Graph(), nx.Graph()
     ga.add_nodes_from(range(n)), gb.add_nodes_from(range(n))
     ga.add_edges_from(map(tuple, sp.edges_a)), gb.add_edges_from(map(tuple, sp.edges_b))
@@ -49,8 +59,18 @@ def main():
                           "s": sp.prior_scores})
     res = align(ga, gb, prior)
     truth = {(str(a), str(b)) for a, b in sp.truth}
-    print(markdown(f"synthetic relabelled pair, n = {n}, 20 % edge noise, noisy prior, alpha 0.9",
-                   table(res, truth)))
+    return markdown(f"synthetic relabelled pair, n = {n}, 20 % edge noise, noisy prior, alpha 0.9",
+                    table(res, truth))
+
+
+def main(argv: list[str] | None = None) -> None:
+    ap = argparse.ArgumentParser(description=__doc__.split("\n\n")[0])
+    ap.add_argument("--markdown", type=Path, default=None, help="also write the tables to this Markdown file")
+    args = ap.parse_args(argv)
+    text = demo_table() + "\n\n" + synthetic_table() + "\n"
+    print(text, end="")
+    if args.markdown is not None:
+        args.markdown.write_text(text, encoding="utf-8")
 
 
 if __name__ == "__main__":

@@ -2,7 +2,7 @@
 
 Usage::
 
-    python scripts/fuzz_readers.py [--seconds 60] [--engine hypothesis|atheris] [--seed N]
+    python scripts/dev/fuzz_readers.py [--seconds 60] [--engine hypothesis|atheris] [--seed N]
 
 Every generated input is written to a temporary file and read with ``read_network``,
 ``read_prior`` and ``read_pairs`` under random ``delimiter`` / ``header`` / ``kind`` options.
@@ -10,7 +10,7 @@ The contract under test: a reader either returns a well-formed result or raises 
 ``AlignerError`` whose message names the file (and, when it gives a line, a line >= 1).
 Anything else (another exception, a broken invariant of the result) is a crash: the input is
 saved under ``tests/regressions/`` as ``<sha1>.input`` (the raw bytes) with a ``<sha1>.json``
-beside it (the options, the error and its traceback), and ``tests/test_errors.py`` replays
+beside it (the options, the error and its traceback), and ``tests/cli/test_errors.py`` replays
 every saved case.
 
 Engines:
@@ -43,7 +43,7 @@ from pathlib import Path
 
 import numpy as np
 
-REGRESSIONS = Path(__file__).resolve().parent.parent / "tests" / "regressions"
+REGRESSIONS = Path(__file__).resolve().parents[2] / "tests" / "regressions"
 
 DELIMITERS = [None, "tab", "comma", "semicolon", "space", "whitespace", "|", ";", "", "ab", '"', "\n", "#", " "]
 HEADERS = ["auto", "yes", "no", "maybe"]
@@ -58,7 +58,8 @@ def _load() -> None:
     """Import the package lazily, so that the atheris engine can instrument it on import."""
     global AlignerError, _lookup, read_network, read_pairs, read_prior, network_from_edges
     from aligner.errors import AlignerError
-    from aligner.io.readers import _lookup, read_network, read_pairs, read_prior
+    from aligner.core.identifiers import lookup as _lookup
+    from aligner.io.readers import read_network, read_pairs, read_prior
     from aligner.core.network import network_from_edges
 
 

@@ -21,11 +21,12 @@ variants of the refinement (ablation) on the same instances.
 
 Usage::
 
-    python scripts/bench_refine.py [--out bench_out/refine.md] [--seed 0] [--faq-max-n 1000]
-                                   [--no-ablation] [--quick]
+    python scripts/bench/bench_refine.py [--markdown bench_out/refine.md] [--seed 0] [--faq-max-n 1000]
+                                         [--no-ablation] [--quick]
 
-Writes the Markdown file given by ``--out`` and a CSV next to it per table
-(``<stem>.csv``, ``<stem>_ablation.csv``).
+Writes the Markdown file given by ``--markdown`` and a CSV next to it per table
+(``<stem>.csv``, ``<stem>_ablation.csv``). The synthetic instances come from
+:func:`aligner.datasets.instances.noisy_relabelled`.
 """
 
 from __future__ import annotations
@@ -40,14 +41,13 @@ import pandas as pd
 import aligner
 from aligner.core.candidates import build_candidates
 from aligner.core.diffusion import column_scale, diffuse, prior_vector
-from aligner.core.network import network_from_edges
 from aligner.core.product import build_product
 from aligner.core.refine import DEFAULT_BETA, normalise_weights, refine_matching
 from aligner.core.rounding import round_matching
 from aligner.core.scoring import score_matching
-from aligner.datasets.synthetic import powerlaw_graph, relabelled_pair
+from aligner.datasets.instances import as_networks, noisy_relabelled, read_connectome
 
-DATA = Path(__file__).resolve().parents[1] / "tests" / "data"
+DATA = Path(__file__).resolve().parents[2] / "tests" / "data"
 
 FAMILIES = {"m3-near10": dict(m=3, decoys=10), "m2-near25": dict(m=2, decoys=25)}
 
@@ -76,12 +76,11 @@ class Instance:
 
 def synthetic(family: str, n: int, noise: float, seed: int) -> Instance:
     cfg = FAMILIES[family]
-    edges = powerlaw_graph(n, m=cfg["m"], p=0.3, seed=seed)
-    sp = relabelled_pair(edges, n, noise=noise, decoys=cfg["decoys"], decoy_mode="near",
-                         true_score=(0.5, 0.25), decoy_score=(0.5, 0.25), seed=seed + 1000)
+    sp = noisy_relabelled(n, graph_options={"m": cfg["m"], "p": 0.3}, noise=noise, decoys=cfg["decoys"],
+                          decoy_mode="near", true_score=(0.5, 0.25), decoy_score=(0.5, 0.25), seed=seed,
+                          pair_seed=seed + 1000)
     t0 = time.perf_counter()
-    na = network_from_edges(np.arange(n), sp.edges_a[:, 0], sp.edges_a[:, 1])
-    nb = network_from_edges(np.arange(n), sp.edges_b[:, 0], sp.edges_b[:, 1])
+    na, nb = as_networks(sp, np.arange(n), np.arange(n))
     cand = build_candidates(sp.prior_pairs, sp.prior_scores, n, n, top_k=25)
     prod = build_product(na.indptr, na.indices, nb.indptr, nb.indices, cand)
     scale = column_scale(prod, "restricted", deg_a=na.degree, deg_b=nb.degree, pairs=cand.pairs)
@@ -92,9 +91,8 @@ def synthetic(family: str, n: int, noise: float, seed: int) -> Instance:
 
 
 def connectome(seed: int) -> Instance:
-    a = pd.read_csv(DATA / "witvliet2021_adult7.tsv", sep="\t")
-    b = pd.read_csv(DATA / "witvliet2021_adult8.tsv", sep="\t")
-    cls = pd.read_csv(DATA / "neuron_classes.tsv", sep="\t")
+    a, b, classes = read_connectome(DATA)
+    cls = classes.rename_axis("neuron").reset_index(name="class")
     rng = np.random.default_rng(seed)
     names = cls["neuron"].tolist()
     hide_a = dict(zip(names, (f"x{v:05d}" for v in rng.permutation(len(names)))))
@@ -180,7 +178,8 @@ def _markdown(df: pd.DataFrame) -> str:
 
 def main(argv=None) -> None:
     ap = argparse.ArgumentParser(description=__doc__.split("\n\n")[0])
-    ap.add_argument("--out", default="bench_out/refine.md", help="Markdown output (CSV files next to it)")
+    ap.add_argument("--markdown", "--out", dest="markdown", default="bench_out/refine.md",
+                    help="Markdown output (CSV files next to it)")
     ap.add_argument("--seed", type=int, default=0)
     ap.add_argument("--faq-max-n", type=int, default=1000, help="run FAQ on instances up to this many nodes")
     ap.add_argument("--no-ablation", action="store_true", help="skip the table of variants")
@@ -218,7 +217,7 @@ def main(argv=None) -> None:
                             "nc": round(s.nc, 4), "iterations": r.iterations, "local_moves": r.local_moves,
                             "seconds": round(r.seconds, 3)})
 
-    out = Path(args.out)
+    out = Path(args.markdown)
     out.parent.mkdir(parents=True, exist_ok=True)
     table = pd.DataFrame(rows)
     table.to_csv(out.with_suffix(".csv"), index=False)

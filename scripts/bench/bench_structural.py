@@ -9,42 +9,38 @@ defaults m=4, p=0.3) and of a duplication-divergence graph
 ``top_k`` (``--top-k``, default 25 as in align).
 
 Prints a Markdown table (graph, n, noise, seed, NC, EC, share of true pairs among the
-candidates, candidates, seconds; seconds are the
-structural candidates plus align) and writes it as CSV to ``--csv`` when given.
+candidates, candidates, seconds; seconds are the structural candidates plus align), writes it
+to ``--markdown`` and as CSV to ``--csv`` when given. Instances come from
+:func:`aligner.datasets.instances.noisy_relabelled`.
 
 Usage::
 
-    python scripts/bench_structural.py [--sizes 2000 10000] [--seeds 0 1] [--k 25] [--top-k 25]
-                                       [--noise 0 0.01 0.05 0.15] [--csv bench_out/structural.csv]
-    python scripts/bench_structural.py --timing 100000 1000000   # cost of the features and candidates
+    python scripts/bench/bench_structural.py [--sizes 2000 10000] [--seeds 0 1] [--k 25] [--top-k 25]
+                                             [--noise 0 0.01 0.05 0.15] [--csv bench_out/structural.csv]
+                                             [--markdown bench_out/structural.md]
+    python scripts/bench/bench_structural.py --timing 100000 1000000   # cost of the features and candidates
 """
 
 from __future__ import annotations
 
 import argparse
 import time
+from pathlib import Path
 
 import numpy as np
 import pandas as pd
 
 import aligner
 from aligner.core.network import network_from_edges
+from aligner.datasets.instances import GRAPHS, as_networks, base_graph, noisy_relabelled
 from aligner.priors.structural import structural_candidates
-from aligner.datasets.synthetic import duplication_divergence_graph, powerlaw_graph, relabelled_pair
-
-GRAPHS = {"powerlaw": powerlaw_graph, "dupdiv": duplication_divergence_graph}
-
-
-def _network(edges: np.ndarray, names: np.ndarray):
-    return network_from_edges(names, edges[:, 0], edges[:, 1])
 
 
 def run_one(graph: str, n: int, noise: float, seed: int, k: int, top_k: int) -> dict:
     """Align one relabelled noisy pair with the structural prior only; NC, EC and timing."""
-    edges = GRAPHS[graph](n, seed=seed)
-    pair = relabelled_pair(edges, n, noise=noise, seed=seed + 1000)
+    pair = noisy_relabelled(n, graph=graph, noise=noise, seed=seed, pair_seed=seed + 1000)
     names = np.arange(n).astype(str).astype(object)
-    net_a, net_b = _network(pair.edges_a, names), _network(pair.edges_b, names)
+    net_a, net_b = as_networks(pair, names, names)
     t0 = time.perf_counter()
     pairs, scores = structural_candidates(net_a, net_b, k=k)
     prior = pd.DataFrame({"node_a": net_a.names[pairs[:, 0]], "node_b": net_b.names[pairs[:, 1]],
@@ -67,10 +63,9 @@ def markdown(table: pd.DataFrame) -> str:
 
 def timing(n: int, k: int, candidates: bool) -> None:
     """Time node_features on an n-node power-law graph, and structural_candidates against itself."""
-    from aligner.priors.structural import node_features, structural_candidates
-    from aligner.datasets.synthetic import powerlaw_graph
+    from aligner.priors.structural import node_features
 
-    e = powerlaw_graph(n, seed=0)
+    e = base_graph("powerlaw", n, seed=0)
     net = network_from_edges(np.arange(n).astype(str).astype(object), e[:, 0], e[:, 1])
     node_features(net)  # compile
     t0 = time.perf_counter()
@@ -92,6 +87,7 @@ def main(argv=None) -> pd.DataFrame:
     ap.add_argument("--k", type=int, default=25)
     ap.add_argument("--top-k", type=int, default=25, help="top_k of aligner.align")
     ap.add_argument("--csv", default=None)
+    ap.add_argument("--markdown", default=None, help="also write the Markdown table to this file")
     ap.add_argument("--timing", type=int, nargs="+", default=None,
                     help="instead: time the features (and, up to 2e5 nodes, the candidates) at these sizes")
     args = ap.parse_args(argv)
@@ -103,6 +99,8 @@ def main(argv=None) -> pd.DataFrame:
             for g in args.graphs for n in args.sizes for noise in args.noise for seed in args.seeds]
     table = pd.DataFrame(rows)
     print(markdown(table), flush=True)
+    if args.markdown:
+        Path(args.markdown).write_text(markdown(table) + "\n", encoding="utf-8")
     if args.csv:
         table.to_csv(args.csv, index=False)
     return table

@@ -2,16 +2,17 @@
 
 Usage::
 
-    python scripts/bench_labels.py                 # NC/EC table, then label_prior at 10^5 x 10^5 names
-    python scripts/bench_labels.py --n 20000       # a smaller timing run
-    python scripts/bench_labels.py --n 0           # the table only
-    python scripts/bench_labels.py --csv out.csv   # also write the rows as CSV
+    python scripts/bench/bench_labels.py                      # NC/EC table, then label_prior at 10^5 x 10^5 names
+    python scripts/bench/bench_labels.py --n 20000            # a smaller timing run
+    python scripts/bench/bench_labels.py --n 0                # the table only
+    python scripts/bench/bench_labels.py --csv out.csv        # also write the rows as CSV
+    python scripts/bench/bench_labels.py --markdown out.md    # also write the rows as a Markdown table
 
 The table aligns the two registries of ``demo_pairs/registry`` (see its README) with the prior
 from :func:`aligner.priors.labels.label_prior`: ``alpha=0`` is the prior's own best one-to-one matching
 (labels alone), the default ``alpha=0.9`` adds the contract networks (and the refinement).
-The timing run makes ``n`` invented names and ``n`` corrupted copies with the generator of
-``scripts/make_registry_demo.py`` (seeded) and times ``label_prior`` on them; peak memory is
+The timing run makes ``n`` invented names and ``n`` corrupted copies with the generator of the registry demo
+(:mod:`aligner.datasets.registry`, seeded) and times ``label_prior`` on them; peak memory is
 the process's maximum resident set size (``resource.getrusage``).
 """
 
@@ -27,18 +28,12 @@ from pathlib import Path
 
 import numpy as np
 
-ROOT = Path(__file__).resolve().parent.parent
-sys.path.insert(0, str(ROOT / "scripts"))
-try:
-    import aligner  # noqa: F401
-except ImportError:  # running from a checkout without installing the package
-    sys.path.insert(0, str(ROOT))
-import make_registry_demo as demo  # noqa: E402
+from aligner.datasets import registry as demo
+from aligner.datasets.demo import scenario_dir
+from aligner.pipeline import align
+from aligner.priors.labels import label_prior
 
-from aligner.pipeline import align  # noqa: E402
-from aligner.priors.labels import label_prior  # noqa: E402
-
-DATA = ROOT / "demo_pairs" / "registry"
+DATA = scenario_dir("registry")
 SEED = 7
 
 
@@ -86,10 +81,22 @@ def timing(n: int) -> dict[str, object]:
     return row
 
 
+def markdown(rows: list[dict[str, object]]) -> str:
+    """The rows as a Markdown table: method, NC, EC, seconds (and pairs and peak memory of a timing run)."""
+    lines = ["| method | NC | EC | seconds | pairs | peak RSS MiB |", "|---|---:|---:|---:|---:|---:|"]
+    for r in rows:
+        nc, ec = (f"{r[k]:.4f}" if k in r else "" for k in ("nc", "ec"))
+        pairs = f"{r['pairs']:,}" if "pairs" in r else ""
+        peak = f"{r['peak_rss_mib']:.0f}" if "peak_rss_mib" in r else ""
+        lines.append(f"| {r['method']} | {nc} | {ec} | {r['seconds']:.2f} | {pairs} | {peak} |")
+    return "\n".join(lines) + "\n"
+
+
 def main(argv: list[str] | None = None) -> int:
     parser = argparse.ArgumentParser(description=__doc__.split("\n\n")[0])
     parser.add_argument("--n", type=int, default=100_000, help="names per side of the timing run (0: skip)")
     parser.add_argument("--csv", type=Path, default=None, help="also write the rows to this CSV file")
+    parser.add_argument("--markdown", type=Path, default=None, help="also write the rows as a Markdown table")
     args = parser.parse_args(argv)
     rows = table()
     if args.n > 0:
@@ -100,6 +107,8 @@ def main(argv: list[str] | None = None) -> int:
             w = csv.DictWriter(fh, fieldnames=fields)
             w.writeheader()
             w.writerows(rows)
+    if args.markdown is not None:
+        args.markdown.write_text(markdown(rows), encoding="utf-8")
     return 0
 
 
