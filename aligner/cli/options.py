@@ -117,7 +117,17 @@ def _option(spec: Spec) -> Any:
 
 
 def config_parameters(use: Use) -> list[inspect.Parameter]:
-    """The keyword-only parameters a command gains from ``use``: one per field, default from its declaration."""
+    """The keyword-only parameters a command gains from ``use``.
+
+    Parameters
+    ----------
+    use : Use
+
+    Returns
+    -------
+    list of inspect.Parameter
+        One per field, its default from the declaration and its typer option as annotation.
+    """
     return [inspect.Parameter(name, inspect.Parameter.KEYWORD_ONLY, default=default, annotation=_option(spec))
             for name, (default, spec) in use.fields().items()]
 
@@ -137,11 +147,36 @@ def _flag(param: inspect.Parameter) -> str:
 def command(*uses: Use) -> Callable[[Callable[..., Any]], Callable[..., Any]]:
     """Give a command the options of ``uses`` and run it under :func:`~aligner.cli.runtime.user_errors`.
 
-    The decorated function names each configuration object as a parameter (``Use.into``); the
-    returned function takes the fields' options instead (typer reads its ``__signature__``),
-    builds the objects, and calls the original. An :class:`~aligner.errors.AlignerError` raised
-    while building them or anywhere in the command becomes a one-line message, the option's
-    flag in place of the keyword, and exit status 2.
+    Parameters
+    ----------
+    *uses : Use
+        The configuration classes the command takes, with the fields it takes of each.
+
+    Returns
+    -------
+    callable
+        A decorator. The decorated function names each configuration object as a keyword
+        parameter (``Use.into``); the function it returns takes the fields' options instead
+        (typer reads its ``__signature__``), builds the objects, and calls the original. An
+        :class:`~aligner.errors.AlignerError` raised while building them or anywhere in the
+        command becomes a one-line message, the option's flag in place of the keyword, and exit
+        status 2. The returned function's ``flags`` maps each keyword to its flag.
+
+    Raises
+    ------
+    TypeError
+        When two options of the command have one name (a programming error, seen at import).
+
+    Examples
+    --------
+    >>> from aligner.config import LabelConfig
+    >>> @command(Use(LabelConfig, into="labels"))
+    ... def run(path: str, *, labels: LabelConfig):
+    ...     return labels.top_k
+    >>> run(path="x", top_k=3, min_similarity=0.1)
+    3
+    >>> run.flags["min_similarity"]
+    '--min-similarity'
     """
     def decorate(func: Callable[..., Any]) -> Callable[..., Any]:
         hints = get_type_hints(func, include_extras=True)

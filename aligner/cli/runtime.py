@@ -51,8 +51,17 @@ def _show_warning(quiet: bool, original: Callable) -> Callable:
 def user_errors(*, quiet: bool = False, flags: Mapping[str, str] | None = None) -> Iterator[None]:
     """Run a command body: warnings shown as they come, an :class:`AlignerError` as one line and exit 2.
 
-    ``flags`` maps keywords to the options that set them (see :func:`message`). Ctrl-C exits 130
-    with a note that nothing was left half-written (the writers publish outputs as one set).
+    Parameters
+    ----------
+    quiet : bool
+        Hide the package's warnings (errors are always shown).
+    flags : mapping of str to str, optional
+        Keyword -> the option that sets it (see :func:`message`).
+
+    Notes
+    -----
+    Ctrl-C exits 130 with a note that nothing was left half-written (the writers publish
+    outputs as one set). No traceback is printed for either.
     """
     with warnings.catch_warnings():
         warnings.simplefilter("always", AlignerWarning)

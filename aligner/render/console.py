@@ -122,7 +122,17 @@ def summary_table(summary: dict) -> Table:
 
 
 def sweep_table(table) -> Table:
-    """One row per alpha of a sweep table (columns of :data:`aligner.analysis.sweep.SWEEP_COLUMNS`)."""
+    """One row per alpha of a sweep.
+
+    Parameters
+    ----------
+    table : pandas.DataFrame
+        A sweep table (:data:`aligner.analysis.sweep.SWEEP_COLUMNS`); NaN NC (no truth) shows as a dash.
+
+    Returns
+    -------
+    rich.table.Table
+    """
     t = Table(title="aligner sweep", header_style="bold")
     for c in ("alpha", "conserved", "EC", "S3", "prior weight", "NC", "steps", "seconds"):
         t.add_column(c, justify="right")
@@ -133,7 +143,22 @@ def sweep_table(table) -> Table:
 
 
 def sweep_lines(knee_alpha: float | None, knee_rule: str, written: Iterable[Path]) -> list[str]:
-    """The lines after a sweep's table: the suggested alpha (or why there is none) and the files written."""
+    """The lines printed after a sweep's table.
+
+    Parameters
+    ----------
+    knee_alpha : float or None
+        The alpha at the knee of the trade-off curve, None when there is none.
+    knee_rule : str
+        How the knee was chosen, shown beside it.
+    written : iterable of Path
+        The files written.
+
+    Returns
+    -------
+    list of str
+        The suggested alpha (or why there is none), then the files written.
+    """
     if knee_alpha is None:
         first = "no knee: fewer than three alphas or a straight curve"
     else:
@@ -142,7 +167,20 @@ def sweep_lines(knee_alpha: float | None, knee_rule: str, written: Iterable[Path
 
 
 def query_tables(summary: Mapping, *, side: str) -> list[tuple[Table, str]]:
-    """For each asked node: a table of its counterparts and a line of the work its query took."""
+    """The tables of a counterpart query, one per asked node.
+
+    Parameters
+    ----------
+    summary : mapping
+        ``QueryResult.summary``: ``queries``, each with ``query``, ``counterparts`` and ``work``.
+    side : {"a", "b"}
+        The side of the asked nodes (their counterparts are in the other network).
+
+    Returns
+    -------
+    list of (rich.table.Table, str)
+        For each node, its counterparts and a line of the work its query took.
+    """
     other = "B" if side == "a" else "A"
     shown = []
     for rec in summary["queries"]:
@@ -163,7 +201,23 @@ def query_tables(summary: Mapping, *, side: str) -> list[tuple[Table, str]]:
 
 
 def prior_message(pairs: int, labels_a: int, labels_b: int, top_k: int, min_similarity: float, path) -> str:
-    """What ``prior-from-labels`` wrote."""
+    """The line ``prior-from-labels`` prints.
+
+    Parameters
+    ----------
+    pairs, labels_a, labels_b : int
+        Pairs written; labels read on each side.
+    top_k : int
+        Pairs kept per node.
+    min_similarity : float
+        The similarity floor.
+    path : path
+        The file written.
+
+    Returns
+    -------
+    str
+    """
     return (f"wrote {pairs:,} pairs ({labels_a:,} x {labels_b:,} labels, top {top_k} per node, "
             f"similarity >= {min_similarity:g}) to {path}")
 
@@ -171,8 +225,19 @@ def prior_message(pairs: int, labels_a: int, labels_b: int, top_k: int, min_simi
 def next_steps(outdir: Path, inputs: Mapping[str, Path], *, node: str) -> list[str]:
     """The closing lines of ``aligner demo``: where the outputs are and the commands to try next.
 
-    ``inputs`` holds the paths of ``network_a``, ``network_b``, ``prior`` and ``truth``; ``node``
-    is a node of A to ask about. Paths and names are quoted for a POSIX shell.
+    Parameters
+    ----------
+    outdir : Path
+        The demo's output directory.
+    inputs : mapping of str to Path
+        The paths of ``network_a``, ``network_b``, ``prior`` and ``truth``.
+    node : str
+        A node of A to ask about.
+
+    Returns
+    -------
+    list of str
+        Paths and names are quoted for a POSIX shell, so each command can be pasted as it is.
     """
     q = lambda p: shlex.quote(str(p))  # noqa: E731
     a, b, prior = q(inputs["network_a"]), q(inputs["network_b"]), q(inputs["prior"])

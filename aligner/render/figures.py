@@ -23,7 +23,19 @@ def _pyplot():
 
 
 def figure_bytes(fig, formats: Iterable[str] = ("png",)) -> dict[str, bytes]:
-    """``{format: file content}`` of ``fig`` in each format, then close it."""
+    """The contents of ``fig`` saved in each format; the figure is closed afterwards.
+
+    Parameters
+    ----------
+    fig : matplotlib.figure.Figure
+    formats : iterable of str
+        Formats matplotlib can save ("png", "svg", "pdf", ...).
+
+    Returns
+    -------
+    dict of str to bytes
+        ``{format: file content}``.
+    """
     plt = _pyplot()
     data = {}
     try:
@@ -65,7 +77,24 @@ def sweep_figure(table, knee: int | None, *, title: str | None = None):
 
 def plot_sweep(table, knee: int | None, formats: Iterable[str] = ("png", "svg"), *,
                title: str | None = None) -> dict[str, bytes]:
-    """The trade-off figure of a sweep (see :func:`sweep_figure`) as ``{format: bytes}``."""
+    """The trade-off figure of a sweep, saved in each format.
+
+    Parameters
+    ----------
+    table : pandas.DataFrame
+        A sweep table (``alpha``, ``prior_weight``, ``conserved_edges``).
+    knee : int or None
+        Row of the knee, ringed when given.
+    formats : iterable of str
+        Formats to save (default PNG and SVG).
+    title : str, optional
+        The figure's title.
+
+    Returns
+    -------
+    dict of str to bytes
+        ``{format: file content}`` (see :func:`sweep_figure` for what is drawn).
+    """
     return figure_bytes(sweep_figure(table, knee, title=title), formats)
 
 

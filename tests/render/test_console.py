@@ -1,5 +1,6 @@
 """Console renderers: hand-made results in, the text a user reads out (hand-worked expectations)."""
 
+import io
 import math
 import shlex
 from pathlib import Path
@@ -11,7 +12,7 @@ from aligner.render.console import next_steps, prior_message, query_tables, swee
 
 
 def _text(renderable) -> str:
-    console = Console(width=200, record=True, file=open("/dev/null", "w"))
+    console = Console(width=200, record=True, file=io.StringIO())
     console.print(renderable)
     return console.export_text()
 
