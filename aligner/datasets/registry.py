@@ -2,7 +2,7 @@
 
 :func:`build` returns the text of every file of ``demo_pairs/registry/`` (and statistics for its
 README, :func:`readme`). Everything comes from one fixed seed, so the text is the same on every
-run; ``scripts/data/make_registry_demo.py`` writes it, and a test checks that
+run; ``scripts/data/make_demo.py`` writes it, and a test checks that
 ``demo_pairs/registry/`` equals it byte for byte. :func:`company_names` and :func:`corrupt` also
 serve the label-prior benchmark. The data are entirely synthetic: the registries, the
 companies, their names and their contracts are invented.

@@ -7,6 +7,7 @@ import pandas as pd
 import pytest
 from sklearn.metrics.pairwise import cosine_similarity
 
+from aligner.datasets.demo import scenario_dir
 from aligner.pipeline import align
 from aligner.errors import InputFormatError, InvalidParameterError
 from aligner.io.outputs import write_prior_table
@@ -203,7 +204,7 @@ def test_write_prior_round_trip(tmp_path):
 # --------------------------------------------------------------------------- the registry demo
 
 def test_registry_demo_structure_beats_labels_alone(tmp_path):
-    base = resources.files("aligner") / "demo_data" / "registry"
+    base = scenario_dir("registry")
     with resources.as_file(base) as d:
         prior = label_prior(d / "labels_a.tsv", d / "labels_b.tsv")
         shipped = pd.read_csv(d / "prior.tsv", sep="\t", comment="#")
@@ -221,14 +222,12 @@ def test_registry_demo_structure_beats_labels_alone(tmp_path):
 
 
 def test_registry_demo_files_are_current():
-    import importlib.util
     from pathlib import Path
 
+    from aligner.datasets.registry import build
+
     root = Path(__file__).resolve().parents[2]
-    spec = importlib.util.spec_from_file_location("make_registry_demo", root / "scripts" / "make_registry_demo.py")
-    mod = importlib.util.module_from_spec(spec)
-    spec.loader.exec_module(mod)
-    files, _ = mod.build()
+    files, _ = build()
     for name, text in files.items():
         assert (root / "demo_pairs" / "registry" / name).read_bytes() == text.encode("utf-8")
-        assert (root / "aligner" / "demo_data" / "registry" / name).read_bytes() == text.encode("utf-8")
+        assert (scenario_dir("registry") / name).read_bytes() == text.encode("utf-8")
