@@ -47,7 +47,7 @@ Out = Annotated[Path, typer.Option("--out", "-o", help="Where to write the outpu
                                    "lists them).")]
 OptionalOut = Annotated[Optional[Path], typer.Option("--out", "-o", help="Where to write the outputs. Default: a "
                                                      "new temporary directory.")]
-Alphas = Annotated[str, typer.Option("--alphas", help="Comma-separated values of alpha in [0, 1), run in "
+Alphas = Annotated[Optional[str], typer.Option("--alphas", help="Comma-separated values of alpha in [0, 1), run in "
                                      "ascending order. Default: the sweep's own grid.")]
 Nodes = Annotated[list[str], typer.Option("--node", "-n", help="A node to ask about (repeat for several).")]
 

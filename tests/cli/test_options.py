@@ -247,3 +247,19 @@ def test_early_exits_do_not_import_the_numerical_stack(tmp_path):
         assert last.endswith("EXIT 2" if len(argv) > 2 else "EXIT 0"), (argv, last, proc.stderr)
         if len(argv) > 2 and "missing.tsv" in argv[1]:
             assert "missing.tsv: no such file; check the path" in proc.stderr
+
+
+def test_sweep_without_alphas_runs_the_default_grid(tmp_path, monkeypatch):
+    import aligner.analysis.sweep as sweep_module
+
+    seen = {}
+
+    def spy(*args, **kwargs):
+        seen.update(kwargs)
+        raise InvalidParameterError("stopped by the test")
+
+    monkeypatch.setattr(sweep_module, "sweep", spy)
+    res = runner.invoke(app, ["sweep", str(A), str(B), "-p", str(PRIOR), "-o", str(tmp_path / "o")])
+    assert res.exit_code == 2 and "stopped by the test" in res.output
+    assert tuple(seen["alphas"]) == tuple(sweep_module.DEFAULT_ALPHAS)
+    assert seen["config"] == AlignConfig()  # every other option at its declared default

@@ -21,7 +21,7 @@ def alpha_list(text: str | None) -> list[float] | None:
 
 
 @command(Use(AlignConfig, exclude=("alpha",)))
-def sweep(network_a: NetworkA, network_b: NetworkB, outdir: Out, prior: Prior = None, alphas: Alphas = "",
+def sweep(network_a: NetworkA, network_b: NetworkB, outdir: Out, prior: Prior = None, alphas: Alphas = None,
           truth: Truth = None, seeds: Seeds = None, force: Force = False, quiet: Quiet = False, *,
           config: AlignConfig):
     """Align at several alphas with one prepared problem; write sweep.tsv, sweep.png and sweep.svg to --out.
