@@ -79,15 +79,8 @@ def _generator(name: str):
 def scenario_files(name: str) -> dict[str, str]:
     """The text of every file of scenario ``name`` (data files and ``README.md``), from its seed.
 
-    Parameters
-    ----------
-    name : {"firefly", "registry"}
-        The scenario.
-
-    Returns
-    -------
-    dict of str to str
-        File name to file text, in the order the files are written.
+    Returns a dict of file name to file text, in the order the files are written; ``name`` is
+    one of :data:`SCENARIOS`.
     """
     module = _generator(name)
     files, stats = module.build()

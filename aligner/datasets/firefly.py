@@ -11,7 +11,7 @@ from __future__ import annotations
 
 import numpy as np
 
-from aligner.datasets.synthetic import evolved_pair
+from aligner.datasets.synthetic import evolved_pair, shuffled_rows
 
 SEED = 20240611
 N_ANCESTOR = 1400
@@ -44,10 +44,7 @@ def _network_text(edges: np.ndarray, names: np.ndarray, species: tuple[str, str,
     self-loops and repeated edges."""
     name, prefix, common = species
     n_nodes = len(names)
-    rows = edges.copy()
-    flip = rng.random(len(rows)) < 0.5
-    rows[flip] = rows[flip][:, ::-1]
-    rows = rows[rng.permutation(len(rows))]
+    rows = shuffled_rows(edges, rng)
     loops = rng.choice(n_nodes, size=N_SELF_LOOPS, replace=False)
     repeats = rows[rng.choice(len(rows), size=N_REPEATS, replace=False)][:, ::-1]
     extra = np.concatenate([np.stack([loops, loops], axis=1), repeats])

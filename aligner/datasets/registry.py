@@ -12,7 +12,7 @@ from __future__ import annotations
 
 import numpy as np
 
-from aligner.datasets.synthetic import powerlaw_graph
+from aligner.datasets.synthetic import powerlaw_graph, shuffled_rows
 from aligner.priors.labels import label_prior
 
 SEED = 20240917
@@ -175,10 +175,8 @@ def _ids(prefix: str, n: int, rng: np.random.Generator) -> np.ndarray:
 
 def _network_text(edges: np.ndarray, ids: np.ndarray, registry: tuple[str, str], n_nodes: int,
                   rng: np.random.Generator) -> str:
-    rows = edges.copy()
-    flip = rng.random(len(rows)) < 0.5
-    rows[flip] = rows[flip][:, ::-1]
-    rows = rows[rng.permutation(len(rows))]
+    """An edge file: header comments, then the contracts in random order and orientation."""
+    rows = shuffled_rows(edges, rng)
     lines = [
         f"# Supply contracts between companies on record at the {registry[0]}, an invented registry.",
         f"# {n_nodes} companies, {len(edges)} contracts; one undirected contract per line. Entirely synthetic.",
@@ -190,6 +188,7 @@ def _network_text(edges: np.ndarray, ids: np.ndarray, registry: tuple[str, str],
 
 
 def _labels_text(ids: np.ndarray, names: list[str], registry: tuple[str, str]) -> str:
+    """A label file: header comments, then one identifier and name per line, by identifier."""
     order = np.argsort(ids)
     lines = [
         f"# Registered names of the companies on record at the {registry[0]}, an invented registry.",

@@ -49,6 +49,7 @@ __all__ = [
     "duplication_divergence_graph",
     "relabelled_pair",
     "evolved_pair",
+    "shuffled_rows",
 ]
 
 #: Prior scores drawn from a normal distribution are clipped from below at this value, so that
@@ -595,6 +596,18 @@ def _evolved_prior(truth: np.ndarray, lineage_a: tuple[np.ndarray, np.ndarray],
     pairs = np.concatenate([truth, np.stack([d_rows, d_cols], axis=1)])
     scores = np.concatenate([true_s, dec_s])
     return _sort_pairs(pairs, len(anc_b), scores)
+
+
+def shuffled_rows(edges: np.ndarray, rng: np.random.Generator) -> np.ndarray:
+    """The rows of an edge list in random order, each in a random orientation (for writing files).
+
+    Draws one uniform number per row (a row is reversed when it is below 0.5), then one
+    permutation, from ``rng``.
+    """
+    rows = np.array(edges, copy=True)
+    flip = rng.random(len(rows)) < 0.5
+    rows[flip] = rows[flip][:, ::-1]
+    return rows[rng.permutation(len(rows))]
 
 
 # --------------------------------------------------------------------------------------------
