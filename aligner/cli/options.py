@@ -133,13 +133,15 @@ def config_parameters(use: Use) -> list[inspect.Parameter]:
 
 
 def _flag(param: inspect.Parameter) -> str:
-    """How the user typed ``param``: its first long option, or its metavar for an argument."""
-    if get_origin(param.annotation) is Annotated:
-        for info in get_args(param.annotation)[1:]:
-            decls = [d for d in (getattr(info, "default", None), *(getattr(info, "param_decls", None) or ()))
+    """How the user types ``param``: its first long option, or its name in capitals for an argument."""
+    infos = get_args(param.annotation)[1:] if get_origin(param.annotation) is Annotated else ()
+    for info in infos:
+        if isinstance(info, typer.models.OptionInfo):
+            # in an Annotated option, typer keeps the first declaration in ``default``
+            decls = [d.split("/")[0] for d in (info.default, *(info.param_decls or ()))
                      if isinstance(d, str) and d.startswith("-")]
-            if isinstance(info, typer.models.OptionInfo) and decls:
-                longs = [d.split("/")[0] for d in decls if d.startswith("--")]
+            longs = [d for d in decls if d.startswith("--")]
+            if decls:
                 return (longs or decls)[0]
     return param.name.upper()
 
