@@ -65,13 +65,13 @@ def test_prior_message():
 
 def test_next_steps_are_commands_a_shell_reads_back():
     # POSIX shell quoting (shlex, Python standard library): a path with a space or a quote survives
-    inputs = {"network_a": Path("/data/my nets/a.tsv"), "network_b": Path("/data/b.tsv"),
-              "prior": Path("/data/it's prior.tsv"), "truth": Path("/data/truth.tsv")}
-    lines = next_steps(Path("/tmp/run 1"), inputs, node="P 1")
-    assert lines[:2] == ["outputs are in /tmp/run 1", "next, try:"]
+    inputs = {"network_a": Path("data/my nets/a.tsv"), "network_b": Path("data/b.tsv"),
+              "prior": Path("data/it's prior.tsv"), "truth": Path("data/truth.tsv")}
+    lines = next_steps(Path("runs/run 1"), inputs, node="P 1")
+    assert lines[:2] == ["outputs are in runs/run 1", "next, try:"]
     query, sweep, report = (shlex.split(line) for line in lines[2:])
-    assert query == ["aligner", "query", "/data/my nets/a.tsv", "/data/b.tsv", "-p", "/data/it's prior.tsv",
+    assert query == ["aligner", "query", "data/my nets/a.tsv", "data/b.tsv", "-p", "data/it's prior.tsv",
                      "--node", "P 1"]
-    assert sweep[:6] == ["aligner", "sweep", "/data/my nets/a.tsv", "/data/b.tsv", "-p", "/data/it's prior.tsv"]
-    assert sweep[sweep.index("-o") + 1] == "/tmp/run 1" and sweep[sweep.index("--truth") + 1] == "/data/truth.tsv"
-    assert report == ["aligner", "report", "/tmp/run 1"]
+    assert sweep[:6] == ["aligner", "sweep", "data/my nets/a.tsv", "data/b.tsv", "-p", "data/it's prior.tsv"]
+    assert sweep[sweep.index("-o") + 1] == "runs/run 1" and sweep[sweep.index("--truth") + 1] == "data/truth.tsv"
+    assert report == ["aligner", "report", "runs/run 1"]
