@@ -230,7 +230,8 @@ def next_steps(outdir: Path, inputs: Mapping[str, Path], *, node: str) -> list[s
     outdir : Path
         The demo's output directory.
     inputs : mapping of str to Path
-        The paths of ``network_a``, ``network_b``, ``prior`` and ``truth``.
+        The paths of ``network_a``, ``network_b``, ``prior`` and ``truth``; with ``labels_a`` and
+        ``labels_b`` (node labels), a ``prior-from-labels`` command is suggested too.
     node : str
         A node of A to ask about.
 
@@ -247,4 +248,5 @@ def next_steps(outdir: Path, inputs: Mapping[str, Path], *, node: str) -> list[s
         f"  aligner query {a} {b} -p {prior} --node {q(node)}",
         f"  aligner sweep {a} {b} -p {prior} --truth {q(inputs['truth'])} -o {q(outdir)} --alphas 0,0.5,0.8,0.9,0.95",
         f"  aligner report {q(outdir)}",
-    ]
+    ] + ([f"  aligner prior-from-labels {q(inputs['labels_a'])} {q(inputs['labels_b'])} "
+          f"-o {q(Path(outdir) / 'prior_from_labels.tsv')}"] if "labels_a" in inputs else [])

@@ -75,3 +75,11 @@ def test_next_steps_are_commands_a_shell_reads_back():
     assert sweep[:6] == ["aligner", "sweep", "data/my nets/a.tsv", "data/b.tsv", "-p", "data/it's prior.tsv"]
     assert sweep[sweep.index("-o") + 1] == "runs/run 1" and sweep[sweep.index("--truth") + 1] == "data/truth.tsv"
     assert report == ["aligner", "report", "runs/run 1"]
+
+
+def test_next_steps_suggest_a_label_prior_when_there_are_labels():
+    inputs = {"network_a": Path("a.tsv"), "network_b": Path("b.tsv"), "prior": Path("p.tsv"), "truth": Path("t.tsv")}
+    assert not any("prior-from-labels" in line for line in next_steps(Path("o"), inputs, node="x"))
+    lines = next_steps(Path("o"), {**inputs, "labels_a": Path("la.tsv"), "labels_b": Path("lb.tsv")}, node="x")
+    assert shlex.split(lines[-1]) == ["aligner", "prior-from-labels", "la.tsv", "lb.tsv", "-o",
+                                      str(Path("o") / "prior_from_labels.tsv")]

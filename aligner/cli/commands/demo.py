@@ -31,7 +31,8 @@ def demo(outdir: OptionalOut = None, scenario: Scenario = "firefly", force: Forc
 
     check_choice(scenario, "scenario", SCENARIOS)
     d = scenario_dir(scenario)
-    files = {n: d / f"{n}.tsv" for n in ("network_a", "network_b", "prior", "truth")}
+    files = {n: d / f"{n}.tsv" for n in ("network_a", "network_b", "prior", "truth", "labels_a", "labels_b")}
+    files = {n: p for n, p in files.items() if p.is_file()}
     target = Path(outdir) if outdir is not None else Path(tempfile.mkdtemp(prefix="aligner-demo-"))
     if not quiet:
         say(f"demo: aligning {files['network_a']} to {files['network_b']} with prior {files['prior']}")
