@@ -22,6 +22,17 @@ def _pyplot():
     return plt
 
 
+def _finish(fig, ax, xlabel: str, ylabel: str, *, legend: bool = False):
+    """Label the axes, add the legend and a light grid, tighten the layout; return ``fig``."""
+    ax.set_xlabel(xlabel)
+    ax.set_ylabel(ylabel)
+    if legend:
+        ax.legend(loc="best", fontsize=8, frameon=False)
+    ax.grid(alpha=0.25)
+    fig.tight_layout()
+    return fig
+
+
 def figure_bytes(fig, formats: Iterable[str] = ("png",)) -> dict[str, bytes]:
     """The contents of ``fig`` saved in each format; the figure is closed afterwards.
 
@@ -66,13 +77,8 @@ def sweep_figure(table, knee: int | None, *, title: str | None = None):
         ax.scatter([xs[knee]], [ys[knee]], s=190, facecolors="none", edgecolors="#d0542c", linewidths=2,
                    zorder=3, label=f"knee: α = {table['alpha'].iloc[knee]:g}")
         ax.plot([xs[0], xs[-1]], [ys[0], ys[-1]], ":", color="#d0542c", lw=1, zorder=0, label="chord")
-        ax.legend(loc="best", fontsize=8, frameon=False)
-    ax.set_xlabel("total prior similarity of the matched pairs")
-    ax.set_ylabel("conserved edges")
     ax.set_title(title or "Wiring against prior across α", fontsize=10)
-    ax.grid(alpha=0.25)
-    fig.tight_layout()
-    return fig
+    return _finish(fig, ax, "total prior similarity of the matched pairs", "conserved edges", legend=knee is not None)
 
 
 def plot_sweep(table, knee: int | None, formats: Iterable[str] = ("png", "svg"), *,
@@ -113,11 +119,7 @@ def histogram(values, xlabel: str, color: str, *, log: bool = False):
     else:
         bins = 40
     ax.hist(v, bins=bins, color=color, edgecolor="white", linewidth=0.4)
-    ax.set_xlabel(xlabel)
-    ax.set_ylabel("pairs")
-    ax.grid(alpha=0.25)
-    fig.tight_layout()
-    return fig
+    return _finish(fig, ax, xlabel, "pairs")
 
 
 def degree_plot(pairs, degree: Mapping[str, int]):
@@ -132,12 +134,7 @@ def degree_plot(pairs, degree: Mapping[str, int]):
     ax.scatter(d + jitter, c, s=7, alpha=0.45, color="#1f5f8b", linewidths=0)
     top = max(d.max() if len(d) else 1, 1)
     ax.plot([0, top], [0, top], ":", color="#d0542c", lw=1, label="all edges conserved")
-    ax.set_xlabel("degree of the node in A")
-    ax.set_ylabel("conserved edges at the pair")
-    ax.legend(fontsize=8, frameon=False)
-    ax.grid(alpha=0.25)
-    fig.tight_layout()
-    return fig
+    return _finish(fig, ax, "degree of the node in A", "conserved edges at the pair", legend=True)
 
 
 def subgraph_drawing(sub, mapping: Mapping[str, str]):
