@@ -34,7 +34,7 @@ __all__ = ["Use", "command", "config_parameters", "Prior", "Truth", "Seeds", "Fo
 
 Prior = Annotated[Optional[Path], typer.Option(
     "--prior", "-p", help="Prior similarity table: node_a, node_b, score (TSV/CSV, may be gzip-compressed). Left "
-    "out: the candidates are grown from --seeds, else taken from structural features.")]
+    "out: the candidates are grown from --seeds, else (align, sweep) taken from structural features.")]
 Truth = Annotated[Optional[Path], typer.Option(
     "--truth", help="Known true pairs (node_a, node_b), to report node correctness (NC).")]
 Seeds = Annotated[Optional[Path], typer.Option(
@@ -49,7 +49,8 @@ OptionalOut = Annotated[Optional[Path], typer.Option("--out", "-o", help="Where 
                                                      "new temporary directory.")]
 Alphas = Annotated[Optional[str], typer.Option("--alphas", help="Comma-separated values of alpha in [0, 1), run in "
                                      "ascending order. Default: the sweep's own grid.")]
-Nodes = Annotated[list[str], typer.Option("--node", "-n", help="A node to ask about (repeat for several).")]
+Nodes = Annotated[list[str], typer.Option("--node", "-n", metavar="NODE",
+                                          help="A node to ask about (repeat for several).")]
 
 
 # --------------------------------------------------------------------------- options from the declarations
