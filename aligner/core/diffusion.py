@@ -22,7 +22,7 @@ from aligner.errors import ConvergenceError
 from aligner.core.network import row_sums
 from aligner.core.product import ProductGraph
 
-__all__ = ["DiffusionResult", "diffuse", "column_scale", "prior_vector"]
+__all__ = ["DiffusionResult", "diffuse", "column_scale", "prior_vector", "default_work_cap"]
 
 SOLVERS = ("push", "power")
 #: the push solver sweeps all active entries at once while at least this share of them is active
@@ -131,8 +131,7 @@ def diffuse(
     x0 : ndarray, optional
         A warm start.
     max_work : int, optional
-        Cap on pushes (push) or iterations (power); default 200 m / (1 - alpha) + 10^6 pushes,
-        or 100 log(1/tol) / (1 - alpha) iterations.
+        Cap on pushes (push) or iterations (power); default :func:`default_work_cap`.
 
     Returns
     -------
@@ -171,6 +170,14 @@ def diffuse(
                            time.perf_counter() - t0)
 
 
+def default_work_cap(solver: str, m: int, alpha: float, tol: float) -> int:
+    """The default cap on the work of a solve: 200 m / (1 - alpha) + 10^6 pushes (push), or
+    100 ln(1 / min(tol, 0.5)) / (1 - alpha) + 10 iterations (power)."""
+    if solver == "push":
+        return int(200 * m / (1 - alpha)) + 10**6
+    return int(100 * np.log(1 / min(tol, 0.5)) / (1 - alpha)) + 10
+
+
 def _exact_residual(graph: ProductGraph, scale, alpha: float, x, b, out) -> float:
     """out = b - (I - alpha P) x computed from the CSR pattern; returns its 1-norm."""
     wts = np.empty(0) if graph.weights is None else graph.weights
@@ -204,8 +211,7 @@ def _solve_push(graph: ProductGraph, scale, alpha: float, tol: float, x, r, b, m
     m = graph.m
     deg = graph.degree.astype(np.float64) + 1.0
     thresh = tol * deg / deg.sum()
-    cap = max_work if max_work is not None else int(200 * m / (1 - alpha)) + 10**6
-    check_int(cap, "max_work", low=0)
+    cap = check_int(default_work_cap("push", m, alpha, tol) if max_work is None else max_work, "max_work", low=0)
     steps = touches = 0
     P = None
     while steps < cap:
@@ -227,8 +233,8 @@ def _solve_push(graph: ProductGraph, scale, alpha: float, tol: float, x, r, b, m
 
 def _solve_power(graph: ProductGraph, scale, alpha: float, tol: float, x, r, b, max_work: int | None):
     """Power (Jacobi) iteration x <- alpha P x + b until ||r||_1 <= tol. Returns (x, iterations, touches)."""
-    cap = max_work if max_work is not None else int(100 * np.log(1 / min(tol, 0.5)) / (1 - alpha)) + 10
-    check_int(cap, "max_work", low=0)
+    cap = check_int(default_work_cap("power", graph.m, alpha, tol) if max_work is None else max_work, "max_work",
+                    low=0)
     P = graph.transition(scale, alpha)
     steps = touches = 0
     while steps < cap and np.abs(r).sum() > tol:

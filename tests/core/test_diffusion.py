@@ -1,10 +1,12 @@
+import math
+
 import networkx as nx
 import numpy as np
 import pytest
 import scipy.sparse as sp
 from scipy.sparse.linalg import spsolve
 
-from aligner.core.diffusion import column_scale, diffuse, prior_vector
+from aligner.core.diffusion import column_scale, default_work_cap, diffuse, prior_vector
 from aligner.errors import ConvergenceError, InvalidParameterError
 from aligner.core.product import build_product
 from conftest import all_pairs_candidates, csr, random_edges
@@ -190,3 +192,63 @@ def test_every_returned_result_is_converged(solver):
     r = 0.15 * h - (res.x - 0.85 * P @ res.x)
     assert np.abs(r).sum() == pytest.approx(res.residual, rel=1e-6, abs=1e-15)
     assert res.residual <= 1e-9 and res.error_bound == pytest.approx(res.residual / 0.15)
+
+
+# --------------------------------------------------------------------------- work caps and what is reported
+
+def test_default_work_caps_are_the_documented_formulas():
+    # the docstring's formulas: 200 m / (1 - alpha) + 10^6 pushes; 100 ln(1 / min(tol, 0.5)) / (1 - alpha) + 10
+    assert default_work_cap("push", 50, 0.9, 1e-6) == int(200 * 50 / 0.1) + 10**6 == 1_100_000
+    assert default_work_cap("push", 7, 0.5, 1e-3) == 1_002_800
+    assert default_work_cap("power", 50, 0.9, 1e-6) == int(100 * math.log(1e6) / 0.1) + 10 == 13825
+    assert default_work_cap("power", 50, 0.5, 0.9) == int(100 * math.log(2) / 0.5) + 10 == 148
+
+
+@pytest.mark.parametrize("solver", ["push", "power"])
+@pytest.mark.parametrize("bad", [-1, 2.5, True])
+def test_bad_max_work_is_refused(solver, bad):
+    *_, cand, prod = _instance(3)
+    with pytest.raises(InvalidParameterError, match=rf"^max_work must be a whole number >= 0; got {bad!r}$") as info:
+        diffuse(prod, prior_vector(cand.prior), column_scale(prod), alpha=0.5, solver=solver, max_work=bad)
+    assert info.value.param == "max_work"
+
+
+def test_zero_work_is_allowed_and_reported_as_not_converged():
+    *_, cand, prod = _instance(3)
+    for solver in ("push", "power"):
+        with pytest.raises(ConvergenceError, match="stopped after 0 steps"):
+            diffuse(prod, prior_vector(cand.prior), column_scale(prod), alpha=0.5, solver=solver, max_work=0)
+
+
+def test_power_iterations_counted_by_a_reference_iteration():
+    # Reference: the Jacobi iteration x <- alpha P x + (1 - alpha) h from x = 0 with a dense
+    # numpy P built from the product's Kronecker definition, stopped at the first iterate
+    # whose residual 1-norm is <= tol; every iteration touches every stored entry once.
+    (ea, ia, xa), (eb, ib, xb), cand, prod = _instance(5)
+    n1, n2 = len(ia) - 1, len(ib) - 1
+    A = np.zeros((n1, n1)); A[ea[:, 0], ea[:, 1]] = A[ea[:, 1], ea[:, 0]] = 1
+    B = np.zeros((n2, n2)); B[eb[:, 0], eb[:, 1]] = B[eb[:, 1], eb[:, 0]] = 1
+    K = np.kron(A, B)
+    P = K / K.sum(axis=0)[None, :]
+    h = prior_vector(cand.prior)
+    alpha, tol = 0.8, 1e-8
+    x, t = np.zeros(len(h)), 0
+    while np.abs((1 - alpha) * h - x + alpha * P @ x).sum() > tol:
+        x = alpha * P @ x + (1 - alpha) * h
+        t += 1
+    res = diffuse(prod, h, column_scale(prod), alpha=alpha, tol=tol, solver="power")
+    assert res.steps == t and res.edge_touches == t * int(K.sum())
+    np.testing.assert_allclose(res.x, x, rtol=0, atol=1e-12)
+
+
+def test_report_keys_and_values():
+    *_, cand, prod = _instance(3)
+    h = prior_vector(cand.prior)
+    for solver, key in (("push", "pushes"), ("power", "iterations")):
+        res = diffuse(prod, h, column_scale(prod), alpha=0.6, tol=1e-7, solver=solver)
+        assert res.report() == {"solver": solver, "alpha": 0.6, "tol": 1e-7, key: res.steps,
+                                "edge_touches": res.edge_touches, "residual_l1": res.residual,
+                                "error_bound_l1": res.error_bound, "seconds": round(res.seconds, 4)}
+        assert res.steps > 0 and res.edge_touches > 0 and res.seconds >= 0
+    res = diffuse(prod, h, column_scale(prod), alpha=0.0)
+    assert (res.steps, res.edge_touches, res.residual, res.error_bound) == (0, 0, 0.0, 0.0)
