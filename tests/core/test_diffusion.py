@@ -1,4 +1,5 @@
 import math
+import time
 
 import networkx as nx
 import numpy as np
@@ -9,6 +10,7 @@ from scipy.sparse.linalg import spsolve
 from aligner.core.diffusion import column_scale, default_work_cap, diffuse, prior_vector
 from aligner.errors import ConvergenceError, InvalidParameterError
 from aligner.core.product import build_product
+from aligner.core.candidates import build_candidates
 from conftest import all_pairs_candidates, csr, random_edges
 
 
@@ -252,3 +254,104 @@ def test_report_keys_and_values():
         assert res.steps > 0 and res.edge_touches > 0 and res.seconds >= 0
     res = diffuse(prod, h, column_scale(prod), alpha=0.0)
     assert (res.steps, res.edge_touches, res.residual, res.error_bound) == (0, 0, 0.0, 0.0)
+
+
+# --------------------------------------------------------------------------- edges of the contract
+
+def test_prior_vector_cases():
+    # h = prior / sum(prior); uniform when the prior sums to 0 (documented); empty stays empty
+    np.testing.assert_allclose(prior_vector([0.1, 0.3]), [0.25, 0.75], rtol=1e-15)
+    np.testing.assert_array_equal(prior_vector([1, 3]), [0.25, 0.75])
+    np.testing.assert_array_equal(prior_vector([2.0, 6.0]), [0.25, 0.75])
+    np.testing.assert_array_equal(prior_vector([0.0, 0.0, 0.0, 0.0]), [0.25] * 4)
+    np.testing.assert_array_equal(prior_vector([5.0]), [1.0])
+    assert prior_vector([1]).dtype == np.float64
+    out = prior_vector(np.empty(0))
+    assert out.shape == (0,) and out.dtype == np.float64
+
+
+def test_defaults_trivial_cases_and_fields():
+    *_, cand, prod = _instance(3)
+    h = prior_vector(cand.prior)
+    s = column_scale(prod)
+    before = time.perf_counter()
+    res = diffuse(prod, h, s)
+    assert (res.alpha, res.tol, res.solver) == (0.9, 1e-6, "push")  # documented defaults
+    assert 0.0 <= res.seconds <= time.perf_counter() - before
+    np.testing.assert_array_equal(res.x, diffuse(prod, h, s, alpha=0.9, tol=1e-6).x)
+    # alpha = 0 returns h itself, without any work
+    before = time.perf_counter()
+    res = diffuse(prod, h, s, alpha=0.0, tol=1e-3, solver="power")
+    assert (res.solver, res.alpha, res.tol, res.steps, res.edge_touches, res.residual, res.error_bound) == \
+        ("power", 0.0, 1e-3, 0, 0, 0.0, 0.0)
+    assert 0.0 <= res.seconds <= time.perf_counter() - before
+    # one candidate and no product edge: x = (1 - alpha) h (the system with P = 0)
+    cand1 = build_candidates([[0, 0]], [1.0], 2, 2, top_k=None)
+    ia = np.array([0, 1, 2]); xa = np.array([1, 0])
+    prod1 = build_product(ia, xa, ia, xa, cand1)
+    assert prod1.m == 1 and prod1.n_edges == 0
+    res = diffuse(prod1, np.ones(1), column_scale(prod1), alpha=0.7, tol=1e-12)
+    assert res.x.tolist() == [pytest.approx(0.3, abs=1e-15)] and res.steps == 1
+    # no candidates at all: an empty result
+    cand0 = build_candidates(np.empty((0, 2)), np.empty(0), 2, 2)
+    prod0 = build_product(ia, xa, ia, xa, cand0)
+    res = diffuse(prod0, np.empty(0), np.empty(0), alpha=0.5, solver="power")
+    assert res.x.shape == (0,) and (res.solver, res.steps, res.residual) == ("power", 0, 0.0)
+
+
+def test_warm_start_given_as_a_list():
+    *_, cand, prod = _instance(4)
+    h = prior_vector(cand.prior)
+    s = column_scale(prod)
+    cold = diffuse(prod, h, s, alpha=0.8, tol=1e-10)
+    warm = diffuse(prod, h, s, alpha=0.8, tol=1e-10, x0=[0] * prod.m)  # integers, as a user may write
+    np.testing.assert_allclose(warm.x, cold.x, atol=1e-9)
+    again = diffuse(prod, h, s, alpha=0.8, tol=1e-10, x0=cold.x.tolist())  # already converged
+    assert again.steps == 0 and np.array_equal(again.x, cold.x)
+
+
+@pytest.mark.parametrize("tol", [0, 0.0, -1e-3, float("nan")])
+def test_bad_tol_is_refused(tol):
+    *_, cand, prod = _instance(3)
+    with pytest.raises(InvalidParameterError, match=rf"^tol must be a number in \(0, inf\); got {tol!r}$") as info:
+        diffuse(prod, prior_vector(cand.prior), column_scale(prod), tol=tol)
+    assert info.value.param == "tol"
+
+
+def test_bad_solver_is_refused():
+    *_, cand, prod = _instance(3)
+    with pytest.raises(InvalidParameterError, match=r"^solver must be one of push, power; got 'magic'$") as info:
+        diffuse(prod, prior_vector(cand.prior), column_scale(prod), solver="magic")
+    assert info.value.param == "solver"
+
+
+def test_convergence_messages_name_the_cause_and_the_way_out(monkeypatch):
+    import aligner.core.diffusion as diffusion
+
+    *_, cand, prod = _instance(3)
+    h = prior_vector(cand.prior)
+    with pytest.raises(ConvergenceError) as info:
+        diffuse(prod, h, column_scale(prod), alpha=0.9, tol=1e-12, max_work=5)
+    assert str(info.value).startswith("the push solver stopped before the residual tolerance 1e-12; raise "
+                                      "max_work or the tolerance, or lower alpha (stopped after 5 steps")
+    monkeypatch.setattr(diffusion, "_push", _nan_push)
+    monkeypatch.setattr(diffusion, "SWEEP_FRACTION", 2.0)
+    with pytest.raises(ConvergenceError) as info:
+        diffuse(prod, h, column_scale(prod), alpha=0.9, tol=1e-8)
+    assert str(info.value).startswith("the push solver produced a score or residual that is not a finite "
+                                      "number; check the prior and the edge weights for inf or NaN (stopped "
+                                      "after 1 steps")
+    assert info.value.iterations == 1
+
+
+def test_column_scale_is_zero_where_a_pair_has_no_neighbour():
+    # documented: restricted scale 1 / deg_S(l), 0 for a pair with no neighbours in L;
+    # product scale 1 / (deg_A(j) deg_B(j')), 0 where either degree is 0
+    cand = build_candidates([[0, 0], [1, 1], [2, 2]], np.ones(3), 3, 3, top_k=None)
+    ia = np.array([0, 1, 2, 2]); xa = np.array([1, 0])  # A: edge 0-1, node 2 bare
+    prod = build_product(ia, xa, ia, xa, cand)
+    np.testing.assert_array_equal(column_scale(prod, "restricted"), [1.0, 1.0, 0.0])
+    deg = np.array([1, 1, 0])
+    np.testing.assert_array_equal(column_scale(prod, "product", deg_a=deg, deg_b=np.array([2, 4, 3]),
+                                               pairs=cand.pairs), [0.5, 0.25, 0.0])
+    assert column_scale(prod).dtype == np.float64
