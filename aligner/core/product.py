@@ -10,6 +10,7 @@ import scipy.sparse as sp
 
 from aligner.kernels.product import _product_pass
 from aligner.core.candidates import CandidateSet
+from aligner.errors import InvalidParameterError
 
 __all__ = ["ProductGraph", "build_product", "estimate_product_edges"]
 
@@ -134,7 +135,9 @@ def build_product(
     dummy = np.empty(0, dtype=np.int32)
     weighted = a_weights is not None
     if weighted != (b_weights is not None):
-        raise ValueError("give the edge weights of both networks or of neither")
+        given = "a_weights" if weighted else "b_weights"
+        raise InvalidParameterError(f"a_weights and b_weights must be given together or not at all; got {given} only",
+                                    param=given)
     none = np.empty(0, dtype=np.float64)
     a_w = none if not weighted else np.ascontiguousarray(a_weights, dtype=np.float64)
     b_w = none if not weighted else np.ascontiguousarray(b_weights, dtype=np.float64)

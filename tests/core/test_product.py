@@ -4,6 +4,7 @@ import pytest
 
 from aligner.core.candidates import build_candidates
 from aligner.core.product import build_product, estimate_product_edges
+from aligner.errors import InvalidParameterError
 from conftest import csr, random_edges
 
 
@@ -51,3 +52,56 @@ def test_inputs_unchanged(rng):
     build_product(ia, xa, ia, xa, cand)
     for a, b in zip(before, (ia, xa, cand.pairs, cand.a_indptr)):
         assert np.array_equal(a, b)
+
+
+def test_weights_of_one_network_only_is_an_error():
+    ia = np.array([0, 1, 2]); xa = np.array([1, 0], dtype=np.int32)
+    cand = build_candidates([[0, 0]], [1.0], 2, 2, top_k=None)
+    for given in ("a_weights", "b_weights"):
+        with pytest.raises(InvalidParameterError, match=rf"^a_weights and b_weights must be given together or "
+                                                        rf"not at all; got {given} only$") as info:
+            build_product(ia, xa, ia, xa, cand, **{given: np.ones(2)})
+        assert info.value.param == given
+
+
+def test_empty_product_has_empty_int32_lists():
+    ia = np.array([0, 1, 2]); xa = np.array([1, 0], dtype=np.int32)
+    cand = build_candidates(np.empty((0, 2)), np.empty(0), 2, 2)
+    for kw in ({}, {"a_weights": np.ones(2), "b_weights": np.ones(2)}):
+        prod = build_product(ia, xa, ia, xa, cand, **kw)
+        assert prod.indices.shape == (0,) and prod.indices.dtype == np.int32 and prod.indptr.tolist() == [0]
+        assert prod.to_csr().shape == (0, 0)
+    assert estimate_product_edges(ia, xa, ia, cand) == 0
+
+
+def _last_pair_isolated(directed):
+    """A: edge 0-1 (or arc 0 -> 1), nodes 2, 3 bare; candidates (0,0), (1,1), (3,3): (3,3) has no neighbour."""
+    from aligner.core.network import network_from_edges
+
+    net = network_from_edges(np.array(["a", "b", "c", "d"], dtype=object), np.array([0]), np.array([1]),
+                             directed=directed)
+    ip, ix = (net.out_indptr, net.out_indices) if directed else (net.indptr, net.indices)
+    cand = build_candidates([[0, 0], [1, 1], [3, 3]], np.ones(3), 4, 4, top_k=None)
+    return ip, ix, cand
+
+
+@pytest.mark.parametrize("directed", [False, True])
+def test_shapes_and_defaults_when_the_last_pair_has_no_neighbour(directed):
+    # hand-worked: the product has the one edge (0,0)-(1,1) (the arc (0,0) -> (1,1) when
+    # directed); pair (3,3) is in no product edge, yet every matrix is 3 x 3
+    ip, ix, cand = _last_pair_isolated(directed)
+    prod = build_product(ip, ix, ip, ix, cand, directed=directed)
+    assert prod.n_edges == 1 and prod.degree.tolist() == ([1, 0, 0] if directed else [1, 1, 0])
+    assert prod.to_csr().shape == (3, 3) and prod.transition(np.ones(3)).shape == (3, 3)
+    # transition's default alpha is 1: P itself
+    dense = prod.transition(np.array([0.5, 0.25, 1.0])).toarray()
+    want = np.zeros((3, 3))
+    want[1, 0] = 0.5  # P[k, l] = w(l -> k) scale[l]
+    if not directed:
+        want[0, 1] = 0.25
+    np.testing.assert_array_equal(dense, want)
+    sym = prod.symmetrised()
+    assert sym.m == 3 and sym.indptr.tolist() == [0, 1, 2, 2] and sym.indices.tolist() == [1, 0]
+    assert not sym.directed
+    # A's last node (3) has no edge: the estimate must still cover it (bound 0 there)
+    assert estimate_product_edges(ip, ix, ip, cand) >= prod.indptr[-1]
