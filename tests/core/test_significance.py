@@ -96,3 +96,94 @@ def test_permutation_p_value_estimate(rng):
     assert res["null_mean"] == pytest.approx(null.mean())
     both = significance(ea, ea, cand, np.stack([np.arange(n), np.arange(n)], 1), len(ea), permutations=0)
     assert both["candidate_maps"] is None and both["random_bijection"]["observed"] == len(ea)
+
+
+def _null_by_hand(ea, eb, cand, n_maps, seed):
+    """The null of candidate_permutation_test recomputed from its documented definition: maximum
+    weight matchings under weights 1 + U(0, 1) from numpy's default generator (reference for the
+    optimum: scipy.optimize.linear_sum_assignment), scored by a set lookup (common practice)."""
+    from scipy.optimize import linear_sum_assignment
+
+    g = np.random.default_rng(seed)
+    eset = {frozenset(e) for e in eb.tolist()}
+    null, sizes = [], []
+    for _ in range(n_maps):
+        w = 1.0 + g.random(cand.m)
+        W = np.zeros((cand.n1, cand.n2))
+        W[cand.pairs[:, 0], cand.pairs[:, 1]] = w
+        r, c = linear_sum_assignment(W, maximize=True)
+        f = {int(i): int(j) for i, j in zip(r, c) if W[i, j] > 0}
+        null.append(sum(u in f and v in f and frozenset((f[u], f[v])) in eset for u, v in ea.tolist()))
+        sizes.append(len(f))
+    return np.array(null), np.array(sizes)
+
+
+def test_permutation_report_in_full():
+    # B's nodes 0..3 have no candidate and A's nodes 20..24 none either, so null maps leave
+    # nodes unmatched; continuous weights make each optimum unique with probability 1. With all
+    # weights in [1, 2) every maximum-weight matching has the largest cardinality.
+    rng = np.random.default_rng(21)
+    n = 25
+    ea = random_edges(n, 0.3, rng)
+    eb = random_edges(n, 0.3, rng)
+    pairs = np.array([(i, j) for i in range(20) for j in range(4, n) if abs(i + 4 - j) <= 2])
+    cand = build_candidates(pairs, np.ones(len(pairs)), n, n, top_k=None)
+    null, sizes = _null_by_hand(ea, eb, cand, 100, 0)
+    observed = int(np.median(null))  # ties with the null: ">=" counts them
+    got = candidate_permutation_test(ea, eb, cand, observed)  # defaults: 100 maps, seed 0
+    ge = int((null >= observed).sum())
+    assert ge > int((null > observed).sum())  # the instance has ties at the observed value
+    assert got == {"permutations": 100, "seed": 0, "observed": observed, "null_mean": pytest.approx(null.mean()),
+                   "null_sd": pytest.approx(null.std(ddof=1)), "null_max": int(null.max()),
+                   "null_matched_mean": pytest.approx(sizes.mean()), "at_least_observed": ge,
+                   "p_value": pytest.approx((1 + ge) / 101)}
+    assert sizes.max() == 20 < n  # A's nodes 20..24 stay unmatched in every null map
+    one = candidate_permutation_test(ea, eb, cand, observed, permutations=1, seed=4)
+    null1, _ = _null_by_hand(ea, eb, cand, 1, 4)
+    assert (one["null_sd"], one["null_max"], one["seed"]) == (None, int(null1[0]), 4)
+    none = candidate_permutation_test(ea, eb, cand, observed, permutations=0)
+    assert (none["null_mean"], none["null_sd"], none["null_max"], none["null_matched_mean"], none["p_value"]) == \
+        (None, None, None, None, 1.0)
+
+
+def test_significance_runs_the_permutation_test_only_when_asked():
+    rng = np.random.default_rng(3)
+    n = 12
+    ea = random_edges(n, 0.4, rng)
+    pairs = np.array([(i, j) for i in range(n) for j in range(n) if abs(i - j) <= 1])
+    cand = build_candidates(pairs, np.ones(len(pairs)), n, n, top_k=None)
+    matched = np.stack([np.arange(n), np.arange(n)], 1)
+    seen = []
+    out = significance(ea, ea, cand, matched, len(ea), permutations=7, seed=5, progress=lambda d, t: seen.append(t))
+    assert out["candidate_maps"] == candidate_permutation_test(ea, ea, cand, len(ea), permutations=7, seed=5)
+    assert seen == [7] * 7
+    assert out["random_bijection"] == random_bijection_moments(ea, ea, matched, n, n, len(ea))
+    assert significance(ea, ea, cand, matched, len(ea))["candidate_maps"] is None  # default: no maps
+    one = significance(ea, ea, cand, matched, len(ea), permutations=1)
+    assert one["candidate_maps"]["permutations"] == 1 and one["candidate_maps"]["seed"] == 0
+
+
+def test_z_score_and_report_keys():
+    # reference: mean and variance by enumeration of all 4! bijections (the published definition)
+    ea = np.array([[0, 1], [1, 2], [2, 3]])
+    eb = np.array([[0, 1], [0, 2], [0, 3]])
+    matched = np.stack([np.arange(4), np.arange(4)], 1)
+    adj = np.zeros((4, 4), bool)
+    adj[eb[:, 0], eb[:, 1]] = adj[eb[:, 1], eb[:, 0]] = True
+    counts = np.array([sum(adj[p[u], p[v]] for u, v in ea.tolist()) for p in itertools.permutations(range(4))])
+    got = random_bijection_moments(ea, eb, matched, 4, 4, observed=3)
+    assert set(got) == {"k", "edges_a_induced", "edges_b_induced", "mean", "variance", "sd", "observed", "z"}
+    assert (got["k"], got["edges_a_induced"], got["edges_b_induced"], got["observed"]) == (4, 3, 3, 3)
+    assert got["mean"] == pytest.approx(counts.mean()) and got["sd"] == pytest.approx(counts.std())
+    assert got["z"] == pytest.approx((3 - counts.mean()) / counts.std())
+    assert "z" not in random_bijection_moments(ea, eb, matched, 4, 4)
+    # a variance below 1 still gives a z-score: one edge each side, k = 3: C is 1 with probability 1/3
+    small = random_bijection_moments(np.array([[0, 1]]), np.array([[0, 1]]), matched[:3], 3, 3, observed=1)
+    assert small["sd"] == pytest.approx(math.sqrt(2) / 3) and small["z"] == pytest.approx((1 - 1 / 3) / small["sd"])
+
+
+def test_moments_are_zero_when_either_side_has_no_edge():
+    # common practice: with no edge on one side nothing can be conserved
+    assert moments_from_degrees(4, 3, [1, 2, 2, 1], 0, [0, 0, 0, 0]) == (0.0, 0.0)
+    assert moments_from_degrees(4, 0, [0, 0, 0, 0], 3, [1, 2, 2, 1]) == (0.0, 0.0)
+    assert moments_from_degrees(1, 1, [1], 1, [1]) == (0.0, 0.0)
