@@ -14,7 +14,8 @@ run one after the other until the time budget is spent; the run in progress is t
 (its finished mutants keep their verdicts) and the modules not reached are reported as such.
 
 The report (``report.md`` in ``--out``) gives, per module, the mutants killed, survived, timed
-out, without covering tests and not checked, the score (killed + timeout over checked), and the
+out, crashed, without covering tests and not checked, the score (caught over caught + survived,
+where a kill, a timeout and a crash all count as caught), and the
 diff of every surviving mutant. A mutant that survives is either equivalent (no test can tell
 it from the original: explain it in docs/testing.md) or a missing test.
 """
@@ -61,6 +62,8 @@ def _parse(argv: list[str] | None) -> argparse.Namespace:
     p.add_argument("--out", type=Path, default=ROOT / "bench_out" / "mutation",
                    help="scratch and report directory (default bench_out/mutation)")
     p.add_argument("--nice", type=int, default=10, help="niceness of the mutmut processes (default 10)")
+    p.add_argument("--report-only", action="store_true",
+                   help="write the report from the verdicts already in --out, without running mutmut")
     return p.parse_args(argv)
 
 
@@ -124,13 +127,13 @@ def _diff(work: Path, name: str) -> str:
 
 def _section(module: str, ended: str, verdicts: dict[str, str], work: Path, minutes: float) -> list[str]:
     count = {s: sum(v == s for v in verdicts.values()) for s in sorted(set(verdicts.values()))}
-    caught = count.get("killed", 0) + count.get("timeout", 0)
+    caught = count.get("killed", 0) + count.get("timeout", 0) + count.get("segfault", 0)
     checked = caught + count.get("survived", 0)
     score = f"{100 * caught / checked:.1f} %" if checked else "n/a"
     lines = [f"## aligner/core/{module}.py", "",
              f"- run: {ended}, {minutes:.1f} min; tests: {', '.join(MODULE_TESTS[module])}",
              f"- mutants: {len(verdicts)}; " + ", ".join(f"{k} {v}" for k, v in count.items()),
-             f"- score (killed + timeout) / (killed + timeout + survived): {score}", ""]
+             f"- score (killed + timeout + segfault) / (the same + survived): {score}", ""]
     for name in sorted(k for k, v in verdicts.items() if v == "survived"):
         lines += [f"### {name}", "", "```diff", _diff(work, name), "```", ""]
     return lines
@@ -149,6 +152,9 @@ def main(argv: list[str] | None = None) -> int:
             report += [f"## aligner/core/{module}.py", "", "- not run: the time budget was spent", ""]
             continue
         work = args.out / module
+        if args.report_only:
+            report += _section(module, "verdicts of an earlier run", _verdicts(work, module), work, 0.0)
+            continue
         _prepare(module, work)
         t0 = time.monotonic()
         ended = _run_mutmut(work, args, left)
