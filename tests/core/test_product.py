@@ -105,3 +105,12 @@ def test_shapes_and_defaults_when_the_last_pair_has_no_neighbour(directed):
     assert not sym.directed
     # A's last node (3) has no edge: the estimate must still cover it (bound 0 there)
     assert estimate_product_edges(ip, ix, ip, cand) >= prod.indptr[-1]
+
+
+def test_empty_product_keeps_direction_and_weights():
+    ia = np.array([0, 1, 2]); xa = np.array([1, 0], dtype=np.int32)
+    cand = build_candidates(np.empty((0, 2)), np.empty(0), 2, 2)
+    prod = build_product(ia, xa, ia, xa, cand, directed=True, a_weights=np.ones(2), b_weights=np.ones(2))
+    assert prod.directed is True and prod.weights is not None and prod.weights.shape == (0,)
+    prod = build_product(ia, xa, ia, xa, cand)
+    assert prod.directed is False and prod.weights is None

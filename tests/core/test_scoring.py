@@ -172,3 +172,16 @@ def test_conserved_per_node_against_networkx(rng):
     sub.add_edges_from(ea[cons].tolist())
     assert conserved_per_node(ea, cons, 31).tolist() == [sub.degree(v) for v in range(31)]
     assert conserved_per_node(ea, np.zeros(len(ea), bool), 4).tolist() == [0, 0, 0, 0]
+
+
+def test_conserved_mask_passes_the_node_count_and_direction_on():
+    # hand-worked: A edge (0,2); B edge (1,2); identity map: (0,2) is not an edge of B. (Keys
+    # that ignore the node count would make (0,2) and (1,2) look alike.)
+    assert conserved_mask(np.array([[0, 2]]), np.array([[1, 2]]), np.array([0, 1, 2]), 3).tolist() == [False]
+    ea = np.array([[0, 1], [1, 2]])
+    eb = np.array([[0, 1], [2, 1]])
+    f = np.array([0, 1, 2])
+    assert conserved_mask(ea, eb, f, 3).tolist() == [True, True]
+    assert conserved_mask(ea, eb, f, 3, directed=True).tolist() == [True, False]
+    # conserved_per_node counts whole edges: integers, also when nothing is conserved
+    assert conserved_per_node(ea, np.zeros(2, bool), 3).dtype.kind == "i"

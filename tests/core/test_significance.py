@@ -187,3 +187,14 @@ def test_moments_are_zero_when_either_side_has_no_edge():
     assert moments_from_degrees(4, 3, [1, 2, 2, 1], 0, [0, 0, 0, 0]) == (0.0, 0.0)
     assert moments_from_degrees(4, 0, [0, 0, 0, 0], 3, [1, 2, 2, 1]) == (0.0, 0.0)
     assert moments_from_degrees(1, 1, [1], 1, [1]) == (0.0, 0.0)
+
+
+def test_two_maps_have_a_standard_deviation():
+    rng = np.random.default_rng(8)
+    n = 10
+    ea = random_edges(n, 0.5, rng)
+    pairs = np.array([(i, j) for i in range(n) for j in range(n) if abs(i - j) <= 2])
+    cand = build_candidates(pairs, np.ones(len(pairs)), n, n, top_k=None)
+    got = candidate_permutation_test(ea, ea, cand, 3, permutations=2, seed=1)
+    null, _ = _null_by_hand(ea, ea, cand, 2, 1)
+    assert got["null_sd"] == pytest.approx(np.std(null, ddof=1))  # defined from two maps (numpy.std)

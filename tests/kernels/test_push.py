@@ -16,6 +16,7 @@ from aligner.core.candidates import build_candidates
 from aligner.core.diffusion import column_scale, diffuse, prior_vector
 from aligner.core.network import network_from_edges
 from aligner.core.product import build_product
+from aligner.errors import ConvergenceError
 from aligner.kernels.push import _push, _residual
 
 CASES = [(True, True), (False, True), (True, False), (False, False)]  # (directed, weighted)
@@ -192,3 +193,20 @@ def _weights_problem(directed, weighted, seed=20):
 
     W = np.kron(dense(n1, ua, va, wa), dense(n2, ub, vb, wb))[np.ix_(keep, keep)]
     return prod, scale, h, W
+
+
+@pytest.mark.parametrize("extra", [0, 3, 40])
+def test_work_cap_is_shared_by_the_sweeps_and_the_queue(extra):
+    # max_work caps sweeps and queue pushes together; the reference stops where the documented
+    # rule does, so the error carries the same step count and the same residual
+    alpha, tol = 0.85, 1e-12
+    prod, scale, h, W = _weights_problem(True, True)
+    cap = prod.m + extra  # every entry is active at the start: one full sweep fits, then `extra` pushes
+    x_ref, steps_ref, _ = _reference_solve(W, h, alpha, tol, diffusion.SWEEP_FRACTION, cap=cap)
+    s = W.sum(axis=1)
+    P = W.T * np.divide(1.0, s, out=np.zeros_like(s), where=s > 0)[None, :]
+    resid_ref = np.abs((1 - alpha) * h - x_ref + alpha * P @ x_ref).sum()
+    with pytest.raises(ConvergenceError) as info:
+        diffuse(prod, h, scale, alpha=alpha, tol=tol, max_work=cap)
+    assert info.value.iterations == steps_ref == cap
+    assert info.value.residual == pytest.approx(resid_ref, rel=1e-9)
