@@ -102,12 +102,17 @@ def _run_mutmut(work: Path, args: argparse.Namespace, seconds: float) -> str:
             proc.wait(timeout=max(seconds, 1.0))
             return f"finished (exit {proc.returncode})"
         except subprocess.TimeoutExpired:
-            os.killpg(proc.pid, signal.SIGINT)  # mutmut stops its workers and keeps the verdicts
-            try:
-                proc.wait(timeout=60)
-            except subprocess.TimeoutExpired:
-                os.killpg(proc.pid, signal.SIGKILL)
-                proc.wait()
+            # verdicts are saved after every mutant, so stopping loses at most the one running;
+            # mutmut 3.8 may ignore SIGINT while a worker runs, hence SIGTERM, then SIGKILL
+            for sig in (signal.SIGINT, signal.SIGTERM, signal.SIGKILL):
+                try:
+                    os.killpg(proc.pid, sig)
+                    proc.wait(timeout=20)
+                    break
+                except subprocess.TimeoutExpired:
+                    continue
+                except ProcessLookupError:
+                    break
             return "stopped at the time budget"
 
 
