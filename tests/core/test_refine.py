@@ -19,7 +19,7 @@ from aligner.core.candidates import build_candidates
 from aligner.core.diffusion import column_scale, diffuse, prior_vector
 from aligner.core.network import network_from_edges
 from aligner.core.product import build_product
-from aligner.core.refine import DEFAULT_BETA, normalise_weights, refine_matching
+from aligner.core.refine import DEFAULT_BETA, normalise_weights, refine_matching, refine_objective
 from aligner.core.rounding import round_matching
 from aligner.datasets.synthetic import powerlaw_graph, relabelled_pair
 
@@ -253,3 +253,75 @@ def test_rejects_bad_arguments():
         refine_matching(prod, cand, w, [0], step="half")
     res = refine_matching(prod, cand, w, [])
     assert sorted(res.index.tolist()) == [0, 2] and res.conserved_after == 1
+
+
+# --------------------------------------------------------------------------- contract details (from mutants)
+
+def _path_problem():
+    """A: path 0-1-2; B: the same path; every pair a candidate (9), unit weights."""
+    e = np.array([[0, 1], [1, 2]])
+    net = network_from_edges(np.arange(3), e[:, 0], e[:, 1])
+    cand = build_candidates([[i, j] for i in range(3) for j in range(3)], np.ones(9), 3, 3, top_k=None)
+    return cand, build_product(net.indptr, net.indices, net.indptr, net.indices, cand)
+
+
+def test_normalise_weights_divides_by_the_mean_positive_weight():
+    # documented: w / mean(w[w > 0]), and that mean; 1.0 when no weight is positive
+    w, s = normalise_weights([0.0, 1.0, 3.0])
+    assert s == 2.0 and w.tolist() == [0.0, 0.5, 1.5]
+    w, s = normalise_weights([0.25, 0.75])  # all below 1: the mean is still theirs
+    assert s == 0.5 and w.tolist() == [0.5, 1.5]
+    w, s = normalise_weights([0, 0])
+    assert s == 1.0 and w.tolist() == [0.0, 0.0] and w.dtype == np.float64
+
+
+def test_refine_objective_hand_worked():
+    # hand-worked on the path: the identity matching (0,0), (1,1), (2,2) conserves both edges;
+    # F = sum of bw over the matching + C. The map 0->2, 1->1, 2->0 conserves both as well;
+    # 0->1, 1->0, 2->2 conserves only (0,1) -> (1,0).
+    cand, prod = _path_problem()
+    bw = np.arange(9) / 10.0  # candidate k = 3 i + j
+    assert refine_objective(prod, bw, [0, 4, 8]) == (pytest.approx(1.2 + 2), 2)
+    assert refine_objective(prod, bw, [2, 4, 6]) == (pytest.approx(1.2 + 2), 2)
+    assert refine_objective(prod, bw, [1, 3, 8]) == (pytest.approx(1.2 + 1), 1)
+    assert refine_objective(prod, bw, []) == (0.0, 0)
+
+
+def test_refine_report_carries_the_run_figures():
+    cand, prod = _path_problem()
+    res = refine_matching(prod, cand, np.ones(9), [1, 3, 8])
+    got = res.report()
+    assert got == {"iterations": res.iterations, "rounds": res.rounds, "hit_cap": res.hit_cap,
+                   "local_moves": res.local_moves, "beta": res.beta, "w_scale": res.w_scale,
+                   "conserved_before": 1, "conserved_after": 2, "weight_before": 3.0, "weight_after": 3.0,
+                   "objective_before": res.objective[0], "objective_after": res.objective[-1],
+                   "seconds": round(res.seconds, 4)}
+    assert got["beta"] == DEFAULT_BETA and got["w_scale"] == 1.0
+    assert got["objective_before"] == pytest.approx(DEFAULT_BETA * 3 + 1)
+    assert got["objective_after"] == pytest.approx(DEFAULT_BETA * 3 + 2)
+
+
+def test_argument_messages_name_the_keyword():
+    cand, prod = _path_problem()
+    w = np.ones(9)
+    cases = [
+        (dict(index=[9]), "index", r"^index must be candidate indices in \[0, 9\); got 9$"),
+        (dict(index=[0, 1]), "index", r"^index must be a one-to-one matching of candidate pairs; got node 0 of A "
+                                      r"in 2 of its pairs$"),
+        (dict(index=[0, 3]), "index", r"^index must be a one-to-one matching of candidate pairs; got node 0 of B "
+                                      r"in 2 of its pairs$"),
+        (dict(w=np.ones(8)), "w", r"^w must have one entry per candidate pair \(9\); got 8$"),
+        (dict(w=np.r_[np.ones(8), -1.0]), "w", r"^w must be finite numbers >= 0; got -1\.0$"),
+    ]
+    for kw, param, pattern in cases:
+        args = {"w": w, "index": [0], **kw}
+        with pytest.raises(InvalidParameterError, match=pattern) as info:
+            refine_matching(prod, cand, args["w"], args["index"])
+        assert info.value.param == param
+    small = build_candidates([[0, 0]], [1.0], 3, 3, top_k=None)
+    with pytest.raises(InvalidParameterError, match=r"^prod must be the product graph over the 1 candidate pairs; "
+                                                    r"got one over 9 pairs$") as info:
+        refine_matching(prod, small, np.ones(1), [0])
+    assert info.value.param == "prod"
+    # a weight of 0 is allowed (no evidence is not an error)
+    assert refine_matching(prod, cand, np.r_[np.zeros(1), np.ones(8)], [0]).conserved_after >= 0
