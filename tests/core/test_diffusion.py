@@ -355,3 +355,13 @@ def test_column_scale_is_zero_where_a_pair_has_no_neighbour():
     np.testing.assert_array_equal(column_scale(prod, "product", deg_a=deg, deg_b=np.array([2, 4, 3]),
                                                pairs=cand.pairs), [0.5, 0.25, 0.0])
     assert column_scale(prod).dtype == np.float64
+
+
+def test_scores_are_floats_whatever_the_input_type():
+    # documented dtypes: h and x are float64, also when a caller passes integers
+    *_, cand, prod = _instance(3)
+    h = np.zeros(prod.m, dtype=np.int64)
+    h[0] = 1
+    res = diffuse(prod, h, column_scale(prod), alpha=0.0)
+    assert res.x.dtype == np.float64 and res.x.tolist() == h.tolist()
+    assert prior_vector(np.array([], dtype=np.int64)).dtype == np.float64
