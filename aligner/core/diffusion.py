@@ -126,8 +126,7 @@ def diffuse(
     tol : float > 0
         Target 1-norm of the residual (1 - alpha) h - (I - alpha P) x.
     solver : {"push", "power"}
-        ``push``: Gauss–Southwell relaxation with a FIFO work queue; ``power``: power
-        (Jacobi) iteration with sparse matrix–vector products, the reference.
+        ``push``: Gauss–Southwell relaxation (work queue); ``power``: Jacobi iteration.
     x0 : ndarray, optional
         A warm start.
     max_work : int, optional
@@ -146,10 +145,8 @@ def diffuse(
 
     Notes
     -----
-    P is column sub-stochastic, so ||(I - alpha P)^{-1}||_1 <= 1 / (1 - alpha) and
-    ||x - x*||_1 <= ||r||_1 / (1 - alpha). The solvers: :func:`_solve_push`, :func:`_solve_power`.
-
-    See the module docstring for the references.
+    P is column sub-stochastic, so ||x - x*||_1 <= ||r||_1 / (1 - alpha). Solvers:
+    :func:`_solve_push`, :func:`_solve_power`; references in the module docstring.
     """
     alpha = check_real(alpha, "alpha", low=0.0, high=1.0, closed="left")
     tol = check_real(tol, "tol", low=0.0, closed="neither")
@@ -158,9 +155,8 @@ def diffuse(
     t0 = time.perf_counter()
     if alpha == 0.0 or graph.m == 0:
         return DiffusionResult(h.copy(), solver, alpha, tol, 0, 0, 0.0, 0.0, time.perf_counter() - t0)
-    b = (1.0 - alpha) * h
+    b, r = (1.0 - alpha) * h, np.empty(graph.m)
     x = np.zeros(graph.m) if x0 is None else np.array(x0, dtype=np.float64)
-    r = np.empty(graph.m)
     _exact_residual(graph, scale, alpha, x, b, r)
     solve = _solve_push if solver == "push" else _solve_power
     x, steps, touches = solve(graph, scale, alpha, tol, x, r, b, max_work)
