@@ -325,3 +325,26 @@ def test_argument_messages_name_the_keyword():
     assert info.value.param == "prod"
     # a weight of 0 is allowed (no evidence is not an error)
     assert refine_matching(prod, cand, np.r_[np.zeros(1), np.ones(8)], [0]).conserved_after >= 0
+
+
+@pytest.mark.parametrize("kw, pattern", [
+    ({"beta": -0.5}, r"^beta must be a number in \[0, inf\); got -0\.5$"),
+    ({"max_iter": -1}, r"^max_iter must be a whole number >= 0; got -1$"),
+    ({"patience": 0}, r"^patience must be a whole number >= 1; got 0$"),
+    ({"rounds": 0}, r"^rounds must be a whole number >= 1; got 0$"),
+    ({"local_sweeps": -1}, r"^local_sweeps must be a whole number >= 0; got -1$"),
+    ({"step": "half"}, r"^step must be one of line, unit; got 'half'$"),
+])
+def test_option_messages_name_the_keyword(kw, pattern):
+    cand, prod = _path_problem()
+    with pytest.raises(InvalidParameterError, match=pattern) as info:
+        refine_matching(prod, cand, np.ones(9), [0], **kw)
+    assert info.value.param == next(iter(kw))
+
+
+def test_option_bounds_are_inclusive():
+    # max_iter 0, patience 1, rounds 1, local_sweeps 0 and beta 0 are all allowed
+    cand, prod = _path_problem()
+    res = refine_matching(prod, cand, np.ones(9), [1, 3, 8], beta=0.0, max_iter=0, patience=1, rounds=1,
+                          local_sweeps=0)
+    assert res.iterations == 0 and res.beta == 0.0 and res.conserved_after >= res.conserved_before
