@@ -164,14 +164,6 @@ def test_summary_keys_and_solver_agreement():
     assert r1.scores.nc > 0.95
 
 
-def test_score_api_matches_align(tmp_path):
-    a, b, prior, truth = _relabelled(100, seed=11, noise=0.1)
-    res = aligner.align(a, b, prior, truth=truth)
-    sc, cons = aligner.score(a, b, res.pairs, truth=truth)
-    assert sc == res.scores
-    assert len(cons) == res.scores.conserved_edges
-
-
 def test_signature_shows_every_declared_option_with_its_default():
     # Source: the declarations in aligner.config; help() and IDEs read inspect.signature.
     import inspect

@@ -316,7 +316,7 @@ def _reset_slots(slot, gids):
 # --------------------------------------------------------------------------- seed expansion
 
 @numba.njit(cache=True, nogil=True)
-def _witness_rows(a_indptr, a_indices, b_indptr, b_indices, mate_a, mate_b, rows, kcap, deg_a, deg_b,
+def witness_rows(a_indptr, a_indices, b_indptr, b_indices, mate_a, mate_b, rows, kcap, deg_a, deg_b,
                   skip_matched):
     """For every node j of A in ``rows``: its best ``kcap`` partners j' by witness count.
 

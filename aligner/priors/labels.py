@@ -41,8 +41,8 @@ Cost: the vectoriser is linear in the total label length. The kernel does, per r
 g) and a merge for each touched column; without the filter this would be
 ``sum_g df_A(g) df_B(g)``, nearly ``n_A n_B`` times the n-grams per label, since common
 n-grams (``" co"``, ``"ltd"``) are in most labels. The head still holds words shared by many
-labels (an industry word), so the time grows about as ``n_A n_B``; ``scripts/bench_labels.py``
-measures it on the names of ``scripts/make_registry_demo.py``. Memory
+labels (an industry word), so the time grows about as ``n_A n_B``; ``scripts/bench/bench_labels.py``
+measures it on the names of ``scripts/data/make_demo.py --scenario registry``. Memory
 ``O(nnz(X) + n_B + block_rows * top_k)`` per pass, plus the output: no n_A x n_B array of any
 kind.
 """
@@ -288,7 +288,7 @@ def label_prior(labels_a, labels_b, *, top_k: int = 10, min_similarity: float = 
     same pairs as a dense ``cosine_similarity`` and a per-row sort, up to rounding in the last
     bits); the n_A x n_B matrix is never formed. The weighting, the search (prefix filtering
     over n-grams numbered from the rarest) and its cost are described in the module
-    docstring; ``scripts/bench_labels.py`` measures the time.
+    docstring; ``scripts/bench/bench_labels.py`` measures the time.
 
     Examples
     --------

@@ -21,7 +21,7 @@ from dataclasses import dataclass, field
 import numpy as np
 import numpy.typing as npt
 
-from aligner.kernels.query import _witness_rows
+from aligner.kernels.query import witness_rows
 from aligner.checks import check_int, check_real
 from aligner.core.candidates import CandidateSet, build_candidates
 from aligner.errors import InputFormatError, InvalidParameterError
@@ -330,7 +330,7 @@ def _grow(net_a: Network, net_b: Network, mate_a: np.ndarray, mate_b: np.ndarray
         rows = _frontier(net_a, mate_a >= 0)
         if len(rows) == 0:
             break
-        p, c, d = _witness_rows(net_a.indptr, net_a.indices, net_b.indptr, net_b.indices, mate_a, mate_b,
+        p, c, d = witness_rows(net_a.indptr, net_a.indices, net_b.indptr, net_b.indices, mate_a, mate_b,
                                 rows.astype(np.int64), kcap, deg_a, deg_b, True)
         keep = c >= floor
         if not keep.any():
@@ -360,7 +360,7 @@ def _final_candidates(net_a: Network, net_b: Network, mate_a: np.ndarray, mate_b
     n1, n2 = net_a.n, net_b.n
     rows = np.arange(n1, dtype=np.int64)
     k_final = top_k if top_k is not None else 50
-    p, c, d = _witness_rows(net_a.indptr, net_a.indices, net_b.indptr, net_b.indices, mate_a, mate_b, rows,
+    p, c, d = witness_rows(net_a.indptr, net_a.indices, net_b.indptr, net_b.indices, mate_a, mate_b, rows,
                             k_final, net_a.degree.astype(np.int64), net_b.degree.astype(np.int64), False)
     prov_a = np.flatnonzero(mate_a >= 0)
     prov = np.stack([prov_a, mate_a[prov_a]], axis=1)

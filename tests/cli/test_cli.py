@@ -46,17 +46,6 @@ def test_existing_output_refused_unless_force(tmp_path):
     assert _align(tmp_path, "--force").exit_code == 0
 
 
-def test_score_command_reproduces_align_scores(tmp_path):
-    assert _align(tmp_path).exit_code == 0
-    summary = json.loads((tmp_path / "out" / "summary.json").read_text())
-    res = runner.invoke(app, ["score", str(DEMO / "network_a.tsv"), str(DEMO / "network_b.tsv"),
-                              str(tmp_path / "out" / "alignment.tsv"), "--truth", str(DEMO / "truth.tsv"), "--json"])
-    assert res.exit_code == 0, res.output
-    got = json.loads(res.output)
-    for key in ("conserved_edges", "ec", "ics", "s3", "nc", "lccs_nodes", "lccs_edges"):
-        assert got[key] == pytest.approx(summary["scores"][key]), key
-
-
 def test_demo_runs_from_any_directory(tmp_path, monkeypatch):
     monkeypatch.chdir(tmp_path)
     res = runner.invoke(app, ["demo", "-o", "demo_out"])

@@ -43,7 +43,7 @@ def test_lone_candidate_is_fully_confident_and_tie_is_zero():
 
 
 def test_align_reports_confidence_column():
-    # reference: the documented output table (README "Outputs")
+    # reference: the documented output table (docs/formats.md, "alignment.tsv")
     import networkx as nx
 
     g = nx.cycle_graph(6)

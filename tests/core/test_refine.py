@@ -2,7 +2,7 @@
 
 Measured values quoted in comments were taken with the defaults of ``refine_matching``
 (beta 0.1, 30 iterations, line search, 3-rotations on) and the default pipeline (alpha 0.9,
-top_k 25); see scripts/bench_refine.py for the full tables.
+top_k 25); see scripts/bench/bench_refine.py for the full tables.
 """
 
 from pathlib import Path

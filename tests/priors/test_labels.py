@@ -214,7 +214,7 @@ def test_registry_demo_structure_beats_labels_alone(tmp_path):
             both = align(d / "network_a.tsv", d / "network_b.tsv", prior, truth=d / "truth.tsv")
     assert len(shipped) == len(prior)
     np.testing.assert_allclose(shipped["score"], prior["score"], atol=1e-6)
-    # measured (scripts/bench_labels.py): labels alone NC 0.7193 EC 0.5101;
+    # measured (scripts/bench/bench_labels.py): labels alone NC 0.7193 EC 0.5101;
     # structure + labels NC 0.9900 EC 0.9366
     assert 0.6 <= alone.scores.nc <= 0.85
     assert both.scores.nc > alone.scores.nc + 0.2

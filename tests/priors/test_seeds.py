@@ -40,7 +40,7 @@ def test_no_prior_five_percent_seeds_recover_the_copy():
     # Common practice (recovery of a planted alignment): 2,000-node power-law pair, 5 % of the edges
     # moved, no prior, 5 % of the true pairs as seeds. Measured NC on the non-seed nodes: 1.0000 for
     # five seed draws of this instance (0.9989 to 1.0000 without the refinement stage; 0.998 to
-    # 1.000 over the instances of scripts/bench_seeds.py); asserted with margin at 0.97 (the
+    # 1.000 over the instances of scripts/bench/bench_seeds.py); asserted with margin at 0.97 (the
     # requested floor is 0.9).
     a, b, truth, _ = _pair(2000, 0.05, seed=21)
     seeds = _sample(truth, 0.05, seed=3)
@@ -54,7 +54,7 @@ def test_no_prior_five_percent_seeds_recover_the_copy():
 def test_more_seeds_more_correct_nodes():
     # Common practice (the seed curve): on a sparser pair with 15 % of the edges moved, NC over
     # the non-seed nodes is higher with 10 % seeds than with 1 % (measured 0.768 and 0.960 on this
-    # instance; the curve is in the README).
+    # instance; the curve is in docs/results.md, "Anchor pairs").
     a, b, truth, _ = _pair(1000, 0.15, seed=5, m=3)
     got = []
     for frac in (0.01, 0.10):

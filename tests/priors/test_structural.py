@@ -186,7 +186,7 @@ def test_combine_priors_by_hand():
 # --------------------------------------------------------------------------- pipeline
 
 def test_pipeline_without_prior_powerlaw_one_percent_noise():
-    # measured with scripts/bench_structural.py (graph powerlaw, n 2000, noise 0.01, seed 0,
+    # measured with scripts/bench/bench_structural.py (graph powerlaw, n 2000, noise 0.01, seed 0,
     # k 25, align defaults): NC 0.978; threshold is that minus a margin of 0.05
     n = 2000
     pair = relabelled_pair(powerlaw_graph(n, seed=0), n, noise=0.01, seed=1000)
