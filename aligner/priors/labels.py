@@ -62,6 +62,7 @@ import scipy.sparse as sp
 
 import aligner.kernels.labels as _k
 from aligner.checks import bad_parameter, check_int, check_real
+from aligner.config import LabelConfig
 from aligner.errors import InputFormatError, InvalidParameterError
 from aligner.io.inputs import as_table
 from aligner.io.readers import check_readable, open_text
@@ -249,7 +250,7 @@ def _csr(x) -> sp.csr_array:
     return x
 
 
-def label_prior(labels_a, labels_b, *, top_k: int = 10, min_similarity: float = 0.1,
+def label_prior(labels_a, labels_b, *, top_k: int = LabelConfig.top_k, min_similarity: float = LabelConfig.min_similarity,
                 ngram_range: tuple[int, int] = (2, 4), block_rows: int | None = None) -> pd.DataFrame:
     """A prior table from two label sets: character n-gram TF-IDF cosine similarity.
 

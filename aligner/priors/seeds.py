@@ -23,6 +23,7 @@ import numpy.typing as npt
 
 from aligner.kernels.query import witness_rows
 from aligner.checks import check_int, check_real
+from aligner.config import AlignConfig
 from aligner.core.candidates import CandidateSet, build_candidates
 from aligner.errors import InputFormatError, InvalidParameterError
 from aligner.core.network import Network
@@ -37,7 +38,7 @@ __all__ = ["SeedTable", "SeedExpansion", "read_seeds", "as_seeds", "add_seed_pai
 
 #: Default total mass of the seed pairs in h, relative to the prior's (which sums to 1): the
 #: seeds together weigh as much as the whole prior.
-DEFAULT_SEED_WEIGHT = 1.0
+DEFAULT_SEED_WEIGHT: float = AlignConfig.seed_weight  # declared once, in aligner.config
 #: Default cap on the rounds of :func:`expand_from_seeds`.
 DEFAULT_MAX_ROUNDS = 100
 
