@@ -16,7 +16,7 @@ from dataclasses import dataclass
 
 import numpy as np
 import numpy.typing as npt
-from aligner.kernels.push import _push, _residual
+from aligner.kernels.push import _push, _push_pass, _residual, _sub_rows
 from aligner.checks import check_choice, check_int, check_real
 from aligner.errors import ConvergenceError
 from aligner.core.network import row_sums
@@ -25,8 +25,9 @@ from aligner.core.product import ProductGraph
 __all__ = ["DiffusionResult", "diffuse", "column_scale", "prior_vector", "default_work_cap"]
 
 SOLVERS = ("push", "power")
-#: the push solver sweeps all active entries at once while at least this share of them is active
-SWEEP_FRACTION = 0.25
+#: the push solver hands over from passes in index order to its work queue when a pass pushes
+#: fewer than this share of the entries it visits
+QUEUE_FRACTION = 0.05
 NORMALIZATIONS = ("restricted", "product")
 
 
@@ -193,38 +194,54 @@ def _check_converged(solver: str, tol: float, x: npt.NDArray[np.float64], resid:
 
 
 def _solve_push(graph: ProductGraph, scale, alpha: float, tol: float, x, r, b, max_work: int | None):
-    """Push solver: vectorised sweeps while many entries are active, then the FIFO queue.
+    """Push solver: passes in index order while many entries are active, then the FIFO queue.
 
     Push keeps the invariant x* = x + (I - alpha P)^{-1} r; an entry l is pushed while
-    |r_l| > tol * (deg_l + 1) / sum(deg + 1), so at a normal exit ||r||_1 <= tol. While at
-    least ``SWEEP_FRACTION`` of the entries are active, all of them are pushed at once in one
-    vectorised sweep (the same pushes, applied together: a Jacobi step, streaming through
-    memory); the queue kernel then finishes the solve, so a localized residual costs only
-    what it touches. Each push of r_l lowers ||r||_1 by at least (1 - alpha) |r_l| when
-    residuals share a sign (they do without a warm start), which bounds the work by
-    O(log(1/tol) * |product edges| / (1 - alpha)). Returns (x, pushes, edge touches).
+    |r_l| > tol * (deg_l + 1) / sum(deg + 1), so at a normal exit ||r||_1 <= tol. When at least
+    ``QUEUE_FRACTION`` of the entries are active, a first pass visits every entry in index order
+    and pushes each active one as it is reached (Gauss–Seidel order, streaming through memory).
+    Only the receivers (entries with an in-neighbour) can become active again, so the solve
+    continues on them alone, renumbered 0..n-1 to keep the random accesses of a push in a small
+    working set (the neighbours of a receiver are receivers). Passes over them go on while the
+    previous pass pushed at least ``QUEUE_FRACTION`` of them; the queue kernel then finishes, so a
+    localized residual costs only what it touches. Each push of r_l lowers ||r||_1 by at least
+    (1 - alpha) |r_l| when residuals share a sign (they do without a warm start), which bounds
+    the work by O(log(1/tol) * |product edges| / (1 - alpha)). ``max_work`` caps the pushes of
+    the passes and the queue together. Returns (x, pushes, edge touches).
     """
     m = graph.m
     deg = graph.degree.astype(np.float64) + 1.0
     thresh = tol * deg / deg.sum()
     cap = check_int(default_work_cap("push", m, alpha, tol) if max_work is None else max_work, "max_work", low=0)
-    steps = touches = 0
-    P = None
-    while steps < cap:
-        active = np.abs(r) > thresh
-        n_active = int(np.count_nonzero(active))
-        if n_active < SWEEP_FRACTION * m or steps + n_active > cap:
-            break
-        if P is None:
-            P = graph.transition(scale, alpha)
-        delta = np.where(active, r, 0.0)
-        x += delta
-        r += P @ delta - delta
-        steps += n_active
-        touches += int(graph.indptr[-1])
     wts = np.empty(0) if graph.weights is None else graph.weights
-    pushes, t2, _ = _push(graph.indptr, graph.indices, wts, scale, alpha, x, r, thresh, max(cap - steps, 0))
-    return x, steps + pushes, touches + t2
+    if np.count_nonzero(np.abs(r) > thresh) < QUEUE_FRACTION * m:
+        pushes, touches, _ = _push(graph.indptr, graph.indices, wts, scale, alpha, x, r, thresh, cap)
+        return x, pushes, touches
+    steps, touches = _push_pass(graph.indptr, graph.indices, wts, scale, alpha, x, r, thresh,
+                                np.arange(m, dtype=np.int64), cap)
+    live = _receivers(graph)
+    new_id = np.full(m, -1, dtype=np.int32)
+    new_id[live] = np.arange(len(live), dtype=np.int32)
+    indptr, indices, w = _sub_rows(graph.indptr, graph.indices, wts, live, new_id)
+    xs, rs, ts, ss = x[live], r[live], thresh[live], scale[live]
+    order = np.arange(len(live), dtype=np.int64)
+    pushes = len(live)
+    while steps < cap and pushes > 0 and pushes >= QUEUE_FRACTION * len(live):
+        pushes, t = _push_pass(indptr, indices, w, ss, alpha, xs, rs, ts, order, cap - steps)
+        steps += pushes
+        touches += t
+    pushes, t, _ = _push(indptr, indices, w, ss, alpha, xs, rs, ts, max(cap - steps, 0))
+    x[live], r[live] = xs, rs
+    return x, steps + pushes, touches + t
+
+
+def _receivers(graph: ProductGraph) -> npt.NDArray[np.int64]:
+    """The entries with at least one in-neighbour (the only ones a push can make active), ascending."""
+    if graph.directed:
+        has_in = np.bincount(graph.indices, minlength=graph.m) > 0
+    else:
+        has_in = graph.degree > 0
+    return np.flatnonzero(has_in)
 
 
 def _solve_power(graph: ProductGraph, scale, alpha: float, tol: float, x, r, b, max_work: int | None):

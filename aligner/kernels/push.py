@@ -80,3 +80,61 @@ def _residual(indptr, indices, weights, col_scale, alpha, x, b, out):
     for k in range(m):
         s += abs(out[k])
     return s
+
+
+@numba.njit(cache=True, nogil=True)
+def _push_pass(indptr, indices, weights, col_scale, alpha, x, r, thresh, order, pushes_left):
+    """One pass of push in index order over the entries listed in ``order``.
+
+    Every listed entry l with |r[l]| > thresh[l] is pushed at once (x[l] += r[l], r[l] = 0,
+    every listed neighbour k of l gains alpha * P[k, l] * r[l], as in :func:`_push`), so
+    residual sent to an entry later in the order is pushed in the same pass (Gauss–Seidel
+    order). Stops after ``pushes_left`` pushes. Returns (pushes, edge touches).
+    """
+    weighted = weights.shape[0] > 0
+    pushes = 0
+    touches = 0
+    for q in range(order.shape[0]):
+        l = order[q]
+        rl = r[l]
+        if abs(rl) <= thresh[l]:
+            continue
+        if pushes >= pushes_left:
+            break
+        x[l] += rl
+        r[l] = 0.0
+        pushes += 1
+        w = alpha * rl * col_scale[l]
+        lo = indptr[l]
+        hi = indptr[l + 1]
+        touches += hi - lo
+        if weighted:
+            for t in range(lo, hi):
+                r[indices[t]] += w * weights[t]
+        else:
+            for t in range(lo, hi):
+                r[indices[t]] += w
+    return pushes, touches
+
+
+@numba.njit(cache=True, nogil=True)
+def _sub_rows(indptr, indices, weights, rows, new_id):
+    """The CSR rows ``rows`` of a graph, renumbered by ``new_id`` (every listed neighbour of a
+    listed row must have new_id >= 0). Returns (indptr, indices, weights)."""
+    n = rows.shape[0]
+    weighted = weights.shape[0] > 0
+    out_ptr = np.zeros(n + 1, dtype=np.int64)
+    for q in range(n):
+        l = rows[q]
+        out_ptr[q + 1] = out_ptr[q] + indptr[l + 1] - indptr[l]
+    out_idx = np.empty(out_ptr[n], dtype=np.int32)
+    out_w = np.empty(out_ptr[n] if weighted else 0, dtype=np.float64)
+    for q in range(n):
+        l = rows[q]
+        p = out_ptr[q]
+        for t in range(indptr[l], indptr[l + 1]):
+            out_idx[p] = new_id[indices[t]]
+            if weighted:
+                out_w[p] = weights[t]
+            p += 1
+    return out_ptr, out_idx, out_w

@@ -150,7 +150,7 @@ def test_push_that_stops_early_or_returns_nan_raises(monkeypatch, fault):
     *_, cand, prod = _instance(3)
     h = prior_vector(cand.prior)
     monkeypatch.setattr(diffusion, "_push", fault)
-    monkeypatch.setattr(diffusion, "SWEEP_FRACTION", 2.0)  # no sweeps: the kernel alone
+    monkeypatch.setattr(diffusion, "QUEUE_FRACTION", 2.0)  # no passes: the queue kernel alone
     with pytest.raises(ConvergenceError) as info:
         diffuse(prod, h, column_scale(prod), alpha=0.9, tol=1e-8)
     if fault is _early_exit_push:
@@ -335,7 +335,7 @@ def test_convergence_messages_name_the_cause_and_the_way_out(monkeypatch):
     assert str(info.value).startswith("the push solver stopped before the residual tolerance 1e-12; raise "
                                       "max_work or the tolerance, or lower alpha (stopped after 5 steps")
     monkeypatch.setattr(diffusion, "_push", _nan_push)
-    monkeypatch.setattr(diffusion, "SWEEP_FRACTION", 2.0)
+    monkeypatch.setattr(diffusion, "QUEUE_FRACTION", 2.0)
     with pytest.raises(ConvergenceError) as info:
         diffuse(prod, h, column_scale(prod), alpha=0.9, tol=1e-8)
     assert str(info.value).startswith("the push solver produced a score or residual that is not a finite "

@@ -1,9 +1,10 @@
-"""The queue-phase push kernel on its own, against a direct sparse solve.
+"""The push kernels on their own, against a direct sparse solve.
 
-In a normal solve the vectorised sweeps of :func:`aligner.core.diffusion.diffuse` do most of
-the work before the queue kernel starts, so a fault in the kernel's own arithmetic (say, a
-push that ignores the edge weights) can hide behind them. Here the kernel solves the whole
-system from x = 0, and so does ``diffuse`` with the sweeps switched off.
+In a normal solve the passes in index order of :func:`aligner.core.diffusion.diffuse` do most
+of the work before the queue kernel starts, so a fault in the queue kernel's own arithmetic
+(say, a push that ignores the edge weights) can hide behind them, and the other way round.
+Here each kernel solves the whole system from x = 0, and so does ``diffuse`` with the passes
+switched off and with the queue left only the last few pushes.
 """
 
 import numpy as np
@@ -17,7 +18,7 @@ from aligner.core.diffusion import column_scale, diffuse, prior_vector
 from aligner.core.network import network_from_edges
 from aligner.core.product import build_product
 from aligner.errors import ConvergenceError
-from aligner.kernels.push import _push, _residual
+from aligner.kernels.push import _push, _push_pass, _residual, _sub_rows
 
 CASES = [(True, True), (False, True), (True, False), (False, False)]  # (directed, weighted)
 
@@ -89,8 +90,60 @@ def test_queue_kernel_alone_equals_spsolve(directed, weighted, alpha):
 
 
 @pytest.mark.parametrize("directed,weighted", CASES)
-def test_diffuse_without_sweeps_equals_spsolve(monkeypatch, directed, weighted):
-    monkeypatch.setattr(diffusion, "SWEEP_FRACTION", 2.0)  # never sweep: the queue does it all
+@pytest.mark.parametrize("alpha", [0.5, 0.9])
+def test_pass_kernel_alone_equals_spsolve(directed, weighted, alpha):
+    # passes in index order until none pushes: Gauss–Seidel order of push; the same invariant
+    # x* = x + (I - alpha P)^{-1} r holds, so at the exit the scores agree with a direct solve
+    prod, scale, h, P = _problem(directed, weighted)
+    want = spsolve(sp.csc_matrix(np.eye(len(h)) - alpha * P), (1 - alpha) * h)
+    wts = np.empty(0) if prod.weights is None else prod.weights
+    x, r = np.zeros(prod.m), (1 - alpha) * h
+    thresh = np.full(prod.m, 1e-15)
+    order = np.arange(prod.m, dtype=np.int64)
+    total = 0
+    for _ in range(10_000):
+        pushes, _touches = _push_pass(prod.indptr, prod.indices, wts, scale, alpha, x, r, thresh, order, 10**8)
+        total += pushes
+        if pushes == 0:
+            break
+    assert total > prod.m and np.all(np.abs(r) <= 1e-15)
+    np.testing.assert_allclose(x, want, rtol=0, atol=1e-12)
+    out = np.empty(prod.m)
+    _residual(prod.indptr, prod.indices, wts, scale, alpha, x, (1 - alpha) * h, out)
+    np.testing.assert_allclose(out, r, atol=1e-14)
+
+
+@pytest.mark.parametrize("directed,weighted", CASES)
+def test_sub_rows_equals_scipy_submatrix(directed, weighted):
+    # the receivers' rows renumbered: the same matrix as scipy's row-and-column selection
+    prod, *_ = _problem(directed, weighted)
+    wts = np.empty(0) if prod.weights is None else prod.weights
+    live = np.flatnonzero(np.bincount(prod.indices, minlength=prod.m) > 0)
+    new_id = np.full(prod.m, -1, dtype=np.int32)
+    new_id[live] = np.arange(len(live), dtype=np.int32)
+    ip, ix, w = _sub_rows(prod.indptr, prod.indices, wts, live, new_id)
+    got = sp.csr_array((w if weighted else np.ones(len(ix)), ix, ip), shape=(len(live), len(live)))
+    full = sp.csr_array((prod.entry_weights(), prod.indices, prod.indptr), shape=(prod.m, prod.m))
+    want = full[live][:, live]
+    assert len(live) < prod.m or not directed  # a guard on the instance: some rows are dropped when directed
+    assert full[live].nnz == want.nnz  # the receivers' neighbours are receivers
+    np.testing.assert_array_equal(got.toarray(), want.toarray())
+
+
+@pytest.mark.parametrize("directed,weighted", CASES)
+def test_diffuse_with_passes_only_equals_spsolve(monkeypatch, directed, weighted):
+    monkeypatch.setattr(diffusion, "QUEUE_FRACTION", 0.0)  # passes until converged, the queue finds nothing
+    alpha = 0.85
+    prod, scale, h, P = _problem(directed, weighted, seed=10)
+    want = spsolve(sp.csc_matrix(np.eye(len(h)) - alpha * P), (1 - alpha) * h)
+    res = diffuse(prod, h, scale, alpha=alpha, tol=1e-12)
+    assert res.steps > prod.m and res.residual <= 1e-12
+    np.testing.assert_allclose(res.x, want, rtol=0, atol=1e-11)
+
+
+@pytest.mark.parametrize("directed,weighted", CASES)
+def test_diffuse_without_passes_equals_spsolve(monkeypatch, directed, weighted):
+    monkeypatch.setattr(diffusion, "QUEUE_FRACTION", 2.0)  # no passes: the queue does it all
     alpha = 0.85
     prod, scale, h, P = _problem(directed, weighted, seed=10)
     want = spsolve(sp.csc_matrix(np.eye(len(h)) - alpha * P), (1 - alpha) * h)
@@ -111,12 +164,14 @@ def test_weights_change_the_answer():
 
 # --------------------------------------------------------------------------- the work, counted by a reference
 
-def _reference_solve(W, h, alpha, tol, sweep_fraction, cap=10**9):
-    """The push solver as documented (diffuse and aligner.kernels.push._push), in plain Python.
+def _reference_solve(W, h, alpha, tol, queue_fraction, cap=10**9):
+    """The push solver as documented (diffuse and aligner.kernels.push), in plain Python.
 
     W[l, k] is the weight of the product arc l -> k; P[k, l] = W[l, k] / s_l with s_l the row sum
-    (the walk of Singh, Xu & Berger 2008). Thresholds tol (deg_l + 1) / sum(deg + 1); vectorised
-    sweeps (Jacobi steps) while at least ``sweep_fraction`` of the entries are active, then a FIFO
+    (the walk of Singh, Xu & Berger 2008). Thresholds tol (deg_l + 1) / sum(deg + 1). When at
+    least ``queue_fraction`` of the entries are active: one pass over all entries in index order,
+    pushing each active entry as it is reached, then passes over the receivers (entries with an
+    in-neighbour) while the previous pass pushed at least ``queue_fraction`` of them; then a FIFO
     queue of single pushes (Andersen, Chung & Lang 2006). Returns x, pushes, edge touches.
     """
     from collections import deque
@@ -126,47 +181,57 @@ def _reference_solve(W, h, alpha, tol, sweep_fraction, cap=10**9):
     scale = np.divide(1.0, s, out=np.zeros_like(s), where=s > 0)
     deg = (W != 0).sum(axis=1) + 1.0
     th = tol * deg / deg.sum()
-    P = alpha * W.T * scale[None, :]
-    nnz = int((W != 0).sum())
     x, r = np.zeros(m), (1 - alpha) * h.copy()
-    steps = touches = 0
-    while steps < cap:
-        active = np.abs(r) > th
-        if active.sum() < sweep_fraction * m or steps + active.sum() > cap:
-            break
-        delta = np.where(active, r, 0.0)
-        x += delta
-        r += P @ delta - delta
-        steps += int(active.sum())
-        touches += nnz
-    queue = deque(l for l in range(m) if abs(r[l]) > th[l])
-    inq = np.zeros(m, bool)
-    inq[list(queue)] = True
-    while queue and steps < cap:
-        l = queue.popleft()
-        inq[l] = False
+    work = {"steps": 0, "touches": 0}
+
+    def push(l):
         rl = r[l]
-        if abs(rl) <= th[l]:
-            continue
         x[l] += rl
         r[l] = 0.0
-        steps += 1
-        w = alpha * rl * scale[l]
+        work["steps"] += 1
         nbrs = np.flatnonzero(W[l])
-        touches += len(nbrs)
+        work["touches"] += len(nbrs)
         for k in nbrs:
-            r[k] += w * W[l, k]
+            r[k] += alpha * rl * scale[l] * W[l, k]
+        return nbrs
+
+    def one_pass(entries):
+        pushed = 0
+        for l in entries:
+            if abs(r[l]) > th[l]:
+                if work["steps"] >= cap:
+                    break
+                push(l)
+                pushed += 1
+        return pushed
+
+    entries = range(m)
+    if (np.abs(r) > th).sum() >= queue_fraction * m:
+        one_pass(range(m))
+        entries = [k for k in range(m) if W[:, k].any()]
+        pushed = len(entries)
+        while work["steps"] < cap and pushed > 0 and pushed >= queue_fraction * len(entries):
+            pushed = one_pass(entries)
+    queue = deque(l for l in entries if abs(r[l]) > th[l])
+    inq = np.zeros(m, bool)
+    inq[list(queue)] = True
+    while queue and work["steps"] < cap:
+        l = queue.popleft()
+        inq[l] = False
+        if abs(r[l]) <= th[l]:
+            continue
+        for k in push(l):
             if not inq[k] and abs(r[k]) > th[k]:
                 queue.append(k)
                 inq[k] = True
-    return x, steps, touches
+    return x, work["steps"], work["touches"]
 
 
 @pytest.mark.parametrize("directed,weighted", CASES)
-@pytest.mark.parametrize("fraction", [2.0, 0.25, 0.6])
+@pytest.mark.parametrize("fraction", [2.0, 0.05, 0.6, 0.0])
 def test_pushes_and_touches_counted_as_documented(monkeypatch, directed, weighted, fraction):
-    # fraction 2.0: the queue alone; 0.25: the shipped rule; 0.6: fewer sweeps
-    monkeypatch.setattr(diffusion, "SWEEP_FRACTION", fraction)
+    # fraction 2.0: the queue alone; 0.05: the shipped rule; 0.6: fewer passes; 0.0: passes only
+    monkeypatch.setattr(diffusion, "QUEUE_FRACTION", fraction)
     alpha, tol = 0.85, 1e-9
     prod, scale, h, W = _weights_problem(directed, weighted)
     x_ref, steps_ref, touches_ref = _reference_solve(W, h, alpha, tol, fraction)
@@ -196,13 +261,13 @@ def _weights_problem(directed, weighted, seed=20):
 
 
 @pytest.mark.parametrize("extra", [0, 3, 40])
-def test_work_cap_is_shared_by_the_sweeps_and_the_queue(extra):
-    # max_work caps sweeps and queue pushes together; the reference stops where the documented
+def test_work_cap_is_shared_by_the_passes_and_the_queue(extra):
+    # max_work caps the pushes of the passes and of the queue together; the reference stops where the documented
     # rule does, so the error carries the same step count and the same residual
     alpha, tol = 0.85, 1e-12
     prod, scale, h, W = _weights_problem(True, True)
-    cap = prod.m + extra  # every entry is active at the start: one full sweep fits, then `extra` pushes
-    x_ref, steps_ref, _ = _reference_solve(W, h, alpha, tol, diffusion.SWEEP_FRACTION, cap=cap)
+    cap = prod.m + extra  # every entry is active at the start: the first pass fits, then `extra` pushes
+    x_ref, steps_ref, _ = _reference_solve(W, h, alpha, tol, diffusion.QUEUE_FRACTION, cap=cap)
     s = W.sum(axis=1)
     P = W.T * np.divide(1.0, s, out=np.zeros_like(s), where=s > 0)[None, :]
     resid_ref = np.abs((1 - alpha) * h - x_ref + alpha * P @ x_ref).sum()
