@@ -57,18 +57,63 @@ BYTES_PER_PRODUCT_ENTRY = 4
 
 
 class Clock:
-    """Stage timings, and the ``progress`` callback told as each stage starts."""
+    """Stage timings, peak resident memory per stage, and the ``progress`` callback told as
+    each stage starts.
+
+    ``memory[stage]`` is the peak resident memory in GiB: of the stage alone when the peak can
+    be reset (Linux, with :attr:`reset_peaks` set: the command line does, since the process is
+    its own), otherwise the process's peak so far at the end of the stage.
+    """
+
+    #: reset the process's resident-memory high-water mark at each stage start (Linux only);
+    #: off by default because it also resets what ``getrusage`` reports to the host program
+    reset_peaks: bool = False
 
     def __init__(self, progress: Callable[[str], None] | None = None):
         self.progress = progress or (lambda stage: None)
         self.timings: dict[str, float] = {}
+        self.memory: dict[str, float] = {}
+        self.per_stage = False
 
     @contextmanager
     def stage(self, name: str):
         self.progress(name)
+        if self.reset_peaks:
+            self.per_stage = _reset_peak_memory()
         t0 = time.perf_counter()
         yield
         self.timings[name] = round(self.timings.get(name, 0.0) + time.perf_counter() - t0, 4)
+        self.memory[name] = round(max(self.memory.get(name, 0.0), _peak_memory() / 2**30), 3)
+
+    def memory_report(self) -> dict:
+        """The ``memory`` section of ``summary.json``."""
+        return {"peak_gib": dict(self.memory), "per_stage": self.per_stage}
+
+
+def _reset_peak_memory() -> bool:
+    """Reset this process's resident-memory high-water mark (Linux); True when it was reset."""
+    try:
+        with open("/proc/self/clear_refs", "w") as fh:
+            fh.write("5")
+        return True
+    except OSError:
+        return False
+
+
+def _peak_memory() -> int:
+    """This process's peak resident memory in bytes (since the last reset, on Linux)."""
+    try:
+        with open("/proc/self/status") as fh:
+            for line in fh:
+                if line.startswith("VmHWM:"):
+                    return int(line.split()[1]) * 1024
+    except OSError:
+        pass
+    import resource
+    import sys
+
+    peak = resource.getrusage(resource.RUSAGE_SELF).ru_maxrss
+    return peak if sys.platform == "darwin" else peak * 1024
 
 
 # --------------------------------------------------------------------------- reading
@@ -464,7 +509,7 @@ def _refine_summary(improvement: Improvement) -> dict | None:
 
 
 def summarize(problem: Problem, diffusion: DiffusionResult, improvement: Improvement, evaluation: Evaluation,
-              timings: dict[str, float]) -> dict:
+              clock: Clock) -> dict:
     """The run's record, as written to ``summary.json`` (schema in docs/formats.md)."""
     cfg, cand, scores = problem.config, problem.candidates, evaluation.scores
     cov_a, cov_b = cand.coverage()
@@ -481,7 +526,8 @@ def summarize(problem: Problem, diffusion: DiffusionResult, improvement: Improve
         "scores": scores.as_dict() | ({"nc_detail": scores.nc_detail} if scores.nc_detail else {}),
         "solver": diffusion.report() | {"rounding": match_.method, "matched_weight": match_.weight,
                                         "rounding_seconds": round(match_.seconds, 4)},
-        "timings": dict(timings),
+        "timings": dict(clock.timings),
+        "memory": clock.memory_report(),
         "structural": problem.origin.structural,
         "refine": _refine_summary(improvement),
     }
@@ -550,7 +596,7 @@ def run_stages(problem: Problem, clock: Clock, *, x0=None, permutation_progress=
     with clock.stage("scoring"):
         evaluation = evaluate(problem, diffusion, improvement, permutation_progress=permutation_progress)
     return AlignmentResult(problem, diffusion, improvement, evaluation,
-                           summarize(problem, diffusion, improvement, evaluation, clock.timings))
+                           summarize(problem, diffusion, improvement, evaluation, clock))
 
 
 @with_options(AlignConfig)

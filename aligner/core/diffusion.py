@@ -59,6 +59,7 @@ class DiffusionResult:
             "residual_l1": self.residual,
             "error_bound_l1": self.error_bound,
             "seconds": round(self.seconds, 4),
+            "edge_touches_per_second": round(self.edge_touches / self.seconds) if self.seconds > 0 else None,
         }
 
 

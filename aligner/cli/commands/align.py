@@ -25,9 +25,10 @@ def run_align(network_a: Path, network_b: Path, prior: Path | None, outdir: Path
     """
     check_inputs(network_a, network_b, prior, truth, seeds)
     from aligner.io.outputs import check_outdir, write_outputs
-    from aligner.pipeline import STAGES, align
+    from aligner.pipeline import STAGES, Clock, align
     from aligner.render.console import summary_table
 
+    Clock.reset_peaks = True  # the process is ours: measure each stage's own peak memory
     if outdir is not None:
         check_outdir(outdir, force=force)  # refuse before any work, not after it
     with progress(quiet, len(STAGES)) as bar:
