@@ -66,7 +66,7 @@ from typing import NamedTuple
 import numpy as np
 import numpy.typing as npt
 
-from aligner.kernels.refine import _local_search, _matched_neighbours
+from aligner.kernels.refine import _local_search, _matched_neighbours, _max_entry
 from aligner.checks import bad_parameter, check_choice, check_int, check_real
 from aligner.config import AlignConfig, specs
 from aligner.core.candidates import CandidateSet
@@ -362,7 +362,7 @@ def _local_phase(prod: ProductGraph, cand: CandidateSet, bw: npt.NDArray[np.floa
     g_ls = inc.g.copy()
     mv, _, _ = _local_search(prod.indptr, prod.indices, cand.a_indptr, lookup.col_ptr, lookup.col_idx,
                              lookup.pair_a, lookup.pair_b, bw, g_ls, mate_a, mate_b, opts.local_sweeps,
-                             opts.rotations, RISE_TOL)
+                             opts.rotations, RISE_TOL, _max_entry(prod.indptr, prod.indices))
     if mv:
         new = np.sort(mate_a[mate_a >= 0])
         f_new = _objective(bw, g_ls, new)

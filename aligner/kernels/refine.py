@@ -12,6 +12,7 @@ import numpy as np
 from aligner.kernels.utils import _find
 
 
+
 @numba.njit(cache=True, nogil=True)
 def _matched_neighbours(s_indptr, s_indices, sel, out):
     """out = S @ 1_sel: for every pair, how many of its product-graph neighbours are in ``sel``.
@@ -70,8 +71,94 @@ def _apply(s_indptr, s_indices, g, pair_a, pair_b, mate_a, mate_b, removed, adde
 
 
 @numba.njit(cache=True, nogil=True)
+def _max_entry(s_indptr, s_indices):
+    """The largest entry of S: the longest run of one neighbour in a sorted neighbour list
+    (1 on undirected networks, 2 in the symmetrised product graph of directed ones); 0 if empty."""
+    best = 0
+    for k in range(s_indptr.shape[0] - 1):
+        run = 0
+        for t in range(s_indptr[k], s_indptr[k + 1]):
+            run = run + 1 if t > s_indptr[k] and s_indices[t] == s_indices[t - 1] else 1
+            if run > best:
+                best = run
+    return float(best)
+
+
+@numba.njit(cache=True, nogil=True)
+def _row_bounds(c_indptr, bw, g, top1, top1_at, top2):
+    """For every node i of A: the largest bw + g over its candidates (top1, at candidate top1_at)
+    and the second largest (top2); 0 where there is none (every bw + g is >= 0)."""
+    for i in range(c_indptr.shape[0] - 1):
+        a = 0.0
+        b = 0.0
+        at = -1
+        for t in range(c_indptr[i], c_indptr[i + 1]):
+            v = bw[t] + g[t]
+            if v > a:
+                b = a
+                a = v
+                at = t
+            elif v > b:
+                b = v
+        top1[i] = a
+        top1_at[i] = at
+        top2[i] = b
+
+
+@numba.njit(cache=True, nogil=True)
+def _col_bounds(col_ptr, col_idx, bw, g, top1, top1_at, top2):
+    """:func:`_row_bounds` over the candidates of each node of B."""
+    for j in range(col_ptr.shape[0] - 1):
+        a = 0.0
+        b = 0.0
+        at = -1
+        for e in range(col_ptr[j], col_ptr[j + 1]):
+            t = col_idx[e]
+            v = bw[t] + g[t]
+            if v > a:
+                b = a
+                a = v
+                at = t
+            elif v > b:
+                b = v
+        top1[j] = a
+        top1_at[j] = at
+        top2[j] = b
+
+
+@numba.njit(cache=True, nogil=True)
+def _raise_bound(top1, top1_at, top2, node, t, v):
+    """Keep top1 >= every value of the node's candidates and top2 >= every value but top1_at's,
+    after candidate t's value rose to v (values that fall leave the bounds valid)."""
+    if t == top1_at[node]:
+        if v > top1[node]:
+            top1[node] = v
+    elif v > top1[node]:
+        if top1[node] > top2[node]:
+            top2[node] = top1[node]
+        top1[node] = v
+        top1_at[node] = t
+    elif v > top2[node]:
+        top2[node] = v
+
+
+@numba.njit(cache=True, nogil=True)
+def _raise_bounds(s_indptr, s_indices, pair_a, pair_b, bw, g, added, r1, r1_at, r2, c1, c1_at, c2):
+    """After a move: the pairs whose g rose are the product-graph neighbours of the added pairs."""
+    for u in range(added.shape[0]):
+        k = added[u]
+        if k < 0:
+            continue
+        for e in range(s_indptr[k], s_indptr[k + 1]):
+            t = s_indices[e]
+            v = bw[t] + g[t]
+            _raise_bound(r1, r1_at, r2, pair_a[t], t, v)
+            _raise_bound(c1, c1_at, c2, pair_b[t], t, v)
+
+
+@numba.njit(cache=True, nogil=True)
 def _local_search(s_indptr, s_indices, c_indptr, col_ptr, col_idx, pair_a, pair_b, bw, g, mate_a, mate_b,
-                  max_sweeps, rotations, eps):
+                  max_sweeps, rotations, eps, s_max):
     """First-improvement search over 2-exchanges (and 3-rotations) of a matching, in place.
 
     The matching is ``mate_a[i]`` (candidate index matched at node i of A, or -1) and
@@ -88,14 +175,24 @@ def _local_search(s_indptr, s_indices, c_indptr, col_ptr, col_idx, pair_a, pair_
     2-exchange: for every candidate p = (i, j') not in M, with k = (i, i') and l = (j, j') the
     pairs of M at i and at j' (either may be absent), remove k and l, add p, and add
     q = (j, i') when q is a candidate. Each added pair shares a node with each removed one, so
-    dC = g_p + g_q - g_k - g_l + S_kl * ([k, l removed] + [p, q added]) (S_pq = S_kl).
+    dC = g_p + g_q - g_k - g_l + S_kl [k, l removed] + S_pq [p, q added]. (On undirected
+    networks S_pq = S_kl; in the symmetrised product graph of directed ones they differ: S_kl
+    counts arcs i -> j, i' -> j' pointing the same way, S_pq arcs between i, j and j', i'.)
 
     3-rotation (``rotations`` true): with k, l, p as above and both k, l present, for every
     candidate s = (h, i') (read from the column index ``col_ptr``/``col_idx``: the candidates
     of each node of B) with h matched by r = (h, h') and q = (j, h') a candidate, replace
     k, l, r by p, q, s (i -> j', j -> h', h -> i'). Here p/r, q/k and s/l share no node.
-    Rotations are pruned, before q is looked up, with the largest bw + g of row j and the
-    bound 5 on the positive S terms.
+    Both kinds of move are pruned with upper bounds on bw + g kept for every row (node of A)
+    and, in sweeps with rotations, every column (node of B), with every entry of S at most
+    ``s_max`` (1 on undirected networks, 2 in the symmetrised product graph of directed ones)
+    and so 5 ``s_max`` on the five positive S terms of a rotation: a 2-exchange is skipped
+    before S_kl and q are looked up when base + 2 s_max plus the bound of row j without l
+    cannot exceed ``eps``;
+    a rotation's whole column when no s in it can lift the move (the bound of column i'
+    without k plus that of row j without l), and each s before q is looked up. The bounds are
+    computed at the start of every sweep and raised after each move where g rose, so they
+    never prune a move the exact test would make: the moves are those of the unpruned search.
 
     A move is made when its change of F exceeds ``eps``. A sweep visits every candidate once.
     Sweeps try 2-exchanges only until one makes no move; then a sweep also tries rotations, and
@@ -106,15 +203,26 @@ def _local_search(s_indptr, s_indices, c_indptr, col_ptr, col_idx, pair_a, pair_
     Returns (moves, sweeps, gain), gain being the sum of the changes of F of the moves made.
     """
     n1 = c_indptr.shape[0] - 1
+    pos = 5.0 * s_max  # bounds the five positive S terms of a rotation
     gain = 0.0
     moves = 0
     sweeps = 0
     rem = np.empty(3, dtype=np.int64)
     add = np.empty(3, dtype=np.int64)
     rotate = False  # rotation sweeps only once 2-exchange sweeps have stopped moving
+    n2 = col_ptr.shape[0] - 1
+    r1 = np.zeros(n1)
+    r1_at = np.full(n1, -1, dtype=np.int64)
+    r2 = np.zeros(n1)
+    c1 = np.zeros(n2)
+    c1_at = np.full(n2, -1, dtype=np.int64)
+    c2 = np.zeros(n2)
     while sweeps < max_sweeps:
         sweeps += 1
         moved = 0
+        _row_bounds(c_indptr, bw, g, r1, r1_at, r2)
+        if rotate:
+            _col_bounds(col_ptr, col_idx, bw, g, c1, c1_at, c2)
         for i in range(n1):
             for p in range(c_indptr[i], c_indptr[i + 1]):
                 k = mate_a[i]
@@ -131,12 +239,21 @@ def _local_search(s_indptr, s_indices, c_indptr, col_ptr, col_idx, pair_a, pair_
                     base -= bw[l] + g[l]
                 delta = base
                 if k >= 0 and l >= 0:
+                    j = pair_a[l]
+                    urow = r2[j] if r1_at[j] == l else r1[j]  # bounds bw_q + g_q (q != l)
+                    if base + 2.0 * s_max + urow <= eps:  # the exchange cannot gain enough
+                        if not rotate:
+                            continue
+                        ib = pair_b[k]
+                        ucol = c2[ib] if c1_at[ib] == k else c1[ib]
+                        if base + s_max + ucol + urow + pos <= eps:  # nor can a rotation (see below)
+                            continue
                     s_kl = _adjacent(s_indptr, s_indices, k, l)
                     delta += s_kl
                     j = pair_a[l]
                     q = _find(pair_b, c_indptr[j], c_indptr[j + 1], pair_b[k])
                     if q >= 0:
-                        delta += bw[q] + g[q] + s_kl
+                        delta += bw[q] + g[q] + _adjacent(s_indptr, s_indices, p, q)
                 if delta > eps:
                     rem[0] = k
                     rem[1] = l
@@ -145,6 +262,7 @@ def _local_search(s_indptr, s_indices, c_indptr, col_ptr, col_idx, pair_a, pair_
                     add[1] = q
                     add[2] = -1
                     _apply(s_indptr, s_indices, g, pair_a, pair_b, mate_a, mate_b, rem, add)
+                    _raise_bounds(s_indptr, s_indices, pair_a, pair_b, bw, g, add, r1, r1_at, r2, c1, c1_at, c2)
                     gain += delta
                     moved += 1
                     continue
@@ -154,11 +272,11 @@ def _local_search(s_indptr, s_indices, c_indptr, col_ptr, col_idx, pair_a, pair_
                 ib = pair_b[k]
                 # base = bw_p + g_p - (bw_k + g_k) - (bw_l + g_l); add S_kl (k, l both removed)
                 base += s_kl
-                # an upper bound on bw_q + g_q over row j, for pruning before the look-up of q
-                urow = 0.0
-                for t in range(c_indptr[j], c_indptr[j + 1]):
-                    if bw[t] + g[t] > urow:
-                        urow = bw[t] + g[t]
+                # upper bounds on bw_q + g_q over row j (q != l) and on bw_s + g_s over column i'
+                # (s != k); bw_r + g_r >= 0 is subtracted, so nothing in this column can beat eps
+                ucol = c2[ib] if c1_at[ib] == k else c1[ib]
+                if base + ucol + urow + pos <= eps:
+                    continue
                 for e in range(col_ptr[ib], col_ptr[ib + 1]):
                     s = col_idx[e]  # s = (h, i')
                     h = pair_a[s]
@@ -168,14 +286,14 @@ def _local_search(s_indptr, s_indices, c_indptr, col_ptr, col_idx, pair_a, pair_
                     if r < 0:
                         continue
                     d = base + bw[s] + g[s] - bw[r] - g[r]
-                    if d + urow + 5.0 <= eps:
+                    if d + urow + pos <= eps:
                         continue  # neither q nor the five positive S terms below can lift it
                     hb = pair_b[r]
                     q = _find(pair_b, c_indptr[j], c_indptr[j + 1], hb)
                     if q < 0:
                         continue
                     d += bw[q] + g[q]
-                    if d + 5.0 <= eps:
+                    if d + pos <= eps:
                         continue
                     d += _adjacent(s_indptr, s_indices, k, r) + _adjacent(s_indptr, s_indices, l, r)
                     d += (_adjacent(s_indptr, s_indices, p, q) + _adjacent(s_indptr, s_indices, p, s)
@@ -190,6 +308,7 @@ def _local_search(s_indptr, s_indices, c_indptr, col_ptr, col_idx, pair_a, pair_
                         add[1] = q
                         add[2] = s
                         _apply(s_indptr, s_indices, g, pair_a, pair_b, mate_a, mate_b, rem, add)
+                        _raise_bounds(s_indptr, s_indices, pair_a, pair_b, bw, g, add, r1, r1_at, r2, c1, c1_at, c2)
                         gain += d
                         moved += 1
                         break
