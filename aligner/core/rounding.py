@@ -39,15 +39,27 @@ class Matching:
 def _compact(cand: CandidateSet, w: npt.NDArray[np.float64]):
     """Candidate pairs with positive weight, as a CSR over the A and B nodes that have any.
 
-    The one place where pairs without evidence (weight 0, negative or NaN) are dropped.
+    The one place where pairs without evidence (weight 0, negative or NaN) are dropped. Nodes
+    are renumbered in increasing order by a presence mask and its running count (O(m + n), no
+    sort): the same numbering as ``np.unique(..., return_inverse=True)``.
     """
     use = np.flatnonzero(w > 0)
-    rows_u, rows = np.unique(cand.pairs[use, 0], return_inverse=True)
-    cols_u, cols = np.unique(cand.pairs[use, 1], return_inverse=True)
+    pa, pb = cand.pairs[use, 0], cand.pairs[use, 1]
+    rows_u, rows = _renumber(pa, cand.n1)
+    cols_u, cols = _renumber(pb, cand.n2)
     # ``use`` is sorted by (i, i') so rows are sorted and columns sorted within each row
     indptr = np.zeros(len(rows_u) + 1, dtype=np.int64)
     np.cumsum(np.bincount(rows, minlength=len(rows_u)), out=indptr[1:])
-    return use, rows_u, cols_u, indptr, cols.astype(np.int64), w[use]
+    return use, rows_u, cols_u, indptr, cols, w[use]
+
+
+def _renumber(nodes: npt.NDArray[np.integer], n: int):
+    """(the distinct nodes ascending, each entry's position among them)."""
+    present = np.zeros(n, dtype=bool)
+    present[nodes] = True
+    distinct = np.flatnonzero(present)
+    position = np.cumsum(present, dtype=np.int64) - 1
+    return distinct, position[nodes]
 
 
 def round_matching(cand: CandidateSet, w: npt.ArrayLike, *, method: str = "auto") -> Matching:
@@ -110,11 +122,9 @@ def round_matching(cand: CandidateSet, w: npt.ArrayLike, *, method: str = "auto"
         row_to_col = max_weight_matching_dense(dense)
     else:
         row_to_col = _scipy_matching(indptr, cols, ww, nr, nc)
-    # back from (row, col) to candidate index: position of col inside the row's slice
-    matched_rows = np.flatnonzero(row_to_col >= 0)
-    entry_key = np.repeat(np.arange(nr, dtype=np.int64), np.diff(indptr)) * nc + cols
-    idx = np.searchsorted(entry_key, matched_rows.astype(np.int64) * nc + row_to_col[matched_rows])
-    index = use[idx]
+    # back from (row, col) to candidate index: the one stored entry of each row at its column
+    entry_row = np.repeat(np.arange(nr, dtype=np.int64), np.diff(indptr))
+    index = use[np.flatnonzero(row_to_col[entry_row] == cols)]
     return Matching(index=index, method=method, weight=float(w[index].sum()), seconds=time.perf_counter() - t0)
 
 
