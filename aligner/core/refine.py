@@ -67,6 +67,7 @@ import numpy as np
 import numpy.typing as npt
 
 from aligner.kernels.refine import _local_search, _matched_neighbours, _max_entry
+from aligner.kernels.utils import stable_order
 from aligner.checks import bad_parameter, check_choice, check_int, check_real
 from aligner.config import AlignConfig, specs
 from aligner.core.candidates import CandidateSet
@@ -298,7 +299,7 @@ class _Lookup(NamedTuple):
 def _lookup(cand: CandidateSet) -> _Lookup:
     pair_a = np.ascontiguousarray(cand.pairs[:, 0], dtype=np.int64)
     pair_b = np.ascontiguousarray(cand.pairs[:, 1], dtype=np.int64)
-    col_idx = np.argsort(pair_b, kind="stable")  # candidates of each node of B, by node of A
+    col_idx = stable_order(pair_b, cand.n2)  # candidates of each node of B, by node of A
     col_ptr = np.zeros(cand.n2 + 1, dtype=np.int64)
     np.cumsum(np.bincount(pair_b, minlength=cand.n2), out=col_ptr[1:])
     return _Lookup(pair_a, pair_b, col_ptr, col_idx)

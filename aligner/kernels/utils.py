@@ -1,6 +1,7 @@
 """Small compiled helpers shared by the numba kernels."""
 
 import numba
+import numpy as np
 
 
 @numba.njit(cache=True, nogil=True)
@@ -16,3 +17,20 @@ def _find(arr, lo, hi, value):
         else:
             return mid
     return -1
+
+
+@numba.njit(cache=True, nogil=True)
+def stable_order(keys, n):
+    """The stable sort order of integer ``keys`` in [0, n) by counting sort: O(len(keys) + n),
+    the same permutation as ``np.argsort(keys, kind="stable")``."""
+    start = np.zeros(n + 1, dtype=np.int64)
+    for t in range(keys.shape[0]):
+        start[keys[t] + 1] += 1
+    for v in range(n):
+        start[v + 1] += start[v]
+    out = np.empty(keys.shape[0], dtype=np.int64)
+    for t in range(keys.shape[0]):
+        k = keys[t]
+        out[start[k]] = t
+        start[k] += 1
+    return out
