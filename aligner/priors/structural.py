@@ -40,7 +40,6 @@ from __future__ import annotations
 
 import numpy as np
 import numpy.typing as npt
-from scipy.spatial import cKDTree
 
 from aligner.kernels.structural import _neighbour_mean, _neighbour_stats, _triangles_and_distance_two
 from aligner.checks import bad_parameter, check_int, check_real
@@ -167,6 +166,8 @@ def standardise(
 def _knn(tree_pts: np.ndarray, query_pts: np.ndarray, k: int) -> tuple[np.ndarray, np.ndarray]:
     """The ``k`` nearest rows of ``tree_pts`` to every row of ``query_pts``: distances, indices."""
     k = min(k, len(tree_pts))
+    from scipy.spatial import cKDTree  # here, not at import: only structural candidates need it
+
     d, j = cKDTree(tree_pts).query(query_pts, k=k, workers=-1)
     return d.reshape(len(query_pts), k), j.reshape(len(query_pts), k)
 
