@@ -91,6 +91,24 @@ def cold_and_warm(runs: int) -> dict:
     return {"cold_s": cold, "warm_s": warm}
 
 
+def provenance() -> str:
+    """Where the figures come from: the command, the commit, the machine and its load."""
+    import platform
+
+    try:
+        commit = subprocess.run(["git", "rev-parse", "--short", "HEAD"], capture_output=True, text=True,
+                                check=True).stdout.strip()
+        dirty = subprocess.run(["git", "status", "--porcelain", "--untracked-files=no"], capture_output=True,
+                               text=True, check=True).stdout.strip()
+        commit += " (with uncommitted changes)" if dirty else ""
+    except (OSError, subprocess.CalledProcessError):
+        commit = "unknown"
+    load = os.getloadavg()[0] if hasattr(os, "getloadavg") else float("nan")
+    return (f"Written by `python scripts/bench/profile.py {' '.join(sys.argv[1:])}` on commit {commit}; "
+            f"{os.cpu_count()} cores, Python {platform.python_version()}, {platform.machine()}, load average "
+            f"{load:.2f} at the start. Do not edit by hand: rerun the command.\n\n")
+
+
 def markdown(rows: list[dict], demo: dict | None) -> str:
     names = [r["case"] for r in rows]
     head = "| stage | " + " | ".join(f"{n}: s | {n}: peak GiB" for n in names) + " |"
@@ -157,7 +175,7 @@ def main() -> None:
         if demo:
             w.writerow(["demo", "cold", round(demo["cold_s"], 4), ""])
             w.writerow(["demo", "warm", round(demo["warm_s"], 4), ""])
-    text = markdown(rows, demo)
+    text = provenance() + markdown(rows, demo)
     (args.markdown or args.out / "profile.md").write_text(text)
     print(text)
 
