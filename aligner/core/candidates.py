@@ -7,7 +7,8 @@ from dataclasses import dataclass
 import numpy as np
 import numpy.typing as npt
 
-from aligner.core.network import merge_duplicate_pairs
+from aligner.errors import InvalidParameterError
+from aligner.kernels.candidates import drop_below_top_k, large_groups, pairs_order, row_pointer, sort_merge_pairs
 
 __all__ = ["CandidateSet", "build_candidates"]
 
@@ -45,20 +46,6 @@ class CandidateSet:
         return fa, fb
 
 
-def _top_k_mask(group: np.ndarray, srank: np.ndarray, k: int) -> np.ndarray:
-    """True for the ``k`` entries of best score rank ``srank`` (0 = best) within every group."""
-    m = len(srank)
-    order = np.argsort(group.astype(np.int64) * m + srank)
-    g = group[order]
-    start = np.ones(m, dtype=bool)
-    start[1:] = g[1:] != g[:-1]
-    idx = np.arange(m)
-    first = np.maximum.accumulate(np.where(start, idx, 0))
-    mask = np.zeros(m, dtype=bool)
-    mask[order] = (idx - first) < k
-    return mask
-
-
 def build_candidates(
     pairs: npt.ArrayLike,
     scores: npt.ArrayLike,
@@ -91,7 +78,10 @@ def build_candidates(
     Notes
     -----
     Ties in the top-k cut are broken by the smaller index of the other node, so the result
-    does not depend on the order of the input rows. Cost: four sorts of K entries.
+    does not depend on the order of the input rows. Cost: a few passes over the K entries (a
+    sort only when they are not already sorted by (i, i') without repeats: two counting
+    sorts on the integer keys) plus a partial selection in every node holding more than
+    ``top_k`` pairs.
 
     Examples
     --------
@@ -99,23 +89,55 @@ def build_candidates(
     >>> c.pairs.tolist()
     [[0, 0], [1, 1]]
     """
-    pairs = np.asarray(pairs, dtype=np.int64).reshape(-1, 2)
+    pairs = _as_index_pairs(pairs)
     scores = np.asarray(scores, dtype=np.float64).reshape(-1)
+    owned = False  # whether pairs and scores are arrays of our own yet
     keep = scores >= min_score
-    pairs, scores = pairs[keep], scores[keep]
-    pairs, scores, _ = merge_duplicate_pairs(pairs, scores, n2)
-    if top_k is not None and len(pairs):
-        # score ranks, ties broken by the (i, i') order: input-order independent
-        by_score = np.argsort(-scores)
-        ordered = scores[by_score]
-        if (ordered[1:] == ordered[:-1]).any():  # ties: the stable sort keeps (i, i') order
-            by_score = np.argsort(-scores, kind="stable")
-        srank = np.empty(len(scores), dtype=np.int64)
-        srank[by_score] = np.arange(len(scores))
-        mask = _top_k_mask(pairs[:, 0], srank, top_k) | _top_k_mask(pairs[:, 1], srank, top_k)
-        pairs, scores = pairs[mask], scores[mask]
-    pairs = pairs.astype(np.int32)
-    counts = np.bincount(pairs[:, 0], minlength=n1) if len(pairs) else np.zeros(n1, dtype=np.int64)
-    a_indptr = np.zeros(n1 + 1, dtype=np.int64)
-    np.cumsum(counts, out=a_indptr[1:])
-    return CandidateSet(pairs=pairs.reshape(-1, 2), prior=scores, a_indptr=a_indptr, n1=n1, n2=n2)
+    if not keep.all():
+        pairs, scores, owned = pairs[keep], scores[keep], True
+    state = pairs_order(pairs, n1, n2)
+    if state < 0:
+        raise InvalidParameterError(f"pairs must hold node indices in [0, {n1}) x [0, {n2}); got a pair outside",
+                                    param="pairs")
+    pairs = pairs.astype(np.int32, copy=False)
+    if state == 1:  # not sorted, or repeated pairs: counting sorts on the integer keys
+        pairs, scores = sort_merge_pairs(pairs, scores, n1, n2)
+        owned = True
+    a_indptr = row_pointer(pairs, n1)
+    if top_k is not None and top_k < len(pairs):
+        drop = _outside_top_k(pairs, a_indptr, scores, n2, top_k)
+        if drop is not None:
+            keep = ~drop
+            pairs, scores, owned = pairs[keep], scores[keep], True
+            a_indptr = row_pointer(pairs, n1)
+    if not owned:
+        pairs, scores = pairs.copy(), scores.copy()
+    return CandidateSet(pairs=pairs, prior=scores, a_indptr=a_indptr, n1=n1, n2=n2)
+
+
+def _as_index_pairs(pairs: npt.ArrayLike) -> np.ndarray:
+    """A C-ordered (K, 2) array of int32 or int64 (no copy when already so)."""
+    arr = np.asarray(pairs)
+    if arr.dtype != np.int32:
+        arr = arr.astype(np.int64, copy=False)
+    return np.ascontiguousarray(arr.reshape(-1, 2))
+
+
+def _outside_top_k(pairs: np.ndarray, a_indptr: np.ndarray, scores: np.ndarray, n2: int, k: int) -> np.ndarray | None:
+    """True where a pair is among neither the ``k`` best pairs of its node of A nor those of its
+    node of B (None: no such pair). The pairs are sorted by (i, i'), so within a node of A (a
+    row) and within a node of B (its pairs in row order) a tie goes to the smaller index of
+    the other node."""
+    k = int(k)
+    if k <= 0:
+        return np.ones(len(pairs), dtype=bool)
+    if not (np.diff(a_indptr) > k).any():
+        return None  # every pair is among the k best of its node of A
+    b_ptr, b_members = large_groups(pairs, 1, n2, k)
+    if len(b_ptr) == 1:
+        return None  # every pair is among the k best of its node of B
+    drop_a = np.zeros(len(pairs), dtype=bool)
+    drop_below_top_k(scores, a_indptr, np.empty(0, dtype=np.int64), k, drop_a)
+    drop_b = np.zeros(len(pairs), dtype=bool)
+    drop_below_top_k(scores, b_ptr, b_members, k, drop_b)
+    return drop_a & drop_b

@@ -1,6 +1,8 @@
 import numpy as np
+import pytest
 
 from aligner.core.candidates import build_candidates
+from aligner.errors import InvalidParameterError
 
 
 def test_top_k_union_by_hand():
@@ -91,3 +93,64 @@ def test_defaults_bounds_and_types():
     # no nodes at all: coverage is 0, not a division by zero
     assert build_candidates(np.empty((0, 2)), np.empty(0), 0, 0).coverage() == (0.0, 0.0)
     assert build_candidates(np.empty((0, 2)), np.empty(0), 0, 3).coverage() == (0.0, 0.0)
+
+
+def _reference_candidates(pairs, scores, n1, n2, min_score, top_k):
+    """The documented rule written out plainly (Python sorting, one pair at a time): repeated
+    pairs keep their highest score; a pair stays when it is among the ``top_k`` best of its
+    node of A (ties to the smaller node of B) or of its node of B (ties to the smaller node of
+    A); the result is sorted by (i, i')."""
+    best = {}
+    for (i, j), s in zip(pairs.tolist(), scores.tolist()):
+        if s >= min_score and ((i, j) not in best or s > best[(i, j)]):
+            best[(i, j)] = s
+    keep = set(best)
+    if top_k is not None:
+        by_a, by_b = {}, {}
+        for (i, j), s in best.items():
+            by_a.setdefault(i, []).append((-s, j, (i, j)))
+            by_b.setdefault(j, []).append((-s, i, (i, j)))
+        keep = {p for group in (*by_a.values(), *by_b.values()) for _, _, p in sorted(group)[:max(top_k, 0)]}
+    out = sorted(keep)
+    return np.array(out, dtype=np.int32).reshape(-1, 2), np.array([best[p] for p in out], dtype=np.float64)
+
+
+@pytest.mark.parametrize("seed", range(6))
+def test_matches_the_rule_written_out_on_random_priors(seed):
+    # Reference: _reference_candidates above (plain Python sorting of every node's pairs).
+    # Unsorted rows, repeats, ties (integer scores), rows already sorted, int32 and int64 input.
+    rng = np.random.default_rng(seed)
+    n1, n2 = int(rng.integers(1, 40)), int(rng.integers(1, 40))
+    K = int(rng.integers(0, 4 * n1 * n2))
+    pairs = np.stack([rng.integers(0, n1, K), rng.integers(0, n2, K)], axis=1)
+    scores = rng.integers(0, 4, K).astype(float) if seed % 2 else rng.random(K)
+    if seed % 3 == 0:
+        pairs, idx = np.unique(pairs, axis=0, return_index=True)  # sorted, no repeat: the fast path
+        scores = scores[idx]
+    dtype = np.int32 if seed % 2 else np.int64
+    for top_k in (None, 0, 1, 2, 5, 50):
+        for min_score in (0.0, 0.5):
+            want_p, want_s = _reference_candidates(pairs, scores, n1, n2, min_score, top_k)
+            c = build_candidates(pairs.astype(dtype), scores, n1, n2, min_score=min_score, top_k=top_k)
+            assert c.pairs.dtype == np.int32 and c.pairs.flags.c_contiguous
+            np.testing.assert_array_equal(c.pairs, want_p)
+            np.testing.assert_array_equal(c.prior, want_s)
+            want_ptr = np.concatenate([[0], np.cumsum(np.bincount(want_p[:, 0], minlength=n1))])
+            np.testing.assert_array_equal(c.a_indptr, want_ptr)
+
+
+def test_the_result_owns_its_arrays():
+    # a sorted prior with nothing to drop is the fast path: the candidate set must still not
+    # share memory with the caller's arrays (writing to one must not change the other)
+    pairs = np.array([[0, 0], [1, 1]], dtype=np.int32)
+    scores = np.array([0.5, 0.7])
+    c = build_candidates(pairs, scores, 2, 2)
+    assert not np.shares_memory(c.pairs, pairs) and not np.shares_memory(c.prior, scores)
+
+
+def test_pairs_outside_the_networks_are_refused():
+    for bad in ([[0, 2]], [[2, 0]], [[-1, 0]], [[0, 2**40]]):
+        with pytest.raises(InvalidParameterError, match=r"^pairs must hold node indices in \[0, 2\) x \[0, 2\); "
+                                                        r"got a pair outside$") as info:
+            build_candidates(bad, [1.0], 2, 2)
+        assert info.value.param == "pairs"
