@@ -4,15 +4,20 @@ from __future__ import annotations
 
 from dataclasses import dataclass
 
+from concurrent.futures import ThreadPoolExecutor
+
 import numpy as np
 import numpy.typing as npt
 import scipy.sparse as sp
 
-from aligner.kernels.product import _product_pass
+from aligner.kernels.product import product_bound, product_rows, thread_count
 from aligner.core.candidates import CandidateSet
 from aligner.errors import InvalidParameterError
 
 __all__ = ["ProductGraph", "build_product", "estimate_product_edges"]
+
+#: the work (about the table entries and look-ups) under which build_product runs on one thread
+PARALLEL_WORK = 2_000_000
 
 
 @dataclass(frozen=True, eq=False)
@@ -111,12 +116,14 @@ def build_product(
     Notes
     -----
     Pairs (i, i') and (j, j') of L are adjacent when (i, j) is an edge of A and (i', j') an
-    edge of B: the tensor (Kronecker) product graph restricted to L. Two passes over the nodes
-    of A (count, then fill). For node i, the neighbours of its candidate partners are entered
-    in a table keyed by node of B, and the candidates (j, j') of its neighbours j look up j'
-    there. Work: sum over i of (sum of deg_B(i') over its candidates + sum of c_j over its
-    neighbours j) plus the output, with c_j the number of candidates of j; memory O(n2 + m +
-    product edges). No n1 x n2 or m x m dense object is formed.
+    edge of B: the tensor (Kronecker) product graph restricted to L. One pass over the nodes
+    of A (:func:`aligner.kernels.product.product_rows`): for node i, the neighbours of its
+    candidate partners are entered in a small hash table keyed by node of B, and the
+    candidates (j, j') of its neighbours j look up j' there. Work: sum over i of (sum of
+    deg_B(i') over its candidates + sum of c_j over its neighbours j) plus the output, with
+    c_j the number of candidates of j; memory O(m + product edges). No n1 x n2 or m x m dense
+    object is formed. Large builds are split into ranges of nodes of A built by parallel
+    threads and joined in order: the result is the same for any number of threads.
 
     Examples
     --------
@@ -129,10 +136,6 @@ def build_product(
     >>> build_product(ip, ix, ip, ix, c).n_edges
     2
     """
-    m = cand.m
-    pair_b = np.ascontiguousarray(cand.pairs[:, 1])
-    indptr = np.zeros(m + 1, dtype=np.int64)
-    dummy = np.empty(0, dtype=np.int32)
     weighted = a_weights is not None
     if weighted != (b_weights is not None):
         given = "a_weights" if weighted else "b_weights"
@@ -141,16 +144,38 @@ def build_product(
     none = np.empty(0, dtype=np.float64)
     a_w = none if not weighted else np.ascontiguousarray(a_weights, dtype=np.float64)
     b_w = none if not weighted else np.ascontiguousarray(b_weights, dtype=np.float64)
-    if m == 0:
-        return ProductGraph(indptr=indptr, indices=dummy, directed=directed, weights=none if weighted else None)
-    _product_pass(a_indptr, a_indices, b_indptr, b_indices, cand.a_indptr, pair_b, cand.n2, indptr, dummy, False,
-                  a_w, b_w, none)
-    np.cumsum(indptr, out=indptr)
-    indices = np.empty(int(indptr[-1]), dtype=np.int32)
-    out_w = np.empty(len(indices) if weighted else 0, dtype=np.float64)
-    _product_pass(a_indptr, a_indices, b_indptr, b_indices, cand.a_indptr, pair_b, cand.n2, indptr, indices, True,
-                  a_w, b_w, out_w)
-    return ProductGraph(indptr=indptr, indices=indices, directed=directed, weights=out_w if weighted else None)
+    a_indptr, b_indptr = (np.ascontiguousarray(p, dtype=np.int64) for p in (a_indptr, b_indptr))
+    a_indices, b_indices = (np.ascontiguousarray(x, dtype=np.int32) for x in (a_indices, b_indices))
+    pair_b = np.ascontiguousarray(cand.pairs[:, 1])
+    args = (a_indptr, a_indices, b_indptr, b_indices, cand.a_indptr, pair_b, a_w, b_w)
+    blocks = _blocks(a_indptr, cand, len(b_indices) / max(cand.n2, 1))
+    if len(blocks) > 2:
+        with ThreadPoolExecutor(thread_count()) as pool:  # the kernel releases the GIL
+            parts = list(pool.map(lambda r: product_rows(r[0], r[1], *args), zip(blocks[:-1], blocks[1:])))
+    else:
+        parts = [product_rows(blocks[0], blocks[-1], *args)]
+    indptr = np.zeros(cand.m + 1, dtype=np.int64)
+    np.cumsum(np.concatenate([p[0] for p in parts]), out=indptr[1:])
+    indices = np.concatenate([p[1] for p in parts]) if len(parts) > 1 else parts[0][1].copy()
+    weights = None
+    if weighted:
+        weights = np.concatenate([p[2] for p in parts]) if len(parts) > 1 else parts[0][2].copy()
+    return ProductGraph(indptr=indptr, indices=indices, directed=directed, weights=weights)
+
+
+def _blocks(a_indptr: np.ndarray, cand: CandidateSet, deg_b: float) -> np.ndarray:
+    """Bounds of ranges of nodes of A of about equal work (for the threads of build_product):
+    node i costs about (its candidates) x (mean degree of B) + (its neighbours) x (mean
+    candidates per node). A single range when the work is small or there is one thread."""
+    n1 = cand.n1
+    per_node = cand.m / max(n1, 1)
+    work = cand.a_indptr * deg_b + a_indptr[: n1 + 1] * per_node
+    threads = thread_count()
+    if threads < 2 or work[-1] < PARALLEL_WORK:
+        return np.array([0, n1])
+    parts = 4 * threads  # a few ranges per thread, so that a busy core delays little
+    cuts = np.searchsorted(work, work[-1] * np.arange(1, parts) / parts)
+    return np.unique(np.concatenate([[0], cuts, [n1]]))
 
 
 def estimate_product_edges(
@@ -167,12 +192,7 @@ def estimate_product_edges(
     """
     if cand.m == 0:
         return 0
-    c = np.diff(cand.a_indptr).astype(np.float64)
-    deg_a = np.diff(a_indptr)
-    rows = np.repeat(np.arange(len(deg_a)), deg_a)
-    reach = np.bincount(rows, weights=c[a_indices], minlength=len(deg_a))
-    i = cand.pairs[:, 0]
-    ip = cand.pairs[:, 1]
-    deg_b = np.diff(b_indptr)
-    bound = np.minimum(reach[i], deg_a[i].astype(np.float64) * deg_b[ip])
-    return int(bound.sum())
+    a_indptr = np.ascontiguousarray(a_indptr, dtype=np.int64)
+    b_indptr = np.ascontiguousarray(b_indptr, dtype=np.int64)
+    a_indices = np.ascontiguousarray(a_indices, dtype=np.int32)
+    return int(product_bound(a_indptr, a_indices, cand.a_indptr, np.ascontiguousarray(cand.pairs[:, 1]), b_indptr))

@@ -4,84 +4,166 @@ import numba
 import numpy as np
 
 
-@numba.njit(cache=True, nogil=True)
-def _product_pass(a_indptr, a_indices, b_indptr, b_indices, c_indptr, c_b, n2, out_indptr, out_indices, fill,
-                  a_w, b_w, out_w):
-    """Count (``fill`` False) or write (``fill`` True) the product-graph neighbours of every pair.
+_EMPTY = -1
+_MIX = 2654435761  # odd, about 2**32 / golden ratio
 
-    With non-empty ``a_w`` and ``b_w`` (weights of the adjacency entries) the fill pass also
-    writes ``out_w``: the weight w_A(i, j) * w_B(i', j') of every product entry. Given
-    out-adjacencies of directed networks, the lists are the out-lists of the product graph.
+
+def thread_count() -> int:
+    """The number of threads the kernels may use (numba's setting, NUMBA_NUM_THREADS)."""
+    return numba.get_num_threads()
+
+
+@numba.njit(cache=True, nogil=True)
+def product_rows(i0, i1, a_indptr, a_indices, b_indptr, b_indices, c_indptr, c_b, a_w, b_w):
+    """The product-graph neighbours of the candidate pairs of nodes ``i0 .. i1-1`` of A, in one pass.
 
     Pair k = (i, i') and pair u = (j, j') are adjacent when j is a neighbour of i in A and j'
-    a neighbour of i' in B. Node i of A is handled at once for all its candidates: every
-    neighbour b of every candidate partner i' is entered in a table keyed by b (``head`` /
-    ``nxt`` chains over n2 slots, cleared after each i), then the candidates u = (j, j') of
-    the neighbours j of i look up j' in it. Work per i: sum of deg_B(i') over its candidates,
-    plus the candidates of its neighbours, plus the output. Since candidates are sorted by
-    (i, i'), each pair's neighbour list comes out sorted.
+    a neighbour of i' in B (given out-adjacencies of directed networks: the out-lists of the
+    product graph). Node i of A is handled at once for all its candidates: every neighbour b
+    of every candidate partner i' goes into a small open-addressing hash table keyed by b
+    (sized to the node, so it stays in the fastest cache), then the candidates u = (j, j') of
+    the neighbours j of i look up j' in it. The hits are collected, then written row by row
+    (a counting sort on the row): since candidates are sorted by (j, j') and A's neighbour
+    lists are sorted, each row comes out sorted. Work per i: sum of deg_B(i') over its
+    candidates, plus the candidates of its neighbours, plus the output.
+
+    Returns ``(counts, indices, weights)``: the number of neighbours of every pair
+    ``c_indptr[i0] .. c_indptr[i1]-1``, their neighbour lists one after the other, and with
+    non-empty ``a_w`` and ``b_w`` (weights of the adjacency entries) the weight
+    w_A(i, j) * w_B(i', j') of every entry (else an empty array). The result of a range of
+    nodes does not depend on the other nodes, so ranges can be built apart and joined.
     """
-    n1 = c_indptr.shape[0] - 1
     weighted = a_w.shape[0] > 0
-    head = np.full(n2, -1, dtype=np.int64)
-    cap = 16
-    ent_k = np.empty(cap, dtype=np.int64)
-    ent_w = np.empty(cap, dtype=np.float64)
-    nxt = np.empty(cap, dtype=np.int64)
-    cursor = np.zeros(0, dtype=np.int64)
-    if fill:
-        cursor = out_indptr[:-1].copy()
+    p0 = c_indptr[i0]
+    counts = np.zeros(c_indptr[i1] - p0, dtype=np.int64)
+    cap = max(16, c_indptr[i1] - p0)
+    out_ix = np.empty(cap, dtype=np.int32)
+    out_w = np.empty(cap if weighted else 0, dtype=np.float64)
     total = 0
-    for i in range(n1):
+    tab_key = np.full(64, _EMPTY, dtype=np.int32)
+    tab_row = np.empty(64, dtype=np.int32)
+    tab_w = np.empty(64 if weighted else 0, dtype=np.float64)
+    hit_row = np.empty(256, dtype=np.int32)
+    hit_u = np.empty(256, dtype=np.int32)
+    hit_w = np.empty(256 if weighted else 0, dtype=np.float64)
+    for i in range(i0, i1):
         k0 = c_indptr[i]
         k1 = c_indptr[i + 1]
         if k1 == k0 or a_indptr[i + 1] == a_indptr[i]:
             continue
-        # table: neighbour b of a candidate partner i' -> the candidate index k of (i, i')
         ne = 0
         for k in range(k0, k1):
-            ip = c_b[k]
-            for t in range(b_indptr[ip], b_indptr[ip + 1]):
-                if ne == cap:
-                    cap *= 2
-                    ent_k2 = np.empty(cap, dtype=np.int64)
-                    ent_w2 = np.empty(cap, dtype=np.float64)
-                    nxt2 = np.empty(cap, dtype=np.int64)
-                    ent_k2[:ne] = ent_k[:ne]
-                    ent_w2[:ne] = ent_w[:ne]
-                    nxt2[:ne] = nxt[:ne]
-                    ent_k = ent_k2
-                    ent_w = ent_w2
-                    nxt = nxt2
-                b = b_indices[t]
-                ent_k[ne] = k
-                if weighted:
-                    ent_w[ne] = b_w[t]
-                nxt[ne] = head[b]
-                head[b] = ne
-                ne += 1
+            ne += b_indptr[c_b[k] + 1] - b_indptr[c_b[k]]
         if ne == 0:
             continue
-        for s in range(a_indptr[i], a_indptr[i + 1]):
-            j = a_indices[s]
-            for u in range(c_indptr[j], c_indptr[j + 1]):
-                e = head[c_b[u]]
-                while e != -1:
-                    k = ent_k[e]
-                    if fill:
-                        out_indices[cursor[k]] = u
-                        if weighted:
-                            out_w[cursor[k]] = a_w[s] * ent_w[e]
-                        cursor[k] += 1
-                    else:
-                        out_indptr[k + 1] += 1
-                    total += 1
-                    e = nxt[e]
-        # clear the table
-        for k in range(k0, k1):
+        bits = 4
+        while (1 << bits) < 8 * ne:  # load at most 1/8: most look-ups miss, and miss at once
+            bits += 1
+        if (1 << bits) > tab_key.shape[0]:
+            tab_key = np.full(1 << bits, _EMPTY, dtype=np.int32)
+            tab_row = np.empty(1 << bits, dtype=np.int32)
+            tab_w = np.empty(1 << bits if weighted else 0, dtype=np.float64)
+        mask = (1 << bits) - 1
+        for k in range(k0, k1):  # the table: key b, row k - k0 (and w_B(i', b))
             ip = c_b[k]
             for t in range(b_indptr[ip], b_indptr[ip + 1]):
-                head[b_indices[t]] = -1
+                b = b_indices[t]
+                h = ((b * _MIX) & 0xFFFFFFFF) >> (32 - bits)  # multiplicative hashing: the top bits
+                while tab_key[h] != _EMPTY:
+                    h = (h + 1) & mask
+                tab_key[h] = b
+                tab_row[h] = k - k0
+                if weighted:
+                    tab_w[h] = b_w[t]
+        nh = _hits(i, a_indptr, a_indices, a_w, c_indptr, c_b, bits, tab_key, tab_row, tab_w, hit_row, hit_u, hit_w)
+        while nh < 0:  # out of room: grow and look again
+            hit_row = np.empty(2 * hit_row.shape[0], dtype=np.int32)
+            hit_u = np.empty(hit_row.shape[0], dtype=np.int32)
+            hit_w = np.empty(hit_row.shape[0] if weighted else 0, dtype=np.float64)
+            nh = _hits(i, a_indptr, a_indices, a_w, c_indptr, c_b, bits, tab_key, tab_row, tab_w, hit_row, hit_u,
+                       hit_w)
+        tab_key[: 1 << bits] = _EMPTY
+        if nh == 0:
+            continue
+        if total + nh > out_ix.shape[0]:
+            cap = max(2 * out_ix.shape[0], total + nh)
+            grown_ix = np.empty(cap, dtype=np.int32)
+            grown_ix[:total] = out_ix[:total]
+            out_ix = grown_ix
+            if weighted:
+                grown_w = np.empty(cap, dtype=np.float64)
+                grown_w[:total] = out_w[:total]
+                out_w = grown_w
+        # write the hits row by row, in the order found (a stable counting sort on the row)
+        r0 = k0 - p0
+        for x in range(nh):
+            counts[r0 + hit_row[x]] += 1
+        at = total
+        for r in range(r0, k1 - p0):  # counts -> first slot of each row
+            c = counts[r]
+            counts[r] = at
+            at += c
+        for x in range(nh):
+            r = r0 + hit_row[x]
+            out_ix[counts[r]] = hit_u[x]
+            if weighted:
+                out_w[counts[r]] = hit_w[x]
+            counts[r] += 1
+        at = total
+        for r in range(r0, k1 - p0):  # end slots -> counts
+            end = counts[r]
+            counts[r] = end - at
+            at = end
+        total += nh
+    return counts, out_ix[:total], out_w[:total] if weighted else out_w
+
+
+@numba.njit(cache=True, nogil=True)
+def _hits(i, a_indptr, a_indices, a_w, c_indptr, c_b, bits, tab_key, tab_row, tab_w, hit_row, hit_u, hit_w):
+    """Look up the partner j' of every candidate u = (j, j') of every neighbour j of i: one hit
+    (row, u, weight) per table entry of key j'. The number of hits, or -1 when they do not fit."""
+    mask = (1 << bits) - 1
+    weighted = hit_w.shape[0] > 0
+    room = hit_row.shape[0]
+    nh = 0
+    for s in range(a_indptr[i], a_indptr[i + 1]):
+        j = a_indices[s]
+        for u in range(c_indptr[j], c_indptr[j + 1]):
+            b = c_b[u]
+            h = ((b * _MIX) & 0xFFFFFFFF) >> (32 - bits)  # multiplicative hashing: the top bits
+            while tab_key[h] != _EMPTY:
+                if tab_key[h] == b:
+                    if nh == room:
+                        return -1
+                    hit_row[nh] = tab_row[h]
+                    hit_u[nh] = u
+                    if weighted:
+                        hit_w[nh] = a_w[s] * tab_w[h]
+                    nh += 1
+                h = (h + 1) & mask
+    return nh
+
+
+@numba.njit(cache=True, nogil=True)
+def product_bound(a_indptr, a_indices, c_indptr, c_b, b_indptr):
+    """Sum over the candidate pairs (i, i') of min(sum over neighbours j of i of c_j,
+    deg_A(i) * deg_B(i')), with c_j the number of candidates of j: an upper bound on the
+    product graph's stored entries. One pass over A's adjacency and one over the pairs."""
+    n1 = c_indptr.shape[0] - 1
+    total = 0
+    for i in range(n1):
+        k0 = c_indptr[i]
+        k1 = c_indptr[i + 1]
+        if k1 == k0:
+            continue
+        reach = 0
+        for s in range(a_indptr[i], a_indptr[i + 1]):
+            j = a_indices[s]
+            reach += c_indptr[j + 1] - c_indptr[j]
+        deg = a_indptr[i + 1] - a_indptr[i]
+        for k in range(k0, k1):
+            ip = c_b[k]
+            total += min(reach, deg * (b_indptr[ip + 1] - b_indptr[ip]))
     return total
 
 

@@ -1,6 +1,7 @@
 import networkx as nx
 import numpy as np
 import pytest
+import scipy.sparse as sp
 
 from aligner.core.candidates import build_candidates
 from aligner.core.product import build_product, estimate_product_edges
@@ -114,3 +115,72 @@ def test_empty_product_keeps_direction_and_weights():
     assert prod.directed is True and prod.weights is not None and prod.weights.shape == (0,)
     prod = build_product(ia, xa, ia, xa, cand)
     assert prod.directed is False and prod.weights is None
+
+
+def _kron_restricted(n1, ea, wa, n2, eb, wb, cand, directed):
+    """Reference: scipy.sparse.kron of the two adjacency matrices, rows and columns restricted to
+    the candidates (index i * n2 + i', the order of the sorted candidate pairs)."""
+    def matrix(n, e, w):
+        w = np.ones(len(e)) if w is None else w
+        m = sp.coo_array((w, (e[:, 0], e[:, 1])), shape=(n, n))
+        return (m if directed else m + m.T).tocsr()
+    keep = cand.pairs[:, 0].astype(np.int64) * n2 + cand.pairs[:, 1]
+    K = sp.kron(matrix(n1, ea, wa), matrix(n2, eb, wb), format="csr")[keep][:, keep]
+    K = sp.csr_array(K)
+    K.sort_indices()
+    return K
+
+
+@pytest.mark.parametrize("directed", [False, True])
+@pytest.mark.parametrize("weighted", [False, True])
+@pytest.mark.parametrize("seed", [0, 1])
+def test_equals_scipy_kron_restricted_to_the_candidates(directed, weighted, seed, monkeypatch):
+    # Reference: scipy.sparse.kron(A, B) restricted to L: the same stored entries, row by row in
+    # the same (sorted) order, with weights w_A(i, j) * w_B(i', j') to the bit. Then again with
+    # the build split into ranges of nodes of A on parallel threads: the same arrays.
+    from aligner.core import product as product_module
+    from aligner.core.network import adjacency
+    rng = np.random.default_rng(seed)
+    n1, n2 = 40, 35
+    graphs = []
+    for n in (n1, n2):
+        e = np.argwhere(rng.random((n, n)) < 0.15)
+        e = e[e[:, 0] != e[:, 1]] if directed else e[e[:, 0] < e[:, 1]]
+        w = rng.random(len(e)) + 0.5 if weighted else None
+        graphs.append((e, w, adjacency(e, n, w, symmetric=not directed)))
+    (ea, wa, adj_a), (eb, wb, adj_b) = graphs
+    pairs = np.argwhere(rng.random((n1, n2)) < 0.3)
+    cand = build_candidates(pairs, rng.random(len(pairs)), n1, n2, top_k=6)
+    kw = {"directed": directed, "a_weights": adj_a[2] if weighted else None, "b_weights": adj_b[2] if weighted else None}
+    want = _kron_restricted(n1, ea, wa, n2, eb, wb, cand, directed)
+    one = build_product(adj_a[0], adj_a[1], adj_b[0], adj_b[1], cand, **kw)
+    monkeypatch.setattr(product_module, "PARALLEL_WORK", 0)
+    assert len(product_module._blocks(adj_a[0], cand, len(adj_b[1]) / n2)) > 2 or product_module.thread_count() < 2
+    split = build_product(adj_a[0], adj_a[1], adj_b[0], adj_b[1], cand, **kw)
+    assert want.nnz > 0
+    for prod in (one, split):
+        np.testing.assert_array_equal(prod.indptr, want.indptr)
+        np.testing.assert_array_equal(prod.indices, want.indices)
+        assert prod.indices.dtype == np.int32 and prod.indptr.dtype == np.int64
+        if weighted:
+            np.testing.assert_array_equal(prod.weights, want.data)
+        else:
+            assert prod.weights is None
+    # the memory estimate is an upper bound on the stored entries
+    assert estimate_product_edges(adj_a[0], adj_a[1], adj_b[0], cand) >= want.nnz
+
+
+def test_estimate_equals_its_formula():
+    # Reference: the documented bound computed with numpy: for pair (i, i'),
+    # min(sum over neighbours j of i of c_j, deg_A(i) * deg_B(i')), summed over the pairs.
+    rng = np.random.default_rng(3)
+    n1, n2 = 30, 25
+    _, ia, xa = csr(random_edges(n1, 0.2, rng), n1)
+    _, ib, xb = csr(random_edges(n2, 0.2, rng), n2)
+    pairs = np.argwhere(rng.random((n1, n2)) < 0.2)
+    cand = build_candidates(pairs, np.ones(len(pairs)), n1, n2, top_k=None)
+    c = np.diff(cand.a_indptr)
+    reach = np.array([c[xa[ia[i]:ia[i + 1]]].sum() for i in range(n1)])
+    i, ip = cand.pairs[:, 0], cand.pairs[:, 1]
+    want = np.minimum(reach[i], np.diff(ia)[i] * np.diff(ib)[ip]).sum()
+    assert estimate_product_edges(ia, xa, ib, cand) == want > 0
