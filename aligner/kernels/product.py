@@ -21,8 +21,9 @@ def product_rows(i0, i1, a_indptr, a_indices, b_indptr, b_indices, c_indptr, c_b
     a neighbour of i' in B (given out-adjacencies of directed networks: the out-lists of the
     product graph). Node i of A is handled at once for all its candidates: every neighbour b
     of every candidate partner i' goes into a small open-addressing hash table keyed by b
-    (sized to the node, so it stays in the fastest cache), then the candidates u = (j, j') of
-    the neighbours j of i look up j' in it. The hits are collected, then written row by row
+    (sized to the node, so it stays in the fastest cache; the candidates sharing a neighbour
+    b are chained under one key), then the candidates u = (j, j') of the neighbours j of i
+    look up j' in it. The hits are collected, then written row by row
     (a counting sort on the row): since candidates are sorted by (j, j') and A's neighbour
     lists are sorted, each row comes out sorted. Work per i: sum of deg_B(i') over its
     candidates, plus the candidates of its neighbours, plus the output.
@@ -41,8 +42,10 @@ def product_rows(i0, i1, a_indptr, a_indices, b_indptr, b_indices, c_indptr, c_b
     out_w = np.empty(cap if weighted else 0, dtype=np.float64)
     total = 0
     tab_key = np.full(64, _EMPTY, dtype=np.int32)
-    tab_row = np.empty(64, dtype=np.int32)
-    tab_w = np.empty(64 if weighted else 0, dtype=np.float64)
+    tab_head = np.empty(64, dtype=np.int32)
+    ent_row = np.empty(64, dtype=np.int32)
+    ent_next = np.empty(64, dtype=np.int32)
+    ent_w = np.empty(64 if weighted else 0, dtype=np.float64)
     hit_row = np.empty(256, dtype=np.int32)
     hit_u = np.empty(256, dtype=np.int32)
     hit_w = np.empty(256 if weighted else 0, dtype=np.float64)
@@ -61,27 +64,38 @@ def product_rows(i0, i1, a_indptr, a_indices, b_indptr, b_indices, c_indptr, c_b
             bits += 1
         if (1 << bits) > tab_key.shape[0]:
             tab_key = np.full(1 << bits, _EMPTY, dtype=np.int32)
-            tab_row = np.empty(1 << bits, dtype=np.int32)
-            tab_w = np.empty(1 << bits if weighted else 0, dtype=np.float64)
+            tab_head = np.empty(1 << bits, dtype=np.int32)
+        if ne > ent_row.shape[0]:
+            ent_row = np.empty(2 * ne, dtype=np.int32)
+            ent_next = np.empty(2 * ne, dtype=np.int32)
+            ent_w = np.empty(2 * ne if weighted else 0, dtype=np.float64)
         mask = (1 << bits) - 1
-        for k in range(k0, k1):  # the table: key b, row k - k0 (and w_B(i', b))
+        e = 0
+        for k in range(k0, k1):  # the table: key b -> its entries (row k - k0, w_B(i', b)), last first
             ip = c_b[k]
             for t in range(b_indptr[ip], b_indptr[ip + 1]):
                 b = b_indices[t]
                 h = ((b * _MIX) & 0xFFFFFFFF) >> (32 - bits)  # multiplicative hashing: the top bits
-                while tab_key[h] != _EMPTY:
+                while tab_key[h] != _EMPTY and tab_key[h] != b:
                     h = (h + 1) & mask
-                tab_key[h] = b
-                tab_row[h] = k - k0
+                if tab_key[h] == _EMPTY:
+                    tab_key[h] = b
+                    ent_next[e] = _EMPTY
+                else:
+                    ent_next[e] = tab_head[h]
+                tab_head[h] = e
+                ent_row[e] = k - k0
                 if weighted:
-                    tab_w[h] = b_w[t]
-        nh = _hits(i, a_indptr, a_indices, a_w, c_indptr, c_b, bits, tab_key, tab_row, tab_w, hit_row, hit_u, hit_w)
+                    ent_w[e] = b_w[t]
+                e += 1
+        nh = _hits(i, a_indptr, a_indices, a_w, c_indptr, c_b, bits, tab_key, tab_head, ent_row, ent_next, ent_w,
+                   hit_row, hit_u, hit_w)
         while nh < 0:  # out of room: grow and look again
             hit_row = np.empty(2 * hit_row.shape[0], dtype=np.int32)
             hit_u = np.empty(hit_row.shape[0], dtype=np.int32)
             hit_w = np.empty(hit_row.shape[0] if weighted else 0, dtype=np.float64)
-            nh = _hits(i, a_indptr, a_indices, a_w, c_indptr, c_b, bits, tab_key, tab_row, tab_w, hit_row, hit_u,
-                       hit_w)
+            nh = _hits(i, a_indptr, a_indices, a_w, c_indptr, c_b, bits, tab_key, tab_head, ent_row, ent_next, ent_w,
+                       hit_row, hit_u, hit_w)
         tab_key[: 1 << bits] = _EMPTY
         if nh == 0:
             continue
@@ -119,7 +133,8 @@ def product_rows(i0, i1, a_indptr, a_indices, b_indptr, b_indices, c_indptr, c_b
 
 
 @numba.njit(cache=True, nogil=True)
-def _hits(i, a_indptr, a_indices, a_w, c_indptr, c_b, bits, tab_key, tab_row, tab_w, hit_row, hit_u, hit_w):
+def _hits(i, a_indptr, a_indices, a_w, c_indptr, c_b, bits, tab_key, tab_head, ent_row, ent_next, ent_w, hit_row,
+          hit_u, hit_w):
     """Look up the partner j' of every candidate u = (j, j') of every neighbour j of i: one hit
     (row, u, weight) per table entry of key j'. The number of hits, or -1 when they do not fit."""
     mask = (1 << bits) - 1
@@ -131,16 +146,20 @@ def _hits(i, a_indptr, a_indices, a_w, c_indptr, c_b, bits, tab_key, tab_row, ta
         for u in range(c_indptr[j], c_indptr[j + 1]):
             b = c_b[u]
             h = ((b * _MIX) & 0xFFFFFFFF) >> (32 - bits)  # multiplicative hashing: the top bits
-            while tab_key[h] != _EMPTY:
-                if tab_key[h] == b:
-                    if nh == room:
-                        return -1
-                    hit_row[nh] = tab_row[h]
-                    hit_u[nh] = u
-                    if weighted:
-                        hit_w[nh] = a_w[s] * tab_w[h]
-                    nh += 1
+            while tab_key[h] != _EMPTY and tab_key[h] != b:
                 h = (h + 1) & mask
+            if tab_key[h] == _EMPTY:
+                continue
+            e = tab_head[h]
+            while e != _EMPTY:
+                if nh == room:
+                    return -1
+                hit_row[nh] = ent_row[e]
+                hit_u[nh] = u
+                if weighted:
+                    hit_w[nh] = a_w[s] * ent_w[e]
+                nh += 1
+                e = ent_next[e]
     return nh
 
 

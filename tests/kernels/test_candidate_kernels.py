@@ -62,3 +62,14 @@ def test_top_k_rows_by_hand():
     drop = np.zeros(8, dtype=bool)
     drop_below_top_k(scores, np.array([0, 4, 7, 8]), np.empty(0, dtype=np.int64), 2, drop)
     assert np.flatnonzero(drop).tolist() == [0, 3, 6]
+
+
+def test_kth_highest_equals_numpy_sort():
+    # Reference: numpy.sort, read from the top; many ties (small integer values) and no ties.
+    from aligner.kernels.candidates import _kth_highest
+    rng = np.random.default_rng(5)
+    for trial in range(300):
+        n = int(rng.integers(1, 30))
+        vals = rng.random(n) if trial % 2 else rng.integers(0, 3, n).astype(float)
+        k = int(rng.integers(1, n + 1))
+        assert _kth_highest(vals.copy(), k) == np.sort(vals)[::-1][k - 1]
