@@ -9,6 +9,7 @@ alignment).
 
 from __future__ import annotations
 
+import weakref
 from dataclasses import dataclass, field
 
 import numpy as np
@@ -36,6 +37,24 @@ def as_arrow_strings(values) -> pa.Array:
     return pa.array(np.asarray(values, dtype=object), type=pa.string())
 
 
+#: id(names array) -> (weak reference to it, the same identifiers as a pyarrow array)
+_ARROW_NAMES: dict[int, tuple[weakref.ref, pa.Array]] = {}
+
+
+def _remember(names: np.ndarray, arrow: pa.Array) -> None:
+    """Keep the pyarrow form of a network's ``names`` while that array lives (not copied again)."""
+    key = id(names)
+    _ARROW_NAMES[key] = (weakref.ref(names, lambda _, key=key: _ARROW_NAMES.pop(key, None)), arrow)
+
+
+def _arrow_names(names: np.ndarray) -> pa.Array:
+    """``names`` as a pyarrow string array: the one :func:`intern` made with it, else converted."""
+    hit = _ARROW_NAMES.get(id(names))
+    if hit is not None and hit[0]() is names:
+        return hit[1]
+    return as_arrow_strings(names)
+
+
 def intern(a, b) -> tuple[np.ndarray, np.ndarray]:
     """Sorted unique identifiers of two columns and the index of every entry among them.
 
@@ -53,10 +72,19 @@ def intern(a, b) -> tuple[np.ndarray, np.ndarray]:
         Index in ``names`` of every entry of ``a`` followed by every entry of ``b``.
     """
     both = pa.concat_arrays([as_arrow_strings(a), as_arrow_strings(b)])
-    uniq = pac.unique(both)
-    uniq = uniq.take(pac.array_sort_indices(uniq))
-    codes = pac.index_in(both, value_set=uniq).to_numpy(zero_copy_only=False)
-    return uniq.to_numpy(zero_copy_only=False).astype(object), codes.astype(np.int64)
+    if len(both) == 0:
+        return np.empty(0, dtype=object), np.empty(0, dtype=np.int64)
+    # one hash pass gives every entry's index among the identifiers in order of first
+    # appearance; sorting those identifiers (few) renumbers the entries by rank
+    enc = pac.dictionary_encode(both)
+    order = pac.array_sort_indices(enc.dictionary).to_numpy(zero_copy_only=False)
+    rank = np.empty(len(order), dtype=np.int64)
+    rank[order] = np.arange(len(order), dtype=np.int64)
+    codes = rank[enc.indices.to_numpy(zero_copy_only=False)]
+    arrow = enc.dictionary.take(order)
+    names = arrow.to_numpy(zero_copy_only=False).astype(object)
+    _remember(names, arrow)
+    return names, codes
 
 
 def lookup(names: np.ndarray, query) -> np.ndarray:
@@ -79,7 +107,7 @@ def lookup(names: np.ndarray, query) -> np.ndarray:
     """
     if len(names) == 0:
         return np.full(len(query), -1, dtype=np.int64)
-    idx = pac.index_in(as_arrow_strings(query), value_set=as_arrow_strings(names))
+    idx = pac.index_in(as_arrow_strings(query), value_set=_arrow_names(names))
     return pac.fill_null(idx, -1).to_numpy(zero_copy_only=False).astype(np.int64)
 
 

@@ -11,9 +11,12 @@ from dataclasses import dataclass
 import numpy as np
 import numpy.typing as npt
 
-__all__ = ["Network", "network_from_edges", "canonical_edges", "canonical_arcs"]
+from aligner.kernels.tables import fill_symmetric, merge_sorted, rows_sorted, sort_rows
+
+__all__ = ["Network", "network_from_edges", "canonical_edges", "canonical_arcs", "unique_sorted"]
 
 INDEX = np.int32  # node and pair indices; indptr arrays are int64
+_EMPTY = np.empty(0, dtype=np.float64)
 
 
 @dataclass(frozen=True, eq=False)
@@ -128,27 +131,37 @@ def _canonical_rows(
 ) -> tuple[npt.NDArray[np.int32], npt.NDArray[np.float64] | None, int, int]:
     """Rows (u, v) without self-loops, unique and sorted (``u < v`` first when ``undirected``).
 
-    Returns the rows, their summed weights, the self-loops dropped and the duplicate rows merged.
+    Returns the rows, their summed weights (in row order), the self-loops dropped and the
+    duplicate rows merged.
     """
     u = np.asarray(u, dtype=np.int64)
     v = np.asarray(v, dtype=np.int64)
-    keep = u != v
-    n_loops = int((~keep).sum())
-    a, b = (np.minimum(u[keep], v[keep]), np.maximum(u[keep], v[keep])) if undirected else (u[keep], v[keep])
-    w = None if weights is None else np.asarray(weights, dtype=np.float64)[keep]
-    if len(a) == 0:
-        return np.empty((0, 2), dtype=INDEX), (None if w is None else np.empty(0)), n_loops, 0
-    span = int(max(a.max(), b.max())) + 1
-    key = a * span + b
-    order = np.argsort(key, kind="stable")
-    key = key[order]
-    first = np.ones(len(key), dtype=bool)
-    first[1:] = key[1:] != key[:-1]
-    uniq = key[first]
-    rows = np.stack([uniq // span, uniq % span], axis=1).astype(INDEX)
-    if w is not None:
-        w = np.bincount(np.cumsum(first) - 1, weights=w[order], minlength=len(uniq))
-    return rows, w, n_loops, int(len(key) - len(uniq))
+    if len(u) and min(int(u.min()), int(v.min())) < 0:
+        raise ValueError("node indices must be >= 0")
+    loops = u == v
+    n_loops = int(np.count_nonzero(loops))
+    first, second = (np.minimum(u, v), np.maximum(u, v)) if undirected else (u.copy(), v)
+    first[loops] = -1  # left out
+    merged = None if weights is None else np.ascontiguousarray(weights, dtype=np.float64)
+    rows, merged, n_dup = unique_sorted(first, second, merged)
+    return rows, merged, n_loops, n_dup
+
+
+def unique_sorted(first: npt.NDArray[np.int64], second: npt.NDArray[np.int64],
+                  values: npt.NDArray[np.float64] | None = None, *, largest: bool = False):
+    """The unique rows (first, second), sorted, with their values merged; rows with ``first < 0`` left out.
+
+    Values are summed in row order (``largest``: the highest kept, 0.0 above -0.0, NaN kept).
+    Returns the rows (int32, shape (k, 2)), their values (None without ``values``) and the
+    number of repeated rows merged. Sorted by counting (:func:`aligner.kernels.tables.sort_rows`).
+    """
+    first = np.ascontiguousarray(first, dtype=np.int64)
+    second = np.ascontiguousarray(second, dtype=np.int64)
+    n1 = int(first.max()) + 1 if len(first) else 0
+    order = sort_rows(first, second, max(n1, 0))
+    mode = 0 if values is None else (2 if largest else 1)
+    rows, merged, n_dup = merge_sorted(first, second, order, _EMPTY if values is None else values, mode)
+    return rows, (None if values is None else merged), int(n_dup)
 
 
 def canonical_edges(
@@ -223,23 +236,28 @@ def adjacency(edges: npt.NDArray[np.integer], n: int, weights: npt.NDArray[np.fl
 
     ``symmetric``: every edge is stored from both ends (an undirected network); otherwise each
     row (u, v) is the arc u -> v, stored in u's list. With ``weights`` a third array gives the
-    weight of every stored entry.
+    weight of every stored entry. Entries of one row keep the order of ``np.lexsort`` (stable).
+    Canonical edges (sorted, unique, ``u < v``) are placed in one counting and one fill pass.
     """
+    edges = np.asarray(edges)
+    src = np.ascontiguousarray(edges[:, 0], dtype=np.int64)
+    dst = np.ascontiguousarray(edges[:, 1], dtype=np.int64)
+    if len(src) and (min(int(src.min()), int(dst.min())) < 0 or max(int(src.max()), int(dst.max())) >= n):
+        raise ValueError(f"edge endpoints must be in [0, {n})")
+    w = None if weights is None else np.asarray(weights, dtype=np.float64)
+    if symmetric and rows_sorted(src, dst, True):
+        indptr, indices, ew = fill_symmetric(src, dst, n, _EMPTY if w is None else w, w is not None)
+        return (indptr, indices) if w is None else (indptr, indices, ew)
     if symmetric:
-        src = np.concatenate([edges[:, 0], edges[:, 1]]).astype(np.int64)
-        dst = np.concatenate([edges[:, 1], edges[:, 0]]).astype(np.int64)
-    else:
-        src = np.asarray(edges[:, 0], dtype=np.int64)
-        dst = np.asarray(edges[:, 1], dtype=np.int64)
-    order = np.lexsort((dst, src))
-    counts = np.bincount(src, minlength=n)
+        src, dst = np.concatenate([src, dst]), np.concatenate([dst, src])
+        w = None if w is None else np.concatenate([w, w])
     indptr = np.zeros(n + 1, dtype=np.int64)
-    np.cumsum(counts, out=indptr[1:])
-    if weights is None:
-        return indptr, dst[order].astype(INDEX)
-    w = np.asarray(weights, dtype=np.float64)
-    w = np.concatenate([w, w]) if symmetric else w
-    return indptr, dst[order].astype(INDEX), w[order]
+    np.cumsum(np.bincount(src, minlength=n), out=indptr[1:])
+    order = None if not symmetric and rows_sorted(src, dst, False) else sort_rows(src, dst, n)
+    indices = (dst if order is None else dst[order]).astype(INDEX)
+    if w is None:
+        return indptr, indices
+    return indptr, indices, (w.copy() if order is None else w[order])
 
 
 def merge_duplicate_pairs(
@@ -247,18 +265,15 @@ def merge_duplicate_pairs(
 ) -> tuple[npt.NDArray[np.int64], npt.NDArray[np.float64], int]:
     """Unique (node of A, node of B) pairs sorted by (i, i'), each with its highest score.
 
-    Returns the pairs, their scores and the number of duplicate rows merged. One sort.
+    Returns the pairs, their scores and the number of duplicate rows merged. Sorted by
+    counting (:func:`aligner.kernels.tables.sort_rows`); among repeats of a pair the highest
+    score is kept (0.0 above -0.0, so that the order of the rows does not matter).
     """
     pairs = np.asarray(pairs, dtype=np.int64).reshape(-1, 2)
     scores = np.asarray(scores, dtype=np.float64).reshape(-1)
     if len(pairs) == 0:
         return pairs, scores, 0
-    key = pairs[:, 0] * n2 + pairs[:, 1]
-    order = np.argsort(key)
-    ks = key[order]
-    first = np.ones(len(ks), dtype=bool)
-    first[1:] = ks[1:] != ks[:-1]
-    starts = np.flatnonzero(first)
-    best = np.maximum.reduceat(scores[order], starts)
-    ks = ks[starts]
-    return np.stack([ks // n2, ks % n2], axis=1), best, int(len(key) - len(starts))
+    if int(pairs.min()) < 0:
+        raise ValueError("node indices must be >= 0")
+    rows, best, n_dup = unique_sorted(pairs[:, 0], pairs[:, 1], scores, largest=True)
+    return rows.astype(np.int64), best, n_dup

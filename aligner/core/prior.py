@@ -14,7 +14,7 @@ from typing import Callable
 
 import numpy as np
 
-from aligner.core.network import Network, merge_duplicate_pairs
+from aligner.core.network import Network, unique_sorted
 from aligner.errors import InputFormatError
 from aligner.core.identifiers import lookup, text_at
 
@@ -134,11 +134,15 @@ def prior_from_columns(
     ia = lookup(net_a.names, a)
     ib = lookup(net_b.names, b)
     known = (ia >= 0) & (ib >= 0)
-    examples = [f"{text_at(a, r)} / {text_at(b, r)}" for r in np.flatnonzero(~known)[:3]]
-    ok = known & keep
-    pairs = np.stack([ia[ok], ib[ok]], axis=1).astype(np.int32) if ok.any() else np.empty((0, 2), np.int32)
+    n_unknown = len(known) - int(np.count_nonzero(known))
+    examples = [f"{text_at(a, r)} / {text_at(b, r)}" for r in np.flatnonzero(~known)[:3]] if n_unknown else []
+    n_dropped = 0
+    if n_unknown:
+        ia[ib < 0] = -1  # rows with ia < 0 are left out below
+    if not keep.all():
+        n_dropped = int(np.count_nonzero(known & ~keep))
+        ia[~keep] = -1
     # duplicate pairs: the highest similarity wins
-    pairs, sc, n_dup = merge_duplicate_pairs(pairs, scores[ok], net_b.n)
-    return PriorTable(pairs=pairs.astype(np.int32), scores=sc, n_rows=len(values),
-                      n_unknown=int((~known).sum()), unknown_examples=examples,
-                      n_dropped_kind=int((known & ~keep).sum()), n_duplicates=n_dup, source=source)
+    pairs, sc, n_dup = unique_sorted(ia, ib, scores, largest=True)
+    return PriorTable(pairs=pairs, scores=sc, n_rows=len(values), n_unknown=n_unknown, unknown_examples=examples,
+                      n_dropped_kind=n_dropped, n_duplicates=n_dup, source=source)

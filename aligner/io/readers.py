@@ -408,25 +408,49 @@ def _read_arrow(path: str, sep: str | None, ncols: int, skip: int) -> list | Non
         col = table.column(name)
         col = col.combine_chunks() if isinstance(col, pa.ChunkedArray) else col
         if k < 2:
-            if len(col) and (pac.any(pac.starts_with(pac.utf8_ltrim(col, characters=" \t"), "#")).as_py()
-                             or pac.any(pac.equal(pac.utf8_length(col), 0)).as_py()
-                             or pac.any(pac.match_substring_regex(col, "[\r\n\"]")).as_py()):
-                return None  # a comment line, an empty field, a quote: the careful reader
-            if k == 0 and len(col) and col[0].as_py().startswith("\ufeff"):
-                return None  # a byte-order mark pyarrow kept
+            if _needs_care(col, first=k == 0):
+                return None  # a comment line, an empty field, a quote, a byte-order mark: the careful reader
             cols.append(col)
         else:
             values = None
-            if pa.types.is_string(col.type) and len(col) and (
-                    pac.any(pac.match_substring_regex(col, "[\r\n\"]")).as_py()
-                    or pac.any(pac.equal(pac.utf8_length(col), 0)).as_py()):
+            if pa.types.is_string(col.type) and _needs_care(col, first=False, comment=False):
                 return None  # a quote or an empty field
             if pa.types.is_floating(col.type) or pa.types.is_integer(col.type):
-                values = col.to_numpy(zero_copy_only=False).astype(np.float64)
+                values = col.to_numpy(zero_copy_only=False).astype(np.float64, copy=False)
             # a column that is not all finite numbers stays as text for the careful checks
             cols.append(values if values is not None and np.isfinite(values).all()
                         else col.cast(pa.string()).to_numpy(zero_copy_only=False))
     return cols
+
+
+def _needs_care(col: pa.Array, *, first: bool, comment: bool = True) -> bool:
+    """Whether a string column read by pyarrow holds what only the careful reader handles.
+
+    An empty value, a line break or a quote in a value, a value that starts with '#' after
+    spaces and tabs (``comment``: a comment line further down), a byte-order mark at the start
+    (``first``: the first column). One look at the column's offsets and bytes: the values of
+    a UTF-8 column hold these ASCII bytes only as those characters.
+    """
+    if len(col) == 0:
+        return False
+    _, offsets, data = col.buffers()
+    offsets = np.frombuffer(offsets, dtype=np.int32)[col.offset:col.offset + len(col) + 1]
+    lo, hi = int(offsets[0]), int(offsets[-1])
+    text = np.frombuffer(data, dtype=np.uint8)[lo:hi] if data is not None else np.empty(0, np.uint8)
+    if (offsets[1:] == offsets[:-1]).any():
+        return True
+    raw = text.tobytes()  # searched for a byte at C speed (memchr)
+    if b"\n" in raw or b"\r" in raw or b'"' in raw:
+        return True
+    if first and bytes(text[:3]) == "\ufeff".encode():
+        return True  # a byte-order mark pyarrow kept
+    if comment:
+        lead = text[offsets[:-1] - lo]
+        if (lead == ord("#")).any():
+            return True
+        if ((lead == ord(" ")) | (lead == ord("\t"))).any():
+            return pac.any(pac.starts_with(pac.utf8_ltrim(col, characters=" \t"), "#")).as_py()
+    return False
 
 
 def _is_gzip(path: str) -> bool:

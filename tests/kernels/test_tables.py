@@ -1,0 +1,87 @@
+"""Counting sorts, merging of repeated rows and the CSR fill against numpy and scipy."""
+
+import numpy as np
+import pytest
+import scipy.sparse as sp
+
+from aligner.kernels.tables import _SHORT, fill_symmetric, merge_sorted, rows_sorted, sort_rows
+
+
+@pytest.mark.parametrize("n1, n2, m", [(5, 4, 60), (50, 1000, 3000), (3, 7, 500), (1, 1, 0)])
+def test_sort_rows_is_the_stable_lexsort(n1, n2, m):
+    # reference: numpy's stable np.lexsort; runs longer than _SHORT take the two-pass radix branch
+    rng = np.random.default_rng(n1 + m)
+    k1 = rng.integers(0, n1, m).astype(np.int64)
+    k2 = rng.integers(0, n2, m).astype(np.int64)
+    assert np.array_equal(sort_rows(k1, k2, n1), np.lexsort((k2, k1)))
+
+
+def test_sort_rows_both_branches_and_left_out_rows():
+    # short runs (insertion) and one long run (radix) must both equal np.lexsort on the kept rows
+    rng = np.random.default_rng(1)
+    for long_run in (0, _SHORT + 1, 5 * _SHORT):
+        k1 = np.concatenate([rng.integers(0, 40, 60), np.full(long_run, 7)]).astype(np.int64)
+        k2 = rng.integers(0, 9, len(k1)).astype(np.int64)
+        k1[rng.random(len(k1)) < 0.2] = -1  # left out
+        keep = np.flatnonzero(k1 >= 0)
+        want = keep[np.lexsort((k2[keep], k1[keep]))]
+        assert np.array_equal(sort_rows(k1, k2, 40), want), long_run
+
+
+def test_merge_sorted_sums_like_bincount_and_keeps_the_largest():
+    rng = np.random.default_rng(2)
+    k1 = rng.integers(0, 6, 400).astype(np.int64)
+    k2 = rng.integers(0, 5, 400).astype(np.int64)
+    w = rng.standard_normal(400)
+    order = np.lexsort((k2, k1))
+    key = k1 * 5 + k2
+    uniq, inverse = np.unique(key, return_inverse=True)
+    rows, summed, dup = merge_sorted(k1, k2, order, w, 1)
+    assert np.array_equal(rows, np.stack([uniq // 5, uniq % 5], axis=1)) and rows.dtype == np.int32
+    # np.bincount adds in row order, as the kernel does: equal bit for bit
+    assert np.array_equal(summed, np.bincount(inverse, weights=w)) and dup == 400 - len(uniq)
+    _, largest, _ = merge_sorted(k1, k2, order, w, 2)
+    assert np.array_equal(largest, [w[key == u].max() for u in uniq])
+    rows0, none, _ = merge_sorted(k1, k2, order, w, 0)
+    assert np.array_equal(rows0, rows) and len(none) == 0
+
+
+def test_largest_of_zeros_and_nan():
+    # hand-worked: 0.0 wins over -0.0 in either order (IEEE total order), NaN propagates as np.maximum
+    k = np.zeros(2, np.int64)
+    for w in ([0.0, -0.0], [-0.0, 0.0]):
+        _, v, _ = merge_sorted(k, k, np.arange(2), np.array(w), 2)
+        assert v[0] == 0 and np.copysign(1, v[0]) == 1
+    for w in ([np.nan, 1.0], [1.0, np.nan]):
+        _, v, _ = merge_sorted(k, k, np.arange(2), np.array(w), 2)
+        assert np.isnan(v[0]) and np.isnan(np.maximum.reduce(w))
+
+
+def test_fill_symmetric_equals_scipy_csr():
+    # reference: scipy.sparse (coo -> csr sums nothing here: edges are unique; sorted indices)
+    rng = np.random.default_rng(3)
+    n = 30
+    key = np.unique(rng.integers(0, n * n, 120))
+    a, b = key // n, key % n
+    keep = a < b
+    a, b = a[keep].astype(np.int64), b[keep].astype(np.int64)
+    w = rng.random(len(a))
+    assert rows_sorted(a, b, True)
+    ip, ix, ew = fill_symmetric(a, b, n, w, True)
+    ref = sp.coo_matrix((np.concatenate([w, w]), (np.concatenate([a, b]), np.concatenate([b, a]))), shape=(n, n)).tocsr()
+    ref.sort_indices()
+    assert np.array_equal(ip, ref.indptr) and np.array_equal(ix, ref.indices) and np.array_equal(ew, ref.data)
+    assert ix.dtype == np.int32 and ip.dtype == np.int64
+
+
+@pytest.mark.parametrize("a, b, upper, want", [
+    ([0, 0, 1], [1, 2, 2], True, True),
+    ([0, 0, 1], [1, 1, 2], True, False),   # a repeat
+    ([0, 1, 0], [1, 2, 2], True, False),   # out of order
+    ([1], [0], True, False),               # not a < b
+    ([1, 1, 2], [0, 0, 1], False, True),   # arcs: repeats and a > b allowed
+    ([1, 0], [0, 1], False, False),
+    ([], [], True, True),
+])
+def test_rows_sorted_hand_worked(a, b, upper, want):
+    assert rows_sorted(np.array(a, np.int64), np.array(b, np.int64), upper) is want
