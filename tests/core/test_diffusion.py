@@ -250,10 +250,12 @@ def test_report_keys_and_values():
         res = diffuse(prod, h, column_scale(prod), alpha=0.6, tol=1e-7, solver=solver)
         assert res.report() == {"solver": solver, "alpha": 0.6, "tol": 1e-7, key: res.steps,
                                 "edge_touches": res.edge_touches, "residual_l1": res.residual,
-                                "error_bound_l1": res.error_bound, "seconds": round(res.seconds, 4)}
-        assert res.steps > 0 and res.edge_touches > 0 and res.seconds >= 0
+                                "error_bound_l1": res.error_bound, "seconds": round(res.seconds, 4),
+                                "edge_touches_per_second": round(res.edge_touches / res.seconds)}
+        assert res.steps > 0 and res.edge_touches > 0 and res.seconds > 0
     res = diffuse(prod, h, column_scale(prod), alpha=0.0)
     assert (res.steps, res.edge_touches, res.residual, res.error_bound) == (0, 0, 0.0, 0.0)
+    assert res.report()["edge_touches_per_second"] in (0, None)  # no work: a rate of 0, or none without time
 
 
 # --------------------------------------------------------------------------- edges of the contract
