@@ -31,8 +31,9 @@ from typing import Any, Iterable, Mapping
 from aligner.checks import bad_parameter, check_choice, check_int, check_real
 from aligner.errors import InvalidParameterError
 
-__all__ = ["Spec", "option", "AlignConfig", "QueryConfig", "LabelConfig", "specs", "describe", "from_options",
-           "with_options", "SCORE_KINDS", "SOLVERS", "NORMALIZATIONS", "ROUNDINGS", "HEADERS", "SIDES"]
+__all__ = ["Spec", "option", "AlignConfig", "QueryConfig", "LabelConfig", "EngineConfig", "specs", "describe",
+           "from_options", "with_options", "SCORE_KINDS", "SOLVERS", "NORMALIZATIONS", "ROUNDINGS", "HEADERS", "SIDES",
+           "ENGINES"]
 
 SCORE_KINDS = ("similarity", "evalue", "distance")
 SOLVERS = ("push", "power")
@@ -40,6 +41,7 @@ NORMALIZATIONS = ("restricted", "product")
 ROUNDINGS = ("auto", "sparse", "dense", "scipy")
 HEADERS = ("auto", "yes", "no")
 SIDES = ("a", "b")
+ENGINES = ("local", "dask")
 
 
 @dataclass(frozen=True)
@@ -219,6 +221,26 @@ class LabelConfig(_Config):
     min_similarity: float = option(0.1, "Drop pairs whose cosine similarity is below this, in (0, 1].",
                                    flag="--min-similarity", group="Labels", kind="real", low=0.0, high=1.0,
                                    closed="right")
+
+
+@dataclass(frozen=True, kw_only=True)
+class EngineConfig(_Config):
+    """Where an alignment runs (``aligner align --engine``); not part of the alignment's options,
+    since every engine computes the same alignment."""
+
+    engine: str = option(
+        "local", "Where to run: local (this process) or dask (product graph, diffusion and matching on a dask "
+        "cluster; needs the dask extra: pip install 'aligner[dask]').", flag="--engine", group="Engine",
+        kind="choice", choices=ENGINES)
+    scheduler: str | None = option(
+        None, "With --engine dask: address of a running dask scheduler (such as tcp://host:8786). Default: start "
+        "a local cluster of --workers processes.", flag="--scheduler", group="Engine", kind="text", optional=True)
+    workers: int = option(
+        2, "With --engine dask and no --scheduler: worker processes of the local cluster.", flag="--workers",
+        group="Engine", kind="int", low=1)
+    partitions: int | None = option(
+        None, "With --engine dask: blocks of nodes of A (default: the number of workers).", flag="--partitions",
+        group="Engine", kind="int", low=1, optional=True)
 
 
 # --------------------------------------------------------------------------- helpers

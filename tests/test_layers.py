@@ -25,8 +25,9 @@ ALLOWED = {
     "datasets": BASE | {"core", "kernels", "io", "priors"},
     "pipeline": BASE | {"core", "io", "priors"},
     "analysis": BASE | {"core", "kernels", "io", "priors", "pipeline"},
+    "engines": BASE | {"core", "kernels", "pipeline"},
     "render": BASE | {"io", "analysis"},
-    "cli": BASE | {"core", "io", "priors", "datasets", "pipeline", "analysis", "render"},
+    "cli": BASE | {"core", "io", "priors", "datasets", "pipeline", "analysis", "render", "engines"},
 }
 
 
@@ -90,7 +91,8 @@ def test_the_command_line_starts_without_the_numerical_stack():
     import subprocess
     import sys
 
-    code = ("import sys, aligner.cli; heavy = [m for m in ('numpy', 'pandas', 'scipy', 'numba', 'matplotlib') "
+    code = ("import sys, aligner.cli; heavy = [m for m in ('numpy', 'pandas', 'scipy', 'numba', 'matplotlib', "
+            "'dask', 'distributed') "
             "if m in sys.modules]; print(','.join(heavy))")
     out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, check=True)
     assert out.stdout.strip() == "", f"importing aligner.cli loads {out.stdout.strip()}"

@@ -10,20 +10,38 @@ import typer
 
 from aligner.cli.options import Force, Json, Out, Prior, Quiet, Seeds, Truth, Use, command
 from aligner.cli.runtime import check_inputs, out, progress, say
-from aligner.config import AlignConfig
+from aligner.config import AlignConfig, EngineConfig
+from aligner.errors import InvalidParameterError
 
 NetworkA = Annotated[Path, typer.Argument(help="Edge list of network A (TSV/CSV, optional weight column, may be "
                                           "gzip-compressed).")]
 NetworkB = Annotated[Path, typer.Argument(help="Edge list of network B, the same way.")]
 
 
+def check_engine(engine: EngineConfig) -> None:
+    """Refuse engine options that do not fit, and the dask engine when dask is not installed, before any work."""
+    if engine.engine == "local":
+        for name in ("scheduler", "partitions"):
+            if getattr(engine, name) is not None:
+                raise InvalidParameterError(f"{name} is an option of the dask engine; add --engine dask", param=name)
+        return
+    from importlib.util import find_spec
+
+    if find_spec("dask") is None or find_spec("distributed") is None:
+        raise InvalidParameterError("engine dask needs the packages dask and distributed, which are not installed; "
+                                    "install the extra with: pip install 'aligner[dask]'", param="engine")
+
+
 def run_align(network_a: Path, network_b: Path, prior: Path | None, outdir: Path | None, *, config: AlignConfig,
-              truth: Path | None = None, seeds: Path | None = None, force: bool = False, quiet: bool = False):
+              truth: Path | None = None, seeds: Path | None = None, force: bool = False, quiet: bool = False,
+              engine: EngineConfig | None = None):
     """Check the inputs and the output directory, align with a progress line, write, print the summary.
 
     Shared by ``align`` and ``demo``; returns the :class:`~aligner.pipeline.AlignmentResult`.
     """
+    engine = engine or EngineConfig()
     check_inputs(network_a, network_b, prior, truth, seeds)
+    check_engine(engine)
     from aligner.io.outputs import check_outdir, write_outputs
     from aligner.pipeline import STAGES, Clock, align
     from aligner.render.console import summary_table
@@ -32,8 +50,15 @@ def run_align(network_a: Path, network_b: Path, prior: Path | None, outdir: Path
     if outdir is not None:
         check_outdir(outdir, force=force)  # refuse before any work, not after it
     with progress(quiet, len(STAGES)) as bar:
-        res = align(network_a, network_b, prior, seeds=seeds, truth=truth, config=config, progress=bar.stage,
-                    permutation_progress=bar.count)
+        if engine.engine == "dask":
+            from aligner.engines.dask.engine import align as dask_align
+
+            res = dask_align(network_a, network_b, prior, seeds=seeds, truth=truth, config=config,
+                             progress=bar.stage, scheduler=engine.scheduler, workers=engine.workers,
+                             partitions=engine.partitions)
+        else:
+            res = align(network_a, network_b, prior, seeds=seeds, truth=truth, config=config, progress=bar.stage,
+                        permutation_progress=bar.count)
         bar.stage("writing")
         written = write_outputs(outdir, res, force=force) if outdir is not None else []
     if not quiet:
@@ -43,11 +68,13 @@ def run_align(network_a: Path, network_b: Path, prior: Path | None, outdir: Path
     return res
 
 
-@command(Use(AlignConfig))
+@command(Use(AlignConfig), Use(EngineConfig, into="engine"))
 def align(network_a: NetworkA, network_b: NetworkB, outdir: Out, prior: Prior = None, truth: Truth = None,
-          seeds: Seeds = None, force: Force = False, quiet: Quiet = False, *, config: AlignConfig):
+          seeds: Seeds = None, force: Force = False, quiet: Quiet = False, *, config: AlignConfig,
+          engine: EngineConfig):
     """Align network A to network B; write alignment.tsv, conserved_edges.tsv and summary.json to --out."""
-    run_align(network_a, network_b, prior, outdir, config=config, truth=truth, seeds=seeds, force=force, quiet=quiet)
+    run_align(network_a, network_b, prior, outdir, config=config, truth=truth, seeds=seeds, force=force, quiet=quiet,
+              engine=engine)
 
 
 @command(Use(AlignConfig, ("delimiter", "header", "directed", "weighted")))

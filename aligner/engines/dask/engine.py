@@ -1,0 +1,317 @@
+"""The dask engine: prepare on the client, build the product graph, diffuse and match on the
+cluster, refine and score on the client through the pipeline's own stage functions.
+
+:class:`BlockCluster` holds the blocks on the workers (one future each, every task of a block
+pinned to the worker that holds it, so no block's arrays move after it is built) and the one
+exchange the rounds use: each message is picked out of its sender's result on the sender's
+worker, then moved to its receiver.
+"""
+
+from __future__ import annotations
+
+import time
+from contextlib import contextmanager
+from typing import Any
+
+import numpy as np
+
+from aligner.config import AlignConfig, from_options
+from aligner.core.diffusion import DiffusionResult, prior_vector
+from aligner.core.product import ProductGraph, estimate_product_edges
+from aligner.core.rounding import Matching
+from aligner.errors import InvalidParameterError
+from aligner.engines.dask import auction, blocks, diffusion
+from aligner.pipeline import (AlignmentResult, Candidates, Clock, Problem, evaluate, find_candidates, improve,
+                              read_inputs, summarize)
+
+__all__ = ["BlockCluster", "connect", "align", "CONNECT_TIMEOUT"]
+
+#: how long to try to reach a scheduler before giving up
+CONNECT_TIMEOUT = "10s"
+
+
+class BlockCluster:
+    """The blocks of one problem on a dask cluster.
+
+    Blocks are dealt to the workers once (largest first, round-robin) and never move. The blocks
+    of one worker form its group, and every step runs as one task per group that loops over the
+    group's blocks: the scheduler sees a handful of tasks per round whatever the number of blocks.
+    A :class:`Group` result is a list of futures, one per group, each holding the list of its
+    blocks' results.
+    """
+
+    def __init__(self, client, inputs: list[blocks.BlockInput], node_bounds: np.ndarray):
+        self.client = client
+        self.k = len(inputs)
+        self.node_bounds = node_bounds
+        workers = sorted(client.scheduler_info()["workers"])
+        order = np.argsort([-len(i.c_b) - len(i.a_indices) for i in inputs], kind="stable")
+        worker_of = {}
+        for rank, b in enumerate(order):
+            worker_of[int(b)] = workers[rank % len(workers)]
+        self.groups = [(w, [b for b in range(self.k) if worker_of[b] == w]) for w in workers]
+        self.groups = [(w, members) for w, members in self.groups if members]
+        self.group_of = {b: g for g, (_, members) in enumerate(self.groups) for b in members}
+        self.worker = [worker_of[b] for b in range(self.k)]
+        futs = [client.scatter([[inputs[b] for b in members]], workers=[w])[0] for w, members in self.groups]
+        self.blocks = [self._submit(g, _build_group, futs[g]) for g in range(len(self.groups))]
+        meta = self.collect(self.run(_meta))
+        del futs
+        self.m_own = [m[0] for m in meta]
+        self.entries = [m[1] for m in meta]
+        self.cut = [m[2] for m in meta]
+        self.ghosts = [m[3] for m in meta]
+        self.build_seconds = [m[5] for m in meta]
+        self.senders = [[s for s in range(self.k) if r in meta[s][4]] for r in range(self.k)]
+
+    def _submit(self, g: int, fn, *args):
+        return self.client.submit(fn, *args, workers=[self.groups[g][0]], allow_other_workers=False, pure=False)
+
+    def run(self, fn, *args, mails=None) -> list:
+        """``fn(block, *per_block_args[, inbox])`` for every block, one task per group. An argument
+        that is a group result (a list of one future per group) is read block by block; any other
+        is passed to every block. ``mails`` (from :meth:`exchange`) adds each block's inbox: the
+        messages addressed to it, in increasing order of their senders."""
+        out = []
+        for g in range(len(self.groups)):
+            per = [a[g] if _is_group(a, self) else _Shared(a) for a in args]
+            out.append(self._submit(g, _group_call, fn, self.blocks[g], per, None if mails is None else mails[g]))
+        return _Group(out)
+
+    def exchange(self, results, pick, senders=None) -> list:
+        """Mail between the groups: for every receiving group, one mail from each sending group,
+        ``{receiver: [(sender, pick(state_of_sender, receiver)), ...]}``, made on the sender's
+        worker; a message crosses the network once, and the scheduler sees one task per pair of
+        groups."""
+        senders = self.senders if senders is None else senders
+        n = len(self.groups)
+        out = [[] for _ in range(n)]
+        for gs in range(n):
+            for gr in range(n):
+                wanted = {r: [s for s in senders[r] if self.group_of[s] == gs] for r in self.groups[gr][1]}
+                wanted = {r: ss for r, ss in wanted.items() if ss}
+                if wanted:
+                    out[gr].append(self._submit(gs, _mail, pick, self.groups[gs][1], results[gs], wanted))
+        return out
+
+    def collect(self, result) -> list:
+        """The per-block results of a group result, gathered to the client in block order."""
+        got = self.client.gather(list(result))
+        flat = [None] * self.k
+        for (_, members), values in zip(self.groups, got):
+            for b, v in zip(members, values):
+                flat[b] = v
+        return flat
+
+    def on_block(self, b: int, fn, *args):
+        """``fn(*args)`` once, on the worker of block ``b``."""
+        return self._submit(self.group_of[b], fn, *args)
+
+    @property
+    def cut_fraction(self) -> float:
+        total = sum(self.entries)
+        return sum(self.cut) / total if total else 0.0
+
+    def product_graph(self, m: int, directed: bool, weighted: bool) -> ProductGraph:
+        """The union of the blocks' rows in global ids (the single-machine product graph)."""
+        rows = self.collect(self.run(blocks.gather_rows))
+        indptr = np.zeros(m + 1, dtype=np.int64)
+        np.cumsum(np.concatenate([r[0] for r in rows]), out=indptr[1:])
+        indices = np.concatenate([r[1] for r in rows]).astype(np.int32)
+        weights = np.concatenate([r[2] for r in rows]) if weighted else None
+        return ProductGraph(indptr=indptr, indices=indices, directed=directed, weights=weights)
+
+
+class _Group(list):
+    """A group result: one future per group."""
+
+
+class _Shared:
+    def __init__(self, value):
+        self.value = value
+
+
+def _is_group(a, cluster) -> bool:
+    return isinstance(a, _Group)
+
+
+def _build_group(inputs):
+    return [blocks.build_block(i) for i in inputs]
+
+
+def _group_call(fn, group_blocks, per, mails):
+    out = []
+    for t, blk in enumerate(group_blocks):
+        args = [p.value if isinstance(p, _Shared) else p[t] for p in per]
+        if mails is not None:
+            got = sorted((s, msg) for mail in mails for s, msg in mail.get(blk.index, ()))
+            args.append([msg for _, msg in got])
+        out.append(fn(blk, *args))
+    return out
+
+
+def _mail(pick, members, states, wanted):
+    """On the sender's worker: what each of its blocks sends to each wanted receiver."""
+    state_of = dict(zip(members, states))
+    return {r: [(s, m) for s in ss if (m := pick(state_of[s], r)) is not None] for r, ss in wanted.items()}
+
+
+def _own_h(block: blocks.Block) -> np.ndarray:
+    return block.h
+
+
+def _meta(block: blocks.Block):
+    return block.m_own, block.entries, block.cut_entries, block.m_local - block.m_own, \
+        {owner for owner, _, _ in block.links}, block.seconds
+
+
+def _missing_dask() -> InvalidParameterError:
+    return InvalidParameterError("the dask engine needs dask and distributed, which this install lacks; install "
+                                 "them with: pip install 'aligner[dask]'", param="engine")
+
+
+@contextmanager
+def connect(client=None, *, scheduler: str | None = None, workers: int = 2):
+    """A dask client: ``client`` as it is, or one connected to ``scheduler`` (an address), or a new
+    LocalCluster of ``workers`` single-threaded worker processes, closed on exit."""
+    if client is not None:
+        yield client
+        return
+    try:
+        from dask.distributed import Client, LocalCluster
+    except ImportError:
+        raise _missing_dask() from None
+    if scheduler:
+        try:
+            c = Client(scheduler, timeout=CONNECT_TIMEOUT)
+        except (OSError, TimeoutError) as exc:
+            raise InvalidParameterError(f"cannot reach the dask scheduler at {scheduler}: {exc}; check the address "
+                                        "and that the scheduler is running", param="scheduler") from None
+        try:
+            yield c
+        finally:
+            c.close()
+        return
+    cluster = LocalCluster(n_workers=workers, threads_per_worker=1, processes=True, dashboard_address=None)
+    c = Client(cluster)
+    try:
+        yield c
+    finally:
+        c.close()
+        cluster.close()
+
+
+def _check_options(cfg: AlignConfig, seeds) -> None:
+    if seeds is not None:
+        raise InvalidParameterError("seeds are not supported by the dask engine yet; run with the local engine",
+                                    param="seeds")
+    if cfg.directed:
+        raise InvalidParameterError("directed networks are not supported by the dask engine yet; run with the "
+                                    "local engine", param="directed")
+
+
+def align(network_a, network_b, prior=None, *, truth=None, seeds=None, client=None, scheduler: str | None = None,
+          workers: int = 2, partitions: int | None = None, diffusion_mode: str = "auto",
+          config: AlignConfig | None = None, progress=None, **options: Any) -> AlignmentResult:
+    """Align two networks with the product graph, the diffusion and the matching on a dask cluster.
+
+    Parameters
+    ----------
+    network_a, network_b, prior, truth, config, progress
+        As for :func:`aligner.align`.
+    client : dask.distributed.Client, optional
+        A client to run on (left open). Default: connect to ``scheduler``, or start a LocalCluster
+        of ``workers`` single-threaded worker processes (closed at the end).
+    partitions : int, optional
+        Blocks of nodes of A (default: ``workers``).
+    diffusion_mode : {"auto", "block", "sweep"}
+        Block push, sweeps, or the choice by cut fraction (see :mod:`aligner.engines.dask.diffusion`).
+    **options
+        The options of :class:`aligner.AlignConfig`.
+
+    Returns
+    -------
+    AlignmentResult
+        As from :func:`aligner.align`, with ``summary["engine"]``.
+
+    Notes
+    -----
+    Reading and the candidates run on the client (the pipeline's :func:`read_inputs` and
+    :func:`find_candidates`); refinement and scoring too, on the product graph and x gathered back.
+    """
+    cfg = from_options(AlignConfig, config, options)
+    _check_options(cfg, seeds)
+    if diffusion_mode not in diffusion.MODES:
+        raise InvalidParameterError(f"diffusion_mode must be one of {', '.join(diffusion.MODES)}; got "
+                                    f"{diffusion_mode!r}", param="diffusion_mode")
+    parts = workers if partitions is None else partitions
+    if not isinstance(parts, int) or parts < 1:
+        raise InvalidParameterError(f"partitions must be an integer >= 1; got {parts!r}", param="partitions")
+    clock = Clock(progress)
+    with clock.stage("read"):
+        inputs = read_inputs(network_a, network_b, prior, seeds=None, truth=truth, config=cfg)
+    with clock.stage("candidates"):
+        found = find_candidates(inputs, cfg)
+    with connect(client, scheduler=scheduler, workers=workers) as c:
+        return _run(c, inputs, found, cfg, parts, diffusion_mode, clock)
+
+
+def _run(client, inputs, found: Candidates, cfg: AlignConfig, parts: int, mode: str, clock: Clock):
+    cand = found.candidates
+    h = prior_vector(cand.prior)
+    a_ip, a_ix, _ = inputs.network_a.walk_adjacency(cfg.directed, cfg.weighted)
+    b_ip, _, _ = inputs.network_b.walk_adjacency(cfg.directed, cfg.weighted)
+    estimate = estimate_product_edges(a_ip, a_ix, b_ip, cand)
+    engine: dict[str, Any] = {"partitions": parts, "workers": len(client.scheduler_info()["workers"])}
+    with clock.stage("product"):
+        t0 = time.perf_counter()
+        bounds = blocks.partition(a_ip, a_ix, b_ip, cand, parts)
+        ins = blocks.block_inputs(inputs.network_a, inputs.network_b, cand, h, bounds, directed=cfg.directed,
+                                  weighted=cfg.weighted, normalization=cfg.normalization)
+        t1 = time.perf_counter()
+        cluster = BlockCluster(client, ins, bounds)
+        del ins
+        t2 = time.perf_counter()
+        product = cluster.product_graph(cand.m, cfg.directed, cfg.weighted)
+        scale = None  # the blocks hold it; the client's refinement and scoring do not use it
+        engine["seconds"] = {"slice": round(t1 - t0, 4), "build": round(t2 - t1, 4),
+                             "gather_product": round(time.perf_counter() - t2, 4)}
+    engine |= {"cut_fraction": round(cluster.cut_fraction, 6), "ghost_pairs": int(sum(cluster.ghosts)),
+               "pairs_per_block": cluster.m_own, "entries_per_block": cluster.entries}
+    problem = Problem(cfg, inputs, cand, h, None, product, scale, found, estimate)
+    with clock.stage("diffusion"):
+        rep = None
+        if cfg.alpha == 0.0:  # the prior's own matching, as on one machine
+            x = h.copy()
+            x_parts = cluster.run(_own_h)
+        else:
+            chosen = "sweep" if cfg.solver == "power" else diffusion.choose_mode(mode, cluster.cut_fraction)
+            x, rep, x_parts = diffusion.run_rounds(cluster, cfg.alpha, cfg.tol, chosen, power=cfg.solver == "power")
+        diff = DiffusionResult(x, "push", cfg.alpha, cfg.tol, 0 if rep is None else rep.pushes,
+                               0 if rep is None else rep.edge_touches, 0.0 if rep is None else rep.residual,
+                               0.0 if rep is None else rep.residual / (1 - cfg.alpha),
+                               0.0 if rep is None else rep.seconds)
+    with clock.stage("rounding"):
+        t0 = time.perf_counter()
+        index, arep = auction.run_auction(cluster, x_parts, cand, x, method=cfg.rounding)
+        rounded = Matching(index=index, method="auction", weight=float(x[index].sum()),
+                           seconds=time.perf_counter() - t0)
+    refining = cfg.refine and cfg.alpha > 0
+    with clock.stage("refine") if refining else _nothing():
+        improvement = improve(problem, diff, rounded)
+    with clock.stage("scoring"):
+        evaluation = evaluate(problem, diff, improvement)
+    engine["diffusion"] = None if rep is None else rep.as_dict()
+    engine["auction"] = arep.as_dict()
+    engine["rounds"] = (0 if rep is None else rep.rounds) + arep.rounds
+    engine["messages"] = (0 if rep is None else rep.messages) + arep.messages
+    engine["edge_touches"] = 0 if rep is None else rep.edge_touches
+    engine["seconds"] |= {"diffusion": clock.timings.get("diffusion"), "auction": round(arep.seconds, 4)}
+    summary = summarize(problem, diff, improvement, evaluation, clock)
+    summary["engine"] = {"name": "dask"} | engine
+    return AlignmentResult(problem, diff, improvement, evaluation, summary)
+
+
+@contextmanager
+def _nothing():
+    yield

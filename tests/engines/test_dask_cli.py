@@ -1,0 +1,71 @@
+"""``aligner align --engine dask``: the same alignment as the local engine, and user errors as exit 2."""
+
+import json
+
+import numpy as np
+import pandas as pd
+import pytest
+from typer.testing import CliRunner
+
+from aligner.cli import app
+from aligner.datasets.instances import noisy_relabelled, write_instance
+
+runner = CliRunner()
+
+
+@pytest.fixture(scope="module")
+def folder(tmp_path_factory):
+    return write_instance(noisy_relabelled(600, seed=21), tmp_path_factory.mktemp("inst"))
+
+
+def _args(folder, out, *extra):
+    return ["align", str(folder / "network_a.tsv"), str(folder / "network_b.tsv"), "-p", str(folder / "prior.tsv"),
+            "--truth", str(folder / "truth.tsv"), "-o", str(out), "-q", *extra]
+
+
+def test_dask_engine_writes_the_local_engines_alignment(folder, tmp_path):
+    pytest.importorskip("distributed")
+    local = runner.invoke(app, _args(folder, tmp_path / "local"))
+    dask = runner.invoke(app, _args(folder, tmp_path / "dask", "--engine", "dask", "--workers", "2",
+                                    "--partitions", "3"))
+    assert local.exit_code == 0 and dask.exit_code == 0, dask.output
+    a = pd.read_csv(tmp_path / "local" / "alignment.tsv", sep="\t")
+    b = pd.read_csv(tmp_path / "dask" / "alignment.tsv", sep="\t")
+    assert (a[["node_a", "node_b"]].values == b[["node_a", "node_b"]].values).all()
+    summary = json.loads((tmp_path / "dask" / "summary.json").read_text())
+    eng = summary["engine"]
+    assert eng["partitions"] == 3 and eng["workers"] == 2 and 0 < eng["cut_fraction"] < 1
+    assert {"rounds", "messages", "edge_touches", "ghost_pairs", "seconds"} <= set(eng)
+    assert summary["solver"]["residual_l1"] <= summary["parameters"]["tol"]
+    assert np.isclose(summary["scores"]["ec"], json.loads((tmp_path / "local" / "summary.json").read_text())
+                      ["scores"]["ec"])
+
+
+def test_missing_dask_is_a_user_error(folder, tmp_path, monkeypatch):
+    import importlib.util
+
+    real = importlib.util.find_spec
+    monkeypatch.setattr(importlib.util, "find_spec", lambda name, *a: None if name in ("dask", "distributed")
+                        else real(name, *a))
+    res = runner.invoke(app, _args(folder, tmp_path / "o", "--engine", "dask"))
+    assert res.exit_code == 2
+    assert "pip install 'aligner[dask]'" in res.output and "Traceback" not in res.output
+    assert not (tmp_path / "o").exists()
+
+
+def test_unreachable_scheduler_is_a_user_error(folder, tmp_path, monkeypatch):
+    pytest.importorskip("distributed")
+    from aligner.engines.dask import engine
+
+    monkeypatch.setattr(engine, "CONNECT_TIMEOUT", "1s")
+    res = runner.invoke(app, _args(folder, tmp_path / "o", "--engine", "dask", "--scheduler", "tcp://127.0.0.1:9"))
+    assert res.exit_code == 2
+    assert "cannot reach the dask scheduler at tcp://127.0.0.1:9" in res.output and "Traceback" not in res.output
+    assert not (tmp_path / "o" / "alignment.tsv").exists()
+
+
+def test_dask_options_need_the_dask_engine(folder, tmp_path):
+    res = runner.invoke(app, _args(folder, tmp_path / "o", "--partitions", "4"))
+    assert res.exit_code == 2 and "--partitions is an option of the dask engine" in res.output
+    res = runner.invoke(app, _args(folder, tmp_path / "o", "--engine", "spark"))
+    assert res.exit_code == 2 and "--engine must be one of" in res.output

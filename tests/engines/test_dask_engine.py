@@ -1,0 +1,235 @@
+"""The dask engine against the single-machine path and outside references.
+
+- product graph: the union of the blocks' rows equals :func:`aligner.core.product.build_product`
+  entry for entry (itself checked against ``networkx.tensor_product`` in tests/core);
+- diffusion: residual <= tol, ||x - x_single||_1 <= 2 tol / (1 - alpha) (both are within
+  tol / (1 - alpha) of the solution), and on a small case the solution of the explicit system
+  by ``scipy.sparse.linalg.spsolve``;
+- matching: at most 0.01 % of matched pairs differ from the single-machine rounding, and on small
+  dense cases the weight of ``scipy.optimize.linear_sum_assignment`` within n * eps;
+- two runs with the same number of blocks give identical results.
+
+The cluster tests run on one 2-worker LocalCluster (threads, so they start in a second).
+"""
+
+import numpy as np
+import pytest
+
+pytest.importorskip("distributed")
+
+from aligner.core.candidates import build_candidates  # noqa: E402
+from aligner.core.diffusion import prior_vector  # noqa: E402
+from aligner.core.product import build_product  # noqa: E402
+from aligner.datasets.instances import as_frames, as_networks, noisy_relabelled  # noqa: E402
+from aligner.engines.dask import auction, blocks  # noqa: E402
+
+KS = (1, 2, 4, 16)
+MODES = ("uniform", "near")
+
+
+@pytest.fixture(scope="module")
+def client():
+    from dask.distributed import Client, LocalCluster
+
+    cluster = LocalCluster(n_workers=2, threads_per_worker=1, processes=False, dashboard_address=None)
+    c = Client(cluster)
+    yield c
+    c.close()
+    cluster.close()
+
+
+@pytest.fixture(scope="module")
+def instances():
+    return {mode: noisy_relabelled(10_000, decoy_mode=mode, seed=3) for mode in MODES}
+
+
+# --------------------------------------------------------------------------- product graph (no cluster needed)
+
+@pytest.mark.parametrize("mode", MODES)
+def test_union_of_block_rows_is_the_single_machine_product_graph(instances, mode):
+    pair = instances[mode]
+    net_a, net_b = as_networks(pair)
+    cand = build_candidates(pair.prior_pairs, pair.prior_scores, net_a.n, net_b.n, top_k=25)
+    (a_ip, a_ix, _), (b_ip, b_ix, _) = net_a.walk_adjacency(), net_b.walk_adjacency()
+    ref = build_product(a_ip, a_ix, b_ip, b_ix, cand)
+    for k in KS:
+        bounds = blocks.partition(a_ip, a_ix, b_ip, cand, k)
+        assert bounds[0] == 0 and bounds[-1] == net_a.n and (np.diff(bounds) >= 0).all()
+        built = [blocks.build_block(i) for i in blocks.block_inputs(
+            net_a, net_b, cand, prior_vector(cand.prior), bounds, directed=False, weighted=False,
+            normalization="restricted")]
+        rows = [blocks.gather_rows(b) for b in built]
+        indptr = np.concatenate([[0], np.cumsum(np.concatenate([r[0] for r in rows]))])
+        assert np.array_equal(indptr, ref.indptr), k
+        assert np.array_equal(np.concatenate([r[1] for r in rows]), ref.indices), k
+        cut = sum(b.cut_entries for b in built)
+        assert (cut == 0) == (k == 1)  # a range of ids of a power-law graph cuts edges as soon as there are two
+        for b in built:  # local ids are int32, the table to global ids int64, ghosts owned elsewhere
+            assert b.indices.dtype == np.int32 and b.glob.dtype == np.int64
+            assert (b.ghost_owner != b.index).all()
+
+
+def test_weighted_blocks_carry_the_entry_weights():
+    pair = noisy_relabelled(800, seed=11)
+    rng = np.random.default_rng(0)
+    from aligner.core.network import network_from_edges
+    from aligner.datasets.instances import node_names
+
+    names = node_names(pair.n_a)
+    net_a = network_from_edges(names, pair.edges_a[:, 0], pair.edges_a[:, 1], source="A",
+                               weights=rng.random(len(pair.edges_a)) + 0.5)
+    net_b = network_from_edges(names, pair.edges_b[:, 0], pair.edges_b[:, 1], source="B",
+                               weights=rng.random(len(pair.edges_b)) + 0.5)
+    cand = build_candidates(pair.prior_pairs, pair.prior_scores, net_a.n, net_b.n)
+    (a_ip, a_ix, a_w), (b_ip, b_ix, b_w) = net_a.walk_adjacency(weighted=True), net_b.walk_adjacency(weighted=True)
+    ref = build_product(a_ip, a_ix, b_ip, b_ix, cand, a_weights=a_w, b_weights=b_w)
+    bounds = blocks.partition(a_ip, a_ix, b_ip, cand, 3)
+    built = [blocks.build_block(i) for i in blocks.block_inputs(net_a, net_b, cand, prior_vector(cand.prior), bounds,
+                                                                directed=False, weighted=True,
+                                                                normalization="restricted")]
+    assert np.array_equal(np.concatenate([blocks.gather_rows(b)[1] for b in built]), ref.indices)
+    assert np.array_equal(np.concatenate([blocks.gather_rows(b)[2] for b in built]), ref.weights)
+
+
+# --------------------------------------------------------------------------- the engine on the cluster
+
+@pytest.fixture(scope="module")
+def runs(client, instances):
+    """Single-machine and dask runs of both instances for every K (refinement off: it runs on the
+    client with the pipeline's own function, so it adds nothing to compare)."""
+    from aligner.engines.dask.engine import align as dask_align
+    from aligner.pipeline import align
+
+    out = {}
+    for mode, pair in instances.items():
+        ea, eb, prior, truth = as_frames(pair)
+        single = align(ea, eb, prior, truth=truth, refine=False)
+        out[mode] = (single, {k: dask_align(ea, eb, prior, truth=truth, client=client, partitions=k, refine=False)
+                              for k in KS})
+    return out
+
+
+@pytest.mark.parametrize("mode", MODES)
+def test_diffusion_meets_the_tolerance_and_agrees_with_one_machine(runs, mode):
+    single, by_k = runs[mode]
+    tol, alpha = single.config.tol, single.config.alpha
+    for k, res in by_k.items():
+        eng = res.summary["engine"]
+        assert res.diffusion.residual <= tol, k
+        assert np.abs(res.diffusion.x - single.diffusion.x).sum() <= 2 * tol / (1 - alpha), k
+        # the exact residual never exceeds the certificate the rounds stopped on (triangle inequality)
+        assert eng["diffusion"]["residual_l1"] <= eng["diffusion"]["certificate_l1"] * (1 + 1e-9), k
+        # regression guard: measured 1.06 (K = 1) to 1.81 (K = 16) times the single-machine push
+        assert eng["edge_touches"] <= 3 * single.diffusion.edge_touches, k
+        assert eng["diffusion"]["mode"] == ("block" if k == 1 else "sweep"), k
+        assert (eng["cut_fraction"] == 0) == (k == 1) and (eng["ghost_pairs"] == 0) == (k == 1)
+        assert res.problem.product.n_edges == single.problem.product.n_edges
+
+
+@pytest.mark.parametrize("mode", MODES)
+def test_auction_matches_like_one_machine(runs, mode):
+    single, by_k = runs[mode]
+    ref = set(single.candidates.pairs[single.matching.index, 0].tolist())
+    ref_pairs = {tuple(p) for p in single.candidates.pairs[single.matching.index].tolist()}
+    for k, res in by_k.items():
+        got = {tuple(p) for p in res.candidates.pairs[res.matching.index].tolist()}
+        assert len(got ^ ref_pairs) / 2 <= 1e-4 * len(ref_pairs), k  # at most 0.01 % differ
+        assert len({a for a, _ in got}) == len(got) == len({b for _, b in got})  # one-to-one
+        assert len(ref) == len(ref_pairs)
+        eng = res.summary["engine"]["auction"]
+        # weak duality: the bound is at least the distance to the optimum, which the exact rounding reaches
+        opt = single.matching.weight
+        weight = float(res.diffusion.x[res.matching.index].sum())
+        assert weight >= float(res.diffusion.x[single.matching.index].sum()) - eng["gap_bound"] - 1e-12, k
+        assert eng["gap_bound"] >= -1e-12 and opt > 0
+
+
+def test_same_blocks_give_identical_results(client, instances):
+    from aligner.engines.dask.engine import align as dask_align
+
+    ea, eb, prior, truth = as_frames(instances["near"])
+    first, second = (dask_align(ea, eb, prior, client=client, partitions=4, refine=False) for _ in range(2))
+    assert np.array_equal(first.diffusion.x, second.diffusion.x)
+    assert np.array_equal(first.matching.index, second.matching.index)
+    assert first.summary["engine"]["diffusion"]["rounds"] == second.summary["engine"]["diffusion"]["rounds"]
+
+
+def test_small_case_against_spsolve_on_the_explicit_system(client):
+    # x = alpha P x + (1 - alpha) h solved directly: scipy.sparse.linalg.spsolve on I - alpha P
+    import scipy.sparse as sp
+    from scipy.sparse.linalg import spsolve
+
+    from aligner.engines.dask.engine import align as dask_align
+
+    pair = noisy_relabelled(300, decoys=4, seed=7)
+    ea, eb, prior, _ = as_frames(pair)
+    tol = 1e-9
+    res = dask_align(ea, eb, prior, client=client, partitions=3, refine=False, tol=tol, alpha=0.8)
+    prob = res.problem
+    from aligner.core.diffusion import column_scale
+
+    scale = column_scale(prob.product, "restricted")
+    exact = spsolve(sp.identity(prob.candidates.m, format="csc") - prob.product.transition(scale, 0.8).tocsc(),
+                    0.2 * prob.h)
+    assert np.abs(res.diffusion.x - exact).sum() <= tol / (1 - 0.8) * (1 + 1e-6)
+
+
+@pytest.mark.parametrize("seed", range(6))
+def test_auction_on_small_dense_cases_against_linear_sum_assignment(client, seed):
+    # scipy.optimize.linear_sum_assignment on the dense weight matrix (zero = "leave unmatched")
+    from scipy.optimize import linear_sum_assignment
+
+    from aligner.engines.dask.engine import BlockCluster
+
+    rng = np.random.default_rng(seed)
+    n1, n2 = 30 + seed, 34
+    w = rng.random((n1, n2)) * (rng.random((n1, n2)) < 0.6)
+    if seed % 2:
+        w = np.round(w * 10) / 10  # many ties
+    pairs = np.argwhere(np.ones((n1, n2), dtype=bool))
+    cand = build_candidates(pairs, np.ones(len(pairs)), n1, n2, top_k=None)
+    x = w[cand.pairs[:, 0], cand.pairs[:, 1]]
+    row, col = linear_sum_assignment(w, maximize=True)
+    opt = w[row, col].sum()
+    cluster = _cluster_over(client, cand, x, parts=3)
+    x_parts = cluster.run(_x_of, x)
+    index, rep = auction.run_auction(cluster, x_parts, cand, x)
+    got = x[index].sum()
+    matched = cand.pairs[index]
+    assert len(set(matched[:, 0])) == len(index) == len(set(matched[:, 1]))
+    assert (x[index] > 0).all()
+    assert got >= opt - n1 * rep.eps - 1e-12
+    assert got <= opt + 1e-12
+    assert rep.gap_bound >= opt - got - 1e-9  # the bound is a bound
+
+
+def _x_of(block, x):
+    return x[block.pair_lo:block.pair_lo + block.m_own]
+
+
+def _cluster_over(client, cand, x, parts):
+    """A BlockCluster over a pair of empty networks, for the auction alone."""
+    from aligner.core.network import network_from_edges
+    from aligner.datasets.instances import node_names
+    from aligner.engines.dask.engine import BlockCluster
+
+    e = np.empty(0, dtype=np.int64)
+    net_a = network_from_edges(node_names(cand.n1), e, e, source="A")
+    net_b = network_from_edges(node_names(cand.n2), e, e, source="B")
+    (a_ip, a_ix, _), (b_ip, _, _) = net_a.walk_adjacency(), net_b.walk_adjacency()
+    bounds = np.linspace(0, cand.n1, parts + 1).astype(np.int64)
+    ins = blocks.block_inputs(net_a, net_b, cand, x, bounds, directed=False, weighted=False,
+                              normalization="restricted")
+    return BlockCluster(client, ins, bounds)
+
+
+def test_tail_is_solved_exactly_among_free_objects():
+    # two rows want the same object; the tail gathers both and matches them optimally
+    cand = build_candidates([[0, 0], [0, 1], [1, 0], [1, 1]], [1.0] * 4, 2, 2, top_k=None)
+    w = np.array([1.0, 0.9, 1.0, 0.2])  # optimum: (0, 1) + (1, 0) = 1.9
+    holder = np.array([0, -1])  # row 0 holds object 0, row 1 is free
+    rows = auction.tail_rows(cand, w, np.array([1]), holder)
+    assert rows.tolist() == [0, 1]
+    idx = auction.tail_match(cand, w, rows, holder, "auto")
+    assert cand.pairs[idx].tolist() == [[0, 1], [1, 0]]
+    assert auction.dual_gap(cand, w, np.zeros(2), idx) == pytest.approx(2.0 - 1.9)
