@@ -428,21 +428,41 @@ def _score(inputs: Inputs, matched: np.ndarray, cfg: AlignConfig) -> tuple[Score
                           weights_b=wb if cfg.weighted else None)
 
 
+def _name_column(names: np.ndarray):
+    """The names as a frame column would hold them (converted once, then gathered from), or
+    the array itself when they stay objects."""
+    col = pd.Series(names, copy=False)
+    return names if col.dtype == object else col
+
+
+def _names_at(column, rows: np.ndarray):
+    """``names[rows]`` from :func:`_name_column`'s result, as a frame column."""
+    if isinstance(column, np.ndarray) or not len(rows):
+        return np.asarray(column, dtype=object)[rows]
+    return column.take(rows).array
+
+
+def _conserved_table(names_a, names_b, edges_a: np.ndarray, f: np.ndarray, cons: np.ndarray) -> pd.DataFrame:
+    ce = edges_a[cons]
+    return pd.DataFrame({"node_a1": _names_at(names_a, ce[:, 0]), "node_a2": _names_at(names_a, ce[:, 1]),
+                         "node_b1": _names_at(names_b, f[ce[:, 0]]), "node_b2": _names_at(names_b, f[ce[:, 1]])})
+
+
 def conserved_frame(net_a: Network, net_b: Network, matched: np.ndarray, cons: np.ndarray,
                     directed: bool = False) -> pd.DataFrame:
     """The conserved edges of A with their images in B, by name."""
     f = np.full(net_a.n, -1, dtype=np.int64)
     f[matched[:, 0]] = matched[:, 1]
-    ce = net_a.scored_edges(directed)[0][cons]
-    return pd.DataFrame({"node_a1": net_a.names[ce[:, 0]], "node_a2": net_a.names[ce[:, 1]],
-                         "node_b1": net_b.names[f[ce[:, 0]]], "node_b2": net_b.names[f[ce[:, 1]]]})
+    return _conserved_table(_name_column(net_a.names), _name_column(net_b.names), net_a.scored_edges(directed)[0],
+                            f, cons)
 
 
-def _pairs_frame(problem: Problem, diffusion: DiffusionResult, index: np.ndarray, cons: np.ndarray) -> pd.DataFrame:
-    net_a, net_b, cand = problem.network_a, problem.network_b, problem.candidates
+def _pairs_frame(problem: Problem, diffusion: DiffusionResult, index: np.ndarray, cons: np.ndarray,
+                 names_a, names_b) -> pd.DataFrame:
+    net_a, cand = problem.network_a, problem.candidates
     matched = cand.pairs[index].astype(np.int64)
     per_node = conserved_per_node(net_a.scored_edges(problem.config.directed)[0], cons, net_a.n)
-    return pd.DataFrame({"node_a": net_a.names[matched[:, 0]], "node_b": net_b.names[matched[:, 1]],
+    return pd.DataFrame({"node_a": _names_at(names_a, matched[:, 0]), "node_b": _names_at(names_b, matched[:, 1]),
                          "score": diffusion.x[index], "prior": cand.prior[index],
                          "conserved": per_node[matched[:, 0]],
                          "confidence": pair_confidence(cand, diffusion.x, index)})
@@ -469,8 +489,12 @@ def evaluate(problem: Problem, diffusion: DiffusionResult, improvement: Improvem
                              truth=None if inputs.truth is None else inputs.truth.pairs)
         expansion = problem.origin.expansion
         seeds["expansion"] = None if expansion is None else expansion.report()
-    return Evaluation(scores, before, _pairs_frame(problem, diffusion, index, cons),
-                      conserved_frame(inputs.network_a, inputs.network_b, matched, cons, cfg.directed), sig, seeds)
+    names_a, names_b = _name_column(inputs.network_a.names), _name_column(inputs.network_b.names)
+    f = np.full(inputs.network_a.n, -1, dtype=np.int64)
+    f[matched[:, 0]] = matched[:, 1]
+    edges_a = inputs.network_a.scored_edges(cfg.directed)[0]
+    return Evaluation(scores, before, _pairs_frame(problem, diffusion, index, cons, names_a, names_b),
+                      _conserved_table(names_a, names_b, edges_a, f, cons), sig, seeds)
 
 
 # --------------------------------------------------------------------------- summary

@@ -6,31 +6,18 @@ import numpy as np
 import numpy.typing as npt
 
 from aligner.core.candidates import CandidateSet
+from aligner.kernels.scoring import best_two
 
 __all__ = ["best_competitor", "pair_confidence"]
 
 
 def _best_two(group: npt.NDArray[np.integer], x: npt.NDArray[np.float64], n: int):
-    """Per group id in ``0..n-1``: the largest value, the candidate holding it, and the second largest.
+    """Per group id in ``0..n-1``: the largest value, the candidate holding it (the first, on a
+    tie), and the second largest (equal to the largest on a tie), in one compiled pass.
 
     Groups with no entry get -inf; groups with one entry get -inf as second largest.
     """
-    m = len(x)
-    best = np.full(n, -np.inf)
-    second = np.full(n, -np.inf)
-    arg = np.full(n, -1, dtype=np.int64)
-    if m == 0:
-        return best, arg, second
-    order = np.lexsort((-x, group))  # by group, then by x descending
-    g = group[order]
-    first = np.ones(m, dtype=bool)
-    first[1:] = g[1:] != g[:-1]
-    best[g[first]] = x[order[first]]
-    arg[g[first]] = order[first]
-    sec = np.zeros(m, dtype=bool)
-    sec[1:] = first[:-1] & ~first[1:]  # the entry right after a group's first, in the same group
-    second[g[sec]] = x[order[sec]]
-    return best, arg, second
+    return best_two(np.asarray(group, dtype=np.int64), np.asarray(x, dtype=np.float64), n)
 
 
 def best_competitor(cand: CandidateSet, x: npt.ArrayLike, index: npt.ArrayLike) -> npt.NDArray[np.float64]:
@@ -61,7 +48,7 @@ def pair_confidence(cand: CandidateSet, x: npt.ArrayLike, index: npt.ArrayLike) 
     least as high (the matching preferred k for the sake of the other nodes), and 0.5 means the
     best competitor has half the pair's score. A pair with x_k <= 0 gets 0. It is a relative
     margin over the two rows of the score matrix that the pair sits on, computed from the
-    scores alone in O(m log m) for m candidates.
+    scores alone in O(m) for m candidates.
     """
     x = np.asarray(x, dtype=np.float64)
     index = np.asarray(index, dtype=np.int64)

@@ -21,6 +21,7 @@ import numpy.typing as npt
 from aligner.core.candidates import CandidateSet
 from aligner.core.rounding import round_matching
 from aligner.core.scoring import conserved_mask
+from aligner.kernels.scoring import induced_degrees
 
 __all__ = ["random_bijection_moments", "candidate_permutation_test", "significance"]
 
@@ -30,9 +31,8 @@ def _induced(edges: npt.NDArray[np.integer], nodes: npt.NDArray[np.integer], n: 
     inside = np.zeros(n, dtype=bool)
     inside[nodes] = True
     e = np.asarray(edges, dtype=np.int64).reshape(-1, 2)
-    e = e[inside[e[:, 0]] & inside[e[:, 1]]]
-    deg = np.bincount(e.ravel(), minlength=n)[nodes] if len(e) else np.zeros(len(nodes), dtype=np.int64)
-    return len(e), deg.astype(np.float64)
+    m, deg = induced_degrees(e[:, 0], e[:, 1], inside, n)
+    return int(m), deg[nodes].astype(np.float64)
 
 
 def _falling(k: int, r: int) -> float:

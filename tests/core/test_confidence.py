@@ -51,3 +51,22 @@ def test_align_reports_confidence_column():
     res = align(g, g, prior)
     assert "confidence" in res.pairs and "conserved" in res.pairs
     assert res.pairs["confidence"].between(0, 1).all()
+
+
+def test_best_two_per_group_against_a_sort(rng):
+    # Reference: numpy.lexsort by group, then by value descending (stable, so the first of equal
+    # values comes first): each group's first entry is its best and the holder, the next its
+    # second. Small integer values force ties, including ties for the best.
+    from aligner.core.confidence import _best_two
+
+    for _ in range(30):
+        n, m = int(rng.integers(1, 10)), int(rng.integers(0, 40))
+        group = rng.integers(0, n, m)
+        x = rng.integers(0, 4, m).astype(float)
+        best, arg, second = _best_two(group, x, n)
+        order = np.lexsort((-x, group))
+        for g in range(n):
+            rows = order[group[order] == g]
+            assert best[g] == (x[rows[0]] if len(rows) else -np.inf)
+            assert arg[g] == (rows[0] if len(rows) else -1)
+            assert second[g] == (x[rows[1]] if len(rows) > 1 else -np.inf)

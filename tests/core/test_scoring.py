@@ -2,8 +2,8 @@ import networkx as nx
 import numpy as np
 import pytest
 
-from aligner.core.scoring import (conserved_image, conserved_mask, conserved_per_node, node_correctness,
-                                   score_matching)
+from aligner.core.scoring import (conserved_image, conserved_mask, conserved_per_node, largest_common_component,
+                                   node_correctness, score_matching)
 from aligner.errors import InvalidParameterError
 
 
@@ -185,3 +185,82 @@ def test_conserved_mask_passes_the_node_count_and_direction_on():
     assert conserved_mask(ea, eb, f, 3, directed=True).tolist() == [True, False]
     # conserved_per_node counts whole edges: integers, also when nothing is conserved
     assert conserved_per_node(ea, np.zeros(2, bool), 3).dtype.kind == "i"
+
+
+@pytest.mark.parametrize("directed", [False, True])
+def test_conserved_image_on_unsorted_edges_with_repeats(rng, directed):
+    # Reference: a Python dict from each edge key of B to the first row holding it (the row the
+    # lookup names when B repeats an edge), and the map applied edge by edge. B's rows are
+    # shuffled, written either way round and repeated, so the edges are not in key order.
+    n = 40
+    g = nx.gnm_random_graph(n, 200, seed=7, directed=directed)
+    h = nx.gnm_random_graph(n, 200, seed=8, directed=directed)
+    ea = np.array(g.edges())
+    eb = np.array(h.edges())
+    eb = np.concatenate([eb, eb[rng.choice(len(eb), 30)]])[rng.permutation(len(eb) + 30)]
+    if not directed:
+        flip = rng.random(len(eb)) < 0.5
+        eb[flip] = eb[flip][:, ::-1]
+    f = rng.permutation(n)
+    f[rng.choice(n, 5, replace=False)] = -1
+
+    def key(u, v):
+        return (u, v) if directed else (min(u, v), max(u, v))
+
+    first = {}
+    for row, (u, v) in enumerate(eb.tolist()):
+        first.setdefault(key(u, v), row)
+    want = [-1 if f[u] < 0 or f[v] < 0 else first.get(key(f[u], f[v]), -1) for u, v in ea.tolist()]
+    assert conserved_image(ea, eb, f, n, directed).tolist() == want
+    # the same B in key order (as a canonical edge list comes) names the same edges
+    order = np.lexsort((eb.max(1), eb.min(1))) if not directed else np.lexsort((eb[:, 1], eb[:, 0]))
+    got = conserved_image(ea, eb[order], f, n, directed)
+    assert [order[r] if r >= 0 else -1 for r in got.tolist()] == want
+
+
+def test_largest_component_ties_go_to_the_lowest_node():
+    # hand-worked: conserved edges form two triangles, {5, 6, 7} (listed first) and {1, 2, 3}
+    # plus a path 8-9. Both triangles have 3 nodes and 3 edges; the one holding node 1 is taken.
+    # Then a pendant edge 7-0 makes the first larger: 4 nodes, 4 edges.
+    ea = np.array([[5, 6], [6, 7], [5, 7], [1, 2], [2, 3], [1, 3], [8, 9], [0, 7]])
+    cons = np.array([True] * 7 + [False])
+    assert largest_common_component(ea, cons, 10) == (3, 3)
+    cons[-1] = True
+    assert largest_common_component(ea, cons, 10) == (4, 4)
+    assert largest_common_component(ea, np.zeros(len(ea), bool), 10) == (0, 0)
+
+
+def test_largest_component_against_scipy_labels(rng):
+    # Reference: scipy.sparse.csgraph.connected_components on the conserved edges, the largest
+    # component by nodes (numpy argmax: on a tie, the first label, i.e. the component of the
+    # lowest node), then its edges counted. Sparse random graphs give many small components.
+    import scipy.sparse as sp
+    from scipy.sparse.csgraph import connected_components
+
+    for trial in range(20):
+        n = int(rng.integers(5, 80))
+        ea = np.array(nx.gnm_random_graph(n, int(rng.integers(1, 2 * n)), seed=trial).edges()).reshape(-1, 2)
+        cons = rng.random(len(ea)) < 0.5
+        ce = ea[cons]
+        if len(ce) == 0:
+            assert largest_common_component(ea, cons, n) == (0, 0)
+            continue
+        g = sp.coo_array((np.ones(len(ce)), (ce[:, 0], ce[:, 1])), shape=(n, n)).tocsr()
+        _, label = connected_components(g, directed=False)
+        in_sub = np.zeros(n, bool)
+        in_sub[ce.ravel()] = True
+        sizes = np.bincount(label[in_sub], minlength=label.max() + 1)
+        best = int(np.argmax(sizes))
+        assert largest_common_component(ea, cons, n) == (int(sizes[best]), int((label[ce[:, 0]] == best).sum()))
+
+
+def test_node_correctness_counts_against_python_sets(rng):
+    # Reference: Python sets of the truth nodes and of those mapped to one of their partners.
+    n = 50
+    truth = rng.integers(0, n, size=(80, 2))
+    matched = np.stack([np.arange(n), rng.permutation(n)], 1)[rng.random(n) < 0.7]
+    f = dict(matched.tolist())
+    nodes = {u for u, _ in truth.tolist()}
+    correct = {u for u, v in truth.tolist() if f.get(u) == v}
+    nc, detail = node_correctness(matched, truth, n)
+    assert detail == {"truth_nodes": len(nodes), "correct": len(correct)} and nc == len(correct) / len(nodes)

@@ -198,3 +198,19 @@ def test_two_maps_have_a_standard_deviation():
     got = candidate_permutation_test(ea, ea, cand, 3, permutations=2, seed=1)
     null, _ = _null_by_hand(ea, ea, cand, 2, 1)
     assert got["null_sd"] == pytest.approx(np.std(null, ddof=1))  # defined from two maps (numpy.std)
+
+
+def test_induced_counts_and_degrees_against_networkx(rng):
+    # Reference: networkx subgraph on the matched nodes, its edge count and degrees.
+    import networkx as nx
+
+    from aligner.core.significance import _induced
+
+    g = nx.gnm_random_graph(40, 120, seed=11)
+    edges = np.array(g.edges())
+    nodes = rng.choice(40, 25, replace=False)
+    sub = g.subgraph(nodes.tolist())
+    m, deg = _induced(edges, nodes, 40)
+    assert m == sub.number_of_edges()
+    assert deg.tolist() == [float(sub.degree(v)) for v in nodes.tolist()]
+    assert _induced(np.empty((0, 2), np.int64), nodes, 40)[0] == 0
