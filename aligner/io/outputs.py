@@ -24,7 +24,9 @@ from pathlib import Path
 
 import numpy as np
 import pandas as pd
+import pyarrow as pa
 
+from aligner.core import tsv
 from aligner.errors import AlignerWarning, InvalidParameterError
 
 __all__ = ["OUTPUT_FILES", "SWEEP_TABLE", "PRIOR_COLUMNS", "check_outdir", "write_outputs", "write_sweep_outputs",
@@ -42,10 +44,64 @@ PRIOR_COLUMNS = ("node_a", "node_b", "score")
 # --------------------------------------------------------------------------- text of a file
 
 def table_text(df: pd.DataFrame, *, float_format: str = "%.10g", na_rep: str = "") -> str:
-    """A DataFrame as TSV text: header, no index, ``\\n`` line ends, floats as ``float_format``."""
+    """A DataFrame as TSV text: header, no index, ``\\n`` line ends, floats as ``float_format``.
+
+    The text is that of ``df.to_csv(sep="\\t", index=False, ...)``; plain columns (text, float64
+    with a ``%.<P>g`` format, integers) are rendered by compiled passes (:mod:`aligner.core.tsv`),
+    anything else by pandas.
+    """
+    return _table_bytes(df, float_format=float_format, na_rep=na_rep).decode("utf-8")
+
+
+def _pandas_text(df: pd.DataFrame, float_format, na_rep: str) -> str:
     buf = _io.StringIO()
     df.to_csv(buf, sep="\t", index=False, float_format=float_format, na_rep=na_rep, lineterminator="\n")
     return buf.getvalue()
+
+
+def _text_of(col: pd.Series) -> tsv.Field | None:
+    """A column of strings as UTF-8 bytes (no copy when pandas holds them in pyarrow)."""
+    dtype = col.dtype
+    if isinstance(dtype, pd.StringDtype):
+        values = col.array
+    elif dtype == object and pd.api.types.infer_dtype(col, skipna=False) == "string":
+        values = col.to_numpy()
+    else:
+        return None
+    try:
+        return tsv.text_field(pa.array(values, type=pa.large_string()))
+    except (pa.ArrowException, UnicodeError):
+        return None
+
+
+def _field(col: pd.Series, float_format, na_rep: str) -> tsv.Field | None:
+    """The text of one column as pandas writes it, or None when pandas must write it."""
+    dtype = col.dtype
+    if dtype == np.float64 and isinstance(float_format, str):
+        return tsv.float_field(col.to_numpy(), float_format, na_rep)
+    if isinstance(dtype, np.dtype) and (dtype.kind == "i" or (dtype.kind == "u" and dtype.itemsize < 8)):
+        return tsv.int_field(col.to_numpy())
+    text = _text_of(col)
+    return None if text is None or tsv.quoted(text) else text
+
+
+def _in_order(df: pd.DataFrame, keys) -> bool:
+    """Whether ``df`` is already sorted by the text columns ``keys`` (so a stable sort keeps it)."""
+    fields = [_text_of(df[k]) for k in keys]
+    return all(f is not None for f in fields) and tsv.rows_in_order_of(fields)
+
+
+def _table_bytes(df: pd.DataFrame, *, float_format="%.10g", na_rep: str = "", sort_by=None) -> bytes:
+    """:func:`table_text` as UTF-8 bytes, after a stable sort by the columns ``sort_by``."""
+    if sort_by is not None and not _in_order(df, sort_by):
+        df = df.sort_values(list(sort_by), kind="stable")
+    fields = None
+    if len(df) and df.shape[1] >= 2 and not isinstance(df.columns, pd.MultiIndex):
+        fields = [_field(col, float_format, na_rep) for _, col in df.items()]
+    if fields is None or any(f is None for f in fields):
+        return _pandas_text(df, float_format, na_rep).encode("utf-8")
+    header = _pandas_text(df.iloc[:0], float_format, na_rep).encode("utf-8")
+    return header + tsv.rows_text(fields)
 
 
 def json_text(obj: object) -> str:
@@ -327,9 +383,9 @@ def write_outputs(outdir: str | os.PathLike, result, *, force: bool = False) -> 
     previous outputs or none, never a mix. Other files in ``outdir`` are kept.
     """
     out = check_outdir(outdir, force=force)
-    pairs = result.pairs.sort_values(["node_a", "node_b"], kind="stable")
-    cons = result.conserved_edges.sort_values(["node_a1", "node_a2"], kind="stable")
-    return _publish(out, {"alignment.tsv": table_text(pairs), "conserved_edges.tsv": table_text(cons),
+    pairs = _table_bytes(result.pairs, sort_by=("node_a", "node_b"))
+    cons = _table_bytes(result.conserved_edges, sort_by=("node_a1", "node_a2"))
+    return _publish(out, {"alignment.tsv": pairs, "conserved_edges.tsv": cons,
                           "summary.json": json_text(result.summary)})
 
 
@@ -354,7 +410,7 @@ def write_sweep_outputs(outdir: str | os.PathLike, table: pd.DataFrame, figures:
     list of Path
         The files written, sweep.tsv first.
     """
-    files = {SWEEP_TABLE: table_text(table, float_format="%.6g", na_rep="NA"), **figures}
+    files = {SWEEP_TABLE: _table_bytes(table, float_format="%.6g", na_rep="NA"), **figures}
     if SWEEP_TABLE in figures:
         raise InvalidParameterError(f"figures must not hold a file named {SWEEP_TABLE}; got {sorted(figures)}",
                                     param="figures")
@@ -388,7 +444,7 @@ def write_prior_table(df: pd.DataFrame, path: str | os.PathLike, *, force: bool 
         raise InvalidParameterError(f"The output '{path}' cannot be written: '{path.parent}' is not a directory; "
                                     "choose another path with --out.")
     try:
-        return write_text_atomic(path, table_text(df[list(PRIOR_COLUMNS)]))
+        return write_text_atomic(path, _table_bytes(df[list(PRIOR_COLUMNS)]))
     except OSError as exc:
         raise InvalidParameterError(f"The output '{path}' cannot be written: {exc.strerror or exc}; choose "
                                     "another path with --out.") from None
