@@ -147,19 +147,23 @@ def build_product(
     a_indptr, b_indptr = (np.ascontiguousarray(p, dtype=np.int64) for p in (a_indptr, b_indptr))
     a_indices, b_indices = (np.ascontiguousarray(x, dtype=np.int32) for x in (a_indices, b_indices))
     pair_b = np.ascontiguousarray(cand.pairs[:, 1])
-    args = (a_indptr, a_indices, b_indptr, b_indices, cand.a_indptr, pair_b, a_w, b_w)
     blocks = _blocks(a_indptr, cand, len(b_indices) / max(cand.n2, 1))
+    indptr = np.zeros(cand.m + 1, dtype=np.int64)
+
+    def build(i0: int, i1: int) -> tuple[np.ndarray, np.ndarray, int]:  # the rows of nodes i0 .. i1-1 of A
+        counts = indptr[cand.a_indptr[i0] + 1: cand.a_indptr[i1] + 1]
+        return product_rows(i0, i1, a_indptr, a_indices, b_indptr, b_indices, cand.a_indptr, pair_b, a_w, b_w, counts)
+
     if len(blocks) > 2:
         with ThreadPoolExecutor(thread_count()) as pool:  # the kernel releases the GIL
-            parts = list(pool.map(lambda r: product_rows(r[0], r[1], *args), zip(blocks[:-1], blocks[1:])))
+            parts = list(pool.map(build, blocks[:-1], blocks[1:]))
     else:
-        parts = [product_rows(blocks[0], blocks[-1], *args)]
-    indptr = np.zeros(cand.m + 1, dtype=np.int64)
-    np.cumsum(np.concatenate([p[0] for p in parts]), out=indptr[1:])
-    indices = np.concatenate([p[1] for p in parts]) if len(parts) > 1 else parts[0][1].copy()
+        parts = [build(blocks[0], blocks[-1])]
+    np.cumsum(indptr, out=indptr)
+    indices = np.concatenate([p[0] for p in parts]) if len(parts) > 1 else parts[0][0].copy()
     weights = None
     if weighted:
-        weights = np.concatenate([p[2] for p in parts]) if len(parts) > 1 else parts[0][2].copy()
+        weights = np.concatenate([p[1] for p in parts]) if len(parts) > 1 else parts[0][1].copy()
     return ProductGraph(indptr=indptr, indices=indices, directed=directed, weights=weights)
 
 

@@ -14,7 +14,7 @@ def thread_count() -> int:
 
 
 @numba.njit(cache=True, nogil=True)
-def product_rows(i0, i1, a_indptr, a_indices, b_indptr, b_indices, c_indptr, c_b, a_w, b_w):
+def product_rows(i0, i1, a_indptr, a_indices, b_indptr, b_indices, c_indptr, c_b, a_w, b_w, counts):
     """The product-graph neighbours of the candidate pairs of nodes ``i0 .. i1-1`` of A, in one pass.
 
     Pair k = (i, i') and pair u = (j, j') are adjacent when j is a neighbour of i in A and j'
@@ -28,19 +28,22 @@ def product_rows(i0, i1, a_indptr, a_indices, b_indptr, b_indices, c_indptr, c_b
     lists are sorted, each row comes out sorted. Work per i: sum of deg_B(i') over its
     candidates, plus the candidates of its neighbours, plus the output.
 
-    Returns ``(counts, indices, weights)``: the number of neighbours of every pair
-    ``c_indptr[i0] .. c_indptr[i1]-1``, their neighbour lists one after the other, and with
-    non-empty ``a_w`` and ``b_w`` (weights of the adjacency entries) the weight
-    w_A(i, j) * w_B(i', j') of every entry (else an empty array). The result of a range of
-    nodes does not depend on the other nodes, so ranges can be built apart and joined.
+    Writes the number of neighbours of every pair ``c_indptr[i0] .. c_indptr[i1]-1`` to
+    ``counts`` (zeros on entry, one slot per pair) and returns ``(indices, weights,
+    checksum)``: their neighbour lists one after the other; with non-empty ``a_w`` and
+    ``b_w`` (weights of the adjacency entries) the weight w_A(i, j) * w_B(i', j') of every
+    entry (else an empty array); a checksum of the entries read ahead (returned only so that
+    those reads are kept). The result of a range of nodes does not depend on the other
+    nodes, so ranges can be built apart (on parallel threads, each writing its own part of
+    ``counts``) and joined.
     """
     weighted = a_w.shape[0] > 0
     p0 = c_indptr[i0]
-    counts = np.zeros(c_indptr[i1] - p0, dtype=np.int64)
     cap = max(16, c_indptr[i1] - p0)
     out_ix = np.empty(cap, dtype=np.int32)
     out_w = np.empty(cap if weighted else 0, dtype=np.float64)
     total = 0
+    touched = 0
     tab_key = np.full(64, _EMPTY, dtype=np.int32)
     tab_head = np.empty(64, dtype=np.int32)
     ent_row = np.empty(64, dtype=np.int32)
@@ -59,6 +62,17 @@ def product_rows(i0, i1, a_indptr, a_indices, b_indptr, b_indices, c_indptr, c_b
             ne += b_indptr[c_b[k] + 1] - b_indptr[c_b[k]]
         if ne == 0:
             continue
+        # read the first entry of every row about to be used, in one simple loop: the loads do
+        # not wait for each other, so their cache misses overlap (the loops below, full of
+        # unpredictable branches, would otherwise take them one at a time)
+        for k in range(k0, k1):
+            ip = c_b[k]
+            if b_indptr[ip + 1] > b_indptr[ip]:
+                touched ^= b_indices[b_indptr[ip]]
+        for s in range(a_indptr[i], a_indptr[i + 1]):
+            j = a_indices[s]
+            if c_indptr[j + 1] > c_indptr[j]:
+                touched ^= c_b[c_indptr[j]]
         bits = 4
         while (1 << bits) < 8 * ne:  # load at most 1/8: most look-ups miss, and miss at once
             bits += 1
@@ -129,7 +143,7 @@ def product_rows(i0, i1, a_indptr, a_indices, b_indptr, b_indices, c_indptr, c_b
             counts[r] = end - at
             at = end
         total += nh
-    return counts, out_ix[:total], out_w[:total] if weighted else out_w
+    return out_ix[:total], out_w[:total] if weighted else out_w, touched
 
 
 @numba.njit(cache=True, nogil=True)

@@ -25,10 +25,11 @@ def test_product_rows_by_ranges_equals_networkx_tensor_product():
     empty = np.empty(0)
     for cuts in ([0, n1], [0, 5, n1], [0, 1, 2, 9, 15, n1], list(range(n1 + 1))):
         for weights in ((empty, empty), (np.ones(len(xa)), np.ones(len(xb)))):
-            parts = [product_rows(a, b, ia, xa, ib, xb, cand.a_indptr, pb, *weights) for a, b in zip(cuts, cuts[1:])]
-            counts = np.concatenate([p[0] for p in parts])
-            indices = np.concatenate([p[1] for p in parts])
+            counts = np.zeros(cand.m, dtype=np.int64)
+            parts = [product_rows(a, b, ia, xa, ib, xb, cand.a_indptr, pb, *weights,
+                                  counts[cand.a_indptr[a]:cand.a_indptr[b]]) for a, b in zip(cuts, cuts[1:])]
+            indices = np.concatenate([p[0] for p in parts])
             ptr = np.concatenate([[0], np.cumsum(counts)])
             assert [indices[ptr[k]:ptr[k + 1]].tolist() for k in range(cand.m)] == want
-            w = np.concatenate([p[2] for p in parts])
+            w = np.concatenate([p[1] for p in parts])
             assert len(w) == (len(indices) if len(weights[0]) else 0) and (w == 1.0).all()
