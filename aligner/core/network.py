@@ -11,7 +11,7 @@ from dataclasses import dataclass
 import numpy as np
 import numpy.typing as npt
 
-from aligner.kernels.tables import fill_symmetric, merge_sorted, rows_sorted, sort_rows
+from aligner.kernels.tables import fill_symmetric, merge_sorted, sort_rows
 
 __all__ = ["Network", "network_from_edges", "canonical_edges", "canonical_arcs", "unique_sorted"]
 
@@ -205,11 +205,14 @@ def network_from_edges(
     if directed:
         arcs, arc_w, n_loops, n_dup = canonical_arcs(u, v, weights)
         edges, w, _, _ = canonical_edges(arcs[:, 0], arcs[:, 1], arc_w)
-        out_ip, out_ix, *rest = adjacency(arcs, n, arc_w, symmetric=False)
+        out_ip, out_ix, *rest = _csr(arcs[:, 0].astype(np.int64), arcs[:, 1].astype(np.int64), n, arc_w, False, True)
         out_w = rest[0] if rest else None
     else:
         edges, w, n_loops, n_dup = canonical_edges(u, v, weights)
-    indptr, indices, *rest = adjacency(edges, n, w)
+    if len(edges) and int(edges[:, 1].max()) >= n:
+        raise ValueError(f"edge endpoints must be in [0, {n})")
+    # canonical edges are sorted, unique, u < v: placed without sorting
+    indptr, indices, *rest = _csr(edges[:, 0].astype(np.int64), edges[:, 1].astype(np.int64), n, w, True, True)
     adj_w = rest[0] if rest else None
     return Network(
         names=np.asarray(names, dtype=object),
@@ -244,8 +247,21 @@ def adjacency(edges: npt.NDArray[np.integer], n: int, weights: npt.NDArray[np.fl
     dst = np.ascontiguousarray(edges[:, 1], dtype=np.int64)
     if len(src) and (min(int(src.min()), int(dst.min())) < 0 or max(int(src.max()), int(dst.max())) >= n):
         raise ValueError(f"edge endpoints must be in [0, {n})")
+    return _csr(src, dst, n, weights, symmetric, _in_order(src, dst, symmetric))
+
+
+def _in_order(a: np.ndarray, b: np.ndarray, strict: bool) -> bool:
+    """Whether rows (a, b) are sorted by (a, b); ``strict``: also unique, with ``a < b``."""
+    if strict and not (a < b).all():
+        return False
+    da, db = np.diff(a), np.diff(b)
+    return bool(((da > 0) | ((da == 0) & ((db > 0) if strict else (db >= 0)))).all())
+
+
+def _csr(src: np.ndarray, dst: np.ndarray, n: int, weights, symmetric: bool, in_order: bool):
+    """:func:`adjacency` of int64 endpoints; ``in_order``: rows already as :func:`_in_order` asks."""
     w = None if weights is None else np.asarray(weights, dtype=np.float64)
-    if symmetric and rows_sorted(src, dst, True):
+    if symmetric and in_order:
         indptr, indices, ew = fill_symmetric(src, dst, n, _EMPTY if w is None else w, w is not None)
         return (indptr, indices) if w is None else (indptr, indices, ew)
     if symmetric:
@@ -253,7 +269,7 @@ def adjacency(edges: npt.NDArray[np.integer], n: int, weights: npt.NDArray[np.fl
         w = None if w is None else np.concatenate([w, w])
     indptr = np.zeros(n + 1, dtype=np.int64)
     np.cumsum(np.bincount(src, minlength=n), out=indptr[1:])
-    order = None if not symmetric and rows_sorted(src, dst, False) else sort_rows(src, dst, n)
+    order = None if not symmetric and in_order else sort_rows(src, dst, n)
     indices = (dst if order is None else dst[order]).astype(INDEX)
     if w is None:
         return indptr, indices

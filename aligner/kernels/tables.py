@@ -106,17 +106,6 @@ def merge_sorted(k1, k2, order, w, mode):
 
 
 @numba.njit(cache=True, nogil=True)
-def rows_sorted(a, b, upper):
-    """Whether rows (a, b) are in (a, b) order; with ``upper``, also unique with ``a < b``."""
-    for i in range(len(a)):
-        if upper and a[i] >= b[i]:
-            return False
-        if i and (a[i] < a[i - 1] or (a[i] == a[i - 1] and (b[i] < b[i - 1] or (upper and b[i] == b[i - 1])))):
-            return False
-    return True
-
-
-@numba.njit(cache=True, nogil=True)
 def fill_symmetric(a, b, n, w, weighted):
     """Symmetric CSR of edges (a, b) sorted by (a, b), unique, ``a < b``: one count, one fill.
 

@@ -6,7 +6,8 @@ import pandas as pd
 import pytest
 import scipy.sparse as sp
 
-from aligner.core.network import adjacency, canonical_arcs, canonical_edges, merge_duplicate_pairs, network_from_edges
+from aligner.core.network import (_in_order, adjacency, canonical_arcs, canonical_edges, merge_duplicate_pairs,
+                                  network_from_edges)
 
 
 def _rows(rng, n, m):
@@ -114,3 +115,16 @@ def test_merged_zero_scores_do_not_depend_on_row_order():
     for s in ([0.0, -0.0], [-0.0, 0.0]):
         _, best, dup = merge_duplicate_pairs(np.array([[1, 2], [1, 2]]), np.array(s), 3)
         assert dup == 1 and np.copysign(1.0, best[0]) == 1.0
+
+
+@pytest.mark.parametrize("a, b, strict, want", [
+    ([0, 0, 1], [1, 2, 2], True, True),
+    ([0, 0, 1], [1, 1, 2], True, False),   # a repeat
+    ([0, 1, 0], [1, 2, 2], True, False),   # out of order
+    ([1], [0], True, False),               # not a < b
+    ([1, 1, 2], [0, 0, 1], False, True),   # arcs: repeats and a > b allowed
+    ([1, 0], [0, 1], False, False),
+    ([], [], True, True),
+])
+def test_in_order_hand_worked(a, b, strict, want):
+    assert _in_order(np.array(a, np.int64), np.array(b, np.int64), strict) is want

@@ -4,7 +4,7 @@ import numpy as np
 import pytest
 import scipy.sparse as sp
 
-from aligner.kernels.tables import _SHORT, fill_symmetric, merge_sorted, rows_sorted, sort_rows
+from aligner.kernels.tables import _SHORT, fill_symmetric, merge_sorted, sort_rows
 
 
 @pytest.mark.parametrize("n1, n2, m", [(5, 4, 60), (50, 1000, 3000), (3, 7, 500), (1, 1, 0)])
@@ -66,22 +66,8 @@ def test_fill_symmetric_equals_scipy_csr():
     keep = a < b
     a, b = a[keep].astype(np.int64), b[keep].astype(np.int64)
     w = rng.random(len(a))
-    assert rows_sorted(a, b, True)
     ip, ix, ew = fill_symmetric(a, b, n, w, True)
     ref = sp.coo_matrix((np.concatenate([w, w]), (np.concatenate([a, b]), np.concatenate([b, a]))), shape=(n, n)).tocsr()
     ref.sort_indices()
     assert np.array_equal(ip, ref.indptr) and np.array_equal(ix, ref.indices) and np.array_equal(ew, ref.data)
     assert ix.dtype == np.int32 and ip.dtype == np.int64
-
-
-@pytest.mark.parametrize("a, b, upper, want", [
-    ([0, 0, 1], [1, 2, 2], True, True),
-    ([0, 0, 1], [1, 1, 2], True, False),   # a repeat
-    ([0, 1, 0], [1, 2, 2], True, False),   # out of order
-    ([1], [0], True, False),               # not a < b
-    ([1, 1, 2], [0, 0, 1], False, True),   # arcs: repeats and a > b allowed
-    ([1, 0], [0, 1], False, False),
-    ([], [], True, True),
-])
-def test_rows_sorted_hand_worked(a, b, upper, want):
-    assert rows_sorted(np.array(a, np.int64), np.array(b, np.int64), upper) is want
