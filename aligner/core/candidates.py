@@ -91,6 +91,9 @@ def build_candidates(
     """
     pairs = _as_index_pairs(pairs)
     scores = np.asarray(scores, dtype=np.float64).reshape(-1)
+    if len(scores) != len(pairs):
+        raise InvalidParameterError(f"scores must hold one score per pair; got {len(scores)} for {len(pairs)} pairs",
+                                    param="scores")
     owned = False  # whether pairs and scores are arrays of our own yet
     keep = scores >= min_score
     if not keep.all():

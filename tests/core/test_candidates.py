@@ -154,3 +154,8 @@ def test_pairs_outside_the_networks_are_refused():
                                                         r"got a pair outside$") as info:
             build_candidates(bad, [1.0], 2, 2)
         assert info.value.param == "pairs"
+
+
+def test_one_score_per_pair():
+    with pytest.raises(InvalidParameterError, match=r"^scores must hold one score per pair; got 1 for 2 pairs$"):
+        build_candidates([[0, 0], [1, 1]], [1.0], 2, 2)
