@@ -17,7 +17,7 @@ def _best_two(group: npt.NDArray[np.integer], x: npt.NDArray[np.float64], n: int
 
     Groups with no entry get -inf; groups with one entry get -inf as second largest.
     """
-    return best_two(np.asarray(group, dtype=np.int64), np.asarray(x, dtype=np.float64), n)
+    return best_two(np.ascontiguousarray(group, dtype=np.int64), np.ascontiguousarray(x, dtype=np.float64), n)
 
 
 def best_competitor(cand: CandidateSet, x: npt.ArrayLike, index: npt.ArrayLike) -> npt.NDArray[np.float64]:

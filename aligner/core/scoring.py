@@ -23,7 +23,7 @@ import numpy as np
 import numpy.typing as npt
 
 from aligner.errors import InvalidParameterError
-from aligner.kernels.scoring import edge_table, largest_component, mapped_edge_rows
+from aligner.kernels.scoring import largest_component, mapped_edge_rows
 
 __all__ = ["Scores", "score_matching", "node_correctness", "edge_correctness", "induced_conserved_structure",
            "symmetric_substructure", "induced_edges", "largest_common_component", "conserved_weight"]
@@ -96,6 +96,25 @@ class Scores:
                                                        "weighted_ec": self.weighted_ec})
 
 
+def _ends(edges: npt.ArrayLike) -> tuple[npt.NDArray[np.int64], npt.NDArray[np.int64]]:
+    """The two end columns of an edge list, each a contiguous int64 array (what the kernels take)."""
+    e = np.asarray(edges, dtype=np.int64).reshape(-1, 2)
+    return np.ascontiguousarray(e[:, 0]), np.ascontiguousarray(e[:, 1])
+
+
+def _key_order(edges_b: npt.NDArray[np.int64], directed: bool):
+    """B's edges as keys (first end, second end), undirected ones as (min, max), in key order
+    (ties in row order), and the rows in that order (None when already in it, as canonical
+    edge lists are)."""
+    u, v = _ends(edges_b)
+    lo, hi = (u, v) if directed else (np.minimum(u, v), np.maximum(u, v))
+    step = np.diff(lo)
+    if (step >= 0).all() and (np.diff(hi)[step == 0] >= 0).all():
+        return lo, hi, None
+    order = np.lexsort((hi, lo))  # stable: ties keep their row order
+    return lo[order], hi[order], order
+
+
 def conserved_image(
     edges_a: npt.NDArray[np.integer], edges_b: npt.NDArray[np.integer], f: npt.NDArray[np.int64], n2: int,
     directed: bool = False,
@@ -104,16 +123,30 @@ def conserved_image(
 
     ``f`` maps nodes of A to nodes of B (-1 = unmapped). Directed: (u, v) is conserved only
     onto the arc (f(u), f(v)). Should ``edges_b`` repeat an edge, the first row holding it is
-    named. One compiled pass over the edges of A, each looked up by binary search in B's edges
-    grouped by their first end (O(|E_A| log d + |E_B| + n2)).
+    named. B's edges are put in key order (a check only, for a canonical edge list) and each
+    edge of A is looked up by binary search: in one compiled pass among B's edges grouped by
+    first end (O(|E_A| log d + |E_B| + n2)), or, when n2 is far larger than the edge and
+    node arrays (so no array of n2 entries is made), among all keys (O(|E_A| log |E_B|)).
     """
     out = np.full(len(edges_a), -1, dtype=np.int64)
     if len(edges_a) == 0 or len(edges_b) == 0:
         return out
-    ea = np.asarray(edges_a, dtype=np.int64)
-    eb = np.asarray(edges_b, dtype=np.int64)
-    indptr, col, eid = edge_table(eb[:, 0], eb[:, 1], n2, directed)
-    return mapped_edge_rows(ea[:, 0], ea[:, 1], np.asarray(f, dtype=np.int64), indptr, col, eid, directed)
+    ea = np.asarray(edges_a, dtype=np.int64).reshape(-1, 2)
+    f = np.ascontiguousarray(f, dtype=np.int64)
+    lo, hi, order = _key_order(np.asarray(edges_b, dtype=np.int64).reshape(-1, 2), directed)
+    if n2 <= 2 * (len(lo) + len(f)):
+        indptr = np.zeros(n2 + 1, dtype=np.int64)
+        np.cumsum(np.bincount(lo, minlength=n2), out=indptr[1:])
+        pos = mapped_edge_rows(*_ends(ea), f, indptr, np.ascontiguousarray(hi), directed)
+    else:
+        keys, pos = lo * n2 + hi, out.copy()
+        fu, fv = f[ea[:, 0]], f[ea[:, 1]]
+        both = np.flatnonzero((fu >= 0) & (fv >= 0))
+        a, b = (fu[both], fv[both]) if directed else (np.minimum(fu[both], fv[both]), np.maximum(fu[both], fv[both]))
+        at = np.minimum(np.searchsorted(keys, a * n2 + b), len(keys) - 1)
+        hit = keys[at] == a * n2 + b
+        pos[both[hit]] = at[hit]
+    return pos if order is None else np.where(pos >= 0, order[np.maximum(pos, 0)], -1)
 
 
 def conserved_mask(
@@ -185,8 +218,7 @@ def largest_common_component(edges_a: npt.NDArray[np.int64], cons: npt.NDArray[n
 
     Of components of equal size, the one holding the lowest-numbered node is taken.
     """
-    e = np.asarray(edges_a, dtype=np.int64).reshape(-1, 2)
-    nodes, edges = largest_component(e[:, 0], e[:, 1], np.asarray(cons, dtype=np.bool_), n1)
+    nodes, edges = largest_component(*_ends(edges_a), np.ascontiguousarray(cons, dtype=np.bool_), n1)
     return int(nodes), int(edges)
 
 

@@ -31,7 +31,7 @@ def _induced(edges: npt.NDArray[np.integer], nodes: npt.NDArray[np.integer], n: 
     inside = np.zeros(n, dtype=bool)
     inside[nodes] = True
     e = np.asarray(edges, dtype=np.int64).reshape(-1, 2)
-    m, deg = induced_degrees(e[:, 0], e[:, 1], inside, n)
+    m, deg = induced_degrees(np.ascontiguousarray(e[:, 0]), np.ascontiguousarray(e[:, 1]), inside, n)
     return int(m), deg[nodes].astype(np.float64)
 
 

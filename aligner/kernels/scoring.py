@@ -1,5 +1,5 @@
 """Compiled passes of the scores: edge lookup through a map, the largest conserved component,
-and the best two candidates per node (for the confidence).
+the best two candidates per node (for the confidence), induced degrees.
 
 Every kernel takes int64 node arrays and float64 scores (one compiled signature each).
 """
@@ -9,66 +9,11 @@ import numpy as np
 
 
 @numba.njit(cache=True, nogil=True)
-def edge_table(u, v, n, directed):
-    """The edges (u[e], v[e]) of a network on ``n`` nodes as rows for lookup.
-
-    Undirected edges are keyed (min, max), arcs (u, v). Returns ``indptr`` (n + 1), ``col``
-    and ``eid`` (E each): the keys with first end ``a`` are ``col[indptr[a]:indptr[a + 1]]``,
-    ascending, ties in edge order, and ``eid`` holds the edge each entry came from. Edges
-    already in key order are only counted; others take two stable counting sorts (by the
-    second end, then by the first): O(E + n) either way.
-    """
-    m = len(u)
-    lo = np.empty(m, dtype=np.int64)
-    hi = np.empty(m, dtype=np.int64)
-    ordered = True
-    for e in range(m):
-        a, b = u[e], v[e]
-        if not directed and b < a:
-            a, b = b, a
-        lo[e] = a
-        hi[e] = b
-        if e > 0 and (a < lo[e - 1] or (a == lo[e - 1] and b < hi[e - 1])):
-            ordered = False
-    if ordered:  # already sorted by key (canonical edge lists are): count the rows only
-        indptr = np.zeros(n + 1, dtype=np.int64)
-        for e in range(m):
-            indptr[lo[e] + 1] += 1
-        for a in range(n):
-            indptr[a + 1] += indptr[a]
-        return indptr, hi, np.arange(m)
-    # stable counting sort by hi
-    count = np.zeros(n + 1, dtype=np.int64)
-    for e in range(m):
-        count[hi[e] + 1] += 1
-    for a in range(n):
-        count[a + 1] += count[a]
-    by_hi = np.empty(m, dtype=np.int64)
-    for e in range(m):
-        by_hi[count[hi[e]]] = e
-        count[hi[e]] += 1
-    # stable counting sort of that order by lo
-    indptr = np.zeros(n + 1, dtype=np.int64)
-    for e in range(m):
-        indptr[lo[e] + 1] += 1
-    for a in range(n):
-        indptr[a + 1] += indptr[a]
-    fill = indptr[:-1].copy()
-    col = np.empty(m, dtype=np.int64)
-    eid = np.empty(m, dtype=np.int64)
-    for t in range(m):
-        e = by_hi[t]
-        p = fill[lo[e]]
-        col[p] = hi[e]
-        eid[p] = e
-        fill[lo[e]] = p + 1
-    return indptr, col, eid
-
-
-@numba.njit(cache=True, nogil=True)
-def mapped_edge_rows(u, v, f, indptr, col, eid, directed):
-    """For every edge (u[e], v[e]) of A, the first edge of B's :func:`edge_table` keyed
-    (f(u), f(v)) (undirected: as (min, max)), or -1; ``f`` = -1 marks an unmapped node."""
+def mapped_edge_rows(u, v, f, indptr, col, directed):
+    """For every edge (u[e], v[e]) of A, the first position p with ``col[p]`` = f(v) among
+    ``col[indptr[a]:indptr[a + 1]]`` (ascending), a = f(u), or -1: the edges of B as keys
+    (first end, second end) grouped by first end. Undirected, (f(u), f(v)) is looked up as
+    (min, max); ``f`` = -1 marks an unmapped node."""
     m = len(u)
     out = np.full(m, -1, dtype=np.int64)
     for e in range(m):
@@ -87,7 +32,7 @@ def mapped_edge_rows(u, v, f, indptr, col, eid, directed):
             else:
                 hi = mid
         if lo < indptr[a + 1] and col[lo] == b:
-            out[e] = eid[lo]
+            out[e] = lo
     return out
 
 
