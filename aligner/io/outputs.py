@@ -39,6 +39,9 @@ OUTPUT_FILES = ("alignment.tsv", "conserved_edges.tsv", "summary.json")
 SWEEP_TABLE = "sweep.tsv"
 #: The columns of a prior table, in the order they are written.
 PRIOR_COLUMNS = ("node_a", "node_b", "score")
+#: Tables with fewer rows are written by pandas alone: as quick at that size, and the first run
+#: after installation then compiles no text kernel for them (the text is the same either way).
+_COMPILED_FROM_ROWS = 20_000
 
 
 # --------------------------------------------------------------------------- text of a file
@@ -93,10 +96,11 @@ def _in_order(df: pd.DataFrame, keys) -> bool:
 
 def _table_bytes(df: pd.DataFrame, *, float_format="%.10g", na_rep: str = "", sort_by=None) -> bytes:
     """:func:`table_text` as UTF-8 bytes, after a stable sort by the columns ``sort_by``."""
-    if sort_by is not None and not _in_order(df, sort_by):
+    small = len(df) < _COMPILED_FROM_ROWS
+    if sort_by is not None and (small or not _in_order(df, sort_by)):
         df = df.sort_values(list(sort_by), kind="stable")
     fields = None
-    if len(df) and df.shape[1] >= 2 and not isinstance(df.columns, pd.MultiIndex):
+    if not small and df.shape[1] >= 2 and not isinstance(df.columns, pd.MultiIndex):
         fields = [_field(col, float_format, na_rep) for _, col in df.items()]
     if fields is None or any(f is None for f in fields):
         return _pandas_text(df, float_format, na_rep).encode("utf-8")

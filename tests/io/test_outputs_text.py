@@ -15,7 +15,14 @@ from hypothesis import given, settings
 from hypothesis import strategies as st
 
 from aligner.core import tsv
+from aligner.io import outputs
 from aligner.io.outputs import table_text, write_outputs
+
+
+@pytest.fixture(autouse=True)
+def compiled_for_every_table(monkeypatch):
+    # tables this small are otherwise left to pandas (aligner.io.outputs._COMPILED_FROM_ROWS)
+    monkeypatch.setattr(outputs, "_COMPILED_FROM_ROWS", 1)
 
 
 def _texts(field):
@@ -131,3 +138,11 @@ def test_text_field_of_sliced_and_chunked_arrays():
     assert _texts(tsv.text_field(sliced)) == ["yy", "zzz"]
     assert tsv.text_field(pa.array(["a", None])) is None
     assert tsv.text_field(pa.array([1, 2])) is None
+
+
+def test_small_tables_are_the_same_text_through_pandas(rng, monkeypatch):
+    # Reference: the compiled path (forced above) against the pandas path used below the threshold
+    df = _frame(rng, 50, object)
+    compiled = table_text(df)
+    monkeypatch.setattr(outputs, "_COMPILED_FROM_ROWS", 10**9)
+    assert table_text(df) == compiled == _to_csv(df)
