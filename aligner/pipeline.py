@@ -61,8 +61,9 @@ class Clock:
     each stage starts.
 
     ``memory[stage]`` is the peak resident memory in GiB: of the stage alone when the peak can
-    be reset (Linux, with :attr:`reset_peaks` set: the command line does, since the process is
-    its own), otherwise the process's peak so far at the end of the stage.
+    be reset (Linux, with :attr:`reset_peaks` set: the command line does, within
+    :meth:`owning_process`, since the process is its own), otherwise the process's peak so far
+    at the end of the stage.
     """
 
     #: reset the process's resident-memory high-water mark at each stage start (Linux only);
@@ -84,6 +85,17 @@ class Clock:
         yield
         self.timings[name] = round(self.timings.get(name, 0.0) + time.perf_counter() - t0, 4)
         self.memory[name] = round(max(self.memory.get(name, 0.0), _peak_memory() / 2**30), 3)
+
+    @classmethod
+    @contextmanager
+    def owning_process(cls):
+        """Within this block, clocks reset the memory high-water mark per stage (for a program that
+        owns its process, such as the command line); the setting is restored afterwards."""
+        before, cls.reset_peaks = cls.reset_peaks, True
+        try:
+            yield
+        finally:
+            cls.reset_peaks = before
 
     def memory_report(self) -> dict:
         """The ``memory`` section of ``summary.json``."""

@@ -86,11 +86,13 @@ def _run(d, out, *extra, suffix=""):
 
 
 def _summary_without_timings(out):
-    """summary.json less what must differ between runs: wall-clock times and input paths."""
+    """summary.json less what must differ between runs: wall-clock times, memory figures, rates
+    per second and input paths."""
     def strip(obj):
         if isinstance(obj, dict):
             return {k: strip(v) for k, v in obj.items()
-                    if k not in ("timings", "source") and not k.endswith("seconds")}
+                    if k not in ("timings", "source", "memory") and not k.endswith("seconds")
+                    and not k.endswith("per_second")}
         if isinstance(obj, list):
             return [strip(v) for v in obj]
         return obj

@@ -1,3 +1,5 @@
+import json
+
 import networkx as nx
 import numpy as np
 import pandas as pd
@@ -207,3 +209,26 @@ def test_summary_has_memory_for_every_timed_stage():
     mem = res.summary["memory"]
     assert set(mem["peak_gib"]) == set(res.summary["timings"]) and all(v > 0 for v in mem["peak_gib"].values())
     assert mem["per_stage"] is False  # the Python API leaves the host process's counters alone
+
+
+def test_command_line_resets_peaks_only_while_it_runs(tmp_path):
+    # the command line measures each stage's own peak (per_stage true on Linux) and leaves the
+    # setting as it found it, so a host program that runs it in-process keeps its counters
+    import sys
+
+    from typer.testing import CliRunner
+
+    from aligner.cli import app
+    from aligner.pipeline import Clock
+
+    a, b, prior, truth = _relabelled(40, seed=5, noise=0.05)
+    paths = []
+    for name, frame in (("a", a), ("b", b), ("p", prior)):
+        frame.to_csv(tmp_path / f"{name}.tsv", sep="\t", index=False, header=False)
+        paths.append(str(tmp_path / f"{name}.tsv"))
+    res = CliRunner().invoke(app, ["align", *paths[:2], "--prior", paths[2], "-o", str(tmp_path / "out"), "-q"])
+    assert res.exit_code == 0, res.output
+    summary = json.loads((tmp_path / "out" / "summary.json").read_text())
+    assert summary["memory"]["per_stage"] is sys.platform.startswith("linux")
+    assert Clock.reset_peaks is False
+    assert aligner.align(a, b, prior).summary["memory"]["per_stage"] is False

@@ -46,10 +46,10 @@ def run_align(network_a: Path, network_b: Path, prior: Path | None, outdir: Path
     from aligner.pipeline import STAGES, Clock, align
     from aligner.render.console import summary_table
 
-    Clock.reset_peaks = True  # the process is ours: measure each stage's own peak memory
     if outdir is not None:
         check_outdir(outdir, force=force)  # refuse before any work, not after it
-    with progress(quiet, len(STAGES)) as bar:
+    # the process is ours: measure each stage's own peak memory
+    with Clock.owning_process(), progress(quiet, len(STAGES)) as bar:
         if engine.engine == "dask":
             from aligner.engines.dask.engine import align as dask_align
 
