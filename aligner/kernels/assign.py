@@ -63,13 +63,8 @@ _ON_STACK = 4  # reached at a distance <= the current level: settled next
 
 
 @numba.njit(cache=True)
-def _heap_push_or_decrease(heap, hkey, pos, size, col, key, is_new):
-    """Insert ``col`` with ``key`` (``is_new``) or lower its key; sift up."""
-    if is_new:
-        slot = size
-        size += 1
-    else:
-        slot = pos[col]
+def _sift_up(heap, hkey, pos, slot, col, key):
+    """Place ``col`` with ``key`` at ``slot`` or above it, moving larger keys down."""
     while slot > 0:
         parent = (slot - 1) >> 1
         pkey = hkey[parent]
@@ -83,7 +78,21 @@ def _heap_push_or_decrease(heap, hkey, pos, size, col, key, is_new):
     heap[slot] = col
     hkey[slot] = key
     pos[col] = slot
-    return size
+
+
+# The heap functions take no literal flags or sizes: each constant argument would compile a
+# specialisation of its own (one signature each keeps the first run's compilation short).
+@numba.njit(cache=True)
+def _heap_push(heap, hkey, pos, size, col, key):
+    """Insert ``col`` with ``key``; return the new size."""
+    _sift_up(heap, hkey, pos, size, col, key)
+    return size + 1
+
+
+@numba.njit(cache=True)
+def _heap_decrease(heap, hkey, pos, col, key):
+    """Lower the key of ``col`` (in the heap) to ``key``."""
+    _sift_up(heap, hkey, pos, pos[col], col, key)
 
 
 @numba.njit(cache=True)
@@ -361,7 +370,7 @@ def _insert_row(s, rstart, ent, v, rec, row_to_col, row_cost, state, heap,
     # If it is s's own dummy or a free column, it is what the search
     # would settle first, so take it with no change of potentials.
     best = 0.0  # own dummy column: cost 0, potential 0
-    best_col = -1
+    best_col = np.int64(-1)
     best_cost = 0.0
     for p in range(rstart[s], rstart[s + 1]):
         k = np.int64(ent[p, 0])
@@ -386,7 +395,7 @@ def _insert_row(s, rstart, ent, v, rec, row_to_col, row_cost, state, heap,
     # are common: the potentials make many edges tight).
     n_touched = 0
     n_settled = 0
-    size = 0
+    size = np.int64(0)
     n_stack = 0
     level = -inf
     dummy_dist = 0.0  # s's own dummy
@@ -419,8 +428,7 @@ def _insert_row(s, rstart, ent, v, rec, row_to_col, row_cost, state, heap,
                     n_stack += 1
                 else:
                     state[k] = _IN_HEAP
-                    size = _heap_push_or_decrease(heap, hkey, pos, size,
-                                                  k, d, True)
+                    size = _heap_push(heap, hkey, pos, size, k, d)
             elif sk == _FREE:
                 if d < free_dist:
                     free_dist = d
@@ -432,8 +440,7 @@ def _insert_row(s, rstart, ent, v, rec, row_to_col, row_cost, state, heap,
                 rec[k, _PRED] = r
                 rec[k, _PREDP] = p
                 if sk == _IN_HEAP:
-                    _heap_push_or_decrease(heap, hkey, pos, size,
-                                           k, d, False)
+                    _heap_decrease(heap, hkey, pos, k, d)
         bound = dummy_dist if dummy_dist < free_dist else free_dist
         if n_stack > 0:
             n_stack -= 1

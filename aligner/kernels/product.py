@@ -115,12 +115,15 @@ def product_rows(i0, i1, a_indptr, a_indices, b_indptr, b_indices, c_indptr, c_b
             continue
         if total + nh > out_ix.shape[0]:
             cap = max(2 * out_ix.shape[0], total + nh)
+            # copied element by element: a slice copy compiles numba's shape checks (about 1 s cold)
             grown_ix = np.empty(cap, dtype=np.int32)
-            grown_ix[:total] = out_ix[:total]
+            for x in range(total):
+                grown_ix[x] = out_ix[x]
             out_ix = grown_ix
             if weighted:
                 grown_w = np.empty(cap, dtype=np.float64)
-                grown_w[:total] = out_w[:total]
+                for x in range(total):
+                    grown_w[x] = out_w[x]
                 out_w = grown_w
         # write the hits row by row, in the order found (a stable counting sort on the row)
         r0 = k0 - p0
