@@ -57,8 +57,16 @@ def run_align(network_a: Path, network_b: Path, prior: Path | None, outdir: Path
                              progress=bar.stage, scheduler=engine.scheduler, workers=engine.workers,
                              partitions=engine.partitions)
         else:
-            res = align(network_a, network_b, prior, seeds=seeds, truth=truth, config=config, progress=bar.stage,
-                        permutation_progress=bar.count)
+            from aligner.engines.ahead import CompileAhead
+
+            # a first run: a second process compiles the later stages' kernels meanwhile
+            with CompileAhead(STAGES) as helper:
+                def on_stage(name: str) -> None:
+                    helper.reach(name)
+                    bar.stage(name)
+
+                res = align(network_a, network_b, prior, seeds=seeds, truth=truth, config=config,
+                            progress=on_stage, permutation_progress=bar.count)
         bar.stage("writing")
         written = write_outputs(outdir, res, force=force) if outdir is not None else []
     if not quiet:
