@@ -199,7 +199,8 @@ def _local_push(a_indptr, a_indices, b_indptr, b_indices, c_indptr, c_a, c_b, de
     ``h`` is ``seed_h`` on the global candidates ``seed_idx`` (zero elsewhere); ``slot`` must
     be -1 everywhere on entry. Gauss–Southwell with a FIFO queue: entry l is pushed while
     |r_l| > eps v_l, with v_l = deg_S(l) (restricted normalisation) or deg_A(j) deg_B(j')
-    (product normalisation) -- the weights for which P v <= v. Under the restricted
+    (product normalisation) -- the weights for which P v <= v; in the first round every source
+    of h is pushed once whatever its threshold. Under the restricted
     normalisation deg_S(l) is needed before l can be pushed (its column scale 1/deg_S and its
     threshold): while it is unknown the threshold uses a lower bound, the larger of "pairs
     with a kept list adjacent to l" (at least 1 for any pair that received residual by a
@@ -237,14 +238,21 @@ def _local_push(a_indptr, a_indices, b_indptr, b_indices, c_indptr, c_a, c_b, de
             probes += _count(l, np.inf, a_indptr, a_indices, b_indptr, b_indices, c_indptr, c_a, c_b, ints,
                              floats, restricted)
     rounds = 0
+    # the residual's 1-norm so far: at x = 0 it is that of (1 - alpha) h (reported as such when
+    # nothing is ever pushed: the bound must hold however little is done)
     res = 0.0
+    for l in range(n):
+        res += abs(floats[l, _R])
     while True:
         rounds += 1
         queued = 0
         for l in range(n):
-            if abs(floats[l, _R]) > eps * _weight(ints, floats, l, restricted):
+            # in the first round every source of h is pushed once, even below its threshold (a
+            # score of 0 with a wide bound would be a poor answer; a push never hurts the bound)
+            forced = rounds == 1 and floats[l, _H] != 0.0 and floats[l, _R] != 0.0
+            if forced or abs(floats[l, _R]) > eps * _weight(ints, floats, l, restricted):
                 queue, qhead, qtail = _enqueue(queue, qhead, qtail, l)
-                ints[l, _INQ] = 1
+                ints[l, _INQ] = 2 if forced else 1
                 queued += 1
         if queued == 0:
             break
@@ -254,15 +262,17 @@ def _local_push(a_indptr, a_indices, b_indptr, b_indices, c_indptr, c_a, c_b, de
                 break
             l = queue[qhead]
             qhead += 1
+            forced = ints[l, _INQ] == 2
             ints[l, _INQ] = 0
             rl = floats[l, _R]
             if restricted and ints[l, _DEG] < 0:
                 # learn enough of deg_S (the threshold) to decide, without holding its neighbours
-                probes += _count(l, abs(rl) / eps, a_indptr, a_indices, b_indptr, b_indices, c_indptr, c_a, c_b,
+                limit = np.inf if forced else abs(rl) / eps
+                probes += _count(l, limit, a_indptr, a_indices, b_indptr, b_indices, c_indptr, c_a, c_b,
                                  ints, floats, restricted)
                 if ints[l, _DEG] < 0:
                     continue  # eps * (count so far) >= |r_l|: not to be pushed
-            if abs(rl) <= eps * floats[l, _V]:
+            if not forced and abs(rl) <= eps * floats[l, _V]:
                 continue
             if ints[l, _START] < 0:  # first push: keep the neighbour list
                 ints, floats, n, pool, npool, pr = _discover(l, a_indptr, a_indices, b_indptr, b_indices,
