@@ -201,11 +201,14 @@ def _snap(v: npt.NDArray[np.float64]) -> npt.NDArray[np.float64]:
     (``lapjv`` 1.3.29) was seen to loop forever on a small matrix whose entries differed by
     one unit in the last place, and not on the same matrix snapped.
     """
-    top = float(np.max(np.abs(v))) if len(v) else 0.0
+    top = max(float(v.max()), -float(v.min())) if len(v) else 0.0
     if top <= 0 or not np.isfinite(top):
         return v
     step = 2.0 ** (int(np.ceil(np.log2(top))) - SNAP_BITS)
-    return np.round(v / step) * step
+    out = np.divide(v, step)  # one array, rounded and scaled in place (the same values)
+    np.round(out, out=out)
+    out *= step
+    return out
 
 
 def _mates(cand: CandidateSet, index):
@@ -327,9 +330,10 @@ def _frank_wolfe(prod: ProductGraph, cand: CandidateSet, bw: npt.NDArray[np.floa
     sx = inc.g.copy()
     fx = inc.f
     sq = np.empty(cand.m)
+    grad = np.empty(cand.m)  # reused each iteration (the step's arithmetic is unchanged)
     iters = stall = 0
     while iters < budget and stall < opts.patience:
-        grad = bw + sx
+        np.add(bw, sx, out=grad)
         q = round_matching(cand, _snap(grad), method=opts.method).index
         iters += 1
         _matched_neighbours(prod.indptr, prod.indices, q, sq)
@@ -340,18 +344,21 @@ def _frank_wolfe(prod: ProductGraph, cand: CandidateSet, bw: npt.NDArray[np.floa
         else:
             stall += 1
         inc.record()
-        d = -x
+        d = np.negative(x)  # d = 1_q - x (freed before the next assignment)
         d[q] += 1.0
         gap = float(grad @ d)
         if gap <= RISE_TOL * (1.0 + abs(fx)):
             break  # x is a stationary point of the relaxation
-        sd = sq - sx
+        sd = np.subtract(sq, sx, out=grad)  # S d, in grad's place (grad is spent)
         curv = float(d @ sd)
         gamma = _step_length(opts.step, gap, curv, fq, fx)
         if gamma is None:
             break
-        x += gamma * d
-        sx += gamma * sd
+        d *= gamma
+        x += d
+        sd *= gamma
+        sx += sd
+        del d
         fx = fx + gamma * gap + 0.5 * gamma * gamma * curv
     return iters
 

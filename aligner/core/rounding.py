@@ -40,26 +40,13 @@ def _compact(cand: CandidateSet, w: npt.NDArray[np.float64]):
     """Candidate pairs with positive weight, as a CSR over the A and B nodes that have any.
 
     The one place where pairs without evidence (weight 0, negative or NaN) are dropped. Nodes
-    are renumbered in increasing order by a presence mask and its running count (O(m + n), no
-    sort): the same numbering as ``np.unique(..., return_inverse=True)``.
+    are renumbered in increasing order (the same numbering as ``np.unique(...,
+    return_inverse=True)``) by a compiled pass, O(m + n), no sort.
     """
-    use = np.flatnonzero(w > 0)
-    pa, pb = cand.pairs[use, 0], cand.pairs[use, 1]
-    rows_u, rows = _renumber(pa, cand.n1)
-    cols_u, cols = _renumber(pb, cand.n2)
-    # ``use`` is sorted by (i, i') so rows are sorted and columns sorted within each row
-    indptr = np.zeros(len(rows_u) + 1, dtype=np.int64)
-    np.cumsum(np.bincount(rows, minlength=len(rows_u)), out=indptr[1:])
-    return use, rows_u, cols_u, indptr, cols, w[use]
+    from aligner.kernels.assign import compact_positive
 
-
-def _renumber(nodes: npt.NDArray[np.integer], n: int):
-    """(the distinct nodes ascending, each entry's position among them)."""
-    present = np.zeros(n, dtype=bool)
-    present[nodes] = True
-    distinct = np.flatnonzero(present)
-    position = np.cumsum(present, dtype=np.int64) - 1
-    return distinct, position[nodes]
+    pairs = np.ascontiguousarray(cand.pairs, dtype=np.int32)
+    return compact_positive(pairs, np.ascontiguousarray(w, dtype=np.float64), cand.n1, cand.n2)
 
 
 def round_matching(cand: CandidateSet, w: npt.ArrayLike, *, method: str = "auto") -> Matching:
@@ -123,8 +110,9 @@ def round_matching(cand: CandidateSet, w: npt.ArrayLike, *, method: str = "auto"
     else:
         row_to_col = _scipy_matching(indptr, cols, ww, nr, nc)
     # back from (row, col) to candidate index: the one stored entry of each row at its column
-    entry_row = np.repeat(np.arange(nr, dtype=np.int64), np.diff(indptr))
-    index = use[np.flatnonzero(row_to_col[entry_row] == cols)]
+    from aligner.kernels.assign import matched_entries
+
+    index = matched_entries(indptr, cols, np.ascontiguousarray(row_to_col, dtype=np.int64), use)
     return Matching(index=index, method=method, weight=float(w[index].sum()), seconds=time.perf_counter() - t0)
 
 

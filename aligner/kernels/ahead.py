@@ -49,7 +49,9 @@ STAGE_KERNELS: dict[str, list[tuple[str, str, str]]] = {
         ("push", "_push", f"{_I64}, {_I32}, {_F64}, {_F64}, float64, {_F64}, {_F64}, {_F64}, int64"),
     ],
     "rounding": [
+        ("assign", "compact_positive", f"int32[:, ::1], {_F64}, int64, int64"),
         ("assign", "sparse_max_weight_matching", f"{_I64}, {_I64}, {_F64}, int64"),
+        ("assign", "matched_entries", f"{_I64}, {_I64}, {_I64}, {_I64}"),
     ],
     "refine": [
         ("utils", "stable_order", f"{_I64}, int64"),

@@ -769,3 +769,84 @@ def max_weight_matching_dense(weights_dense):
     keep[keep] = positive[rows[keep], x[keep]]
     out[keep] = x[keep]
     return out
+
+
+# ---------------------------------------------------------------------------
+# The rounding stage's CSR over the pairs with evidence, and the way back.
+# ---------------------------------------------------------------------------
+
+
+@numba.njit(cache=True)
+def compact_positive(pairs, w, n1, n2):
+    """The candidate pairs with ``w > 0`` as a CSR over the A and B nodes that have any.
+
+    ``pairs`` (m, 2) sorted by (node of A, node of B). Returns (use, rows_u, cols_u, indptr,
+    cols, ww): the kept candidate indices ascending, the distinct A and B nodes ascending, the
+    row pointer over ``rows_u``, each kept pair's column (position in ``cols_u``) and weight.
+    Two passes over the pairs and one over the nodes (no sort); NaN weights are not kept.
+    """
+    m = pairs.shape[0]
+    pos_a = np.zeros(n1 + 1, dtype=np.int64)
+    pos_b = np.zeros(n2 + 1, dtype=np.int64)
+    count = 0
+    for k in range(m):
+        if w[k] > 0:
+            count += 1
+            pos_a[pairs[k, 0]] = 1
+            pos_b[pairs[k, 1]] = 1
+    nr = 0
+    for i in range(n1):
+        present = pos_a[i]
+        pos_a[i] = nr
+        nr += present
+    nc = 0
+    for j in range(n2):
+        present = pos_b[j]
+        pos_b[j] = nc
+        nc += present
+    rows_u = np.empty(nr, dtype=np.int64)
+    cols_u = np.empty(nc, dtype=np.int64)
+    use = np.empty(count, dtype=np.int64)
+    cols = np.empty(count, dtype=np.int64)
+    ww = np.empty(count, dtype=np.float64)
+    indptr = np.zeros(nr + 1, dtype=np.int64)
+    t = 0
+    for k in range(m):
+        if w[k] > 0:
+            i = pairs[k, 0]
+            j = pairs[k, 1]
+            r = pos_a[i]
+            c = pos_b[j]
+            rows_u[r] = i
+            cols_u[c] = j
+            indptr[r + 1] += 1
+            use[t] = k
+            cols[t] = c
+            ww[t] = w[k]
+            t += 1
+    for r in range(nr):
+        indptr[r + 1] += indptr[r]
+    return use, rows_u, cols_u, indptr, cols, ww
+
+
+@numba.njit(cache=True)
+def matched_entries(indptr, cols, row_to_col, use):
+    """Candidate indices of the matched entries: for each row with a column, ``use`` at the
+    row's stored entry in that column (rows ascending, as the candidates are sorted)."""
+    nr = indptr.shape[0] - 1
+    n = 0
+    for r in range(nr):
+        if row_to_col[r] >= 0:
+            n += 1
+    out = np.empty(n, dtype=np.int64)
+    t = 0
+    for r in range(nr):
+        c = row_to_col[r]
+        if c < 0:
+            continue
+        for p in range(indptr[r], indptr[r + 1]):
+            if cols[p] == c:
+                out[t] = use[p]
+                t += 1
+                break
+    return out[:t]
