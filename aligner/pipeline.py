@@ -40,6 +40,7 @@ from aligner.core.scoring import Scores, conserved_per_node, score_matching
 from aligner.core.significance import significance
 from aligner.errors import AlignerWarning, InputFormatError, InvalidParameterError, MemoryBudgetError, NoCandidatesError
 from aligner.io.inputs import as_network, as_pairs, as_prior, known_pairs
+from aligner.io.readers import release_unused_memory
 from aligner.core.identifiers import PairTable
 from aligner.core.prior import PriorTable
 from aligner.priors.seeds import (SeedExpansion, SeedTable, add_seed_pairs, as_seeds, expand_from_seeds,
@@ -166,12 +167,14 @@ def read_inputs(network_a, network_b, prior=None, *, seeds=None, truth=None,
     cfg = config or AlignConfig()
     read = {"delimiter": cfg.delimiter, "header": cfg.header}
     net_a = as_network(network_a, name="network_a", directed=cfg.directed, **read)
+    release_unused_memory()  # between tables, so the read stage's peak is one table's
     net_b = as_network(network_b, name="network_b", directed=cfg.directed, **read)
     _check_weighted(net_a, net_b, cfg.weighted)
     prior_t = None if prior is None else as_prior(prior, net_a, net_b, cfg.score_kind, cfg.delimiter, cfg.header)
     seeds_t = None if seeds is None else as_seeds(seeds, net_a, net_b, **read)
     truth_t = None if truth is None else known_pairs(
         as_pairs(truth, net_a, net_b, "truth table", cfg.delimiter, cfg.header), "truth table")
+    release_unused_memory()  # the readers' buffers, no longer needed
     _warn_unknown(prior_t, "prior")
     _warn_unknown(truth_t, "truth")
     if prior_t is not None and len(prior_t.pairs) == 0:

@@ -383,13 +383,15 @@ def _local_phase(prod: ProductGraph, cand: CandidateSet, bw: npt.NDArray[np.floa
 def _run_rounds(prod: ProductGraph, cand: CandidateSet, bw: npt.NDArray[np.float64], inc: _Incumbent,
                 opts: _Options) -> tuple[int, int, int, bool]:
     """Rounds of Frank–Wolfe then local search: (iterations, moves, rounds, hit_cap)."""
-    lookup = _lookup(cand)
+    lookup = None  # built once the Frank-Wolfe arrays are freed: the two never peak together
     iters = moves = n_rounds = 0
     while n_rounds < opts.rounds:
         n_rounds += 1
         f_round = inc.f
         iters += _frank_wolfe(prod, cand, bw, inc, opts, budget=opts.max_iter - iters)
         if opts.local_sweeps:
+            if lookup is None:
+                lookup = _lookup(cand)
             moves += _local_phase(prod, cand, bw, inc, opts, lookup)
         if not _rises(inc.f, f_round) or iters >= opts.max_iter:
             break

@@ -205,6 +205,17 @@ class Table:
         return values
 
 
+def release_unused_memory() -> None:
+    """Hand back to the system what pyarrow's allocator keeps after a table is read and dropped.
+
+    The fast reader's buffers come from pyarrow's memory pool, which keeps freed memory for
+    reuse: after reading a 10^6-node pair about 0.5 GB of it (measured with
+    ``pyarrow.default_memory_pool().max_memory()`` against the resident size), held through
+    every later stage unless released.
+    """
+    pa.default_memory_pool().release_unused()
+
+
 def read_table(path: str | os.PathLike, *, min_cols: int, max_cols: int, delimiter: str | None = None,
                header: str = "auto", what: str = "table") -> Table:
     """Read a delimited table of strings with ``min_cols`` to ``max_cols`` columns.
