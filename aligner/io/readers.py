@@ -14,6 +14,7 @@ import gzip
 import io as _io
 import os
 import re
+import warnings
 import zlib
 from dataclasses import dataclass
 from typing import Iterator
@@ -26,7 +27,7 @@ import pyarrow.csv as pacsv
 
 from aligner.checks import bad_parameter, check_choice
 from aligner.core.network import Network, network_from_edges
-from aligner.errors import InputFormatError
+from aligner.errors import AlignerWarning, InputFormatError
 from aligner.core.identifiers import intern, pairs_from_columns, PairTable
 from aligner.core.prior import PriorTable, prior_from_columns
 
@@ -50,6 +51,11 @@ HEADER_WORDS = {
     "id1", "id2", "protein1", "protein2", "weight", "score", "similarity",
     "evalue", "e_value", "distance", "gene1", "gene2", "neuron1", "neuron2", "left", "right",
 }
+#: A first line whose first two fields both look like column names by their shape (a word and a
+#: side marker: ``geneA``/``geneB``, ``interactor_1``/``interactor_2``, ``a``/``b``) but are not in
+#: HEADER_WORDS is read as data; when neither field occurs again in the file it is also reported
+#: (see :func:`_warn_if_header_like`).
+_COLUMN_NAME_SHAPE = re.compile(r"^[A-Za-z]+(?:[ _.-]?[A-Za-z]+)*[ _.-]?(?:[0-9]|[A-Za-z])$|^[A-Za-z]$")
 #: The names ``delimiter`` / ``--delimiter`` accepts besides a single character.
 DELIMITERS = {"tab": "\t", "comma": ",", "semicolon": ";", "space": " ", "whitespace": None}
 
@@ -307,7 +313,37 @@ def _read_table(path: str, *, min_cols: int, max_cols: int, delimiter, header: s
     cols = _read_arrow(path, sep, ncols, start_no - 1)
     if cols is None:
         cols = _read_careful(path, sep, ncols, start_no, min_cols, what)
+    if header == "auto" and not has_header:
+        _warn_if_header_like(path, first[0], fields, cols)
     return Table(tuple(cols), path, start_no, sep, tuple(fields) if has_header else None)
+
+
+def _warn_if_header_like(path: str, line: int, fields: list[str], cols) -> None:
+    """Warn once when the first row, read as data, looks like a header line.
+
+    The evidence: its first two fields have the shape of column names that differ only in their
+    last character (``geneA``/``geneB``, ``interactor_1``/``interactor_2``, ``a``/``b``) and
+    neither occurs anywhere else in the first two columns, as a header's names would not. A
+    real first row of nodes named like that (``ab1``/``ab2`` with no other edge) is kept as data
+    all the same: the warning names the option that settles it.
+    """
+    if len(fields) < 2:
+        return
+    f0, f1 = fields[0].strip(), fields[1].strip()
+    if f0 == f1 or f0[:-1] != f1[:-1]:
+        return
+    if not (_COLUMN_NAME_SHAPE.match(f0) and _COLUMN_NAME_SHAPE.match(f1)):
+        return
+    for col in cols[:2]:
+        arr = col if isinstance(col, (pa.Array, pa.ChunkedArray)) else pa.array(np.asarray(col, dtype=object))
+        if arr.type != pa.string() and arr.type != pa.large_string():
+            arr = pac.cast(arr, pa.string())
+        if pac.sum(pac.is_in(arr, value_set=pa.array([f0, f1]))).as_py() > 1:
+            return  # a name of the first row recurs (first row counted once): real data
+    warnings.warn(f"{path}, line {line}: the first row ({f0!r}, {f1!r}) looks like a header line (its names "
+                  "occur nowhere else in the file) but was read as data; give --header yes (header='yes') "
+                  "to skip it, or --header no (header='no') to keep it as data without this warning",
+                  AlignerWarning, stacklevel=2)
 
 
 def _looks_like_header(fields: list[str], second, sep: str | None) -> bool:

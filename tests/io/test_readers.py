@@ -3,7 +3,7 @@ import gzip
 import numpy as np
 import pytest
 
-from aligner.errors import InputFormatError, InvalidParameterError
+from aligner.errors import AlignerWarning, InputFormatError, InvalidParameterError
 from aligner.io.readers import data_lines, read_network, read_pairs, read_prior, read_table
 from aligner.core.prior import EVALUE_CAP
 
@@ -145,3 +145,55 @@ def test_reader_options_are_checked_in_the_package_words(tmp_path, kw, message):
     with pytest.raises(InvalidParameterError) as info:
         read_network(p, **kw)
     assert str(info.value) == message and info.value.param == next(iter(kw))
+
+
+@pytest.mark.parametrize("text, sep", [
+    ("geneA\tgeneB\np1\tp2\np2\tp3\np3\tp1\n", "\t"),
+    ("interactor_1 interactor_2\np1 p2\np2 p3\np3 p1\n", " "),
+])
+def test_header_like_first_row_is_read_as_data_with_a_warning(tmp_path, text, sep):
+    # Issue found in a fresh-clone trial: a header whose names are not the usual column names was
+    # read as an edge, silently. Common practice: when a first row could be either, keep it as
+    # data and say so once, naming the file, the line and the option that settles it.
+    p = _w(tmp_path, "a.tsv", text)
+    with pytest.warns(AlignerWarning, match=r"a\.tsv, line 1: the first row .* looks like a header.*--header yes"):
+        net = read_network(p)
+    first = text.split("\n")[0].split(sep)
+    assert set(first) <= set(net.names.tolist())  # kept as data: two extra nodes, one extra edge
+    assert net.edges.shape[0] == 4
+    net = read_network(p, header="yes")  # the option settles it: skipped, no warning
+    assert net.names.tolist() == ["p1", "p2", "p3"] and net.edges.shape[0] == 3
+
+
+def test_truth_table_header_of_single_letters_warns(tmp_path):
+    p = _w(tmp_path, "truth.tsv", "a\tb\nx1\ty1\nx2\ty2\n")
+    with pytest.warns(AlignerWarning, match="truth.tsv, line 1"):
+        read_table(p, min_cols=2, max_cols=2, what="pair table")
+
+
+@pytest.mark.parametrize("text", [
+    "ab1\tab2\nab1\tq\nq\tr\n",  # the first row's names recur: data
+    "geneA\tq\nq\tr\nr\ts\n",  # not a pair of names differing in their last character
+    "1\t2\n3\t4\n",  # numbers
+    "LVES_03685\tLVES_03686\nq\tr\n",  # node names with several digits are not column names
+])
+def test_first_rows_that_are_data_give_no_warning(tmp_path, text):
+    import warnings
+
+    p = _w(tmp_path, "a.tsv", text)
+    with warnings.catch_warnings():
+        warnings.simplefilter("error", AlignerWarning)
+        read_network(p)
+
+
+def test_demo_networks_read_without_a_header_warning():
+    import warnings
+
+    from aligner.datasets.demo import scenario_dir
+
+    for scenario in ("firefly", "registry"):
+        d = scenario_dir(scenario)
+        with warnings.catch_warnings():
+            warnings.simplefilter("error", AlignerWarning)
+            read_network(d / "network_a.tsv")
+            read_network(d / "network_b.tsv")
