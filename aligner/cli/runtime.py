@@ -7,6 +7,7 @@ Imports nothing heavy; the pipeline is imported by the command bodies that need 
 from __future__ import annotations
 
 import os
+import time
 import warnings
 from contextlib import contextmanager
 from pathlib import Path
@@ -101,11 +102,37 @@ class _Silent:
         pass
 
 
+class _Lines:
+    """Progress for logs (standard error not a terminal): one line per stage as it ends, with its time."""
+
+    def __init__(self):
+        self.current: str | None = None
+        self.t0 = 0.0
+
+    def stage(self, name: str) -> None:
+        self.finish()
+        self.current, self.t0 = name, time.perf_counter()
+
+    def finish(self) -> None:
+        if self.current is not None:
+            err.print(f"stage {self.current:<11} {time.perf_counter() - self.t0:8.2f} s", highlight=False)
+            self.current = None
+
+    def count(self, done: int, total: int) -> None:
+        pass
+
+
 @contextmanager
-def progress(quiet: bool, total: int) -> Iterator[_Stages | _Silent]:
-    """A progress line over ``total`` stages naming the running one, on a terminal and unless ``quiet``."""
-    if quiet or not err.is_terminal:
+def progress(quiet: bool, total: int) -> Iterator[_Stages | _Silent | _Lines]:
+    """Progress over ``total`` stages unless ``quiet``: a live line naming the running stage on a
+    terminal, else (a log, a pipe) one line per stage as it ends, with its time."""
+    if quiet:
         yield _Silent()
+        return
+    if not err.is_terminal:
+        lines = _Lines()
+        yield lines
+        lines.finish()  # not reached when the run fails: no time is shown for a stage that failed
         return
     from rich.progress import BarColumn, MofNCompleteColumn, Progress, SpinnerColumn, TextColumn, TimeElapsedColumn
 

@@ -94,3 +94,20 @@ def test_help_states_defaults():
     for opt in ("--alpha", "--top-k", "--min-score", "--score-kind", "--solver", "--tol", "--truth"):
         assert opt in res.output
     assert "0.9" in res.output and "default" in res.output.lower()
+
+
+def test_progress_for_logs_is_one_line_per_stage_with_its_time(tmp_path):
+    # Common practice for long runs whose output goes to a log: when standard error is not a
+    # terminal (here, the test runner's capture), each stage is reported as it ends, in order,
+    # with its time; -q silences it; a failed run reports no time for the stage that failed.
+    import re
+
+    res = _align(tmp_path)
+    assert res.exit_code == 0, res.output
+    stages = re.findall(r"^stage (\w+) +(\d+\.\d\d) s$", res.output, flags=re.M)
+    assert [s for s, _ in stages] == ["read", "candidates", "product", "diffusion", "rounding", "refine",
+                                      "scoring", "writing"]
+    assert "stage " not in _align(tmp_path, "-q", out="quiet").output
+    bad = runner.invoke(app, ["align", str(DEMO / "network_a.tsv"), str(DEMO / "network_b.tsv"), "--prior",
+                              str(DEMO / "network_a.tsv"), "-o", str(tmp_path / "bad")])
+    assert bad.exit_code == 2 and "stage read" not in bad.output
