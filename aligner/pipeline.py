@@ -38,6 +38,7 @@ from aligner.core.refine import RefineResult, refine_matching
 from aligner.core.rounding import Matching, round_matching
 from aligner.core.scoring import Scores, conserved_per_node, score_matching
 from aligner.core.significance import significance
+from aligner.core.transfer import DIRECTIONS, transfer_counts, transferred_edges
 from aligner.errors import AlignerWarning, InputFormatError, InvalidParameterError, MemoryBudgetError, NoCandidatesError
 from aligner.io.inputs import as_network, as_pairs, as_prior, known_pairs
 from aligner.io.readers import release_unused_memory
@@ -48,7 +49,8 @@ from aligner.priors.seeds import (SeedExpansion, SeedTable, add_seed_pairs, as_s
 from aligner.priors.structural import DEFAULT_K, FEATURE_NAMES, combine_priors, structural_candidates
 
 __all__ = ["STAGES", "Inputs", "Problem", "Improvement", "Evaluation", "AlignmentResult", "read_inputs",
-           "find_candidates", "prepare", "solve", "match", "improve", "evaluate", "summarize", "align", "score"]
+           "find_candidates", "prepare", "solve", "match", "improve", "evaluate", "transfer", "summarize", "align",
+           "score", "TRANSFER_COLUMNS"]
 
 #: the stages of a run, in order, as named to the ``progress`` callback of :func:`align`
 STAGES = ("read", "candidates", "product", "diffusion", "rounding", "refine", "scoring", "writing")
@@ -432,6 +434,8 @@ class Evaluation:
     conserved_edges: pd.DataFrame
     significance: dict
     seeds: dict | None
+    #: rows per direction of the transferred edges (``{"a_to_b": ..., "b_to_a": ...}``)
+    transferred: dict | None = None
 
 
 def _score(inputs: Inputs, matched: np.ndarray, cfg: AlignConfig) -> tuple[Scores, np.ndarray]:
@@ -508,8 +512,51 @@ def evaluate(problem: Problem, diffusion: DiffusionResult, improvement: Improvem
     f = np.full(inputs.network_a.n, -1, dtype=np.int64)
     f[matched[:, 0]] = matched[:, 1]
     edges_a = inputs.network_a.scored_edges(cfg.directed)[0]
+    counts = transfer_counts(edges_a, inputs.network_b.scored_edges(cfg.directed)[0], matched, inputs.network_a.n,
+                             inputs.network_b.n, scores.conserved_edges)
     return Evaluation(scores, before, _pairs_frame(problem, diffusion, index, cons, names_a, names_b),
-                      _conserved_table(names_a, names_b, edges_a, f, cons), sig, seeds)
+                      _conserved_table(names_a, names_b, edges_a, f, cons), sig, seeds, counts)
+
+
+# --------------------------------------------------------------------------- transfer
+
+#: the columns of :func:`transfer`'s table (and of transferred_edges.tsv); ``weight`` follows
+#: them in a weighted run
+TRANSFER_COLUMNS = ("direction", "node_a1", "node_a2", "node_b1", "node_b2", "support", "confidence_1",
+                    "confidence_2", "score_1", "score_2", "triangles", "common_neighbours")
+
+
+def transfer(problem: Problem, diffusion: DiffusionResult, improvement: Improvement) -> pd.DataFrame:
+    """The interactions the matching carries across: every edge of A whose two ends are matched
+    and whose image is not an edge of B (``A->B``), and every edge of B likewise (``B->A``), best
+    first, with their support and its components (:mod:`aligner.core.transfer`).
+
+    Pair 1 is (node_a1, node_b1), pair 2 (node_a2, node_b2); the carried edge is (node_a1,
+    node_a2) for ``A->B`` and (node_b1, node_b2) for ``B->A``, arcs keeping their direction.
+    In a weighted run a ``weight`` column holds the carried edge's weight in its own network.
+    """
+    cfg, inputs, cand = problem.config, problem.inputs, problem.candidates
+    net_a, net_b = inputs.network_a, inputs.network_b
+    index = improvement.matching.index
+    (ea, wa), (eb, wb) = net_a.scored_edges(cfg.directed), net_b.scored_edges(cfg.directed)
+    t = transferred_edges(ea, eb, (net_a.indptr, net_a.indices), (net_b.indptr, net_b.indices),
+                          cand.pairs[index], pair_confidence(cand, diffusion.x, index), diffusion.x[index],
+                          net_a.n, net_b.n, directed=cfg.directed)
+    names_a, names_b = _name_column(net_a.names), _name_column(net_b.names)
+    frame = pd.DataFrame({
+        "direction": np.asarray(DIRECTIONS, dtype=object)[t.direction],
+        "node_a1": _names_at(names_a, t.a1), "node_a2": _names_at(names_a, t.a2),
+        "node_b1": _names_at(names_b, t.b1), "node_b2": _names_at(names_b, t.b2),
+        "support": t.support, "confidence_1": t.confidence_1, "confidence_2": t.confidence_2,
+        "score_1": t.score_1, "score_2": t.score_2, "triangles": t.triangles,
+        "common_neighbours": t.common_neighbours})
+    if cfg.weighted:
+        weight = np.empty(len(t))
+        ab = t.direction == 0
+        weight[ab] = np.asarray(wa, dtype=np.float64)[t.edge_row[ab]]
+        weight[~ab] = np.asarray(wb, dtype=np.float64)[t.edge_row[~ab]]
+        frame["weight"] = weight
+    return frame
 
 
 # --------------------------------------------------------------------------- summary
@@ -563,6 +610,7 @@ def summarize(problem: Problem, diffusion: DiffusionResult, improvement: Improve
                   "product_edges": problem.product.n_edges,
                   "product_edges_estimate": est if cfg.directed else est // 2, "matched_pairs": scores.n_matched},
         "scores": scores.as_dict() | ({"nc_detail": scores.nc_detail} if scores.nc_detail else {}),
+        "transferred_edges": evaluation.transferred,
         "solver": diffusion.report() | {"rounding": match_.method, "matched_weight": match_.weight,
                                         "rounding_seconds": round(match_.seconds, 4)},
         "timings": dict(clock.timings),
@@ -602,6 +650,9 @@ class AlignmentResult:
         the pair), ``confidence`` (margin over the best competing candidate).
     conserved_edges : DataFrame
         The conserved edges of A (``node_a1``, ``node_a2``) and their images (``node_b1``, ``node_b2``).
+    transferred_edges() : DataFrame
+        The edges each network has and the other lacks under the matching, best first (see
+        :func:`transfer`); computed on the first call.
     summary : dict
         The run's record as written to ``summary.json``.
     """
@@ -621,6 +672,15 @@ class AlignmentResult:
     scores = property(lambda self: self.evaluation.scores)
     pairs = property(lambda self: self.evaluation.pairs)
     conserved_edges = property(lambda self: self.evaluation.conserved_edges)
+
+    def transferred_edges(self) -> pd.DataFrame:
+        """The interactions carried across the matching, best first (:func:`transfer`); the table
+        is computed on the first call and a copy returned each time."""
+        table = self.__dict__.get("_transferred")
+        if table is None:
+            table = transfer(self.problem, self.diffusion, self.improvement)
+            object.__setattr__(self, "_transferred", table)
+        return table.copy()
 
 
 def run_stages(problem: Problem, clock: Clock, *, x0=None, permutation_progress=None) -> AlignmentResult:

@@ -29,12 +29,16 @@ import pyarrow as pa
 from aligner.core import tsv
 from aligner.errors import AlignerWarning, InvalidParameterError
 
-__all__ = ["OUTPUT_FILES", "SWEEP_TABLE", "PRIOR_COLUMNS", "check_outdir", "write_outputs", "write_sweep_outputs",
-           "write_prior_table", "write_text_atomic", "publish_outputs", "recover_interrupted", "table_text",
-           "json_text"]
+__all__ = ["OUTPUT_FILES", "SWEEP_TABLE", "PRIOR_COLUMNS", "TRANSFER_TABLE", "TRANSFER_SELECTION", "check_outdir",
+           "write_outputs", "write_sweep_outputs", "write_prior_table", "read_transferred", "write_transfer_selection",
+           "write_text_atomic", "publish_outputs", "recover_interrupted", "table_text", "json_text"]
 
+#: The table of interactions carried across the alignment, one of :data:`OUTPUT_FILES`.
+TRANSFER_TABLE = "transferred_edges.tsv"
 #: The files :func:`write_outputs` writes, as one set.
-OUTPUT_FILES = ("alignment.tsv", "conserved_edges.tsv", "summary.json")
+OUTPUT_FILES = ("alignment.tsv", "conserved_edges.tsv", TRANSFER_TABLE, "summary.json")
+#: What ``aligner transfer`` writes into a run's directory: the rows it selected and printed.
+TRANSFER_SELECTION = "transferred_selected.tsv"
 #: The table :func:`write_sweep_outputs` writes beside its figures.
 SWEEP_TABLE = "sweep.tsv"
 #: The columns of a prior table, in the order they are written.
@@ -379,17 +383,20 @@ def _publish(out: Path, files: dict[str, str | bytes]) -> list[Path]:
 
 
 def write_outputs(outdir: str | os.PathLike, result, *, force: bool = False) -> list[Path]:
-    """Write alignment.tsv, conserved_edges.tsv and summary.json of an alignment into ``outdir``, as one set.
+    """Write alignment.tsv, conserved_edges.tsv, transferred_edges.tsv and summary.json of an
+    alignment into ``outdir``, as one set.
 
     ``result`` is an :class:`~aligner.pipeline.AlignmentResult` (``.pairs``,
-    ``.conserved_edges``, ``.summary``). The three files appear together or not at all (see
+    ``.conserved_edges``, ``.transferred_edges()``, ``.summary``); the transferred edges are
+    written in the order given (best first). The files appear together or not at all (see
     :func:`publish_outputs`), so an interrupted run (Ctrl-C, a killed process) leaves the
     previous outputs or none, never a mix. Other files in ``outdir`` are kept.
     """
     out = check_outdir(outdir, force=force)
     pairs = _table_bytes(result.pairs, sort_by=("node_a", "node_b"))
     cons = _table_bytes(result.conserved_edges, sort_by=("node_a1", "node_a2"))
-    return _publish(out, {"alignment.tsv": pairs, "conserved_edges.tsv": cons,
+    moved = _table_bytes(result.transferred_edges())
+    return _publish(out, {"alignment.tsv": pairs, "conserved_edges.tsv": cons, TRANSFER_TABLE: moved,
                           "summary.json": json_text(result.summary)})
 
 
@@ -452,3 +459,30 @@ def write_prior_table(df: pd.DataFrame, path: str | os.PathLike, *, force: bool 
     except OSError as exc:
         raise InvalidParameterError(f"The output '{path}' cannot be written: {exc.strerror or exc}; choose "
                                     "another path with --out.") from None
+
+
+def read_transferred(outdir: str | os.PathLike) -> pd.DataFrame:
+    """The table ``outdir/transferred_edges.tsv`` of a finished run, node names as text.
+
+    Raises
+    ------
+    InvalidParameterError
+        When ``outdir`` holds no such file (not a run's directory, or a run from before the
+        file was written).
+    """
+    path = Path(outdir) / TRANSFER_TABLE
+    if not path.is_file():
+        raise InvalidParameterError(f"'{outdir}' holds no {TRANSFER_TABLE} (not a run's output directory, or "
+                                    "written before aligner wrote that file); run aligner align -o there again.")
+    names = {c: str for c in ("direction", "node_a1", "node_a2", "node_b1", "node_b2")}
+    return pd.read_csv(path, sep="\t", keep_default_na=False, dtype=names)
+
+
+def write_transfer_selection(outdir: str | os.PathLike, table: pd.DataFrame) -> Path:
+    """Write the rows ``aligner transfer`` selected to ``outdir/transferred_selected.tsv``,
+    atomically, replacing an earlier selection (a view of the run, like report.html)."""
+    path = Path(outdir) / TRANSFER_SELECTION
+    try:
+        return write_text_atomic(path, _table_bytes(table))
+    except OSError as exc:
+        raise InvalidParameterError(f"The output '{path}' cannot be written: {exc.strerror or exc}.") from None

@@ -112,6 +112,9 @@ class _Result:
     def __init__(self, pairs, conserved):
         self.pairs, self.conserved_edges, self.summary = pairs, conserved, {"x": 1}
 
+    def transferred_edges(self):
+        return pd.DataFrame({"direction": [], "support": []})
+
 
 @pytest.mark.parametrize("shuffle", [False, True])
 def test_write_outputs_sorts_like_pandas(tmp_path, rng, shuffle):
