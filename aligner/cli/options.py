@@ -40,9 +40,11 @@ Truth = Annotated[Optional[Path], typer.Option(
 Seeds = Annotated[Optional[Path], typer.Option(
     "--seeds", help="Anchor pairs known to correspond (node_a, node_b): fixed in the matching, extra diffusion "
     "sources; with no --prior the candidates are grown from them through the wiring.")]
-Force = Annotated[bool, typer.Option("--force", help="Replace the outputs of an earlier run at --out.")]
-Quiet = Annotated[bool, typer.Option("--quiet", "-q", help="Print nothing but errors.")]
-Json = Annotated[bool, typer.Option("--json", help="Print the result as JSON instead of tables.")]
+#: flags take no value, so they show none in the help (``metavar=""``; typer would show "<bool>")
+FLAG = ""
+Force = Annotated[bool, typer.Option("--force", help="Replace the outputs of an earlier run at --out.", metavar=FLAG)]
+Quiet = Annotated[bool, typer.Option("--quiet", "-q", help="Print nothing but errors.", metavar=FLAG)]
+Json = Annotated[bool, typer.Option("--json", help="Print the result as JSON instead of tables.", metavar=FLAG)]
 Out = Annotated[Path, typer.Option("--out", "-o", help="Where to write the outputs (the command's description "
                                    "lists them).")]
 OptionalOut = Annotated[Optional[Path], typer.Option("--out", "-o", help="Where to write the outputs. Default: a "
@@ -111,7 +113,7 @@ def _option(spec: Spec) -> Any:
         help_text += " Give 'none' for None."
     common = dict(help=help_text, rich_help_panel=spec.group, metavar=_metavar(spec))
     if spec.kind == "bool":
-        return Annotated[bool, typer.Option(spec.flag, **common)]
+        return Annotated[bool, typer.Option(spec.flag, **(common | {"metavar": FLAG}))]
     if spec.kind in ("real", "int"):
         return Annotated[Any, typer.Option(spec.flag, parser=_parser(spec), **common)]
     return Annotated[Optional[str] if spec.optional else str, typer.Option(spec.flag, **common)]

@@ -263,3 +263,12 @@ def test_sweep_without_alphas_runs_the_default_grid(tmp_path, monkeypatch):
     assert res.exit_code == 2 and "stopped by the test" in res.output
     assert tuple(seen["alphas"]) == tuple(sweep_module.DEFAULT_ALPHAS)
     assert seen["config"] == AlignConfig()  # every other option at its declared default
+
+
+@pytest.mark.parametrize("cmd", ["align", "sweep", "query", "demo", "score", "report", "prior-from-labels"])
+def test_flags_show_no_value_in_the_help(cmd):
+    # Issue found in a fresh-clone trial: every flag showed "<bool>" as if it took a value.
+    # Common practice (POSIX utility conventions): an option that takes no argument shows none.
+    text = _help(cmd)
+    assert "<bool>" not in "\n".join(line for line in text.splitlines() if "--help" not in line
+                                     and "completion" not in line)

@@ -16,7 +16,7 @@ Labels = Annotated[Path, typer.Argument(help="Labels of one network's nodes: ide
                                         "--from-networks, an edge list.")]
 OutFile = Annotated[Path, typer.Option("--out", "-o", help="Prior table to write (TSV: node_a, node_b, score).")]
 FromNetworks = Annotated[bool, typer.Option("--from-networks", help="The two arguments are edge lists: the node "
-                                            "identifiers themselves are the labels.")]
+                                            "identifiers themselves are the labels.", metavar="")]
 
 
 def _labels(path: Path, from_networks: bool, config: AlignConfig):
