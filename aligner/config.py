@@ -31,7 +31,8 @@ from typing import Any, Iterable, Mapping
 from aligner.checks import bad_parameter, check_choice, check_int, check_real
 from aligner.errors import InvalidParameterError
 
-__all__ = ["Spec", "option", "AlignConfig", "QueryConfig", "LabelConfig", "EngineConfig", "specs", "describe",
+__all__ = ["Spec", "option", "AlignConfig", "QueryConfig", "LabelConfig", "EngineConfig", "TransferConfig", "specs",
+           "describe",
            "from_options", "with_options", "SCORE_KINDS", "SOLVERS", "NORMALIZATIONS", "ROUNDINGS", "HEADERS", "SIDES",
            "ENGINES"]
 
@@ -241,6 +242,18 @@ class EngineConfig(_Config):
     partitions: int | None = option(
         None, "With --engine dask: blocks of nodes of A (default: the number of workers).", flag="--partitions",
         group="Engine", kind="int", low=1, optional=True)
+
+
+@dataclass(frozen=True, kw_only=True)
+class TransferConfig(_Config):
+    """Which transferred edges ``aligner transfer`` shows and writes (the file of the run lists them all)."""
+
+    min_support: float = option(
+        0.0, "Keep the transferred edges whose support is at least this (support = confidence_1 * confidence_2 "
+        "* (1 + conserved triangles)).", flag="--min-support", group="Transfer", kind="real", low=0.0)
+    top: int | None = option(
+        20, "Keep the first N of them, best first (None: all).", flag="--top", group="Transfer", kind="int",
+        low=1, optional=True)
 
 
 # --------------------------------------------------------------------------- helpers

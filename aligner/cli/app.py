@@ -18,6 +18,7 @@ from aligner.cli.commands.labels import prior_from_labels
 from aligner.cli.commands.query import query
 from aligner.cli.commands.report import report
 from aligner.cli.commands.sweep import sweep
+from aligner.cli.commands.transfer import transfer
 from aligner.cli.runtime import say
 
 __all__ = ["app"]
@@ -43,7 +44,7 @@ def main(version: Annotated[bool, typer.Option("--version", callback=_version, i
     """One-to-one alignment of two networks from a prior similarity table and their wiring."""
 
 
-for _cmd in (align, score, demo, sweep, query, report):
+for _cmd in (align, score, demo, sweep, query, report, transfer):
     app.command()(_cmd)
 app.command("prior-from-labels")(prior_from_labels)
 

@@ -14,7 +14,7 @@ from rich.markup import escape
 from rich.table import Table
 
 __all__ = ["summary_table", "scores_table", "sweep_table", "sweep_lines", "query_tables", "prior_message",
-           "next_steps"]
+           "next_steps", "transfer_table", "transfer_lines"]
 
 
 def _fmt(v) -> str:
@@ -198,6 +198,50 @@ def query_tables(summary: Mapping, *, side: str) -> list[tuple[Table, str]]:
                 f"{1000 * w['seconds']:.1f} ms")
         shown.append((t, work))
     return shown
+
+
+def transfer_table(rows) -> Table:
+    """The transferred edges ``aligner transfer`` selected, best first, one row each.
+
+    Parameters
+    ----------
+    rows : pandas.DataFrame
+        Rows of transferred_edges.tsv (docs/formats.md), in their order.
+
+    Returns
+    -------
+    rich.table.Table
+    """
+    t = Table(title="Transferred interactions (pair 1 - pair 2)", header_style="bold")
+    for col, just in (("#", "right"), ("dir", "left"), ("in A", "left"), ("in B", "left"), ("support", "right"),
+                      ("tri", "right"), ("cn", "right")):
+        t.add_column(col, justify=just)
+    for rank, r in enumerate(rows.itertuples(index=False), 1):
+        t.add_row(str(rank), r.direction, escape(f"{r.node_a1} - {r.node_a2}"), escape(f"{r.node_b1} - {r.node_b2}"),
+                  f"{r.support:.4g}", f"{r.triangles:,}", f"{r.common_neighbours:,}")
+    return t
+
+
+def transfer_lines(table, kept, min_support: float, path) -> list[str]:
+    """The lines printed after ``aligner transfer``'s table: what was kept of what, and the file written.
+
+    Parameters
+    ----------
+    table, kept : pandas.DataFrame
+        The whole transferred_edges.tsv and the rows selected from it.
+    min_support : float
+        The support floor.
+    path : path
+        The file written.
+
+    Returns
+    -------
+    list of str
+    """
+    per = {d: int((table["direction"] == d).sum()) for d in ("A->B", "B->A")}
+    return [f"{len(kept):,} of {len(table):,} transferred edges shown (A->B: {per['A->B']:,}, B->A: "
+            f"{per['B->A']:,}; support >= {min_support:g}, best first); tri: conserved triangles through the "
+            "pair, cn: matched common neighbours on the receiving side", f"wrote {path}"]
 
 
 def prior_message(pairs: int, labels_a: int, labels_b: int, top_k: int, min_similarity: float, path) -> str:
