@@ -104,7 +104,7 @@ def plot_sweep(table, knee: int | None, formats: Iterable[str] = ("png", "svg"),
     return figure_bytes(sweep_figure(table, knee, title=title), formats)
 
 
-def histogram(values, xlabel: str, color: str, *, log: bool = False):
+def histogram(values, xlabel: str, color: str, *, log: bool = False, ylabel: str = "pairs"):
     """A histogram of the finite ``values`` (log-spaced bins over the positive ones when ``log``)."""
     import numpy as np
 
@@ -119,7 +119,7 @@ def histogram(values, xlabel: str, color: str, *, log: bool = False):
     else:
         bins = 40
     ax.hist(v, bins=bins, color=color, edgecolor="white", linewidth=0.4)
-    return _finish(fig, ax, xlabel, "pairs")
+    return _finish(fig, ax, xlabel, ylabel)
 
 
 def degree_plot(pairs, degree: Mapping[str, int]):

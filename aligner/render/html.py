@@ -12,6 +12,7 @@ import numpy as np
 import pandas as pd
 
 from aligner.errors import InvalidParameterError
+from aligner.io.outputs import TRANSFER_TABLE, read_transferred
 from aligner.io.readers import read_network
 from aligner.render.figures import degree_plot, figure_bytes, histogram, subgraph_drawing, sweep_figure
 
@@ -251,6 +252,39 @@ def _pairs_sections(pairs: pd.DataFrame) -> str:
             f"{_frame_table(low)}</section>")
 
 
+#: quantiles of the support shown in the report
+SUPPORT_QUANTILES = (0.0, 0.25, 0.5, 0.75, 0.9, 0.99, 1.0)
+
+
+def _transfer_section(out: Path) -> str:
+    """Counts per direction, the support distribution and the best rows of transferred_edges.tsv;
+    a note when the run predates that file."""
+    if not (out / TRANSFER_TABLE).is_file():
+        return (f"<section><h2>Transferred interactions</h2><p class='note'>This run has no {TRANSFER_TABLE} "
+                "(written by align since the file was introduced); align again to see this section.</p></section>")
+    tab = read_transferred(out)
+    head = "<tr><th>direction</th><th>edges</th>" + "".join(f"<th>q{q:g}</th>" for q in SUPPORT_QUANTILES) + "</tr>"
+    body = ""
+    for d, meaning in (("A->B", "edges of A whose image is not an edge of B"),
+                       ("B->A", "edges of B whose preimage is not an edge of A")):
+        s = tab.loc[tab["direction"] == d, "support"].to_numpy(dtype=float)
+        qs = np.quantile(s, SUPPORT_QUANTILES) if len(s) else [None] * len(SUPPORT_QUANTILES)
+        cells = "".join(f"<td class='n'>{_esc(_fmt(None if q is None else float(q)))}</td>" for q in qs)
+        body += (f"<tr><th title='{_esc(meaning)}'>{_esc(d)}</th><td class='n'>{_esc(_fmt(len(s)))}</td>"
+                 f"{cells}</tr>")
+    note = ("<p class='note'>Support of a transferred edge = confidence_1 × confidence_2 × (1 + conserved "
+            "triangles): the confidences of its two end pairs, and the matched pairs adjacent to both ends in "
+            "both networks (docs/method.md). Quantiles q0 (minimum) to q1 (maximum) of the support.</p>")
+    parts = [f"<section><h2>Transferred interactions</h2><table>{head}{body}</table>{note}"]
+    if len(tab):
+        parts.append(_figure(_png(histogram(tab["support"], "support", "#8a4f9e", ylabel="transferred edges")),
+                             "support histogram", "Support of every transferred edge, both directions."))
+        cols = [c for c in ("direction", "node_a1", "node_a2", "node_b1", "node_b2", "support", "confidence_1",
+                            "confidence_2", "triangles", "common_neighbours") if c in tab]
+        parts.append(f"<h3>The {min(TOP_ROWS, len(tab))} best supported</h3>{_frame_table(tab.head(TOP_ROWS)[cols])}")
+    return "".join(parts) + "</section>"
+
+
 def _page(out: Path, version: str, sections: list[str]) -> str:
     return ("<!DOCTYPE html><html lang='en'><head><meta charset='utf-8'>"
             "<meta name='viewport' content='width=device-width, initial-scale=1'>"
@@ -266,8 +300,8 @@ def build_report(outdir, *, network_a=None, network_b=None, delimiter: str | Non
     """Write ``outdir/report.html`` from the outputs of a finished run in ``outdir``.
 
     Reads summary.json, alignment.tsv and conserved_edges.tsv (and sweep.tsv when a sweep was
-    written there), and re-reads network A from ``summary["inputs"]["network_a"]["source"]``
-    unless ``network_a`` overrides it (network B is only needed for its size, which the summary
+    written there, transferred_edges.tsv when the run wrote it), and re-reads network A from
+    ``summary["inputs"]["network_a"]["source"]`` unless ``network_a`` overrides it (network B is only needed for its size, which the summary
     holds; ``network_b`` is accepted for symmetry and checked to exist). Figures are PNG, embedded
     as base64; the page loads no external resource. Returns the path of the page.
     """
@@ -275,7 +309,8 @@ def build_report(outdir, *, network_a=None, network_b=None, delimiter: str | Non
 
     run = _load_run(Path(outdir), network_a, network_b, delimiter, header)
     sections = [_inputs_section(run.summary), _scores_section(run.summary), _sweep_section(run.out),
-                _distributions_section(run), _subgraph_section(run), _pairs_sections(run.pairs)]
+                _distributions_section(run), _subgraph_section(run), _pairs_sections(run.pairs),
+                _transfer_section(run.out)]
     path = run.out / REPORT_FILE
     write_text_atomic(path, _page(run.out, run.summary.get("version", ""), [s for s in sections if s]))
     return path
