@@ -256,6 +256,11 @@ def test_report_keys_and_values():
     res = diffuse(prod, h, column_scale(prod), alpha=0.0)
     assert (res.steps, res.edge_touches, res.residual, res.error_bound) == (0, 0, 0.0, 0.0)
     assert res.report()["edge_touches_per_second"] in (0, None)  # no work: a rate of 0, or none without time
+    # a solve too quick for the clock (seconds exactly 0) reports no rate rather than dividing by 0
+    import dataclasses
+
+    instant = dataclasses.replace(diffuse(prod, h, column_scale(prod), alpha=0.6, tol=1e-7), seconds=0.0)
+    assert instant.edge_touches > 0 and instant.report()["edge_touches_per_second"] is None
 
 
 # --------------------------------------------------------------------------- edges of the contract
