@@ -8,6 +8,7 @@ __all__ = [
     "ConvergenceError",
     "AlignerWarning",
     "MemoryBudgetError",
+    "ClusterError",
 ]
 
 
@@ -61,3 +62,19 @@ class AlignerWarning(UserWarning):
 
 class MemoryBudgetError(AlignerError, MemoryError):
     """A stage would need more memory than the budget allows; the message says what to change."""
+
+
+class ClusterError(AlignerError, RuntimeError):
+    """The cluster of a distributed engine failed under a run (a worker or the scheduler was lost)
+    and the run could not recover; nothing was written. The message says in which stage and what
+    to do.
+
+    Not a mistake in the inputs or options, so the command line exits with ``exit_status`` (1),
+    not the 2 of the other errors; ``stage`` names the stage that was running.
+    """
+
+    exit_status = 1
+
+    def __init__(self, message: str, *, stage: str | None = None):
+        self.stage = stage
+        super().__init__(message)

@@ -326,7 +326,7 @@ def run_auction(cluster, x_parts, cand: CandidateSet, x: np.ndarray, *, method: 
         holder_of_b = np.full(cand.n2, -1, dtype=np.int64)
         holder_of_b[b_nodes] = a_nodes
         rows = tail_rows(cand, x, free, holder_of_b)
-        sub = cluster.on_block(0, tail_match, cand, x, rows, holder_of_b, method).result()
+        sub = cluster.on_block(0, tail_match, cand, x, rows, holder_of_b, method)
         keep = ~np.isin(cand.pairs[index, 0], rows)
         index = np.sort(np.concatenate([index[keep], sub]))
         rep.tail_free, rep.tail_rows = len(free), len(rows)

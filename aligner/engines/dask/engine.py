@@ -5,6 +5,15 @@ cluster, refine and score on the client through the pipeline's own stage functio
 pinned to the worker that holds it, so no block's arrays move after it is built) and the one
 exchange the rounds use: each message is picked out of its sender's result on the sender's
 worker, then moved to its receiver.
+
+A lost worker takes its blocks with it (they are pinned to it and their inputs were scattered to
+it alone), so the engine does not wait for dask to recompute them: every wait watches the
+workers (:meth:`BlockCluster.wait`), a lost one raises :class:`WorkerLost`, and :func:`align`
+starts the distributed stages again, from the partition, on the workers left
+(:data:`RECOVERY_ATTEMPTS` times). Blocks compute the same whatever worker holds them, so a
+recovered run gives the same result. Past that, or when the scheduler is lost, the run stops
+with :class:`aligner.errors.ClusterError`; nothing is written (the client writes the outputs
+only at the end).
 """
 
 from __future__ import annotations
@@ -19,15 +28,24 @@ from aligner.config import AlignConfig, from_options
 from aligner.core.diffusion import DiffusionResult, prior_vector
 from aligner.core.product import ProductGraph, estimate_product_edges
 from aligner.core.rounding import Matching
-from aligner.errors import InvalidParameterError
+from aligner.errors import ClusterError, InvalidParameterError
 from aligner.engines.dask import auction, blocks, diffusion
 from aligner.pipeline import (AlignmentResult, Candidates, Clock, Problem, evaluate, find_candidates, improve,
                               read_inputs, summarize)
 
-__all__ = ["BlockCluster", "connect", "align", "CONNECT_TIMEOUT"]
+__all__ = ["BlockCluster", "WorkerLost", "connect", "align", "CONNECT_TIMEOUT", "RECOVERY_ATTEMPTS", "POLL_SECONDS"]
 
 #: how long to try to reach a scheduler before giving up
 CONNECT_TIMEOUT = "10s"
+#: how many times a run whose worker was lost starts its distributed stages again
+RECOVERY_ATTEMPTS = 1
+#: how often a wait checks that the blocks' workers are still in the cluster
+POLL_SECONDS = 1.0
+
+
+class WorkerLost(RuntimeError):
+    """A worker that holds blocks left the cluster during a wait (internal: :func:`align` recovers
+    or turns it into :class:`~aligner.errors.ClusterError`)."""
 
 
 class BlockCluster:
@@ -94,9 +112,30 @@ class BlockCluster:
                     out[gr].append(self._submit(gs, _mail, pick, self.groups[gs][1], results[gs], wanted))
         return out
 
+    def wait(self, futures: list) -> list:
+        """The values of ``futures``, checking every :data:`POLL_SECONDS` that the workers holding
+        blocks are still in the cluster (a task pinned to a lost worker would wait for it for
+        ever). Raises :class:`WorkerLost` when one has left."""
+        from distributed import wait
+
+        while True:
+            try:
+                wait(futures, timeout=POLL_SECONDS)
+                break
+            except TimeoutError:
+                self.check_workers()
+        return self.client.gather(futures)
+
+    def check_workers(self) -> None:
+        """Raise :class:`WorkerLost` when a worker holding blocks has left the cluster."""
+        alive = set(self.client.scheduler_info()["workers"])
+        gone = sorted({w for w, _ in self.groups} - alive)
+        if gone:
+            raise WorkerLost(f"worker {gone[0]} left the cluster")
+
     def collect(self, result) -> list:
         """The per-block results of a group result, gathered to the client in block order."""
-        got = self.client.gather(list(result))
+        got = self.wait(list(result))
         flat = [None] * self.k
         for (_, members), values in zip(self.groups, got):
             for b, v in zip(members, values):
@@ -104,8 +143,8 @@ class BlockCluster:
         return flat
 
     def on_block(self, b: int, fn, *args):
-        """``fn(*args)`` once, on the worker of block ``b``."""
-        return self._submit(self.group_of[b], fn, *args)
+        """``fn(*args)`` once, on the worker of block ``b``; its value."""
+        return self.wait([self._submit(self.group_of[b], fn, *args)])[0]
 
     @property
     def cut_fraction(self) -> float:
@@ -184,9 +223,10 @@ def connect(client=None, *, scheduler: str | None = None, workers: int = 2):
     if scheduler:
         try:
             c = Client(scheduler, timeout=CONNECT_TIMEOUT)
-        except (OSError, TimeoutError) as exc:
-            raise InvalidParameterError(f"cannot reach the dask scheduler at {scheduler}: {exc}; check the address "
-                                        "and that the scheduler is running", param="scheduler") from None
+        except (OSError, TimeoutError):
+            raise InvalidParameterError(f"cannot reach the dask scheduler at {scheduler} within {CONNECT_TIMEOUT}; "
+                                        "check the address and that the scheduler is running", param="scheduler") \
+                from None
         try:
             yield c
         finally:
@@ -253,10 +293,76 @@ def align(network_a, network_b, prior=None, *, truth=None, seeds=None, client=No
     with clock.stage("candidates"):
         found = find_candidates(inputs, cfg)
     with connect(client, scheduler=scheduler, workers=workers) as c:
-        return _run(c, inputs, found, cfg, parts, diffusion_mode, clock)
+        lost: list[str] = []
+        while True:
+            where = ["starting the blocks"]
+            try:
+                return _run(c, inputs, found, cfg, parts, diffusion_mode, clock, where, lost)
+            except Exception as exc:
+                kind = cluster_failure(exc, c)
+                if kind is None:
+                    raise
+                lost.append(where[0])
+                if kind != "worker" or len(lost) > RECOVERY_ATTEMPTS or not _some_worker(c):
+                    raise ClusterError(failure_message(kind, where[0], len(lost) - 1), stage=where[0]) from exc
 
 
-def _run(client, inputs, found: Candidates, cfg: AlignConfig, parts: int, mode: str, clock: Clock):
+def cluster_failure(exc: BaseException, client) -> str | None:
+    """What ``exc``, raised while the blocks ran, says of the cluster: ``"worker"`` (a worker
+    holding blocks was lost), ``"killed"`` (dask gave up on a task whose workers kept dying),
+    ``"scheduler"`` (the client lost its scheduler), or None (not a failure of the cluster:
+    an error of the computation itself, raised as it is)."""
+    from concurrent.futures import CancelledError
+
+    from distributed import KilledWorker
+    from distributed.comm.core import CommClosedError
+
+    if isinstance(exc, KilledWorker):
+        return "killed"
+    if isinstance(exc, (WorkerLost, CancelledError, CommClosedError, OSError, TimeoutError)):
+        if not _scheduler_reachable(client):
+            return "scheduler"
+        if isinstance(exc, (WorkerLost, CancelledError, CommClosedError)):
+            return "worker"
+    return None
+
+
+def _scheduler_reachable(client) -> bool:
+    if client.status != "running":
+        return False
+    try:
+        client.scheduler_info()
+    except Exception:  # any failure to ask is an answer
+        return False
+    return True
+
+
+def _some_worker(client) -> bool:
+    """Whether the cluster has a worker to start again on (waits for one up to CONNECT_TIMEOUT)."""
+    try:
+        client.wait_for_workers(1, timeout=CONNECT_TIMEOUT)
+    except Exception:  # a timeout, or the scheduler gone meanwhile
+        return False
+    return True
+
+
+def failure_message(kind: str, stage: str, restarts: int) -> str:
+    """The one line a failed run of the cluster ends with (see :func:`cluster_failure`)."""
+    if kind == "killed":
+        return (f"the dask workers kept dying while running a task of {stage} and dask gave up on it; no output "
+                "was written; the usual cause is a worker running out of memory: give the workers more memory or "
+                "use more partitions")
+    if kind == "scheduler":
+        return (f"the connection to the dask scheduler was lost during {stage}; no output was written; check that "
+                "the scheduler is running and reachable, then run again")
+    tried = f" ({restarts} restart{'s' if restarts != 1 else ''} tried)" if restarts else ""
+    return (f"the dask cluster lost a worker during {stage} and could not recover{tried}; no output was written; "
+            "check the workers' logs (a memory limit is the usual cause) and run again")
+
+
+def _run(client, inputs, found: Candidates, cfg: AlignConfig, parts: int, mode: str, clock: Clock,
+         where: list[str] | None = None, lost: list[str] | None = None):
+    where = where if where is not None else [""]
     cand = found.candidates
     h = prior_vector(cand.prior)
     a_ip, a_ix, _ = inputs.network_a.walk_adjacency(cfg.directed, cfg.weighted)
@@ -264,6 +370,7 @@ def _run(client, inputs, found: Candidates, cfg: AlignConfig, parts: int, mode: 
     estimate = estimate_product_edges(a_ip, a_ix, b_ip, cand)
     engine: dict[str, Any] = {"partitions": parts, "workers": len(client.scheduler_info()["workers"])}
     with clock.stage("product"):
+        where[0] = "the product graph's build"
         t0 = time.perf_counter()
         bounds = blocks.partition(a_ip, a_ix, b_ip, cand, parts)
         ins = blocks.block_inputs(inputs.network_a, inputs.network_b, cand, h, bounds, directed=cfg.directed,
@@ -280,6 +387,7 @@ def _run(client, inputs, found: Candidates, cfg: AlignConfig, parts: int, mode: 
                "pairs_per_block": cluster.m_own, "entries_per_block": cluster.entries}
     problem = Problem(cfg, inputs, cand, h, None, product, scale, found, estimate)
     with clock.stage("diffusion"):
+        where[0] = "the diffusion rounds"
         rep = None
         if cfg.alpha == 0.0:  # the prior's own matching, as on one machine
             x = h.copy()
@@ -292,10 +400,12 @@ def _run(client, inputs, found: Candidates, cfg: AlignConfig, parts: int, mode: 
                                0.0 if rep is None else rep.residual / (1 - cfg.alpha),
                                0.0 if rep is None else rep.seconds)
     with clock.stage("rounding"):
+        where[0] = "the matching auction"
         t0 = time.perf_counter()
         index, arep = auction.run_auction(cluster, x_parts, cand, x, method=cfg.rounding)
         rounded = Matching(index=index, method="auction", weight=float(x[index].sum()),
                            seconds=time.perf_counter() - t0)
+    where[0] = "the refinement on the client"
     refining = cfg.refine and cfg.alpha > 0
     with clock.stage("refine") if refining else _nothing():
         improvement = improve(problem, diff, rounded)
@@ -307,6 +417,8 @@ def _run(client, inputs, found: Candidates, cfg: AlignConfig, parts: int, mode: 
     engine["messages"] = (0 if rep is None else rep.messages) + arep.messages
     engine["edge_touches"] = 0 if rep is None else rep.edge_touches
     engine["seconds"] |= {"diffusion": clock.timings.get("diffusion"), "auction": round(arep.seconds, 4)}
+    engine["restarts"] = len(lost or ())
+    engine["lost_worker_in"] = list(lost or ())
     summary = summarize(problem, diff, improvement, evaluation, clock)
     summary["engine"] = {"name": "dask"} | engine
     return AlignmentResult(problem, diff, improvement, evaluation, summary)
