@@ -1,7 +1,7 @@
 """Reproducible: the same inputs and options give byte-identical outputs.
 
-Byte-identical ``alignment.tsv`` and ``conserved_edges.tsv`` across runs, across processes with
-different string-hash seeds, and whatever the order of the lines of the three input files
+Byte-identical ``alignment.tsv``, ``conserved_edges.tsv`` and ``transferred_edges.tsv`` across
+runs, across processes with different string-hash seeds, and whatever the order of the lines of the three input files
 (and the orientation of each edge), on instances with many ties (equal prior scores and twin
 nodes, whose diffusion scores are exactly equal).
 
@@ -19,6 +19,8 @@ Tie-breaking rule (the reason this holds):
   or on the run, but it is not promised to be "the smaller identifier first", and it may
   differ between ``--rounding`` methods (lapjv's dense solver, the sparse kernel, scipy), so
   ``auto``, which picks by size, is reproducible for a given input but not across sizes.
+- Transferred edges are ordered by support, then the smaller diffusion score of their two pairs,
+  then direction and node numbers (the sorted order of the names): no tie is left to the sort.
 - Floats are written with ``%.10g``; the numbers themselves are identical bit for bit, so
   the rounding of the text is too.
 """
@@ -82,7 +84,7 @@ def _run(d, out, *extra, suffix=""):
     res = runner.invoke(app, ["align", str(d / f"a{suffix}.tsv"), str(d / f"b{suffix}.tsv"),
                               "--prior", str(d / f"p{suffix}.tsv"), "-o", str(out), "-q", *extra])
     assert res.exit_code == 0, res.output
-    return {f: (out / f).read_bytes() for f in ("alignment.tsv", "conserved_edges.tsv")}
+    return {f: (out / f).read_bytes() for f in ("alignment.tsv", "conserved_edges.tsv", "transferred_edges.tsv")}
 
 
 def _summary_without_timings(out):

@@ -149,3 +149,87 @@ def test_score_of_a_written_alignment_recounted_with_networkx(tmp_path, directed
     _check_scores(sc.as_dict(), ref)
     assert {_edge_key(a1, a2, directed) for a1, a2 in zip(cons.node_a1, cons.node_a2)} == \
         {_edge_key(u, v, directed) for u, v in ref["conserved"]}
+
+
+def _undirected(g):
+    return g.to_undirected() if g.is_directed() else g
+
+
+@pytest.mark.parametrize("directed", [False, True])
+def test_transferred_edges_recounted_with_networkx(tmp_path, directed):
+    # Reference: networkx on the input files and the written alignment.tsv: the edges of A mapped
+    # through the matching that are not edges of B (A->B), and the reverse (B->A); arcs keep their
+    # direction. Triangles and common neighbours on the undirected views, the support from the
+    # confidences written in alignment.tsv (definition in docs/method.md).
+    files = _instance(tmp_path, directed=directed, a_larger=True, seed=21 + directed)
+    b_rows = _rows_plain(files["b"])  # B lost a fifth of A's edges; give it some A lacks too
+    rng = np.random.default_rng(5)
+    extra = [(f"b{u}", f"b{v}") for u, v in rng.integers(0, 70, (12, 2)) if u != v]
+    _write(files["b"], b_rows + extra)
+    res = aligner.align(files["a"], files["b"], files["prior"], directed=directed)
+    out = tmp_path / "out"
+    write_outputs(out, res)
+    table = _rows(out / "alignment.tsv")
+    f = {r["node_a"]: r["node_b"] for r in table}
+    g = {b: a for a, b in f.items()}
+    conf = {r["node_a"]: float(r["confidence"]) for r in table}
+    ga, gb = _graph(files["a"], directed), _graph(files["b"], directed)
+    want_ab = {(u, v) for u, v in ga.edges() if u in f and v in f and not gb.has_edge(f[u], f[v])}
+    want_ba = {(u, v) for u, v in gb.edges() if u in g and v in g and not ga.has_edge(g[u], g[v])}
+    assert want_ab and want_ba  # the case is about something
+    rows = _rows(out / "transferred_edges.tsv")
+    ab = [r for r in rows if r["direction"] == "A->B"]
+    ba = [r for r in rows if r["direction"] == "B->A"]
+    assert len(ab) + len(ba) == len(rows)
+    assert {_edge_key(r["node_a1"], r["node_a2"], directed) for r in ab} == \
+        {_edge_key(u, v, directed) for u, v in want_ab}
+    assert {_edge_key(r["node_b1"], r["node_b2"], directed) for r in ba} == \
+        {_edge_key(u, v, directed) for u, v in want_ba}
+    assert len(ab) == len(want_ab) and len(ba) == len(want_ba)  # each edge once
+    summary = json.loads((out / "summary.json").read_text())
+    assert summary["transferred_edges"] == {"a_to_b": len(want_ab), "b_to_a": len(want_ba)}
+    ua, ub = _undirected(ga), _undirected(gb)
+    for r in rows:
+        a1, a2, b1, b2 = r["node_a1"], r["node_a2"], r["node_b1"], r["node_b2"]
+        assert (f[a1], f[a2]) == (b1, b2)
+        tri = sum(1 for w in nx.common_neighbors(ua, a1, a2) if w in f and ub.has_edge(b1, f[w])
+                  and ub.has_edge(b2, f[w]))
+        assert int(r["triangles"]) == tri
+        side, u, v, other = (ub, b1, b2, g) if r["direction"] == "A->B" else (ua, a1, a2, f)
+        assert int(r["common_neighbours"]) == sum(1 for w in nx.common_neighbors(side, u, v) if w in other)
+        assert (float(r["confidence_1"]), float(r["confidence_2"])) == (conf[a1], conf[a2])
+        assert float(r["support"]) == pytest.approx(conf[a1] * conf[a2] * (1 + tri), rel=1e-9)
+    # best first, ties by the smaller diffusion score, then direction and names (code-point order);
+    # checked on the exact values of the Python table, which the file holds row for row
+    df = res.transferred_edges()
+    assert list(df["node_a1"]) == [r["node_a1"] for r in rows] and list(df["direction"]) == [r["direction"]
+                                                                                           for r in rows]
+    key = [(-s, -min(x1, x2), d, a1, a2, b1, b2) for s, x1, x2, d, a1, a2, b1, b2 in
+           zip(df.support, df.score_1, df.score_2, df.direction, df.node_a1, df.node_a2, df.node_b1, df.node_b2)]
+    assert key == sorted(key)
+
+
+def test_transferred_edges_carry_their_weight(tmp_path):
+    # Reference: the weight column of the input file, edge by edge (common practice: the weight a
+    # carried edge has in the network it comes from)
+    rng = np.random.default_rng(8)
+    files = _instance(tmp_path, directed=False, a_larger=True, seed=31)
+    weights = {}
+    for side in ("a", "b"):
+        lines = []
+        for r in _rows_plain(files[side]):
+            w = float(rng.integers(1, 9))
+            weights[(side, frozenset(r))] = w
+            lines.append((*r, w))
+        _write(files[side], lines)
+    res = aligner.align(files["a"], files["b"], files["prior"], weighted=True)
+    df = res.transferred_edges()
+    assert len(df) and "weight" in df
+    for r in df.itertuples(index=False):
+        side, ends = ("a", (r.node_a1, r.node_a2)) if r.direction == "A->B" else ("b", (r.node_b1, r.node_b2))
+        assert r.weight == weights[(side, frozenset(ends))]
+
+
+def _rows_plain(path):
+    with open(path, newline="") as fh:
+        return [tuple(r) for r in csv.reader(fh, delimiter="\t")]
