@@ -2,18 +2,30 @@
 
 A failed check raises :class:`~aligner.errors.InvalidParameterError` whose text reads
 ``<name> must be <what>; got <value>`` and whose ``param`` attribute is the keyword, so that
-the command line can put the option as the user typed it in place of the keyword.
+the command line can put the option as the user typed it in place of the keyword. Warnings go
+through :func:`warn`, which points them at the caller's line, not the package's.
 """
 
 from __future__ import annotations
 
 import math
+import sys
+import warnings
 from numbers import Integral, Real
 from typing import Iterable
 
-from aligner.errors import InvalidParameterError
+from aligner.errors import AlignerWarning, InvalidParameterError
 
-__all__ = ["check_real", "check_int", "check_choice", "interval_text", "bad_parameter"]
+__all__ = ["check_real", "check_int", "check_choice", "interval_text", "bad_parameter", "warn"]
+
+
+def warn(message: str, category: type[Warning] = AlignerWarning) -> None:
+    """Warn, attributing the warning to the first frame outside the package: the line of the
+    user's code that called into aligner (whatever path led from there to the warning)."""
+    level, frame = 2, sys._getframe(1)
+    while frame is not None and frame.f_globals.get("__name__", "").split(".")[0] == "aligner":
+        frame, level = frame.f_back, level + 1
+    warnings.warn(message, category, stacklevel=level)
 
 
 def bad_parameter(name: str, must: str, value: object) -> InvalidParameterError:

@@ -18,7 +18,6 @@ from __future__ import annotations
 import dataclasses
 import os
 import time
-import warnings
 from contextlib import contextmanager, nullcontext
 from dataclasses import dataclass
 from typing import Any, Callable
@@ -28,6 +27,7 @@ import numpy.typing as npt
 import pandas as pd
 
 from aligner import __version__
+from aligner.checks import warn
 from aligner.config import AlignConfig, describe, from_options, with_options
 from aligner.core.candidates import CandidateSet, build_candidates
 from aligner.core.confidence import pair_confidence
@@ -39,7 +39,7 @@ from aligner.core.rounding import Matching, round_matching
 from aligner.core.scoring import Scores, conserved_per_node, score_matching
 from aligner.core.significance import significance
 from aligner.core.transfer import DIRECTIONS, transfer_counts, transferred_edges
-from aligner.errors import AlignerWarning, InputFormatError, InvalidParameterError, MemoryBudgetError, NoCandidatesError
+from aligner.errors import InputFormatError, InvalidParameterError, MemoryBudgetError, NoCandidatesError
 from aligner.io.inputs import as_network, as_pairs, as_prior, known_pairs
 from aligner.io.readers import release_unused_memory
 from aligner.core.identifiers import PairTable
@@ -146,9 +146,8 @@ class Inputs:
 
 def _warn_unknown(table, what: str) -> None:
     if table is not None and table.n_unknown:
-        warnings.warn(f"{table.n_unknown} of {table.n_rows} {what} rows name a node missing from its network and "
-                      f"were skipped (for example {', '.join(table.unknown_examples)})", AlignerWarning,
-                      stacklevel=4)
+        warn(f"{table.n_unknown} of {table.n_rows} {what} rows name a node missing from its network and "
+             f"were skipped (for example {', '.join(table.unknown_examples)})")
 
 
 def _check_weighted(net_a: Network, net_b: Network, weighted: bool) -> None:

@@ -232,3 +232,19 @@ def test_command_line_resets_peaks_only_while_it_runs(tmp_path):
     assert summary["memory"]["per_stage"] is sys.platform.startswith("linux")
     assert Clock.reset_peaks is False
     assert aligner.align(a, b, prior).summary["memory"]["per_stage"] is False
+
+
+def test_warnings_point_at_the_callers_line():
+    # Issue found in a fresh-clone trial: warnings named the package's own line. Common practice
+    # (Python's warnings module, stacklevel): a library's warning names the line of the code that
+    # called it, whatever path inside the library led to it.
+    import warnings
+
+    a, b, prior, truth = _relabelled(40, seed=7)
+    prior = pd.concat([prior, pd.DataFrame({prior.columns[0]: ["nowhere"], prior.columns[1]: ["b0"],
+                                            prior.columns[2]: [1.0]})], ignore_index=True)
+    with warnings.catch_warnings(record=True) as caught:
+        warnings.simplefilter("always")
+        aligner.align(a, b, prior)  # the line the warning must name
+    ours = [w for w in caught if issubclass(w.category, AlignerWarning)]
+    assert ours and all(w.filename == __file__ for w in ours), [(w.filename, w.lineno) for w in ours]

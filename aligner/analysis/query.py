@@ -14,7 +14,6 @@ from __future__ import annotations
 import math
 import os
 import time
-import warnings
 from dataclasses import dataclass, field
 from typing import Any
 
@@ -23,9 +22,9 @@ import numpy.typing as npt
 import pandas as pd
 
 from aligner.kernels.query import _local_push, _reset_slots
-from aligner.checks import check_choice, check_int, check_real
+from aligner.checks import check_choice, check_int, check_real, warn
 from aligner.core.candidates import CandidateSet
-from aligner.errors import AlignerWarning, ConvergenceError, InvalidParameterError
+from aligner.errors import ConvergenceError, InvalidParameterError
 from aligner.core.network import Network
 from aligner.config import NORMALIZATIONS, SIDES, AlignConfig, QueryConfig, describe, from_options, specs, with_options
 from aligner.pipeline import prepare
@@ -371,8 +370,8 @@ def _answer(engine: QueryEngine, name: str, node: int, qcfg: QueryConfig, other_
     side = qcfg.side
     tab, work = engine.counterparts(node, side, qcfg.top)
     if work["candidates"] == 0:
-        warnings.warn(f"{name!r} has no candidate pairs (no prior row, or none above the minimum score); "
-                      "it has no counterparts to rank", AlignerWarning, stacklevel=3)
+        warn(f"{name!r} has no candidate pairs (no prior row, or none above the minimum score); "
+             "it has no counterparts to rank")
     tab["counterpart"] = other_names[tab["counterpart"].to_numpy()] if len(tab) else pd.Series(dtype=object)
     tab.insert(0, "side", side)
     tab.insert(0, "query", name)

@@ -11,15 +11,15 @@ it, so the readers only parse and the stages only compute.
 from __future__ import annotations
 
 import os
-import warnings
 from collections.abc import Mapping
 from typing import Callable
 
 import numpy as np
 import pandas as pd
 
+from aligner.checks import warn
 from aligner.core.network import Network, network_from_edges
-from aligner.errors import AlignerWarning, InputFormatError, InvalidParameterError, NoCandidatesError
+from aligner.errors import InputFormatError, InvalidParameterError, NoCandidatesError
 from aligner.core.identifiers import PairTable, pairs_from_columns
 from aligner.io.readers import Table, network_from_table, read_network, read_table
 from aligner.core.prior import PriorTable, prior_from_columns
@@ -173,8 +173,8 @@ def as_prior(obj, net_a: Network, net_b: Network, kind: str, delimiter, header) 
 def _prior_notes(t: PriorTable) -> PriorTable:
     """Warn about merged duplicate pairs and rows dropped by the score kind; refuse a prior they empty."""
     if t.n_duplicates:
-        warnings.warn(f"{t.source}: {t.n_duplicates} prior rows repeat a pair given on another row; each pair "
-                      "keeps its highest score", AlignerWarning, stacklevel=3)
+        warn(f"{t.source}: {t.n_duplicates} prior rows repeat a pair given on another row; each pair "
+             "keeps its highest score")
     if t.n_dropped_kind:
         known = t.n_rows - t.n_unknown
         if len(t.pairs) == 0 and t.n_dropped_kind == known:
@@ -182,8 +182,8 @@ def _prior_notes(t: PriorTable) -> PriorTable:
                                     "E-value above 1, and --score-kind evalue drops such rows as no evidence of "
                                     "similarity; if the third column is a similarity score, use --score-kind "
                                     "similarity")
-        warnings.warn(f"{t.source}: {t.n_dropped_kind} of {t.n_rows} prior rows have an E-value above 1 and were "
-                      "dropped as no evidence of similarity", AlignerWarning, stacklevel=3)
+        warn(f"{t.source}: {t.n_dropped_kind} of {t.n_rows} prior rows have an E-value above 1 and were "
+             "dropped as no evidence of similarity")
     return t
 
 

@@ -18,7 +18,6 @@ import shutil
 import signal
 import stat
 import tempfile
-import warnings
 from contextlib import contextmanager, suppress
 from pathlib import Path
 
@@ -26,8 +25,9 @@ import numpy as np
 import pandas as pd
 import pyarrow as pa
 
+from aligner.checks import warn
 from aligner.core import tsv
-from aligner.errors import AlignerWarning, InvalidParameterError
+from aligner.errors import InvalidParameterError
 
 __all__ = ["OUTPUT_FILES", "SWEEP_TABLE", "PRIOR_COLUMNS", "TRANSFER_TABLE", "TRANSFER_SELECTION", "check_outdir",
            "write_outputs", "write_sweep_outputs", "write_prior_table", "read_transferred", "write_transfer_selection",
@@ -361,10 +361,9 @@ def check_outdir(outdir: str | os.PathLike, *, force: bool = False, files=OUTPUT
                                     f"'{up}'; choose another directory with --out.")
     try:
         for note in recover_interrupted(out, files):
-            warnings.warn(note, AlignerWarning, stacklevel=2)
+            warn(note)
     except OSError as exc:
-        warnings.warn(f"could not tidy up after an interrupted run in '{out}': {exc}", AlignerWarning,
-                      stacklevel=2)
+        warn(f"could not tidy up after an interrupted run in '{out}': {exc}")
     existing = [f for f in files if (out / f).exists()]
     if existing and not force:
         them = "them" if len(existing) > 1 else "it"

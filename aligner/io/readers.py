@@ -14,7 +14,6 @@ import gzip
 import io as _io
 import os
 import re
-import warnings
 import zlib
 from dataclasses import dataclass
 from typing import Iterator
@@ -25,9 +24,9 @@ import pyarrow as pa
 import pyarrow.compute as pac
 import pyarrow.csv as pacsv
 
-from aligner.checks import bad_parameter, check_choice
+from aligner.checks import bad_parameter, check_choice, warn
 from aligner.core.network import Network, network_from_edges
-from aligner.errors import AlignerWarning, InputFormatError
+from aligner.errors import InputFormatError
 from aligner.core.identifiers import intern, pairs_from_columns, PairTable
 from aligner.core.prior import PriorTable, prior_from_columns
 
@@ -340,10 +339,9 @@ def _warn_if_header_like(path: str, line: int, fields: list[str], cols) -> None:
             arr = pac.cast(arr, pa.string())
         if pac.sum(pac.is_in(arr, value_set=pa.array([f0, f1]))).as_py() > 1:
             return  # a name of the first row recurs (first row counted once): real data
-    warnings.warn(f"{path}, line {line}: the first row ({f0!r}, {f1!r}) looks like a header line (its names "
-                  "occur nowhere else in the file) but was read as data; give --header yes (header='yes') "
-                  "to skip it, or --header no (header='no') to keep it as data without this warning",
-                  AlignerWarning, stacklevel=2)
+    warn(f"{path}, line {line}: the first row ({f0!r}, {f1!r}) looks like a header line (its names occur "
+         "nowhere else in the file) but was read as data; give --header yes (header='yes') to skip it, or "
+         "--header no (header='no') to keep it as data without this warning")
 
 
 def _looks_like_header(fields: list[str], second, sep: str | None) -> bool:
