@@ -66,8 +66,26 @@ def test_report_is_self_contained(run_dir):
         assert data[:8] == b"\x89PNG\r\n\x1a\n" and len(data) > 5000  # PNG signature (PNG specification)
     for text in ("Trade-off across", "Least confident pairs", "empirical p-value", "z-score"):
         assert text in page
+    # the transferred interactions: counts per direction as in transferred_edges.tsv, the support
+    # quantiles, the best row (common practice: the page shows what the file holds)
+    tab = pd.read_csv(run_dir / "transferred_edges.tsv", sep="\t", keep_default_na=False, dtype=str)
+    section = page[page.index("<h2>Transferred interactions</h2>"):]
+    for d in ("A->B", "B->A"):
+        n = int((tab["direction"] == d).sum())
+        assert f">{d.replace('>', '&gt;')}</th><td class='n'>{n:,}</td>" in section
+    assert "support histogram" in section and "q0.5" in section
+    assert tab["node_a1"].iloc[0] in section
     summary = json.loads((run_dir / "summary.json").read_text())
     assert summary["significance"]["candidate_maps"]["permutations"] == 10
+
+
+def test_report_of_a_run_without_transferred_edges(run_dir, tmp_path):
+    # a run written before transferred_edges.tsv existed still gets its report, with a note
+    old = tmp_path / "old"
+    shutil.copytree(run_dir, old)
+    (old / "transferred_edges.tsv").unlink()
+    page = build_report(old).read_text(encoding="utf-8")
+    assert "This run has no transferred_edges.tsv" in page and "support histogram" not in page
 
 
 def test_report_needs_a_finished_run(tmp_path):
