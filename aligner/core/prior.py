@@ -27,7 +27,8 @@ EVALUE_CAP = 310.0
 #: The kinds of prior score, as ``score_kind`` / ``--score-kind`` names them.
 SCORE_KINDS = ("similarity", "evalue", "distance")
 
-_NEED = {"similarity": "similarities must be >= 0 (use --score-kind distance for dissimilarities)",
+_NEED = {"similarity": "similarities must be >= 0 (use --score-kind distance, score_kind='distance' in "
+                        "Python, for dissimilarities)",
          "distance": "distances must be >= 0", "evalue": "E-values must be >= 0"}
 
 
@@ -73,8 +74,11 @@ def check_scores(values: np.ndarray, kind: str, *, source: str = "<memory>",
         bad |= values < 0
     if bad.any():
         row = int(np.argmax(bad))
-        what = "not a finite number" if not np.isfinite(values[row]) else "negative"
-        raise InputFormatError(f"the score {float(values[row])!r} is {what}; {_NEED[kind]}", path=source,
+        if np.isfinite(values[row]):
+            why = f"is negative; {_NEED[kind]}"
+        else:  # a missing or non-numeric cell, or inf: the score kind is not the question
+            why = "is not a finite number; every score must be a number (check for empty or non-numeric cells)"
+        raise InputFormatError(f"the score {float(values[row])!r} {why}", path=source,
                                line=None if line_of is None else line_of(row))
 
 

@@ -368,7 +368,7 @@ def check_outdir(outdir: str | os.PathLike, *, force: bool = False, files=OUTPUT
     if existing and not force:
         them = "them" if len(existing) > 1 else "it"
         raise InvalidParameterError(f"The output directory '{out}' already holds {', '.join(existing)}; "
-                                    f"choose another directory or pass --force to replace {them}.")
+                                    f"choose another directory or pass --force (force=True in Python) to replace {them}.")
     return out
 
 
@@ -449,7 +449,7 @@ def write_prior_table(df: pd.DataFrame, path: str | os.PathLike, *, force: bool 
         raise InvalidParameterError(f"The output '{path}' is a directory; give a file path with --out.")
     if path.exists() and not force:
         raise InvalidParameterError(f"The output '{path}' already exists; choose another path with --out or pass "
-                                    "--force to replace it.")
+                                    "--force (force=True in Python) to replace it.")
     if not path.parent.is_dir():
         raise InvalidParameterError(f"The output '{path}' cannot be written: '{path.parent}' is not a directory; "
                                     "choose another path with --out.")

@@ -84,7 +84,8 @@ def test_write_sweep_outputs_refuses_an_existing_sweep_without_force(tmp_path):
     out = tmp_path / "out"
     publish_outputs(out, {f: "x\n" for f in OUTPUT_FILES})  # an alignment there is no obstacle
     write_sweep_outputs(out, _sweep_table(), {"sweep.png": b"1"})
-    with pytest.raises(InvalidParameterError, match=r"already holds sweep.tsv; .* pass --force to replace it"):
+    with pytest.raises(InvalidParameterError,
+                       match=r"already holds sweep.tsv; .* pass --force \(force=True in Python\) to replace it"):
         write_sweep_outputs(out, _sweep_table().head(1), {"sweep.png": b"2"})
     assert (out / "sweep.png").read_bytes() == b"1"
     write_sweep_outputs(out, _sweep_table().head(1), {"sweep.png": b"2"}, force=True)

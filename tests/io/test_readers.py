@@ -197,3 +197,15 @@ def test_demo_networks_read_without_a_header_warning():
             warnings.simplefilter("error", AlignerWarning)
             read_network(d / "network_a.tsv")
             read_network(d / "network_b.tsv")
+
+
+def test_a_missing_score_is_not_answered_with_a_score_kind_hint(tmp_path):
+    # Issue found in a fresh-clone trial: a NaN score got the hint about --score-kind distance,
+    # which is about negative scores. Common practice: the hint fits the fault.
+    from aligner.core.prior import check_scores
+
+    with pytest.raises(InputFormatError, match=r"not a finite number; every score must be a number") as nan:
+        check_scores(np.array([1.0, np.nan]), "similarity", source="<DataFrame prior>")
+    assert "score-kind" not in str(nan.value)
+    with pytest.raises(InputFormatError, match=r"is negative; .*--score-kind distance, score_kind='distance'"):
+        check_scores(np.array([1.0, -2.0]), "similarity", source="<DataFrame prior>")
