@@ -560,8 +560,15 @@ def transfer(problem: Problem, diffusion: DiffusionResult, improvement: Improvem
 
 # --------------------------------------------------------------------------- summary
 
+def _source(source) -> str:
+    """A file named absolutely (so that a report from another directory finds it); an in-memory
+    input's description (``<DataFrame prior>``) as it is."""
+    text = str(source)
+    return text if text.startswith("<") else os.path.abspath(text)
+
+
 def _network_summary(net: Network) -> dict:
-    out = {"source": str(net.source), "nodes": net.n, "edges": net.n_edges,
+    out = {"source": _source(net.source), "nodes": net.n, "edges": net.n_edges,
            "self_loops_dropped": net.n_self_loops, "duplicate_edges_merged": net.n_duplicate_edges}
     if net.directed:
         out["arcs"] = len(net.arcs)
@@ -576,10 +583,10 @@ def _inputs_summary(inputs: Inputs) -> dict:
         "network_a": _network_summary(inputs.network_a),
         "network_b": _network_summary(inputs.network_b),
         "prior": None if p is None else {
-            "source": str(p.source), "rows": p.n_rows, "unknown_node_rows": p.n_unknown,
+            "source": _source(p.source), "rows": p.n_rows, "unknown_node_rows": p.n_unknown,
             "unknown_examples": p.unknown_examples, "dropped_by_score_kind": p.n_dropped_kind,
             "duplicate_pairs_merged": p.n_duplicates, "pairs": int(len(p.pairs))},
-        "truth": None if t is None else {"source": str(t.source), "rows": t.n_rows, "unknown_node_rows": t.n_unknown},
+        "truth": None if t is None else {"source": _source(t.source), "rows": t.n_rows, "unknown_node_rows": t.n_unknown},
     }
 
 

@@ -111,3 +111,18 @@ def test_progress_for_logs_is_one_line_per_stage_with_its_time(tmp_path):
     bad = runner.invoke(app, ["align", str(DEMO / "network_a.tsv"), str(DEMO / "network_b.tsv"), "--prior",
                               str(DEMO / "network_a.tsv"), "-o", str(tmp_path / "bad")])
     assert bad.exit_code == 2 and "stage read" not in bad.output
+
+
+def test_summary_names_inputs_absolutely_so_report_works_from_elsewhere(tmp_path, monkeypatch):
+    # Issue found in a fresh-clone trial: summary.json kept relative paths, so `aligner report`
+    # from another directory could not find network A. Common practice: record absolute paths.
+    monkeypatch.chdir(DEMO)
+    res = runner.invoke(app, ["align", "network_a.tsv", "network_b.tsv", "--prior", "prior.tsv", "--truth",
+                              "truth.tsv", "-o", str(tmp_path / "out"), "-q"])
+    assert res.exit_code == 0, res.output
+    ins = json.loads((tmp_path / "out" / "summary.json").read_text())["inputs"]
+    for key in ("network_a", "network_b", "prior", "truth"):
+        assert Path(ins[key]["source"]).is_absolute() and Path(ins[key]["source"]) == DEMO / f"{key}.tsv"
+    monkeypatch.chdir(tmp_path)
+    rep = runner.invoke(app, ["report", str(tmp_path / "out")])
+    assert rep.exit_code == 0, rep.output
