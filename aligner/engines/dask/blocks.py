@@ -27,7 +27,8 @@ from aligner.core.candidates import CandidateSet
 from aligner.core.diffusion import column_scale
 from aligner.core.product import ProductGraph, build_product
 
-__all__ = ["BlockInput", "Block", "partition", "block_inputs", "build_block", "gather_rows"]
+__all__ = ["BlockInput", "Block", "partition", "cut_by_cost", "block_inputs", "build_block", "node_work",
+           "gather_rows"]
 
 
 def _node_costs(a_indptr, a_indices, b_indptr, cand: CandidateSet) -> np.ndarray:
@@ -47,11 +48,17 @@ def partition(a_indptr, a_indices, b_indptr, cand: CandidateSet, parts: int) -> 
     """Bounds ``0 = n_0 <= n_1 <= ... <= n_parts = n1`` of ``parts`` contiguous ranges of nodes of A
     of about equal work (candidates plus estimated product entries). A range may be empty when
     there are more parts than nodes with work."""
-    cost = _node_costs(a_indptr, a_indices, b_indptr, cand)
+    return cut_by_cost(_node_costs(a_indptr, a_indices, b_indptr, cand), parts)
+
+
+def cut_by_cost(cost: np.ndarray, parts: int) -> npt.NDArray[np.int64]:
+    """Bounds of ``parts`` contiguous ranges of nodes by cumulative ``cost`` (one number per node):
+    range b ends at the node where the running sum reaches (b + 1) / parts of the total, so no
+    range costs more than the mean plus the costliest single node."""
     cum = np.cumsum(cost)
     total = cum[-1] if len(cum) else 0.0
     cuts = np.searchsorted(cum, total * np.arange(1, parts) / parts, side="left") + 1
-    bounds = np.concatenate([[0], np.minimum(cuts, cand.n1), [cand.n1]]).astype(np.int64)
+    bounds = np.concatenate([[0], np.minimum(cuts, len(cost)), [len(cost)]]).astype(np.int64)
     return np.maximum.accumulate(bounds)
 
 
@@ -244,6 +251,14 @@ def build_block(inp: BlockInput) -> Block:
                  degree=np.diff(indptr[: m_own + 1]).astype(np.float64), directed=inp.directed,
                  seconds=time.perf_counter() - t0, node_lo=int(inp.local_nodes[inp.own_from]) if inp.n_own else 0,
                  own_ptr=inp.c_indptr[inp.own_from:inp.own_from + inp.n_own + 1] - q0, own_b=inp.c_b[q0:q1])
+
+
+def node_work(block: Block) -> np.ndarray:
+    """Work of each owned node of A, measured on the built rows: its candidate pairs plus their
+    stored product entries (what a sweep reads and the block stores per node)."""
+    per_pair = np.diff(block.indptr[: block.m_own + 1]) + 1
+    cs = np.concatenate([[0], np.cumsum(per_pair)])
+    return cs[block.own_ptr[1:]] - cs[block.own_ptr[:-1]]
 
 
 def gather_rows(block: Block) -> tuple[np.ndarray, np.ndarray, np.ndarray]:

@@ -33,7 +33,8 @@ from aligner.engines.dask import auction, blocks, diffusion
 from aligner.pipeline import (AlignmentResult, Candidates, Clock, Problem, evaluate, find_candidates, improve,
                               read_inputs, summarize)
 
-__all__ = ["BlockCluster", "WorkerLost", "connect", "align", "CONNECT_TIMEOUT", "RECOVERY_ATTEMPTS", "POLL_SECONDS"]
+__all__ = ["BlockCluster", "WorkerLost", "connect", "align", "CONNECT_TIMEOUT", "RECOVERY_ATTEMPTS", "POLL_SECONDS",
+           "REBALANCE_ABOVE", "block_imbalance"]
 
 #: how long to try to reach a scheduler before giving up
 CONNECT_TIMEOUT = "10s"
@@ -41,6 +42,17 @@ CONNECT_TIMEOUT = "10s"
 RECOVERY_ATTEMPTS = 1
 #: how often a wait checks that the blocks' workers are still in the cluster
 POLL_SECONDS = 1.0
+
+
+#: the blocks are cut again by their measured work when the largest holds more than this times the mean
+REBALANCE_ABOVE = 1.25
+
+
+def block_imbalance(cluster: "BlockCluster") -> float:
+    """The largest block's work over the mean: own pairs plus their stored product entries (what a
+    block stores and a sweep reads; ghost pairs not counted)."""
+    work = np.array(cluster.m_own, dtype=np.float64) + np.array(cluster.entries, dtype=np.float64)
+    return float(work.max() / work.mean()) if work.sum() > 0 else 1.0
 
 
 class WorkerLost(RuntimeError):
@@ -378,6 +390,16 @@ def _run(client, inputs, found: Candidates, cfg: AlignConfig, parts: int, mode: 
         t1 = time.perf_counter()
         cluster = BlockCluster(client, ins, bounds)
         del ins
+        first = block_imbalance(cluster)
+        if first > REBALANCE_ABOVE:  # the estimate misjudged the work: cut again by the measured work
+            bounds = blocks.cut_by_cost(np.concatenate(cluster.collect(cluster.run(blocks.node_work))), parts)
+            ins = blocks.block_inputs(inputs.network_a, inputs.network_b, cand, h, bounds, directed=cfg.directed,
+                                      weighted=cfg.weighted, normalization=cfg.normalization)
+            del cluster
+            cluster = BlockCluster(client, ins, bounds)
+            del ins
+        engine["balance"] = {"largest_block_vs_mean": round(block_imbalance(cluster), 4),
+                             "first_cut_vs_mean": round(first, 4), "recut": bool(first > REBALANCE_ABOVE)}
         t2 = time.perf_counter()
         product = cluster.product_graph(cand.m, cfg.directed, cfg.weighted)
         scale = None  # the blocks hold it; the client's refinement and scoring do not use it
