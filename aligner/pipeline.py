@@ -284,7 +284,8 @@ class Problem:
     ----------
     config : AlignConfig
     inputs : Inputs
-        The networks, prior, seeds and truth in canonical form.
+        The networks, prior, seeds and truth in canonical form; the prior keeps its counts but
+        not its rows, which :attr:`candidates` hold (see ``PriorTable.without_rows``).
     candidates : CandidateSet
         The candidate pairs L (seed pairs included), with their prior scores.
     h : ndarray of float64, shape (m,)
@@ -345,6 +346,8 @@ def prepare(network_a, network_b, prior=None, *, seeds=None, truth=None, config:
         inputs = read_inputs(network_a, network_b, prior, seeds=seeds, truth=truth, config=cfg)
     with clock.stage("candidates"):
         found = find_candidates(inputs, cfg)
+    if inputs.prior is not None:  # the candidates hold what the later stages need of it
+        inputs = dataclasses.replace(inputs, prior=inputs.prior.without_rows())
     cand = found.candidates
     seed_idx = None if inputs.seeds is None else seed_index(cand, inputs.seeds)
     h = prior_vector(cand.prior) if seed_idx is None else seed_vector(cand.prior, seed_idx, cfg.seed_weight)
@@ -585,7 +588,7 @@ def _inputs_summary(inputs: Inputs) -> dict:
         "prior": None if p is None else {
             "source": _source(p.source), "rows": p.n_rows, "unknown_node_rows": p.n_unknown,
             "unknown_examples": p.unknown_examples, "dropped_by_score_kind": p.n_dropped_kind,
-            "duplicate_pairs_merged": p.n_duplicates, "pairs": int(len(p.pairs))},
+            "duplicate_pairs_merged": p.n_duplicates, "pairs": p.n_pairs},
         "truth": None if t is None else {"source": _source(t.source), "rows": t.n_rows, "unknown_node_rows": t.n_unknown},
     }
 

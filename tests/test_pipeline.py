@@ -248,3 +248,17 @@ def test_warnings_point_at_the_callers_line():
         aligner.align(a, b, prior)  # the line the warning must name
     ours = [w for w in caught if issubclass(w.category, AlignerWarning)]
     assert ours and all(w.filename == __file__ for w in ours), [(w.filename, w.lineno) for w in ours]
+
+
+def test_prepared_problem_keeps_the_prior_counts_not_its_rows():
+    # The candidates hold the prior's scores for every later stage; the prior table's own rows
+    # are released after the candidate stage (memory), its counts stay for summary.json.
+    from aligner.pipeline import prepare, read_inputs
+
+    a, b, prior, truth = _relabelled(50, seed=11)
+    full = read_inputs(a, b, prior).prior
+    problem = prepare(a, b, prior)
+    kept = problem.inputs.prior
+    assert len(kept.pairs) == 0 and len(kept.scores) == 0
+    assert kept.n_pairs == len(full.pairs) > 0 and kept.n_rows == full.n_rows
+    assert aligner.align(a, b, prior).summary["inputs"]["prior"]["pairs"] == len(full.pairs)
