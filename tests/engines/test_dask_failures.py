@@ -14,6 +14,7 @@ line reaches that cluster with ``--scheduler`` instead of starting one per run, 
 engine code path as ``--workers 2`` after the connection.
 """
 
+import json
 import os
 import signal
 
@@ -79,6 +80,14 @@ def test_same_partitions_give_byte_identical_outputs(cluster, folder, tmp_path):
         for name in ("alignment.tsv", "conserved_edges.tsv"):
             first, second = ((o / name).read_bytes() for o in outs)
             assert len(first) > 100 and first == second, (k, name)
+    # the engine section of summary.json carries what issue 15 asks for (keys in docs/formats.md)
+    eng = json.loads((outs[0] / "summary.json").read_text())["engine"]
+    assert eng["partitions"] == 4 and 0 < eng["cut_fraction"] < 1 and eng["ghost_pairs"] > 0
+    assert eng["rounds"] == eng["diffusion"]["rounds"] + eng["auction"]["rounds"] > 0
+    assert eng["messages"] > 0 and eng["edge_touches"] == eng["diffusion"]["edge_touches"] > 0
+    assert set(eng["seconds"]) == {"slice", "build", "gather_product", "diffusion", "auction"}
+    assert all(v >= 0 for v in eng["seconds"].values())
+    assert eng["restarts"] == 0 and eng["lost_worker_in"] == [] and eng["balance"]["largest_block_vs_mean"] <= 1.5
 
 
 def test_a_killed_worker_is_recovered_from_with_the_same_result(cluster, pair):
