@@ -72,7 +72,8 @@ def user_errors(*, quiet: bool = False, flags: Mapping[str, str] | None = None) 
         except AlignerError as exc:
             err.print(f"[bold red]error:[/] {escape(message(exc, flags or {}))}", highlight=False, soft_wrap=True,
                       emoji=False)
-            raise typer.Exit(code=2) from None
+            # 2 for the user's mistakes; an error that is not one (a lost compute cluster) says its own
+            raise typer.Exit(code=getattr(exc, "exit_status", 2)) from None
         except KeyboardInterrupt:
             err.print("interrupted; no output was left half-written")
             raise typer.Exit(code=130) from None

@@ -9,9 +9,9 @@ from typing import Annotated
 import typer
 
 from aligner.cli.options import Force, Json, Out, Prior, Quiet, Seeds, Truth, Use, command
-from aligner.cli.runtime import check_inputs, err, out, progress, say
+from aligner.cli.runtime import check_inputs, out, progress, say
 from aligner.config import AlignConfig, EngineConfig
-from aligner.errors import ClusterError, InvalidParameterError
+from aligner.errors import InvalidParameterError
 
 NetworkA = Annotated[Path, typer.Argument(help="Edge list of network A (TSV/CSV, optional weight column, may be "
                                           "gzip-compressed).")]
@@ -53,13 +53,10 @@ def run_align(network_a: Path, network_b: Path, prior: Path | None, outdir: Path
         if engine.engine == "dask":
             from aligner.engines.dask.engine import align as dask_align
 
-            try:
-                res = dask_align(network_a, network_b, prior, seeds=seeds, truth=truth, config=config,
-                                 progress=bar.stage, scheduler=engine.scheduler, workers=engine.workers,
-                                 partitions=engine.partitions)
-            except ClusterError as exc:  # not the user's mistake: its own exit status, still one line
-                say(f"error: {exc}", console=err)
-                raise typer.Exit(code=exc.exit_status) from None
+            # a lost cluster raises ClusterError: one line and exit 1 (runtime.user_errors)
+            res = dask_align(network_a, network_b, prior, seeds=seeds, truth=truth, config=config,
+                             progress=bar.stage, scheduler=engine.scheduler, workers=engine.workers,
+                             partitions=engine.partitions)
         else:
             from aligner.engines.ahead import CompileAhead
 
