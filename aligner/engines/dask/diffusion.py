@@ -30,8 +30,8 @@ reported.
 
 References
 ----------
-.. [1] S. D. Kamvar, T. H. Haveliwala, C. D. Manning, G. H. Golub, "Exploiting the block structure
-   of the Web for computing PageRank", Stanford technical report 2003-17 (2003).
+.. [1] S. D. Kamvar et al., "Exploiting the block structure of the Web for computing PageRank",
+   Stanford technical report 2003-17 (2003).
 .. [2] Y. Zhang, Q. Gao, L. Gao, C. Wang, "Maiter: an asynchronous graph processing framework for
    delta-based accumulative iterative computation", IEEE Transactions on Parallel and Distributed
    Systems 25 (2014) 2091-2100 (pushing deltas between workers, mass in flight as residual).
