@@ -307,7 +307,7 @@ def markdown(df: pd.DataFrame, seeds: int, share: float) -> str:
         p1000=("p_at_1000", "mean"), recall=("recall", "mean"), aupr=("aupr", "mean"),
         aupr_min=("aupr", "min"), aupr_max=("aupr", "max"), nc=("nc", "mean")).reset_index()
     cn = agg[agg.method == METHODS[1]].set_index("case").aupr
-    lines = [f"Held-out edges: {share:.0%} of B's edges removed before aligning; mean of {seeds} seed(s) "
+    lines = [f"Held-out edges: {share * 100:g} % of B's edges removed before aligning; mean of {seeds} seed(s) "
              "(AUPR: min-max over seeds in brackets). Rows of the list: transferred A->B edges; pairs with at "
              "least one common neighbour; all non-adjacent pairs of the reduced B; edges of A whose true image "
              "is missing from the reduced B.", "",
