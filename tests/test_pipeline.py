@@ -260,5 +260,6 @@ def test_prepared_problem_keeps_the_prior_counts_not_its_rows():
     problem = prepare(a, b, prior)
     kept = problem.inputs.prior
     assert len(kept.pairs) == 0 and len(kept.scores) == 0
+    assert kept.pairs.base is None and kept.scores.base is None  # not views holding the rows alive
     assert kept.n_pairs == len(full.pairs) > 0 and kept.n_rows == full.n_rows
     assert aligner.align(a, b, prior).summary["inputs"]["prior"]["pairs"] == len(full.pairs)

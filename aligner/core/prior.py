@@ -59,7 +59,9 @@ class PriorTable:
     def without_rows(self) -> "PriorTable":
         """The same table's counts without its rows (once the candidates hold what later stages
         need: at 10^6 nodes and 11 M rows, 176 MB kept for nothing otherwise)."""
-        return dataclasses.replace(self, pairs=self.pairs[:0], scores=self.scores[:0], released_pairs=self.n_pairs)
+        # new empty arrays: an empty slice would be a view keeping the whole table alive
+        return dataclasses.replace(self, pairs=np.empty((0, 2), dtype=self.pairs.dtype),
+                                   scores=np.empty(0, dtype=self.scores.dtype), released_pairs=self.n_pairs)
 
 
 def check_scores(values: np.ndarray, kind: str, *, source: str = "<memory>",
