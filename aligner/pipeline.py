@@ -528,7 +528,8 @@ TRANSFER_COLUMNS = ("direction", "node_a1", "node_a2", "node_b1", "node_b2", "su
                     "confidence_2", "score_1", "score_2", "triangles", "common_neighbours")
 
 
-def transfer(problem: Problem, diffusion: DiffusionResult, improvement: Improvement) -> pd.DataFrame:
+def transfer(problem: Problem, diffusion: DiffusionResult, improvement: Improvement,
+             confidence: npt.NDArray[np.float64] | None = None) -> pd.DataFrame:
     """The interactions the matching carries across: every edge of A whose two ends are matched
     and whose image is not an edge of B (``A->B``), and every edge of B likewise (``B->A``), best
     first, with their support and its components (:mod:`aligner.core.transfer`).
@@ -536,13 +537,15 @@ def transfer(problem: Problem, diffusion: DiffusionResult, improvement: Improvem
     Pair 1 is (node_a1, node_b1), pair 2 (node_a2, node_b2); the carried edge is (node_a1,
     node_a2) for ``A->B`` and (node_b1, node_b2) for ``B->A``, arcs keeping their direction.
     In a weighted run a ``weight`` column holds the carried edge's weight in its own network.
+    ``confidence`` (of the matched pairs, in the matching's order) is computed when not given.
     """
     cfg, inputs, cand = problem.config, problem.inputs, problem.candidates
     net_a, net_b = inputs.network_a, inputs.network_b
     index = improvement.matching.index
     (ea, wa), (eb, wb) = net_a.scored_edges(cfg.directed), net_b.scored_edges(cfg.directed)
     t = transferred_edges(ea, eb, (net_a.indptr, net_a.indices), (net_b.indptr, net_b.indices),
-                          cand.pairs[index], pair_confidence(cand, diffusion.x, index), diffusion.x[index],
+                          cand.pairs[index], pair_confidence(cand, diffusion.x, index) if confidence is None
+                          else confidence, diffusion.x[index],
                           net_a.n, net_b.n, directed=cfg.directed)
     names_a, names_b = _name_column(net_a.names), _name_column(net_b.names)
     frame = pd.DataFrame({
@@ -687,7 +690,8 @@ class AlignmentResult:
         is computed on the first call and a copy returned each time."""
         table = self.__dict__.get("_transferred")
         if table is None:
-            table = transfer(self.problem, self.diffusion, self.improvement)
+            table = transfer(self.problem, self.diffusion, self.improvement,
+                             confidence=self.evaluation.pairs["confidence"].to_numpy())  # computed once
             object.__setattr__(self, "_transferred", table)
         return table.copy()
 

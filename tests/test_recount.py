@@ -199,13 +199,15 @@ def test_transferred_edges_recounted_with_networkx(tmp_path, directed):
         assert int(r["common_neighbours"]) == sum(1 for w in nx.common_neighbors(side, u, v) if w in other)
         assert (float(r["confidence_1"]), float(r["confidence_2"])) == (conf[a1], conf[a2])
         assert float(r["support"]) == pytest.approx(conf[a1] * conf[a2] * (1 + tri), rel=1e-9)
-    # best first, ties by the smaller diffusion score, then direction and names (code-point order);
-    # checked on the exact values of the Python table, which the file holds row for row
+    # best first, ties by more conserved triangles, then the smaller diffusion score, then direction
+    # and names (code-point order); checked on the exact values of the Python table, which the file
+    # holds row for row
     df = res.transferred_edges()
     assert list(df["node_a1"]) == [r["node_a1"] for r in rows] and list(df["direction"]) == [r["direction"]
                                                                                            for r in rows]
-    key = [(-s, -min(x1, x2), d, a1, a2, b1, b2) for s, x1, x2, d, a1, a2, b1, b2 in
-           zip(df.support, df.score_1, df.score_2, df.direction, df.node_a1, df.node_a2, df.node_b1, df.node_b2)]
+    key = [(-s, -t, -min(x1, x2), d, a1, a2, b1, b2) for s, t, x1, x2, d, a1, a2, b1, b2 in
+           zip(df.support, df.triangles, df.score_1, df.score_2, df.direction, df.node_a1, df.node_a2,
+               df.node_b1, df.node_b2)]
     assert key == sorted(key)
 
 

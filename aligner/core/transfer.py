@@ -15,9 +15,10 @@ prediction by how clearly both end pairs beat their competitors, since it is wro
 either end is); ``triangles`` counts the matched pairs (w, w') with w a common neighbour of the
 two ends in A and w' a common neighbour of the two ends in B, i.e. the conserved triangles the
 carried edge would close. The edge itself is one line of evidence, each conserved two-step path
-between the same two pairs another. Ties are broken by the smaller diffusion score of the two
-end pairs (higher first), then the direction (A to B first) and the node numbers (which follow
-the names' sorted order).
+between the same two pairs another. Ties are broken by the conserved triangles (more first: a
+support of 0, from an end pair with a competitor as strong, says nothing of the wiring), then by
+the smaller diffusion score of the two end pairs (higher first), then the direction (A to B
+first) and the node numbers (which follow the names' sorted order).
 
 All of it is vectorised numpy over the integer edge arrays, plus the compiled look-up of
 :mod:`aligner.kernels.scoring`; common neighbours are counted by walking the neighbour list of the
@@ -215,8 +216,9 @@ def transferred_edges(
     Returns
     -------
     Transfer
-        Ordered by support (highest first), then the smaller diffusion score of the two pairs
-        (highest first), then direction, a1, a2, b1, b2 (ascending).
+        Ordered by support (highest first), then conserved triangles (more first: among rows of
+        equal support, more evidence), then the smaller diffusion score of the two pairs (highest
+        first), then direction, a1, a2, b1, b2 (ascending).
 
     Examples
     --------
@@ -253,7 +255,7 @@ def transferred_edges(
     common[ab] = common_neighbours(*adj_b, b1[ab], b2[ab], keep=g >= 0)
     common[~ab] = common_neighbours(*adj_a, a1[~ab], a2[~ab], keep=f >= 0)
     support = c1 * c2 * (1 + tri)
-    order = np.lexsort((b2, b1, a2, a1, direction, -np.minimum(x1, x2), -support))
+    order = np.lexsort((b2, b1, a2, a1, direction, -np.minimum(x1, x2), -tri, -support))
     return Transfer(direction[order], a1[order], a2[order], b1[order], b2[order],
                     np.concatenate([rows_a, rows_b])[order], c1[order], c2[order], x1[order], x2[order],
                     tri[order], common[order], support[order])

@@ -150,3 +150,17 @@ def test_random_pair_against_networkx(rng):
         assert t.common_neighbours[k] == sum(1 for w in nx.common_neighbors(side, u, v) if w in m)
         assert t.support[k] == pytest.approx(c[a1] * c[a2] * (1 + tri), rel=1e-15)
     assert np.all(np.diff(t.support) <= 0)  # best first
+
+
+def test_equal_support_goes_to_more_conserved_triangles_first():
+    # Hand-worked: A has 0-1, 0-2, 1-2 and 3-4; B has 0-2, 1-2 (identity matching on 5 nodes).
+    # Carried A->B: 0-1 (closes the triangle through 2, conserved in both: triangles 1) and 3-4
+    # (triangles 0). Every confidence is 0, so both supports are 0 * 0 * (1 + t) = 0; the pairs
+    # of 3-4 score higher, which alone would put 3-4 first. Among equal supports the row with more
+    # conserved triangles, more evidence, comes first.
+    ea = np.array([[0, 1], [0, 2], [1, 2], [3, 4]])
+    eb = np.array([[0, 2], [1, 2]])
+    matched = np.stack([np.arange(5), np.arange(5)], axis=1)
+    t = _run(ea, eb, matched, np.zeros(5), np.array([0.1, 0.1, 0.1, 0.5, 0.5]), 5, 5)
+    assert t.support.tolist() == [0.0, 0.0] and t.triangles.tolist() == [1, 0]
+    assert list(zip(t.a1.tolist(), t.a2.tolist())) == [(0, 1), (3, 4)]
