@@ -167,12 +167,19 @@ def _triangles(adj_a: tuple[I64, I64], adj_b: tuple[I64, I64], f: I64, a1: I64, 
     return out
 
 
-def _carried(edges: I64, other: I64, f: I64, n_other: int, directed: bool) -> I64:
-    """Rows of ``edges`` with both ends mapped by f whose image is not an edge of ``other``."""
-    if len(edges) == 0:
-        return np.empty(0, dtype=np.int64)
-    both = (f[edges[:, 0]] >= 0) & (f[edges[:, 1]] >= 0)
-    return np.flatnonzero(both & (conserved_image(edges, other, f, n_other, directed) < 0))
+def _carried(ea: I64, eb: I64, f: I64, g: I64, n2: int, directed: bool) -> tuple[I64, I64]:
+    """Rows of ``ea`` with both ends mapped by f whose image is not an edge of ``eb``, and rows
+    of ``eb`` with both ends mapped by g = f^-1 whose preimage is not an edge of ``ea``.
+
+    One look-up serves both: f is one-to-one, so an edge of B between matched nodes has an edge
+    of A as preimage exactly when that edge of A is carried onto it.
+    """
+    image = conserved_image(ea, eb, f, n2, directed)
+    rows_a = np.flatnonzero((f[ea[:, 0]] >= 0) & (f[ea[:, 1]] >= 0) & (image < 0))
+    reached = np.zeros(len(eb), dtype=bool)
+    reached[image[image >= 0]] = True
+    rows_b = np.flatnonzero((g[eb[:, 0]] >= 0) & (g[eb[:, 1]] >= 0) & ~reached)
+    return rows_a, rows_b
 
 
 def transfer_counts(edges_a: npt.ArrayLike, edges_b: npt.ArrayLike, matched: npt.ArrayLike, n1: int, n2: int,
@@ -238,8 +245,7 @@ def transferred_edges(
     f[matched[:, 0]] = matched[:, 1]
     g = np.full(n2, -1, dtype=np.int64)
     g[matched[:, 1]] = matched[:, 0]
-    rows_a = _carried(ea, eb, f, n2, directed)
-    rows_b = _carried(eb, ea, g, n1, directed)
+    rows_a, rows_b = _carried(ea, eb, f, g, n2, directed)
     a1 = np.concatenate([ea[rows_a, 0], g[eb[rows_b, 0]]])
     a2 = np.concatenate([ea[rows_a, 1], g[eb[rows_b, 1]]])
     b1, b2 = f[a1], f[a2]
