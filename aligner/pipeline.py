@@ -36,7 +36,7 @@ from aligner.core.network import Network
 from aligner.core.product import ProductGraph, build_product, estimate_product_edges
 from aligner.core.refine import RefineResult, refine_matching
 from aligner.core.rounding import Matching, round_matching
-from aligner.core.scoring import Scores, conserved_per_node, score_matching
+from aligner.core.scoring import Scores, conserved_image, conserved_per_node, score_matching
 from aligner.core.significance import significance
 from aligner.core.transfer import DIRECTIONS, transfer_counts, transferred_edges
 from aligner.errors import InputFormatError, InvalidParameterError, MemoryBudgetError, NoCandidatesError
@@ -438,15 +438,23 @@ class Evaluation:
     seeds: dict | None
     #: rows per direction of the transferred edges (``{"a_to_b": ..., "b_to_a": ...}``)
     transferred: dict | None = None
+    #: for each scored edge of A, the row of B's scored edges it is carried onto, or -1
+    #: (:func:`aligner.core.scoring.conserved_image`): kept for the transferred edges
+    image: np.ndarray | None = None
 
 
-def _score(inputs: Inputs, matched: np.ndarray, cfg: AlignConfig) -> tuple[Scores, np.ndarray]:
+def _score(inputs: Inputs, matched: np.ndarray, cfg: AlignConfig) -> tuple[Scores, np.ndarray, np.ndarray]:
+    """Scores, the conserved-edge mask and the image rows of A's scored edges under ``matched``."""
     ea, wa = inputs.network_a.scored_edges(cfg.directed)
     eb, wb = inputs.network_b.scored_edges(cfg.directed)
     truth = None if inputs.truth is None else inputs.truth.pairs
-    return score_matching(ea, eb, matched, inputs.network_a.n, inputs.network_b.n, truth=truth,
-                          directed=cfg.directed, weights_a=wa if cfg.weighted else None,
-                          weights_b=wb if cfg.weighted else None)
+    f = np.full(inputs.network_a.n, -1, dtype=np.int64)
+    f[matched[:, 0]] = matched[:, 1]
+    image = conserved_image(ea, eb, f, inputs.network_b.n, cfg.directed)
+    scores, cons = score_matching(ea, eb, matched, inputs.network_a.n, inputs.network_b.n, truth=truth,
+                                  directed=cfg.directed, weights_a=wa if cfg.weighted else None,
+                                  weights_b=wb if cfg.weighted else None, image=image)
+    return scores, cons, image
 
 
 def _name_column(names: np.ndarray):
@@ -495,7 +503,7 @@ def evaluate(problem: Problem, diffusion: DiffusionResult, improvement: Improvem
     cfg, inputs, cand = problem.config, problem.inputs, problem.candidates
     index = improvement.matching.index
     matched = cand.pairs[index].astype(np.int64)
-    scores, cons = _score(inputs, matched, cfg)
+    scores, cons, image = _score(inputs, matched, cfg)
     before = None
     if improvement.refined is not None:
         before = _score(inputs, cand.pairs[improvement.rounded.index].astype(np.int64), cfg)[0]
@@ -517,7 +525,7 @@ def evaluate(problem: Problem, diffusion: DiffusionResult, improvement: Improvem
     counts = transfer_counts(edges_a, inputs.network_b.scored_edges(cfg.directed)[0], matched, inputs.network_a.n,
                              inputs.network_b.n, scores.conserved_edges)
     return Evaluation(scores, before, _pairs_frame(problem, diffusion, index, cons, names_a, names_b),
-                      _conserved_table(names_a, names_b, edges_a, f, cons), sig, seeds, counts)
+                      _conserved_table(names_a, names_b, edges_a, f, cons), sig, seeds, counts, image)
 
 
 # --------------------------------------------------------------------------- transfer
@@ -529,7 +537,7 @@ TRANSFER_COLUMNS = ("direction", "node_a1", "node_a2", "node_b1", "node_b2", "su
 
 
 def transfer(problem: Problem, diffusion: DiffusionResult, improvement: Improvement,
-             confidence: npt.NDArray[np.float64] | None = None) -> pd.DataFrame:
+             confidence: npt.NDArray[np.float64] | None = None, image: np.ndarray | None = None) -> pd.DataFrame:
     """The interactions the matching carries across: every edge of A whose two ends are matched
     and whose image is not an edge of B (``A->B``), and every edge of B likewise (``B->A``), best
     first, with their support and its components (:mod:`aligner.core.transfer`).
@@ -537,7 +545,8 @@ def transfer(problem: Problem, diffusion: DiffusionResult, improvement: Improvem
     Pair 1 is (node_a1, node_b1), pair 2 (node_a2, node_b2); the carried edge is (node_a1,
     node_a2) for ``A->B`` and (node_b1, node_b2) for ``B->A``, arcs keeping their direction.
     In a weighted run a ``weight`` column holds the carried edge's weight in its own network.
-    ``confidence`` (of the matched pairs, in the matching's order) is computed when not given.
+    ``confidence`` (of the matched pairs, in the matching's order) and ``image`` (of A's scored
+    edges, :attr:`Evaluation.image`) are computed when not given.
     """
     cfg, inputs, cand = problem.config, problem.inputs, problem.candidates
     net_a, net_b = inputs.network_a, inputs.network_b
@@ -546,7 +555,7 @@ def transfer(problem: Problem, diffusion: DiffusionResult, improvement: Improvem
     t = transferred_edges(ea, eb, (net_a.indptr, net_a.indices), (net_b.indptr, net_b.indices),
                           cand.pairs[index], pair_confidence(cand, diffusion.x, index) if confidence is None
                           else confidence, diffusion.x[index],
-                          net_a.n, net_b.n, directed=cfg.directed)
+                          net_a.n, net_b.n, directed=cfg.directed, image=image)
     names_a, names_b = _name_column(net_a.names), _name_column(net_b.names)
     frame = pd.DataFrame({
         "direction": np.asarray(DIRECTIONS, dtype=object)[t.direction],
@@ -592,7 +601,8 @@ def _inputs_summary(inputs: Inputs) -> dict:
             "source": _source(p.source), "rows": p.n_rows, "unknown_node_rows": p.n_unknown,
             "unknown_examples": p.unknown_examples, "dropped_by_score_kind": p.n_dropped_kind,
             "duplicate_pairs_merged": p.n_duplicates, "pairs": p.n_pairs},
-        "truth": None if t is None else {"source": _source(t.source), "rows": t.n_rows, "unknown_node_rows": t.n_unknown},
+        "truth": None if t is None else {"source": _source(t.source), "rows": t.n_rows,
+                                         "unknown_node_rows": t.n_unknown},
     }
 
 
@@ -690,8 +700,8 @@ class AlignmentResult:
         is computed on the first call and a copy returned each time."""
         table = self.__dict__.get("_transferred")
         if table is None:
-            table = transfer(self.problem, self.diffusion, self.improvement,
-                             confidence=self.evaluation.pairs["confidence"].to_numpy())  # computed once
+            table = transfer(self.problem, self.diffusion, self.improvement,  # what scoring computed, reused
+                             confidence=self.evaluation.pairs["confidence"].to_numpy(), image=self.evaluation.image)
             object.__setattr__(self, "_transferred", table)
         return table.copy()
 
@@ -793,5 +803,5 @@ def score(network_a, network_b, alignment, *, truth=None, config: AlignConfig | 
             node = (inputs.network_a if side == 0 else inputs.network_b).names[u[np.argmax(c > 1)]]
             raise InputFormatError(f"node {node!r} of network {name} is in more than one pair; an alignment "
                                    "must be one-to-one", path=str(tab.source))
-    sc, cons = _score(inputs, p, cfg)
+    sc, cons, _ = _score(inputs, p, cfg)
     return sc, conserved_frame(inputs.network_a, inputs.network_b, p, cons, cfg.directed)

@@ -244,6 +244,7 @@ def score_matching(
     directed: bool = False,
     weights_a: npt.NDArray[np.float64] | None = None,
     weights_b: npt.NDArray[np.float64] | None = None,
+    image: npt.NDArray[np.int64] | None = None,
 ) -> tuple[Scores, npt.NDArray[np.bool_]]:
     """Score a one-to-one map given as matched pairs.
 
@@ -264,6 +265,9 @@ def score_matching(
     weights_a, weights_b : ndarray, optional
         Edge weights (both or neither), for the weighted variants (conserved weight,
         weighted EC; see :class:`Scores`).
+    image : ndarray of int64, shape (|E_A|,), optional
+        :func:`conserved_image` of these edges under this map, when the caller has it already
+        (computed here otherwise).
 
     Returns
     -------
@@ -291,7 +295,7 @@ def score_matching(
     edges_a = np.asarray(edges_a, dtype=np.int64).reshape(-1, 2)
     edges_b = np.asarray(edges_b, dtype=np.int64).reshape(-1, 2)
     matched = np.asarray(matched, dtype=np.int64).reshape(-1, 2)
-    image_row = conserved_image(edges_a, edges_b, _map_of(matched, n1), n2, directed)
+    image_row = conserved_image(edges_a, edges_b, _map_of(matched, n1), n2, directed) if image is None else image
     cons = image_row >= 0
     c = int(cons.sum())
     cw, wec = (None, None) if weights_a is None else conserved_weight(weights_a, weights_b, image_row)

@@ -167,14 +167,15 @@ def _triangles(adj_a: tuple[I64, I64], adj_b: tuple[I64, I64], f: I64, a1: I64, 
     return out
 
 
-def _carried(ea: I64, eb: I64, f: I64, g: I64, n2: int, directed: bool) -> tuple[I64, I64]:
+def _carried(ea: I64, eb: I64, f: I64, g: I64, n2: int, directed: bool, image: I64 | None) -> tuple[I64, I64]:
     """Rows of ``ea`` with both ends mapped by f whose image is not an edge of ``eb``, and rows
     of ``eb`` with both ends mapped by g = f^-1 whose preimage is not an edge of ``ea``.
 
     One look-up serves both: f is one-to-one, so an edge of B between matched nodes has an edge
     of A as preimage exactly when that edge of A is carried onto it.
     """
-    image = conserved_image(ea, eb, f, n2, directed)
+    if image is None:
+        image = conserved_image(ea, eb, f, n2, directed)
     rows_a = np.flatnonzero((f[ea[:, 0]] >= 0) & (f[ea[:, 1]] >= 0) & (image < 0))
     reached = np.zeros(len(eb), dtype=bool)
     reached[image[image >= 0]] = True
@@ -200,6 +201,7 @@ def transfer_counts(edges_a: npt.ArrayLike, edges_b: npt.ArrayLike, matched: npt
 def transferred_edges(
     edges_a: npt.ArrayLike, edges_b: npt.ArrayLike, adj_a: tuple, adj_b: tuple, matched: npt.ArrayLike,
     confidence: npt.ArrayLike, score: npt.ArrayLike, n1: int, n2: int, *, directed: bool = False,
+    image: npt.ArrayLike | None = None,
 ) -> Transfer:
     """The edges each network has and the other lacks under a one-to-one matching, best first.
 
@@ -219,6 +221,9 @@ def transferred_edges(
     directed : bool
         Arcs keep their direction: an arc of A is carried when the arc (f(u), f(v)) is missing
         from B, even if (f(v), f(u)) is there.
+    image : ndarray of int, shape (|E_A|,), optional
+        :func:`aligner.core.scoring.conserved_image` of ``edges_a`` under this matching, when the
+        caller has it from scoring (looked up here otherwise).
 
     Returns
     -------
@@ -245,7 +250,7 @@ def transferred_edges(
     f[matched[:, 0]] = matched[:, 1]
     g = np.full(n2, -1, dtype=np.int64)
     g[matched[:, 1]] = matched[:, 0]
-    rows_a, rows_b = _carried(ea, eb, f, g, n2, directed)
+    rows_a, rows_b = _carried(ea, eb, f, g, n2, directed, None if image is None else _i64(image))
     a1 = np.concatenate([ea[rows_a, 0], g[eb[rows_b, 0]]])
     a2 = np.concatenate([ea[rows_a, 1], g[eb[rows_b, 1]]])
     b1, b2 = f[a1], f[a2]

@@ -1,15 +1,17 @@
 """A helper process that compiles the later stages' kernels while the run does the early ones.
 
 On a first run (numba's cache cold) one process would compile every kernel one after another.
-:class:`CompileAhead` starts ``python -m aligner.kernels.ahead`` with the stages whose kernels
-are not cached (the largest first, then from the back: :func:`~aligner.kernels.ahead.helper_queue`),
-while the run works forwards from the first stage: the two meet in the middle. When the run reaches a stage the helper is
-compiling, it waits for it (the helper is quicker at it than starting over); when it reaches one
-the helper has finished, every later stage is done too and the helper is let go.
+:class:`CompileAhead` starts ``python -m aligner.kernels.ahead`` with the kernels of the stages
+after the first that are not cached, the largest first and then from the last stage backwards
+(:func:`~aligner.kernels.ahead.helper_queue`), while the run compiles forwards from the first
+stage as it calls its kernels. When the run reaches a stage whose kernel the helper is compiling,
+it takes kernels from the back of the helper's list (telling the helper to skip them) instead of
+waiting idle, then waits for that kernel; kernels of the stage the helper has not begun, the run
+compiles itself. Once nothing is left for the helper, it is let go.
 
 Nothing changes when the cache is warm (no process is started), when the helper cannot start or
-dies (the run compiles as usual), off POSIX systems, or when ``ALIGNER_COMPILE_AHEAD=0`` is set. Results never
-depend on it: the helper only fills numba's cache.
+dies (the run compiles as usual), off POSIX systems, or when ``ALIGNER_COMPILE_AHEAD=0`` is set.
+Results never depend on it: the helper only fills numba's cache.
 """
 
 from __future__ import annotations
