@@ -75,7 +75,7 @@ def test_relabelling_nodes_permutes_alignment():
 def test_networkx_and_dataframe_and_file_inputs_agree(tmp_path):
     a, b, prior, truth = _relabelled(120, seed=4, noise=0.05)
     a.to_csv(tmp_path / "a.tsv", sep="\t", index=False, header=False)
-    b.to_csv(tmp_path / "b.csv", index=False)
+    b.to_csv(tmp_path / "b.csv", index=False, header=False)  # a header "u,v" would be read as an edge (with a warning)
     prior.to_csv(tmp_path / "p.tsv", sep="\t", index=False, header=False)
     r1 = aligner.align(a, b, prior)
     r2 = aligner.align(tmp_path / "a.tsv", tmp_path / "b.csv", tmp_path / "p.tsv")
