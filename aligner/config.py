@@ -131,13 +131,13 @@ class AlignConfig(_Config):
         "header when its fields are column names such as node_a/source/target.", flag="--header", group=READ,
         kind="choice", choices=HEADERS)
     directed: bool = option(
-        False, "Read edge lists as arcs (first column -> second): the walk follows the arcs and divides by "
-        "out-degree; an edge is conserved only onto an arc pointing the same way.", flag="--directed",
+        False, "Read edge lists as arcs (first column -> second): an arc is conserved only onto an arc pointing "
+        "the same way (and, when aligning, the walk follows the arcs and divides by out-degree).", flag="--directed",
         group=READ, kind="bool")
     weighted: bool = option(
-        False, "Use the third column of both edge lists as edge weights: the product entry of two edges weighs "
-        "w_A * w_B, the walk divides by strength (summed weights), and the scores add the conserved weight "
-        "and weighted EC.", flag="--weighted", group=READ, kind="bool")
+        False, "Use the third column of both edge lists as edge weights: the scores add the conserved weight "
+        "and weighted EC (and, when aligning, the product entry of two edges weighs w_A * w_B and the walk "
+        "divides by strength, the summed weights).", flag="--weighted", group=READ, kind="bool")
     top_k: int | None = option(
         25, "Candidates: every node's top-k prior pairs on each side (their union); None keeps all.",
         flag="--top-k", group=CANDIDATES, kind="int", low=1, optional=True)
