@@ -170,6 +170,10 @@ def read_inputs(network_a, network_b, prior=None, *, seeds=None, truth=None,
     net_a = as_network(network_a, name="network_a", directed=cfg.directed, **read)
     release_unused_memory()  # between tables, so the read stage's peak is one table's
     net_b = as_network(network_b, name="network_b", directed=cfg.directed, **read)
+    for net, key in ((net_a, "network_a"), (net_b, "network_b")):
+        if net.n == 0:  # an empty graph or frame (an empty file is refused by the reader)
+            raise InvalidParameterError(f"{key} has no nodes ({net.source}): there is nothing to align; check "
+                                        "that the right graph or table was given", param=key)
     _check_weighted(net_a, net_b, cfg.weighted)
     prior_t = None if prior is None else as_prior(prior, net_a, net_b, cfg.score_kind, cfg.delimiter, cfg.header)
     seeds_t = None if seeds is None else as_seeds(seeds, net_a, net_b, **read)

@@ -263,3 +263,14 @@ def test_prepared_problem_keeps_the_prior_counts_not_its_rows():
     assert kept.pairs.base is None and kept.scores.base is None  # not views holding the rows alive
     assert kept.n_pairs == len(full.pairs) > 0 and kept.n_rows == full.n_rows
     assert aligner.align(a, b, prior).summary["inputs"]["prior"]["pairs"] == len(full.pairs)
+
+
+@pytest.mark.parametrize("empty", [nx.Graph(), nx.DiGraph(), pd.DataFrame({"u": [], "v": []})])
+def test_an_empty_network_is_named_as_such(empty):
+    # Issue found in a fresh-clone trial: an empty graph got "are the columns swapped?" from the
+    # prior check. Common practice: name the fault itself.
+    directed = isinstance(empty, nx.DiGraph)
+    other = nx.path_graph(3, create_using=nx.DiGraph if directed else nx.Graph)
+    prior = pd.DataFrame({"a": [0], "b": [1], "s": [1.0]})
+    with pytest.raises(InvalidParameterError, match=r"network_a has no nodes .*nothing to align"):
+        aligner.align(empty, other, prior, directed=directed)
