@@ -461,9 +461,11 @@ def _score(inputs: Inputs, matched: np.ndarray, cfg: AlignConfig) -> tuple[Score
     return scores, cons, image
 
 
-def _name_column(names: np.ndarray):
-    """The names as a frame column would hold them (converted once, then gathered from), or
-    the array itself when they stay objects."""
+def _name_column(net: Network):
+    """The network's node names (or its input's own node objects, ``labels``) as a frame column
+    would hold them (converted once, then gathered from), or the array itself when they stay
+    objects."""
+    names = net.names if net.labels is None else net.labels
     col = pd.Series(names, copy=False)
     return names if col.dtype == object else col
 
@@ -486,7 +488,7 @@ def conserved_frame(net_a: Network, net_b: Network, matched: np.ndarray, cons: n
     """The conserved edges of A with their images in B, by name."""
     f = np.full(net_a.n, -1, dtype=np.int64)
     f[matched[:, 0]] = matched[:, 1]
-    return _conserved_table(_name_column(net_a.names), _name_column(net_b.names), net_a.scored_edges(directed)[0],
+    return _conserved_table(_name_column(net_a), _name_column(net_b), net_a.scored_edges(directed)[0],
                             f, cons)
 
 
@@ -522,7 +524,7 @@ def evaluate(problem: Problem, diffusion: DiffusionResult, improvement: Improvem
                              truth=None if inputs.truth is None else inputs.truth.pairs)
         expansion = problem.origin.expansion
         seeds["expansion"] = None if expansion is None else expansion.report()
-    names_a, names_b = _name_column(inputs.network_a.names), _name_column(inputs.network_b.names)
+    names_a, names_b = _name_column(inputs.network_a), _name_column(inputs.network_b)
     f = np.full(inputs.network_a.n, -1, dtype=np.int64)
     f[matched[:, 0]] = matched[:, 1]
     edges_a = inputs.network_a.scored_edges(cfg.directed)[0]
@@ -560,7 +562,7 @@ def transfer(problem: Problem, diffusion: DiffusionResult, improvement: Improvem
                           cand.pairs[index], pair_confidence(cand, diffusion.x, index) if confidence is None
                           else confidence, diffusion.x[index],
                           net_a.n, net_b.n, directed=cfg.directed, image=image)
-    names_a, names_b = _name_column(net_a.names), _name_column(net_b.names)
+    names_a, names_b = _name_column(net_a), _name_column(net_b)
     frame = pd.DataFrame({
         "direction": np.asarray(DIRECTIONS, dtype=object)[t.direction],
         "node_a1": _names_at(names_a, t.a1), "node_a2": _names_at(names_a, t.a2),

@@ -151,7 +151,7 @@ def test_ties_are_broken_the_same_way_every_time():
                 for _ in range(3)}
         assert len(runs) == 1, (method, runs)
         (pairs,) = runs
-        assert ("0", "b0") in pairs and len(pairs) == 6  # the hub maps to the hub; leaves one-to-one
+        assert (0, "b0") in pairs and len(pairs) == 6  # the hub maps to the hub; leaves one-to-one (ids as given)
         # reversed row order of the prior: same matching (the prior is sorted on the way in)
         again = align(ga, gb, prior.iloc[::-1], rounding=method).pairs[["node_a", "node_b"]].values
         assert tuple(map(tuple, again)) == pairs

@@ -274,3 +274,25 @@ def test_an_empty_network_is_named_as_such(empty):
     prior = pd.DataFrame({"a": [0], "b": [1], "s": [1.0]})
     with pytest.raises(InvalidParameterError, match=r"network_a has no nodes .*nothing to align"):
         aligner.align(empty, other, prior, directed=directed)
+
+
+def test_networkx_integer_nodes_come_back_as_integers(tmp_path):
+    # Issue found in a fresh-clone trial: integer node ids of a networkx graph came back as
+    # strings. Reference: the same pair given with string ids (the alignment is the same; only
+    # the type of the ids in the output tables differs).
+    from aligner.io.outputs import write_outputs
+
+    g = nx.powerlaw_cluster_graph(60, 3, 0.3, seed=2)
+    h = nx.relabel_nodes(g, {v: v + 1000 for v in g})
+    prior = pd.DataFrame({"a": list(g), "b": [v + 1000 for v in g], "s": 1.0})
+    res = aligner.align(g, h, prior)
+    as_text = aligner.align(nx.relabel_nodes(g, str), nx.relabel_nodes(h, str), prior.astype({"a": str, "b": str}))
+    assert all(isinstance(v, (int, np.integer)) for v in res.pairs.node_a)
+    assert all(isinstance(v, (int, np.integer)) for v in res.conserved_edges.node_b1)
+    assert sorted(zip(res.pairs.node_a, res.pairs.node_b)) == \
+        sorted((int(a), int(b)) for a, b in zip(as_text.pairs.node_a, as_text.pairs.node_b))
+    assert (res.pairs.node_b - res.pairs.node_a == 1000).all()
+    written = write_outputs(tmp_path / "out", res)
+    assert {p.name for p in written} >= {"alignment.tsv", "conserved_edges.tsv"}
+    back = pd.read_csv(tmp_path / "out" / "alignment.tsv", sep="\t")
+    assert sorted(zip(back.node_a, back.node_b)) == sorted(zip(res.pairs.node_a, res.pairs.node_b))

@@ -49,6 +49,9 @@ class Network:
         Weights of ``arcs`` (duplicates summed).
     out_indptr, out_indices, out_weights : ndarray or None
         Directed networks: the out-adjacency (sorted successor lists) and its entry weights.
+    labels : ndarray or None
+        The input's own node objects, aligned with ``names``, when they are not all strings
+        (a networkx graph with integer nodes): what the output tables show. None: the names.
     """
 
     names: np.ndarray
@@ -66,6 +69,7 @@ class Network:
     out_indptr: npt.NDArray[np.int64] | None = None
     out_indices: npt.NDArray[np.int32] | None = None
     out_weights: npt.NDArray[np.float64] | None = None
+    labels: np.ndarray | None = None
 
     @property
     def n(self) -> int:

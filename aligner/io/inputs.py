@@ -10,6 +10,7 @@ it, so the readers only parse and the stages only compute.
 
 from __future__ import annotations
 
+import dataclasses
 import os
 from collections.abc import Mapping
 from typing import Callable
@@ -137,17 +138,24 @@ def _from_networkx(graph, *, name: str, directed: bool) -> Network:
             "direction, or use graph.to_undirected())" if not directed else
             f"{name} must be a directed graph when directed=True; got an undirected one (use "
             "graph.to_directed(), which gives each edge both directions)", param=name)
-    nodes = [str(v) for v in graph.nodes()]
-    if len(set(nodes)) != len(nodes):
+    own = {str(v): v for v in graph.nodes()}
+    if len(own) != graph.number_of_nodes():
         raise InvalidParameterError(f"{name} must have nodes whose string forms differ; got two that clash",
                                     param=name)
-    names = np.array(sorted(nodes), dtype=object)
+    names = np.array(sorted(own), dtype=object)
     pos = {v: i for i, v in enumerate(names)}
     e = np.array([(pos[str(u)], pos[str(v)]) for u, v in graph.edges()], dtype=np.int64).reshape(-1, 2)
     w = None
     if graph.number_of_edges() and all("weight" in d for _, _, d in graph.edges(data=True)):
         w = np.array([float(d["weight"]) for _, _, d in graph.edges(data=True)])
-    return network_from_edges(names, e[:, 0], e[:, 1], w, source=f"<networkx {name}>", directed=directed)
+    net = network_from_edges(names, e[:, 0], e[:, 1], w, source=f"<networkx {name}>", directed=directed)
+    if all(isinstance(v, str) for v in own.values()):
+        return net
+    # the graph's own node objects (integers, say) come back in the output tables; numpy infers
+    # one dtype for them when it can (int64 for integers), else keeps objects
+    labels = np.array([own[s] for s in names] or [], dtype=None if len({type(v) for v in own.values()}) == 1
+                      else object)
+    return dataclasses.replace(net, labels=labels)
 
 
 def as_prior(obj, net_a: Network, net_b: Network, kind: str, delimiter, header) -> PriorTable:
