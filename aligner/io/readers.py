@@ -326,7 +326,7 @@ def _warn_if_header_like(path: str, line: int, fields: list[str], cols) -> None:
     real first row of nodes named like that (``ab1``/``ab2`` with no other edge) is kept as data
     all the same: the warning names the option that settles it.
     """
-    if len(fields) < 2:
+    if len(fields) < 2 or len(cols[0]) < 3:  # in a file of one or two rows "found nowhere else" says nothing
         return
     f0, f1 = fields[0].strip(), fields[1].strip()
     if f0 == f1 or f0[:-1] != f1[:-1]:
