@@ -10,6 +10,8 @@ import sys
 from typing import Annotated
 
 import typer
+import typer.core
+from typer.core import TyperGroup
 
 from aligner import __version__
 from aligner.cli.commands.align import align, score
@@ -19,9 +21,41 @@ from aligner.cli.commands.query import query
 from aligner.cli.commands.report import report
 from aligner.cli.commands.sweep import sweep
 from aligner.cli.commands.transfer import transfer
-from aligner.cli.runtime import say
+from aligner.cli.runtime import err, say
 
 __all__ = ["app"]
+
+# the click typer runs on: its own copy in recent typer versions, the click package before
+_click = getattr(typer.core, "_click", None) or __import__("click")
+
+
+class _Group(TyperGroup):
+    """The app's command group: a mistake on the command line itself (a missing argument, an
+    unknown option) is reported like every other user error, as one ``error:`` line with exit
+    status 2, instead of the framework's boxed message."""
+
+    def main(self, args=None, prog_name=None, complete_var=None, standalone_mode=True, **extra):
+        if not standalone_mode:
+            return super().main(args, prog_name, complete_var, standalone_mode=False, **extra)
+        errors = _click.exceptions
+        try:
+            status = super().main(args, prog_name, complete_var, standalone_mode=False, **extra)
+        except errors.UsageError as exc:
+            if type(exc).__name__ == "NoArgsIsHelpError":  # no arguments at all: the help, as before
+                return super().main(args, prog_name, complete_var, standalone_mode=True, **extra)
+            where = exc.ctx.command_path if exc.ctx is not None else "aligner"
+            text = exc.format_message().rstrip(".")
+            say(f"error: {where}: {text[:1].lower()}{text[1:]}; see '{where} --help'", console=err)
+            sys.exit(2)
+        except errors.ClickException as exc:  # not a usage error: the framework's own words and status
+            exc.show()
+            sys.exit(exc.exit_code)
+        except errors.Abort:
+            say("interrupted", console=err)
+            sys.exit(130)
+        # the command ran (None), or an exit was asked for with its status (an int)
+        sys.exit(status if isinstance(status, int) else 0)
+
 
 app = typer.Typer(
     name="aligner",
@@ -29,6 +63,7 @@ app = typer.Typer(
     no_args_is_help=True,
     add_completion=False,
     pretty_exceptions_enable=False,
+    cls=_Group,
 )
 
 

@@ -444,3 +444,26 @@ def test_fuzz_regressions_found_by_hand(tmp_path):
     # gzip is detected by content, not by the file name
     p = _write(tmp_path, "plain.tsv.gz", "a\tb\n")
     assert list(read_network(p).names) == ["a", "b"]
+
+
+@pytest.mark.parametrize("args, says", [
+    (["align", "only_one.tsv"], r"align: missing argument 'network_b'"),
+    (["align", "--bogus"], r"align: no such option: --bogus"),
+    (["nosuch"], r"no such command 'nosuch'"),
+])
+def test_command_line_mistakes_are_one_error_line_with_status_2(args, says):
+    # Issue found in a fresh-clone trial: mistakes caught by the command-line framework came in
+    # its boxed style while every other user error is one line. Common practice (POSIX utility
+    # conventions): a usage error is one diagnostic line and a non-zero status, 2 here as for
+    # every user error of the package.
+    import re
+
+    from typer.testing import CliRunner
+
+    from aligner.cli.app import app
+
+    res = CliRunner().invoke(app, args)
+    assert res.exit_code == 2
+    lines = [line for line in res.output.splitlines() if line.strip()]
+    assert len(lines) == 1 and re.match(r"^error: .*" + says + r".*; see '.*--help'$", lines[0]), res.output
+    assert "╭" not in res.output and "Traceback" not in res.output
