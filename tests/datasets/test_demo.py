@@ -62,3 +62,22 @@ def test_locating_the_demo_imports_nothing_heavy():
             "print(sorted(m for m in ('numpy', 'pandas', 'scipy', 'numba') if m in sys.modules))")
     out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, check=True)
     assert out.stdout.strip() == "[]"
+
+
+def test_registry_demo_names_spell_no_english_word():
+    # Demo data must be invented: no stem of a company name is a word of the english-words
+    # package's web2 and GCIDE lists (real trade names are often words), with or without its
+    # invented ending. Reference: the word lists themselves, read directly.
+    import csv
+
+    from english_words import get_english_words_set
+
+    from aligner.datasets.demo import scenario_dir
+    from aligner.datasets.registry import _bare
+
+    words = get_english_words_set(["web2", "gcide"], lower=True, alpha=True)
+    with open(scenario_dir("registry") / "labels_a.tsv", encoding="utf-8") as fh:
+        rows = [r for r in csv.reader((line for line in fh if not line.startswith("#")), delimiter="\t")][1:]
+    stems = {name.split()[0] for _, name in rows}
+    assert len(stems) > 100
+    assert not {s for s in stems if s.lower() in words or _bare(s) in words}
