@@ -25,13 +25,15 @@ Examples
 from __future__ import annotations
 
 import dataclasses
+import re
 from dataclasses import dataclass, field
 from typing import Any, Iterable, Mapping
 
 from aligner.checks import bad_parameter, check_choice, check_int, check_real
 from aligner.errors import InvalidParameterError
 
-__all__ = ["Spec", "option", "AlignConfig", "QueryConfig", "LabelConfig", "EngineConfig", "TransferConfig", "specs",
+__all__ = ["Spec", "option", "AlignConfig", "QueryConfig", "LabelConfig", "ClassConfig", "EngineConfig",
+           "TransferConfig", "specs",
            "describe",
            "from_options", "with_options", "SCORE_KINDS", "SOLVERS", "NORMALIZATIONS", "ROUNDINGS", "HEADERS", "SIDES",
            "ENGINES"]
@@ -43,6 +45,14 @@ ROUNDINGS = ("auto", "sparse", "dense", "scipy")
 HEADERS = ("auto", "yes", "no")
 SIDES = ("a", "b")
 ENGINES = ("local", "dask")
+
+#: One column of a table, picked by its 1-based position (``11``) or its header name (``evalue``): a
+#: name holds at least one character that is not a digit, and no comma.
+_COLUMN = r"\s*(?:[1-9][0-9]*|[^,]*?[^,0-9\s][^,]*?)\s*"
+#: ``--prior-columns``: three columns (node of A, node of B, score), comma-separated.
+PRIOR_COLUMNS = rf"{_COLUMN},{_COLUMN},{_COLUMN}"
+#: ``--label-columns``: one or more columns, comma-separated.
+LABEL_COLUMNS = rf"{_COLUMN}(?:,{_COLUMN})*"
 
 
 @dataclass(frozen=True)
@@ -64,6 +74,8 @@ class Spec:
     choices: tuple[str, ...] = ()
     optional: bool = False
     metavar: str | None = None
+    pattern: str | None = None  # text: the form a value must have (re.fullmatch) ...
+    shape: str = ""  # ... and how the message describes it ("three columns ...")
 
     def check(self, name: str, value: Any) -> Any:
         """``value`` in canonical form, or InvalidParameterError naming ``name``."""
@@ -80,7 +92,9 @@ class Spec:
                 raise bad_parameter(name, "True or False", value)
             return value
         if not isinstance(value, str):
-            raise bad_parameter(name, "a string", value)
+            raise bad_parameter(name, self.shape or "a string", value)
+        if self.pattern is not None and not re.fullmatch(self.pattern, value):
+            raise bad_parameter(name, self.shape, value)
         return value
 
     @property
@@ -130,6 +144,13 @@ class AlignConfig(_Config):
         "auto", "Whether input files start with a header line: auto, yes or no. 'auto' takes the first line as a "
         "header when its fields are column names such as node_a/source/target.", flag="--header", group=READ,
         kind="choice", choices=HEADERS)
+    prior_columns: str | None = option(
+        None, "The prior's columns node of A, node of B and score, by 1-based position (1,2,11) or header name "
+        "(query,subject,evalue; names imply a header line): for wider tables such as the 12-column tabular output "
+        "of sequence searches. A pair on several rows keeps its best row. Default: a table of exactly these "
+        "three columns.", flag="--prior-columns", group=READ, kind="text", optional=True, metavar="A,B,SCORE",
+        pattern=PRIOR_COLUMNS, shape="three comma-separated columns (node of A, node of B, score), each a 1-based "
+        "position or a header name, such as '1,2,11' or 'query,subject,evalue'")
     directed: bool = option(
         False, "Read edge lists as arcs (first column -> second): an arc is conserved only onto an arc pointing "
         "the same way (and, when aligning, the walk follows the arcs and divides by out-degree).", flag="--directed",
@@ -222,6 +243,24 @@ class LabelConfig(_Config):
     min_similarity: float = option(0.1, "Drop pairs whose cosine similarity is below this, in (0, 1].",
                                    flag="--min-similarity", group="Labels", kind="real", low=0.0, high=1.0,
                                    closed="right")
+    label_columns: str | None = option(
+        None, "The label files are tables (CSV/TSV, identifier in the first column) and these columns, by header "
+        "name or 1-based position (name,city,street), are joined by a space into each node's label text. "
+        "Default: label files of identifier, tab, label.", flag="--label-columns", group="Labels", kind="text",
+        optional=True, metavar="COLUMNS", pattern=LABEL_COLUMNS, shape="comma-separated columns, each a header "
+        "name or a 1-based position, such as 'name,city,street'")
+
+
+@dataclass(frozen=True, kw_only=True)
+class ClassConfig(_Config):
+    """The options of the class prior (``aligner prior-from-classes``)."""
+
+    score: float = option(1.0, "The prior score of every pair of a node of A and a node of B sharing a class.",
+                          flag="--score", group="Classes", kind="real", low=0.0, closed="neither")
+    class_separator: str | None = option(
+        None, "Split each class field at this text, for a node of several classes on one row (such as ';' or "
+        "'|'). Several rows of one node always add classes.", flag="--class-separator", group="Classes",
+        kind="text", optional=True, metavar="TEXT")
 
 
 @dataclass(frozen=True, kw_only=True)

@@ -175,7 +175,8 @@ def read_inputs(network_a, network_b, prior=None, *, seeds=None, truth=None,
             raise InvalidParameterError(f"{key} has no nodes ({net.source}): there is nothing to align; check "
                                         "that the right graph or table was given", param=key)
     _check_weighted(net_a, net_b, cfg.weighted)
-    prior_t = None if prior is None else as_prior(prior, net_a, net_b, cfg.score_kind, cfg.delimiter, cfg.header)
+    prior_t = None if prior is None else as_prior(prior, net_a, net_b, cfg.score_kind, cfg.delimiter, cfg.header,
+                                                  cfg.prior_columns)
     seeds_t = None if seeds is None else as_seeds(seeds, net_a, net_b, **read)
     truth_t = None if truth is None else known_pairs(
         as_pairs(truth, net_a, net_b, "truth table", cfg.delimiter, cfg.header), "truth table")
@@ -327,8 +328,8 @@ class Problem:
     def with_options(self, **options: Any) -> "Problem":
         """The same problem under other solve options (alpha, tol, solver, rounding, refinement,
         permutations); options that would change the candidates or the product graph are refused."""
-        fixed = {"delimiter", "header", "directed", "weighted", "top_k", "min_score", "score_kind", "structural",
-                 "structural_weight", "seed_weight", "normalization", "max_memory"}
+        fixed = {"delimiter", "header", "prior_columns", "directed", "weighted", "top_k", "min_score", "score_kind",
+                 "structural", "structural_weight", "seed_weight", "normalization", "max_memory"}
         changed = sorted(k for k in fixed & set(options) if options[k] != getattr(self.config, k))
         if changed:
             raise InvalidParameterError(f"{changed[0]} changes the prepared candidates or product graph; prepare "

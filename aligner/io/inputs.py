@@ -22,7 +22,7 @@ from aligner.checks import warn
 from aligner.core.network import Network, network_from_edges
 from aligner.errors import InputFormatError, InvalidParameterError, NoCandidatesError
 from aligner.core.identifiers import PairTable, pairs_from_columns
-from aligner.io.readers import Table, network_from_table, read_network, read_table
+from aligner.io.readers import Columns, Table, network_from_table, prior_pick, read_network, read_table
 from aligner.core.prior import PriorTable, prior_from_columns
 
 __all__ = ["as_table", "as_network", "as_prior", "as_pairs", "known_pairs"]
@@ -30,7 +30,8 @@ __all__ = ["as_table", "as_network", "as_prior", "as_pairs", "known_pairs"]
 
 def as_table(obj, *, name: str, layout: str, min_cols: int, max_cols: int, what: str = "table",
              delimiter: str | None = None, header: str = "auto", source: str | None = None,
-             read: Callable[[str], object] | None = None) -> Table:
+             read: Callable[[str], object] | None = None, pick: Columns | None = None,
+             required: int | None = None, text_cols: int = 2) -> Table:
     """Columns of a table from a path, a DataFrame, a mapping or Series, or an iterable of rows.
 
     Parameters
@@ -55,6 +56,10 @@ def as_table(obj, *, name: str, layout: str, min_cols: int, max_cols: int, what:
     read : callable, optional
         Reads a path instead of ``read_table``; what it returns is taken as the object, with
         the path as its source.
+    pick : Columns, optional
+        Take these columns, in this order, by 1-based position or by name (a file's header, a
+        DataFrame's column names; rows have no names); ``min_cols`` and ``max_cols`` then do not
+        apply. ``required`` and ``text_cols``: see :func:`aligner.io.readers.read_table`.
 
     Returns
     -------
@@ -71,9 +76,11 @@ def as_table(obj, *, name: str, layout: str, min_cols: int, max_cols: int, what:
     if isinstance(obj, (str, os.PathLike)):
         if read is None:
             return read_table(obj, min_cols=min_cols, max_cols=max_cols, delimiter=delimiter, header=header,
-                              what=what)
+                              what=what, pick=pick, required=required, text_cols=text_cols)
         source, obj = os.fspath(obj), read(os.fspath(obj))
     source = source or f"<{name}>"
+    if pick is not None:
+        return _picked_table(obj, pick, name=name, source=source)
     if isinstance(obj, pd.DataFrame):
         if obj.shape[1] < min_cols:
             raise InvalidParameterError(f"{name} must have at least {min_cols} columns ({layout}); got "
@@ -83,6 +90,24 @@ def as_table(obj, *, name: str, layout: str, min_cols: int, max_cols: int, what:
         s = pd.Series(obj, dtype=object) if not isinstance(obj, pd.Series) else obj
         return Table((s.index.to_numpy(dtype=object), s.to_numpy(dtype=object)), source)
     return _rows_table(obj, name=name, layout=layout, min_cols=min_cols, max_cols=max_cols, source=source)
+
+
+def _picked_table(obj, pick: Columns, *, name: str, source: str) -> Table:
+    """:func:`as_table` for an object with ``pick``: a DataFrame's columns by name or position, rows' by position."""
+    if isinstance(obj, pd.DataFrame):
+        use = pick.positions([str(c) for c in obj.columns], obj.shape[1], where=f"the DataFrame {name}")
+        cols = tuple(obj.iloc[:, k].to_numpy() for k in use)
+    else:
+        if pick.by_name:
+            raise InvalidParameterError(f"{pick.keyword}={pick.text!r} picks columns by name, but the {name} is "
+                                        "rows, which have no column names; pick them by position (1-based) or "
+                                        "pass a DataFrame", param=pick.keyword)
+        need = max(pick.items) + 1
+        table = _rows_table(obj, name=name, layout=f"at least {need} values", min_cols=need, max_cols=1 << 16,
+                            source=source)
+        use = pick.positions(None, len(table.columns), where=f"the {name}")
+        cols = tuple(table.columns[k] for k in use)
+    return Table(cols, source, picked=tuple(use), pick=pick)
 
 
 def _rows_table(obj, *, name: str, layout: str, min_cols: int, max_cols: int, source: str) -> Table:
@@ -158,11 +183,15 @@ def _from_networkx(graph, *, name: str, directed: bool) -> Network:
     return dataclasses.replace(net, labels=labels)
 
 
-def as_prior(obj, net_a: Network, net_b: Network, kind: str, delimiter, header) -> PriorTable:
+def as_prior(obj, net_a: Network, net_b: Network, kind: str, delimiter, header,
+             columns: str | None = None) -> PriorTable:
     """A :class:`PriorTable` from a path, a DataFrame or rows (node_a, node_b, score), or one already made.
 
     The scores are read as ``kind`` says (:func:`aligner.core.prior.prior_from_columns`);
-    repeated pairs and rows dropped by the score kind are warned about.
+    repeated pairs and rows dropped by the score kind are warned about. ``columns`` (the
+    ``prior_columns`` option) picks node_a, node_b and score from a wider table, a file's or a
+    DataFrame's, by 1-based position or by name (a file's header, a DataFrame's columns); a
+    pair on several rows then keeps its best row, as any repeated pair does.
 
     Raises
     ------
@@ -173,7 +202,7 @@ def as_prior(obj, net_a: Network, net_b: Network, kind: str, delimiter, header) 
         return obj
     table = as_table(obj, name="prior", layout="node_a, node_b, score", min_cols=3, max_cols=3,
                      what="prior table", delimiter=delimiter, header=header,
-                     source="<DataFrame prior>" if isinstance(obj, pd.DataFrame) else None)
+                     source="<DataFrame prior>" if isinstance(obj, pd.DataFrame) else None, pick=prior_pick(columns))
     return _prior_notes(prior_from_columns(table.text(0), table.text(1), table.numeric(2, "score"), net_a, net_b,
                                            kind=kind, source=table.source, line_of=table.line_of))
 

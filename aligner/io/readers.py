@@ -26,12 +26,13 @@ import pyarrow.csv as pacsv
 
 from aligner.checks import bad_parameter, check_choice, warn
 from aligner.core.network import Network, network_from_edges
-from aligner.errors import InputFormatError
+from aligner.errors import InputFormatError, InvalidParameterError
 from aligner.core.identifiers import intern, pairs_from_columns, PairTable
 from aligner.core.prior import PriorTable, prior_from_columns
 
 __all__ = [
     "Table",
+    "Columns",
     "read_table",
     "read_network",
     "network_from_table",
@@ -144,6 +145,87 @@ def _locate(path: str, start: int, row: int, sep: str | None) -> tuple[int | Non
     return None, ""
 
 
+# --------------------------------------------------------------------------- columns picked by an option
+
+@dataclass(frozen=True)
+class Columns:
+    """Columns of a wider table picked by an option, by 1-based position or header name.
+
+    Attributes
+    ----------
+    text : str
+        The option's value as given: ``"1,2,11"``, ``"query,subject,evalue"`` (checked by the
+        option's declaration in :mod:`aligner.config`).
+    flag, keyword : str
+        The option on the command line and in Python, for messages (``--prior-columns``,
+        ``prior_columns``).
+
+    Examples
+    --------
+    >>> Columns("1, 2,evalue", "--prior-columns", "prior_columns").items
+    (0, 1, 'evalue')
+    """
+
+    text: str
+    flag: str
+    keyword: str
+
+    @property
+    def items(self) -> tuple:
+        """0-based positions (int) and header names (str), in the order given."""
+        return tuple(int(t) - 1 if re.fullmatch(r"[0-9]+", t) else t for t in (t.strip() for t in self.text.split(",")))
+
+    @property
+    def by_name(self) -> bool:
+        return any(isinstance(t, str) for t in self.items)
+
+    @property
+    def named(self) -> str:
+        """How a message names the option: ``--prior-columns 1,2,11 (prior_columns='1,2,11')``."""
+        return f"{self.flag} {self.text} ({self.keyword}={self.text!r})"
+
+    def positions(self, names: list[str] | None, ncols: int, *, where: str | None = None,
+                  path: str | None = None, line: int | None = None, data_line: int | None = None) -> list[int]:
+        """The 0-based positions of the picked columns in a table of ``ncols`` columns.
+
+        ``names``: the header's fields (None: the table has none). A file (``path``, ``line``)
+        gets InputFormatError; an object (``where`` names it: "the DataFrame prior") gets
+        InvalidParameterError for the option's keyword. Both messages name the option. ``line``
+        is the header's (a name not found), ``data_line`` the first data row's (a position
+        beyond its width; default ``line``).
+        """
+        named = self.named if path is not None else f"{self.keyword}={self.text!r}"
+        found = []
+        for item in self.items:
+            if isinstance(item, int):
+                if item >= ncols:
+                    self._fail(f"has {ncols} column{'s' if ncols != 1 else ''} but {named} picks column {item + 1}; "
+                               f"pick columns 1 to {ncols}" + (", or check --delimiter" if path else ""),
+                               where, path, line if data_line is None else data_line)
+                found.append(item)
+                continue
+            if names is None:
+                self._fail(f"has no header line, but {named} picks the column {item!r} by name; pick it by "
+                           "position (1-based) instead" + (", or give the file a header line" if path else ""),
+                           where, path, line)
+            clean = [str(n).strip() for n in names]
+            hits = [k for k, n in enumerate(clean) if n == item] or \
+                [k for k, n in enumerate(clean) if n.lower() == item.lower()]
+            if len(hits) != 1:
+                shown = ", ".join(clean[:16]) + (", ..." if len(clean) > 16 else "")
+                why = "no column" if not hits else "more than one column"
+                self._fail(f"has {why} named {item!r} (its columns: {shown}); check {named}", where, path, line)
+            found.append(hits[0])
+        if len(set(found)) != len(found):
+            self._fail(f"has one column picked twice by {named}; pick different columns", where, path, line)
+        return found
+
+    def _fail(self, text: str, where: str | None, path: str | None, line: int | None):
+        if path is None:  # an object: the option is the caller's parameter
+            raise InvalidParameterError(f"{where} {text}", param=self.keyword)
+        raise InputFormatError(text, path=path, line=line)
+
+
 # --------------------------------------------------------------------------- tables
 
 @dataclass(frozen=True, eq=False)
@@ -163,6 +245,9 @@ class Table:
         The delimiter of the file (None: runs of white space).
     header : tuple of str or None
         The header line's fields, when the file had one.
+    picked : tuple of int or None
+        When ``columns`` were picked from a wider table by an option (:class:`Columns`), the
+        0-based position of each in the table it was read from; ``pick`` is that option.
     """
 
     columns: tuple
@@ -170,6 +255,8 @@ class Table:
     first_line: int | None = None
     sep: str | None = None
     header: tuple | None = None
+    picked: tuple | None = None
+    pick: "Columns | None" = None
 
     @property
     def n_rows(self) -> int:
@@ -205,7 +292,9 @@ class Table:
         if bad.any():
             row = int(np.argmax(bad))
             where = "" if self.first_line is not None else f"{self.where(row)}: "
-            raise InputFormatError(f"{where}the {label} {c[row]!r} is not a finite number; the column must hold "
+            which = "the column" if self.pick is None else f"column {self.picked[col] + 1}, picked by " + (
+                self.pick.named if self.first_line is not None else f"{self.pick.keyword}={self.pick.text!r}") + ","
+            raise InputFormatError(f"{where}the {label} {c[row]!r} is not a finite number; {which} must hold "
                                    "numbers such as 0.5 or 1e-3", path=self.source, line=self.line_of(row))
         return values
 
@@ -222,7 +311,8 @@ def release_unused_memory() -> None:
 
 
 def read_table(path: str | os.PathLike, *, min_cols: int, max_cols: int, delimiter: str | None = None,
-               header: str = "auto", what: str = "table") -> Table:
+               header: str = "auto", what: str = "table", pick: Columns | None = None,
+               required: int | None = None, text_cols: int = 2) -> Table:
     """Read a delimited table of strings with ``min_cols`` to ``max_cols`` columns.
 
     Parameters
@@ -239,6 +329,16 @@ def read_table(path: str | os.PathLike, *, min_cols: int, max_cols: int, delimit
         Whether the first data line is a header (see :func:`read_network`).
     what : str
         What the table is ("edge list", "prior table"), for messages.
+    pick : Columns, optional
+        Read only these columns of a wider table, in this order (then ``min_cols`` and
+        ``max_cols`` do not apply; the first row must reach every picked position). Header
+        names imply a header line. The Table's ``picked`` says where each column came from.
+    required : int, optional
+        With ``pick``: how many of the first picked columns must not hold an empty field
+        (default: all of them).
+    text_cols : int
+        How many of the first columns (picked ones, with ``pick``) are identifiers or text,
+        never parsed as numbers.
 
     Returns
     -------
@@ -258,7 +358,7 @@ def read_table(path: str | os.PathLike, *, min_cols: int, max_cols: int, delimit
     path = os.fspath(path)
     try:
         return _read_table(path, min_cols=min_cols, max_cols=max_cols, delimiter=delimiter, header=header,
-                           what=what)
+                           what=what, pick=pick, required=required, text_cols=text_cols)
     except UnicodeDecodeError as exc:
         raise InputFormatError(f"is not UTF-8 text ({exc.reason} at byte {exc.start}); save it as UTF-8",
                                path=path) from None
@@ -282,9 +382,13 @@ def _a(what: str) -> str:
     return f"{'an' if what[:1] in 'aeiou' else 'a'} {what}"
 
 
-def _read_table(path: str, *, min_cols: int, max_cols: int, delimiter, header: str, what: str) -> Table:
+def _read_table(path: str, *, min_cols: int, max_cols: int, delimiter, header: str, what: str,
+                pick: Columns | None = None, required: int | None = None, text_cols: int = 2) -> Table:
     """:func:`read_table` without its translation of decoding and reading errors."""
     _check_options(delimiter, header)
+    if pick is not None and pick.by_name and header == "no":
+        raise InputFormatError(f"cannot be read with --header no (header='no'): {pick.named} picks columns by "
+                               "header name; pick them by position (1-based), or leave --header out", path=path)
     check_readable(path)
     lines = data_lines(path)
     first, second = next(lines, None), next(lines, None)
@@ -294,12 +398,20 @@ def _read_table(path: str, *, min_cols: int, max_cols: int, delimiter, header: s
                                "starting with # are skipped)", path=path)
     sep = _detect_delimiter(first[1]) if delimiter is None else DELIMITERS.get(delimiter, delimiter)
     fields = _split(first[1], sep)
-    has_header = header == "yes" or (header == "auto" and _looks_like_header(fields, second, sep))
+    numeric = 2
+    if pick is not None:  # the header test looks at the score (the last picked column) when it is a position
+        numeric = pick.items[-1] if isinstance(pick.items[-1], int) and len(pick.items) > text_cols else None
+    has_header = header == "yes" or (pick is not None and pick.by_name) or (
+        header == "auto" and _looks_like_header(fields, second, sep, numeric))
     if has_header and second is None:
         raise InputFormatError(f"has a header line but no data rows: expected {_a(what)} below it", path=path,
                                line=first[0])
     start_no, start_text = second if has_header else first
     ncols = len(_split(start_text, sep))
+    if pick is not None:
+        return _read_picked(path, sep, ncols, start_no, pick, fields if has_header else None,
+                            first[0] if has_header else start_no, len(pick.items) if required is None else required,
+                            text_cols, check_header=header == "auto" and not has_header, first=first)
     if ncols < min_cols:
         raise InputFormatError(
             f"has {ncols} column{'s' if ncols != 1 else ''}, expected {expect} for {_a(what)}"
@@ -315,6 +427,19 @@ def _read_table(path: str, *, min_cols: int, max_cols: int, delimiter, header: s
     if header == "auto" and not has_header:
         _warn_if_header_like(path, first[0], fields, cols)
     return Table(tuple(cols), path, start_no, sep, tuple(fields) if has_header else None)
+
+
+def _read_picked(path: str, sep: str | None, ncols: int, start_no: int, pick: Columns, names: list[str] | None,
+                 names_line: int, required: int, text_cols: int, *, check_header: bool, first) -> Table:
+    """:func:`_read_table` for the columns an option picks from a wider table."""
+    use = pick.positions(names, ncols, path=path, line=names_line, data_line=start_no)
+    cols = _read_arrow(path, sep, ncols, start_no - 1, use=use, text_cols=text_cols)
+    if cols is None:
+        cols = _read_careful(path, sep, ncols, start_no, required, "table", use=use)
+    if check_header and len(use) >= 2:
+        fields = _split(first[1], sep)
+        _warn_if_header_like(path, first[0], [fields[use[0]], fields[use[1]]], cols)
+    return Table(tuple(cols), path, start_no, sep, None if names is None else tuple(names), tuple(use), pick)
 
 
 def _warn_if_header_like(path: str, line: int, fields: list[str], cols) -> None:
@@ -344,18 +469,23 @@ def _warn_if_header_like(path: str, line: int, fields: list[str], cols) -> None:
          "--header no (header='no') to keep it as data without this warning")
 
 
-def _looks_like_header(fields: list[str], second, sep: str | None) -> bool:
-    """``header="auto"``: every field a common column name, or a text third field above a number."""
+def _looks_like_header(fields: list[str], second, sep: str | None, numeric: int | None = 2) -> bool:
+    """``header="auto"``: every field a common column name, or a text field above a number in column
+    ``numeric`` (0-based: the third by default, a prior's score; None: no such test)."""
     if all(f.strip().lower() in HEADER_WORDS for f in fields):
         return True
-    if len(fields) < 3 or _is_number(fields[2]) or second is None:
+    if numeric is None or len(fields) <= numeric or _is_number(fields[numeric]) or second is None:
         return False
     below = _split(second[1], sep)
-    return len(below) >= 3 and _is_number(below[2])
+    return len(below) > numeric and _is_number(below[numeric])
 
 
-def _read_careful(path: str, sep: str | None, ncols: int, start_no: int, min_cols: int, what: str) -> list:
-    """The slow path: pandas' C reader, then the checks that name the line at fault."""
+def _read_careful(path: str, sep: str | None, ncols: int, start_no: int, min_cols: int, what: str,
+                  use: list[int] | None = None) -> list:
+    """The slow path: pandas' C reader, then the checks that name the line at fault.
+
+    ``use``: return these columns only, in this order; ``min_cols`` of them must not be empty.
+    """
     # pandas' comment="#" would also cut a line at a '#' inside it ("gene#1"), and its skiprows
     # does not count a blank line ended by a lone CR: in those cases pandas is given the data
     # lines as data_lines sees them (a slower Python pass), otherwise the file itself
@@ -376,8 +506,9 @@ def _read_careful(path: str, sep: str | None, ncols: int, start_no: int, min_col
                                path=path) from None
     except UnicodeDecodeError as exc:
         raise InputFormatError(f"is not UTF-8 text ({exc.reason}); save it as UTF-8", path=path) from None
-    cols = [df[c].to_numpy(dtype=object) for c in range(ncols)]
-    if any(df[c].str.contains("[\r\n]", regex=True).any() for c in range(ncols)):
+    use = list(range(ncols)) if use is None else use
+    cols = [df[c].to_numpy(dtype=object) for c in use]
+    if any(df[c].str.contains("[\r\n]", regex=True).any() for c in use):
         # a quoted field running over a line break: one record per line is the format
         no, text = next(((no, t) for no, t in data_lines(path, sep) if no >= start_no and t.count('"') % 2),
                         (None, ""))
@@ -419,11 +550,14 @@ def _needs_line_filter(path: str) -> bool:
     return False
 
 
-def _read_arrow(path: str, sep: str | None, ncols: int, skip: int) -> list | None:
+def _read_arrow(path: str, sep: str | None, ncols: int, skip: int, use: list[int] | None = None,
+                text_cols: int = 2) -> list | None:
     """Fast path: pyarrow's multi-threaded CSV reader, for a single-character delimiter.
 
-    ``skip`` lines (leading comments, blank lines, the header) are skipped. Returns the
-    columns (strings as pyarrow arrays; a third column as float64 when every value parses), or
+    ``skip`` lines (leading comments, blank lines, the header) are skipped. ``use``: parse only
+    these columns (and the first, to find comment lines), returned in this order; the first
+    ``text_cols`` of them are text. Returns the columns (text as pyarrow arrays; a later column
+    as float64 when every value parses), or
     None when the file needs the careful reader: white-space delimited, a comment or a short
     row further down, a value that does not parse. The careful reader then finds and names
     the line at fault, so this path never has to.
@@ -431,7 +565,9 @@ def _read_arrow(path: str, sep: str | None, ncols: int, skip: int) -> list | Non
     if sep is None:
         return None
     names = [f"c{k}" for k in range(ncols)]
-    types = {n: pa.string() for n in names[:2]}
+    use = list(range(ncols)) if use is None else use
+    text = {0, *use[:text_cols]}
+    types = {names[k]: pa.string() for k in text}
     try:
         source = pa.input_stream(path, compression="gzip" if _is_gzip(path) else None)
         try:
@@ -442,18 +578,21 @@ def _read_arrow(path: str, sep: str | None, ncols: int, skip: int) -> list | Non
                 # follows one set of rules (pyarrow accepted a quote left open at the end of the file)
                 parse_options=pacsv.ParseOptions(delimiter=sep, quote_char=False, newlines_in_values=False),
                 convert_options=pacsv.ConvertOptions(column_types=types, null_values=[],
-                                                     strings_can_be_null=False, quoted_strings_can_be_null=False),
+                                                     strings_can_be_null=False, quoted_strings_can_be_null=False,
+                                                     include_columns=[names[k] for k in sorted({0, *use})]),
             )
         finally:
             source.close()
     except (pa.ArrowException, OSError, ValueError):
         return None
     cols = []
-    for k, name in enumerate(names):
+    if 0 not in use[:text_cols] and _needs_care(table.column("c0").combine_chunks(), first=True):
+        return None  # a comment line further down shows in the first column, picked or not
+    for k, name in enumerate(names[p] for p in use):
         col = table.column(name)
         col = col.combine_chunks() if isinstance(col, pa.ChunkedArray) else col
-        if k < 2:
-            if _needs_care(col, first=k == 0):
+        if k < text_cols:
+            if _needs_care(col, first=use[k] == 0):
                 return None  # a comment line, an empty field, a quote, a byte-order mark: the careful reader
             cols.append(col)
         else:
@@ -565,10 +704,13 @@ def network_from_table(table: Table, *, directed: bool = False) -> Network:
 
 
 def read_prior(path: str | os.PathLike, net_a: Network, net_b: Network, *, kind: str = "similarity",
-               delimiter: str | None = None, header: str = "auto") -> PriorTable:
+               delimiter: str | None = None, header: str = "auto", columns: str | None = None) -> PriorTable:
     """Read a prior similarity table ``node_a, node_b, score`` and map it onto two networks.
 
     The scores are read as ``kind`` says (see :func:`aligner.core.prior.prior_from_columns`).
+    ``columns`` (``prior_columns``): pick the three columns of a wider table, by 1-based position
+    or header name (``"1,2,11"``, ``"query,subject,evalue"``); a pair on several rows keeps its
+    best row (the highest similarity after the score kind), as any repeated pair does.
 
     Raises
     ------
@@ -576,9 +718,15 @@ def read_prior(path: str | os.PathLike, net_a: Network, net_b: Network, *, kind:
         A row is malformed or a score is non-numeric, NaN, infinite or negative; the message
         names the file and line.
     """
-    table = read_table(path, min_cols=3, max_cols=3, delimiter=delimiter, header=header, what="prior table")
+    table = read_table(path, min_cols=3, max_cols=3, delimiter=delimiter, header=header, what="prior table",
+                       pick=prior_pick(columns))
     return prior_from_columns(table.text(0), table.text(1), table.numeric(2, "score"), net_a, net_b, kind=kind,
                               source=table.source, line_of=table.line_of)
+
+
+def prior_pick(columns: str | None) -> Columns | None:
+    """The :class:`Columns` of the ``prior_columns`` option (None: the table's own three columns)."""
+    return None if columns is None else Columns(columns, "--prior-columns", "prior_columns")
 
 
 def read_pairs(path: str | os.PathLike, net_a: Network, net_b: Network, *, delimiter: str | None = None,
