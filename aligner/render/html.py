@@ -11,9 +11,10 @@ from pathlib import Path
 import numpy as np
 import pandas as pd
 
-from aligner.errors import InvalidParameterError
+from aligner.errors import AlignerError, InvalidParameterError
 from aligner.io.outputs import TRANSFER_TABLE, read_transferred
-from aligner.io.readers import read_network
+from aligner.io.readers import read_network, read_table
+from aligner.render import explorer
 from aligner.render.figures import degree_plot, figure_bytes, histogram, subgraph_drawing, sweep_figure
 
 __all__ = ["build_report", "REPORT_FILE", "MAX_DRAWN_NODES"]
@@ -23,6 +24,28 @@ REPORT_FILE = "report.html"
 #: best-connected node), so the picture stays readable
 MAX_DRAWN_NODES = 150
 TOP_ROWS = 20
+
+#: readable names of summary.json's keys (``parameters``, ``sizes``); the key itself stays in the
+#: row's tooltip, and a key missing here is shown with its underscores as spaces
+LABELS = {
+    "delimiter": "column delimiter (— : detected)", "header": "header line", "directed": "directed (arcs)",
+    "weighted": "edge weights used", "top_k": "candidates per node (top k)", "min_score": "lowest prior score kept",
+    "score_kind": "kind of prior score", "structural": "structural candidates",
+    "structural_weight": "weight of structural similarity", "seed_weight": "weight of the seeds",
+    "alpha": "α, weight of the wiring against the prior", "tol": "diffusion tolerance (1-norm residual)",
+    "solver": "diffusion solver", "normalization": "random-walk normalisation", "rounding": "assignment solver",
+    "refine": "refinement", "beta": "refinement β", "refine_iter": "refinement iterations (cap)",
+    "permutations": "random maps for the p-value", "permutation_seed": "seed of the random maps",
+    "max_memory": "memory budget (GiB; — : half the machine's)",
+    "candidates": "candidate pairs", "coverage_a": "nodes of A with a candidate (share)",
+    "coverage_b": "nodes of B with a candidate (share)", "product_edges": "product-graph edges",
+    "product_edges_estimate": "product-graph edges, bound checked against the memory budget",
+    "matched_pairs": "matched pairs",
+}
+
+
+def _label(key: str) -> str:
+    return LABELS.get(key, key.replace("_", " "))
 
 _CSS = """
 body{font-family:system-ui,-apple-system,"Segoe UI",sans-serif;margin:0;background:#f6f5f1;color:#1d232b}
@@ -66,8 +89,8 @@ def _esc(v) -> str:
 def _fmt(v) -> str:
     if v is None or (isinstance(v, float) and np.isnan(v)):
         return "—"
-    if isinstance(v, bool):
-        return str(v)
+    if isinstance(v, (bool, np.bool_)):
+        return "true" if v else "false"
     if isinstance(v, (int, np.integer)):
         return f"{int(v):,}"
     if isinstance(v, (float, np.floating)):
@@ -76,9 +99,22 @@ def _fmt(v) -> str:
     return str(v)
 
 
-def _kv_table(rows) -> str:
-    body = "".join(f"<tr><th>{_esc(k)}</th><td class='n'>{_esc(_fmt(v))}</td></tr>" for k, v in rows)
+def _kv_table(rows, keys=None) -> str:
+    """A two-column table of (label, value); ``keys``, one per row, go into the label's tooltip."""
+    keys = keys or [None] * len(rows)
+    body = "".join(f"<tr><th{'' if key is None else f' title={_q(key)}'}>{_esc(k)}</th>"
+                   f"<td class='n'>{_esc(_fmt(v))}</td></tr>" for (k, v), key in zip(rows, keys))
     return f"<table>{body}</table>"
+
+
+def _q(v) -> str:
+    return "'" + html.escape(str(v), quote=True) + "'"
+
+
+def _keyed_table(d: dict) -> str:
+    """A summary.json object as a table with readable labels (the keys in the tooltips)."""
+    items = [(k, "yes" if v is True else "no" if v is False else v) for k, v in d.items() if not isinstance(v, dict)]
+    return _kv_table([(_label(k), v) for k, v in items], [k for k, _ in items])
 
 
 def _frame_table(df: pd.DataFrame) -> str:
@@ -148,9 +184,43 @@ class _Run:
     pairs: pd.DataFrame
     conserved: pd.DataFrame
     degree: dict
+    transferred: pd.DataFrame | None = None
+    #: per pair of ``pairs``: True / False when its node of A is in the truth table, else None;
+    #: None for the whole run when no truth table was given or it could not be read
+    truth: list | None = None
+    #: what the page says about the truth column
+    truth_note: str = ""
 
 
-def _load_run(out: Path, network_a, network_b, delimiter: str | None, header: str) -> _Run:
+def _truth_flags(pairs: pd.DataFrame, summary: dict, truth, delimiter, header) -> tuple[list | None, str]:
+    """The true/false flag of each matched pair from the run's truth table (the file summary.json
+    names, or ``truth``), and a sentence for the page. A pair is true when it is a row of the
+    table; a node of A absent from the table gets None (as NC counts only the table's nodes)."""
+    named = (summary.get("inputs") or {}).get("truth")
+    if truth is None and not named:
+        return None, ""
+    src = truth if truth is not None else named.get("source", "")
+    try:
+        tab = read_table(src, min_cols=2, max_cols=64, delimiter=delimiter, header=header, what="truth table")
+    except (AlignerError, OSError) as exc:
+        return None, (f"The run was scored against a truth table ({src}) that cannot be read now ({exc}), so the "
+                      "tables have no true/false column; give it with aligner report --truth.")
+
+    def names(col):
+        c = tab.text(col)
+        return [str(v) for v in (c.to_pylist() if hasattr(c, "to_pylist") else c)]
+
+    a, b = names(0), names(1)
+    known_a, true_pairs = set(a), set(zip(a, b))
+    flags = [None if x not in known_a else (x, y) in true_pairs
+             for x, y in zip(pairs["node_a"].astype(str), pairs["node_b"].astype(str))]
+    n_true = sum(1 for f in flags if f)
+    n_known = sum(1 for f in flags if f is not None)
+    return flags, (f"true: the pair is a row of the truth table {src} ({n_true:,} of the {n_known:,} matched nodes "
+                   "of A that it names; — : the node is not in the table).")
+
+
+def _load_run(out: Path, network_a, network_b, delimiter: str | None, header: str, truth=None) -> _Run:
     need = [out / "summary.json", out / "alignment.tsv", out / "conserved_edges.tsv"]
     missing = [p.name for p in need if not p.is_file()]
     if missing:
@@ -164,9 +234,12 @@ def _load_run(out: Path, network_a, network_b, delimiter: str | None, header: st
         raise InvalidParameterError(f"network B '{network_b}' does not exist")
     try:
         net_a = read_network(src_a, delimiter=delimiter, header=header)
-    except (OSError, FileNotFoundError) as exc:
+    except (OSError, AlignerError) as exc:
         raise InvalidParameterError(f"cannot re-read network A from '{src_a}' ({exc}); give it with --a") from None
-    return _Run(out, summary, pairs, cons, dict(zip(net_a.names.astype(str), net_a.degree.astype(int))))
+    moved = read_transferred(out) if (out / TRANSFER_TABLE).is_file() else None
+    flags, note = _truth_flags(pairs, summary, truth, delimiter, header)
+    return _Run(out, summary, pairs, cons, dict(zip(net_a.names.astype(str), net_a.degree.astype(int))),
+                moved, flags, note)
 
 
 def _inputs_section(summary: dict) -> str:
@@ -180,26 +253,86 @@ def _inputs_section(summary: dict) -> str:
                  ("prior rows / usable pairs", f"{ins['prior']['rows']:,} / {ins['prior']['pairs']:,}")]
     if ins.get("truth"):
         rows.append(("truth table", ins["truth"]["source"]))
-    params = list(summary.get("parameters", {}).items())
-    sizes = list(summary.get("sizes", {}).items())
     return ("<section><h2>Inputs and parameters</h2><div class='grid'><div>" + _kv_table(rows) + "</div><div>"
-            + _kv_table(params) + "</div><div>" + _kv_table(sizes) + "</div></div></section>")
+            + _keyed_table(summary.get("parameters", {})) + "</div><div>" + _keyed_table(summary.get("sizes", {}))
+            + "</div></div></section>")
 
 
-def _scores_section(summary: dict) -> str:
-    sc = summary["scores"]
+def _score_rows(sc: dict) -> list:
     rows = [("conserved edges", sc.get("conserved_edges")), ("EC (edge correctness)", sc.get("ec")),
             ("ICS (induced conserved structure)", sc.get("ics")), ("S3 (symmetric substructure score)", sc.get("s3")),
             ("largest common connected subgraph: nodes", sc.get("lccs_nodes")),
             ("largest common connected subgraph: edges", sc.get("lccs_edges")), ("matched pairs", sc.get("n_matched"))]
     if sc.get("nc") is not None:
         rows.append(("NC (node correctness)", sc.get("nc")))
-    sig_rows = _significance_rows(summary.get("significance"))
-    return ("<section><h2>Scores</h2><div class='grid'><div>" + _kv_table(rows) + "</div><div>"
-            + (_kv_table(sig_rows) if sig_rows else "<p class='note'>no significance in this run</p>")
-            + "<p class='note'>Null 1: a uniformly random one-to-one map between the matched nodes of A and their "
-              "images (exact mean and variance). Null 2: random one-to-one maps using candidate pairs only.</p>"
-              "</div></div></section>")
+    return rows
+
+
+def _scores_section(summary: dict) -> str:
+    sc = summary["scores"]
+    rows = _score_rows(sc)
+    if sc.get("directed"):
+        rows.append(("counted as", "arcs (directed run)"))
+    sig = summary.get("significance") or {}
+    sig_rows = _significance_rows(sig)
+    notes = []
+    if sig.get("random_bijection"):
+        notes.append("Null 1: a uniformly random one-to-one map between the matched nodes of A and their images "
+                     "(exact mean and variance).")
+    if sig.get("candidate_maps"):
+        notes.append("Null 2: random one-to-one maps using candidate pairs only; the p-value counts the maps that "
+                     "conserve at least as many edges as the alignment.")
+    elif sig_rows:
+        notes.append("No random candidate maps were drawn (align --permutations N adds a p-value from them).")
+    if sig.get("skipped"):
+        side = f"<p class='note'>No significance in this run: {_esc(sig['skipped'])}.</p>"
+    elif not sig_rows:
+        side = "<p class='note'>No significance in this run (summary.json holds none).</p>"
+    else:
+        side = _kv_table(sig_rows) + "".join(f"<p class='note'>{_esc(n)}</p>" for n in notes)
+    return ("<section><h2>Scores</h2><div class='grid'><div>" + _kv_table(rows) + "</div><div>" + side
+            + "</div></div></section>")
+
+
+def _weighted_section(summary: dict) -> str:
+    """Conserved weight and weighted EC of a run with --weighted, or nothing."""
+    sc = summary.get("scores") or {}
+    if not (summary.get("parameters") or {}).get("weighted") and "weighted_ec" not in sc:
+        return ""
+    ins = summary.get("inputs") or {}
+    rows = [("conserved weight", sc.get("conserved_weight")), ("weighted EC", sc.get("weighted_ec")),
+            ("total edge weight of A", (ins.get("network_a") or {}).get("total_weight")),
+            ("total edge weight of B", (ins.get("network_b") or {}).get("total_weight"))]
+    return ("<section><h2>Weighted scores</h2>" + _kv_table(rows)
+            + "<p class='note'>The run read the third column of both edge lists as weights (--weighted). Conserved "
+              "weight and weighted EC are defined in docs/method.md; the unweighted scores above count edges.</p>"
+              "</section>")
+
+
+def _seeds_section(summary: dict) -> str:
+    """What the seeds contributed (summary.json's ``seeds``), or nothing for a run without seeds."""
+    seeds = summary.get("seeds")
+    if not seeds:
+        return ""
+    rows = [("seed table", seeds.get("source")), ("rows / distinct seed pairs", f"{_fmt(seeds.get('rows'))} / "
+                                                                             f"{_fmt(seeds.get('pairs'))}"),
+            ("repeated rows merged", seeds.get("repeated_rows_merged")),
+            ("edges among seed nodes in A / in B", f"{_fmt(seeds.get('seed_edges_a'))} / "
+                                                   f"{_fmt(seeds.get('seed_edges_b'))}"),
+            ("conserved edges among seed nodes", seeds.get("conserved_among_seeds"))]
+    parts = ["<section><h2>Seeds</h2><div class='grid'><div>", _kv_table(rows),
+             "<p class='note'>Edges among seed nodes are conserved whatever the aligner does; the scores beside "
+             "leave them out (NC over the truth table's nodes that are not seeds).</p></div>"]
+    without = seeds.get("scores_without_seed_edges")
+    if without:
+        parts += ["<div><h3>Scores without the edges among seeds</h3>", _kv_table(_score_rows(without)), "</div>"]
+    exp = seeds.get("expansion")
+    if exp:
+        rows = [("expansion rounds", exp.get("rounds")), ("provisional pairs", exp.get("provisional_pairs")),
+                ("candidates", exp.get("candidates")),
+                ("accepted per round", ", ".join(_fmt(v) for v in exp.get("accepted_per_round") or []))]
+        parts += ["<div><h3>Expansion from the seeds (no prior)</h3>", _kv_table(rows), "</div>"]
+    return "".join(parts) + "</div></section>"
 
 
 def _sweep_section(out: Path) -> str:
@@ -213,8 +346,12 @@ def _sweep_section(out: Path) -> str:
     cap = f"One point per α from sweep.tsv. Knee: {KNEE_RULE}."
     if knee is not None:
         cap += f" Suggested α = {tab['alpha'].iloc[knee]:g}."
-    return ("<section><h2>Trade-off across α</h2>" + _figure(_png(sweep_figure(tab, knee)), "trade-off curve", cap)
-            + "</section>")
+    cols = [c for c in ("alpha", "conserved_edges", "prior_weight", "ec", "ics", "s3", "nc", "matched_pairs")
+            if c in tab]
+    table = _frame_table(tab[cols].rename(columns={"alpha": "α", "conserved_edges": "conserved edges",
+                                                   "prior_weight": "prior weight", "matched_pairs": "matched pairs"}))
+    return ("<section><h2>Trade-off across α</h2><div class='grid'>"
+            + _figure(_png(sweep_figure(tab, knee)), "trade-off curve", cap) + f"<div>{table}</div></div></section>")
 
 
 def _distributions_section(run: _Run) -> str:
@@ -242,8 +379,11 @@ def _subgraph_section(run: _Run) -> str:
             + _figure(_png(subgraph_drawing(sub, mapping)), "largest conserved subgraph", cap) + "</section>")
 
 
-def _pairs_sections(pairs: pd.DataFrame) -> str:
+def _pairs_sections(pairs: pd.DataFrame, truth: list | None = None) -> str:
     cols = [c for c in ("node_a", "node_b", "score", "prior", "conserved", "confidence") if c in pairs]
+    if truth is not None:
+        pairs = pairs.assign(true=["—" if t is None else "true" if t else "false" for t in truth])
+        cols.append("true")
     key = "confidence" if "confidence" in pairs else "score"
     top = pairs.sort_values([key, "score"], ascending=False, kind="stable").head(TOP_ROWS)[cols]
     low = pairs.sort_values([key, "score"], ascending=True, kind="stable").head(TOP_ROWS)[cols]
@@ -288,7 +428,7 @@ def _transfer_section(out: Path) -> str:
 def _page(out: Path, version: str, sections: list[str]) -> str:
     return ("<!DOCTYPE html><html lang='en'><head><meta charset='utf-8'>"
             "<meta name='viewport' content='width=device-width, initial-scale=1'>"
-            f"<title>aligner report — {_esc(out.name)}</title><style>{_CSS}</style></head><body>"
+            f"<title>aligner report — {_esc(out.name)}</title><style>{_CSS}{explorer.CSS}</style></head><body>"
             f"<header><h1>Alignment report</h1><p>{_esc(out)} · aligner {_esc(version)}</p>"
             "</header><main>" + "".join(sections)
             + "<p class='note' id='page-check'></p><p class='note' id='page-errors'></p></main>" + _CHECK
@@ -296,20 +436,29 @@ def _page(out: Path, version: str, sections: list[str]) -> str:
 
 
 def build_report(outdir, *, network_a=None, network_b=None, delimiter: str | None = None,
-                 header: str = "auto") -> Path:
+                 header: str = "auto", truth=None) -> Path:
     """Write ``outdir/report.html`` from the outputs of a finished run in ``outdir``.
 
     Reads summary.json, alignment.tsv and conserved_edges.tsv (and sweep.tsv when a sweep was
     written there, transferred_edges.tsv when the run wrote it), and re-reads network A from
-    ``summary["inputs"]["network_a"]["source"]`` unless ``network_a`` overrides it (network B is only needed for its size, which the summary
-    holds; ``network_b`` is accepted for symmetry and checked to exist). Figures are PNG, embedded
-    as base64; the page loads no external resource. Returns the path of the page.
+    ``summary["inputs"]["network_a"]["source"]`` unless ``network_a`` overrides it (network B is
+    only needed for its size, which the summary holds; ``network_b`` is accepted for symmetry and
+    checked to exist). With a truth table (``summary["inputs"]["truth"]["source"]``, or ``truth``)
+    the pair tables get a true/false column; when it cannot be read the page says so. Figures are
+    PNG, embedded as base64; every matched pair is embedded as JSON for the searchable table and
+    the focus view (:mod:`aligner.render.explorer`); the page loads no external resource.
+    Returns the path of the page.
     """
     from aligner.io.outputs import write_text_atomic
 
-    run = _load_run(Path(outdir), network_a, network_b, delimiter, header)
-    sections = [_inputs_section(run.summary), _scores_section(run.summary), _sweep_section(run.out),
-                _distributions_section(run), _subgraph_section(run), _pairs_sections(run.pairs),
+    run = _load_run(Path(outdir), network_a, network_b, delimiter, header, truth)
+    data = explorer.pair_data(run.pairs, run.truth, run.conserved, run.transferred, run.degree,
+                              directed=bool((run.summary.get("parameters") or {}).get("directed")))
+    truth_note = run.truth_note or ("No truth table was given, so there is no true/false column."
+                                    if run.truth is None else "")
+    sections = [_inputs_section(run.summary), _scores_section(run.summary), _weighted_section(run.summary),
+                _seeds_section(run.summary), _sweep_section(run.out), explorer.explorer_section(data, truth_note),
+                _distributions_section(run), _subgraph_section(run), _pairs_sections(run.pairs, run.truth),
                 _transfer_section(run.out)]
     path = run.out / REPORT_FILE
     write_text_atomic(path, _page(run.out, run.summary.get("version", ""), [s for s in sections if s]))

@@ -1,9 +1,13 @@
 import base64
+import fcntl
 import json
+import os
 import re
+import select
 import shutil
 import subprocess
 import tempfile
+from html.parser import HTMLParser
 
 import pytest
 from typer.testing import CliRunner
@@ -42,6 +46,11 @@ def _browser():
 def run_dir(tmp_path_factory):
     tmp = tmp_path_factory.mktemp("report")
     a, b, p, t = _write(tmp, n=200)
+    # a truth table with errors and gaps, so the report shows true, false and unknown pairs: the
+    # partners of the first ten nodes rotated, the last five nodes left out
+    truth = pd.read_csv(t, sep="\t", header=None, dtype=str)
+    truth.loc[:9, 1] = truth.loc[:9, 1].tolist()[1:] + truth.loc[:0, 1].tolist()
+    truth.iloc[:-5].to_csv(t, sep="\t", index=False, header=False)
     out = tmp / "out"
     runner = CliRunner()
     r = runner.invoke(app, ["align", str(a), str(b), "-p", str(p), "-o", str(out), "--truth", str(t),
@@ -121,3 +130,309 @@ def test_report_renders_in_headless_browser(run_dir):
     errors = re.search(r'id="page-errors">([^<]*)<', dom)
     assert errors is not None and errors.group(1) == ""
     assert shot.read_bytes()[:8] == b"\x89PNG\r\n\x1a\n" and shot.stat().st_size > 20000
+
+
+# --------------------------------------------------------------------------- the pair table, without a browser
+
+class _PageParser(HTMLParser):
+    """The embedded pair data (the JSON script element) and the header cells of the pair table."""
+
+    def __init__(self):
+        super().__init__()
+        self.data_text, self.heads, self._in = "", [], None
+
+    def handle_starttag(self, tag, attrs):
+        a = dict(attrs)
+        if tag == "script" and a.get("id") == "pair-data":
+            self._in = "data"
+        elif tag == "table" and a.get("id") == "pair-table":
+            self._in = "table"
+        elif tag == "th" and self._in == "table":
+            self._in = "th"
+            self.heads.append("")
+
+    def handle_endtag(self, tag):
+        if tag == "script" and self._in == "data":
+            self._in = None
+        elif tag == "th" and self._in == "th":
+            self._in = "table"
+        elif tag == "table" and self._in == "table":
+            self._in = None
+
+    def handle_data(self, data):
+        if self._in == "data":
+            self.data_text += data
+        elif self._in == "th":
+            self.heads[-1] += data
+
+
+def _page_data(path):
+    parser = _PageParser()
+    parser.feed(path.read_text(encoding="utf-8"))
+    return json.loads(parser.data_text), parser.heads
+
+
+def _truth_pairs(path):
+    t = pd.read_csv(path, sep="\t", header=None, dtype=str)
+    return set(t[0]), set(zip(t[0], t[1]))
+
+
+def test_embedded_pairs_match_the_run(run_dir):
+    data, heads = _page_data(run_dir / "report.html")
+    # reference: alignment.tsv, the file the run wrote (every row, in its order, its columns)
+    pairs = pd.read_csv(run_dir / "alignment.tsv", sep="\t", dtype={"node_a": str, "node_b": str})
+    assert heads == data["columns"] == ["node_a", "node_b", "score", "prior", "conserved", "confidence", "true"]
+    assert len(data["rows"]) == len(pairs)
+    assert [r[0] for r in data["rows"]] == pairs["node_a"].tolist()
+    assert [r[1] for r in data["rows"]] == pairs["node_b"].tolist()
+    assert [r[4] for r in data["rows"]] == pairs["conserved"].tolist()
+    for k, col in ((2, "score"), (3, "prior"), (5, "confidence")):
+        assert [r[k] for r in data["rows"]] == pytest.approx(pairs[col].tolist(), rel=1e-5)
+    # reference: the truth table itself (t.tsv) and summary.json's count of correct nodes
+    summary = json.loads((run_dir / "summary.json").read_text())
+    named, true_pairs = _truth_pairs(summary["inputs"]["truth"]["source"])
+    flags = [r[6] for r in data["rows"]]
+    expect = [None if a not in named else (a, b) in true_pairs for a, b in zip(pairs["node_a"], pairs["node_b"])]
+    assert flags == expect
+    assert flags.count(True) == summary["scores"]["nc_detail"]["correct"]
+    assert flags.count(False) > 0  # the fixture's noisy run has wrong pairs, so both values are checked
+
+
+def test_embedded_edges_match_the_networks(run_dir):
+    # reference: networkx graphs of the input edge lists; every edge among matched nodes is in the
+    # page once, as conserved (in both networks), A only, or B only
+    import networkx as nx
+
+    data, _ = _page_data(run_dir / "report.html")
+    summary = json.loads((run_dir / "summary.json").read_text())
+    read = lambda key: nx.from_pandas_edgelist(pd.read_csv(  # noqa: E731
+        summary["inputs"][key]["source"], sep="\t", header=None, dtype=str), 0, 1)
+    ga, gb = read("network_a"), read("network_b")
+    rows = data["rows"]
+    f = {r[0]: r[1] for r in rows}
+    inv = {r[1]: r[0] for r in rows}
+
+    def named(key):
+        e = data["edges"][key]
+        return {frozenset((rows[e[k]][0], rows[e[k + 1]][0])) for k in range(0, len(e), 2)}
+
+    in_a = {frozenset(e) for e in ga.edges if e[0] in f and e[1] in f}
+    in_b = {frozenset((inv[u], inv[v])) for u, v in gb.edges if u in inv and v in inv}
+    assert named("conserved") == in_a & in_b and len(in_a & in_b) == summary["scores"]["conserved_edges"]
+    assert named("a_only") == in_a - in_b and named("b_only") == in_b - in_a
+    assert len(data["edges"]["conserved"]) // 2 == len(in_a & in_b)  # each edge once
+
+
+def test_report_sections_follow_the_summary(run_dir, tmp_path):
+    page = (run_dir / "report.html").read_text(encoding="utf-8")
+    # readable labels, the raw keys only in tooltips (common practice)
+    assert ">nodes of A with a candidate (share)</th>" in page and ">coverage_a</th>" not in page
+    assert "title='product_edges_estimate'" in page and ">product_edges_estimate<" not in page
+    assert "Null 2: random one-to-one maps" in page  # the fixture ran 10 permutations
+    assert "<h2>Seeds</h2>" not in page and "<h2>Weighted scores</h2>" not in page
+    # the same run without permutations, with seeds and weights (reference: the summary.json edited
+    # as such a run writes it, docs/formats.md)
+    other = tmp_path / "other"
+    shutil.copytree(run_dir, other)
+    summary = json.loads((other / "summary.json").read_text())
+    summary["parameters"]["permutations"] = 0
+    summary["significance"]["candidate_maps"] = None
+    summary["parameters"]["weighted"] = True
+    summary["scores"] |= {"conserved_weight": 123.25, "weighted_ec": 0.4375}
+    summary["seeds"] = {"source": "/somewhere/seeds.tsv", "rows": 11, "pairs": 10, "repeated_rows_merged": 1,
+                        "seed_edges_a": 21, "seed_edges_b": 22, "conserved_among_seeds": 19,
+                        "scores_without_seed_edges": dict(summary["scores"], conserved_edges=4321),
+                        "expansion": None}
+    (other / "summary.json").write_text(json.dumps(summary))
+    page = build_report(other).read_text(encoding="utf-8")
+    assert "Null 2" not in page and "empirical p-value" not in page and "--permutations N" in page
+    assert "<h2>Weighted scores</h2>" in page and "123.25" in page and "0.4375" in page
+    seeds = page[page.index("<h2>Seeds</h2>"):]
+    assert "/somewhere/seeds.tsv" in seeds and "11 / 10" in seeds and "4,321" in seeds
+    # a directed run: the reason the significance was skipped
+    summary["significance"] = {"skipped": "not computed for directed networks: its null model counts undirected edges"}
+    (other / "summary.json").write_text(json.dumps(summary))
+    page = build_report(other).read_text(encoding="utf-8")
+    assert "No significance in this run: not computed for directed networks" in page and "Null 1" not in page
+
+
+def test_report_without_its_truth_file(run_dir, tmp_path):
+    # the truth table named in summary.json is gone: no true/false column, and the page says why
+    other = tmp_path / "moved"
+    shutil.copytree(run_dir, other)
+    summary = json.loads((other / "summary.json").read_text())
+    truth = summary["inputs"]["truth"]["source"]
+    summary["inputs"]["truth"]["source"] = str(tmp_path / "gone.tsv")
+    (other / "summary.json").write_text(json.dumps(summary))
+    data, heads = _page_data(build_report(other))
+    assert "true" not in data["columns"] and "true" not in heads
+    assert "cannot be read now" in (other / "report.html").read_text(encoding="utf-8")
+    # --truth points to it again (reference: the truth table)
+    r = CliRunner().invoke(app, ["report", str(other), "--truth", truth, "-q"])
+    assert r.exit_code == 0, r.output
+    data, _ = _page_data(other / "report.html")
+    named, _ = _truth_pairs(truth)
+    assert data["columns"][-1] == "true" and sum(r[6] is not None for r in data["rows"]) == len(
+        [r for r in data["rows"] if r[0] in named])
+
+
+# --------------------------------------------------------------------------- driving Chromium
+
+class _Chromium:
+    """Chromium driven over its DevTools protocol on a pipe (``--remote-debugging-pipe``: commands
+    are NUL-terminated JSON read from fd 3, answers and events written to fd 4); no extra package."""
+
+    def __init__(self, exe, profile):
+        to_r, self._to_w = os.pipe()
+        self._from_r, from_w = os.pipe()
+        # the child's ends, moved above fd 10 so that placing them at 3 and 4 cannot clobber one another
+        child_in, child_out = (fcntl.fcntl(fd, fcntl.F_DUPFD_CLOEXEC, 10) for fd in (to_r, from_w))
+        os.close(to_r)
+        os.close(from_w)
+
+        def place():  # runs in the child before exec: dup2 clears close-on-exec
+            os.dup2(child_in, 3)
+            os.dup2(child_out, 4)
+
+        args = [exe, "--headless", "--no-sandbox", "--disable-gpu", "--disable-background-networking",
+                "--disable-component-update", "--disable-sync", "--no-first-run", "--remote-debugging-pipe",
+                f"--user-data-dir={profile}", "--window-size=1200,1600", "about:blank"]
+        self.proc = subprocess.Popen(args, stdin=subprocess.DEVNULL, stdout=subprocess.DEVNULL,
+                                     stderr=subprocess.DEVNULL, close_fds=False, preexec_fn=place)
+        os.close(child_in)
+        os.close(child_out)
+        self._buf, self._id, self.session = b"", 0, None
+
+    def send(self, method, params=None, *, session=True):
+        self._id += 1
+        msg = {"id": self._id, "method": method, "params": params or {}}
+        if session and self.session:
+            msg["sessionId"] = self.session
+        os.write(self._to_w, json.dumps(msg).encode() + b"\0")
+        while True:
+            while b"\0" not in self._buf:
+                ready, _, _ = select.select([self._from_r], [], [], 60)  # a hung browser fails the test
+                assert ready, f"no answer from Chromium to {method}"
+                chunk = os.read(self._from_r, 1 << 16)
+                assert chunk, f"Chromium closed the pipe during {method}"
+                self._buf += chunk
+            raw, self._buf = self._buf.split(b"\0", 1)
+            answer = json.loads(raw)
+            if answer.get("id") == self._id:
+                assert "error" not in answer, answer
+                return answer["result"]
+
+    def open(self, url):
+        target = self.send("Target.createTarget", {"url": "about:blank"}, session=False)["targetId"]
+        self.session = self.send("Target.attachToTarget", {"targetId": target, "flatten": True},
+                                 session=False)["sessionId"]
+        self.send("Page.navigate", {"url": url})
+        self.wait_for("document.readyState === 'complete'")
+
+    def js(self, expression):
+        res = self.send("Runtime.evaluate", {"expression": expression, "returnByValue": True})
+        assert "exceptionDetails" not in res, res
+        return res["result"].get("value")
+
+    def wait_for(self, expression, tries=200):
+        for _ in range(tries):
+            if self.js(expression):
+                return
+            select.select([], [], [], 0.05)
+        raise AssertionError(f"never true in the page: {expression}")
+
+    def type_text(self, text):
+        for ch in text:  # one key press per character, as a person types
+            self.send("Input.dispatchKeyEvent", {"type": "keyDown", "text": ch, "key": ch})
+            self.send("Input.dispatchKeyEvent", {"type": "keyUp", "key": ch})
+
+    def click(self, selector):
+        box = self.js(f"(function(){{var e=document.querySelector({json.dumps(selector)});e.scrollIntoView();"
+                      "var r=e.getBoundingClientRect();return [r.left+r.width/2,r.top+r.height/2];})()")
+        for kind in ("mousePressed", "mouseReleased"):
+            self.send("Input.dispatchMouseEvent", {"type": kind, "x": box[0], "y": box[1], "button": "left",
+                                                   "clickCount": 1})
+
+    def screenshot(self, path):
+        path.write_bytes(base64.b64decode(self.send("Page.captureScreenshot", {"format": "png"})["data"]))
+
+    def close(self):
+        try:
+            self.send("Browser.close", session=False)
+            self.proc.wait(timeout=60)
+        finally:
+            if self.proc.poll() is None:
+                self.proc.kill()
+                self.proc.wait()
+            os.close(self._to_w)
+            os.close(self._from_r)
+
+
+@pytest.fixture
+def chromium(tmp_path):
+    exe = _browser()
+    if exe is None:
+        pytest.skip("no Chromium/Chrome on PATH (apt-get install chromium); cannot drive the page")
+    browser = _Chromium(exe, tmp_path / "profile")
+    try:
+        yield browser
+    finally:
+        browser.close()
+
+
+def test_pair_search_and_focus_in_headless_browser(run_dir, chromium, tmp_path):
+    chromium.open((run_dir / "report.html").resolve().as_uri())
+    pairs = pd.read_csv(run_dir / "alignment.tsv", sep="\t", dtype={"node_a": str, "node_b": str})
+    rows = lambda: chromium.js(  # noqa: E731
+        "Array.from(document.querySelectorAll('#pair-table tbody tr')).map(function(t){"
+        "return [t.cells[0].textContent, t.cells[1].textContent]})")
+    # before typing: the first page of rows (reference: alignment.tsv's row count)
+    assert len(rows()) == min(len(pairs), 200)
+    assert chromium.js("document.getElementById('pair-count').textContent").startswith(f"{len(pairs):,} pairs")
+    # type a node name: the rows left are those whose node in A or B contains it (reference: alignment.tsv)
+    name = pairs["node_a"].iloc[len(pairs) // 3]
+    chromium.click("#pair-search")
+    chromium.type_text(name)
+    assert chromium.js("document.getElementById('pair-search').value") == name
+    hits = pairs[pairs["node_a"].str.contains(name, regex=False) | pairs["node_b"].str.contains(name, regex=False)]
+    assert 0 < len(hits) < len(pairs)
+    assert sorted(map(tuple, rows())) == sorted(zip(hits["node_a"], hits["node_b"]))
+    # click the column header "conserved" twice: descending, then ascending (common practice for sortable tables)
+    chromium.click("#pair-table thead th:nth-child(5)")
+    got = [int(v) for v in chromium.js("Array.from(document.querySelectorAll('#pair-table tbody tr'))"
+                                       ".map(function(t){return t.cells[4].textContent})")]
+    assert got == sorted(hits["conserved"], reverse=True)
+    # click the row of the node: the focus view appears with its matched neighbours
+    # (reference: networkx graphs of the input edge lists)
+    import networkx as nx
+
+    summary = json.loads((run_dir / "summary.json").read_text())
+    ga = nx.from_pandas_edgelist(pd.read_csv(summary["inputs"]["network_a"]["source"], sep="\t", header=None,
+                                             dtype=str), 0, 1)
+    gb = nx.from_pandas_edgelist(pd.read_csv(summary["inputs"]["network_b"]["source"], sep="\t", header=None,
+                                             dtype=str), 0, 1)
+    f = dict(zip(pairs["node_a"], pairs["node_b"]))
+    inv = {b: a for a, b in f.items()}
+    image = f[name]
+    nb_a = {v for v in ga[name] if v in f}
+    nb_b = {inv[v] for v in gb[image] if v in inv}
+    assert chromium.js("document.getElementById('focus').hidden") is True
+    chromium.click(f"#pair-table tbody tr[data-row='{pairs.index[pairs['node_a'] == name][0]}']")
+    chromium.wait_for("!document.getElementById('focus').hidden")
+    assert chromium.js("document.getElementById('focus-title').textContent") == f"{name} → {image}"
+    assert len(nb_a | nb_b) <= 40  # every neighbour drawn (the fixture's graph is small)
+    circles = chromium.js("Array.from(document.querySelectorAll('#focus-a circle')).map(function(c){"
+                          "return c.getAttribute('data-row')})")
+    assert sorted(pairs["node_a"].iloc[int(r)] for r in circles) == sorted(nb_a | nb_b | {name})
+    at = lambda svg, cls: chromium.js(  # noqa: E731 -- lines of one class at the chosen node
+        f"document.querySelectorAll('#{svg} line.{cls}[data-u=\"{circles[0]}\"], "
+        f"#{svg} line.{cls}[data-v=\"{circles[0]}\"]').length")
+    conserved, a_only, b_only = nb_a & nb_b, nb_a - nb_b, nb_b - nb_a
+    assert at("focus-a", "e-cons") == at("focus-b", "e-cons") == len(conserved)
+    assert at("focus-a", "e-here") == at("focus-b", "e-missing") == len(a_only)
+    assert at("focus-b", "e-here") == at("focus-a", "e-missing") == len(b_only)
+    assert len(conserved) + len(a_only) + len(b_only) > 0
+    assert chromium.js("document.getElementById('page-errors').textContent") == ""
+    shot = tmp_path / "focus.png"  # pytest's tmp_path, never the repository
+    chromium.screenshot(shot)
+    assert shot.read_bytes()[:8] == b"\x89PNG\r\n\x1a\n"  # PNG signature (PNG specification)
