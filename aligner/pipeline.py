@@ -30,7 +30,7 @@ from aligner import __version__
 from aligner.checks import warn
 from aligner.config import AlignConfig, describe, from_options, with_options
 from aligner.core.candidates import CandidateSet, build_candidates
-from aligner.core.confidence import pair_confidence
+from aligner.core.confidence import matching_confidence
 from aligner.core.diffusion import DiffusionResult, column_scale, diffuse, prior_vector
 from aligner.core.network import Network
 from aligner.core.product import ProductGraph, build_product, estimate_product_edges
@@ -493,6 +493,20 @@ def conserved_frame(net_a: Network, net_b: Network, matched: np.ndarray, cons: n
                             f, cons)
 
 
+def _confidence(problem: Problem, diffusion: DiffusionResult, index: np.ndarray) -> np.ndarray:
+    """The confidence of the matched pairs (:func:`aligner.core.confidence.matching_confidence`):
+    the loss of the refinement's objective at the pair's best 2-exchange, as L / (1 + L)."""
+    cfg, cand = problem.config, problem.candidates
+    net_a, net_b = problem.network_a, problem.network_b
+    if cfg.directed:
+        prod, adj_a, adj_b = (problem.product.symmetrised(), (net_a.out_indptr, net_a.out_indices),
+                              (net_b.out_indptr, net_b.out_indices))
+    else:
+        prod, adj_a, adj_b = problem.product, (net_a.indptr, net_a.indices), (net_b.indptr, net_b.indices)
+    return matching_confidence(prod, cand, diffusion.x, index, beta=cfg.beta, adjacency_a=adj_a,
+                               adjacency_b=adj_b, directed=cfg.directed)
+
+
 def _pairs_frame(problem: Problem, diffusion: DiffusionResult, index: np.ndarray, cons: np.ndarray,
                  names_a, names_b) -> pd.DataFrame:
     net_a, cand = problem.network_a, problem.candidates
@@ -501,7 +515,7 @@ def _pairs_frame(problem: Problem, diffusion: DiffusionResult, index: np.ndarray
     return pd.DataFrame({"node_a": _names_at(names_a, matched[:, 0]), "node_b": _names_at(names_b, matched[:, 1]),
                          "score": diffusion.x[index], "prior": cand.prior[index],
                          "conserved": per_node[matched[:, 0]],
-                         "confidence": pair_confidence(cand, diffusion.x, index)})
+                         "confidence": _confidence(problem, diffusion, index)})
 
 
 def evaluate(problem: Problem, diffusion: DiffusionResult, improvement: Improvement, *,
@@ -560,7 +574,7 @@ def transfer(problem: Problem, diffusion: DiffusionResult, improvement: Improvem
     index = improvement.matching.index
     (ea, wa), (eb, wb) = net_a.scored_edges(cfg.directed), net_b.scored_edges(cfg.directed)
     t = transferred_edges(ea, eb, (net_a.indptr, net_a.indices), (net_b.indptr, net_b.indices),
-                          cand.pairs[index], pair_confidence(cand, diffusion.x, index) if confidence is None
+                          cand.pairs[index], _confidence(problem, diffusion, index) if confidence is None
                           else confidence, diffusion.x[index],
                           net_a.n, net_b.n, directed=cfg.directed, image=image)
     names_a, names_b = _name_column(net_a), _name_column(net_b)
@@ -676,7 +690,8 @@ class AlignmentResult:
     pairs : DataFrame
         One row per matched pair: ``node_a``, ``node_b``, ``score`` (diffusion score), ``prior``
         (prior similarity after the score-kind transformation), ``conserved`` (conserved edges at
-        the pair), ``confidence`` (margin over the best competing candidate).
+        the pair), ``confidence`` (in [0, 1]: how much the matching loses at the pair's best
+        exchange, :func:`aligner.core.confidence.matching_confidence`).
     conserved_edges : DataFrame
         The conserved edges of A (``node_a1``, ``node_a2``) and their images (``node_b1``, ``node_b2``).
     transferred_edges() : DataFrame
