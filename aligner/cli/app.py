@@ -15,6 +15,7 @@ from typer.core import TyperGroup
 
 from aligner import __version__
 from aligner.cli.commands.align import align, score
+from aligner.cli.commands.classes import prior_from_classes
 from aligner.cli.commands.demo import demo
 from aligner.cli.commands.labels import prior_from_labels
 from aligner.cli.commands.query import query
@@ -82,6 +83,7 @@ def main(version: Annotated[bool, typer.Option("--version", callback=_version, i
 for _cmd in (align, score, demo, sweep, query, report, transfer):
     app.command()(_cmd)
 app.command("prior-from-labels")(prior_from_labels)
+app.command("prior-from-classes")(prior_from_classes)
 
 if __name__ == "__main__":  # pragma: no cover
     sys.exit(app())

@@ -1,0 +1,54 @@
+"""The class prior: every pair sharing a class, one score; several classes per node (rows, lists or a
+separator); class table files with a header line or without."""
+
+import pandas as pd
+import pytest
+
+from aligner.errors import InputFormatError, InvalidParameterError
+from aligner.priors.classes import prior_from_classes, read_classes
+
+# hand-worked example: x3 is of classes AVB and DD, y3 of DD and AVA
+#   AVA: {x1, x2} x {y1, y3} = 4 pairs; AVB: x3 x y2 = 1; DD: {x3, x4} x y3 = 2; QQ is in A only
+HAND = [("x1", "y1"), ("x1", "y3"), ("x2", "y1"), ("x2", "y3"), ("x3", "y2"), ("x3", "y3"), ("x4", "y3")]
+A = {"x1": "AVA", "x2": "AVA", "x3": ["AVB", "DD"], "x4": "DD", "x5": "QQ", "x6": None}
+B = {"y1": "AVA", "y2": "AVB", "y3": ["DD", "AVA"]}
+
+
+def _pairs(df):
+    return list(zip(df.node_a, df.node_b))
+
+
+def test_hand_worked_pairs_from_mappings_rows_and_a_separator():
+    p = prior_from_classes(A, B, score=2.5)
+    assert _pairs(p) == HAND and (p.score == 2.5).all() and list(p.columns) == ["node_a", "node_b", "score"]
+    # the same classes as (node, class) rows with repeated nodes, and as one field split at ';'
+    rows_a = [("x1", "AVA"), ("x2", "AVA"), ("x3", "AVB"), ("x3", "DD"), ("x4", "DD"), ("x5", "QQ")]
+    assert _pairs(prior_from_classes(rows_a, pd.DataFrame({"n": ["y1", "y2", "y3"], "c": ["AVA", "AVB",
+                                                                                           "DD ; AVA"]}),
+                                     separator=";")) == HAND
+    # a pair sharing two classes is listed once
+    assert _pairs(prior_from_classes({"u": "P|Q"}, {"v": ["P", "Q"]}, separator="|")) == [("u", "v")]
+
+
+def test_class_files_with_and_without_a_header(tmp_path):
+    a = tmp_path / "a.tsv"
+    a.write_text("node\tclass\nx1\tAVA\nx2\tAVA\nx3\tAVB;DD\n# a comment\nx4\tDD\nx5\tQQ\n")
+    b = tmp_path / "b.csv"
+    b.write_text("y1,AVA\ny2,AVB\ny3,DD\ny3,AVA\n")
+    ca = read_classes(a, separator=";")
+    assert ca.values.tolist() == [["x1", "AVA"], ["x2", "AVA"], ["x3", "AVB"], ["x3", "DD"], ["x4", "DD"],
+                                  ["x5", "QQ"]]
+    assert _pairs(prior_from_classes(str(a), str(b), separator=";")) == HAND
+    # without the separator, 'AVB;DD' is one class of its own, shared with nobody: x3 gets no pair
+    assert _pairs(prior_from_classes(str(a), str(b))) == [p for p in HAND if p[0] != "x3"]
+
+
+def test_errors_name_the_file_and_line(tmp_path):
+    bad = tmp_path / "bad.tsv"
+    bad.write_text("x1\tAVA\nx2\t\nx3\tDD\n")
+    with pytest.raises(InputFormatError, match=r"bad.tsv, line 2: has an empty field"):
+        read_classes(bad)
+    with pytest.raises(InvalidParameterError, match=r"^score must be a number in \(0, inf\)|^score must be"):
+        prior_from_classes(A, B, score=0)
+    with pytest.raises(InvalidParameterError, match=r"classes_a must map each node to a class"):
+        prior_from_classes({"x": 1.5}, B)
