@@ -10,7 +10,8 @@ from __future__ import annotations
 import io
 from typing import Iterable, Mapping
 
-__all__ = ["plot_sweep", "sweep_figure", "figure_bytes", "histogram", "degree_plot", "subgraph_drawing"]
+__all__ = ["plot_sweep", "sweep_figure", "figure_bytes", "histogram", "degree_plot", "subgraph_drawing",
+           "subgraph_labels"]
 
 
 def _pyplot():
@@ -59,26 +60,120 @@ def figure_bytes(fig, formats: Iterable[str] = ("png",)) -> dict[str, bytes]:
     return data
 
 
+def _alpha_groups(xs, ys, ax, min_px: float = 10.0) -> list[list[int]]:
+    """Runs of consecutive points (in α order) lying within ``min_px`` pixels of their run's first
+    point: one label each, so coinciding points do not print their labels on top of one another."""
+    import numpy as np
+
+    pix = ax.transData.transform(np.column_stack([xs, ys]))
+    groups: list[list[int]] = []
+    for i, p in enumerate(pix):
+        if groups and np.hypot(*(p - pix[groups[-1][0]])) <= min_px:
+            groups[-1].append(i)
+        else:
+            groups.append([i])
+    return groups
+
+
+def _alpha_text(alphas) -> str:
+    vals = [f"{a:g}" for a in alphas]
+    if len(vals) == 1:
+        return f"α={vals[0]}"
+    if len(vals) <= 3:
+        return "α=" + ", ".join(vals)
+    return f"α={vals[0]}–{vals[-1]} ({len(vals)})"
+
+
+#: where a point's label may go, in points from the point: right, left, above, below and the
+#: diagonals, then the same farther out
+_OFFSETS = [(dx * k, dy * k) for k in (1, 2.2) for dx, dy in
+            ((6, -4), (6, 4), (-6, -4), (-6, 4), (0, 7), (0, -9), (6, 10), (-6, 10), (6, -14), (-6, -14))]
+
+
+def _place_alpha_labels(fig, ax, xs, ys, labels, anchors, obstacles) -> None:
+    """Annotate each anchor point with its label at the first offset of :data:`_OFFSETS` whose text
+    stays inside the axes and overlaps no label placed before, no point and no ``obstacles``
+    (display-space boxes); failing that, at the offset that overlaps least."""
+    import numpy as np
+
+    renderer = fig.canvas.get_renderer()
+    inside = ax.get_window_extent(renderer).padded(-2)
+    pts = ax.transData.transform(np.column_stack([xs, ys]))
+    r = 4.0 * fig.dpi / 72  # half a marker, in pixels
+    boxes = list(obstacles) + [_box(x - r, y - r, x + r, y + r) for x, y in pts]
+    for text, i in zip(labels, anchors):
+        best = None
+        for dx, dy in _OFFSETS:
+            ha = "left" if dx > 0 else "right" if dx < 0 else "center"
+            va = "bottom" if dy > 0 else "top"
+            ann = ax.annotate(text, (xs[i], ys[i]), textcoords="offset points", xytext=(dx, dy), fontsize=7.5,
+                              color="#333333", ha=ha, va=va)
+            bb = ann.get_window_extent(renderer)
+            out = 0.0 if _contains(inside, bb) else 1e9
+            cost = out + sum(_overlap(bb, o) for o in boxes)
+            if best is None or cost < best[0]:
+                if best is not None:
+                    best[1].remove()
+                best = (cost, ann, bb)
+            else:
+                ann.remove()
+            if cost == 0:
+                break
+        boxes.append(best[2])
+
+
+def _box(x0, y0, x1, y1):
+    from matplotlib.transforms import Bbox
+
+    return Bbox([[x0, y0], [x1, y1]])
+
+
+def _contains(outer, inner) -> bool:
+    return outer.x0 <= inner.x0 and inner.x1 <= outer.x1 and outer.y0 <= inner.y0 and inner.y1 <= outer.y1
+
+
+def _overlap(a, b) -> float:
+    w = min(a.x1, b.x1) - max(a.x0, b.x0)
+    h = min(a.y1, b.y1) - max(a.y0, b.y0)
+    return w * h if w > 0 and h > 0 else 0.0
+
+
 def sweep_figure(table, knee: int | None, *, title: str | None = None):
     """Conserved edges against matched prior weight, one labelled point per alpha, the knee ringed.
 
     ``table`` has the columns ``alpha``, ``prior_weight`` and ``conserved_edges`` (a sweep table);
-    ``knee`` is its row of the knee or None. Returns the matplotlib figure (the caller closes it).
+    ``knee`` is its row of the knee or None. Points that coincide on the page share one label
+    (``α=0.3–0.95 (6)``); each label is placed where it overlaps no other label, point or the
+    legend and stays inside the axes. Returns the matplotlib figure (the caller closes it).
     """
     plt = _pyplot()
     fig, ax = plt.subplots(figsize=(6.4, 4.4), dpi=110)
-    xs, ys = table["prior_weight"].to_numpy(), table["conserved_edges"].to_numpy()
+    xs, ys = table["prior_weight"].to_numpy(dtype=float), table["conserved_edges"].to_numpy(dtype=float)
+    alphas = table["alpha"].to_numpy(dtype=float)
     ax.plot(xs, ys, "-", color="#7a8ca3", lw=1.2, zorder=1)
     ax.scatter(xs, ys, s=28, color="#1f5f8b", zorder=2)
-    for a, px, py in zip(table["alpha"], xs, ys):
-        ax.annotate(f"α={a:g}", (px, py), textcoords="offset points", xytext=(5, -11), fontsize=7.5,
-                    color="#333333")
     if knee is not None:
         ax.scatter([xs[knee]], [ys[knee]], s=190, facecolors="none", edgecolors="#d0542c", linewidths=2,
                    zorder=3, label=f"knee: α = {table['alpha'].iloc[knee]:g}")
         ax.plot([xs[0], xs[-1]], [ys[0], ys[-1]], ":", color="#d0542c", lw=1, zorder=0, label="chord")
+    ax.margins(x=0.14, y=0.14)  # room for the labels of the outermost points
     ax.set_title(title or "Wiring against prior across α", fontsize=10)
-    return _finish(fig, ax, "total prior similarity of the matched pairs", "conserved edges", legend=knee is not None)
+    _finish(fig, ax, "total prior similarity of the matched pairs", "conserved edges", legend=knee is not None)
+    fig.canvas.draw()  # lay out the axes and the legend before measuring where labels fit
+    obstacles = []
+    if knee is not None:  # the ring around the knee (190 points² of marker area: a radius near 8 points)
+        kx, ky = ax.transData.transform((xs[knee], ys[knee]))
+        r = 8.5 * fig.dpi / 72
+        obstacles.append(_box(kx - r, ky - r, kx + r, ky + r))
+    leg = ax.get_legend()
+    if leg is not None:
+        bb = leg.get_window_extent(fig.canvas.get_renderer())
+        leg.set_loc(tuple(ax.transAxes.inverted().transform((bb.x0, bb.y0))))  # keep it where it is
+        obstacles.append(bb)
+    groups = _alpha_groups(xs, ys, ax)
+    _place_alpha_labels(fig, ax, xs, ys, [_alpha_text(alphas[g]) for g in groups], [g[0] for g in groups],
+                        obstacles)
+    return fig
 
 
 def plot_sweep(table, knee: int | None, formats: Iterable[str] = ("png", "svg"), *,
@@ -137,21 +232,42 @@ def degree_plot(pairs, degree: Mapping[str, int]):
     return _finish(fig, ax, "degree of the node in A", "conserved edges at the pair", legend=True)
 
 
+#: a drawing of at most this many nodes labels every node; a larger one only its best-connected
+#: :data:`LABELLED_HUBS` nodes (more labels would cover one another)
+LABEL_ALL_UP_TO = 80
+LABELLED_HUBS = 30
+
+
+def subgraph_labels(sub, mapping: Mapping[str, str]) -> dict:
+    """The labels a drawing of ``sub`` shows: node of A over its partner in B, for every node of a
+    drawing of at most :data:`LABEL_ALL_UP_TO` nodes, else for the :data:`LABELLED_HUBS` nodes of
+    highest degree (ties by name)."""
+    nodes = list(sub.nodes)
+    if len(nodes) > LABEL_ALL_UP_TO:
+        deg = dict(sub.degree)
+        nodes = sorted(nodes, key=lambda v: (-deg[v], str(v)))[:LABELLED_HUBS]
+    return {v: f"{v}\n{mapping.get(v, '')}".rstrip() for v in nodes}
+
+
 def subgraph_drawing(sub, mapping: Mapping[str, str]):
-    """A spring-layout drawing of networkx graph ``sub``; labels (node over partner) up to 60 nodes."""
+    """A spring-layout drawing of networkx graph ``sub``, labelled by :func:`subgraph_labels` in a
+    small font on a light halo (so a label stays legible over the edges)."""
     import networkx as nx
     import numpy as np
 
     plt = _pyplot()
-    fig, ax = plt.subplots(figsize=(9.6, 7.0), dpi=100)
+    fig, ax = plt.subplots(figsize=(9.6, 7.0), dpi=110)
     pos = nx.spring_layout(sub, seed=1, k=1.4 / max(np.sqrt(sub.number_of_nodes()), 1))
     deg = dict(sub.degree)
     nx.draw_networkx_edges(sub, pos, ax=ax, width=0.7, edge_color="#9aa7b5")
     nx.draw_networkx_nodes(sub, pos, ax=ax, node_size=[18 + 9 * deg[v] for v in sub.nodes],
                            node_color="#1f5f8b", linewidths=0)
-    if sub.number_of_nodes() <= 60:
-        labels = {v: f"{v}\n{mapping.get(v, '')}" for v in sub.nodes}
-        nx.draw_networkx_labels(sub, pos, labels=labels, ax=ax, font_size=6)
+    labels = subgraph_labels(sub, mapping)
+    for v, text in labels.items():
+        x, y = pos[v]
+        ax.annotate(text, (x, y), textcoords="offset points", xytext=(0, 5), ha="center", va="bottom",
+                    fontsize=5.5, color="#1d232b", linespacing=0.95,
+                    bbox={"boxstyle": "round,pad=0.12", "fc": "white", "ec": "none", "alpha": 0.7})
     ax.set_axis_off()
     fig.tight_layout()
     return fig

@@ -15,7 +15,8 @@ from aligner.errors import AlignerError, InvalidParameterError
 from aligner.io.outputs import TRANSFER_TABLE, read_transferred
 from aligner.io.readers import read_network, read_table
 from aligner.render import explorer
-from aligner.render.figures import degree_plot, figure_bytes, histogram, subgraph_drawing, sweep_figure
+from aligner.render.figures import (LABEL_ALL_UP_TO, LABELLED_HUBS, degree_plot, figure_bytes, histogram,
+                                    subgraph_drawing, sweep_figure)
 
 __all__ = ["build_report", "REPORT_FILE", "MAX_DRAWN_NODES"]
 
@@ -374,7 +375,8 @@ def _subgraph_section(run: _Run) -> str:
     drawn = sub.number_of_nodes()
     cap = (f"Largest connected component of the conserved edges: {full_n:,} nodes, {full_e:,} edges"
            + (f"; drawn: the {drawn} nodes nearest its best-connected node" if full_n > drawn else "")
-           + ". Labels (when drawn): node of A over its partner in B.")
+           + ". Labels: node of A over its partner in B"
+           + (f", for the {LABELLED_HUBS} best-connected nodes" if drawn > LABEL_ALL_UP_TO else "") + ".")
     return ("<section><h2>Conserved subgraph</h2>"
             + _figure(_png(subgraph_drawing(sub, mapping)), "largest conserved subgraph", cap) + "</section>")
 
