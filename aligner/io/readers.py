@@ -159,6 +159,9 @@ class Columns:
     flag, keyword : str
         The option on the command line and in Python, for messages (``--prior-columns``,
         ``prior_columns``).
+    prefix : tuple of int
+        0-based positions taken before those the option picks (a label table's identifier,
+        column 1, is always taken).
 
     Examples
     --------
@@ -169,11 +172,13 @@ class Columns:
     text: str
     flag: str
     keyword: str
+    prefix: tuple = ()
 
     @property
     def items(self) -> tuple:
-        """0-based positions (int) and header names (str), in the order given."""
-        return tuple(int(t) - 1 if re.fullmatch(r"[0-9]+", t) else t for t in (t.strip() for t in self.text.split(",")))
+        """0-based positions (int) and header names (str), in the order given (after ``prefix``)."""
+        return self.prefix + tuple(int(t) - 1 if re.fullmatch(r"[0-9]+", t) else t
+                                   for t in (t.strip() for t in self.text.split(",")))
 
     @property
     def by_name(self) -> bool:
@@ -217,7 +222,8 @@ class Columns:
                 self._fail(f"has {why} named {item!r} (its columns: {shown}); check {named}", where, path, line)
             found.append(hits[0])
         if len(set(found)) != len(found):
-            self._fail(f"has one column picked twice by {named}; pick different columns", where, path, line)
+            self._fail(f"has one column picked twice by {named}; pick different columns"
+                       + (f" (column {self.prefix[0] + 1} is always taken)" if self.prefix else ""), where, path, line)
         return found
 
     def _fail(self, text: str, where: str | None, path: str | None, line: int | None):

@@ -10,19 +10,27 @@ import typer
 from aligner.cli.options import Force, Quiet, Use, command
 from aligner.cli.runtime import check_inputs, say
 from aligner.config import AlignConfig, LabelConfig
+from aligner.errors import InvalidParameterError
 
 Labels = Annotated[Path, typer.Argument(help="Labels of one network's nodes: identifier, a tab, the label text (a "
                                         "line without a tab: the identifier is its own label); with "
+                                        "--label-columns, a CSV/TSV table of records (identifier first); with "
                                         "--from-networks, an edge list.")]
 OutFile = Annotated[Path, typer.Option("--out", "-o", help="Prior table to write (TSV: node_a, node_b, score).")]
 FromNetworks = Annotated[bool, typer.Option("--from-networks", help="The two arguments are edge lists: the node "
                                             "identifiers themselves are the labels.", metavar="")]
 
 
-def _labels(path: Path, from_networks: bool, config: AlignConfig):
-    """The labels of one side: read from a label file, or a network's identifiers as their own labels."""
-    from aligner.priors.labels import read_labels
+def _labels(path: Path, from_networks: bool, config: AlignConfig, labels: LabelConfig):
+    """The labels of one side: read from a label file or a table of records (the fields of
+    --label-columns joined), or a network's identifiers as their own labels."""
+    from aligner.priors.labels import read_label_table, read_labels
 
+    if labels.label_columns is not None:
+        if from_networks:
+            raise InvalidParameterError("label_columns picks fields of a table of records, but --from-networks "
+                                        "reads edge lists; give one or the other", param="label_columns")
+        return read_label_table(path, labels.label_columns, delimiter=config.delimiter, header=config.header)
     if not from_networks:
         return read_labels(path)
     import pandas as pd
@@ -36,13 +44,14 @@ def _labels(path: Path, from_networks: bool, config: AlignConfig):
 @command(Use(LabelConfig, into="labels"), Use(AlignConfig, ("delimiter", "header")))
 def prior_from_labels(labels_a: Labels, labels_b: Labels, output: OutFile, from_networks: FromNetworks = False,
                       force: Force = False, quiet: Quiet = False, *, labels: LabelConfig, config: AlignConfig):
-    """Build a prior from node names or attribute text: character n-gram TF-IDF cosine similarity."""
+    """Build a prior from node names or attribute text (or records' fields joined, --label-columns): character
+    n-gram TF-IDF cosine similarity."""
     check_inputs(labels_a, labels_b)
     from aligner.io.outputs import write_prior_table
     from aligner.priors.labels import label_prior
     from aligner.render.console import prior_message
 
-    la, lb = _labels(labels_a, from_networks, config), _labels(labels_b, from_networks, config)
+    la, lb = _labels(labels_a, from_networks, config, labels), _labels(labels_b, from_networks, config, labels)
     table = label_prior(la, lb, top_k=labels.top_k, min_similarity=labels.min_similarity)
     path = write_prior_table(table, output, force=force)
     if not quiet:
