@@ -51,7 +51,7 @@ class _Group(TyperGroup):
         except errors.ClickException as exc:  # not a usage error: the framework's own words and status
             exc.show()
             sys.exit(exc.exit_code)
-        except errors.Abort:
+        except typer.Abort:  # typer's name for the framework's abort (Ctrl-C at a prompt, a closed pipe)
             say("interrupted", console=err)
             sys.exit(130)
         # the command ran (None), or an exit was asked for with its status (an int)
