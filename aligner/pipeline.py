@@ -537,6 +537,7 @@ def evaluate(problem: Problem, diffusion: DiffusionResult, improvement: Improvem
     if inputs.seeds is not None:
         seeds = seed_summary(inputs.network_a, inputs.network_b, matched, inputs.seeds,
                              truth=None if inputs.truth is None else inputs.truth.pairs)
+        seeds["source"] = _source(seeds["source"])  # named absolutely, like the other inputs
         expansion = problem.origin.expansion
         seeds["expansion"] = None if expansion is None else expansion.report()
     names_a, names_b = _name_column(inputs.network_a), _name_column(inputs.network_b)
