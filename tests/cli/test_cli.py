@@ -123,11 +123,15 @@ def test_summary_names_inputs_absolutely_so_report_works_from_elsewhere(tmp_path
     ins = json.loads((tmp_path / "out" / "summary.json").read_text())["inputs"]
     for key in ("network_a", "network_b", "prior", "truth"):
         assert Path(ins[key]["source"]).is_absolute() and Path(ins[key]["source"]) == DEMO / f"{key}.tsv"
-    seeded = runner.invoke(app, ["align", "network_a.tsv", "network_b.tsv", "--prior", "prior.tsv", "--seeds",
-                                 "truth.tsv", "-o", str(tmp_path / "seeded"), "-q"])
+    truth = pd.read_csv(DEMO / "truth.tsv", sep="\t", comment="#", header=None, dtype=str).iloc[:, :2]
+    one_to_one = truth.drop_duplicates(0).drop_duplicates(1).iloc[:20]
+    one_to_one.to_csv(tmp_path / "seeds.tsv", sep="\t", header=False, index=False)
+    monkeypatch.chdir(tmp_path)  # the seed file named relatively
+    seeded = runner.invoke(app, ["align", str(DEMO / "network_a.tsv"), str(DEMO / "network_b.tsv"), "--prior",
+                                 str(DEMO / "prior.tsv"), "--seeds", "seeds.tsv", "-o", "seeded", "-q"])
     assert seeded.exit_code == 0, seeded.output
     seeds = json.loads((tmp_path / "seeded" / "summary.json").read_text())["seeds"]
-    assert Path(seeds["source"]) == DEMO / "truth.tsv"
+    assert Path(seeds["source"]) == tmp_path / "seeds.tsv"
     monkeypatch.chdir(tmp_path)
     rep = runner.invoke(app, ["report", str(tmp_path / "out")])
     assert rep.exit_code == 0, rep.output
