@@ -21,7 +21,7 @@ import typer
 
 from aligner.checks import interval_text
 from aligner.cli import app
-from aligner.config import AlignConfig, LabelConfig, QueryConfig, specs
+from aligner.config import AlignConfig, ClassConfig, EngineConfig, LabelConfig, QueryConfig, TransferConfig, specs
 
 ROOT = Path(__file__).resolve().parents[2]
 TARGET = ROOT / "docs" / "commands.md"
@@ -61,13 +61,19 @@ def _default(param) -> str:
     return f"`{param.default}`"
 
 
-def _declared(param):
+#: classes whose fields are also keyword arguments of a Python function (the keyword column)
+KEYWORD_CLASSES = (AlignConfig, QueryConfig, LabelConfig)
+#: every class whose declarations give an option's allowed values
+VALUE_CLASSES = KEYWORD_CLASSES + (ClassConfig, TransferConfig, EngineConfig)
+
+
+def _declared(param, classes=KEYWORD_CLASSES):
     """The :class:`aligner.config.Spec` of the configuration field behind an option, if any.
 
     Options of several classes share a name (``top_k``, ``tol``); the one whose declared default
     is the option's default is taken.
     """
-    found = [spec for cls in (AlignConfig, QueryConfig, LabelConfig)
+    found = [spec for cls in classes
              for name, (default, spec) in specs(cls).items()
              if name == param.name and spec.flag.split("/")[0] == param.opts[0] and default == param.default]
     return found[0] if found else None
@@ -75,7 +81,7 @@ def _declared(param):
 
 def _values(param) -> str:
     """Allowed values, from the option's declaration in aligner.config; else the metavar."""
-    spec = _declared(param)
+    spec = _declared(param, VALUE_CLASSES)
     if getattr(param, "is_flag", False):
         return ""
     if spec is not None and spec.kind == "choice":
