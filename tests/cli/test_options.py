@@ -272,3 +272,17 @@ def test_flags_show_no_value_in_the_help(cmd):
     text = _help(cmd)
     assert "<bool>" not in "\n".join(line for line in text.splitlines() if "--help" not in line
                                      and "completion" not in line)
+
+
+def test_command_reference_page_is_current():
+    # docs/commands.md is written from the typer app by scripts/dev/cli_reference.py; an option
+    # added or changed without rerunning it would leave the page stale (common practice: a
+    # generated document checked against its generator)
+    import subprocess
+    import sys
+    from pathlib import Path
+
+    root = Path(__file__).resolve().parents[2]
+    out = subprocess.run([sys.executable, str(root / "scripts" / "dev" / "cli_reference.py"), "--check"],
+                         capture_output=True, text=True, cwd=root)
+    assert out.returncode == 0, out.stdout + out.stderr
