@@ -496,15 +496,9 @@ def conserved_frame(net_a: Network, net_b: Network, matched: np.ndarray, cons: n
 def _confidence(problem: Problem, diffusion: DiffusionResult, index: np.ndarray) -> np.ndarray:
     """The confidence of the matched pairs (:func:`aligner.core.confidence.matching_confidence`):
     the loss of the refinement's objective at the pair's best 2-exchange, as L / (1 + L)."""
-    cfg, cand = problem.config, problem.candidates
-    net_a, net_b = problem.network_a, problem.network_b
-    if cfg.directed:
-        prod, adj_a, adj_b = (problem.product.symmetrised(), (net_a.out_indptr, net_a.out_indices),
-                              (net_b.out_indptr, net_b.out_indices))
-    else:
-        prod, adj_a, adj_b = problem.product, (net_a.indptr, net_a.indices), (net_b.indptr, net_b.indices)
-    return matching_confidence(prod, cand, diffusion.x, index, beta=cfg.beta, adjacency_a=adj_a,
-                               adjacency_b=adj_b, directed=cfg.directed)
+    cfg = problem.config
+    prod = problem.product.symmetrised() if cfg.directed else problem.product
+    return matching_confidence(prod, problem.candidates, diffusion.x, index, beta=cfg.beta)
 
 
 def _pairs_frame(problem: Problem, diffusion: DiffusionResult, index: np.ndarray, cons: np.ndarray,

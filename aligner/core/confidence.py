@@ -14,8 +14,8 @@ import numpy.typing as npt
 from aligner.core.candidates import CandidateSet
 from aligner.core.product import ProductGraph
 from aligner.core.refine import _matched_counts, normalise_weights
+from aligner.kernels.refine import exchange_losses
 from aligner.kernels.scoring import best_two
-from aligner.kernels.utils import stable_order
 
 __all__ = ["best_competitor", "pair_confidence", "exchange_loss", "matching_confidence"]
 
@@ -69,34 +69,8 @@ def pair_confidence(cand: CandidateSet, x: npt.ArrayLike, index: npt.ArrayLike) 
     return out
 
 
-def _edge_keys(indptr: npt.NDArray[np.integer], indices: npt.NDArray[np.integer], n: int) -> npt.NDArray[np.int64]:
-    """``u * n + v`` for every stored entry (u, v) of a CSR adjacency with sorted rows: sorted."""
-    rows = np.repeat(np.arange(len(indptr) - 1, dtype=np.int64), np.diff(indptr))
-    return rows * n + np.asarray(indices, dtype=np.int64)
-
-
-def _search(keys: npt.NDArray[np.int64], q: npt.NDArray[np.int64], rows: npt.NDArray[np.int64], n_rows: int):
-    """``np.searchsorted(keys, q)`` clipped to a valid position, with the queries taken in the
-    order of ``rows`` (``q // n`` for keys ``row * n + column``): a counting sort, then searches
-    that walk the sorted keys row by row (several times faster than in random order)."""
-    order = stable_order(rows, n_rows)
-    pos = np.empty(len(q), dtype=np.int64)
-    pos[order] = np.searchsorted(keys, q[order])
-    np.minimum(pos, len(keys) - 1, out=pos)
-    return pos
-
-
-def _has(keys: npt.NDArray[np.int64], u: npt.NDArray[np.int64], v: npt.NDArray[np.int64], n: int):
-    """Whether (u[t], v[t]) is stored, for sorted ``keys`` from :func:`_edge_keys` (0/1 floats)."""
-    if not len(keys):
-        return np.zeros(len(u))
-    q = u * n + v
-    return (keys[_search(keys, q, u, n)] == q).astype(np.float64)
-
-
 def exchange_loss(prod: ProductGraph, cand: CandidateSet, w: npt.ArrayLike, index: npt.ArrayLike, *,
-                  beta: float, adjacency_a: tuple, adjacency_b: tuple, directed: bool = False
-                  ) -> npt.NDArray[np.float64]:
+                  beta: float) -> npt.NDArray[np.float64]:
     r"""For each matched pair, the least the refinement's objective falls by a 2-exchange that
     removes it (``inf`` when no such move exists).
 
@@ -115,59 +89,30 @@ def exchange_loss(prod: ProductGraph, cand: CandidateSet, w: npt.ArrayLike, inde
     costs nothing (an interchangeable pair), a large loss means every alternative gives up
     many conserved edges or much weight.
 
-    ``adjacency_a``, ``adjacency_b``: (indptr, indices) with sorted rows, the symmetric
-    adjacency, or with ``directed`` the out-adjacency (``prod`` is then the symmetrised product
-    graph, :meth:`ProductGraph.symmetrised`, whose S_kl counts both directions).
-    O(m log m) vector work over the m candidates plus one pass over the matched pairs'
-    product-graph rows.
+    For directed networks ``prod`` is the symmetrised product graph
+    (:meth:`ProductGraph.symmetrised`), whose S_kl counts both directions, as in the refinement.
+    One compiled pass over the m candidates (:func:`aligner.kernels.refine.exchange_losses`):
+    O(m log d) with d the largest row of the product graph or of the candidates, and no array
+    of m entries beyond f.
     """
     index = np.asarray(index, dtype=np.int64)
-    m, n1, n2 = cand.m, cand.n1, cand.n2
     if not len(index):
         return np.zeros(0)
-    bw = beta * normalise_weights(w)[0]
-    f = bw + _matched_counts(prod, index)
-    pa = cand.pairs[:, 0].astype(np.int64)
-    pb = cand.pairs[:, 1].astype(np.int64)
-    mate_a = np.full(n1, -1, dtype=np.int64)
-    mate_b = np.full(n2, -1, dtype=np.int64)
+    f = beta * normalise_weights(w)[0]
+    f += _matched_counts(prod, index)
+    pa = np.ascontiguousarray(cand.pairs[:, 0], dtype=np.int64)
+    pb = np.ascontiguousarray(cand.pairs[:, 1], dtype=np.int64)
+    mate_a = np.full(cand.n1, -1, dtype=np.int64)
+    mate_b = np.full(cand.n2, -1, dtype=np.int64)
     mate_a[pa[index]] = index
     mate_b[pb[index]] = index
-    out = np.zeros(m, dtype=bool)
-    out[index] = True
-    p = np.flatnonzero(~out)
-    del out
-    ka_all, la_all = mate_a[pa[p]], mate_b[pb[p]]  # k and l of every move (-1: absent)
-    hk, hl = ka_all >= 0, la_all >= 0
-    delta = f[p]
-    delta[hk] -= f[ka_all[hk]]
-    delta[hl] -= f[la_all[hl]]
-    # the moves that swap two partners: q = (j, i') and the terms S_kl, S_pq
-    t = np.flatnonzero(hk & hl)
-    i, jp, k, l = pa[p[t]], pb[p[t]], ka_all[t], la_all[t]
-    j, ip = pa[l], pb[k]
-    ckeys = pa * n2 + pb  # candidates are sorted by (node of A, node of B)
-    qkey = j * n2 + ip
-    qpos = _search(ckeys, qkey, j, n1)
-    hq = ckeys[qpos] == qkey
-    ka = _edge_keys(*adjacency_a, n1)
-    kb = _edge_keys(*adjacency_b, n2)
-    if directed:  # S counts the arcs of both directions (symmetrised product graph)
-        a_ij, a_ji = _has(ka, i, j, n1), _has(ka, j, i, n1)
-        s_kl = a_ij * _has(kb, ip, jp, n2) + a_ji * _has(kb, jp, ip, n2)
-        s_pq = a_ij * _has(kb, jp, ip, n2) + a_ji * _has(kb, ip, jp, n2)
-    else:
-        s_kl = s_pq = _has(ka, i, j, n1) * _has(kb, ip, jp, n2)
-    delta[t] += s_kl + np.where(hq, f[qpos] + s_pq, 0.0)
-    loss = np.full(m, np.inf)
-    np.minimum.at(loss, ka_all[hk], -delta[hk])
-    np.minimum.at(loss, la_all[hl], -delta[hl])
-    return loss[index]
+    loss = np.full(cand.n1, np.inf)  # by node of A: one matched pair each
+    exchange_losses(prod.indptr, prod.indices, cand.a_indptr, pa, pb, f, mate_a, mate_b, loss)
+    return loss[pa[index]]
 
 
 def matching_confidence(prod: ProductGraph, cand: CandidateSet, w: npt.ArrayLike, index: npt.ArrayLike, *,
-                        beta: float, adjacency_a: tuple, adjacency_b: tuple, directed: bool = False
-                        ) -> npt.NDArray[np.float64]:
+                        beta: float) -> npt.NDArray[np.float64]:
     """Confidence of each pair of the final matching, in [0, 1]: L / (1 + L), with L >= 0 the
     pair's :func:`exchange_loss` (clipped at 0; 1 when the pair has no alternative at all).
 
@@ -188,8 +133,7 @@ def matching_confidence(prod: ProductGraph, cand: CandidateSet, w: npt.ArrayLike
     with errors, the default demo and the connectome pair in docs/results.md
     (``scripts/bench/calibration.py``). Deterministic: a fixed sequence of vector operations.
     """
-    loss = exchange_loss(prod, cand, w, index, beta=beta, adjacency_a=adjacency_a, adjacency_b=adjacency_b,
-                         directed=directed)
+    loss = exchange_loss(prod, cand, w, index, beta=beta)
     out = np.ones(len(loss))
     fin = np.isfinite(loss)
     lf = np.maximum(loss[fin], 0.0)

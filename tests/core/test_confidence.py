@@ -81,10 +81,6 @@ from aligner.core.confidence import exchange_loss, matching_confidence  # noqa: 
 from aligner.core.refine import normalise_weights, refine_objective  # noqa: E402
 
 
-def _adjacency(net, directed):
-    return (net.out_indptr, net.out_indices) if directed else (net.indptr, net.indices)
-
-
 def _loss_by_applying_every_move(prod, cand, w, index, beta):
     # Reference: each 2-exchange of the local search applied to the matching and F re-evaluated
     # from scratch with refine_objective (F = beta * w~ + conserved edges), pair by pair.
@@ -126,9 +122,7 @@ def test_exchange_loss_equals_applying_every_move(rng, directed):
         prob = res.problem
         prod = prob.product.symmetrised() if directed else prob.product
         index = res.matching.index
-        got = exchange_loss(prod, prob.candidates, res.diffusion.x, index, beta=prob.config.beta,
-                            adjacency_a=_adjacency(prob.network_a, directed),
-                            adjacency_b=_adjacency(prob.network_b, directed), directed=directed)
+        got = exchange_loss(prod, prob.candidates, res.diffusion.x, index, beta=prob.config.beta)
         want = _loss_by_applying_every_move(prod, prob.candidates, res.diffusion.x, index, prob.config.beta)
         np.testing.assert_allclose(got, want, atol=1e-9)
 
@@ -150,8 +144,7 @@ def _hand_case(beta):
     w = np.array([weight.get(tuple(map(int, p)), 1.0) for p in cand.pairs])
     prod = build_product(indptr, indices, indptr, indices, cand)
     index = np.array([k for k in range(cand.m) if cand.pairs[k, 0] == cand.pairs[k, 1]])
-    adj = (indptr, indices)
-    kw = dict(beta=beta, adjacency_a=adj, adjacency_b=adj)
+    kw = dict(beta=beta)
     return (exchange_loss(prod, cand, w, index, **kw), matching_confidence(prod, cand, w, index, **kw))
 
 
