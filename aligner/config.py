@@ -284,6 +284,16 @@ class EngineConfig(_Config):
 
 
 @dataclass(frozen=True, kw_only=True)
+class OutputConfig(_Config):
+    """What ``aligner align`` writes besides its TSV tables and summary.json."""
+
+    parquet: bool = option(
+        False, "Also write the alignment, conserved-edge and transferred-edge tables as Parquet files (typed "
+        "columns, for dataframe and columnar tools); the TSV files stay, and the other commands read them.",
+        flag="--parquet", group="Output", kind="bool")
+
+
+@dataclass(frozen=True, kw_only=True)
 class TransferConfig(_Config):
     """Which transferred edges ``aligner transfer`` shows and writes (the file of the run lists them all)."""
 

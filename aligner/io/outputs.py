@@ -37,6 +37,8 @@ __all__ = ["OUTPUT_FILES", "SWEEP_TABLE", "PRIOR_COLUMNS", "TRANSFER_TABLE", "TR
 TRANSFER_TABLE = "transferred_edges.tsv"
 #: The files :func:`write_outputs` writes, as one set.
 OUTPUT_FILES = ("alignment.tsv", "conserved_edges.tsv", TRANSFER_TABLE, "summary.json")
+#: The tables' Parquet copies, written with ``parquet=True`` (``aligner align --parquet``).
+PARQUET_FILES = ("alignment.parquet", "conserved_edges.parquet", "transferred_edges.parquet")
 #: What ``aligner transfer`` writes into a run's directory: the rows it selected and printed.
 TRANSFER_SELECTION = "transferred_selected.tsv"
 #: The table :func:`write_sweep_outputs` writes beside its figures.
@@ -368,7 +370,8 @@ def check_outdir(outdir: str | os.PathLike, *, force: bool = False, files=OUTPUT
     if existing and not force:
         them = "them" if len(existing) > 1 else "it"
         raise InvalidParameterError(f"The output directory '{out}' already holds {', '.join(existing)}; "
-                                    f"choose another directory or pass --force (force=True in Python) to replace {them}.")
+                                    "choose another directory or pass --force (force=True in Python) to replace "
+                                    f"{them}.")
     return out
 
 
@@ -381,9 +384,29 @@ def _publish(out: Path, files: dict[str, str | bytes]) -> list[Path]:
     return [out / f for f in files]
 
 
-def write_outputs(outdir: str | os.PathLike, result, *, force: bool = False) -> list[Path]:
+def output_files(parquet: bool = False) -> tuple[str, ...]:
+    """The files :func:`write_outputs` writes (with ``parquet``, the tables' Parquet copies too)."""
+    return OUTPUT_FILES + (PARQUET_FILES if parquet else ())
+
+
+def _parquet_bytes(df: pd.DataFrame, sort_by=None) -> bytes:
+    """A table as Parquet bytes, in the row order of its TSV file (stable sort by ``sort_by``)."""
+    import io
+
+    import pyarrow.parquet as pq
+
+    if sort_by is not None:
+        df = df.sort_values(list(sort_by), kind="stable")
+    buf = io.BytesIO()
+    pq.write_table(pa.Table.from_pandas(df, preserve_index=False), buf)
+    return buf.getvalue()
+
+
+def write_outputs(outdir: str | os.PathLike, result, *, force: bool = False,
+                  parquet: bool = False) -> list[Path]:
     """Write alignment.tsv, conserved_edges.tsv, transferred_edges.tsv and summary.json of an
-    alignment into ``outdir``, as one set.
+    alignment into ``outdir``, as one set; with ``parquet`` also the three tables as Parquet
+    files (``alignment.parquet``, ...: the same rows in the same order, typed columns).
 
     ``result`` is an :class:`~aligner.pipeline.AlignmentResult` (``.pairs``,
     ``.conserved_edges``, ``.transferred_edges()``, ``.summary``); the transferred edges are
@@ -391,12 +414,17 @@ def write_outputs(outdir: str | os.PathLike, result, *, force: bool = False) -> 
     :func:`publish_outputs`), so an interrupted run (Ctrl-C, a killed process) leaves the
     previous outputs or none, never a mix. Other files in ``outdir`` are kept.
     """
-    out = check_outdir(outdir, force=force)
+    out = check_outdir(outdir, force=force, files=output_files(parquet))
     pairs = _table_bytes(result.pairs, sort_by=("node_a", "node_b"))
     cons = _table_bytes(result.conserved_edges, sort_by=("node_a1", "node_a2"))
     moved = _table_bytes(result.transferred_edges())
-    return _publish(out, {"alignment.tsv": pairs, "conserved_edges.tsv": cons, TRANSFER_TABLE: moved,
-                          "summary.json": json_text(result.summary)})
+    files = {"alignment.tsv": pairs, "conserved_edges.tsv": cons, TRANSFER_TABLE: moved,
+             "summary.json": json_text(result.summary)}
+    if parquet:
+        files |= dict(zip(PARQUET_FILES, (_parquet_bytes(result.pairs, ("node_a", "node_b")),
+                                          _parquet_bytes(result.conserved_edges, ("node_a1", "node_a2")),
+                                          _parquet_bytes(result.transferred_edges()))))
+    return _publish(out, files)
 
 
 def write_sweep_outputs(outdir: str | os.PathLike, table: pd.DataFrame, figures: dict[str, bytes], *,

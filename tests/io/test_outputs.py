@@ -8,6 +8,7 @@ for reading back what was written.
 import json
 import math
 import os
+from pathlib import Path
 
 import numpy as np
 import pandas as pd
@@ -128,3 +129,33 @@ def test_check_outdir_names_the_files_asked_about(tmp_path):
     assert check_outdir(out) == out  # an alignment's outputs are not there
     with pytest.raises(InvalidParameterError, match=r"already holds sweep.tsv; choose another directory"):
         check_outdir(out, files=("sweep.tsv",))
+
+
+def test_parquet_copies_hold_the_tsv_tables(tmp_path):
+    # Reference: the TSV files of the same run, read back with pandas; the Parquet copies (read
+    # with pandas.read_parquet, pyarrow's reader) hold the same rows in the same order, with
+    # numeric columns typed. Without --parquet no Parquet file is written.
+    import numpy as np
+    import pandas as pd
+    from typer.testing import CliRunner
+
+    from aligner.cli.app import app
+
+    demo = Path(__file__).resolve().parents[2] / "demo_pairs" / "firefly"
+    args = ["align", str(demo / "network_a.tsv"), str(demo / "network_b.tsv"), "--prior", str(demo / "prior.tsv"),
+            "-q", "--permutations", "0"]
+    res = CliRunner().invoke(app, args + ["-o", str(tmp_path / "pq"), "--parquet"])
+    assert res.exit_code == 0, res.output
+    for stem in ("alignment", "conserved_edges", "transferred_edges"):
+        tsv = pd.read_csv(tmp_path / "pq" / f"{stem}.tsv", sep="\t", keep_default_na=False)
+        par = pd.read_parquet(tmp_path / "pq" / f"{stem}.parquet")
+        assert list(par.columns) == list(tsv.columns) and len(par) == len(tsv) > 0
+        for col in tsv.columns:
+            if tsv[col].dtype.kind in "if":
+                np.testing.assert_allclose(par[col].to_numpy(dtype=float), tsv[col].to_numpy(dtype=float),
+                                           rtol=1e-9)  # the TSV holds 10 significant digits
+            else:
+                assert list(par[col].astype(str)) == list(tsv[col].astype(str)), (stem, col)
+    assert pd.read_parquet(tmp_path / "pq" / "alignment.parquet")["conserved"].dtype.kind == "i"
+    res = CliRunner().invoke(app, args + ["-o", str(tmp_path / "plain")])
+    assert res.exit_code == 0 and not list((tmp_path / "plain").glob("*.parquet"))

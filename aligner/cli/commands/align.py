@@ -10,7 +10,7 @@ import typer
 
 from aligner.cli.options import Force, Json, Out, Prior, Quiet, Seeds, Truth, Use, command
 from aligner.cli.runtime import check_inputs, out, progress, say
-from aligner.config import AlignConfig, EngineConfig
+from aligner.config import AlignConfig, EngineConfig, OutputConfig
 from aligner.errors import InvalidParameterError
 
 NetworkA = Annotated[Path, typer.Argument(help="Edge list of network A (TSV/CSV, optional weight column, may be "
@@ -34,20 +34,20 @@ def check_engine(engine: EngineConfig) -> None:
 
 def run_align(network_a: Path, network_b: Path, prior: Path | None, outdir: Path | None, *, config: AlignConfig,
               truth: Path | None = None, seeds: Path | None = None, force: bool = False, quiet: bool = False,
-              engine: EngineConfig | None = None):
+              engine: EngineConfig | None = None, output: OutputConfig | None = None):
     """Check the inputs and the output directory, align with a progress line, write, print the summary.
 
     Shared by ``align`` and ``demo``; returns the :class:`~aligner.pipeline.AlignmentResult`.
     """
-    engine = engine or EngineConfig()
+    engine, output = engine or EngineConfig(), output or OutputConfig()
     check_inputs(network_a, network_b, prior, truth, seeds)
     check_engine(engine)
-    from aligner.io.outputs import check_outdir, write_outputs
+    from aligner.io.outputs import check_outdir, output_files, write_outputs
     from aligner.pipeline import STAGES, Clock, align
     from aligner.render.console import summary_table
 
     if outdir is not None:
-        check_outdir(outdir, force=force)  # refuse before any work, not after it
+        check_outdir(outdir, force=force, files=output_files(output.parquet))  # refuse before any work
     # the process is ours: measure each stage's own peak memory
     with Clock.owning_process(), progress(quiet, len(STAGES)) as bar:
         if engine.engine == "dask":
@@ -69,7 +69,7 @@ def run_align(network_a: Path, network_b: Path, prior: Path | None, outdir: Path
                 res = align(network_a, network_b, prior, seeds=seeds, truth=truth, config=config,
                             progress=on_stage, permutation_progress=bar.count)
         bar.stage("writing")
-        written = write_outputs(outdir, res, force=force) if outdir is not None else []
+        written = write_outputs(outdir, res, force=force, parquet=output.parquet) if outdir is not None else []
     if not quiet:
         out.print(summary_table(res.summary))
         if written:
@@ -77,14 +77,14 @@ def run_align(network_a: Path, network_b: Path, prior: Path | None, outdir: Path
     return res
 
 
-@command(Use(AlignConfig), Use(EngineConfig, into="engine"))
+@command(Use(AlignConfig), Use(EngineConfig, into="engine"), Use(OutputConfig, into="output"))
 def align(network_a: NetworkA, network_b: NetworkB, outdir: Out, prior: Prior = None, truth: Truth = None,
           seeds: Seeds = None, force: Force = False, quiet: Quiet = False, *, config: AlignConfig,
-          engine: EngineConfig):
+          engine: EngineConfig, output: OutputConfig):
     """Align network A to network B; write alignment.tsv, conserved_edges.tsv, transferred_edges.tsv and
     summary.json to --out."""
     run_align(network_a, network_b, prior, outdir, config=config, truth=truth, seeds=seeds, force=force, quiet=quiet,
-              engine=engine)
+              engine=engine, output=output)
 
 
 @command(Use(AlignConfig, ("delimiter", "header", "directed", "weighted")))
