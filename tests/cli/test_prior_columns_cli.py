@@ -47,3 +47,15 @@ def test_a_wrong_pick_is_one_error_line_with_status_2(tmp_path):
     r = runner.invoke(app, ["align", a, b, "-p", hits, "--prior-columns", "1,2", "-o", str(tmp_path / "r")])
     assert r.exit_code == 2 and "--prior-columns must be three comma-separated columns" in r.output
     assert not (tmp_path / "r").exists()
+
+
+def test_query_reads_the_same_wide_table(tmp_path):
+    # the query takes the prior as align does: a1's best counterpart is b1 (its near-identical hit;
+    # hand-worked from the table above), and its candidates are b1 and b2 (the pairs of the table)
+    a, b, hits = _files(tmp_path)
+    r = runner.invoke(app, ["query", a, b, "-p", hits, "--prior-columns", "query,subject,evalue", "--score-kind",
+                            "evalue", "--node", "a1", "--json"])
+    assert r.exit_code == 0, r.output
+    doc = json.loads(r.output[r.output.index("{"):])  # after the warning about a1-b1's two rows
+    got = [row["counterpart"] for row in doc["queries"][0]["counterparts"]]
+    assert got[0] == "b1" and sorted(got) == ["b1", "b2"]

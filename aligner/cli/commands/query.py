@@ -13,7 +13,7 @@ from aligner.config import AlignConfig, QueryConfig
 from aligner.errors import InvalidParameterError
 
 #: the alignment options a query uses (its tolerance is the query's own)
-QUERY_ALIGN_OPTIONS = ("delimiter", "header", "top_k", "min_score", "score_kind",
+QUERY_ALIGN_OPTIONS = ("delimiter", "header", "prior_columns", "top_k", "min_score", "score_kind",
                        "seed_weight", "alpha", "normalization")
 
 
