@@ -77,6 +77,24 @@ def user_errors(*, quiet: bool = False, flags: Mapping[str, str] | None = None) 
         except KeyboardInterrupt:
             err.print("interrupted; no output was left half-written")
             raise typer.Exit(code=130) from None
+        except SystemError as exc:
+            # Ctrl-C while a compiled kernel is being loaded from numba's cache surfaces as a
+            # SystemError whose cause is the KeyboardInterrupt: an interruption all the same
+            if not _caused_by_interrupt(exc):
+                raise
+            err.print("interrupted; no output was left half-written")
+            raise typer.Exit(code=130) from None
+
+
+def _caused_by_interrupt(exc: BaseException) -> bool:
+    """Whether a KeyboardInterrupt is among the causes (or contexts) of ``exc``."""
+    seen: set[int] = set()
+    while exc is not None and id(exc) not in seen:
+        if isinstance(exc, KeyboardInterrupt):
+            return True
+        seen.add(id(exc))
+        exc = exc.__cause__ or exc.__context__
+    return False
 
 
 class _Stages:

@@ -467,3 +467,26 @@ def test_command_line_mistakes_are_one_error_line_with_status_2(args, says):
     lines = [line for line in res.output.splitlines() if line.strip()]
     assert len(lines) == 1 and re.match(r"^error: .*" + says + r".*; see '.*--help'$", lines[0]), res.output
     assert "╭" not in res.output and "Traceback" not in res.output
+
+
+def test_an_interrupt_wrapped_by_a_library_is_still_an_interruption():
+    # Seen in the kill test: Ctrl-C while numba loads a kernel from its cache surfaces as a
+    # SystemError caused by the KeyboardInterrupt; the command line treats it as Ctrl-C (status
+    # 130, one line, no traceback). Common practice: exit 128 + SIGINT for an interrupted run.
+    import typer
+
+    from aligner.cli.runtime import user_errors
+
+    def loading():
+        try:
+            raise KeyboardInterrupt
+        except KeyboardInterrupt as exc:
+            raise SystemError("returned a result with an exception set") from exc
+
+    with pytest.raises(typer.Exit) as stop:
+        with user_errors():
+            loading()
+    assert stop.value.exit_code == 130
+    with pytest.raises(SystemError):  # any other SystemError is not swallowed
+        with user_errors():
+            raise SystemError("something else")
