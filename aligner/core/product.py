@@ -64,6 +64,9 @@ class ProductGraph:
         """
         if not self.directed:
             return ProductGraph(self.indptr, self.indices)
+        built = self.__dict__.get("_symmetrised")  # made once: refinement and confidence both use it
+        if built is not None:
+            return built
         m = self.m
         rows = np.repeat(np.arange(m, dtype=np.int64), self.degree)
         src = np.concatenate([rows, self.indices.astype(np.int64)])
@@ -71,7 +74,9 @@ class ProductGraph:
         order = np.lexsort((dst, src))
         indptr = np.zeros(m + 1, dtype=np.int64)
         np.cumsum(np.bincount(src, minlength=m), out=indptr[1:])
-        return ProductGraph(indptr, dst[order].astype(np.int32))
+        built = ProductGraph(indptr, dst[order].astype(np.int32))
+        object.__setattr__(self, "_symmetrised", built)
+        return built
 
     @property
     def degree(self) -> npt.NDArray[np.int64]:

@@ -10,13 +10,13 @@ ranks them by how much of the evidence the alignment already holds agrees with t
     support = confidence_1 * confidence_2 * (1 + triangles)
 
 ``confidence_1`` and ``confidence_2`` are the confidences of the two end pairs
-(:func:`aligner.core.confidence.pair_confidence`, in [0, 1]: the product discounts the
-prediction by how clearly both end pairs beat their competitors, since it is wrong as soon as
-either end is); ``triangles`` counts the matched pairs (w, w') with w a common neighbour of the
+(:func:`aligner.core.confidence.matching_confidence`, in [0, 1]: how much the matching would lose
+by giving the pair up; the product discounts the prediction by how firmly both end pairs are
+held, since it is wrong as soon as either end is); ``triangles`` counts the matched pairs (w, w') with w a common neighbour of the
 two ends in A and w' a common neighbour of the two ends in B, i.e. the conserved triangles the
 carried edge would close. The edge itself is one line of evidence, each conserved two-step path
 between the same two pairs another. Ties are broken by the conserved triangles (more first: a
-support of 0, from an end pair with a competitor as strong, says nothing of the wiring), then by
+support of 0, from an end pair exchangeable at no loss, says nothing of the wiring), then by
 the smaller diffusion score of the two end pairs (higher first), then the direction (A to B
 first) and the node numbers (which follow the names' sorted order).
 

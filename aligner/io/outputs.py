@@ -395,7 +395,7 @@ def _parquet_bytes(df: pd.DataFrame, sort_by=None) -> bytes:
 
     import pyarrow.parquet as pq
 
-    if sort_by is not None:
+    if sort_by is not None and not _in_order(df, sort_by):
         df = df.sort_values(list(sort_by), kind="stable")
     buf = io.BytesIO()
     pq.write_table(pa.Table.from_pandas(df, preserve_index=False), buf)

@@ -293,7 +293,8 @@ def explorer_section(data: dict, truth_note: str) -> str:
 
     titles = {"node_a": "node in A", "node_b": "its partner in B", "score": "diffusion score",
               "prior": "prior similarity", "conserved": "conserved edges at the pair",
-              "confidence": "(x − best competitor) / x, clipped at 0", "true": "the pair is in the truth table"}
+              "confidence": "L / (1 + L), L what the matching loses at the pair's best exchange",
+              "true": "the pair is in the truth table"}
     head = "".join(f"<th title='{html.escape(titles.get(c, c))}'>{html.escape(c)}</th>" for c in data["columns"])
     missing = ("" if data["edges"]["a_only"] is not None else
                " This run has no transferred_edges.tsv, so only conserved edges are drawn.")

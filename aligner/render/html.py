@@ -361,7 +361,8 @@ def _distributions_section(run: _Run) -> str:
                     "score histogram", "Diffusion scores of the matched pairs.")]
     if "confidence" in pairs:
         figs.append(_figure(_png(histogram(pairs["confidence"], "confidence", "#6a8d3a")), "confidence histogram",
-                            "Confidence: (x − best competitor) / x, clipped at 0."))
+                            "Confidence: L / (1 + L), L what the matching loses at the pair's best exchange "
+                            "(0: the pair could be exchanged at no loss)."))
     figs.append(_figure(_png(degree_plot(pairs, run.degree)), "conserved edges against degree",
                         "Each matched pair: its node's degree in A against its conserved edges."))
     return "<section><h2>Distributions</h2><div class='grid'>" + "".join(figs) + "</div></section>"

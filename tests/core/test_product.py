@@ -184,3 +184,15 @@ def test_estimate_equals_its_formula():
     i, ip = cand.pairs[:, 0], cand.pairs[:, 1]
     want = np.minimum(reach[i], np.diff(ia)[i] * np.diff(ib)[ip]).sum()
     assert estimate_product_edges(ia, xa, ib, cand) == want > 0
+
+
+def test_symmetrised_pattern_is_built_once():
+    import pandas as pd
+
+    import aligner
+
+    # refinement and the confidence both ask a directed product graph for S + S^T: built once,
+    # the same object the second time (its entries checked against scipy in the tests above)
+    ga, gb = nx.gnp_random_graph(8, 0.4, seed=1, directed=True), nx.gnp_random_graph(8, 0.4, seed=2, directed=True)
+    prod = aligner.align(ga, gb, pd.DataFrame({"a": range(8), "b": range(8), "s": 1.0}), directed=True).product
+    assert prod.directed and prod.symmetrised() is prod.symmetrised()
