@@ -232,6 +232,13 @@ class QueryConfig(_Config):
                         closed="neither")
     max_pushes: int | None = option(None, "Cap on the pushes of one query (None: no cap).", flag="--max-pushes",
                                     group="Query", kind="int", low=0, optional=True)
+    answer: bool = option(
+        True, "Also give the counterpart the global assignment would choose, solved on a region around the "
+        "node, with whether it is certified.", flag="--answer/--no-answer", group="Query", kind="bool")
+    max_region_pairs: int = option(
+        10_000, "Cap on the candidate pairs of an answer's region: it grows a layer at a time until the answer "
+        "is certified or the next layer would pass the cap.", flag="--max-region-pairs", group="Query",
+        kind="int", low=1)
 
 
 @dataclass(frozen=True, kw_only=True)

@@ -30,13 +30,16 @@ from aligner.config import NORMALIZATIONS, SIDES, AlignConfig, QueryConfig, desc
 from aligner.pipeline import prepare
 from aligner.priors.seeds import SeedTable, seed_index, seed_vector
 
-__all__ = ["query", "QueryEngine", "QueryResult", "LocalSolution", "DEFAULT_QUERY_TOL", "SIDES"]
+__all__ = ["query", "ANSWER_COLUMNS", "QueryEngine", "QueryResult", "LocalSolution", "DEFAULT_QUERY_TOL", "SIDES"]
 
 #: Default push tolerance of a query, relative to the mass of its h (which is 1): an entry is
 #: pushed while its residual exceeds tol * deg_S, so every score is certified to within
 #: tol * deg_S / (1 - alpha) (see :class:`LocalSolution`).
 DEFAULT_QUERY_TOL = QueryConfig.tol
 TABLE_COLUMNS = ["query", "side", "rank", "counterpart", "score", "error_bound", "prior", "support", "fixed"]
+#: columns of :attr:`QueryResult.answers`
+ANSWER_COLUMNS = ["query", "side", "counterpart", "certified", "margin", "score", "runner_up", "rival", "fixed",
+                  "region_rows", "region_pairs", "layers", "pairs_touched", "pushes", "seconds"]
 WORK_COLUMNS = ["query", "side", "candidates", "seeds_near", "excluded_by_seeds", "pairs_touched", "pairs_expanded",
                 "degrees_counted", "product_edges_scanned", "search_probes", "pushes", "residual_l1", "eps",
                 "seconds"]
@@ -170,6 +173,7 @@ class QueryEngine:
         self._deg_b = net_b.degree.astype(np.int64)
         self._seed_idx = np.empty(0, dtype=np.int64) if seeds is None else seed_index(cand, seeds)
         self._h = seed_vector(cand.prior, self._seed_idx, self.seed_weight)
+        self._answer_index = None
         self._mate_a = np.full(cand.n1, -1, dtype=np.int64)
         self._mate_b = np.full(cand.n2, -1, dtype=np.int64)
         if seeds is not None and seeds.n:
@@ -183,6 +187,18 @@ class QueryEngine:
         return cls(problem.network_a, problem.network_b, problem.candidates, alpha=cfg.alpha, tol=q.tol,
                    normalization=cfg.normalization, seeds=problem.inputs.seeds, seed_weight=cfg.seed_weight,
                    max_pushes=q.max_pushes)
+
+    def answer(self, node: int, side: str = "a", *, max_pairs: int | None = None):
+        """The counterpart the global assignment gives ``node``, solved on a region around it, with
+        whether it is certified (:func:`aligner.analysis.answer.answer`). The first call builds the
+        engine's :class:`~aligner.analysis.answer.AnswerIndex` (one pass over the product graph's
+        rows, counted and not stored), which every later answer shares."""
+        from aligner.analysis.answer import DEFAULT_MAX_PAIRS, AnswerIndex, answer
+
+        if self._answer_index is None:
+            self._answer_index = AnswerIndex(self)
+        return answer(self, self._answer_index, node, check_choice(side, "side", SIDES),
+                      max_pairs=DEFAULT_MAX_PAIRS if max_pairs is None else max_pairs)
 
     def warm_up(self) -> None:
         """Load (or compile) the push kernel, so that the first query's timing is its own."""
@@ -321,12 +337,24 @@ class QueryResult:
         expanded, product edges scanned, binary-search probes, pushes, final residual, eps and
         seconds.
     summary : dict
-        Parameters and sizes, plus ``queries``: the same figures as JSON-ready records.
+        Parameters and sizes, plus ``queries``: the same figures as JSON-ready records (with an
+        ``answer`` record each when answers were asked for).
+    answers : DataFrame
+        One row per asked node (with ``answer`` on): ``counterpart``, the node the global
+        assignment of the diffusion scores gives it as solved on a region around it (None:
+        unmatched); ``certified``, whether every maximum-weight assignment of the exact scores
+        provably agrees (:func:`aligner.analysis.answer.certify`); ``margin``, the certificate's
+        least exchange cost in score units (> 0 when certified); ``score``, the pair's point
+        estimate; ``runner_up`` (the node's best other counterpart) and ``rival`` (the best other
+        claimant of the counterpart), by point estimate; ``fixed`` (a seed pair); the work:
+        ``region_rows``, ``region_pairs``, ``layers``, ``pairs_touched`` (held by its push),
+        ``pushes``, ``seconds``.
     """
 
     table: pd.DataFrame
     work: pd.DataFrame
     summary: dict = field(default_factory=dict)
+    answers: pd.DataFrame = field(default_factory=lambda: pd.DataFrame(columns=ANSWER_COLUMNS))
 
     def as_dict(self) -> dict:
         return self.summary
@@ -365,6 +393,18 @@ def _split_options(config, query_config, options: dict) -> tuple[AlignConfig, Qu
     return cfg, from_options(QueryConfig, query_config, own)
 
 
+def _answer_row(name: str, side: str, got, own_names, other_names) -> dict:
+    """One row of the answers table from an :class:`aligner.analysis.answer.Answer`."""
+    def other(i):
+        return str(other_names[i]) if i >= 0 else None
+
+    return {"query": name, "side": side, "counterpart": other(got.counterpart), "certified": got.certified,
+            "margin": got.margin, "score": got.score, "runner_up": other(got.runner_up),
+            "rival": str(own_names[got.rival]) if got.rival >= 0 else None, "fixed": got.fixed,
+            "region_rows": got.rows, "region_pairs": got.pairs, "layers": got.layers,
+            "pairs_touched": got.pairs_touched, "pushes": got.pushes, "seconds": round(got.seconds, 6)}
+
+
 def _answer(engine: QueryEngine, name: str, node: int, qcfg: QueryConfig, other_names) -> tuple:
     """One asked node's table, work figures and JSON record."""
     side = qcfg.side
@@ -380,7 +420,7 @@ def _answer(engine: QueryEngine, name: str, node: int, qcfg: QueryConfig, other_
     return tab, {"query": name, "side": side} | work, record
 
 
-@with_options(QueryConfig, AlignConfig, names=("side", "top", "tol", "max_pushes", "alpha", "top_k", "min_score", "score_kind", "normalization", "seed_weight", "delimiter", "header"))
+@with_options(QueryConfig, AlignConfig, names=("side", "top", "tol", "max_pushes", "answer", "max_region_pairs", "alpha", "top_k", "min_score", "score_kind", "normalization", "seed_weight", "delimiter", "header"))
 def query(network_a, network_b, prior=None, *, nodes, seeds=None, config: AlignConfig | None = None,
           query: QueryConfig | None = None, **options: Any) -> QueryResult:
     """Which nodes of B best correspond to these nodes of A (or the reverse), without a global solve.
@@ -425,6 +465,19 @@ def query(network_a, network_b, prior=None, *, nodes, seeds=None, config: AlignC
     answers = [_answer(engine, name, node, qcfg, other_names) for name, node in zip(nodes, asked)]
     tables, works, records = zip(*answers)
     table = pd.concat(tables, ignore_index=True)[TABLE_COLUMNS]
+    own_names = net_a.names if qcfg.side == "a" else net_b.names
+    index_seconds = None
+    rows = []
+    if qcfg.answer:
+        t1 = time.perf_counter()
+        engine.answer(asked[0], qcfg.side, max_pairs=1)  # builds the shared index; timed apart
+        index_seconds = time.perf_counter() - t1
+        for name, node, record in zip(nodes, asked, records):
+            got = engine.answer(node, qcfg.side, max_pairs=qcfg.max_region_pairs)
+            row = _answer_row(name, qcfg.side, got, own_names, other_names)
+            record["answer"] = {k: v for k, v in row.items() if k not in ("query", "side")}
+            rows.append(row)
+    answer_table = pd.DataFrame(rows, columns=ANSWER_COLUMNS)
     summary = {
         "parameters": {"side": qcfg.side, "top": qcfg.top, "alpha": cfg.alpha, "tol": qcfg.tol, "top_k": cfg.top_k,
                        "min_score": cfg.min_score, "score_kind": cfg.score_kind, "normalization": cfg.normalization,
@@ -432,9 +485,10 @@ def query(network_a, network_b, prior=None, *, nodes, seeds=None, config: AlignC
         "sizes": {"nodes_a": net_a.n, "nodes_b": net_b.n, "candidates": problem.candidates.m,
                   "seeds": 0 if problem.inputs.seeds is None else problem.inputs.seeds.n},
         "preparation_seconds": round(prep, 4),
+        "answer_index_seconds": None if index_seconds is None else round(index_seconds, 4),
         "queries": list(records),
     }
-    return QueryResult(table=table, work=pd.DataFrame(list(works)), summary=_jsonable(summary))
+    return QueryResult(table=table, work=pd.DataFrame(list(works)), summary=_jsonable(summary), answers=answer_table)
 
 
 query.__doc__ = query.__doc__.format(options=describe(QueryConfig) + "\n" + describe(

@@ -192,12 +192,28 @@ def query_tables(summary: Mapping, *, side: str) -> list[tuple[Table, str]]:
             t.add_row(str(row["rank"]), escape(str(row["counterpart"])), f"{row['score']:.6f}",
                       f"{row['error_bound']:.1e}", f"{row['prior']:.4g}", f"{row['support']:,}",
                       "fixed" if row["fixed"] else "")
+        if rec.get("answer"):
+            t.caption = _answer_line(rec["answer"])
         w = rec["work"]
         work = (f"  {w['candidates']} candidates · {w['pairs_touched']:,} pairs touched · "
                 f"{w['product_edges_scanned']:,} product edges scanned · {w['pushes']:,} pushes · "
                 f"{1000 * w['seconds']:.1f} ms")
         shown.append((t, work))
     return shown
+
+
+def _answer_line(ans: Mapping) -> str:
+    """The answer of a query in one line: the global assignment's counterpart, and how sure."""
+    if ans["counterpart"] is None:
+        return "global assignment: no counterpart (unmatched in the region's assignment)"
+    if ans["fixed"]:
+        return f"global assignment: {escape(ans['counterpart'])} (a seed pair)"
+    how = (f"certified, margin {ans['margin']:.2g}" if ans["certified"] else
+           "not certified" + (f", margin {ans['margin']:.2g}" if ans["margin"] is not None else ""))
+    others = [f"{label} {escape(str(ans[key]))}" for key, label in (("runner_up", "runner-up"), ("rival", "rival"))
+              if ans[key] is not None]
+    return (f"global assignment: {escape(ans['counterpart'])} ({how}; " + ", ".join(others + [
+        f"region {ans['region_rows']:,} nodes, {ans['region_pairs']:,} pairs"]) + ")")
 
 
 def transfer_table(rows) -> Table:
