@@ -236,7 +236,7 @@ class QueryConfig(_Config):
         True, "Also give the counterpart the global assignment would choose, solved on a region around the "
         "node, with whether it is certified.", flag="--answer/--no-answer", group="Query", kind="bool")
     max_region_pairs: int = option(
-        10_000, "Cap on the candidate pairs of an answer's region: it grows a layer at a time until the answer "
+        6_000, "Cap on the candidate pairs of an answer's region: it grows a layer at a time until the answer "
         "is certified or the next layer would pass the cap.", flag="--max-region-pairs", group="Query",
         kind="int", low=1)
 

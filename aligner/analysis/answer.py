@@ -49,11 +49,22 @@ from aligner.kernels.query import _local_push, _reset_slots
 
 __all__ = ["AnswerIndex", "Answer", "answer", "certify", "score_bounds", "DEFAULT_MAX_PAIRS"]
 
-#: default cap on the candidate pairs of an answer's region (and on the pairs its push holds,
-#: times four): about 1 % of the candidates of a 10^5-node pair with 11 candidates per node
-DEFAULT_MAX_PAIRS = 10_000
+#: default cap on the candidate pairs of an answer's region (its push holds few more): about
+#: 0.5 % of the candidates of a 10^5-node pair with 11 candidates per node
+DEFAULT_MAX_PAIRS = 6_000
+#: share of the background level beta deg_S the point estimate adds to what the push reached
+#: (measured by scripts/bench/bench_answer.py on both families at 10^5: 0.25 to 0.75 agree as
+#: often, 0 and 1.5 less often; the certificate never uses it)
+BACKGROUND = 0.5
 #: push threshold of an answer, per product-graph neighbour, relative to the background level beta
 ANSWER_TOL = 0.5
+#: how far the competition that decides an answer is followed: exchange-graph distances up to
+#: this multiple of the answer's score (see :func:`answer`)
+REACH = 1.0
+#: at most this many of those rows, the nearest, open the region's edge at each step
+NEAREST = 8
+#: and, on each of their columns at the edge, the rows outside with the largest h on it join
+TOP_COMPETITORS = 3
 
 
 class AnswerIndex:
@@ -173,6 +184,21 @@ def _exchange_graph(rows, cols, lo, hi, boundary, n_rows, mate_row, mate_col):
     src, dst, w = src[first], dst[first], w[first]
     graph = sp.csr_matrix((w, (src, dst)), shape=(n_rows + 2, n_rows + 2))
     return graph, src, dst, w
+
+
+def _near_rows(rows, cols, estimate, boundary, n_rows, mate_row, mate_col, asked, radius):
+    """Rows whose exchange-graph distance from or to the asked row, on the point estimates, is at
+    most ``radius``: where a change of the scores would reach the asked row's pair."""
+    graph = _exchange_graph(rows, cols, estimate, estimate, boundary, n_rows, mate_row, mate_col)[0]
+    graph = graph[:n_rows, :n_rows]  # rows only: no source, no sink
+    try:
+        out = shortest_path(graph, method="BF", directed=True, indices=asked)
+        back = shortest_path(graph.T.tocsr(), method="BF", directed=True, indices=asked)
+    except NegativeCycleError:  # the estimates' matching is optimal; ties in float only
+        return np.arange(n_rows)
+    dist = np.minimum(out, back)
+    near = np.flatnonzero(dist <= radius)
+    return near[np.argsort(dist[near], kind="stable")[:NEAREST]]
 
 
 def certify(rows, cols, lo, hi, boundary, asked: int, mate_row, mate_col) -> tuple[bool, float]:
@@ -300,33 +326,17 @@ def _free_pairs(sides: _Sides, pairs):
     return pairs[keep]
 
 
-def _region(sides: _Sides, node: int, max_pairs: int):
-    """Region layers around ``node``: yields (layer, rows, pairs), rows sorted.
-
-    Layer 1 is the node and every node with a candidate on one of its columns; each next
-    layer adds the nodes with a candidate on a column the region reaches. Stops when the region
-    is closed (no node outside has a candidate on its columns) or the next layer would hold
-    more than ``max_pairs`` pairs (layer 1 is always given).
-    """
-    rows = np.array([node], dtype=np.int64)
-    pairs = _free_pairs(sides, sides.pairs_of_rows(rows))
-    layer = 0
-    while True:
-        cols = np.unique(sides.col_of[pairs])
-        grown = np.union1d(rows, sides.row_of[_free_pairs(sides, sides.pairs_of_cols(cols))])
-        more = _free_pairs(sides, sides.pairs_of_rows(grown))
-        if layer and (len(grown) == len(rows) or len(more) > max_pairs):
-            return
-        rows, pairs, layer = grown, np.sort(more), layer + 1
-        yield layer, rows, pairs
-
-
 def answer(engine, index: AnswerIndex, node: int, side: str = "a", *,
-           max_pairs: int = DEFAULT_MAX_PAIRS, tol: float = ANSWER_TOL) -> Answer:
+           max_pairs: int = DEFAULT_MAX_PAIRS, tol: float = ANSWER_TOL, reach: float = REACH) -> Answer:
     """The counterpart the global assignment gives ``node``, from a region around it.
 
-    Grows the region a layer at a time (:func:`_region`) until the answer is certified or the
-    next layer would hold more than ``max_pairs`` candidate pairs. See the module docstring.
+    The region starts as the node and every node with a candidate on one of its columns; it then
+    grows where the competition that decides the node's pair lies, until the answer is
+    certified, no such competition is left at the region's edge, or the next region would hold
+    more than ``max_pairs`` candidate pairs. Where the competition lies: the region's rows
+    whose exchange-graph distance to or from the asked row (on the point estimates) is at most
+    ``reach`` times the answer's score; the nodes outside with a candidate on one of their
+    columns join. See the module docstring.
     """
     t0 = time.perf_counter()
     sides = _Sides(engine, side)
@@ -334,29 +344,58 @@ def answer(engine, index: AnswerIndex, node: int, side: str = "a", *,
     if mate_self >= 0:  # a seed pair: fixed in align's matching
         other = int(sides.col_of[mate_self])
         return Answer(other, True, np.inf, float("nan"), -1, -1, True, 1, 1, 0, 0, 0, time.perf_counter() - t0)
-    result = None
-    for layer, rows, pairs in _region(sides, node, max_pairs):
-        result = _solve_region(engine, index, sides, node, rows, pairs, tol, max_pairs)
-        result = result | {"layers": layer}
-        if result["certified"] or not len(pairs):
+    own = np.unique(sides.col_of[_free_pairs(sides, sides.pairs_of_rows(np.array([node], dtype=np.int64)))])
+    rows = np.union1d([node], _competitors(sides, own))
+    pairs = _free_pairs(sides, sides.pairs_of_rows(rows))
+    if len(pairs) > max_pairs:  # a hub's columns: their strongest claimants only
+        rows = np.union1d([node], _competitors(sides, own, engine._h, np.array([node]), TOP_COMPETITORS))
+        pairs = _free_pairs(sides, sides.pairs_of_rows(rows))
+    pairs = np.sort(pairs)
+    steps, touched, pushes, previous = 0, 0, 0, None
+    while True:
+        steps += 1
+        result, edge_cols = _solve_region(engine, index, sides, node, rows, pairs, tol, max_pairs, reach)
+        touched = max(touched, result["pairs_touched"])
+        pushes += result["pushes"]
+        if result["certified"] or not len(edge_cols) or result["counterpart"] == previous:
             break
-    if result is None or not result.get("rows"):
-        return Answer(-1, False, -np.inf, 0.0, -1, -1, False, 1, 0, 0, 0, 0, time.perf_counter() - t0)
+        previous = result["counterpart"]
+        grown = np.union1d(rows, _competitors(sides, edge_cols, engine._h, rows, TOP_COMPETITORS))
+        more = _free_pairs(sides, sides.pairs_of_rows(grown))
+        if len(grown) == len(rows) or len(more) > max_pairs:
+            break
+        rows, pairs = grown, np.sort(more)
+    result |= {"layers": steps, "pairs_touched": touched, "pushes": pushes}
     return Answer(fixed=False, seconds=time.perf_counter() - t0, **result)
 
 
-def _solve_region(engine, index: AnswerIndex, sides: _Sides, node, rows, pairs, tol, max_pairs) -> dict:
+def _competitors(sides: _Sides, cols, h=None, exclude=None, top: int | None = None):
+    """Rows with a free candidate pair on one of ``cols``: all of them, or for each column the
+    ``top`` rows outside ``exclude`` with the largest h on it."""
+    pairs = _free_pairs(sides, sides.pairs_of_cols(np.asarray(cols, dtype=np.int64)))
+    if top is None:
+        return np.unique(sides.row_of[pairs])
+    pairs = pairs[~np.isin(sides.row_of[pairs], exclude)]
+    order = np.lexsort((-h[pairs], sides.col_of[pairs]))  # by column, largest h first
+    pairs = pairs[order]
+    col = sides.col_of[pairs]
+    first = np.r_[0, np.flatnonzero(col[1:] != col[:-1]) + 1] if len(col) else np.zeros(0, dtype=np.int64)
+    rank = np.arange(len(col)) - np.repeat(first, np.diff(np.r_[first, len(col)]))
+    return np.unique(sides.row_of[pairs[rank < top]])
+
+
+def _solve_region(engine, index: AnswerIndex, sides: _Sides, node, rows, pairs, tol, max_pairs, reach):
     alpha = engine.alpha
     if not len(pairs):
         return {"counterpart": -1, "certified": False, "margin": -np.inf, "score": 0.0, "runner_up": -1,
-                "rival": -1, "rows": len(rows), "pairs": 0, "pairs_touched": 0, "pushes": 0}
+                "rival": -1, "rows": len(rows), "pairs": 0, "pairs_touched": 0, "pushes": 0}, np.empty(0, np.int64)
     h = engine._h
     eps = tol * index.beta if index.beta > 0 else engine.tol
     none_i = np.empty(0, dtype=np.int64)
     ints, floats, _, pushes, *_rest = _local_push(
         engine.net_a.indptr, engine.net_a.indices, engine.net_b.indptr, engine.net_b.indices, engine.cand.a_indptr,
         engine._c_a, engine._c_b, engine._deg_a, engine._deg_b, engine.normalization == "restricted", engine._slot,
-        pairs, np.ascontiguousarray(h[pairs]), none_i, alpha, eps, 4 * max_pairs * 64)
+        pairs, np.ascontiguousarray(h[pairs]), none_i, alpha, eps, 4 * max_pairs * 64, False)
     _reset_slots(engine._slot, ints[:, 0])
     held = ints[:, 0]
     inside = np.zeros(engine.cand.m, dtype=bool)
@@ -367,7 +406,9 @@ def _solve_region(engine, index: AnswerIndex, sides: _Sides, node, rows, pairs, 
     # the bound's max r / v runs over every pair the push held; the region's pairs were its sources
     lo, hi = score_bounds(floats[:, 0], floats[:, 1], index.v[held], alpha, outside_ratio, seeded=True)
     lo, hi = lo[loc], hi[loc]
-    estimate = lo + alpha * index.degree[pairs] * index.beta
+    # the point estimate: what the push reached, the residual it left where it stopped (mass that
+    # has arrived but not been passed on) and the background the region cannot see
+    estimate = lo + np.maximum(floats[loc, 1], 0.0) + BACKGROUND * index.degree[pairs] * index.beta
     # local numbering: rows, columns
     r_loc = np.searchsorted(rows, sides.row_of[pairs])
     col_nodes, c_loc = np.unique(sides.col_of[pairs], return_inverse=True)
@@ -399,6 +440,11 @@ def _solve_region(engine, index: AnswerIndex, sides: _Sides, node, rows, pairs, 
         claim = (c_loc == mate_row[asked]) & ~mine
         if claim.any():
             rival = int(rows[r_loc[claim][np.argmax(estimate[claim])]])
+    edge_cols = np.empty(0, dtype=np.int64)
+    if not certified and counterpart >= 0 and boundary.any():
+        near = _near_rows(r_loc, c_loc, estimate, boundary, n_rows, mate_row, mate_col, asked, reach * score)
+        hot = np.isin(r_loc, near) & boundary[c_loc]
+        edge_cols = col_nodes[np.unique(c_loc[hot])]
     return {"counterpart": counterpart, "certified": certified and counterpart >= 0, "margin": margin,
             "score": score, "runner_up": runner_up, "rival": rival, "rows": n_rows, "pairs": len(pairs),
-            "pairs_touched": len(held), "pushes": int(pushes)}
+            "pairs_touched": len(held), "pushes": int(pushes)}, edge_cols

@@ -193,7 +193,7 @@ def _weight(ints, floats, l, restricted):
 
 @numba.njit(cache=True, nogil=True)
 def _local_push(a_indptr, a_indices, b_indptr, b_indices, c_indptr, c_a, c_b, deg_a, deg_b, restricted,
-                slot, seed_idx, seed_h, expand_idx, alpha, eps, max_pushes):
+                slot, seed_idx, seed_h, expand_idx, alpha, eps, max_pushes, force=True):
     """Push x = alpha P x + (1 - alpha) h from a sparse ``h``, discovering the product graph on demand.
 
     ``h`` is ``seed_h`` on the global candidates ``seed_idx`` (zero elsewhere); ``slot`` must
@@ -249,7 +249,7 @@ def _local_push(a_indptr, a_indices, b_indptr, b_indices, c_indptr, c_a, c_b, de
         for l in range(n):
             # in the first round every source of h is pushed once, even below its threshold (a
             # score of 0 with a wide bound would be a poor answer; a push never hurts the bound)
-            forced = rounds == 1 and floats[l, _H] != 0.0 and floats[l, _R] != 0.0
+            forced = force and rounds == 1 and floats[l, _H] != 0.0 and floats[l, _R] != 0.0
             if forced or abs(floats[l, _R]) > eps * _weight(ints, floats, l, restricted):
                 queue, qhead, qtail = _enqueue(queue, qhead, qtail, l)
                 ints[l, _INQ] = 2 if forced else 1

@@ -64,7 +64,8 @@ def test_every_align_option_is_in_the_help(cmd, skip):
 def test_query_and_label_options_are_in_their_help():
     text = _help("query")
     for _, spec in specs(QueryConfig).values():
-        assert _has_flag(text, spec.flag), spec.flag
+        for flag in _flags(spec):  # both halves of an on/off flag
+            assert _has_flag(text, flag), flag
     text = _help("prior-from-labels")
     for _, spec in specs(LabelConfig).values():
         assert _has_flag(text, spec.flag), spec.flag
