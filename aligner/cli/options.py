@@ -28,7 +28,7 @@ from aligner.config import Spec, specs
 from aligner.cli.runtime import user_errors
 
 __all__ = ["Use", "command", "config_parameters", "Prior", "Truth", "Seeds", "Force", "Quiet", "Json", "Out",
-           "OptionalOut", "Alphas", "Nodes"]
+           "OptionalOut", "Alphas", "Nodes", "NodeFile"]
 
 # --------------------------------------------------------------------------- options that are not configuration
 
@@ -51,8 +51,11 @@ OptionalOut = Annotated[Optional[Path], typer.Option("--out", "-o", help="Where 
                                                      "new temporary directory.")]
 Alphas = Annotated[Optional[str], typer.Option("--alphas", help="Comma-separated values of alpha in [0, 1), run in "
                                      "ascending order. Default: the sweep's own grid.")]
-Nodes = Annotated[list[str], typer.Option("--node", "-n", metavar="NODE",
-                                          help="A node to ask about (repeat for several).")]
+Nodes = Annotated[Optional[list[str]], typer.Option("--node", "-n", metavar="NODE",
+                                                    help="A node to ask about (repeat for several).")]
+NodeFile = Annotated[Optional[Path], typer.Option(
+    "--node-file", metavar="FILE", help="A file of nodes to ask about, one per line (blank lines and lines "
+    "starting with # skipped); with --node, both are asked.")]
 
 
 # --------------------------------------------------------------------------- options from the declarations

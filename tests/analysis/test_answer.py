@@ -227,3 +227,22 @@ def test_the_command_line_prints_the_answer_line(tmp_path):
     assert "global assignment:" in got.output
     got = runner.invoke(app, args + ["--no-answer"])
     assert got.exit_code == 0 and "global assignment:" not in got.output
+
+
+def test_a_node_file_asks_its_nodes_and_a_query_without_nodes_is_refused(tmp_path):
+    # Common practice: one identifier per line, comments and blank lines skipped; usage errors exit 2.
+    a, b, prior, truth = _instance(300, 6, noise=0.05, decoys=5)
+    for name, frame in (("a.tsv", a), ("b.tsv", b), ("p.tsv", prior)):
+        frame.to_csv(tmp_path / name, sep="\t", index=False)
+    asked = list(a.iloc[:3, 0])
+    (tmp_path / "nodes.txt").write_text("# asked\n" + "\n\n".join(asked) + "\n")
+    base = ["query", str(tmp_path / "a.tsv"), str(tmp_path / "b.tsv"), "-p", str(tmp_path / "p.tsv")]
+    got = runner.invoke(app, base + ["--node-file", str(tmp_path / "nodes.txt"), "--json"])
+    assert got.exit_code == 0, got.output
+    import json
+
+    data = json.loads(got.output)
+    assert [q["query"] for q in data["queries"]] == asked
+    assert all("answer" in q for q in data["queries"])
+    got = runner.invoke(app, base)
+    assert got.exit_code == 2 and "--node-file" in got.output

@@ -7,7 +7,7 @@ import json
 import typer
 
 from aligner.cli.commands.align import NetworkA, NetworkB
-from aligner.cli.options import Json, Nodes, Prior, Quiet, Seeds, Use, command
+from aligner.cli.options import Json, NodeFile, Nodes, Prior, Quiet, Seeds, Use, command
 from aligner.cli.runtime import check_inputs, out, say
 from aligner.config import AlignConfig, QueryConfig
 from aligner.errors import InvalidParameterError
@@ -18,9 +18,15 @@ QUERY_ALIGN_OPTIONS = ("delimiter", "header", "prior_columns", "top_k", "min_sco
 
 
 @command(Use(AlignConfig, QUERY_ALIGN_OPTIONS), Use(QueryConfig, into="query_config"))
-def query(network_a: NetworkA, network_b: NetworkB, nodes: Nodes, prior: Prior = None, seeds: Seeds = None,
-          as_json: Json = False, quiet: Quiet = False, *, config: AlignConfig, query_config: QueryConfig):
-    """Rank the best counterparts of a few nodes by a local diffusion, without aligning everything."""
+def query(network_a: NetworkA, network_b: NetworkB, nodes: Nodes = None, node_file: NodeFile = None,
+          prior: Prior = None, seeds: Seeds = None, as_json: Json = False, quiet: Quiet = False, *,
+          config: AlignConfig, query_config: QueryConfig):
+    """Rank the best counterparts of a few nodes by a local diffusion, and give the counterpart the global
+    assignment would choose, without aligning everything."""
+    nodes = list(nodes or []) + (_read_nodes(node_file) if node_file is not None else [])
+    if not nodes:
+        raise InvalidParameterError("name at least one node to ask about: --node NODE (repeat for several) or "
+                                    "--node-file FILE", param="nodes")
     if prior is None and seeds is None:
         raise InvalidParameterError("a query needs a prior similarity table (--prior) or anchor pairs (--seeds)",
                                     param="prior")
@@ -35,3 +41,15 @@ def query(network_a: NetworkA, network_b: NetworkB, nodes: Nodes, prior: Prior =
         for table, work in query_tables(res.summary, side=query_config.side):
             out.print(table)
             say(work)
+
+
+def _read_nodes(path) -> list[str]:
+    """The nodes of a --node-file: one per line, blank lines and # comments skipped."""
+    try:
+        with open(path, encoding="utf-8-sig") as fh:
+            return [line.strip() for line in fh if line.strip() and not line.lstrip().startswith("#")]
+    except OSError as exc:
+        raise InvalidParameterError(f"cannot read the node file {str(path)!r}: {exc.strerror or exc}",
+                                    param="node_file") from None
+    except UnicodeDecodeError:
+        raise InvalidParameterError(f"the node file {str(path)!r} is not UTF-8 text", param="node_file") from None
