@@ -712,6 +712,29 @@ class AlignmentResult:
     pairs = property(lambda self: self.evaluation.pairs)
     conserved_edges = property(lambda self: self.evaluation.conserved_edges)
 
+    def state(self) -> tuple[dict, dict]:
+        """What ``aligner update`` starts from (:mod:`aligner.io.state`): arrays and a record of the
+        options, the input files' digests and the run's cost."""
+        from aligner.io.state import file_digest
+
+        p, cfg = self.problem, self.config
+        inputs = p.inputs
+        arrays = {"names_a": p.network_a.names, "names_b": p.network_b.names,
+                  "edges_a": p.network_a.scored_edges(cfg.directed)[0],
+                  "edges_b": p.network_b.scored_edges(cfg.directed)[0],
+                  "pairs": p.candidates.pairs, "prior": p.candidates.prior, "x": self.diffusion.x,
+                  "matched": self.matching.index}
+        sources = {"network_a": p.network_a.source, "network_b": p.network_b.source,
+                   "prior": None if inputs.prior is None else inputs.prior.source,
+                   "seeds": None if inputs.seeds is None else inputs.seeds.source,
+                   "truth": None if inputs.truth is None else inputs.truth.source}
+        meta = {"options": cfg.as_dict(),
+                "inputs": {k: None if v is None else {"source": _source(v), "sha256": file_digest(v)}
+                           for k, v in sources.items()},
+                "seconds": round(sum(self.summary["timings"].values()), 4),
+                "diffusion": {"steps": self.diffusion.steps, "edge_touches": self.diffusion.edge_touches}}
+        return arrays, meta
+
     def transferred_edges(self) -> pd.DataFrame:
         """The interactions carried across the matching, best first (:func:`transfer`); the table
         is computed on the first call and a copy returned each time."""

@@ -22,6 +22,7 @@ from aligner.cli.commands.query import query
 from aligner.cli.commands.report import report
 from aligner.cli.commands.sweep import sweep
 from aligner.cli.commands.transfer import transfer
+from aligner.cli.commands.update import update
 from aligner.cli.runtime import err, say
 
 __all__ = ["app"]
@@ -80,7 +81,7 @@ def main(version: Annotated[bool, typer.Option("--version", callback=_version, i
     """One-to-one alignment of two networks from a prior similarity table and their wiring."""
 
 
-for _cmd in (align, score, demo, sweep, query, report, transfer):
+for _cmd in (align, score, demo, sweep, query, report, transfer, update):
     app.command()(_cmd)
 app.command("prior-from-labels")(prior_from_labels)
 app.command("prior-from-classes")(prior_from_classes)

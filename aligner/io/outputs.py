@@ -25,6 +25,7 @@ import numpy as np
 import pandas as pd
 import pyarrow as pa
 
+from aligner.io.state import STATE_FILE, state_bytes
 from aligner.checks import warn
 from aligner.core import tsv
 from aligner.errors import InvalidParameterError
@@ -36,7 +37,7 @@ __all__ = ["OUTPUT_FILES", "SWEEP_TABLE", "PRIOR_COLUMNS", "TRANSFER_TABLE", "TR
 #: The table of interactions carried across the alignment, one of :data:`OUTPUT_FILES`.
 TRANSFER_TABLE = "transferred_edges.tsv"
 #: The files :func:`write_outputs` writes, as one set.
-OUTPUT_FILES = ("alignment.tsv", "conserved_edges.tsv", TRANSFER_TABLE, "summary.json")
+OUTPUT_FILES = ("alignment.tsv", "conserved_edges.tsv", TRANSFER_TABLE, "summary.json", STATE_FILE)
 #: The tables' Parquet copies, written with ``parquet=True`` (``aligner align --parquet``).
 PARQUET_FILES = ("alignment.parquet", "conserved_edges.parquet", "transferred_edges.parquet")
 #: What ``aligner transfer`` writes into a run's directory: the rows it selected and printed.
@@ -404,7 +405,8 @@ def _parquet_bytes(df: pd.DataFrame, sort_by=None) -> bytes:
 
 def write_outputs(outdir: str | os.PathLike, result, *, force: bool = False,
                   parquet: bool = False) -> list[Path]:
-    """Write alignment.tsv, conserved_edges.tsv, transferred_edges.tsv and summary.json of an
+    """Write alignment.tsv, conserved_edges.tsv, transferred_edges.tsv, summary.json and the run
+    state (state.npz, :mod:`aligner.io.state`: what ``aligner update`` starts from) of an
     alignment into ``outdir``, as one set; with ``parquet`` also the three tables as Parquet
     files (``alignment.parquet``, ...: the same rows in the same order, typed columns).
 
@@ -420,6 +422,8 @@ def write_outputs(outdir: str | os.PathLike, result, *, force: bool = False,
     moved = _table_bytes(result.transferred_edges())
     files = {"alignment.tsv": pairs, "conserved_edges.tsv": cons, TRANSFER_TABLE: moved,
              "summary.json": json_text(result.summary)}
+    if hasattr(result, "state"):  # a result of the pipeline (not a bare table holder)
+        files[STATE_FILE] = state_bytes(*result.state())
     if parquet:
         files |= dict(zip(PARQUET_FILES, (_parquet_bytes(result.pairs, ("node_a", "node_b")),
                                           _parquet_bytes(result.conserved_edges, ("node_a1", "node_a2")),

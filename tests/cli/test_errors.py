@@ -289,7 +289,7 @@ def test_existing_outputs_refused_unless_force(tmp_path):
     res = _align(tmp_path)
     assert res.exit_code == 2
     _no_traceback(res)
-    assert re.search(r"already holds alignment.tsv, conserved_edges.tsv, transferred_edges.tsv, summary.json; choose another directory "
+    assert re.search(r"already holds alignment.tsv, conserved_edges.tsv, transferred_edges.tsv, summary.json, state.npz; choose another directory "
                      r"or pass --force", " ".join(res.output.split()))
     assert {f: (out / f).read_bytes() for f in OUTPUT_FILES} == before  # untouched
     _ok(_align(tmp_path, "--force"), out)

@@ -1,0 +1,209 @@
+"""Re-align after the inputs change, starting from a previous run's state.
+
+:func:`update` reads the state a run kept (:mod:`aligner.io.state`), prepares the new inputs
+with the previous run's options (:func:`aligner.pipeline.prepare`), carries the previous
+diffusion scores over to the new candidate pairs (by node names) and runs the same stages as
+:func:`aligner.align` from there (:func:`aligner.pipeline.run_stages` with that warm start). The
+diffusion's residual is recomputed exactly from the carried scores, so it is non-zero only
+where the change reached and the push works there; its result is certified to the same
+tolerance as a fresh run's, and so is everything computed from it. The other stages run as in
+``align``, on the new inputs.
+
+When the change is too large for the warm start to pay (more than :data:`FULL_SHARE` of the new
+candidate pairs new or rescored, or of either network's edges added or removed), the update
+starts from zero like ``align`` and says so in ``summary["update"]["mode"]``.
+"""
+
+from __future__ import annotations
+
+import time
+from pathlib import Path
+from typing import Any, Callable
+
+import numpy as np
+
+from aligner.config import AlignConfig, from_options
+from aligner.core.identifiers import lookup
+from aligner.errors import InputFormatError, InvalidParameterError
+from aligner.io.state import STATE_FILE, file_digest, read_state
+from aligner.pipeline import AlignmentResult, Clock, prepare, run_stages
+
+__all__ = ["update", "FULL_SHARE", "INPUTS"]
+
+#: above this share of changed candidate pairs or edges the update starts from zero
+FULL_SHARE = 0.25
+#: the inputs a run records, and which of them an update may replace
+INPUTS = ("network_a", "network_b", "prior", "seeds", "truth")
+
+
+def _inputs(state, given: dict) -> dict:
+    """The update's inputs: those given, else the previous run's files, which must be unchanged."""
+    out = {}
+    for name in INPUTS:
+        if given.get(name) is not None:
+            out[name] = given[name]
+            continue
+        rec = state.meta["inputs"].get(name)
+        if rec is None:
+            out[name] = None
+            continue
+        if rec["sha256"] is None:
+            raise InvalidParameterError(f"the previous run read {name} from memory ({rec['source']}); give it to "
+                                        "the update", param=name)
+        if file_digest(rec["source"]) != rec["sha256"]:
+            raise InputFormatError(f"{name} of the previous run, {rec['source']}, is missing or has changed since "
+                                   f"the run; give the {name} to use (the previous one is not kept in "
+                                   f"{STATE_FILE})", path=rec["source"])
+        out[name] = rec["source"]
+    return out
+
+
+def _check_options(state, config: AlignConfig | None, options: dict) -> AlignConfig:
+    """The previous run's options; any option given must agree with it."""
+    previous = AlignConfig(**state.meta["options"])
+    asked = from_options(AlignConfig, config, options) if (config is not None or options) else previous
+    for name, value in asked.as_dict().items():
+        if (name in options or config is not None) and value != getattr(previous, name):
+            raise InvalidParameterError(f"{name} {value!r} differs from the previous run's {getattr(previous, name)!r}"
+                                        "; an update keeps the run's options (align again to change them)",
+                                        param=name)
+    return previous
+
+
+def _keys(pairs: np.ndarray, n2: int) -> np.ndarray:
+    return pairs[:, 0].astype(np.int64) * max(n2, 1) + pairs[:, 1]
+
+
+def _renumber(names_old, names_new) -> np.ndarray:
+    """For each old node, its index among the new names (-1 when gone)."""
+    return lookup(np.asarray(names_new, dtype=object), np.asarray(names_old, dtype=object))
+
+
+def _edge_changes(old_edges, new_edges, to_new, n_new) -> tuple[int, int]:
+    """Edges added and removed, the old ones renumbered into the new nodes."""
+    e = to_new[old_edges.astype(np.int64)]
+    kept = (e >= 0).all(axis=1)
+    e = np.sort(e[kept], axis=1)
+    old_keys = np.unique(e[:, 0] * n_new + e[:, 1])
+    ne = np.sort(np.asarray(new_edges, dtype=np.int64), axis=1)
+    new_keys = np.unique(ne[:, 0] * n_new + ne[:, 1])
+    common = np.intersect1d(old_keys, new_keys, assume_unique=True).size
+    return int(len(new_keys) - common), int(len(old_edges) - common)
+
+
+def _carry(state, problem) -> tuple[np.ndarray, dict]:
+    """The previous scores on the new candidate pairs (0 on new pairs), and what changed."""
+    net_a, net_b, cand = problem.network_a, problem.network_b, problem.candidates
+    to_a = _renumber(state.names_a, net_a.names)
+    to_b = _renumber(state.names_b, net_b.names)
+    old = state.pairs.astype(np.int64)
+    moved = np.stack([to_a[old[:, 0]], to_b[old[:, 1]]], axis=1)
+    alive = (moved >= 0).all(axis=1)
+    new_keys = _keys(cand.pairs, cand.n2)
+    old_keys = _keys(moved[alive], cand.n2)
+    pos = np.searchsorted(new_keys, old_keys)
+    pos_ok = pos < len(new_keys)
+    found = np.zeros(len(old_keys), dtype=bool)
+    found[pos_ok] = new_keys[pos[pos_ok]] == old_keys[pos_ok]
+    x0 = np.zeros(cand.m)
+    at = pos[found]
+    x0[at] = state.x[alive][found]
+    same_prior = np.zeros(cand.m, dtype=bool)
+    same_prior[at] = np.isclose(cand.prior[at], state.prior[alive][found], rtol=1e-6, atol=0)
+    kept = np.zeros(cand.m, dtype=bool)
+    kept[at] = True
+    ea_add, ea_del = _edge_changes(state.edges_a, net_a.scored_edges(problem.config.directed)[0], to_a, net_a.n)
+    eb_add, eb_del = _edge_changes(state.edges_b, net_b.scored_edges(problem.config.directed)[0], to_b, net_b.n)
+    changes = {
+        "nodes_a_added": int(net_a.n - (to_a >= 0).sum()), "nodes_a_removed": int((to_a < 0).sum()),
+        "nodes_b_added": int(net_b.n - (to_b >= 0).sum()), "nodes_b_removed": int((to_b < 0).sum()),
+        "edges_a_added": ea_add, "edges_a_removed": ea_del, "edges_b_added": eb_add, "edges_b_removed": eb_del,
+        "candidates_added": int(cand.m - kept.sum()), "candidates_removed": int(len(old) - kept.sum()),
+        "candidates_rescored": int((kept & ~same_prior).sum()),
+    }
+    return x0, changes
+
+
+def _matches_changed(state, res: AlignmentResult) -> int:
+    """Nodes of A whose matched node of B differs between the runs (a node matched in one run only,
+    or in one network only, counts)."""
+    net_a, net_b, cand = res.network_a, res.network_b, res.candidates
+    to_a = _renumber(state.names_a, net_a.names)
+    to_b = _renumber(state.names_b, net_b.names)
+    new = np.full(net_a.n, -1, dtype=np.int64)
+    new[cand.pairs[res.matching.index, 0]] = cand.pairs[res.matching.index, 1]
+    old_pairs = state.pairs[state.matched].astype(np.int64)
+    old = np.full(net_a.n, -1, dtype=np.int64)
+    here = to_a[old_pairs[:, 0]] >= 0
+    partner = to_b[old_pairs[here, 1]]
+    old[to_a[old_pairs[here, 0]]] = np.where(partner >= 0, partner, -2)  # -2: the partner left B
+    gone = int((~here).sum())  # matched nodes of A that left A
+    return int((old != new).sum()) + gone
+
+
+def update(previous, network_a=None, network_b=None, prior=None, *, seeds=None, truth=None,
+           config: AlignConfig | None = None, progress: Callable[[str], None] | None = None,
+           **options: Any) -> AlignmentResult:
+    """Align the new inputs starting from a previous run's state.
+
+    Parameters
+    ----------
+    previous : path
+        The previous run's output directory (or its state.npz).
+    network_a, network_b, prior, seeds, truth : optional
+        The new inputs, as for :func:`aligner.align`; one left out is the previous run's file,
+        which must be unchanged (its digest is in the state).
+    config, **options :
+        The previous run's options are used; any given must agree with them.
+
+    Returns
+    -------
+    AlignmentResult
+        As :func:`aligner.align` on the new inputs would give, to the same certified tolerance,
+        with ``summary["update"]``: the previous run, the mode (``incremental`` or ``full`` and
+        why), what changed, pairs whose score moved by more than the per-score bound, pushes and
+        edge touches against the previous run's, matches changed, seconds against the previous
+        run's.
+
+    Raises
+    ------
+    InputFormatError
+        The state is missing, damaged or of another version; an input left out changed since.
+    InvalidParameterError
+        An option differs from the previous run's.
+    """
+    t0 = time.perf_counter()
+    state = read_state(previous)
+    cfg = _check_options(state, config, options)
+    given = {"network_a": network_a, "network_b": network_b, "prior": prior, "seeds": seeds, "truth": truth}
+    files = _inputs(state, given)
+    clock = Clock(progress)
+    problem = prepare(files["network_a"], files["network_b"], files["prior"], seeds=files["seeds"],
+                      truth=files["truth"], config=cfg, clock=clock)
+    t1 = time.perf_counter()
+    x0, changes = _carry(state, problem)
+    carry_s = time.perf_counter() - t1
+    m = problem.candidates.m
+    share_pairs = (changes["candidates_added"] + changes["candidates_rescored"]) / max(m, 1)
+    share_edges = max((changes["edges_a_added"] + changes["edges_a_removed"]) / max(len(state.edges_a), 1),
+                      (changes["edges_b_added"] + changes["edges_b_removed"]) / max(len(state.edges_b), 1))
+    full = max(share_pairs, share_edges) > FULL_SHARE
+    res = run_stages(problem, clock, x0=None if full else x0)
+    bound = cfg.tol / (1.0 - cfg.alpha)
+    prev = state.meta
+    res.summary["update"] = {
+        "previous": str(Path(state.path).resolve().parent),
+        "mode": "full" if full else "incremental",
+        "reason": (f"{max(share_pairs, share_edges):.0%} of the candidates or edges changed (more than "
+                   f"{FULL_SHARE:.0%}): started from zero" if full else "started from the previous scores"),
+        "changes": changes,
+        "scores_moved": int((np.abs(res.diffusion.x - x0) > bound).sum()),
+        "score_bound": bound,
+        "pushes": res.diffusion.steps, "edge_touches": res.diffusion.edge_touches,
+        "previous_pushes": prev.get("diffusion", {}).get("steps"),
+        "previous_edge_touches": prev.get("diffusion", {}).get("edge_touches"),
+        "matches_changed": _matches_changed(state, res),
+        "carry_seconds": round(carry_s, 4),
+        "seconds": round(time.perf_counter() - t0, 4), "previous_seconds": prev.get("seconds"),
+    }
+    return res

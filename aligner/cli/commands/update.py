@@ -1,0 +1,48 @@
+"""``aligner update``: re-align after the inputs change, starting from a previous run's state."""
+
+from __future__ import annotations
+
+from pathlib import Path
+from typing import Annotated, Optional
+
+import typer
+
+from aligner.cli.options import Force, Out, Quiet, command
+from aligner.cli.runtime import check_inputs, out, progress, say
+
+Previous = Annotated[Path, typer.Argument(help="Output directory of the previous run of align, demo or update (it "
+                                          "holds state.npz).")]
+NewA = Annotated[Optional[Path], typer.Option("--a", help="The new edge list of network A. Default: the previous "
+                                              "run's file, which must be unchanged.")]
+NewB = Annotated[Optional[Path], typer.Option("--b", help="The new edge list of network B, the same way.")]
+NewPrior = Annotated[Optional[Path], typer.Option("--prior", "-p", help="The new prior similarity table, the same "
+                                                  "way.")]
+NewSeeds = Annotated[Optional[Path], typer.Option("--seeds", help="The new anchor pairs, the same way.")]
+NewTruth = Annotated[Optional[Path], typer.Option("--truth", help="The new true pairs, the same way.")]
+
+
+@command()
+def update(previous: Previous, outdir: Out, a: NewA = None, b: NewB = None, prior: NewPrior = None,
+           seeds: NewSeeds = None, truth: NewTruth = None, force: Force = False, quiet: Quiet = False):
+    """Align the new inputs starting from a previous run (its options, its scores as the start); write the
+    same files as align to --out, with an update section in summary.json."""
+    check_inputs(*(p for p in (a, b, prior, seeds, truth) if p is not None))
+    from aligner.analysis.update import update as run_update
+    from aligner.io.outputs import check_outdir, output_files, write_outputs
+    from aligner.pipeline import STAGES, Clock
+    from aligner.render.console import summary_table
+
+    check_outdir(outdir, force=force, files=output_files())  # refuse before any work
+    with Clock.owning_process(), progress(quiet, len(STAGES) + 1) as bar:
+        res = run_update(previous, a, b, prior, seeds=seeds, truth=truth, progress=bar.stage)
+        bar.stage("writing")
+        written = write_outputs(outdir, res, force=force)
+    if not quiet:
+        out.print(summary_table(res.summary))
+        u = res.summary["update"]
+        c = u["changes"]
+        say(f"update ({u['mode']}): {c['edges_a_added'] + c['edges_a_removed']:,} edges of A and "
+            f"{c['edges_b_added'] + c['edges_b_removed']:,} of B changed, {c['candidates_added']:,} candidate pairs "
+            f"added, {c['candidates_rescored']:,} rescored; {u['pushes']:,} pushes against {u['previous_pushes']:,}; "
+            f"{u['matches_changed']:,} matches changed; {u['seconds']:.2f} s against {u['previous_seconds']:.2f} s")
+        say(f"wrote {', '.join(str(p) for p in written)}")

@@ -1,0 +1,129 @@
+"""The run state an alignment keeps for ``aligner update``: state.npz in its output directory.
+
+One NumPy ``.npz`` archive (uncompressed: it is read and written at memory speed) holding the
+arrays an update starts from, and a JSON record ``meta`` with the format version, the run's
+options, digests of its input files and a checksum over everything else. Reading checks the
+format, the version and the checksum, so a state file that was edited, truncated or written by
+another version is refused with a message, never half-used.
+
+Arrays (node indices are those of the run's own numbering, names given beside them):
+
+=============  ===========  ===================================================================
+``names_a``    str (n1,)    node names of A
+``names_b``    str (n2,)    node names of B
+``edges_a``    int32 (e,2)  scored edges of A (each once)
+``edges_b``    int32 (e,2)  scored edges of B
+``pairs``      int32 (m,2)  candidate pairs (node of A, node of B)
+``prior``      float32 (m)  their prior after the score-kind transformation
+``x``          float32 (m)  diffusion scores (the warm start of an update: its residual is
+                            recomputed exactly, so single precision costs only pushes)
+``matched``    int64 (k)    candidate index of each pair of the final matching
+=============  ===========  ===================================================================
+"""
+
+from __future__ import annotations
+
+import hashlib
+import io
+import json
+import os
+import zipfile
+from dataclasses import dataclass
+from pathlib import Path
+
+import numpy as np
+
+from aligner.errors import InputFormatError
+
+__all__ = ["STATE_FILE", "STATE_VERSION", "RunState", "state_bytes", "read_state", "file_digest"]
+
+STATE_FILE = "state.npz"
+STATE_VERSION = 1
+_FORMAT = "aligner run state"
+ARRAYS = ("names_a", "names_b", "edges_a", "edges_b", "pairs", "prior", "x", "matched")
+
+
+@dataclass(frozen=True, eq=False)
+class RunState:
+    """A run's state as read back: the arrays of the module docstring and ``meta``."""
+
+    arrays: dict
+    meta: dict
+    path: Path
+
+    def __getattr__(self, name):
+        try:
+            return self.__dict__["arrays"][name]
+        except KeyError:
+            raise AttributeError(name) from None
+
+
+def file_digest(path) -> str | None:
+    """SHA-256 of a file's bytes (None for an input that is not a file)."""
+    try:
+        if not os.path.isfile(path):
+            return None
+    except TypeError:
+        return None
+    h = hashlib.sha256()
+    with open(path, "rb") as fh:
+        for block in iter(lambda: fh.read(1 << 22), b""):
+            h.update(block)
+    return h.hexdigest()
+
+
+def _checksum(arrays: dict, meta: dict) -> str:
+    h = hashlib.sha256()
+    h.update(json.dumps({k: v for k, v in meta.items() if k != "checksum"}, sort_keys=True).encode())
+    for name in ARRAYS:
+        a = np.ascontiguousarray(arrays[name])
+        h.update(name.encode())
+        h.update(str(a.dtype).encode())
+        h.update(str(a.shape).encode())
+        h.update(a.tobytes())
+    return h.hexdigest()
+
+
+def state_bytes(arrays: dict, meta: dict) -> bytes:
+    """The state file's bytes (meta gains ``format``, ``version`` and ``checksum``)."""
+    arrays = {
+        "names_a": np.asarray(arrays["names_a"]).astype(str),
+        "names_b": np.asarray(arrays["names_b"]).astype(str),
+        "edges_a": np.asarray(arrays["edges_a"], dtype=np.int32).reshape(-1, 2),
+        "edges_b": np.asarray(arrays["edges_b"], dtype=np.int32).reshape(-1, 2),
+        "pairs": np.asarray(arrays["pairs"], dtype=np.int32).reshape(-1, 2),
+        "prior": np.asarray(arrays["prior"], dtype=np.float32),
+        "x": np.asarray(arrays["x"], dtype=np.float32),
+        "matched": np.asarray(arrays["matched"], dtype=np.int64),
+    }
+    meta = {"format": _FORMAT, "version": STATE_VERSION} | dict(meta)
+    meta["checksum"] = _checksum(arrays, meta)
+    buf = io.BytesIO()
+    np.savez(buf, meta=np.array(json.dumps(meta)), **arrays)
+    return buf.getvalue()
+
+
+def read_state(path) -> RunState:
+    """Read and check a state file; InputFormatError (exit 2) naming what is wrong."""
+    path = Path(path)
+    if path.is_dir():
+        path = path / STATE_FILE
+    if not path.is_file():
+        raise InputFormatError(f"no run state in {path.parent}: {path.name} is missing (runs of this version keep "
+                               "it; align again to get one)", path=str(path))
+    try:
+        with np.load(path, allow_pickle=False) as z:
+            meta = json.loads(str(z["meta"]))
+            arrays = {name: z[name] for name in ARRAYS}
+    except (OSError, ValueError, KeyError, json.JSONDecodeError, EOFError, zipfile.BadZipFile) as exc:
+        raise InputFormatError(f"{path.name} is not a readable run state ({type(exc).__name__}: {exc})",
+                               path=str(path)) from None
+    if meta.get("format") != _FORMAT:
+        raise InputFormatError(f"{path.name} is not a run state of aligner", path=str(path))
+    if meta.get("version") != STATE_VERSION:
+        raise InputFormatError(f"{path.name} has state format version {meta.get('version')}; this version reads "
+                               f"version {STATE_VERSION}: align again to get a current one", path=str(path))
+    if meta.get("checksum") != _checksum(arrays, meta):
+        raise InputFormatError(f"{path.name} does not match its checksum: it was changed or damaged after the run "
+                               "wrote it; align again", path=str(path))
+    return RunState(arrays, meta, path)

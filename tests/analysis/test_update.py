@@ -1,0 +1,170 @@
+"""aligner update: the same result as align on the new inputs, from a previous run's state.
+
+Reference: aligner.align on the new inputs from zero (itself checked against scipy and
+networkx elsewhere); two runs agree when their matchings are the same pairs and their
+diffusion scores differ by at most the sum of their certified bounds (summary error_bound_l1).
+"""
+
+import json
+
+import numpy as np
+import pandas as pd
+import pytest
+from typer.testing import CliRunner
+
+import aligner
+from aligner.analysis.update import update
+from aligner.cli.app import app
+from aligner.datasets.instances import as_frames, noisy_relabelled
+from aligner.errors import InputFormatError, InvalidParameterError
+from aligner.io.outputs import write_outputs
+
+runner = CliRunner()
+
+
+@pytest.fixture(scope="module")
+def base(tmp_path_factory):
+    d = tmp_path_factory.mktemp("update")
+    pair = noisy_relabelled(1500, seed=21, noise=0.05, decoys=8)
+    a, b, prior, truth = as_frames(pair)
+    for name, frame in (("a.tsv", a), ("b.tsv", b), ("p.tsv", prior)):
+        frame.to_csv(d / name, sep="\t", index=False)
+    res = aligner.align(d / "a.tsv", d / "b.tsv", d / "p.tsv")
+    write_outputs(d / "run", res)
+    return d, a, b, prior
+
+
+def _pairs(res):
+    c = res.candidates.pairs[res.matching.index]
+    return set(zip(res.network_a.names[c[:, 0]], res.network_b.names[c[:, 1]]))
+
+
+def _scores(res):
+    c = res.candidates.pairs
+    return dict(zip(zip(res.network_a.names[c[:, 0]], res.network_b.names[c[:, 1]]), res.diffusion.x))
+
+
+def _agree(upd, ref):
+    assert _pairs(upd) == _pairs(ref)
+    su, sr = _scores(upd), _scores(ref)
+    assert su.keys() == sr.keys()
+    bound = upd.diffusion.error_bound + ref.diffusion.error_bound  # 1-norm bounds, so entry-wise too
+    assert max(abs(su[k] - sr[k]) for k in su) <= bound
+
+
+def _write(d, name, frame):
+    frame.to_csv(d / name, sep="\t", index=False)
+    return d / name
+
+
+def test_edges_of_b_rewired(base):
+    d, a, b, prior = base
+    rng = np.random.default_rng(0)
+    b2 = b.copy()
+    rows = rng.choice(len(b2), 8, replace=False)  # about 0.1 % of the edges moved
+    b2.iloc[rows, 1] = rng.choice(b2.iloc[:, 0].unique(), len(rows))
+    new_b = _write(d, "b_rewired.tsv", b2)
+    upd = update(d / "run", network_b=new_b)
+    ref = aligner.align(d / "a.tsv", new_b, d / "p.tsv")
+    _agree(upd, ref)
+    u = upd.summary["update"]
+    assert u["mode"] == "incremental"
+    assert u["changes"]["edges_b_added"] > 0 and u["changes"]["edges_b_removed"] > 0
+    assert u["changes"]["edges_a_added"] == u["changes"]["edges_a_removed"] == 0
+    assert u["pushes"] < u["previous_pushes"]  # the warm start saves work
+
+
+def test_edges_of_a_removed_and_nodes_added_with_prior_rows(base):
+    d, a, b, prior = base
+    a2 = a.iloc[10:].copy()  # edges removed (some nodes may go with them)
+    new_nodes = [f"new{i}" for i in range(15)]
+    rng = np.random.default_rng(1)
+    old_nodes = a.iloc[:, 0].unique()
+    extra = {"node_a": new_nodes, "node_b": list(rng.choice(old_nodes, 15))}
+    a2 = pd.concat([a2, pd.DataFrame(extra)], ignore_index=True)
+    b_nodes = b.iloc[:, 0].unique()
+    p2 = pd.concat([prior, pd.DataFrame({"node_a": new_nodes, "node_b": list(rng.choice(b_nodes, 15)),
+                                         "score": rng.random(15) + 0.5})], ignore_index=True)
+    new_a, new_p = _write(d, "a_changed.tsv", a2), _write(d, "p_grown.tsv", p2)
+    upd = update(d / "run", network_a=new_a, prior=new_p)
+    ref = aligner.align(new_a, d / "b.tsv", new_p)
+    _agree(upd, ref)
+    c = upd.summary["update"]["changes"]
+    assert c["nodes_a_added"] == 15 and c["edges_a_removed"] >= 10 and c["candidates_added"] >= 15
+
+
+def test_prior_rows_rescored(base):
+    d, a, b, prior = base
+    p2 = prior.copy()
+    rows = np.random.default_rng(2).choice(len(p2), len(p2) // 100, replace=False)
+    p2.loc[rows, "score"] = p2.loc[rows, "score"] * 1.7
+    new_p = _write(d, "p_rescored.tsv", p2)
+    upd = update(d / "run", prior=new_p)
+    ref = aligner.align(d / "a.tsv", d / "b.tsv", new_p)
+    _agree(upd, ref)
+    assert upd.summary["update"]["changes"]["candidates_rescored"] > 0
+
+
+def test_a_large_change_starts_from_zero_and_says_so(base):
+    d, a, b, prior = base
+    b2 = b.sample(frac=0.6, random_state=3)
+    new_b = _write(d, "b_halved.tsv", b2)
+    upd = update(d / "run", network_b=new_b)
+    assert upd.summary["update"]["mode"] == "full" and "started from zero" in upd.summary["update"]["reason"]
+    _agree(upd, aligner.align(d / "a.tsv", new_b, d / "p.tsv"))
+
+
+def test_a_damaged_state_or_another_option_is_refused(base, tmp_path):
+    d, a, b, prior = base
+    raw = (d / "run" / "state.npz").read_bytes()
+    bad = tmp_path / "bad"
+    bad.mkdir()
+    # the scores edited and saved again with the old record: the checksum no longer matches
+    with np.load(d / "run" / "state.npz") as z:
+        arrays = {k: z[k] for k in z.files}
+    arrays["x"] = arrays["x"].copy()
+    arrays["x"][0] += 1.0
+    with open(bad / "state.npz", "wb") as fh:
+        np.savez(fh, **arrays)
+    with pytest.raises(InputFormatError, match="checksum"):
+        update(bad)
+    # a truncated file
+    (bad / "state.npz").write_bytes(raw[: len(raw) // 2])
+    with pytest.raises(InputFormatError, match="not a readable run state"):
+        update(bad)
+    with pytest.raises(InvalidParameterError, match="alpha"):
+        update(d / "run", alpha=0.5)
+    with pytest.raises(InputFormatError, match="missing"):
+        update(tmp_path)
+
+
+def test_the_command_writes_the_files_and_refuses_cleanly(base, tmp_path):
+    d, a, b, prior = base
+    got = runner.invoke(app, ["update", str(d / "run"), "--b", str(d / "b.tsv"), "-o", str(tmp_path / "u")])
+    assert got.exit_code == 0, got.output
+    summary = json.loads((tmp_path / "u" / "summary.json").read_text())
+    assert summary["update"]["matches_changed"] == 0 and summary["update"]["changes"]["edges_b_added"] == 0
+    assert (tmp_path / "u" / "state.npz").is_file()  # an update keeps a state for the next one
+    # a previous input that changed since the run, and not given: exit 2, nothing written
+    run2 = tmp_path / "run2"
+    src = tmp_path / "a_moving.tsv"
+    a.to_csv(src, sep="\t", index=False)
+    assert runner.invoke(app, ["align", str(src), str(d / "b.tsv"), "-p", str(d / "p.tsv"), "-o", str(run2),
+                               "--quiet"]).exit_code == 0
+    a.iloc[5:].to_csv(src, sep="\t", index=False)
+    got = runner.invoke(app, ["update", str(run2), "-o", str(tmp_path / "u2")])
+    assert got.exit_code == 2 and "changed since" in got.output
+    assert not (tmp_path / "u2").exists() or not any((tmp_path / "u2").iterdir())
+
+
+def test_the_update_section_follows_the_schema(base):
+    # Reference: docs/summary.schema.json, checked with jsonschema (Draft 2020-12).
+    import jsonschema
+
+    from aligner.io.outputs import json_text
+
+    d, a, b, prior = base
+    schema = json.loads((__import__("pathlib").Path(__file__).parents[2] / "docs" / "summary.schema.json").read_text())
+    upd = update(d / "run")
+    jsonschema.validate(json.loads(json_text(upd.summary)), schema, cls=jsonschema.Draft202012Validator)
+    assert upd.summary["update"]["changes"]["candidates_added"] == 0
