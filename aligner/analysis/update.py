@@ -75,19 +75,30 @@ def _keys(pairs: np.ndarray, n2: int) -> np.ndarray:
 
 
 def _renumber(names_old, names_new) -> np.ndarray:
-    """For each old node, its index among the new names (-1 when gone)."""
+    """For each old node, its index among the new names (-1 when gone). The readers number nodes
+    in their names' order, so the sorted case is a binary search (and an unchanged node set the
+    identity); otherwise a hash look-up."""
+    old = np.asarray(names_old).astype(str)
+    new = np.asarray(names_new).astype(str)
+    if len(old) == len(new) and np.array_equal(old, new):
+        return np.arange(len(old), dtype=np.int64)
+    if len(new) < 2 or bool(np.all(new[1:] > new[:-1])):
+        pos = np.minimum(np.searchsorted(new, old), max(len(new) - 1, 0))
+        hit = new[pos] == old if len(new) else np.zeros(len(old), dtype=bool)
+        return np.where(hit, pos, -1).astype(np.int64)
     return lookup(np.asarray(names_new, dtype=object), np.asarray(names_old, dtype=object))
 
 
 def _edge_changes(old_edges, new_edges, to_new, n_new) -> tuple[int, int]:
-    """Edges added and removed, the old ones renumbered into the new nodes."""
+    """Edges added and removed, the old ones renumbered into the new nodes (each edge list holds
+    every edge once, and renumbering keeps them distinct, so sorted keys suffice)."""
     e = to_new[old_edges.astype(np.int64)]
-    kept = (e >= 0).all(axis=1)
-    e = np.sort(e[kept], axis=1)
-    old_keys = np.unique(e[:, 0] * n_new + e[:, 1])
+    e = np.sort(e[(e >= 0).all(axis=1)], axis=1)
+    old_keys = np.sort(e[:, 0] * n_new + e[:, 1])
     ne = np.sort(np.asarray(new_edges, dtype=np.int64), axis=1)
-    new_keys = np.unique(ne[:, 0] * n_new + ne[:, 1])
-    common = np.intersect1d(old_keys, new_keys, assume_unique=True).size
+    new_keys = np.sort(ne[:, 0] * n_new + ne[:, 1])
+    pos = np.minimum(np.searchsorted(new_keys, old_keys), max(len(new_keys) - 1, 0))
+    common = int((new_keys[pos] == old_keys).sum()) if len(new_keys) else 0
     return int(len(new_keys) - common), int(len(old_edges) - common)
 
 
@@ -121,15 +132,14 @@ def _carry(state, problem) -> tuple[np.ndarray, dict]:
         "candidates_added": int(cand.m - kept.sum()), "candidates_removed": int(len(old) - kept.sum()),
         "candidates_rescored": int((kept & ~same_prior).sum()),
     }
-    return x0, changes
+    return x0, changes, (to_a, to_b)
 
 
-def _matches_changed(state, res: AlignmentResult) -> int:
+def _matches_changed(state, res: AlignmentResult, maps) -> int:
     """Nodes of A whose matched node of B differs between the runs (a node matched in one run only,
     or in one network only, counts)."""
-    net_a, net_b, cand = res.network_a, res.network_b, res.candidates
-    to_a = _renumber(state.names_a, net_a.names)
-    to_b = _renumber(state.names_b, net_b.names)
+    net_a, cand = res.network_a, res.candidates
+    to_a, to_b = maps
     new = np.full(net_a.n, -1, dtype=np.int64)
     new[cand.pairs[res.matching.index, 0]] = cand.pairs[res.matching.index, 1]
     old_pairs = state.pairs[state.matched].astype(np.int64)
@@ -181,7 +191,7 @@ def update(previous, network_a=None, network_b=None, prior=None, *, seeds=None, 
     problem = prepare(files["network_a"], files["network_b"], files["prior"], seeds=files["seeds"],
                       truth=files["truth"], config=cfg, clock=clock)
     t1 = time.perf_counter()
-    x0, changes = _carry(state, problem)
+    x0, changes, maps = _carry(state, problem)
     carry_s = time.perf_counter() - t1
     m = problem.candidates.m
     share_pairs = (changes["candidates_added"] + changes["candidates_rescored"]) / max(m, 1)
@@ -202,7 +212,7 @@ def update(previous, network_a=None, network_b=None, prior=None, *, seeds=None, 
         "pushes": res.diffusion.steps, "edge_touches": res.diffusion.edge_touches,
         "previous_pushes": prev.get("diffusion", {}).get("steps"),
         "previous_edge_touches": prev.get("diffusion", {}).get("edge_touches"),
-        "matches_changed": _matches_changed(state, res),
+        "matches_changed": _matches_changed(state, res, maps),
         "carry_seconds": round(carry_s, 4),
         "seconds": round(time.perf_counter() - t0, 4), "previous_seconds": prev.get("seconds"),
     }

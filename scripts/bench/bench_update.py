@@ -1,0 +1,151 @@
+"""Benchmark ``aligner update`` against a full run on the changed inputs.
+
+A generated pair (power-law graph ``powerlaw_graph(n, m=4, p=0.3)``, relabelled copy with 5 % of
+the edges moved, true partner + 10 uniform decoys; seeded) is aligned and its outputs written
+(with the run state). Each change is then applied to the input files and both
+``aligner.analysis.update.update`` (from the state) and ``aligner.align`` (from zero) run on the
+new inputs, in this process, each timed whole (reading included, writing excluded):
+
+- ``rewire-0.1%``: 0.1 % of the edges of B get a new random end;
+- ``edges-1%+nodes-1%``: 1 % of the edges of B rewired and 1 % new nodes of A, each with 4 edges
+  and a prior row;
+- ``prior-1%``: the prior rows of 1 % of the nodes of A rescored (times 0.5 to 1.5).
+
+Recorded per change: seconds of the update and of the full run and their ratio, the update's
+stage seconds, pushes of each, whether the matchings are the same, the largest score difference
+against the sum of the two certified bounds, and the update's mode.
+
+    python scripts/bench/bench_update.py --sizes 100000 --markdown docs/update_benchmark.md
+
+Writes OUT/bench_update.csv and the Markdown table to OUT/bench_update.md or ``--markdown FILE``
+(OUT defaults to bench_out/, git-ignored).
+"""
+
+from __future__ import annotations
+
+import argparse
+import csv
+import platform
+import sys
+import tempfile
+import time
+from pathlib import Path
+
+import numpy as np
+import pandas as pd
+
+
+def changes(a: pd.DataFrame, b: pd.DataFrame, prior: pd.DataFrame, rng):
+    nodes_b = b.iloc[:, 0].unique()
+    nodes_a = a.iloc[:, 0].unique()
+
+    def rewire(frame, share):
+        f = frame.copy()
+        rows = rng.choice(len(f), max(1, int(share * len(f))), replace=False)
+        f.iloc[rows, 1] = rng.choice(nodes_b, len(rows))
+        return f
+
+    yield "rewire-0.1%", {"network_b": rewire(b, 0.001)}
+    k = max(1, len(nodes_a) // 100)
+    new = [f"added{i:06d}" for i in range(k)]
+    a2 = pd.concat([a, pd.DataFrame({a.columns[0]: np.repeat(new, 4), a.columns[1]: rng.choice(nodes_a, 4 * k)})],
+                   ignore_index=True)
+    p2 = pd.concat([prior, pd.DataFrame({prior.columns[0]: new, prior.columns[1]: rng.choice(nodes_b, k),
+                                         prior.columns[2]: rng.random(k) + 0.5})], ignore_index=True)
+    yield "edges-1%+nodes-1%", {"network_a": a2, "network_b": rewire(b, 0.01), "prior": p2}
+    p3 = prior.copy()
+    asked = rng.choice(nodes_a, k, replace=False)
+    rows = np.flatnonzero(p3.iloc[:, 0].isin(asked).to_numpy())
+    p3.iloc[rows, 2] = p3.iloc[rows, 2] * rng.uniform(0.5, 1.5, len(rows))
+    yield "prior-1%", {"prior": p3}
+
+
+def run(n: int, seed: int) -> list[dict]:
+    import aligner
+    from aligner.analysis.update import update
+    from aligner.datasets.instances import as_frames, noisy_relabelled
+    from aligner.io.outputs import write_outputs
+
+    pair = noisy_relabelled(n, seed=seed, noise=0.05, decoys=10)
+    a, b, prior, _ = as_frames(pair)
+    work = Path(tempfile.mkdtemp(prefix="bench_update_"))
+    files = {"network_a": work / "a.tsv", "network_b": work / "b.tsv", "prior": work / "p.tsv"}
+    for key, frame in zip(files, (a, b, prior)):
+        frame.to_csv(files[key], sep="\t", index=False)
+    t0 = time.perf_counter()
+    first = aligner.align(files["network_a"], files["network_b"], files["prior"])
+    first_s = time.perf_counter() - t0
+    write_outputs(work / "run", first)
+    rows = []
+    rng = np.random.default_rng(seed)
+    for name, changed in changes(a, b, prior, rng):
+        new = dict(files)
+        for key, frame in changed.items():
+            new[key] = work / f"{name}-{key}.tsv"
+            frame.to_csv(new[key], sep="\t", index=False)
+        t0 = time.perf_counter()
+        upd = update(work / "run", **{k: v for k, v in new.items() if k in changed})
+        upd_s = time.perf_counter() - t0
+        t0 = time.perf_counter()
+        ref = aligner.align(new["network_a"], new["network_b"], new["prior"])
+        ref_s = time.perf_counter() - t0
+        same = set(map(tuple, _named(upd))) == set(map(tuple, _named(ref)))
+        gap = float(np.max(np.abs(upd.diffusion.x - ref.diffusion.x))) if upd.candidates.m == ref.candidates.m else None
+        u = upd.summary["update"]
+        t = upd.summary["timings"]
+        rows.append({"nodes": n, "change": name, "mode": u["mode"], "update_s": round(upd_s, 3),
+                     "full_s": round(ref_s, 3), "ratio": round(upd_s / ref_s, 3), "first_run_s": round(first_s, 3),
+                     "read_s": t.get("read"), "product_s": t.get("product"), "diffusion_s": t.get("diffusion"),
+                     "rounding_s": t.get("rounding"), "refine_s": t.get("refine"), "scoring_s": t.get("scoring"),
+                     "carry_s": u["carry_seconds"], "pushes": u["pushes"], "full_pushes": ref.diffusion.steps,
+                     "same_matching": same, "matches_changed": u["matches_changed"],
+                     "max_score_gap": gap, "bounds": upd.diffusion.error_bound + ref.diffusion.error_bound})
+        print(rows[-1], flush=True)
+    return rows
+
+
+def _named(res):
+    c = res.candidates.pairs[res.matching.index]
+    return np.stack([res.network_a.names[c[:, 0]], res.network_b.names[c[:, 1]]], axis=1)
+
+
+def markdown(rows: list[dict], command: str) -> str:
+    lines = [f"`{command}` on {platform.machine()} / Python {platform.python_version()}; seconds in this process, "
+             "reading included, writing excluded.", "",
+             "| nodes | change | mode | update s | full run s | ratio | update: read / product / diffusion / rounding / "
+             "refine / scoring / carry s | pushes (update / full) | same matching | matches changed "
+             "| max score gap (bounds) |",
+             "|---:|---|---|---:|---:|---:|---|---:|---|---:|---|"]
+    for r in rows:
+        stages = " / ".join(f"{r[k]}" for k in ("read_s", "product_s", "diffusion_s", "rounding_s", "refine_s",
+                                                "scoring_s", "carry_s"))
+        gap = "n/a" if r["max_score_gap"] is None else f"{r['max_score_gap']:.1e} ({r['bounds']:.1e})"
+        lines.append(f"| {r['nodes']:,} | {r['change']} | {r['mode']} | {r['update_s']} | {r['full_s']} | "
+                     f"{r['ratio']:.0%} | {stages} | {r['pushes']:,} / {r['full_pushes']:,} | "
+                     f"{'yes' if r['same_matching'] else 'no'} | {r['matches_changed']:,} | {gap} |")
+    return "\n".join(lines) + "\n"
+
+
+def main(argv=None) -> int:
+    ap = argparse.ArgumentParser(description=__doc__.splitlines()[0])
+    ap.add_argument("--sizes", default="100000")
+    ap.add_argument("--seed", type=int, default=5)
+    ap.add_argument("--out", default="bench_out")
+    ap.add_argument("--markdown", default=None)
+    args = ap.parse_args(argv)
+    rows = [r for n in (int(s) for s in args.sizes.split(",")) for r in run(n, args.seed)]
+    out = Path(args.out)
+    out.mkdir(parents=True, exist_ok=True)
+    with open(out / "bench_update.csv", "w", newline="") as fh:
+        w = csv.DictWriter(fh, fieldnames=list(rows[0]))
+        w.writeheader()
+        w.writerows(rows)
+    command = "python scripts/bench/bench_update.py " + " ".join(argv if argv is not None else sys.argv[1:])
+    text = markdown(rows, command.strip())
+    Path(args.markdown or out / "bench_update.md").write_text(text)
+    print(text)
+    return 0
+
+
+if __name__ == "__main__":
+    sys.exit(main())
