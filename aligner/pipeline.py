@@ -30,6 +30,7 @@ from aligner import __version__
 from aligner.checks import warn
 from aligner.config import AlignConfig, describe, from_options, with_options
 from aligner.core.candidates import CandidateSet, build_candidates
+from aligner.core.ambiguity import Ambiguity, find_ambiguity
 from aligner.core.confidence import matching_confidence
 from aligner.core.diffusion import DiffusionResult, column_scale, diffuse, prior_vector
 from aligner.core.network import Network
@@ -446,6 +447,8 @@ class Evaluation:
     #: for each scored edge of A, the row of B's scored edges it is carried onto, or -1
     #: (:func:`aligner.core.scoring.conserved_image`): kept for the transferred edges
     image: np.ndarray | None = None
+    #: interchangeable nodes of the final matching (:func:`aligner.core.ambiguity.find_ambiguity`)
+    ambiguity: Ambiguity | None = None
 
 
 def _score(inputs: Inputs, matched: np.ndarray, cfg: AlignConfig) -> tuple[Scores, np.ndarray, np.ndarray]:
@@ -502,14 +505,53 @@ def _confidence(problem: Problem, diffusion: DiffusionResult, index: np.ndarray)
 
 
 def _pairs_frame(problem: Problem, diffusion: DiffusionResult, index: np.ndarray, cons: np.ndarray,
-                 names_a, names_b) -> pd.DataFrame:
+                 names_a, names_b, ambiguity: Ambiguity) -> pd.DataFrame:
     net_a, cand = problem.network_a, problem.candidates
     matched = cand.pairs[index].astype(np.int64)
     per_node = conserved_per_node(net_a.scored_edges(problem.config.directed)[0], cons, net_a.n)
     return pd.DataFrame({"node_a": _names_at(names_a, matched[:, 0]), "node_b": _names_at(names_b, matched[:, 1]),
                          "score": diffusion.x[index], "prior": cand.prior[index],
                          "conserved": per_node[matched[:, 0]],
-                         "confidence": _confidence(problem, diffusion, index)})
+                         "confidence": _confidence(problem, diffusion, index),
+                         "alternatives": _alternatives_column(problem.network_b, ambiguity)})
+
+
+def _alternatives_column(net_b: Network, ambiguity: Ambiguity) -> np.ndarray:
+    """Each matched node's alternatives as one text field: names of B joined by ';' (empty when none)."""
+    out = np.full(len(ambiguity.alternatives), "", dtype=object)
+    names = net_b.names if net_b.labels is None else net_b.labels
+    for t, alt in enumerate(ambiguity.alternatives):
+        if len(alt):
+            out[t] = ";".join(str(names[j]) for j in alt)
+    return out
+
+
+def _ambiguity(problem: Problem, index: np.ndarray) -> Ambiguity:
+    cfg = problem.config
+    prod = problem.product.symmetrised() if cfg.directed else problem.product
+    a, b = problem.network_a, problem.network_b
+    return find_ambiguity(prod, problem.candidates, index, walk_a=(a.indptr, a.indices),
+                          walk_b=(b.indptr, b.indices))
+
+
+def _nc_up_to_ambiguity(inputs: Inputs, matched: np.ndarray, ambiguity: Ambiguity) -> float | None:
+    """Node correctness where a node also counts as right when a true partner is among its
+    alternatives (with the denominator of NC: the nodes of A named in the truth table)."""
+    if inputs.truth is None:
+        return None
+    truth = inputs.truth.pairs.astype(np.int64)
+    if not len(truth):
+        return None
+    n1, n2 = inputs.network_a.n, inputs.network_b.n
+    ok = set((matched[:, 0] * n2 + matched[:, 1]).tolist())
+    for t, alt in enumerate(ambiguity.alternatives):
+        ok.update((int(matched[t, 0]) * n2 + alt).tolist())
+    hit = np.fromiter(((int(i) * n2 + int(j)) in ok for i, j in truth), dtype=bool, count=len(truth))
+    named = np.zeros(n1, dtype=bool)
+    named[truth[:, 0]] = True
+    right = np.zeros(n1, dtype=bool)
+    right[truth[hit, 0]] = True
+    return int(right.sum()) / int(named.sum())
 
 
 def evaluate(problem: Problem, diffusion: DiffusionResult, improvement: Improvement, *,
@@ -540,8 +582,9 @@ def evaluate(problem: Problem, diffusion: DiffusionResult, improvement: Improvem
     edges_a = inputs.network_a.scored_edges(cfg.directed)[0]
     counts = transfer_counts(edges_a, inputs.network_b.scored_edges(cfg.directed)[0], matched, inputs.network_a.n,
                              inputs.network_b.n, scores.conserved_edges)
-    return Evaluation(scores, before, _pairs_frame(problem, diffusion, index, cons, names_a, names_b),
-                      _conserved_table(names_a, names_b, edges_a, f, cons), sig, seeds, counts, image)
+    ambiguity = _ambiguity(problem, index)
+    return Evaluation(scores, before, _pairs_frame(problem, diffusion, index, cons, names_a, names_b, ambiguity),
+                      _conserved_table(names_a, names_b, edges_a, f, cons), sig, seeds, counts, image, ambiguity)
 
 
 # --------------------------------------------------------------------------- transfer
@@ -656,6 +699,11 @@ def summarize(problem: Problem, diffusion: DiffusionResult, improvement: Improve
         "structural": problem.origin.structural,
         "refine": _refine_summary(improvement),
     }
+    if evaluation.ambiguity is not None:
+        nc_up = _nc_up_to_ambiguity(problem.inputs, cand.pairs[match_.index].astype(np.int64), evaluation.ambiguity)
+        summary["ambiguity"] = evaluation.ambiguity.report() | {"nc_up_to_ambiguity": nc_up}
+        if nc_up is not None:
+            summary["scores"]["nc_up_to_ambiguity"] = nc_up
     if evaluation.scores_before is not None:
         summary["scores_before_refine"] = evaluation.scores_before.as_dict()
     if evaluation.seeds is not None:

@@ -323,6 +323,27 @@ def _local_search(s_indptr, s_indices, c_indptr, col_ptr, col_idx, pair_a, pair_
 
 
 @numba.njit(cache=True, nogil=True)
+def _move(s_indptr, s_indices, c_indptr, pair_a, pair_b, f, mate_a, mate_b, k, p):
+    """The 2-exchange of candidate p = (i, j') against the matching (k = M at i, or -1): its
+    Delta F (see :func:`exchange_losses`), the pair l = M at j' it displaces and q = (j, i')
+    (each -1 when absent)."""
+    l = mate_b[pair_b[p]]
+    delta = f[p]
+    q = -1
+    if k >= 0:
+        delta -= f[k]
+    if l >= 0:
+        delta -= f[l]
+        j = pair_a[l]
+        if k >= 0:
+            delta += _adjacent(s_indptr, s_indices, k, l)
+            q = _find(pair_b, c_indptr[j], c_indptr[j + 1], pair_b[k])
+            if q >= 0:
+                delta += f[q] + _adjacent(s_indptr, s_indices, p, q)
+    return delta, l, q
+
+
+@numba.njit(cache=True, nogil=True)
 def exchange_losses(s_indptr, s_indices, c_indptr, pair_a, pair_b, f, mate_a, mate_b, loss):
     """For each node i of A, the least -Delta F over the 2-exchanges that remove its matched pair,
     into ``loss[i]`` (left as it is, e.g. inf, when there is none), in one pass over the candidates.
@@ -339,19 +360,44 @@ def exchange_losses(s_indptr, s_indices, c_indptr, pair_a, pair_b, f, mate_a, ma
         for p in range(c_indptr[i], c_indptr[i + 1]):
             if p == k:
                 continue
-            l = mate_b[pair_b[p]]
-            delta = f[p]
-            if k >= 0:
-                delta -= f[k]
-            if l >= 0:
-                delta -= f[l]
-                j = pair_a[l]
-                if k >= 0:
-                    delta += _adjacent(s_indptr, s_indices, k, l)
-                    q = _find(pair_b, c_indptr[j], c_indptr[j + 1], pair_b[k])
-                    if q >= 0:
-                        delta += f[q] + _adjacent(s_indptr, s_indices, p, q)
-                if -delta < loss[j]:
-                    loss[j] = -delta
+            delta, l, q = _move(s_indptr, s_indices, c_indptr, pair_a, pair_b, f, mate_a, mate_b, k, p)
+            if l >= 0 and -delta < loss[pair_a[l]]:
+                loss[pair_a[l]] = -delta
             if k >= 0 and -delta < loss[i]:
                 loss[i] = -delta
+
+
+@numba.njit(cache=True, nogil=True)
+def neutral_exchanges(s_indptr, s_indices, c_indptr, pair_a, pair_b, g, prior, mate_a, mate_b, prior_tol):
+    """The 2-exchanges of :func:`exchange_losses` (with f = g = S 1_M: conserved edges only) that
+    keep the conserved edges exactly and move the summed prior by at most ``prior_tol`` times the
+    prior of the pairs they give up. Returns an (n, 4) array of (p, k, l, q) candidate indices
+    (-1 where absent), one row per move, in the order of p.
+    """
+    out = np.empty((64, 4), dtype=np.int64)
+    n = 0
+    n1 = c_indptr.shape[0] - 1
+    for i in range(n1):
+        k = mate_a[i]
+        if k < 0:
+            continue
+        for p in range(c_indptr[i], c_indptr[i + 1]):
+            if p == k:
+                continue
+            delta, l, q = _move(s_indptr, s_indices, c_indptr, pair_a, pair_b, g, mate_a, mate_b, k, p)
+            if delta != 0.0:
+                continue
+            given = prior[k] + (prior[l] if l >= 0 else 0.0)
+            taken = prior[p] + (prior[q] if q >= 0 else 0.0)
+            if abs(taken - given) > prior_tol * given:
+                continue
+            if n == out.shape[0]:
+                grown = np.empty((2 * n, 4), dtype=np.int64)
+                grown[:n] = out
+                out = grown
+            out[n, 0] = p
+            out[n, 1] = k
+            out[n, 2] = l
+            out[n, 3] = q
+            n += 1
+    return out[:n]

@@ -395,6 +395,34 @@ def _pairs_sections(pairs: pd.DataFrame, truth: list | None = None) -> str:
             f"{_frame_table(low)}</section>")
 
 
+#: ambiguity groups listed in the report at most
+GROUP_ROWS = 30
+
+
+def _ambiguity_section(summary: dict, pairs: pd.DataFrame) -> str:
+    """The interchangeable nodes: the ambiguity figures and the nodes with alternatives, largest
+    sets first."""
+    amb = summary.get("ambiguity")
+    if not amb:
+        return ""
+    rows = [("groups", amb["groups"]), ("nodes in groups", amb["nodes_in_groups"]),
+            ("largest group", amb["largest_group"]), ("neutral 2-exchanges", amb["neutral_exchanges"]),
+            ("indistinguishable pairs", amb["indistinguishable_pairs"]),
+            ("prior tolerance", amb["prior_tolerance"])]
+    if amb.get("nc_up_to_ambiguity") is not None:
+        rows.append(("NC up to ambiguity", amb["nc_up_to_ambiguity"]))
+    listed = ""
+    if "alternatives" in pairs and (pairs["alternatives"] != "").any():
+        alt = pairs.loc[pairs["alternatives"] != "", ["node_a", "node_b", "alternatives"]]
+        alt = alt.assign(n=alt["alternatives"].str.count(";") + 1)
+        alt = alt.sort_values(["n", "node_a"], ascending=[False, True], kind="stable").head(GROUP_ROWS)
+        listed = _frame_table(alt.drop(columns="n"))
+    return ("<section><h2>Interchangeable nodes</h2><p class='note'>Nodes the matching could map otherwise at no "
+            "loss of conserved edges and within the prior tolerance: the choice among them is arbitrary. "
+            f"Up to {GROUP_ROWS} nodes with alternatives are listed, most alternatives first.</p>"
+            + _kv_table(rows) + listed + "</section>")
+
+
 #: quantiles of the support shown in the report
 SUPPORT_QUANTILES = (0.0, 0.25, 0.5, 0.75, 0.9, 0.99, 1.0)
 
@@ -462,7 +490,7 @@ def build_report(outdir, *, network_a=None, network_b=None, delimiter: str | Non
     sections = [_inputs_section(run.summary), _scores_section(run.summary), _weighted_section(run.summary),
                 _seeds_section(run.summary), _sweep_section(run.out), explorer.explorer_section(data, truth_note),
                 _distributions_section(run), _subgraph_section(run), _pairs_sections(run.pairs, run.truth),
-                _transfer_section(run.out)]
+                _ambiguity_section(run.summary, run.pairs), _transfer_section(run.out)]
     path = run.out / REPORT_FILE
     write_text_atomic(path, _page(run.out, run.summary.get("version", ""), [s for s in sections if s]))
     return path

@@ -23,7 +23,7 @@ def test_align_writes_documented_outputs(tmp_path):
     assert res.exit_code == 0, res.output
     out = tmp_path / "out"
     tab = pd.read_csv(out / "alignment.tsv", sep="\t", keep_default_na=False)
-    assert list(tab.columns) == ["node_a", "node_b", "score", "prior", "conserved", "confidence"]
+    assert list(tab.columns) == ["node_a", "node_b", "score", "prior", "conserved", "confidence", "alternatives"]
     assert tab.node_a.is_unique and tab.node_b.is_unique
     summary = json.loads((out / "summary.json").read_text())
     for key in ("ec", "ics", "s3", "nc", "conserved_edges"):

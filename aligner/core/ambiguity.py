@@ -1,0 +1,200 @@
+"""Interchangeable nodes: where the final matching could differ at no loss.
+
+Bilateral animals, duplicated genes and near-duplicate records make some nodes interchangeable:
+swapping them changes neither the conserved edges nor (within a tolerance) the prior, and the
+matching picks one arbitrarily. Two kinds of evidence are collected:
+
+- **Neutral exchanges.** The 2-exchanges of the refinement's local search (a node takes another
+  candidate partner; the node holding that partner takes the first node's, or goes unmatched)
+  that keep the conserved edges exactly and the summed prior within ``prior_tol``
+  (:func:`aligner.kernels.refine.neutral_exchanges`).
+- **Indistinguishable nodes.** Matched nodes i and j of A with the same colour under colour
+  refinement (the 1-dimensional Weisfeiler–Lehman test, Weisfeiler & Leman 1968) whose partners
+  have the same colour in B, where i could take j's partner (a candidate pair) at a prior within
+  ``prior_tol`` of its own. Colour refinement cannot tell apart nodes that an automorphism swaps,
+  so this finds the mirror image of a bilaterally symmetric network, a swap of many pairs at
+  once that no 2-exchange reaches. (Equal colours are necessary for an automorphism, not
+  sufficient; on the graphs where they differ, regular graphs for instance, the wiring indeed
+  does not tell the nodes apart locally.)
+
+Nodes of A joined by either kind form *ambiguity groups* (connected components); each matched
+node's *alternatives* are the nodes of B it could take.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+import numpy as np
+import numpy.typing as npt
+import scipy.sparse as sp
+from scipy.sparse.csgraph import connected_components
+
+from aligner.core.candidates import CandidateSet
+from aligner.core.product import ProductGraph
+from aligner.core.refine import _matched_counts
+from aligner.kernels.refine import neutral_exchanges
+
+__all__ = ["Ambiguity", "colour_classes", "find_ambiguity", "PRIOR_TOL", "MAX_ALTERNATIVES"]
+
+#: default tolerance on the prior, relative to that of the pairs a move gives up
+PRIOR_TOL = 0.05
+#: alternatives listed per node at most (the nearest in prior first)
+MAX_ALTERNATIVES = 20
+
+
+def colour_classes(indptr: npt.NDArray[np.integer], indices: npt.NDArray[np.integer], n: int,
+                   initial: npt.ArrayLike | None = None, *, max_rounds: int = 100) -> npt.NDArray[np.int64]:
+    """Colour refinement: each round, a node's new colour is its colour with the multiset of its
+    neighbours' colours; stops when the number of colours stops growing. Returns colours 0..c-1.
+
+    The multiset is summarised by two sums of random 26-bit labels of the neighbours' colours
+    (exact in double precision up to 2^27 neighbours), and colour and sums are hashed into one
+    64-bit key, so two different multisets share a colour with probability about 2^-50 per pair
+    of nodes. Deterministic (a fixed seed). O(edges) per round plus a sort of the n keys.
+    """
+    indptr = np.asarray(indptr, dtype=np.int64)
+    indices = np.asarray(indices, dtype=np.int64)
+    colour = np.zeros(n, dtype=np.int64) if initial is None else np.unique(initial, return_inverse=True)[1]
+    count = len(np.unique(colour)) if n else 0
+    rng = np.random.default_rng(20261203)
+    row = np.repeat(np.arange(n), np.diff(indptr[: n + 1]))
+    for _ in range(max_rounds):
+        labels = rng.integers(1, 1 << 26, size=(2, count)).astype(np.float64)
+        s1 = np.bincount(row, weights=labels[0][colour[indices]], minlength=n).astype(np.uint64)
+        s2 = np.bincount(row, weights=labels[1][colour[indices]], minlength=n).astype(np.uint64)
+        with np.errstate(over="ignore"):
+            key = (colour.astype(np.uint64) * np.uint64(0x9E3779B97F4A7C15) + s1 * np.uint64(0xC2B2AE3D27D4EB4F)
+                   + s2 * np.uint64(0x165667B19E3779F9))
+        _, new = np.unique(key, return_inverse=True)
+        new = new.reshape(-1).astype(np.int64)
+        new_count = int(new.max()) + 1 if n else 0
+        colour = new
+        if new_count == count:
+            break
+        count = new_count
+    return colour
+
+
+@dataclass(frozen=True, eq=False)
+class Ambiguity:
+    """The ambiguity of a matching.
+
+    Attributes
+    ----------
+    alternatives : list of ndarray
+        For each matched pair (in the matching's order), the nodes of B its node of A could
+        take at no loss (sorted, without its own partner).
+    group : ndarray of int64
+        For each matched pair, its group number, or -1 when its node is in no group.
+    groups, nodes_in_groups, largest_group : int
+    exchanges, indistinguishable : int
+        Neutral 2-exchanges found, and pairs of matched nodes found indistinguishable.
+    prior_tol : float
+    """
+
+    alternatives: list
+    group: npt.NDArray[np.int64]
+    groups: int
+    nodes_in_groups: int
+    largest_group: int
+    exchanges: int
+    indistinguishable: int
+    prior_tol: float
+
+    def report(self) -> dict:
+        return {"groups": self.groups, "nodes_in_groups": self.nodes_in_groups, "largest_group": self.largest_group,
+                "neutral_exchanges": self.exchanges, "indistinguishable_pairs": self.indistinguishable,
+                "prior_tolerance": self.prior_tol}
+
+
+def _indistinguishable(cand: CandidateSet, index, colour_a, colour_b, prior_tol: float):
+    """(i, j') alternatives from colour classes: i could take j's partner j' (see the module)."""
+    pairs = cand.pairs[index].astype(np.int64)
+    i, ip = pairs[:, 0], pairs[:, 1]
+    key = colour_a[i] * (int(colour_b.max()) + 1 if len(colour_b) else 1) + colour_b[ip]
+    order = np.argsort(key, kind="stable")
+    k_sorted = key[order]
+    starts = np.flatnonzero(np.r_[True, k_sorted[1:] != k_sorted[:-1]])
+    sizes = np.diff(np.r_[starts, len(order)])
+    out_i, out_b = [], []
+    lookup_key = cand.pairs[:, 0].astype(np.int64) * cand.n2 + cand.pairs[:, 1]
+    for s, size in zip(starts[sizes > 1], sizes[sizes > 1]):
+        members = order[s:s + size]
+        if size > 200:  # a huge class (a regular graph): too uninformative to list
+            continue
+        a_nodes, b_nodes = i[members], ip[members]
+        own = cand.prior[index[members]]
+        for t in range(size):
+            want = a_nodes[t] * cand.n2 + b_nodes
+            pos = np.searchsorted(lookup_key, want)
+            pos = np.minimum(pos, len(lookup_key) - 1)
+            ok = (lookup_key[pos] == want) & (np.arange(size) != t)
+            ok &= np.abs(cand.prior[pos] - own[t]) <= prior_tol * np.maximum(own[t], 1e-300)
+            out_i.extend([a_nodes[t]] * int(ok.sum()))
+            out_b.extend(b_nodes[ok].tolist())
+    return np.asarray(out_i, dtype=np.int64), np.asarray(out_b, dtype=np.int64)
+
+
+def find_ambiguity(prod: ProductGraph, cand: CandidateSet, index: npt.ArrayLike, *, walk_a, walk_b,
+                   prior_tol: float = PRIOR_TOL) -> Ambiguity:
+    """Alternatives and groups of the matching ``index`` (candidate indices), see the module.
+
+    ``prod`` is the (symmetrised, for directed networks) product graph; ``walk_a``, ``walk_b``
+    the (indptr, indices) adjacencies colour refinement runs on.
+    """
+    index = np.asarray(index, dtype=np.int64)
+    n1, n2 = cand.n1, cand.n2
+    pa = np.ascontiguousarray(cand.pairs[:, 0], dtype=np.int64)
+    pb = np.ascontiguousarray(cand.pairs[:, 1], dtype=np.int64)
+    mate_a = np.full(n1, -1, dtype=np.int64)
+    mate_b = np.full(n2, -1, dtype=np.int64)
+    mate_a[pa[index]] = index
+    mate_b[pb[index]] = index
+    g = _matched_counts(prod, index) if len(index) else np.zeros(cand.m)
+    moves = neutral_exchanges(prod.indptr, prod.indices, cand.a_indptr, pa, pb, np.ascontiguousarray(g),
+                              np.ascontiguousarray(cand.prior, dtype=np.float64), mate_a, mate_b, float(prior_tol))
+    # i takes p's node of B; when l exists and q = (j, i') exists, j takes i'
+    alt_i = [pa[moves[:, 0]]]
+    alt_b = [pb[moves[:, 0]]]
+    link_u = [pa[moves[:, 0]]]
+    link_v = [np.where(moves[:, 2] >= 0, pa[np.maximum(moves[:, 2], 0)], pa[moves[:, 0]])]
+    with_q = moves[:, 3] >= 0
+    alt_i.append(pa[moves[with_q, 3]])
+    alt_b.append(pb[moves[with_q, 3]])
+    colour_a = colour_classes(*walk_a, n1)
+    colour_b = colour_classes(*walk_b, n2)
+    ind_i, ind_b = _indistinguishable(cand, index, colour_a, colour_b, prior_tol)
+    alt_i.append(ind_i)
+    alt_b.append(ind_b)
+    holder = np.full(n2, -1, dtype=np.int64)
+    holder[pb[index]] = pa[index]
+    link_u.append(ind_i)
+    link_v.append(np.where(holder[ind_b] >= 0, holder[ind_b], ind_i))
+    ai, ab = np.concatenate(alt_i), np.concatenate(alt_b)
+    # alternatives per matched node, without its own partner, nearest prior first, capped
+    matched_a = pa[index]
+    own_b = np.full(n1, -1, dtype=np.int64)
+    own_b[matched_a] = pb[index]
+    keep = ab != own_b[ai]
+    ai, ab = ai[keep], ab[keep]
+    uniq = np.unique(ai * n2 + ab)
+    ai, ab = uniq // max(n2, 1), uniq % max(n2, 1)
+    starts = np.searchsorted(ai, matched_a)
+    ends = np.searchsorted(ai, matched_a, side="right")
+    alternatives = [np.sort(ab[s:e])[:MAX_ALTERNATIVES] for s, e in zip(starts, ends)]
+    # groups: components of the links among nodes of A
+    u, v = np.concatenate(link_u), np.concatenate(link_v)
+    graph = sp.coo_matrix((np.ones(len(u)), (u, v)), shape=(n1, n1)).tocsr()
+    _, comp = connected_components(graph, directed=False)
+    in_link = np.zeros(n1, dtype=bool)
+    in_link[u] = True
+    in_link[v] = True
+    sizes = np.bincount(comp[in_link], minlength=comp.max() + 1 if n1 else 0)
+    real = sizes >= 1  # a node alone with an alternative (a free candidate) is a group of one
+    renum = np.full(len(sizes), -1, dtype=np.int64)
+    renum[real] = np.arange(int(real.sum()))
+    group = np.where(in_link[matched_a], renum[comp[matched_a]], -1)
+    return Ambiguity(alternatives=alternatives, group=group, groups=int(real.sum()),
+                     nodes_in_groups=int(sizes[real].sum()), largest_group=int(sizes.max()) if real.any() else 0,
+                     exchanges=int(len(moves)), indistinguishable=int(len(ind_i)), prior_tol=float(prior_tol))
