@@ -518,11 +518,11 @@ def _pairs_frame(problem: Problem, diffusion: DiffusionResult, index: np.ndarray
 
 def _alternatives_column(net_b: Network, ambiguity: Ambiguity) -> np.ndarray:
     """Each matched node's alternatives as one text field: names of B joined by ';' (empty when none)."""
-    out = np.full(len(ambiguity.alternatives), "", dtype=object)
+    ptr = ambiguity.alt_ptr
+    out = np.full(len(ptr) - 1, "", dtype=object)
     names = net_b.names if net_b.labels is None else net_b.labels
-    for t, alt in enumerate(ambiguity.alternatives):
-        if len(alt):
-            out[t] = ";".join(str(names[j]) for j in alt)
+    for t in np.flatnonzero(np.diff(ptr)):
+        out[t] = ";".join(str(names[j]) for j in ambiguity.alternatives(t))
     return out
 
 
@@ -543,10 +543,11 @@ def _nc_up_to_ambiguity(inputs: Inputs, matched: np.ndarray, ambiguity: Ambiguit
     if not len(truth):
         return None
     n1, n2 = inputs.network_a.n, inputs.network_b.n
-    ok = set((matched[:, 0] * n2 + matched[:, 1]).tolist())
-    for t, alt in enumerate(ambiguity.alternatives):
-        ok.update((int(matched[t, 0]) * n2 + alt).tolist())
-    hit = np.fromiter(((int(i) * n2 + int(j)) in ok for i, j in truth), dtype=bool, count=len(truth))
+    owner = np.repeat(np.arange(len(matched)), np.diff(ambiguity.alt_ptr))
+    ok = np.unique(np.concatenate([matched[:, 0] * n2 + matched[:, 1], matched[owner, 0] * n2 + ambiguity.alt_nodes]))
+    key = truth[:, 0] * n2 + truth[:, 1]
+    pos = np.minimum(np.searchsorted(ok, key), max(len(ok) - 1, 0))
+    hit = ok[pos] == key if len(ok) else np.zeros(len(key), dtype=bool)
     named = np.zeros(n1, dtype=bool)
     named[truth[:, 0]] = True
     right = np.zeros(n1, dtype=bool)

@@ -82,9 +82,10 @@ class Ambiguity:
 
     Attributes
     ----------
-    alternatives : list of ndarray
-        For each matched pair (in the matching's order), the nodes of B its node of A could
-        take at no loss (sorted, without its own partner).
+    alt_ptr, alt_nodes : ndarray of int64
+        For matched pair t (in the matching's order), ``alt_nodes[alt_ptr[t]:alt_ptr[t + 1]]``
+        are the nodes of B its node of A could take at no loss (sorted, without its own
+        partner, at most :data:`MAX_ALTERNATIVES`); :meth:`alternatives` gives one list.
     group : ndarray of int64
         For each matched pair, its group number, or -1 when its node is in no group.
     groups, nodes_in_groups, largest_group : int
@@ -93,7 +94,8 @@ class Ambiguity:
     prior_tol : float
     """
 
-    alternatives: list
+    alt_ptr: npt.NDArray[np.int64]
+    alt_nodes: npt.NDArray[np.int64]
     group: npt.NDArray[np.int64]
     groups: int
     nodes_in_groups: int
@@ -101,6 +103,10 @@ class Ambiguity:
     exchanges: int
     indistinguishable: int
     prior_tol: float
+
+    def alternatives(self, t: int) -> npt.NDArray[np.int64]:
+        """The alternatives of matched pair ``t``."""
+        return self.alt_nodes[self.alt_ptr[t]:self.alt_ptr[t + 1]]
 
     def report(self) -> dict:
         return {"groups": self.groups, "nodes_in_groups": self.nodes_in_groups, "largest_group": self.largest_group,
@@ -180,9 +186,18 @@ def find_ambiguity(prod: ProductGraph, cand: CandidateSet, index: npt.ArrayLike,
     ai, ab = ai[keep], ab[keep]
     uniq = np.unique(ai * n2 + ab)
     ai, ab = uniq // max(n2, 1), uniq % max(n2, 1)
-    starts = np.searchsorted(ai, matched_a)
-    ends = np.searchsorted(ai, matched_a, side="right")
-    alternatives = [np.sort(ab[s:e])[:MAX_ALTERNATIVES] for s, e in zip(starts, ends)]
+    # per matched pair, in the matching's order, its node's alternatives (sorted, at most
+    # MAX_ALTERNATIVES): a CSR over the pairs
+    slot = np.full(n1, -1, dtype=np.int64)
+    slot[matched_a] = np.arange(len(index))
+    owner = slot[ai]
+    ai, ab, owner = ai[owner >= 0], ab[owner >= 0], owner[owner >= 0]
+    order = np.lexsort((ab, owner))
+    owner, ab = owner[order], ab[order]
+    rank = np.arange(len(owner)) - np.searchsorted(owner, owner)
+    owner, ab = owner[rank < MAX_ALTERNATIVES], ab[rank < MAX_ALTERNATIVES]
+    alt_ptr = np.zeros(len(index) + 1, dtype=np.int64)
+    np.cumsum(np.bincount(owner, minlength=len(index)), out=alt_ptr[1:])
     # groups: components of the links among nodes of A
     u, v = np.concatenate(link_u), np.concatenate(link_v)
     graph = sp.coo_matrix((np.ones(len(u)), (u, v)), shape=(n1, n1)).tocsr()
@@ -195,6 +210,6 @@ def find_ambiguity(prod: ProductGraph, cand: CandidateSet, index: npt.ArrayLike,
     renum = np.full(len(sizes), -1, dtype=np.int64)
     renum[real] = np.arange(int(real.sum()))
     group = np.where(in_link[matched_a], renum[comp[matched_a]], -1)
-    return Ambiguity(alternatives=alternatives, group=group, groups=int(real.sum()),
+    return Ambiguity(alt_ptr=alt_ptr, alt_nodes=ab, group=group, groups=int(real.sum()),
                      nodes_in_groups=int(sizes[real].sum()), largest_group=int(sizes.max()) if real.any() else 0,
                      exchanges=int(len(moves)), indistinguishable=int(len(ind_i)), prior_tol=float(prior_tol))

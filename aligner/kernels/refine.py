@@ -384,12 +384,18 @@ def neutral_exchanges(s_indptr, s_indices, c_indptr, pair_a, pair_b, g, prior, m
         for p in range(c_indptr[i], c_indptr[i + 1]):
             if p == k:
                 continue
-            delta, l, q = _move(s_indptr, s_indices, c_indptr, pair_a, pair_b, g, mate_a, mate_b, k, p)
-            if delta != 0.0:
-                continue
+            # the prior first: it rules out nearly every move before any adjacency is looked up
+            l = mate_b[pair_b[p]]
+            q = -1
+            if l >= 0:
+                j = pair_a[l]
+                q = _find(pair_b, c_indptr[j], c_indptr[j + 1], pair_b[k])
             given = prior[k] + (prior[l] if l >= 0 else 0.0)
             taken = prior[p] + (prior[q] if q >= 0 else 0.0)
             if abs(taken - given) > prior_tol * given:
+                continue
+            delta, l, q = _move(s_indptr, s_indices, c_indptr, pair_a, pair_b, g, mate_a, mate_b, k, p)
+            if delta != 0.0:
                 continue
             if n == out.shape[0]:
                 grown = np.empty((2 * n, 4), dtype=np.int64)
