@@ -25,7 +25,7 @@ import numpy as np
 import pandas as pd
 import pyarrow as pa
 
-from aligner.io.state import STATE_FILE, state_bytes
+from aligner.io.state import STATE_FILE, write_state
 from aligner.checks import warn
 from aligner.core import tsv
 from aligner.errors import InvalidParameterError
@@ -204,8 +204,9 @@ def _can_swap(out: Path) -> bool:
     return not inside and not os.path.ismount(out) and os.access(out.parent, os.W_OK | os.X_OK)
 
 
-def publish_outputs(outdir: str | os.PathLike, files: dict[str, str | bytes]) -> None:
-    """Make the files ``files`` (name -> text or bytes) appear in the directory ``outdir`` as one set.
+def publish_outputs(outdir: str | os.PathLike, files: dict) -> None:
+    """Make the files ``files`` (name -> text, bytes, or a function writing into an open binary
+    file) appear in the directory ``outdir`` as one set.
 
     A reader, or a run killed at any moment (Ctrl-C, SIGKILL), sees either the previous
     outputs or the new ones, never a mix; other files in ``outdir`` are kept. The scheme
@@ -254,7 +255,10 @@ def _write_new(new: Path, files: dict[str, str | bytes]) -> None:
     """Write each file into the (new, empty) staging directory, flushed and fsynced."""
     for name, data in files.items():
         with open(new / name, "xb") as fh:
-            fh.write(_as_bytes(data))
+            if callable(data):  # a writer of its own (the run state, streamed)
+                data(fh)
+            else:
+                fh.write(_as_bytes(data))
             fh.flush()
             os.fsync(fh.fileno())
     _fsync_dir(new)
@@ -423,7 +427,8 @@ def write_outputs(outdir: str | os.PathLike, result, *, force: bool = False,
     files = {"alignment.tsv": pairs, "conserved_edges.tsv": cons, TRANSFER_TABLE: moved,
              "summary.json": json_text(result.summary)}
     if hasattr(result, "state"):  # a result of the pipeline (not a bare table holder)
-        files[STATE_FILE] = state_bytes(*result.state())
+        arrays, meta = result.state()
+        files[STATE_FILE] = lambda fh: write_state(fh, arrays, meta)  # streamed: no copy of it in memory
     if parquet:
         files |= dict(zip(PARQUET_FILES, (_parquet_bytes(result.pairs, ("node_a", "node_b")),
                                           _parquet_bytes(result.conserved_edges, ("node_a1", "node_a2")),

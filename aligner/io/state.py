@@ -35,7 +35,7 @@ import numpy as np
 
 from aligner.errors import InputFormatError
 
-__all__ = ["STATE_FILE", "STATE_VERSION", "RunState", "state_bytes", "read_state", "file_digest"]
+__all__ = ["STATE_FILE", "STATE_VERSION", "RunState", "write_state", "state_bytes", "read_state", "file_digest"]
 
 STATE_FILE = "state.npz"
 STATE_VERSION = 1
@@ -72,34 +72,58 @@ def file_digest(path) -> str | None:
     return h.hexdigest()
 
 
+_DTYPES = {"edges_a": np.int32, "edges_b": np.int32, "pairs": np.int32, "prior": np.float32, "x": np.float32,
+           "matched": np.int64}
+
+
+def _stored(name: str, value) -> np.ndarray:
+    """An array as the state stores it."""
+    if name in ("names_a", "names_b"):
+        return np.asarray(value).astype(str)
+    a = np.ascontiguousarray(value, dtype=_DTYPES[name])
+    return a.reshape(-1, 2) if name in ("edges_a", "edges_b", "pairs") else a
+
+
+def _digest_update(h, name: str, a: np.ndarray) -> None:
+    h.update(name.encode())
+    h.update(str(a.dtype).encode())
+    h.update(str(a.shape).encode())
+    h.update(np.ascontiguousarray(a).tobytes())
+
+
 def _checksum(arrays: dict, meta: dict) -> str:
     h = hashlib.sha256()
     h.update(json.dumps({k: v for k, v in meta.items() if k != "checksum"}, sort_keys=True).encode())
     for name in ARRAYS:
-        a = np.ascontiguousarray(arrays[name])
-        h.update(name.encode())
-        h.update(str(a.dtype).encode())
-        h.update(str(a.shape).encode())
-        h.update(a.tobytes())
+        _digest_update(h, name, arrays[name])
     return h.hexdigest()
 
 
-def state_bytes(arrays: dict, meta: dict) -> bytes:
-    """The state file's bytes (meta gains ``format``, ``version`` and ``checksum``)."""
-    arrays = {
-        "names_a": np.asarray(arrays["names_a"]).astype(str),
-        "names_b": np.asarray(arrays["names_b"]).astype(str),
-        "edges_a": np.asarray(arrays["edges_a"], dtype=np.int32).reshape(-1, 2),
-        "edges_b": np.asarray(arrays["edges_b"], dtype=np.int32).reshape(-1, 2),
-        "pairs": np.asarray(arrays["pairs"], dtype=np.int32).reshape(-1, 2),
-        "prior": np.asarray(arrays["prior"], dtype=np.float32),
-        "x": np.asarray(arrays["x"], dtype=np.float32),
-        "matched": np.asarray(arrays["matched"], dtype=np.int64),
-    }
+def write_state(fh, arrays: dict, meta: dict) -> None:
+    """Write the state file into the open binary file ``fh`` (meta gains ``format``, ``version``
+    and ``checksum``), one array at a time: each is converted, hashed and written before the next,
+    so the state costs little memory beyond the largest array's stored copy."""
+    import zipfile
+
     meta = {"format": _FORMAT, "version": STATE_VERSION} | dict(meta)
-    meta["checksum"] = _checksum(arrays, meta)
+    h = hashlib.sha256()
+    h.update(json.dumps(meta, sort_keys=True).encode())
+    with zipfile.ZipFile(fh, mode="w", compression=zipfile.ZIP_STORED, allowZip64=True) as z:
+        for name in ARRAYS:
+            a = _stored(name, arrays[name])
+            _digest_update(h, name, a)
+            with z.open(name + ".npy", "w", force_zip64=True) as member:
+                np.lib.format.write_array(member, a, allow_pickle=False)
+            del a
+        meta["checksum"] = h.hexdigest()
+        with z.open("meta.npy", "w") as member:
+            np.lib.format.write_array(member, np.array(json.dumps(meta)), allow_pickle=False)
+
+
+def state_bytes(arrays: dict, meta: dict) -> bytes:
+    """The state file's bytes (see :func:`write_state`)."""
     buf = io.BytesIO()
-    np.savez(buf, meta=np.array(json.dumps(meta)), **arrays)
+    write_state(buf, arrays, meta)
     return buf.getvalue()
 
 
