@@ -114,32 +114,43 @@ class Ambiguity:
                 "prior_tolerance": self.prior_tol}
 
 
+#: colour classes larger than this are not listed (a regular graph's single class says nothing)
+MAX_CLASS = 200
+
+
 def _indistinguishable(cand: CandidateSet, index, colour_a, colour_b, prior_tol: float):
-    """(i, j') alternatives from colour classes: i could take j's partner j' (see the module)."""
+    """(i, j') alternatives from colour classes: i could take j's partner j' (see the module).
+
+    Matched pairs are grouped by (colour of the node of A, colour of its partner); within a group
+    of s pairs all s (s - 1) ordered swaps are checked at once (vectorised): the pair (i, j') must
+    be a candidate with a prior within ``prior_tol`` of i's own.
+    """
     pairs = cand.pairs[index].astype(np.int64)
     i, ip = pairs[:, 0], pairs[:, 1]
-    key = colour_a[i] * (int(colour_b.max()) + 1 if len(colour_b) else 1) + colour_b[ip]
+    width = int(colour_b.max()) + 1 if len(colour_b) else 1
+    key = colour_a[i] * width + colour_b[ip]
     order = np.argsort(key, kind="stable")
     k_sorted = key[order]
-    starts = np.flatnonzero(np.r_[True, k_sorted[1:] != k_sorted[:-1]])
+    starts = np.flatnonzero(np.r_[True, k_sorted[1:] != k_sorted[:-1]]) if len(order) else np.zeros(0, np.int64)
     sizes = np.diff(np.r_[starts, len(order)])
-    out_i, out_b = [], []
+    pick = (sizes > 1) & (sizes <= MAX_CLASS)
+    starts, sizes = starts[pick], sizes[pick]
+    if not len(sizes):
+        return np.empty(0, dtype=np.int64), np.empty(0, dtype=np.int64)
+    # every ordered pair (t, u) of positions in the same class
+    member = np.repeat(starts, sizes) + (np.arange(sizes.sum()) - np.repeat(np.cumsum(sizes) - sizes, sizes))
+    per = np.repeat(sizes, sizes)  # each member meets every member of its class
+    t = np.repeat(member, per)
+    first = np.repeat(np.repeat(starts, sizes), per)
+    u = first + (np.arange(per.sum()) - np.repeat(np.cumsum(per) - per, per))
+    keep = t != u
+    t, u = order[t[keep]], order[u[keep]]
+    want = i[t] * cand.n2 + ip[u]
     lookup_key = cand.pairs[:, 0].astype(np.int64) * cand.n2 + cand.pairs[:, 1]
-    for s, size in zip(starts[sizes > 1], sizes[sizes > 1]):
-        members = order[s:s + size]
-        if size > 200:  # a huge class (a regular graph): too uninformative to list
-            continue
-        a_nodes, b_nodes = i[members], ip[members]
-        own = cand.prior[index[members]]
-        for t in range(size):
-            want = a_nodes[t] * cand.n2 + b_nodes
-            pos = np.searchsorted(lookup_key, want)
-            pos = np.minimum(pos, len(lookup_key) - 1)
-            ok = (lookup_key[pos] == want) & (np.arange(size) != t)
-            ok &= np.abs(cand.prior[pos] - own[t]) <= prior_tol * np.maximum(own[t], 1e-300)
-            out_i.extend([a_nodes[t]] * int(ok.sum()))
-            out_b.extend(b_nodes[ok].tolist())
-    return np.asarray(out_i, dtype=np.int64), np.asarray(out_b, dtype=np.int64)
+    pos = np.minimum(np.searchsorted(lookup_key, want), len(lookup_key) - 1)
+    own = cand.prior[index[t]]
+    ok = (lookup_key[pos] == want) & (np.abs(cand.prior[pos] - own) <= prior_tol * np.maximum(own, 1e-300))
+    return i[t[ok]], ip[u[ok]]
 
 
 def find_ambiguity(prod: ProductGraph, cand: CandidateSet, index: npt.ArrayLike, *, walk_a, walk_b,

@@ -325,8 +325,8 @@ def _local_search(s_indptr, s_indices, c_indptr, col_ptr, col_idx, pair_a, pair_
 @numba.njit(cache=True, nogil=True)
 def _move(s_indptr, s_indices, c_indptr, pair_a, pair_b, f, mate_a, mate_b, k, p):
     """The 2-exchange of candidate p = (i, j') against the matching (k = M at i, or -1): its
-    Delta F (see :func:`exchange_losses`), the pair l = M at j' it displaces and q = (j, i')
-    (each -1 when absent)."""
+    Delta F (see :func:`exchange_losses`, whose loop has the same lines written out), the pair
+    l = M at j' it displaces and q = (j, i') (each -1 when absent)."""
     l = mate_b[pair_b[p]]
     delta = f[p]
     q = -1
@@ -360,9 +360,21 @@ def exchange_losses(s_indptr, s_indices, c_indptr, pair_a, pair_b, f, mate_a, ma
         for p in range(c_indptr[i], c_indptr[i + 1]):
             if p == k:
                 continue
-            delta, l, q = _move(s_indptr, s_indices, c_indptr, pair_a, pair_b, f, mate_a, mate_b, k, p)
-            if l >= 0 and -delta < loss[pair_a[l]]:
-                loss[pair_a[l]] = -delta
+            # the body of _move, written out: through the helper this loop ran at half the speed
+            l = mate_b[pair_b[p]]
+            delta = f[p]
+            if k >= 0:
+                delta -= f[k]
+            if l >= 0:
+                delta -= f[l]
+                j = pair_a[l]
+                if k >= 0:
+                    delta += _adjacent(s_indptr, s_indices, k, l)
+                    q = _find(pair_b, c_indptr[j], c_indptr[j + 1], pair_b[k])
+                    if q >= 0:
+                        delta += f[q] + _adjacent(s_indptr, s_indices, p, q)
+                if -delta < loss[j]:
+                    loss[j] = -delta
             if k >= 0 and -delta < loss[i]:
                 loss[i] = -delta
 
