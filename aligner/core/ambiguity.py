@@ -8,10 +8,11 @@ matching picks one arbitrarily. Two kinds of evidence are collected:
   candidate partner; the node holding that partner takes the first node's, or goes unmatched)
   that keep the conserved edges exactly and the summed prior within ``prior_tol``
   (:func:`aligner.kernels.refine.neutral_exchanges`).
-- **Indistinguishable nodes.** Matched nodes i and j of A with the same colour under colour
-  refinement (the 1-dimensional Weisfeiler–Lehman test, Weisfeiler & Leman 1968) whose partners
-  have the same colour in B, where i could take j's partner (a candidate pair) at a prior within
-  ``prior_tol`` of its own. Colour refinement cannot tell apart nodes that an automorphism swaps,
+- **Indistinguishable nodes.** Matched pairs (i, i') and (j, j') that could swap partners (both
+  (i, j') and (j, i') are candidates, each at a prior within ``prior_tol`` of the pair it would
+  replace) where colour refinement (the 1-dimensional Weisfeiler–Lehman test, Weisfeiler & Leman
+  1968) gives i and j one colour in A and i' and j' one colour in B. Refinement runs only while
+  such a pair is still undecided, so priors that rule out every swap cost nothing. Colour refinement cannot tell apart nodes that an automorphism swaps,
   so this finds the mirror image of a bilaterally symmetric network, a swap of many pairs at
   once that no 2-exchange reaches. (Equal colours are necessary for an automorphism, not
   sufficient; on the graphs where they differ, regular graphs for instance, the wiring indeed
@@ -44,9 +45,14 @@ MAX_ALTERNATIVES = 20
 
 
 def colour_classes(indptr: npt.NDArray[np.integer], indices: npt.NDArray[np.integer], n: int,
-                   initial: npt.ArrayLike | None = None, *, max_rounds: int = 100) -> npt.NDArray[np.int64]:
+                   initial: npt.ArrayLike | None = None, *, max_rounds: int = 100,
+                   watch: tuple | None = None) -> npt.NDArray[np.int64]:
     """Colour refinement: each round, a node's new colour is its colour with the multiset of its
     neighbours' colours; stops when the number of colours stops growing. Returns colours 0..c-1.
+
+    ``watch``: optional arrays (u, v) of node pairs; refinement also stops as soon as every
+    watched pair has two colours (only whether they end equal is asked then, and it is settled:
+    refinement never merges colours).
 
     The multiset is summarised by two sums of random 26-bit labels of the neighbours' colours
     (exact in double precision up to 2^27 neighbours), and colour and sums are hashed into one
@@ -73,6 +79,8 @@ def colour_classes(indptr: npt.NDArray[np.integer], indices: npt.NDArray[np.inte
         if new_count == count:
             break
         count = new_count
+        if watch is not None and not np.any(colour[watch[0]] == colour[watch[1]]):
+            break
     return colour
 
 
@@ -114,43 +122,47 @@ class Ambiguity:
                 "prior_tolerance": self.prior_tol}
 
 
-#: colour classes larger than this are not listed (a regular graph's single class says nothing)
-MAX_CLASS = 200
-
-
-def _indistinguishable(cand: CandidateSet, index, colour_a, colour_b, prior_tol: float):
-    """(i, j') alternatives from colour classes: i could take j's partner j' (see the module).
-
-    Matched pairs are grouped by (colour of the node of A, colour of its partner); within a group
-    of s pairs all s (s - 1) ordered swaps are checked at once (vectorised): the pair (i, j') must
-    be a candidate with a prior within ``prior_tol`` of i's own.
-    """
+def _swap_candidates(cand: CandidateSet, index, prior_tol: float):
+    """Pairs (t, u) of matched pairs (positions in ``index``) that could swap partners: both
+    (i_t, i'_u) and (i_u, i'_t) are candidates with a prior within ``prior_tol`` of the pair's own."""
     pairs = cand.pairs[index].astype(np.int64)
-    i, ip = pairs[:, 0], pairs[:, 1]
-    width = int(colour_b.max()) + 1 if len(colour_b) else 1
-    key = colour_a[i] * width + colour_b[ip]
-    order = np.argsort(key, kind="stable")
-    k_sorted = key[order]
-    starts = np.flatnonzero(np.r_[True, k_sorted[1:] != k_sorted[:-1]]) if len(order) else np.zeros(0, np.int64)
-    sizes = np.diff(np.r_[starts, len(order)])
-    pick = (sizes > 1) & (sizes <= MAX_CLASS)
-    starts, sizes = starts[pick], sizes[pick]
-    if not len(sizes):
-        return np.empty(0, dtype=np.int64), np.empty(0, dtype=np.int64)
-    # every ordered pair (t, u) of positions in the same class
-    member = np.repeat(starts, sizes) + (np.arange(sizes.sum()) - np.repeat(np.cumsum(sizes) - sizes, sizes))
-    per = np.repeat(sizes, sizes)  # each member meets every member of its class
-    t = np.repeat(member, per)
-    first = np.repeat(np.repeat(starts, sizes), per)
-    u = first + (np.arange(per.sum()) - np.repeat(np.cumsum(per) - per, per))
-    keep = t != u
-    t, u = order[t[keep]], order[u[keep]]
-    want = i[t] * cand.n2 + ip[u]
-    lookup_key = cand.pairs[:, 0].astype(np.int64) * cand.n2 + cand.pairs[:, 1]
-    pos = np.minimum(np.searchsorted(lookup_key, want), len(lookup_key) - 1)
+    n2 = max(cand.n2, 1)
+    slot_b = np.full(cand.n2, -1, dtype=np.int64)
+    slot_b[pairs[:, 1]] = np.arange(len(index))
+    slot_a = np.full(cand.n1, -1, dtype=np.int64)
+    slot_a[pairs[:, 0]] = np.arange(len(index))
+    # every candidate (i, b) with i matched (pair t) and b matched to another pair u
+    t = slot_a[cand.pairs[:, 0]]
+    u = slot_b[cand.pairs[:, 1]]
+    ok = (t >= 0) & (u >= 0) & (t != u)
+    rows = np.flatnonzero(ok)
+    t, u = t[ok], u[ok]
     own = cand.prior[index[t]]
-    ok = (lookup_key[pos] == want) & (np.abs(cand.prior[pos] - own) <= prior_tol * np.maximum(own, 1e-300))
-    return i[t[ok]], ip[u[ok]]
+    close = np.abs(cand.prior[rows] - own) <= prior_tol * np.maximum(own, 1e-300)
+    t, u = t[close], u[close]
+    key = t * len(index) + u
+    back = np.isin(key, u * len(index) + t, assume_unique=False)  # the swap is open both ways
+    return t[back], u[back]
+
+
+def _indistinguishable(cand: CandidateSet, index, walk_a, walk_b, prior_tol: float):
+    """(i, j') alternatives from colour classes: matched pairs (i, i') and (j, j') that could swap
+    partners at a close prior, where colour refinement gives i and j one colour in A and i' and j'
+    one colour in B (see the module). Refinement runs only while some such pair is undecided."""
+    t, u = _swap_candidates(cand, index, prior_tol)
+    if not len(t):
+        return np.empty(0, dtype=np.int64), np.empty(0, dtype=np.int64)
+    pairs = cand.pairs[index].astype(np.int64)
+    ia, ib = pairs[t, 0], pairs[u, 0]
+    colour_a = colour_classes(*walk_a, cand.n1, watch=(ia, ib))
+    same = colour_a[ia] == colour_a[ib]
+    t, u = t[same], u[same]
+    if not len(t):
+        return np.empty(0, dtype=np.int64), np.empty(0, dtype=np.int64)
+    ja, jb = pairs[t, 1], pairs[u, 1]
+    colour_b = colour_classes(*walk_b, cand.n2, watch=(ja, jb))
+    same = colour_b[ja] == colour_b[jb]
+    return pairs[t[same], 0], pairs[u[same], 1]
 
 
 def find_ambiguity(prod: ProductGraph, cand: CandidateSet, index: npt.ArrayLike, *, walk_a, walk_b,
@@ -179,9 +191,7 @@ def find_ambiguity(prod: ProductGraph, cand: CandidateSet, index: npt.ArrayLike,
     with_q = moves[:, 3] >= 0
     alt_i.append(pa[moves[with_q, 3]])
     alt_b.append(pb[moves[with_q, 3]])
-    colour_a = colour_classes(*walk_a, n1)
-    colour_b = colour_classes(*walk_b, n2)
-    ind_i, ind_b = _indistinguishable(cand, index, colour_a, colour_b, prior_tol)
+    ind_i, ind_b = _indistinguishable(cand, index, walk_a, walk_b, prior_tol)
     alt_i.append(ind_i)
     alt_b.append(ind_b)
     holder = np.full(n2, -1, dtype=np.int64)
