@@ -298,6 +298,9 @@ class OutputConfig(_Config):
         False, "Also write the alignment, conserved-edge and transferred-edge tables as Parquet files (typed "
         "columns, for dataframe and columnar tools); the TSV files stay, and the other commands read them.",
         flag="--parquet", group="Output", kind="bool")
+    state: bool = option(
+        True, "Keep the run state (state.npz: what aligner update starts from; about 16 bytes per candidate "
+        "pair).", flag="--state/--no-state", group="Output", kind="bool")
 
 
 @dataclass(frozen=True, kw_only=True)

@@ -408,7 +408,7 @@ def _parquet_bytes(df: pd.DataFrame, sort_by=None) -> bytes:
 
 
 def write_outputs(outdir: str | os.PathLike, result, *, force: bool = False,
-                  parquet: bool = False) -> list[Path]:
+                  parquet: bool = False, state: bool = True) -> list[Path]:
     """Write alignment.tsv, conserved_edges.tsv, transferred_edges.tsv, summary.json and the run
     state (state.npz, :mod:`aligner.io.state`: what ``aligner update`` starts from) of an
     alignment into ``outdir``, as one set; with ``parquet`` also the three tables as Parquet
@@ -418,7 +418,8 @@ def write_outputs(outdir: str | os.PathLike, result, *, force: bool = False,
     ``.conserved_edges``, ``.transferred_edges()``, ``.summary``); the transferred edges are
     written in the order given (best first). The files appear together or not at all (see
     :func:`publish_outputs`), so an interrupted run (Ctrl-C, a killed process) leaves the
-    previous outputs or none, never a mix. Other files in ``outdir`` are kept.
+    previous outputs or none, never a mix. Other files in ``outdir`` are kept. ``state=False``
+    leaves the run state out.
     """
     out = check_outdir(outdir, force=force, files=output_files(parquet))
     pairs = _table_bytes(result.pairs, sort_by=("node_a", "node_b"))
@@ -426,7 +427,7 @@ def write_outputs(outdir: str | os.PathLike, result, *, force: bool = False,
     moved = _table_bytes(result.transferred_edges())
     files = {"alignment.tsv": pairs, "conserved_edges.tsv": cons, TRANSFER_TABLE: moved,
              "summary.json": json_text(result.summary)}
-    if hasattr(result, "state"):  # a result of the pipeline (not a bare table holder)
+    if state and hasattr(result, "state"):  # a result of the pipeline (not a bare table holder)
         arrays, meta = result.state()
         files[STATE_FILE] = lambda fh: write_state(fh, arrays, meta)  # streamed: no copy of it in memory
     if parquet:

@@ -168,3 +168,14 @@ def test_the_update_section_follows_the_schema(base):
     upd = update(d / "run")
     jsonschema.validate(json.loads(json_text(upd.summary)), schema, cls=jsonschema.Draft202012Validator)
     assert upd.summary["update"]["changes"]["candidates_added"] == 0
+
+
+def test_no_state_leaves_the_state_out(base, tmp_path):
+    # Common practice: an opt-out for a large file most runs do not need.
+    d, a, b, prior = base
+    got = runner.invoke(app, ["align", str(d / "a.tsv"), str(d / "b.tsv"), "-p", str(d / "p.tsv"), "-o",
+                              str(tmp_path / "r"), "--no-state", "--quiet"])
+    assert got.exit_code == 0, got.output
+    assert (tmp_path / "r" / "summary.json").is_file() and not (tmp_path / "r" / "state.npz").exists()
+    got = runner.invoke(app, ["update", str(tmp_path / "r"), "-o", str(tmp_path / "u")])
+    assert got.exit_code == 2 and "state.npz is missing" in got.output

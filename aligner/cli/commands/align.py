@@ -69,7 +69,8 @@ def run_align(network_a: Path, network_b: Path, prior: Path | None, outdir: Path
                 res = align(network_a, network_b, prior, seeds=seeds, truth=truth, config=config,
                             progress=on_stage, permutation_progress=bar.count)
         bar.stage("writing")
-        written = write_outputs(outdir, res, force=force, parquet=output.parquet) if outdir is not None else []
+        written = (write_outputs(outdir, res, force=force, parquet=output.parquet, state=output.state)
+                   if outdir is not None else [])
     if not quiet:
         out.print(summary_table(res.summary))
         if written:
