@@ -65,6 +65,8 @@ REACH = 1.0
 NEAREST = 8
 #: and, on each of their columns at the edge, the rows outside with the largest h on it join
 TOP_COMPETITORS = 3
+#: growth stops when the answer has stayed the same over this many steps
+STABLE_STEPS = 1
 
 
 class AnswerIndex:
@@ -351,13 +353,14 @@ def answer(engine, index: AnswerIndex, node: int, side: str = "a", *,
         rows = np.union1d([node], _competitors(sides, own, engine._h, np.array([node]), TOP_COMPETITORS))
         pairs = _free_pairs(sides, sides.pairs_of_rows(rows))
     pairs = np.sort(pairs)
-    steps, touched, pushes, previous = 0, 0, 0, None
+    steps, touched, pushes, previous, same = 0, 0, 0, None, 0
     while True:
         steps += 1
         result, edge_cols = _solve_region(engine, index, sides, node, rows, pairs, tol, max_pairs, reach)
         touched = max(touched, result["pairs_touched"])
         pushes += result["pushes"]
-        if result["certified"] or not len(edge_cols) or result["counterpart"] == previous:
+        same = same + 1 if result["counterpart"] == previous else 0
+        if result["certified"] or not len(edge_cols) or same >= STABLE_STEPS:
             break
         previous = result["counterpart"]
         grown = np.union1d(rows, _competitors(sides, edge_cols, engine._h, rows, TOP_COMPETITORS))
