@@ -5,9 +5,9 @@ swapping them changes neither the conserved edges nor (within a tolerance) the p
 matching picks one arbitrarily. Two kinds of evidence are collected:
 
 - **Neutral exchanges.** The 2-exchanges of the refinement's local search (a node takes another
-  candidate partner; the node holding that partner takes the first node's, or goes unmatched)
-  that keep the conserved edges exactly and the summed prior within ``prior_tol``
-  (:func:`aligner.kernels.refine.neutral_exchanges`).
+  candidate partner, free or held by a node that then takes the first node's partner) that keep
+  the conserved edges exactly and replace each pair by one with a prior within ``prior_tol`` of
+  it (:func:`aligner.kernels.refine.neutral_exchanges`).
 - **Indistinguishable nodes.** Matched pairs (i, i') and (j, j') that could swap partners (both
   (i, j') and (j, i') are candidates, each at a prior within ``prior_tol`` of the pair it would
   replace) where colour refinement (the 1-dimensional Weisfeiler–Lehman test, Weisfeiler & Leman
@@ -122,47 +122,24 @@ class Ambiguity:
                 "prior_tolerance": self.prior_tol}
 
 
-def _swap_candidates(cand: CandidateSet, index, prior_tol: float):
-    """Pairs (t, u) of matched pairs (positions in ``index``) that could swap partners: both
-    (i_t, i'_u) and (i_u, i'_t) are candidates with a prior within ``prior_tol`` of the pair's own."""
-    pairs = cand.pairs[index].astype(np.int64)
-    n2 = max(cand.n2, 1)
-    slot_b = np.full(cand.n2, -1, dtype=np.int64)
-    slot_b[pairs[:, 1]] = np.arange(len(index))
-    slot_a = np.full(cand.n1, -1, dtype=np.int64)
-    slot_a[pairs[:, 0]] = np.arange(len(index))
-    # every candidate (i, b) with i matched (pair t) and b matched to another pair u
-    t = slot_a[cand.pairs[:, 0]]
-    u = slot_b[cand.pairs[:, 1]]
-    ok = (t >= 0) & (u >= 0) & (t != u)
-    rows = np.flatnonzero(ok)
-    t, u = t[ok], u[ok]
-    own = cand.prior[index[t]]
-    close = np.abs(cand.prior[rows] - own) <= prior_tol * np.maximum(own, 1e-300)
-    t, u = t[close], u[close]
-    key = t * len(index) + u
-    back = np.isin(key, u * len(index) + t, assume_unique=False)  # the swap is open both ways
-    return t[back], u[back]
-
-
-def _indistinguishable(cand: CandidateSet, index, walk_a, walk_b, prior_tol: float):
+def _indistinguishable(cand: CandidateSet, index, swaps, walk_a, walk_b):
     """(i, j') alternatives from colour classes: matched pairs (i, i') and (j, j') that could swap
-    partners at a close prior, where colour refinement gives i and j one colour in A and i' and j'
-    one colour in B (see the module). Refinement runs only while some such pair is undecided."""
-    t, u = _swap_candidates(cand, index, prior_tol)
-    if not len(t):
+    partners at a close prior (``swaps`` from the exchange kernel), where colour refinement gives i
+    and j one colour in A and i' and j' one colour in B (see the module). Refinement runs only
+    while some such pair is still undecided."""
+    if not len(swaps):
         return np.empty(0, dtype=np.int64), np.empty(0, dtype=np.int64)
-    pairs = cand.pairs[index].astype(np.int64)
-    ia, ib = pairs[t, 0], pairs[u, 0]
+    k, l = swaps[:, 1], swaps[:, 2]
+    ia, ib = cand.pairs[k, 0].astype(np.int64), cand.pairs[l, 0].astype(np.int64)
     colour_a = colour_classes(*walk_a, cand.n1, watch=(ia, ib))
     same = colour_a[ia] == colour_a[ib]
-    t, u = t[same], u[same]
-    if not len(t):
+    k, l = k[same], l[same]
+    if not len(k):
         return np.empty(0, dtype=np.int64), np.empty(0, dtype=np.int64)
-    ja, jb = pairs[t, 1], pairs[u, 1]
+    ja, jb = cand.pairs[k, 1].astype(np.int64), cand.pairs[l, 1].astype(np.int64)
     colour_b = colour_classes(*walk_b, cand.n2, watch=(ja, jb))
     same = colour_b[ja] == colour_b[jb]
-    return pairs[t[same], 0], pairs[u[same], 1]
+    return cand.pairs[k[same], 0].astype(np.int64), jb[same]
 
 
 def find_ambiguity(prod: ProductGraph, cand: CandidateSet, index: npt.ArrayLike, *, walk_a, walk_b,
@@ -181,8 +158,9 @@ def find_ambiguity(prod: ProductGraph, cand: CandidateSet, index: npt.ArrayLike,
     mate_a[pa[index]] = index
     mate_b[pb[index]] = index
     g = _matched_counts(prod, index) if len(index) else np.zeros(cand.m)
-    moves = neutral_exchanges(prod.indptr, prod.indices, cand.a_indptr, pa, pb, np.ascontiguousarray(g),
-                              np.ascontiguousarray(cand.prior, dtype=np.float64), mate_a, mate_b, float(prior_tol))
+    moves, swaps = neutral_exchanges(prod.indptr, prod.indices, cand.a_indptr, pa, pb, np.ascontiguousarray(g),
+                                     np.ascontiguousarray(cand.prior, dtype=np.float64), mate_a, mate_b,
+                                     float(prior_tol))
     # i takes p's node of B; when l exists and q = (j, i') exists, j takes i'
     alt_i = [pa[moves[:, 0]]]
     alt_b = [pb[moves[:, 0]]]
@@ -191,7 +169,7 @@ def find_ambiguity(prod: ProductGraph, cand: CandidateSet, index: npt.ArrayLike,
     with_q = moves[:, 3] >= 0
     alt_i.append(pa[moves[with_q, 3]])
     alt_b.append(pb[moves[with_q, 3]])
-    ind_i, ind_b = _indistinguishable(cand, index, walk_a, walk_b, prior_tol)
+    ind_i, ind_b = _indistinguishable(cand, index, swaps, walk_a, walk_b)
     alt_i.append(ind_i)
     alt_b.append(ind_b)
     holder = np.full(n2, -1, dtype=np.int64)

@@ -380,42 +380,52 @@ def exchange_losses(s_indptr, s_indices, c_indptr, pair_a, pair_b, f, mate_a, ma
 
 
 @numba.njit(cache=True, nogil=True)
+def _append_row(out, n, a, b, c, d):
+    if n == out.shape[0]:
+        grown = np.empty((2 * n, 4), dtype=np.int64)
+        grown[:n] = out
+        out = grown
+    out[n, 0] = a
+    out[n, 1] = b
+    out[n, 2] = c
+    out[n, 3] = d
+    return out
+
+
+@numba.njit(cache=True, nogil=True)
 def neutral_exchanges(s_indptr, s_indices, c_indptr, pair_a, pair_b, g, prior, mate_a, mate_b, prior_tol):
     """The 2-exchanges of :func:`exchange_losses` (with f = g = S 1_M: conserved edges only) that
-    keep the conserved edges exactly and move the summed prior by at most ``prior_tol`` times the
-    prior of the pairs they give up. Returns an (n, 4) array of (p, k, l, q) candidate indices
-    (-1 where absent), one row per move, in the order of p.
+    replace each pair they give up by one with a prior within ``prior_tol`` of it (k by p; l by q,
+    or l absent) and keep the conserved edges exactly; and, among them or not, the swaps: moves
+    where l and q both exist (node i takes j's partner and j takes i's) at such priors.
+
+    Returns (moves, swaps): (n, 4) arrays of (p, k, l, q) candidate indices (-1 where absent), in
+    the order of p. The prior is tested first, so a move whose priors differ costs no adjacency
+    look-up.
     """
-    out = np.empty((64, 4), dtype=np.int64)
-    n = 0
+    moves = np.empty((64, 4), dtype=np.int64)
+    swaps = np.empty((64, 4), dtype=np.int64)
+    nm = 0
+    ns = 0
     n1 = c_indptr.shape[0] - 1
     for i in range(n1):
         k = mate_a[i]
         if k < 0:
             continue
         for p in range(c_indptr[i], c_indptr[i + 1]):
-            if p == k:
+            if p == k or abs(prior[p] - prior[k]) > prior_tol * prior[k]:
                 continue
-            # the prior first: it rules out nearly every move before any adjacency is looked up
             l = mate_b[pair_b[p]]
             q = -1
             if l >= 0:
                 j = pair_a[l]
                 q = _find(pair_b, c_indptr[j], c_indptr[j + 1], pair_b[k])
-            given = prior[k] + (prior[l] if l >= 0 else 0.0)
-            taken = prior[p] + (prior[q] if q >= 0 else 0.0)
-            if abs(taken - given) > prior_tol * given:
-                continue
+                if q < 0 or abs(prior[q] - prior[l]) > prior_tol * prior[l]:
+                    continue
+                swaps = _append_row(swaps, ns, p, k, l, q)
+                ns += 1
             delta, l, q = _move(s_indptr, s_indices, c_indptr, pair_a, pair_b, g, mate_a, mate_b, k, p)
-            if delta != 0.0:
-                continue
-            if n == out.shape[0]:
-                grown = np.empty((2 * n, 4), dtype=np.int64)
-                grown[:n] = out
-                out = grown
-            out[n, 0] = p
-            out[n, 1] = k
-            out[n, 2] = l
-            out[n, 3] = q
-            n += 1
-    return out[:n]
+            if delta == 0.0:
+                moves = _append_row(moves, nm, p, k, l, q)
+                nm += 1
+    return moves[:nm], swaps[:ns]
