@@ -778,7 +778,7 @@ class AlignmentResult:
                    "seeds": None if inputs.seeds is None else inputs.seeds.source,
                    "truth": None if inputs.truth is None else inputs.truth.source}
         meta = {"options": cfg.as_dict(),
-                "inputs": {k: None if v is None else {"source": _source(v), "sha256": file_digest(v)}
+                "inputs": {k: None if v is None else {"source": _source(v), "fingerprint": file_digest(v)}
                            for k, v in sources.items()},
                 "seconds": round(sum(self.summary["timings"].values()), 4),
                 "diffusion": {"steps": self.diffusion.steps, "edge_touches": self.diffusion.edge_touches}}

@@ -47,10 +47,10 @@ def _inputs(state, given: dict) -> dict:
         if rec is None:
             out[name] = None
             continue
-        if rec["sha256"] is None:
+        if rec["fingerprint"] is None:
             raise InvalidParameterError(f"the previous run read {name} from memory ({rec['source']}); give it to "
                                         "the update", param=name)
-        if file_digest(rec["source"]) != rec["sha256"]:
+        if file_digest(rec["source"]) != rec["fingerprint"]:
             raise InputFormatError(f"{name} of the previous run, {rec['source']}, is missing or has changed since "
                                    f"the run; give the {name} to use (the previous one is not kept in "
                                    f"{STATE_FILE})", path=rec["source"])
@@ -162,7 +162,7 @@ def update(previous, network_a=None, network_b=None, prior=None, *, seeds=None, 
         The previous run's output directory (or its state.npz).
     network_a, network_b, prior, seeds, truth : optional
         The new inputs, as for :func:`aligner.align`; one left out is the previous run's file,
-        which must be unchanged (its digest is in the state).
+        which must be unchanged (its fingerprint is in the state).
     config, **options :
         The previous run's options are used; any given must agree with them.
 

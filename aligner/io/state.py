@@ -58,17 +58,27 @@ class RunState:
             raise AttributeError(name) from None
 
 
+#: bytes read from each end of an input file for its fingerprint
+FINGERPRINT_BYTES = 1 << 20
+
+
 def file_digest(path) -> str | None:
-    """SHA-256 of a file's bytes (None for an input that is not a file)."""
+    """A fingerprint of an input file (None for an input that is not a file): its size, its
+    modification time in nanoseconds and a SHA-256 of its first and last MiB. An edit changes the
+    time (and nearly always the size or an end); reading whole files of 10^6-node inputs would
+    cost about 0.3 s a run for no practical gain."""
     try:
         if not os.path.isfile(path):
             return None
     except TypeError:
         return None
-    h = hashlib.sha256()
+    st = os.stat(path)
+    h = hashlib.sha256(f"{st.st_size}:{st.st_mtime_ns}:".encode())
     with open(path, "rb") as fh:
-        for block in iter(lambda: fh.read(1 << 22), b""):
-            h.update(block)
+        h.update(fh.read(FINGERPRINT_BYTES))
+        if st.st_size > FINGERPRINT_BYTES:
+            fh.seek(max(FINGERPRINT_BYTES, st.st_size - FINGERPRINT_BYTES))
+            h.update(fh.read(FINGERPRINT_BYTES))
     return h.hexdigest()
 
 
