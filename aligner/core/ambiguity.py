@@ -158,9 +158,9 @@ def find_ambiguity(prod: ProductGraph, cand: CandidateSet, index: npt.ArrayLike,
     mate_a[pa[index]] = index
     mate_b[pb[index]] = index
     g = _matched_counts(prod, index) if len(index) else np.zeros(cand.m)
-    moves, swaps = neutral_exchanges(prod.indptr, prod.indices, cand.a_indptr, pa, pb, np.ascontiguousarray(g),
-                                     np.ascontiguousarray(cand.prior, dtype=np.float64), mate_a, mate_b,
-                                     float(prior_tol))
+    rows = neutral_exchanges(prod.indptr, prod.indices, cand.a_indptr, pa, pb, np.ascontiguousarray(g),
+                             np.ascontiguousarray(cand.prior, dtype=np.float64), mate_a, mate_b, float(prior_tol)).reshape(-1, 5)
+    moves, swaps = rows[(rows[:, 4] & 1) == 1, :4], rows[(rows[:, 4] & 2) == 2, :4]
     # i takes p's node of B; when l exists and q = (j, i') exists, j takes i'
     alt_i = [pa[moves[:, 0]]]
     alt_b = [pb[moves[:, 0]]]

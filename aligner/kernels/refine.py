@@ -323,27 +323,6 @@ def _local_search(s_indptr, s_indices, c_indptr, col_ptr, col_idx, pair_a, pair_
 
 
 @numba.njit(cache=True, nogil=True)
-def _move(s_indptr, s_indices, c_indptr, pair_a, pair_b, f, mate_a, mate_b, k, p):
-    """The 2-exchange of candidate p = (i, j') against the matching (k = M at i, or -1): its
-    Delta F (see :func:`exchange_losses`, whose loop has the same lines written out), the pair
-    l = M at j' it displaces and q = (j, i') (each -1 when absent)."""
-    l = mate_b[pair_b[p]]
-    delta = f[p]
-    q = -1
-    if k >= 0:
-        delta -= f[k]
-    if l >= 0:
-        delta -= f[l]
-        j = pair_a[l]
-        if k >= 0:
-            delta += _adjacent(s_indptr, s_indices, k, l)
-            q = _find(pair_b, c_indptr[j], c_indptr[j + 1], pair_b[k])
-            if q >= 0:
-                delta += f[q] + _adjacent(s_indptr, s_indices, p, q)
-    return delta, l, q
-
-
-@numba.njit(cache=True, nogil=True)
 def exchange_losses(s_indptr, s_indices, c_indptr, pair_a, pair_b, f, mate_a, mate_b, loss):
     """For each node i of A, the least -Delta F over the 2-exchanges that remove its matched pair,
     into ``loss[i]`` (left as it is, e.g. inf, when there is none), in one pass over the candidates.
@@ -360,7 +339,6 @@ def exchange_losses(s_indptr, s_indices, c_indptr, pair_a, pair_b, f, mate_a, ma
         for p in range(c_indptr[i], c_indptr[i + 1]):
             if p == k:
                 continue
-            # the body of _move, written out: through the helper this loop ran at half the speed
             l = mate_b[pair_b[p]]
             delta = f[p]
             if k >= 0:
@@ -380,33 +358,18 @@ def exchange_losses(s_indptr, s_indices, c_indptr, pair_a, pair_b, f, mate_a, ma
 
 
 @numba.njit(cache=True, nogil=True)
-def _append_row(out, n, a, b, c, d):
-    if n == out.shape[0]:
-        grown = np.empty((2 * n, 4), dtype=np.int64)
-        grown[:n] = out
-        out = grown
-    out[n, 0] = a
-    out[n, 1] = b
-    out[n, 2] = c
-    out[n, 3] = d
-    return out
-
-
-@numba.njit(cache=True, nogil=True)
 def neutral_exchanges(s_indptr, s_indices, c_indptr, pair_a, pair_b, g, prior, mate_a, mate_b, prior_tol):
     """The 2-exchanges of :func:`exchange_losses` (with f = g = S 1_M: conserved edges only) that
     replace each pair they give up by one with a prior within ``prior_tol`` of it (k by p; l by q,
-    or l absent) and keep the conserved edges exactly; and, among them or not, the swaps: moves
-    where l and q both exist (node i takes j's partner and j takes i's) at such priors.
+    or l absent): the *swaps*, where l and q both exist (node i takes j's partner and j takes
+    i's), and the *neutral* moves, which also keep the conserved edges exactly.
 
-    Returns (moves, swaps): (n, 4) arrays of (p, k, l, q) candidate indices (-1 where absent), in
-    the order of p. The prior is tested first, so a move whose priors differ costs no adjacency
-    look-up.
+    Returns the rows (p, k, l, q, kind) one after the other (a flat array of 5 n entries:
+    ``reshape(-1, 5)``), candidate indices (-1 where absent), in the order of p; kind has bit 1 for a neutral move and bit 2 for a swap. The prior is tested
+    first, so a move whose priors differ costs no adjacency look-up.
     """
-    moves = np.empty((64, 4), dtype=np.int64)
-    swaps = np.empty((64, 4), dtype=np.int64)
-    nm = 0
-    ns = 0
+    out = np.empty(320, dtype=np.int64)  # rows of 5, flat (cheaper to compile than a 2-D array)
+    n = 0
     n1 = c_indptr.shape[0] - 1
     for i in range(n1):
         k = mate_a[i]
@@ -417,15 +380,26 @@ def neutral_exchanges(s_indptr, s_indices, c_indptr, pair_a, pair_b, g, prior, m
                 continue
             l = mate_b[pair_b[p]]
             q = -1
+            delta = g[p] - g[k]
             if l >= 0:
                 j = pair_a[l]
                 q = _find(pair_b, c_indptr[j], c_indptr[j + 1], pair_b[k])
                 if q < 0 or abs(prior[q] - prior[l]) > prior_tol * prior[l]:
                     continue
-                swaps = _append_row(swaps, ns, p, k, l, q)
-                ns += 1
-            delta, l, q = _move(s_indptr, s_indices, c_indptr, pair_a, pair_b, g, mate_a, mate_b, k, p)
-            if delta == 0.0:
-                moves = _append_row(moves, nm, p, k, l, q)
-                nm += 1
-    return moves[:nm], swaps[:ns]
+                delta += (g[q] - g[l] + _adjacent(s_indptr, s_indices, k, l)
+                          + _adjacent(s_indptr, s_indices, p, q))
+            kind = (1 if delta == 0.0 else 0) + (2 if l >= 0 else 0)
+            if kind == 0:
+                continue
+            if 5 * n == out.shape[0]:
+                grown = np.empty(2 * out.shape[0], dtype=np.int64)
+                for t in range(5 * n):
+                    grown[t] = out[t]
+                out = grown
+            out[5 * n] = p
+            out[5 * n + 1] = k
+            out[5 * n + 2] = l
+            out[5 * n + 3] = q
+            out[5 * n + 4] = kind
+            n += 1
+    return out[:5 * n]
