@@ -26,13 +26,12 @@ Writes OUT/bench_answer.csv and the Markdown table to OUT/bench_answer.md or ``-
 from __future__ import annotations
 
 import argparse
-import csv
 import platform
 import sys
 import time
-from pathlib import Path
 
 import numpy as np
+from tables import write_results
 
 FAMILIES = {
     "uniform": dict(graph="powerlaw", noise=0.05, decoys=10, decoy_mode="uniform"),
@@ -113,15 +112,9 @@ def main(argv=None) -> int:
         for fam in args.families.split(","):
             rows.append(run(n, fam, args.queries, args.seed))
             print(rows[-1], flush=True)
-    out = Path(args.out)
-    out.mkdir(parents=True, exist_ok=True)
-    with open(out / "bench_answer.csv", "w", newline="") as fh:
-        w = csv.DictWriter(fh, fieldnames=list(rows[0]))
-        w.writeheader()
-        w.writerows(rows)
     command = "python scripts/bench/bench_answer.py " + " ".join(argv if argv is not None else sys.argv[1:])
     text = markdown(rows, command.strip())
-    Path(args.markdown or out / "bench_answer.md").write_text(text)
+    write_results(rows, args.out, "bench_answer", text, args.markdown)
     print(text)
     return 0
 

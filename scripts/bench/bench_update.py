@@ -24,7 +24,6 @@ Writes OUT/bench_update.csv and the Markdown table to OUT/bench_update.md or ``-
 from __future__ import annotations
 
 import argparse
-import csv
 import platform
 import sys
 import tempfile
@@ -33,6 +32,7 @@ from pathlib import Path
 
 import numpy as np
 import pandas as pd
+from tables import write_results
 
 
 def changes(a: pd.DataFrame, b: pd.DataFrame, prior: pd.DataFrame, rng):
@@ -134,15 +134,9 @@ def main(argv=None) -> int:
     ap.add_argument("--markdown", default=None)
     args = ap.parse_args(argv)
     rows = [r for n in (int(s) for s in args.sizes.split(",")) for r in run(n, args.seed)]
-    out = Path(args.out)
-    out.mkdir(parents=True, exist_ok=True)
-    with open(out / "bench_update.csv", "w", newline="") as fh:
-        w = csv.DictWriter(fh, fieldnames=list(rows[0]))
-        w.writeheader()
-        w.writerows(rows)
     command = "python scripts/bench/bench_update.py " + " ".join(argv if argv is not None else sys.argv[1:])
     text = markdown(rows, command.strip())
-    Path(args.markdown or out / "bench_update.md").write_text(text)
+    write_results(rows, args.out, "bench_update", text, args.markdown)
     print(text)
     return 0
 
