@@ -303,3 +303,21 @@ def test_tail_is_solved_exactly_among_free_objects():
     idx = auction.tail_match(cand, w, rows, holder, "auto")
     assert cand.pairs[idx].tolist() == [[0, 1], [1, 0]]
     assert auction.dual_gap(cand, w, np.zeros(2), idx) == pytest.approx(2.0 - 1.9)
+
+
+def test_seeds_are_fixed_and_the_rest_matches_like_one_machine(client):
+    # Reference: aligner.align with the same seeds on one machine (seed pairs fixed by
+    # aligner.priors.seeds.round_with_fixed, their nodes out of the competition).
+    import aligner
+    from aligner.engines.dask.engine import align as dask_align
+
+    ea, eb, prior, truth = as_frames(noisy_relabelled(3000, decoy_mode="near", noise=0.1, seed=8))
+    seeds = truth.iloc[::40]
+    single = aligner.align(ea, eb, prior, seeds=seeds, truth=truth, refine=False)
+    res = dask_align(ea, eb, prior, seeds=seeds, truth=truth, client=client, partitions=4, refine=False)
+    assert np.isin(res.problem.seed_index, res.matching.index).all()  # every seed pair is matched
+    got = {tuple(p) for p in res.candidates.pairs[res.matching.index].tolist()}
+    ref = {tuple(p) for p in single.candidates.pairs[single.matching.index].tolist()}
+    assert len(got ^ ref) / 2 <= 1e-3 * len(ref)
+    assert res.summary["seeds"]["pairs"] == single.summary["seeds"]["pairs"]
+    assert np.abs(res.diffusion.x - single.diffusion.x).sum() <= 2 * 1e-6 / (1 - 0.9)

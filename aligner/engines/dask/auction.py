@@ -105,6 +105,13 @@ def start(block, x_own: np.ndarray, obj_bounds: np.ndarray) -> AuctionState:
                         holder=np.full(size, -1, dtype=np.int64))
 
 
+def without_fixed(block, x_own: np.ndarray, busy_a: np.ndarray, busy_b: np.ndarray) -> np.ndarray:
+    """The block's scores with 0 on every pair touching a node of a seed pair (seed pairs
+    included: they are added to the matching afterwards)."""
+    rows = np.repeat(np.arange(len(block.own_ptr) - 1), np.diff(block.own_ptr))
+    return np.where(busy_a[block.node_lo + rows] | busy_b[block.own_b], 0.0, x_own)
+
+
 def _owner(bounds: np.ndarray, ids: np.ndarray) -> np.ndarray:
     return np.searchsorted(bounds, ids, side="right") - 1
 

@@ -32,6 +32,7 @@ from aligner.errors import ClusterError, InvalidParameterError
 from aligner.engines.dask import auction, blocks, diffusion
 from aligner.pipeline import (AlignmentResult, Candidates, Clock, Problem, evaluate, find_candidates, improve,
                               read_inputs, summarize)
+from aligner.priors.seeds import seed_index, seed_vector
 
 __all__ = ["BlockCluster", "WorkerLost", "connect", "align", "CONNECT_TIMEOUT", "RECOVERY_ATTEMPTS", "POLL_SECONDS",
            "REBALANCE_ABOVE", "block_imbalance"]
@@ -254,9 +255,6 @@ def connect(client=None, *, scheduler: str | None = None, workers: int = 2):
 
 
 def _check_options(cfg: AlignConfig, seeds) -> None:
-    if seeds is not None:
-        raise InvalidParameterError("seeds are not supported by the dask engine yet; run with the local engine",
-                                    param="seeds")
     if cfg.directed:
         raise InvalidParameterError("directed networks are not supported by the dask engine yet; run with the "
                                     "local engine", param="directed")
@@ -301,7 +299,7 @@ def align(network_a, network_b, prior=None, *, truth=None, seeds=None, client=No
         raise InvalidParameterError(f"partitions must be an integer >= 1; got {parts!r}", param="partitions")
     clock = Clock(progress)
     with clock.stage("read"):
-        inputs = read_inputs(network_a, network_b, prior, seeds=None, truth=truth, config=cfg)
+        inputs = read_inputs(network_a, network_b, prior, seeds=seeds, truth=truth, config=cfg)
     with clock.stage("candidates"):
         found = find_candidates(inputs, cfg)
     with connect(client, scheduler=scheduler, workers=workers) as c:
@@ -376,7 +374,9 @@ def _run(client, inputs, found: Candidates, cfg: AlignConfig, parts: int, mode: 
          where: list[str] | None = None, lost: list[str] | None = None):
     where = where if where is not None else [""]
     cand = found.candidates
-    h = prior_vector(cand.prior)
+    # seeds as on one machine: extra diffusion sources, fixed in the matching
+    seed_idx = None if inputs.seeds is None else seed_index(cand, inputs.seeds)
+    h = prior_vector(cand.prior) if seed_idx is None else seed_vector(cand.prior, seed_idx, cfg.seed_weight)
     a_ip, a_ix, _ = inputs.network_a.walk_adjacency(cfg.directed, cfg.weighted)
     b_ip, _, _ = inputs.network_b.walk_adjacency(cfg.directed, cfg.weighted)
     estimate = estimate_product_edges(a_ip, a_ix, b_ip, cand)
@@ -407,7 +407,7 @@ def _run(client, inputs, found: Candidates, cfg: AlignConfig, parts: int, mode: 
                              "gather_product": round(time.perf_counter() - t2, 4)}
     engine |= {"cut_fraction": round(cluster.cut_fraction, 6), "ghost_pairs": int(sum(cluster.ghosts)),
                "pairs_per_block": cluster.m_own, "entries_per_block": cluster.entries}
-    problem = Problem(cfg, inputs, cand, h, None, product, scale, found, estimate)
+    problem = Problem(cfg, inputs, cand, h, seed_idx, product, scale, found, estimate)
     with clock.stage("diffusion"):
         where[0] = "the diffusion rounds"
         rep = None
@@ -424,7 +424,17 @@ def _run(client, inputs, found: Candidates, cfg: AlignConfig, parts: int, mode: 
     with clock.stage("rounding"):
         where[0] = "the matching auction"
         t0 = time.perf_counter()
-        index, arep = auction.run_auction(cluster, x_parts, cand, x, method=cfg.rounding)
+        x_match = x
+        if seed_idx is not None:  # the seeds' nodes leave the competition (priors.seeds.round_with_fixed)
+            busy_a = np.zeros(cand.n1, dtype=bool)
+            busy_b = np.zeros(cand.n2, dtype=bool)
+            busy_a[cand.pairs[seed_idx, 0]] = True
+            busy_b[cand.pairs[seed_idx, 1]] = True
+            x_parts = cluster.run(auction.without_fixed, x_parts, busy_a, busy_b)
+            x_match = np.where(busy_a[cand.pairs[:, 0]] | busy_b[cand.pairs[:, 1]], 0.0, x)
+        index, arep = auction.run_auction(cluster, x_parts, cand, x_match, method=cfg.rounding)
+        if seed_idx is not None:
+            index = np.sort(np.concatenate([index, seed_idx]))
         rounded = Matching(index=index, method="auction", weight=float(x[index].sum()),
                            seconds=time.perf_counter() - t0)
     where[0] = "the refinement on the client"
