@@ -332,13 +332,15 @@ def answer(engine, index: AnswerIndex, node: int, side: str = "a", *,
            max_pairs: int = DEFAULT_MAX_PAIRS, tol: float = ANSWER_TOL, reach: float = REACH) -> Answer:
     """The counterpart the global assignment gives ``node``, from a region around it.
 
-    The region starts as the node and every node with a candidate on one of its columns; it then
-    grows where the competition that decides the node's pair lies, until the answer is
-    certified, no such competition is left at the region's edge, or the next region would hold
-    more than ``max_pairs`` candidate pairs. Where the competition lies: the region's rows
-    whose exchange-graph distance to or from the asked row (on the point estimates) is at most
-    ``reach`` times the answer's score; the nodes outside with a candidate on one of their
-    columns join. See the module docstring.
+    The region starts as the node and every node with a candidate on one of its columns (for a
+    hub, whose claimants would pass ``max_pairs``, the ``TOP_COMPETITORS`` claimants of each column
+    with the largest h). It then grows where the competition that decides the node's pair lies:
+    the :data:`NEAREST` region rows whose exchange-graph distance to or from the asked row (on the
+    point estimates) is at most ``reach`` times the answer's score; for each of their columns at
+    the region's edge the ``TOP_COMPETITORS`` outside claimants with the largest h join. It stops
+    when the answer is certified, has stayed the same over :data:`STABLE_STEPS` steps, has no
+    competition left at the edge, or the next region would hold more than ``max_pairs`` pairs.
+    See the module docstring.
     """
     t0 = time.perf_counter()
     sides = _Sides(engine, side)
