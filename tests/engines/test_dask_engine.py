@@ -321,3 +321,27 @@ def test_seeds_are_fixed_and_the_rest_matches_like_one_machine(client):
     assert len(got ^ ref) / 2 <= 1e-3 * len(ref)
     assert res.summary["seeds"]["pairs"] == single.summary["seeds"]["pairs"]
     assert np.abs(res.diffusion.x - single.diffusion.x).sum() <= 2 * 1e-6 / (1 - 0.9)
+
+
+def test_directed_networks_as_on_one_machine(client):
+    # Reference: aligner.align with directed=True on one machine (its directed product graph is
+    # checked against networkx in tests/core). Same product graph entry for entry, scores within
+    # the two certified bounds, and a matching whose weight is within the auction's own duality
+    # bound of the exact rounding's (the auction is eps-optimal, so a few tied pairs may differ).
+    import aligner
+    from aligner.engines.dask.engine import align as dask_align
+
+    ea, eb, prior, truth = as_frames(noisy_relabelled(3000, noise=0.1, decoy_mode="near", graph="dupdiv", seed=9))
+    single = aligner.align(ea, eb, prior, truth=truth, directed=True, refine=False)
+    for k in (2, 5):
+        res = dask_align(ea, eb, prior, truth=truth, directed=True, client=client, partitions=k, refine=False)
+        assert res.summary["scores"]["directed"] is True
+        assert np.array_equal(res.product.indptr, single.product.indptr)
+        assert np.array_equal(res.product.indices, single.product.indices)
+        assert np.abs(res.diffusion.x - single.diffusion.x).sum() <= single.diffusion.error_bound + \
+            res.diffusion.error_bound + 1e-15
+        exact = float(res.diffusion.x[single.matching.index].sum())
+        got = float(res.diffusion.x[res.matching.index].sum())
+        assert got >= exact - res.summary["engine"]["auction"]["gap_bound"] - 1e-12
+        pairs = res.candidates.pairs[res.matching.index]
+        assert len(set(pairs[:, 0])) == len(pairs) == len(set(pairs[:, 1]))

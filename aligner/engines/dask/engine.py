@@ -254,12 +254,6 @@ def connect(client=None, *, scheduler: str | None = None, workers: int = 2):
         cluster.close()
 
 
-def _check_options(cfg: AlignConfig, seeds) -> None:
-    if cfg.directed:
-        raise InvalidParameterError("directed networks are not supported by the dask engine yet; run with the "
-                                    "local engine", param="directed")
-
-
 def align(network_a, network_b, prior=None, *, truth=None, seeds=None, client=None, scheduler: str | None = None,
           workers: int = 2, partitions: int | None = None, diffusion_mode: str = "auto",
           config: AlignConfig | None = None, progress=None, **options: Any) -> AlignmentResult:
@@ -290,7 +284,6 @@ def align(network_a, network_b, prior=None, *, truth=None, seeds=None, client=No
     :func:`find_candidates`); refinement and scoring too, on the product graph and x gathered back.
     """
     cfg = from_options(AlignConfig, config, options)
-    _check_options(cfg, seeds)
     if diffusion_mode not in diffusion.MODES:
         raise InvalidParameterError(f"diffusion_mode must be one of {', '.join(diffusion.MODES)}; got "
                                     f"{diffusion_mode!r}", param="diffusion_mode")
