@@ -31,7 +31,7 @@ import sys
 import time
 
 import numpy as np
-from tables import write_results
+from tables import finish
 
 FAMILIES = {
     "uniform": dict(graph="powerlaw", noise=0.05, decoys=10, decoy_mode="uniform"),
@@ -112,11 +112,7 @@ def main(argv=None) -> int:
         for fam in args.families.split(","):
             rows.append(run(n, fam, args.queries, args.seed))
             print(rows[-1], flush=True)
-    command = "python scripts/bench/bench_answer.py " + " ".join(argv if argv is not None else sys.argv[1:])
-    text = markdown(rows, command.strip())
-    write_results(rows, args.out, "bench_answer", text, args.markdown)
-    print(text)
-    return 0
+    return finish(rows, "bench_answer", argv, markdown, args.out, args.markdown)
 
 
 if __name__ == "__main__":

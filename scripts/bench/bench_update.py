@@ -32,7 +32,7 @@ from pathlib import Path
 
 import numpy as np
 import pandas as pd
-from tables import write_results
+from tables import finish
 
 
 def changes(a: pd.DataFrame, b: pd.DataFrame, prior: pd.DataFrame, rng):
@@ -134,11 +134,7 @@ def main(argv=None) -> int:
     ap.add_argument("--markdown", default=None)
     args = ap.parse_args(argv)
     rows = [r for n in (int(s) for s in args.sizes.split(",")) for r in run(n, args.seed)]
-    command = "python scripts/bench/bench_update.py " + " ".join(argv if argv is not None else sys.argv[1:])
-    text = markdown(rows, command.strip())
-    write_results(rows, args.out, "bench_update", text, args.markdown)
-    print(text)
-    return 0
+    return finish(rows, "bench_update", argv, markdown, args.out, args.markdown)
 
 
 if __name__ == "__main__":

@@ -18,3 +18,15 @@ def write_results(rows: list[dict], out, name: str, text: str, markdown=None) ->
     path = Path(markdown) if markdown else out / f"{name}.md"
     path.write_text(text)
     return path
+
+
+def finish(rows: list[dict], name: str, argv, render, out, markdown=None) -> int:
+    """The end of a script's main: its command line, the table ``render(rows, command)`` written
+    with the rows (:func:`write_results`) and printed; returns the exit status 0."""
+    import sys
+
+    command = f"python scripts/bench/{name}.py " + " ".join(argv if argv is not None else sys.argv[1:])
+    text = render(rows, command.strip())
+    write_results(rows, out, name, text, markdown)
+    print(text)
+    return 0
