@@ -2,6 +2,7 @@
 
     python scripts/bench/bench_dask.py                  # 10^4 and 10^5 nodes, K = 1, 2, 4, 16
     python scripts/bench/bench_dask.py --sizes 10000 --parts 1 4
+    python scripts/bench/bench_dask.py --sizes 1000000 --parts 4 --processes --memory-limit 2GB
 
 Instances: :func:`aligner.datasets.instances.noisy_relabelled` (power-law graphs, 10 decoys per
 node, near-partner decoys). Runs on a LocalCluster of 2 single-threaded workers (threads in this
@@ -25,6 +26,11 @@ def main() -> None:
     ap.add_argument("--parts", type=int, nargs="+", default=[1, 2, 4, 16])
     ap.add_argument("--decoys", default="near", choices=["near", "uniform"])
     ap.add_argument("--workers", type=int, default=2)
+    ap.add_argument("--processes", action="store_true",
+                    help="workers as separate processes (default: threads in this process)")
+    ap.add_argument("--memory-limit", default=None,
+                    help="memory limit per worker process, e.g. 2GB (with --processes; dask pauses, then "
+                    "restarts, a worker above it)")
     args = ap.parse_args()
 
     from dask.distributed import Client, LocalCluster
@@ -33,7 +39,8 @@ def main() -> None:
     from aligner.engines.dask.engine import align as dask_align
     from aligner.pipeline import align
 
-    cluster = LocalCluster(n_workers=args.workers, threads_per_worker=1, processes=False, dashboard_address=None)
+    cluster = LocalCluster(n_workers=args.workers, threads_per_worker=1, processes=args.processes,
+                           dashboard_address=None, **({"memory_limit": args.memory_limit} if args.memory_limit else {}))
     client = Client(cluster)
     rows = []
     try:
