@@ -339,6 +339,14 @@ class Problem:
 
 
 @with_options(AlignConfig)
+def diffusion_source(cand: CandidateSet, seeds, cfg: AlignConfig):
+    """The seed pairs' positions among the candidates (None without seeds) and the diffusion's h:
+    the prior normalised to sum 1, plus ``seed_weight`` spread over the seed pairs."""
+    seed_idx = None if seeds is None else seed_index(cand, seeds)
+    h = prior_vector(cand.prior) if seed_idx is None else seed_vector(cand.prior, seed_idx, cfg.seed_weight)
+    return seed_idx, h
+
+
 def prepare(network_a, network_b, prior=None, *, seeds=None, truth=None, config: AlignConfig | None = None,
             with_product: bool = True, clock: Clock | None = None, **options: Any) -> Problem:
     """Read the inputs, choose the candidates and build the product graph: a :class:`Problem`.
@@ -355,8 +363,7 @@ def prepare(network_a, network_b, prior=None, *, seeds=None, truth=None, config:
     if inputs.prior is not None:  # the candidates hold what the later stages need of it
         inputs = dataclasses.replace(inputs, prior=inputs.prior.without_rows())
     cand = found.candidates
-    seed_idx = None if inputs.seeds is None else seed_index(cand, inputs.seeds)
-    h = prior_vector(cand.prior) if seed_idx is None else seed_vector(cand.prior, seed_idx, cfg.seed_weight)
+    seed_idx, h = diffusion_source(cand, inputs.seeds, cfg)
     product = scale = None
     estimate = 0
     if with_product:

@@ -25,14 +25,13 @@ from typing import Any
 import numpy as np
 
 from aligner.config import AlignConfig, from_options
-from aligner.core.diffusion import DiffusionResult, prior_vector
+from aligner.core.diffusion import DiffusionResult
 from aligner.core.product import ProductGraph, estimate_product_edges
 from aligner.core.rounding import Matching
 from aligner.errors import ClusterError, InvalidParameterError
 from aligner.engines.dask import auction, blocks, diffusion
-from aligner.pipeline import (AlignmentResult, Candidates, Clock, Problem, evaluate, find_candidates, improve,
-                              read_inputs, summarize)
-from aligner.priors.seeds import seed_index, seed_vector
+from aligner.pipeline import (AlignmentResult, Candidates, Clock, Problem, diffusion_source, evaluate,
+                              find_candidates, improve, read_inputs, summarize)
 
 __all__ = ["BlockCluster", "WorkerLost", "connect", "align", "CONNECT_TIMEOUT", "RECOVERY_ATTEMPTS", "POLL_SECONDS",
            "REBALANCE_ABOVE", "block_imbalance"]
@@ -368,8 +367,7 @@ def _run(client, inputs, found: Candidates, cfg: AlignConfig, parts: int, mode: 
     where = where if where is not None else [""]
     cand = found.candidates
     # seeds as on one machine: extra diffusion sources, fixed in the matching
-    seed_idx = None if inputs.seeds is None else seed_index(cand, inputs.seeds)
-    h = prior_vector(cand.prior) if seed_idx is None else seed_vector(cand.prior, seed_idx, cfg.seed_weight)
+    seed_idx, h = diffusion_source(cand, inputs.seeds, cfg)
     a_ip, a_ix, _ = inputs.network_a.walk_adjacency(cfg.directed, cfg.weighted)
     b_ip, _, _ = inputs.network_b.walk_adjacency(cfg.directed, cfg.weighted)
     estimate = estimate_product_edges(a_ip, a_ix, b_ip, cand)
