@@ -58,6 +58,57 @@ def _inputs(state, given: dict) -> dict:
     return out
 
 
+def _with_diff(state, side: str, add, remove, cfg: AlignConfig):
+    """The previous run's network of ``side`` ("a" or "b") with the edges of ``remove`` taken out
+    and those of ``add`` put in, as an edge table by name (the previous edges come from the state).
+
+    Raises InputFormatError naming the first edge to remove that the previous network lacks, or
+    to add that it already has (a diff that does not fit the run it is applied to)."""
+    import pandas as pd
+
+    from aligner.io.inputs import as_network
+
+    if cfg.weighted:
+        raise InvalidParameterError("edge diffs apply to unweighted runs; give the whole new network file of a "
+                                    "weighted run", param=f"add_{side}")
+    names = np.asarray(state.names_a if side == "a" else state.names_b, dtype=object)
+    edges = (state.edges_a if side == "a" else state.edges_b).astype(np.int64)
+    label = "A" if side == "a" else "B"
+
+    def keys(u, v):
+        u, v = np.asarray(u, dtype=object), np.asarray(v, dtype=object)
+        if not cfg.directed:  # an undirected edge by its two names in order
+            swap = u > v
+            u, v = np.where(swap, v, u), np.where(swap, u, v)
+        return pd.MultiIndex.from_arrays([u.astype(str), v.astype(str)])
+
+    have = keys(names[edges[:, 0]], names[edges[:, 1]])
+    keep = np.ones(len(have), dtype=bool)
+    extra = []
+    for path, removing in ((remove, True), (add, False)):
+        if path is None:
+            continue
+        net = as_network(path, name=f"{'removed' if removing else 'added'} edges of {label}",
+                         directed=cfg.directed, delimiter=cfg.delimiter, header=cfg.header)
+        e = net.scored_edges(cfg.directed)[0].astype(np.int64)
+        diff = keys(net.names[e[:, 0]], net.names[e[:, 1]])
+        found = have.get_indexer(diff)
+        wrong = found < 0 if removing else found >= 0
+        if wrong.any():
+            u, v = diff[int(np.argmax(wrong))]
+            what = "remove an edge it does not have" if removing else "add an edge it already has"
+            raise InputFormatError(f"the diff asks network {label} of the previous run to {what}: {u} - {v}; "
+                                   "the diff does not fit that run", path=str(path))
+        if removing:
+            keep[found] = False
+        else:
+            extra.append(diff)
+    rows = [have[keep]] + extra
+    u = np.concatenate([np.asarray(r.get_level_values(0), dtype=object) for r in rows])
+    v = np.concatenate([np.asarray(r.get_level_values(1), dtype=object) for r in rows])
+    return pd.DataFrame({"node_a": u, "node_b": v})
+
+
 def _check_options(state, config: AlignConfig | None, options: dict) -> AlignConfig:
     """The previous run's options; any option given must agree with it."""
     previous = AlignConfig(**state.meta["options"])
@@ -152,6 +203,7 @@ def _matches_changed(state, res: AlignmentResult, maps) -> int:
 
 
 def update(previous, network_a=None, network_b=None, prior=None, *, seeds=None, truth=None,
+           add_a=None, remove_a=None, add_b=None, remove_b=None,
            config: AlignConfig | None = None, progress: Callable[[str], None] | None = None,
            **options: Any) -> AlignmentResult:
     """Align the new inputs starting from a previous run's state.
@@ -163,6 +215,10 @@ def update(previous, network_a=None, network_b=None, prior=None, *, seeds=None, 
     network_a, network_b, prior, seeds, truth : optional
         The new inputs, as for :func:`aligner.align`; one left out is the previous run's file,
         which must be unchanged (its fingerprint is in the state).
+    add_a, remove_a, add_b, remove_b : optional
+        Instead of a whole new network, edge lists to add to and remove from the previous run's
+        network (unweighted runs); nodes seen first in ``add_*`` join the network. A diff that
+        removes a missing edge or adds a present one is refused.
     config, **options :
         The previous run's options are used; any given must agree with them.
 
@@ -186,6 +242,13 @@ def update(previous, network_a=None, network_b=None, prior=None, *, seeds=None, 
     state = read_state(previous)
     cfg = _check_options(state, config, options)
     given = {"network_a": network_a, "network_b": network_b, "prior": prior, "seeds": seeds, "truth": truth}
+    for side, (add, remove) in (("a", (add_a, remove_a)), ("b", (add_b, remove_b))):
+        if add is None and remove is None:
+            continue
+        if given[f"network_{side}"] is not None:
+            raise InvalidParameterError(f"give either a new network {side.upper()} or edges to add and remove, not "
+                                        "both", param=f"add_{side}")
+        given[f"network_{side}"] = _with_diff(state, side, add, remove, cfg)
     files = _inputs(state, given)
     clock = Clock(progress)
     problem = prepare(files["network_a"], files["network_b"], files["prior"], seeds=files["seeds"],

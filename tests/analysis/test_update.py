@@ -179,3 +179,30 @@ def test_no_state_leaves_the_state_out(base, tmp_path):
     assert (tmp_path / "r" / "summary.json").is_file() and not (tmp_path / "r" / "state.npz").exists()
     got = runner.invoke(app, ["update", str(tmp_path / "r"), "-o", str(tmp_path / "u")])
     assert got.exit_code == 2 and "state.npz is missing" in got.output
+
+
+def test_edge_diffs_give_what_the_edited_network_gives(base, tmp_path):
+    # Reference: aligner.align on the whole edited network file (the previous file with the diff
+    # applied by hand).
+    d, a, b, prior = base
+    rng = np.random.default_rng(7)
+    gone = b.iloc[rng.choice(len(b), 12, replace=False)]
+    nodes = b.iloc[:, 0].unique()
+    new = pd.DataFrame({"node_a": rng.choice(nodes, 12), "node_b": [f"extra{i}" for i in range(12)]})
+    _write(tmp_path, "gone.tsv", gone)
+    _write(tmp_path, "new.tsv", new)
+    edited = pd.concat([b.drop(index=gone.index), new.set_axis(b.columns, axis=1)], ignore_index=True)
+    upd = update(d / "run", add_b=tmp_path / "new.tsv", remove_b=tmp_path / "gone.tsv")
+    ref = aligner.align(d / "a.tsv", _write(tmp_path, "b_edited.tsv", edited), d / "p.tsv")
+    _agree(upd, ref)
+    c = upd.summary["update"]["changes"]
+    assert c["edges_b_removed"] == 12 and c["edges_b_added"] == 12 and c["nodes_b_added"] == 12
+    # a diff that does not fit: an edge to remove that B does not have; exit 2, nothing written
+    _write(tmp_path, "absent.tsv", new)
+    with pytest.raises(InputFormatError, match="does not have"):
+        update(d / "run", remove_b=tmp_path / "absent.tsv")
+    got = runner.invoke(app, ["update", str(d / "run"), "--remove-b", str(tmp_path / "absent.tsv"), "-o",
+                              str(tmp_path / "u")])
+    assert got.exit_code == 2 and "does not fit" in got.output and not (tmp_path / "u").exists()
+    with pytest.raises(InvalidParameterError, match="not both"):
+        update(d / "run", network_b=d / "b.tsv", add_b=tmp_path / "new.tsv")
