@@ -37,7 +37,7 @@ from aligner.core.network import Network
 from aligner.core.product import ProductGraph, build_product, estimate_product_edges
 from aligner.core.refine import RefineResult, refine_matching
 from aligner.core.rounding import Matching, round_matching
-from aligner.core.scoring import Scores, conserved_image, conserved_per_node, score_matching
+from aligner.core.scoring import Scores, conserved_image, conserved_per_node, score_matching, share_correct
 from aligner.core.significance import significance
 from aligner.core.transfer import DIRECTIONS, transfer_counts, transferred_edges
 from aligner.errors import InputFormatError, InvalidParameterError, MemoryBudgetError, NoCandidatesError
@@ -549,17 +549,13 @@ def _nc_up_to_ambiguity(inputs: Inputs, matched: np.ndarray, ambiguity: Ambiguit
     truth = inputs.truth.pairs.astype(np.int64)
     if not len(truth):
         return None
-    n1, n2 = inputs.network_a.n, inputs.network_b.n
+    n2 = inputs.network_b.n
     owner = np.repeat(np.arange(len(matched)), np.diff(ambiguity.alt_ptr))
     ok = np.unique(np.concatenate([matched[:, 0] * n2 + matched[:, 1], matched[owner, 0] * n2 + ambiguity.alt_nodes]))
     key = truth[:, 0] * n2 + truth[:, 1]
     pos = np.minimum(np.searchsorted(ok, key), max(len(ok) - 1, 0))
     hit = ok[pos] == key if len(ok) else np.zeros(len(key), dtype=bool)
-    named = np.zeros(n1, dtype=bool)
-    named[truth[:, 0]] = True
-    right = np.zeros(n1, dtype=bool)
-    right[truth[hit, 0]] = True
-    return int(right.sum()) / int(named.sum())
+    return share_correct(truth, hit, inputs.network_a.n)[0]
 
 
 def evaluate(problem: Problem, diffusion: DiffusionResult, improvement: Improvement, *,
@@ -770,7 +766,7 @@ class AlignmentResult:
 
     def state(self) -> tuple[dict, dict]:
         """What ``aligner update`` starts from (:mod:`aligner.io.state`): arrays and a record of the
-        options, the input files' digests and the run's cost."""
+        options, the input files' fingerprints and the run's cost."""
         from aligner.io.state import file_digest
 
         p, cfg = self.problem, self.config

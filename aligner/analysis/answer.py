@@ -56,6 +56,9 @@ DEFAULT_MAX_PAIRS = 6_000
 #: (measured by scripts/bench/bench_answer.py on both families at 10^5: 0.25 to 0.75 agree as
 #: often, 0 and 1.5 less often; the certificate never uses it)
 BACKGROUND = 0.5
+#: cap on an answer's pushes, per pair the region may hold (a safeguard: the bounds stay valid
+#: at the cap, only looser)
+PUSHES_PER_PAIR = 256
 #: push threshold of an answer, per product-graph neighbour, relative to the background level beta
 ANSWER_TOL = 0.5
 #: how far the competition that decides an answer is followed: exchange-graph distances up to
@@ -119,12 +122,14 @@ class AnswerIndex:
         self.ratio = ratio
         self.order = np.argsort(-ratio, kind="stable")
 
-    def largest_ratio_outside(self, inside: npt.NDArray[np.bool_]) -> float:
-        """max h_l / v_l over the pairs l with ``inside[l]`` false and a neighbour (0 if none)."""
+    def largest_ratio_outside(self, inside: npt.NDArray[np.int64]) -> float:
+        """max h_l / v_l over the pairs l with a neighbour that are not in ``inside`` (sorted
+        candidate indices); 0 if none. Walks :attr:`order` past the pairs inside only."""
         for l in self.order:
             if self.ratio[l] <= 0:
                 return 0.0
-            if not inside[l]:
+            t = np.searchsorted(inside, l)
+            if t == len(inside) or inside[t] != l:
                 return float(self.ratio[l])
         return 0.0
 
@@ -400,12 +405,10 @@ def _solve_region(engine, index: AnswerIndex, sides: _Sides, node, rows, pairs, 
     ints, floats, _, pushes, *_rest = _local_push(
         engine.net_a.indptr, engine.net_a.indices, engine.net_b.indptr, engine.net_b.indices, engine.cand.a_indptr,
         engine._c_a, engine._c_b, engine._deg_a, engine._deg_b, engine.normalization == "restricted", engine._slot,
-        pairs, np.ascontiguousarray(h[pairs]), none_i, alpha, eps, 4 * max_pairs * 64, False)
+        pairs, np.ascontiguousarray(h[pairs]), none_i, alpha, eps, PUSHES_PER_PAIR * max_pairs, False)
     _reset_slots(engine._slot, ints[:, 0])
     held = ints[:, 0]
-    inside = np.zeros(engine.cand.m, dtype=bool)
-    inside[pairs] = True
-    outside_ratio = index.largest_ratio_outside(inside)
+    outside_ratio = index.largest_ratio_outside(pairs)  # pairs are sorted
     order = np.argsort(held)
     loc = order[np.searchsorted(held[order], pairs)]
     # the bound's max r / v runs over every pair the push held; the region's pairs were its sources
@@ -427,9 +430,7 @@ def _solve_region(engine, index: AnswerIndex, sides: _Sides, node, rows, pairs, 
     mate_col[mate_row[matched]] = np.flatnonzero(matched)
     # boundary columns: some candidate pair of theirs has a row outside the region
     col_pairs = _free_pairs(sides, sides.pairs_of_cols(col_nodes))
-    in_region = np.zeros(len(col_pairs), dtype=bool)
-    pos = np.searchsorted(rows, sides.row_of[col_pairs])
-    in_region[pos < n_rows] = rows[np.minimum(pos, n_rows - 1)][pos < n_rows] == sides.row_of[col_pairs][pos < n_rows]
+    in_region = np.isin(sides.row_of[col_pairs], rows)
     col_of_pair = np.searchsorted(col_nodes, sides.col_of[col_pairs])
     boundary = np.zeros(n_cols, dtype=bool)
     boundary[col_of_pair[~in_region]] = True

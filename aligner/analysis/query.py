@@ -188,16 +188,21 @@ class QueryEngine:
                    normalization=cfg.normalization, seeds=problem.inputs.seeds, seed_weight=cfg.seed_weight,
                    max_pushes=q.max_pushes)
 
-    def answer(self, node: int, side: str = "a", *, max_pairs: int | None = None):
-        """The counterpart the global assignment gives ``node``, solved on a region around it, with
-        whether it is certified (:func:`aligner.analysis.answer.answer`). The first call builds the
-        engine's :class:`~aligner.analysis.answer.AnswerIndex` (one pass over the product graph's
-        rows, counted and not stored), which every later answer shares."""
-        from aligner.analysis.answer import DEFAULT_MAX_PAIRS, AnswerIndex, answer
+    def answer_index(self):
+        """The :class:`~aligner.analysis.answer.AnswerIndex` every answer of this engine shares (one
+        pass over the product graph's rows, counted and not stored), built on the first call."""
+        from aligner.analysis.answer import AnswerIndex
 
         if self._answer_index is None:
             self._answer_index = AnswerIndex(self)
-        return answer(self, self._answer_index, node, check_choice(side, "side", SIDES),
+        return self._answer_index
+
+    def answer(self, node: int, side: str = "a", *, max_pairs: int | None = None):
+        """The counterpart the global assignment gives ``node``, solved on a region around it, with
+        whether it is certified (:func:`aligner.analysis.answer.answer`)."""
+        from aligner.analysis.answer import DEFAULT_MAX_PAIRS, answer
+
+        return answer(self, self.answer_index(), node, check_choice(side, "side", SIDES),
                       max_pairs=DEFAULT_MAX_PAIRS if max_pairs is None else max_pairs)
 
     def warm_up(self) -> None:
@@ -420,7 +425,9 @@ def _answer(engine: QueryEngine, name: str, node: int, qcfg: QueryConfig, other_
     return tab, {"query": name, "side": side} | work, record
 
 
-@with_options(QueryConfig, AlignConfig, names=("side", "top", "tol", "max_pushes", "answer", "max_region_pairs", "alpha", "top_k", "min_score", "score_kind", "normalization", "seed_weight", "delimiter", "header"))
+@with_options(QueryConfig, AlignConfig, names=("side", "top", "tol", "max_pushes", "answer", "max_region_pairs",
+                                               "alpha", "top_k", "min_score", "score_kind", "normalization",
+                                               "seed_weight", "delimiter", "header"))
 def query(network_a, network_b, prior=None, *, nodes, seeds=None, config: AlignConfig | None = None,
           query: QueryConfig | None = None, **options: Any) -> QueryResult:
     """Which nodes of B best correspond to these nodes of A (or the reverse), without a global solve.
@@ -470,7 +477,7 @@ def query(network_a, network_b, prior=None, *, nodes, seeds=None, config: AlignC
     rows = []
     if qcfg.answer:
         t1 = time.perf_counter()
-        engine.answer(asked[0], qcfg.side, max_pairs=1)  # builds the shared index; timed apart
+        engine.answer_index()  # built once for every answer; timed apart
         index_seconds = time.perf_counter() - t1
         for name, node, record in zip(nodes, asked, records):
             got = engine.answer(node, qcfg.side, max_pairs=qcfg.max_region_pairs)

@@ -140,21 +140,26 @@ def _renumber(names_old, names_new) -> np.ndarray:
     return lookup(np.asarray(names_new, dtype=object), np.asarray(names_old, dtype=object))
 
 
-def _edge_changes(old_edges, new_edges, to_new, n_new) -> tuple[int, int]:
-    """Edges added and removed, the old ones renumbered into the new nodes (each edge list holds
-    every edge once, and renumbering keeps them distinct, so sorted keys suffice)."""
+def _edge_changes(old_edges, new_edges, to_new, n_new, directed: bool) -> tuple[int, int]:
+    """Edges (arcs when ``directed``) added and removed, the old ones renumbered into the new
+    nodes (each list holds every edge once, and renumbering keeps them distinct, so sorted keys
+    suffice; an undirected edge is keyed by its two ends in order)."""
+    def keys(e):
+        e = np.asarray(e, dtype=np.int64)
+        e = e if directed else np.sort(e, axis=1)
+        return np.sort(e[:, 0] * n_new + e[:, 1])
+
     e = to_new[old_edges.astype(np.int64)]
-    e = np.sort(e[(e >= 0).all(axis=1)], axis=1)
-    old_keys = np.sort(e[:, 0] * n_new + e[:, 1])
-    ne = np.sort(np.asarray(new_edges, dtype=np.int64), axis=1)
-    new_keys = np.sort(ne[:, 0] * n_new + ne[:, 1])
+    old_keys = keys(e[(e >= 0).all(axis=1)])
+    new_keys = keys(new_edges)
     pos = np.minimum(np.searchsorted(new_keys, old_keys), max(len(new_keys) - 1, 0))
     common = int((new_keys[pos] == old_keys).sum()) if len(new_keys) else 0
     return int(len(new_keys) - common), int(len(old_edges) - common)
 
 
-def _carry(state, problem) -> tuple[np.ndarray, dict]:
-    """The previous scores on the new candidate pairs (0 on new pairs), and what changed."""
+def _carry(state, problem) -> tuple[np.ndarray, dict, tuple]:
+    """The previous scores on the new candidate pairs (0 on new pairs), what changed, and the old
+    nodes' new indices (of A, of B; -1 when gone)."""
     net_a, net_b, cand = problem.network_a, problem.network_b, problem.candidates
     to_a = _renumber(state.names_a, net_a.names)
     to_b = _renumber(state.names_b, net_b.names)
@@ -174,8 +179,9 @@ def _carry(state, problem) -> tuple[np.ndarray, dict]:
     same_prior[at] = np.isclose(cand.prior[at], state.prior[alive][found], rtol=1e-6, atol=0)
     kept = np.zeros(cand.m, dtype=bool)
     kept[at] = True
-    ea_add, ea_del = _edge_changes(state.edges_a, net_a.scored_edges(problem.config.directed)[0], to_a, net_a.n)
-    eb_add, eb_del = _edge_changes(state.edges_b, net_b.scored_edges(problem.config.directed)[0], to_b, net_b.n)
+    directed = problem.config.directed
+    ea_add, ea_del = _edge_changes(state.edges_a, net_a.scored_edges(directed)[0], to_a, net_a.n, directed)
+    eb_add, eb_del = _edge_changes(state.edges_b, net_b.scored_edges(directed)[0], to_b, net_b.n, directed)
     changes = {
         "nodes_a_added": int(net_a.n - (to_a >= 0).sum()), "nodes_a_removed": int((to_a < 0).sum()),
         "nodes_b_added": int(net_b.n - (to_b >= 0).sum()), "nodes_b_removed": int((to_b < 0).sum()),

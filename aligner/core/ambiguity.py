@@ -12,11 +12,11 @@ matching picks one arbitrarily. Two kinds of evidence are collected:
   (i, j') and (j, i') are candidates, each at a prior within ``prior_tol`` of the pair it would
   replace) where colour refinement (the 1-dimensional Weisfeiler–Lehman test, Weisfeiler & Leman
   1968) gives i and j one colour in A and i' and j' one colour in B. Refinement runs only while
-  such a pair is still undecided, so priors that rule out every swap cost nothing. Colour refinement cannot tell apart nodes that an automorphism swaps,
-  so this finds the mirror image of a bilaterally symmetric network, a swap of many pairs at
-  once that no 2-exchange reaches. (Equal colours are necessary for an automorphism, not
-  sufficient; on the graphs where they differ, regular graphs for instance, the wiring indeed
-  does not tell the nodes apart locally.)
+  such a pair is still undecided, so priors that rule out every swap cost nothing. Colour
+  refinement cannot tell apart nodes that an automorphism swaps, so this finds the mirror image
+  of a bilaterally symmetric network, a swap of many pairs at once that no 2-exchange reaches.
+  (Equal colours are necessary for an automorphism, not sufficient; on the graphs where they
+  differ, regular graphs for instance, the wiring indeed does not tell the nodes apart locally.)
 
 Nodes of A joined by either kind form *ambiguity groups* (connected components); each matched
 node's *alternatives* are the nodes of B it could take.
@@ -40,7 +40,7 @@ __all__ = ["Ambiguity", "colour_classes", "find_ambiguity", "PRIOR_TOL", "MAX_AL
 
 #: default tolerance on the prior, relative to that of the pairs a move gives up
 PRIOR_TOL = 0.05
-#: alternatives listed per node at most (the nearest in prior first)
+#: alternatives listed per node at most (the first by node index)
 MAX_ALTERNATIVES = 20
 
 
@@ -122,7 +122,7 @@ class Ambiguity:
                 "prior_tolerance": self.prior_tol}
 
 
-def _indistinguishable(cand: CandidateSet, index, swaps, walk_a, walk_b):
+def _indistinguishable(cand: CandidateSet, swaps, walk_a, walk_b):
     """(i, j') alternatives from colour classes: matched pairs (i, i') and (j, j') that could swap
     partners at a close prior (``swaps`` from the exchange kernel), where colour refinement gives i
     and j one colour in A and i' and j' one colour in B (see the module). Refinement runs only
@@ -159,7 +159,8 @@ def find_ambiguity(prod: ProductGraph, cand: CandidateSet, index: npt.ArrayLike,
     mate_b[pb[index]] = index
     g = _matched_counts(prod, index) if len(index) else np.zeros(cand.m)
     rows = neutral_exchanges(prod.indptr, prod.indices, cand.a_indptr, pa, pb, np.ascontiguousarray(g),
-                             np.ascontiguousarray(cand.prior, dtype=np.float64), mate_a, mate_b, float(prior_tol)).reshape(-1, 5)
+                             np.ascontiguousarray(cand.prior, dtype=np.float64), mate_a, mate_b, float(prior_tol))
+    rows = rows.reshape(-1, 5)
     moves, swaps = rows[(rows[:, 4] & 1) == 1, :4], rows[(rows[:, 4] & 2) == 2, :4]
     # i takes p's node of B; when l exists and q = (j, i') exists, j takes i'
     alt_i = [pa[moves[:, 0]]]
@@ -169,7 +170,7 @@ def find_ambiguity(prod: ProductGraph, cand: CandidateSet, index: npt.ArrayLike,
     with_q = moves[:, 3] >= 0
     alt_i.append(pa[moves[with_q, 3]])
     alt_b.append(pb[moves[with_q, 3]])
-    ind_i, ind_b = _indistinguishable(cand, index, swaps, walk_a, walk_b)
+    ind_i, ind_b = _indistinguishable(cand, swaps, walk_a, walk_b)
     alt_i.append(ind_i)
     alt_b.append(ind_b)
     holder = np.full(n2, -1, dtype=np.int64)
@@ -177,7 +178,7 @@ def find_ambiguity(prod: ProductGraph, cand: CandidateSet, index: npt.ArrayLike,
     link_u.append(ind_i)
     link_v.append(np.where(holder[ind_b] >= 0, holder[ind_b], ind_i))
     ai, ab = np.concatenate(alt_i), np.concatenate(alt_b)
-    # alternatives per matched node, without its own partner, nearest prior first, capped
+    # alternatives per matched node, without its own partner, each once
     matched_a = pa[index]
     own_b = np.full(n1, -1, dtype=np.int64)
     own_b[matched_a] = pb[index]
@@ -185,8 +186,8 @@ def find_ambiguity(prod: ProductGraph, cand: CandidateSet, index: npt.ArrayLike,
     ai, ab = ai[keep], ab[keep]
     uniq = np.unique(ai * n2 + ab)
     ai, ab = uniq // max(n2, 1), uniq % max(n2, 1)
-    # per matched pair, in the matching's order, its node's alternatives (sorted, at most
-    # MAX_ALTERNATIVES): a CSR over the pairs
+    # per matched pair, in the matching's order, its node's alternatives (by node index, the
+    # first MAX_ALTERNATIVES): a CSR over the pairs
     slot = np.full(n1, -1, dtype=np.int64)
     slot[matched_a] = np.arange(len(index))
     owner = slot[ai]

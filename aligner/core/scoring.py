@@ -25,7 +25,7 @@ import numpy.typing as npt
 from aligner.errors import InvalidParameterError
 from aligner.kernels.scoring import largest_component, mapped_edge_rows
 
-__all__ = ["Scores", "score_matching", "node_correctness", "edge_correctness", "induced_conserved_structure",
+__all__ = ["Scores", "score_matching", "node_correctness", "share_correct", "edge_correctness", "induced_conserved_structure",
            "symmetric_substructure", "induced_edges", "largest_common_component", "conserved_weight"]
 
 
@@ -180,7 +180,12 @@ def node_correctness(matched: npt.NDArray[np.integer], truth: npt.NDArray[np.int
     if len(truth) == 0:
         return float("nan"), {"truth_nodes": 0, "correct": 0}
     f = _map_of(np.asarray(matched, dtype=np.int64).reshape(-1, 2), n1)
-    hit = f[truth[:, 0]] == truth[:, 1]
+    return share_correct(truth, f[truth[:, 0]] == truth[:, 1], n1)
+
+
+def share_correct(truth: npt.NDArray[np.int64], hit: npt.NDArray[np.bool_], n1: int) -> tuple[float, dict]:
+    """The share of the nodes of A named in ``truth`` (rows node of A, node of B) with at least
+    one row ``hit``: node correctness, however a row's hit was decided."""
     named = np.zeros(n1, dtype=bool)  # distinct nodes by marking: no sort
     named[truth[:, 0]] = True
     right = np.zeros(n1, dtype=bool)

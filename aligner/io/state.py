@@ -24,7 +24,6 @@ Arrays (node indices are those of the run's own numbering, names given beside th
 from __future__ import annotations
 
 import hashlib
-import io
 import json
 import os
 import zipfile
@@ -35,7 +34,7 @@ import numpy as np
 
 from aligner.errors import InputFormatError
 
-__all__ = ["STATE_FILE", "STATE_VERSION", "RunState", "write_state", "state_bytes", "read_state", "file_digest"]
+__all__ = ["STATE_FILE", "STATE_VERSION", "RunState", "write_state", "read_state", "file_digest"]
 
 STATE_FILE = "state.npz"
 STATE_VERSION = 1
@@ -113,8 +112,6 @@ def write_state(fh, arrays: dict, meta: dict) -> None:
     """Write the state file into the open binary file ``fh`` (meta gains ``format``, ``version``
     and ``checksum``), one array at a time: each is converted, hashed and written before the next,
     so the state costs little memory beyond the largest array's stored copy."""
-    import zipfile
-
     meta = {"format": _FORMAT, "version": STATE_VERSION} | dict(meta)
     h = hashlib.sha256()
     h.update(json.dumps(meta, sort_keys=True).encode())
@@ -128,13 +125,6 @@ def write_state(fh, arrays: dict, meta: dict) -> None:
         meta["checksum"] = h.hexdigest()
         with z.open("meta.npy", "w") as member:
             np.lib.format.write_array(member, np.array(json.dumps(meta)), allow_pickle=False)
-
-
-def state_bytes(arrays: dict, meta: dict) -> bytes:
-    """The state file's bytes (see :func:`write_state`)."""
-    buf = io.BytesIO()
-    write_state(buf, arrays, meta)
-    return buf.getvalue()
 
 
 def read_state(path) -> RunState:

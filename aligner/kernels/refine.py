@@ -365,8 +365,9 @@ def neutral_exchanges(s_indptr, s_indices, c_indptr, pair_a, pair_b, g, prior, m
     i's), and the *neutral* moves, which also keep the conserved edges exactly.
 
     Returns the rows (p, k, l, q, kind) one after the other (a flat array of 5 n entries:
-    ``reshape(-1, 5)``), candidate indices (-1 where absent), in the order of p; kind has bit 1 for a neutral move and bit 2 for a swap. The prior is tested
-    first, so a move whose priors differ costs no adjacency look-up.
+    ``reshape(-1, 5)``), candidate indices (-1 where absent), in the order of p; kind has bit 1
+    for a neutral move and bit 2 for a swap. The prior is tested first, so a move whose priors
+    differ costs no adjacency look-up.
     """
     out = np.empty(320, dtype=np.int64)  # rows of 5, flat (cheaper to compile than a 2-D array)
     n = 0

@@ -56,8 +56,9 @@ def run(n: int, family: str, queries: int, seed: int) -> dict:
     final[cand.pairs[res.matching.index, 0]] = cand.pairs[res.matching.index, 1]
     eng = QueryEngine.from_problem(problem)
     t0 = time.perf_counter()
-    eng.answer(0, max_pairs=1)  # builds the shared index (and loads the kernels)
+    eng.answer_index()  # built once for every answer
     index_s = time.perf_counter() - t0
+    eng.answer(0, max_pairs=1)  # loads the kernels outside the timings
     asked = np.random.default_rng(seed).choice(cand.n1, queries, replace=False)
     got = [eng.answer(int(v)) for v in asked]
     agree = sum(g.counterpart == rounded[v] for g, v in zip(got, asked))

@@ -206,3 +206,20 @@ def test_edge_diffs_give_what_the_edited_network_gives(base, tmp_path):
     assert got.exit_code == 2 and "does not fit" in got.output and not (tmp_path / "u").exists()
     with pytest.raises(InvalidParameterError, match="not both"):
         update(d / "run", network_b=d / "b.tsv", add_b=tmp_path / "new.tsv")
+
+
+def test_reversed_arcs_count_as_changed_in_a_directed_run(base, tmp_path):
+    # Common practice: in a directed network (u, v) and (v, u) are different arcs, so reversing
+    # arcs removes some and adds as many (the counts once keyed arcs by their ends in order).
+    d, a, b, prior = base
+    assert runner.invoke(app, ["align", str(d / "a.tsv"), str(d / "b.tsv"), "-p", str(d / "p.tsv"), "--directed",
+                               "-o", str(tmp_path / "r"), "--quiet"]).exit_code == 0
+    once = b.drop_duplicates()
+    pairs = set(map(tuple, once.to_numpy()))
+    flip = [i for i, (u, v) in enumerate(once.to_numpy()) if (v, u) not in pairs][:5]
+    b2 = once.copy()
+    b2.iloc[flip] = b2.iloc[flip, ::-1].to_numpy()
+    upd = update(tmp_path / "r", network_b=_write(tmp_path, "b_flipped.tsv", b2))
+    c = upd.summary["update"]["changes"]
+    assert c["edges_b_added"] == 5 and c["edges_b_removed"] == 5
+    _agree(upd, aligner.align(d / "a.tsv", tmp_path / "b_flipped.tsv", d / "p.tsv", directed=True))
