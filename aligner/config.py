@@ -35,12 +35,13 @@ from aligner.errors import InvalidParameterError
 __all__ = ["Spec", "option", "AlignConfig", "QueryConfig", "LabelConfig", "ClassConfig", "EngineConfig",
            "TransferConfig", "specs",
            "describe",
-           "from_options", "with_options", "SCORE_KINDS", "SOLVERS", "NORMALIZATIONS", "ROUNDINGS", "HEADERS", "SIDES",
+           "from_options", "with_options", "SCORE_KINDS", "SOLVERS", "NORMALIZATIONS", "WEIGHT_MODELS", "ROUNDINGS", "HEADERS", "SIDES",
            "ENGINES"]
 
 SCORE_KINDS = ("similarity", "evalue", "distance")
 SOLVERS = ("push", "power")
 NORMALIZATIONS = ("restricted", "product")
+WEIGHT_MODELS = ("agreement", "product")
 ROUNDINGS = ("auto", "sparse", "dense", "scipy")
 HEADERS = ("auto", "yes", "no")
 SIDES = ("a", "b")
@@ -157,8 +158,13 @@ class AlignConfig(_Config):
         group=READ, kind="bool")
     weighted: bool = option(
         False, "Use the third column of both edge lists as edge weights: the scores add the conserved weight "
-        "and weighted EC (and, when aligning, the product entry of two edges weighs w_A * w_B and the walk "
-        "divides by strength, the summed weights).", flag="--weighted", group=READ, kind="bool")
+        "and weighted EC, and, when aligning, weights enter the product graph as --weight-model says.",
+        flag="--weighted", group=READ, kind="bool")
+    weight_model: str = option(
+        "agreement", "How weights enter the product graph (with --weighted): agreement (each network's weights "
+        "become their quantiles within it, and two edges count more the closer their quantiles: from 1/2 to 1; "
+        "blind to the weights' scale) or product (w_A * w_B, the walk dividing by strength).",
+        flag="--weight-model", group=READ, kind="choice", choices=WEIGHT_MODELS)
     top_k: int | None = option(
         25, "Candidates: every node's top-k prior pairs on each side (their union); None keeps all.",
         flag="--top-k", group=CANDIDATES, kind="int", low=1, optional=True)
@@ -204,6 +210,10 @@ class AlignConfig(_Config):
     beta: float = option(
         0.1, "Refinement: weight of a pair's normalised diffusion score against one conserved edge.",
         flag="--beta", group=MATCHING, kind="real", low=0.0)
+    refine_starts: int | None = option(
+        None, "Refinement: how many starts to refine from, the best result kept (the diffusion's matching, "
+        "then the prior's, then matchings of randomly perturbed scores, seeded). Default: 8 up to 300,000 "
+        "candidate pairs, 1 above.", flag="--refine-starts", group=MATCHING, kind="int", low=1, optional=True)
     refine_iter: int = option(
         30, "Refinement: cap on iterations (each one sparse product and one assignment).", flag="--refine-iter",
         group=MATCHING, kind="int", low=0)

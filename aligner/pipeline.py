@@ -35,11 +35,12 @@ from aligner.core.confidence import matching_confidence
 from aligner.core.diffusion import DiffusionResult, column_scale, diffuse, prior_vector
 from aligner.core.network import Network
 from aligner.core.product import ProductGraph, build_product, estimate_product_edges
-from aligner.core.refine import RefineResult, refine_matching
+from aligner.core.refine import RefineResult, perturbed_scores, refine_from_starts
 from aligner.core.rounding import Matching, round_matching
 from aligner.core.scoring import Scores, conserved_image, conserved_per_node, score_matching, share_correct
 from aligner.core.significance import significance
 from aligner.core.transfer import DIRECTIONS, transfer_counts, transferred_edges
+from aligner.core.weights import AGREEMENT_FLOOR, walk_degree, walk_weights
 from aligner.errors import InputFormatError, InvalidParameterError, MemoryBudgetError, NoCandidatesError
 from aligner.io.inputs import as_network, as_pairs, as_prior, known_pairs
 from aligner.io.readers import release_unused_memory
@@ -276,10 +277,15 @@ def _check_memory(inputs: Inputs, cand: CandidateSet, cfg: AlignConfig) -> int:
 
 
 def _build_product(inputs: Inputs, cand: CandidateSet, cfg: AlignConfig) -> ProductGraph:
-    a_ip, a_ix, a_w = inputs.network_a.walk_adjacency(cfg.directed, cfg.weighted)
-    b_ip, b_ix, b_w = inputs.network_b.walk_adjacency(cfg.directed, cfg.weighted)
-    return build_product(a_ip, a_ix, b_ip, b_ix, cand, a_weights=a_w if cfg.weighted else None,
-                         b_weights=b_w if cfg.weighted else None, directed=cfg.directed)
+    """The restricted product graph, its entries weighted as ``cfg.weight_model`` says when weighted."""
+    if not cfg.weighted:
+        a_ip, a_ix, _ = inputs.network_a.walk_adjacency(cfg.directed)
+        b_ip, b_ix, _ = inputs.network_b.walk_adjacency(cfg.directed)
+        return build_product(a_ip, a_ix, b_ip, b_ix, cand, directed=cfg.directed)
+    a_ip, a_ix, a_w = walk_weights(inputs.network_a, cfg.directed, cfg.weight_model)
+    b_ip, b_ix, b_w = walk_weights(inputs.network_b, cfg.directed, cfg.weight_model)
+    return build_product(a_ip, a_ix, b_ip, b_ix, cand, a_weights=a_w, b_weights=b_w, directed=cfg.directed,
+                         agreement=AGREEMENT_FLOOR if cfg.weight_model == "agreement" else None)
 
 
 @dataclass(frozen=True, eq=False)
@@ -371,8 +377,8 @@ def prepare(network_a, network_b, prior=None, *, seeds=None, truth=None, config:
         with clock.stage("product"):
             product = _build_product(inputs, cand, cfg)
             scale = column_scale(product, cfg.normalization, pairs=cand.pairs,
-                                 deg_a=inputs.network_a.strength(cfg.directed, cfg.weighted),
-                                 deg_b=inputs.network_b.strength(cfg.directed, cfg.weighted))
+                                 deg_a=walk_degree(inputs.network_a, cfg.directed, cfg.weighted, cfg.weight_model),
+                                 deg_b=walk_degree(inputs.network_b, cfg.directed, cfg.weighted, cfg.weight_model))
     return Problem(cfg, inputs, cand, h, seed_idx, product, scale, found, estimate)
 
 
@@ -394,9 +400,7 @@ def solve(problem: Problem, *, x0: npt.ArrayLike | None = None) -> DiffusionResu
 def match(problem: Problem, diffusion: DiffusionResult) -> Matching:
     """The maximum-weight one-to-one matching of the candidates under the diffusion scores,
     with the seed pairs fixed (their nodes out of the competition)."""
-    if problem.seed_index is None:
-        return round_matching(problem.candidates, diffusion.x, method=problem.config.rounding)
-    return round_with_fixed(problem.candidates, diffusion.x, problem.seed_index, method=problem.config.rounding)
+    return _round(problem, diffusion.x)
 
 
 @dataclass(frozen=True, eq=False)
@@ -417,8 +421,39 @@ class Improvement:
         return self.refined is not None or self.note is not None
 
 
+#: Refinement starts when ``refine_starts`` is not set, and the candidate count above which one start
+#: is the default (each start costs about one refinement; see docs/method.md, "Several starts").
+AUTO_STARTS, AUTO_STARTS_MAX_PAIRS = 8, 300_000
+
+
+def refine_starts(problem: Problem) -> int:
+    """How many starts the refinement runs from (``config.refine_starts``, or the size rule)."""
+    cfg = problem.config
+    if cfg.refine_starts is not None:
+        return cfg.refine_starts
+    return AUTO_STARTS if problem.candidates.m <= AUTO_STARTS_MAX_PAIRS else 1
+
+
+def _round(problem: Problem, scores: np.ndarray) -> Matching:
+    """The maximum-weight matching of ``scores``, seed pairs fixed."""
+    if problem.seed_index is None:
+        return round_matching(problem.candidates, scores, method=problem.config.rounding)
+    return round_with_fixed(problem.candidates, scores, problem.seed_index, method=problem.config.rounding)
+
+
+def _starts(problem: Problem, diffusion: DiffusionResult, rounded: Matching, count: int) -> list:
+    """The refinement's starts: the rounded diffusion scores, the prior's matching, perturbed scores."""
+    starts = [("diffusion", rounded.index)]
+    if count > 1:
+        starts.append(("prior", _round(problem, problem.candidates.prior).index))
+    for k, v in enumerate(perturbed_scores(diffusion.x, max(count - 2, 0)), start=1):
+        starts.append((f"perturbed {k}", _round(problem, v).index))
+    return starts
+
+
 def improve(problem: Problem, diffusion: DiffusionResult, rounded: Matching) -> Improvement:
-    """Refine the rounded matching for conserved edges (see :func:`aligner.core.refine.refine_matching`).
+    """Refine the rounded matching for conserved edges (see :func:`aligner.core.refine.refine_matching`),
+    from :func:`refine_starts` starts, the best kept (:func:`aligner.core.refine.refine_from_starts`).
 
     Off when ``config.refine`` is false or alpha is 0 (which asks for the prior's own matching).
     A refined matching that moves a seed pair is not used.
@@ -427,9 +462,10 @@ def improve(problem: Problem, diffusion: DiffusionResult, rounded: Matching) -> 
     if not cfg.refine or cfg.alpha == 0:
         return Improvement(rounded, rounded, None)
     prod = problem.product.symmetrised() if cfg.directed else problem.product
-    refined = refine_matching(prod, problem.candidates, diffusion.x, rounded.index, beta=cfg.beta,
-                              max_iter=cfg.refine_iter, method=cfg.rounding)
-    if problem.seed_index is not None and not np.isin(problem.seed_index, refined.index).all():
+    starts = _starts(problem, diffusion, rounded, refine_starts(problem))
+    refined = refine_from_starts(prod, problem.candidates, diffusion.x, starts, keep=problem.seed_index,
+                                 beta=cfg.beta, max_iter=cfg.refine_iter, method=cfg.rounding)
+    if refined is None:
         return Improvement(rounded, rounded, None, "refinement moved a seed pair, so its matching was not used")
     final = Matching(index=refined.index, method=rounded.method, weight=float(diffusion.x[refined.index].sum()),
                      seconds=rounded.seconds)

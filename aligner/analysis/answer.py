@@ -44,7 +44,7 @@ import scipy.sparse as sp
 from scipy.sparse.csgraph import NegativeCycleError, shortest_path
 
 from aligner.kernels.assign import sparse_max_weight_matching
-from aligner.kernels.product import product_rows
+from aligner.kernels.product import PRODUCT, product_rows
 from aligner.kernels.query import _local_push, _reset_slots
 
 __all__ = ["AnswerIndex", "Answer", "answer", "certify", "score_bounds", "DEFAULT_MAX_PAIRS"]
@@ -107,7 +107,7 @@ class AnswerIndex:
         for i0 in range(0, cand.n1, block):  # the neighbour lists of a block are dropped at once
             i1 = min(cand.n1, i0 + block)
             product_rows(i0, i1, a_indptr, a_indices, b_indptr, b_indices, cand.a_indptr, pair_b, none, none,
-                         counts[cand.a_indptr[i0]:cand.a_indptr[i1]])
+                         PRODUCT, counts[cand.a_indptr[i0]:cand.a_indptr[i1]])
         self.degree = counts
         if engine.normalization == "restricted":
             self.v = counts.astype(np.float64)

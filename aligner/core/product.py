@@ -9,7 +9,7 @@ import numpy as np
 import numpy.typing as npt
 import scipy.sparse as sp
 
-from aligner.kernels.product import product_bound, product_rows, thread_count
+from aligner.kernels.product import PRODUCT, product_bound, product_rows, thread_count
 from aligner.core.candidates import CandidateSet
 from aligner.errors import InvalidParameterError
 
@@ -26,7 +26,8 @@ class ProductGraph:
     ``indices[indptr[k]:indptr[k+1]]`` are the pairs adjacent to pair k, sorted. Undirected:
     each product edge is stored twice (once from each end). ``directed``: the lists are
     out-lists, pair k = (i, i') pointing to (j, j') when i -> j in A and i' -> j' in B.
-    ``weights`` (when the networks are weighted) holds w_A(i, j) * w_B(i', j') per entry.
+    ``weights`` (when the networks are weighted) holds the weight of every entry: the agreement
+    of the two edges' levels, or w_A(i, j) * w_B(i', j') (see :mod:`aligner.core.weights`).
     """
 
     indptr: npt.NDArray[np.int64]
@@ -97,6 +98,7 @@ def build_product(
     a_weights: npt.NDArray[np.float64] | None = None,
     b_weights: npt.NDArray[np.float64] | None = None,
     directed: bool = False,
+    agreement: float | None = None,
 ) -> ProductGraph:
     """Build the product graph of A and B restricted to the candidate pairs.
 
@@ -112,6 +114,10 @@ def build_product(
         (i, i') -> (j, j') then weighs w_A(i, j) * w_B(i', j').
     directed : bool
         The adjacencies are out-adjacencies; the result holds out-lists.
+    agreement : float in [0, 1], optional
+        With weights that are levels in [0, 1] (:func:`aligner.core.weights.weight_levels`):
+        the entry weighs ``agreement + (1 - agreement) * (1 - |w_A(i, j) - w_B(i', j')|)``
+        instead of the product (the agreement kernel, ``agreement`` its floor).
 
     Returns
     -------
@@ -145,6 +151,11 @@ def build_product(
         given = "a_weights" if weighted else "b_weights"
         raise InvalidParameterError(f"a_weights and b_weights must be given together or not at all; got {given} only",
                                     param=given)
+    floor = PRODUCT
+    if agreement is not None:
+        if not 0.0 <= agreement <= 1.0:
+            raise InvalidParameterError(f"agreement must be a number in [0, 1]; got {agreement}", param="agreement")
+        floor = float(agreement)
     none = np.empty(0, dtype=np.float64)
     a_w = none if not weighted else np.ascontiguousarray(a_weights, dtype=np.float64)
     b_w = none if not weighted else np.ascontiguousarray(b_weights, dtype=np.float64)
@@ -156,7 +167,8 @@ def build_product(
 
     def build(i0: int, i1: int) -> tuple[np.ndarray, np.ndarray, int]:  # the rows of nodes i0 .. i1-1 of A
         counts = indptr[cand.a_indptr[i0] + 1: cand.a_indptr[i1] + 1]
-        return product_rows(i0, i1, a_indptr, a_indices, b_indptr, b_indices, cand.a_indptr, pair_b, a_w, b_w, counts)
+        return product_rows(i0, i1, a_indptr, a_indices, b_indptr, b_indices, cand.a_indptr, pair_b, a_w, b_w, floor,
+                            counts)
 
     if len(blocks) > 2:
         with ThreadPoolExecutor(thread_count()) as pool:  # the kernel releases the GIL

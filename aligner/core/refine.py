@@ -59,6 +59,7 @@ References
 
 from __future__ import annotations
 
+import dataclasses
 import time
 from dataclasses import dataclass, field
 from typing import NamedTuple
@@ -75,7 +76,8 @@ from aligner.errors import InvalidParameterError
 from aligner.core.product import ProductGraph
 from aligner.core.rounding import METHODS, round_matching
 
-__all__ = ["RefineResult", "refine_matching", "refine_objective", "normalise_weights",
+__all__ = ["RefineResult", "refine_matching", "refine_from_starts", "perturbed_scores", "refine_objective",
+           "normalise_weights",
            "DEFAULT_BETA", "DEFAULT_MAX_ITER", "DEFAULT_PATIENCE", "STEPS"]
 
 #: Default weight of the normalised matched weight against one conserved edge (the ``beta``
@@ -141,15 +143,19 @@ class RefineResult:
     beta: float
     w_scale: float
     seconds: float
+    starts: tuple = ()
 
     def report(self) -> dict:
         """The figures as a JSON-ready dict (for a run summary)."""
-        return {"iterations": self.iterations, "rounds": self.rounds, "hit_cap": self.hit_cap,
-                "local_moves": self.local_moves, "beta": self.beta, "w_scale": self.w_scale,
-                "conserved_before": self.conserved_before, "conserved_after": self.conserved_after,
-                "weight_before": self.weight_before, "weight_after": self.weight_after,
-                "objective_before": self.objective[0], "objective_after": self.objective[-1],
-                "seconds": round(self.seconds, 4)}
+        out = {"iterations": self.iterations, "rounds": self.rounds, "hit_cap": self.hit_cap,
+               "local_moves": self.local_moves, "beta": self.beta, "w_scale": self.w_scale,
+               "conserved_before": self.conserved_before, "conserved_after": self.conserved_after,
+               "weight_before": self.weight_before, "weight_after": self.weight_after,
+               "objective_before": self.objective[0], "objective_after": self.objective[-1],
+               "seconds": round(self.seconds, 4)}
+        if len(self.starts) > 1:
+            out["starts"] = [dict(s) for s in self.starts]
+        return out
 
 
 def normalise_weights(w: npt.ArrayLike) -> tuple[npt.NDArray[np.float64], float]:
@@ -480,3 +486,64 @@ def refine_matching(prod: ProductGraph, cand: CandidateSet, w: npt.ArrayLike, in
                         weight_before=float(w[index].sum()), weight_after=float(w[inc.index].sum()),
                         local_moves=moves, rounds=n_rounds, hit_cap=hit_cap, beta=opts.beta, w_scale=scale,
                         seconds=time.perf_counter() - t0)
+
+
+#: Spread (standard deviation of the log) of the multiplicative noise of a perturbed start.
+PERTURBATION = 0.05
+
+
+def perturbed_scores(w: npt.ArrayLike, count: int, seed: int = 0):
+    """``count`` copies of ``w``, each entry multiplied by independent log-normal noise
+    (median 1, log standard deviation :data:`PERTURBATION`): the scores whose assignments are
+    the perturbed starts of :func:`refine_from_starts`. Seeded, so runs repeat."""
+    w = np.asarray(w, dtype=np.float64)
+    rng = np.random.default_rng(seed)
+    for _ in range(count):
+        yield w * rng.lognormal(0.0, PERTURBATION, len(w))
+
+
+def refine_from_starts(prod: ProductGraph, cand: CandidateSet, w: npt.ArrayLike, starts, *,
+                       keep: npt.ArrayLike | None = None, **options) -> RefineResult | None:
+    """:func:`refine_matching` from each of several starts; the result of highest F.
+
+    The refinement is a local method: from different starts it stops at different local
+    optima of F (on real networks, conserved-edge counts several per cent apart). Running it
+    from a few starts and keeping the best makes the result depend much less on the start.
+
+    Parameters
+    ----------
+    starts : sequence of (str, array_like of int)
+        Labelled start matchings (candidate indices, one-to-one); the first one is the
+        reference (ties in F keep the earliest start).
+    keep : array_like of int, optional
+        Candidate indices every accepted result must hold (fixed seed pairs); a result that
+        drops one is not accepted. None when no result holds them all.
+    options
+        As for :func:`refine_matching`.
+
+    Returns
+    -------
+    RefineResult or None
+        The best accepted result; its ``conserved_before`` and ``weight_before`` are those of
+        the first start (the matching the refinement improves on), its ``starts`` one record per
+        start (label, conserved edges before and after, F after, accepted) and its ``seconds``
+        the time of all starts.
+    """
+    t0 = time.perf_counter()
+    keep = None if keep is None else np.asarray(keep, dtype=np.int64)
+    best = first = None
+    records = []
+    for label, index in starts:
+        res = refine_matching(prod, cand, w, index, **options)
+        ok = keep is None or bool(np.isin(keep, res.index).all())
+        records.append({"start": label, "conserved_before": res.conserved_before,
+                        "conserved_after": res.conserved_after, "objective_after": res.objective[-1],
+                        "accepted": ok})
+        if ok and (best is None or _rises(res.objective[-1], best.objective[-1])):
+            best = res
+        if first is None:
+            first = res
+    if best is None:
+        return None
+    return dataclasses.replace(best, conserved_before=first.conserved_before, weight_before=first.weight_before,
+                               starts=tuple(records), seconds=time.perf_counter() - t0)

@@ -31,13 +31,16 @@ from aligner.datasets.synthetic import (
 )
 
 __all__ = ["GRAPHS", "base_graph", "noisy_relabelled", "node_names", "in_reader_order", "as_networks", "as_frames",
-           "write_instance", "read_connectome", "hidden_connectome", "CONNECTOME_TASKS"]
+           "write_instance", "read_connectome", "hidden_connectome", "perturb_weights", "CONNECTOME_TASKS",
+           "WEIGHT_CHANGES"]
 
 #: base graph models: a power-law graph with clustering, and growth by duplication-divergence
 GRAPHS = ("powerlaw", "dupdiv")
 
 #: tasks of :func:`hidden_connectome`
 CONNECTOME_TASKS = ("class", "noisy")
+#: changes of a weighted network's weights (:func:`perturb_weights`)
+WEIGHT_CHANGES = ("none", "scale-0.3", "scale-3", "poisson", "drop-weakest-20%")
 
 
 def base_graph(graph: str, n: int, *, seed, **options) -> np.ndarray:
@@ -176,7 +179,30 @@ def read_connectome(folder: str | os.PathLike) -> tuple[pd.DataFrame, pd.DataFra
     return a, b, classes
 
 
-def hidden_connectome(a: pd.DataFrame, b: pd.DataFrame, classes: pd.Series, task: str, *, seed: int):
+def perturb_weights(edges: pd.DataFrame, change: str, *, seed: int = 0) -> pd.DataFrame:
+    """An edge table (``node_a, node_b, weight``) with its weights changed.
+
+    ``scale-0.3`` / ``scale-3``: every weight times 0.3 / 3 (another reconstruction's scale);
+    ``poisson``: every weight replaced by a Poisson draw of that mean (counting noise), edges
+    drawn 0 removed; ``drop-weakest-20%``: the fifth of the edges of lowest weight removed
+    (ties by row order); ``none``: unchanged. Seeded.
+    """
+    change = check_choice(change, "change", WEIGHT_CHANGES)
+    out = edges.copy()
+    w = out["weight"].to_numpy(dtype=np.float64)
+    if change.startswith("scale-"):
+        out["weight"] = w * float(change.removeprefix("scale-"))
+    elif change == "poisson":
+        out["weight"] = np.random.default_rng(seed).poisson(w).astype(np.float64)
+        out = out[out["weight"] > 0]
+    elif change == "drop-weakest-20%":
+        weakest = np.argsort(w, kind="stable")[: int(0.2 * len(w))]
+        out = out.drop(out.index[weakest])
+    return out.reset_index(drop=True)
+
+
+def hidden_connectome(a: pd.DataFrame, b: pd.DataFrame, classes: pd.Series, task: str, *, seed: int,
+                      weighted: bool = False):
     """Two connectomes with every name replaced by a random opaque identifier, a prior and the truth.
 
     The same neuron has the same name in ``a`` and ``b``, so the names are the truth; hidden,
@@ -188,8 +214,8 @@ def hidden_connectome(a: pd.DataFrame, b: pd.DataFrame, classes: pd.Series, task
     Returns
     -------
     edges_a, edges_b, prior, truth : DataFrame
-        Edge tables (``u, v``), the prior (``a, b`` and a score) and the true pairs (``a, b``),
-        all under the hidden names.
+        Edge tables (``u, v``, and ``w``, the synapse counts, with ``weighted``), the prior
+        (``a, b`` and a score) and the true pairs (``a, b``), all under the hidden names.
     """
     from aligner.priors.classes import prior_from_classes
 
@@ -200,6 +226,8 @@ def hidden_connectome(a: pd.DataFrame, b: pd.DataFrame, classes: pd.Series, task
     hb = dict(zip(names_b, opaque_names(len(names_b), seed=seed + 1, prefix="b")))
     ea = pd.DataFrame({"u": a.node_a.map(ha), "v": a.node_b.map(ha)})
     eb = pd.DataFrame({"u": b.node_a.map(hb), "v": b.node_b.map(hb)})
+    if weighted:
+        ea["w"], eb["w"] = a["weight"].to_numpy(), b["weight"].to_numpy()
     shared = sorted(set(names_a) & set(names_b))
     truth = pd.DataFrame({"a": [ha[n] for n in shared], "b": [hb[n] for n in shared]})
     if task == "class":

@@ -6,6 +6,8 @@ import numpy as np
 
 _EMPTY = -1
 _MIX = 2654435761  # odd, about 2**32 / golden ratio
+#: the ``floor`` that asks product_rows for w_A * w_B per entry (any negative number does)
+PRODUCT = -1.0
 
 
 def thread_count() -> int:
@@ -14,7 +16,7 @@ def thread_count() -> int:
 
 
 @numba.njit(cache=True, nogil=True)
-def product_rows(i0, i1, a_indptr, a_indices, b_indptr, b_indices, c_indptr, c_b, a_w, b_w, counts):
+def product_rows(i0, i1, a_indptr, a_indices, b_indptr, b_indices, c_indptr, c_b, a_w, b_w, floor, counts):
     """The product-graph neighbours of the candidate pairs of nodes ``i0 .. i1-1`` of A, in one pass.
 
     Pair k = (i, i') and pair u = (j, j') are adjacent when j is a neighbour of i in A and j'
@@ -31,8 +33,9 @@ def product_rows(i0, i1, a_indptr, a_indices, b_indptr, b_indices, c_indptr, c_b
     Writes the number of neighbours of every pair ``c_indptr[i0] .. c_indptr[i1]-1`` to
     ``counts`` (zeros on entry, one slot per pair) and returns ``(indices, weights,
     checksum)``: their neighbour lists one after the other; with non-empty ``a_w`` and
-    ``b_w`` (weights of the adjacency entries) the weight w_A(i, j) * w_B(i', j') of every
-    entry (else an empty array); a checksum of the entries read ahead (returned only so that
+    ``b_w`` (weights of the adjacency entries) the weight of every entry (else an empty
+    array): w_A(i, j) * w_B(i', j') when ``floor`` < 0 (:data:`PRODUCT`), else the agreement
+    floor + (1 - floor) * (1 - |w_A(i, j) - w_B(i', j')|) of two levels in [0, 1]; a checksum of the entries read ahead (returned only so that
     those reads are kept). The result of a range of nodes does not depend on the other
     nodes, so ranges can be built apart (on parallel threads, each writing its own part of
     ``counts``) and joined.
@@ -103,13 +106,13 @@ def product_rows(i0, i1, a_indptr, a_indices, b_indptr, b_indices, c_indptr, c_b
                     ent_w[e] = b_w[t]
                 e += 1
         nh = _hits(i, a_indptr, a_indices, a_w, c_indptr, c_b, bits, tab_key, tab_head, ent_row, ent_next, ent_w,
-                   hit_row, hit_u, hit_w)
+                   floor, hit_row, hit_u, hit_w)
         while nh < 0:  # out of room: grow and look again
             hit_row = np.empty(2 * hit_row.shape[0], dtype=np.int32)
             hit_u = np.empty(hit_row.shape[0], dtype=np.int32)
             hit_w = np.empty(hit_row.shape[0] if weighted else 0, dtype=np.float64)
             nh = _hits(i, a_indptr, a_indices, a_w, c_indptr, c_b, bits, tab_key, tab_head, ent_row, ent_next, ent_w,
-                       hit_row, hit_u, hit_w)
+                       floor, hit_row, hit_u, hit_w)
         tab_key[: 1 << bits] = _EMPTY
         if nh == 0:
             continue
@@ -150,10 +153,11 @@ def product_rows(i0, i1, a_indptr, a_indices, b_indptr, b_indices, c_indptr, c_b
 
 
 @numba.njit(cache=True, nogil=True)
-def _hits(i, a_indptr, a_indices, a_w, c_indptr, c_b, bits, tab_key, tab_head, ent_row, ent_next, ent_w, hit_row,
-          hit_u, hit_w):
+def _hits(i, a_indptr, a_indices, a_w, c_indptr, c_b, bits, tab_key, tab_head, ent_row, ent_next, ent_w, floor,
+          hit_row, hit_u, hit_w):
     """Look up the partner j' of every candidate u = (j, j') of every neighbour j of i: one hit
-    (row, u, weight) per table entry of key j'. The number of hits, or -1 when they do not fit."""
+    (row, u, weight) per table entry of key j' (the weight as in :func:`product_rows`). The
+    number of hits, or -1 when they do not fit."""
     mask = (1 << bits) - 1
     weighted = hit_w.shape[0] > 0
     room = hit_row.shape[0]
@@ -174,7 +178,10 @@ def _hits(i, a_indptr, a_indices, a_w, c_indptr, c_b, bits, tab_key, tab_head, e
                 hit_row[nh] = ent_row[e]
                 hit_u[nh] = u
                 if weighted:
-                    hit_w[nh] = a_w[s] * ent_w[e]
+                    if floor < 0:
+                        hit_w[nh] = a_w[s] * ent_w[e]
+                    else:
+                        hit_w[nh] = floor + (1.0 - floor) * (1.0 - abs(a_w[s] - ent_w[e]))
                 nh += 1
                 e = ent_next[e]
     return nh

@@ -20,8 +20,10 @@ from aligner.core.candidates import build_candidates
 from aligner.core.diffusion import column_scale, diffuse, prior_vector
 from aligner.core.network import network_from_edges
 from aligner.core.product import build_product
-from aligner.core.refine import DEFAULT_BETA, normalise_weights, refine_matching, refine_objective
+from aligner.core.refine import (DEFAULT_BETA, PERTURBATION, normalise_weights, perturbed_scores, refine_from_starts,
+                                 refine_matching, refine_objective)
 from aligner.core.rounding import round_matching
+from aligner.datasets.instances import as_frames
 from aligner.datasets.synthetic import powerlaw_graph, relabelled_pair
 
 DATA = Path(__file__).resolve().parents[1] / "data"
@@ -725,3 +727,54 @@ def test_local_moves_add_up_over_rounds(monkeypatch):
     assert (res.rounds, res.iterations, res.local_moves) == (3, 3, 15)
     moved = [i for i, (a, b) in enumerate(cand.pairs[res.index].tolist()) if b == a + 1]
     assert moved == list(range(n - 15, n))
+
+
+# --------------------------------------------------------------------------- several starts
+
+@pytest.mark.parametrize("seed", range(3))
+def test_several_starts_keep_the_best_of_the_single_runs(seed):
+    # the definition: refine_from_starts returns the single-start result of highest F (the
+    # earliest on ties), whatever the order of the others
+    sp = _pair(300, 0.15, seed)
+    cand, prod, x, start = _stages(sp)
+    rng = np.random.default_rng(seed)
+    starts = [("rounded", start)] + [(f"random {k}", round_matching(cand, rng.random(cand.m)).index)
+                                     for k in range(3)]
+    single = [refine_matching(prod, cand, x, idx) for _, idx in starts]
+    best = refine_from_starts(prod, cand, x, starts)
+    top = max(r.objective[-1] for r in single)
+    first_top = next(r for r in single if r.objective[-1] == top)
+    assert np.array_equal(best.index, first_top.index)
+    assert [s["conserved_after"] for s in best.starts] == [r.conserved_after for r in single]
+    assert best.conserved_before == single[0].conserved_before  # "before" is the first start's
+    assert len(best.report()["starts"]) == 4
+
+
+def test_several_starts_reject_results_without_the_kept_pairs():
+    sp = _pair(200, 0.1, 7)
+    cand, prod, x, start = _stages(sp)
+    other = np.setdiff1d(np.arange(cand.m), start)[:1]  # a pair no start holds
+    assert refine_from_starts(prod, cand, x, [("rounded", start)], keep=other) is None
+    kept = start[:3]
+    res = refine_from_starts(prod, cand, x, [("rounded", start)], keep=kept)
+    assert res is None or np.isin(kept, res.index).all()
+
+
+def test_perturbed_scores_are_seeded_and_small():
+    w = np.linspace(1, 2, 1000)
+    a, b = list(perturbed_scores(w, 2, seed=4)), list(perturbed_scores(w, 2, seed=4))
+    assert all(np.array_equal(u, v) for u, v in zip(a, b)) and not np.array_equal(a[0], a[1])
+    ratio = np.log(a[0] / w)
+    assert abs(ratio.std() - PERTURBATION) < 0.01 and abs(ratio.mean()) < 0.01
+
+
+def test_the_pipeline_refines_from_several_starts_on_small_problems():
+    sp = _pair(300, 0.15, 2)
+    ea, eb, prior, truth = as_frames(sp)
+    res = aligner.align(ea, eb, prior, truth=truth)
+    starts = res.summary["refine"]["starts"]
+    assert [s["start"] for s in starts] == ["diffusion", "prior", "perturbed 1", "perturbed 2"]
+    assert res.summary["refine"]["objective_after"] == max(s["objective_after"] for s in starts)
+    one = aligner.align(ea, eb, prior, truth=truth, refine_starts=1)
+    assert "starts" not in one.summary["refine"]
+    assert res.summary["refine"]["objective_after"] >= one.summary["refine"]["objective_after"]

@@ -69,10 +69,12 @@ def test_union_of_block_rows_is_the_single_machine_product_graph(instances, mode
             assert (b.ghost_owner != b.index).all()
 
 
-def test_weighted_blocks_carry_the_entry_weights():
+@pytest.mark.parametrize("model", ["agreement", "product"])
+def test_weighted_blocks_carry_the_entry_weights(model):
     pair = noisy_relabelled(800, seed=11)
     rng = np.random.default_rng(0)
     from aligner.core.network import network_from_edges
+    from aligner.core.weights import AGREEMENT_FLOOR, walk_weights
     from aligner.datasets.instances import node_names
 
     names = node_names(pair.n_a)
@@ -81,12 +83,13 @@ def test_weighted_blocks_carry_the_entry_weights():
     net_b = network_from_edges(names, pair.edges_b[:, 0], pair.edges_b[:, 1], source="B",
                                weights=rng.random(len(pair.edges_b)) + 0.5)
     cand = build_candidates(pair.prior_pairs, pair.prior_scores, net_a.n, net_b.n)
-    (a_ip, a_ix, a_w), (b_ip, b_ix, b_w) = net_a.walk_adjacency(weighted=True), net_b.walk_adjacency(weighted=True)
-    ref = build_product(a_ip, a_ix, b_ip, b_ix, cand, a_weights=a_w, b_weights=b_w)
+    (a_ip, a_ix, a_w), (b_ip, b_ix, b_w) = walk_weights(net_a, False, model), walk_weights(net_b, False, model)
+    ref = build_product(a_ip, a_ix, b_ip, b_ix, cand, a_weights=a_w, b_weights=b_w,
+                        agreement=AGREEMENT_FLOOR if model == "agreement" else None)
     bounds = blocks.partition(a_ip, a_ix, b_ip, cand, 3)
     built = [blocks.build_block(i) for i in blocks.block_inputs(net_a, net_b, cand, prior_vector(cand.prior), bounds,
                                                                 directed=False, weighted=True,
-                                                                normalization="restricted")]
+                                                                normalization="restricted", weight_model=model)]
     assert np.array_equal(np.concatenate([blocks.gather_rows(b)[1] for b in built]), ref.indices)
     assert np.array_equal(np.concatenate([blocks.gather_rows(b)[2] for b in built]), ref.weights)
 

@@ -24,9 +24,11 @@ def test_product_rows_by_ranges_equals_networkx_tensor_product():
     pb = np.ascontiguousarray(cand.pairs[:, 1])
     empty = np.empty(0)
     for cuts in ([0, n1], [0, 5, n1], [0, 1, 2, 9, 15, n1], list(range(n1 + 1))):
-        for weights in ((empty, empty), (np.ones(len(xa)), np.ones(len(xb)))):
+        for weights, floor in (((empty, empty), -1.0), ((np.ones(len(xa)), np.ones(len(xb))), -1.0),
+                               ((np.full(len(xa), 0.3), np.full(len(xb), 0.3)), 0.5)):
+            # product of ones, or the agreement of equal levels: every weight is 1
             counts = np.zeros(cand.m, dtype=np.int64)
-            parts = [product_rows(a, b, ia, xa, ib, xb, cand.a_indptr, pb, *weights,
+            parts = [product_rows(a, b, ia, xa, ib, xb, cand.a_indptr, pb, *weights, floor,
                                   counts[cand.a_indptr[a]:cand.a_indptr[b]]) for a, b in zip(cuts, cuts[1:])]
             indices = np.concatenate([p[0] for p in parts])
             ptr = np.concatenate([[0], np.cumsum(counts)])

@@ -26,6 +26,7 @@ import numpy.typing as npt
 from aligner.core.candidates import CandidateSet
 from aligner.core.diffusion import column_scale
 from aligner.core.product import ProductGraph, build_product
+from aligner.core.weights import AGREEMENT_FLOOR, walk_degree, walk_weights
 
 __all__ = ["BlockInput", "Block", "partition", "cut_by_cost", "block_inputs", "build_block", "node_work",
            "gather_rows"]
@@ -95,6 +96,7 @@ class BlockInput:
     pair_deg: npt.NDArray[np.float64] | None  # deg_A(i) deg_B(i') of the owned pairs ("product" walk)
     directed: bool
     weighted: bool
+    agreement: float | None = None  # floor of the agreement kernel (weights are levels), None: w_A * w_B
 
     @property
     def pair_lo(self) -> int:
@@ -106,14 +108,20 @@ class BlockInput:
 
 
 def block_inputs(net_a, net_b, cand: CandidateSet, h: np.ndarray, bounds: np.ndarray, *, directed: bool,
-                 weighted: bool, normalization: str) -> list[BlockInput]:
+                 weighted: bool, normalization: str, weight_model: str = "agreement") -> list[BlockInput]:
     """Slice the client's inputs into one :class:`BlockInput` per range of ``bounds``."""
-    a_ip, a_ix, a_w = net_a.walk_adjacency(directed, weighted)
-    b_ip, b_ix, b_w = net_b.walk_adjacency(directed, weighted)
+    if weighted:  # the entry weights the product graph is built from (see aligner.core.weights)
+        a_ip, a_ix, a_w = walk_weights(net_a, directed, weight_model)
+        b_ip, b_ix, b_w = walk_weights(net_b, directed, weight_model)
+    else:
+        a_ip, a_ix, a_w = net_a.walk_adjacency(directed)
+        b_ip, b_ix, b_w = net_b.walk_adjacency(directed)
+    agreement = AGREEMENT_FLOOR if weighted and weight_model == "agreement" else None
     pair_bounds = cand.a_indptr[bounds].astype(np.int64)
     deg = None
     if normalization == "product":
-        sa, sb = net_a.strength(directed, weighted), net_b.strength(directed, weighted)
+        sa = walk_degree(net_a, directed, weighted, weight_model)
+        sb = walk_degree(net_b, directed, weighted, weight_model)
         deg = sa[cand.pairs[:, 0]] * sb[cand.pairs[:, 1]]
     out = []
     for b in range(len(bounds) - 1):
@@ -134,7 +142,7 @@ def block_inputs(net_a, net_b, cand: CandidateSet, h: np.ndarray, bounds: np.nda
             c_b=cand.pairs[c_pos, 1].astype(np.int64), c_pair=c_pos, b_nodes=partners, b_indptr=bp,
             b_indices=b_ix[b_pos].astype(np.int64), b_weights=b_w[b_pos] if weighted else np.empty(0),
             h=np.ascontiguousarray(h[p0:p1]), pair_deg=None if deg is None else deg[p0:p1],
-            directed=directed, weighted=weighted))
+            directed=directed, weighted=weighted, agreement=agreement))
     return out
 
 
@@ -213,7 +221,7 @@ def build_block(inp: BlockInput) -> Block:
     pairs = np.stack([c_node, np.searchsorted(b_set, inp.c_b).astype(np.int32)], axis=1)
     local = CandidateSet(pairs=pairs, prior=np.zeros(len(pairs)), a_indptr=inp.c_indptr, n1=n_local, n2=len(b_set))
     pg = build_product(a_ptr, a_idx, b_ptr, b_idx, local, a_weights=inp.a_weights if inp.weighted else None,
-                       b_weights=b_w, directed=inp.directed)
+                       b_weights=b_w, directed=inp.directed, agreement=inp.agreement)
     # local candidate q is global pair: owned ones are contiguous, ghosts read off the other blocks' ranges
     q0 = int(inp.c_indptr[inp.own_from])
     q1 = int(inp.c_indptr[inp.own_from + inp.n_own])

@@ -377,7 +377,8 @@ def _run(client, inputs, found: Candidates, cfg: AlignConfig, parts: int, mode: 
         t0 = time.perf_counter()
         bounds = blocks.partition(a_ip, a_ix, b_ip, cand, parts)
         ins = blocks.block_inputs(inputs.network_a, inputs.network_b, cand, h, bounds, directed=cfg.directed,
-                                  weighted=cfg.weighted, normalization=cfg.normalization)
+                                  weighted=cfg.weighted, normalization=cfg.normalization,
+                                  weight_model=cfg.weight_model)
         t1 = time.perf_counter()
         cluster = BlockCluster(client, ins, bounds)
         del ins
@@ -385,7 +386,8 @@ def _run(client, inputs, found: Candidates, cfg: AlignConfig, parts: int, mode: 
         if first > REBALANCE_ABOVE:  # the estimate misjudged the work: cut again by the measured work
             bounds = blocks.cut_by_cost(np.concatenate(cluster.collect(cluster.run(blocks.node_work))), parts)
             ins = blocks.block_inputs(inputs.network_a, inputs.network_b, cand, h, bounds, directed=cfg.directed,
-                                      weighted=cfg.weighted, normalization=cfg.normalization)
+                                      weighted=cfg.weighted, normalization=cfg.normalization,
+                                  weight_model=cfg.weight_model)
             del cluster
             cluster = BlockCluster(client, ins, bounds)
             del ins
