@@ -21,7 +21,7 @@ Table 2 (``starts``): the spread of the refinement's result over reasonable star
 diffusion at alpha 0.5, 0.7, 0.9, 0.95, weighted (agreement) and unweighted, one start each, then
 the same eight runs with the default starts; min and max of conserved edges and of NC.
 
-    python scripts/bench/bench_weights.py --markdown docs/weights_benchmark.md
+    python scripts/bench/bench_weights.py --poisson-seeds 5 --markdown docs/weights_benchmark.md
 
 Writes OUT/bench_weights.csv (every run) and the Markdown tables (OUT defaults to bench_out/).
 """
@@ -120,7 +120,8 @@ def markdown(rows: list[dict], command: str) -> str:
              "earlier model (w_A * w_B, the walk dividing by strength), `agreement` the default "
              "(docs/method.md, \"Edge weights\").", "",
              "| instance | unweighted, 1 start | product, 1 start | agreement, 1 start | unweighted | product "
-             "| agreement | agreement − unweighted (NC, conserved) |", "|---|---|---|---|---|---|---|---|"]
+             "| agreement | agreement − unweighted (NC, conserved) | NC up to interchangeable nodes: unweighted "
+             "/ product / agreement |", "|---|---|---|---|---|---|---|---|---|"]
     models = df[df.table == "models"]
     for name, g in models.groupby("instance", sort=False):
         cell = {}
@@ -133,6 +134,7 @@ def markdown(rows: list[dict], command: str) -> str:
                 row.append(f"{r.nc:.3f} / {r.conserved:,}")
         u, w = cell[("unweighted", "default")], cell[("agreement", "default")]
         row.append(f"{w.nc - u.nc:+.3f}, {(w.conserved - u.conserved) / max(u.conserved, 1):+.2%}")
+        row.append(" / ".join(f"{cell[(s, 'default')].nc_up:.3f}" for s in ("unweighted", "product", "agreement")))
         lines.append("| " + " | ".join(row) + " |")
     lines += ["", "## Spread over starts", "",
               "Eight reasonable starts per instance: the diffusion at alpha 0.5, 0.7, 0.9, 0.95, weighted "
