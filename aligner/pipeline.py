@@ -569,12 +569,12 @@ def _alternatives_column(net_b: Network, ambiguity: Ambiguity) -> np.ndarray:
     return out
 
 
-def _ambiguity(problem: Problem, index: np.ndarray) -> Ambiguity:
+def _ambiguity(problem: Problem, index: np.ndarray, optima=()) -> Ambiguity:
     cfg = problem.config
     prod = problem.product.symmetrised() if cfg.directed else problem.product
     a, b = problem.network_a, problem.network_b
     return find_ambiguity(prod, problem.candidates, index, walk_a=(a.indptr, a.indices),
-                          walk_b=(b.indptr, b.indices))
+                          walk_b=(b.indptr, b.indices), optima=optima)
 
 
 def _nc_up_to_ambiguity(inputs: Inputs, matched: np.ndarray, ambiguity: Ambiguity) -> float | None:
@@ -622,7 +622,7 @@ def evaluate(problem: Problem, diffusion: DiffusionResult, improvement: Improvem
     edges_a = inputs.network_a.scored_edges(cfg.directed)[0]
     counts = transfer_counts(edges_a, inputs.network_b.scored_edges(cfg.directed)[0], matched, inputs.network_a.n,
                              inputs.network_b.n, scores.conserved_edges)
-    ambiguity = _ambiguity(problem, index)
+    ambiguity = _ambiguity(problem, index, () if improvement.refined is None else improvement.refined.near_optima)
     return Evaluation(scores, before, _pairs_frame(problem, diffusion, index, cons, names_a, names_b, ambiguity),
                       _conserved_table(names_a, names_b, edges_a, f, cons), sig, seeds, counts, image, ambiguity)
 

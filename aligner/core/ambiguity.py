@@ -18,7 +18,15 @@ matching picks one arbitrarily. Two kinds of evidence are collected:
   (Equal colours are necessary for an automorphism, not sufficient; on the graphs where they
   differ, regular graphs for instance, the wiring indeed does not tell the nodes apart locally.)
 
-Nodes of A joined by either kind form *ambiguity groups* (connected components); each matched
+- **Near-optimal matchings.** When the refinement ran from several starts, the other matchings
+  it reached that conserve nearly as many edges (within ``aligner.core.refine.NEAR_TIE``, 0.5 %)
+  and differ from the kept one: at every node of A where such a matching gives another partner
+  at a prior within ``prior_tol`` of its own pair's, that partner is an alternative. This finds
+  mirror images that noise has made inexact (colour refinement then tells the sides apart,
+  though the conserved edges barely do), and any other swap of many pairs that the wiring
+  hardly prefers.
+
+Nodes of A joined by any kind form *ambiguity groups* (connected components); each matched
 node's *alternatives* are the nodes of B it could take.
 """
 
@@ -100,6 +108,8 @@ class Ambiguity:
     exchanges, indistinguishable : int
         Neutral 2-exchanges found, and pairs of matched nodes found indistinguishable.
     prior_tol : float
+    near_optima, near_optimum_nodes : int
+        Near-optimal matchings compared, and nodes of A given an alternative by one of them.
     """
 
     alt_ptr: npt.NDArray[np.int64]
@@ -111,6 +121,8 @@ class Ambiguity:
     exchanges: int
     indistinguishable: int
     prior_tol: float
+    near_optima: int = 0
+    near_optimum_nodes: int = 0
 
     def alternatives(self, t: int) -> npt.NDArray[np.int64]:
         """The alternatives of matched pair ``t``."""
@@ -119,6 +131,7 @@ class Ambiguity:
     def report(self) -> dict:
         return {"groups": self.groups, "nodes_in_groups": self.nodes_in_groups, "largest_group": self.largest_group,
                 "neutral_exchanges": self.exchanges, "indistinguishable_pairs": self.indistinguishable,
+                "near_optima": self.near_optima, "near_optimum_nodes": self.near_optimum_nodes,
                 "prior_tolerance": self.prior_tol}
 
 
@@ -142,12 +155,33 @@ def _indistinguishable(cand: CandidateSet, swaps, walk_a, walk_b):
     return cand.pairs[k[same], 0].astype(np.int64), jb[same]
 
 
+def _from_optima(cand: CandidateSet, index: npt.NDArray[np.int64], optima, prior_tol: float):
+    """(i, j') alternatives from near-optimal matchings: every node i of A that another matching
+    gives a partner j' != its own, at a prior within ``prior_tol`` of its own pair's."""
+    own = np.full(cand.n1, -1, dtype=np.int64)
+    own[cand.pairs[index, 0]] = index
+    prior = np.asarray(cand.prior, dtype=np.float64)
+    alt_i, alt_b = [], []
+    for other in optima:
+        other = np.asarray(other, dtype=np.int64)
+        i = cand.pairs[other, 0].astype(np.int64)
+        k = own[i]
+        moved = (k >= 0) & (k != other)
+        moved[moved] &= prior[other[moved]] >= (1.0 - prior_tol) * prior[k[moved]]
+        alt_i.append(i[moved])
+        alt_b.append(cand.pairs[other[moved], 1].astype(np.int64))
+    if not alt_i:
+        return np.empty(0, dtype=np.int64), np.empty(0, dtype=np.int64)
+    return np.concatenate(alt_i), np.concatenate(alt_b)
+
+
 def find_ambiguity(prod: ProductGraph, cand: CandidateSet, index: npt.ArrayLike, *, walk_a, walk_b,
-                   prior_tol: float = PRIOR_TOL) -> Ambiguity:
+                   prior_tol: float = PRIOR_TOL, optima=()) -> Ambiguity:
     """Alternatives and groups of the matching ``index`` (candidate indices), see the module.
 
     ``prod`` is the (symmetrised, for directed networks) product graph; ``walk_a``, ``walk_b``
-    the (indptr, indices) adjacencies colour refinement runs on.
+    the (indptr, indices) adjacencies colour refinement runs on; ``optima`` other matchings
+    (candidate indices) that conserve nearly as many edges.
     """
     index = np.asarray(index, dtype=np.int64)
     n1, n2 = cand.n1, cand.n2
@@ -177,6 +211,11 @@ def find_ambiguity(prod: ProductGraph, cand: CandidateSet, index: npt.ArrayLike,
     holder[pb[index]] = pa[index]
     link_u.append(ind_i)
     link_v.append(np.where(holder[ind_b] >= 0, holder[ind_b], ind_i))
+    opt_i, opt_b = _from_optima(cand, index, optima, prior_tol)
+    alt_i.append(opt_i)
+    alt_b.append(opt_b)
+    link_u.append(opt_i)
+    link_v.append(np.where(holder[opt_b] >= 0, holder[opt_b], opt_i))
     ai, ab = np.concatenate(alt_i), np.concatenate(alt_b)
     # alternatives per matched node, without its own partner, each once
     matched_a = pa[index]
@@ -212,4 +251,5 @@ def find_ambiguity(prod: ProductGraph, cand: CandidateSet, index: npt.ArrayLike,
     group = np.where(in_link[matched_a], renum[comp[matched_a]], -1)
     return Ambiguity(alt_ptr=alt_ptr, alt_nodes=ab, group=group, groups=int(real.sum()),
                      nodes_in_groups=int(sizes[real].sum()), largest_group=int(sizes.max()) if real.any() else 0,
-                     exchanges=int(len(moves)), indistinguishable=int(len(ind_i)), prior_tol=float(prior_tol))
+                     exchanges=int(len(moves)), indistinguishable=int(len(ind_i)), prior_tol=float(prior_tol),
+                     near_optima=len(optima), near_optimum_nodes=int(len(np.unique(opt_i))))

@@ -128,6 +128,11 @@ class RefineResult:
         The divisor applied to ``w`` (its mean over candidates with w > 0).
     seconds : float
         Wall time of the refinement.
+    starts : tuple of dict
+        With several starts (:func:`refine_from_starts`): one record per start.
+    near_optima : tuple of ndarray
+        With several starts: the other results that conserve nearly as many edges (see
+        :data:`NEAR_TIE`), as candidate indices.
     """
 
     index: npt.NDArray[np.int64]
@@ -144,6 +149,7 @@ class RefineResult:
     w_scale: float
     seconds: float
     starts: tuple = ()
+    near_optima: tuple = ()
 
     def report(self) -> dict:
         """The figures as a JSON-ready dict (for a run summary)."""
@@ -488,6 +494,10 @@ def refine_matching(prod: ProductGraph, cand: CandidateSet, w: npt.ArrayLike, in
                         seconds=time.perf_counter() - t0)
 
 
+#: Other results of several starts that conserve at least (1 - NEAR_TIE) times the edges of the
+#: best are near-optima: matchings the wiring can hardly tell from the one kept (see
+#: :func:`aligner.core.ambiguity.find_ambiguity`).
+NEAR_TIE = 0.005
 #: Spread (standard deviation of the log) of the multiplicative noise of a perturbed start.
 PERTURBATION = 0.05
 
@@ -524,26 +534,44 @@ def refine_from_starts(prod: ProductGraph, cand: CandidateSet, w: npt.ArrayLike,
     Returns
     -------
     RefineResult or None
-        The best accepted result; its ``conserved_before`` and ``weight_before`` are those of
-        the first start (the matching the refinement improves on), its ``starts`` one record per
-        start (label, conserved edges before and after, F after, accepted) and its ``seconds``
-        the time of all starts.
+        The accepted result of highest F (the earliest on ties). Its ``conserved_before`` and
+        ``weight_before`` are those of the first start (the matching the refinement improves
+        on), its ``starts`` one record per start (label, conserved edges before and after, F
+        after, accepted), its ``near_optima`` the other accepted results within
+        :data:`NEAR_TIE` of its conserved edges, and its ``seconds`` the time of all starts.
     """
     t0 = time.perf_counter()
     keep = None if keep is None else np.asarray(keep, dtype=np.int64)
-    best = first = None
-    records = []
+    first = None
+    records, accepted = [], []
     for label, index in starts:
         res = refine_matching(prod, cand, w, index, **options)
         ok = keep is None or bool(np.isin(keep, res.index).all())
         records.append({"start": label, "conserved_before": res.conserved_before,
                         "conserved_after": res.conserved_after, "objective_after": res.objective[-1],
                         "accepted": ok})
-        if ok and (best is None or _rises(res.objective[-1], best.objective[-1])):
-            best = res
+        if ok:
+            accepted.append(res)
         if first is None:
             first = res
-    if best is None:
+    if not accepted:
         return None
+    best = accepted[0]
+    for res in accepted[1:]:
+        if _rises(res.objective[-1], best.objective[-1]):
+            best = res
+    near = _near_optima(best, accepted)
     return dataclasses.replace(best, conserved_before=first.conserved_before, weight_before=first.weight_before,
-                               starts=tuple(records), seconds=time.perf_counter() - t0)
+                               starts=tuple(records), near_optima=near, seconds=time.perf_counter() - t0)
+
+
+def _near_optima(best: RefineResult, results: list) -> tuple:
+    """The other matchings among ``results`` that conserve at least (1 - NEAR_TIE) times the
+    edges of ``best``, each once (candidate indices)."""
+    out, seen = [], {best.index.tobytes()}
+    for res in results:
+        key = res.index.tobytes()
+        if key not in seen and res.conserved_after >= (1.0 - NEAR_TIE) * best.conserved_after:
+            seen.add(key)
+            out.append(res.index)
+    return tuple(out)

@@ -408,6 +408,8 @@ def _ambiguity_section(summary: dict, pairs: pd.DataFrame) -> str:
     rows = [("groups", amb["groups"]), ("nodes in groups", amb["nodes_in_groups"]),
             ("largest group", amb["largest_group"]), ("neutral 2-exchanges", amb["neutral_exchanges"]),
             ("indistinguishable pairs", amb["indistinguishable_pairs"]),
+            ("near-optimal matchings / nodes they give an alternative", f"{amb.get('near_optima', 0)} / "
+             f"{amb.get('near_optimum_nodes', 0)}"),
             ("prior tolerance", amb["prior_tolerance"])]
     if amb.get("nc_up_to_ambiguity") is not None:
         rows.append(("NC up to ambiguity", amb["nc_up_to_ambiguity"]))

