@@ -212,8 +212,8 @@ class AlignConfig(_Config):
         flag="--beta", group=MATCHING, kind="real", low=0.0)
     refine_starts: int | None = option(
         None, "Refinement: how many starts to refine from, the best result kept (the diffusion's matching, "
-        "then the prior's, then matchings of randomly perturbed scores, seeded). Default: 8 up to 300,000 "
-        "candidate pairs, 1 above.", flag="--refine-starts", group=MATCHING, kind="int", low=1, optional=True)
+        "then the prior's, then matchings of randomly perturbed scores, seeded). Default: as many as fit in "
+        "1,000,000 candidate pairs refined in all, at most 8 (8 up to 125,000 candidates, 1 from 1,000,000).", flag="--refine-starts", group=MATCHING, kind="int", low=1, optional=True)
     refine_iter: int = option(
         30, "Refinement: cap on iterations (each one sparse product and one assignment).", flag="--refine-iter",
         group=MATCHING, kind="int", low=0)

@@ -421,9 +421,10 @@ class Improvement:
         return self.refined is not None or self.note is not None
 
 
-#: Refinement starts when ``refine_starts`` is not set, and the candidate count above which one start
-#: is the default (each start costs about one refinement; see docs/method.md, "Several starts").
-AUTO_STARTS, AUTO_STARTS_MAX_PAIRS = 8, 300_000
+#: Refinement starts when ``refine_starts`` is not set: at most AUTO_STARTS, and no more than fit
+#: in START_BUDGET candidate pairs refined in all (each start costs about one refinement; see
+#: docs/method.md, "Several starts"): 8 up to 125,000 candidates, one from 1,000,000.
+AUTO_STARTS, START_BUDGET = 8, 1_000_000
 
 
 def refine_starts(problem: Problem) -> int:
@@ -431,7 +432,7 @@ def refine_starts(problem: Problem) -> int:
     cfg = problem.config
     if cfg.refine_starts is not None:
         return cfg.refine_starts
-    return AUTO_STARTS if problem.candidates.m <= AUTO_STARTS_MAX_PAIRS else 1
+    return int(min(AUTO_STARTS, max(1, START_BUDGET // max(problem.candidates.m, 1))))
 
 
 def _round(problem: Problem, scores: np.ndarray) -> Matching:
