@@ -133,6 +133,9 @@ class RefineResult:
     near_optima : tuple of ndarray
         With several starts: the other results that conserve nearly as many edges (see
         :data:`NEAR_TIE`), as candidate indices.
+    counts : {"edges", "agreement"}
+        What C(M) in the objective summed: conserved edges, or their entry weights
+        (``edge_weights``).
     """
 
     index: npt.NDArray[np.int64]
@@ -150,6 +153,7 @@ class RefineResult:
     seconds: float
     starts: tuple = ()
     near_optima: tuple = ()
+    counts: str = "edges"
 
     def report(self) -> dict:
         """The figures as a JSON-ready dict (for a run summary)."""
@@ -158,7 +162,7 @@ class RefineResult:
                "conserved_before": self.conserved_before, "conserved_after": self.conserved_after,
                "weight_before": self.weight_before, "weight_after": self.weight_after,
                "objective_before": self.objective[0], "objective_after": self.objective[-1],
-               "seconds": round(self.seconds, 4)}
+               "objective_counts": self.counts, "seconds": round(self.seconds, 4)}
         if len(self.starts) > 1:
             out["starts"] = [dict(s) for s in self.starts]
         return out
@@ -172,9 +176,14 @@ def normalise_weights(w: npt.ArrayLike) -> tuple[npt.NDArray[np.float64], float]
     return w / scale, scale
 
 
-def _matched_counts(prod: ProductGraph, index: npt.NDArray[np.int64]) -> npt.NDArray[np.float64]:
+_UNIT = np.empty(0, dtype=np.float64)  # no entry weights: every entry of S counts 1
+
+
+def _matched_counts(prod: ProductGraph, index: npt.NDArray[np.int64],
+                    s_w: npt.NDArray[np.float64] = _UNIT) -> npt.NDArray[np.float64]:
+    """S @ 1_index: matched product-graph neighbours of every pair (summed entry weights with ``s_w``)."""
     g = np.empty(prod.m, dtype=np.float64)
-    _matched_neighbours(prod.indptr, prod.indices, np.ascontiguousarray(index, dtype=np.int64), g)
+    _matched_neighbours(prod.indptr, prod.indices, s_w, np.ascontiguousarray(index, dtype=np.int64), g)
     return g
 
 
@@ -188,11 +197,16 @@ def _conserved(g: npt.NDArray[np.float64], index: npt.NDArray[np.int64]) -> int:
     return int(round(0.5 * g[index].sum()))
 
 
-def refine_objective(prod: ProductGraph, bw: npt.NDArray[np.float64], index: npt.ArrayLike) -> tuple[float, int]:
-    """F(M) = sum_{k in M} bw_k + C(M) and C(M), with C(M) = 1/2 sum_{k in M} (S 1_M)_k."""
+def refine_objective(prod: ProductGraph, bw: npt.NDArray[np.float64], index: npt.ArrayLike,
+                     edge_weights: npt.ArrayLike | None = None) -> tuple[float, int]:
+    """F(M) = sum_{k in M} bw_k + C(M) and the conserved edges, with C(M) = 1/2 sum_{k in M} (S 1_M)_k
+    (S's entries the ``edge_weights`` when given, else 1)."""
     index = np.asarray(index, dtype=np.int64)
     g = _matched_counts(prod, index)
-    return _objective(bw, g, index), _conserved(g, index)
+    if edge_weights is None:
+        return _objective(bw, g, index), _conserved(g, index)
+    gw = _matched_counts(prod, index, np.ascontiguousarray(edge_weights, dtype=np.float64))
+    return _objective(bw, gw, index), _conserved(g, index)
 
 
 def _rises(new: float, old: float) -> bool:
@@ -229,6 +243,18 @@ def _mates(cand: CandidateSet, index):
     mate_a[cand.pairs[index, 0]] = index
     mate_b[cand.pairs[index, 1]] = index
     return mate_a, mate_b
+
+
+def _check_edge_weights(prod: ProductGraph, edge_weights: npt.ArrayLike) -> npt.NDArray[np.float64]:
+    """``edge_weights`` as a float vector, after checking one entry in [0, 1] per stored entry."""
+    s_w = np.ascontiguousarray(edge_weights, dtype=np.float64).reshape(-1)
+    if len(s_w) != len(prod.indices):
+        raise InvalidParameterError(f"edge_weights must have one entry per stored product-graph entry "
+                                    f"({len(prod.indices)}); got {len(s_w)}", param="edge_weights")
+    bad = s_w[~((s_w >= 0) & (s_w <= 1))]
+    if len(bad):
+        raise bad_parameter("edge_weights", "numbers in [0, 1]", float(bad[0]))
+    return s_w
 
 
 def _check_matching(cand: CandidateSet, index: npt.NDArray[np.int64]) -> None:
@@ -271,6 +297,8 @@ class _Options(NamedTuple):
     local_sweeps: int
     rotations: bool
     method: str
+    s_w: npt.NDArray[np.float64] = _UNIT  # entry weights of S (empty: each entry counts 1)
+    s_max: float = 1.0                    # the largest entry of S
 
 
 def _check_options(beta, max_iter, step, patience, rounds, local_sweeps, rotations, method) -> _Options:
@@ -348,7 +376,7 @@ def _frank_wolfe(prod: ProductGraph, cand: CandidateSet, bw: npt.NDArray[np.floa
         np.add(bw, sx, out=grad)
         q = round_matching(cand, _snap(grad), method=opts.method).index
         iters += 1
-        _matched_neighbours(prod.indptr, prod.indices, q, sq)
+        _matched_neighbours(prod.indptr, prod.indices, opts.s_w, q, sq)
         fq = _objective(bw, sq, q)
         if _rises(fq, inc.f):
             inc.take(q, sq.copy(), fq)
@@ -380,9 +408,9 @@ def _local_phase(prod: ProductGraph, cand: CandidateSet, bw: npt.NDArray[np.floa
     """Local search from ``inc``'s matching; ``inc`` takes the result when F rose. Returns the moves."""
     mate_a, mate_b = _mates(cand, inc.index)
     g_ls = inc.g.copy()
-    mv, _, _ = _local_search(prod.indptr, prod.indices, cand.a_indptr, lookup.col_ptr, lookup.col_idx,
+    mv, _, _ = _local_search(prod.indptr, prod.indices, opts.s_w, cand.a_indptr, lookup.col_ptr, lookup.col_idx,
                              lookup.pair_a, lookup.pair_b, bw, g_ls, mate_a, mate_b, opts.local_sweeps,
-                             opts.rotations, RISE_TOL, _max_entry(prod.indptr, prod.indices))
+                             opts.rotations, RISE_TOL, opts.s_max)
     if mv:
         new = np.sort(mate_a[mate_a >= 0])
         f_new = _objective(bw, g_ls, new)
@@ -414,7 +442,8 @@ def _run_rounds(prod: ProductGraph, cand: CandidateSet, bw: npt.NDArray[np.float
 def refine_matching(prod: ProductGraph, cand: CandidateSet, w: npt.ArrayLike, index: npt.ArrayLike, *,
                     beta: float = DEFAULT_BETA, max_iter: int = DEFAULT_MAX_ITER, step: str = "line",
                     patience: int = DEFAULT_PATIENCE, rounds: int = 1, local_sweeps: int = 50,
-                    rotations: bool = True, method: str = "auto") -> RefineResult:
+                    rotations: bool = True, method: str = "auto",
+                    edge_weights: npt.ArrayLike | None = None) -> RefineResult:
     """Raise beta * W~(M) + C(M) over one-to-one matchings of candidate pairs, from a start.
 
     Frank–Wolfe rounds then a local search; the method is described in :mod:`aligner.core.refine`.
@@ -448,6 +477,10 @@ def refine_matching(prod: ProductGraph, cand: CandidateSet, w: npt.ArrayLike, in
         Let the local search also rotate the partners of three matched nodes.
     method : {"auto", "sparse", "dense", "scipy"}
         Assignment solver, passed to :func:`aligner.core.rounding.round_matching`.
+    edge_weights : array_like of float in [0, 1], optional
+        One weight per stored entry of ``prod`` (``prod.indices``): C(M) then sums the weights
+        of the conserved edge pairs instead of counting them (the agreement of a weighted run,
+        :mod:`aligner.core.weights`). The reported ``conserved_*`` still count edges.
 
     Returns
     -------
@@ -481,16 +514,24 @@ def refine_matching(prod: ProductGraph, cand: CandidateSet, w: npt.ArrayLike, in
     w = _check_weights(prod, cand, w)
     index = np.sort(np.asarray(index, dtype=np.int64).reshape(-1))
     _check_matching(cand, index)
+    if edge_weights is None:
+        opts = opts._replace(s_max=_max_entry(prod.indptr, prod.indices))
+    else:
+        s_w = _check_edge_weights(prod, edge_weights)
+        opts = opts._replace(s_w=s_w, s_max=_max_entry(prod.indptr, prod.indices) * float(s_w.max(initial=0.0)))
     wn, scale = normalise_weights(w)
     bw = opts.beta * wn
-    g = _matched_counts(prod, index)
+    g = _matched_counts(prod, index, opts.s_w)
     inc = _Incumbent(index, g, _objective(bw, g, index))
     inc.record()
     iters, moves, n_rounds, hit_cap = _run_rounds(prod, cand, bw, inc, opts)
+    if edge_weights is not None:  # the reported figures count edges
+        g, inc.g = _matched_counts(prod, index), _matched_counts(prod, inc.index)
     return RefineResult(index=inc.index, iterations=iters, objective=inc.history,
                         conserved_before=_conserved(g, index), conserved_after=_conserved(inc.g, inc.index),
                         weight_before=float(w[index].sum()), weight_after=float(w[inc.index].sum()),
                         local_moves=moves, rounds=n_rounds, hit_cap=hit_cap, beta=opts.beta, w_scale=scale,
+                        counts="edges" if edge_weights is None else "agreement",
                         seconds=time.perf_counter() - t0)
 
 

@@ -56,8 +56,8 @@ STAGE_KERNELS: dict[str, list[tuple[str, str, str]]] = {
     "refine": [
         ("utils", "stable_order", f"{_I64}, int64"),
         ("refine", "_max_entry", f"{_I64}, {_I32}"),
-        ("refine", "_matched_neighbours", f"{_I64}, {_I32}, {_I64}, {_F64}"),
-        ("refine", "_local_search", f"{_I64}, {_I32}, {_I64}, {_I64}, {_I64}, {_I64}, {_I64}, {_F64}, {_F64}, "
+        ("refine", "_matched_neighbours", f"{_I64}, {_I32}, {_F64}, {_I64}, {_F64}"),
+        ("refine", "_local_search", f"{_I64}, {_I32}, {_F64}, {_I64}, {_I64}, {_I64}, {_I64}, {_I64}, {_F64}, {_F64}, "
                                     f"{_I64}, {_I64}, int64, boolean, float64, float64"),
     ],
     "scoring": [

@@ -14,58 +14,63 @@ from aligner.kernels.utils import _find
 
 
 @numba.njit(cache=True, nogil=True)
-def _matched_neighbours(s_indptr, s_indices, sel, out):
-    """out = S @ 1_sel: for every pair, how many of its product-graph neighbours are in ``sel``.
+def _matched_neighbours(s_indptr, s_indices, s_w, sel, out):
+    """out = S @ 1_sel: for every pair, how many of its product-graph neighbours are in ``sel``
+    (with non-empty entry weights ``s_w``: their summed entry weights).
 
     Uses the symmetry of S, so it costs the degrees of the selected pairs only.
     """
+    weighted = s_w.shape[0] > 0
     out[:] = 0.0
     for t in range(sel.shape[0]):
         k = sel[t]
         for e in range(s_indptr[k], s_indptr[k + 1]):
-            out[s_indices[e]] += 1.0
+            out[s_indices[e]] += s_w[e] if weighted else 1.0
 
 
 @numba.njit(cache=True, nogil=True)
-def _adjacent(s_indptr, s_indices, k, l):
+def _adjacent(s_indptr, s_indices, s_w, k, l):
     """S[k, l]: how many times l is stored among the neighbours of k (0, 1, or 2 in the
-    symmetrised product graph of directed networks, where reciprocal arcs give two entries)."""
+    symmetrised product graph of directed networks, where reciprocal arcs give two entries);
+    with non-empty entry weights ``s_w``, the sum of those entries' weights."""
+    weighted = s_w.shape[0] > 0
     lo = s_indptr[k]
     hi = s_indptr[k + 1]
     t = _find(s_indices, lo, hi, l)
     if t < 0:
         return 0.0
-    c = 1.0
+    c = s_w[t] if weighted else 1.0
     u = t - 1
     while u >= lo and s_indices[u] == l:
-        c += 1.0
+        c += s_w[u] if weighted else 1.0
         u -= 1
     u = t + 1
     while u < hi and s_indices[u] == l:
-        c += 1.0
+        c += s_w[u] if weighted else 1.0
         u += 1
     return c
 
 
 @numba.njit(cache=True, nogil=True)
-def _toggle(s_indptr, s_indices, g, k, sign):
+def _toggle(s_indptr, s_indices, s_w, g, k, sign):
+    weighted = s_w.shape[0] > 0
     for e in range(s_indptr[k], s_indptr[k + 1]):
-        g[s_indices[e]] += sign
+        g[s_indices[e]] += sign * s_w[e] if weighted else sign
 
 
 @numba.njit(cache=True, nogil=True)
-def _apply(s_indptr, s_indices, g, pair_a, pair_b, mate_a, mate_b, removed, added):
+def _apply(s_indptr, s_indices, s_w, g, pair_a, pair_b, mate_a, mate_b, removed, added):
     """Take the pairs ``removed`` out of the matching and put ``added`` in (entries -1 skipped)."""
     for t in range(removed.shape[0]):
         k = removed[t]
         if k >= 0:
-            _toggle(s_indptr, s_indices, g, k, -1.0)
+            _toggle(s_indptr, s_indices, s_w, g, k, -1.0)
             mate_a[pair_a[k]] = -1
             mate_b[pair_b[k]] = -1
     for t in range(added.shape[0]):
         k = added[t]
         if k >= 0:
-            _toggle(s_indptr, s_indices, g, k, 1.0)
+            _toggle(s_indptr, s_indices, s_w, g, k, 1.0)
             mate_a[pair_a[k]] = k
             mate_b[pair_b[k]] = k
 
@@ -157,13 +162,15 @@ def _raise_bounds(s_indptr, s_indices, pair_a, pair_b, bw, g, added, r1, r1_at, 
 
 
 @numba.njit(cache=True, nogil=True)
-def _local_search(s_indptr, s_indices, c_indptr, col_ptr, col_idx, pair_a, pair_b, bw, g, mate_a, mate_b,
+def _local_search(s_indptr, s_indices, s_w, c_indptr, col_ptr, col_idx, pair_a, pair_b, bw, g, mate_a, mate_b,
                   max_sweeps, rotations, eps, s_max):
     """First-improvement search over 2-exchanges (and 3-rotations) of a matching, in place.
 
     The matching is ``mate_a[i]`` (candidate index matched at node i of A, or -1) and
     ``mate_b[i']`` (same for node i' of B); ``g`` must hold S @ 1_M on entry and holds it for
     the final matching on exit. The objective is F(M) = sum_{k in M} bw[k] + 1/2 sum_{k in M} g[k].
+    With non-empty entry weights ``s_w`` the entries of S are those weights (C then sums the
+    weights of the conserved edge pairs), each at most ``s_max``.
 
     For a move that removes the pairs R from M and adds the pairs D,
 
@@ -248,12 +255,12 @@ def _local_search(s_indptr, s_indices, c_indptr, col_ptr, col_idx, pair_a, pair_
                         ucol = c2[ib] if c1_at[ib] == k else c1[ib]
                         if base + s_max + ucol + urow + pos <= eps:  # nor can a rotation (see below)
                             continue
-                    s_kl = _adjacent(s_indptr, s_indices, k, l)
+                    s_kl = _adjacent(s_indptr, s_indices, s_w, k, l)
                     delta += s_kl
                     j = pair_a[l]
                     q = _find(pair_b, c_indptr[j], c_indptr[j + 1], pair_b[k])
                     if q >= 0:
-                        delta += bw[q] + g[q] + _adjacent(s_indptr, s_indices, p, q)
+                        delta += bw[q] + g[q] + _adjacent(s_indptr, s_indices, s_w, p, q)
                 if delta > eps:
                     rem[0] = k
                     rem[1] = l
@@ -261,7 +268,7 @@ def _local_search(s_indptr, s_indices, c_indptr, col_ptr, col_idx, pair_a, pair_
                     add[0] = p
                     add[1] = q
                     add[2] = -1
-                    _apply(s_indptr, s_indices, g, pair_a, pair_b, mate_a, mate_b, rem, add)
+                    _apply(s_indptr, s_indices, s_w, g, pair_a, pair_b, mate_a, mate_b, rem, add)
                     _raise_bounds(s_indptr, s_indices, pair_a, pair_b, bw, g, add, r1, r1_at, r2, c1, c1_at, c2)
                     gain += delta
                     moved += 1
@@ -295,11 +302,11 @@ def _local_search(s_indptr, s_indices, c_indptr, col_ptr, col_idx, pair_a, pair_
                     d += bw[q] + g[q]
                     if d + pos <= eps:
                         continue
-                    d += _adjacent(s_indptr, s_indices, k, r) + _adjacent(s_indptr, s_indices, l, r)
-                    d += (_adjacent(s_indptr, s_indices, p, q) + _adjacent(s_indptr, s_indices, p, s)
-                          + _adjacent(s_indptr, s_indices, q, s))
-                    d -= (_adjacent(s_indptr, s_indices, p, r) + _adjacent(s_indptr, s_indices, q, k)
-                          + _adjacent(s_indptr, s_indices, s, l))
+                    d += _adjacent(s_indptr, s_indices, s_w, k, r) + _adjacent(s_indptr, s_indices, s_w, l, r)
+                    d += (_adjacent(s_indptr, s_indices, s_w, p, q) + _adjacent(s_indptr, s_indices, s_w, p, s)
+                          + _adjacent(s_indptr, s_indices, s_w, q, s))
+                    d -= (_adjacent(s_indptr, s_indices, s_w, p, r) + _adjacent(s_indptr, s_indices, s_w, q, k)
+                          + _adjacent(s_indptr, s_indices, s_w, s, l))
                     if d > eps:
                         rem[0] = k
                         rem[1] = l
@@ -307,7 +314,7 @@ def _local_search(s_indptr, s_indices, c_indptr, col_ptr, col_idx, pair_a, pair_
                         add[0] = p
                         add[1] = q
                         add[2] = s
-                        _apply(s_indptr, s_indices, g, pair_a, pair_b, mate_a, mate_b, rem, add)
+                        _apply(s_indptr, s_indices, s_w, g, pair_a, pair_b, mate_a, mate_b, rem, add)
                         _raise_bounds(s_indptr, s_indices, pair_a, pair_b, bw, g, add, r1, r1_at, r2, c1, c1_at, c2)
                         gain += d
                         moved += 1
@@ -333,6 +340,7 @@ def exchange_losses(s_indptr, s_indices, c_indptr, pair_a, pair_b, f, mate_a, ma
     f = bw + S 1_M. ``pair_a``, ``pair_b``: both ends of every candidate; ``mate_a``,
     ``mate_b``: the matched candidate at each node, or -1.
     """
+    unit = np.empty(0, dtype=np.float64)  # no entry weights: each entry of S counts 1
     n1 = c_indptr.shape[0] - 1
     for i in range(n1):
         k = mate_a[i]
@@ -347,10 +355,10 @@ def exchange_losses(s_indptr, s_indices, c_indptr, pair_a, pair_b, f, mate_a, ma
                 delta -= f[l]
                 j = pair_a[l]
                 if k >= 0:
-                    delta += _adjacent(s_indptr, s_indices, k, l)
+                    delta += _adjacent(s_indptr, s_indices, unit, k, l)
                     q = _find(pair_b, c_indptr[j], c_indptr[j + 1], pair_b[k])
                     if q >= 0:
-                        delta += f[q] + _adjacent(s_indptr, s_indices, p, q)
+                        delta += f[q] + _adjacent(s_indptr, s_indices, unit, p, q)
                 if -delta < loss[j]:
                     loss[j] = -delta
             if k >= 0 and -delta < loss[i]:
@@ -370,6 +378,7 @@ def neutral_exchanges(s_indptr, s_indices, c_indptr, pair_a, pair_b, g, prior, m
     differ costs no adjacency look-up.
     """
     out = np.empty(320, dtype=np.int64)  # rows of 5, flat (cheaper to compile than a 2-D array)
+    unit = np.empty(0, dtype=np.float64)  # no entry weights: each entry of S counts 1
     n = 0
     n1 = c_indptr.shape[0] - 1
     for i in range(n1):
@@ -387,8 +396,8 @@ def neutral_exchanges(s_indptr, s_indices, c_indptr, pair_a, pair_b, g, prior, m
                 q = _find(pair_b, c_indptr[j], c_indptr[j + 1], pair_b[k])
                 if q < 0 or abs(prior[q] - prior[l]) > prior_tol * prior[l]:
                     continue
-                delta += (g[q] - g[l] + _adjacent(s_indptr, s_indices, k, l)
-                          + _adjacent(s_indptr, s_indices, p, q))
+                delta += (g[q] - g[l] + _adjacent(s_indptr, s_indices, unit, k, l)
+                          + _adjacent(s_indptr, s_indices, unit, p, q))
             kind = (1 if delta == 0.0 else 0) + (2 if l >= 0 else 0)
             if kind == 0:
                 continue

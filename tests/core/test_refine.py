@@ -299,7 +299,7 @@ def test_refine_report_carries_the_run_figures():
                    "local_moves": res.local_moves, "beta": res.beta, "w_scale": res.w_scale,
                    "conserved_before": 1, "conserved_after": 2, "weight_before": 3.0, "weight_after": 3.0,
                    "objective_before": res.objective[0], "objective_after": res.objective[-1],
-                   "seconds": round(res.seconds, 4)}
+                   "objective_counts": "edges", "seconds": round(res.seconds, 4)}
     assert got["beta"] == DEFAULT_BETA and got["w_scale"] == 1.0
     assert got["objective_before"] == pytest.approx(DEFAULT_BETA * 3 + 1)
     assert got["objective_after"] == pytest.approx(DEFAULT_BETA * 3 + 2)
@@ -783,3 +783,81 @@ def test_the_pipeline_refines_from_several_starts_on_small_problems():
     one = aligner.align(ea, eb, prior, truth=truth, refine_starts=1)
     assert "starts" not in one.summary["refine"]
     assert res.summary["refine"]["objective_after"] >= one.summary["refine"]["objective_after"]
+
+
+# --------------------------------------------------------------------------- entry weights in C
+
+def _weighted_problem(seed, n=7):
+    rng = np.random.default_rng(seed)
+    ga = nx.gnp_random_graph(n, 0.45, seed=seed)
+    gb = nx.gnp_random_graph(n, 0.45, seed=seed + 99)
+    na = network_from_edges(np.arange(n), *np.array(list(ga.edges) or [(0, 1)]).T)
+    nb = network_from_edges(np.arange(n), *np.array(list(gb.edges) or [(0, 1)]).T)
+    pairs = [(i, j) for i in range(n) for j in range(n) if rng.random() < 0.6 or i == j]
+    cand = build_candidates(np.array(pairs), rng.random(len(pairs)) + 0.1, n, n)
+    prod = build_product(na.indptr, na.indices, nb.indptr, nb.indices, cand)
+    # a symmetric weight per product edge (each stored twice), in [0.5, 1]
+    rows = np.repeat(np.arange(prod.m), np.diff(prod.indptr))
+    lo, hi = np.minimum(rows, prod.indices), np.maximum(rows, prod.indices)
+    key = lo * prod.m + hi
+    _, inv = np.unique(key, return_inverse=True)
+    sw = 0.5 + 0.5 * rng.random(inv.max() + 1 if len(inv) else 0)[inv]
+    return cand, prod, sw, rows
+
+
+@pytest.mark.parametrize("seed", range(6))
+def test_weighted_objective_matches_a_dense_recount_and_the_exhaustive_optimum(seed):
+    # reference: C_w(M) = 1/2 1_M^T S_w 1_M recounted densely (numpy), and exhaustive search
+    # over every one-to-one matching of the candidates for the best F (common practice)
+    import itertools
+
+    cand, prod, sw, rows = _weighted_problem(seed)
+    S = np.zeros((prod.m, prod.m))
+    np.add.at(S, (rows, prod.indices), sw)
+    w = cand.prior
+    bw = DEFAULT_BETA * normalise_weights(w)[0]
+    start = round_matching(cand, w).index
+    res = refine_matching(prod, cand, w, start, edge_weights=sw)
+    x = np.zeros(prod.m)
+    x[res.index] = 1
+    f_dense = bw @ x + 0.5 * x @ S @ x
+    assert res.objective[-1] == pytest.approx(f_dense)
+    assert refine_objective(prod, bw, res.index, edge_weights=sw)[0] == pytest.approx(f_dense)
+    assert res.counts == "agreement" and res.report()["objective_counts"] == "agreement"
+    # the reported conserved figures still count edges
+    assert res.conserved_after == int(round(0.5 * x @ (S > 0) @ x))
+    # exhaustive: the best F over all matchings (by node of A: its candidate or none)
+    options = [[-1] + list(range(cand.a_indptr[i], cand.a_indptr[i + 1])) for i in range(cand.n1)]
+    best = -np.inf
+    for choice in itertools.product(*options):
+        ks = [k for k in choice if k >= 0]
+        if len({int(cand.pairs[k, 1]) for k in ks}) < len(ks):
+            continue
+        y = np.zeros(prod.m)
+        y[ks] = 1
+        best = max(best, bw @ y + 0.5 * y @ S @ y)
+    assert res.objective[-1] <= best + 1e-9
+    # a local method: no 2-exchange (a node to another candidate partner, its holder, when there
+    # is one, to the node's old partner) raises F, recounted densely (the local search's moves)
+    pa, pb = cand.pairs[:, 0], cand.pairs[:, 1]
+    held = set(res.index.tolist())
+    for p in set(range(prod.m)) - held:
+        k = [t for t in held if pa[t] == pa[p]]
+        l_ = [t for t in held if pb[t] == pb[p]]
+        new = (held - set(k) - set(l_)) | {p}
+        if k and l_:
+            new |= {t for t in range(prod.m) if pa[t] == pa[l_[0]] and pb[t] == pb[k[0]]}
+        y = np.zeros(prod.m)
+        y[list(new)] = 1
+        assert bw @ y + 0.5 * y @ S @ y <= f_dense + 1e-9
+
+
+def test_edge_weights_are_checked():
+    cand, prod, sw, _ = _weighted_problem(1)
+    start = round_matching(cand, cand.prior).index
+    with pytest.raises(InvalidParameterError, match="edge_weights must have one entry"):
+        refine_matching(prod, cand, cand.prior, start, edge_weights=sw[:-1])
+    bad = sw.copy()
+    bad[0] = 1.5
+    with pytest.raises(InvalidParameterError, match=r"edge_weights must be numbers in \[0, 1\]"):
+        refine_matching(prod, cand, cand.prior, start, edge_weights=bad)
