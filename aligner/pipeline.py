@@ -335,8 +335,8 @@ class Problem:
     def with_options(self, **options: Any) -> "Problem":
         """The same problem under other solve options (alpha, tol, solver, rounding, refinement,
         permutations); options that would change the candidates or the product graph are refused."""
-        fixed = {"delimiter", "header", "prior_columns", "directed", "weighted", "top_k", "min_score", "score_kind",
-                 "structural", "structural_weight", "seed_weight", "normalization", "max_memory"}
+        fixed = {"delimiter", "header", "prior_columns", "directed", "weighted", "weight_model", "top_k", "min_score",
+                 "score_kind", "structural", "structural_weight", "seed_weight", "normalization", "max_memory"}
         changed = sorted(k for k in fixed & set(options) if options[k] != getattr(self.config, k))
         if changed:
             raise InvalidParameterError(f"{changed[0]} changes the prepared candidates or product graph; prepare "

@@ -296,3 +296,17 @@ def test_networkx_integer_nodes_come_back_as_integers(tmp_path):
     assert {p.name for p in written} >= {"alignment.tsv", "conserved_edges.tsv"}
     back = pd.read_csv(tmp_path / "out" / "alignment.tsv", sep="\t")
     assert sorted(zip(back.node_a, back.node_b)) == sorted(zip(res.pairs.node_a, res.pairs.node_b))
+
+
+def test_a_prepared_problem_takes_solve_options_and_refuses_those_of_its_product_graph():
+    # the prepared problem's contract (docs: DEVELOPERS.md, stage functions): solve options may
+    # change, options that shaped the candidates or the product graph may not
+    a, b, prior = _relabelled(120, 3)[:3]
+    a = a.assign(w=1.0 + np.arange(len(a)) % 3)
+    b = b.assign(w=1.0 + np.arange(len(b)) % 4)
+    problem = aligner.prepare(a, b, prior, weighted=True)
+    other = problem.with_options(alpha=0.5, refine_starts=2)
+    assert other.config.alpha == 0.5 and other.product is problem.product
+    for option, value in (("weight_model", "product"), ("top_k", 3), ("normalization", "product")):
+        with pytest.raises(InvalidParameterError, match=f"{option} changes the prepared candidates"):
+            problem.with_options(**{option: value})
