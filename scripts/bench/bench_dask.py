@@ -3,11 +3,14 @@
     python scripts/bench/bench_dask.py                  # 10^4 and 10^5 nodes, K = 1, 2, 4, 16
     python scripts/bench/bench_dask.py --sizes 10000 --parts 1 4
     python scripts/bench/bench_dask.py --sizes 1000000 --parts 4 --processes --memory-limit 2GB
+    python scripts/bench/bench_dask.py --sizes 100000 1000000 --processes --decoys uniform --out bench_out/dask_k
 
 Instances: :func:`aligner.datasets.instances.noisy_relabelled` (power-law graphs, 10 decoys per
 node, near-partner decoys). Runs on a LocalCluster of 2 single-threaded workers (threads in this
-process). Refinement is off (it runs on the client, the same code as on one machine). Prints
-Markdown and writes bench_out/bench_dask.csv and .md.
+process; ``--processes``: worker processes, whose resident-memory high-water mark is reset
+before each run, so that ``worker_peak_gib`` is the run's). Refinement is off (it runs on the client,
+the same code as on one machine). Prints Markdown and writes OUT.csv and OUT.md (``--out``,
+default bench_out/bench_dask).
 """
 
 from __future__ import annotations
@@ -31,6 +34,7 @@ def main() -> None:
     ap.add_argument("--memory-limit", default=None,
                     help="memory limit per worker process, e.g. 2GB (with --processes; dask pauses, then "
                     "restarts, a worker above it)")
+    ap.add_argument("--out", default="bench_out/bench_dask", help="path of the CSV and Markdown, without suffix")
     args = ap.parse_args()
 
     from dask.distributed import Client, LocalCluster
@@ -58,9 +62,12 @@ def main() -> None:
                          "matching_s": single.summary["timings"]["rounding"], "total_s": round(t_single, 2),
                          "edge_touches": single.diffusion.edge_touches, "nc": single.scores.nc})
             for k in args.parts:
+                if args.processes and not all(client.run(_reset_peak).values()):
+                    client.restart()  # no resettable high-water mark: fresh worker processes
                 t0 = time.perf_counter()
                 res = dask_align(ea, eb, prior, truth=truth, client=client, partitions=k, refine=False)
                 total = time.perf_counter() - t0
+                peak = max(client.run(_peak_rss).values()) if args.processes else None
                 e = res.summary["engine"]
                 got = {tuple(p) for p in res.candidates.pairs[res.matching.index].tolist()}
                 rows.append({
@@ -74,18 +81,52 @@ def main() -> None:
                     "edge_touches": e["edge_touches"],
                     "touches_vs_local": round(e["edge_touches"] / single.diffusion.edge_touches, 2),
                     "x_l1_diff": float(np.abs(res.diffusion.x - single.diffusion.x).sum()),
-                    "pairs_differing": len(got ^ ref) // 2, "nc": res.scores.nc})
+                    "pairs_differing": len(got ^ ref) // 2, "nc": res.scores.nc,
+                    "work_largest_vs_mean": e["balance"]["largest_block_vs_mean"],
+                    "block_build_max_s": e["seconds"]["block_build_max"],
+                    "pairs_per_block_max": max(e["pairs_per_block"]),
+                    "entries_per_block_max": max(e["entries_per_block"]),
+                    "message_entries_per_round": round(e["diffusion"]["message_entries"]
+                                                       / max(e["diffusion"]["rounds"], 1)),
+                    "worker_peak_gib": None if peak is None else round(peak / 2**30, 3)})
                 print(rows[-1], flush=True)
     finally:
         client.close()
         cluster.close()
     df = pd.DataFrame(rows)
-    out = Path("bench_out")
-    out.mkdir(exist_ok=True)
-    df.to_csv(out / "bench_dask.csv", index=False)
+    out = Path(args.out)
+    out.parent.mkdir(parents=True, exist_ok=True)
+    df.to_csv(out.with_suffix(".csv"), index=False)
     md = _markdown(df)
-    (out / "bench_dask.md").write_text(md + "\n")
+    out.with_suffix(".md").write_text(md + "\n")
     print(md)
+
+
+def _reset_peak() -> bool:
+    """Reset this process's resident-memory high-water mark to its current size (Linux 4.0 and
+    later: ``5`` written to /proc/self/clear_refs); whether it could."""
+    try:
+        with open("/proc/self/clear_refs", "w") as fh:
+            fh.write("5")
+        return True
+    except OSError:
+        return False
+
+
+def _peak_rss() -> int:
+    """This process's peak resident memory in bytes (run on each worker): the kernel's high-water
+    mark, VmHWM. (Not getrusage's ru_maxrss: on Linux it survives the exec that starts a worker
+    process, so a fresh worker reports its parent's peak.)"""
+    try:
+        with open("/proc/self/status") as fh:
+            for line in fh:
+                if line.startswith("VmHWM:"):
+                    return int(line.split()[1]) * 1024
+    except OSError:
+        pass
+    import resource
+
+    return resource.getrusage(resource.RUSAGE_SELF).ru_maxrss  # elsewhere: the best available
 
 
 def _markdown(df: pd.DataFrame) -> str:

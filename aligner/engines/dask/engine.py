@@ -94,6 +94,16 @@ class BlockCluster:
         self.build_seconds = [m[5] for m in meta]
         self.senders = [[s for s in range(self.k) if r in meta[s][4]] for r in range(self.k)]
 
+    def release(self, timeout: float = 30.0) -> None:
+        """Drop the blocks from the workers and wait (up to ``timeout`` seconds) until the
+        scheduler no longer holds them, so that their memory is free before other blocks arrive."""
+        keys = [f.key for f in self.blocks]
+        self.client.cancel(list(self.blocks))
+        self.blocks = []
+        deadline = time.monotonic() + timeout
+        while time.monotonic() < deadline and any(self.client.who_has(keys).values()):
+            time.sleep(0.05)
+
     def _submit(self, g: int, fn, *args):
         return self.client.submit(fn, *args, workers=[self.groups[g][0]], allow_other_workers=False, pure=False)
 
@@ -385,10 +395,11 @@ def _run(client, inputs, found: Candidates, cfg: AlignConfig, parts: int, mode: 
         first = block_imbalance(cluster)
         if first > REBALANCE_ABOVE:  # the estimate misjudged the work: cut again by the measured work
             bounds = blocks.cut_by_cost(np.concatenate(cluster.collect(cluster.run(blocks.node_work))), parts)
+            cluster.release()  # the first cut's blocks leave the workers before the new ones are built
+            del cluster
             ins = blocks.block_inputs(inputs.network_a, inputs.network_b, cand, h, bounds, directed=cfg.directed,
                                       weighted=cfg.weighted, normalization=cfg.normalization,
-                                  weight_model=cfg.weight_model)
-            del cluster
+                                      weight_model=cfg.weight_model)
             cluster = BlockCluster(client, ins, bounds)
             del ins
         engine["balance"] = {"largest_block_vs_mean": round(block_imbalance(cluster), 4),
@@ -397,7 +408,8 @@ def _run(client, inputs, found: Candidates, cfg: AlignConfig, parts: int, mode: 
         product = cluster.product_graph(cand.m, cfg.directed, cfg.weighted)
         scale = None  # the blocks hold it; the client's refinement and scoring do not use it
         engine["seconds"] = {"slice": round(t1 - t0, 4), "build": round(t2 - t1, 4),
-                             "gather_product": round(time.perf_counter() - t2, 4)}
+                             "gather_product": round(time.perf_counter() - t2, 4),
+                             "block_build_max": round(max(cluster.build_seconds), 4)}
     engine |= {"cut_fraction": round(cluster.cut_fraction, 6), "ghost_pairs": int(sum(cluster.ghosts)),
                "pairs_per_block": cluster.m_own, "entries_per_block": cluster.entries}
     problem = Problem(cfg, inputs, cand, h, seed_idx, product, scale, found, estimate)
