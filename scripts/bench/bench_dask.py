@@ -22,6 +22,11 @@ from pathlib import Path
 import numpy as np
 import pandas as pd
 
+# the pipeline's own high-water-mark helpers (VmHWM, reset through /proc/self/clear_refs), run on
+# each worker process; not getrusage's ru_maxrss, which a worker inherits across the exec that
+# starts it (a fresh worker would report its parent's peak)
+from aligner.pipeline import _peak_memory, _reset_peak_memory
+
 
 def main() -> None:
     ap = argparse.ArgumentParser(description=__doc__.splitlines()[0])
@@ -62,12 +67,12 @@ def main() -> None:
                          "matching_s": single.summary["timings"]["rounding"], "total_s": round(t_single, 2),
                          "edge_touches": single.diffusion.edge_touches, "nc": single.scores.nc})
             for k in args.parts:
-                if args.processes and not all(client.run(_reset_peak).values()):
+                if args.processes and not all(client.run(_reset_peak_memory).values()):
                     client.restart()  # no resettable high-water mark: fresh worker processes
                 t0 = time.perf_counter()
                 res = dask_align(ea, eb, prior, truth=truth, client=client, partitions=k, refine=False)
                 total = time.perf_counter() - t0
-                peak = max(client.run(_peak_rss).values()) if args.processes else None
+                peak = max(client.run(_peak_memory).values()) if args.processes else None
                 e = res.summary["engine"]
                 got = {tuple(p) for p in res.candidates.pairs[res.matching.index].tolist()}
                 rows.append({
@@ -100,33 +105,6 @@ def main() -> None:
     md = _markdown(df)
     out.with_suffix(".md").write_text(md + "\n")
     print(md)
-
-
-def _reset_peak() -> bool:
-    """Reset this process's resident-memory high-water mark to its current size (Linux 4.0 and
-    later: ``5`` written to /proc/self/clear_refs); whether it could."""
-    try:
-        with open("/proc/self/clear_refs", "w") as fh:
-            fh.write("5")
-        return True
-    except OSError:
-        return False
-
-
-def _peak_rss() -> int:
-    """This process's peak resident memory in bytes (run on each worker): the kernel's high-water
-    mark, VmHWM. (Not getrusage's ru_maxrss: on Linux it survives the exec that starts a worker
-    process, so a fresh worker reports its parent's peak.)"""
-    try:
-        with open("/proc/self/status") as fh:
-            for line in fh:
-                if line.startswith("VmHWM:"):
-                    return int(line.split()[1]) * 1024
-    except OSError:
-        pass
-    import resource
-
-    return resource.getrusage(resource.RUSAGE_SELF).ru_maxrss  # elsewhere: the best available
 
 
 def _markdown(df: pd.DataFrame) -> str:
