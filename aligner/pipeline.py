@@ -464,9 +464,9 @@ def improve(problem: Problem, diffusion: DiffusionResult, rounded: Matching) -> 
         return Improvement(rounded, rounded, None)
     prod = problem.product.symmetrised() if cfg.directed else problem.product
     starts = _starts(problem, diffusion, rounded, refine_starts(problem))
-    # a weighted run under the agreement model counts conserved edge pairs by their agreement,
-    # as the walk does (directed runs refine on S + S^T, which carries no weights: they count arcs)
-    agree = cfg.weighted and cfg.weight_model == "agreement" and not cfg.directed
+    # a weighted run under the agreement model counts conserved edge pairs (arcs, when directed:
+    # S + S^T keeps each arc's weight) by their agreement, as the walk does
+    agree = cfg.weighted and cfg.weight_model == "agreement"
     refined = refine_from_starts(prod, problem.candidates, diffusion.x, starts, keep=problem.seed_index,
                                  beta=cfg.beta, max_iter=cfg.refine_iter, method=cfg.rounding,
                                  edge_weights=prod.weights if agree else None)

@@ -61,10 +61,11 @@ class ProductGraph:
         """The undirected pattern S + S^T, with multiplicity (reciprocal arcs give two entries).
 
         For a directed product graph S, 1/2 x^T (S + S^T) x = x^T S x: on a matching's
-        indicator, the conserved arcs. Unweighted, neighbour lists sorted.
+        indicator, the conserved arcs (with weights, their summed weights). Neighbour lists
+        sorted; each entry keeps its arc's weight when S is weighted.
         """
         if not self.directed:
-            return ProductGraph(self.indptr, self.indices)
+            return ProductGraph(self.indptr, self.indices, weights=self.weights)
         built = self.__dict__.get("_symmetrised")  # made once: refinement and confidence both use it
         if built is not None:
             return built
@@ -75,7 +76,8 @@ class ProductGraph:
         order = np.lexsort((dst, src))
         indptr = np.zeros(m + 1, dtype=np.int64)
         np.cumsum(np.bincount(src, minlength=m), out=indptr[1:])
-        built = ProductGraph(indptr, dst[order].astype(np.int32))
+        weights = None if self.weights is None else np.concatenate([self.weights, self.weights])[order]
+        built = ProductGraph(indptr, dst[order].astype(np.int32), weights=weights)
         object.__setattr__(self, "_symmetrised", built)
         return built
 

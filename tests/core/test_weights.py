@@ -157,3 +157,27 @@ def test_perturbations_do_what_they_say(adult):
     with pytest.raises(aligner.InvalidParameterError):
         perturb_weights(b, "shuffle")
     pd.testing.assert_frame_equal(perturb_weights(b, "none"), b)
+
+
+def test_directed_weights_survive_symmetrising_and_the_refinement_counts_them():
+    # reference: the dense matrix of S + S^T (numpy) from the directed product graph's weighted
+    # entries; the symmetrised graph the refinement works on must hold exactly that
+    rng = np.random.default_rng(4)
+    n = 40
+    arcs = sorted({(int(u), int(v)) for u, v in rng.integers(0, n, size=(160, 2)) if u != v})
+    ea = pd.DataFrame([(f"a{u}", f"a{v}", float(rng.integers(1, 6))) for u, v in arcs])
+    eb = pd.DataFrame([(f"b{u}", f"b{v}", float(rng.integers(1, 6))) for u, v in arcs])
+    prior = pd.DataFrame([(f"a{i}", f"b{j}", 1.0) for i in range(n) for j in range(n) if abs(i - j) <= 2])
+    problem = aligner.prepare(ea, eb, prior, top_k=None, directed=True, weighted=True)
+    pg = problem.product
+    m = pg.m
+    dense = np.zeros((m, m))
+    np.add.at(dense, (np.repeat(np.arange(m), np.diff(pg.indptr)), pg.indices), pg.weights)
+    sym = pg.symmetrised()
+    got = np.zeros((m, m))
+    np.add.at(got, (np.repeat(np.arange(m), np.diff(sym.indptr)), sym.indices), sym.weights)
+    assert np.allclose(got, dense + dense.T)
+    res = aligner.align(ea, eb, prior, top_k=None, directed=True, weighted=True)
+    assert res.summary["refine"]["objective_counts"] == "agreement"
+    plain = aligner.align(ea, eb, prior, top_k=None, directed=True, weighted=True, weight_model="product")
+    assert plain.summary["refine"]["objective_counts"] == "edges"
