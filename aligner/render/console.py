@@ -94,6 +94,9 @@ def summary_table(summary: dict) -> Table:
     if rf and "skipped" not in rf:
         t.add_row("refinement: iterations / conserved edges gained",
                   f"{rf['iterations']:,} / {rf['conserved_after'] - rf['conserved_before']:+,}")
+        if rf.get("starts"):
+            ends = [st["conserved_after"] for st in rf["starts"]]
+            t.add_row("refinement starts: conserved edges reached", f"{len(ends)}: {min(ends):,} to {max(ends):,}")
     elif rf:
         t.add_row("refinement", rf["skipped"])
     t.add_row("matched pairs", f"{sc['n_matched']:,}")

@@ -399,6 +399,21 @@ def _pairs_sections(pairs: pd.DataFrame, truth: list | None = None) -> str:
 GROUP_ROWS = 30
 
 
+def _refine_section(summary: dict) -> str:
+    """The refinement's starts: where each ended, which was kept (present with several starts)."""
+    rf = summary.get("refine") or {}
+    starts = rf.get("starts")
+    if not starts:
+        return ""
+    frame = pd.DataFrame(starts).rename(columns={
+        "start": "start", "conserved_before": "conserved edges at start", "conserved_after": "conserved edges reached",
+        "objective_after": "objective reached", "accepted": "keeps the seed pairs"})
+    return ("<section><h2>Refinement starts</h2><p class='note'>The refinement is a local search, so it ran "
+            f"from {len(starts)} starts and kept the one of highest objective ({rf.get('objective_counts', 'edges')} "
+            "counted); the spread of the conserved edges reached shows how much the start mattered.</p>"
+            + _frame_table(frame) + "</section>")
+
+
 def _ambiguity_section(summary: dict, pairs: pd.DataFrame) -> str:
     """The interchangeable nodes: the ambiguity figures and the nodes with alternatives, largest
     sets first."""
@@ -492,7 +507,7 @@ def build_report(outdir, *, network_a=None, network_b=None, delimiter: str | Non
     sections = [_inputs_section(run.summary), _scores_section(run.summary), _weighted_section(run.summary),
                 _seeds_section(run.summary), _sweep_section(run.out), explorer.explorer_section(data, truth_note),
                 _distributions_section(run), _subgraph_section(run), _pairs_sections(run.pairs, run.truth),
-                _ambiguity_section(run.summary, run.pairs), _transfer_section(run.out)]
+                _refine_section(run.summary), _ambiguity_section(run.summary, run.pairs), _transfer_section(run.out)]
     path = run.out / REPORT_FILE
     write_text_atomic(path, _page(run.out, run.summary.get("version", ""), [s for s in sections if s]))
     return path

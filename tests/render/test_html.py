@@ -256,6 +256,23 @@ def test_report_sections_follow_the_summary(run_dir, tmp_path):
     assert "No significance in this run: not computed for directed networks" in page and "Null 1" not in page
 
 
+def test_report_lists_the_refinement_starts(run_dir, tmp_path):
+    # the refine section of summary.json (docs/formats.md) as a table: one row per start, in order
+    summary = json.loads((run_dir / "summary.json").read_text())
+    starts = summary["refine"]["starts"]
+    assert len(starts) >= 2  # the fixture is small: several starts by default
+    page = (run_dir / "report.html").read_text(encoding="utf-8")
+    section = page[page.index("<h2>Refinement starts</h2>"):]
+    section = section[:section.index("</section>")]
+    assert section.count("<tr>") == len(starts) + 1
+    assert all(f">{s['start']}<" in section for s in starts)
+    other = tmp_path / "one"
+    shutil.copytree(run_dir, other)
+    del summary["refine"]["starts"]
+    (other / "summary.json").write_text(json.dumps(summary))
+    assert "Refinement starts" not in build_report(other).read_text(encoding="utf-8")
+
+
 def test_report_without_its_truth_file(run_dir, tmp_path):
     # the truth table named in summary.json is gone: no true/false column, and the page says why
     other = tmp_path / "moved"
