@@ -348,3 +348,18 @@ def test_directed_networks_as_on_one_machine(client):
         assert got >= exact - res.summary["engine"]["auction"]["gap_bound"] - 1e-12
         pairs = res.candidates.pairs[res.matching.index]
         assert len(set(pairs[:, 0])) == len(pairs) == len(set(pairs[:, 1]))
+
+
+def test_released_blocks_leave_the_workers(client):
+    # a recut drops the first cut's blocks before building new ones: after release() the
+    # scheduler holds none of them (reference: distributed's Client.who_has), and a new cluster
+    # over the same inputs still works
+    pair = noisy_relabelled(300, seed=5)
+    cand = build_candidates(pair.prior_pairs, pair.prior_scores, pair.n_a, pair.n_b)
+    cluster = _cluster_over(client, cand, prior_vector(cand.prior), 3)
+    keys = [f.key for f in cluster.blocks]
+    assert all(client.who_has().get(k) for k in keys)  # every key the cluster holds, by worker
+    cluster.release()
+    assert cluster.blocks == [] and not any(client.who_has().get(k) for k in keys)
+    again = _cluster_over(client, cand, prior_vector(cand.prior), 3)
+    assert sum(again.m_own) == cand.m

@@ -101,7 +101,8 @@ class BlockCluster:
         self.client.cancel(list(self.blocks))
         self.blocks = []
         deadline = time.monotonic() + timeout
-        while time.monotonic() < deadline and any(self.client.who_has(keys).values()):
+        # who_has() of every key the cluster holds (cancelled futures cannot be asked about)
+        while time.monotonic() < deadline and any(self.client.who_has().get(k) for k in keys):
             time.sleep(0.05)
 
     def _submit(self, g: int, fn, *args):
