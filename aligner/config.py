@@ -35,8 +35,8 @@ from aligner.errors import InvalidParameterError
 __all__ = ["Spec", "option", "AlignConfig", "QueryConfig", "LabelConfig", "ClassConfig", "EngineConfig",
            "TransferConfig", "specs",
            "describe",
-           "from_options", "with_options", "SCORE_KINDS", "SOLVERS", "NORMALIZATIONS", "WEIGHT_MODELS", "ROUNDINGS", "HEADERS", "SIDES",
-           "ENGINES"]
+           "from_options", "with_options", "SCORE_KINDS", "SOLVERS", "NORMALIZATIONS", "WEIGHT_MODELS", "ROUNDINGS",
+           "HEADERS", "SIDES", "ENGINES"]
 
 SCORE_KINDS = ("similarity", "evalue", "distance")
 SOLVERS = ("push", "power")
@@ -213,7 +213,8 @@ class AlignConfig(_Config):
     refine_starts: int | None = option(
         None, "Refinement: how many starts to refine from, the best result kept (the diffusion's matching, "
         "then the prior's, then matchings of randomly perturbed scores, seeded). Default: as many as fit in "
-        "1,000,000 candidate pairs refined in all, at most 8 (8 up to 125,000 candidates, 1 from 1,000,000).", flag="--refine-starts", group=MATCHING, kind="int", low=1, optional=True)
+        "1,000,000 candidate pairs refined in all, at most 8 (8 up to 125,000 candidates, 1 from 1,000,000).",
+        flag="--refine-starts", group=MATCHING, kind="int", low=1, optional=True)
     refine_iter: int = option(
         30, "Refinement: cap on iterations (each one sparse product and one assignment).", flag="--refine-iter",
         group=MATCHING, kind="int", low=0)

@@ -344,7 +344,6 @@ class Problem:
         return dataclasses.replace(self, config=self.config.replace(**options))
 
 
-@with_options(AlignConfig)
 def diffusion_source(cand: CandidateSet, seeds, cfg: AlignConfig):
     """The seed pairs' positions among the candidates (None without seeds) and the diffusion's h:
     the prior normalised to sum 1, plus ``seed_weight`` spread over the seed pairs."""
@@ -353,6 +352,7 @@ def diffusion_source(cand: CandidateSet, seeds, cfg: AlignConfig):
     return seed_idx, h
 
 
+@with_options(AlignConfig)
 def prepare(network_a, network_b, prior=None, *, seeds=None, truth=None, config: AlignConfig | None = None,
             with_product: bool = True, clock: Clock | None = None, **options: Any) -> Problem:
     """Read the inputs, choose the candidates and build the product graph: a :class:`Problem`.
@@ -462,7 +462,7 @@ def improve(problem: Problem, diffusion: DiffusionResult, rounded: Matching) -> 
     cfg = problem.config
     if not cfg.refine or cfg.alpha == 0:
         return Improvement(rounded, rounded, None)
-    prod = problem.product.symmetrised() if cfg.directed else problem.product
+    prod = problem.product.symmetrised()  # S + S^T when directed (built once), else S
     starts = _starts(problem, diffusion, rounded, refine_starts(problem))
     # a weighted run under the agreement model counts conserved edge pairs (arcs, when directed:
     # S + S^T keeps each arc's weight) by their agreement, as the walk does
@@ -548,7 +548,7 @@ def _confidence(problem: Problem, diffusion: DiffusionResult, index: np.ndarray)
     """The confidence of the matched pairs (:func:`aligner.core.confidence.matching_confidence`):
     the loss of the refinement's objective at the pair's best 2-exchange, as L / (1 + L)."""
     cfg = problem.config
-    prod = problem.product.symmetrised() if cfg.directed else problem.product
+    prod = problem.product.symmetrised()  # S + S^T when directed (built once), else S
     return matching_confidence(prod, problem.candidates, diffusion.x, index, beta=cfg.beta)
 
 
@@ -575,8 +575,7 @@ def _alternatives_column(net_b: Network, ambiguity: Ambiguity) -> np.ndarray:
 
 
 def _ambiguity(problem: Problem, index: np.ndarray, optima=()) -> Ambiguity:
-    cfg = problem.config
-    prod = problem.product.symmetrised() if cfg.directed else problem.product
+    prod = problem.product.symmetrised()  # S + S^T when directed (built once), else S
     a, b = problem.network_a, problem.network_b
     return find_ambiguity(prod, problem.candidates, index, walk_a=(a.indptr, a.indices),
                           walk_b=(b.indptr, b.indices), optima=optima)

@@ -310,3 +310,14 @@ def test_a_prepared_problem_takes_solve_options_and_refuses_those_of_its_product
     for option, value in (("weight_model", "product"), ("top_k", 3), ("normalization", "product")):
         with pytest.raises(InvalidParameterError, match=f"{option} changes the prepared candidates"):
             problem.with_options(**{option: value})
+
+
+def test_prepare_shows_the_options_and_the_stage_helpers_do_not():
+    # with_options (aligner.config) puts the options in prepare's signature (help(), IDEs);
+    # diffusion_source takes a finished config and must not advertise them
+    import inspect
+
+    from aligner.pipeline import diffusion_source, prepare
+
+    assert {"alpha", "weight_model", "refine_starts"} <= set(inspect.signature(prepare).parameters)
+    assert list(inspect.signature(diffusion_source).parameters) == ["cand", "seeds", "cfg"]

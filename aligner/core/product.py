@@ -62,10 +62,11 @@ class ProductGraph:
 
         For a directed product graph S, 1/2 x^T (S + S^T) x = x^T S x: on a matching's
         indicator, the conserved arcs (with weights, their summed weights). Neighbour lists
-        sorted; each entry keeps its arc's weight when S is weighted.
+        sorted; each entry keeps its arc's weight when S is weighted. An undirected product graph
+        is its own symmetrised pattern.
         """
         if not self.directed:
-            return ProductGraph(self.indptr, self.indices, weights=self.weights)
+            return self
         built = self.__dict__.get("_symmetrised")  # made once: refinement and confidence both use it
         if built is not None:
             return built

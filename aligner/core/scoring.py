@@ -25,8 +25,8 @@ import numpy.typing as npt
 from aligner.errors import InvalidParameterError
 from aligner.kernels.scoring import largest_component, mapped_edge_rows
 
-__all__ = ["Scores", "score_matching", "node_correctness", "share_correct", "edge_correctness", "induced_conserved_structure",
-           "symmetric_substructure", "induced_edges", "largest_common_component", "conserved_weight"]
+__all__ = ["Scores", "score_matching", "node_correctness", "share_correct", "edge_correctness",
+           "induced_conserved_structure", "symmetric_substructure", "induced_edges", "largest_common_component", "conserved_weight"]
 
 
 @dataclass(frozen=True)

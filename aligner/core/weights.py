@@ -59,7 +59,7 @@ def weight_levels(w: npt.ArrayLike) -> npt.NDArray[np.float64]:
     w = np.asarray(w, dtype=np.float64)
     if len(w) == 0:
         return np.empty(0)
-    values, inverse, counts = np.unique(w, return_inverse=True, return_counts=True)
+    _, inverse, counts = np.unique(w, return_inverse=True, return_counts=True)
     below = np.concatenate([[0], np.cumsum(counts)[:-1]])
     return ((below + 0.5 * counts) / len(w))[inverse]
 

@@ -35,10 +35,10 @@ def product_rows(i0, i1, a_indptr, a_indices, b_indptr, b_indices, c_indptr, c_b
     checksum)``: their neighbour lists one after the other; with non-empty ``a_w`` and
     ``b_w`` (weights of the adjacency entries) the weight of every entry (else an empty
     array): w_A(i, j) * w_B(i', j') when ``floor`` < 0 (:data:`PRODUCT`), else the agreement
-    floor + (1 - floor) * (1 - |w_A(i, j) - w_B(i', j')|) of two levels in [0, 1]; a checksum of the entries read ahead (returned only so that
-    those reads are kept). The result of a range of nodes does not depend on the other
-    nodes, so ranges can be built apart (on parallel threads, each writing its own part of
-    ``counts``) and joined.
+    floor + (1 - floor) * (1 - |w_A(i, j) - w_B(i', j')|) of two levels in [0, 1]; a
+    checksum of the entries read ahead (returned only so that those reads are kept). The
+    result of a range of nodes does not depend on the other nodes, so ranges can be built
+    apart (on parallel threads, each writing its own part of ``counts``) and joined.
     """
     weighted = a_w.shape[0] > 0
     p0 = c_indptr[i0]

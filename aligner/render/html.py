@@ -395,10 +395,6 @@ def _pairs_sections(pairs: pd.DataFrame, truth: list | None = None) -> str:
             f"{_frame_table(low)}</section>")
 
 
-#: ambiguity groups listed in the report at most
-GROUP_ROWS = 30
-
-
 def _refine_section(summary: dict) -> str:
     """The refinement's starts: where each ended, which was kept (present with several starts)."""
     rf = summary.get("refine") or {}
@@ -406,12 +402,16 @@ def _refine_section(summary: dict) -> str:
     if not starts:
         return ""
     frame = pd.DataFrame(starts).rename(columns={
-        "start": "start", "conserved_before": "conserved edges at start", "conserved_after": "conserved edges reached",
+        "conserved_before": "conserved edges at start", "conserved_after": "conserved edges reached",
         "objective_after": "objective reached", "accepted": "keeps the seed pairs"})
     return ("<section><h2>Refinement starts</h2><p class='note'>The refinement is a local search, so it ran "
             f"from {len(starts)} starts and kept the one of highest objective ({rf.get('objective_counts', 'edges')} "
             "counted); the spread of the conserved edges reached shows how much the start mattered.</p>"
             + _frame_table(frame) + "</section>")
+
+
+#: ambiguity groups listed in the report at most
+GROUP_ROWS = 30
 
 
 def _ambiguity_section(summary: dict, pairs: pd.DataFrame) -> str:
