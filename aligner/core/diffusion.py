@@ -249,11 +249,14 @@ def _solve_power(graph: ProductGraph, scale, alpha: float, tol: float, x, r, b, 
     """Power (Jacobi) iteration x <- alpha P x + b until ||r||_1 <= tol. Returns (x, iterations, touches)."""
     cap = check_int(default_work_cap("power", graph.m, alpha, tol) if max_work is None else max_work, "max_work",
                     low=0)
-    P = graph.transition(scale, alpha)
     steps = touches = 0
-    while steps < cap and np.abs(r).sum() > tol:
+    resid = float(np.abs(r).sum())
+    # the residual of each iterate by the same kernel that certifies the result afterwards: near
+    # machine precision another summation order could stop the loop on a residual that the check
+    # then finds a hair above tol
+    while steps < cap and resid > tol:
         x = x + r  # x_{t+1} = alpha P x_t + b
-        r = b - x + P @ x
+        resid = _exact_residual(graph, scale, alpha, x, b, r)
         steps += 1
         touches += int(graph.indptr[-1])
     return x, steps, touches
