@@ -758,6 +758,13 @@ def summarize(problem: Problem, diffusion: DiffusionResult, improvement: Improve
 
 # --------------------------------------------------------------------------- align
 
+def _prior_counts(t) -> dict:
+    """A prior table's counts, as the run state keeps them (an update that takes the candidates from
+    the state rebuilds the table's record and warnings from them)."""
+    return {"rows": t.n_rows, "unknown": t.n_unknown, "unknown_examples": list(t.unknown_examples),
+            "dropped_by_score_kind": t.n_dropped_kind, "duplicates": t.n_duplicates, "pairs": t.n_pairs}
+
+
 @dataclass(frozen=True, eq=False)
 class AlignmentResult:
     """Everything a run produced.
@@ -823,6 +830,10 @@ class AlignmentResult:
         meta = {"options": cfg.as_dict(),
                 "inputs": {k: None if v is None else {"source": _source(v), "fingerprint": file_digest(v)}
                            for k, v in sources.items()},
+                "networks": {side: {"weighted": net.weights is not None, "self_loops": net.n_self_loops,
+                                    "duplicate_edges": net.n_duplicate_edges}
+                             for side, net in (("a", p.network_a), ("b", p.network_b))},
+                "prior_table": None if inputs.prior is None else _prior_counts(inputs.prior),
                 "seconds": round(sum(self.summary["timings"].values()), 4),
                 "diffusion": {"steps": self.diffusion.steps, "edge_touches": self.diffusion.edge_touches}}
         return arrays, meta

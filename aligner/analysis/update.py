@@ -16,6 +16,7 @@ starts from zero like ``align`` and says so in ``summary["update"]["mode"]``.
 
 from __future__ import annotations
 
+import dataclasses
 import time
 from pathlib import Path
 from typing import Any, Callable
@@ -109,6 +110,51 @@ def _with_diff(state, side: str, add, remove, cfg: AlignConfig):
     return pd.DataFrame({"node_a": u, "node_b": v})
 
 
+def _kept_inputs(state, given: dict, files: dict, cfg: AlignConfig) -> dict:
+    """The networks and the prior for :func:`prepare`: an unchanged input rebuilt from the state
+    where that gives exactly what reading its file again would, else the file (or what was given).
+
+    - A network not given, unweighted in the file (the state keeps its edges, not weights): from
+      the state's names and edges; the reader's counts of self-loops and repeated edges from
+      ``meta``.
+    - The prior not given, both networks with the same node names as before, no seeds, candidates
+      from the prior: the previous candidate pairs with their prior, as a prior table. Choosing
+      the candidates again from them gives the same set (the top-k cut of a top-k cut is itself,
+      ties broken alike), and the table's record (rows, unknown names, merged repeats) comes from
+      ``meta``, so warnings and ``summary.json`` say what reading the file said.
+    """
+    from aligner.core.network import network_from_edges
+    from aligner.core.prior import PriorTable
+    from aligner.io.inputs import as_network, prior_notes
+
+    meta = state.meta
+    out = dict(files)
+    read = {"delimiter": cfg.delimiter, "header": cfg.header, "directed": cfg.directed}
+    nets = {}
+    for side in ("a", "b"):
+        key, counts = f"network_{side}", meta.get("networks", {}).get(side)
+        if given.get(key) is None and counts is not None and not counts["weighted"]:
+            names = np.asarray(getattr(state, f"names_{side}"), dtype=object)
+            e = getattr(state, f"edges_{side}")
+            net = network_from_edges(names, e[:, 0], e[:, 1], None, source=files[key], directed=cfg.directed)
+            nets[side] = dataclasses.replace(net, n_self_loops=counts["self_loops"],
+                                             n_duplicate_edges=counts["duplicate_edges"])
+        else:
+            nets[side] = as_network(files[key], name=key, **read)
+        out[key] = nets[side]
+    record = meta.get("prior_table")
+    same_nodes = all(len(nets[s].names) == len(getattr(state, f"names_{s}"))
+                     and np.array_equal(nets[s].names.astype(str), getattr(state, f"names_{s}")) for s in ("a", "b"))
+    if (given.get("prior") is None and record is not None and files["seeds"] is None and not cfg.structural
+            and same_nodes):
+        table = PriorTable(pairs=state.pairs, scores=state.prior.astype(np.float64), n_rows=record["rows"],
+                           n_unknown=record["unknown"], unknown_examples=list(record["unknown_examples"]),
+                           n_dropped_kind=record["dropped_by_score_kind"], n_duplicates=record["duplicates"],
+                           source=files["prior"], released_pairs=record["pairs"])
+        out["prior"] = prior_notes(table)
+    return out
+
+
 def _check_options(state, config: AlignConfig | None, options: dict) -> AlignConfig:
     """The previous run's options; any option given must agree with it."""
     previous = AlignConfig(**state.meta["options"])
@@ -140,14 +186,25 @@ def _renumber(names_old, names_new) -> np.ndarray:
     return lookup(np.asarray(names_new, dtype=object), np.asarray(names_old, dtype=object))
 
 
+def _sorted(keys: np.ndarray) -> np.ndarray:
+    """``keys`` in increasing order (sorted only when they are not already: lists the run state
+    and the readers keep in order, renumbered by an order-keeping map, come sorted)."""
+    return keys if len(keys) < 2 or bool(np.all(keys[1:] >= keys[:-1])) else np.sort(keys)
+
+
 def _edge_changes(old_edges, new_edges, to_new, n_new, directed: bool) -> tuple[int, int]:
     """Edges (arcs when ``directed``) added and removed, the old ones renumbered into the new
     nodes (each list holds every edge once, and renumbering keeps them distinct, so sorted keys
     suffice; an undirected edge is keyed by its two ends in order)."""
+    if len(old_edges) == len(new_edges) and bool(np.all(to_new == np.arange(len(to_new)))) \
+            and np.array_equal(old_edges, new_edges):
+        return 0, 0
+
     def keys(e):
-        e = np.asarray(e, dtype=np.int64)
-        e = e if directed else np.sort(e, axis=1)
-        return np.sort(e[:, 0] * n_new + e[:, 1])
+        u, v = e[:, 0].astype(np.int64), e[:, 1].astype(np.int64)
+        if not directed:
+            u, v = np.minimum(u, v), np.maximum(u, v)
+        return _sorted(u * n_new + v)
 
     e = to_new[old_edges.astype(np.int64)]
     old_keys = keys(e[(e >= 0).all(axis=1)])
@@ -163,22 +220,29 @@ def _carry(state, problem) -> tuple[np.ndarray, dict, tuple]:
     net_a, net_b, cand = problem.network_a, problem.network_b, problem.candidates
     to_a = _renumber(state.names_a, net_a.names)
     to_b = _renumber(state.names_b, net_b.names)
-    old = state.pairs.astype(np.int64)
-    moved = np.stack([to_a[old[:, 0]], to_b[old[:, 1]]], axis=1)
-    alive = (moved >= 0).all(axis=1)
-    new_keys = _keys(cand.pairs, cand.n2)
-    old_keys = _keys(moved[alive], cand.n2)
-    pos = np.searchsorted(new_keys, old_keys)
-    pos_ok = pos < len(new_keys)
-    found = np.zeros(len(old_keys), dtype=bool)
-    found[pos_ok] = new_keys[pos[pos_ok]] == old_keys[pos_ok]
-    x0 = np.zeros(cand.m)
-    at = pos[found]
-    x0[at] = state.x[alive][found]
-    same_prior = np.zeros(cand.m, dtype=bool)
-    same_prior[at] = np.isclose(cand.prior[at], state.prior[alive][found], rtol=1e-6, atol=0)
-    kept = np.zeros(cand.m, dtype=bool)
-    kept[at] = True
+    old = state.pairs
+    if len(old) == cand.m and np.array_equal(old, cand.pairs) and bool(np.all(to_a == np.arange(len(to_a)))) \
+            and bool(np.all(to_b == np.arange(len(to_b)))):  # the same nodes and candidates: no look-up
+        x0 = state.x.astype(np.float64)
+        kept = np.ones(cand.m, dtype=bool)
+        same_prior = np.abs(cand.prior - state.prior) <= 1e-6 * np.abs(state.prior)
+    else:
+        ra, rb = to_a[old[:, 0]], to_b[old[:, 1]]
+        alive = (ra >= 0) & (rb >= 0)
+        new_keys = _keys(cand.pairs, cand.n2)
+        old_keys = ra[alive] * max(cand.n2, 1) + rb[alive]
+        pos = np.searchsorted(new_keys, old_keys)
+        pos_ok = pos < len(new_keys)
+        found = np.zeros(len(old_keys), dtype=bool)
+        found[pos_ok] = new_keys[pos[pos_ok]] == old_keys[pos_ok]
+        x0 = np.zeros(cand.m)
+        at = pos[found]
+        x0[at] = state.x[alive][found]
+        same_prior = np.zeros(cand.m, dtype=bool)
+        was = state.prior[alive][found]
+        same_prior[at] = np.abs(cand.prior[at] - was) <= 1e-6 * np.abs(was)  # rescored: moved by more than 1e-6
+        kept = np.zeros(cand.m, dtype=bool)
+        kept[at] = True
     directed = problem.config.directed
     ea_add, ea_del = _edge_changes(state.edges_a, net_a.scored_edges(directed)[0], to_a, net_a.n, directed)
     eb_add, eb_del = _edge_changes(state.edges_b, net_b.scored_edges(directed)[0], to_b, net_b.n, directed)
@@ -257,7 +321,9 @@ def update(previous, network_a=None, network_b=None, prior=None, *, seeds=None, 
         given[f"network_{side}"] = _with_diff(state, side, add, remove, cfg)
     files = _inputs(state, given)
     clock = Clock(progress)
-    problem = prepare(files["network_a"], files["network_b"], files["prior"], seeds=files["seeds"],
+    with clock.stage("read"):
+        inputs = _kept_inputs(state, given, files, cfg)
+    problem = prepare(inputs["network_a"], inputs["network_b"], inputs["prior"], seeds=files["seeds"],
                       truth=files["truth"], config=cfg, clock=clock)
     t1 = time.perf_counter()
     x0, changes, maps = _carry(state, problem)

@@ -25,7 +25,7 @@ from aligner.core.identifiers import PairTable, pairs_from_columns
 from aligner.io.readers import Columns, Table, network_from_table, prior_pick, read_network, read_table
 from aligner.core.prior import PriorTable, prior_from_columns
 
-__all__ = ["as_table", "as_network", "as_prior", "as_pairs", "known_pairs"]
+__all__ = ["as_table", "as_network", "as_prior", "as_pairs", "known_pairs", "prior_notes"]
 
 
 def as_table(obj, *, name: str, layout: str, min_cols: int, max_cols: int, what: str = "table",
@@ -203,11 +203,11 @@ def as_prior(obj, net_a: Network, net_b: Network, kind: str, delimiter, header,
     table = as_table(obj, name="prior", layout="node_a, node_b, score", min_cols=3, max_cols=3,
                      what="prior table", delimiter=delimiter, header=header,
                      source="<DataFrame prior>" if isinstance(obj, pd.DataFrame) else None, pick=prior_pick(columns))
-    return _prior_notes(prior_from_columns(table.text(0), table.text(1), table.numeric(2, "score"), net_a, net_b,
+    return prior_notes(prior_from_columns(table.text(0), table.text(1), table.numeric(2, "score"), net_a, net_b,
                                            kind=kind, source=table.source, line_of=table.line_of))
 
 
-def _prior_notes(t: PriorTable) -> PriorTable:
+def prior_notes(t: PriorTable) -> PriorTable:
     """Warn about merged duplicate pairs and rows dropped by the score kind; refuse a prior they empty."""
     if t.n_duplicates:
         warn(f"{t.source}: {t.n_duplicates} prior rows repeat a pair given on another row; each pair "

@@ -14,7 +14,9 @@ Arrays (node indices are those of the run's own numbering, names given beside th
 ``edges_a``    int32 (e,2)  scored edges of A (each once)
 ``edges_b``    int32 (e,2)  scored edges of B
 ``pairs``      int32 (m,2)  candidate pairs (node of A, node of B)
-``prior``      float32 (m)  their prior after the score-kind transformation
+``prior``      float64 (m)  their prior after the score-kind transformation (full precision:
+                            an update with the same prior and nodes takes the candidates from
+                            here instead of reading the prior again)
 ``x``          float32 (m)  diffusion scores (the warm start of an update: its residual is
                             recomputed exactly, so single precision costs only pushes)
 ``matched``    int64 (k)    candidate index of each pair of the final matching
@@ -37,7 +39,7 @@ from aligner.errors import InputFormatError
 __all__ = ["STATE_FILE", "STATE_VERSION", "RunState", "write_state", "read_state", "file_digest"]
 
 STATE_FILE = "state.npz"
-STATE_VERSION = 1
+STATE_VERSION = 2
 _FORMAT = "aligner run state"
 ARRAYS = ("names_a", "names_b", "edges_a", "edges_b", "pairs", "prior", "x", "matched")
 
@@ -81,7 +83,7 @@ def file_digest(path) -> str | None:
     return h.hexdigest()
 
 
-_DTYPES = {"edges_a": np.int32, "edges_b": np.int32, "pairs": np.int32, "prior": np.float32, "x": np.float32,
+_DTYPES = {"edges_a": np.int32, "edges_b": np.int32, "pairs": np.int32, "prior": np.float64, "x": np.float32,
            "matched": np.int64}
 
 

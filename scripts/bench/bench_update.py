@@ -4,7 +4,9 @@ A generated pair (power-law graph ``powerlaw_graph(n, m=4, p=0.3)``, relabelled 
 the edges moved, true partner + 10 uniform decoys; seeded) is aligned and its outputs written
 (with the run state). Each change is then applied to the input files and both
 ``aligner.analysis.update.update`` (from the state) and ``aligner.align`` (from zero) run on the
-new inputs, in this process, each timed whole (reading included, writing excluded):
+new inputs, in this process, each timed whole (reading included, writing excluded), ``--repeats``
+times alternately, the best of each kept (the first run of anything in a process also pays for
+memory the system has not handed out yet, which would otherwise fall on whichever runs first):
 
 - ``rewire-0.1%``: 0.1 % of the edges of B get a new random end;
 - ``edges-1%+nodes-1%``: 1 % of the edges of B rewired and 1 % new nodes of A, each with 4 edges
@@ -60,7 +62,7 @@ def changes(a: pd.DataFrame, b: pd.DataFrame, prior: pd.DataFrame, rng):
     yield "prior-1%", {"prior": p3}
 
 
-def run(n: int, seed: int) -> list[dict]:
+def run(n: int, seed: int, repeats: int = 2) -> list[dict]:
     import aligner
     from aligner.analysis.update import update
     from aligner.datasets.instances import as_frames, noisy_relabelled
@@ -83,12 +85,14 @@ def run(n: int, seed: int) -> list[dict]:
         for key, frame in changed.items():
             new[key] = work / f"{name}-{key}.tsv"
             frame.to_csv(new[key], sep="\t", index=False)
-        t0 = time.perf_counter()
-        upd = update(work / "run", **{k: v for k, v in new.items() if k in changed})
-        upd_s = time.perf_counter() - t0
-        t0 = time.perf_counter()
-        ref = aligner.align(new["network_a"], new["network_b"], new["prior"])
-        ref_s = time.perf_counter() - t0
+        upd_s = ref_s = np.inf
+        for _ in range(repeats):  # alternately, best of each: the first of any run in a process
+            t0 = time.perf_counter()  # pays for memory the system has not handed out yet
+            upd = update(work / "run", **{k: v for k, v in new.items() if k in changed})
+            upd_s = min(upd_s, time.perf_counter() - t0)
+            t0 = time.perf_counter()
+            ref = aligner.align(new["network_a"], new["network_b"], new["prior"])
+            ref_s = min(ref_s, time.perf_counter() - t0)
         same = set(map(tuple, _named(upd))) == set(map(tuple, _named(ref)))
         gap = float(np.max(np.abs(upd.diffusion.x - ref.diffusion.x))) if upd.candidates.m == ref.candidates.m else None
         u = upd.summary["update"]
@@ -96,7 +100,7 @@ def run(n: int, seed: int) -> list[dict]:
         rows.append({"nodes": n, "change": name, "mode": u["mode"], "update_s": round(upd_s, 3),
                      "full_s": round(ref_s, 3), "ratio": round(upd_s / ref_s, 3), "first_run_s": round(first_s, 3),
                      "read_s": t.get("read"), "product_s": t.get("product"), "diffusion_s": t.get("diffusion"),
-                     "rounding_s": t.get("rounding"), "refine_s": t.get("refine"), "scoring_s": t.get("scoring"),
+                     "rounding_s": t.get("rounding"), "refine_s": t.get("refine"), "scoring_s": t.get("scoring"), "candidates_s": t.get("candidates"),
                      "carry_s": u["carry_seconds"], "pushes": u["pushes"], "full_pushes": ref.diffusion.steps,
                      "same_matching": same, "matches_changed": u["matches_changed"],
                      "max_score_gap": gap, "bounds": upd.diffusion.error_bound + ref.diffusion.error_bound})
@@ -111,7 +115,8 @@ def _named(res):
 
 def markdown(rows: list[dict], command: str) -> str:
     lines = [f"`{command}` on {platform.machine()} / Python {platform.python_version()}; seconds in this process, "
-             "reading included, writing excluded.", "",
+             "reading included, writing excluded, the best of the runs of each (alternately); the stage seconds are "
+             "the last update's.", "",
              "| nodes | change | mode | update s | full run s | ratio | update: read / product / diffusion / rounding / "
              "refine / scoring / carry s | pushes (update / full) | same matching | matches changed "
              "| max score gap (bounds) |",
@@ -130,10 +135,11 @@ def main(argv=None) -> int:
     ap = argparse.ArgumentParser(description=__doc__.splitlines()[0])
     ap.add_argument("--sizes", default="100000")
     ap.add_argument("--seed", type=int, default=5)
+    ap.add_argument("--repeats", type=int, default=2, help="runs of each, alternately; the best is kept")
     ap.add_argument("--out", default="bench_out")
     ap.add_argument("--markdown", default=None)
     args = ap.parse_args(argv)
-    rows = [r for n in (int(s) for s in args.sizes.split(",")) for r in run(n, args.seed)]
+    rows = [r for n in (int(s) for s in args.sizes.split(",")) for r in run(n, args.seed, args.repeats)]
     return finish(rows, "bench_update", argv, markdown, args.out, args.markdown)
 
 

@@ -223,3 +223,62 @@ def test_reversed_arcs_count_as_changed_in_a_directed_run(base, tmp_path):
     c = upd.summary["update"]["changes"]
     assert c["edges_b_added"] == 5 and c["edges_b_removed"] == 5
     _agree(upd, aligner.align(d / "a.tsv", tmp_path / "b_flipped.tsv", d / "p.tsv", directed=True))
+
+
+def _same_network(got, want):
+    """Every field of two Networks equal (arrays entry for entry), the source aside."""
+    import dataclasses
+
+    for f in dataclasses.fields(want):
+        if f.name == "source":
+            continue
+        g, w = getattr(got, f.name), getattr(want, f.name)
+        if isinstance(w, np.ndarray) or isinstance(g, np.ndarray):
+            assert g is not None and w is not None and np.array_equal(g, w), f.name
+        else:
+            assert g == w, f.name
+
+
+@pytest.mark.parametrize("directed, top_k", [(False, None), (True, None), (False, 3)])
+def test_unchanged_inputs_come_from_the_state_as_reading_gives_them(base, tmp_path, monkeypatch, directed, top_k):
+    # Reference: aligner.align reading the same files. The update takes network A and the prior
+    # from the state (neither file is read again: the readers are watched) and must get the same
+    # network, field for field, the same candidates with the same prior, and the same record of
+    # the inputs in summary.json, self-loops and repeated edges of the file included; with a top-k
+    # cut that drops prior pairs (choosing the candidates again from the kept ones keeps them all).
+    import aligner.io.inputs as inputs_module
+
+    d, a, b, prior = base
+    a2 = pd.concat([a, a.iloc[:7], pd.DataFrame({a.columns[0]: a.iloc[:3, 0], a.columns[1]: a.iloc[:3, 0]})])
+    _write(tmp_path, "a_loops.tsv", a2)
+    p_dup = _write(tmp_path, "p_dup.tsv", pd.concat([prior, prior.iloc[:5]]))  # 5 repeated rows
+    opts = (["--directed"] if directed else []) + ([] if top_k is None else ["--top-k", str(top_k)])
+    assert runner.invoke(app, ["align", str(tmp_path / "a_loops.tsv"), str(d / "b.tsv"), "-p", str(p_dup),
+                               *opts, "-o", str(tmp_path / "r"), "--quiet"]).exit_code == 0
+    rng = np.random.default_rng(4)
+    b2 = b.copy()
+    rows = rng.choice(len(b2), 6, replace=False)
+    b2.iloc[rows, 1] = b2.iloc[(rows + 1) % len(b2), 1].to_numpy()  # ends moved among nodes B has anyway
+    new_b = _write(tmp_path, "b2.tsv", b2)
+    read = []
+    real_net, real_table = inputs_module.read_network, inputs_module.as_table
+    monkeypatch.setattr(inputs_module, "read_network", lambda path, **kw: read.append(str(path)) or
+                        real_net(path, **kw))
+    monkeypatch.setattr(inputs_module, "as_table", lambda obj, **kw: read.append(kw.get("name")) or
+                        real_table(obj, **kw))
+    upd = update(tmp_path / "r", network_b=new_b)
+    assert read == [str(new_b)]  # B only: A and the prior came from the state
+    monkeypatch.undo()
+    ref = aligner.align(tmp_path / "a_loops.tsv", new_b, p_dup, directed=directed, top_k=top_k or 25)
+    assert ref.network_a.n_self_loops == 3 and ref.network_a.n_duplicate_edges >= 7
+    assert ref.summary["inputs"]["prior"]["duplicate_pairs_merged"] == 5
+    if top_k is not None:
+        assert ref.candidates.m < ref.summary["inputs"]["prior"]["pairs"]  # the cut drops pairs
+    _same_network(upd.network_a, ref.network_a)
+    assert np.array_equal(upd.candidates.pairs, ref.candidates.pairs)
+    assert np.array_equal(upd.candidates.prior, ref.candidates.prior)
+    drop = {"source"}
+    for key in ("network_a", "network_b", "prior"):
+        got, want = upd.summary["inputs"][key], ref.summary["inputs"][key]
+        assert {k: v for k, v in got.items() if k not in drop} == {k: v for k, v in want.items() if k not in drop}
+    _agree(upd, ref)
