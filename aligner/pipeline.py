@@ -452,6 +452,14 @@ def _starts(problem: Problem, diffusion: DiffusionResult, rounded: Matching, cou
     return starts
 
 
+def _counted_weights(cfg: AlignConfig, prod: ProductGraph):
+    """The entry weights the refinement's objective (and the confidence, in its units) counts
+    conserved edge pairs by: a weighted run under the agreement model counts each pair (each arc
+    pair, when directed: S + S^T keeps each arc's weight) by its agreement, as the walk does;
+    otherwise None, each counts 1."""
+    return prod.weights if cfg.weighted and cfg.weight_model == "agreement" else None
+
+
 def improve(problem: Problem, diffusion: DiffusionResult, rounded: Matching) -> Improvement:
     """Refine the rounded matching for conserved edges (see :func:`aligner.core.refine.refine_matching`),
     from :func:`refine_starts` starts, the best kept (:func:`aligner.core.refine.refine_from_starts`).
@@ -464,12 +472,9 @@ def improve(problem: Problem, diffusion: DiffusionResult, rounded: Matching) -> 
         return Improvement(rounded, rounded, None)
     prod = problem.product.symmetrised()  # S + S^T when directed (built once), else S
     starts = _starts(problem, diffusion, rounded, refine_starts(problem))
-    # a weighted run under the agreement model counts conserved edge pairs (arcs, when directed:
-    # S + S^T keeps each arc's weight) by their agreement, as the walk does
-    agree = cfg.weighted and cfg.weight_model == "agreement"
     refined = refine_from_starts(prod, problem.candidates, diffusion.x, starts, keep=problem.seed_index,
                                  beta=cfg.beta, max_iter=cfg.refine_iter, method=cfg.rounding,
-                                 edge_weights=prod.weights if agree else None)
+                                 edge_weights=_counted_weights(cfg, prod))
     if refined is None:
         return Improvement(rounded, rounded, None, "refinement moved a seed pair, so its matching was not used")
     final = Matching(index=refined.index, method=rounded.method, weight=float(diffusion.x[refined.index].sum()),
@@ -549,7 +554,8 @@ def _confidence(problem: Problem, diffusion: DiffusionResult, index: np.ndarray)
     the loss of the refinement's objective at the pair's best 2-exchange, as L / (1 + L)."""
     cfg = problem.config
     prod = problem.product.symmetrised()  # S + S^T when directed (built once), else S
-    return matching_confidence(prod, problem.candidates, diffusion.x, index, beta=cfg.beta)
+    return matching_confidence(prod, problem.candidates, diffusion.x, index, beta=cfg.beta,
+                               edge_weights=_counted_weights(cfg, prod))
 
 
 def _pairs_frame(problem: Problem, diffusion: DiffusionResult, index: np.ndarray, cons: np.ndarray,

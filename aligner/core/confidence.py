@@ -70,7 +70,7 @@ def pair_confidence(cand: CandidateSet, x: npt.ArrayLike, index: npt.ArrayLike) 
 
 
 def exchange_loss(prod: ProductGraph, cand: CandidateSet, w: npt.ArrayLike, index: npt.ArrayLike, *,
-                  beta: float) -> npt.NDArray[np.float64]:
+                  beta: float, edge_weights: npt.ArrayLike | None = None) -> npt.NDArray[np.float64]:
     r"""For each matched pair, the least the refinement's objective falls by a 2-exchange that
     removes it (``inf`` when no such move exists).
 
@@ -91,6 +91,8 @@ def exchange_loss(prod: ProductGraph, cand: CandidateSet, w: npt.ArrayLike, inde
 
     For directed networks ``prod`` is the symmetrised product graph
     (:meth:`ProductGraph.symmetrised`), whose S_kl counts both directions, as in the refinement.
+    ``edge_weights`` (one per entry of ``prod``): C counts each conserved edge pair by its entry
+    weight, as the refinement does under the agreement weight model; None counts each 1.
     One compiled pass over the m candidates (:func:`aligner.kernels.refine.exchange_losses`):
     O(m log d) with d the largest row of the product graph or of the candidates, and no array
     of m entries beyond f.
@@ -98,8 +100,9 @@ def exchange_loss(prod: ProductGraph, cand: CandidateSet, w: npt.ArrayLike, inde
     index = np.asarray(index, dtype=np.int64)
     if not len(index):
         return np.zeros(0)
+    s_w = np.empty(0) if edge_weights is None else np.ascontiguousarray(edge_weights, dtype=np.float64)
     f = beta * normalise_weights(w)[0]
-    f += _matched_counts(prod, index)
+    f += _matched_counts(prod, index, s_w)
     pa = np.ascontiguousarray(cand.pairs[:, 0], dtype=np.int64)
     pb = np.ascontiguousarray(cand.pairs[:, 1], dtype=np.int64)
     mate_a = np.full(cand.n1, -1, dtype=np.int64)
@@ -107,12 +110,12 @@ def exchange_loss(prod: ProductGraph, cand: CandidateSet, w: npt.ArrayLike, inde
     mate_a[pa[index]] = index
     mate_b[pb[index]] = index
     loss = np.full(cand.n1, np.inf)  # by node of A: one matched pair each
-    exchange_losses(prod.indptr, prod.indices, cand.a_indptr, pa, pb, f, mate_a, mate_b, loss)
+    exchange_losses(prod.indptr, prod.indices, s_w, cand.a_indptr, pa, pb, f, mate_a, mate_b, loss)
     return loss[pa[index]]
 
 
 def matching_confidence(prod: ProductGraph, cand: CandidateSet, w: npt.ArrayLike, index: npt.ArrayLike, *,
-                        beta: float) -> npt.NDArray[np.float64]:
+                        beta: float, edge_weights: npt.ArrayLike | None = None) -> npt.NDArray[np.float64]:
     """Confidence of each pair of the final matching, in [0, 1]: L / (1 + L), with L >= 0 the
     pair's :func:`exchange_loss` (clipped at 0; 1 when the pair has no alternative at all).
 
@@ -133,7 +136,7 @@ def matching_confidence(prod: ProductGraph, cand: CandidateSet, w: npt.ArrayLike
     with errors, the default demo and the connectome pair in docs/results.md
     (``scripts/bench/calibration.py``). Deterministic: a fixed sequence of vector operations.
     """
-    loss = exchange_loss(prod, cand, w, index, beta=beta)
+    loss = exchange_loss(prod, cand, w, index, beta=beta, edge_weights=edge_weights)
     out = np.ones(len(loss))
     fin = np.isfinite(loss)
     lf = np.maximum(loss[fin], 0.0)

@@ -330,17 +330,17 @@ def _local_search(s_indptr, s_indices, s_w, c_indptr, col_ptr, col_idx, pair_a, 
 
 
 @numba.njit(cache=True, nogil=True)
-def exchange_losses(s_indptr, s_indices, c_indptr, pair_a, pair_b, f, mate_a, mate_b, loss):
+def exchange_losses(s_indptr, s_indices, s_w, c_indptr, pair_a, pair_b, f, mate_a, mate_b, loss):
     """For each node i of A, the least -Delta F over the 2-exchanges that remove its matched pair,
     into ``loss[i]`` (left as it is, e.g. inf, when there is none), in one pass over the candidates.
 
     The moves and Delta F are those of :func:`_local_search` (see there): for a candidate
     p = (i, j') not in M, k = M at i and l = M at j' (either may be absent), replace k, l by p and,
     when it is a candidate, q = (j, i'); Delta F = f_p + f_q - f_k - f_l + S_kl + S_pq with
-    f = bw + S 1_M. ``pair_a``, ``pair_b``: both ends of every candidate; ``mate_a``,
-    ``mate_b``: the matched candidate at each node, or -1.
+    f = bw + S 1_M. ``s_w``: the entry weights of S (empty: each entry counts 1). ``pair_a``,
+    ``pair_b``: both ends of every candidate; ``mate_a``, ``mate_b``: the matched candidate at
+    each node, or -1.
     """
-    unit = np.empty(0, dtype=np.float64)  # no entry weights: each entry of S counts 1
     n1 = c_indptr.shape[0] - 1
     for i in range(n1):
         k = mate_a[i]
@@ -355,10 +355,10 @@ def exchange_losses(s_indptr, s_indices, c_indptr, pair_a, pair_b, f, mate_a, ma
                 delta -= f[l]
                 j = pair_a[l]
                 if k >= 0:
-                    delta += _adjacent(s_indptr, s_indices, unit, k, l)
+                    delta += _adjacent(s_indptr, s_indices, s_w, k, l)
                     q = _find(pair_b, c_indptr[j], c_indptr[j + 1], pair_b[k])
                     if q >= 0:
-                        delta += f[q] + _adjacent(s_indptr, s_indices, unit, p, q)
+                        delta += f[q] + _adjacent(s_indptr, s_indices, s_w, p, q)
                 if -delta < loss[j]:
                     loss[j] = -delta
             if k >= 0 and -delta < loss[i]:

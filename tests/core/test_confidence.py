@@ -81,12 +81,12 @@ from aligner.core.confidence import exchange_loss, matching_confidence  # noqa: 
 from aligner.core.refine import normalise_weights, refine_objective  # noqa: E402
 
 
-def _loss_by_applying_every_move(prod, cand, w, index, beta):
+def _loss_by_applying_every_move(prod, cand, w, index, beta, edge_weights=None):
     # Reference: each 2-exchange of the local search applied to the matching and F re-evaluated
     # from scratch with refine_objective (F = beta * w~ + conserved edges), pair by pair.
     bw = beta * normalise_weights(w)[0]
     index = [int(k) for k in index]
-    base = refine_objective(prod, bw, index)[0]
+    base = refine_objective(prod, bw, index, edge_weights)[0]
     pos = {tuple(map(int, cand.pairs[k])): k for k in range(cand.m)}
     mate_a = {int(cand.pairs[k, 0]): k for k in index}
     mate_b = {int(cand.pairs[k, 1]): k for k in index}
@@ -101,7 +101,7 @@ def _loss_by_applying_every_move(prod, cand, w, index, beta):
             q = pos.get((int(cand.pairs[l, 0]), int(cand.pairs[k, 1])))
             if q is not None:
                 new.append(q)
-        d = base - refine_objective(prod, bw, sorted(new))[0]
+        d = base - refine_objective(prod, bw, sorted(new), edge_weights)[0]
         for r in (k, l):
             if r is not None:
                 loss[r] = min(loss[r], d)
@@ -125,6 +125,33 @@ def test_exchange_loss_equals_applying_every_move(rng, directed):
         got = exchange_loss(prod, prob.candidates, res.diffusion.x, index, beta=prob.config.beta)
         want = _loss_by_applying_every_move(prod, prob.candidates, res.diffusion.x, index, prob.config.beta)
         np.testing.assert_allclose(got, want, atol=1e-9)
+
+
+def test_weighted_exchange_loss_equals_applying_every_move(rng):
+    # Reference: as above, with C counting each conserved edge pair by its entry weight (the
+    # refinement's objective under the agreement weight model, refine_objective with
+    # edge_weights); the weights are random and symmetric (S_kl = S_lk).
+    differs = False
+    for _ in range(6):
+        n = int(rng.integers(5, 10))
+        ga = nx.gnp_random_graph(n, 0.4, seed=int(rng.integers(1 << 30)))
+        gb = nx.gnp_random_graph(n, 0.4, seed=int(rng.integers(1 << 30)))
+        ga.add_nodes_from(range(n)), gb.add_nodes_from(range(n))
+        flat = rng.choice(n * n, size=3 * n, replace=False)
+        prior = pd.DataFrame({"a": flat // n, "b": flat % n, "s": rng.random(3 * n) + 0.1})
+        res = align(ga, gb, prior, top_k=None)
+        prod, cand = res.problem.product, res.problem.candidates
+        dense = rng.random((cand.m, cand.m))
+        dense = np.triu(dense) + np.triu(dense, 1).T
+        rows = np.repeat(np.arange(cand.m), np.diff(prod.indptr))
+        ew = dense[rows, prod.indices]
+        index = res.matching.index
+        got = exchange_loss(prod, cand, res.diffusion.x, index, beta=0.5, edge_weights=ew)
+        want = _loss_by_applying_every_move(prod, cand, res.diffusion.x, index, 0.5, ew)
+        np.testing.assert_allclose(got, want, atol=1e-9)
+        unit = exchange_loss(prod, cand, res.diffusion.x, index, beta=0.5)
+        differs |= not np.allclose(got, unit)
+    assert differs  # the weights reach the losses (unit weights give others on some instance)
 
 
 def _hand_case(beta):
