@@ -166,8 +166,12 @@ def check_inputs(*paths: Path | None) -> None:
     The same checks, in the same words, as the readers make (so the early exit reads like the
     late one); None is skipped.
     """
+    from aligner.io.paths import input_files
+
     for p in paths:
         if p is None:
+            continue
+        if input_files(p) is not None:  # a pattern matching files (one matching none raises here)
             continue
         if not p.exists():
             raise InputFormatError("no such file; check the path", path=str(p))

@@ -65,7 +65,8 @@ class PriorTable:
 
 
 def check_scores(values: np.ndarray, kind: str, *, source: str = "<memory>",
-                 line_of: Callable[[int], int | None] | None = None) -> None:
+                 line_of: Callable[[int], int | None] | None = None,
+                 origin: Callable[[int], tuple[str, int | None]] | None = None) -> None:
     """Refuse a score that is not a finite number, or a negative one; the message names the line.
 
     Parameters
@@ -77,6 +78,9 @@ def check_scores(values: np.ndarray, kind: str, *, source: str = "<memory>",
         The file (or ``<DataFrame prior>``) the scores came from, for the message.
     line_of : callable, optional
         ``line_of(row)`` gives the file line of data row ``row``.
+    origin : callable, optional
+        ``origin(row)`` gives the file and line of data row ``row`` (a table read from several
+        files); in place of ``source`` and ``line_of``.
 
     Raises
     ------
@@ -92,8 +96,8 @@ def check_scores(values: np.ndarray, kind: str, *, source: str = "<memory>",
             why = f"is negative; {_NEED[kind]}"
         else:  # a missing or non-numeric cell, or inf: the score kind is not the question
             why = "is not a finite number; every score must be a number (check for empty or non-numeric cells)"
-        raise InputFormatError(f"the score {float(values[row])!r} {why}", path=source,
-                               line=None if line_of is None else line_of(row))
+        path, line = (source, None if line_of is None else line_of(row)) if origin is None else origin(row)
+        raise InputFormatError(f"the score {float(values[row])!r} {why}", path=path, line=line)
 
 
 def transform_scores(values: np.ndarray, kind: str) -> tuple[np.ndarray, np.ndarray]:
@@ -125,6 +129,7 @@ def transform_scores(values: np.ndarray, kind: str) -> tuple[np.ndarray, np.ndar
 def prior_from_columns(
     a, b, values: np.ndarray, net_a: Network, net_b: Network, *,
     kind: str = "similarity", source: str = "<memory>", line_of: Callable[[int], int | None] | None = None,
+    origin: Callable[[int], tuple[str, int | None]] | None = None,
 ) -> PriorTable:
     """Map a prior given as three columns onto the node indices of two networks.
 
@@ -140,6 +145,9 @@ def prior_from_columns(
         Where the table came from, for messages and ``PriorTable.source``.
     line_of : callable, optional
         ``line_of(row)`` gives the file line of data row ``row``, for messages.
+    origin : callable, optional
+        ``origin(row)`` gives the file and line of data row ``row``, for messages (in place of
+        ``source`` and ``line_of``: a table read from several files).
 
     Returns
     -------
@@ -147,7 +155,7 @@ def prior_from_columns(
         Unknown nodes are counted and skipped; duplicate pairs keep the highest similarity.
     """
     values = np.asarray(values, dtype=np.float64)
-    check_scores(values, kind, source=source, line_of=line_of)
+    check_scores(values, kind, source=source, line_of=line_of, origin=origin)
     scores, keep = transform_scores(values, kind)
     ia = lookup(net_a.names, a)
     ib = lookup(net_b.names, b)

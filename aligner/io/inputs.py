@@ -204,7 +204,7 @@ def as_prior(obj, net_a: Network, net_b: Network, kind: str, delimiter, header,
                      what="prior table", delimiter=delimiter, header=header,
                      source="<DataFrame prior>" if isinstance(obj, pd.DataFrame) else None, pick=prior_pick(columns))
     return prior_notes(prior_from_columns(table.text(0), table.text(1), table.numeric(2, "score"), net_a, net_b,
-                                           kind=kind, source=table.source, line_of=table.line_of))
+                                           kind=kind, source=table.source, origin=table.origin))
 
 
 def prior_notes(t: PriorTable) -> PriorTable:

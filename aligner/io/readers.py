@@ -27,6 +27,7 @@ import pyarrow.csv as pacsv
 from aligner.checks import bad_parameter, check_choice, warn
 from aligner.core.network import Network, network_from_edges
 from aligner.errors import InputFormatError, InvalidParameterError
+from aligner.io.paths import input_files
 from aligner.core.identifiers import intern, pairs_from_columns, PairTable
 from aligner.core.prior import PriorTable, prior_from_columns
 
@@ -263,19 +264,43 @@ class Table:
     header: tuple | None = None
     picked: tuple | None = None
     pick: "Columns | None" = None
+    parts: tuple | None = None  # a table read from several files: (part Table, first row) each
 
     @property
     def n_rows(self) -> int:
         return len(self.columns[0]) if self.columns else 0
 
+    def _part(self, row: int) -> tuple["Table", int]:
+        """The part file holding data row ``row`` and the row's index in it."""
+        starts = [start for _, start in self.parts]
+        k = int(np.searchsorted(starts, row, side="right")) - 1
+        part, start = self.parts[k]
+        return part, row - start
+
+    def origin(self, row: int) -> tuple[str, int | None]:
+        """(file, line) of data row ``row``: the part file for a table read from several files;
+        the line is None for a table not read from a file."""
+        if self.parts is not None:
+            part, r = self._part(row)
+            return part.source, part.line_of(r)
+        return self.source, self.line_of(row)
+
     def line_of(self, row: int) -> int | None:
-        """File line of data row ``row`` (0-based); None for a table not read from a file."""
+        """File line of data row ``row`` (0-based), in its part file for a table read from several
+        files (:meth:`origin` names the file); None for a table not read from a file."""
+        if self.parts is not None:
+            part, r = self._part(row)
+            return part.line_of(r)
         if self.first_line is None:
             return None
         return _locate(self.source, self.first_line, row, self.sep)[0]
 
     def where(self, row: int) -> str:
-        """``line 7`` for a file, ``row 3`` (1-based) for an object: where data row ``row`` is."""
+        """``line 7`` for a file, ``row 3`` (1-based) for an object, ``parts/b.tsv, line 7`` for a
+        table read from several files: where data row ``row`` is."""
+        if self.parts is not None:
+            path, line = self.origin(row)
+            return f"{path}, line {line}"
         return f"row {row + 1}" if self.first_line is None else f"line {self.line_of(row)}"
 
     def text(self, col: int):
@@ -300,8 +325,9 @@ class Table:
             where = "" if self.first_line is not None else f"{self.where(row)}: "
             which = "the column" if self.pick is None else f"column {self.picked[col] + 1}, picked by " + (
                 self.pick.named if self.first_line is not None else f"{self.pick.keyword}={self.pick.text!r}") + ","
+            path, line = self.origin(row)
             raise InputFormatError(f"{where}the {label} {c[row]!r} is not a finite number; {which} must hold "
-                                   "numbers such as 0.5 or 1e-3", path=self.source, line=self.line_of(row))
+                                   "numbers such as 0.5 or 1e-3", path=path, line=line)
         return values
 
 
@@ -362,6 +388,11 @@ def read_table(path: str | os.PathLike, *, min_cols: int, max_cols: int, delimit
     line only to locate an error.
     """
     path = os.fspath(path)
+    files = input_files(path)
+    if files is not None:  # a pattern: one table from the files it matches
+        parts = [read_table(f, min_cols=min_cols, max_cols=max_cols, delimiter=delimiter, header=header,
+                            what=what, pick=pick, required=required, text_cols=text_cols) for f in files]
+        return _joined(path, parts, what)
     try:
         return _read_table(path, min_cols=min_cols, max_cols=max_cols, delimiter=delimiter, header=header,
                            what=what, pick=pick, required=required, text_cols=text_cols)
@@ -374,6 +405,36 @@ def read_table(path: str | os.PathLike, *, min_cols: int, max_cols: int, delimit
     except csv.Error as exc:
         raise InputFormatError(f"cannot be parsed ({exc}); check the quoting and the delimiter (give "
                                "--delimiter)", path=path) from None
+
+
+def _joined(pattern: str, parts: list[Table], what: str) -> Table:
+    """One table from the tables of the files a pattern matched, in name order; their rows keep
+    their files and lines for messages (:meth:`Table.origin`)."""
+    if len(parts) == 1:
+        return parts[0]
+    first = parts[0]
+    for part in parts[1:]:
+        if len(part.columns) != len(first.columns):
+            raise InputFormatError(f"has {len(part.columns)} columns where {first.source} has "
+                                   f"{len(first.columns)}; every file of {_a(what)} given by a pattern must have "
+                                   "the same columns", path=part.source)
+    columns = tuple(_concat([p.columns[k] for p in parts]) for k in range(len(first.columns)))
+    starts = np.cumsum([0] + [p.n_rows for p in parts[:-1]])
+    return Table(columns, pattern, first_line=first.first_line, sep=first.sep, header=first.header,
+                 picked=first.picked, pick=first.pick, parts=tuple(zip(parts, (int(s) for s in starts))))
+
+
+def _concat(cols: list):
+    """One column from the same column of several tables: pyarrow strings, float64 numbers (both
+    as the fast reader gives them) or, when the parts were read differently, numpy objects."""
+    if all(isinstance(c, (pa.Array, pa.ChunkedArray)) for c in cols):
+        chunks = [c.cast(pa.large_string()) for c in cols]
+        return pa.chunked_array(chunks, type=pa.large_string()).combine_chunks()
+    if all(isinstance(c, np.ndarray) and c.dtype == np.float64 for c in cols):
+        return np.concatenate(cols)
+    as_objects = [c.to_numpy(zero_copy_only=False).astype(object) if isinstance(c, (pa.Array, pa.ChunkedArray))
+                  else np.asarray(c, dtype=object) for c in cols]
+    return np.concatenate(as_objects)
 
 
 def _check_options(delimiter, header) -> None:
@@ -702,7 +763,7 @@ def network_from_table(table: Table, *, directed: bool = False) -> Network:
             row = int(np.argmax(weights < 0))
             where = "" if table.first_line is not None else f"{table.where(row)}: "
             raise InputFormatError(f"{where}the edge weight {weights[row]:g} is negative; weights must be >= 0",
-                                   path=table.source, line=table.line_of(row))
+                                   path=table.origin(row)[0], line=table.origin(row)[1])
     a, b = table.text(0), table.text(1)
     names, codes = intern(a, b)
     m = len(a)
@@ -727,7 +788,7 @@ def read_prior(path: str | os.PathLike, net_a: Network, net_b: Network, *, kind:
     table = read_table(path, min_cols=3, max_cols=3, delimiter=delimiter, header=header, what="prior table",
                        pick=prior_pick(columns))
     return prior_from_columns(table.text(0), table.text(1), table.numeric(2, "score"), net_a, net_b, kind=kind,
-                              source=table.source, line_of=table.line_of)
+                              source=table.source, origin=table.origin)
 
 
 def prior_pick(columns: str | None) -> Columns | None:

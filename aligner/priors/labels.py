@@ -226,11 +226,11 @@ def _record_labels(obj, columns: str, name: str, *, delimiter: str | None = None
         if node in first:
             raise InputFormatError(f"{'' if table.first_line is not None else table.where(row) + ': '}repeats the "
                                    f"identifier {node[:80]!r} (first on {table.where(first[node])}); give each "
-                                   "record one row", path=table.source, line=table.line_of(row))
+                                   "record one row", path=table.origin(row)[0], line=table.origin(row)[1])
         if not node:
             raise InputFormatError(f"{'' if table.first_line is not None else table.where(row) + ': '}has an empty "
-                                   "identifier; give each record one in the first column", path=table.source,
-                                   line=table.line_of(row))
+                                   "identifier; give each record one in the first column",
+                                   path=table.origin(row)[0], line=table.origin(row)[1])
         first[node] = row
     idx = np.argsort(ids.astype(str), kind="stable") if order and len(ids) else np.arange(len(ids))
     return pd.Series(texts[idx], index=pd.Index(ids[idx], dtype=object, name="node"), dtype=object, name="label")
