@@ -37,10 +37,10 @@ FULL_SHARE = 0.25
 INPUTS = ("network_a", "network_b", "prior", "seeds", "truth")
 
 
-def _inputs(state, given: dict) -> dict:
+def _inputs(state, given: dict, names=INPUTS) -> dict:
     """The update's inputs: those given, else the previous run's files, which must be unchanged."""
     out = {}
-    for name in INPUTS:
+    for name in names:
         if given.get(name) is not None:
             out[name] = given[name]
             continue
@@ -153,6 +153,55 @@ def _kept_inputs(state, given: dict, files: dict, cfg: AlignConfig) -> dict:
                            source=files["prior"], released_pairs=record["pairs"])
         out["prior"] = prior_notes(table)
     return out
+
+
+def _with_prior_diff(state, add, remove, cfg: AlignConfig):
+    """The previous run's prior table with the pairs of ``remove`` (node_a, node_b) taken out and
+    the rows of ``add`` (node_a, node_b, score: a pair the prior has gets the new score, any
+    repeat of it included; another is added), as a table by name. The previous table is its file,
+    which must be unchanged (the state keeps the candidates, not every prior row).
+
+    Raises InputFormatError naming the first pair to remove that the previous prior lacks."""
+    import pandas as pd
+
+    from aligner.io.inputs import as_table
+
+    if cfg.prior_columns is not None:
+        raise InvalidParameterError("prior diffs apply to runs that read the prior's own three columns; this run "
+                                    "picked them with prior_columns: give the whole new prior", param="add_prior")
+    rec = state.meta["inputs"].get("prior")
+    if rec is None:
+        raise InvalidParameterError("the previous run had no prior to change; give a whole prior", param="add_prior")
+    source = _inputs(state, {"prior": None}, names=("prior",))["prior"]
+    read = {"delimiter": cfg.delimiter, "header": cfg.header}
+
+    def rows(obj, cols: int, what: str):
+        t = as_table(obj, name=what, layout="node_a, node_b" + (", score" if cols == 3 else "[, score]"),
+                     min_cols=cols, max_cols=3, what=what, **read)
+        frame = pd.DataFrame({"node_a": np.asarray(t.text(0), dtype=object).astype(str),
+                              "node_b": np.asarray(t.text(1), dtype=object).astype(str)})
+        if cols == 3:
+            frame["score"] = t.numeric(2, "score")
+        return frame
+
+    table = rows(source, 3, "prior table")
+    keys = pd.MultiIndex.from_frame(table[["node_a", "node_b"]])
+    keep = np.ones(len(table), dtype=bool)
+    if remove is not None:
+        gone = rows(remove, 2, "prior pairs to remove")
+        hit = keys.isin(pd.MultiIndex.from_frame(gone[["node_a", "node_b"]]))
+        have = pd.MultiIndex.from_frame(gone[["node_a", "node_b"]]).isin(keys)
+        if not have.all():
+            u, v = gone.iloc[int(np.argmax(~have))][["node_a", "node_b"]]
+            raise InputFormatError(f"the diff asks the previous run's prior to remove a pair it does not have: "
+                                   f"{u} / {v}; the diff does not fit that run", path=str(remove))
+        keep &= ~hit
+    extra = []
+    if add is not None:
+        new = rows(add, 3, "prior rows to add")
+        keep &= ~keys.isin(pd.MultiIndex.from_frame(new[["node_a", "node_b"]]))
+        extra.append(new)
+    return pd.concat([table[keep], *extra], ignore_index=True)
 
 
 def _check_options(state, config: AlignConfig | None, options: dict) -> AlignConfig:
@@ -273,7 +322,7 @@ def _matches_changed(state, res: AlignmentResult, maps) -> int:
 
 
 def update(previous, network_a=None, network_b=None, prior=None, *, seeds=None, truth=None,
-           add_a=None, remove_a=None, add_b=None, remove_b=None,
+           add_a=None, remove_a=None, add_b=None, remove_b=None, add_prior=None, remove_prior=None,
            config: AlignConfig | None = None, progress: Callable[[str], None] | None = None,
            **options: Any) -> AlignmentResult:
     """Align the new inputs starting from a previous run's state.
@@ -289,6 +338,10 @@ def update(previous, network_a=None, network_b=None, prior=None, *, seeds=None, 
         Instead of a whole new network, edge lists to add to and remove from the previous run's
         network (unweighted runs); nodes seen first in ``add_*`` join the network. A diff that
         removes a missing edge or adds a present one is refused.
+    add_prior, remove_prior : optional
+        Instead of a whole new prior, rows (node_a, node_b, score) to add to or rescore in the
+        previous run's prior file (which must be unchanged), and pairs (node_a, node_b) to take
+        out of it; removing a pair the prior lacks is refused.
     config, **options :
         The previous run's options are used; any given must agree with them.
 
@@ -319,6 +372,11 @@ def update(previous, network_a=None, network_b=None, prior=None, *, seeds=None, 
             raise InvalidParameterError(f"give either a new network {side.upper()} or edges to add and remove, not "
                                         "both", param=f"add_{side}")
         given[f"network_{side}"] = _with_diff(state, side, add, remove, cfg)
+    if add_prior is not None or remove_prior is not None:
+        if prior is not None:
+            raise InvalidParameterError("give either a new prior or prior rows to add and remove, not both",
+                                        param="add_prior")
+        given["prior"] = _with_prior_diff(state, add_prior, remove_prior, cfg)
     files = _inputs(state, given)
     clock = Clock(progress)
     with clock.stage("read"):

@@ -282,3 +282,34 @@ def test_unchanged_inputs_come_from_the_state_as_reading_gives_them(base, tmp_pa
         got, want = upd.summary["inputs"][key], ref.summary["inputs"][key]
         assert {k: v for k, v in got.items() if k not in drop} == {k: v for k, v in want.items() if k not in drop}
     _agree(upd, ref)
+
+
+def test_prior_diffs_give_what_the_edited_prior_gives(base, tmp_path):
+    # Reference: aligner.align on the prior file edited by hand the same way (rows rescored,
+    # rows added, pairs removed).
+    d, a, b, prior = base
+    rng = np.random.default_rng(7)
+    cols = list(prior.columns)
+    nodes_a = prior.iloc[:, 0].unique()
+    rescore = prior.iloc[rng.choice(len(prior), 20, replace=False)].copy()
+    rescore[cols[2]] = rescore[cols[2]] * 3.0
+    added = pd.DataFrame({cols[0]: rng.choice(nodes_a, 10), cols[1]: rng.choice(b.iloc[:, 0].unique(), 10),
+                          cols[2]: rng.random(10) + 0.5})
+    gone = prior.drop(rescore.index).iloc[rng.choice(len(prior) - 20, 15, replace=False), :2]
+    edited = prior.drop(rescore.index)
+    edited = edited[~edited.set_index(cols[:2]).index.isin(gone.set_index(cols[:2]).index)]
+    edited = pd.concat([edited, rescore, added], ignore_index=True)
+    edited = edited.drop_duplicates(cols[:2], keep="last")  # an added pair the prior had: the new score
+    add_rows = pd.concat([rescore, added], ignore_index=True)
+    upd = update(d / "run", add_prior=_write(tmp_path, "add.tsv", add_rows),
+                 remove_prior=_write(tmp_path, "gone.tsv", gone))
+    ref = aligner.align(d / "a.tsv", d / "b.tsv", _write(tmp_path, "edited.tsv", edited))
+    _agree(upd, ref)
+    c = upd.summary["update"]["changes"]
+    assert c["candidates_rescored"] >= 15 and c["candidates_removed"] >= 10
+    # a pair to remove that the prior lacks is refused, naming it; nothing is written
+    bad = _write(tmp_path, "bad.tsv", pd.DataFrame({"node_a": ["nowhere"], "node_b": ["b0"]}))
+    got = runner.invoke(app, ["update", str(d / "run"), "--remove-prior", str(bad), "-o", str(tmp_path / "u")])
+    assert got.exit_code == 2 and "nowhere / b0" in got.output and not (tmp_path / "u").exists()
+    with pytest.raises(InvalidParameterError, match="not both"):
+        update(d / "run", prior=d / "p.tsv", add_prior=tmp_path / "add.tsv")

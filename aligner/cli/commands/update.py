@@ -26,15 +26,21 @@ RemoveA = Annotated[Optional[Path], typer.Option("--remove-a", help="Edges to re
 AddB = Annotated[Optional[Path], typer.Option("--add-b", help="Edges to add to the previous run's network B.")]
 RemoveB = Annotated[Optional[Path], typer.Option("--remove-b", help="Edges to remove from the previous run's "
                                                  "network B; each must be there.")]
+AddPrior = Annotated[Optional[Path], typer.Option("--add-prior", help="Instead of --prior: rows (node_a, node_b, "
+                                                  "score) to add to the previous run's prior or to rescore in it.")]
+RemovePrior = Annotated[Optional[Path], typer.Option("--remove-prior", help="Pairs (node_a, node_b) to take out "
+                                                     "of the previous run's prior; each must be there.")]
 
 
 @command()
 def update(previous: Previous, outdir: Out, a: NewA = None, b: NewB = None, prior: NewPrior = None,
            seeds: NewSeeds = None, truth: NewTruth = None, add_a: AddA = None, remove_a: RemoveA = None,
-           add_b: AddB = None, remove_b: RemoveB = None, force: Force = False, quiet: Quiet = False):
+           add_b: AddB = None, remove_b: RemoveB = None, add_prior: AddPrior = None,
+           remove_prior: RemovePrior = None, force: Force = False, quiet: Quiet = False):
     """Align the new inputs starting from a previous run (its options, its scores as the start); write the
     same files as align to --out, with an update section in summary.json."""
-    check_inputs(*(p for p in (a, b, prior, seeds, truth, add_a, remove_a, add_b, remove_b) if p is not None))
+    check_inputs(*(p for p in (a, b, prior, seeds, truth, add_a, remove_a, add_b, remove_b, add_prior,
+                               remove_prior) if p is not None))
     from aligner.analysis.update import update as run_update
     from aligner.io.outputs import check_outdir, output_files, write_outputs
     from aligner.pipeline import STAGES, Clock
@@ -43,7 +49,8 @@ def update(previous: Previous, outdir: Out, a: NewA = None, b: NewB = None, prio
     check_outdir(outdir, force=force, files=output_files())  # refuse before any work
     with Clock.owning_process(), progress(quiet, len(STAGES) + 1) as bar:
         res = run_update(previous, a, b, prior, seeds=seeds, truth=truth, add_a=add_a, remove_a=remove_a,
-                         add_b=add_b, remove_b=remove_b, progress=bar.stage)
+                         add_b=add_b, remove_b=remove_b, add_prior=add_prior, remove_prior=remove_prior,
+                         progress=bar.stage)
         bar.stage("writing")
         written = write_outputs(outdir, res, force=force)
     if not quiet:
