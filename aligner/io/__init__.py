@@ -1,7 +1,7 @@
 """Input and output: the only layer that touches files.
 
-``readers`` parses delimited files (edge lists, prior, pair and seed tables) into columns with
-line-accurate errors; ``identifiers`` looks node identifiers up and maps pairs of them onto two
+``paths`` says which files a glob pattern names (a table written in parts); ``readers`` parses
+delimited files (edge lists, prior, pair and seed tables) into columns with line-accurate errors; ``identifiers`` looks node identifiers up and maps pairs of them onto two
 networks; ``inputs`` turns whatever a caller holds (a path, a DataFrame, rows, a mapping, a
 networkx graph, an already-read table) into the canonical objects the stages take, through one
 helper (``as_table``); ``outputs`` writes results crash-safely (one atomic writer, a set of
