@@ -390,8 +390,16 @@ def read_table(path: str | os.PathLike, *, min_cols: int, max_cols: int, delimit
     path = os.fspath(path)
     files = input_files(path)
     if files is not None:  # a pattern: one table from the files it matches
-        parts = [read_table(f, min_cols=min_cols, max_cols=max_cols, delimiter=delimiter, header=header,
-                            what=what, pick=pick, required=required, text_cols=text_cols) for f in files]
+        parts = []
+        for f in files:
+            try:
+                parts.append(read_table(f, min_cols=min_cols, max_cols=max_cols, delimiter=delimiter,
+                                        header=header, what=what, pick=pick, required=required, text_cols=text_cols))
+            except _NoRows:  # an empty part (a partition without rows, or its header only) adds nothing
+                continue
+        if not parts:
+            raise InputFormatError(f"every one of the {len(files)} files this pattern matches is empty or holds "
+                                   f"a header only: expected {_a(what)}", path=path)
         return _joined(path, parts, what)
     try:
         return _read_table(path, min_cols=min_cols, max_cols=max_cols, delimiter=delimiter, header=header,
@@ -405,6 +413,11 @@ def read_table(path: str | os.PathLike, *, min_cols: int, max_cols: int, delimit
     except csv.Error as exc:
         raise InputFormatError(f"cannot be parsed ({exc}); check the quoting and the delimiter (give "
                                "--delimiter)", path=path) from None
+
+
+class _NoRows(InputFormatError):
+    """A file without data rows (empty, or a header only): an error for a file, a part that adds
+    nothing for a pattern."""
 
 
 def _joined(pattern: str, parts: list[Table], what: str) -> Table:
@@ -461,8 +474,8 @@ def _read_table(path: str, *, min_cols: int, max_cols: int, delimiter, header: s
     first, second = next(lines, None), next(lines, None)
     expect = f"{min_cols}" if min_cols == max_cols else f"{min_cols} to {max_cols}"
     if first is None:
-        raise InputFormatError(f"is empty: expected {_a(what)} with {expect} columns (blank lines and lines "
-                               "starting with # are skipped)", path=path)
+        raise _NoRows(f"is empty: expected {_a(what)} with {expect} columns (blank lines and lines "
+                      "starting with # are skipped)", path=path)
     sep = _detect_delimiter(first[1]) if delimiter is None else DELIMITERS.get(delimiter, delimiter)
     fields = _split(first[1], sep)
     numeric = 2
@@ -471,8 +484,8 @@ def _read_table(path: str, *, min_cols: int, max_cols: int, delimiter, header: s
     has_header = header == "yes" or (pick is not None and pick.by_name) or (
         header == "auto" and _looks_like_header(fields, second, sep, numeric))
     if has_header and second is None:
-        raise InputFormatError(f"has a header line but no data rows: expected {_a(what)} below it", path=path,
-                               line=first[0])
+        raise _NoRows(f"has a header line but no data rows: expected {_a(what)} below it", path=path,
+                      line=first[0])
     start_no, start_text = second if has_header else first
     ncols = len(_split(start_text, sep))
     if pick is not None:

@@ -114,3 +114,19 @@ def test_the_command_reads_parts_and_an_update_fingerprints_them(pair, tmp_path)
     assert file_digest(pb) != before  # a part changed: the pattern's fingerprint changes
     got = runner.invoke(app, ["update", str(tmp_path / "r"), "-o", str(tmp_path / "u")])
     assert got.exit_code == 2 and "has changed" in got.output and not (tmp_path / "u").exists()
+
+
+def test_empty_parts_add_nothing(pair, tmp_path):
+    # Common practice: a distributed export writes a file per partition, some of them empty or
+    # holding the header only; they add no rows. A pattern whose files are all empty is refused.
+    d, a, b, prior = pair
+    pa_ = _split(a, tmp_path / "a", "part", 2)
+    (tmp_path / "a" / "part-00002.tsv").write_text("")
+    (tmp_path / "a" / "part-00003.tsv").write_text("node_a\tnode_b\n")
+    one = read_network(d / "a.tsv")
+    many = read_network(pa_)
+    assert np.array_equal(one.names, many.names) and np.array_equal(one.edges, many.edges)
+    (tmp_path / "e").mkdir()
+    (tmp_path / "e" / "p0.tsv").write_text("")
+    with pytest.raises(InputFormatError, match="every one of the 1 files"):
+        read_network(str(tmp_path / "e" / "p*.tsv"))
