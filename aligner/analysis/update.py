@@ -61,53 +61,69 @@ def _inputs(state, given: dict, names=INPUTS) -> dict:
 
 def _with_diff(state, side: str, add, remove, cfg: AlignConfig):
     """The previous run's network of ``side`` ("a" or "b") with the edges of ``remove`` taken out
-    and those of ``add`` put in, as an edge table by name (the previous edges come from the state).
+    and those of ``add`` put in, built from the state's integer edges: only the diff files are
+    read. Nodes seen first in ``add`` join; a node left without edges goes, as it would from the
+    edited file (a network is its edge list), so the result is the Network that reading the
+    edited file gives.
 
     Raises InputFormatError naming the first edge to remove that the previous network lacks, or
     to add that it already has (a diff that does not fit the run it is applied to)."""
-    import pandas as pd
-
+    from aligner.core.network import network_from_edges
     from aligner.io.inputs import as_network
 
     if cfg.weighted:
         raise InvalidParameterError("edge diffs apply to unweighted runs; give the whole new network file of a "
                                     "weighted run", param=f"add_{side}")
-    names = np.asarray(state.names_a if side == "a" else state.names_b, dtype=object)
+    names = np.asarray(state.names_a if side == "a" else state.names_b).astype(str)
     edges = (state.edges_a if side == "a" else state.edges_b).astype(np.int64)
     label = "A" if side == "a" else "B"
-
-    def keys(u, v):
-        u, v = np.asarray(u, dtype=object), np.asarray(v, dtype=object)
-        if not cfg.directed:  # an undirected edge by its two names in order
-            swap = u > v
-            u, v = np.where(swap, v, u), np.where(swap, u, v)
-        return pd.MultiIndex.from_arrays([u.astype(str), v.astype(str)])
-
-    have = keys(names[edges[:, 0]], names[edges[:, 1]])
-    keep = np.ones(len(have), dtype=bool)
-    extra = []
+    diffs = {}
     for path, removing in ((remove, True), (add, False)):
-        if path is None:
+        if path is not None:
+            net = as_network(path, name=f"{'removed' if removing else 'added'} edges of {label}",
+                             directed=cfg.directed, delimiter=cfg.delimiter, header=cfg.header)
+            diffs[removing] = (path, net.names.astype(str), net.scored_edges(cfg.directed)[0].astype(np.int64))
+    # one numbering over the previous names and the diffs' (sorted, as the readers number nodes)
+    every = np.unique(np.concatenate([names] + [d[1] for d in diffs.values()]))
+    old_ids = np.searchsorted(every, names)
+    n = len(every)
+
+    def keys(u, v):  # an undirected edge by its two ends in order
+        if not cfg.directed:
+            u, v = np.minimum(u, v), np.maximum(u, v)
+        return u * n + v
+
+    have = keys(old_ids[edges[:, 0]], old_ids[edges[:, 1]])
+    order = np.argsort(have, kind="stable")
+    keep = np.ones(len(have), dtype=bool)
+    extra = np.empty(0, dtype=np.int64)
+    for removing in (True, False):
+        if removing not in diffs:
             continue
-        net = as_network(path, name=f"{'removed' if removing else 'added'} edges of {label}",
-                         directed=cfg.directed, delimiter=cfg.delimiter, header=cfg.header)
-        e = net.scored_edges(cfg.directed)[0].astype(np.int64)
-        diff = keys(net.names[e[:, 0]], net.names[e[:, 1]])
-        found = have.get_indexer(diff)
-        wrong = found < 0 if removing else found >= 0
+        path, dnames, de = diffs[removing]
+        ids = np.searchsorted(every, dnames)
+        dk = keys(ids[de[:, 0]], ids[de[:, 1]])
+        pos = np.minimum(np.searchsorted(have, dk, sorter=order), max(len(have) - 1, 0))
+        found = have[order[pos]] == dk if len(have) else np.zeros(len(dk), dtype=bool)
+        wrong = ~found if removing else found
         if wrong.any():
-            u, v = diff[int(np.argmax(wrong))]
+            t = int(np.argmax(wrong))
+            u, v = dnames[de[t, 0]], dnames[de[t, 1]]
             what = "remove an edge it does not have" if removing else "add an edge it already has"
             raise InputFormatError(f"the diff asks network {label} of the previous run to {what}: {u} - {v}; "
                                    "the diff does not fit that run", path=str(path))
         if removing:
-            keep[found] = False
+            keep[order[pos]] = False
         else:
-            extra.append(diff)
-    rows = [have[keep]] + extra
-    u = np.concatenate([np.asarray(r.get_level_values(0), dtype=object) for r in rows])
-    v = np.concatenate([np.asarray(r.get_level_values(1), dtype=object) for r in rows])
-    return pd.DataFrame({"node_a": u, "node_b": v})
+            extra = dk
+    kept = np.concatenate([have[keep], extra])
+    u, v = kept // n, kept % n
+    used = np.zeros(n, dtype=bool)
+    used[u] = used[v] = True
+    new_id = np.cumsum(used) - 1  # the nodes left with an edge, in name order
+    source = f"<network_{side}: the previous run's edges with the diff applied>"
+    return network_from_edges(every[used].astype(object), new_id[u], new_id[v], None, source=source,
+                              directed=cfg.directed)
 
 
 def _kept_inputs(state, given: dict, files: dict, cfg: AlignConfig) -> dict:
@@ -366,20 +382,20 @@ def update(previous, network_a=None, network_b=None, prior=None, *, seeds=None, 
     cfg = _check_options(state, config, options)
     given = {"network_a": network_a, "network_b": network_b, "prior": prior, "seeds": seeds, "truth": truth}
     for side, (add, remove) in (("a", (add_a, remove_a)), ("b", (add_b, remove_b))):
-        if add is None and remove is None:
-            continue
-        if given[f"network_{side}"] is not None:
+        if (add is not None or remove is not None) and given[f"network_{side}"] is not None:
             raise InvalidParameterError(f"give either a new network {side.upper()} or edges to add and remove, not "
                                         "both", param=f"add_{side}")
-        given[f"network_{side}"] = _with_diff(state, side, add, remove, cfg)
-    if add_prior is not None or remove_prior is not None:
-        if prior is not None:
-            raise InvalidParameterError("give either a new prior or prior rows to add and remove, not both",
-                                        param="add_prior")
-        given["prior"] = _with_prior_diff(state, add_prior, remove_prior, cfg)
-    files = _inputs(state, given)
+    if (add_prior is not None or remove_prior is not None) and prior is not None:
+        raise InvalidParameterError("give either a new prior or prior rows to add and remove, not both",
+                                    param="add_prior")
     clock = Clock(progress)
-    with clock.stage("read"):
+    with clock.stage("read"):  # the diffs, the inputs given, and those kept in the state
+        for side, (add, remove) in (("a", (add_a, remove_a)), ("b", (add_b, remove_b))):
+            if add is not None or remove is not None:
+                given[f"network_{side}"] = _with_diff(state, side, add, remove, cfg)
+        if add_prior is not None or remove_prior is not None:
+            given["prior"] = _with_prior_diff(state, add_prior, remove_prior, cfg)
+        files = _inputs(state, given)
         inputs = _kept_inputs(state, given, files, cfg)
     problem = prepare(inputs["network_a"], inputs["network_b"], inputs["prior"], seeds=files["seeds"],
                       truth=files["truth"], config=cfg, clock=clock)

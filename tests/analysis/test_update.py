@@ -195,6 +195,7 @@ def test_edge_diffs_give_what_the_edited_network_gives(base, tmp_path):
     upd = update(d / "run", add_b=tmp_path / "new.tsv", remove_b=tmp_path / "gone.tsv")
     ref = aligner.align(d / "a.tsv", _write(tmp_path, "b_edited.tsv", edited), d / "p.tsv")
     _agree(upd, ref)
+    _same_network(upd.network_b, ref.network_b)  # built from the state's edges and the diff only
     c = upd.summary["update"]["changes"]
     assert c["edges_b_removed"] == 12 and c["edges_b_added"] == 12 and c["nodes_b_added"] == 12
     # a diff that does not fit: an edge to remove that B does not have; exit 2, nothing written
