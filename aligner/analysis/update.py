@@ -59,6 +59,20 @@ def _inputs(state, given: dict, names=INPUTS) -> dict:
     return out
 
 
+def _edge_keys(u, v, n: int, directed: bool) -> np.ndarray:
+    """One integer per edge over ``n`` nodes: an arc by (u, v), an undirected edge by its two ends
+    in order."""
+    u, v = np.asarray(u, dtype=np.int64), np.asarray(v, dtype=np.int64)
+    if not directed:
+        u, v = np.minimum(u, v), np.maximum(u, v)
+    return u * n + v
+
+
+def _is_identity(mapping: np.ndarray) -> bool:
+    """Whether a renumbering (:func:`_renumber`) leaves every node where it was."""
+    return bool(np.all(mapping == np.arange(len(mapping))))
+
+
 def _with_diff(state, side: str, add, remove, cfg: AlignConfig):
     """The previous run's network of ``side`` ("a" or "b") with the edges of ``remove`` taken out
     and those of ``add`` put in, built from the state's integer edges: only the diff files are
@@ -88,12 +102,7 @@ def _with_diff(state, side: str, add, remove, cfg: AlignConfig):
     old_ids = np.searchsorted(every, names)
     n = len(every)
 
-    def keys(u, v):  # an undirected edge by its two ends in order
-        if not cfg.directed:
-            u, v = np.minimum(u, v), np.maximum(u, v)
-        return u * n + v
-
-    have = keys(old_ids[edges[:, 0]], old_ids[edges[:, 1]])
+    have = _edge_keys(old_ids[edges[:, 0]], old_ids[edges[:, 1]], n, cfg.directed)
     order = np.argsort(have, kind="stable")
     keep = np.ones(len(have), dtype=bool)
     extra = np.empty(0, dtype=np.int64)
@@ -102,7 +111,7 @@ def _with_diff(state, side: str, add, remove, cfg: AlignConfig):
             continue
         path, dnames, de = diffs[removing]
         ids = np.searchsorted(every, dnames)
-        dk = keys(ids[de[:, 0]], ids[de[:, 1]])
+        dk = _edge_keys(ids[de[:, 0]], ids[de[:, 1]], n, cfg.directed)
         pos = np.minimum(np.searchsorted(have, dk, sorter=order), max(len(have) - 1, 0))
         found = have[order[pos]] == dk if len(have) else np.zeros(len(dk), dtype=bool)
         wrong = ~found if removing else found
@@ -261,19 +270,12 @@ def _edge_changes(old_edges, new_edges, to_new, n_new, directed: bool) -> tuple[
     """Edges (arcs when ``directed``) added and removed, the old ones renumbered into the new
     nodes (each list holds every edge once, and renumbering keeps them distinct, so sorted keys
     suffice; an undirected edge is keyed by its two ends in order)."""
-    if len(old_edges) == len(new_edges) and bool(np.all(to_new == np.arange(len(to_new)))) \
-            and np.array_equal(old_edges, new_edges):
+    if len(old_edges) == len(new_edges) and _is_identity(to_new) and np.array_equal(old_edges, new_edges):
         return 0, 0
-
-    def keys(e):
-        u, v = e[:, 0].astype(np.int64), e[:, 1].astype(np.int64)
-        if not directed:
-            u, v = np.minimum(u, v), np.maximum(u, v)
-        return _sorted(u * n_new + v)
-
     e = to_new[old_edges.astype(np.int64)]
-    old_keys = keys(e[(e >= 0).all(axis=1)])
-    new_keys = keys(new_edges)
+    e = e[(e >= 0).all(axis=1)]
+    old_keys = _sorted(_edge_keys(e[:, 0], e[:, 1], n_new, directed))
+    new_keys = _sorted(_edge_keys(new_edges[:, 0], new_edges[:, 1], n_new, directed))
     pos = np.minimum(np.searchsorted(new_keys, old_keys), max(len(new_keys) - 1, 0))
     common = int((new_keys[pos] == old_keys).sum()) if len(new_keys) else 0
     return int(len(new_keys) - common), int(len(old_edges) - common)
@@ -286,8 +288,8 @@ def _carry(state, problem) -> tuple[np.ndarray, dict, tuple]:
     to_a = _renumber(state.names_a, net_a.names)
     to_b = _renumber(state.names_b, net_b.names)
     old = state.pairs
-    if len(old) == cand.m and np.array_equal(old, cand.pairs) and bool(np.all(to_a == np.arange(len(to_a)))) \
-            and bool(np.all(to_b == np.arange(len(to_b)))):  # the same nodes and candidates: no look-up
+    if len(old) == cand.m and np.array_equal(old, cand.pairs) and _is_identity(to_a) and _is_identity(to_b):
+        # the same nodes and candidates: no look-up
         x0 = state.x.astype(np.float64)
         kept = np.ones(cand.m, dtype=bool)
         same_prior = np.abs(cand.prior - state.prior) <= 1e-6 * np.abs(state.prior)

@@ -423,15 +423,16 @@ class _NoRows(InputFormatError):
 def _joined(pattern: str, parts: list[Table], what: str) -> Table:
     """One table from the tables of the files a pattern matched, in name order; their rows keep
     their files and lines for messages (:meth:`Table.origin`)."""
-    if len(parts) == 1:
-        return parts[0]
     first = parts[0]
     for part in parts[1:]:
         if len(part.columns) != len(first.columns):
             raise InputFormatError(f"has {len(part.columns)} columns where {first.source} has "
                                    f"{len(first.columns)}; every file of {_a(what)} given by a pattern must have "
                                    "the same columns", path=part.source)
-    columns = tuple(_concat([p.columns[k] for p in parts]) for k in range(len(first.columns)))
+    # one part keeps its columns as they are; the table still carries the pattern as its source
+    # (a later update fingerprints the files the pattern matches then, not this one file)
+    columns = first.columns if len(parts) == 1 else tuple(
+        _concat([p.columns[k] for p in parts]) for k in range(len(first.columns)))
     starts = np.cumsum([0] + [p.n_rows for p in parts[:-1]])
     return Table(columns, pattern, first_line=first.first_line, sep=first.sep, header=first.header,
                  picked=first.picked, pick=first.pick, parts=tuple(zip(parts, (int(s) for s in starts))))
@@ -775,8 +776,9 @@ def network_from_table(table: Table, *, directed: bool = False) -> Network:
         if (weights < 0).any():
             row = int(np.argmax(weights < 0))
             where = "" if table.first_line is not None else f"{table.where(row)}: "
+            path, line = table.origin(row)
             raise InputFormatError(f"{where}the edge weight {weights[row]:g} is negative; weights must be >= 0",
-                                   path=table.origin(row)[0], line=table.origin(row)[1])
+                                   path=path, line=line)
     a, b = table.text(0), table.text(1)
     names, codes = intern(a, b)
     m = len(a)

@@ -224,13 +224,14 @@ def _record_labels(obj, columns: str, name: str, *, delimiter: str | None = None
     first: dict[str, int] = {}
     for row, node in enumerate(ids):
         if node in first:
+            path, line = table.origin(row)
             raise InputFormatError(f"{'' if table.first_line is not None else table.where(row) + ': '}repeats the "
                                    f"identifier {node[:80]!r} (first on {table.where(first[node])}); give each "
-                                   "record one row", path=table.origin(row)[0], line=table.origin(row)[1])
+                                   "record one row", path=path, line=line)
         if not node:
+            path, line = table.origin(row)
             raise InputFormatError(f"{'' if table.first_line is not None else table.where(row) + ': '}has an empty "
-                                   "identifier; give each record one in the first column",
-                                   path=table.origin(row)[0], line=table.origin(row)[1])
+                                   "identifier; give each record one in the first column", path=path, line=line)
         first[node] = row
     idx = np.argsort(ids.astype(str), kind="stable") if order and len(ids) else np.arange(len(ids))
     return pd.Series(texts[idx], index=pd.Index(ids[idx], dtype=object, name="node"), dtype=object, name="label")

@@ -130,3 +130,15 @@ def test_empty_parts_add_nothing(pair, tmp_path):
     (tmp_path / "e" / "p0.tsv").write_text("")
     with pytest.raises(InputFormatError, match="every one of the 1 files"):
         read_network(str(tmp_path / "e" / "p*.tsv"))
+
+
+def test_a_pattern_matching_one_file_keeps_the_pattern(pair, tmp_path):
+    # Common practice: the pattern is the input; a run whose pattern matched one part must
+    # notice, on update, a part added since (the fingerprint covers what the pattern matches).
+    d, a, b, prior = pair
+    pa_ = _split(a, tmp_path / "a", "part", 1)
+    net = read_network(pa_)
+    assert net.source == pa_ and net.n == read_network(d / "a.tsv").n
+    before = file_digest(pa_)
+    (tmp_path / "a" / "part-00001.tsv").write_text("zz1\tzz2\n")
+    assert file_digest(pa_) != before
