@@ -50,7 +50,11 @@ STAGE_KERNELS: dict[str, list[tuple[str, str, str]]] = {
     ],
     "rounding": [
         ("assign", "compact_positive", f"int32[:, ::1], {_F64}, int64, int64"),
-        ("assign", "sparse_max_weight_matching", f"{_I64}, {_I64}, {_F64}, int64"),
+        ("assign", "_pack", f"{_I64}, {_I64}, {_F64}, int64"),
+        ("assign", "_row_reduction_pass", f"{_I64}, float64[:, ::1], {_I64}, int64, int64, {_F64}, float64[:, ::1], "
+                                          f"{_I64}, {_F64}"),
+        ("assign", "_insert_rows", f"{_I64}, int64, {_I64}, float64[:, ::1], {_F64}, float64[:, ::1], {_I64}, {_F64}, "
+                                   f"int8[::1], {_I64}, {_F64}, {_I64}, {_I64}, {_I64}, {_I64}"),
         ("assign", "matched_entries", f"{_I64}, {_I64}, {_I64}, {_I64}"),
     ],
     "refine": [
@@ -73,15 +77,20 @@ STAGE_KERNELS: dict[str, list[tuple[str, str, str]]] = {
 
 
 #: the kernels the helper process takes first: the two largest of the stages after diffusion
-#: (between them about half of all compilation; the run compiles reading to diffusion meanwhile).
+#: (between them about a third of all compilation; the run compiles reading to diffusion meanwhile).
 #: It then takes the others from the last stage backwards, and the run, when it would wait,
 #: takes work from the back of the helper's list.
-HELPER_FIRST = ("assign.sparse_max_weight_matching", "refine._local_search")
+HELPER_FIRST = ("refine._local_search", "assign._row_reduction_pass")
+
+#: kernels a run calls only on some inputs: the assignment's shortest-path phase runs only for
+#: rows its first phase leaves free (none on the demo). The helper never compiles them ahead:
+#: a run that needs one compiles it where it is called.
+ON_DEMAND: tuple[str, ...] = ()
 
 
 def helper_queue(stages) -> list[str]:
     """The kernels of ``stages`` after the first, in the helper's order, less those cached."""
-    later = [k for s in reversed(list(stages)[1:]) for k in stage_kernels(s)]
+    later = [k for s in reversed(list(stages)[1:]) for k in stage_kernels(s) if k not in ON_DEMAND]
     order = [k for k in HELPER_FIRST if k in later] + [k for k in later if k not in HELPER_FIRST]
     return [k for k in order if not cached(k)]
 

@@ -357,13 +357,22 @@ def _row_reduction_pass(rstart, ent, free, n_free, max_steps, v, rec,
 
 
 @numba.njit(cache=True)
+def _insert_rows(free, n_free, rstart, ent, v, rec, row_to_col, row_cost, state,
+                 heap, hkey, pos, stack, touched, settled):
+    """Assign each free row ``free[:n_free]`` by one shortest augmenting path.
+
+    Work arrays (``state`` and the column lists) are left as found after
+    each row: only the labels of the columns a search touched are reset.
+    """
+    for f in range(n_free):
+        _insert_row(free[f], rstart, ent, v, rec, row_to_col, row_cost, state,
+                    heap, hkey, pos, stack, touched, settled)
+
+
+@numba.njit(cache=True)
 def _insert_row(s, rstart, ent, v, rec, row_to_col, row_cost, state, heap,
                 hkey, pos, stack, touched, settled):
-    """Assign the free row ``s`` by one shortest augmenting path.
-
-    Work arrays (``state`` and the column lists) are left as found: only
-    the labels of the columns the search touched are reset.
-    """
+    """Assign the free row ``s`` by one shortest augmenting path."""
     inf = np.inf
 
     # ---- quick exit: cheapest reduced option of row s ---------------
@@ -554,13 +563,16 @@ def _pack(indptr, indices, weights, n_cols):
     return rstart, ent
 
 
-@numba.njit(cache=True)
 def _solve(indptr, indices, weights, n_cols, arr_budget):
-    """Kernel of :func:`sparse_max_weight_matching`.
+    """Kernel of :func:`sparse_max_weight_matching` (CSR arrays of int64).
 
     ``arr_budget`` is the work allowed to the augmenting row reduction
     phase, in row scans per stored positive entry (0 runs the shortest-path
     phase alone).  Every value gives an optimal matching.
+
+    Plain Python calling the compiled phases: each phase is a kernel of its
+    own, so none is compiled twice inside a larger one (a first run's
+    compilation is shorter), and the arrays are allocated by numpy.
     """
     rstart, ent = _pack(indptr, indices, weights, n_cols)
     n_rows = rstart.shape[0] - 1
@@ -569,13 +581,12 @@ def _solve(indptr, indices, weights, n_cols, arr_budget):
     row_cost = np.zeros(n_rows, dtype=np.float64)  # cost of the entry used
     v = np.zeros(n_cols, dtype=np.float64)  # column potentials
     rec = np.zeros((n_cols, _NFIELDS), dtype=np.float64)
-    for j in range(n_cols):
-        rec[j, _OWNER] = -1.0
+    rec[:, _OWNER] = -1.0
 
     # ---- phase 1: augmenting row reduction (cheap warm start) ----------
     free = np.arange(n_rows, dtype=np.int64)
     n_free = n_rows
-    steps_left = np.int64(min(arr_budget * m, 2.0**62))
+    steps_left = int(min(arr_budget * m, 2.0**62))
     while n_free > 0 and steps_left > 0:
         before = n_free
         n_free, used = _row_reduction_pass(rstart, ent, free, n_free,
@@ -586,24 +597,15 @@ def _solve(indptr, indices, weights, n_cols, arr_budget):
             break  # only ties left to trade: let the searches finish
 
     # ---- phase 2: shortest augmenting paths for the rows still free -----
-    state = np.empty(n_cols, dtype=np.int8)
-    for j in range(n_cols):
-        state[j] = _FREE if rec[j, _OWNER] < 0 else _UNSEEN
-    heap = np.empty(n_cols, dtype=np.int64)
-    hkey = np.empty(n_cols, dtype=np.float64)
-    pos = np.empty(n_cols, dtype=np.int64)
-    stack = np.empty(n_cols, dtype=np.int64)
-    touched = np.empty(n_cols, dtype=np.int64)
-    settled = np.empty(n_cols, dtype=np.int64)
-
-    for f in range(n_free):
-        _insert_row(free[f], rstart, ent, v, rec, row_to_col, row_cost,
-                    state, heap, hkey, pos, stack, touched, settled)
-
+    if n_free > 0:
+        state = np.where(rec[:, _OWNER] < 0, _FREE, _UNSEEN).astype(np.int8)
+        heap, pos, stack, touched, settled = (np.empty(n_cols, dtype=np.int64) for _ in range(5))
+        hkey = np.empty(n_cols, dtype=np.float64)
+        _insert_rows(free, n_free, rstart, ent, v, rec, row_to_col, row_cost,
+                     state, heap, hkey, pos, stack, touched, settled)
     return row_to_col
 
 
-@numba.njit(cache=True)
 def sparse_max_weight_matching(indptr, indices, weights, n_cols):
     """Maximum-weight one-to-one matching of a sparse bipartite graph.
 
@@ -691,8 +693,9 @@ def sparse_max_weight_matching(indptr, indices, weights, n_cols):
        Numerische Mathematik 1, 269-271 (1959). doi:10.1007/BF01386390
     """
     # one compiled kernel for every integer type of the CSR arrays
-    return _solve(indptr.astype(np.int64), indices.astype(np.int64), weights,
-                  n_cols, _ARR_BUDGET)
+    return _solve(np.ascontiguousarray(indptr, dtype=np.int64),
+                  np.ascontiguousarray(indices, dtype=np.int64),
+                  np.ascontiguousarray(weights, dtype=np.float64), int(n_cols), _ARR_BUDGET)
 
 
 def max_weight_matching_dense(weights_dense):
