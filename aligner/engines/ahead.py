@@ -101,8 +101,8 @@ class CompileAhead:
         if self._proc is None:
             return
         for key in ahead.stage_kernels(stage):
-            if key not in self._queue:
-                continue  # cached already, or the first stage's (compiled as called)
+            if key not in self._queue or key in ahead.ON_DEMAND:
+                continue  # cached already, the first stage's, or maybe never called (compiled as called)
             while True:
                 if self._take(key):
                     ahead.compile_kernel(key)
@@ -110,7 +110,7 @@ class CompileAhead:
                 with self._cond:
                     if key in self._ended or key in self._taken or self._gone:
                         break
-                spare = next((k for k in reversed(self._queue) if self._take(k)), None)
+                spare = next((k for k in reversed(self._queue) if k not in ahead.ON_DEMAND and self._take(k)), None)
                 if spare is not None:
                     ahead.compile_kernel(spare)
                     continue

@@ -83,15 +83,17 @@ STAGE_KERNELS: dict[str, list[tuple[str, str, str]]] = {
 HELPER_FIRST = ("refine._local_search", "assign._row_reduction_pass")
 
 #: kernels a run calls only on some inputs: the assignment's shortest-path phase runs only for
-#: rows its first phase leaves free (none on the demo). The helper never compiles them ahead:
-#: a run that needs one compiles it where it is called.
-ON_DEMAND: tuple[str, ...] = ()
+#: rows its first phase leaves free (none in a default run on the demo pair; some in its
+#: permutation null and in most larger runs). The helper takes them right after
+#: :data:`HELPER_FIRST`; the run never compiles them ahead itself (only when it calls one).
+ON_DEMAND = ("assign._insert_rows",)
 
 
 def helper_queue(stages) -> list[str]:
     """The kernels of ``stages`` after the first, in the helper's order, less those cached."""
-    later = [k for s in reversed(list(stages)[1:]) for k in stage_kernels(s) if k not in ON_DEMAND]
-    order = [k for k in HELPER_FIRST if k in later] + [k for k in later if k not in HELPER_FIRST]
+    later = [k for s in reversed(list(stages)[1:]) for k in stage_kernels(s)]
+    first = [k for k in (*HELPER_FIRST, *ON_DEMAND) if k in later]
+    order = first + [k for k in later if k not in first]
     return [k for k in order if not cached(k)]
 
 

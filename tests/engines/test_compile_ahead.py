@@ -57,10 +57,10 @@ def scripted(monkeypatch, tmp_path):
 
 def test_waiting_run_takes_kernels_from_the_back_then_lets_the_helper_go(scripted):
     start, compiled, log = scripted
-    queue = ["assign.sparse_max_weight_matching", "scoring.best_two", "scoring.induced_degrees"]
+    queue = ["assign._row_reduction_pass", "scoring.best_two", "scoring.induced_degrees"]
     helper, proc = start(queue)
     helper.reach("rounding")  # its kernel is the helper's: the run takes the others meanwhile
-    assert "assign.sparse_max_weight_matching" in helper._ended
+    assert "assign._row_reduction_pass" in helper._ended
     assert compiled == ["scoring.induced_degrees", "scoring.best_two"]
     assert not helper.started  # everything done: the helper was let go (its input closed)
     assert proc.wait(timeout=30) == 0
@@ -69,7 +69,7 @@ def test_waiting_run_takes_kernels_from_the_back_then_lets_the_helper_go(scripte
 
 def test_run_compiles_what_the_helper_has_not_begun(scripted):
     start, compiled, log = scripted
-    queue = ["assign.sparse_max_weight_matching", "refine._local_search"]
+    queue = ["assign._row_reduction_pass", "refine._local_search"]
     helper, proc = start(queue)
     t0 = time.monotonic()
     helper.reach("refine")  # the helper is on the assignment: the run compiles local search itself
@@ -85,7 +85,7 @@ def test_run_compiles_what_the_helper_has_not_begun(scripted):
 def test_run_goes_on_when_the_helper_dies(scripted, monkeypatch):
     start, compiled, log = scripted
     monkeypatch.setenv("FAKE_DIE", "1")
-    helper, proc = start(["assign.sparse_max_weight_matching"])
+    helper, proc = start(["assign._row_reduction_pass"])
     helper.reach("rounding")  # returns: the helper is gone; the run will compile as it calls
     proc.wait(timeout=30)
     assert compiled == [] and not helper.started
@@ -103,3 +103,17 @@ def test_switched_off_by_environment(monkeypatch):
     monkeypatch.setattr(ahead, "helper_queue", lambda stages: pytest.fail("must not look"))
     with controller.CompileAhead(["read", "rounding"]) as helper:
         assert not helper.started
+
+
+def test_run_leaves_a_kernel_it_may_never_call_to_the_helper(scripted):
+    # the shortest-path phase of the assignment (ahead.ON_DEMAND) is called only when rows are
+    # left free: the run neither compiles it on reaching its stage nor takes it as spare work
+    start, compiled, log = scripted
+    queue = ["assign._row_reduction_pass", *ahead.ON_DEMAND]
+    helper, proc = start(queue)
+    helper.reach("rounding")  # waits for the helper's kernel; the on-demand one is not spare work
+    assert compiled == []
+    assert "assign._row_reduction_pass" in helper._ended
+    assert helper.started  # the on-demand kernel is still the helper's to compile
+    helper.release()
+    proc.wait(timeout=30)
