@@ -41,8 +41,9 @@ class CandidateSet:
 
     def coverage(self) -> tuple[float, float]:
         """Share of the nodes of A and of B that have at least one candidate."""
-        fa = len(np.unique(self.pairs[:, 0])) / self.n1 if self.n1 else 0.0
-        fb = len(np.unique(self.pairs[:, 1])) / self.n2 if self.n2 else 0.0
+        # counts per node, not a sort: the pairs are grouped by node of A already (a_indptr)
+        fa = np.count_nonzero(np.diff(self.a_indptr)) / self.n1 if self.n1 else 0.0
+        fb = np.count_nonzero(np.bincount(self.pairs[:, 1], minlength=self.n2)) / self.n2 if self.n2 else 0.0
         return fa, fb
 
 

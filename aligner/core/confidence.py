@@ -8,14 +8,20 @@ competing candidate (kept for comparison: ``scripts/bench/calibration.py``).
 
 from __future__ import annotations
 
+from concurrent.futures import ThreadPoolExecutor
+
 import numpy as np
 import numpy.typing as npt
 
 from aligner.core.candidates import CandidateSet
 from aligner.core.product import ProductGraph
 from aligner.core.refine import _matched_counts, normalise_weights
+from aligner.kernels.product import thread_count
 from aligner.kernels.refine import exchange_losses
 from aligner.kernels.scoring import best_two
+
+#: from this many candidate pairs on, the exchange losses run on two threads
+PARALLEL_PAIRS = 500_000
 
 __all__ = ["best_competitor", "pair_confidence", "exchange_loss", "matching_confidence"]
 
@@ -109,8 +115,21 @@ def exchange_loss(prod: ProductGraph, cand: CandidateSet, w: npt.ArrayLike, inde
     mate_b = np.full(cand.n2, -1, dtype=np.int64)
     mate_a[pa[index]] = index
     mate_b[pb[index]] = index
-    loss = np.full(cand.n1, np.inf)  # by node of A: one matched pair each
-    exchange_losses(prod.indptr, prod.indices, s_w, cand.a_indptr, pa, pb, f, mate_a, mate_b, loss)
+    args = (prod.indptr, prod.indices, s_w, cand.a_indptr, pa, pb, f, mate_a, mate_b)
+
+    def losses(i0: int, i1: int) -> np.ndarray:  # by node of A: one matched pair each
+        loss = np.full(cand.n1, np.inf)
+        exchange_losses(*args, i0, i1, loss)
+        return loss
+
+    if thread_count() > 1 and cand.m >= PARALLEL_PAIRS:
+        # two halves of the candidates on two threads (the kernel releases the GIL); a minimum
+        # does not depend on the order, so the losses are those of one pass
+        half = int(np.searchsorted(cand.a_indptr, cand.m // 2))
+        with ThreadPoolExecutor(2) as pool:
+            loss = np.minimum(*pool.map(losses, (0, half), (half, cand.n1)))
+    else:
+        loss = losses(0, cand.n1)
     return loss[pa[index]]
 
 

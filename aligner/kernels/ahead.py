@@ -69,7 +69,7 @@ STAGE_KERNELS: dict[str, list[tuple[str, str, str]]] = {
         ("scoring", "largest_component", f"{_I64}, {_I64}, bool[::1], int64"),
         ("scoring", "induced_degrees", f"{_I64}, {_I64}, bool[::1], int64"),
         ("refine", "exchange_losses", f"{_I64}, {_I32}, {_F64}, {_I64}, {_I64}, {_I64}, {_F64}, {_I64}, {_I64}, "
-                                      f"{_F64}"),
+                                      f"int64, int64, {_F64}"),
         ("refine", "neutral_exchanges", f"{_I64}, {_I32}, {_I64}, {_I64}, {_I64}, {_F64}, {_F64}, {_I64}, {_I64}, "
                                         "float64"),
     ],

@@ -330,9 +330,11 @@ def _local_search(s_indptr, s_indices, s_w, c_indptr, col_ptr, col_idx, pair_a, 
 
 
 @numba.njit(cache=True, nogil=True)
-def exchange_losses(s_indptr, s_indices, s_w, c_indptr, pair_a, pair_b, f, mate_a, mate_b, loss):
+def exchange_losses(s_indptr, s_indices, s_w, c_indptr, pair_a, pair_b, f, mate_a, mate_b, i0, i1, loss):
     """For each node i of A, the least -Delta F over the 2-exchanges that remove its matched pair,
-    into ``loss[i]`` (left as it is, e.g. inf, when there is none), in one pass over the candidates.
+    into ``loss[i]`` (left as it is, e.g. inf, when there is none), in one pass over the candidates
+    of the nodes ``i0 .. i1 - 1`` of A (a move found there may lower the loss of any node: ranges
+    run apart, each into its own ``loss``, give the whole pass's losses as their minimum).
 
     The moves and Delta F are those of :func:`_local_search` (see there): for a candidate
     p = (i, j') not in M, k = M at i and l = M at j' (either may be absent), replace k, l by p and,
@@ -341,8 +343,7 @@ def exchange_losses(s_indptr, s_indices, s_w, c_indptr, pair_a, pair_b, f, mate_
     ``pair_b``: both ends of every candidate; ``mate_a``, ``mate_b``: the matched candidate at
     each node, or -1.
     """
-    n1 = c_indptr.shape[0] - 1
-    for i in range(n1):
+    for i in range(i0, i1):
         k = mate_a[i]
         for p in range(c_indptr[i], c_indptr[i + 1]):
             if p == k:

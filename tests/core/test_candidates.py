@@ -33,6 +33,11 @@ def test_index_and_coverage():
     c = build_candidates([[2, 1], [0, 0]], [1.0, 1.0], 4, 2, top_k=None)
     assert c.a_indptr.tolist() == [0, 1, 1, 2, 2]
     assert c.coverage() == (0.5, 1.0)
+    # on random pairs, against the distinct nodes numpy's unique counts
+    rng = np.random.default_rng(7)
+    pairs = np.stack([rng.integers(0, 50, 200), rng.integers(0, 80, 200)], axis=1)
+    r = build_candidates(pairs, rng.random(200), 60, 90, top_k=None)
+    assert r.coverage() == (len(np.unique(pairs[:, 0])) / 60, len(np.unique(pairs[:, 1])) / 90)
 
 
 def test_empty():
