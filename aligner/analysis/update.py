@@ -88,7 +88,7 @@ def _with_diff(state, side: str, add, remove, cfg: AlignConfig):
     if cfg.weighted:
         raise InvalidParameterError("edge diffs apply to unweighted runs; give the whole new network file of a "
                                     "weighted run", param=f"add_{side}")
-    names = np.asarray(state.names_a if side == "a" else state.names_b).astype(str)
+    names = np.asarray(state.names_a if side == "a" else state.names_b, dtype=str)
     edges = (state.edges_a if side == "a" else state.edges_b).astype(np.int64)
     label = "A" if side == "a" else "B"
     diffs = {}
@@ -98,12 +98,12 @@ def _with_diff(state, side: str, add, remove, cfg: AlignConfig):
                              directed=cfg.directed, delimiter=cfg.delimiter, header=cfg.header)
             diffs[removing] = (path, net.names.astype(str), net.scored_edges(cfg.directed)[0].astype(np.int64))
     # one numbering over the previous names and the diffs' (sorted, as the readers number nodes)
-    every = np.unique(np.concatenate([names] + [d[1] for d in diffs.values()]))
-    old_ids = np.searchsorted(every, names)
+    every, old_ids = _joined_names(names, [d[1] for d in diffs.values()])
     n = len(every)
 
     have = _edge_keys(old_ids[edges[:, 0]], old_ids[edges[:, 1]], n, cfg.directed)
-    order = np.argsort(have, kind="stable")
+    # the state keeps each edge once, in order, and the numbering keeps the order: no sort then
+    order = np.arange(len(have)) if _is_sorted(have) else np.argsort(have, kind="stable")
     keep = np.ones(len(have), dtype=bool)
     extra = np.empty(0, dtype=np.int64)
     for removing in (True, False):
@@ -133,6 +133,30 @@ def _with_diff(state, side: str, add, remove, cfg: AlignConfig):
     source = f"<network_{side}: the previous run's edges with the diff applied>"
     return network_from_edges(every[used].astype(object), new_id[u], new_id[v], None, source=source,
                               directed=cfg.directed)
+
+
+def _is_sorted(a: np.ndarray) -> bool:
+    return len(a) < 2 or bool(np.all(a[1:] >= a[:-1]))
+
+
+def _joined_names(names: np.ndarray, more: list) -> tuple[np.ndarray, np.ndarray]:
+    """The sorted union of ``names`` and the arrays of ``more``, and the index of every name of
+    ``names`` in it. ``names`` (a network's names) are sorted and distinct, as the readers number
+    nodes; the diffs' few names are placed by binary search instead of sorting every name again."""
+    extra = np.unique(np.concatenate(more)) if more else np.empty(0, dtype=names.dtype)
+    if not (len(names) < 2 or bool(np.all(names[1:] > names[:-1]))):
+        every = np.unique(np.concatenate([names, extra]))
+        return every, np.searchsorted(every, names)
+    pos = np.searchsorted(names, extra)
+    known = pos < len(names)
+    known[known] = names[pos[known]] == extra[known]
+    new, at = extra[~known], pos[~known]
+    if not len(new):
+        return names, np.arange(len(names), dtype=np.int64)
+    # a name moves up by the new names inserted before it (np.insert puts each before index ``at``)
+    shift = np.cumsum(np.bincount(at, minlength=len(names) + 1))[: len(names)]
+    wide = names.astype(np.promote_types(names.dtype, new.dtype), copy=False)  # longer new names fit
+    return np.insert(wide, at, new), np.arange(len(names), dtype=np.int64) + shift
 
 
 def _kept_inputs(state, given: dict, files: dict, cfg: AlignConfig) -> dict:

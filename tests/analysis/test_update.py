@@ -209,6 +209,31 @@ def test_edge_diffs_give_what_the_edited_network_gives(base, tmp_path):
         update(d / "run", network_b=d / "b.tsv", add_b=tmp_path / "new.tsv")
 
 
+def test_edge_diffs_between_known_nodes_give_what_the_edited_network_gives(base, tmp_path):
+    # Reference as above; here the diff names no new node (edges moved between nodes B has), so
+    # the previous numbering of B is kept as it is
+    d, a, b, prior = base
+    rng = np.random.default_rng(11)
+    have = {tuple(sorted(e)) for e in b.to_numpy().tolist()}
+    nodes = np.unique(b.to_numpy().astype(str))
+    gone = b.iloc[rng.choice(len(b), 8, replace=False)]
+    new = []
+    while len(new) < 8:
+        u, v = rng.choice(nodes, 2, replace=False)
+        if tuple(sorted((u, v))) not in have and (u, v) not in new and (v, u) not in new:
+            new.append((u, v))
+    new = pd.DataFrame(new, columns=["node_a", "node_b"])
+    _write(tmp_path, "gone.tsv", gone)
+    _write(tmp_path, "new.tsv", new)
+    edited = pd.concat([b.drop(index=gone.index), new.set_axis(b.columns, axis=1)], ignore_index=True)
+    upd = update(d / "run", add_b=tmp_path / "new.tsv", remove_b=tmp_path / "gone.tsv")
+    ref = aligner.align(d / "a.tsv", _write(tmp_path, "b_edited.tsv", edited), d / "p.tsv")
+    _agree(upd, ref)
+    _same_network(upd.network_b, ref.network_b)
+    c = upd.summary["update"]["changes"]
+    assert c["edges_b_removed"] == 8 and c["edges_b_added"] == 8 and c["nodes_b_added"] == 0
+
+
 def test_reversed_arcs_count_as_changed_in_a_directed_run(base, tmp_path):
     # Common practice: in a directed network (u, v) and (v, u) are different arcs, so reversing
     # arcs removes some and adds as many (the counts once keyed arcs by their ends in order).
