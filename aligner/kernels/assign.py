@@ -363,158 +363,152 @@ def _insert_rows(free, n_free, rstart, ent, v, rec, row_to_col, row_cost, state,
 
     Work arrays (``state`` and the column lists) are left as found after
     each row: only the labels of the columns a search touched are reset.
+    (One kernel with the loop inside: a first run compiles it once.)
     """
     for f in range(n_free):
-        _insert_row(free[f], rstart, ent, v, rec, row_to_col, row_cost, state,
-                    heap, hkey, pos, stack, touched, settled)
+        s = free[f]
+        inf = np.inf
 
-
-@numba.njit(cache=True)
-def _insert_row(s, rstart, ent, v, rec, row_to_col, row_cost, state, heap,
-                hkey, pos, stack, touched, settled):
-    """Assign the free row ``s`` by one shortest augmenting path."""
-    inf = np.inf
-
-    # ---- quick exit: cheapest reduced option of row s ---------------
-    # If it is s's own dummy or a free column, it is what the search
-    # would settle first, so take it with no change of potentials.
-    best = 0.0  # own dummy column: cost 0, potential 0
-    best_col = np.int64(-1)
-    best_cost = 0.0
-    for p in range(rstart[s], rstart[s + 1]):
-        k = np.int64(ent[p, 0])
-        d = ent[p, 1] - v[k]
-        if d < best or (d == best and best_col >= 0
-                        and state[k] == _FREE):
-            best = d
-            best_col = k
-            best_cost = ent[p, 1]
-    if best_col < 0:
-        return  # staying unmatched is optimal for row s
-    if state[best_col] == _FREE:
-        _take(rec, rstart, row_to_col, row_cost, s, best_col, best_cost)
-        state[best_col] = _UNSEEN
-        return
-
-    # ---- Dijkstra from row s on reduced costs ------------------------
-    # Matched columns go through the heap.  A free column, or the dummy
-    # of a reached row, can only end the path, so only the cheapest of
-    # each kind is remembered.  Columns reached at a distance not above
-    # the level being settled are final at once and skip the heap (ties
-    # are common: the potentials make many edges tight).
-    n_touched = 0
-    n_settled = 0
-    size = np.int64(0)
-    n_stack = 0
-    level = -inf
-    dummy_dist = 0.0  # s's own dummy
-    dummy_row = s
-    free_dist = inf
-    sink = -1
-    sink_row = -1
-    sink_p = -1
-    r = s
-    beg = rstart[s]
-    end = rstart[s + 1]
-    base = 0.0
-    while True:
-        # relax the entries of row r, reached at reduced distance base
-        for p in range(beg, end):
+        # ---- quick exit: cheapest reduced option of row s ---------------
+        # If it is s's own dummy or a free column, it is what the search
+        # would settle first, so take it with no change of potentials.
+        best = 0.0  # own dummy column: cost 0, potential 0
+        best_col = np.int64(-1)
+        best_cost = 0.0
+        for p in range(rstart[s], rstart[s + 1]):
             k = np.int64(ent[p, 0])
-            sk = state[k]
-            if sk == _SETTLED:
-                continue
-            d = base + ent[p, 1] - v[k]
-            if sk == _UNSEEN:
-                touched[n_touched] = k
-                n_touched += 1
-                rec[k, _DIST] = d
-                rec[k, _PRED] = r
-                rec[k, _PREDP] = p
-                if d <= level:
-                    state[k] = _ON_STACK
-                    stack[n_stack] = k
-                    n_stack += 1
-                else:
-                    state[k] = _IN_HEAP
-                    size = _heap_push(heap, hkey, pos, size, k, d)
-            elif sk == _FREE:
-                if d < free_dist:
-                    free_dist = d
-                    sink = k
-                    sink_row = r
-                    sink_p = p
-            elif d < rec[k, _DIST]:
-                rec[k, _DIST] = d
-                rec[k, _PRED] = r
-                rec[k, _PREDP] = p
-                if sk == _IN_HEAP:
-                    _heap_decrease(heap, hkey, pos, k, d)
-        bound = dummy_dist if dummy_dist < free_dist else free_dist
-        if n_stack > 0:
-            n_stack -= 1
-            j = stack[n_stack]
-            if rec[j, _DIST] >= bound:
-                break
-        else:
-            if size == 0 or hkey[0] >= bound:
-                break
-            j = heap[0]
-            size = _heap_pop(heap, hkey, pos, size)
-            level = rec[j, _DIST]
-        state[j] = _SETTLED
-        settled[n_settled] = j
-        n_settled += 1
-        r = np.int64(rec[j, _OWNER])
-        beg = np.int64(rec[j, _BEG])
-        end = np.int64(rec[j, _END])
-        # u[r] = c[r, j] - v[j]; reduced cost of (r, k) is c - v[k] - u[r]
-        vj = v[j]
-        base = rec[j, _DIST] - (rec[j, _OCOST] - vj)
-        if base < dummy_dist:
-            dummy_dist = base
-            dummy_row = r
+            d = ent[p, 1] - v[k]
+            if d < best or (d == best and best_col >= 0
+                            and state[k] == _FREE):
+                best = d
+                best_col = k
+                best_cost = ent[p, 1]
+        if best_col < 0:
+            continue  # staying unmatched is optimal for row s
+        if state[best_col] == _FREE:
+            _take(rec, rstart, row_to_col, row_cost, s, best_col, best_cost)
+            state[best_col] = _UNSEEN
+            continue
 
-    if free_dist <= dummy_dist:
-        delta = free_dist
-    else:
-        delta = dummy_dist
+        # ---- Dijkstra from row s on reduced costs ------------------------
+        # Matched columns go through the heap.  A free column, or the dummy
+        # of a reached row, can only end the path, so only the cheapest of
+        # each kind is remembered.  Columns reached at a distance not above
+        # the level being settled are final at once and skip the heap (ties
+        # are common: the potentials make many edges tight).
+        n_touched = 0
+        n_settled = 0
+        size = np.int64(0)
+        n_stack = 0
+        level = -inf
+        dummy_dist = 0.0  # s's own dummy
+        dummy_row = s
+        free_dist = inf
         sink = -1
-
-    # ---- update potentials of settled columns ------------------------
-    for t in range(n_settled):
-        j = settled[t]
-        v[j] += rec[j, _DIST] - delta
-
-    # ---- augment along the path --------------------------------------
-    k = -1
-    if sink >= 0:
-        state[sink] = _UNSEEN  # matched from now on
-        k = sink
-        r = sink_row
-        p = sink_p
-    elif dummy_row != s:
-        # dummy_row drops out; its column passes back along the path
-        r = dummy_row
-        k = row_to_col[r]
-        row_to_col[r] = -1
-        row_cost[r] = 0.0
-        r = np.int64(rec[k, _PRED])
-        p = np.int64(rec[k, _PREDP])
-    # (otherwise row s stays unmatched and nothing moves)
-    if k >= 0:
+        sink_row = -1
+        sink_p = -1
+        r = s
+        beg = rstart[s]
+        end = rstart[s + 1]
+        base = 0.0
         while True:
-            prev = row_to_col[r]
-            _take(rec, rstart, row_to_col, row_cost, r, k, ent[p, 1])
-            if r == s:
-                break
-            k = prev
+            # relax the entries of row r, reached at reduced distance base
+            for p in range(beg, end):
+                k = np.int64(ent[p, 0])
+                sk = state[k]
+                if sk == _SETTLED:
+                    continue
+                d = base + ent[p, 1] - v[k]
+                if sk == _UNSEEN:
+                    touched[n_touched] = k
+                    n_touched += 1
+                    rec[k, _DIST] = d
+                    rec[k, _PRED] = r
+                    rec[k, _PREDP] = p
+                    if d <= level:
+                        state[k] = _ON_STACK
+                        stack[n_stack] = k
+                        n_stack += 1
+                    else:
+                        state[k] = _IN_HEAP
+                        size = _heap_push(heap, hkey, pos, size, k, d)
+                elif sk == _FREE:
+                    if d < free_dist:
+                        free_dist = d
+                        sink = k
+                        sink_row = r
+                        sink_p = p
+                elif d < rec[k, _DIST]:
+                    rec[k, _DIST] = d
+                    rec[k, _PRED] = r
+                    rec[k, _PREDP] = p
+                    if sk == _IN_HEAP:
+                        _heap_decrease(heap, hkey, pos, k, d)
+            bound = dummy_dist if dummy_dist < free_dist else free_dist
+            if n_stack > 0:
+                n_stack -= 1
+                j = stack[n_stack]
+                if rec[j, _DIST] >= bound:
+                    break
+            else:
+                if size == 0 or hkey[0] >= bound:
+                    break
+                j = heap[0]
+                size = _heap_pop(heap, hkey, pos, size)
+                level = rec[j, _DIST]
+            state[j] = _SETTLED
+            settled[n_settled] = j
+            n_settled += 1
+            r = np.int64(rec[j, _OWNER])
+            beg = np.int64(rec[j, _BEG])
+            end = np.int64(rec[j, _END])
+            # u[r] = c[r, j] - v[j]; reduced cost of (r, k) is c - v[k] - u[r]
+            vj = v[j]
+            base = rec[j, _DIST] - (rec[j, _OCOST] - vj)
+            if base < dummy_dist:
+                dummy_dist = base
+                dummy_row = r
+
+        if free_dist <= dummy_dist:
+            delta = free_dist
+        else:
+            delta = dummy_dist
+            sink = -1
+
+        # ---- update potentials of settled columns ------------------------
+        for t in range(n_settled):
+            j = settled[t]
+            v[j] += rec[j, _DIST] - delta
+
+        # ---- augment along the path --------------------------------------
+        k = -1
+        if sink >= 0:
+            state[sink] = _UNSEEN  # matched from now on
+            k = sink
+            r = sink_row
+            p = sink_p
+        elif dummy_row != s:
+            # dummy_row drops out; its column passes back along the path
+            r = dummy_row
+            k = row_to_col[r]
+            row_to_col[r] = -1
+            row_cost[r] = 0.0
             r = np.int64(rec[k, _PRED])
             p = np.int64(rec[k, _PREDP])
+        # (otherwise row s stays unmatched and nothing moves)
+        if k >= 0:
+            while True:
+                prev = row_to_col[r]
+                _take(rec, rstart, row_to_col, row_cost, r, k, ent[p, 1])
+                if r == s:
+                    break
+                k = prev
+                r = np.int64(rec[k, _PRED])
+                p = np.int64(rec[k, _PREDP])
 
-    # ---- reset touched labels ----------------------------------------
-    for t in range(n_touched):
-        state[touched[t]] = _UNSEEN
+        # ---- reset touched labels ----------------------------------------
+        for t in range(n_touched):
+            state[touched[t]] = _UNSEEN
 
 
 @numba.njit(cache=True)

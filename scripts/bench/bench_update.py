@@ -35,7 +35,10 @@ from pathlib import Path
 
 import numpy as np
 import pandas as pd
-from tables import finish
+from tables import finish, memory_pages
+
+#: the machine's memory settings when the script started (set by main)
+MEMORY = ""
 
 
 def changes(a: pd.DataFrame, b: pd.DataFrame, prior: pd.DataFrame, rng):
@@ -140,7 +143,7 @@ def _named(res):
 def markdown(rows: list[dict], command: str) -> str:
     lines = [f"`{command}` on {platform.machine()} / Python {platform.python_version()}; seconds in this process, "
              "reading included, writing excluded, the best of the runs of each (alternately); the stage seconds are "
-             "the last update's.", "",
+             f"the last update's. At the start: {MEMORY or memory_pages()}.", "",
              "| nodes | change | mode | update s | full run s | ratio | update: read / product / diffusion / rounding / "
              "refine / scoring / carry s | pushes (update / full) | same matching | matches changed "
              "| max score gap (bounds) |",
@@ -163,6 +166,8 @@ def main(argv=None) -> int:
     ap.add_argument("--out", default="bench_out")
     ap.add_argument("--markdown", default=None)
     args = ap.parse_args(argv)
+    global MEMORY
+    MEMORY = memory_pages()
     rows = [r for n in (int(s) for s in args.sizes.split(",")) for r in run(n, args.seed, args.repeats)]
     return finish(rows, "bench_update", argv, markdown, args.out, args.markdown)
 

@@ -32,6 +32,8 @@ import tempfile
 import time
 from pathlib import Path
 
+from tables import memory_pages
+
 STAGES = ("read", "candidates", "product", "diffusion", "rounding", "refine", "scoring")
 
 
@@ -106,7 +108,7 @@ def provenance() -> str:
     load = os.getloadavg()[0] if hasattr(os, "getloadavg") else float("nan")
     return (f"Written by `python scripts/bench/profile.py {' '.join(sys.argv[1:])}` on commit {commit}; "
             f"{os.cpu_count()} cores, Python {platform.python_version()}, {platform.machine()}, load average "
-            f"{load:.2f} at the start. Do not edit by hand: rerun the command.\n\n")
+            f"{load:.2f} at the start; {memory_pages()}. Do not edit by hand: rerun the command.\n\n")
 
 
 def markdown(rows: list[dict], demo: dict | None) -> str:

@@ -30,3 +30,30 @@ def finish(rows: list[dict], name: str, argv, render, out, markdown=None) -> int
     write_results(rows, out, name, text, markdown)
     print(text)
     return 0
+
+
+def memory_pages() -> str:
+    """How this machine hands out memory, which moves the timings of large runs: the kernel's
+    transparent huge page settings (enabled, defrag), whether numpy asks for huge pages
+    (``NUMPY_MADVISE_HUGEPAGE``, read by numpy at import; unset means yes on Linux 4.6 and
+    later), and the free and cached memory at the start (see docs/benchmarks.md, "Memory pages")."""
+    import os
+
+    def chosen(path: str) -> str:
+        try:
+            text = Path(path).read_text()
+        except OSError:
+            return "n/a"
+        return text[text.index("[") + 1:text.index("]")] if "[" in text else text.strip()
+
+    info = {}
+    try:
+        for line in Path("/proc/meminfo").read_text().splitlines():
+            key, _, value = line.partition(":")
+            info[key] = int(value.split()[0]) / 2**20  # kB -> GiB
+    except (OSError, ValueError, IndexError):
+        pass
+    free = f", {info['MemFree']:.1f} GiB free and {info['Cached']:.1f} GiB cached" if "MemFree" in info else ""
+    return (f"transparent huge pages {chosen('/sys/kernel/mm/transparent_hugepage/enabled')} (defrag "
+            f"{chosen('/sys/kernel/mm/transparent_hugepage/defrag')}), NUMPY_MADVISE_HUGEPAGE "
+            f"{os.environ.get('NUMPY_MADVISE_HUGEPAGE', 'unset')}{free}")
