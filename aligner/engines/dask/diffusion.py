@@ -7,8 +7,9 @@ Every block keeps x and the residual r of its own pairs, plus a slot of r for ev
    before, summed per pair in the order of the senders, so two runs add in the same order);
 2. push locally with the single-machine kernels of :mod:`aligner.kernels.push` on the block's own
    arrays, ghost rows being empty and ghost thresholds infinite, so mass sent to a ghost pair stays
-   in its slot: ``block`` push runs the work queue until every own entry is below its threshold
-   (block-structured PageRank: converge inside a block, then exchange); ``sweep`` does one pass in
+   in its slot: ``block`` push works until every own entry is below its threshold, as the
+   single-machine solver does (passes in index order while many entries are active, then the
+   work queue; block-structured PageRank: converge inside a block, then exchange); ``sweep`` does one pass in
    index order (one Jacobi step between blocks, Gauss-Seidel inside one: distributed power
    iteration that skips the entries below threshold);
 3. hand the ghost slots to their owners (one message per pair of blocks that share a cut edge) and
@@ -47,7 +48,7 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
-from aligner.core.diffusion import default_work_cap
+from aligner.core.diffusion import QUEUE_FRACTION, default_work_cap
 from aligner.errors import ConvergenceError
 from aligner.kernels.push import _push, _push_pass, _residual
 
@@ -105,6 +106,26 @@ def _send(block, r: np.ndarray) -> tuple[dict, float]:
     return sent, flight
 
 
+def _block_push(block, x: np.ndarray, r: np.ndarray, thresh: np.ndarray, alpha: float) -> tuple[int, int]:
+    """Push the block's own entries until each is below its threshold, as the single-machine
+    solver does (:func:`aligner.core.diffusion._solve_push`): passes in index order while a pass
+    pushes at least ``QUEUE_FRACTION`` of the own entries (streaming through the block's rows),
+    then the work queue for the few still active. Returns (pushes, edge touches)."""
+    m = block.m_own
+    cap = np.int64(2**62)
+    pushes = touches = 0
+    if m and np.count_nonzero(np.abs(r[:m]) > thresh[:m]) >= QUEUE_FRACTION * m:
+        order = np.arange(m, dtype=np.int64)
+        done = m
+        while done >= QUEUE_FRACTION * m and done > 0:
+            done, t = _push_pass(block.indptr, block.indices, block.weights, block.scale, alpha, x, r, thresh,
+                                 order, cap)
+            pushes += int(done)
+            touches += int(t)
+    done, t, _ = _push(block.indptr, block.indices, block.weights, block.scale, alpha, x, r, thresh, cap)
+    return pushes + int(done), touches + int(t)
+
+
 def step(block, state: State, mode: str, alpha: float, tol: float, total_deg: float, power: bool,
          inbox: list) -> State:
     """One round of one block (see the module docstring); ``inbox`` in the order of the senders."""
@@ -112,8 +133,7 @@ def step(block, state: State, mode: str, alpha: float, tol: float, total_deg: fl
     _receive(block, r, inbox)
     thresh = _thresholds(block, tol, total_deg, power)
     if mode == "block":
-        pushes, touches, _ = _push(block.indptr, block.indices, block.weights, block.scale, alpha, x, r, thresh,
-                                   np.int64(2**62))
+        pushes, touches = _block_push(block, x, r, thresh, alpha)
     else:
         pushes, touches = _push_pass(block.indptr, block.indices, block.weights, block.scale, alpha, x, r, thresh,
                                      np.arange(block.m_own, dtype=np.int64), np.int64(2**62))
