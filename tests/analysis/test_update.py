@@ -181,6 +181,20 @@ def test_no_state_leaves_the_state_out(base, tmp_path):
     assert got.exit_code == 2 and "state.npz is missing" in got.output
 
 
+def _diff_against_edited_file(d, b, gone, new, tmp_path):
+    """update with the edges ``gone`` removed from B and ``new`` added, checked against align on
+    the edited file: the same alignment, and B built from the state's edges and the diff alone
+    equal to B read from the edited file. Returns the update's result."""
+    _write(tmp_path, "gone.tsv", gone)
+    _write(tmp_path, "new.tsv", new)
+    edited = pd.concat([b.drop(index=gone.index), new.set_axis(b.columns, axis=1)], ignore_index=True)
+    upd = update(d / "run", add_b=tmp_path / "new.tsv", remove_b=tmp_path / "gone.tsv")
+    ref = aligner.align(d / "a.tsv", _write(tmp_path, "b_edited.tsv", edited), d / "p.tsv")
+    _agree(upd, ref)
+    _same_network(upd.network_b, ref.network_b)
+    return upd
+
+
 def test_edge_diffs_give_what_the_edited_network_gives(base, tmp_path):
     # Reference: aligner.align on the whole edited network file (the previous file with the diff
     # applied by hand).
@@ -189,13 +203,7 @@ def test_edge_diffs_give_what_the_edited_network_gives(base, tmp_path):
     gone = b.iloc[rng.choice(len(b), 12, replace=False)]
     nodes = b.iloc[:, 0].unique()
     new = pd.DataFrame({"node_a": rng.choice(nodes, 12), "node_b": [f"extra{i}" for i in range(12)]})
-    _write(tmp_path, "gone.tsv", gone)
-    _write(tmp_path, "new.tsv", new)
-    edited = pd.concat([b.drop(index=gone.index), new.set_axis(b.columns, axis=1)], ignore_index=True)
-    upd = update(d / "run", add_b=tmp_path / "new.tsv", remove_b=tmp_path / "gone.tsv")
-    ref = aligner.align(d / "a.tsv", _write(tmp_path, "b_edited.tsv", edited), d / "p.tsv")
-    _agree(upd, ref)
-    _same_network(upd.network_b, ref.network_b)  # built from the state's edges and the diff only
+    upd = _diff_against_edited_file(d, b, gone, new, tmp_path)
     c = upd.summary["update"]["changes"]
     assert c["edges_b_removed"] == 12 and c["edges_b_added"] == 12 and c["nodes_b_added"] == 12
     # a diff that does not fit: an edge to remove that B does not have; exit 2, nothing written
@@ -223,13 +231,7 @@ def test_edge_diffs_between_known_nodes_give_what_the_edited_network_gives(base,
         if tuple(sorted((u, v))) not in have and (u, v) not in new and (v, u) not in new:
             new.append((u, v))
     new = pd.DataFrame(new, columns=["node_a", "node_b"])
-    _write(tmp_path, "gone.tsv", gone)
-    _write(tmp_path, "new.tsv", new)
-    edited = pd.concat([b.drop(index=gone.index), new.set_axis(b.columns, axis=1)], ignore_index=True)
-    upd = update(d / "run", add_b=tmp_path / "new.tsv", remove_b=tmp_path / "gone.tsv")
-    ref = aligner.align(d / "a.tsv", _write(tmp_path, "b_edited.tsv", edited), d / "p.tsv")
-    _agree(upd, ref)
-    _same_network(upd.network_b, ref.network_b)
+    upd = _diff_against_edited_file(d, b, gone, new, tmp_path)
     c = upd.summary["update"]["changes"]
     assert c["edges_b_removed"] == 8 and c["edges_b_added"] == 8 and c["nodes_b_added"] == 0
 
