@@ -205,10 +205,14 @@ def _solve_push(graph: ProductGraph, scale, alpha: float, tol: float, x, r, b, m
     continues on them alone, renumbered 0..n-1 to keep the random accesses of a push in a small
     working set (the neighbours of a receiver are receivers). Passes over them go on while the
     previous pass pushed at least ``QUEUE_FRACTION`` of them; the queue kernel then finishes, so a
-    localized residual costs only what it touches. Each push of r_l lowers ||r||_1 by at least
-    (1 - alpha) |r_l| when residuals share a sign (they do without a warm start), which bounds
-    the work by O(log(1/tol) * |product edges| / (1 - alpha)). ``max_work`` caps the pushes of
-    the passes and the queue together. Returns (x, pushes, edge touches).
+    localized residual costs only what it touches. When few entries are active at the start (a
+    warm start: an update, a sweep), the active entries outside the receivers are pushed once in
+    index order and the queue runs on the receivers at once, without passes (the queue's order is
+    the one it would follow on the whole graph; on the smaller arrays its random accesses cost
+    less). Each push of r_l lowers ||r||_1 by at least (1 - alpha) |r_l| when residuals share a
+    sign (they do without a warm start), which bounds the work by O(log(1/tol) * |product edges| /
+    (1 - alpha)). ``max_work`` caps the pushes of the passes and the queue together. Returns (x,
+    pushes, edge touches).
     """
     m = graph.m
     deg = graph.degree.astype(np.float64) + 1.0
@@ -216,17 +220,24 @@ def _solve_push(graph: ProductGraph, scale, alpha: float, tol: float, x, r, b, m
     cap = check_int(default_work_cap("push", m, alpha, tol) if max_work is None else max_work, "max_work", low=0)
     wts = np.empty(0) if graph.weights is None else graph.weights
     if np.count_nonzero(np.abs(r) > thresh) < QUEUE_FRACTION * m:
-        pushes, touches, _ = _push(graph.indptr, graph.indices, wts, scale, alpha, x, r, thresh, cap)
-        return x, pushes, touches
-    steps, touches = _push_pass(graph.indptr, graph.indices, wts, scale, alpha, x, r, thresh,
-                                np.arange(m, dtype=np.int64), cap)
-    live = _receivers(graph)
+        live = _receivers(graph)
+        outside = np.ones(m, dtype=bool)
+        outside[live] = False
+        # active entries no push can reach: once each, in index order (with no out-neighbour
+        # either, as in an undirected graph, this only moves r to x)
+        steps, touches = _push_pass(graph.indptr, graph.indices, wts, scale, alpha, x, r, thresh,
+                                    np.flatnonzero(outside & (np.abs(r) > thresh)), cap)
+        pushes = 0  # no passes: the queue does the rest
+    else:
+        steps, touches = _push_pass(graph.indptr, graph.indices, wts, scale, alpha, x, r, thresh,
+                                    np.arange(m, dtype=np.int64), cap)
+        live = _receivers(graph)
+        pushes = len(live)
     new_id = np.full(m, -1, dtype=np.int32)
     new_id[live] = np.arange(len(live), dtype=np.int32)
     indptr, indices, w = _sub_rows(graph.indptr, graph.indices, wts, live, new_id)
     xs, rs, ts, ss = x[live], r[live], thresh[live], scale[live]
     order = np.arange(len(live), dtype=np.int64)
-    pushes = len(live)
     while steps < cap and pushes > 0 and pushes >= QUEUE_FRACTION * len(live):
         pushes, t = _push_pass(indptr, indices, w, ss, alpha, xs, rs, ts, order, cap - steps)
         steps += pushes
