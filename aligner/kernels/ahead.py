@@ -77,15 +77,17 @@ STAGE_KERNELS: dict[str, list[tuple[str, str, str]]] = {
 
 
 #: the kernels the helper process takes first: the two largest of the stages after diffusion
-#: (between them about a third of all compilation; the run compiles reading to diffusion meanwhile).
+#: (between them about a quarter of all compilation; the run compiles reading to diffusion meanwhile).
 #: It then takes the others from the last stage backwards, and the run, when it would wait,
 #: takes work from the back of the helper's list.
 HELPER_FIRST = ("refine._local_search", "assign._row_reduction_pass")
 
 #: kernels a run calls only on some inputs: the assignment's shortest-path phase runs only for
-#: rows its first phase leaves free (none in a default run on the demo pair; some in its
-#: permutation null and in most larger runs). The helper takes them right after
-#: :data:`HELPER_FIRST`; the run never compiles them ahead itself (only when it calls one).
+#: rows its first phase leaves free (none in default runs on the demo pair and on generated pairs
+#: of 2*10^4 and 10^5 nodes; some in the demo's permutation null). The helper takes them right
+#: after :data:`HELPER_FIRST` (taking them last, or when the run reaches the stage that needs
+#: them, measured no better on the demo); the run never compiles them ahead itself (only when it
+#: calls one).
 ON_DEMAND = ("assign._insert_rows",)
 
 

@@ -4,9 +4,11 @@ Two entry points solve the same problem, "pick at most one entry per row and
 per column so that the total weight is as large as possible; never pick an
 entry whose weight is not positive":
 
-* :func:`sparse_max_weight_matching` -- a numba-compiled shortest augmenting
-  path solver working directly on a CSR matrix, for large sparse candidate
-  sets.
+* :func:`sparse_max_weight_matching` -- a shortest augmenting path solver
+  working directly on a CSR matrix, for large sparse candidate sets: a short
+  Python driver calling three compiled phases (packing, row reduction,
+  shortest paths), each compiled on its own so that none is compiled again
+  inside another.
 * :func:`max_weight_matching_dense` -- a thin pure-Python wrapper around the
   dense Jonker-Volgenant solver of the ``lapjv`` package, for small dense
   problems and as an independent cross-check.
