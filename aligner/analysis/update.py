@@ -305,6 +305,12 @@ def _edge_changes(old_edges, new_edges, to_new, n_new, directed: bool) -> tuple[
     return int(len(new_keys) - common), int(len(old_edges) - common)
 
 
+def _keeps_order(mapping: np.ndarray) -> bool:
+    """Whether a renumbering (:func:`_renumber`) keeps the order of the nodes it keeps."""
+    kept = mapping[mapping >= 0]
+    return len(kept) < 2 or bool(np.all(kept[1:] > kept[:-1]))
+
+
 def _carry(state, problem) -> tuple[np.ndarray, dict, tuple]:
     """The previous scores on the new candidate pairs (0 on new pairs), what changed, and the old
     nodes' new indices (of A, of B; -1 when gone)."""
@@ -317,6 +323,16 @@ def _carry(state, problem) -> tuple[np.ndarray, dict, tuple]:
         x0 = state.x.astype(np.float64)
         kept = np.ones(cand.m, dtype=bool)
         same_prior = np.abs(cand.prior - state.prior) <= 1e-6 * np.abs(state.prior)
+    elif _keeps_order(to_a) and _keeps_order(to_b):
+        # renumbered in name order (how the readers number nodes): one merge pass over both lists
+        from aligner.kernels.tables import carry_rows
+
+        x0 = np.zeros(cand.m)
+        kept = np.zeros(cand.m, dtype=bool)
+        same_prior = np.zeros(cand.m, dtype=bool)
+        carry_rows(np.ascontiguousarray(old[:, 0]), np.ascontiguousarray(old[:, 1]), to_a, to_b,
+                   np.ascontiguousarray(cand.pairs[:, 0]), np.ascontiguousarray(cand.pairs[:, 1]),
+                   state.x, state.prior, cand.prior, x0, kept, same_prior)
     else:
         ra, rb = to_a[old[:, 0]], to_b[old[:, 1]]
         alive = (ra >= 0) & (rb >= 0)

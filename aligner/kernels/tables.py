@@ -133,3 +133,31 @@ def fill_symmetric(a, b, n, w, weighted):
         fill[u] += 1
         fill[v] += 1
     return indptr, indices, ew
+
+
+@numba.njit(cache=True, nogil=True)
+def carry_rows(old_a, old_b, to_a, to_b, new_a, new_b, old_x, old_prior, new_prior, x0, kept, same_prior):
+    """Carry values from old rows to new rows by their renumbered keys, in one merge pass.
+
+    Old row i is (to_a[old_a[i]], to_b[old_b[i]]) in the new numbering (a -1 drops it). Both
+    row lists must be sorted by (first, second) key with distinct keys, and the renumbering must
+    keep the order of the nodes it keeps (the caller checks). For every new row j that an old
+    row i lands on: x0[j] = old_x[i], kept[j] = True, and same_prior[j] = |new_prior[j] -
+    old_prior[i]| <= 1e-6 |old_prior[i]|. The outputs are filled by the caller beforehand.
+    """
+    m = new_a.shape[0]
+    j = 0
+    for i in range(old_a.shape[0]):
+        ra = to_a[old_a[i]]
+        rb = to_b[old_b[i]]
+        if ra < 0 or rb < 0:
+            continue
+        while j < m and (new_a[j] < ra or (new_a[j] == ra and new_b[j] < rb)):
+            j += 1
+        if j == m:
+            break
+        if new_a[j] == ra and new_b[j] == rb:
+            x0[j] = old_x[i]
+            kept[j] = True
+            was = old_prior[i]
+            same_prior[j] = abs(new_prior[j] - was) <= 1e-6 * abs(was)
