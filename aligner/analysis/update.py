@@ -135,8 +135,9 @@ def _with_diff(state, side: str, add, remove, cfg: AlignConfig):
                               directed=cfg.directed)
 
 
-def _is_sorted(a: np.ndarray) -> bool:
-    return len(a) < 2 or bool(np.all(a[1:] >= a[:-1]))
+def _is_sorted(a: np.ndarray, strict: bool = False) -> bool:
+    """Whether ``a`` is in increasing order (``strict``: and without repeats)."""
+    return len(a) < 2 or bool(np.all(a[1:] > a[:-1]) if strict else np.all(a[1:] >= a[:-1]))
 
 
 def _joined_names(names: np.ndarray, more: list) -> tuple[np.ndarray, np.ndarray]:
@@ -144,7 +145,7 @@ def _joined_names(names: np.ndarray, more: list) -> tuple[np.ndarray, np.ndarray
     ``names`` in it. ``names`` (a network's names) are sorted and distinct, as the readers number
     nodes; the diffs' few names are placed by binary search instead of sorting every name again."""
     extra = np.unique(np.concatenate(more)) if more else np.empty(0, dtype=names.dtype)
-    if not (len(names) < 2 or bool(np.all(names[1:] > names[:-1]))):
+    if not _is_sorted(names, strict=True):
         every = np.unique(np.concatenate([names, extra]))
         return every, np.searchsorted(every, names)
     pos = np.searchsorted(names, extra)
@@ -277,7 +278,7 @@ def _renumber(names_old, names_new) -> np.ndarray:
     new = np.asarray(names_new).astype(str)
     if len(old) == len(new) and np.array_equal(old, new):
         return np.arange(len(old), dtype=np.int64)
-    if len(new) < 2 or bool(np.all(new[1:] > new[:-1])):
+    if _is_sorted(new, strict=True):
         pos = np.minimum(np.searchsorted(new, old), max(len(new) - 1, 0))
         hit = new[pos] == old if len(new) else np.zeros(len(old), dtype=bool)
         return np.where(hit, pos, -1).astype(np.int64)
@@ -287,7 +288,7 @@ def _renumber(names_old, names_new) -> np.ndarray:
 def _sorted(keys: np.ndarray) -> np.ndarray:
     """``keys`` in increasing order (sorted only when they are not already: lists the run state
     and the readers keep in order, renumbered by an order-keeping map, come sorted)."""
-    return keys if len(keys) < 2 or bool(np.all(keys[1:] >= keys[:-1])) else np.sort(keys)
+    return keys if _is_sorted(keys) else np.sort(keys)
 
 
 def _edge_changes(old_edges, new_edges, to_new, n_new, directed: bool) -> tuple[int, int]:
@@ -307,8 +308,7 @@ def _edge_changes(old_edges, new_edges, to_new, n_new, directed: bool) -> tuple[
 
 def _keeps_order(mapping: np.ndarray) -> bool:
     """Whether a renumbering (:func:`_renumber`) keeps the order of the nodes it keeps."""
-    kept = mapping[mapping >= 0]
-    return len(kept) < 2 or bool(np.all(kept[1:] > kept[:-1]))
+    return _is_sorted(mapping[mapping >= 0], strict=True)
 
 
 def _carry(state, problem) -> tuple[np.ndarray, dict, tuple]:
