@@ -266,10 +266,6 @@ def _check_options(state, config: AlignConfig | None, options: dict) -> AlignCon
     return previous
 
 
-def _keys(pairs: np.ndarray, n2: int) -> np.ndarray:
-    return pairs[:, 0].astype(np.int64) * max(n2, 1) + pairs[:, 1]
-
-
 def _renumber(names_old, names_new) -> np.ndarray:
     """For each old node, its index among the new names (-1 when gone). The readers number nodes
     in their names' order, so the sorted case is a binary search (and an unchanged node set the
@@ -311,6 +307,25 @@ def _keeps_order(mapping: np.ndarray) -> bool:
     return _is_sorted(mapping[mapping >= 0], strict=True)
 
 
+def _carried(old: np.ndarray, to_a: np.ndarray, to_b: np.ndarray, cand, old_x, old_prior):
+    """The old candidates' scores on the new candidates (x0, 0 on new pairs), which new pairs were
+    old ones (kept), and which of those kept their prior within 1e-6 (same_prior): one compiled
+    merge pass (:func:`aligner.kernels.tables.carry_rows`) over the old pairs in the new order,
+    which they keep when the renumbering keeps the node order (as the readers number nodes)."""
+    from aligner.kernels.tables import carry_rows
+
+    if not (_keeps_order(to_a) and _keeps_order(to_b)):
+        order = np.lexsort((to_b[old[:, 1]], to_a[old[:, 0]]))  # gone nodes (-1) first: skipped
+        old, old_x, old_prior = old[order], old_x[order], old_prior[order]
+    x0 = np.zeros(cand.m)
+    kept = np.zeros(cand.m, dtype=bool)
+    same_prior = np.zeros(cand.m, dtype=bool)
+    carry_rows(np.ascontiguousarray(old[:, 0]), np.ascontiguousarray(old[:, 1]), to_a, to_b,
+               np.ascontiguousarray(cand.pairs[:, 0]), np.ascontiguousarray(cand.pairs[:, 1]),
+               old_x, old_prior, cand.prior, x0, kept, same_prior)
+    return x0, kept, same_prior
+
+
 def _carry(state, problem) -> tuple[np.ndarray, dict, tuple]:
     """The previous scores on the new candidate pairs (0 on new pairs), what changed, and the old
     nodes' new indices (of A, of B; -1 when gone)."""
@@ -323,33 +338,8 @@ def _carry(state, problem) -> tuple[np.ndarray, dict, tuple]:
         x0 = state.x.astype(np.float64)
         kept = np.ones(cand.m, dtype=bool)
         same_prior = np.abs(cand.prior - state.prior) <= 1e-6 * np.abs(state.prior)
-    elif _keeps_order(to_a) and _keeps_order(to_b):
-        # renumbered in name order (how the readers number nodes): one merge pass over both lists
-        from aligner.kernels.tables import carry_rows
-
-        x0 = np.zeros(cand.m)
-        kept = np.zeros(cand.m, dtype=bool)
-        same_prior = np.zeros(cand.m, dtype=bool)
-        carry_rows(np.ascontiguousarray(old[:, 0]), np.ascontiguousarray(old[:, 1]), to_a, to_b,
-                   np.ascontiguousarray(cand.pairs[:, 0]), np.ascontiguousarray(cand.pairs[:, 1]),
-                   state.x, state.prior, cand.prior, x0, kept, same_prior)
     else:
-        ra, rb = to_a[old[:, 0]], to_b[old[:, 1]]
-        alive = (ra >= 0) & (rb >= 0)
-        new_keys = _keys(cand.pairs, cand.n2)
-        old_keys = ra[alive] * max(cand.n2, 1) + rb[alive]
-        pos = np.searchsorted(new_keys, old_keys)
-        pos_ok = pos < len(new_keys)
-        found = np.zeros(len(old_keys), dtype=bool)
-        found[pos_ok] = new_keys[pos[pos_ok]] == old_keys[pos_ok]
-        x0 = np.zeros(cand.m)
-        at = pos[found]
-        x0[at] = state.x[alive][found]
-        same_prior = np.zeros(cand.m, dtype=bool)
-        was = state.prior[alive][found]
-        same_prior[at] = np.abs(cand.prior[at] - was) <= 1e-6 * np.abs(was)  # rescored: moved by more than 1e-6
-        kept = np.zeros(cand.m, dtype=bool)
-        kept[at] = True
+        x0, kept, same_prior = _carried(old, to_a, to_b, cand, state.x, state.prior)
     directed = problem.config.directed
     ea_add, ea_del = _edge_changes(state.edges_a, net_a.scored_edges(directed)[0], to_a, net_a.n, directed)
     eb_add, eb_del = _edge_changes(state.edges_b, net_b.scored_edges(directed)[0], to_b, net_b.n, directed)

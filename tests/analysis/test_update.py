@@ -341,3 +341,37 @@ def test_prior_diffs_give_what_the_edited_prior_gives(base, tmp_path):
     assert got.exit_code == 2 and "nowhere / b0" in got.output and not (tmp_path / "u").exists()
     with pytest.raises(InvalidParameterError, match="not both"):
         update(d / "run", prior=d / "p.tsv", add_prior=tmp_path / "add.tsv")
+
+
+@pytest.mark.parametrize("keep_order", [True, False])
+def test_scores_are_carried_by_node_whatever_the_new_numbering(keep_order):
+    # Reference: a dictionary from each old pair's renumbered nodes to its score (common
+    # practice). A renumbering that does not keep the node order (networks given in memory) takes
+    # the same path as one that does, the old pairs put in the new order first.
+    from aligner.analysis.update import _carried
+    from aligner.core.candidates import build_candidates
+
+    rng = np.random.default_rng(5 + keep_order)
+    n1, n2 = 30, 25
+    flat = rng.choice(n1 * n2, 200, replace=False)
+    old = build_candidates(np.stack([flat // n2, flat % n2], axis=1), rng.random(200) + 0.1, n1, n2, top_k=None)
+    to_a, to_b = np.arange(n1), np.arange(n2)
+    if not keep_order:
+        to_a, to_b = rng.permutation(n1), rng.permutation(n2)
+    to_a[rng.random(n1) < 0.1] = -1  # some nodes leave
+    moved = {(int(to_a[a]), int(to_b[b])): k for k, (a, b) in enumerate(old.pairs) if to_a[a] >= 0 <= to_b[b]}
+    keys = np.array(sorted(moved))[rng.random(len(moved)) < 0.8]  # most old pairs stay
+    flat_new = np.unique(np.concatenate([keys[:, 0] * n2 + keys[:, 1], rng.choice(n1 * n2, 40)]))
+    prior = rng.random(len(flat_new)) + 0.1
+    new = build_candidates(np.stack([flat_new // n2, flat_new % n2], axis=1), prior, n1, n2, top_k=None)
+    for k, (a, b) in enumerate(new.pairs):  # some stay with their old prior
+        if (a, b) in moved and rng.random() < 0.5:
+            new.prior[k] = old.prior[moved[int(a), int(b)]]
+    old_x = rng.random(old.m).astype(np.float32)
+    x0, kept, same = _carried(old.pairs, to_a, to_b, new, old_x, old.prior)
+    for k, (a, b) in enumerate(new.pairs):
+        i = moved.get((int(a), int(b)))
+        assert kept[k] == (i is not None)
+        assert x0[k] == (0.0 if i is None else old_x[i])
+        assert same[k] == (i is not None and abs(new.prior[k] - old.prior[i]) <= 1e-6 * old.prior[i])
+    assert kept.sum() > 100 and same.sum() > 30
