@@ -23,6 +23,7 @@ from dataclasses import dataclass
 import numpy as np
 import numpy.typing as npt
 
+from aligner.core.arrays import positions, unique
 from aligner.core.candidates import CandidateSet
 from aligner.core.diffusion import column_scale
 from aligner.core.product import ProductGraph, build_product
@@ -129,11 +130,11 @@ def block_inputs(net_a, net_b, cand: CandidateSet, h: np.ndarray, bounds: np.nda
         p0, p1 = int(pair_bounds[b]), int(pair_bounds[b + 1])
         e0, e1 = int(a_ip[i0]), int(a_ip[i1])
         nbrs = a_ix[e0:e1].astype(np.int64)
-        ghosts = np.unique(nbrs[(nbrs < i0) | (nbrs >= i1)])
+        ghosts = unique(nbrs[(nbrs < i0) | (nbrs >= i1)])
         below = int(np.searchsorted(ghosts, i0))
         local = np.concatenate([ghosts[:below], np.arange(i0, i1, dtype=np.int64), ghosts[below:]])
         c_ptr, c_pos = _gather_rows(cand.a_indptr, local)
-        partners = np.unique(cand.pairs[p0:p1, 1]).astype(np.int64)
+        partners = unique(cand.pairs[p0:p1, 1]).astype(np.int64)
         bp, b_pos = _gather_rows(b_ip, partners)
         out.append(BlockInput(
             index=b, pair_bounds=pair_bounds, local_nodes=local, own_from=below, n_own=i1 - i0,
@@ -192,19 +193,19 @@ class Block:
 
 
 def _local_b(inp: BlockInput):
-    """Nodes of B renumbered inside the block: the partners of every local candidate, ascending;
-    the partners' rows of B keep only those nodes (no other node of B can meet a candidate)."""
-    b_set = np.unique(inp.c_b)
-    pos = np.searchsorted(b_set, inp.b_indices)
-    keep = pos < len(b_set)
-    keep[keep] = b_set[pos[keep]] == inp.b_indices[keep]
+    """Nodes of B renumbered inside the block: the partners of every local candidate, ascending
+    (with the local id of every candidate's partner); the partners' rows of B keep only those
+    nodes (no other node of B can meet a candidate)."""
+    b_set, c_local = unique(inp.c_b, return_inverse=True)
+    pos = positions(b_set, inp.b_indices, missing=-1)
+    keep = pos >= 0
     rows = np.repeat(np.arange(len(inp.b_nodes)), np.diff(inp.b_indptr))[keep]
     counts = np.zeros(len(b_set), dtype=np.int64)
-    counts[np.searchsorted(b_set, inp.b_nodes)] = np.bincount(rows, minlength=len(inp.b_nodes))
+    counts[positions(b_set, inp.b_nodes)] = np.bincount(rows, minlength=len(inp.b_nodes))
     indptr = np.zeros(len(b_set) + 1, dtype=np.int64)
     np.cumsum(counts, out=indptr[1:])
     weights = inp.b_weights[keep] if inp.weighted else None
-    return b_set, indptr, pos[keep].astype(np.int32), weights
+    return b_set, c_local, indptr, pos[keep].astype(np.int32), weights
 
 
 def build_block(inp: BlockInput) -> Block:
@@ -215,10 +216,10 @@ def build_block(inp: BlockInput) -> Block:
     counts[inp.own_from:inp.own_from + inp.n_own] = np.diff(inp.a_indptr)
     a_ptr = np.zeros(n_local + 1, dtype=np.int64)
     np.cumsum(counts, out=a_ptr[1:])
-    a_idx = np.searchsorted(inp.local_nodes, inp.a_indices).astype(np.int32)
-    b_set, b_ptr, b_idx, b_w = _local_b(inp)
+    a_idx = positions(inp.local_nodes, inp.a_indices).astype(np.int32)
+    b_set, c_local, b_ptr, b_idx, b_w = _local_b(inp)
     c_node = np.repeat(np.arange(n_local, dtype=np.int32), np.diff(inp.c_indptr))
-    pairs = np.stack([c_node, np.searchsorted(b_set, inp.c_b).astype(np.int32)], axis=1)
+    pairs = np.stack([c_node, c_local.astype(np.int32)], axis=1)
     local = CandidateSet(pairs=pairs, prior=np.zeros(len(pairs)), a_indptr=inp.c_indptr, n1=n_local, n2=len(b_set))
     pg = build_product(a_ptr, a_idx, b_ptr, b_idx, local, a_weights=inp.a_weights if inp.weighted else None,
                        b_weights=b_w, directed=inp.directed, agreement=inp.agreement)
@@ -230,10 +231,10 @@ def build_block(inp: BlockInput) -> Block:
     lo, hi = pg.indptr[q0], pg.indptr[q1]
     built = pg.indices[lo:hi]
     outside = (built < q0) | (built >= q1)
-    ghost_q = np.unique(built[outside])
+    ghost_q, ghost_at = unique(built[outside], return_inverse=True)
     renum = np.empty(len(built), dtype=np.int32)
     renum[~outside] = built[~outside] - q0
-    renum[outside] = m_own + np.searchsorted(ghost_q, built[outside])
+    renum[outside] = m_own + ghost_at
     ghost_glob = inp.c_pair[ghost_q]
     owner = (np.searchsorted(inp.pair_bounds, ghost_glob, side="right") - 1).astype(np.int32)
     slot = (ghost_glob - inp.pair_bounds[owner]).astype(np.int32)
