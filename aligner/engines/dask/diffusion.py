@@ -79,6 +79,7 @@ class State:
     in_flight: float = 0.0
     pushes: int = 0
     touches: int = 0
+    thresh: np.ndarray | None = None  # push thresholds (own entries; infinite on ghosts), set by the first round
 
 
 def start(block, alpha: float) -> State:
@@ -94,15 +95,25 @@ def _thresholds(block, tol: float, total_deg: float, power: bool) -> np.ndarray:
 
 
 def _send(block, r: np.ndarray) -> tuple[dict, float]:
-    """The ghost slots as messages to their owners (non-zero entries only); zeroes the slots."""
-    sent, flight = {}, 0.0
-    for owner, lo, hi in block.links:
-        vals = r[lo:hi]
-        nz = np.flatnonzero(vals)
-        if len(nz):
-            sent[owner] = (block.ghost_slot[lo - block.m_own + nz], vals[nz].copy())
-            flight += float(np.abs(vals[nz]).sum())
-    r[block.m_own:] = 0.0
+    """The ghost slots as messages to their owners (non-zero entries only); zeroes the slots.
+
+    The non-zero slots are found in one pass over all ghosts and split by owner (each owner's
+    ghosts are one contiguous range, :attr:`Block.links`)."""
+    sent = {}
+    ghosts = r[block.m_own:]
+    nz = np.flatnonzero(ghosts)
+    if not len(nz):
+        return sent, 0.0
+    vals = ghosts[nz]
+    flight = float(np.abs(vals).sum())
+    slots = block.ghost_slot[nz]
+    starts = np.array([lo for _, lo, _ in block.links], dtype=np.int64) - block.m_own
+    cut = np.searchsorted(nz, starts)
+    ends = np.append(cut[1:], len(nz))
+    for (owner, _, _), a, b in zip(block.links, cut, ends):
+        if b > a:
+            sent[owner] = (slots[a:b], vals[a:b])
+    ghosts[:] = 0.0
     return sent, flight
 
 
@@ -129,16 +140,16 @@ def _block_push(block, x: np.ndarray, r: np.ndarray, thresh: np.ndarray, alpha: 
 def step(block, state: State, mode: str, alpha: float, tol: float, total_deg: float, power: bool,
          inbox: list) -> State:
     """One round of one block (see the module docstring); ``inbox`` in the order of the senders."""
-    x, r = state.x.copy(), state.r.copy()
+    x, r = state.x, state.r  # updated in place: only the next round reads a round's state
     _receive(block, r, inbox)
-    thresh = _thresholds(block, tol, total_deg, power)
+    thresh = _thresholds(block, tol, total_deg, power) if state.thresh is None else state.thresh
     if mode == "block":
         pushes, touches = _block_push(block, x, r, thresh, alpha)
     else:
         pushes, touches = _push_pass(block.indptr, block.indices, block.weights, block.scale, alpha, x, r, thresh,
                                      np.arange(block.m_own, dtype=np.int64), np.int64(2**62))
     sent, flight = _send(block, r)
-    return State(x, r, sent, float(np.abs(r[: block.m_own]).sum()), flight, int(pushes), int(touches))
+    return State(x, r, sent, float(np.abs(r[: block.m_own]).sum()), flight, int(pushes), int(touches), thresh)
 
 
 def outbox(state: State, owner: int):
