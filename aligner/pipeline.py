@@ -29,6 +29,7 @@ import pandas as pd
 from aligner import __version__
 from aligner.checks import warn
 from aligner.config import AlignConfig, describe, from_options, with_options
+from aligner.core.arrays import unique
 from aligner.core.candidates import CandidateSet, build_candidates
 from aligner.core.ambiguity import Ambiguity, find_ambiguity
 from aligner.core.confidence import matching_confidence
@@ -597,7 +598,7 @@ def _nc_up_to_ambiguity(inputs: Inputs, matched: np.ndarray, ambiguity: Ambiguit
         return None
     n2 = inputs.network_b.n
     owner = np.repeat(np.arange(len(matched)), np.diff(ambiguity.alt_ptr))
-    ok = np.unique(np.concatenate([matched[:, 0] * n2 + matched[:, 1], matched[owner, 0] * n2 + ambiguity.alt_nodes]))
+    ok = unique(np.concatenate([matched[:, 0] * n2 + matched[:, 1], matched[owner, 0] * n2 + ambiguity.alt_nodes]))
     key = truth[:, 0] * n2 + truth[:, 1]
     pos = np.minimum(np.searchsorted(ok, key), max(len(ok) - 1, 0))
     hit = ok[pos] == key if len(ok) else np.zeros(len(key), dtype=bool)

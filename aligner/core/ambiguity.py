@@ -39,6 +39,7 @@ import numpy.typing as npt
 import scipy.sparse as sp
 from scipy.sparse.csgraph import connected_components
 
+from aligner.core.arrays import unique
 from aligner.core.candidates import CandidateSet
 from aligner.core.product import ProductGraph
 from aligner.core.refine import _matched_counts
@@ -223,7 +224,7 @@ def find_ambiguity(prod: ProductGraph, cand: CandidateSet, index: npt.ArrayLike,
     own_b[matched_a] = pb[index]
     keep = ab != own_b[ai]
     ai, ab = ai[keep], ab[keep]
-    uniq = np.unique(ai * n2 + ab)
+    uniq = unique(ai * n2 + ab)
     ai, ab = uniq // max(n2, 1), uniq % max(n2, 1)
     # per matched pair, in the matching's order, its node's alternatives (by node index, the
     # first MAX_ALTERNATIVES): a CSR over the pairs

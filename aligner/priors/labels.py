@@ -76,6 +76,7 @@ import scipy.sparse as sp
 import aligner.kernels.labels as _k
 from aligner.checks import bad_parameter, check_int, check_real
 from aligner.config import LabelConfig
+from aligner.core.arrays import unique
 from aligner.errors import InputFormatError, InvalidParameterError
 from aligner.io.inputs import as_table
 from aligner.io.readers import Columns, check_readable, open_text
@@ -425,7 +426,7 @@ def _similar_pairs(xa: sp.csr_array, xb: sp.csr_array, top_k: int, min_similarit
     ra, ca = _top_k(xa, xb, top_k, min_similarity, block_rows)
     rb, cb = _top_k(xb, xa, top_k, min_similarity, block_rows)
     nb = xb.shape[0]
-    key = np.unique(np.concatenate([ra * nb + ca, cb * nb + rb]))  # sorted by (a, b): by identifier
+    key = unique(np.concatenate([ra * nb + ca, cb * nb + rb]))  # sorted by (a, b): by identifier
     ia, ib = key // nb, key % nb
     # one score per pair however it was found: the dot product in the order of the n-grams
     score = np.empty(len(key))

@@ -52,6 +52,7 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
+from aligner.core.arrays import unique
 from aligner.core.candidates import CandidateSet
 from aligner.core.rounding import round_matching
 
@@ -93,7 +94,7 @@ class AuctionState:
 
 def start(block, x_own: np.ndarray, obj_bounds: np.ndarray) -> AuctionState:
     n_own = len(block.own_ptr) - 1
-    known = np.unique(block.own_b)
+    known = unique(block.own_b)
     k = block.index
     size = int(obj_bounds[k + 1] - obj_bounds[k])
     w = np.where(x_own > 0, x_own, 0.0)
@@ -166,7 +167,7 @@ def step(block, st: AuctionState, eps: float, node_bounds: np.ndarray, obj_bound
     if out_replies is not None:
         to = _owner(node_bounds, out_replies[0])
         order = np.argsort(to, kind="stable")
-        for b in np.unique(to):
+        for b in unique(to):
             sel = order[to[order] == b]
             bids_b = sent.get(int(b), (_NO_BIDS, None))[0]
             sent[int(b)] = (bids_b, tuple(a[sel] for a in out_replies))
@@ -204,7 +205,7 @@ def _bid(block, st, belief, assigned, pending, done, eps, obj_bounds):
     persons = block.node_lo + bidders
     to = _owner(obj_bounds, target)
     sent = {}
-    for b in np.unique(to):
+    for b in unique(to):
         sel = to == b
         sent[int(b)] = ((target[sel], persons[sel], amount[sel]), None)
     return sent, len(bidders)
