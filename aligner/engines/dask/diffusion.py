@@ -50,6 +50,7 @@ import numpy as np
 
 from aligner.core.diffusion import QUEUE_FRACTION, default_work_cap
 from aligner.errors import ConvergenceError
+from aligner.kernels.exchange import add_messages, take_ghosts
 from aligner.kernels.push import _push, _push_pass, _residual
 
 __all__ = ["MODES", "State", "choose_mode", "start", "step", "outbox", "residual_part", "residual_finish",
@@ -97,24 +98,19 @@ def _thresholds(block, tol: float, total_deg: float, power: bool) -> np.ndarray:
 def _send(block, r: np.ndarray) -> tuple[dict, float]:
     """The ghost slots as messages to their owners (non-zero entries only); zeroes the slots.
 
-    The non-zero slots are found in one pass over all ghosts and split by owner (each owner's
-    ghosts are one contiguous range, :attr:`Block.links`)."""
+    The non-zero slots are taken in one compiled pass over all ghosts and split by owner (each
+    owner's ghosts are one contiguous range, :attr:`Block.links`)."""
     sent = {}
-    ghosts = r[block.m_own:]
-    nz = np.flatnonzero(ghosts)
-    if not len(nz):
+    at, slots, mass = take_ghosts(r, block.m_own, block.ghost_slot)
+    if not len(at):
         return sent, 0.0
-    vals = ghosts[nz]
-    flight = float(np.abs(vals).sum())
-    slots = block.ghost_slot[nz]
     starts = np.array([lo for _, lo, _ in block.links], dtype=np.int64) - block.m_own
-    cut = np.searchsorted(nz, starts)
-    ends = np.append(cut[1:], len(nz))
+    cut = np.searchsorted(at, starts)
+    ends = np.append(cut[1:], len(at))
     for (owner, _, _), a, b in zip(block.links, cut, ends):
         if b > a:
-            sent[owner] = (slots[a:b], vals[a:b])
-    ghosts[:] = 0.0
-    return sent, flight
+            sent[owner] = (slots[a:b], mass[a:b])
+    return sent, float(np.abs(mass).sum())
 
 
 def _block_push(block, x: np.ndarray, r: np.ndarray, thresh: np.ndarray, alpha: float) -> tuple[int, int]:
@@ -186,7 +182,7 @@ def residual_finish(block, part: State, inbox: list) -> float:
 def _receive(block, r: np.ndarray, inbox) -> None:
     """Add the messages ``inbox`` (slots, mass) to ``r``, in the order given (that of the senders)."""
     for slots, mass in inbox:
-        np.add.at(r, slots, mass)
+        add_messages(r, slots, mass)
 
 
 def own_x(block, state: State) -> np.ndarray:
