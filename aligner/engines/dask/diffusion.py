@@ -81,6 +81,7 @@ class State:
     pushes: int = 0
     touches: int = 0
     thresh: np.ndarray | None = None  # push thresholds (own entries; infinite on ghosts), set by the first round
+    scratch: tuple | None = None      # (own ids in order, a buffer of m_own), kept from round to round
 
 
 def start(block, alpha: float) -> State:
@@ -139,13 +140,15 @@ def step(block, state: State, mode: str, alpha: float, tol: float, total_deg: fl
     x, r = state.x, state.r  # updated in place: only the next round reads a round's state
     _receive(block, r, inbox)
     thresh = _thresholds(block, tol, total_deg, power) if state.thresh is None else state.thresh
+    scratch = state.scratch or (np.arange(block.m_own, dtype=np.int64), np.empty(block.m_own))
     if mode == "block":
         pushes, touches = _block_push(block, x, r, thresh, alpha)
     else:
         pushes, touches = _push_pass(block.indptr, block.indices, block.weights, block.scale, alpha, x, r, thresh,
-                                     np.arange(block.m_own, dtype=np.int64), np.int64(2**62))
+                                     scratch[0], np.int64(2**62))
     sent, flight = _send(block, r)
-    return State(x, r, sent, float(np.abs(r[: block.m_own]).sum()), flight, int(pushes), int(touches), thresh)
+    own = float(np.abs(r[: block.m_own], out=scratch[1]).sum())
+    return State(x, r, sent, own, flight, int(pushes), int(touches), thresh, scratch)
 
 
 def outbox(state: State, owner: int):
