@@ -13,7 +13,7 @@ from aligner.kernels.product import PRODUCT, product_bound, product_rows, thread
 from aligner.core.candidates import CandidateSet
 from aligner.errors import InvalidParameterError
 
-__all__ = ["ProductGraph", "build_product", "estimate_product_edges"]
+__all__ = ["ProductGraph", "build_product", "estimate_product_edges", "product_row_lengths"]
 
 #: the work (about the table entries and look-ups) under which build_product runs on one thread
 PARALLEL_WORK = 2_000_000
@@ -186,7 +186,48 @@ def build_product(
     return ProductGraph(indptr=indptr, indices=indices, directed=directed, weights=weights)
 
 
-def _blocks(a_indptr: np.ndarray, cand: CandidateSet, deg_b: float) -> np.ndarray:
+def product_row_lengths(
+    a_indptr: npt.ArrayLike,
+    a_indices: npt.ArrayLike,
+    b_indptr: npt.ArrayLike,
+    b_indices: npt.ArrayLike,
+    cand: CandidateSet,
+) -> npt.NDArray[np.int64]:
+    """The number of stored entries of every candidate pair's row of the product graph, as
+    ``np.diff(build_product(...).indptr)`` gives it, without keeping the rows: the same kernel
+    builds ranges of nodes of A in turn (on parallel threads) and each range's rows are dropped
+    once counted, so the memory is O(m) plus one range's rows.
+
+    Examples
+    --------
+    >>> import numpy as np
+    >>> from aligner.core.network import adjacency
+    >>> from aligner.core.candidates import build_candidates
+    >>> ip, ix = adjacency(np.array([[0, 1], [1, 2]]), 3)
+    >>> c = build_candidates([[0, 0], [1, 1], [2, 2]], [1.0, 1.0, 1.0], 3, 3)
+    >>> product_row_lengths(ip, ix, ip, ix, c).tolist()
+    [1, 2, 1]
+    """
+    a_indptr, b_indptr = (np.ascontiguousarray(p, dtype=np.int64) for p in (a_indptr, b_indptr))
+    a_indices, b_indices = (np.ascontiguousarray(x, dtype=np.int32) for x in (a_indices, b_indices))
+    pair_b = np.ascontiguousarray(cand.pairs[:, 1])
+    none = np.empty(0, dtype=np.float64)
+    lengths = np.zeros(cand.m, dtype=np.int64)
+    work = _blocks(a_indptr, cand, len(b_indices) / max(cand.n2, 1), parts_per_thread=16)
+
+    def count(i0: int, i1: int) -> None:  # the rows of nodes i0 .. i1-1 of A, counted then dropped
+        product_rows(i0, i1, a_indptr, a_indices, b_indptr, b_indices, cand.a_indptr, pair_b, none, none, PRODUCT,
+                     lengths[cand.a_indptr[i0]: cand.a_indptr[i1]])
+
+    if len(work) > 2:
+        with ThreadPoolExecutor(thread_count()) as pool:  # the kernel releases the GIL
+            list(pool.map(count, work[:-1], work[1:]))
+    else:
+        count(work[0], work[-1])
+    return lengths
+
+
+def _blocks(a_indptr: np.ndarray, cand: CandidateSet, deg_b: float, parts_per_thread: int = 4) -> np.ndarray:
     """Bounds of ranges of nodes of A of about equal work (for the threads of build_product):
     node i costs about (its candidates) x (mean degree of B) + (its neighbours) x (mean
     candidates per node). A single range when the work is small or there is one thread."""
@@ -196,7 +237,7 @@ def _blocks(a_indptr: np.ndarray, cand: CandidateSet, deg_b: float) -> np.ndarra
     threads = thread_count()
     if threads < 2 or work[-1] < PARALLEL_WORK:
         return np.array([0, n1])
-    parts = 4 * threads  # a few ranges per thread, so that a busy core delays little
+    parts = parts_per_thread * threads  # a few ranges per thread, so that a busy core delays little
     cuts = np.searchsorted(work, work[-1] * np.arange(1, parts) / parts)
     return np.unique(np.concatenate([[0], cuts, [n1]]))
 

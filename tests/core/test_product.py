@@ -4,7 +4,7 @@ import pytest
 import scipy.sparse as sp
 
 from aligner.core.candidates import build_candidates
-from aligner.core.product import build_product, estimate_product_edges
+from aligner.core.product import build_product, estimate_product_edges, product_row_lengths
 from aligner.errors import InvalidParameterError
 from conftest import csr, random_edges
 
@@ -168,6 +168,10 @@ def test_equals_scipy_kron_restricted_to_the_candidates(directed, weighted, seed
             assert prod.weights is None
     # the memory estimate is an upper bound on the stored entries
     assert estimate_product_edges(adj_a[0], adj_a[1], adj_b[0], cand) >= want.nnz
+    # the row lengths counted without keeping the rows: those of the reference, split or not
+    np.testing.assert_array_equal(product_row_lengths(adj_a[0], adj_a[1], adj_b[0], adj_b[1], cand), np.diff(want.indptr))
+    monkeypatch.setattr(product_module, "PARALLEL_WORK", 10**18)
+    np.testing.assert_array_equal(product_row_lengths(adj_a[0], adj_a[1], adj_b[0], adj_b[1], cand), np.diff(want.indptr))
 
 
 def test_estimate_equals_its_formula():

@@ -53,12 +53,15 @@ def test_union_of_block_rows_is_the_single_machine_product_graph(instances, mode
     (a_ip, a_ix, _), (b_ip, b_ix, _) = net_a.walk_adjacency(), net_b.walk_adjacency()
     ref = build_product(a_ip, a_ix, b_ip, b_ix, cand)
     for k in KS:
-        bounds = blocks.partition(a_ip, a_ix, b_ip, cand, k)
+        bounds = blocks.partition(a_ip, a_ix, b_ip, b_ix, cand, k)
         assert bounds[0] == 0 and bounds[-1] == net_a.n and (np.diff(bounds) >= 0).all()
         built = [blocks.build_block(i) for i in blocks.block_inputs(
             net_a, net_b, cand, prior_vector(cand.prior), bounds, directed=False, weighted=False,
             normalization="restricted")]
         rows = [blocks.gather_rows(b) for b in built]
+        # the cut's work per node is what the built blocks measure
+        assert np.array_equal(blocks.node_costs(a_ip, a_ix, b_ip, b_ix, cand),
+                              np.concatenate([blocks.node_work(b) for b in built])), k
         indptr = np.concatenate([[0], np.cumsum(np.concatenate([r[0] for r in rows]))])
         assert np.array_equal(indptr, ref.indptr), k
         assert np.array_equal(np.concatenate([r[1] for r in rows]), ref.indices), k
@@ -86,7 +89,7 @@ def test_weighted_blocks_carry_the_entry_weights(model):
     (a_ip, a_ix, a_w), (b_ip, b_ix, b_w) = walk_weights(net_a, False, model), walk_weights(net_b, False, model)
     ref = build_product(a_ip, a_ix, b_ip, b_ix, cand, a_weights=a_w, b_weights=b_w,
                         agreement=AGREEMENT_FLOOR if model == "agreement" else None)
-    bounds = blocks.partition(a_ip, a_ix, b_ip, cand, 3)
+    bounds = blocks.partition(a_ip, a_ix, b_ip, b_ix, cand, 3)
     built = [blocks.build_block(i) for i in blocks.block_inputs(net_a, net_b, cand, prior_vector(cand.prior), bounds,
                                                                 directed=False, weighted=True,
                                                                 normalization="restricted", weight_model=model)]

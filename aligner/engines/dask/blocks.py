@@ -26,31 +26,27 @@ import numpy.typing as npt
 from aligner.core.arrays import positions, unique
 from aligner.core.candidates import CandidateSet
 from aligner.core.diffusion import column_scale
-from aligner.core.product import ProductGraph, build_product
+from aligner.core.product import ProductGraph, build_product, product_row_lengths
 from aligner.core.weights import AGREEMENT_FLOOR, walk_degree, walk_weights
 
-__all__ = ["BlockInput", "Block", "partition", "cut_by_cost", "block_inputs", "build_block", "node_work",
+__all__ = ["BlockInput", "Block", "node_costs", "partition", "cut_by_cost", "block_inputs", "build_block", "node_work",
            "gather_rows"]
 
 
-def _node_costs(a_indptr, a_indices, b_indptr, cand: CandidateSet) -> np.ndarray:
-    """Work of each node of A: its candidates plus the bound on its product entries that the
-    memory check uses (per pair (i, i'): min(sum over neighbours j of i of c_j, deg_A(i) deg_B(i')))."""
-    n1 = cand.n1
-    c = np.diff(cand.a_indptr)
-    deg_a = np.diff(a_indptr[: n1 + 1])
-    row = np.repeat(np.arange(n1), deg_a)
-    reach = np.bincount(row, weights=c[a_indices[: len(row)]], minlength=n1)
-    i, ip = cand.pairs[:, 0], cand.pairs[:, 1]
-    bound = np.minimum(reach[i], deg_a[i] * np.diff(b_indptr)[ip].astype(np.float64))
-    return c + np.bincount(i, weights=bound, minlength=n1)
+def node_costs(a_indptr, a_indices, b_indptr, b_indices, cand: CandidateSet) -> np.ndarray:
+    """Work of each node of A: its candidate pairs plus their stored product entries, counted
+    exactly (:func:`aligner.core.product.product_row_lengths`): what :func:`node_work` measures
+    on a built block."""
+    per_pair = product_row_lengths(a_indptr, a_indices, b_indptr, b_indices, cand) + 1
+    cs = np.concatenate([[0], np.cumsum(per_pair)])
+    return cs[cand.a_indptr[1:]] - cs[cand.a_indptr[:-1]]
 
 
-def partition(a_indptr, a_indices, b_indptr, cand: CandidateSet, parts: int) -> npt.NDArray[np.int64]:
+def partition(a_indptr, a_indices, b_indptr, b_indices, cand: CandidateSet, parts: int) -> npt.NDArray[np.int64]:
     """Bounds ``0 = n_0 <= n_1 <= ... <= n_parts = n1`` of ``parts`` contiguous ranges of nodes of A
-    of about equal work (candidates plus estimated product entries). A range may be empty when
-    there are more parts than nodes with work."""
-    return cut_by_cost(_node_costs(a_indptr, a_indices, b_indptr, cand), parts)
+    of about equal work (:func:`node_costs`). A range may be empty when there are more parts than
+    nodes with work."""
+    return cut_by_cost(node_costs(a_indptr, a_indices, b_indptr, b_indices, cand), parts)
 
 
 def cut_by_cost(cost: np.ndarray, parts: int) -> npt.NDArray[np.int64]:

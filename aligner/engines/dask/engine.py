@@ -380,13 +380,13 @@ def _run(client, inputs, found: Candidates, cfg: AlignConfig, parts: int, mode: 
     # seeds as on one machine: extra diffusion sources, fixed in the matching
     seed_idx, h = diffusion_source(cand, inputs.seeds, cfg)
     a_ip, a_ix, _ = inputs.network_a.walk_adjacency(cfg.directed, cfg.weighted)
-    b_ip, _, _ = inputs.network_b.walk_adjacency(cfg.directed, cfg.weighted)
+    b_ip, b_ix, _ = inputs.network_b.walk_adjacency(cfg.directed, cfg.weighted)
     estimate = estimate_product_edges(a_ip, a_ix, b_ip, cand)
     engine: dict[str, Any] = {"partitions": parts, "workers": len(client.scheduler_info()["workers"])}
     with clock.stage("product"):
         where[0] = "the product graph's build"
         t0 = time.perf_counter()
-        bounds = blocks.partition(a_ip, a_ix, b_ip, cand, parts)
+        bounds = blocks.partition(a_ip, a_ix, b_ip, b_ix, cand, parts)
         ins = blocks.block_inputs(inputs.network_a, inputs.network_b, cand, h, bounds, directed=cfg.directed,
                                   weighted=cfg.weighted, normalization=cfg.normalization,
                                   weight_model=cfg.weight_model)
