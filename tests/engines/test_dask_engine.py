@@ -156,7 +156,7 @@ def test_largest_block_within_one_and_a_half_times_the_mean(runs, mode):
 
 
 def test_cut_by_cost_bounds_every_range_by_the_mean_plus_the_costliest_node():
-    # the property the measured recut relies on, on heavy-tailed costs (Pareto, numpy's generator)
+    # the property the cut by exact work relies on, on heavy-tailed costs (Pareto, numpy's generator)
     rng = np.random.default_rng(4)
     for trial in range(20):
         cost = np.floor(rng.pareto(1.2, size=rng.integers(50, 3000)) * 10) + 1
@@ -166,23 +166,6 @@ def test_cut_by_cost_bounds_every_range_by_the_mean_plus_the_costliest_node():
             per = np.array([cost[bounds[b]:bounds[b + 1]].sum() for b in range(k)])
             assert per.sum() == cost.sum()
             assert per.max() <= cost.sum() / k + cost.max(), (trial, k)
-
-
-def test_the_recut_by_measured_work_keeps_the_product_graph_and_x(client, monkeypatch):
-    # force the recut (threshold 1.0) and compare with the estimate's cut: both give the same x
-    # and matching as one machine; the recut is at most 1.5 times the mean on this power-law pair
-    from aligner.engines.dask import engine
-    from aligner.pipeline import align
-
-    ea, eb, prior, _ = as_frames(noisy_relabelled(2000, seed=9))
-    single = align(ea, eb, prior, refine=False)
-    monkeypatch.setattr(engine, "REBALANCE_ABOVE", 1.0)
-    res = engine.align(ea, eb, prior, client=client, partitions=8, refine=False)
-    bal = res.summary["engine"]["balance"]
-    assert bal["recut"] and bal["largest_block_vs_mean"] <= 1.5
-    assert np.abs(res.diffusion.x - single.diffusion.x).sum() <= 2 * res.config.tol / (1 - res.config.alpha)
-    assert res.problem.product.n_edges == single.problem.product.n_edges
-    assert np.array_equal(res.problem.product.indices, single.problem.product.indices)
 
 
 @pytest.mark.parametrize("mode", MODES)
@@ -369,18 +352,3 @@ def test_directed_networks_as_on_one_machine(client):
         assert got >= exact - res.summary["engine"]["auction"]["gap_bound"] - 1e-12
         pairs = res.candidates.pairs[res.matching.index]
         assert len(set(pairs[:, 0])) == len(pairs) == len(set(pairs[:, 1]))
-
-
-def test_released_blocks_leave_the_workers(client):
-    # a recut drops the first cut's blocks before building new ones: after release() the
-    # scheduler holds none of them (reference: distributed's Client.who_has), and a new cluster
-    # over the same inputs still works
-    pair = noisy_relabelled(300, seed=5)
-    cand = build_candidates(pair.prior_pairs, pair.prior_scores, pair.n_a, pair.n_b)
-    cluster = _cluster_over(client, cand, prior_vector(cand.prior), 3)
-    keys = [f.key for f in cluster.blocks]
-    assert all(client.who_has().get(k) for k in keys)  # every key the cluster holds, by worker
-    cluster.release()
-    assert cluster.blocks == [] and not any(client.who_has().get(k) for k in keys)
-    again = _cluster_over(client, cand, prior_vector(cand.prior), 3)
-    assert sum(again.m_own) == cand.m

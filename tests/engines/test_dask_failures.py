@@ -85,7 +85,8 @@ def test_same_partitions_give_byte_identical_outputs(cluster, folder, tmp_path):
     assert eng["partitions"] == 4 and 0 < eng["cut_fraction"] < 1 and eng["ghost_pairs"] > 0
     assert eng["rounds"] == eng["diffusion"]["rounds"] + eng["auction"]["rounds"] > 0
     assert eng["messages"] > 0 and eng["edge_touches"] == eng["diffusion"]["edge_touches"] > 0
-    assert set(eng["seconds"]) == {"slice", "build", "gather_product", "diffusion", "auction", "block_build_max"}
+    assert set(eng["seconds"]) == {"partition", "slice", "build", "gather_product", "diffusion", "auction",
+                                   "block_build_max"}
     assert 0 < eng["seconds"]["block_build_max"] <= eng["seconds"]["build"]
     assert all(v >= 0 for v in eng["seconds"].values())
     assert eng["restarts"] == 0 and eng["lost_worker_in"] == [] and eng["balance"]["largest_block_vs_mean"] <= 1.5

@@ -34,7 +34,7 @@ from aligner.pipeline import (AlignmentResult, Candidates, Clock, Problem, diffu
                               find_candidates, improve, read_inputs, summarize)
 
 __all__ = ["BlockCluster", "WorkerLost", "connect", "align", "CONNECT_TIMEOUT", "RECOVERY_ATTEMPTS", "POLL_SECONDS",
-           "REBALANCE_ABOVE", "block_imbalance"]
+           "block_imbalance"]
 
 #: how long to try to reach a scheduler before giving up
 CONNECT_TIMEOUT = "10s"
@@ -42,10 +42,6 @@ CONNECT_TIMEOUT = "10s"
 RECOVERY_ATTEMPTS = 1
 #: how often a wait checks that the blocks' workers are still in the cluster
 POLL_SECONDS = 1.0
-
-
-#: the blocks are cut again by their measured work when the largest holds more than this times the mean
-REBALANCE_ABOVE = 1.25
 
 
 def block_imbalance(cluster: "BlockCluster") -> float:
@@ -93,17 +89,6 @@ class BlockCluster:
         self.ghosts = [m[3] for m in meta]
         self.build_seconds = [m[5] for m in meta]
         self.senders = [[s for s in range(self.k) if r in meta[s][4]] for r in range(self.k)]
-
-    def release(self, timeout: float = 30.0) -> None:
-        """Drop the blocks from the workers and wait (up to ``timeout`` seconds) until the
-        scheduler no longer holds them, so that their memory is free before other blocks arrive."""
-        keys = [f.key for f in self.blocks]
-        self.client.cancel(list(self.blocks))
-        self.blocks = []
-        deadline = time.monotonic() + timeout
-        # who_has() of every key the cluster holds (cancelled futures cannot be asked about)
-        while time.monotonic() < deadline and any(self.client.who_has().get(k) for k in keys):
-            time.sleep(0.05)
 
     def _submit(self, g: int, fn, *args):
         return self.client.submit(fn, *args, workers=[self.groups[g][0]], allow_other_workers=False, pure=False)
@@ -386,29 +371,19 @@ def _run(client, inputs, found: Candidates, cfg: AlignConfig, parts: int, mode: 
     with clock.stage("product"):
         where[0] = "the product graph's build"
         t0 = time.perf_counter()
-        bounds = blocks.partition(a_ip, a_ix, b_ip, b_ix, cand, parts)
+        bounds = blocks.partition(a_ip, a_ix, b_ip, b_ix, cand, parts)  # by exact work: one build, no recut
+        tp = time.perf_counter()
         ins = blocks.block_inputs(inputs.network_a, inputs.network_b, cand, h, bounds, directed=cfg.directed,
                                   weighted=cfg.weighted, normalization=cfg.normalization,
                                   weight_model=cfg.weight_model)
         t1 = time.perf_counter()
         cluster = BlockCluster(client, ins, bounds)
         del ins
-        first = block_imbalance(cluster)
-        if first > REBALANCE_ABOVE:  # the estimate misjudged the work: cut again by the measured work
-            bounds = blocks.cut_by_cost(np.concatenate(cluster.collect(cluster.run(blocks.node_work))), parts)
-            cluster.release()  # the first cut's blocks leave the workers before the new ones are built
-            del cluster
-            ins = blocks.block_inputs(inputs.network_a, inputs.network_b, cand, h, bounds, directed=cfg.directed,
-                                      weighted=cfg.weighted, normalization=cfg.normalization,
-                                      weight_model=cfg.weight_model)
-            cluster = BlockCluster(client, ins, bounds)
-            del ins
-        engine["balance"] = {"largest_block_vs_mean": round(block_imbalance(cluster), 4),
-                             "first_cut_vs_mean": round(first, 4), "recut": bool(first > REBALANCE_ABOVE)}
+        engine["balance"] = {"largest_block_vs_mean": round(block_imbalance(cluster), 4)}
         t2 = time.perf_counter()
         product = cluster.product_graph(cand.m, cfg.directed, cfg.weighted)
         scale = None  # the blocks hold it; the client's refinement and scoring do not use it
-        engine["seconds"] = {"slice": round(t1 - t0, 4), "build": round(t2 - t1, 4),
+        engine["seconds"] = {"partition": round(tp - t0, 4), "slice": round(t1 - tp, 4), "build": round(t2 - t1, 4),
                              "gather_product": round(time.perf_counter() - t2, 4),
                              "block_build_max": round(max(cluster.build_seconds), 4)}
     engine |= {"cut_fraction": round(cluster.cut_fraction, 6), "ghost_pairs": int(sum(cluster.ghosts)),
