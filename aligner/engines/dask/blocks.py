@@ -29,14 +29,13 @@ from aligner.core.diffusion import column_scale
 from aligner.core.product import ProductGraph, build_product, product_row_lengths
 from aligner.core.weights import AGREEMENT_FLOOR, walk_degree, walk_weights
 
-__all__ = ["BlockInput", "Block", "node_costs", "partition", "cut_by_cost", "block_inputs", "build_block", "node_work",
+__all__ = ["BlockInput", "Block", "node_costs", "partition", "cut_by_cost", "block_inputs", "build_block",
            "gather_rows"]
 
 
 def node_costs(a_indptr, a_indices, b_indptr, b_indices, cand: CandidateSet) -> np.ndarray:
     """Work of each node of A: its candidate pairs plus their stored product entries, counted
-    exactly (:func:`aligner.core.product.product_row_lengths`): what :func:`node_work` measures
-    on a built block."""
+    exactly (:func:`aligner.core.product.product_row_lengths`): what the built blocks hold."""
     per_pair = product_row_lengths(a_indptr, a_indices, b_indptr, b_indices, cand) + 1
     cs = np.concatenate([[0], np.cumsum(per_pair)])
     return cs[cand.a_indptr[1:]] - cs[cand.a_indptr[:-1]]
@@ -256,14 +255,6 @@ def build_block(inp: BlockInput) -> Block:
                  degree=np.diff(indptr[: m_own + 1]).astype(np.float64), directed=inp.directed,
                  seconds=time.perf_counter() - t0, node_lo=int(inp.local_nodes[inp.own_from]) if inp.n_own else 0,
                  own_ptr=inp.c_indptr[inp.own_from:inp.own_from + inp.n_own + 1] - q0, own_b=inp.c_b[q0:q1])
-
-
-def node_work(block: Block) -> np.ndarray:
-    """Work of each owned node of A, measured on the built rows: its candidate pairs plus their
-    stored product entries (what a sweep reads and the block stores per node)."""
-    per_pair = np.diff(block.indptr[: block.m_own + 1]) + 1
-    cs = np.concatenate([[0], np.cumsum(per_pair)])
-    return cs[block.own_ptr[1:]] - cs[block.own_ptr[:-1]]
 
 
 def gather_rows(block: Block) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
