@@ -13,7 +13,7 @@ from aligner.kernels.product import PRODUCT, product_bound, product_rows, thread
 from aligner.core.candidates import CandidateSet
 from aligner.errors import InvalidParameterError
 
-__all__ = ["ProductGraph", "build_product", "estimate_product_edges", "product_row_lengths"]
+__all__ = ["ProductGraph", "build_product", "estimate_product_edges", "product_row_lengths", "COUNT_RANGE"]
 
 #: the work (about the table entries and look-ups) under which build_product runs on one thread
 PARALLEL_WORK = 2_000_000
@@ -186,6 +186,10 @@ def build_product(
     return ProductGraph(indptr=indptr, indices=indices, directed=directed, weights=weights)
 
 
+#: :func:`product_row_lengths` counts ranges of at most about this many candidate pairs at a time
+COUNT_RANGE = 1 << 22
+
+
 def product_row_lengths(
     a_indptr: npt.ArrayLike,
     a_indices: npt.ArrayLike,
@@ -195,8 +199,9 @@ def product_row_lengths(
 ) -> npt.NDArray[np.int64]:
     """The number of stored entries of every candidate pair's row of the product graph, as
     ``np.diff(build_product(...).indptr)`` gives it, without keeping the rows: the same kernel
-    builds ranges of nodes of A in turn (on parallel threads) and each range's rows are dropped
-    once counted, so the memory is O(m) plus one range's rows.
+    builds ranges of nodes of A (of about :data:`COUNT_RANGE` pairs at most, on parallel
+    threads) and each range's rows are dropped once counted, so the memory is O(m) plus the rows
+    of one range per thread.
 
     Examples
     --------
@@ -213,33 +218,41 @@ def product_row_lengths(
     pair_b = np.ascontiguousarray(cand.pairs[:, 1])
     none = np.empty(0, dtype=np.float64)
     lengths = np.zeros(cand.m, dtype=np.int64)
-    work = _blocks(a_indptr, cand, len(b_indices) / max(cand.n2, 1), parts_per_thread=16)
+    # ranges of about COUNT_RANGE pairs at most, whatever the threads: one range's rows are in memory at a time
+    parts = max(4 * thread_count(), cand.m // COUNT_RANGE + 1)
+    work = _ranges(a_indptr, cand, len(b_indices) / max(cand.n2, 1), parts) if cand.m else np.array([0, cand.n1])
 
     def count(i0: int, i1: int) -> None:  # the rows of nodes i0 .. i1-1 of A, counted then dropped
         product_rows(i0, i1, a_indptr, a_indices, b_indptr, b_indices, cand.a_indptr, pair_b, none, none, PRODUCT,
                      lengths[cand.a_indptr[i0]: cand.a_indptr[i1]])
 
-    if len(work) > 2:
-        with ThreadPoolExecutor(thread_count()) as pool:  # the kernel releases the GIL
-            list(pool.map(count, work[:-1], work[1:]))
-    else:
-        count(work[0], work[-1])
+    with ThreadPoolExecutor(thread_count()) as pool:  # the kernel releases the GIL
+        list(pool.map(count, work[:-1], work[1:]))
     return lengths
 
 
-def _blocks(a_indptr: np.ndarray, cand: CandidateSet, deg_b: float, parts_per_thread: int = 4) -> np.ndarray:
-    """Bounds of ranges of nodes of A of about equal work (for the threads of build_product):
-    node i costs about (its candidates) x (mean degree of B) + (its neighbours) x (mean
-    candidates per node). A single range when the work is small or there is one thread."""
-    n1 = cand.n1
-    per_node = cand.m / max(n1, 1)
-    work = cand.a_indptr * deg_b + a_indptr[: n1 + 1] * per_node
+def _blocks(a_indptr: np.ndarray, cand: CandidateSet, deg_b: float) -> np.ndarray:
+    """Bounds of ranges of nodes of A of about equal work for the threads of build_product (a
+    few per thread, so that a busy core delays little); a single range when the work is small
+    or there is one thread."""
     threads = thread_count()
-    if threads < 2 or work[-1] < PARALLEL_WORK:
-        return np.array([0, n1])
-    parts = parts_per_thread * threads  # a few ranges per thread, so that a busy core delays little
+    if threads < 2 or _work(a_indptr, cand, deg_b)[-1] < PARALLEL_WORK:
+        return np.array([0, cand.n1])
+    return _ranges(a_indptr, cand, deg_b, 4 * threads)
+
+
+def _work(a_indptr: np.ndarray, cand: CandidateSet, deg_b: float) -> np.ndarray:
+    """Cumulative work up to each node of A: node i costs about (its candidates) x (mean degree
+    of B) + (its neighbours) x (mean candidates per node)."""
+    per_node = cand.m / max(cand.n1, 1)
+    return cand.a_indptr * deg_b + a_indptr[: cand.n1 + 1] * per_node
+
+
+def _ranges(a_indptr: np.ndarray, cand: CandidateSet, deg_b: float, parts: int) -> np.ndarray:
+    """Bounds of at most ``parts`` ranges of nodes of A of about equal work (:func:`_work`)."""
+    work = _work(a_indptr, cand, deg_b)
     cuts = np.searchsorted(work, work[-1] * np.arange(1, parts) / parts)
-    return np.unique(np.concatenate([[0], cuts, [n1]]))
+    return np.unique(np.concatenate([[0], cuts, [cand.n1]]))
 
 
 def estimate_product_edges(
