@@ -71,14 +71,15 @@ def positions(sorted_set: npt.NDArray[np.integer], values: npt.ArrayLike, *, mis
     """
     s = np.asarray(sorted_set)
     v = np.asarray(values).reshape(-1)
-    if not len(s) or not len(v):
-        return np.full(len(v), -1 if missing is None else missing, dtype=np.int64) if not len(s) \
-            else np.empty(0, dtype=np.int64)
+    if not len(v):
+        return np.empty(0, dtype=np.int64)
+    if not len(s):  # nothing is in an empty set
+        return np.full(len(v), -1 if missing is None else missing, dtype=np.int64)
     lo, hi = int(s[0]), int(s[-1])
     span = hi - lo + 1
-    if span <= TABLE_SPAN * (len(v) + len(s)) and span < 2**31:
-        table = np.full(span, -1, dtype=np.int32 if len(s) < 2**31 else np.int64)
-        table[s - lo] = np.arange(len(s), dtype=table.dtype)
+    if span <= TABLE_SPAN * (len(v) + len(s)) and span < 2**31:  # the set's positions fit int32
+        table = np.full(span, -1, dtype=np.int32)
+        table[s - lo] = np.arange(len(s), dtype=np.int32)
         if missing is None:
             return table[v - lo].astype(np.int64)
         out = np.full(len(v), missing, dtype=np.int64)

@@ -220,14 +220,15 @@ def product_row_lengths(
     lengths = np.zeros(cand.m, dtype=np.int64)
     # ranges of about COUNT_RANGE pairs at most, whatever the threads: one range's rows are in memory at a time
     parts = max(4 * thread_count(), cand.m // COUNT_RANGE + 1)
-    work = _ranges(a_indptr, cand, len(b_indices) / max(cand.n2, 1), parts) if cand.m else np.array([0, cand.n1])
+    bounds = _ranges(_work(a_indptr, cand, len(b_indices) / max(cand.n2, 1)), parts) if cand.m else \
+        np.array([0, cand.n1])
 
     def count(i0: int, i1: int) -> None:  # the rows of nodes i0 .. i1-1 of A, counted then dropped
         product_rows(i0, i1, a_indptr, a_indices, b_indptr, b_indices, cand.a_indptr, pair_b, none, none, PRODUCT,
                      lengths[cand.a_indptr[i0]: cand.a_indptr[i1]])
 
     with ThreadPoolExecutor(thread_count()) as pool:  # the kernel releases the GIL
-        list(pool.map(count, work[:-1], work[1:]))
+        list(pool.map(count, bounds[:-1], bounds[1:]))
     return lengths
 
 
@@ -236,9 +237,10 @@ def _blocks(a_indptr: np.ndarray, cand: CandidateSet, deg_b: float) -> np.ndarra
     few per thread, so that a busy core delays little); a single range when the work is small
     or there is one thread."""
     threads = thread_count()
-    if threads < 2 or _work(a_indptr, cand, deg_b)[-1] < PARALLEL_WORK:
+    work = _work(a_indptr, cand, deg_b)
+    if threads < 2 or work[-1] < PARALLEL_WORK:
         return np.array([0, cand.n1])
-    return _ranges(a_indptr, cand, deg_b, 4 * threads)
+    return _ranges(work, 4 * threads)
 
 
 def _work(a_indptr: np.ndarray, cand: CandidateSet, deg_b: float) -> np.ndarray:
@@ -248,11 +250,10 @@ def _work(a_indptr: np.ndarray, cand: CandidateSet, deg_b: float) -> np.ndarray:
     return cand.a_indptr * deg_b + a_indptr[: cand.n1 + 1] * per_node
 
 
-def _ranges(a_indptr: np.ndarray, cand: CandidateSet, deg_b: float, parts: int) -> np.ndarray:
-    """Bounds of at most ``parts`` ranges of nodes of A of about equal work (:func:`_work`)."""
-    work = _work(a_indptr, cand, deg_b)
+def _ranges(work: np.ndarray, parts: int) -> np.ndarray:
+    """Bounds of at most ``parts`` ranges of nodes of A of about equal ``work`` (:func:`_work`)."""
     cuts = np.searchsorted(work, work[-1] * np.arange(1, parts) / parts)
-    return np.unique(np.concatenate([[0], cuts, [cand.n1]]))
+    return np.unique(np.concatenate([[0], cuts, [len(work) - 1]]))
 
 
 def estimate_product_edges(
