@@ -162,8 +162,70 @@ def _raise_bounds(s_indptr, s_indices, pair_a, pair_b, bw, g, added, r1, r1_at, 
 
 
 @numba.njit(cache=True, nogil=True)
+def _mark_row(c_indptr, dirty, i):
+    """Mark the candidates of node i of A; returns how many."""
+    for t in range(c_indptr[i], c_indptr[i + 1]):
+        dirty[t] = 3
+    return c_indptr[i + 1] - c_indptr[i]
+
+
+@numba.njit(cache=True, nogil=True)
+def _mark_col(col_ptr, col_idx, dirty, b):
+    """Mark the candidates of node b of B; returns how many."""
+    for e in range(col_ptr[b], col_ptr[b + 1]):
+        dirty[col_idx[e]] = 3
+    return col_ptr[b + 1] - col_ptr[b]
+
+
+@numba.njit(cache=True, nogil=True)
+def _mark_node_a(c_indptr, pair_a, pair_b, mate_b, dirty, a):
+    """Mark the candidates whose moves read the partner of node a of A: its own (a 2-exchange's k)
+    and, for every candidate s = (a, b'), those of the node of A matched at b' (the 3-rotations
+    through s, whose r is a's pair). Returns the marks made."""
+    work = _mark_row(c_indptr, dirty, a)
+    for s in range(c_indptr[a], c_indptr[a + 1]):
+        k = mate_b[pair_b[s]]
+        if k >= 0:
+            work += _mark_row(c_indptr, dirty, pair_a[k])
+    return work
+
+
+@numba.njit(cache=True, nogil=True)
+def mark_pair(c_indptr, col_ptr, col_idx, pair_a, pair_b, mate_a, mate_b, dirty, t):
+    """Mark every candidate p whose moves in :func:`_local_search` read the value bw + g of pair
+    t = (a, b'): p = t; p at a (t as k) and, for every candidate s = (a, h'), p at the node of A
+    matched at h' (t as a rotation's r, or as its s when s = t) (:func:`_mark_node_a`); p at the
+    node of B matched at a (t as l, when t is that match, or as a 2-exchange's or a rotation's
+    q). A superset is harmless: a marked candidate is only examined again. Returns the marks
+    made."""
+    dirty[t] = 3
+    work = 1 + _mark_node_a(c_indptr, pair_a, pair_b, mate_b, dirty, pair_a[t])
+    l = mate_a[pair_a[t]]
+    if l >= 0:
+        work += _mark_col(col_ptr, col_idx, dirty, pair_b[l])
+    return work
+
+
+@numba.njit(cache=True, nogil=True)
+def _mark_move(s_indptr, s_indices, c_indptr, col_ptr, col_idx, pair_a, pair_b, mate_a, mate_b, dirty, moved):
+    """After a move (the pairs ``moved``, removed and added, -1 skipped): mark the candidates
+    whose moves read a partner that changed (the moved pairs' nodes) or a g that changed (the
+    moved pairs' product-graph neighbours). Returns the marks made."""
+    work = 0
+    for u in range(moved.shape[0]):
+        k = moved[u]
+        if k < 0:
+            continue
+        work += _mark_node_a(c_indptr, pair_a, pair_b, mate_b, dirty, pair_a[k])
+        work += _mark_col(col_ptr, col_idx, dirty, pair_b[k])
+        for e in range(s_indptr[k], s_indptr[k + 1]):
+            work += mark_pair(c_indptr, col_ptr, col_idx, pair_a, pair_b, mate_a, mate_b, dirty, s_indices[e])
+    return work
+
+
+@numba.njit(cache=True, nogil=True)
 def _local_search(s_indptr, s_indices, s_w, c_indptr, col_ptr, col_idx, pair_a, pair_b, bw, g, mate_a, mate_b,
-                  max_sweeps, rotations, eps, s_max):
+                  max_sweeps, rotations, eps, s_max, dirty):
     """First-improvement search over 2-exchanges (and 3-rotations) of a matching, in place.
 
     The matching is ``mate_a[i]`` (candidate index matched at node i of A, or -1) and
@@ -207,6 +269,17 @@ def _local_search(s_indptr, s_indices, s_w, c_indptr, col_ptr, col_idx, pair_a, 
     rotations (or, without them, a 2-exchange sweep) that makes no move, or after
     ``max_sweeps`` sweeps.
 
+    **Work list.** With a non-empty ``dirty`` (one uint8 per candidate) a sweep examines only the
+    candidates marked there: bit 1 asks for the 2-exchanges, bit 2 for the rotations (a sweep
+    with rotations examines a candidate with either bit). Examining clears the bits it answers;
+    every move marks (both bits) each candidate whose moves read a value the move changed
+    (:func:`_mark_move`), so a candidate left unmarked would make no move if examined: the
+    moves, sweeps and result are those of the search over every candidate, which is what an
+    empty ``dirty`` gives (all candidates, every sweep). All bits set on entry is a search from
+    scratch; only some set continues a search whose matching was a local optimum before the
+    values of the marked candidates changed. When the marks of one sweep pass ``m``, marking
+    stops, and the rest of that sweep and the next examine every candidate.
+
     Returns (moves, sweeps, gain), gain being the sum of the changes of F of the moves made.
     """
     n1 = c_indptr.shape[0] - 1
@@ -224,14 +297,31 @@ def _local_search(s_indptr, s_indices, s_w, c_indptr, col_ptr, col_idx, pair_a, 
     c1 = np.zeros(n2)
     c1_at = np.full(n2, -1, dtype=np.int64)
     c2 = np.zeros(n2)
+    listed = dirty.shape[0] > 0
+    m = c_indptr[n1]
+    marks = 0  # marks made in this sweep; past m the next sweep examines everything
+    both = np.empty(6, dtype=np.int64)
     while sweeps < max_sweeps:
         sweeps += 1
         moved = 0
+        if listed and marks > m:
+            dirty[:] = 3
+        marks = 0
         _row_bounds(c_indptr, bw, g, r1, r1_at, r2)
         if rotate:
             _col_bounds(col_ptr, col_idx, bw, g, c1, c1_at, c2)
         for i in range(n1):
             for p in range(c_indptr[i], c_indptr[i + 1]):
+                if listed:
+                    flag = dirty[p]
+                    if rotate:
+                        if flag == 0:
+                            continue
+                        dirty[p] = 0
+                    else:
+                        if flag & 1 == 0:
+                            continue
+                        dirty[p] = flag & 2
                 k = mate_a[i]
                 if k == p:
                     continue
@@ -270,6 +360,13 @@ def _local_search(s_indptr, s_indices, s_w, c_indptr, col_ptr, col_idx, pair_a, 
                     add[2] = -1
                     _apply(s_indptr, s_indices, s_w, g, pair_a, pair_b, mate_a, mate_b, rem, add)
                     _raise_bounds(s_indptr, s_indices, pair_a, pair_b, bw, g, add, r1, r1_at, r2, c1, c1_at, c2)
+                    if listed and marks <= m:
+                        both[:3] = rem
+                        both[3:] = add
+                        marks += _mark_move(s_indptr, s_indices, c_indptr, col_ptr, col_idx, pair_a, pair_b, mate_a,
+                                            mate_b, dirty, both)
+                        if marks > m:  # too many to follow: everything from here, and next sweep
+                            dirty[:] = 3
                     gain += delta
                     moved += 1
                     continue
@@ -316,6 +413,13 @@ def _local_search(s_indptr, s_indices, s_w, c_indptr, col_ptr, col_idx, pair_a, 
                         add[2] = s
                         _apply(s_indptr, s_indices, s_w, g, pair_a, pair_b, mate_a, mate_b, rem, add)
                         _raise_bounds(s_indptr, s_indices, pair_a, pair_b, bw, g, add, r1, r1_at, r2, c1, c1_at, c2)
+                        if listed and marks <= m:
+                            both[:3] = rem
+                            both[3:] = add
+                            marks += _mark_move(s_indptr, s_indices, c_indptr, col_ptr, col_idx, pair_a, pair_b,
+                                                mate_a, mate_b, dirty, both)
+                            if marks > m:
+                                dirty[:] = 3
                         gain += d
                         moved += 1
                         break

@@ -21,17 +21,16 @@ from aligner.core.refine import normalise_weights, refine_matching
 EPS = 1e-9  # the kernel's move threshold (RISE_TOL) is below this
 
 
-def _instance(seed, directed):
+def _instance(seed, directed, n=14, p_edge=0.3, p_cand=0.35):
     rng = np.random.default_rng(seed)
-    n = 14
-    ea = np.array([(u, v) for u, v in itertools.combinations(range(n), 2) if rng.random() < 0.3])
-    eb = np.array([(u, v) for u, v in itertools.combinations(range(n), 2) if rng.random() < 0.3])
+    ea = np.array([(u, v) for u, v in itertools.combinations(range(n), 2) if rng.random() < p_edge])
+    eb = np.array([(u, v) for u, v in itertools.combinations(range(n), 2) if rng.random() < p_edge])
     if directed:  # random orientation, some arcs both ways
         flip = rng.random(len(ea)) < 0.5
         ea[flip] = ea[flip][:, ::-1]
         both = eb[rng.random(len(eb)) < 0.3][:, ::-1]
         eb = np.vstack([eb, both])
-    pairs = np.array([(i, j) for i in range(n) for j in range(n) if rng.random() < 0.35 or i == j])
+    pairs = np.array([(i, j) for i in range(n) for j in range(n) if rng.random() < p_cand or i == j])
     cand = build_candidates(pairs, rng.random(len(pairs)), n, n)
     ipa, ixa = adjacency(ea, n, symmetric=not directed)
     ipb, ixb = adjacency(eb, n, symmetric=not directed)
@@ -105,3 +104,83 @@ def test_local_search_stops_at_a_local_optimum(seed, directed):
     assert _best_move_gain(cand, S, bw, res.index) <= EPS
     # and the objective it reports is the recomputed one
     assert res.objective[-1] == pytest.approx(_objective(res.index, bw, S), abs=1e-9)
+
+
+# --- the work list ---------------------------------------------------------------------------
+# The kernel can examine only the candidates marked in ``dirty`` (those whose moves read a value
+# that changed). The reference is the same kernel with an empty ``dirty``, which examines every
+# candidate in every sweep (the search as first written; its end state is checked by brute force
+# above): with the work list the moves, sweeps and gain must be the same, not just as good.
+
+def _kernel_args(cand, prod, bw, index):
+    from aligner.core.refine import _lookup, _matched_counts, _mates
+    lk = _lookup(cand)
+    mate_a, mate_b = _mates(cand, np.asarray(index, dtype=np.int64))
+    g = _matched_counts(prod, np.asarray(index, dtype=np.int64))
+    return lk, mate_a, mate_b, g
+
+
+def _search(cand, prod, bw, lk, mate_a, mate_b, g, dirty, rotations=True, sweeps=10_000):
+    from aligner.kernels.refine import _local_search, _max_entry
+    mate_a, mate_b, g = mate_a.copy(), mate_b.copy(), g.copy()
+    out = _local_search(prod.indptr, prod.indices, np.empty(0), cand.a_indptr, lk.col_ptr, lk.col_idx, lk.pair_a,
+                        lk.pair_b, bw, g, mate_a, mate_b, sweeps, rotations, EPS,
+                        _max_entry(prod.indptr, prod.indices), dirty)
+    return out, mate_a, g
+
+
+def _random_start(cand, rng):
+    start, used_b = [], set()
+    for i in rng.permutation(cand.n1):
+        rows = [t for t in range(cand.a_indptr[i], cand.a_indptr[i + 1]) if int(cand.pairs[t, 1]) not in used_b]
+        if rows:
+            t = int(rng.choice(rows))
+            start.append(t)
+            used_b.add(int(cand.pairs[t, 1]))
+    return np.sort(np.array(start, dtype=np.int64))
+
+
+@pytest.mark.parametrize("rotations", [True, False])
+@pytest.mark.parametrize("directed", [False, True])
+@pytest.mark.parametrize("seed", range(8))
+def test_work_list_makes_the_moves_of_the_full_search(seed, directed, rotations):
+    cand, prod, rng = _instance(100 + seed, directed, n=120, p_edge=0.06, p_cand=0.08)
+    bw = 0.5 * normalise_weights(rng.random(cand.m))[0]
+    lk, mate_a, mate_b, g = _kernel_args(cand, prod, bw, _random_start(cand, rng))
+    full, fa, fg = _search(cand, prod, bw, lk, mate_a, mate_b, g, np.empty(0, dtype=np.uint8), rotations)
+    listed, la, lg = _search(cand, prod, bw, lk, mate_a, mate_b, g, np.full(cand.m, 3, dtype=np.uint8), rotations)
+    assert full[0] > 0 and full[1] > 2  # a guard on the case: several sweeps with moves
+    assert listed[:2] == full[:2]  # the same moves and sweeps
+    assert listed[2] == pytest.approx(full[2], abs=1e-12)
+    np.testing.assert_array_equal(la, fa)
+    np.testing.assert_array_equal(lg, fg)
+
+
+@pytest.mark.parametrize("directed", [False, True])
+@pytest.mark.parametrize("seed", range(6))
+def test_work_list_continues_after_values_change(seed, directed):
+    """From a local optimum, change the values (bw) of one to three candidates and mark them
+    with ``mark_pair``: the search over the marked ones alone makes the moves of a full search
+    (many draws per instance, so that each way a value enters a move is met)."""
+    from aligner.kernels.refine import mark_pair
+    cand, prod, rng = _instance(200 + seed, directed, n=60, p_edge=0.1, p_cand=0.12)
+    bw = 0.5 * normalise_weights(rng.random(cand.m))[0]
+    lk, mate_a, mate_b, g = _kernel_args(cand, prod, bw, _random_start(cand, rng))
+    _, opt_a, opt_g = _search(cand, prod, bw, lk, mate_a, mate_b, g, np.empty(0, dtype=np.uint8))
+    opt_b = np.full(cand.n2, -1, dtype=np.int64)
+    opt_b[lk.pair_b[opt_a[opt_a >= 0]]] = opt_a[opt_a >= 0]
+    moving = 0
+    for _ in range(150):
+        changed = rng.choice(cand.m, rng.integers(1, 4), replace=False)
+        bw2 = bw.copy()
+        bw2[changed] = bw2[changed] * rng.uniform(0.0, 3.0, len(changed)) + rng.uniform(0, 2.0, len(changed))
+        dirty = np.zeros(cand.m, dtype=np.uint8)
+        for t in changed:
+            mark_pair(cand.a_indptr, lk.col_ptr, lk.col_idx, lk.pair_a, lk.pair_b, opt_a, opt_b, dirty, t)
+        assert (dirty > 0).sum() < cand.m  # a guard: not everything is marked
+        full, fa, _ = _search(cand, prod, bw2, lk, opt_a, opt_b, opt_g, np.empty(0, dtype=np.uint8))
+        listed, la, _ = _search(cand, prod, bw2, lk, opt_a, opt_b, opt_g, dirty)
+        assert listed[:2] == full[:2]
+        np.testing.assert_array_equal(la, fa)
+        moving += full[0] > 0
+    assert moving >= 10  # a guard: many of the draws had moves to make
