@@ -856,15 +856,22 @@ class AlignmentResult:
         return table.copy()
 
 
-def run_stages(problem: Problem, clock: Clock, *, x0=None, permutation_progress=None) -> AlignmentResult:
-    """Solve, match, improve, evaluate and summarize a prepared problem."""
+def run_stages(problem: Problem, clock: Clock, *, x0=None, permutation_progress=None,
+               improve_from: Callable[[Problem, DiffusionResult, Matching], Improvement | None] | None = None
+               ) -> AlignmentResult:
+    """Solve, match, improve, evaluate and summarize a prepared problem.
+
+    ``improve_from`` (an update's) may refine in its own way: when it returns None, or is not
+    given, :func:`improve` refines."""
     with clock.stage("diffusion"):
         diffusion = solve(problem, x0=x0)
     with clock.stage("rounding"):
         rounded = match(problem, diffusion)
     refining = problem.config.refine and problem.config.alpha > 0
     with clock.stage("refine") if refining else nullcontext():
-        improvement = improve(problem, diffusion, rounded)
+        improvement = None if improve_from is None or not refining else improve_from(problem, diffusion, rounded)
+        if improvement is None:
+            improvement = improve(problem, diffusion, rounded)
     with clock.stage("scoring"):
         evaluation = evaluate(problem, diffusion, improvement, permutation_progress=permutation_progress)
     return AlignmentResult(problem, diffusion, improvement, evaluation,

@@ -19,11 +19,12 @@ from __future__ import annotations
 import dataclasses
 import time
 from pathlib import Path
-from typing import Any, Callable
+from typing import Any, Callable, NamedTuple
 
 import numpy as np
 
 from aligner.config import AlignConfig, from_options
+from aligner.core.arrays import unique
 from aligner.core.identifiers import lookup
 from aligner.errors import InputFormatError, InvalidParameterError
 from aligner.io.state import STATE_FILE, file_digest, read_state
@@ -287,19 +288,33 @@ def _sorted(keys: np.ndarray) -> np.ndarray:
     return keys if _is_sorted(keys) else np.sort(keys)
 
 
-def _edge_changes(old_edges, new_edges, to_new, n_new, directed: bool) -> tuple[int, int]:
+def _edge_changes(old_edges, new_edges, to_new, n_new, directed: bool) -> tuple[int, int, np.ndarray]:
     """Edges (arcs when ``directed``) added and removed, the old ones renumbered into the new
     nodes (each list holds every edge once, and renumbering keeps them distinct, so sorted keys
-    suffice; an undirected edge is keyed by its two ends in order)."""
+    suffice; an undirected edge is keyed by its two ends in order), and the nodes (new indices,
+    sorted, distinct) at an end of an added or removed edge."""
+    none = np.empty(0, dtype=np.int64)
     if len(old_edges) == len(new_edges) and _is_identity(to_new) and np.array_equal(old_edges, new_edges):
-        return 0, 0
+        return 0, 0, none
     e = to_new[old_edges.astype(np.int64)]
-    e = e[(e >= 0).all(axis=1)]
+    whole = (e >= 0).all(axis=1)
+    cut = e[~whole]  # edges that lost a node: their other end stays
+    e = e[whole]
     old_keys = _sorted(_edge_keys(e[:, 0], e[:, 1], n_new, directed))
     new_keys = _sorted(_edge_keys(new_edges[:, 0], new_edges[:, 1], n_new, directed))
-    pos = np.minimum(np.searchsorted(new_keys, old_keys), max(len(new_keys) - 1, 0))
-    common = int((new_keys[pos] == old_keys).sum()) if len(new_keys) else 0
-    return int(len(new_keys) - common), int(len(old_edges) - common)
+    gone, came = ~_within(old_keys, new_keys), ~_within(new_keys, old_keys)
+    common = len(old_keys) - int(gone.sum())
+    moved = np.concatenate([old_keys[gone], new_keys[came]])
+    ends = unique(np.concatenate([moved // n_new, moved % n_new, cut[cut >= 0]]).astype(np.int64))
+    return int(len(new_keys) - common), int(len(old_edges) - common), ends
+
+
+def _within(keys: np.ndarray, sorted_keys: np.ndarray) -> np.ndarray:
+    """Which of ``keys`` are in ``sorted_keys``."""
+    if not len(sorted_keys):
+        return np.zeros(len(keys), dtype=bool)
+    pos = np.minimum(np.searchsorted(sorted_keys, keys), len(sorted_keys) - 1)
+    return sorted_keys[pos] == keys
 
 
 def _keeps_order(mapping: np.ndarray) -> bool:
@@ -326,9 +341,19 @@ def _carried(old: np.ndarray, to_a: np.ndarray, to_b: np.ndarray, cand, old_x, o
     return x0, kept, same_prior
 
 
-def _carry(state, problem) -> tuple[np.ndarray, dict, tuple]:
-    """The previous scores on the new candidate pairs (0 on new pairs), what changed, and the old
-    nodes' new indices (of A, of B; -1 when gone)."""
+class _Maps(NamedTuple):
+    """How the previous run's problem maps onto the new one."""
+
+    to_a: np.ndarray  # new index of every old node of A, -1 when gone
+    to_b: np.ndarray
+    kept: np.ndarray  # which new candidates were old ones
+    ends_a: np.ndarray  # nodes of A (new indices) at an end of an added or removed edge
+    ends_b: np.ndarray
+
+
+def _carry(state, problem) -> tuple[np.ndarray, dict, _Maps]:
+    """The previous scores on the new candidate pairs (0 on new pairs), what changed, and how the
+    old problem maps onto the new one."""
     net_a, net_b, cand = problem.network_a, problem.network_b, problem.candidates
     to_a = _renumber(state.names_a, net_a.names)
     to_b = _renumber(state.names_b, net_b.names)
@@ -341,8 +366,8 @@ def _carry(state, problem) -> tuple[np.ndarray, dict, tuple]:
     else:
         x0, kept, same_prior = _carried(old, to_a, to_b, cand, state.x, state.prior)
     directed = problem.config.directed
-    ea_add, ea_del = _edge_changes(state.edges_a, net_a.scored_edges(directed)[0], to_a, net_a.n, directed)
-    eb_add, eb_del = _edge_changes(state.edges_b, net_b.scored_edges(directed)[0], to_b, net_b.n, directed)
+    ea_add, ea_del, ends_a = _edge_changes(state.edges_a, net_a.scored_edges(directed)[0], to_a, net_a.n, directed)
+    eb_add, eb_del, ends_b = _edge_changes(state.edges_b, net_b.scored_edges(directed)[0], to_b, net_b.n, directed)
     changes = {
         "nodes_a_added": int(net_a.n - (to_a >= 0).sum()), "nodes_a_removed": int((to_a < 0).sum()),
         "nodes_b_added": int(net_b.n - (to_b >= 0).sum()), "nodes_b_removed": int((to_b < 0).sum()),
@@ -350,14 +375,95 @@ def _carry(state, problem) -> tuple[np.ndarray, dict, tuple]:
         "candidates_added": int(cand.m - kept.sum()), "candidates_removed": int(len(old) - kept.sum()),
         "candidates_rescored": int((kept & ~same_prior).sum()),
     }
-    return x0, changes, (to_a, to_b)
+    return x0, changes, _Maps(to_a, to_b, kept, ends_a, ends_b)
+
+
+#: A candidate whose weight in the refinement's objective (beta * w~, in units of one conserved
+#: edge) moved by more than this since the previous run is searched again by an incremental
+#: update's refinement; a move the search skips elsewhere gains at most six such changes (plus the
+#: single-precision rounding of the kept scores, 2^-24 of a pair's weight).
+VALUE_TOL = 1e-3
+
+
+def _neighbour_rows(net, nodes: np.ndarray) -> np.ndarray:
+    """The neighbours of ``nodes`` in ``net`` (either direction), with repeats."""
+    if not len(nodes):
+        return np.empty(0, dtype=np.int64)
+    return np.concatenate([net.indices[net.indptr[u]:net.indptr[u + 1]] for u in nodes]).astype(np.int64)
+
+
+def _previous_matching(state, maps: _Maps, cand) -> tuple[np.ndarray, np.ndarray, np.ndarray, np.ndarray]:
+    """The previous run's final matching on the new candidates, and the nodes (of A, of B) whose
+    previous match is not a candidate any more, with those of them whose partner stayed in its
+    network (the pair's old product-graph neighbours lost a matched neighbour)."""
+    old = state.pairs[state.matched].astype(np.int64)
+    a, b = maps.to_a[old[:, 0]], maps.to_b[old[:, 1]]
+    both = (a >= 0) & (b >= 0)
+    keys = cand.pairs[:, 0].astype(np.int64) * cand.n2 + cand.pairs[:, 1]
+    want = a[both] * cand.n2 + b[both]
+    pos = np.minimum(np.searchsorted(keys, want), max(cand.m - 1, 0))
+    hit = keys[pos] == want if cand.m else np.zeros(len(want), dtype=bool)
+    lost_a, lost_b = a[both][~hit], b[both][~hit]
+    freed_a = np.concatenate([lost_a, a[~both & (a >= 0)]])
+    freed_b = np.concatenate([lost_b, b[~both & (b >= 0)]])
+    return pos[hit], freed_a, freed_b, lost_a
+
+
+def _continued_refinement(state, maps: _Maps, x0: np.ndarray, record: dict):
+    """An incremental update's refinement, for :func:`aligner.pipeline.run_stages`: the local
+    search continued from the previous run's final matching, examining the candidates the change
+    reached (:func:`aligner.core.refine.continue_local_search`), instead of Frank–Wolfe from the
+    new rounded matching and a search over every candidate.
+
+    Returns None (so ``align``'s refinement runs) with several refinement starts (small
+    problems), seed pairs, or a weighted run counting agreement (whose entry weights can change
+    where no edge did), and when the continued search ends below the new rounded matching's F
+    (``align`` never ends below it). ``record`` receives what was done, for the summary."""
+    from aligner.core.refine import continue_local_search, normalise_weights, refine_objective
+    from aligner.pipeline import Improvement, _counted_weights, refine_starts
+
+    def run(problem, diffusion, rounded):
+        cfg, cand = problem.config, problem.candidates
+        prod = problem.product.symmetrised()
+        why = ("the run refines from several starts" if refine_starts(problem) > 1 else
+               "the run has seed pairs" if problem.seed_index is not None else
+               "the run counts edges by agreement" if _counted_weights(cfg, prod) is not None else None)
+        if why is not None:
+            record.update(mode="full", reason=why)
+            return None
+        start, freed_a, freed_b, lost_a = _previous_matching(state, maps, cand)
+        old_x = state.x.astype(np.float64)
+        bw_old = cfg.beta * x0 / normalise_weights(old_x)[1]
+        bw_new = cfg.beta * normalise_weights(diffusion.x)[0]
+        touched = ~maps.kept | (np.abs(bw_new - bw_old) > VALUE_TOL)
+        rows = np.zeros(cand.n1, dtype=bool)
+        rows[maps.ends_a] = True  # their product-graph rows changed
+        rows[_neighbour_rows(problem.network_a, lost_a)] = True  # a matched neighbour left them
+        cols = np.zeros(cand.n2, dtype=bool)
+        cols[maps.ends_b] = True
+        touched |= rows[cand.pairs[:, 0]] | cols[cand.pairs[:, 1]]
+        res, marked = continue_local_search(prod, cand, diffusion.x, start, np.flatnonzero(touched), freed_a,
+                                            freed_b, beta=cfg.beta)
+        f_rounded, c_rounded = refine_objective(prod, bw_new, rounded.index)
+        record.update(pairs_touched=int(touched.sum()), candidates_marked=marked, moves=res.local_moves)
+        if res.objective[-1] < f_rounded:
+            record.update(mode="full", reason="the continued search ended below the new rounded matching")
+            return None
+        record.update(mode="continued", reason="local search from the previous matching")
+        res = dataclasses.replace(res, objective=[f_rounded, *res.objective],
+                                  conserved_before=c_rounded,
+                                  weight_before=float(diffusion.x[rounded.index].sum()))
+        final = dataclasses.replace(rounded, index=res.index, weight=float(diffusion.x[res.index].sum()))
+        return Improvement(final, rounded, res)
+
+    return run
 
 
 def _matches_changed(state, res: AlignmentResult, maps) -> int:
     """Nodes of A whose matched node of B differs between the runs (a node matched in one run only,
     or in one network only, counts)."""
     net_a, cand = res.network_a, res.candidates
-    to_a, to_b = maps
+    to_a, to_b = maps.to_a, maps.to_b
     new = np.full(net_a.n, -1, dtype=np.int64)
     new[cand.pairs[res.matching.index, 0]] = cand.pairs[res.matching.index, 1]
     old_pairs = state.pairs[state.matched].astype(np.int64)
@@ -439,7 +545,9 @@ def update(previous, network_a=None, network_b=None, prior=None, *, seeds=None, 
     share_edges = max((changes["edges_a_added"] + changes["edges_a_removed"]) / max(len(state.edges_a), 1),
                       (changes["edges_b_added"] + changes["edges_b_removed"]) / max(len(state.edges_b), 1))
     full = max(share_pairs, share_edges) > FULL_SHARE
-    res = run_stages(problem, clock, x0=None if full else x0)
+    refined = {}
+    res = run_stages(problem, clock, x0=None if full else x0,
+                     improve_from=None if full else _continued_refinement(state, maps, x0, refined))
     bound = cfg.tol / (1.0 - cfg.alpha)
     prev = state.meta
     res.summary["update"] = {
@@ -454,6 +562,7 @@ def update(previous, network_a=None, network_b=None, prior=None, *, seeds=None, 
         "previous_pushes": prev.get("diffusion", {}).get("steps"),
         "previous_edge_touches": prev.get("diffusion", {}).get("edge_touches"),
         "matches_changed": _matches_changed(state, res, maps),
+        "refine": refined or None,
         "carry_seconds": round(carry_s, 4),
         "seconds": round(time.perf_counter() - t0, 4), "previous_seconds": prev.get("seconds"),
     }

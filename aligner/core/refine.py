@@ -67,7 +67,7 @@ from typing import NamedTuple
 import numpy as np
 import numpy.typing as npt
 
-from aligner.kernels.refine import _local_search, _matched_neighbours, _max_entry
+from aligner.kernels.refine import _local_search, _matched_neighbours, _max_entry, mark_changes
 from aligner.kernels.utils import stable_order
 from aligner.checks import bad_parameter, check_choice, check_int, check_real
 from aligner.config import AlignConfig, specs
@@ -76,8 +76,8 @@ from aligner.errors import InvalidParameterError
 from aligner.core.product import ProductGraph
 from aligner.core.rounding import METHODS, round_matching
 
-__all__ = ["RefineResult", "refine_matching", "refine_from_starts", "perturbed_scores", "refine_objective",
-           "normalise_weights",
+__all__ = ["RefineResult", "refine_matching", "refine_from_starts", "continue_local_search", "perturbed_scores",
+           "refine_objective", "normalise_weights",
            "DEFAULT_BETA", "DEFAULT_MAX_ITER", "DEFAULT_PATIENCE", "STEPS"]
 
 #: Default weight of the normalised matched weight against one conserved edge (the ``beta``
@@ -439,6 +439,22 @@ def _run_rounds(prod: ProductGraph, cand: CandidateSet, bw: npt.NDArray[np.float
     return iters, moves, n_rounds, bool(hit_cap)
 
 
+def _start(prod: ProductGraph, cand: CandidateSet, w, index, opts: _Options, edge_weights):
+    """Checked inputs of a refinement: (opts with S's entry weights and largest entry, w, the
+    start index sorted, bw = beta * w~, the divisor of w, g = S 1_index)."""
+    w = _check_weights(prod, cand, w)
+    index = np.sort(np.asarray(index, dtype=np.int64).reshape(-1))
+    _check_matching(cand, index)
+    if edge_weights is None:
+        opts = opts._replace(s_max=_max_entry(prod.indptr, prod.indices))
+    else:
+        s_w = _check_edge_weights(prod, edge_weights)
+        opts = opts._replace(s_w=s_w, s_max=_max_entry(prod.indptr, prod.indices) * float(s_w.max(initial=0.0)))
+    wn, scale = normalise_weights(w)
+    bw = opts.beta * wn
+    return opts, w, index, bw, scale, _matched_counts(prod, index, opts.s_w)
+
+
 def refine_matching(prod: ProductGraph, cand: CandidateSet, w: npt.ArrayLike, index: npt.ArrayLike, *,
                     beta: float = DEFAULT_BETA, max_iter: int = DEFAULT_MAX_ITER, step: str = "line",
                     patience: int = DEFAULT_PATIENCE, rounds: int = 1, local_sweeps: int = 50,
@@ -511,17 +527,7 @@ def refine_matching(prod: ProductGraph, cand: CandidateSet, w: npt.ArrayLike, in
     """
     t0 = time.perf_counter()
     opts = _check_options(beta, max_iter, step, patience, rounds, local_sweeps, rotations, method)
-    w = _check_weights(prod, cand, w)
-    index = np.sort(np.asarray(index, dtype=np.int64).reshape(-1))
-    _check_matching(cand, index)
-    if edge_weights is None:
-        opts = opts._replace(s_max=_max_entry(prod.indptr, prod.indices))
-    else:
-        s_w = _check_edge_weights(prod, edge_weights)
-        opts = opts._replace(s_w=s_w, s_max=_max_entry(prod.indptr, prod.indices) * float(s_w.max(initial=0.0)))
-    wn, scale = normalise_weights(w)
-    bw = opts.beta * wn
-    g = _matched_counts(prod, index, opts.s_w)
+    opts, w, index, bw, scale, g = _start(prod, cand, w, index, opts, edge_weights)
     inc = _Incumbent(index, g, _objective(bw, g, index))
     inc.record()
     iters, moves, n_rounds, hit_cap = _run_rounds(prod, cand, bw, inc, opts)
@@ -533,6 +539,57 @@ def refine_matching(prod: ProductGraph, cand: CandidateSet, w: npt.ArrayLike, in
                         local_moves=moves, rounds=n_rounds, hit_cap=hit_cap, beta=opts.beta, w_scale=scale,
                         counts="edges" if edge_weights is None else "agreement",
                         seconds=time.perf_counter() - t0)
+
+
+def continue_local_search(prod: ProductGraph, cand: CandidateSet, w: npt.ArrayLike, index: npt.ArrayLike,
+                          touched: npt.ArrayLike, freed_a: npt.ArrayLike = (), freed_b: npt.ArrayLike = (), *,
+                          beta: float = DEFAULT_BETA, local_sweeps: int = 50, rotations: bool = True,
+                          edge_weights: npt.ArrayLike | None = None) -> tuple[RefineResult, int]:
+    """The local search of :func:`refine_matching` from ``index``, examining first only the
+    candidates that a change of the problem can have given an improving move.
+
+    ``index`` must have been a local optimum of the search (no 2-exchange or 3-rotation raising
+    F) on a problem that differs from this one only in the values bw + g of the pairs
+    ``touched`` (their weight, their product-graph rows, or their being new) and in the
+    partners of the nodes ``freed_a`` (of A) and ``freed_b`` (of B) (whose matched pair is no
+    longer a candidate). The search then marks the candidates whose moves read one of those
+    (the work list of :func:`aligner.kernels.refine._local_search`) and examines only them, and
+    after each move only what the move changed: the result is the search's from ``index`` over
+    every candidate, at a cost that follows the change. No Frank–Wolfe step is made.
+
+    Returns the result (``iterations`` 0, ``objective`` [F(index), F(result)]) and how many
+    candidates were marked at the start.
+    """
+    t0 = time.perf_counter()
+    opts = _check_options(beta, 0, "line", DEFAULT_PATIENCE, 1, local_sweeps, rotations, "auto")
+    opts, w, index, bw, scale, g = _start(prod, cand, w, index, opts, edge_weights)
+    f0 = _objective(bw, g, index)
+    lookup = _lookup(cand)
+    mate_a, mate_b = _mates(cand, index)
+    dirty = np.zeros(cand.m, dtype=np.uint8)
+
+    def ids(v):
+        return np.ascontiguousarray(v, dtype=np.int64).reshape(-1)
+
+    mark_changes(cand.a_indptr, lookup.col_ptr, lookup.col_idx, lookup.pair_a, lookup.pair_b, mate_a, mate_b, dirty,
+                 ids(touched), ids(freed_a), ids(freed_b))
+    marked = int(np.count_nonzero(dirty))
+    g_ls = g.copy()
+    moves = 0
+    if marked and opts.local_sweeps:
+        moves, _, _ = _local_search(prod.indptr, prod.indices, opts.s_w, cand.a_indptr, lookup.col_ptr,
+                                    lookup.col_idx, lookup.pair_a, lookup.pair_b, bw, g_ls, mate_a, mate_b,
+                                    opts.local_sweeps, opts.rotations, RISE_TOL, opts.s_max, dirty)
+    final = np.sort(mate_a[mate_a >= 0]) if moves else index
+    f1 = _objective(bw, g_ls, final) if moves else f0
+    if edge_weights is not None:  # the reported figures count edges
+        g, g_ls = _matched_counts(prod, index), _matched_counts(prod, final)
+    res = RefineResult(index=final, iterations=0, objective=[f0, f1], conserved_before=_conserved(g, index),
+                       conserved_after=_conserved(g_ls, final), weight_before=float(w[index].sum()),
+                       weight_after=float(w[final].sum()), local_moves=int(moves), rounds=1, hit_cap=False,
+                       beta=opts.beta, w_scale=scale, counts="edges" if edge_weights is None else "agreement",
+                       seconds=time.perf_counter() - t0)
+    return res, marked
 
 
 #: Other results of several starts that conserve at least (1 - NEAR_TIE) times the edges of the

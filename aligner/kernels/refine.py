@@ -162,64 +162,135 @@ def _raise_bounds(s_indptr, s_indices, pair_a, pair_b, bw, g, added, r1, r1_at, 
 
 
 @numba.njit(cache=True, nogil=True)
-def _mark_row(c_indptr, dirty, i):
-    """Mark the candidates of node i of A; returns how many."""
+def _mark_row(c_indptr, dirty, i, bits):
+    """Mark the candidates of node i of A with ``bits``; returns how many."""
     for t in range(c_indptr[i], c_indptr[i + 1]):
-        dirty[t] = 3
+        dirty[t] |= bits
     return c_indptr[i + 1] - c_indptr[i]
 
 
 @numba.njit(cache=True, nogil=True)
-def _mark_col(col_ptr, col_idx, dirty, b):
-    """Mark the candidates of node b of B; returns how many."""
+def _mark_col(col_ptr, col_idx, dirty, b, bits):
+    """Mark the candidates of node b of B with ``bits``; returns how many."""
     for e in range(col_ptr[b], col_ptr[b + 1]):
-        dirty[col_idx[e]] = 3
+        dirty[col_idx[e]] |= bits
     return col_ptr[b + 1] - col_ptr[b]
 
 
 @numba.njit(cache=True, nogil=True)
-def _mark_node_a(c_indptr, pair_a, pair_b, mate_b, dirty, a):
-    """Mark the candidates whose moves read the partner of node a of A: its own (a 2-exchange's k)
-    and, for every candidate s = (a, b'), those of the node of A matched at b' (the 3-rotations
-    through s, whose r is a's pair). Returns the marks made."""
-    work = _mark_row(c_indptr, dirty, a)
-    for s in range(c_indptr[a], c_indptr[a + 1]):
-        k = mate_b[pair_b[s]]
-        if k >= 0:
-            work += _mark_row(c_indptr, dirty, pair_a[k])
+def _mark_rotations_through(c_indptr, col_ptr, col_idx, pair_a, pair_b, mate_a, mate_b, dirty, i, hb):
+    """Mark (bit 2) the candidates p = (i, j') whose 3-rotations can end at node h' = ``hb`` of B:
+    those with q = (j, h') a candidate, j the node of A matched at j' (that is, j' the partner
+    of some j with a candidate at h'). Returns the look-ups made."""
+    work = 0
+    lo = c_indptr[i]
+    hi = c_indptr[i + 1]
+    for e in range(col_ptr[hb], col_ptr[hb + 1]):
+        l = mate_a[pair_a[col_idx[e]]]
+        if l < 0:
+            continue
+        p = _find(pair_b, lo, hi, pair_b[l])
+        work += 1
+        if p >= 0:
+            dirty[p] |= 2
     return work
 
 
 @numba.njit(cache=True, nogil=True)
 def mark_pair(c_indptr, col_ptr, col_idx, pair_a, pair_b, mate_a, mate_b, dirty, t):
     """Mark every candidate p whose moves in :func:`_local_search` read the value bw + g of pair
-    t = (a, b'): p = t; p at a (t as k) and, for every candidate s = (a, h'), p at the node of A
-    matched at h' (t as a rotation's r, or as its s when s = t) (:func:`_mark_node_a`); p at the
-    node of B matched at a (t as l, when t is that match, or as a 2-exchange's or a rotation's
-    q). A superset is harmless: a marked candidate is only examined again. Returns the marks
-    made."""
-    dirty[t] = 3
-    work = 1 + _mark_node_a(c_indptr, pair_a, pair_b, mate_b, dirty, pair_a[t])
-    l = mate_a[pair_a[t]]
+    t = (a, b'), under the current matching (both bits where a 2-exchange reads it, bit 2 where
+    only a 3-rotation does). In the notation there (p = (i, j'), k and l matched at i and j',
+    q = (j, i'), and for a rotation s = (h, i'), r matched at h, q = (j, h')):
+
+    - t = p;
+    - t = k (t matched): the candidates at a; t = l: those at b';
+    - t = q of a 2-exchange: the one candidate (node matched at b', node matched at a);
+    - t = s: with r the pair matched at a and k at b', the candidates at k's node of A whose
+      rotation ends at r's node of B; t = r (t matched): the same for every s = (a, i') at a;
+    - t = q of a rotation: with r the pair matched at b' and l at a, the candidates at l's node
+      of B whose node of A is matched at the node of B of some candidate s at r's node of A.
+
+    A superset is harmless (a marked candidate is only examined again). Returns the marks and
+    look-ups made."""
+    dirty[t] |= 3
+    a = pair_a[t]
+    b = pair_b[t]
+    work = 1
+    matched = mate_a[a] == t
+    if matched:
+        work += _mark_row(c_indptr, dirty, a, 3)
+        work += _mark_col(col_ptr, col_idx, dirty, b, 3)
+    l = mate_a[a]
+    k = mate_b[b]
+    if l >= 0 and k >= 0:
+        p = _find(pair_b, c_indptr[pair_a[k]], c_indptr[pair_a[k] + 1], pair_b[l])
+        if p >= 0:
+            dirty[p] |= 3
+    if l >= 0 and k >= 0:  # t as a rotation's q = (j, h'): r = k, j' = l's node of B
+        for s in range(c_indptr[pair_a[k]], c_indptr[pair_a[k] + 1]):
+            ks = mate_b[pair_b[s]]
+            if ks >= 0:
+                i = pair_a[ks]
+                p = _find(pair_b, c_indptr[i], c_indptr[i + 1], pair_b[l])
+                work += 1
+                if p >= 0:
+                    dirty[p] |= 2
     if l >= 0:
-        work += _mark_col(col_ptr, col_idx, dirty, pair_b[l])
+        if matched:  # t as r: every s at a
+            for s in range(c_indptr[a], c_indptr[a + 1]):
+                ks = mate_b[pair_b[s]]
+                if ks >= 0:
+                    work += _mark_rotations_through(c_indptr, col_ptr, col_idx, pair_a, pair_b, mate_a, mate_b,
+                                                    dirty, pair_a[ks], pair_b[l])
+        elif k >= 0:  # t as s
+            work += _mark_rotations_through(c_indptr, col_ptr, col_idx, pair_a, pair_b, mate_a, mate_b, dirty,
+                                            pair_a[k], pair_b[l])
+    return work
+
+
+@numba.njit(cache=True, nogil=True)
+def _mark_partner_a(c_indptr, pair_a, pair_b, mate_b, dirty, a):
+    """Mark the candidates whose moves read the partner of node a of A: its own (both bits) and,
+    for every candidate s = (a, i'), those of the node matched at i' (bit 2: the rotations
+    whose r is a's pair). Returns the marks made."""
+    work = _mark_row(c_indptr, dirty, a, 3)
+    for s in range(c_indptr[a], c_indptr[a + 1]):
+        k = mate_b[pair_b[s]]
+        if k >= 0:
+            work += _mark_row(c_indptr, dirty, pair_a[k], 2)
     return work
 
 
 @numba.njit(cache=True, nogil=True)
 def _mark_move(s_indptr, s_indices, c_indptr, col_ptr, col_idx, pair_a, pair_b, mate_a, mate_b, dirty, moved):
     """After a move (the pairs ``moved``, removed and added, -1 skipped): mark the candidates
-    whose moves read a partner that changed (the moved pairs' nodes) or a g that changed (the
-    moved pairs' product-graph neighbours). Returns the marks made."""
+    whose moves read a partner that changed (at the moved pairs' nodes) or a g that changed (of
+    the moved pairs' product-graph neighbours). Returns the marks made."""
     work = 0
     for u in range(moved.shape[0]):
         k = moved[u]
         if k < 0:
             continue
-        work += _mark_node_a(c_indptr, pair_a, pair_b, mate_b, dirty, pair_a[k])
-        work += _mark_col(col_ptr, col_idx, dirty, pair_b[k])
+        work += _mark_partner_a(c_indptr, pair_a, pair_b, mate_b, dirty, pair_a[k])
+        work += _mark_col(col_ptr, col_idx, dirty, pair_b[k], 3)
         for e in range(s_indptr[k], s_indptr[k + 1]):
             work += mark_pair(c_indptr, col_ptr, col_idx, pair_a, pair_b, mate_a, mate_b, dirty, s_indices[e])
+    return work
+
+
+@numba.njit(cache=True, nogil=True)
+def mark_changes(c_indptr, col_ptr, col_idx, pair_a, pair_b, mate_a, mate_b, dirty, pairs, nodes_a, nodes_b):
+    """Mark for :func:`_local_search` the candidates whose moves read the value of one of
+    ``pairs`` (:func:`mark_pair`) or the partner of one of ``nodes_a`` (of A) or ``nodes_b`` (of
+    B). Returns the marks made."""
+    work = 0
+    for u in range(pairs.shape[0]):
+        work += mark_pair(c_indptr, col_ptr, col_idx, pair_a, pair_b, mate_a, mate_b, dirty, pairs[u])
+    for u in range(nodes_a.shape[0]):
+        work += _mark_partner_a(c_indptr, pair_a, pair_b, mate_b, dirty, nodes_a[u])
+    for u in range(nodes_b.shape[0]):
+        work += _mark_col(col_ptr, col_idx, dirty, nodes_b[u], 3)
     return work
 
 

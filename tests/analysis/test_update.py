@@ -375,3 +375,59 @@ def test_scores_are_carried_by_node_whatever_the_new_numbering(keep_order):
         assert x0[k] == (0.0 if i is None else old_x[i])
         assert same[k] == (i is not None and abs(new.prior[k] - old.prior[i]) <= 1e-6 * old.prior[i])
     assert kept.sum() > 100 and same.sum() > 30
+
+
+# --- one refinement start: the update continues the previous run's local search ---------------
+# align refines large problems from one start (Frank–Wolfe from the rounded matching, then the
+# local search); an update then continues the local search from the previous final matching over
+# the candidates the change reached (docs/method.md, "Updates after the inputs change"). The
+# reference stays align on the new inputs from zero, with the same options.
+
+@pytest.fixture(scope="module", params=[("powerlaw", 0.05, "uniform"), ("dupdiv", 0.25, "near")],
+                ids=["powerlaw-uniform", "dupdiv-near"])
+def one_start(tmp_path_factory, request):
+    graph, noise, decoys = request.param
+    d = tmp_path_factory.mktemp("update_one_start")
+    pair = noisy_relabelled(1500, graph=graph, seed=23, noise=noise, decoys=8, decoy_mode=decoys)
+    a, b, prior, _ = as_frames(pair)
+    for name, frame in (("a.tsv", a), ("b.tsv", b), ("p.tsv", prior)):
+        frame.to_csv(d / name, sep="\t", index=False)
+    write_outputs(d / "run", aligner.align(d / "a.tsv", d / "b.tsv", d / "p.tsv", refine_starts=1))
+    return d, a, b, prior
+
+
+def _changed_inputs(d, a, b, prior, change, rng):
+    """New input files for one kind of change: (network_a, network_b, prior) paths."""
+    files = {"a": d / "a.tsv", "b": d / "b.tsv", "p": d / "p.tsv"}
+    if change == "rewire-b":
+        b2 = b.copy()
+        rows = rng.choice(len(b2), len(b2) // 100, replace=False)
+        b2.iloc[rows, 1] = rng.choice(b2.iloc[:, 0].unique(), len(rows))
+        files["b"] = _write(d, "b_rw.tsv", b2)
+    elif change == "nodes-a":
+        new = [f"new{i}" for i in range(15)]
+        a2 = pd.concat([a.iloc[10:], pd.DataFrame({"node_a": new, "node_b": list(rng.choice(a.iloc[:, 0].unique(), 15))})],
+                       ignore_index=True)
+        p2 = pd.concat([prior, pd.DataFrame({"node_a": new, "node_b": list(rng.choice(b.iloc[:, 0].unique(), 15)),
+                                             "score": rng.random(15) + 0.5})], ignore_index=True)
+        files["a"], files["p"] = _write(d, "a_nodes.tsv", a2), _write(d, "p_nodes.tsv", p2)
+    else:  # prior rows of 1 % of the nodes of A rescored
+        p2 = prior.copy()
+        asked = rng.choice(a.iloc[:, 0].unique(), 15, replace=False)
+        rows = np.flatnonzero(p2["node_a"].isin(asked).to_numpy())
+        p2.loc[rows, "score"] = p2.loc[rows, "score"] * rng.uniform(0.5, 1.5, len(rows))
+        files["p"] = _write(d, "p_rescored.tsv", p2)
+    return files["a"], files["b"], files["p"]
+
+
+@pytest.mark.parametrize("change", ["rewire-b", "nodes-a", "prior"])
+def test_one_start_continues_the_search_and_agrees_with_align(one_start, change):
+    d, a, b, prior = one_start
+    new_a, new_b, new_p = _changed_inputs(d, a, b, prior, change, np.random.default_rng(5))
+    upd = update(d / "run", network_a=new_a, network_b=new_b, prior=new_p)
+    ref = aligner.align(new_a, new_b, new_p, refine_starts=1)
+    _agree(upd, ref)
+    u = upd.summary["update"]
+    assert u["mode"] == "incremental" and u["refine"]["mode"] == "continued"
+    assert 0 < u["refine"]["candidates_marked"] < ref.candidates.m  # the search followed the change
+    assert upd.evaluation.scores.conserved_edges == ref.evaluation.scores.conserved_edges

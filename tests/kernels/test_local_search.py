@@ -184,3 +184,33 @@ def test_work_list_continues_after_values_change(seed, directed):
         np.testing.assert_array_equal(la, fa)
         moving += full[0] > 0
     assert moving >= 10  # a guard: many of the draws had moves to make
+
+
+@pytest.mark.parametrize("directed", [False, True])
+@pytest.mark.parametrize("seed", range(4))
+def test_work_list_continues_after_matched_values_fall(seed, directed):
+    """As above, with the values of matched pairs lowered (moves that give them up, 3-rotations
+    among them, become the improving ones) and weights large against the conserved edges."""
+    from aligner.kernels.refine import mark_pair
+    cand, prod, rng = _instance(300 + seed, directed, n=60, p_edge=0.1, p_cand=0.12)
+    bw = 3.0 * normalise_weights(rng.random(cand.m))[0]
+    lk, mate_a, mate_b, g = _kernel_args(cand, prod, bw, _random_start(cand, rng))
+    _, opt_a, opt_g = _search(cand, prod, bw, lk, mate_a, mate_b, g, np.empty(0, dtype=np.uint8))
+    opt_b = np.full(cand.n2, -1, dtype=np.int64)
+    opt_b[lk.pair_b[opt_a[opt_a >= 0]]] = opt_a[opt_a >= 0]
+    matched = opt_a[opt_a >= 0]
+    rotating = 0
+    for _ in range(300):
+        changed = rng.choice(matched, rng.integers(1, 3), replace=False)
+        bw2 = bw.copy()
+        bw2[changed] *= rng.uniform(0.0, 0.7, len(changed))
+        dirty = np.zeros(cand.m, dtype=np.uint8)
+        for t in changed:
+            mark_pair(cand.a_indptr, lk.col_ptr, lk.col_idx, lk.pair_a, lk.pair_b, opt_a, opt_b, dirty, t)
+        full, fa, _ = _search(cand, prod, bw2, lk, opt_a, opt_b, opt_g, np.empty(0, dtype=np.uint8))
+        listed, la, _ = _search(cand, prod, bw2, lk, opt_a, opt_b, opt_g, dirty)
+        assert listed[:2] == full[:2]
+        np.testing.assert_array_equal(la, fa)
+        _, two_a, _ = _search(cand, prod, bw2, lk, opt_a, opt_b, opt_g, np.empty(0, dtype=np.uint8), rotations=False)
+        rotating += not np.array_equal(two_a, fa)
+    assert rotating >= 5  # a guard: in some draws the rotations changed the result
