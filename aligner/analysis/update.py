@@ -383,6 +383,10 @@ def _carry(state, problem) -> tuple[np.ndarray, dict, _Maps]:
 #: update's refinement; a move the search skips elsewhere gains at most six such changes (plus the
 #: single-precision rounding of the kept scores, 2^-24 of a pair's weight).
 VALUE_TOL = 1e-3
+#: Above this share of candidates touched the continued search costs as much as align's
+#: refinement (its marking and look-ups cost more per candidate than a sweep; measured at 10^5
+#: nodes: docs/update_benchmark.md), so the update refines as align does.
+CONTINUE_SHARE = 0.05
 
 
 def _neighbour_rows(net, nodes: np.ndarray) -> np.ndarray:
@@ -442,6 +446,11 @@ def _continued_refinement(state, maps: _Maps, x0: np.ndarray, record: dict):
         cols = np.zeros(cand.n2, dtype=bool)
         cols[maps.ends_b] = True
         touched |= rows[cand.pairs[:, 0]] | cols[cand.pairs[:, 1]]
+        share = float(touched.mean()) if cand.m else 0.0
+        if share > CONTINUE_SHARE:
+            record.update(mode="full", reason=f"the change touched {share:.1%} of the candidates (more than "
+                                              f"{CONTINUE_SHARE:.0%}): refined as align", pairs_touched=int(touched.sum()))
+            return None
         res, marked = continue_local_search(prod, cand, diffusion.x, start, np.flatnonzero(touched), freed_a,
                                             freed_b, beta=cfg.beta)
         f_rounded, c_rounded = refine_objective(prod, bw_new, rounded.index)

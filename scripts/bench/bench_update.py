@@ -15,8 +15,10 @@ memory the system has not handed out yet, which would otherwise fall on whicheve
 - ``prior-1%``: the prior rows of 1 % of the nodes of A rescored (times 0.5 to 1.5).
 
 Recorded per change: seconds of the update and of the full run and their ratio, the update's
-stage seconds, pushes of each, whether the matchings are the same, the largest score difference
-against the sum of the two certified bounds, and the update's mode.
+stage seconds, how it refined (``update.refine`` of the summary: the local search continued
+from the previous matching, with the candidates it marked, or as ``align``), pushes of each,
+whether the matchings are the same, the largest score difference against the sum of the two
+certified bounds, and the update's mode.
 
     python scripts/bench/bench_update.py --sizes 100000 --markdown docs/update_benchmark.md
 
@@ -116,6 +118,8 @@ def run(n: int, seed: int, repeats: int = 2) -> list[dict]:
                      "read_s": t.get("read"), "product_s": t.get("product"), "diffusion_s": t.get("diffusion"),
                      "rounding_s": t.get("rounding"), "refine_s": t.get("refine"), "scoring_s": t.get("scoring"), "candidates_s": t.get("candidates"),
                      "carry_s": u["carry_seconds"], "pushes": u["pushes"], "full_pushes": ref.diffusion.steps,
+                     "refine_mode": (u["refine"] or {}).get("mode"),
+                     "refine_marked": (u["refine"] or {}).get("candidates_marked"),
                      "same_matching": same, "matches_changed": u["matches_changed"],
                      "max_score_gap": gap, "bounds": upd.diffusion.error_bound + ref.diffusion.error_bound})
         print(rows[-1], flush=True)
@@ -145,15 +149,18 @@ def markdown(rows: list[dict], command: str) -> str:
              "reading included, writing excluded, the best of the runs of each (alternately); the stage seconds are "
              f"the last update's. At the start: {MEMORY or memory_pages()}.", "",
              "| nodes | change | mode | update s | full run s | ratio | update: read / product / diffusion / rounding / "
-             "refine / scoring / carry s | pushes (update / full) | same matching | matches changed "
-             "| max score gap (bounds) |",
-             "|---:|---|---|---:|---:|---:|---|---:|---|---:|---|"]
+             "refine / scoring / carry s | refinement (candidates marked) | pushes (update / full) | same matching "
+             "| matches changed | max score gap (bounds) |",
+             "|---:|---|---|---:|---:|---:|---|---|---:|---|---:|---|"]
     for r in rows:
         stages = " / ".join(f"{r[k]}" for k in ("read_s", "product_s", "diffusion_s", "rounding_s", "refine_s",
                                                 "scoring_s", "carry_s"))
         gap = "n/a" if r["max_score_gap"] is None else f"{r['max_score_gap']:.1e} ({r['bounds']:.1e})"
+        refine = r["refine_mode"] or "n/a"
+        if r["refine_marked"] is not None:
+            refine += f" ({r['refine_marked']:,})"
         lines.append(f"| {r['nodes']:,} | {r['change']} | {r['mode']} | {r['update_s']} | {r['full_s']} | "
-                     f"{r['ratio']:.0%} | {stages} | {r['pushes']:,} / {r['full_pushes']:,} | "
+                     f"{r['ratio']:.0%} | {stages} | {refine} | {r['pushes']:,} / {r['full_pushes']:,} | "
                      f"{'yes' if r['same_matching'] else 'no'} | {r['matches_changed']:,} | {gap} |")
     return "\n".join(lines) + "\n"
 

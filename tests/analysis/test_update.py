@@ -421,7 +421,9 @@ def _changed_inputs(d, a, b, prior, change, rng):
 
 
 @pytest.mark.parametrize("change", ["rewire-b", "nodes-a", "prior"])
-def test_one_start_continues_the_search_and_agrees_with_align(one_start, change):
+def test_one_start_continues_the_search_and_agrees_with_align(one_start, change, monkeypatch):
+    import aligner.analysis.update as upd_module
+    monkeypatch.setattr(upd_module, "CONTINUE_SHARE", 1.0)  # these small changes touch a few % at 1,500 nodes
     d, a, b, prior = one_start
     new_a, new_b, new_p = _changed_inputs(d, a, b, prior, change, np.random.default_rng(5))
     upd = update(d / "run", network_a=new_a, network_b=new_b, prior=new_p)
@@ -431,3 +433,15 @@ def test_one_start_continues_the_search_and_agrees_with_align(one_start, change)
     assert u["mode"] == "incremental" and u["refine"]["mode"] == "continued"
     assert 0 < u["refine"]["candidates_marked"] < ref.candidates.m  # the search followed the change
     assert upd.evaluation.scores.conserved_edges == ref.evaluation.scores.conserved_edges
+
+
+def test_a_change_touching_many_candidates_refines_as_align(one_start):
+    d, a, b, prior = one_start
+    b2 = b.copy()
+    rows = np.random.default_rng(6).choice(len(b2), len(b2) // 10, replace=False)  # 10 % rewired
+    b2.iloc[rows, 1] = np.random.default_rng(7).choice(b2.iloc[:, 0].unique(), len(rows))
+    new_b = _write(d, "b_rw10.tsv", b2)
+    upd = update(d / "run", network_b=new_b)
+    r = upd.summary["update"]["refine"]
+    assert upd.summary["update"]["mode"] == "incremental" and r["mode"] == "full" and "touched" in r["reason"]
+    _agree(upd, aligner.align(d / "a.tsv", new_b, d / "p.tsv", refine_starts=1))
