@@ -439,7 +439,11 @@ def _continued_refinement(state, maps: _Maps, x0: np.ndarray, record: dict):
         old_x = state.x.astype(np.float64)
         bw_old = cfg.beta * x0 / normalise_weights(old_x)[1]
         bw_new = cfg.beta * normalise_weights(diffusion.x)[0]
-        touched = ~maps.kept | (np.abs(bw_new - bw_old) > VALUE_TOL)
+        # a value that moved helps a move only where it rose on a pair the move adds (one not
+        # matched) or fell on one it removes (a matched one)
+        moved = bw_new - bw_old
+        moved[start] *= -1.0
+        touched = ~maps.kept | (moved > VALUE_TOL)
         rows = np.zeros(cand.n1, dtype=bool)
         rows[maps.ends_a] = True  # their product-graph rows changed
         rows[_neighbour_rows(problem.network_a, lost_a)] = True  # a matched neighbour left them
