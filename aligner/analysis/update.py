@@ -423,7 +423,7 @@ def _continued_refinement(state, maps: _Maps, x0: np.ndarray, record: dict):
     problems), seed pairs, or a weighted run counting agreement (whose entry weights can change
     where no edge did), and when the continued search ends below the new rounded matching's F
     (``align`` never ends below it). ``record`` receives what was done, for the summary."""
-    from aligner.core.refine import continue_local_search, normalise_weights, refine_objective
+    from aligner.core.refine import RISE_TOL, continue_local_search, normalise_weights, refine_objective
     from aligner.pipeline import Improvement, _counted_weights, refine_starts
 
     def run(problem, diffusion, rounded):
@@ -436,14 +436,17 @@ def _continued_refinement(state, maps: _Maps, x0: np.ndarray, record: dict):
             record.update(mode="full", reason=why)
             return None
         start, freed_a, freed_b, lost_a = _previous_matching(state, maps, cand)
-        old_x = state.x.astype(np.float64)
-        bw_old = cfg.beta * x0 / normalise_weights(old_x)[1]
-        bw_new = cfg.beta * normalise_weights(diffusion.x)[0]
+        bw_new = normalise_weights(diffusion.x)[0]
+        bw_new *= cfg.beta  # the search's weights, to the bit (arrays of m entries are made sparingly)
+        old_scale = float(np.mean(state.x, where=state.x > 0, dtype=np.float64)) if (state.x > 0).any() else 1.0
         # a value that moved helps a move only where it rose on a pair the move adds (one not
         # matched) or fell on one it removes (a matched one)
-        moved = bw_new - bw_old
+        moved = np.multiply(x0, -cfg.beta / old_scale)
+        moved += bw_new
         moved[start] *= -1.0
-        touched = ~maps.kept | (moved > VALUE_TOL)
+        touched = moved > VALUE_TOL
+        del moved
+        touched |= ~maps.kept
         rows = np.zeros(cand.n1, dtype=bool)
         rows[maps.ends_a] = True  # their product-graph rows changed
         rows[_neighbour_rows(problem.network_a, lost_a)] = True  # a matched neighbour left them
@@ -459,7 +462,7 @@ def _continued_refinement(state, maps: _Maps, x0: np.ndarray, record: dict):
                                             freed_b, beta=cfg.beta)
         f_rounded, c_rounded = refine_objective(prod, bw_new, rounded.index)
         record.update(pairs_touched=int(touched.sum()), candidates_marked=marked, moves=res.local_moves)
-        if res.objective[-1] < f_rounded:
+        if res.objective[-1] < f_rounded - RISE_TOL * (1.0 + abs(f_rounded)):
             record.update(mode="full", reason="the continued search ended below the new rounded matching")
             return None
         record.update(mode="continued", reason="local search from the previous matching")

@@ -263,12 +263,12 @@ def _check_matching(cand: CandidateSet, index: npt.NDArray[np.int64]) -> None:
     if len(outside):
         raise bad_parameter("index", f"candidate indices in [0, {cand.m})", int(outside[0]))
     p = cand.pairs[index]
-    for side, nodes in (("A", p[:, 0]), ("B", p[:, 1])):
-        values, counts = np.unique(nodes, return_counts=True)
-        if (counts > 1).any():
+    for side, nodes, n in (("A", p[:, 0], cand.n1), ("B", p[:, 1], cand.n2)):
+        counts = np.bincount(nodes, minlength=n)  # O(n), where a unique would sort or hash
+        if len(counts) and counts.max() > 1:
             raise InvalidParameterError(
                 "index must be a one-to-one matching of candidate pairs; got node "
-                f"{int(values[counts > 1][0])} of {side} in {int(counts.max())} of its pairs", param="index")
+                f"{int(np.argmax(counts > 1))} of {side} in {int(counts.max())} of its pairs", param="index")
 
 
 def _check_weights(prod: ProductGraph, cand: CandidateSet, w: npt.ArrayLike) -> npt.NDArray[np.float64]:
@@ -574,18 +574,18 @@ def continue_local_search(prod: ProductGraph, cand: CandidateSet, w: npt.ArrayLi
     mark_changes(cand.a_indptr, lookup.col_ptr, lookup.col_idx, lookup.pair_a, lookup.pair_b, mate_a, mate_b, dirty,
                  ids(touched), ids(freed_a), ids(freed_b))
     marked = int(np.count_nonzero(dirty))
-    g_ls = g.copy()
+    # the reported figures count edges
+    c0 = _conserved(g if edge_weights is None else _matched_counts(prod, index), index)
     moves = 0
-    if marked and opts.local_sweeps:
+    if marked and opts.local_sweeps:  # g follows the matching in place
         moves, _, _ = _local_search(prod.indptr, prod.indices, opts.s_w, cand.a_indptr, lookup.col_ptr,
-                                    lookup.col_idx, lookup.pair_a, lookup.pair_b, bw, g_ls, mate_a, mate_b,
+                                    lookup.col_idx, lookup.pair_a, lookup.pair_b, bw, g, mate_a, mate_b,
                                     opts.local_sweeps, opts.rotations, RISE_TOL, opts.s_max, dirty)
     final = np.sort(mate_a[mate_a >= 0]) if moves else index
-    f1 = _objective(bw, g_ls, final) if moves else f0
-    if edge_weights is not None:  # the reported figures count edges
-        g, g_ls = _matched_counts(prod, index), _matched_counts(prod, final)
-    res = RefineResult(index=final, iterations=0, objective=[f0, f1], conserved_before=_conserved(g, index),
-                       conserved_after=_conserved(g_ls, final), weight_before=float(w[index].sum()),
+    f1 = _objective(bw, g, final) if moves else f0
+    c1 = _conserved(g if edge_weights is None else _matched_counts(prod, final), final)
+    res = RefineResult(index=final, iterations=0, objective=[f0, f1], conserved_before=c0,
+                       conserved_after=c1, weight_before=float(w[index].sum()),
                        weight_after=float(w[final].sum()), local_moves=int(moves), rounds=1, hit_cap=False,
                        beta=opts.beta, w_scale=scale, counts="edges" if edge_weights is None else "agreement",
                        seconds=time.perf_counter() - t0)
