@@ -614,7 +614,9 @@ def evaluate(problem: Problem, diffusion: DiffusionResult, improvement: Improvem
     scores, cons, image = _score(inputs, matched, cfg)
     before = None
     if improvement.refined is not None:
-        before = _score(inputs, cand.pairs[improvement.rounded.index].astype(np.int64), cfg)[0]
+        rounded = improvement.rounded.index
+        same = len(rounded) == len(index) and np.array_equal(rounded, index)  # refinement moved nothing
+        before = scores if same else _score(inputs, cand.pairs[rounded].astype(np.int64), cfg)[0]
     if cfg.directed:
         sig = {"skipped": "not computed for directed networks: its null model counts undirected edges"}
     else:
