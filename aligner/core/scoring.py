@@ -115,6 +115,27 @@ def _key_order(edges_b: npt.NDArray[np.int64], directed: bool):
     return lo[order], hi[order], order
 
 
+#: from this many edges of A on, :func:`conserved_image` looks them up on two threads
+PARALLEL_EDGES = 500_000
+
+
+def _mapped_rows(u, v, f, indptr, col, directed: bool) -> npt.NDArray[np.int64]:
+    """:func:`aligner.kernels.scoring.mapped_edge_rows`, the two halves of the edges on two
+    threads when there are many (the kernel releases the GIL; each edge's answer is its own, so
+    the result is that of one pass)."""
+    from aligner.kernels.product import thread_count
+
+    if thread_count() < 2 or len(u) < PARALLEL_EDGES:
+        return mapped_edge_rows(u, v, f, indptr, col, directed)
+    from concurrent.futures import ThreadPoolExecutor
+
+    half = len(u) // 2
+    with ThreadPoolExecutor(2) as pool:
+        parts = pool.map(lambda lo, hi: mapped_edge_rows(u[lo:hi], v[lo:hi], f, indptr, col, directed),
+                         (0, half), (half, len(u)))
+        return np.concatenate(list(parts))
+
+
 def conserved_image(
     edges_a: npt.NDArray[np.integer], edges_b: npt.NDArray[np.integer], f: npt.NDArray[np.int64], n2: int,
     directed: bool = False,
@@ -137,7 +158,7 @@ def conserved_image(
     if n2 <= 2 * (len(lo) + len(f)):
         indptr = np.zeros(n2 + 1, dtype=np.int64)
         np.cumsum(np.bincount(lo, minlength=n2), out=indptr[1:])
-        pos = mapped_edge_rows(*_ends(ea), f, indptr, np.ascontiguousarray(hi), directed)
+        pos = _mapped_rows(*_ends(ea), f, indptr, np.ascontiguousarray(hi), directed)
     else:
         keys, pos = lo * n2 + hi, out.copy()
         fu, fv = f[ea[:, 0]], f[ea[:, 1]]

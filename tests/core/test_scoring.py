@@ -187,8 +187,13 @@ def test_conserved_mask_passes_the_node_count_and_direction_on():
     assert conserved_per_node(ea, np.zeros(2, bool), 3).dtype.kind == "i"
 
 
+@pytest.mark.parametrize("threads", ["one", "two"])
 @pytest.mark.parametrize("directed", [False, True])
-def test_conserved_image_on_unsorted_edges_with_repeats(rng, directed):
+def test_conserved_image_on_unsorted_edges_with_repeats(rng, directed, threads, monkeypatch):
+    import aligner.core.scoring as scoring
+    if threads == "two":  # the halves of A's edges on two threads, as from PARALLEL_EDGES edges on
+        monkeypatch.setattr(scoring, "PARALLEL_EDGES", 1)
+        monkeypatch.setattr("aligner.kernels.product.thread_count", lambda: 2)
     # Reference: a Python dict from each edge key of B to the first row holding it (the row the
     # lookup names when B repeats an edge), and the map applied edge by edge. B's rows are
     # shuffled, written either way round and repeated, so the edges are not in key order.
