@@ -17,12 +17,14 @@ References
 
 from __future__ import annotations
 
+from concurrent.futures import ThreadPoolExecutor
 from dataclasses import dataclass, field
 
 import numpy as np
 import numpy.typing as npt
 
 from aligner.errors import InvalidParameterError
+from aligner.kernels.product import thread_count
 from aligner.kernels.scoring import largest_component, mapped_edge_rows
 
 __all__ = ["Scores", "score_matching", "node_correctness", "share_correct", "edge_correctness",
@@ -123,12 +125,8 @@ def _mapped_rows(u, v, f, indptr, col, directed: bool) -> npt.NDArray[np.int64]:
     """:func:`aligner.kernels.scoring.mapped_edge_rows`, the two halves of the edges on two
     threads when there are many (the kernel releases the GIL; each edge's answer is its own, so
     the result is that of one pass)."""
-    from aligner.kernels.product import thread_count
-
     if thread_count() < 2 or len(u) < PARALLEL_EDGES:
         return mapped_edge_rows(u, v, f, indptr, col, directed)
-    from concurrent.futures import ThreadPoolExecutor
-
     half = len(u) // 2
     with ThreadPoolExecutor(2) as pool:
         parts = pool.map(lambda lo, hi: mapped_edge_rows(u[lo:hi], v[lo:hi], f, indptr, col, directed),

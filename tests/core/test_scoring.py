@@ -193,7 +193,7 @@ def test_conserved_image_on_unsorted_edges_with_repeats(rng, directed, threads, 
     import aligner.core.scoring as scoring
     if threads == "two":  # the halves of A's edges on two threads, as from PARALLEL_EDGES edges on
         monkeypatch.setattr(scoring, "PARALLEL_EDGES", 1)
-        monkeypatch.setattr("aligner.kernels.product.thread_count", lambda: 2)
+        monkeypatch.setattr(scoring, "thread_count", lambda: 2)
     # Reference: a Python dict from each edge key of B to the first row holding it (the row the
     # lookup names when B repeats an edge), and the map applied edge by edge. B's rows are
     # shuffled, written either way round and repeated, so the edges are not in key order.
