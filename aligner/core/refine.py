@@ -410,7 +410,7 @@ def _local_phase(prod: ProductGraph, cand: CandidateSet, bw: npt.NDArray[np.floa
     g_ls = inc.g.copy()
     mv, _, _ = _local_search(prod.indptr, prod.indices, opts.s_w, cand.a_indptr, lookup.col_ptr, lookup.col_idx,
                              lookup.pair_a, lookup.pair_b, bw, g_ls, mate_a, mate_b, opts.local_sweeps,
-                             opts.rotations, RISE_TOL, opts.s_max, np.full(cand.m, 3, dtype=np.uint8))
+                             opts.rotations, RISE_TOL, opts.s_max, None)
     if mv:
         new = np.sort(mate_a[mate_a >= 0])
         f_new = _objective(bw, g_ls, new)

@@ -62,7 +62,7 @@ STAGE_KERNELS: dict[str, list[tuple[str, str, str]]] = {
         ("refine", "_max_entry", f"{_I64}, {_I32}"),
         ("refine", "_matched_neighbours", f"{_I64}, {_I32}, {_F64}, {_I64}, {_F64}"),
         ("refine", "_local_search", f"{_I64}, {_I32}, {_F64}, {_I64}, {_I64}, {_I64}, {_I64}, {_I64}, {_F64}, {_F64}, "
-                                    f"{_I64}, {_I64}, int64, boolean, float64, float64, uint8[::1]"),
+                                    f"{_I64}, {_I64}, int64, boolean, float64, float64, none"),
     ],
     "scoring": [
         ("scoring", "mapped_edge_rows", f"{_I64}, {_I64}, {_I64}, {_I64}, {_I64}, boolean"),

@@ -340,13 +340,14 @@ def _local_search(s_indptr, s_indices, s_w, c_indptr, col_ptr, col_idx, pair_a, 
     rotations (or, without them, a 2-exchange sweep) that makes no move, or after
     ``max_sweeps`` sweeps.
 
-    **Work list.** With a non-empty ``dirty`` (one uint8 per candidate) a sweep examines only the
+    **Work list.** With a ``dirty`` array (one uint8 per candidate) a sweep examines only the
     candidates marked there: bit 1 asks for the 2-exchanges, bit 2 for the rotations (a sweep
     with rotations examines a candidate with either bit). Examining clears the bits it answers;
-    every move marks (both bits) each candidate whose moves read a value the move changed
-    (:func:`_mark_move`), so a candidate left unmarked would make no move if examined: the
-    moves, sweeps and result are those of the search over every candidate, which is what an
-    empty ``dirty`` gives (all candidates, every sweep). All bits set on entry is a search from
+    every move marks each candidate whose moves read a value the move changed (both bits, or
+    bit 2 where only a rotation reads it: :func:`_mark_move`), so a candidate left unmarked would make no move if examined: the
+    moves, sweeps and result are those of the search over every candidate, which is what
+    ``dirty=None`` gives (all candidates, every sweep; numba then compiles none of the marking,
+    which keeps a default run's first compile as it was). All bits set on entry is a search from
     scratch; only some set continues a search whose matching was a local optimum before the
     values of the marked candidates changed. When the marks of one sweep pass ``m``, marking
     stops, and the rest of that sweep and the next examine every candidate.
@@ -368,22 +369,22 @@ def _local_search(s_indptr, s_indices, s_w, c_indptr, col_ptr, col_idx, pair_a, 
     c1 = np.zeros(n2)
     c1_at = np.full(n2, -1, dtype=np.int64)
     c2 = np.zeros(n2)
-    listed = dirty.shape[0] > 0
     m = c_indptr[n1]
     marks = 0  # marks made in this sweep; past m the next sweep examines everything
     both = np.empty(6, dtype=np.int64)
     while sweeps < max_sweeps:
         sweeps += 1
         moved = 0
-        if listed and marks > m:
-            dirty[:] = 3
+        if dirty is not None:
+            if marks > m:
+                dirty[:] = 3
         marks = 0
         _row_bounds(c_indptr, bw, g, r1, r1_at, r2)
         if rotate:
             _col_bounds(col_ptr, col_idx, bw, g, c1, c1_at, c2)
         for i in range(n1):
             for p in range(c_indptr[i], c_indptr[i + 1]):
-                if listed:
+                if dirty is not None:
                     flag = dirty[p]
                     if rotate:
                         if flag == 0:
@@ -431,13 +432,14 @@ def _local_search(s_indptr, s_indices, s_w, c_indptr, col_ptr, col_idx, pair_a, 
                     add[2] = -1
                     _apply(s_indptr, s_indices, s_w, g, pair_a, pair_b, mate_a, mate_b, rem, add)
                     _raise_bounds(s_indptr, s_indices, pair_a, pair_b, bw, g, add, r1, r1_at, r2, c1, c1_at, c2)
-                    if listed and marks <= m:
-                        both[:3] = rem
-                        both[3:] = add
-                        marks += _mark_move(s_indptr, s_indices, c_indptr, col_ptr, col_idx, pair_a, pair_b, mate_a,
-                                            mate_b, dirty, both)
-                        if marks > m:  # too many to follow: everything from here, and next sweep
-                            dirty[:] = 3
+                    if dirty is not None:
+                        if marks <= m:
+                            both[:3] = rem
+                            both[3:] = add
+                            marks += _mark_move(s_indptr, s_indices, c_indptr, col_ptr, col_idx, pair_a, pair_b,
+                                                mate_a, mate_b, dirty, both)
+                            if marks > m:  # too many to follow: everything from here, and next sweep
+                                dirty[:] = 3
                     gain += delta
                     moved += 1
                     continue
@@ -484,13 +486,14 @@ def _local_search(s_indptr, s_indices, s_w, c_indptr, col_ptr, col_idx, pair_a, 
                         add[2] = s
                         _apply(s_indptr, s_indices, s_w, g, pair_a, pair_b, mate_a, mate_b, rem, add)
                         _raise_bounds(s_indptr, s_indices, pair_a, pair_b, bw, g, add, r1, r1_at, r2, c1, c1_at, c2)
-                        if listed and marks <= m:
-                            both[:3] = rem
-                            both[3:] = add
-                            marks += _mark_move(s_indptr, s_indices, c_indptr, col_ptr, col_idx, pair_a, pair_b,
-                                                mate_a, mate_b, dirty, both)
-                            if marks > m:
-                                dirty[:] = 3
+                        if dirty is not None:
+                            if marks <= m:
+                                both[:3] = rem
+                                both[3:] = add
+                                marks += _mark_move(s_indptr, s_indices, c_indptr, col_ptr, col_idx, pair_a, pair_b,
+                                                    mate_a, mate_b, dirty, both)
+                                if marks > m:
+                                    dirty[:] = 3
                         gain += d
                         moved += 1
                         break

@@ -108,7 +108,7 @@ def test_local_search_stops_at_a_local_optimum(seed, directed):
 
 # --- the work list ---------------------------------------------------------------------------
 # The kernel can examine only the candidates marked in ``dirty`` (those whose moves read a value
-# that changed). The reference is the same kernel with an empty ``dirty``, which examines every
+# that changed). The reference is the same kernel with ``dirty=None``, which examines every
 # candidate in every sweep (the search as first written; its end state is checked by brute force
 # above): with the work list the moves, sweeps and gain must be the same, not just as good.
 
@@ -147,7 +147,7 @@ def test_work_list_makes_the_moves_of_the_full_search(seed, directed, rotations)
     cand, prod, rng = _instance(100 + seed, directed, n=120, p_edge=0.06, p_cand=0.08)
     bw = 0.5 * normalise_weights(rng.random(cand.m))[0]
     lk, mate_a, mate_b, g = _kernel_args(cand, prod, bw, _random_start(cand, rng))
-    full, fa, fg = _search(cand, prod, bw, lk, mate_a, mate_b, g, np.empty(0, dtype=np.uint8), rotations)
+    full, fa, fg = _search(cand, prod, bw, lk, mate_a, mate_b, g, None, rotations)
     listed, la, lg = _search(cand, prod, bw, lk, mate_a, mate_b, g, np.full(cand.m, 3, dtype=np.uint8), rotations)
     assert full[0] > 0 and full[1] > 2  # a guard on the case: several sweeps with moves
     assert listed[:2] == full[:2]  # the same moves and sweeps
@@ -166,7 +166,7 @@ def test_work_list_continues_after_values_change(seed, directed):
     cand, prod, rng = _instance(200 + seed, directed, n=60, p_edge=0.1, p_cand=0.12)
     bw = 0.5 * normalise_weights(rng.random(cand.m))[0]
     lk, mate_a, mate_b, g = _kernel_args(cand, prod, bw, _random_start(cand, rng))
-    _, opt_a, opt_g = _search(cand, prod, bw, lk, mate_a, mate_b, g, np.empty(0, dtype=np.uint8))
+    _, opt_a, opt_g = _search(cand, prod, bw, lk, mate_a, mate_b, g, None)
     opt_b = np.full(cand.n2, -1, dtype=np.int64)
     opt_b[lk.pair_b[opt_a[opt_a >= 0]]] = opt_a[opt_a >= 0]
     moving = 0
@@ -178,7 +178,7 @@ def test_work_list_continues_after_values_change(seed, directed):
         for t in changed:
             mark_pair(cand.a_indptr, lk.col_ptr, lk.col_idx, lk.pair_a, lk.pair_b, opt_a, opt_b, dirty, t)
         assert (dirty > 0).sum() < cand.m  # a guard: not everything is marked
-        full, fa, _ = _search(cand, prod, bw2, lk, opt_a, opt_b, opt_g, np.empty(0, dtype=np.uint8))
+        full, fa, _ = _search(cand, prod, bw2, lk, opt_a, opt_b, opt_g, None)
         listed, la, _ = _search(cand, prod, bw2, lk, opt_a, opt_b, opt_g, dirty)
         assert listed[:2] == full[:2]
         np.testing.assert_array_equal(la, fa)
@@ -195,7 +195,7 @@ def test_work_list_continues_after_matched_values_fall(seed, directed):
     cand, prod, rng = _instance(300 + seed, directed, n=60, p_edge=0.1, p_cand=0.12)
     bw = 3.0 * normalise_weights(rng.random(cand.m))[0]
     lk, mate_a, mate_b, g = _kernel_args(cand, prod, bw, _random_start(cand, rng))
-    _, opt_a, opt_g = _search(cand, prod, bw, lk, mate_a, mate_b, g, np.empty(0, dtype=np.uint8))
+    _, opt_a, opt_g = _search(cand, prod, bw, lk, mate_a, mate_b, g, None)
     opt_b = np.full(cand.n2, -1, dtype=np.int64)
     opt_b[lk.pair_b[opt_a[opt_a >= 0]]] = opt_a[opt_a >= 0]
     matched = opt_a[opt_a >= 0]
@@ -207,10 +207,10 @@ def test_work_list_continues_after_matched_values_fall(seed, directed):
         dirty = np.zeros(cand.m, dtype=np.uint8)
         for t in changed:
             mark_pair(cand.a_indptr, lk.col_ptr, lk.col_idx, lk.pair_a, lk.pair_b, opt_a, opt_b, dirty, t)
-        full, fa, _ = _search(cand, prod, bw2, lk, opt_a, opt_b, opt_g, np.empty(0, dtype=np.uint8))
+        full, fa, _ = _search(cand, prod, bw2, lk, opt_a, opt_b, opt_g, None)
         listed, la, _ = _search(cand, prod, bw2, lk, opt_a, opt_b, opt_g, dirty)
         assert listed[:2] == full[:2]
         np.testing.assert_array_equal(la, fa)
-        _, two_a, _ = _search(cand, prod, bw2, lk, opt_a, opt_b, opt_g, np.empty(0, dtype=np.uint8), rotations=False)
+        _, two_a, _ = _search(cand, prod, bw2, lk, opt_a, opt_b, opt_g, None, rotations=False)
         rotating += not np.array_equal(two_a, fa)
     assert rotating >= 5  # a guard: in some draws the rotations changed the result
