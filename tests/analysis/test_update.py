@@ -445,3 +445,17 @@ def test_a_change_touching_many_candidates_refines_as_align(one_start):
     r = upd.summary["update"]["refine"]
     assert upd.summary["update"]["mode"] == "incremental" and r["mode"] == "full" and "touched" in r["reason"]
     _agree(upd, aligner.align(d / "a.tsv", new_b, d / "p.tsv", refine_starts=1))
+
+
+def test_one_start_directed_continues_and_agrees_with_align(tmp_path, monkeypatch):
+    # the search runs on the symmetrised product graph of a directed run, as align's does
+    import aligner.analysis.update as upd_module
+    monkeypatch.setattr(upd_module, "CONTINUE_SHARE", 1.0)
+    pair = noisy_relabelled(1200, seed=29, noise=0.1, decoys=8)
+    a, b, prior, _ = as_frames(pair)
+    files = [_write(tmp_path, name, frame) for name, frame in (("a.tsv", a), ("b.tsv", b), ("p.tsv", prior))]
+    write_outputs(tmp_path / "run", aligner.align(*files, refine_starts=1, directed=True))
+    new_a, new_b, new_p = _changed_inputs(tmp_path, a, b, prior, "rewire-b", np.random.default_rng(8))
+    upd = update(tmp_path / "run", network_b=new_b)
+    _agree(upd, aligner.align(new_a, new_b, new_p, refine_starts=1, directed=True))
+    assert upd.summary["update"]["refine"]["mode"] == "continued"
