@@ -280,6 +280,22 @@ def _mark_move(s_indptr, s_indices, c_indptr, col_ptr, col_idx, pair_a, pair_b, 
 
 
 @numba.njit(cache=True, nogil=True)
+def _mark_after(s_indptr, s_indices, c_indptr, col_ptr, col_idx, pair_a, pair_b, mate_a, mate_b, dirty, removed, added,
+                both, marks, m):
+    """After a move of the local search: its marks (:func:`_mark_move`) while the sweep's marks
+    stay within ``m``; once past, every candidate (too many to follow: the rest of the sweep and
+    the next examine everything). ``both`` is scratch of 6. Returns the sweep's marks."""
+    if marks <= m:
+        both[:3] = removed
+        both[3:] = added
+        marks += _mark_move(s_indptr, s_indices, c_indptr, col_ptr, col_idx, pair_a, pair_b, mate_a, mate_b, dirty,
+                            both)
+        if marks > m:
+            dirty[:] = 3
+    return marks
+
+
+@numba.njit(cache=True, nogil=True)
 def mark_changes(c_indptr, col_ptr, col_idx, pair_a, pair_b, mate_a, mate_b, dirty, pairs, nodes_a, nodes_b):
     """Mark for :func:`_local_search` the candidates whose moves read the value of one of
     ``pairs`` (:func:`mark_pair`) or the partner of one of ``nodes_a`` (of A) or ``nodes_b`` (of
@@ -433,13 +449,8 @@ def _local_search(s_indptr, s_indices, s_w, c_indptr, col_ptr, col_idx, pair_a, 
                     _apply(s_indptr, s_indices, s_w, g, pair_a, pair_b, mate_a, mate_b, rem, add)
                     _raise_bounds(s_indptr, s_indices, pair_a, pair_b, bw, g, add, r1, r1_at, r2, c1, c1_at, c2)
                     if dirty is not None:
-                        if marks <= m:
-                            both[:3] = rem
-                            both[3:] = add
-                            marks += _mark_move(s_indptr, s_indices, c_indptr, col_ptr, col_idx, pair_a, pair_b,
-                                                mate_a, mate_b, dirty, both)
-                            if marks > m:  # too many to follow: everything from here, and next sweep
-                                dirty[:] = 3
+                        marks = _mark_after(s_indptr, s_indices, c_indptr, col_ptr, col_idx, pair_a, pair_b, mate_a,
+                                            mate_b, dirty, rem, add, both, marks, m)
                     gain += delta
                     moved += 1
                     continue
@@ -487,13 +498,8 @@ def _local_search(s_indptr, s_indices, s_w, c_indptr, col_ptr, col_idx, pair_a, 
                         _apply(s_indptr, s_indices, s_w, g, pair_a, pair_b, mate_a, mate_b, rem, add)
                         _raise_bounds(s_indptr, s_indices, pair_a, pair_b, bw, g, add, r1, r1_at, r2, c1, c1_at, c2)
                         if dirty is not None:
-                            if marks <= m:
-                                both[:3] = rem
-                                both[3:] = add
-                                marks += _mark_move(s_indptr, s_indices, c_indptr, col_ptr, col_idx, pair_a, pair_b,
-                                                    mate_a, mate_b, dirty, both)
-                                if marks > m:
-                                    dirty[:] = 3
+                            marks = _mark_after(s_indptr, s_indices, c_indptr, col_ptr, col_idx, pair_a, pair_b,
+                                                mate_a, mate_b, dirty, rem, add, both, marks, m)
                         gain += d
                         moved += 1
                         break

@@ -86,14 +86,7 @@ def _best_move_gain(cand, S, bw, index):
 def test_local_search_stops_at_a_local_optimum(seed, directed):
     cand, prod, rng = _instance(seed, directed)
     w = rng.random(cand.m)
-    # a poor start: a random one-to-one matching of candidates
-    start, used_b = [], set()
-    for i in rng.permutation(cand.n1):
-        rows = [t for t in range(cand.a_indptr[i], cand.a_indptr[i + 1]) if int(cand.pairs[t, 1]) not in used_b]
-        if rows:
-            t = int(rng.choice(rows))
-            start.append(t)
-            used_b.add(int(cand.pairs[t, 1]))
+    start = _random_start(cand, rng)  # a poor start: a random one-to-one matching of candidates
     res = refine_matching(prod, cand, w, start, max_iter=0, local_sweeps=10_000, rotations=True, beta=0.5)
     S = np.zeros((cand.m, cand.m))
     for k in range(cand.m):
@@ -130,6 +123,7 @@ def _search(cand, prod, bw, lk, mate_a, mate_b, g, dirty, rotations=True, sweeps
 
 
 def _random_start(cand, rng):
+    """A random one-to-one matching of candidates (sorted candidate indices)."""
     start, used_b = [], set()
     for i in rng.permutation(cand.n1):
         rows = [t for t in range(cand.a_indptr[i], cand.a_indptr[i + 1]) if int(cand.pairs[t, 1]) not in used_b]
