@@ -150,32 +150,48 @@ def test_work_list_makes_the_moves_of_the_full_search(seed, directed, rotations)
     np.testing.assert_array_equal(lg, fg)
 
 
+def _local_optimum(seed, directed, scale):
+    """A generated instance, weights bw (``scale`` times w~) and a local optimum of the search
+    from a random start: (cand, prod, rng, bw, lk, mate_a, mate_b, g) at the optimum."""
+    cand, prod, rng = _instance(seed, directed, n=60, p_edge=0.1, p_cand=0.12)
+    bw = scale * normalise_weights(rng.random(cand.m))[0]
+    lk, mate_a, mate_b, g = _kernel_args(cand, prod, bw, _random_start(cand, rng))
+    _, opt_a, opt_g = _search(cand, prod, bw, lk, mate_a, mate_b, g, None)
+    opt_b = np.full(cand.n2, -1, dtype=np.int64)
+    opt_b[lk.pair_b[opt_a[opt_a >= 0]]] = opt_a[opt_a >= 0]
+    return cand, prod, rng, bw, lk, opt_a, opt_b, opt_g
+
+
+def _continue_both_ways(cand, prod, lk, opt, bw2, changed):
+    """The search from the optimum ``opt`` under the new weights ``bw2``, over every candidate
+    and over those ``mark_pair`` marks for the ``changed`` pairs; asserts they agree and returns
+    the full search's (moves, sweeps, gain) and matching."""
+    from aligner.kernels.refine import mark_pair
+    opt_a, opt_b, opt_g = opt
+    dirty = np.zeros(cand.m, dtype=np.uint8)
+    for t in changed:
+        mark_pair(cand.a_indptr, lk.col_ptr, lk.col_idx, lk.pair_a, lk.pair_b, opt_a, opt_b, dirty, t)
+    assert (dirty > 0).sum() < cand.m  # a guard: not everything is marked
+    full, fa, _ = _search(cand, prod, bw2, lk, opt_a, opt_b, opt_g, None)
+    listed, la, _ = _search(cand, prod, bw2, lk, opt_a, opt_b, opt_g, dirty)
+    assert listed[:2] == full[:2]
+    np.testing.assert_array_equal(la, fa)
+    return full, fa
+
+
 @pytest.mark.parametrize("directed", [False, True])
 @pytest.mark.parametrize("seed", range(6))
 def test_work_list_continues_after_values_change(seed, directed):
     """From a local optimum, change the values (bw) of one to three candidates and mark them
     with ``mark_pair``: the search over the marked ones alone makes the moves of a full search
     (many draws per instance, so that each way a value enters a move is met)."""
-    from aligner.kernels.refine import mark_pair
-    cand, prod, rng = _instance(200 + seed, directed, n=60, p_edge=0.1, p_cand=0.12)
-    bw = 0.5 * normalise_weights(rng.random(cand.m))[0]
-    lk, mate_a, mate_b, g = _kernel_args(cand, prod, bw, _random_start(cand, rng))
-    _, opt_a, opt_g = _search(cand, prod, bw, lk, mate_a, mate_b, g, None)
-    opt_b = np.full(cand.n2, -1, dtype=np.int64)
-    opt_b[lk.pair_b[opt_a[opt_a >= 0]]] = opt_a[opt_a >= 0]
+    cand, prod, rng, bw, lk, *opt = _local_optimum(200 + seed, directed, 0.5)
     moving = 0
     for _ in range(150):
         changed = rng.choice(cand.m, rng.integers(1, 4), replace=False)
         bw2 = bw.copy()
         bw2[changed] = bw2[changed] * rng.uniform(0.0, 3.0, len(changed)) + rng.uniform(0, 2.0, len(changed))
-        dirty = np.zeros(cand.m, dtype=np.uint8)
-        for t in changed:
-            mark_pair(cand.a_indptr, lk.col_ptr, lk.col_idx, lk.pair_a, lk.pair_b, opt_a, opt_b, dirty, t)
-        assert (dirty > 0).sum() < cand.m  # a guard: not everything is marked
-        full, fa, _ = _search(cand, prod, bw2, lk, opt_a, opt_b, opt_g, None)
-        listed, la, _ = _search(cand, prod, bw2, lk, opt_a, opt_b, opt_g, dirty)
-        assert listed[:2] == full[:2]
-        np.testing.assert_array_equal(la, fa)
+        full, _ = _continue_both_ways(cand, prod, lk, opt, bw2, changed)
         moving += full[0] > 0
     assert moving >= 10  # a guard: many of the draws had moves to make
 
@@ -185,26 +201,15 @@ def test_work_list_continues_after_values_change(seed, directed):
 def test_work_list_continues_after_matched_values_fall(seed, directed):
     """As above, with the values of matched pairs lowered (moves that give them up, 3-rotations
     among them, become the improving ones) and weights large against the conserved edges."""
-    from aligner.kernels.refine import mark_pair
-    cand, prod, rng = _instance(300 + seed, directed, n=60, p_edge=0.1, p_cand=0.12)
-    bw = 3.0 * normalise_weights(rng.random(cand.m))[0]
-    lk, mate_a, mate_b, g = _kernel_args(cand, prod, bw, _random_start(cand, rng))
-    _, opt_a, opt_g = _search(cand, prod, bw, lk, mate_a, mate_b, g, None)
-    opt_b = np.full(cand.n2, -1, dtype=np.int64)
-    opt_b[lk.pair_b[opt_a[opt_a >= 0]]] = opt_a[opt_a >= 0]
+    cand, prod, rng, bw, lk, *opt = _local_optimum(300 + seed, directed, 3.0)
+    opt_a, opt_b, opt_g = opt
     matched = opt_a[opt_a >= 0]
     rotating = 0
     for _ in range(300):
         changed = rng.choice(matched, rng.integers(1, 3), replace=False)
         bw2 = bw.copy()
         bw2[changed] *= rng.uniform(0.0, 0.7, len(changed))
-        dirty = np.zeros(cand.m, dtype=np.uint8)
-        for t in changed:
-            mark_pair(cand.a_indptr, lk.col_ptr, lk.col_idx, lk.pair_a, lk.pair_b, opt_a, opt_b, dirty, t)
-        full, fa, _ = _search(cand, prod, bw2, lk, opt_a, opt_b, opt_g, None)
-        listed, la, _ = _search(cand, prod, bw2, lk, opt_a, opt_b, opt_g, dirty)
-        assert listed[:2] == full[:2]
-        np.testing.assert_array_equal(la, fa)
+        _, fa = _continue_both_ways(cand, prod, lk, opt, bw2, changed)
         _, two_a, _ = _search(cand, prod, bw2, lk, opt_a, opt_b, opt_g, None, rotations=False)
         rotating += not np.array_equal(two_a, fa)
     assert rotating >= 5  # a guard: in some draws the rotations changed the result
