@@ -459,3 +459,13 @@ def test_one_start_directed_continues_and_agrees_with_align(tmp_path, monkeypatc
     upd = update(tmp_path / "run", network_b=new_b)
     _agree(upd, aligner.align(new_a, new_b, new_p, refine_starts=1, directed=True))
     assert upd.summary["update"]["refine"]["mode"] == "continued"
+
+
+def test_the_command_says_how_it_refined(one_start, tmp_path, monkeypatch):
+    import aligner.analysis.update as upd_module
+    monkeypatch.setattr(upd_module, "CONTINUE_SHARE", 1.0)
+    d, a, b, prior = one_start
+    _, new_b, _ = _changed_inputs(d, a, b, prior, "rewire-b", np.random.default_rng(9))
+    got = runner.invoke(app, ["update", str(d / "run"), "--b", str(new_b), "-o", str(tmp_path / "u")])
+    assert got.exit_code == 0, got.output
+    assert "refinement: continued from the previous matching over" in " ".join(got.output.split())

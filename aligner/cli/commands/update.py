@@ -61,4 +61,9 @@ def update(previous: Previous, outdir: Out, a: NewA = None, b: NewB = None, prio
             f"{c['edges_b_added'] + c['edges_b_removed']:,} of B changed, {c['candidates_added']:,} candidate pairs "
             f"added, {c['candidates_rescored']:,} rescored; {u['pushes']:,} pushes against {u['previous_pushes']:,}; "
             f"{u['matches_changed']:,} matches changed; {u['seconds']:.2f} s against {u['previous_seconds']:.2f} s")
+        r = u.get("refine")
+        if r:
+            say("refinement: " + (f"continued from the previous matching over {r['candidates_marked']:,} candidates "
+                                  f"the change reached, {r['moves']:,} moves" if r["mode"] == "continued"
+                                  else r["reason"]))
         say(f"wrote {', '.join(str(p) for p in written)}")
