@@ -6,8 +6,10 @@ diffusion scores over to the new candidate pairs (by node names) and runs the sa
 :func:`aligner.align` from there (:func:`aligner.pipeline.run_stages` with that warm start). The
 diffusion's residual is recomputed exactly from the carried scores, so it is non-zero only
 where the change reached and the push works there; its result is certified to the same
-tolerance as a fresh run's, and so is everything computed from it. The other stages run as in
-``align``, on the new inputs.
+tolerance as a fresh run's. The rounding and the scores run as in ``align``, on the new inputs.
+The refinement, where ``align`` refines from one start, continues the local search from the
+previous final matching over the candidates the change reached (:func:`_continued_refinement`);
+otherwise it runs as in ``align``.
 
 When the change is too large for the warm start to pay (more than :data:`FULL_SHARE` of the new
 candidate pairs new or rescored, or of either network's edges added or removed), the update
