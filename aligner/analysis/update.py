@@ -520,11 +520,13 @@ def update(previous, network_a=None, network_b=None, prior=None, *, seeds=None, 
     Returns
     -------
     AlignmentResult
-        As :func:`aligner.align` on the new inputs would give, to the same certified tolerance,
+        As :func:`aligner.align` on the new inputs would give, to the same certified tolerance
+        (except that a continued refinement ends at a local optimum reached from the previous
+        matching, not necessarily ``align``'s: ``summary["update"]["refine"]`` says which ran),
         with ``summary["update"]``: the previous run, the mode (``incremental`` or ``full`` and
         why), what changed, pairs whose score moved by more than the per-score bound, pushes and
-        edge touches against the previous run's, matches changed, seconds against the previous
-        run's.
+        edge touches against the previous run's, matches changed, how the refinement ran,
+        seconds against the previous run's.
 
     Raises
     ------
