@@ -469,3 +469,33 @@ def test_the_command_says_how_it_refined(one_start, tmp_path, monkeypatch):
     got = runner.invoke(app, ["update", str(d / "run"), "--b", str(new_b), "-o", str(tmp_path / "u")])
     assert got.exit_code == 0, got.output
     assert "refinement: continued from the previous matching over" in " ".join(got.output.split())
+
+
+@pytest.mark.parametrize("directed", [False, True])
+def test_edge_changes_name_the_ends_of_every_changed_edge(directed):
+    # Reference: Python sets of edges (an undirected edge as its two ends in order), the old
+    # ones renumbered; an old edge that lost a node is removed and its other end changed.
+    from aligner.analysis.update import _edge_changes
+    rng = np.random.default_rng(11)
+    n_old, n_new = 60, 64
+    to_new = rng.permutation(n_new)[:n_old]
+    to_new[rng.choice(n_old, 4, replace=False)] = -1  # four old nodes leave
+    to_new = to_new.astype(np.int64)
+
+    def edges(n, count):
+        e = {(int(u), int(v)) for u, v in rng.integers(0, n, (count, 2)) if u != v}
+        return {(u, v) if directed else (min(u, v), max(u, v)) for u, v in e}
+
+    old = edges(n_old, 200)
+    kept = [(to_new[u], to_new[v]) for u, v in old if to_new[u] >= 0 and to_new[v] >= 0]
+    kept = {(int(u), int(v)) if directed else (int(min(u, v)), int(max(u, v))) for u, v in kept}
+    new = set(list(kept)[: len(kept) - 20]) | edges(n_new, 30)  # 20 removed, some added
+    added, removed = new - kept, kept - new
+    cut_ends = {int(to_new[x]) for u, v in old for x in (u, v)
+                if (to_new[u] < 0 or to_new[v] < 0) and to_new[x] >= 0}
+    want = sorted({x for e in added | removed for x in e} | cut_ends)
+    old_arr = np.array(sorted(old), dtype=np.int32)
+    new_arr = np.array(sorted(new), dtype=np.int32)
+    n_add, n_del, ends = _edge_changes(old_arr, new_arr, to_new, n_new, directed)
+    assert n_add == len(added) and n_del == len(old) - len(kept & new)
+    assert ends.tolist() == want
