@@ -615,8 +615,8 @@ def evaluate(problem: Problem, diffusion: DiffusionResult, improvement: Improvem
     before = None
     if improvement.refined is not None:
         rounded = improvement.rounded.index
-        same = len(rounded) == len(index) and np.array_equal(rounded, index)  # refinement moved nothing
-        before = scores if same else _score(inputs, cand.pairs[rounded].astype(np.int64), cfg)[0]
+        before = (scores if np.array_equal(rounded, index)  # the refinement moved nothing
+                  else _score(inputs, cand.pairs[rounded].astype(np.int64), cfg)[0])
     if cfg.directed:
         sig = {"skipped": "not computed for directed networks: its null model counts undirected edges"}
     else:

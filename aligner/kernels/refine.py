@@ -224,10 +224,10 @@ def mark_pair(c_indptr, col_ptr, col_idx, pair_a, pair_b, mate_a, mate_b, dirty,
     l = mate_a[a]
     k = mate_b[b]
     if l >= 0 and k >= 0:
-        p = _find(pair_b, c_indptr[pair_a[k]], c_indptr[pair_a[k] + 1], pair_b[l])
+        p = _find(pair_b, c_indptr[pair_a[k]], c_indptr[pair_a[k] + 1], pair_b[l])  # t as a 2-exchange's q
         if p >= 0:
             dirty[p] |= 3
-    if l >= 0 and k >= 0:  # t as a rotation's q = (j, h'): r = k, j' = l's node of B
+        # t as a rotation's q = (j, h'): r = k, j' = l's node of B
         for s in range(c_indptr[pair_a[k]], c_indptr[pair_a[k] + 1]):
             ks = mate_b[pair_b[s]]
             if ks >= 0:
@@ -360,9 +360,9 @@ def _local_search(s_indptr, s_indices, s_w, c_indptr, col_ptr, col_idx, pair_a, 
     candidates marked there: bit 1 asks for the 2-exchanges, bit 2 for the rotations (a sweep
     with rotations examines a candidate with either bit). Examining clears the bits it answers;
     every move marks each candidate whose moves read a value the move changed (both bits, or
-    bit 2 where only a rotation reads it: :func:`_mark_move`), so a candidate left unmarked would make no move if examined: the
-    moves, sweeps and result are those of the search over every candidate, which is what
-    ``dirty=None`` gives (all candidates, every sweep; numba then compiles none of the marking,
+    bit 2 where only a rotation reads it: :func:`_mark_move`), so a candidate left unmarked
+    would make no move if examined: the moves, sweeps and result are those of the search over
+    every candidate, which is what ``dirty=None`` gives (all candidates, every sweep; numba then compiles none of the marking,
     which keeps a default run's first compile as it was). All bits set on entry is a search from
     scratch; only some set continues a search whose matching was a local optimum before the
     values of the marked candidates changed. When the marks of one sweep pass ``m``, marking
