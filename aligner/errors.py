@@ -22,6 +22,7 @@ class InputFormatError(AlignerError, ValueError):
     def __init__(self, message: str, *, path: str | None = None, line: int | None = None):
         self.path = path
         self.line = line
+        self.bare = message
         where = ""
         if path is not None:
             where = f"{path}"
@@ -29,6 +30,13 @@ class InputFormatError(AlignerError, ValueError):
                 where += f", line {line}"
             where += ": "
         super().__init__(where + message)
+
+    def __reduce__(self):  # keeps path and line through pickling (an error raised on a dask worker)
+        return _input_format_error, (type(self), self.bare, self.path, self.line)
+
+
+def _input_format_error(cls, message: str, path: str | None, line: int | None) -> "InputFormatError":
+    return cls(message, path=path, line=line)
 
 
 class InvalidParameterError(AlignerError, ValueError, TypeError):

@@ -52,8 +52,9 @@ from aligner.priors.seeds import (SeedExpansion, SeedTable, add_seed_pairs, as_s
 from aligner.priors.structural import DEFAULT_K, FEATURE_NAMES, combine_priors, structural_candidates
 
 __all__ = ["STAGES", "Inputs", "Problem", "Improvement", "Evaluation", "AlignmentResult", "read_inputs",
-           "find_candidates", "prepare", "solve", "match", "improve", "evaluate", "transfer", "summarize", "align",
-           "score", "TRANSFER_COLUMNS"]
+           "check_networks", "finish_inputs", "find_candidates", "check_some_candidate", "with_seed_pairs",
+           "prepare", "solve", "match", "improve", "evaluate", "transfer", "summarize", "align", "score",
+           "TRANSFER_COLUMNS"]
 
 #: the stages of a run, in order, as named to the ``progress`` callback of :func:`align`
 STAGES = ("read", "candidates", "product", "diffusion", "rounding", "refine", "scoring", "writing")
@@ -173,20 +174,35 @@ def read_inputs(network_a, network_b, prior=None, *, seeds=None, truth=None,
     net_a = as_network(network_a, name="network_a", directed=cfg.directed, **read)
     release_unused_memory()  # between tables, so the read stage's peak is one table's
     net_b = as_network(network_b, name="network_b", directed=cfg.directed, **read)
+    check_networks(net_a, net_b, cfg)
+    prior_t = None if prior is None else as_prior(prior, net_a, net_b, cfg.score_kind, cfg.delimiter, cfg.header,
+                                                  cfg.prior_columns)
+    return finish_inputs(net_a, net_b, prior_t, seeds=seeds, truth=truth, config=cfg)
+
+
+def check_networks(net_a: Network, net_b: Network, cfg: AlignConfig) -> None:
+    """Refuse a network without nodes, and weighted mode on a network without weights."""
     for net, key in ((net_a, "network_a"), (net_b, "network_b")):
         if net.n == 0:  # an empty graph or frame (an empty file is refused by the reader)
             raise InvalidParameterError(f"{key} has no nodes ({net.source}): there is nothing to align; check "
                                         "that the right graph or table was given", param=key)
     _check_weighted(net_a, net_b, cfg.weighted)
-    prior_t = None if prior is None else as_prior(prior, net_a, net_b, cfg.score_kind, cfg.delimiter, cfg.header,
-                                                  cfg.prior_columns)
+
+
+def finish_inputs(net_a: Network, net_b: Network, prior_t: PriorTable | None, *, seeds=None, truth=None,
+                  config: AlignConfig) -> Inputs:
+    """The inputs of a run from its networks and prior table (read here or elsewhere, such as on a
+    cluster): reads the seeds and the truth table, warns about rows naming unknown nodes, and
+    raises NoCandidatesError when the prior has no usable pair left."""
+    cfg = config
+    read = {"delimiter": cfg.delimiter, "header": cfg.header}
     seeds_t = None if seeds is None else as_seeds(seeds, net_a, net_b, **read)
     truth_t = None if truth is None else known_pairs(
         as_pairs(truth, net_a, net_b, "truth table", cfg.delimiter, cfg.header), "truth table")
     release_unused_memory()  # the readers' buffers, no longer needed
     _warn_unknown(prior_t, "prior")
     _warn_unknown(truth_t, "truth")
-    if prior_t is not None and len(prior_t.pairs) == 0:
+    if prior_t is not None and prior_t.n_pairs == 0:
         hint = ""
         if prior_t.n_unknown == prior_t.n_rows and prior_t.n_rows:
             hint = (" None of its rows names a node of network A in the first column and a node of network B "
@@ -234,14 +250,23 @@ def find_candidates(inputs: Inputs, config: AlignConfig) -> Candidates:
     else:
         cand = build_candidates(prior_t.pairs, prior_t.scores, inputs.network_a.n, inputs.network_b.n,
                                 min_score=cfg.min_score, top_k=cfg.top_k)
-        if cand.m == 0:
-            raise NoCandidatesError(f"{prior_t.source}: no prior pair scores at least the minimum score "
-                                    f"{cfg.min_score:g}; lower --min-score (the highest score is "
-                                    f"{prior_t.scores.max():g}).")
+        check_some_candidate(cand, prior_t, cfg, float(prior_t.scores.max()))
         found = Candidates(cand)
-    if inputs.seeds is not None:
-        found = dataclasses.replace(found, candidates=add_seed_pairs(found.candidates, inputs.seeds))
-    return found
+    return with_seed_pairs(found, inputs)
+
+
+def check_some_candidate(cand: CandidateSet, prior_t: PriorTable, cfg: AlignConfig, best: float) -> None:
+    """Refuse a prior none of whose pairs reaches the minimum score (``best``: its highest score)."""
+    if cand.m == 0:
+        raise NoCandidatesError(f"{prior_t.source}: no prior pair scores at least the minimum score "
+                                f"{cfg.min_score:g}; lower --min-score (the highest score is {best:g}).")
+
+
+def with_seed_pairs(found: Candidates, inputs: Inputs) -> Candidates:
+    """The candidates with every seed pair among them."""
+    if inputs.seeds is None:
+        return found
+    return dataclasses.replace(found, candidates=add_seed_pairs(found.candidates, inputs.seeds))
 
 
 # --------------------------------------------------------------------------- the prepared problem

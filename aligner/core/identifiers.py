@@ -16,7 +16,7 @@ import numpy as np
 import pyarrow as pa
 import pyarrow.compute as pac
 
-__all__ = ["as_arrow_strings", "intern", "lookup", "text_at", "PairTable", "pairs_from_columns"]
+__all__ = ["as_arrow_strings", "intern", "names_from_arrow", "lookup", "text_at", "PairTable", "pairs_from_columns"]
 
 
 def as_arrow_strings(values) -> pa.Array:
@@ -81,10 +81,15 @@ def intern(a, b) -> tuple[np.ndarray, np.ndarray]:
     rank = np.empty(len(order), dtype=np.int64)
     rank[order] = np.arange(len(order), dtype=np.int64)
     codes = rank[enc.indices.to_numpy(zero_copy_only=False)]
-    arrow = enc.dictionary.take(order)
+    return names_from_arrow(enc.dictionary.take(order)), codes
+
+
+def names_from_arrow(arrow: pa.Array) -> np.ndarray:
+    """A network's identifiers (sorted, each once) as the numpy object array ``Network.names``
+    holds, the pyarrow form kept beside it for later look-ups (:func:`lookup`)."""
     names = arrow.to_numpy(zero_copy_only=False).astype(object)
     _remember(names, arrow)
-    return names, codes
+    return names
 
 
 def lookup(names: np.ndarray, query) -> np.ndarray:

@@ -214,7 +214,7 @@ def prior_notes(t: PriorTable) -> PriorTable:
              "keeps its highest score")
     if t.n_dropped_kind:
         known = t.n_rows - t.n_unknown
-        if len(t.pairs) == 0 and t.n_dropped_kind == known:
+        if t.n_pairs == 0 and t.n_dropped_kind == known:
             raise NoCandidatesError(f"{t.source}: every one of the {known} prior rows naming known nodes has an "
                                     "E-value above 1, and --score-kind evalue drops such rows as no evidence of "
                                     "similarity; if the third column is a similarity score, use --score-kind "

@@ -37,6 +37,9 @@ __all__ = [
     "read_table",
     "read_network",
     "network_from_table",
+    "edge_weights",
+    "same_columns",
+    "all_parts_empty",
     "read_prior",
     "read_pairs",
     "PairTable",
@@ -398,8 +401,7 @@ def read_table(path: str | os.PathLike, *, min_cols: int, max_cols: int, delimit
             except _NoRows:  # an empty part (a partition without rows, or its header only) adds nothing
                 continue
         if not parts:
-            raise InputFormatError(f"every one of the {len(files)} files this pattern matches is empty or holds "
-                                   f"a header only: expected {_a(what)}", path=path)
+            raise all_parts_empty(path, len(files), what)
         return _joined(path, parts, what)
     try:
         return _read_table(path, min_cols=min_cols, max_cols=max_cols, delimiter=delimiter, header=header,
@@ -424,11 +426,7 @@ def _joined(pattern: str, parts: list[Table], what: str) -> Table:
     """One table from the tables of the files a pattern matched, in name order; their rows keep
     their files and lines for messages (:meth:`Table.origin`)."""
     first = parts[0]
-    for part in parts[1:]:
-        if len(part.columns) != len(first.columns):
-            raise InputFormatError(f"has {len(part.columns)} columns where {first.source} has "
-                                   f"{len(first.columns)}; every file of {_a(what)} given by a pattern must have "
-                                   "the same columns", path=part.source)
+    same_columns([(p.source, len(p.columns)) for p in parts], what)
     # one part keeps its columns as they are; the table still carries the pattern as its source
     # (a later update fingerprints the files the pattern matches then, not this one file)
     columns = first.columns if len(parts) == 1 else tuple(
@@ -436,6 +434,22 @@ def _joined(pattern: str, parts: list[Table], what: str) -> Table:
     starts = np.cumsum([0] + [p.n_rows for p in parts[:-1]])
     return Table(columns, pattern, first_line=first.first_line, sep=first.sep, header=first.header,
                  picked=first.picked, pick=first.pick, parts=tuple(zip(parts, (int(s) for s in starts))))
+
+
+def all_parts_empty(pattern: str, n_files: int, what: str) -> InputFormatError:
+    """The error of a pattern whose files all lack data rows."""
+    return InputFormatError(f"every one of the {n_files} files this pattern matches is empty or holds a header "
+                            f"only: expected {_a(what)}", path=pattern)
+
+
+def same_columns(parts: list[tuple[str, int]], what: str) -> None:
+    """Refuse the files of a pattern (``(path, number of columns)`` each, in name order) when
+    one has other columns than the first."""
+    first, ncols = parts[0]
+    for source, n in parts[1:]:
+        if n != ncols:
+            raise InputFormatError(f"has {n} columns where {first} has {ncols}; every file of {_a(what)} given by "
+                                   "a pattern must have the same columns", path=source)
 
 
 def _concat(cols: list):
@@ -770,19 +784,26 @@ def network_from_table(table: Table, *, directed: bool = False) -> Network:
     InputFormatError
         A weight is not a finite number or is negative; the message names the line (the row).
     """
-    weights = None
-    if len(table.columns) >= 3:
-        weights = table.numeric(2, "edge weight")
-        if (weights < 0).any():
-            row = int(np.argmax(weights < 0))
-            where = "" if table.first_line is not None else f"{table.where(row)}: "
-            path, line = table.origin(row)
-            raise InputFormatError(f"{where}the edge weight {weights[row]:g} is negative; weights must be >= 0",
-                                   path=path, line=line)
+    weights = edge_weights(table)
     a, b = table.text(0), table.text(1)
     names, codes = intern(a, b)
     m = len(a)
     return network_from_edges(names, codes[:m], codes[m:], weights, source=table.source, directed=directed)
+
+
+def edge_weights(table: Table) -> np.ndarray | None:
+    """The third column of an edge table as weights (None: two columns); an entry that is not a
+    finite number >= 0 is an error naming its line."""
+    if len(table.columns) < 3:
+        return None
+    weights = table.numeric(2, "edge weight")
+    if (weights < 0).any():
+        row = int(np.argmax(weights < 0))
+        where = "" if table.first_line is not None else f"{table.where(row)}: "
+        path, line = table.origin(row)
+        raise InputFormatError(f"{where}the edge weight {weights[row]:g} is negative; weights must be >= 0",
+                               path=path, line=line)
+    return weights
 
 
 def read_prior(path: str | os.PathLike, net_a: Network, net_b: Network, *, kind: str = "similarity",

@@ -4,6 +4,13 @@
     python scripts/bench/bench_dask.py --sizes 10000 --parts 1 4
     python scripts/bench/bench_dask.py --sizes 1000000 --parts 4 --processes --memory-limit 2GB
     python scripts/bench/bench_dask.py --sizes 100000 1000000 --processes --decoys uniform --out bench_out/dask_k
+    python scripts/bench/bench_dask.py --sizes 1000000 --parts 4 --processes --files 8
+
+``--files P`` writes each instance as files (each input in P part files, read through a glob
+pattern) and gives the engine their paths, so that the dask runs read them and select the
+candidates on the cluster (the single-machine run reads the same files); ``read_s`` and
+``candidates_s`` are then those stages' seconds, and ``client_peak_gib`` the resident-memory
+high-water mark of this process (the client) over the run.
 
 Instances: :func:`aligner.datasets.instances.noisy_relabelled` (power-law graphs, 10 decoys per
 node, near-partner decoys). Runs on a LocalCluster of 2 single-threaded workers (threads in this
@@ -39,6 +46,11 @@ def main() -> None:
     ap.add_argument("--memory-limit", default=None,
                     help="memory limit per worker process, e.g. 2GB (with --processes; dask pauses, then "
                     "restarts, a worker above it)")
+    ap.add_argument("--files", type=int, default=0, metavar="P",
+                    help="write each instance in P part files per input and align from the files (default: "
+                    "frames in memory, read on the client)")
+    ap.add_argument("--reading", default="auto", choices=["auto", "client"],
+                    help="where the dask runs read files (the engine's reading option; default auto: on the cluster)")
     ap.add_argument("--out", default="bench_out/bench_dask", help="path of the CSV and Markdown, without suffix")
     args = ap.parse_args()
 
@@ -55,6 +67,9 @@ def main() -> None:
     try:
         for n in args.sizes:
             ea, eb, prior, truth = as_frames(noisy_relabelled(n, decoy_mode=args.decoys, seed=3))
+            if args.files:
+                ea, eb, prior, truth = _as_files(Path(args.out).parent / f"instance-{n}-{args.decoys}",
+                                                 (ea, eb, prior, truth), args.files)
             warm = as_frames(noisy_relabelled(500, decoy_mode=args.decoys, seed=1))[:3]
             align(*warm, refine=False)  # compile (or load the compiled kernels) outside the timings
             dask_align(*warm, client=client, partitions=2, refine=False)
@@ -62,21 +77,29 @@ def main() -> None:
             single = align(ea, eb, prior, truth=truth, refine=False)
             t_single = time.perf_counter() - t0
             ref = {tuple(p) for p in single.candidates.pairs[single.matching.index].tolist()}
-            rows.append({"nodes": n, "K": "local", "product_s": single.summary["timings"]["product"],
+            rows.append({"nodes": n, "K": "local", "read_s": single.summary["timings"]["read"],
+                         "candidates_s": single.summary["timings"]["candidates"],
+                         "product_s": single.summary["timings"]["product"],
                          "diffusion_s": single.summary["timings"]["diffusion"],
                          "matching_s": single.summary["timings"]["rounding"], "total_s": round(t_single, 2),
                          "edge_touches": single.diffusion.edge_touches, "nc": single.scores.nc})
             for k in args.parts:
                 if args.processes and not all(client.run(_reset_peak_memory).values()):
                     client.restart()  # no resettable high-water mark: fresh worker processes
+                client_reset = _reset_peak_memory()
                 t0 = time.perf_counter()
-                res = dask_align(ea, eb, prior, truth=truth, client=client, partitions=k, refine=False)
+                res = dask_align(ea, eb, prior, truth=truth, client=client, partitions=k, refine=False,
+                                 reading=args.reading)
                 total = time.perf_counter() - t0
+                client_peak = _peak_memory() if client_reset else None
                 peak = max(client.run(_peak_memory).values()) if args.processes else None
                 e = res.summary["engine"]
                 got = {tuple(p) for p in res.candidates.pairs[res.matching.index].tolist()}
                 rows.append({
-                    "nodes": n, "K": k, "cut_fraction": e["cut_fraction"], "ghost_pairs": e["ghost_pairs"],
+                    "nodes": n, "K": k, "reading": e["reading"]["where"],
+                    "read_s": res.summary["timings"]["read"], "candidates_s": res.summary["timings"]["candidates"],
+                    "client_peak_gib": None if client_peak is None else round(client_peak / 2**30, 3),
+                    "cut_fraction": e["cut_fraction"], "ghost_pairs": e["ghost_pairs"],
                     "largest_block_vs_mean": round(max(e["entries_per_block"]) / np.mean(e["entries_per_block"]), 2),
                     "product_s": res.summary["timings"]["product"], "diffusion_s": e["seconds"]["diffusion"],
                     "matching_s": e["seconds"]["auction"], "total_s": round(total, 2),
@@ -105,6 +128,27 @@ def main() -> None:
     md = _markdown(df)
     out.with_suffix(".md").write_text(md + "\n")
     print(md)
+
+
+def _as_files(folder: Path, frames, parts: int) -> list[str]:
+    """The four tables as tab-separated files, the networks and the prior in ``parts`` part files
+    each (a glob pattern per input), written once per folder; their paths."""
+    folder.mkdir(parents=True, exist_ok=True)
+    paths = []
+    for name, frame in zip(("network_a", "network_b", "prior", "truth"), frames):
+        if name == "truth":
+            target = folder / "truth.tsv"
+            if not target.exists():
+                frame.to_csv(target, sep="\t", index=False)
+            paths.append(str(target))
+            continue
+        cuts = np.linspace(0, len(frame), parts + 1, dtype=int)
+        for i, (lo, hi) in enumerate(zip(cuts[:-1], cuts[1:])):
+            target = folder / f"{name}-{i:03d}.tsv"
+            if not target.exists():
+                frame.iloc[lo:hi].to_csv(target, sep="\t", index=False)
+        paths.append(str(folder / f"{name}-*.tsv"))
+    return paths
 
 
 def _markdown(df: pd.DataFrame) -> str:

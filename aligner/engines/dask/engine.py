@@ -1,5 +1,6 @@
-"""The dask engine: prepare on the client, build the product graph, diffuse and match on the
-cluster, refine and score on the client through the pipeline's own stage functions.
+"""The dask engine: read the inputs and select the candidates, build the product graph, diffuse
+and match on the cluster; refine and score on the client through the pipeline's own stage
+functions.
 
 :class:`BlockCluster` holds the blocks on the workers (one future each, every task of a block
 pinned to the worker that holds it, so no block's arrays move after it is built) and the one
@@ -18,6 +19,7 @@ only at the end).
 
 from __future__ import annotations
 
+import logging
 import time
 from contextlib import contextmanager
 from typing import Any
@@ -29,9 +31,11 @@ from aligner.core.diffusion import DiffusionResult
 from aligner.core.product import ProductGraph, estimate_product_edges
 from aligner.core.rounding import Matching
 from aligner.errors import ClusterError, InvalidParameterError
-from aligner.engines.dask import auction, blocks, diffusion
-from aligner.pipeline import (AlignmentResult, Candidates, Clock, Problem, diffusion_source, evaluate,
-                              find_candidates, improve, read_inputs, summarize)
+from aligner.engines.dask import auction, blocks, diffusion, reading
+from aligner.engines.dask.reading import on_cluster
+from aligner.pipeline import (AlignmentResult, Candidates, Clock, Problem, check_networks, check_some_candidate,
+                              diffusion_source, evaluate, find_candidates, finish_inputs, improve, read_inputs,
+                              summarize, with_seed_pairs)
 
 __all__ = ["BlockCluster", "WorkerLost", "connect", "align", "CONNECT_TIMEOUT", "RECOVERY_ATTEMPTS", "POLL_SECONDS",
            "block_imbalance"]
@@ -42,6 +46,8 @@ CONNECT_TIMEOUT = "10s"
 RECOVERY_ATTEMPTS = 1
 #: how often a wait checks that the blocks' workers are still in the cluster
 POLL_SECONDS = 1.0
+#: where the inputs are read: on the cluster when they are files ("auto"), or always on the client
+READING = ("auto", "client")
 
 
 def block_imbalance(cluster: "BlockCluster") -> float:
@@ -228,6 +234,8 @@ def connect(client=None, *, scheduler: str | None = None, workers: int = 2):
         from dask.distributed import Client, LocalCluster
     except ImportError:
         raise _missing_dask() from None
+    # the scheduler's note on every shuffle of the reading (a LocalCluster's scheduler runs here)
+    logging.getLogger("distributed.shuffle").setLevel(logging.ERROR)
     if scheduler:
         try:
             c = Client(scheduler, timeout=CONNECT_TIMEOUT)
@@ -250,7 +258,7 @@ def connect(client=None, *, scheduler: str | None = None, workers: int = 2):
 
 
 def align(network_a, network_b, prior=None, *, truth=None, seeds=None, client=None, scheduler: str | None = None,
-          workers: int = 2, partitions: int | None = None, diffusion_mode: str = "auto",
+          workers: int = 2, partitions: int | None = None, diffusion_mode: str = "auto", reading: str = "auto",
           config: AlignConfig | None = None, progress=None, **options: Any) -> AlignmentResult:
     """Align two networks with the product graph, the diffusion and the matching on a dask cluster.
 
@@ -265,6 +273,11 @@ def align(network_a, network_b, prior=None, *, truth=None, seeds=None, client=No
         Blocks of nodes of A (default: ``workers``).
     diffusion_mode : {"auto", "block", "sweep"}
         Block push, sweeps, or the choice by cut fraction (see :mod:`aligner.engines.dask.diffusion`).
+    reading : {"auto", "client"}
+        ``"auto"``: when both networks and the prior are files (or glob patterns of part files)
+        and the candidates come from the prior, read them and select the candidates on the
+        cluster (:mod:`aligner.engines.dask.reading`; the paths must be readable by the
+        workers); otherwise, and with ``"client"``, on the client as :func:`aligner.align` does.
     **options
         The options of :class:`aligner.AlignConfig`.
 
@@ -275,8 +288,8 @@ def align(network_a, network_b, prior=None, *, truth=None, seeds=None, client=No
 
     Notes
     -----
-    Reading and the candidates run on the client (the pipeline's :func:`read_inputs` and
-    :func:`find_candidates`); refinement and scoring too, on the product graph and x gathered back.
+    Refinement and scoring run on the client, on the product graph and x gathered back; so do
+    the seeds and the truth table.
     """
     cfg = from_options(AlignConfig, config, options)
     if diffusion_mode not in diffusion.MODES:
@@ -285,17 +298,24 @@ def align(network_a, network_b, prior=None, *, truth=None, seeds=None, client=No
     parts = workers if partitions is None else partitions
     if not isinstance(parts, int) or parts < 1:
         raise InvalidParameterError(f"partitions must be an integer >= 1; got {parts!r}", param="partitions")
+    if reading not in READING:
+        raise InvalidParameterError(f"reading must be one of {', '.join(READING)}; got {reading!r}", param="reading")
     clock = Clock(progress)
-    with clock.stage("read"):
-        inputs = read_inputs(network_a, network_b, prior, seeds=seeds, truth=truth, config=cfg)
-    with clock.stage("candidates"):
-        found = find_candidates(inputs, cfg)
     with connect(client, scheduler=scheduler, workers=workers) as c:
+        if reading != "client" and on_cluster(network_a, network_b, prior, cfg):
+            inputs, found, read_report = _read_on_cluster(c, network_a, network_b, prior, seeds, truth, cfg, parts,
+                                                          clock)
+        else:
+            with clock.stage("read"):
+                inputs = read_inputs(network_a, network_b, prior, seeds=seeds, truth=truth, config=cfg)
+            with clock.stage("candidates"):
+                found = find_candidates(inputs, cfg)
+            read_report = {"where": "client"}
         lost: list[str] = []
         while True:
             where = ["starting the blocks"]
             try:
-                return _run(c, inputs, found, cfg, parts, diffusion_mode, clock, where, lost)
+                return _run(c, inputs, found, cfg, parts, diffusion_mode, clock, where, lost, read_report)
             except Exception as exc:
                 kind = cluster_failure(exc, c)
                 if kind is None:
@@ -303,6 +323,28 @@ def align(network_a, network_b, prior=None, *, truth=None, seeds=None, client=No
                 lost.append(where[0])
                 if kind != "worker" or len(lost) > RECOVERY_ATTEMPTS or not _some_worker(c):
                     raise ClusterError(failure_message(kind, where[0], len(lost) - 1), stage=where[0]) from exc
+
+
+def _read_on_cluster(client, network_a, network_b, prior, seeds, truth, cfg: AlignConfig, parts: int, clock: Clock):
+    """Reading and the candidates on the cluster (:mod:`aligner.engines.dask.reading`), then the
+    seeds and the truth table on the client; a failure of the cluster stops the run with
+    :class:`~aligner.errors.ClusterError` (nothing is held on the blocks yet to recover)."""
+    stage = "the reading on the cluster"
+    try:
+        with clock.stage("read"):
+            got = reading.read_on_cluster(client, network_a, network_b, prior, cfg, parts=parts)
+            check_networks(got.network_a, got.network_b, cfg)
+        with clock.stage("candidates"):
+            prior_t, best, cand = reading.select_on_cluster(client, got, cfg, parts=parts)
+            inputs = finish_inputs(got.network_a, got.network_b, prior_t, seeds=seeds, truth=truth, config=cfg)
+            check_some_candidate(cand, prior_t, cfg, best)
+            found = with_seed_pairs(Candidates(cand), inputs)
+    except Exception as exc:
+        kind = cluster_failure(exc, client)
+        if kind is None:
+            raise
+        raise ClusterError(failure_message(kind, stage, 0), stage=stage) from exc
+    return inputs, found, got.report
 
 
 def cluster_failure(exc: BaseException, client) -> str | None:
@@ -359,7 +401,7 @@ def failure_message(kind: str, stage: str, restarts: int) -> str:
 
 
 def _run(client, inputs, found: Candidates, cfg: AlignConfig, parts: int, mode: str, clock: Clock,
-         where: list[str] | None = None, lost: list[str] | None = None):
+         where: list[str] | None = None, lost: list[str] | None = None, read_report: dict | None = None):
     where = where if where is not None else [""]
     cand = found.candidates
     # seeds as on one machine: extra diffusion sources, fixed in the matching
@@ -367,7 +409,8 @@ def _run(client, inputs, found: Candidates, cfg: AlignConfig, parts: int, mode: 
     a_ip, a_ix, _ = inputs.network_a.walk_adjacency(cfg.directed, cfg.weighted)
     b_ip, b_ix, _ = inputs.network_b.walk_adjacency(cfg.directed, cfg.weighted)
     estimate = estimate_product_edges(a_ip, a_ix, b_ip, cand)
-    engine: dict[str, Any] = {"partitions": parts, "workers": len(client.scheduler_info()["workers"])}
+    engine: dict[str, Any] = {"partitions": parts, "workers": len(client.scheduler_info()["workers"]),
+                              "reading": read_report or {"where": "client"}}
     with clock.stage("product"):
         where[0] = "the product graph's build"
         t0 = time.perf_counter()

@@ -1,0 +1,308 @@
+"""Reading and the candidates on the cluster, with dask.dataframe.
+
+Each file of an input (each part, for a glob pattern) is read on a worker by the single-machine
+reader (:func:`aligner.io.readers.read_table`: the same checks and messages). Then, with
+dask.dataframe:
+
+- **names to ids by a distributed sort**: the identifiers of both columns of a network, without
+  repeats, sorted (code point order, as :func:`aligner.core.identifiers.intern` sorts them), and
+  numbered by their position: the single machine's numbering;
+- **edges to ids** by two merges on the identifiers (a shuffle join each);
+- **the prior** mapped onto both networks by two left merges (rows naming an unknown node are
+  counted, the first three kept as examples), its scores read as the score kind says on the
+  worker that read them;
+- **the candidates**: a shuffle by node of A puts every pair of a node in one partition, where
+  repeated pairs keep their highest score and each node marks its ``top_k`` best pairs; a
+  shuffle by node of B, and each node of B marks its ``top_k`` best; the candidates are the pairs
+  either marked (:func:`aligner.core.candidates.build_candidates`' rule, ties to the smaller
+  index of the other node).
+
+The client receives integer arrays (edges, candidate pairs and their scores) and the sorted
+identifiers; no row of text is read on it.
+"""
+
+from __future__ import annotations
+
+import os
+import time
+from dataclasses import dataclass
+
+import numpy as np
+import pandas as pd
+import pyarrow as pa
+
+from aligner.config import AlignConfig
+from aligner.core.candidates import build_candidates
+from aligner.core.identifiers import names_from_arrow
+from aligner.core.network import Network, network_from_edges
+from aligner.core.prior import PriorTable, check_scores, transform_scores
+from aligner.errors import InputFormatError
+from aligner.io.inputs import prior_notes
+from aligner.io.paths import input_files
+from aligner.io.readers import _NoRows, all_parts_empty, edge_weights, prior_pick, read_table, same_columns
+
+__all__ = ["on_cluster", "ClusterRead", "read_on_cluster", "select_on_cluster"]
+
+_STRING = "string[pyarrow]"
+
+
+def on_cluster(network_a, network_b, prior, cfg: AlignConfig) -> bool:
+    """Whether the inputs can be read on the cluster: both networks and the prior are files (or
+    glob patterns), and the candidates come from the prior (not from structure)."""
+    paths = all(isinstance(x, (str, os.PathLike)) for x in (network_a, network_b, prior))
+    return paths and not cfg.structural
+
+
+# --------------------------------------------------------------------------- on the workers
+
+def _strings(col) -> pd.Series:
+    arr = col if isinstance(col, (pa.Array, pa.ChunkedArray)) else pa.array(np.asarray(col, dtype=object),
+                                                                             type=pa.string())
+    return pd.Series(pd.array(arr, dtype=_STRING))
+
+
+def _read_edges(path: str, delimiter, header, part: bool):
+    """One edge-list file as a frame (``u``, ``v``[, ``w``]); errors are returned, not raised, so
+    the client reports the first file's in name order."""
+    try:
+        t = read_table(path, min_cols=2, max_cols=3, delimiter=delimiter, header=header, what="edge list")
+        frame = pd.DataFrame({"u": _strings(t.text(0)), "v": _strings(t.text(1))})
+        w = edge_weights(t)
+        if w is not None:
+            frame["w"] = w
+        return frame, len(t.columns), None
+    except _NoRows as exc:
+        return None, 0, None if part else exc
+    except InputFormatError as exc:
+        return None, 0, exc
+
+
+def _read_prior(path: str, delimiter, header, columns, kind: str, part: bool):
+    """One prior file as a frame (``a``, ``b``, similarity ``s``, ``keep``: not dropped by the
+    score kind); errors returned as by :func:`_read_edges`."""
+    try:
+        t = read_table(path, min_cols=3, max_cols=3, delimiter=delimiter, header=header, what="prior table",
+                       pick=prior_pick(columns))
+        values = t.numeric(2, "score")
+        check_scores(values, kind, source=t.source, origin=t.origin)
+        scores, keep = transform_scores(values, kind)
+        frame = pd.DataFrame({"a": _strings(t.text(0)), "b": _strings(t.text(1)), "s": scores, "keep": keep})
+        return frame, len(t.columns), None
+    except _NoRows as exc:
+        return None, 0, None if part else exc
+    except InputFormatError as exc:
+        return None, 0, exc
+
+
+def _outcome(result):
+    """The small part of a read's result: (rows, columns, error)."""
+    frame, ncols, err = result
+    return (0 if frame is None else len(frame)), ncols, err
+
+
+def _numbered(result, start: int) -> pd.DataFrame:
+    """The frame of a read, with the global number of each row (``row``)."""
+    frame = result[0]
+    frame["row"] = np.arange(start, start + len(frame), dtype=np.int64)
+    return frame
+
+
+def _with_ids(frame: pd.DataFrame, start: int) -> pd.DataFrame:
+    frame = frame.copy()
+    frame["id"] = np.arange(start, start + len(frame), dtype=np.int64)
+    return frame
+
+
+def _dedupe(frame: pd.DataFrame) -> pd.DataFrame:
+    """Each pair (``ia``, ``ib``) once, with its highest score (a partition holds every row of
+    its nodes of A)."""
+    ia, ib, s = frame["ia"].to_numpy(), frame["ib"].to_numpy(), frame["s"].to_numpy()
+    order = np.lexsort((-s, ib, ia))
+    ia, ib, s = ia[order], ib[order], s[order]
+    first = np.ones(len(ia), dtype=bool)
+    first[1:] = (ia[1:] != ia[:-1]) | (ib[1:] != ib[:-1])
+    return pd.DataFrame({"ia": ia[first], "ib": ib[first], "s": s[first]})
+
+
+def _top(frame: pd.DataFrame, node: str, other: str, k: int | None, flag: str, min_score: float) -> pd.DataFrame:
+    """Pairs scoring at least ``min_score``, with ``flag`` True on each ``node``'s ``k`` best
+    (ties to the smaller ``other``); a partition holds every pair of its nodes."""
+    frame = frame[frame["s"].to_numpy() >= min_score]
+    if k is None:
+        return frame.assign(**{flag: True})
+    g, o, s = frame[node].to_numpy(), frame[other].to_numpy(), frame["s"].to_numpy()
+    order = np.lexsort((o, -s, g))
+    gs = g[order]
+    start = np.ones(len(gs), dtype=bool)
+    start[1:] = gs[1:] != gs[:-1]
+    first = np.maximum.accumulate(np.where(start, np.arange(len(gs)), 0))
+    top = np.empty(len(gs), dtype=bool)
+    top[order] = np.arange(len(gs)) - first < k
+    return frame.assign(**{flag: top})
+
+
+def _either(frame: pd.DataFrame) -> pd.DataFrame:
+    keep = frame["top_a"].to_numpy() | frame["top_b"].to_numpy()
+    return frame.loc[keep, ["ia", "ib", "s"]]
+
+
+# --------------------------------------------------------------------------- on the client
+
+def _files(path) -> tuple[list[str], bool]:
+    """The files of an input (absolute, for the workers) and whether it was a pattern."""
+    files = input_files(path)
+    if files is None:
+        return [os.path.abspath(os.fspath(path))], False
+    return [os.path.abspath(f) for f in files], True
+
+
+def _read_parts(client, path, reader, what: str, *args):
+    """Read an input's files on the workers; (futures of their results, rows per file, columns)."""
+    from distributed import wait
+
+    files, pattern = _files(path)
+    futures = client.map(reader, files, *[[a] * len(files) for a in args], [pattern] * len(files), pure=False)
+    wait(futures)
+    facts = client.gather(client.map(_outcome, futures, pure=False))
+    for _, _, err in facts:  # the first file's error, in name order
+        if err is not None:
+            raise err
+    kept = [(f, fut, n, c) for f, fut, (n, c, _) in zip(files, futures, facts) if c]
+    if not kept:
+        raise all_parts_empty(os.fspath(path), len(files), what)
+    same_columns([(f, c) for f, _, _, c in kept], what)
+    return [fut for _, fut, _, _ in kept], [n for _, _, n, _ in kept], kept[0][3], len(files)
+
+
+def _frame(futures, rows, meta: pd.DataFrame):
+    """One dask frame of the files' frames, each row numbered over the whole input."""
+    import dask
+    import dask.dataframe as dd
+
+    starts = np.concatenate([[0], np.cumsum(rows)[:-1]]).astype(np.int64)
+    parts = [dask.delayed(_numbered)(f, int(s)) for f, s in zip(futures, starts)]
+    return dd.from_delayed(parts, meta=meta.assign(row=np.empty(0, dtype=np.int64)), verify_meta=False)
+
+
+def _numbering(client, edges, parts: int):
+    """The identifiers of a network (both columns, each once, sorted) numbered by position: a
+    persisted frame (``name``, ``id``)."""
+    import dask
+    import dask.dataframe as dd
+
+    both = dd.concat([edges["u"].rename("name"), edges["v"].rename("name")])
+    names = both.drop_duplicates(split_out=parts).to_frame().sort_values("name", npartitions=parts)
+    names = client.persist(names)
+    lengths = names.map_partitions(len).compute().to_numpy()
+    starts = np.concatenate([[0], np.cumsum(lengths)[:-1]]).astype(np.int64)
+    numbered = [dask.delayed(_with_ids)(p, int(s)) for p, s in zip(names.to_delayed(), starts)]
+    meta = _with_ids(names._meta, 0)
+    return client.persist(dd.from_delayed(numbered, meta=meta, verify_meta=False))
+
+
+def _network(edges, ids, n_edges: int, weighted_file: bool, source: str, names: np.ndarray,
+             directed: bool) -> Network:
+    """The network of an edge frame, its rows in file order (so repeated edges sum their weights in
+    the single machine's order)."""
+    m = edges.merge(ids.rename(columns={"name": "u", "id": "ui"}), on="u", how="inner")
+    m = m.merge(ids.rename(columns={"name": "v", "id": "vi"}), on="v", how="inner")
+    got = m[["row", "ui", "vi", *(["w"] if weighted_file else [])]].compute()
+    row = got["row"].to_numpy()
+    u = np.empty(n_edges, dtype=np.int64)
+    v = np.empty(n_edges, dtype=np.int64)
+    u[row], v[row] = got["ui"].to_numpy(), got["vi"].to_numpy()
+    w = None
+    if weighted_file:
+        w = np.empty(n_edges, dtype=np.float64)
+        w[row] = got["w"].to_numpy()
+    return network_from_edges(names, u, v, w, source=source, directed=directed)
+
+
+def _names(ids) -> np.ndarray:
+    col = ids["name"].compute()
+    return names_from_arrow(pa.array(col, type=pa.string()))
+
+
+@dataclass
+class ClusterRead:
+    """The networks read on the cluster, and the prior's files read there (their frames stay on
+    the workers until :func:`select_on_cluster`)."""
+
+    network_a: Network
+    network_b: Network
+    ids_a: object  # dask frames (name, id): the numbering of each network
+    ids_b: object
+    prior_parts: list  # futures of the prior files' frames
+    prior_rows: list[int]
+    prior_source: str
+    report: dict
+
+
+def read_on_cluster(client, network_a, network_b, prior, cfg: AlignConfig, *, parts: int) -> ClusterRead:
+    """Read both networks and the prior's files on the cluster; the networks come back to the
+    client as integer arrays and sorted identifiers, numbered as on one machine."""
+    t0 = time.perf_counter()
+    read = (cfg.delimiter, cfg.header)
+    fa, rows_a, cols_a, files_a = _read_parts(client, network_a, _read_edges, "edge list", *read)
+    fb, rows_b, cols_b, files_b = _read_parts(client, network_b, _read_edges, "edge list", *read)
+    fp, rows_p, _, files_p = _read_parts(client, prior, _read_prior, "prior table", *read, cfg.prior_columns,
+                                         cfg.score_kind)
+    t1 = time.perf_counter()
+    edge_meta = pd.DataFrame({"u": pd.Series([], dtype=_STRING), "v": pd.Series([], dtype=_STRING)})
+    ea = _frame(fa, rows_a, edge_meta.assign(w=np.empty(0)) if cols_a == 3 else edge_meta)
+    eb = _frame(fb, rows_b, edge_meta.assign(w=np.empty(0)) if cols_b == 3 else edge_meta)
+    ids_a, ids_b = _numbering(client, ea, parts), _numbering(client, eb, parts)
+    net_a = _network(ea, ids_a, int(sum(rows_a)), cols_a == 3, os.fspath(network_a), _names(ids_a), cfg.directed)
+    net_b = _network(eb, ids_b, int(sum(rows_b)), cols_b == 3, os.fspath(network_b), _names(ids_b), cfg.directed)
+    report = {"where": "cluster", "files": {"network_a": files_a, "network_b": files_b, "prior": files_p},
+              "partitions": parts,
+              "seconds": {"files": round(t1 - t0, 4), "networks": round(time.perf_counter() - t1, 4)}}
+    return ClusterRead(net_a, net_b, ids_a, ids_b, fp, rows_p, os.fspath(prior), report)
+
+
+def select_on_cluster(client, read: ClusterRead, cfg: AlignConfig, *, parts: int):
+    """Map the prior onto the networks and select the candidates, on the cluster.
+
+    Returns
+    -------
+    (PriorTable, float, CandidateSet)
+        The prior's counts (its rows stay on the cluster; warnings issued as on one machine), the
+        highest score of a usable pair, and the candidate pairs: what
+        :func:`aligner.pipeline.read_inputs` and :func:`aligner.pipeline.find_candidates` give
+        (seeds not yet added).
+    """
+    import dask
+
+    t0 = time.perf_counter()
+    prior_meta = pd.DataFrame({"a": pd.Series([], dtype=_STRING), "b": pd.Series([], dtype=_STRING),
+                               "s": np.empty(0), "keep": np.empty(0, dtype=bool)})
+    p = _frame(read.prior_parts, read.prior_rows, prior_meta)
+    p = p.merge(read.ids_a.rename(columns={"name": "a", "id": "ia"}), on="a", how="left")
+    p = p.merge(read.ids_b.rename(columns={"name": "b", "id": "ib"}), on="b", how="left")
+    known = p["ia"].notnull() & p["ib"].notnull()
+    unknown = p[~known]
+    usable = p[known & p["keep"]][["ia", "ib", "s"]].astype({"ia": np.int64, "ib": np.int64})
+    by_a = usable.shuffle(on="ia", npartitions=parts).map_partitions(_dedupe, meta=_dedupe(usable._meta))
+    by_a = client.persist(by_a)
+    n_unknown, examples, n_dropped, n_usable, n_pairs, best = dask.compute(
+        unknown.shape[0], unknown.nsmallest(3, "row")[["row", "a", "b"]], (known & ~p["keep"]).sum(),
+        usable.shape[0], by_a.shape[0], by_a["s"].max())
+    marked = by_a.map_partitions(_top, "ia", "ib", cfg.top_k, "top_a", cfg.min_score,
+                                 meta=by_a._meta.assign(top_a=np.empty(0, dtype=bool)))
+    marked = marked.shuffle(on="ib", npartitions=parts)
+    marked = marked.map_partitions(_top, "ib", "ia", cfg.top_k, "top_b", -np.inf,
+                                   meta=marked._meta.assign(top_b=np.empty(0, dtype=bool)))
+    chosen = marked.map_partitions(_either, meta=by_a._meta).compute()
+    read.report["seconds"]["prior_and_candidates"] = round(time.perf_counter() - t0, 4)
+
+    examples = examples.sort_values("row")
+    table = PriorTable(pairs=np.empty((0, 2), dtype=np.int32), scores=np.empty(0), n_rows=int(sum(read.prior_rows)),
+                       n_unknown=int(n_unknown),
+                       unknown_examples=[f"{a} / {b}" for a, b in zip(examples["a"], examples["b"])],
+                       n_dropped_kind=int(n_dropped), n_duplicates=int(n_usable - n_pairs),
+                       source=read.prior_source, released_pairs=int(n_pairs))
+    table = prior_notes(table)
+    pairs = np.stack([chosen["ia"].to_numpy(np.int64), chosen["ib"].to_numpy(np.int64)], axis=1)
+    cand = build_candidates(pairs, chosen["s"].to_numpy(np.float64), read.network_a.n, read.network_b.n,
+                            min_score=cfg.min_score, top_k=None)
+    return table, float(best) if n_pairs else 0.0, cand
