@@ -25,7 +25,7 @@ ALLOWED = {
     "datasets": BASE | {"core", "kernels", "io", "priors"},
     "pipeline": BASE | {"core", "io", "priors"},
     "analysis": BASE | {"core", "kernels", "io", "priors", "pipeline"},
-    "engines": BASE | {"core", "kernels", "pipeline"},
+    "engines": BASE | {"core", "kernels", "io", "pipeline"},
     "render": BASE | {"io", "analysis"},
     "cli": BASE | {"core", "io", "priors", "datasets", "pipeline", "analysis", "render", "engines"},
 }

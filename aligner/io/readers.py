@@ -39,6 +39,7 @@ __all__ = [
     "network_from_table",
     "edge_weights",
     "same_columns",
+    "read_part",
     "all_parts_empty",
     "read_prior",
     "read_pairs",
@@ -393,13 +394,9 @@ def read_table(path: str | os.PathLike, *, min_cols: int, max_cols: int, delimit
     path = os.fspath(path)
     files = input_files(path)
     if files is not None:  # a pattern: one table from the files it matches
-        parts = []
-        for f in files:
-            try:
-                parts.append(read_table(f, min_cols=min_cols, max_cols=max_cols, delimiter=delimiter,
-                                        header=header, what=what, pick=pick, required=required, text_cols=text_cols))
-            except _NoRows:  # an empty part (a partition without rows, or its header only) adds nothing
-                continue
+        parts = [part for f in files if (part := read_part(
+            f, min_cols=min_cols, max_cols=max_cols, delimiter=delimiter, header=header, what=what, pick=pick,
+            required=required, text_cols=text_cols)) is not None]
         if not parts:
             raise all_parts_empty(path, len(files), what)
         return _joined(path, parts, what)
@@ -415,6 +412,15 @@ def read_table(path: str | os.PathLike, *, min_cols: int, max_cols: int, delimit
     except csv.Error as exc:
         raise InputFormatError(f"cannot be parsed ({exc}); check the quoting and the delimiter (give "
                                "--delimiter)", path=path) from None
+
+
+def read_part(path: str, **options) -> Table | None:
+    """One file of a pattern, read by :func:`read_table` with ``options``; None when it has no
+    data rows (a partition without rows, or its header only, adds nothing to the table)."""
+    try:
+        return read_table(path, **options)
+    except _NoRows:
+        return None
 
 
 class _NoRows(InputFormatError):

@@ -39,7 +39,7 @@ from aligner.core.prior import PriorTable, check_scores, transform_scores
 from aligner.errors import InputFormatError
 from aligner.io.inputs import prior_notes
 from aligner.io.paths import input_files
-from aligner.io.readers import _NoRows, all_parts_empty, edge_weights, prior_pick, read_table, same_columns
+from aligner.io.readers import all_parts_empty, edge_weights, prior_pick, read_part, read_table, same_columns
 
 __all__ = ["on_cluster", "ClusterRead", "read_on_cluster", "select_on_cluster"]
 
@@ -65,31 +65,36 @@ def _read_edges(path: str, delimiter, header, part: bool):
     """One edge-list file as a frame (``u``, ``v``[, ``w``]); errors are returned, not raised, so
     the client reports the first file's in name order."""
     try:
-        t = read_table(path, min_cols=2, max_cols=3, delimiter=delimiter, header=header, what="edge list")
+        t = _read(path, part, min_cols=2, max_cols=3, delimiter=delimiter, header=header, what="edge list")
+        if t is None:
+            return None, 0, None
         frame = pd.DataFrame({"u": _strings(t.text(0)), "v": _strings(t.text(1))})
         w = edge_weights(t)
         if w is not None:
             frame["w"] = w
         return frame, len(t.columns), None
-    except _NoRows as exc:
-        return None, 0, None if part else exc
     except InputFormatError as exc:
         return None, 0, exc
+
+
+def _read(path: str, part: bool, **options):
+    """A file's table; for a part of a pattern, None when it has no data rows."""
+    return read_part(path, **options) if part else read_table(path, **options)
 
 
 def _read_prior(path: str, delimiter, header, columns, kind: str, part: bool):
     """One prior file as a frame (``a``, ``b``, similarity ``s``, ``keep``: not dropped by the
     score kind); errors returned as by :func:`_read_edges`."""
     try:
-        t = read_table(path, min_cols=3, max_cols=3, delimiter=delimiter, header=header, what="prior table",
-                       pick=prior_pick(columns))
+        t = _read(path, part, min_cols=3, max_cols=3, delimiter=delimiter, header=header, what="prior table",
+                  pick=prior_pick(columns))
+        if t is None:
+            return None, 0, None
         values = t.numeric(2, "score")
         check_scores(values, kind, source=t.source, origin=t.origin)
         scores, keep = transform_scores(values, kind)
         frame = pd.DataFrame({"a": _strings(t.text(0)), "b": _strings(t.text(1)), "s": scores, "keep": keep})
         return frame, len(t.columns), None
-    except _NoRows as exc:
-        return None, 0, None if part else exc
     except InputFormatError as exc:
         return None, 0, exc
 
