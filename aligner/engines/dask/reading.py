@@ -108,14 +108,26 @@ def _outcome(result):
 def _numbered(result, start: int) -> pd.DataFrame:
     """The frame of a read, with the global number of each row (``row``)."""
     frame = result[0]
-    frame["row"] = np.arange(start, start + len(frame), dtype=np.int64)
-    return frame
+    return frame.assign(row=np.arange(start, start + len(frame), dtype=np.int64))
 
 
 def _with_ids(frame: pd.DataFrame, start: int) -> pd.DataFrame:
     frame = frame.copy()
     frame["id"] = np.arange(start, start + len(frame), dtype=np.int64)
     return frame
+
+
+def _numeric(frame: pd.DataFrame) -> pd.DataFrame:
+    """A merged prior frame without its text: ids (-1: unknown node), score, kept, row."""
+    return pd.DataFrame({"row": frame["row"].to_numpy(),
+                         "ia": frame["ia"].fillna(-1).to_numpy(np.int64),
+                         "ib": frame["ib"].fillna(-1).to_numpy(np.int64),
+                         "s": frame["s"].to_numpy(), "keep": frame["keep"].to_numpy()})
+
+
+def _texts(result, rows: np.ndarray) -> list[str]:
+    frame = result[0]
+    return [f"{a} / {b}" for a, b in zip(frame["a"].to_numpy()[rows], frame["b"].to_numpy()[rows])]
 
 
 def _dedupe(frame: pd.DataFrame) -> pd.DataFrame:
@@ -196,8 +208,9 @@ def _numbering(client, edges, parts: int):
     import dask.dataframe as dd
 
     both = dd.concat([edges["u"].rename("name"), edges["v"].rename("name")])
-    names = both.drop_duplicates(split_out=parts).to_frame().sort_values("name", npartitions=parts)
-    names = client.persist(names)
+    # persisted before the sort, which reads its input twice (sampling the quantiles, then sorting)
+    names = client.persist(both.drop_duplicates(split_out=parts).to_frame())
+    names = client.persist(names.sort_values("name", npartitions=parts))
     lengths = names.map_partitions(len).compute().to_numpy()
     starts = np.concatenate([[0], np.cumsum(lengths)[:-1]]).astype(np.int64)
     numbered = [dask.delayed(_with_ids)(p, int(s)) for p, s in zip(names.to_delayed(), starts)]
@@ -265,6 +278,16 @@ def read_on_cluster(client, network_a, network_b, prior, cfg: AlignConfig, *, pa
     return ClusterRead(net_a, net_b, ids_a, ids_b, fp, rows_p, os.fspath(prior), report)
 
 
+def _rows_text(client, read: "ClusterRead", rows: np.ndarray) -> list[str]:
+    """``"a / b"`` of the prior's rows ``rows`` (global row numbers), read from the files' frames."""
+    starts = np.concatenate([[0], np.cumsum(read.prior_rows)]).astype(np.int64)
+    out = []
+    for r in rows:
+        k = int(np.searchsorted(starts, r, side="right")) - 1
+        out += client.submit(_texts, read.prior_parts[k], np.array([r - starts[k]]), pure=False).result()
+    return out
+
+
 def select_on_cluster(client, read: ClusterRead, cfg: AlignConfig, *, parts: int):
     """Map the prior onto the networks and select the candidates, on the cluster.
 
@@ -284,14 +307,16 @@ def select_on_cluster(client, read: ClusterRead, cfg: AlignConfig, *, parts: int
     p = _frame(read.prior_parts, read.prior_rows, prior_meta)
     p = p.merge(read.ids_a.rename(columns={"name": "a", "id": "ia"}), on="a", how="left")
     p = p.merge(read.ids_b.rename(columns={"name": "b", "id": "ib"}), on="b", how="left")
-    known = p["ia"].notnull() & p["ib"].notnull()
-    unknown = p[~known]
-    usable = p[known & p["keep"]][["ia", "ib", "s"]].astype({"ia": np.int64, "ib": np.int64})
+    # numbers only from here (the merges run once): -1 for an unknown node
+    p = client.persist(p.map_partitions(_numeric, meta=_numeric(p._meta)))
+    known = (p["ia"] >= 0) & (p["ib"] >= 0)
+    usable = p[known & p["keep"]][["ia", "ib", "s"]]
     by_a = usable.shuffle(on="ia", npartitions=parts).map_partitions(_dedupe, meta=_dedupe(usable._meta))
     by_a = client.persist(by_a)
-    n_unknown, examples, n_dropped, n_usable, n_pairs, best = dask.compute(
-        unknown.shape[0], unknown.nsmallest(3, "row")[["row", "a", "b"]], (known & ~p["keep"]).sum(),
-        usable.shape[0], by_a.shape[0], by_a["s"].max())
+    n_unknown, first_unknown, n_dropped, n_usable, n_pairs, best = dask.compute(
+        (~known).sum(), p["row"][~known].nsmallest(3), (known & ~p["keep"]).sum(), usable.shape[0], by_a.shape[0],
+        by_a["s"].max())
+    del p
     marked = by_a.map_partitions(_top, "ia", "ib", cfg.top_k, "top_a", cfg.min_score,
                                  meta=by_a._meta.assign(top_a=np.empty(0, dtype=bool)))
     marked = marked.shuffle(on="ib", npartitions=parts)
@@ -300,10 +325,9 @@ def select_on_cluster(client, read: ClusterRead, cfg: AlignConfig, *, parts: int
     chosen = marked.map_partitions(_either, meta=by_a._meta).compute()
     read.report["seconds"]["prior_and_candidates"] = round(time.perf_counter() - t0, 4)
 
-    examples = examples.sort_values("row")
     table = PriorTable(pairs=np.empty((0, 2), dtype=np.int32), scores=np.empty(0), n_rows=int(sum(read.prior_rows)),
                        n_unknown=int(n_unknown),
-                       unknown_examples=[f"{a} / {b}" for a, b in zip(examples["a"], examples["b"])],
+                       unknown_examples=_rows_text(client, read, np.sort(first_unknown.to_numpy())),
                        n_dropped_kind=int(n_dropped), n_duplicates=int(n_usable - n_pairs),
                        source=read.prior_source, released_pairs=int(n_pairs))
     table = prior_notes(table)
