@@ -85,9 +85,11 @@ def _expected_candidates(prior: pd.DataFrame, names_a, names_b, k, min_score, ev
     return both[["ia", "ib"]].to_numpy(), both["s"].to_numpy()
 
 
-@pytest.mark.parametrize("parts", [1, 3])
-def test_generated_pair_as_on_one_machine(client, tmp_path, parts):
-    """A generated pair read from single files: networks, candidates and counts of one machine."""
+@pytest.mark.parametrize("parts, broadcast", [(1, True), (3, True), (3, False)])
+def test_generated_pair_as_on_one_machine(client, tmp_path, monkeypatch, parts, broadcast):
+    """A generated pair read from single files: networks, candidates and counts of one machine,
+    with the numbering sent whole to every partition or shuffled (both kinds of merge)."""
+    monkeypatch.setattr(reading, "BROADCAST_NAMES", 10**9 if broadcast else 0)
     folder = write_instance(noisy_relabelled(1500, seed=5, decoy_mode="near"), tmp_path)
     a, b, p = folder / "network_a.tsv", folder / "network_b.tsv", folder / "prior.tsv"
     cfg = AlignConfig(top_k=4)

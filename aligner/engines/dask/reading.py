@@ -30,6 +30,7 @@ from dataclasses import dataclass
 import numpy as np
 import pandas as pd
 import pyarrow as pa
+import pyarrow.compute as pac
 
 from aligner.config import AlignConfig
 from aligner.core.candidates import build_candidates
@@ -44,6 +45,9 @@ from aligner.io.readers import all_parts_empty, edge_weights, prior_pick, read_p
 __all__ = ["on_cluster", "ClusterRead", "read_on_cluster", "select_on_cluster"]
 
 _STRING = "string[pyarrow]"
+#: a network of at most this many nodes has its numbering (identifier, id) sent whole to every
+#: partition it is merged with (about 40 bytes per node), rather than shuffling both sides
+BROADCAST_NAMES = 5_000_000
 
 
 def on_cluster(network_a, network_b, prior, cfg: AlignConfig) -> bool:
@@ -111,6 +115,30 @@ def _numbered(result, start: int) -> pd.DataFrame:
     return frame.assign(row=np.arange(start, start + len(frame), dtype=np.int64))
 
 
+def _index(col: pd.Series, names: pa.Array) -> np.ndarray:
+    """The id of every identifier of ``col`` among the sorted ``names`` (-1: not there)."""
+    idx = pac.index_in(pa.array(col.array), value_set=names)
+    return pac.fill_null(idx, -1).to_numpy(zero_copy_only=False).astype(np.int64)
+
+
+def _edge_ids(result, start: int, names: pa.Array) -> pd.DataFrame:
+    """A file's edges as ids (``row``, ``ui``, ``vi``[, ``w``]) by a look-up in the whole numbering."""
+    frame = result[0]
+    out = pd.DataFrame({"row": np.arange(start, start + len(frame), dtype=np.int64),
+                        "ui": _index(frame["u"], names), "vi": _index(frame["v"], names)})
+    if "w" in frame:
+        out["w"] = frame["w"].to_numpy()
+    return out
+
+
+def _prior_ids(result, start: int, names_a: pa.Array, names_b: pa.Array) -> pd.DataFrame:
+    """A prior file's rows as numbers (:func:`_numeric`) by look-ups in both numberings."""
+    frame = result[0]
+    return pd.DataFrame({"row": np.arange(start, start + len(frame), dtype=np.int64),
+                         "ia": _index(frame["a"], names_a), "ib": _index(frame["b"], names_b),
+                         "s": frame["s"].to_numpy(), "keep": frame["keep"].to_numpy()})
+
+
 def _with_ids(frame: pd.DataFrame, start: int) -> pd.DataFrame:
     frame = frame.copy()
     frame["id"] = np.arange(start, start + len(frame), dtype=np.int64)
@@ -123,6 +151,10 @@ def _numeric(frame: pd.DataFrame) -> pd.DataFrame:
                          "ia": frame["ia"].fillna(-1).to_numpy(np.int64),
                          "ib": frame["ib"].fillna(-1).to_numpy(np.int64),
                          "s": frame["s"].to_numpy(), "keep": frame["keep"].to_numpy()})
+
+
+def _merged_meta(prior_meta: pd.DataFrame) -> pd.DataFrame:
+    return prior_meta.assign(row=np.empty(0, dtype=np.int64), ia=np.empty(0), ib=np.empty(0))
 
 
 def _texts(result, rows: np.ndarray) -> list[str]:
@@ -196,7 +228,7 @@ def _frame(futures, rows, meta: pd.DataFrame):
     import dask
     import dask.dataframe as dd
 
-    starts = np.concatenate([[0], np.cumsum(rows)[:-1]]).astype(np.int64)
+    starts = _starts(rows)
     parts = [dask.delayed(_numbered)(f, int(s)) for f, s in zip(futures, starts)]
     return dd.from_delayed(parts, meta=meta.assign(row=np.empty(0, dtype=np.int64)), verify_meta=False)
 
@@ -212,33 +244,68 @@ def _numbering(client, edges, parts: int):
     names = client.persist(both.drop_duplicates(split_out=parts).to_frame())
     names = client.persist(names.sort_values("name", npartitions=parts))
     lengths = names.map_partitions(len).compute().to_numpy()
-    starts = np.concatenate([[0], np.cumsum(lengths)[:-1]]).astype(np.int64)
+    starts = _starts(lengths)
     numbered = [dask.delayed(_with_ids)(p, int(s)) for p, s in zip(names.to_delayed(), starts)]
     meta = _with_ids(names._meta, 0)
     return client.persist(dd.from_delayed(numbered, meta=meta, verify_meta=False))
 
 
-def _network(edges, ids, n_edges: int, weighted_file: bool, source: str, names: np.ndarray,
+def _merge(frame, ids, on: str, to: str, how: str):
+    """``frame`` with the id of its column ``on`` as ``to``: a shuffle join on the identifiers."""
+    return frame.merge(ids.rename(columns={"name": on, "id": to}), on=on, how=how)
+
+
+def _partitions(client, frame):
+    """The partitions of a persisted frame, fetched to the client one at a time."""
+    for part in frame.to_delayed():
+        yield client.compute(part).result()
+
+
+def _results(futures):
+    """The values of ``futures``, fetched to the client one at a time."""
+    for fut in futures:
+        yield fut.result()
+
+
+def _starts(rows) -> np.ndarray:
+    return np.concatenate([[0], np.cumsum(rows)[:-1]]).astype(np.int64)
+
+
+def _network(client, parts, rows, ids, names, n_edges: int, weighted_file: bool, source: str,
              directed: bool) -> Network:
-    """The network of an edge frame, its rows in file order (so repeated edges sum their weights in
-    the single machine's order)."""
-    m = edges.merge(ids.rename(columns={"name": "u", "id": "ui"}), on="u", how="inner")
-    m = m.merge(ids.rename(columns={"name": "v", "id": "vi"}), on="v", how="inner")
-    got = m[["row", "ui", "vi", *(["w"] if weighted_file else [])]].compute()
-    row = got["row"].to_numpy()
-    u = np.empty(n_edges, dtype=np.int64)
-    v = np.empty(n_edges, dtype=np.int64)
-    u[row], v[row] = got["ui"].to_numpy(), got["vi"].to_numpy()
-    w = None
-    if weighted_file:
-        w = np.empty(n_edges, dtype=np.float64)
-        w[row] = got["w"].to_numpy()
-    return network_from_edges(names, u, v, w, source=source, directed=directed)
+    """The network of an input's files, its rows in file order (so repeated edges sum their
+    weights in the single machine's order), fetched a file or partition at a time into the arrays
+    it fills. The ids come from a look-up in the whole numbering, sent to every worker, when it
+    is small (:data:`BROADCAST_NAMES`), else from two shuffle joins."""
+    n_names = len(names[0])
+    if n_names <= BROADCAST_NAMES:
+        shared = client.scatter(names[1], broadcast=True, hash=False)
+        chunks = _results([client.submit(_edge_ids, f, int(s), shared, pure=False)
+                           for f, s in zip(parts, _starts(rows))])
+    else:
+        edges = _frame(parts, rows, _edge_meta(weighted_file))
+        m = _merge(_merge(edges, ids, "u", "ui", "inner"), ids, "v", "vi", "inner")
+        chunks = _partitions(client, client.persist(m[["row", "ui", "vi", *(["w"] if weighted_file else [])]]))
+    dtype = np.int32 if n_names < 2**31 else np.int64
+    u, v = np.empty(n_edges, dtype=dtype), np.empty(n_edges, dtype=dtype)
+    w = np.empty(n_edges, dtype=np.float64) if weighted_file else None
+    for got in chunks:
+        row = got["row"].to_numpy()
+        u[row], v[row] = got["ui"].to_numpy(), got["vi"].to_numpy()
+        if w is not None:
+            w[row] = got["w"].to_numpy()
+    return network_from_edges(names[0], u, v, w, source=source, directed=directed)
 
 
-def _names(ids) -> np.ndarray:
-    col = ids["name"].compute()
-    return names_from_arrow(pa.array(col, type=pa.string()))
+def _edge_meta(weighted: bool) -> pd.DataFrame:
+    meta = pd.DataFrame({"u": pd.Series([], dtype=_STRING), "v": pd.Series([], dtype=_STRING)})
+    return meta.assign(w=np.empty(0)) if weighted else meta
+
+
+def _names(ids) -> tuple[np.ndarray, pa.Array]:
+    """A network's sorted identifiers, as ``Network.names`` holds them and as a pyarrow array."""
+    arrow = pa.array(ids["name"].compute(), type=pa.string())
+    return names_from_arrow(arrow), arrow
 
 
 @dataclass
@@ -250,6 +317,8 @@ class ClusterRead:
     network_b: Network
     ids_a: object  # dask frames (name, id): the numbering of each network
     ids_b: object
+    names_a: pa.Array  # the same numbering on the client: the sorted identifiers
+    names_b: pa.Array
     prior_parts: list  # futures of the prior files' frames
     prior_rows: list[int]
     prior_source: str
@@ -266,16 +335,17 @@ def read_on_cluster(client, network_a, network_b, prior, cfg: AlignConfig, *, pa
     fp, rows_p, _, files_p = _read_parts(client, prior, _read_prior, "prior table", *read, cfg.prior_columns,
                                          cfg.score_kind)
     t1 = time.perf_counter()
-    edge_meta = pd.DataFrame({"u": pd.Series([], dtype=_STRING), "v": pd.Series([], dtype=_STRING)})
-    ea = _frame(fa, rows_a, edge_meta.assign(w=np.empty(0)) if cols_a == 3 else edge_meta)
-    eb = _frame(fb, rows_b, edge_meta.assign(w=np.empty(0)) if cols_b == 3 else edge_meta)
-    ids_a, ids_b = _numbering(client, ea, parts), _numbering(client, eb, parts)
-    net_a = _network(ea, ids_a, int(sum(rows_a)), cols_a == 3, os.fspath(network_a), _names(ids_a), cfg.directed)
-    net_b = _network(eb, ids_b, int(sum(rows_b)), cols_b == 3, os.fspath(network_b), _names(ids_b), cfg.directed)
+    ids_a = _numbering(client, _frame(fa, rows_a, _edge_meta(cols_a == 3)), parts)
+    ids_b = _numbering(client, _frame(fb, rows_b, _edge_meta(cols_b == 3)), parts)
+    names_a, names_b = _names(ids_a), _names(ids_b)
+    net_a = _network(client, fa, rows_a, ids_a, names_a, int(sum(rows_a)), cols_a == 3, os.fspath(network_a),
+                     cfg.directed)
+    net_b = _network(client, fb, rows_b, ids_b, names_b, int(sum(rows_b)), cols_b == 3, os.fspath(network_b),
+                     cfg.directed)
     report = {"where": "cluster", "files": {"network_a": files_a, "network_b": files_b, "prior": files_p},
               "partitions": parts,
               "seconds": {"files": round(t1 - t0, 4), "networks": round(time.perf_counter() - t1, 4)}}
-    return ClusterRead(net_a, net_b, ids_a, ids_b, fp, rows_p, os.fspath(prior), report)
+    return ClusterRead(net_a, net_b, ids_a, ids_b, names_a[1], names_b[1], fp, rows_p, os.fspath(prior), report)
 
 
 def _rows_text(client, read: "ClusterRead", rows: np.ndarray) -> list[str]:
@@ -300,15 +370,21 @@ def select_on_cluster(client, read: ClusterRead, cfg: AlignConfig, *, parts: int
         (seeds not yet added).
     """
     import dask
+    import dask.dataframe as dd
 
     t0 = time.perf_counter()
     prior_meta = pd.DataFrame({"a": pd.Series([], dtype=_STRING), "b": pd.Series([], dtype=_STRING),
                                "s": np.empty(0), "keep": np.empty(0, dtype=bool)})
-    p = _frame(read.prior_parts, read.prior_rows, prior_meta)
-    p = p.merge(read.ids_a.rename(columns={"name": "a", "id": "ia"}), on="a", how="left")
-    p = p.merge(read.ids_b.rename(columns={"name": "b", "id": "ib"}), on="b", how="left")
-    # numbers only from here (the merges run once): -1 for an unknown node
-    p = client.persist(p.map_partitions(_numeric, meta=_numeric(p._meta)))
+    if max(read.network_a.n, read.network_b.n) <= BROADCAST_NAMES:  # look-ups in the whole numberings
+        na = client.scatter(read.names_a, broadcast=True, hash=False)
+        nb = client.scatter(read.names_b, broadcast=True, hash=False)
+        numbered = [client.submit(_prior_ids, f, int(s), na, nb, pure=False)
+                    for f, s in zip(read.prior_parts, _starts(read.prior_rows))]
+        p = dd.from_delayed(numbered, meta=_numeric(_merged_meta(prior_meta)), verify_meta=False)
+    else:  # numbers only after the merges (run once): -1 for an unknown node
+        p = _frame(read.prior_parts, read.prior_rows, prior_meta)
+        p = _merge(_merge(p, read.ids_a, "a", "ia", "left"), read.ids_b, "b", "ib", "left")
+        p = client.persist(p.map_partitions(_numeric, meta=_numeric(p._meta)))
     known = (p["ia"] >= 0) & (p["ib"] >= 0)
     usable = p[known & p["keep"]][["ia", "ib", "s"]]
     by_a = usable.shuffle(on="ia", npartitions=parts).map_partitions(_dedupe, meta=_dedupe(usable._meta))
@@ -322,7 +398,17 @@ def select_on_cluster(client, read: ClusterRead, cfg: AlignConfig, *, parts: int
     marked = marked.shuffle(on="ib", npartitions=parts)
     marked = marked.map_partitions(_top, "ib", "ia", cfg.top_k, "top_b", -np.inf,
                                    meta=marked._meta.assign(top_b=np.empty(0, dtype=bool)))
-    chosen = marked.map_partitions(_either, meta=by_a._meta).compute()
+    chosen = client.persist(marked.map_partitions(_either, meta=by_a._meta))
+    m = int(chosen.shape[0].compute())
+    pairs = np.empty((m, 2), dtype=np.int32)  # filled a partition at a time: the client never holds a frame
+    scores = np.empty(m, dtype=np.float64)
+    at = 0
+    for got in _partitions(client, chosen):
+        k = len(got)
+        pairs[at:at + k, 0], pairs[at:at + k, 1] = got["ia"].to_numpy(), got["ib"].to_numpy()
+        scores[at:at + k] = got["s"].to_numpy()
+        at += k
+    del chosen, by_a
     read.report["seconds"]["prior_and_candidates"] = round(time.perf_counter() - t0, 4)
 
     table = PriorTable(pairs=np.empty((0, 2), dtype=np.int32), scores=np.empty(0), n_rows=int(sum(read.prior_rows)),
@@ -331,7 +417,5 @@ def select_on_cluster(client, read: ClusterRead, cfg: AlignConfig, *, parts: int
                        n_dropped_kind=int(n_dropped), n_duplicates=int(n_usable - n_pairs),
                        source=read.prior_source, released_pairs=int(n_pairs))
     table = prior_notes(table)
-    pairs = np.stack([chosen["ia"].to_numpy(np.int64), chosen["ib"].to_numpy(np.int64)], axis=1)
-    cand = build_candidates(pairs, chosen["s"].to_numpy(np.float64), read.network_a.n, read.network_b.n,
-                            min_score=cfg.min_score, top_k=None)
+    cand = build_candidates(pairs, scores, read.network_a.n, read.network_b.n, min_score=cfg.min_score, top_k=None)
     return table, float(best) if n_pairs else 0.0, cand
