@@ -112,6 +112,33 @@ def test_generated_pair_as_on_one_machine(client, tmp_path, monkeypatch, parts, 
     assert np.array_equal(cand.pairs, pairs) and np.allclose(cand.prior, scores)
 
 
+def test_one_numbering_on_the_client_and_one_on_the_cluster(client, tmp_path, monkeypatch):
+    """Network A numbered by the distributed sort, B on the client: the prior's rows then take
+    their ids by shuffle joins with both numberings."""
+    folder = write_instance(noisy_relabelled(700, seed=6, decoy_mode="near"), tmp_path)
+    a, b, p = folder / "network_a.tsv", folder / "network_b.tsv", folder / "prior.tsv"
+    real, calls = reading._names_of, []
+
+    def names_of(client, parts):
+        calls.append(len(calls))
+        if len(calls) == 1:
+            return None  # network A: too many identifiers, say
+        monkeypatch.setattr(reading, "BROADCAST_NAMES", 10**9)
+        try:
+            return real(client, parts)
+        finally:
+            monkeypatch.setattr(reading, "BROADCAST_NAMES", 0)
+
+    monkeypatch.setattr(reading, "_names_of", names_of)
+    monkeypatch.setattr(reading, "BROADCAST_NAMES", 0)
+    got, table, best, cand = _on_cluster(client, a, b, p, AlignConfig(top_k=3), parts=2)
+    assert got.ids_a is not None and got.ids_b is None
+    inputs, ref = _single(a, b, p, AlignConfig(top_k=3))
+    assert got.network_b.names.tolist() == inputs.network_b.names.tolist()
+    assert np.array_equal(got.network_a.edges, inputs.network_a.edges)
+    assert np.array_equal(cand.pairs, ref.pairs) and np.array_equal(cand.prior, ref.prior)
+
+
 def _tricky(tmp_path, rng):
     """Edge cases in part files: unicode names, repeated and weighted edges, arcs both ways,
     prior rows naming unknown nodes, repeated pairs, E-values above 1 and tied scores."""

@@ -233,9 +233,34 @@ def _frame(futures, rows, meta: pd.DataFrame):
     return dd.from_delayed(parts, meta=meta.assign(row=np.empty(0, dtype=np.int64)), verify_meta=False)
 
 
+def _file_names(result) -> pa.Array:
+    """The identifiers of a file's two columns, each once (unsorted)."""
+    frame = result[0]
+    both = pa.chunked_array([*_chunks(frame["u"]), *_chunks(frame["v"])], type=pa.string())
+    return pac.unique(both)
+
+
+def _chunks(col: pd.Series) -> list:
+    arr = pa.array(col.array)
+    arr = arr.cast(pa.string()) if arr.type != pa.string() else arr
+    return arr.chunks if isinstance(arr, pa.ChunkedArray) else [arr]
+
+
+def _names_of(client, parts):
+    """A network's sorted identifiers ``(Network.names, pyarrow array)``, merged on the client from
+    each file's own, when they are few (at most :data:`BROADCAST_NAMES` in all the files' lists);
+    None when they are more (then :func:`_numbering` sorts them on the cluster)."""
+    lists = [client.submit(_file_names, f, pure=False) for f in parts]
+    if sum(client.gather(client.map(len, lists, pure=False))) > BROADCAST_NAMES:
+        return None
+    merged = pac.unique(pa.chunked_array([x for x in _results(lists)], type=pa.string()))
+    arrow = merged.take(pac.array_sort_indices(merged))  # code point order, as intern() sorts
+    return names_from_arrow(arrow), arrow
+
+
 def _numbering(client, edges, parts: int):
-    """The identifiers of a network (both columns, each once, sorted) numbered by position: a
-    persisted frame (``name``, ``id``)."""
+    """The identifiers of a network (both columns, each once, sorted) numbered by position by a
+    distributed sort: a persisted frame (``name``, ``id``)."""
     import dask
     import dask.dataframe as dd
 
@@ -248,6 +273,14 @@ def _numbering(client, edges, parts: int):
     numbered = [dask.delayed(_with_ids)(p, int(s)) for p, s in zip(names.to_delayed(), starts)]
     meta = _with_ids(names._meta, 0)
     return client.persist(dd.from_delayed(numbered, meta=meta, verify_meta=False))
+
+
+def _ids_frame(names: pa.Array, parts: int):
+    """A numbering the client holds, as a dask frame (``name``, ``id``) to merge with."""
+    import dask.dataframe as dd
+
+    frame = pd.DataFrame({"name": pd.array(names, dtype=_STRING), "id": np.arange(len(names), dtype=np.int64)})
+    return dd.from_pandas(frame, npartitions=parts, sort=False)
 
 
 def _merge(frame, ids, on: str, to: str, how: str):
@@ -278,7 +311,7 @@ def _network(client, parts, rows, ids, names, n_edges: int, weighted_file: bool,
     it fills. The ids come from a look-up in the whole numbering, sent to every worker, when it
     is small (:data:`BROADCAST_NAMES`), else from two shuffle joins."""
     n_names = len(names[0])
-    if n_names <= BROADCAST_NAMES:
+    if ids is None or n_names <= BROADCAST_NAMES:
         shared = client.scatter(names[1], broadcast=True, hash=False)
         chunks = _results([client.submit(_edge_ids, f, int(s), shared, pure=False)
                            for f, s in zip(parts, _starts(rows))])
@@ -315,7 +348,7 @@ class ClusterRead:
 
     network_a: Network
     network_b: Network
-    ids_a: object  # dask frames (name, id): the numbering of each network
+    ids_a: object  # dask frames (name, id): the numbering of each network, when sorted on the cluster
     ids_b: object
     names_a: pa.Array  # the same numbering on the client: the sorted identifiers
     names_b: pa.Array
@@ -335,9 +368,15 @@ def read_on_cluster(client, network_a, network_b, prior, cfg: AlignConfig, *, pa
     fp, rows_p, _, files_p = _read_parts(client, prior, _read_prior, "prior table", *read, cfg.prior_columns,
                                          cfg.score_kind)
     t1 = time.perf_counter()
-    ids_a = _numbering(client, _frame(fa, rows_a, _edge_meta(cols_a == 3)), parts)
-    ids_b = _numbering(client, _frame(fb, rows_b, _edge_meta(cols_b == 3)), parts)
-    names_a, names_b = _names(ids_a), _names(ids_b)
+    numbered = []
+    for files, rows, cols in ((fa, rows_a, cols_a), (fb, rows_b, cols_b)):
+        names = _names_of(client, files)
+        ids = None
+        if names is None:  # many identifiers: sorted on the cluster
+            ids = _numbering(client, _frame(files, rows, _edge_meta(cols == 3)), parts)
+            names = _names(ids)
+        numbered.append((ids, names))
+    (ids_a, names_a), (ids_b, names_b) = numbered
     net_a = _network(client, fa, rows_a, ids_a, names_a, int(sum(rows_a)), cols_a == 3, os.fspath(network_a),
                      cfg.directed)
     net_b = _network(client, fb, rows_b, ids_b, names_b, int(sum(rows_b)), cols_b == 3, os.fspath(network_b),
@@ -375,15 +414,19 @@ def select_on_cluster(client, read: ClusterRead, cfg: AlignConfig, *, parts: int
     t0 = time.perf_counter()
     prior_meta = pd.DataFrame({"a": pd.Series([], dtype=_STRING), "b": pd.Series([], dtype=_STRING),
                                "s": np.empty(0), "keep": np.empty(0, dtype=bool)})
-    if max(read.network_a.n, read.network_b.n) <= BROADCAST_NAMES:  # look-ups in the whole numberings
+    small = [ids is None or net.n <= BROADCAST_NAMES for ids, net in ((read.ids_a, read.network_a),
+                                                                       (read.ids_b, read.network_b))]
+    if all(small):  # look-ups in the whole numberings
         na = client.scatter(read.names_a, broadcast=True, hash=False)
         nb = client.scatter(read.names_b, broadcast=True, hash=False)
         numbered = [client.submit(_prior_ids, f, int(s), na, nb, pure=False)
                     for f, s in zip(read.prior_parts, _starts(read.prior_rows))]
         p = dd.from_delayed(numbered, meta=_numeric(_merged_meta(prior_meta)), verify_meta=False)
     else:  # numbers only after the merges (run once): -1 for an unknown node
+        ids_a = read.ids_a if read.ids_a is not None else _ids_frame(read.names_a, parts)
+        ids_b = read.ids_b if read.ids_b is not None else _ids_frame(read.names_b, parts)
         p = _frame(read.prior_parts, read.prior_rows, prior_meta)
-        p = _merge(_merge(p, read.ids_a, "a", "ia", "left"), read.ids_b, "b", "ib", "left")
+        p = _merge(_merge(p, ids_a, "a", "ia", "left"), ids_b, "b", "ib", "left")
         p = client.persist(p.map_partitions(_numeric, meta=_numeric(p._meta)))
     known = (p["ia"] >= 0) & (p["ib"] >= 0)
     usable = p[known & p["keep"]][["ia", "ib", "s"]]
