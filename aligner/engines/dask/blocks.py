@@ -18,6 +18,7 @@ the blocks' rows, read through ``glob``, is the single-machine product graph ent
 from __future__ import annotations
 
 import time
+from collections.abc import Iterator
 from dataclasses import dataclass
 
 import numpy as np
@@ -29,7 +30,7 @@ from aligner.core.diffusion import column_scale
 from aligner.core.product import ProductGraph, build_product, product_row_lengths
 from aligner.core.weights import AGREEMENT_FLOOR, walk_degree, walk_weights
 
-__all__ = ["BlockInput", "Block", "node_costs", "partition", "cut_by_cost", "block_inputs", "build_block",
+__all__ = ["BlockInput", "Block", "node_costs", "partition", "cut_by_cost", "block_inputs", "block_sizes", "build_block",
            "gather_rows"]
 
 
@@ -104,8 +105,9 @@ class BlockInput:
 
 
 def block_inputs(net_a, net_b, cand: CandidateSet, h: np.ndarray, bounds: np.ndarray, *, directed: bool,
-                 weighted: bool, normalization: str, weight_model: str = "agreement") -> list[BlockInput]:
-    """Slice the client's inputs into one :class:`BlockInput` per range of ``bounds``."""
+                 weighted: bool, normalization: str, weight_model: str = "agreement") -> Iterator[BlockInput]:
+    """Slice the client's inputs into one :class:`BlockInput` per range of ``bounds``, in order, one
+    at a time (a caller that ships each block before taking the next holds one block's slices)."""
     if weighted:  # the entry weights the product graph is built from (see aligner.core.weights)
         a_ip, a_ix, a_w = walk_weights(net_a, directed, weight_model)
         b_ip, b_ix, b_w = walk_weights(net_b, directed, weight_model)
@@ -119,7 +121,6 @@ def block_inputs(net_a, net_b, cand: CandidateSet, h: np.ndarray, bounds: np.nda
         sa = walk_degree(net_a, directed, weighted, weight_model)
         sb = walk_degree(net_b, directed, weighted, weight_model)
         deg = sa[cand.pairs[:, 0]] * sb[cand.pairs[:, 1]]
-    out = []
     for b in range(len(bounds) - 1):
         i0, i1 = int(bounds[b]), int(bounds[b + 1])
         p0, p1 = int(pair_bounds[b]), int(pair_bounds[b + 1])
@@ -131,15 +132,20 @@ def block_inputs(net_a, net_b, cand: CandidateSet, h: np.ndarray, bounds: np.nda
         c_ptr, c_pos = _gather_rows(cand.a_indptr, local)
         partners = unique(cand.pairs[p0:p1, 1]).astype(np.int64)
         bp, b_pos = _gather_rows(b_ip, partners)
-        out.append(BlockInput(
+        yield BlockInput(
             index=b, pair_bounds=pair_bounds, local_nodes=local, own_from=below, n_own=i1 - i0,
             a_indptr=(a_ip[i0:i1 + 1] - e0).astype(np.int64), a_indices=nbrs,
             a_weights=a_w[e0:e1] if weighted else np.empty(0), c_indptr=c_ptr,
             c_b=cand.pairs[c_pos, 1].astype(np.int64), c_pair=c_pos, b_nodes=partners, b_indptr=bp,
             b_indices=b_ix[b_pos].astype(np.int64), b_weights=b_w[b_pos] if weighted else np.empty(0),
             h=np.ascontiguousarray(h[p0:p1]), pair_deg=None if deg is None else deg[p0:p1],
-            directed=directed, weighted=weighted, agreement=agreement))
-    return out
+            directed=directed, weighted=weighted, agreement=agreement)
+
+
+def block_sizes(a_indptr: np.ndarray, cand: CandidateSet, bounds: np.ndarray) -> np.ndarray:
+    """What each block's inputs hold before they are sliced, roughly: its own candidate pairs plus
+    its own entries of A (to deal the largest blocks first)."""
+    return np.diff(cand.a_indptr[bounds]) + np.diff(a_indptr[bounds])
 
 
 @dataclass(frozen=True, eq=False)
