@@ -5,6 +5,8 @@
 - a worker killed mid-run (SIGKILL of its process, sent at a fixed point of the run: when the
   diffusion starts) is recovered from, with the x and matching of an undisturbed run on the same
   cluster; with recovery turned off the run ends in one line, exit status 1, and no output;
+- a worker killed while the inputs are read on the cluster: the run recovers (dask runs the lost
+  reads again) with the undisturbed run's alignment, or ends in one line, exit 1, no output;
 - the mapping of distributed's exceptions to :class:`aligner.errors.ClusterError`, and an
   unreachable scheduler as a user error (exit 2, one line).
 
@@ -82,6 +84,7 @@ def test_same_partitions_give_byte_identical_outputs(cluster, folder, tmp_path):
             assert len(first) > 100 and first == second, (k, name)
     # the engine section of summary.json carries what issue 15 asks for (keys in docs/formats.md)
     eng = json.loads((outs[0] / "summary.json").read_text())["engine"]
+    assert eng["reading"]["where"] == "cluster"  # the files were read by the workers
     assert eng["partitions"] == 4 and 0 < eng["cut_fraction"] < 1 and eng["ghost_pairs"] > 0
     assert eng["rounds"] == eng["diffusion"]["rounds"] + eng["auction"]["rounds"] > 0
     assert eng["messages"] > 0 and eng["edge_touches"] == eng["diffusion"]["edge_touches"] > 0
@@ -134,6 +137,35 @@ def test_a_killed_worker_without_recovery_fails_in_one_line_and_writes_nothing(c
     assert len(lines) == 1 and "Traceback" not in res.output
     assert lines[0].startswith("error: the dask cluster lost a worker during the diffusion rounds and could not "
                                "recover; no output was written;")
+    assert not out.exists() or not any(out.iterdir())
+
+
+def test_a_worker_killed_while_reading_recovers_or_fails_in_one_line(cluster, folder, tmp_path, monkeypatch):
+    """Killed between the files' reading and the prior's selection (the files' frames live on the
+    workers then): dask recomputes what it can, or the run ends in one line, exit 1, no output."""
+    lc, c = cluster
+    _two_workers(c)
+    real = engine.reading.select_on_cluster
+
+    def kill_then_select(*args, **kw):
+        _kill_one_worker(c)
+        return real(*args, **kw)
+
+    monkeypatch.setattr(engine.reading, "select_on_cluster", kill_then_select)
+    out = tmp_path / "o"
+    res = runner.invoke(app, _args(folder, out, "--scheduler", lc.scheduler_address, "--partitions", "2"))
+    if res.exit_code == 0:  # recovered: the alignment of an undisturbed run
+        monkeypatch.setattr(engine.reading, "select_on_cluster", real)
+        _two_workers(c)
+        ref = runner.invoke(app, _args(folder, tmp_path / "ref", "--scheduler", lc.scheduler_address,
+                                       "--partitions", "2"))
+        assert ref.exit_code == 0, ref.output
+        assert (out / "alignment.tsv").read_bytes() == (tmp_path / "ref" / "alignment.tsv").read_bytes()
+        return
+    assert res.exit_code == 1, res.output
+    lines = res.stderr.strip().splitlines()
+    assert len(lines) == 1 and "Traceback" not in res.output
+    assert lines[0].startswith("error: the dask cluster lost a worker during the reading on the cluster")
     assert not out.exists() or not any(out.iterdir())
 
 
