@@ -118,7 +118,7 @@ def _numbered(result, start: int) -> pd.DataFrame:
 def _index(col: pd.Series, names: pa.Array) -> np.ndarray:
     """The id of every identifier of ``col`` among the sorted ``names`` (-1: not there)."""
     idx = pac.index_in(pa.array(col.array), value_set=names)
-    return pac.fill_null(idx, -1).to_numpy(zero_copy_only=False).astype(np.int64)
+    return pac.fill_null(idx, -1).to_numpy(zero_copy_only=False).astype(np.int32, copy=False)
 
 
 def _edge_ids(result, start: int, names: pa.Array) -> pd.DataFrame:
@@ -146,10 +146,11 @@ def _with_ids(frame: pd.DataFrame, start: int) -> pd.DataFrame:
 
 
 def _numeric(frame: pd.DataFrame) -> pd.DataFrame:
-    """A merged prior frame without its text: ids (-1: unknown node), score, kept, row."""
+    """A merged prior frame without its text: int32 ids (-1: unknown node; node counts stay below 2^31,
+    as the candidate pairs hold them), score, kept, row."""
     return pd.DataFrame({"row": frame["row"].to_numpy(),
-                         "ia": frame["ia"].fillna(-1).to_numpy(np.int64),
-                         "ib": frame["ib"].fillna(-1).to_numpy(np.int64),
+                         "ia": frame["ia"].fillna(-1).to_numpy(np.int32),
+                         "ib": frame["ib"].fillna(-1).to_numpy(np.int32),
                          "s": frame["s"].to_numpy(), "keep": frame["keep"].to_numpy()})
 
 
