@@ -4,21 +4,23 @@ Each file of an input (each part, for a glob pattern) is read on a worker by the
 reader (:func:`aligner.io.readers.read_table`: the same checks and messages). Then, with
 dask.dataframe:
 
-- **names to ids by a distributed sort**: the identifiers of both columns of a network, without
-  repeats, sorted (code point order, as :func:`aligner.core.identifiers.intern` sorts them), and
-  numbered by their position: the single machine's numbering;
-- **edges to ids** by two merges on the identifiers (a shuffle join each);
-- **the prior** mapped onto both networks by two left merges (rows naming an unknown node are
-  counted, the first three kept as examples), its scores read as the score kind says on the
-  worker that read them;
+- **names to ids**: the identifiers of both columns of a network, without repeats, sorted (code
+  point order, as :func:`aligner.core.identifiers.intern` sorts them) and numbered by their
+  position: the single machine's numbering. A network of few identifiers (at most
+  :data:`BROADCAST_NAMES` in its files' own lists) is numbered on the client from those lists;
+  a larger one by a distributed sort (``drop_duplicates``, ``sort_values``);
+- **edges and prior rows to ids**: by a hash look-up in the whole numbering, sent to every
+  worker, for a network of few identifiers; otherwise by merges on the identifiers (shuffle
+  joins). Prior rows naming an unknown node are counted, the first three kept as examples; the
+  scores are read as the score kind says on the worker that read them;
 - **the candidates**: a shuffle by node of A puts every pair of a node in one partition, where
   repeated pairs keep their highest score and each node marks its ``top_k`` best pairs; a
   shuffle by node of B, and each node of B marks its ``top_k`` best; the candidates are the pairs
   either marked (:func:`aligner.core.candidates.build_candidates`' rule, ties to the smaller
   index of the other node).
 
-The client receives integer arrays (edges, candidate pairs and their scores) and the sorted
-identifiers; no row of text is read on it.
+The client receives integer arrays (edges, candidate pairs and their scores, a file or partition
+at a time) and the sorted identifiers; no row of text is parsed on it.
 """
 
 from __future__ import annotations
@@ -45,8 +47,9 @@ from aligner.io.readers import all_parts_empty, edge_weights, prior_pick, read_p
 __all__ = ["on_cluster", "ClusterRead", "read_on_cluster", "select_on_cluster"]
 
 _STRING = "string[pyarrow]"
-#: a network of at most this many nodes has its numbering (identifier, id) sent whole to every
-#: partition it is merged with (about 40 bytes per node), rather than shuffling both sides
+#: a network whose files list at most this many identifiers in all is numbered on the client and
+#: its numbering sent whole to every worker (about 40 bytes per node) for look-ups, rather than
+#: sorted on the cluster and joined by shuffles
 BROADCAST_NAMES = 5_000_000
 
 
@@ -207,7 +210,8 @@ def _files(path) -> tuple[list[str], bool]:
 
 
 def _read_parts(client, path, reader, what: str, *args):
-    """Read an input's files on the workers; (futures of their results, rows per file, columns)."""
+    """Read an input's files on the workers: (futures of the results of the files with rows, their
+    rows, their number of columns, the number of files); the first file's error is raised."""
     from distributed import wait
 
     files, pattern = _files(path)
@@ -242,6 +246,7 @@ def _file_names(result) -> pa.Array:
 
 
 def _chunks(col: pd.Series) -> list:
+    """A column of identifiers as pyarrow string chunks."""
     arr = pa.array(col.array)
     arr = arr.cast(pa.string()) if arr.type != pa.string() else arr
     return arr.chunks if isinstance(arr, pa.ChunkedArray) else [arr]
