@@ -36,7 +36,7 @@ __all__ = ["Spec", "option", "AlignConfig", "QueryConfig", "LabelConfig", "Class
            "TransferConfig", "specs",
            "describe",
            "from_options", "with_options", "SCORE_KINDS", "SOLVERS", "NORMALIZATIONS", "WEIGHT_MODELS", "ROUNDINGS",
-           "HEADERS", "SIDES", "ENGINES"]
+           "HEADERS", "SIDES", "ENGINES", "DASK_READING"]
 
 SCORE_KINDS = ("similarity", "evalue", "distance")
 SOLVERS = ("push", "power")
@@ -46,6 +46,8 @@ ROUNDINGS = ("auto", "sparse", "dense", "scipy")
 HEADERS = ("auto", "yes", "no")
 SIDES = ("a", "b")
 ENGINES = ("local", "dask")
+#: where the dask engine reads input files: by its workers when it can ("auto"), or on the client
+DASK_READING = ("auto", "client")
 
 #: One column of a table, picked by its 1-based position (``11``) or its header name (``evalue``): a
 #: name holds at least one character that is not a digit, and no comma.
@@ -299,6 +301,10 @@ class EngineConfig(_Config):
     partitions: int | None = option(
         None, "With --engine dask: blocks of nodes of A (default: the number of workers).", flag="--partitions",
         group="Engine", kind="int", low=1, optional=True)
+    reading: str = option(
+        "auto", "With --engine dask: where the input files are read. auto: by the dask workers when both "
+        "networks and the prior are files (the workers must see the same paths); client: here, then shipped to "
+        "the workers.", flag="--reading", group="Engine", kind="choice", choices=DASK_READING)
 
 
 @dataclass(frozen=True, kw_only=True)

@@ -64,6 +64,16 @@ def test_unreachable_scheduler_is_a_user_error(folder, tmp_path, monkeypatch):
     assert not (tmp_path / "o" / "alignment.tsv").exists()
 
 
+def test_reading_on_the_client_from_the_command_line(folder, tmp_path):
+    pytest.importorskip("distributed")
+    res = runner.invoke(app, _args(folder, tmp_path / "o", "--engine", "dask", "--workers", "2", "--reading",
+                                   "client"))
+    assert res.exit_code == 0, res.output
+    assert json.loads((tmp_path / "o" / "summary.json").read_text())["engine"]["reading"] == {"where": "client"}
+    local = runner.invoke(app, _args(folder, tmp_path / "l", "--reading", "client"))
+    assert local.exit_code == 2 and "reading is an option of the dask engine" in local.output
+
+
 def test_dask_options_need_the_dask_engine(folder, tmp_path):
     res = runner.invoke(app, _args(folder, tmp_path / "o", "--partitions", "4"))
     assert res.exit_code == 2 and "--partitions is an option of the dask engine" in res.output

@@ -256,3 +256,23 @@ def test_engine_reads_on_the_cluster_and_aligns_as_from_the_client(client, tmp_p
     assert np.array_equal(here.improvement.matching.index, there.improvement.matching.index)
     assert here.summary["scores"] == there.summary["scores"]
     assert here.summary["inputs"] == there.summary["inputs"]
+
+
+def test_a_file_the_workers_cannot_see_says_so(client, tmp_path, monkeypatch):
+    """A worker that finds no file at a path the client sees (no shared file system), simulated by
+    the workers' reader reporting the file missing: the message says what to do."""
+    folder = write_instance(noisy_relabelled(100, seed=1), tmp_path)
+
+    def missing(path, **kw):
+        raise InputFormatError("no such file; check the path", path=path)
+
+    monkeypatch.setattr(reading, "read_table", missing)  # the workers are threads of this process
+    with pytest.raises(InputFormatError, match="the dask workers cannot open this file, which exists where aligner "
+                       "runs.*--reading client") as err:
+        _on_cluster(client, folder / "network_a.tsv", folder / "network_b.tsv", folder / "prior.tsv",
+                    AlignConfig(), parts=2)
+    assert err.value.path == str(folder / "network_a.tsv")
+    # a file missing everywhere keeps the reader's own message
+    with pytest.raises(InputFormatError, match="no such file; check the path"):
+        _on_cluster(client, tmp_path / "nowhere.tsv", folder / "network_b.tsv", folder / "prior.tsv",
+                    AlignConfig(), parts=2)

@@ -24,6 +24,8 @@ def check_engine(engine: EngineConfig) -> None:
         for name in ("scheduler", "partitions"):
             if getattr(engine, name) is not None:
                 raise InvalidParameterError(f"{name} is an option of the dask engine; add --engine dask", param=name)
+        if engine.reading != "auto":
+            raise InvalidParameterError("reading is an option of the dask engine; add --engine dask", param="reading")
         return
     from importlib.util import find_spec
 
@@ -56,7 +58,7 @@ def run_align(network_a: Path, network_b: Path, prior: Path | None, outdir: Path
             # a lost cluster raises ClusterError: one line and exit 1 (runtime.user_errors)
             res = dask_align(network_a, network_b, prior, seeds=seeds, truth=truth, config=config,
                              progress=bar.stage, scheduler=engine.scheduler, workers=engine.workers,
-                             partitions=engine.partitions)
+                             partitions=engine.partitions, reading=engine.reading)
         else:
             from aligner.engines.ahead import CompileAhead
 

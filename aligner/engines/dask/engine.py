@@ -27,7 +27,7 @@ from typing import Any
 
 import numpy as np
 
-from aligner.config import AlignConfig, from_options
+from aligner.config import DASK_READING, AlignConfig, from_options
 from aligner.core.diffusion import DiffusionResult
 from aligner.core.product import ProductGraph, estimate_product_edges
 from aligner.core.rounding import Matching
@@ -47,8 +47,6 @@ CONNECT_TIMEOUT = "10s"
 RECOVERY_ATTEMPTS = 1
 #: how often a wait checks that the blocks' workers are still in the cluster
 POLL_SECONDS = 1.0
-#: where the inputs are read: on the cluster when they are files ("auto"), or always on the client
-READING = ("auto", "client")
 
 
 def block_imbalance(cluster: "BlockCluster") -> float:
@@ -307,8 +305,9 @@ def align(network_a, network_b, prior=None, *, truth=None, seeds=None, client=No
     parts = workers if partitions is None else partitions
     if not isinstance(parts, int) or parts < 1:
         raise InvalidParameterError(f"partitions must be an integer >= 1; got {parts!r}", param="partitions")
-    if reading not in READING:
-        raise InvalidParameterError(f"reading must be one of {', '.join(READING)}; got {reading!r}", param="reading")
+    if reading not in DASK_READING:
+        raise InvalidParameterError(f"reading must be one of {', '.join(DASK_READING)}; got {reading!r}",
+                                    param="reading")
     clock = Clock(progress)
     with connect(client, scheduler=scheduler, workers=workers) as c:
         if reading != "client" and on_cluster(network_a, network_b, prior, cfg):

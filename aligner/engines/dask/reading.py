@@ -218,14 +218,24 @@ def _read_parts(client, path, reader, what: str, *args):
     futures = client.map(reader, files, *[[a] * len(files) for a in args], [pattern] * len(files), pure=False)
     wait(futures)
     facts = client.gather(client.map(_outcome, futures, pure=False))
-    for _, _, err in facts:  # the first file's error, in name order
+    for f, (_, _, err) in zip(files, facts):  # the first file's error, in name order
         if err is not None:
-            raise err
+            raise _unseen(err, f) or err
     kept = [(f, fut, n, c) for f, fut, (n, c, _) in zip(files, futures, facts) if c]
     if not kept:
         raise all_parts_empty(os.fspath(path), len(files), what)
     same_columns([(f, c) for f, _, _, c in kept], what)
     return [fut for _, fut, _, _ in kept], [n for _, _, n, _ in kept], kept[0][3], len(files)
+
+
+def _unseen(err: InputFormatError, path: str) -> InputFormatError | None:
+    """The error to give when a worker finds no file at a path the client sees: the workers do not
+    share this file system (None when that is not the case)."""
+    if err.path == path and err.bare.startswith("no such file") and os.path.isfile(path):
+        return InputFormatError("the dask workers cannot open this file, which exists where aligner runs: give "
+                                "paths that every worker sees (a shared file system), or read the inputs here and "
+                                "ship them with --reading client (Python: reading='client')", path=path)
+    return None
 
 
 def _frame(futures, rows, meta: pd.DataFrame):
