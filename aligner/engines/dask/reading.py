@@ -299,6 +299,12 @@ def _ids_frame(names: pa.Array, parts: int):
     return dd.from_pandas(frame, npartitions=parts, sort=False)
 
 
+def _share(client, value):
+    """``value`` placed on the cluster once; the workers whose tasks use it fetch it from there (a
+    scatter to every worker would wait for ever on a worker that has just been lost)."""
+    return client.scatter(value, hash=False)
+
+
 def _merge(frame, ids, on: str, to: str, how: str):
     """``frame`` with the id of its column ``on`` as ``to``: a shuffle join on the identifiers."""
     return frame.merge(ids.rename(columns={"name": on, "id": to}), on=on, how=how)
@@ -328,7 +334,7 @@ def _network(client, parts, rows, ids, names, n_edges: int, weighted_file: bool,
     is small (:data:`BROADCAST_NAMES`), else from two shuffle joins."""
     n_names = len(names[0])
     if ids is None or n_names <= BROADCAST_NAMES:
-        shared = client.scatter(names[1], broadcast=True, hash=False)
+        shared = _share(client, names[1])
         chunks = _results([client.submit(_edge_ids, f, int(s), shared, pure=False)
                            for f, s in zip(parts, _starts(rows))])
     else:
@@ -433,8 +439,7 @@ def select_on_cluster(client, read: ClusterRead, cfg: AlignConfig, *, parts: int
     small = [ids is None or net.n <= BROADCAST_NAMES for ids, net in ((read.ids_a, read.network_a),
                                                                        (read.ids_b, read.network_b))]
     if all(small):  # look-ups in the whole numberings
-        na = client.scatter(read.names_a, broadcast=True, hash=False)
-        nb = client.scatter(read.names_b, broadcast=True, hash=False)
+        na, nb = _share(client, read.names_a), _share(client, read.names_b)
         numbered = [client.submit(_prior_ids, f, int(s), na, nb, pure=False)
                     for f, s in zip(read.prior_parts, _starts(read.prior_rows))]
         p = dd.from_delayed(numbered, meta=_numeric(_merged_meta(prior_meta)), verify_meta=False)
