@@ -88,6 +88,7 @@ def main() -> None:
             for k in args.parts:
                 if args.processes and not all(client.run(_reset_peak_memory).values()):
                     client.restart()  # no resettable high-water mark: fresh worker processes
+                restarts_before = _nanny_restarts(client)
                 client_reset = _reset_peak_memory()
                 t0 = time.perf_counter()
                 res = dask_align(ea, eb, prior, truth=truth, client=client, partitions=k, refine=False,
@@ -98,7 +99,8 @@ def main() -> None:
                 e = res.summary["engine"]
                 got = {tuple(p) for p in res.candidates.pairs[res.matching.index].tolist()}
                 rows.append({
-                    "nodes": n, "K": k, "reading": e["reading"]["where"],
+                    "nodes": n, "K": k, "reading": e["reading"]["where"], "restarts": e["restarts"],
+                    "workers_restarted": _nanny_restarts(client) - restarts_before,
                     "read_s": res.summary["timings"]["read"], "candidates_s": res.summary["timings"]["candidates"],
                     "client_peak_gib": None if client_peak is None else round(client_peak / 2**30, 3),
                     "cut_fraction": e["cut_fraction"], "ghost_pairs": e["ghost_pairs"],
@@ -130,6 +132,18 @@ def main() -> None:
     md = _markdown(df)
     out.with_suffix(".md").write_text(md + "\n")
     print(md)
+
+
+def _nanny_restarts(client) -> int:
+    """How many worker processes the cluster has started so far beyond its first ones (a nanny
+    restarts a worker that went above its memory limit): the count of distinct worker addresses
+    seen, less the workers now."""
+    seen = _SEEN.setdefault(id(client), set())
+    seen.update(client.scheduler_info()["workers"])
+    return len(seen) - len(client.scheduler_info()["workers"])
+
+
+_SEEN: dict[int, set] = {}
 
 
 def _as_files(folder: Path, frames, parts: int) -> list[str]:

@@ -438,6 +438,7 @@ def select_on_cluster(client, read: ClusterRead, cfg: AlignConfig, *, parts: int
                                "s": np.empty(0), "keep": np.empty(0, dtype=bool)})
     small = [ids is None or net.n <= BROADCAST_NAMES for ids, net in ((read.ids_a, read.network_a),
                                                                        (read.ids_b, read.network_b))]
+    numbered = None
     if all(small):  # look-ups in the whole numberings
         na, nb = _share(client, read.names_a), _share(client, read.names_b)
         numbered = [client.submit(_prior_ids, f, int(s), na, nb, pure=False)
@@ -451,18 +452,21 @@ def select_on_cluster(client, read: ClusterRead, cfg: AlignConfig, *, parts: int
         p = client.persist(p.map_partitions(_numeric, meta=_numeric(p._meta)))
     known = (p["ia"] >= 0) & (p["ib"] >= 0)
     usable = p[known & p["keep"]][["ia", "ib", "s"]]
+    n_unknown, first_unknown, n_dropped, n_usable = dask.compute(
+        (~known).sum(), p["row"][~known].nsmallest(3), (known & ~p["keep"]).sum(), usable.shape[0])
+    examples = _rows_text(client, read, np.sort(first_unknown.to_numpy()))
+    read.prior_parts = []  # the files' text is no longer needed: the workers free it before the shuffles
     by_a = usable.shuffle(on="ia", npartitions=parts).map_partitions(_dedupe, meta=_dedupe(usable._meta))
     by_a = client.persist(by_a)
-    n_unknown, first_unknown, n_dropped, n_usable, n_pairs, best = dask.compute(
-        (~known).sum(), p["row"][~known].nsmallest(3), (known & ~p["keep"]).sum(), usable.shape[0], by_a.shape[0],
-        by_a["s"].max())
-    del p
+    del p, usable, known, numbered
+    n_pairs, best = dask.compute(by_a.shape[0], by_a["s"].max())
     marked = by_a.map_partitions(_top, "ia", "ib", cfg.top_k, "top_a", cfg.min_score,
                                  meta=by_a._meta.assign(top_a=np.empty(0, dtype=bool)))
     marked = marked.shuffle(on="ib", npartitions=parts)
     marked = marked.map_partitions(_top, "ib", "ia", cfg.top_k, "top_b", -np.inf,
                                    meta=marked._meta.assign(top_b=np.empty(0, dtype=bool)))
     chosen = client.persist(marked.map_partitions(_either, meta=by_a._meta))
+    del marked, by_a  # the shuffled copies go once the chosen pairs are held
     m = int(chosen.shape[0].compute())
     pairs = np.empty((m, 2), dtype=np.int32)  # filled a partition at a time: the client never holds a frame
     scores = np.empty(m, dtype=np.float64)
@@ -472,12 +476,12 @@ def select_on_cluster(client, read: ClusterRead, cfg: AlignConfig, *, parts: int
         pairs[at:at + k, 0], pairs[at:at + k, 1] = got["ia"].to_numpy(), got["ib"].to_numpy()
         scores[at:at + k] = got["s"].to_numpy()
         at += k
-    del chosen, by_a
+    del chosen
     read.report["seconds"]["prior_and_candidates"] = round(time.perf_counter() - t0, 4)
 
     table = PriorTable(pairs=np.empty((0, 2), dtype=np.int32), scores=np.empty(0), n_rows=int(sum(read.prior_rows)),
                        n_unknown=int(n_unknown),
-                       unknown_examples=_rows_text(client, read, np.sort(first_unknown.to_numpy())),
+                       unknown_examples=examples,
                        n_dropped_kind=int(n_dropped), n_duplicates=int(n_usable - n_pairs),
                        source=read.prior_source, released_pairs=int(n_pairs))
     table = prior_notes(table)
