@@ -290,8 +290,8 @@ class EngineConfig(_Config):
 
     engine: str = option(
         "local", "Where to run: local (this process) or dask (reading of input files, candidates, product graph, "
-        "diffusion and matching on a dask cluster; needs the dask extra: pip install 'aligner[dask]').", flag="--engine", group="Engine",
-        kind="choice", choices=ENGINES)
+        "diffusion and matching on a dask cluster; needs the dask extra: pip install 'aligner[dask]').",
+        flag="--engine", group="Engine", kind="choice", choices=ENGINES)
     scheduler: str | None = option(
         None, "With --engine dask: address of a running dask scheduler (such as tcp://host:8786). Default: start "
         "a local cluster of --workers processes.", flag="--scheduler", group="Engine", kind="text", optional=True)

@@ -362,10 +362,10 @@ def _local_search(s_indptr, s_indices, s_w, c_indptr, col_ptr, col_idx, pair_a, 
     every move marks each candidate whose moves read a value the move changed (both bits, or
     bit 2 where only a rotation reads it: :func:`_mark_move`), so a candidate left unmarked
     would make no move if examined: the moves, sweeps and result are those of the search over
-    every candidate, which is what ``dirty=None`` gives (all candidates, every sweep; numba then compiles none of the marking,
-    which keeps a default run's first compile as it was). All bits set on entry is a search from
-    scratch; only some set continues a search whose matching was a local optimum before the
-    values of the marked candidates changed. When the marks of one sweep pass ``m``, marking
+    every candidate, which is what ``dirty=None`` gives (all candidates, every sweep; numba then
+    compiles none of the marking, which keeps a default run's first compile as it was). All bits
+    set on entry is a search from scratch; only some set continues a search whose matching was a
+    local optimum before the values of the marked candidates changed. When the marks of one sweep pass ``m``, marking
     stops, and the rest of that sweep and the next examine every candidate.
 
     Returns (moves, sweeps, gain), gain being the sum of the changes of F of the moves made.

@@ -30,8 +30,8 @@ from aligner.core.diffusion import column_scale
 from aligner.core.product import ProductGraph, build_product, product_row_lengths
 from aligner.core.weights import AGREEMENT_FLOOR, walk_degree, walk_weights
 
-__all__ = ["BlockInput", "Block", "node_costs", "partition", "cut_by_cost", "block_inputs", "block_sizes", "build_block",
-           "gather_rows"]
+__all__ = ["BlockInput", "Block", "node_costs", "partition", "cut_by_cost", "block_inputs", "block_sizes",
+           "build_block", "gather_rows"]
 
 
 def node_costs(a_indptr, a_indices, b_indptr, b_indices, cand: CandidateSet) -> np.ndarray:

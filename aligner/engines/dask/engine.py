@@ -33,7 +33,7 @@ from aligner.core.product import ProductGraph, estimate_product_edges
 from aligner.core.rounding import Matching
 from aligner.errors import ClusterError, InvalidParameterError
 from aligner.engines.dask import auction, blocks, diffusion, reading
-from aligner.engines.dask.reading import on_cluster
+from aligner.engines.dask.reading import on_cluster  # align's own keyword ``reading`` hides the module
 from aligner.pipeline import (AlignmentResult, Candidates, Clock, Problem, check_networks, check_some_candidate,
                               diffusion_source, evaluate, find_candidates, finish_inputs, improve, read_inputs,
                               summarize, with_seed_pairs)
@@ -89,9 +89,9 @@ class BlockCluster:
         self.group_of = {b: g for g, (_, members) in enumerate(self.groups) for b in members}
         self.worker = [worker_of[b] for b in range(self.k)]
         futs = {}
-        for inp in inputs:  # each block shipped to its worker as soon as it is sliced
+        for inp in inputs:  # each block shipped to its worker as soon as it is sliced, and let go
             futs[inp.index] = client.scatter(inp, workers=[worker_of[inp.index]], hash=False)
-            del inp
+            del inp  # before the next block is sliced
         self.blocks = [self._submit(g, _build_group, [futs[b] for b in members])
                        for g, (_, members) in enumerate(self.groups)]
         meta = self.collect(self.run(_meta))
@@ -323,7 +323,7 @@ def align(network_a, network_b, prior=None, *, truth=None, seeds=None, client=No
         while True:
             where = ["starting the blocks"]
             try:
-                return _run(c, inputs, found, cfg, parts, diffusion_mode, clock, where, lost, read_report)
+                return _run(c, inputs, found, cfg, parts, diffusion_mode, clock, where, lost, read_report=read_report)
             except Exception as exc:
                 kind = cluster_failure(exc, c)
                 if kind is None:
@@ -409,7 +409,7 @@ def failure_message(kind: str, stage: str, restarts: int) -> str:
 
 
 def _run(client, inputs, found: Candidates, cfg: AlignConfig, parts: int, mode: str, clock: Clock,
-         where: list[str] | None = None, lost: list[str] | None = None, read_report: dict | None = None):
+         where: list[str] | None = None, lost: list[str] | None = None, *, read_report: dict):
     where = where if where is not None else [""]
     cand = found.candidates
     # seeds as on one machine: extra diffusion sources, fixed in the matching
@@ -418,7 +418,7 @@ def _run(client, inputs, found: Candidates, cfg: AlignConfig, parts: int, mode: 
     b_ip, b_ix, _ = inputs.network_b.walk_adjacency(cfg.directed, cfg.weighted)
     estimate = estimate_product_edges(a_ip, a_ix, b_ip, cand)
     engine: dict[str, Any] = {"partitions": parts, "workers": len(client.scheduler_info()["workers"]),
-                              "reading": read_report or {"where": "client"}}
+                              "reading": read_report}
     with clock.stage("product"):
         where[0] = "the product graph's build"
         t0 = time.perf_counter()

@@ -36,8 +36,8 @@ import pyarrow.compute as pac
 
 from aligner.config import AlignConfig
 from aligner.core.candidates import build_candidates
-from aligner.core.identifiers import names_from_arrow
-from aligner.core.network import Network, network_from_edges
+from aligner.core.identifiers import as_arrow_strings, lookup, names_from_arrow
+from aligner.core.network import Network, network_from_edges, unique_sorted
 from aligner.core.prior import PriorTable, check_scores, transform_scores
 from aligner.errors import InputFormatError
 from aligner.io.inputs import prior_notes
@@ -63,9 +63,13 @@ def on_cluster(network_a, network_b, prior, cfg: AlignConfig) -> bool:
 # --------------------------------------------------------------------------- on the workers
 
 def _strings(col) -> pd.Series:
-    arr = col if isinstance(col, (pa.Array, pa.ChunkedArray)) else pa.array(np.asarray(col, dtype=object),
-                                                                             type=pa.string())
-    return pd.Series(pd.array(arr, dtype=_STRING))
+    """A table's column of identifiers as a pandas string column backed by pyarrow."""
+    return pd.Series(pd.array(as_arrow_strings(col), dtype=_STRING))
+
+
+def _arrow(col: pd.Series) -> pa.Array:
+    """A pandas column of identifiers as one pyarrow string array."""
+    return as_arrow_strings(pa.array(col.array)).cast(pa.string())
 
 
 def _read_edges(path: str, delimiter, header, part: bool):
@@ -119,9 +123,8 @@ def _numbered(result, start: int) -> pd.DataFrame:
 
 
 def _index(col: pd.Series, names: pa.Array) -> np.ndarray:
-    """The id of every identifier of ``col`` among the sorted ``names`` (-1: not there)."""
-    idx = pac.index_in(pa.array(col.array), value_set=names)
-    return pac.fill_null(idx, -1).to_numpy(zero_copy_only=False).astype(np.int32, copy=False)
+    """The id of every identifier of ``col`` among the sorted ``names`` (-1: not there), as int32."""
+    return lookup(names, _arrow(col)).astype(np.int32)
 
 
 def _edge_ids(result, start: int, names: pa.Array) -> pd.DataFrame:
@@ -169,12 +172,9 @@ def _texts(result, rows: np.ndarray) -> list[str]:
 def _dedupe(frame: pd.DataFrame) -> pd.DataFrame:
     """Each pair (``ia``, ``ib``) once, with its highest score (a partition holds every row of
     its nodes of A)."""
-    ia, ib, s = frame["ia"].to_numpy(), frame["ib"].to_numpy(), frame["s"].to_numpy()
-    order = np.lexsort((-s, ib, ia))
-    ia, ib, s = ia[order], ib[order], s[order]
-    first = np.ones(len(ia), dtype=bool)
-    first[1:] = (ia[1:] != ia[:-1]) | (ib[1:] != ib[:-1])
-    return pd.DataFrame({"ia": ia[first], "ib": ib[first], "s": s[first]})
+    rows, s, _ = unique_sorted(frame["ia"].to_numpy(), frame["ib"].to_numpy(), frame["s"].to_numpy(),
+                               largest=True)  # the single machine's merge of repeated prior pairs
+    return pd.DataFrame({"ia": rows[:, 0], "ib": rows[:, 1], "s": s})
 
 
 def _top(frame: pd.DataFrame, node: str, other: str, k: int | None, flag: str, min_score: float) -> pd.DataFrame:
@@ -251,15 +251,7 @@ def _frame(futures, rows, meta: pd.DataFrame):
 def _file_names(result) -> pa.Array:
     """The identifiers of a file's two columns, each once (unsorted)."""
     frame = result[0]
-    both = pa.chunked_array([*_chunks(frame["u"]), *_chunks(frame["v"])], type=pa.string())
-    return pac.unique(both)
-
-
-def _chunks(col: pd.Series) -> list:
-    """A column of identifiers as pyarrow string chunks."""
-    arr = pa.array(col.array)
-    arr = arr.cast(pa.string()) if arr.type != pa.string() else arr
-    return arr.chunks if isinstance(arr, pa.ChunkedArray) else [arr]
+    return pac.unique(pa.concat_arrays([_arrow(frame["u"]), _arrow(frame["v"])]))
 
 
 def _names_of(client, parts):
@@ -269,7 +261,7 @@ def _names_of(client, parts):
     lists = [client.submit(_file_names, f, pure=False) for f in parts]
     if sum(client.gather(client.map(len, lists, pure=False))) > BROADCAST_NAMES:
         return None
-    merged = pac.unique(pa.chunked_array([x for x in _results(lists)], type=pa.string()))
+    merged = pac.unique(pa.chunked_array(list(_results(lists)), type=pa.string()))
     arrow = merged.take(pac.array_sort_indices(merged))  # code point order, as intern() sorts
     return names_from_arrow(arrow), arrow
 
@@ -411,7 +403,7 @@ def read_on_cluster(client, network_a, network_b, prior, cfg: AlignConfig, *, pa
 
 def _rows_text(client, read: "ClusterRead", rows: np.ndarray) -> list[str]:
     """``"a / b"`` of the prior's rows ``rows`` (global row numbers), read from the files' frames."""
-    starts = np.concatenate([[0], np.cumsum(read.prior_rows)]).astype(np.int64)
+    starts = _starts(read.prior_rows)
     out = []
     for r in rows:
         k = int(np.searchsorted(starts, r, side="right")) - 1
