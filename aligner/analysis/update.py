@@ -81,7 +81,7 @@ def _with_diff(state, side: str, add, remove, cfg: AlignConfig):
     and those of ``add`` put in, built from the state's integer edges: only the diff files are
     read. Nodes seen first in ``add`` join; a node left without edges goes, as it would from the
     edited file (a network is its edge list), so the result is the Network that reading the
-    edited file gives.
+    edited file gives. Returns it and whether its nodes are the previous run's, name for name.
 
     Raises InputFormatError naming the first edge to remove that the previous network lacks, or
     to add that it already has (a diff that does not fit the run it is applied to)."""
@@ -134,8 +134,9 @@ def _with_diff(state, side: str, add, remove, cfg: AlignConfig):
     used[u] = used[v] = True
     new_id = np.cumsum(used) - 1  # the nodes left with an edge, in name order
     source = f"<network_{side}: the previous run's edges with the diff applied>"
-    return network_from_edges(every[used].astype(object), new_id[u], new_id[v], None, source=source,
-                              directed=cfg.directed)
+    net = network_from_edges(every[used].astype(object), new_id[u], new_id[v], None, source=source,
+                             directed=cfg.directed)
+    return net, every is names and bool(used.all())
 
 
 def _is_sorted(a: np.ndarray, strict: bool = False) -> bool:
@@ -163,9 +164,11 @@ def _joined_names(names: np.ndarray, more: list) -> tuple[np.ndarray, np.ndarray
     return np.insert(wide, at, new), np.arange(len(names), dtype=np.int64) + shift
 
 
-def _kept_inputs(state, given: dict, files: dict, cfg: AlignConfig) -> dict:
+def _kept_inputs(state, given: dict, files: dict, cfg: AlignConfig, same_names: dict) -> dict:
     """The networks and the prior for :func:`prepare`: an unchanged input rebuilt from the state
     where that gives exactly what reading its file again would, else the file (or what was given).
+    ``same_names`` (side -> whether the network's nodes are the previous run's, name for name) is
+    completed for both sides, each compared at most once.
 
     - A network not given, unweighted in the file (the state keeps its edges, not weights): from
       the state's names and edges; the reader's counts of self-loops and repeated edges from
@@ -192,12 +195,15 @@ def _kept_inputs(state, given: dict, files: dict, cfg: AlignConfig) -> dict:
             net = network_from_edges(names, e[:, 0], e[:, 1], None, source=files[key], directed=cfg.directed)
             nets[side] = dataclasses.replace(net, n_self_loops=counts["self_loops"],
                                              n_duplicate_edges=counts["duplicate_edges"])
+            same_names[side] = True
         else:
             nets[side] = as_network(files[key], name=key, **read)
         out[key] = nets[side]
+        if side not in same_names:
+            old = getattr(state, f"names_{side}")
+            same_names[side] = len(nets[side].names) == len(old) and np.array_equal(nets[side].names.astype(str), old)
     record = meta.get("prior_table")
-    same_nodes = all(len(nets[s].names) == len(getattr(state, f"names_{s}"))
-                     and np.array_equal(nets[s].names.astype(str), getattr(state, f"names_{s}")) for s in ("a", "b"))
+    same_nodes = same_names["a"] and same_names["b"]
     if (given.get("prior") is None and record is not None and files["seeds"] is None and not cfg.structural
             and same_nodes):
         table = PriorTable(pairs=state.pairs, scores=state.prior.astype(np.float64), n_rows=record["rows"],
@@ -353,12 +359,14 @@ class _Maps(NamedTuple):
     ends_b: np.ndarray
 
 
-def _carry(state, problem) -> tuple[np.ndarray, dict, _Maps]:
+def _carry(state, problem, same_names: dict | None = None) -> tuple[np.ndarray, dict, _Maps]:
     """The previous scores on the new candidate pairs (0 on new pairs), what changed, and how the
-    old problem maps onto the new one."""
+    old problem maps onto the new one (``same_names``: the sides known to keep the previous run's
+    nodes, name for name, whose names are not compared again)."""
     net_a, net_b, cand = problem.network_a, problem.network_b, problem.candidates
-    to_a = _renumber(state.names_a, net_a.names)
-    to_b = _renumber(state.names_b, net_b.names)
+    same_names = same_names or {}
+    to_a = np.arange(net_a.n, dtype=np.int64) if same_names.get("a") else _renumber(state.names_a, net_a.names)
+    to_b = np.arange(net_b.n, dtype=np.int64) if same_names.get("b") else _renumber(state.names_b, net_b.names)
     old = state.pairs
     if len(old) == cand.m and np.array_equal(old, cand.pairs) and _is_identity(to_a) and _is_identity(to_b):
         # the same nodes and candidates: no look-up
@@ -547,18 +555,19 @@ def update(previous, network_a=None, network_b=None, prior=None, *, seeds=None, 
         raise InvalidParameterError("give either a new prior or prior rows to add and remove, not both",
                                     param="add_prior")
     clock = Clock(progress)
+    same_names: dict[str, bool] = {}
     with clock.stage("read"):  # the diffs, the inputs given, and those kept in the state
         for side, (add, remove) in (("a", (add_a, remove_a)), ("b", (add_b, remove_b))):
             if add is not None or remove is not None:
-                given[f"network_{side}"] = _with_diff(state, side, add, remove, cfg)
+                given[f"network_{side}"], same_names[side] = _with_diff(state, side, add, remove, cfg)
         if add_prior is not None or remove_prior is not None:
             given["prior"] = _with_prior_diff(state, add_prior, remove_prior, cfg)
         files = _inputs(state, given)
-        inputs = _kept_inputs(state, given, files, cfg)
+        inputs = _kept_inputs(state, given, files, cfg, same_names)
     problem = prepare(inputs["network_a"], inputs["network_b"], inputs["prior"], seeds=files["seeds"],
                       truth=files["truth"], config=cfg, clock=clock)
     t1 = time.perf_counter()
-    x0, changes, maps = _carry(state, problem)
+    x0, changes, maps = _carry(state, problem, same_names)
     carry_s = time.perf_counter() - t1
     m = problem.candidates.m
     share_pairs = (changes["candidates_added"] + changes["candidates_rescored"]) / max(m, 1)

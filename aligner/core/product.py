@@ -84,7 +84,13 @@ class ProductGraph:
 
     @property
     def degree(self) -> npt.NDArray[np.int64]:
-        return np.diff(self.indptr)
+        """Stored entries of every row (made once: the diffusion and its scale each ask for it; read-only)."""
+        made = self.__dict__.get("_degree")
+        if made is None:
+            made = np.diff(self.indptr)
+            made.flags.writeable = False
+            object.__setattr__(self, "_degree", made)
+        return made
 
     def to_csr(self) -> sp.csr_array:
         """The adjacency as a scipy CSR array: row k holds k's (out-)neighbours, with weights."""

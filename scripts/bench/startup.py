@@ -5,6 +5,10 @@ on PATH, or ``--exe``) and prints a Markdown table of the median, minimum and ma
 ``--out FILE`` the table is also written to FILE. The error exit is ``aligner align`` on an
 input file that does not exist (exit status 2 is expected).
 
+Below them, the floor any run stands on: bare Python processes that import numpy, pandas, and
+numba with one small kernel loaded from numba's cache (compiled by an untimed run first), the
+libraries a run of ``aligner align`` cannot do without.
+
 Usage::
 
     python scripts/bench/startup.py [--runs 10] [--out startup.md] [--exe aligner]
@@ -29,6 +33,29 @@ COMMANDS = (
     ("aligner align (missing input file)", ["align", "{tmp}/missing_a.tsv", "{tmp}/missing_b.tsv",
                                             "-o", "{tmp}/out"], 2),
 )
+
+#: (label, Python source run by ``python -c``); {kernel} is a file defining one cached kernel
+FLOOR = (
+    ("python: import numpy", "import numpy"),
+    ("python: import pandas", "import pandas"),
+    ("python: import numba, load one cached kernel and call it", "import runpy; runpy.run_path({kernel!r})"),
+)
+
+#: a kernel numba compiles once into its cache, then loads
+KERNEL = """import numba
+import numpy as np
+
+
+@numba.njit(cache=True)
+def total(x):
+    s = 0.0
+    for i in range(x.shape[0]):
+        s += x[i]
+    return s
+
+
+total(np.ones(3))
+"""
 
 
 def time_command(exe: str, args: list[str], expect: int, runs: int) -> list[float]:
@@ -68,6 +95,12 @@ def main(argv: list[str] | None = None) -> int:
         time_command(exe, ["--version"], 0, 1)  # warm the file cache once, untimed
         for label, args, expect in COMMANDS:
             rows.append((label, time_command(exe, [a.format(tmp=tmp) for a in args], expect, ns.runs)))
+        kernel = Path(tmp) / "one_kernel.py"
+        kernel.write_text(KERNEL, encoding="utf-8")
+        for label, source in FLOOR:
+            args = ["-c", source.format(kernel=str(kernel))]
+            time_command(sys.executable, args, 0, 1)  # fills numba's cache (and the file cache), untimed
+            rows.append((label, time_command(sys.executable, args, 0, ns.runs)))
     text = table(rows, ns.runs)
     sys.stdout.write(text)
     if ns.out is not None:
