@@ -238,6 +238,33 @@ def test_same_blocks_give_identical_results(client, instances):
     assert first.summary["engine"]["diffusion"]["rounds"] == second.summary["engine"]["diffusion"]["rounds"]
 
 
+@pytest.mark.parametrize("diffusion_mode", ["sweep", "block"])
+def test_rounds_sent_ahead_end_where_waiting_for_each_round_ends(client, monkeypatch, diffusion_mode):
+    # the client keeps ROUNDS_AHEAD rounds in flight, each gated by the tally of the round before
+    # it; with one round in flight the client waits for every certificate (the rounds as first
+    # written): the same rounds must run, to the same x and the same counts, bit for bit. With 50
+    # in flight, more than the rounds needed, the rounds after the last must change nothing
+    from aligner.engines.dask import diffusion
+    from aligner.engines.dask.engine import align as dask_align
+
+    ea, eb, prior, _ = as_frames(noisy_relabelled(2000, seed=21))
+    got = {}
+    for ahead in (1, 4, 50):
+        monkeypatch.setattr(diffusion, "ROUNDS_AHEAD", ahead)
+        res = dask_align(ea, eb, prior, client=client, partitions=4, refine=False, diffusion_mode=diffusion_mode)
+        got[ahead] = (res.diffusion.x, res.summary["engine"]["diffusion"])
+    x1, eng1 = got[1]
+    assert eng1["rounds"] > ROUNDS_MIN
+    for ahead in (4, 50):
+        x, eng = got[ahead]
+        assert np.array_equal(x, x1), ahead
+        assert {k: v for k, v in eng.items() if k != "seconds"} == {k: v for k, v in eng1.items() if k != "seconds"}
+
+
+#: the case above must need several rounds, or no round would be gated by another that ran
+ROUNDS_MIN = 4
+
+
 def test_small_case_against_spsolve_on_the_explicit_system(client):
     # x = alpha P x + (1 - alpha) h solved directly: scipy.sparse.linalg.spsolve on I - alpha P
     import scipy.sparse as sp

@@ -53,8 +53,8 @@ from aligner.errors import ConvergenceError
 from aligner.kernels.exchange import add_messages, take_ghosts
 from aligner.kernels.push import _push, _push_pass, _residual
 
-__all__ = ["MODES", "State", "choose_mode", "start", "step", "outbox", "residual_part", "residual_finish",
-           "own_x", "run_rounds"]
+__all__ = ["MODES", "State", "Tally", "choose_mode", "start", "step", "tally", "outbox", "residual_part",
+           "residual_finish", "own_x", "run_rounds", "ROUNDS_AHEAD"]
 
 MODES = ("auto", "block", "sweep")
 #: ``auto`` runs block push when at most this share of the product entries is cut, sweeps otherwise
@@ -135,8 +135,12 @@ def _block_push(block, x: np.ndarray, r: np.ndarray, thresh: np.ndarray, alpha: 
 
 
 def step(block, state: State, mode: str, alpha: float, tol: float, total_deg: float, power: bool,
-         inbox: list) -> State:
-    """One round of one block (see the module docstring); ``inbox`` in the order of the senders."""
+         inbox: list, gate: "Tally | None" = None) -> State:
+    """One round of one block (see the module docstring); ``inbox`` in the order of the senders.
+    ``gate``: the previous round's :class:`Tally`; once it says stop, the round changes nothing
+    (it returns ``state`` itself and ignores the inbox)."""
+    if gate is not None and not gate.go:
+        return state
     x, r = state.x, state.r  # updated in place: only the next round reads a round's state
     _receive(block, r, inbox)
     thresh = _thresholds(block, tol, total_deg, power) if state.thresh is None else state.thresh
@@ -163,6 +167,30 @@ def _no_mail(cluster) -> list:
 def figures(block, state: State) -> tuple[float, float, int, int, dict]:
     return state.own_residual, state.in_flight, state.pushes, state.touches, \
         {o: len(s) for o, (s, _) in state.sent.items()}
+
+
+@dataclass(frozen=True)
+class Tally:
+    """A round's figures summed over the blocks, made on a worker: the certificate (own residuals
+    plus mass in flight), the work and the messages; ``ran``: the round did work (the round before
+    it said go on); ``go``: the rounds go on (it ran and the certificate is above tol)."""
+
+    ran: bool
+    go: bool
+    certificate: float
+    pushes: int
+    touches: int
+    messages: int
+    message_entries: int
+
+
+def tally(figs: list, tol: float, before: Tally | None = None) -> Tally:
+    """The :class:`Tally` of a round from its blocks' :func:`figures` (``before``: the previous
+    round's, None for the first)."""
+    ran = before is None or before.go
+    cert = sum(f[0] + f[1] for f in figs)
+    return Tally(ran, ran and cert > tol, cert, sum(f[2] for f in figs), sum(f[3] for f in figs),
+                 sum(len(f[4]) for f in figs), sum(sum(f[4].values()) for f in figs))
 
 
 def residual_part(block, state: State, alpha: float) -> State:
@@ -210,6 +238,49 @@ class RoundsReport:
                 "certificate_l1": self.certificate, "residual_l1": self.residual, "seconds": round(self.seconds, 4)}
 
 
+#: rounds submitted ahead of the last one whose certificate the client has seen
+ROUNDS_AHEAD = 4
+
+
+def _rounds(cluster, states, cert: float, rep: RoundsReport, cap: int, params: tuple):
+    """The rounds from ``states`` (whose certificate is ``cert``) until the certificate is at most
+    tol (or ``cap`` rounds): the blocks' states after the last round that ran, and its certificate.
+
+    The client keeps :data:`ROUNDS_AHEAD` rounds in flight instead of waiting for each round's
+    certificate before sending the next: each round's :func:`tally` is made on a worker and gates
+    the next round (a round after the one whose certificate reached tol changes nothing), so the
+    rounds wait on each other on the cluster, not on a round trip to the client, and the result
+    is that of stopping at once.
+    """
+    from collections import deque
+
+    tol = params[2]
+    pending = deque()
+    gate = None
+    sent = 0
+    last = (states, cert)
+    while True:
+        while len(pending) < ROUNDS_AHEAD and sent < cap:
+            mails = cluster.exchange(states, outbox) if sent else None
+            states = cluster.run(step, states, *params, mails=mails or _no_mail(cluster), gate=gate)
+            gate = cluster.reduce(tally, cluster.run(figures, states), tol, gate)
+            pending.append((gate, states))
+            sent += 1
+        if not pending:
+            return last
+        ahead, done = pending.popleft()
+        t = cluster.wait([ahead])[0]
+        if t.ran:
+            rep.rounds += 1
+            rep.pushes += t.pushes
+            rep.edge_touches += t.touches
+            rep.messages += t.messages
+            rep.message_entries += t.message_entries
+            last = (done, t.certificate)
+        if not t.go:
+            return last
+
+
 def run_rounds(cluster, alpha: float, tol: float, mode: str, power: bool = False,
                max_rounds: int | None = None) -> tuple[np.ndarray, RoundsReport, list]:
     """Run the rounds on ``cluster`` (a :class:`aligner.engines.dask.engine.BlockCluster`) to the
@@ -225,16 +296,8 @@ def run_rounds(cluster, alpha: float, tol: float, mode: str, power: bool = False
     cap = max_rounds if max_rounds is not None else default_work_cap("power", 1, alpha, tol)
     states = cluster.run(start, alpha)
     cert = sum(f[0] for f in cluster.collect(cluster.run(figures, states)))
-    while cert > tol and rep.rounds < cap:
-        mails = cluster.exchange(states, outbox) if rep.rounds else None
-        states = cluster.run(step, states, mode, alpha, tol, total_deg, power, mails=mails or _no_mail(cluster))
-        figs = cluster.collect(cluster.run(figures, states))
-        rep.rounds += 1
-        cert = sum(f[0] + f[1] for f in figs)
-        rep.pushes += sum(f[2] for f in figs)
-        rep.edge_touches += sum(f[3] for f in figs)
-        rep.messages += sum(len(f[4]) for f in figs)
-        rep.message_entries += sum(sum(f[4].values()) for f in figs)
+    if cert > tol:
+        states, cert = _rounds(cluster, states, cert, rep, cap, (mode, alpha, tol, total_deg, power))
     rep.certificate = cert
     parts = cluster.run(residual_part, states, alpha)
     norms = cluster.collect(cluster.run(residual_finish, parts, mails=cluster.exchange(parts, outbox)))

@@ -106,16 +106,23 @@ class BlockCluster:
     def _submit(self, g: int, fn, *args):
         return self.client.submit(fn, *args, workers=[self.groups[g][0]], allow_other_workers=False, pure=False)
 
-    def run(self, fn, *args, mails=None) -> list:
-        """``fn(block, *per_block_args[, inbox])`` for every block, one task per group. An argument
-        that is a group result (a list of one future per group) is read block by block; any other
-        is passed to every block. ``mails`` (from :meth:`exchange`) adds each block's inbox: the
-        messages addressed to it, in increasing order of their senders."""
+    def run(self, fn, *args, mails=None, gate=None) -> list:
+        """``fn(block, *per_block_args[, inbox][, gate])`` for every block, one task per group. An
+        argument that is a group result (a list of one future per group) is read block by block;
+        any other is passed to every block. ``mails`` (from :meth:`exchange`) adds each block's
+        inbox: the messages addressed to it, in increasing order of their senders. ``gate`` (a
+        future, or None) adds its value, the same for every block: the tasks wait for it."""
         out = []
         for g in range(len(self.groups)):
             per = [a[g] if _is_group(a, self) else _Shared(a) for a in args]
-            out.append(self._submit(g, _group_call, fn, self.blocks[g], per, None if mails is None else mails[g]))
+            out.append(self._submit(g, _group_call, fn, self.blocks[g], per, None if mails is None else mails[g],
+                                    gate))
         return _Group(out)
+
+    def reduce(self, fn, result, *args):
+        """``fn(per_block_values, *args)`` once, on the first group's worker, over a group result
+        (the blocks' values in block order); a future of its value (nothing waits for it here)."""
+        return self._submit(0, _reduce_call, fn, list(result), [m for _, m in self.groups], self.k, *args)
 
     def exchange(self, results, pick, senders=None) -> list:
         """Mail between the groups: for every receiving group, one mail from each sending group,
@@ -199,15 +206,25 @@ def _build_group(inputs):
     return [blocks.build_block(i) for i in inputs]
 
 
-def _group_call(fn, group_blocks, per, mails):
+def _group_call(fn, group_blocks, per, mails, gate=None):
     out = []
     for t, blk in enumerate(group_blocks):
         args = [p.value if isinstance(p, _Shared) else p[t] for p in per]
         if mails is not None:
             got = sorted((s, msg) for mail in mails for s, msg in mail.get(blk.index, ()))
             args.append([msg for _, msg in got])
+        if gate is not None:
+            args.append(gate)
         out.append(fn(blk, *args))
     return out
+
+
+def _reduce_call(fn, values, members, k, *args):
+    flat = [None] * k
+    for group, got in zip(members, values):
+        for b, v in zip(group, got):
+            flat[b] = v
+    return fn(flat, *args)
 
 
 def _mail(pick, members, states, wanted):
