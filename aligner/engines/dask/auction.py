@@ -26,6 +26,9 @@ assigned person is within eps of its best: the matching is within n * eps of the
 (n persons), and optimal when the weights are integers and eps < 1/n. ``eps`` is a share of
 the mean positive weight (:data:`EPS_RELATIVE`).
 
+The client keeps several rounds in flight, each gated by the previous round's :class:`Tally`
+(made on a worker), as the diffusion does; a round after the last changes nothing.
+
 The tail: when few persons are still free and their count has stopped falling (a price war
 between near ties moves by eps a round), the last free rows, the rows holding the objects they
 want, the rows holding the objects those want (``TAIL_HOPS`` hops), are gathered to one worker
@@ -56,8 +59,8 @@ from aligner.core.arrays import unique
 from aligner.core.candidates import CandidateSet
 from aligner.core.rounding import round_matching
 
-__all__ = ["EPS_RELATIVE", "TAIL_ROWS", "TAIL_HOPS", "AuctionState", "start", "step", "outbox", "figures",
-           "assignment", "prices", "tail_match", "run_auction", "dual_gap"]
+__all__ = ["EPS_RELATIVE", "TAIL_ROWS", "TAIL_HOPS", "AuctionState", "Tally", "start", "step", "outbox", "figures",
+           "tally", "assignment", "prices", "tail_match", "run_auction", "dual_gap"]
 
 #: eps as a share of the mean positive weight
 EPS_RELATIVE = 1e-9
@@ -141,8 +144,12 @@ def _take_bids(st: AuctionState, bids):
 
 
 def step(block, st: AuctionState, eps: float, node_bounds: np.ndarray, obj_bounds: np.ndarray,
-         inbox: list) -> AuctionState:
-    """One round of one block: take the bids for its objects, read the replies to its persons, bid."""
+         inbox: list, gate: "Tally | None" = None) -> AuctionState:
+    """One round of one block: take the bids for its objects, read the replies to its persons, bid.
+    ``gate``: the previous round's :class:`Tally`; once it says stop, the round returns ``st``
+    itself and ignores the inbox."""
+    if gate is not None and not gate.go:
+        return st
     bids = [m[0] for m in inbox]
     replies = [m[1] for m in inbox]
     cat = [np.concatenate([b[i] for b in bids]) if bids else _NO_BIDS[i] for i in range(3)]
@@ -221,6 +228,37 @@ def figures(block, st: AuctionState) -> tuple[int, int, int, dict]:
     free = int(np.count_nonzero((st.assigned < 0) & ~st.done))
     return free, int(np.count_nonzero(st.pending >= 0)), st.bids, \
         {b: len(v[0][0]) + len(v[1][0]) for b, v in st.sent.items()}
+
+
+@dataclass(frozen=True)
+class Tally:
+    """A round's :func:`figures` summed over the blocks, made on a worker, with the free persons
+    after every round that ran (``history``); ``ran``: the round did work; ``go``: the rounds go on
+    (see :func:`tally`)."""
+
+    ran: bool
+    go: bool
+    free: int
+    bids: int
+    messages: int
+    message_entries: int
+    history: tuple
+
+
+def tally(figs: list, tail_limit: float, before: Tally | None = None) -> Tally:
+    """The :class:`Tally` of a round (``before``: the previous round's, None for the first). The
+    rounds stop when no person is free and nothing is pending or in flight, or when at most
+    ``tail_limit`` persons are free and their count has not fallen for :data:`TAIL_STALL` rounds
+    (the tail is then matched exactly)."""
+    ran = before is None or before.go
+    free = sum(f[0] for f in figs)
+    pending = sum(f[1] for f in figs)
+    in_flight = sum(sum(f[3].values()) for f in figs)
+    history = (() if before is None else before.history) + ((free,) if ran else ())
+    stalled = len(history) > TAIL_STALL and history[-1] >= history[-1 - TAIL_STALL]
+    finished = (free == 0 and pending == 0 and in_flight == 0) or (free <= tail_limit and stalled)
+    return Tally(ran, ran and not finished, free, sum(f[2] for f in figs), sum(len(f[3]) for f in figs), in_flight,
+                 history)
 
 
 def assignment(block, st: AuctionState) -> tuple[np.ndarray, np.ndarray]:
@@ -302,26 +340,9 @@ def run_auction(cluster, x_parts, cand: CandidateSet, x: np.ndarray, *, method: 
     pos = x[x > 0]
     eps = eps_relative * (float(pos.mean()) if len(pos) else 1.0)
     rep = AuctionReport(eps=eps)
-    states = cluster.run(start, x_parts, obj_bounds)
-    history = []
-    talk = _partners(cand, node_bounds, obj_bounds)
-    while rep.rounds < max_rounds:
-        mails = cluster.exchange(states, outbox, senders=talk) if rep.rounds else [[] for _ in cluster.groups]
-        states = cluster.run(step, states, eps, node_bounds, obj_bounds, mails=mails)
-        figs = cluster.collect(cluster.run(figures, states))
-        rep.rounds += 1
-        free = sum(f[0] for f in figs)
-        pending = sum(f[1] for f in figs)
-        rep.bids += sum(f[2] for f in figs)
-        rep.messages += sum(len(f[3]) for f in figs)
-        in_flight = sum(sum(f[3].values()) for f in figs)
-        rep.message_entries += in_flight
-        history.append(free)
-        if free == 0 and pending == 0 and in_flight == 0:
-            break
-        stalled = len(history) > TAIL_STALL and history[-1] >= history[-1 - TAIL_STALL]
-        if free <= max(TAIL_ROWS, TAIL_SHARE * cand.n1) and stalled:
-            break
+    states = _rounds(cluster, cluster.run(start, x_parts, obj_bounds), rep, max_rounds,
+                     (eps, node_bounds, obj_bounds), _partners(cand, node_bounds, obj_bounds),
+                     max(TAIL_ROWS, TAIL_SHARE * cand.n1))
     pairs = cluster.collect(cluster.run(assignment, states))
     obj = cluster.collect(cluster.run(prices, states))
     price = np.concatenate([p for p, _ in obj])
@@ -341,6 +362,42 @@ def run_auction(cluster, x_parts, cand: CandidateSet, x: np.ndarray, *, method: 
     rep.gap_bound = dual_gap(cand, x, price, index)
     rep.seconds = time.perf_counter() - t0
     return index, rep
+
+
+def _rounds(cluster, states, rep: AuctionReport, max_rounds: int, params: tuple, talk, tail_limit: float):
+    """The auction's rounds from ``states``; the blocks' states after the last round that ran.
+
+    As the diffusion's rounds (:func:`aligner.engines.dask.diffusion._rounds`): the client keeps
+    :data:`~aligner.engines.dask.diffusion.ROUNDS_AHEAD` rounds in flight, each gated by the tally
+    of the round before it, made on a worker; a round after the last changes nothing.
+    """
+    from collections import deque
+
+    from aligner.engines.dask import diffusion
+
+    pending = deque()
+    gate = None
+    sent = 0
+    last = states
+    while True:
+        while len(pending) < diffusion.ROUNDS_AHEAD and sent < max_rounds:
+            mails = cluster.exchange(states, outbox, senders=talk) if sent else [[] for _ in cluster.groups]
+            states = cluster.run(step, states, *params, mails=mails, gate=gate)
+            gate = cluster.reduce(tally, cluster.run(figures, states), tail_limit, gate)
+            pending.append((gate, states))
+            sent += 1
+        if not pending:
+            return last
+        ahead, done = pending.popleft()
+        t = cluster.wait([ahead])[0]
+        if t.ran:
+            rep.rounds += 1
+            rep.bids += t.bids
+            rep.messages += t.messages
+            rep.message_entries += t.message_entries
+            last = done
+        if not t.go:
+            return last
 
 
 def _partners(cand: CandidateSet, node_bounds: np.ndarray, obj_bounds: np.ndarray) -> list[list[int]]:

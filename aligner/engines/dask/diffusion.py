@@ -23,6 +23,10 @@ than tol / 2 of it. The exact residual b - (I - alpha P) x is recomputed at the 
 exchange (the kernel :func:`aligner.kernels.push._residual` on each block, contributions to ghost
 pairs sent to their owners), and it is the one reported.
 
+The client does not wait for each round's certificate: it keeps :data:`ROUNDS_AHEAD` rounds in
+flight, each gated by the previous round's :class:`Tally` (summed on a worker), so a round after
+the one that reached tol changes nothing and the rounds are those of stopping at once.
+
 Block push pays off when few product edges are cut (a block then converges on its own and the
 rounds are few); when most are cut (power-law graphs split into ranges of node ids), mass leaves
 the block at once and a round of queue pushes only re-pushes what a sweep would push once, so
