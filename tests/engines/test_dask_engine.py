@@ -245,7 +245,7 @@ def test_rounds_sent_ahead_end_where_waiting_for_each_round_ends(client, monkeyp
     # every round (the rounds as first written): the same rounds must run, to the same x, matching
     # and counts, bit for bit. With 50 in flight, more than the rounds needed, the rounds after
     # the last must change nothing
-    from aligner.engines.dask import diffusion
+    from aligner.engines.dask import engine
     from aligner.engines.dask.engine import align as dask_align
 
     ea, eb, prior, _ = as_frames(noisy_relabelled(2000, seed=21))
@@ -255,7 +255,7 @@ def test_rounds_sent_ahead_end_where_waiting_for_each_round_ends(client, monkeyp
         monkeypatch.setattr(auction, "TAIL_STALL", 1)
     got = {}
     for ahead in (1, 4, 50):
-        monkeypatch.setattr(diffusion, "ROUNDS_AHEAD", ahead)
+        monkeypatch.setattr(engine, "ROUNDS_AHEAD", ahead)
         res = dask_align(ea, eb, prior, client=client, partitions=4, refine=False, diffusion_mode=diffusion_mode)
         eng = res.summary["engine"]
         got[ahead] = (res.diffusion.x, res.matching.index, eng["diffusion"], eng["auction"])

@@ -365,39 +365,22 @@ def run_auction(cluster, x_parts, cand: CandidateSet, x: np.ndarray, *, method: 
 
 
 def _rounds(cluster, states, rep: AuctionReport, max_rounds: int, params: tuple, talk, tail_limit: float):
-    """The auction's rounds from ``states``; the blocks' states after the last round that ran.
+    """The auction's rounds from ``states``, with rounds in flight as the diffusion's
+    (:meth:`~aligner.engines.dask.engine.BlockCluster.rounds`); the blocks' states after the last
+    round that ran."""
 
-    As the diffusion's rounds (:func:`aligner.engines.dask.diffusion._rounds`): the client keeps
-    :data:`~aligner.engines.dask.diffusion.ROUNDS_AHEAD` rounds in flight, each gated by the tally
-    of the round before it, made on a worker; a round after the last changes nothing.
-    """
-    from collections import deque
+    def one_round(states, sent, gate):
+        mails = cluster.exchange(states, outbox, senders=talk) if sent else [[] for _ in cluster.groups]
+        states = cluster.run(step, states, *params, mails=mails, gate=gate)
+        return states, cluster.reduce(tally, cluster.run(figures, states), tail_limit, gate)
 
-    from aligner.engines.dask import diffusion
+    def count(t: Tally) -> None:
+        rep.rounds += 1
+        rep.bids += t.bids
+        rep.messages += t.messages
+        rep.message_entries += t.message_entries
 
-    pending = deque()
-    gate = None
-    sent = 0
-    last = states
-    while True:
-        while len(pending) < diffusion.ROUNDS_AHEAD and sent < max_rounds:
-            mails = cluster.exchange(states, outbox, senders=talk) if sent else [[] for _ in cluster.groups]
-            states = cluster.run(step, states, *params, mails=mails, gate=gate)
-            gate = cluster.reduce(tally, cluster.run(figures, states), tail_limit, gate)
-            pending.append((gate, states))
-            sent += 1
-        if not pending:
-            return last
-        ahead, done = pending.popleft()
-        t = cluster.wait([ahead])[0]
-        if t.ran:
-            rep.rounds += 1
-            rep.bids += t.bids
-            rep.messages += t.messages
-            rep.message_entries += t.message_entries
-            last = done
-        if not t.go:
-            return last
+    return cluster.rounds(states, max_rounds, one_round, count)[0]
 
 
 def _partners(cand: CandidateSet, node_bounds: np.ndarray, obj_bounds: np.ndarray) -> list[list[int]]:

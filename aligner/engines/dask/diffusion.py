@@ -23,9 +23,10 @@ than tol / 2 of it. The exact residual b - (I - alpha P) x is recomputed at the 
 exchange (the kernel :func:`aligner.kernels.push._residual` on each block, contributions to ghost
 pairs sent to their owners), and it is the one reported.
 
-The client does not wait for each round's certificate: it keeps :data:`ROUNDS_AHEAD` rounds in
-flight, each gated by the previous round's :class:`Tally` (summed on a worker), so a round after
-the one that reached tol changes nothing and the rounds are those of stopping at once.
+The client does not wait for each round's certificate: it keeps rounds in flight
+(:data:`aligner.engines.dask.engine.ROUNDS_AHEAD`), each gated by the previous round's
+:class:`Tally` (summed on a worker), so a round after the one that reached tol changes nothing
+and the rounds are those of stopping at once.
 
 Block push pays off when few product edges are cut (a block then converges on its own and the
 rounds are few); when most are cut (power-law graphs split into ranges of node ids), mass leaves
@@ -58,7 +59,7 @@ from aligner.kernels.exchange import add_messages, take_ghosts
 from aligner.kernels.push import _push, _push_pass, _residual
 
 __all__ = ["MODES", "State", "Tally", "choose_mode", "start", "step", "tally", "outbox", "residual_part",
-           "residual_finish", "own_x", "run_rounds", "ROUNDS_AHEAD"]
+           "residual_finish", "own_x", "run_rounds"]
 
 MODES = ("auto", "block", "sweep")
 #: ``auto`` runs block push when at most this share of the product entries is cut, sweeps otherwise
@@ -242,47 +243,31 @@ class RoundsReport:
                 "certificate_l1": self.certificate, "residual_l1": self.residual, "seconds": round(self.seconds, 4)}
 
 
-#: rounds submitted ahead of the last one whose certificate the client has seen
-ROUNDS_AHEAD = 4
-
-
 def _rounds(cluster, states, cert: float, rep: RoundsReport, cap: int, params: tuple):
     """The rounds from ``states`` (whose certificate is ``cert``) until the certificate is at most
     tol (or ``cap`` rounds): the blocks' states after the last round that ran, and its certificate.
 
-    The client keeps :data:`ROUNDS_AHEAD` rounds in flight instead of waiting for each round's
-    certificate before sending the next: each round's :func:`tally` is made on a worker and gates
-    the next round (a round after the one whose certificate reached tol changes nothing), so the
-    rounds wait on each other on the cluster, not on a round trip to the client, and the result
-    is that of stopping at once.
+    The client keeps rounds in flight (:meth:`~aligner.engines.dask.engine.BlockCluster.rounds`):
+    each round's :func:`tally` is made on a worker and gates the next round (a round after the
+    one whose certificate reached tol changes nothing), so the rounds wait on each other on the
+    cluster, not on a round trip to the client, and the result is that of stopping at once.
     """
-    from collections import deque
-
     tol = params[2]
-    pending = deque()
-    gate = None
-    sent = 0
-    last = (states, cert)
-    while True:
-        while len(pending) < ROUNDS_AHEAD and sent < cap:
-            mails = cluster.exchange(states, outbox) if sent else None
-            states = cluster.run(step, states, *params, mails=mails or _no_mail(cluster), gate=gate)
-            gate = cluster.reduce(tally, cluster.run(figures, states), tol, gate)
-            pending.append((gate, states))
-            sent += 1
-        if not pending:
-            return last
-        ahead, done = pending.popleft()
-        t = cluster.wait([ahead])[0]
-        if t.ran:
-            rep.rounds += 1
-            rep.pushes += t.pushes
-            rep.edge_touches += t.touches
-            rep.messages += t.messages
-            rep.message_entries += t.message_entries
-            last = (done, t.certificate)
-        if not t.go:
-            return last
+
+    def one_round(states, sent, gate):
+        mails = cluster.exchange(states, outbox) if sent else None
+        states = cluster.run(step, states, *params, mails=mails or _no_mail(cluster), gate=gate)
+        return states, cluster.reduce(tally, cluster.run(figures, states), tol, gate)
+
+    def count(t: Tally) -> None:
+        rep.rounds += 1
+        rep.pushes += t.pushes
+        rep.edge_touches += t.touches
+        rep.messages += t.messages
+        rep.message_entries += t.message_entries
+
+    states, t = cluster.rounds(states, cap, one_round, count)
+    return states, cert if t is None else t.certificate
 
 
 def run_rounds(cluster, alpha: float, tol: float, mode: str, power: bool = False,

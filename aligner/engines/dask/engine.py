@@ -21,6 +21,7 @@ from __future__ import annotations
 
 import logging
 import time
+from collections import deque
 from contextlib import contextmanager
 from collections.abc import Iterable, Iterator
 from typing import Any
@@ -47,6 +48,8 @@ CONNECT_TIMEOUT = "10s"
 RECOVERY_ATTEMPTS = 1
 #: how often a wait checks that the blocks' workers are still in the cluster
 POLL_SECONDS = 1.0
+#: rounds (of the diffusion, of the auction) the client sends ahead of the last one whose tally it has seen
+ROUNDS_AHEAD = 4
 
 
 def block_imbalance(cluster: "BlockCluster") -> float:
@@ -118,6 +121,34 @@ class BlockCluster:
             out.append(self._submit(g, _group_call, fn, self.blocks[g], per, None if mails is None else mails[g],
                                     gate))
         return _Group(out)
+
+    def rounds(self, states, cap: int, one_round, count):
+        """Rounds from ``states`` with :data:`ROUNDS_AHEAD` of them in flight: the client does not
+        wait for a round's tally before sending the next. ``one_round(states, sent, gate)``
+        submits round ``sent`` (0 first) after ``states``, gated by the previous round's tally
+        future ``gate`` (None first), and returns (its states, its tally future); a tally has
+        ``ran`` (the round did work: the one before it said go on) and ``go``, and a round whose
+        gate says stop must change nothing. ``count(tally)`` is called for each round that ran,
+        in order. Returns the states after the last round that ran and its tally (None when none
+        ran: ``cap`` is 0). The result is that of waiting for each round's tally."""
+        pending = deque()
+        gate = None
+        sent = 0
+        last = (states, None)
+        while True:
+            while len(pending) < ROUNDS_AHEAD and sent < cap:
+                states, gate = one_round(states, sent, gate)
+                pending.append((gate, states))
+                sent += 1
+            if not pending:
+                return last
+            ahead, done = pending.popleft()
+            t = self.wait([ahead])[0]
+            if t.ran:
+                count(t)
+                last = (done, t)
+            if not t.go:
+                return last
 
     def reduce(self, fn, result, *args):
         """``fn(per_block_values, *args)`` once, on the first group's worker, over a group result
