@@ -369,18 +369,14 @@ def _rounds(cluster, states, rep: AuctionReport, max_rounds: int, params: tuple,
     (:meth:`~aligner.engines.dask.engine.BlockCluster.rounds`); the blocks' states after the last
     round that ran."""
 
-    def one_round(states, sent, gate):
-        mails = cluster.exchange(states, outbox, senders=talk) if sent else [[] for _ in cluster.groups]
-        states = cluster.run(step, states, *params, mails=mails, gate=gate)
-        return states, cluster.reduce(tally, cluster.run(figures, states), tail_limit, gate)
-
     def count(t: Tally) -> None:
         rep.rounds += 1
         rep.bids += t.bids
         rep.messages += t.messages
         rep.message_entries += t.message_entries
 
-    return cluster.rounds(states, max_rounds, one_round, count)[0]
+    return cluster.rounds(states, max_rounds, (step, figures, tally, outbox), params, (tail_limit,), count,
+                          senders=talk)[0]
 
 
 def _partners(cand: CandidateSet, node_bounds: np.ndarray, obj_bounds: np.ndarray) -> list[list[int]]:

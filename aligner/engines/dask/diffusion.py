@@ -165,10 +165,6 @@ def outbox(state: State, owner: int):
     return state.sent.get(owner)
 
 
-def _no_mail(cluster) -> list:
-    return [[] for _ in cluster.groups]
-
-
 def figures(block, state: State) -> tuple[float, float, int, int, dict]:
     return state.own_residual, state.in_flight, state.pushes, state.touches, \
         {o: len(s) for o, (s, _) in state.sent.items()}
@@ -252,13 +248,6 @@ def _rounds(cluster, states, cert: float, rep: RoundsReport, cap: int, params: t
     one whose certificate reached tol changes nothing), so the rounds wait on each other on the
     cluster, not on a round trip to the client, and the result is that of stopping at once.
     """
-    tol = params[2]
-
-    def one_round(states, sent, gate):
-        mails = cluster.exchange(states, outbox) if sent else None
-        states = cluster.run(step, states, *params, mails=mails or _no_mail(cluster), gate=gate)
-        return states, cluster.reduce(tally, cluster.run(figures, states), tol, gate)
-
     def count(t: Tally) -> None:
         rep.rounds += 1
         rep.pushes += t.pushes
@@ -266,7 +255,7 @@ def _rounds(cluster, states, cert: float, rep: RoundsReport, cap: int, params: t
         rep.messages += t.messages
         rep.message_entries += t.message_entries
 
-    states, t = cluster.rounds(states, cap, one_round, count)
+    states, t = cluster.rounds(states, cap, (step, figures, tally, outbox), params, (params[2],), count)
     return states, cert if t is None else t.certificate
 
 

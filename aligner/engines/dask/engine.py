@@ -122,22 +122,29 @@ class BlockCluster:
                                     gate))
         return _Group(out)
 
-    def rounds(self, states, cap: int, one_round, count):
+    def rounds(self, states, cap: int, fns: tuple, step_args: tuple, tally_args: tuple, count, senders=None):
         """Rounds from ``states`` with :data:`ROUNDS_AHEAD` of them in flight: the client does not
-        wait for a round's tally before sending the next. ``one_round(states, sent, gate)``
-        submits round ``sent`` (0 first) after ``states``, gated by the previous round's tally
-        future ``gate`` (None first), and returns (its states, its tally future); a tally has
-        ``ran`` (the round did work: the one before it said go on) and ``go``, and a round whose
-        gate says stop must change nothing. ``count(tally)`` is called for each round that ran,
-        in order. Returns the states after the last round that ran and its tally (None when none
-        ran: ``cap`` is 0). The result is that of waiting for each round's tally."""
+        wait for a round's tally before sending the next.
+
+        ``fns`` is ``(step, figures, tally, outbox)``: a round is ``step(block, state,
+        *step_args, inbox, gate)`` on every block, the messages picked by ``outbox`` for the next
+        round (``senders``: as for :meth:`exchange`), and ``tally(figures of every block,
+        *tally_args, gate)`` made on a worker, where ``gate`` is the previous round's tally (None
+        first). A tally has ``ran`` (the round did work: the one before it said go on) and ``go``;
+        a step whose gate says stop must change nothing. ``count(tally)`` is called for each
+        round that ran, in order. Returns the states after the last round that ran and its tally
+        (None when ``cap`` is 0): what waiting for each round's tally gives.
+        """
+        step, figures, tally, outbox = fns
         pending = deque()
         gate = None
         sent = 0
         last = (states, None)
         while True:
             while len(pending) < ROUNDS_AHEAD and sent < cap:
-                states, gate = one_round(states, sent, gate)
+                mails = self.exchange(states, outbox, senders) if sent else [[] for _ in self.groups]
+                states = self.run(step, states, *step_args, mails=mails, gate=gate)
+                gate = self.reduce(tally, self.run(figures, states), *tally_args, gate)
                 pending.append((gate, states))
                 sent += 1
             if not pending:
