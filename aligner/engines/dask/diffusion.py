@@ -248,6 +248,7 @@ def _rounds(cluster, states, cert: float, rep: RoundsReport, cap: int, params: t
     one whose certificate reached tol changes nothing), so the rounds wait on each other on the
     cluster, not on a round trip to the client, and the result is that of stopping at once.
     """
+
     def count(t: Tally) -> None:
         rep.rounds += 1
         rep.pushes += t.pushes
