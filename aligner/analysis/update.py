@@ -466,7 +466,8 @@ def _continued_refinement(state, maps: _Maps, x0: np.ndarray, record: dict):
         share = float(touched.mean()) if cand.m else 0.0
         if share > CONTINUE_SHARE:
             record.update(mode="full", reason=f"the change touched {share:.1%} of the candidates (more than "
-                                              f"{CONTINUE_SHARE:.0%}): refined as align", pairs_touched=int(touched.sum()))
+                                              f"{CONTINUE_SHARE:.0%}): refined as align",
+                          pairs_touched=int(touched.sum()))
             return None
         res, marked = continue_local_search(prod, cand, diffusion.x, start, np.flatnonzero(touched), freed_a,
                                             freed_b, beta=cfg.beta)
