@@ -359,12 +359,11 @@ class _Maps(NamedTuple):
     ends_b: np.ndarray
 
 
-def _carry(state, problem, same_names: dict | None = None) -> tuple[np.ndarray, dict, _Maps]:
+def _carry(state, problem, same_names: dict) -> tuple[np.ndarray, dict, _Maps]:
     """The previous scores on the new candidate pairs (0 on new pairs), what changed, and how the
     old problem maps onto the new one (``same_names``: the sides known to keep the previous run's
     nodes, name for name, whose names are not compared again)."""
     net_a, net_b, cand = problem.network_a, problem.network_b, problem.candidates
-    same_names = same_names or {}
     to_a = np.arange(net_a.n, dtype=np.int64) if same_names.get("a") else _renumber(state.names_a, net_a.names)
     to_b = np.arange(net_b.n, dtype=np.int64) if same_names.get("b") else _renumber(state.names_b, net_b.names)
     old = state.pairs

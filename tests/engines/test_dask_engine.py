@@ -278,15 +278,19 @@ ROUNDS_MIN = 4
 def test_a_round_after_the_last_touches_nothing():
     # the auction's states are new objects every round, so its results cannot show a round sent
     # ahead that ran anyway (the test above passes without the gate); what the gate saves is the
-    # work: a gated round returns its state untouched, without reading the block or its inbox
+    # work: a gated round (BlockCluster.run's group task) returns each block's state untouched,
+    # without calling the step, so without reading the block or its inbox
     from aligner.engines.dask import diffusion
+    from aligner.engines.dask.engine import _group_call, _Shared
 
     state = object()
     stop_d = diffusion.Tally(ran=True, go=False, certificate=0.0, pushes=0, touches=0, messages=0,
                              message_entries=0)
-    assert diffusion.step(None, state, "sweep", 0.9, 1e-6, 1.0, False, None, stop_d) is state
+    per_d = [[state], *(_Shared(a) for a in ("sweep", 0.9, 1e-6, 1.0, False))]
+    assert _group_call(diffusion.step, [None], per_d, [], stop_d)[0] is state
     stop_a = auction.Tally(ran=True, go=False, free=0, bids=0, messages=0, message_entries=0, history=(0,))
-    assert auction.step(None, state, 1e-9, None, None, None, stop_a) is state
+    per_a = [[state], *(_Shared(a) for a in (1e-9, None, None))]
+    assert _group_call(auction.step, [None], per_a, [], stop_a)[0] is state
     # and the tallies: a round after one that said stop did not run and says stop
     figs = [(1.0, 0.0, 5, 7, {1: 2})]
     assert diffusion.tally(figs, 1e-6, stop_d) == diffusion.Tally(False, False, 1.0, 5, 7, 1, 2)

@@ -144,12 +144,8 @@ def _take_bids(st: AuctionState, bids):
 
 
 def step(block, st: AuctionState, eps: float, node_bounds: np.ndarray, obj_bounds: np.ndarray,
-         inbox: list, gate: "Tally | None" = None) -> AuctionState:
-    """One round of one block: take the bids for its objects, read the replies to its persons, bid.
-    ``gate``: the previous round's :class:`Tally`; once it says stop, the round returns ``st``
-    itself and ignores the inbox."""
-    if gate is not None and not gate.go:
-        return st
+         inbox: list) -> AuctionState:
+    """One round of one block: take the bids for its objects, read the replies to its persons, bid."""
     bids = [m[0] for m in inbox]
     replies = [m[1] for m in inbox]
     cat = [np.concatenate([b[i] for b in bids]) if bids else _NO_BIDS[i] for i in range(3)]

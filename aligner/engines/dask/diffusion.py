@@ -140,12 +140,8 @@ def _block_push(block, x: np.ndarray, r: np.ndarray, thresh: np.ndarray, alpha: 
 
 
 def step(block, state: State, mode: str, alpha: float, tol: float, total_deg: float, power: bool,
-         inbox: list, gate: "Tally | None" = None) -> State:
-    """One round of one block (see the module docstring); ``inbox`` in the order of the senders.
-    ``gate``: the previous round's :class:`Tally`; once it says stop, the round changes nothing
-    (it returns ``state`` itself and ignores the inbox)."""
-    if gate is not None and not gate.go:
-        return state
+         inbox: list) -> State:
+    """One round of one block (see the module docstring); ``inbox`` in the order of the senders."""
     x, r = state.x, state.r  # updated in place: only the next round reads a round's state
     _receive(block, r, inbox)
     thresh = _thresholds(block, tol, total_deg, power) if state.thresh is None else state.thresh

@@ -110,11 +110,12 @@ class BlockCluster:
         return self.client.submit(fn, *args, workers=[self.groups[g][0]], allow_other_workers=False, pure=False)
 
     def run(self, fn, *args, mails=None, gate=None) -> list:
-        """``fn(block, *per_block_args[, inbox][, gate])`` for every block, one task per group. An
-        argument that is a group result (a list of one future per group) is read block by block;
-        any other is passed to every block. ``mails`` (from :meth:`exchange`) adds each block's
-        inbox: the messages addressed to it, in increasing order of their senders. ``gate`` (a
-        future, or None) adds its value, the same for every block: the tasks wait for it."""
+        """``fn(block, *per_block_args[, inbox])`` for every block, one task per group. An argument
+        that is a group result (a list of one future per group) is read block by block; any other
+        is passed to every block. ``mails`` (from :meth:`exchange`) adds each block's inbox: the
+        messages addressed to it, in increasing order of their senders. ``gate`` (a future of a
+        tally, or None): the tasks wait for it, and when it says stop (``go`` false) ``fn`` is not
+        called: each block's first argument is its result, as it is."""
         out = []
         for g in range(len(self.groups)):
             per = [a[g] if _is_group(a, self) else _Shared(a) for a in args]
@@ -127,12 +128,13 @@ class BlockCluster:
         wait for a round's tally before sending the next.
 
         ``fns`` is ``(step, figures, tally, outbox)``: a round is ``step(block, state,
-        *step_args, inbox, gate)`` on every block, the messages picked by ``outbox`` for the next
-        round (``senders``: as for :meth:`exchange`), and ``tally(figures of every block,
-        *tally_args, gate)`` made on a worker, where ``gate`` is the previous round's tally (None
-        first). A tally has ``ran`` (the round did work: the one before it said go on) and ``go``;
-        a step whose gate says stop must change nothing. ``count(tally)`` is called for each
-        round that ran, in order. Returns the states after the last round that ran and its tally
+        *step_args, inbox)`` on every block, the messages picked by ``outbox`` for the next round
+        (``senders``: as for :meth:`exchange`), and ``tally(figures of every block, *tally_args,
+        gate)`` made on a worker, where ``gate`` is the previous round's tally (None first). A
+        tally has ``ran`` (the round did work: the one before it said go on) and ``go``; a round
+        gated by a tally that says stop keeps every block's state as it is (:meth:`run`), so the
+        rounds after the last change nothing. ``count(tally)`` is called for each round that ran,
+        in order. Returns the states after the last round that ran and its tally
         (None when ``cap`` is 0): what waiting for each round's tally gives.
         """
         step, figures, tally, outbox = fns
@@ -201,12 +203,7 @@ class BlockCluster:
 
     def collect(self, result) -> list:
         """The per-block results of a group result, gathered to the client in block order."""
-        got = self.wait(list(result))
-        flat = [None] * self.k
-        for (_, members), values in zip(self.groups, got):
-            for b, v in zip(members, values):
-                flat[b] = v
-        return flat
+        return _by_block(self.wait(list(result)), [m for _, m in self.groups], self.k)
 
     def on_block(self, b: int, fn, *args):
         """``fn(*args)`` once, on the worker of block ``b``; its value."""
@@ -248,21 +245,27 @@ def _group_call(fn, group_blocks, per, mails, gate=None):
     out = []
     for t, blk in enumerate(group_blocks):
         args = [p.value if isinstance(p, _Shared) else p[t] for p in per]
+        if gate is not None and not gate.go:  # a round after the last: the state as it is
+            out.append(args[0])
+            continue
         if mails is not None:
             got = sorted((s, msg) for mail in mails for s, msg in mail.get(blk.index, ()))
             args.append([msg for _, msg in got])
-        if gate is not None:
-            args.append(gate)
         out.append(fn(blk, *args))
     return out
 
 
-def _reduce_call(fn, values, members, k, *args):
+def _by_block(values, members, k) -> list:
+    """The per-group lists ``values`` (group g's blocks are ``members[g]``) as one list in block order."""
     flat = [None] * k
     for group, got in zip(members, values):
         for b, v in zip(group, got):
             flat[b] = v
-    return fn(flat, *args)
+    return flat
+
+
+def _reduce_call(fn, values, members, k, *args):
+    return fn(_by_block(values, members, k), *args)
 
 
 def _mail(pick, members, states, wanted):
