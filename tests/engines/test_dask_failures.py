@@ -169,6 +169,29 @@ def test_a_worker_killed_while_reading_recovers_or_fails_in_one_line(cluster, fo
     assert not out.exists() or not any(out.iterdir())
 
 
+def test_a_moment_without_workers_is_waited_out(cluster, pair, monkeypatch):
+    # the scheduler may list no worker for a moment (all of them restarting): the blocks cannot be
+    # dealt then; that is a lost worker (WorkerLost), so the run starts its distributed stages
+    # again once a worker is there, with the undisturbed run's result (common practice: a
+    # transient state of the cluster injected by a stand-in answer)
+    _, c = cluster
+    _two_workers(c)
+    ea, eb, prior, _ = as_frames(pair)
+    ref = engine.align(ea, eb, prior, client=c, partitions=4, refine=False)
+    real, calls = c.scheduler_info, []
+
+    def none_at_first(*args, **kw):
+        info = real(*args, **kw)
+        calls.append(1)
+        return info | {"workers": {}} if len(calls) == 2 else info  # the first call sizes the run
+
+    monkeypatch.setattr(c, "scheduler_info", none_at_first)
+    res = engine.align(ea, eb, prior, client=c, partitions=4, refine=False)
+    assert res.summary["engine"]["restarts"] == 1
+    assert np.array_equal(res.matching.index, ref.matching.index)
+    assert np.array_equal(res.diffusion.x, ref.diffusion.x)
+
+
 def test_distributed_failures_map_to_cluster_errors(cluster):
     from distributed import KilledWorker
     from distributed.client import FutureCancelledError

@@ -83,6 +83,8 @@ class BlockCluster:
             inputs = list(inputs)
             sizes = np.array([len(i.c_b) + len(i.a_indices) for i in inputs])
         workers = sorted(client.scheduler_info()["workers"])
+        if not workers:  # none at this moment (e.g. all restarting): align starts again once one is back
+            raise WorkerLost("the cluster has no worker to hold the blocks")
         order = np.argsort(-np.asarray(sizes), kind="stable")
         worker_of = {}
         for rank, b in enumerate(order):
