@@ -16,8 +16,8 @@ def thread_count() -> int:
 
 
 @numba.njit(cache=True, nogil=True)
-def product_rows(i0, i1, a_indptr, a_indices, b_indptr, b_indices, c_indptr, c_b, a_w, b_w, floor, counts):
-    """The product-graph neighbours of the candidate pairs of nodes ``i0 .. i1-1`` of A, in one pass.
+def product_rows(nodes, a_indptr, a_indices, b_indptr, b_indices, c_indptr, c_b, a_w, b_w, floor, counts):
+    """The product-graph neighbours of the candidate pairs of ``nodes`` of A (increasing), in one pass.
 
     Pair k = (i, i') and pair u = (j, j') are adjacent when j is a neighbour of i in A and j'
     a neighbour of i' in B (given out-adjacencies of directed networks: the out-lists of the
@@ -30,19 +30,23 @@ def product_rows(i0, i1, a_indptr, a_indices, b_indptr, b_indices, c_indptr, c_b
     lists are sorted, each row comes out sorted. Work per i: sum of deg_B(i') over its
     candidates, plus the candidates of its neighbours, plus the output.
 
-    Writes the number of neighbours of every pair ``c_indptr[i0] .. c_indptr[i1]-1`` to
-    ``counts`` (zeros on entry, one slot per pair) and returns ``(indices, weights,
+    Writes the number of neighbours of every pair of those nodes, in order (the pairs
+    ``c_indptr[i0] .. c_indptr[i1]-1`` when the nodes are ``i0 .. i1-1``), to ``counts`` (zeros
+    on entry, one slot per pair) and returns ``(indices, weights,
     checksum)``: their neighbour lists one after the other; with non-empty ``a_w`` and
     ``b_w`` (weights of the adjacency entries) the weight of every entry (else an empty
     array): w_A(i, j) * w_B(i', j') when ``floor`` < 0 (:data:`PRODUCT`), else the agreement
     floor + (1 - floor) * (1 - |w_A(i, j) - w_B(i', j')|) of two levels in [0, 1]; a
     checksum of the entries read ahead (returned only so that those reads are kept). The
-    result of a range of nodes does not depend on the other nodes, so ranges can be built
-    apart (on parallel threads, each writing its own part of ``counts``) and joined.
+    rows of a node do not depend on the other nodes, so ranges can be built apart (on parallel
+    threads, each writing its own part of ``counts``) and joined, and a few nodes' rows built
+    again (an update's patch, :func:`aligner.core.product.patch_product`).
     """
     weighted = a_w.shape[0] > 0
-    p0 = c_indptr[i0]
-    cap = max(16, c_indptr[i1] - p0)
+    cap = 0
+    for i in nodes:
+        cap += c_indptr[i + 1] - c_indptr[i]
+    cap = max(16, cap)
     out_ix = np.empty(cap, dtype=np.int32)
     out_w = np.empty(cap if weighted else 0, dtype=np.float64)
     total = 0
@@ -55,9 +59,13 @@ def product_rows(i0, i1, a_indptr, a_indices, b_indptr, b_indices, c_indptr, c_b
     hit_row = np.empty(256, dtype=np.int32)
     hit_u = np.empty(256, dtype=np.int32)
     hit_w = np.empty(256 if weighted else 0, dtype=np.float64)
-    for i in range(i0, i1):
+    slot = 0  # the slot in ``counts`` of the next node's first pair
+    for i in nodes:
         k0 = c_indptr[i]
         k1 = c_indptr[i + 1]
+        r0 = slot
+        r1 = slot + k1 - k0
+        slot = r1
         if k1 == k0 or a_indptr[i + 1] == a_indptr[i]:
             continue
         ne = 0
@@ -129,11 +137,10 @@ def product_rows(i0, i1, a_indptr, a_indices, b_indptr, b_indices, c_indptr, c_b
                     grown_w[x] = out_w[x]
                 out_w = grown_w
         # write the hits row by row, in the order found (a stable counting sort on the row)
-        r0 = k0 - p0
         for x in range(nh):
             counts[r0 + hit_row[x]] += 1
         at = total
-        for r in range(r0, k1 - p0):  # counts -> first slot of each row
+        for r in range(r0, r1):  # counts -> first slot of each row
             c = counts[r]
             counts[r] = at
             at += c
@@ -144,7 +151,7 @@ def product_rows(i0, i1, a_indptr, a_indices, b_indptr, b_indices, c_indptr, c_b
                 out_w[counts[r]] = hit_w[x]
             counts[r] += 1
         at = total
-        for r in range(r0, k1 - p0):  # end slots -> counts
+        for r in range(r0, r1):  # end slots -> counts
             end = counts[r]
             counts[r] = end - at
             at = end

@@ -4,7 +4,7 @@ import pytest
 import scipy.sparse as sp
 
 from aligner.core.candidates import build_candidates
-from aligner.core.product import build_product, estimate_product_edges, product_row_lengths
+from aligner.core.product import build_product, estimate_product_edges, patch_product, product_row_lengths
 from aligner.errors import InvalidParameterError
 from conftest import csr, random_edges
 
@@ -173,6 +173,65 @@ def test_equals_scipy_kron_restricted_to_the_candidates(directed, weighted, seed
     np.testing.assert_array_equal(product_row_lengths(adj_a[0], adj_a[1], adj_b[0], adj_b[1], cand), np.diff(want.indptr))
     monkeypatch.setattr(product_module, "COUNT_RANGE", 1)
     np.testing.assert_array_equal(product_row_lengths(adj_a[0], adj_a[1], adj_b[0], adj_b[1], cand), np.diff(want.indptr))
+
+
+@pytest.mark.parametrize("directed", [False, True])
+@pytest.mark.parametrize("seed", [0, 1, 2])
+def test_a_patched_product_graph_is_the_one_built_on_the_edited_networks(directed, seed):
+    # Reference: scipy.sparse.kron of the edited networks' adjacencies restricted to the same
+    # candidates (as above). Edges of both networks are removed and added; the rows of the
+    # candidates of the nodes of A at a changed edge of A, or with a partner at a changed edge of
+    # B, are built again and the rest copied from the product graph of the old networks.
+    from aligner.core.network import adjacency
+    rng = np.random.default_rng(seed)
+    n1, n2 = 40, 35
+
+    def edges(n, p):
+        e = np.argwhere(rng.random((n, n)) < p)
+        return e[e[:, 0] != e[:, 1]] if directed else e[e[:, 0] < e[:, 1]]
+
+    def edited(e, n):  # two edges out, two in
+        keep = np.ones(len(e), dtype=bool)
+        keep[rng.choice(len(e), 2, replace=False)] = False
+        extra = edges(n, 0.15)
+        extra = extra[rng.choice(len(extra), 2, replace=False)]
+        both = np.unique(np.concatenate([e[keep], extra]), axis=0)
+        key = lambda x: set(map(tuple, x.tolist()))
+        moved = np.array(sorted(key(e) ^ key(both))).reshape(-1, 2)
+        return both, np.unique(moved)
+
+    ea, eb = edges(n1, 0.15), edges(n2, 0.15)
+    pairs = np.argwhere(rng.random((n1, n2)) < 0.3)
+    cand = build_candidates(pairs, rng.random(len(pairs)), n1, n2, top_k=6)
+    adj = lambda e, n: adjacency(e, n, None, symmetric=not directed)[:2]
+    old = build_product(*adj(ea, n1), *adj(eb, n2), cand, directed=directed)
+    ea2, ends_a = edited(ea, n1)
+    eb2, ends_b = edited(eb, n2)
+    assert len(ends_a) and len(ends_b)
+    touched_b = np.zeros(n2, dtype=bool)
+    touched_b[ends_b] = True
+    nodes = np.union1d(ends_a, cand.pairs[touched_b[cand.pairs[:, 1]], 0])
+    assert len(nodes) < n1  # some rows are copied
+    got = patch_product(old, *adj(ea2, n1), *adj(eb2, n2), cand, nodes)
+    want = _kron_restricted(n1, ea2, None, n2, eb2, None, cand, directed)
+    np.testing.assert_array_equal(got.indptr, want.indptr)
+    np.testing.assert_array_equal(got.indices, want.indices)
+    assert got.indices.dtype == np.int32 and got.directed == directed and got.weights is None
+    # no node given: the old graph, copied; every node: the new graph
+    same = patch_product(old, *adj(ea2, n1), *adj(eb2, n2), cand, [])
+    np.testing.assert_array_equal(same.indices, old.indices)
+    np.testing.assert_array_equal(same.indptr, old.indptr)
+    every = patch_product(old, *adj(ea2, n1), *adj(eb2, n2), cand, np.arange(n1))
+    np.testing.assert_array_equal(every.indices, want.indices)
+
+
+def test_patching_a_weighted_product_graph_is_refused():
+    rng = np.random.default_rng(0)
+    e, ip, ix = csr(random_edges(6, 0.5, rng), 6)
+    cand = build_candidates(np.argwhere(np.ones((6, 6))), np.ones(36), 6, 6, top_k=None)
+    prod = build_product(ip, ix, ip, ix, cand, a_weights=np.ones(len(ix)), b_weights=np.ones(len(ix)))
+    with pytest.raises(InvalidParameterError, match="unweighted"):
+        patch_product(prod, ip, ix, ip, ix, cand, [0])
 
 
 def test_estimate_equals_its_formula():
