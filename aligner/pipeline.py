@@ -53,7 +53,7 @@ from aligner.priors.structural import DEFAULT_K, FEATURE_NAMES, combine_priors, 
 
 __all__ = ["STAGES", "Inputs", "Problem", "Improvement", "Evaluation", "AlignmentResult", "read_inputs",
            "check_networks", "finish_inputs", "find_candidates", "check_some_candidate", "with_seed_pairs",
-           "prepare", "solve", "match", "improve", "evaluate", "transfer", "summarize", "align", "score",
+           "prepare", "with_product_graph", "solve", "match", "improve", "evaluate", "transfer", "summarize", "align", "score",
            "TRANSFER_COLUMNS"]
 
 #: the stages of a run, in order, as named to the ``progress`` callback of :func:`align`
@@ -396,16 +396,24 @@ def prepare(network_a, network_b, prior=None, *, seeds=None, truth=None, config:
         inputs = dataclasses.replace(inputs, prior=inputs.prior.without_rows())
     cand = found.candidates
     seed_idx, h = diffusion_source(cand, inputs.seeds, cfg)
-    product = scale = None
-    estimate = 0
-    if with_product:
-        estimate = _check_memory(inputs, cand, cfg)
-        with clock.stage("product"):
-            product = _build_product(inputs, cand, cfg)
-            scale = column_scale(product, cfg.normalization, pairs=cand.pairs,
-                                 deg_a=walk_degree(inputs.network_a, cfg.directed, cfg.weighted, cfg.weight_model),
-                                 deg_b=walk_degree(inputs.network_b, cfg.directed, cfg.weighted, cfg.weight_model))
-    return Problem(cfg, inputs, cand, h, seed_idx, product, scale, found, estimate)
+    problem = Problem(cfg, inputs, cand, h, seed_idx, None, None, found, 0)
+    return with_product_graph(problem, clock) if with_product else problem
+
+
+def with_product_graph(problem: Problem, clock: Clock | None = None, *,
+                       build: Callable[[], ProductGraph] | None = None) -> Problem:
+    """The problem with its product graph and the walk's column scale, after the memory check.
+
+    ``build`` (an update's patch of the previous run's graph) makes the product graph in place of
+    :func:`aligner.core.product.build_product`; it must give the same graph."""
+    cfg, inputs, cand = problem.config, problem.inputs, problem.candidates
+    estimate = _check_memory(inputs, cand, cfg)
+    with (clock or Clock()).stage("product"):
+        product = build() if build is not None else _build_product(inputs, cand, cfg)
+        scale = column_scale(product, cfg.normalization, pairs=cand.pairs,
+                             deg_a=walk_degree(inputs.network_a, cfg.directed, cfg.weighted, cfg.weight_model),
+                             deg_b=walk_degree(inputs.network_b, cfg.directed, cfg.weighted, cfg.weight_model))
+    return dataclasses.replace(problem, product=product, scale=scale, product_estimate=estimate)
 
 
 # --------------------------------------------------------------------------- solve, match, improve
@@ -857,6 +865,10 @@ class AlignmentResult:
                   "edges_b": p.network_b.scored_edges(cfg.directed)[0],
                   "pairs": p.candidates.pairs, "prior": p.candidates.prior, "x": self.diffusion.x,
                   "matched": self.matching.index}
+        prod = p.product  # kept for an update to patch (unweighted: the entry weights are not kept)
+        kept = prod is not None and prod.weights is None
+        arrays["product_degree"] = prod.degree if kept else np.empty(0, dtype=np.int64)
+        arrays["product_indices"] = prod.indices if kept else np.empty(0, dtype=np.int32)
         sources = {"network_a": p.network_a.source, "network_b": p.network_b.source,
                    "prior": None if inputs.prior is None else inputs.prior.source,
                    "seeds": None if inputs.seeds is None else inputs.seeds.source,

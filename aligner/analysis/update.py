@@ -30,7 +30,7 @@ from aligner.core.arrays import unique
 from aligner.core.identifiers import lookup
 from aligner.errors import InputFormatError, InvalidParameterError
 from aligner.io.state import STATE_FILE, file_digest, read_state
-from aligner.pipeline import AlignmentResult, Clock, prepare, run_stages
+from aligner.pipeline import AlignmentResult, Clock, prepare, run_stages, with_product_graph
 
 __all__ = ["update", "FULL_SHARE", "INPUTS"]
 
@@ -357,6 +357,7 @@ class _Maps(NamedTuple):
     kept: np.ndarray  # which new candidates were old ones
     ends_a: np.ndarray  # nodes of A (new indices) at an end of an added or removed edge
     ends_b: np.ndarray
+    same_pairs: bool  # the same nodes and candidate pairs, in the same numbering
 
 
 def _carry(state, problem, same_names: dict) -> tuple[np.ndarray, dict, _Maps]:
@@ -367,8 +368,8 @@ def _carry(state, problem, same_names: dict) -> tuple[np.ndarray, dict, _Maps]:
     to_a = np.arange(net_a.n, dtype=np.int64) if same_names.get("a") else _renumber(state.names_a, net_a.names)
     to_b = np.arange(net_b.n, dtype=np.int64) if same_names.get("b") else _renumber(state.names_b, net_b.names)
     old = state.pairs
-    if len(old) == cand.m and np.array_equal(old, cand.pairs) and _is_identity(to_a) and _is_identity(to_b):
-        # the same nodes and candidates: no look-up
+    same_pairs = len(old) == cand.m and _is_identity(to_a) and _is_identity(to_b) and np.array_equal(old, cand.pairs)
+    if same_pairs:  # the same nodes and candidates: no look-up
         x0 = state.x.astype(np.float64)
         kept = np.ones(cand.m, dtype=bool)
         same_prior = np.abs(cand.prior - state.prior) <= 1e-6 * np.abs(state.prior)
@@ -384,7 +385,46 @@ def _carry(state, problem, same_names: dict) -> tuple[np.ndarray, dict, _Maps]:
         "candidates_added": int(cand.m - kept.sum()), "candidates_removed": int(len(old) - kept.sum()),
         "candidates_rescored": int((kept & ~same_prior).sum()),
     }
-    return x0, changes, _Maps(to_a, to_b, kept, ends_a, ends_b)
+    return x0, changes, _Maps(to_a, to_b, kept, ends_a, ends_b, same_pairs)
+
+
+#: Above this share of the candidates' product-graph rows to build again, the update builds the
+#: whole graph (on parallel threads) instead of patching it (one thread, plus a copy of the rest).
+PATCH_SHARE = 0.3
+
+
+def _product_patch(state, problem, maps: _Maps, record: dict):
+    """How the update makes the product graph: a function that patches the previous run's graph
+    (:func:`aligner.core.product.patch_product`, the rows of the pairs the change reached built
+    again), or None (build it as ``align`` does) with ``record`` saying why."""
+    from aligner.core.product import ProductGraph, patch_product
+
+    cfg, cand = problem.config, problem.candidates
+    why = ("the run is weighted (its entry weights are not kept)" if cfg.weighted else
+           "the previous run kept no product graph" if len(state.product_degree) != len(state.pairs) else
+           "the nodes or the candidate pairs changed" if not maps.same_pairs else None)
+    if why is None:
+        at_b = np.zeros(cand.n2, dtype=bool)
+        at_b[maps.ends_b] = True  # a pair's row reads B's edges at its node of B only
+        nodes = unique(np.concatenate([maps.ends_a, cand.pairs[at_b[cand.pairs[:, 1]], 0].astype(np.int64)]))
+        redo = int(np.diff(cand.a_indptr)[nodes].sum())
+        share = redo / max(cand.m, 1)
+        if share > PATCH_SHARE:
+            why = f"the change reached {share:.0%} of the candidates' rows (more than {PATCH_SHARE:.0%})"
+    if why is not None:
+        record.update(mode="built", reason=why)
+        return None
+    record.update(mode="patched", reason="the rows of the pairs the change reached built again", pairs_rebuilt=redo)
+
+    def build():
+        deg = state.product_degree
+        indptr = np.zeros(len(deg) + 1, dtype=np.int64)
+        np.cumsum(deg, out=indptr[1:])
+        old = ProductGraph(indptr=indptr, indices=state.product_indices, directed=cfg.directed)
+        a, b = problem.network_a.walk_adjacency(cfg.directed), problem.network_b.walk_adjacency(cfg.directed)
+        return patch_product(old, a[0], a[1], b[0], b[1], cand, nodes)
+
+    return build
 
 
 #: A candidate whose weight in the refinement's objective (beta * w~, in units of one conserved
@@ -565,10 +605,12 @@ def update(previous, network_a=None, network_b=None, prior=None, *, seeds=None, 
         files = _inputs(state, given)
         inputs = _kept_inputs(state, given, files, cfg, same_names)
     problem = prepare(inputs["network_a"], inputs["network_b"], inputs["prior"], seeds=files["seeds"],
-                      truth=files["truth"], config=cfg, clock=clock)
+                      truth=files["truth"], config=cfg, clock=clock, with_product=False)
     t1 = time.perf_counter()
     x0, changes, maps = _carry(state, problem, same_names)
     carry_s = time.perf_counter() - t1
+    product = {}
+    problem = with_product_graph(problem, clock, build=_product_patch(state, problem, maps, product))
     m = problem.candidates.m
     share_pairs = (changes["candidates_added"] + changes["candidates_rescored"]) / max(m, 1)
     share_edges = max((changes["edges_a_added"] + changes["edges_a_removed"]) / max(len(state.edges_a), 1),
@@ -591,6 +633,7 @@ def update(previous, network_a=None, network_b=None, prior=None, *, seeds=None, 
         "previous_pushes": prev.get("diffusion", {}).get("steps"),
         "previous_edge_touches": prev.get("diffusion", {}).get("edge_touches"),
         "matches_changed": _matches_changed(state, res, maps),
+        "product": product,
         "refine": refined or None,
         "carry_seconds": round(carry_s, 4),
         "seconds": round(time.perf_counter() - t0, 4), "previous_seconds": prev.get("seconds"),

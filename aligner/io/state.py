@@ -20,6 +20,11 @@ Arrays (node indices are those of the run's own numbering, names given beside th
 ``x``          float32 (m)  diffusion scores (the warm start of an update: its residual is
                             recomputed exactly, so single precision costs only pushes)
 ``matched``    int64 (k)    candidate index of each pair of the final matching
+``product_``   uint (m)     the product graph's row lengths (in the smallest unsigned integer
+``degree``                  type that holds them), for an update to patch instead of building
+                            it; empty for a weighted run (its entry weights are not kept)
+``product_``   int32 (s)    the product graph's neighbour lists, one row after the other
+``indices``                 (empty for a weighted run)
 =============  ===========  ===================================================================
 """
 
@@ -39,9 +44,10 @@ from aligner.errors import InputFormatError
 __all__ = ["STATE_FILE", "STATE_VERSION", "RunState", "write_state", "read_state", "file_digest"]
 
 STATE_FILE = "state.npz"
-STATE_VERSION = 2
+STATE_VERSION = 3
 _FORMAT = "aligner run state"
-ARRAYS = ("names_a", "names_b", "edges_a", "edges_b", "pairs", "prior", "x", "matched")
+ARRAYS = ("names_a", "names_b", "edges_a", "edges_b", "pairs", "prior", "x", "matched", "product_degree",
+          "product_indices")
 
 
 @dataclass(frozen=True, eq=False)
@@ -96,13 +102,17 @@ def file_digest(path) -> str | None:
 
 
 _DTYPES = {"edges_a": np.int32, "edges_b": np.int32, "pairs": np.int32, "prior": np.float64, "x": np.float32,
-           "matched": np.int64}
+           "matched": np.int64, "product_indices": np.int32}
 
 
 def _stored(name: str, value) -> np.ndarray:
     """An array as the state stores it."""
     if name in ("names_a", "names_b"):
         return np.asarray(value).astype(str)
+    if name == "product_degree":  # most rows are short: a byte each at 10^6 nodes
+        value = np.asarray(value)
+        top = int(value.max()) if len(value) else 0
+        return value.astype(next(t for t in (np.uint8, np.uint16, np.uint32, np.uint64) if top <= np.iinfo(t).max))
     a = np.ascontiguousarray(value, dtype=_DTYPES[name])
     return a.reshape(-1, 2) if name in ("edges_a", "edges_b", "pairs") else a
 

@@ -50,6 +50,11 @@ def _agree(upd, ref):
     assert su.keys() == sr.keys()
     bound = upd.diffusion.error_bound + ref.diffusion.error_bound  # 1-norm bounds, so entry-wise too
     assert max(abs(su[k] - sr[k]) for k in su) <= bound
+    # the product graph, patched or built, is align's (the same numbering when the nodes are the same)
+    if (np.array_equal(upd.network_a.names, ref.network_a.names) and np.array_equal(upd.network_b.names, ref.network_b.names)
+            and np.array_equal(upd.candidates.pairs, ref.candidates.pairs)):
+        np.testing.assert_array_equal(upd.product.indptr, ref.product.indptr)
+        np.testing.assert_array_equal(upd.product.indices, ref.product.indices)
 
 
 def _write(d, name, frame):
@@ -72,6 +77,8 @@ def test_edges_of_b_rewired(base):
     assert u["changes"]["edges_b_added"] > 0 and u["changes"]["edges_b_removed"] > 0
     assert u["changes"]["edges_a_added"] == u["changes"]["edges_a_removed"] == 0
     assert u["pushes"] < u["previous_pushes"]  # the warm start saves work
+    if np.array_equal(upd.network_b.names, aligner.align(d / "a.tsv", d / "b.tsv", d / "p.tsv").network_b.names):
+        assert u["product"]["mode"] == "patched" and 0 < u["product"]["pairs_rebuilt"] < upd.candidates.m
 
 
 def test_edges_of_a_removed_and_nodes_added_with_prior_rows(base):
@@ -91,6 +98,7 @@ def test_edges_of_a_removed_and_nodes_added_with_prior_rows(base):
     _agree(upd, ref)
     c = upd.summary["update"]["changes"]
     assert c["nodes_a_added"] == 15 and c["edges_a_removed"] >= 10 and c["candidates_added"] >= 15
+    assert upd.summary["update"]["product"] == {"mode": "built", "reason": "the nodes or the candidate pairs changed"}
 
 
 def test_prior_rows_rescored(base):
@@ -206,6 +214,9 @@ def test_edge_diffs_give_what_the_edited_network_gives(base, tmp_path):
     upd = _diff_against_edited_file(d, b, gone, new, tmp_path)
     c = upd.summary["update"]["changes"]
     assert c["edges_b_removed"] == 12 and c["edges_b_added"] == 12 and c["nodes_b_added"] == 12
+    # new nodes of B without candidates: the pairs keep their numbering, so the graph is patched
+    # (and found equal to align's above)
+    assert upd.summary["update"]["product"]["mode"] == "patched"
     # a diff that does not fit: an edge to remove that B does not have; exit 2, nothing written
     _write(tmp_path, "absent.tsv", new)
     with pytest.raises(InputFormatError, match="does not have"):
@@ -234,6 +245,8 @@ def test_edge_diffs_between_known_nodes_give_what_the_edited_network_gives(base,
     upd = _diff_against_edited_file(d, b, gone, new, tmp_path)
     c = upd.summary["update"]["changes"]
     assert c["edges_b_removed"] == 8 and c["edges_b_added"] == 8 and c["nodes_b_added"] == 0
+    # the same nodes and candidates: the product graph patched (and found equal to align's above)
+    assert upd.summary["update"]["product"]["mode"] == "patched"
 
 
 def test_reversed_arcs_count_as_changed_in_a_directed_run(base, tmp_path):
@@ -250,7 +263,32 @@ def test_reversed_arcs_count_as_changed_in_a_directed_run(base, tmp_path):
     upd = update(tmp_path / "r", network_b=_write(tmp_path, "b_flipped.tsv", b2))
     c = upd.summary["update"]["changes"]
     assert c["edges_b_added"] == 5 and c["edges_b_removed"] == 5
+    assert upd.summary["update"]["product"]["mode"] == "patched"  # out-lists, checked against align's below
     _agree(upd, aligner.align(d / "a.tsv", tmp_path / "b_flipped.tsv", d / "p.tsv", directed=True))
+
+
+def test_the_product_graph_is_built_again_where_a_patch_would_not_do(base, tmp_path, monkeypatch):
+    # A weighted run keeps no product graph (its entry weights are not in the state), and a change
+    # reaching more rows than PATCH_SHARE builds the graph whole; either way align's graph.
+    import aligner.analysis.update as update_module
+    d, a, b, prior = base
+    rng = np.random.default_rng(5)
+    aw, bw = a.assign(w=rng.random(len(a)) + 0.5), b.assign(w=rng.random(len(b)) + 0.5)
+    files = [_write(tmp_path, "aw.tsv", aw), _write(tmp_path, "bw.tsv", bw)]
+    write_outputs(tmp_path / "w", aligner.align(*files, d / "p.tsv", weighted=True))
+    bw2 = bw.copy()
+    bw2.iloc[:5, 2] *= 2.0  # five weights changed, no edge
+    upd = update(tmp_path / "w", network_b=_write(tmp_path, "bw2.tsv", bw2))
+    assert upd.summary["update"]["product"] == {"mode": "built",
+                                                "reason": "the run is weighted (its entry weights are not kept)"}
+    _agree(upd, aligner.align(files[0], tmp_path / "bw2.tsv", d / "p.tsv", weighted=True))
+    monkeypatch.setattr(update_module, "PATCH_SHARE", 0.0)
+    b2 = b.drop(index=b.index[:3])
+    upd = update(d / "run", network_b=_write(tmp_path, "b_less.tsv", b2))
+    if upd.summary["update"]["changes"]["nodes_b_removed"] == 0:
+        assert upd.summary["update"]["product"]["mode"] == "built"
+        assert "of the candidates' rows (more than 0%)" in upd.summary["update"]["product"]["reason"]
+    _agree(upd, aligner.align(d / "a.tsv", tmp_path / "b_less.tsv", d / "p.tsv"))
 
 
 def _same_network(got, want):
