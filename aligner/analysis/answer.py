@@ -118,7 +118,8 @@ class AnswerIndex:
         a_indices, b_indices = (np.ascontiguousarray(n.indices, dtype=np.int32) for n in (net_a, net_b))
         for i0 in range(0, cand.n1, block):  # the neighbour lists of a block are dropped at once
             i1 = min(cand.n1, i0 + block)
-            product_rows(np.arange(i0, i1), a_indptr, a_indices, b_indptr, b_indices, cand.a_indptr, pair_b, none, none,
+            product_rows(np.arange(i0, i1), a_indptr, a_indices, b_indptr, b_indices, cand.a_indptr, pair_b,
+                         cand.a_indptr, pair_b, none, none,
                          PRODUCT, counts[cand.a_indptr[i0]:cand.a_indptr[i1]])
         self.degree = counts
         if engine.normalization == "restricted":

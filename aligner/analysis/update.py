@@ -404,17 +404,19 @@ def _product_patch(state, problem, maps: _Maps, record: dict):
            "the previous run kept no product graph" if len(state.product_degree) != len(state.pairs) else
            "the nodes or the candidate pairs changed" if not maps.same_pairs else None)
     if why is None:
-        at_b = np.zeros(cand.n2, dtype=bool)
-        at_b[maps.ends_b] = True  # a pair's row reads B's edges at its node of B only
-        nodes = unique(np.concatenate([maps.ends_a, cand.pairs[at_b[cand.pairs[:, 1]], 0].astype(np.int64)]))
-        redo = int(np.diff(cand.a_indptr)[nodes].sum())
-        share = redo / max(cand.m, 1)
+        at_a, at_b = np.zeros(cand.n1, dtype=bool), np.zeros(cand.n2, dtype=bool)
+        at_a[maps.ends_a] = True  # a pair's row reads A's edges at its node of A and B's at its node of B
+        at_b[maps.ends_b] = True
+        redo = at_a[cand.pairs[:, 0]]
+        redo |= at_b[cand.pairs[:, 1]]
+        share = float(redo.mean()) if cand.m else 0.0
         if share > PATCH_SHARE:
             why = f"the change reached {share:.0%} of the candidates' rows (more than {PATCH_SHARE:.0%})"
     if why is not None:
         record.update(mode="built", reason=why)
         return None
-    record.update(mode="patched", reason="the rows of the pairs the change reached built again", pairs_rebuilt=redo)
+    record.update(mode="patched", reason="the rows of the pairs the change reached built again",
+                  pairs_rebuilt=int(redo.sum()))
 
     def build():
         deg = state.product_degree
@@ -422,7 +424,7 @@ def _product_patch(state, problem, maps: _Maps, record: dict):
         np.cumsum(deg, out=indptr[1:])
         old = ProductGraph(indptr=indptr, indices=state.product_indices, directed=cfg.directed)
         a, b = problem.network_a.walk_adjacency(cfg.directed), problem.network_b.walk_adjacency(cfg.directed)
-        return patch_product(old, a[0], a[1], b[0], b[1], cand, nodes)
+        return patch_product(old, a[0], a[1], b[0], b[1], cand, redo)
 
     return build
 

@@ -9,7 +9,7 @@ import numpy as np
 import numpy.typing as npt
 import scipy.sparse as sp
 
-from aligner.kernels.product import PRODUCT, product_bound, product_rows, thread_count
+from aligner.kernels.product import PRODUCT, product_bound, product_rows, splice_rows, thread_count
 from aligner.core.candidates import CandidateSet
 from aligner.errors import InvalidParameterError
 
@@ -177,8 +177,8 @@ def build_product(
 
     def build(i0: int, i1: int) -> tuple[np.ndarray, np.ndarray, int]:  # the rows of nodes i0 .. i1-1 of A
         counts = indptr[cand.a_indptr[i0] + 1: cand.a_indptr[i1] + 1]
-        return product_rows(np.arange(i0, i1), a_indptr, a_indices, b_indptr, b_indices, cand.a_indptr, pair_b, a_w, b_w, floor,
-                            counts)
+        return product_rows(np.arange(i0, i1), a_indptr, a_indices, b_indptr, b_indices, cand.a_indptr, pair_b,
+                            cand.a_indptr, pair_b, a_w, b_w, floor, counts)
 
     if len(blocks) > 2:
         with ThreadPoolExecutor(thread_count()) as pool:  # the kernel releases the GIL
@@ -200,51 +200,39 @@ def patch_product(
     b_indptr: npt.NDArray[np.int64],
     b_indices: npt.NDArray[np.int32],
     cand: CandidateSet,
-    nodes: npt.ArrayLike,
+    redo: npt.NDArray[np.bool_],
 ) -> ProductGraph:
     """The unweighted product graph of new networks A and B over the same candidate pairs, from
-    ``old`` (built over those pairs from earlier networks) with the rows of the candidates of
-    ``nodes`` of A built again; every other row is copied.
+    ``old`` (built over those pairs from earlier networks) with the rows of the pairs flagged in
+    ``redo`` (one flag per candidate pair) built again; every other row is copied.
 
-    The result is what :func:`build_product` gives on the new networks when ``nodes`` covers every
+    The result is what :func:`build_product` gives on the new networks when ``redo`` flags every
     pair whose row changed. Pair (i, i')'s row (its out-list, when directed) reads the edges of A
     at i and of B at i' only, so an edge (arc) changed in A between i and j reaches the rows of
     the pairs of i and j, and one changed in B between i' and j' those of the pairs whose node of
-    B is i' or j': ``nodes`` is then the nodes of A at a changed edge of A and those with a
-    candidate partner at a changed edge of B (an update's patch, :mod:`aligner.analysis.update`).
+    B is i' or j' (an update's patch, :mod:`aligner.analysis.update`).
 
-    Work: the rows built again (one call of :func:`aligner.kernels.product.product_rows`) plus a
-    copy of the old entries, O(m + product entries), with no hashing.
+    Work: the rows built again (:func:`aligner.kernels.product.product_rows` on those pairs
+    alone) plus one copy of the old entries (:func:`aligner.kernels.product.splice_rows`).
     """
-    if old.weights is not None or old.m != cand.m:
-        raise InvalidParameterError("patch_product takes an unweighted product graph over the same candidate pairs",
-                                    param="old")
-    nodes = np.unique(np.asarray(nodes, dtype=np.int64))
+    redo = np.asarray(redo, dtype=bool)
+    if old.weights is not None or old.m != cand.m or len(redo) != cand.m:
+        raise InvalidParameterError("patch_product takes an unweighted product graph and a flag per pair over the "
+                                    "same candidate pairs", param="old")
     a_indptr, b_indptr = (np.ascontiguousarray(p, dtype=np.int64) for p in (a_indptr, b_indptr))
     a_indices, b_indices = (np.ascontiguousarray(x, dtype=np.int32) for x in (a_indices, b_indices))
-    redo = np.zeros(cand.n1, dtype=bool)
-    redo[nodes] = True
-    redo = np.repeat(redo, np.diff(cand.a_indptr))  # by pair
-    counts = np.zeros(int(redo.sum()), dtype=np.int64)
+    # the rows to build, by node of A, in the candidates' order
+    picked = cand.pairs[redo]
+    per_node = np.bincount(picked[:, 0], minlength=cand.n1)
+    r_indptr = np.zeros(cand.n1 + 1, dtype=np.int64)
+    np.cumsum(per_node, out=r_indptr[1:])
+    r_b = np.ascontiguousarray(picked[:, 1])
+    nodes = np.flatnonzero(per_node)
+    counts = np.zeros(len(r_b), dtype=np.int64)
     none = np.empty(0, dtype=np.float64)
     rows = product_rows(nodes, a_indptr, a_indices, b_indptr, b_indices, cand.a_indptr,
-                        np.ascontiguousarray(cand.pairs[:, 1]), none, none, PRODUCT, counts)[0]
-    old_deg = old.degree
-    deg = old_deg.copy()
-    deg[redo] = counts
-    indptr = np.zeros(cand.m + 1, dtype=np.int64)
-    np.cumsum(deg, out=indptr[1:])
-    indices = np.empty(int(indptr[-1]), dtype=np.int32)
-    kept = ~redo
-    # the kept rows' entries, each moved by its row's shift
-    moved = np.repeat(indptr[:-1][kept] - old.indptr[:-1][kept], old_deg[kept])
-    src = np.repeat(kept, old_deg)
-    moved += np.flatnonzero(src)
-    indices[moved] = old.indices[src]
-    # the rows built again, one after the other, into their new places
-    starts = np.repeat(indptr[:-1][redo] - (np.cumsum(counts) - counts), counts)
-    starts += np.arange(len(rows))
-    indices[starts] = rows
+                        np.ascontiguousarray(cand.pairs[:, 1]), r_indptr, r_b, none, none, PRODUCT, counts)[0]
+    indptr, indices = splice_rows(np.ascontiguousarray(old.indptr, dtype=np.int64), old.indices, redo, counts, rows)
     return ProductGraph(indptr=indptr, indices=indices, directed=old.directed)
 
 
@@ -286,7 +274,8 @@ def product_row_lengths(
         np.array([0, cand.n1])
 
     def count(i0: int, i1: int) -> None:  # the rows of nodes i0 .. i1-1 of A, counted then dropped
-        product_rows(np.arange(i0, i1), a_indptr, a_indices, b_indptr, b_indices, cand.a_indptr, pair_b, none, none, PRODUCT,
+        product_rows(np.arange(i0, i1), a_indptr, a_indices, b_indptr, b_indices, cand.a_indptr, pair_b, cand.a_indptr,
+                     pair_b, none, none, PRODUCT,
                      lengths[cand.a_indptr[i0]: cand.a_indptr[i1]])
 
     with ThreadPoolExecutor(thread_count()) as pool:  # the kernel releases the GIL

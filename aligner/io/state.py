@@ -121,7 +121,7 @@ def _digest_update(h, name: str, a: np.ndarray) -> None:
     h.update(name.encode())
     h.update(str(a.dtype).encode())
     h.update(str(a.shape).encode())
-    h.update(np.ascontiguousarray(a).tobytes())
+    h.update(np.ascontiguousarray(a))  # hashed in place: a copy of 10^8 bytes costs as much as the hash
 
 
 def _checksum(arrays: dict, meta: dict) -> str:

@@ -40,7 +40,7 @@ STAGE_KERNELS: dict[str, list[tuple[str, str, str]]] = {
     "product": [
         ("product", "product_bound", f"{_I64}, {_I32}, {_I64}, {_I32}, {_I64}"),
         ("product", "product_rows",
-         f"{_I64}, {_I64}, {_I32}, {_I64}, {_I32}, {_I64}, {_I32}, {_F64}, {_F64}, float64, {_I64}"),
+         f"{_I64}, {_I64}, {_I32}, {_I64}, {_I32}, {_I64}, {_I32}, {_I64}, {_I32}, {_F64}, {_F64}, float64, {_I64}"),
     ],
     "diffusion": [
         ("push", "_residual", f"{_I64}, {_I32}, {_F64}, {_F64}, float64, {_F64}, {_F64}, {_F64}"),

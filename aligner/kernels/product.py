@@ -16,8 +16,9 @@ def thread_count() -> int:
 
 
 @numba.njit(cache=True, nogil=True)
-def product_rows(nodes, a_indptr, a_indices, b_indptr, b_indices, c_indptr, c_b, a_w, b_w, floor, counts):
-    """The product-graph neighbours of the candidate pairs of ``nodes`` of A (increasing), in one pass.
+def product_rows(nodes, a_indptr, a_indices, b_indptr, b_indices, c_indptr, c_b, r_indptr, r_b, a_w, b_w, floor,
+                 counts):
+    """The product-graph neighbours of candidate pairs of ``nodes`` of A (increasing), in one pass.
 
     Pair k = (i, i') and pair u = (j, j') are adjacent when j is a neighbour of i in A and j'
     a neighbour of i' in B (given out-adjacencies of directed networks: the out-lists of the
@@ -30,22 +31,26 @@ def product_rows(nodes, a_indptr, a_indices, b_indptr, b_indices, c_indptr, c_b,
     lists are sorted, each row comes out sorted. Work per i: sum of deg_B(i') over its
     candidates, plus the candidates of its neighbours, plus the output.
 
-    Writes the number of neighbours of every pair of those nodes, in order (the pairs
-    ``c_indptr[i0] .. c_indptr[i1]-1`` when the nodes are ``i0 .. i1-1``), to ``counts`` (zeros
-    on entry, one slot per pair) and returns ``(indices, weights,
+    The candidates (the pairs a row may hold) are ``c_indptr`` (by node of A) and ``c_b`` (their
+    nodes of B); the rows built are those of the pairs ``r_indptr[i] .. r_indptr[i+1]-1`` of
+    each node i, with nodes of B ``r_b``: all of its candidates when ``r_indptr, r_b`` are
+    ``c_indptr, c_b``, or some of them (in the candidates' order). Writes the number of
+    neighbours of every row, in order (the pairs ``c_indptr[i0] .. c_indptr[i1]-1`` when the
+    nodes are ``i0 .. i1-1`` and the rows all candidates), to ``counts`` (zeros on entry, one
+    slot per row) and returns ``(indices, weights,
     checksum)``: their neighbour lists one after the other; with non-empty ``a_w`` and
     ``b_w`` (weights of the adjacency entries) the weight of every entry (else an empty
     array): w_A(i, j) * w_B(i', j') when ``floor`` < 0 (:data:`PRODUCT`), else the agreement
     floor + (1 - floor) * (1 - |w_A(i, j) - w_B(i', j')|) of two levels in [0, 1]; a
     checksum of the entries read ahead (returned only so that those reads are kept). The
-    rows of a node do not depend on the other nodes, so ranges can be built apart (on parallel
-    threads, each writing its own part of ``counts``) and joined, and a few nodes' rows built
-    again (an update's patch, :func:`aligner.core.product.patch_product`).
+    rows of a pair do not depend on the other pairs' rows, so ranges of nodes can be built
+    apart (on parallel threads, each writing its own part of ``counts``) and joined, and a few
+    pairs' rows built again (an update's patch, :func:`aligner.core.product.patch_product`).
     """
     weighted = a_w.shape[0] > 0
     cap = 0
     for i in nodes:
-        cap += c_indptr[i + 1] - c_indptr[i]
+        cap += r_indptr[i + 1] - r_indptr[i]
     cap = max(16, cap)
     out_ix = np.empty(cap, dtype=np.int32)
     out_w = np.empty(cap if weighted else 0, dtype=np.float64)
@@ -61,8 +66,8 @@ def product_rows(nodes, a_indptr, a_indices, b_indptr, b_indices, c_indptr, c_b,
     hit_w = np.empty(256 if weighted else 0, dtype=np.float64)
     slot = 0  # the slot in ``counts`` of the next node's first pair
     for i in nodes:
-        k0 = c_indptr[i]
-        k1 = c_indptr[i + 1]
+        k0 = r_indptr[i]
+        k1 = r_indptr[i + 1]
         r0 = slot
         r1 = slot + k1 - k0
         slot = r1
@@ -70,14 +75,14 @@ def product_rows(nodes, a_indptr, a_indices, b_indptr, b_indices, c_indptr, c_b,
             continue
         ne = 0
         for k in range(k0, k1):
-            ne += b_indptr[c_b[k] + 1] - b_indptr[c_b[k]]
+            ne += b_indptr[r_b[k] + 1] - b_indptr[r_b[k]]
         if ne == 0:
             continue
         # read the first entry of every row about to be used, in one simple loop: the loads do
         # not wait for each other, so their cache misses overlap (the loops below, full of
         # unpredictable branches, would otherwise take them one at a time)
         for k in range(k0, k1):
-            ip = c_b[k]
+            ip = r_b[k]
             if b_indptr[ip + 1] > b_indptr[ip]:
                 touched ^= b_indices[b_indptr[ip]]
         for s in range(a_indptr[i], a_indptr[i + 1]):
@@ -97,7 +102,7 @@ def product_rows(nodes, a_indptr, a_indices, b_indptr, b_indices, c_indptr, c_b,
         mask = (1 << bits) - 1
         e = 0
         for k in range(k0, k1):  # the table: key b -> its entries (row k - k0, w_B(i', b)), last first
-            ip = c_b[k]
+            ip = r_b[k]
             for t in range(b_indptr[ip], b_indptr[ip + 1]):
                 b = b_indices[t]
                 h = ((b * _MIX) & 0xFFFFFFFF) >> (32 - bits)  # multiplicative hashing: the top bits
@@ -229,3 +234,35 @@ def _conserved_at_matching(s_indptr, s_indices, matched):
                 c += 1
         out[k] = c
     return out
+
+
+@numba.njit(cache=True, nogil=True)
+def splice_rows(old_indptr, old_indices, redo, counts, rows):
+    """CSR arrays with some rows replaced: row k is the old one where ``redo[k]`` is false, else
+    the next of the new rows (``counts`` their lengths, ``rows`` their entries one after the
+    other). Two passes over the rows, one copy of the entries."""
+    m = old_indptr.shape[0] - 1
+    indptr = np.empty(m + 1, dtype=np.int64)
+    indptr[0] = 0
+    t = 0
+    for k in range(m):
+        if redo[k]:
+            indptr[k + 1] = indptr[k] + counts[t]
+            t += 1
+        else:
+            indptr[k + 1] = indptr[k] + old_indptr[k + 1] - old_indptr[k]
+    indices = np.empty(indptr[m], dtype=np.int32)
+    t = 0
+    at = 0
+    for k in range(m):
+        d = indptr[k]
+        if redo[k]:
+            for x in range(counts[t]):
+                indices[d + x] = rows[at + x]
+            at += counts[t]
+            t += 1
+        else:
+            o = old_indptr[k]
+            for x in range(old_indptr[k + 1] - o):
+                indices[d + x] = old_indices[o + x]
+    return indptr, indices

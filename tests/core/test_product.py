@@ -208,20 +208,20 @@ def test_a_patched_product_graph_is_the_one_built_on_the_edited_networks(directe
     ea2, ends_a = edited(ea, n1)
     eb2, ends_b = edited(eb, n2)
     assert len(ends_a) and len(ends_b)
-    touched_b = np.zeros(n2, dtype=bool)
-    touched_b[ends_b] = True
-    nodes = np.union1d(ends_a, cand.pairs[touched_b[cand.pairs[:, 1]], 0])
-    assert len(nodes) < n1  # some rows are copied
-    got = patch_product(old, *adj(ea2, n1), *adj(eb2, n2), cand, nodes)
+    at_a, at_b = np.zeros(n1, dtype=bool), np.zeros(n2, dtype=bool)
+    at_a[ends_a] = at_b[ends_b] = True
+    redo = at_a[cand.pairs[:, 0]] | at_b[cand.pairs[:, 1]]
+    assert 0 < redo.sum() < cand.m  # some rows are copied
+    got = patch_product(old, *adj(ea2, n1), *adj(eb2, n2), cand, redo)
     want = _kron_restricted(n1, ea2, None, n2, eb2, None, cand, directed)
     np.testing.assert_array_equal(got.indptr, want.indptr)
     np.testing.assert_array_equal(got.indices, want.indices)
     assert got.indices.dtype == np.int32 and got.directed == directed and got.weights is None
     # no node given: the old graph, copied; every node: the new graph
-    same = patch_product(old, *adj(ea2, n1), *adj(eb2, n2), cand, [])
+    same = patch_product(old, *adj(ea2, n1), *adj(eb2, n2), cand, np.zeros(cand.m, dtype=bool))
     np.testing.assert_array_equal(same.indices, old.indices)
     np.testing.assert_array_equal(same.indptr, old.indptr)
-    every = patch_product(old, *adj(ea2, n1), *adj(eb2, n2), cand, np.arange(n1))
+    every = patch_product(old, *adj(ea2, n1), *adj(eb2, n2), cand, np.ones(cand.m, dtype=bool))
     np.testing.assert_array_equal(every.indices, want.indices)
 
 
@@ -231,7 +231,7 @@ def test_patching_a_weighted_product_graph_is_refused():
     cand = build_candidates(np.argwhere(np.ones((6, 6))), np.ones(36), 6, 6, top_k=None)
     prod = build_product(ip, ix, ip, ix, cand, a_weights=np.ones(len(ix)), b_weights=np.ones(len(ix)))
     with pytest.raises(InvalidParameterError, match="unweighted"):
-        patch_product(prod, ip, ix, ip, ix, cand, [0])
+        patch_product(prod, ip, ix, ip, ix, cand, np.ones(36, dtype=bool))
 
 
 def test_estimate_equals_its_formula():

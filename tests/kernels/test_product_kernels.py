@@ -28,18 +28,25 @@ def test_product_rows_by_ranges_equals_networkx_tensor_product():
                                ((np.full(len(xa), 0.3), np.full(len(xb), 0.3)), 0.5)):
             # product of ones, or the agreement of equal levels: every weight is 1
             counts = np.zeros(cand.m, dtype=np.int64)
-            parts = [product_rows(np.arange(a, b), ia, xa, ib, xb, cand.a_indptr, pb, *weights, floor,
+            parts = [product_rows(np.arange(a, b), ia, xa, ib, xb, cand.a_indptr, pb, cand.a_indptr, pb, *weights, floor,
                                   counts[cand.a_indptr[a]:cand.a_indptr[b]]) for a, b in zip(cuts, cuts[1:])]
             indices = np.concatenate([p[0] for p in parts])
             ptr = np.concatenate([[0], np.cumsum(counts)])
             assert [indices[ptr[k]:ptr[k + 1]].tolist() for k in range(cand.m)] == want
             w = np.concatenate([p[1] for p in parts])
             assert len(w) == (len(indices) if len(weights[0]) else 0) and (w == 1.0).all()
-    # any increasing list of nodes: their pairs' rows, one after the other (an update's patch)
+    # any increasing list of nodes: their pairs' rows, one after the other; and any subset of
+    # their pairs (an update's patch)
     for nodes in (np.array([3]), np.arange(0, n1, 2), np.array([1, 2, 7, n1 - 1]), np.empty(0, dtype=np.int64)):
-        rows = np.concatenate([np.arange(cand.a_indptr[i], cand.a_indptr[i + 1]) for i in nodes] + [[]]).astype(int)
-        counts = np.zeros(len(rows), dtype=np.int64)
-        indices = product_rows(nodes.astype(np.int64), ia, xa, ib, xb, cand.a_indptr, pb, empty, empty, -1.0,
-                               counts)[0]
-        ptr = np.concatenate([[0], np.cumsum(counts)])
-        assert [indices[ptr[t]:ptr[t + 1]].tolist() for t in range(len(rows))] == [want[k] for k in rows]
+        for share in (1.0, 0.5, 0.0):
+            pick = np.zeros(cand.m, dtype=bool)
+            for i in nodes:
+                ks = np.arange(cand.a_indptr[i], cand.a_indptr[i + 1])
+                pick[ks[rng.random(len(ks)) < share]] = True
+            rows = np.flatnonzero(pick)
+            r_indptr = np.concatenate([[0], np.cumsum(np.bincount(cand.pairs[rows, 0], minlength=n1))])
+            counts = np.zeros(len(rows), dtype=np.int64)
+            indices = product_rows(nodes.astype(np.int64), ia, xa, ib, xb, cand.a_indptr, pb, r_indptr,
+                                   np.ascontiguousarray(cand.pairs[rows, 1]), empty, empty, -1.0, counts)[0]
+            ptr = np.concatenate([[0], np.cumsum(counts)])
+            assert [indices[ptr[t]:ptr[t + 1]].tolist() for t in range(len(rows))] == [want[k] for k in rows]
