@@ -128,7 +128,10 @@ def _with_diff(state, side: str, add, remove, cfg: AlignConfig):
             keep[order[pos]] = False
         else:
             extra = dk
-    kept = np.concatenate([have[keep], extra])
+    # the kept edges in order, the added ones put in their places: the network then needs no sort
+    kept = have[order[keep[order]]]
+    extra = np.sort(extra)
+    kept = np.insert(kept, np.searchsorted(kept, extra), extra)
     u, v = kept // n, kept % n
     used = np.zeros(n, dtype=bool)
     used[u] = used[v] = True

@@ -161,6 +161,11 @@ def unique_sorted(first: npt.NDArray[np.int64], second: npt.NDArray[np.int64],
     """
     first = np.ascontiguousarray(first, dtype=np.int64)
     second = np.ascontiguousarray(second, dtype=np.int64)
+    if not len(first) or (first[0] >= 0 and _sorted_rows(first, second, unique=True)):
+        # already unique and sorted (lists a run state keeps): nothing to sort or merge
+        rows = np.empty((len(first), 2), dtype=np.int32)
+        rows[:, 0], rows[:, 1] = first, second
+        return rows, (None if values is None else np.array(values, dtype=np.float64)), 0
     n1 = int(first.max()) + 1 if len(first) else 0
     order = sort_rows(first, second, max(n1, 0))
     mode = 0 if values is None else (2 if largest else 1)
@@ -258,8 +263,13 @@ def _in_order(a: np.ndarray, b: np.ndarray, strict: bool) -> bool:
     """Whether rows (a, b) are sorted by (a, b); ``strict``: also unique, with ``a < b``."""
     if strict and not (a < b).all():
         return False
+    return _sorted_rows(a, b, unique=strict)
+
+
+def _sorted_rows(a: np.ndarray, b: np.ndarray, *, unique: bool) -> bool:
+    """Whether rows (a, b) are sorted by (a, b); ``unique``: in strictly increasing order."""
     da, db = np.diff(a), np.diff(b)
-    return bool(((da > 0) | ((da == 0) & ((db > 0) if strict else (db >= 0)))).all())
+    return bool(((da > 0) | ((da == 0) & ((db > 0) if unique else (db >= 0)))).all())
 
 
 def _csr(src: np.ndarray, dst: np.ndarray, n: int, weights, symmetric: bool, in_order: bool):

@@ -7,7 +7,7 @@ import pytest
 import scipy.sparse as sp
 
 from aligner.core.network import (_in_order, adjacency, canonical_arcs, canonical_edges, merge_duplicate_pairs,
-                                  network_from_edges)
+                                  network_from_edges, unique_sorted)
 
 
 def _rows(rng, n, m):
@@ -128,3 +128,28 @@ def test_merged_zero_scores_do_not_depend_on_row_order():
 ])
 def test_in_order_hand_worked(a, b, strict, want):
     assert _in_order(np.array(a, np.int64), np.array(b, np.int64), strict) is want
+
+
+@pytest.mark.parametrize("case", ["sorted", "a repeat", "out of order", "a row left out", "arcs both ways"])
+def test_rows_already_in_order_are_taken_as_they_are(case):
+    # Reference: numpy.unique over the rows (axis=0) with weights summed per row (np.bincount),
+    # rows with a negative first entry left out. Sorted unique rows skip the sort and the merge;
+    # any other input takes the sorting path and gets the same answer as numpy.
+    rng = np.random.default_rng(3)
+    rows = np.unique(rng.integers(0, 30, (200, 2)), axis=0)
+    if case == "a repeat":
+        rows = np.insert(rows, 50, rows[50], axis=0)
+    elif case == "out of order":
+        rows[[10, 11]] = rows[[11, 10]]
+    elif case == "a row left out":
+        rows[0, 0] = -1
+    elif case == "arcs both ways":
+        rows = np.unique(np.concatenate([rows, rows[:, ::-1]]), axis=0)
+    w = rng.random(len(rows))
+    got, got_w, n_dup = unique_sorted(rows[:, 0], rows[:, 1], w)
+    keep = rows[:, 0] >= 0
+    want, inverse = np.unique(rows[keep], axis=0, return_inverse=True)
+    np.testing.assert_array_equal(got, want)
+    assert got.dtype == np.int32 and n_dup == int(keep.sum()) - len(want)
+    np.testing.assert_allclose(got_w, np.bincount(inverse.ravel(), weights=w[keep]), rtol=0, atol=1e-15)
+    assert got_w is not w
