@@ -171,7 +171,8 @@ class RefineResult:
 def normalise_weights(w: npt.ArrayLike) -> tuple[npt.NDArray[np.float64], float]:
     """``w / mean(w[w > 0])`` and that mean (1.0 when no weight is positive)."""
     w = np.asarray(w, dtype=np.float64)
-    pos = w[w > 0]
+    positive = w > 0
+    pos = w if positive.all() else w[positive]  # diffusion scores are all positive: no copy of m entries
     scale = float(pos.mean()) if len(pos) else 1.0
     return w / scale, scale
 
