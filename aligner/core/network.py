@@ -267,9 +267,14 @@ def _in_order(a: np.ndarray, b: np.ndarray, strict: bool) -> bool:
 
 
 def _sorted_rows(a: np.ndarray, b: np.ndarray, *, unique: bool) -> bool:
-    """Whether rows (a, b) are sorted by (a, b); ``unique``: in strictly increasing order."""
-    da, db = np.diff(a), np.diff(b)
-    return bool(((da > 0) | ((da == 0) & ((db > 0) if unique else (db >= 0)))).all())
+    """Whether rows (a, b) are sorted by (a, b); ``unique``: in strictly increasing order. The
+    first rows are looked at first: rows in file order nearly always fail there, at no cost."""
+    def ok(a, b):
+        da, db = np.diff(a), np.diff(b)
+        return bool(((da > 0) | ((da == 0) & ((db > 0) if unique else (db >= 0)))).all())
+
+    head = min(len(a), 4096)
+    return (head == len(a) or ok(a[:head], b[:head])) and ok(a, b)
 
 
 def _csr(src: np.ndarray, dst: np.ndarray, n: int, weights, symmetric: bool, in_order: bool):

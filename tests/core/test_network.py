@@ -130,13 +130,17 @@ def test_in_order_hand_worked(a, b, strict, want):
     assert _in_order(np.array(a, np.int64), np.array(b, np.int64), strict) is want
 
 
-@pytest.mark.parametrize("case", ["sorted", "a repeat", "out of order", "a row left out", "arcs both ways"])
+@pytest.mark.parametrize("case", ["sorted", "a repeat", "out of order", "a row left out", "arcs both ways", "long, sorted",
+                                  "long, out of order at the end"])
 def test_rows_already_in_order_are_taken_as_they_are(case):
     # Reference: numpy.unique over the rows (axis=0) with weights summed per row (np.bincount),
     # rows with a negative first entry left out. Sorted unique rows skip the sort and the merge;
     # any other input takes the sorting path and gets the same answer as numpy.
     rng = np.random.default_rng(3)
-    rows = np.unique(rng.integers(0, 30, (200, 2)), axis=0)
+    rows = np.unique(rng.integers(0, 30 if "long" not in case else 1000, (200 if "long" not in case else 6000, 2)),
+                     axis=0)
+    if case == "long, out of order at the end":  # past the first rows, which are looked at first
+        rows[[-2, -1]] = rows[[-1, -2]]
     if case == "a repeat":
         rows = np.insert(rows, 50, rows[50], axis=0)
     elif case == "out of order":
