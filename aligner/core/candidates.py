@@ -43,7 +43,9 @@ class CandidateSet:
         """Share of the nodes of A and of B that have at least one candidate."""
         # counts per node, not a sort: the pairs are grouped by node of A already (a_indptr)
         fa = np.count_nonzero(np.diff(self.a_indptr)) / self.n1 if self.n1 else 0.0
-        fb = np.count_nonzero(np.bincount(self.pairs[:, 1], minlength=self.n2)) / self.n2 if self.n2 else 0.0
+        seen = np.zeros(self.n2, dtype=bool)  # a mask over B, not counts: no array of m entries
+        seen[self.pairs[:, 1]] = True
+        fb = np.count_nonzero(seen) / self.n2 if self.n2 else 0.0
         return fa, fb
 
 
