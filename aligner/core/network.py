@@ -165,7 +165,12 @@ def unique_sorted(first: npt.NDArray[np.int64], second: npt.NDArray[np.int64],
         # already unique and sorted (lists a run state keeps): nothing to sort or merge
         rows = np.empty((len(first), 2), dtype=np.int32)
         rows[:, 0], rows[:, 1] = first, second
-        return rows, (None if values is None else np.array(values, dtype=np.float64)), 0
+        if values is None:
+            return rows, None, 0
+        out = np.array(values, dtype=np.float64)
+        if not largest:
+            out += 0.0  # as a sum from 0.0 gives it: -0.0 becomes 0.0, every other value stays
+        return rows, out, 0
     n1 = int(first.max()) + 1 if len(first) else 0
     order = sort_rows(first, second, max(n1, 0))
     mode = 0 if values is None else (2 if largest else 1)

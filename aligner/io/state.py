@@ -109,7 +109,7 @@ def _stored(name: str, value) -> np.ndarray:
     """An array as the state stores it."""
     if name in ("names_a", "names_b"):
         return np.asarray(value).astype(str)
-    if name == "product_degree":  # most rows are short: a byte each at 10^6 nodes
+    if name == "product_degree":  # the smallest type for the longest row (16 bits on the benchmark's pairs)
         value = np.asarray(value)
         top = int(value.max()) if len(value) else 0
         return value.astype(next(t for t in (np.uint8, np.uint16, np.uint32, np.uint64) if top <= np.iinfo(t).max))

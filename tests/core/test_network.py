@@ -150,10 +150,15 @@ def test_rows_already_in_order_are_taken_as_they_are(case):
     elif case == "arcs both ways":
         rows = np.unique(np.concatenate([rows, rows[:, ::-1]]), axis=0)
     w = rng.random(len(rows))
+    w[3] = -0.0  # a sum from 0.0 (np.bincount's) makes it 0.0; the largest keeps it
     got, got_w, n_dup = unique_sorted(rows[:, 0], rows[:, 1], w)
     keep = rows[:, 0] >= 0
     want, inverse = np.unique(rows[keep], axis=0, return_inverse=True)
     np.testing.assert_array_equal(got, want)
     assert got.dtype == np.int32 and n_dup == int(keep.sum()) - len(want)
-    np.testing.assert_allclose(got_w, np.bincount(inverse.ravel(), weights=w[keep]), rtol=0, atol=1e-15)
-    assert got_w is not w
+    want_w = np.bincount(inverse.ravel(), weights=w[keep])
+    np.testing.assert_allclose(got_w, want_w, rtol=0, atol=1e-15)
+    assert np.array_equal(np.signbit(got_w), np.signbit(want_w)) and got_w is not w
+    if case == "sorted":  # the largest of each row: the row's own value, its sign kept
+        top = unique_sorted(rows[:, 0], rows[:, 1], w, largest=True)[1]
+        assert np.array_equal(top, w) and np.signbit(top[3])
