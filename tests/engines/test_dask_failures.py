@@ -178,14 +178,14 @@ def test_a_moment_without_workers_is_waited_out(cluster, pair, monkeypatch):
     _two_workers(c)
     ea, eb, prior, _ = as_frames(pair)
     ref = engine.align(ea, eb, prior, client=c, partitions=4, refine=False)
-    real, calls = c.scheduler_info, []
+    real, calls = c.nthreads, []
 
     def none_at_first(*args, **kw):
         info = real(*args, **kw)
         calls.append(1)
-        return info | {"workers": {}} if len(calls) == 2 else info  # the first call sizes the run
+        return {} if len(calls) == 2 else info  # the first call sizes the run
 
-    monkeypatch.setattr(c, "scheduler_info", none_at_first)
+    monkeypatch.setattr(c, "nthreads", none_at_first)
     res = engine.align(ea, eb, prior, client=c, partitions=4, refine=False)
     assert res.summary["engine"]["restarts"] == 1
     assert np.array_equal(res.matching.index, ref.matching.index)

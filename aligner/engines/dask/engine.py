@@ -82,7 +82,7 @@ class BlockCluster:
         if sizes is None:  # the inputs themselves, already sliced
             inputs = list(inputs)
             sizes = np.array([len(i.c_b) + len(i.a_indices) for i in inputs])
-        workers = sorted(client.scheduler_info()["workers"])
+        workers = worker_addresses(client)
         if not workers:  # none at this moment (e.g. all restarting): align starts again once one is back
             raise WorkerLost("the cluster has no worker to hold the blocks")
         order = np.argsort(-np.asarray(sizes), kind="stable")
@@ -198,7 +198,7 @@ class BlockCluster:
 
     def check_workers(self) -> None:
         """Raise :class:`WorkerLost` when a worker holding blocks has left the cluster."""
-        alive = set(self.client.scheduler_info()["workers"])
+        alive = set(worker_addresses(self.client))
         gone = sorted({w for w, _ in self.groups} - alive)
         if gone:
             raise WorkerLost(f"worker {gone[0]} left the cluster")
@@ -435,6 +435,14 @@ def cluster_failure(exc: BaseException, client) -> str | None:
     return None
 
 
+def worker_addresses(client) -> list[str]:
+    """The addresses of the cluster's workers at this moment, sorted, asked of the scheduler.
+    (``Client.scheduler_info()`` returns a cached record that the client's periodic refresh
+    overwrites with one listing no worker: read just after a refresh, it showed an empty cluster
+    in a clean-clone test run.)"""
+    return sorted(client.nthreads())
+
+
 def _scheduler_reachable(client) -> bool:
     if client.status != "running":
         return False
@@ -477,7 +485,7 @@ def _run(client, inputs, found: Candidates, cfg: AlignConfig, parts: int, mode: 
     a_ip, a_ix, _ = inputs.network_a.walk_adjacency(cfg.directed, cfg.weighted)
     b_ip, b_ix, _ = inputs.network_b.walk_adjacency(cfg.directed, cfg.weighted)
     estimate = estimate_product_edges(a_ip, a_ix, b_ip, cand)
-    engine: dict[str, Any] = {"partitions": parts, "workers": len(client.scheduler_info()["workers"]),
+    engine: dict[str, Any] = {"partitions": parts, "workers": len(worker_addresses(client)),
                               "reading": read_report}
     with clock.stage("product"):
         where[0] = "the product graph's build"
