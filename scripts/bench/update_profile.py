@@ -1,0 +1,106 @@
+"""One update, profiled in one process: where its seconds go, and warm against cold solves.
+
+The instance and the changes are ``bench_update.py``'s (a seeded power-law pair, the true partner
+plus 10 uniform decoys): a run is aligned and written with its state, then one change is applied
+and ``update`` run ``--repeats`` times in this process (the first pays for loading kernels and
+for memory the system has not handed out yet), printing each one's stage seconds, its
+carry-over and how its product graph was made; then one more update under ``cProfile``, its
+``--top`` functions by cumulative and by own time. With ``--solves K`` the diffusion of the
+updated problem is then solved K times from zero and K times from the carried scores,
+alternately (seconds, pushes, edge touches), and the warm solve profiled.
+
+    python scripts/bench/update_profile.py --size 1000000 --change diff --solves 3
+
+Changes: ``diff`` (0.1 % of B's edges rewired, given as edges added and removed), ``file`` (the
+same as a whole new file of B), ``prior`` (the prior rows of 1 % of the nodes of A rescored).
+"""
+
+from __future__ import annotations
+
+import argparse
+import sys
+import tempfile
+import time
+from pathlib import Path
+
+HERE = Path(__file__).resolve().parent
+# this folder holds profile.py, which would stand in for the standard library's module of that
+# name (cProfile imports it): import cProfile without it, then bench_update from it
+sys.path = [p for p in sys.path if Path(p or ".").resolve() != HERE]
+import cProfile  # noqa: E402
+import pstats  # noqa: E402
+
+sys.path.append(str(HERE))
+from bench_update import _edge_diff, changes  # noqa: E402
+
+CHANGES = {"diff": "rewire-0.1% as a diff", "file": "rewire-0.1%", "prior": "prior-1%"}
+
+
+def main(argv=None) -> int:
+    ap = argparse.ArgumentParser(description=__doc__.splitlines()[0])
+    ap.add_argument("--size", type=int, default=100000, help="nodes per side")
+    ap.add_argument("--change", choices=sorted(CHANGES), default="diff")
+    ap.add_argument("--seed", type=int, default=5)
+    ap.add_argument("--repeats", type=int, default=3, help="updates timed before the profiled one")
+    ap.add_argument("--top", type=int, default=30, help="functions listed per ordering")
+    ap.add_argument("--solves", type=int, default=0, help="cold/warm solve pairs after the update")
+    args = ap.parse_args(argv)
+
+    import numpy as np
+
+    import aligner
+    from aligner.analysis import update as upd_module
+    from aligner.datasets.instances import as_frames, noisy_relabelled
+    from aligner.io.outputs import write_outputs
+    from aligner.io.state import read_state
+    from aligner.pipeline import solve
+
+    a, b, prior, _ = as_frames(noisy_relabelled(args.size, seed=args.seed, noise=0.05, decoys=10))
+    work = Path(tempfile.mkdtemp(prefix="update_profile_"))
+    files = [work / "a.tsv", work / "b.tsv", work / "p.tsv"]
+    for f, frame in zip(files, (a, b, prior)):
+        frame.to_csv(f, sep="\t", index=False)
+    write_outputs(work / "run", aligner.align(*files))
+    for name, changed in changes(a, b, prior, np.random.default_rng(args.seed)):
+        if name == CHANGES[args.change]:
+            break
+    if args.change == "diff":
+        added, removed = _edge_diff(b, changed["network_b"])
+        given = {"add_b": work / "added.tsv", "remove_b": work / "removed.tsv"}
+        added.to_csv(given["add_b"], sep="\t", index=False)
+        removed.to_csv(given["remove_b"], sep="\t", index=False)
+    else:
+        key = "network_b" if args.change == "file" else "prior"
+        changed[key].to_csv(work / "changed.tsv", sep="\t", index=False)
+        given = {key: work / "changed.tsv"}
+
+    print(f"{args.size:,} nodes, change {name!r}; work files in {work}")
+    for _ in range(args.repeats):
+        t0 = time.perf_counter()
+        res = upd_module.update(work / "run", **given)
+        u = res.summary["update"]
+        print(f"update {time.perf_counter() - t0:.2f} s; stages {res.summary['timings']}; carry "
+              f"{u['carry_seconds']} s; product {u['product']}", flush=True)
+    prof = cProfile.Profile()
+    res = prof.runcall(upd_module.update, work / "run", **given)
+    for order in ("cumulative", "tottime"):
+        pstats.Stats(prof).sort_stats(order).print_stats(args.top)
+
+    if args.solves:
+        x0 = upd_module._carry(read_state(work / "run"), res.problem, {})[0]
+        for _ in range(args.solves):
+            line = []
+            for label, start in (("from zero", None), ("warm", x0)):
+                t0 = time.perf_counter()
+                d = solve(res.problem, x0=start)
+                line.append(f"{label} {time.perf_counter() - t0:.2f} s ({d.steps:,} pushes, "
+                            f"{d.edge_touches:,} touches)")
+            print("solve: " + "   ".join(line), flush=True)
+        prof = cProfile.Profile()
+        prof.runcall(solve, res.problem, x0=x0)
+        pstats.Stats(prof).sort_stats("tottime").print_stats(15)
+    return 0
+
+
+if __name__ == "__main__":
+    sys.exit(main())
