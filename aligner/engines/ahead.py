@@ -20,7 +20,9 @@ import os
 import subprocess
 import sys
 import threading
+from pathlib import Path
 
+import aligner
 from aligner.kernels import ahead
 
 
@@ -59,8 +61,12 @@ class CompileAhead:
         return [sys.executable, "-m", "aligner.kernels.ahead", *queue]
 
     def _start(self, queue: list[str]) -> None:
+        # ``python -m`` looks in its working directory first: started from the directory above this
+        # package, the helper compiles this very package (from a source checkout beside an
+        # installed copy, it would otherwise fill the cache of the other one)
+        home = Path(aligner.__file__).resolve().parent.parent
         try:
-            self._proc = subprocess.Popen(self._command(queue),
+            self._proc = subprocess.Popen(self._command(queue), cwd=home,
                                           stdin=subprocess.PIPE, stdout=subprocess.PIPE,
                                           stderr=subprocess.DEVNULL, text=True)
         except OSError:

@@ -117,3 +117,23 @@ def test_run_leaves_a_kernel_it_may_never_call_to_the_helper(scripted):
     assert helper.started  # the on-demand kernel is still the helper's to compile
     helper.release()
     proc.wait(timeout=30)
+
+
+def test_helper_compiles_this_package_whatever_the_working_directory(monkeypatch, tmp_path):
+    # a directory named aligner in the working directory (a source checkout beside the installed
+    # copy) would be what ``python -m aligner.kernels.ahead`` imports if the helper ran there
+    decoy = tmp_path / "aligner"
+    (decoy / "kernels").mkdir(parents=True)
+    (decoy / "__init__.py").write_text("")
+    (decoy / "kernels" / "__init__.py").write_text("")
+    (decoy / "kernels" / "ahead.py").write_text("import sys\nsys.exit(3)\n")
+    monkeypatch.chdir(tmp_path)
+    key = "utils.stable_order"  # small: compiled (or loaded) by the real helper in a second or two
+    monkeypatch.setattr(ahead, "helper_queue", lambda stages: [key])
+    helper = controller.CompileAhead(["read", "refine"], enabled=True).__enter__()
+    proc = helper._proc
+    proc.wait(timeout=120)
+    with helper._cond:  # the listener has read all the helper said
+        assert helper._cond.wait_for(lambda: helper._gone, timeout=30)
+    assert key in helper._ended  # the decoy would have exited at once, beginning nothing
+    helper.release()
