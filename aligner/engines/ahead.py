@@ -50,7 +50,11 @@ class CompileAhead:
                 self._start(queue)
         return self
 
-    def __exit__(self, *exc):
+    def __exit__(self, exc_type, exc, tb):
+        if exc_type is not None and self._proc is not None:
+            # the run failed (an output directory refused, bad input): the helper's work is not
+            # wanted now, so it is stopped at once (numba writes a cache entry whole or not at all)
+            self._proc.kill()
         self.release()
 
     @property

@@ -75,6 +75,11 @@ STAGE_KERNELS: dict[str, list[tuple[str, str, str]]] = {
     ],
 }
 
+#: the stages that call kernels, in the pipeline's order (:data:`aligner.pipeline.STAGES` less the
+#: writing; a test keeps the two in step): the command line starts the helper with them before it
+#: imports the pipeline
+KERNEL_STAGES = tuple(STAGE_KERNELS)
+
 
 #: the kernels the helper process takes first: the two largest of the stages after diffusion
 #: (between them about a quarter of all compilation; the run compiles reading to diffusion meanwhile).

@@ -119,6 +119,18 @@ def test_run_leaves_a_kernel_it_may_never_call_to_the_helper(scripted):
     proc.wait(timeout=30)
 
 
+def test_a_failed_run_stops_the_helper_at_once(scripted):
+    # the command line starts the helper before it checks the output directory: a run refused
+    # there (or failing later) must not leave the helper compiling on after it
+    start, compiled, log = scripted
+    helper, proc = start(["assign._row_reduction_pass", "refine._local_search"])
+    t0 = time.monotonic()
+    helper.__exit__(RuntimeError, RuntimeError("refused"), None)  # leaving its block by an error
+    assert proc.wait(timeout=30) != 0  # killed while "compiling" (it holds FAKE_HOLD = 1 s)
+    assert time.monotonic() - t0 < 0.9
+    assert not helper.started and compiled == []
+
+
 def test_helper_compiles_this_package_whatever_the_working_directory(monkeypatch, tmp_path):
     # a directory named aligner in the working directory (a source checkout beside the installed
     # copy) would be what ``python -m aligner.kernels.ahead`` imports if the helper ran there

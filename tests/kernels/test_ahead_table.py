@@ -60,6 +60,9 @@ def test_every_stage_of_the_table_is_a_pipeline_stage():
 
     assert set(ahead.STAGE_KERNELS) <= set(STAGES)
     assert ahead.stage_kernels("writing") == []
+    # the command line starts the helper with these before importing the pipeline: the same
+    # stages in the same order (the helper leaves the first to the run)
+    assert ahead.KERNEL_STAGES == tuple(s for s in STAGES if s != "writing")
 
 
 def test_helper_queue_takes_the_largest_first_then_from_the_back(monkeypatch):

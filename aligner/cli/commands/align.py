@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import json
+from contextlib import ExitStack
 from pathlib import Path
 from typing import Annotated
 
@@ -44,15 +45,25 @@ def run_align(network_a: Path, network_b: Path, prior: Path | None, outdir: Path
     engine, output = engine or EngineConfig(), output or OutputConfig()
     check_inputs(network_a, network_b, prior, truth, seeds)
     check_engine(engine)
-    from aligner.io.outputs import check_outdir, output_files, write_outputs
-    from aligner.pipeline import STAGES, Clock, align
-    from aligner.render.console import summary_table
+    with ExitStack() as stack:
+        helper = None
+        if engine.engine == "local":
+            from aligner.engines.ahead import CompileAhead
+            from aligner.kernels.ahead import KERNEL_STAGES
 
-    if outdir is not None:
-        check_outdir(outdir, force=force, files=output_files(output.parquet))  # refuse before any work
-    # the process is ours: measure each stage's own peak memory
-    with Clock.owning_process(), progress(quiet, len(STAGES)) as bar:
-        if engine.engine == "dask":
+            # a first run: a second process compiles the later stages' kernels meanwhile, started
+            # before this process imports the pipeline and pandas, so that it begins at once
+            helper = stack.enter_context(CompileAhead(KERNEL_STAGES))
+        from aligner.io.outputs import check_outdir, output_files, write_outputs
+        from aligner.pipeline import STAGES, Clock, align
+        from aligner.render.console import summary_table
+
+        if outdir is not None:
+            check_outdir(outdir, force=force, files=output_files(output.parquet))  # refuse before any work
+        # the process is ours: measure each stage's own peak memory
+        stack.enter_context(Clock.owning_process())
+        bar = stack.enter_context(progress(quiet, len(STAGES)))
+        if helper is None:
             from aligner.engines.dask.engine import align as dask_align
 
             # a lost cluster raises ClusterError: one line and exit 1 (runtime.user_errors)
@@ -60,16 +71,13 @@ def run_align(network_a: Path, network_b: Path, prior: Path | None, outdir: Path
                              progress=bar.stage, scheduler=engine.scheduler, workers=engine.workers,
                              partitions=engine.partitions, reading=engine.reading)
         else:
-            from aligner.engines.ahead import CompileAhead
+            def on_stage(name: str) -> None:
+                helper.reach(name)
+                bar.stage(name)
 
-            # a first run: a second process compiles the later stages' kernels meanwhile
-            with CompileAhead(STAGES) as helper:
-                def on_stage(name: str) -> None:
-                    helper.reach(name)
-                    bar.stage(name)
-
-                res = align(network_a, network_b, prior, seeds=seeds, truth=truth, config=config,
-                            progress=on_stage, permutation_progress=bar.count)
+            res = align(network_a, network_b, prior, seeds=seeds, truth=truth, config=config,
+                        progress=on_stage, permutation_progress=bar.count)
+            helper.release()  # nothing is compiled ahead for the writing
         bar.stage("writing")
         written = (write_outputs(outdir, res, force=force, parquet=output.parquet, state=output.state)
                    if outdir is not None else [])
