@@ -81,7 +81,12 @@ def _with_diff(state, side: str, add, remove, cfg: AlignConfig):
     and those of ``add`` put in, built from the state's integer edges: only the diff files are
     read. Nodes seen first in ``add`` join; a node left without edges goes, as it would from the
     edited file (a network is its edge list), so the result is the Network that reading the
-    edited file gives. Returns it and whether its nodes are the previous run's, name for name.
+    edited file gives. A self-loop line names its node although the readers drop the loop: a
+    node of the previous run without edges (its file listed it in self-loops only) stays unless
+    the diff removes such a line of it, and a self-loop among the added edges brings its node.
+    The counts of self-loops and of repeated edges are the previous file's, plus those of the
+    added lines, less the self-loops removed. Returns the network and whether its nodes are the
+    previous run's, name for name.
 
     Raises InputFormatError naming the first edge to remove that the previous network lacks, or
     to add that it already has (a diff that does not fit the run it is applied to)."""
@@ -99,7 +104,8 @@ def _with_diff(state, side: str, add, remove, cfg: AlignConfig):
         if path is not None:
             net = as_network(path, name=f"{'removed' if removing else 'added'} edges of {label}",
                              directed=cfg.directed, delimiter=cfg.delimiter, header=cfg.header)
-            diffs[removing] = (path, net.names.astype(str), net.scored_edges(cfg.directed)[0].astype(np.int64))
+            diffs[removing] = (path, net.names.astype(str), net.scored_edges(cfg.directed)[0].astype(np.int64),
+                               net)
     # one numbering over the previous names and the diffs' (sorted, as the readers number nodes)
     every, old_ids = _joined_names(names, [d[1] for d in diffs.values()])
     n = len(every)
@@ -112,7 +118,7 @@ def _with_diff(state, side: str, add, remove, cfg: AlignConfig):
     for removing in (True, False):
         if removing not in diffs:
             continue
-        path, dnames, de = diffs[removing]
+        path, dnames, de, _ = diffs[removing]
         ids = np.searchsorted(every, dnames)
         dk = _edge_keys(ids[de[:, 0]], ids[de[:, 1]], n, cfg.directed)
         pos = np.minimum(np.searchsorted(have, dk, sorter=order), max(len(have) - 1, 0))
@@ -134,11 +140,24 @@ def _with_diff(state, side: str, add, remove, cfg: AlignConfig):
     kept = np.insert(kept, np.searchsorted(kept, extra), extra)
     u, v = kept // n, kept % n
     used = np.zeros(n, dtype=bool)
+    # nodes named by self-loop lines only (the readers keep a node a dropped loop names)
+    loops_only = np.ones(len(names), dtype=bool)
+    loops_only[edges.ravel()] = False
+    used[old_ids[loops_only]] = True
+    for removing, (_, dnames, de, dnet) in diffs.items():
+        if dnet.n_self_loops:
+            alone = np.ones(len(dnames), dtype=bool)
+            alone[de.ravel()] = False  # named in the diff by its self-loops only
+            used[np.searchsorted(every, dnames[alone])] = not removing
     used[u] = used[v] = True
     new_id = np.cumsum(used) - 1  # the nodes left with an edge, in name order
     source = f"<network_{side}: the previous run's edges with the diff applied>"
     net = network_from_edges(every[used].astype(object), new_id[u], new_id[v], None, source=source,
                              directed=cfg.directed)
+    counts = state.meta.get("networks", {}).get(side) or {}
+    loops = counts.get("self_loops", 0) + sum(d[3].n_self_loops * (-1 if r else 1) for r, d in diffs.items())
+    repeats = counts.get("duplicate_edges", 0) + (diffs[False][3].n_duplicate_edges if False in diffs else 0)
+    net = dataclasses.replace(net, n_self_loops=max(loops, 0), n_duplicate_edges=repeats)
     return net, every is names and bool(used.all())
 
 

@@ -538,3 +538,25 @@ def test_edge_changes_name_the_ends_of_every_changed_edge(directed):
     n_add, n_del, ends = _edge_changes(old_arr, new_arr, to_new, n_new, directed)
     assert n_add == len(added) and n_del == len(old) - len(kept & new)
     assert ends.tolist() == want
+
+
+def test_edge_diffs_keep_nodes_named_by_self_loops_only(tmp_path):
+    # Reference: aligner.align on the edited files. The readers drop a self-loop but keep the
+    # node its line names (docs/formats.md); a diff applied to the state's edges must do the
+    # same, and report the same counts of loops and repeated edges as the edited file.
+    a = pd.DataFrame([("a1", "a2"), ("a2", "a3"), ("a3", "a4"), ("a4", "a1"), ("a1", "a3"), ("zz", "zz")])
+    b = pd.DataFrame([("b1", "b2"), ("b2", "b3"), ("b3", "b4"), ("b4", "b1"), ("b1", "b3"), ("yy", "yy")])
+    p = pd.DataFrame([("a1", "b1", 1.0), ("a2", "b2", 1.0), ("a3", "b3", 1.0), ("a4", "b4", 1.0), ("zz", "yy", 1.0)])
+    for name, frame in (("a.tsv", a), ("b.tsv", b), ("p.tsv", p)):
+        frame.to_csv(tmp_path / name, sep="\t", index=False, header=False)
+    write_outputs(tmp_path / "run", aligner.align(tmp_path / "a.tsv", tmp_path / "b.tsv", tmp_path / "p.tsv"))
+    added = pd.DataFrame([("a2", "a4"), ("a2", "a4"), ("ww", "ww")])  # a repeat, and a new node by a loop
+    added.to_csv(tmp_path / "add.tsv", sep="\t", index=False, header=False)
+    pd.concat([a, added]).to_csv(tmp_path / "a2.tsv", sep="\t", index=False, header=False)
+    upd = update(tmp_path / "run", add_a=tmp_path / "add.tsv")
+    ref = aligner.align(tmp_path / "a2.tsv", tmp_path / "b.tsv", tmp_path / "p.tsv")
+    assert list(upd.network_a.names) == list(ref.network_a.names) == ["a1", "a2", "a3", "a4", "ww", "zz"]
+    assert _pairs(upd) == _pairs(ref) and ("zz", "yy") in _pairs(upd)
+    for key in ("self_loops_dropped", "duplicate_edges_merged"):
+        assert upd.summary["inputs"]["network_a"][key] == ref.summary["inputs"]["network_a"][key]
+    assert upd.summary["update"]["changes"]["nodes_a_removed"] == 0
