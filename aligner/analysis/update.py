@@ -511,7 +511,10 @@ def _continued_refinement(state, maps: _Maps, x0: np.ndarray, record: dict):
         prod = problem.product.symmetrised()
         why = ("the run refines from several starts" if refine_starts(problem) > 1 else
                "the run has seed pairs" if problem.seed_index is not None else
-               "the run counts edges by agreement" if _counted_weights(cfg, prod) is not None else None)
+               "the run counts edges by agreement" if _counted_weights(cfg, prod) is not None else
+               # F then counts conserved edges alone: a matched pair that conserves none is a tie
+               # the search keeps and align's assignment leaves unmatched
+               "the run refines with beta 0" if cfg.beta == 0 else None)
         if why is not None:
             record.update(mode="full", reason=why)
             return None

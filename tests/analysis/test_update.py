@@ -6,6 +6,7 @@ diffusion scores differ by at most the sum of their certified bounds (summary er
 """
 
 import json
+from pathlib import Path
 
 import numpy as np
 import pandas as pd
@@ -560,3 +561,23 @@ def test_edge_diffs_keep_nodes_named_by_self_loops_only(tmp_path):
     for key in ("self_loops_dropped", "duplicate_edges_merged"):
         assert upd.summary["inputs"]["network_a"][key] == ref.summary["inputs"]["network_a"][key]
     assert upd.summary["update"]["changes"]["nodes_a_removed"] == 0
+
+
+def test_beta_zero_refines_as_align(tmp_path):
+    # Reference: aligner.align on the edited network. With beta 0 the refinement's objective
+    # counts conserved edges alone, so a previous match left conserving nothing is a tie that a
+    # search continued from the previous matching keeps and align's assignment breaks the other
+    # way (found by differential testing; tests/data/update_beta0/README.md): the update refines
+    # as align does and says why.
+    data = Path(__file__).parents[1] / "data" / "update_beta0"
+    opts = {"alpha": 0.5, "refine_starts": 1, "beta": 0.0, "directed": True}
+    write_outputs(tmp_path / "run", aligner.align(data / "a.tsv", data / "b.tsv", data / "p.tsv", **opts))
+    b = pd.read_csv(data / "b.tsv", sep="\t", header=None)
+    gone = pd.read_csv(data / "rem_b.tsv", sep="\t", header=None)
+    new = pd.read_csv(data / "add_b.tsv", sep="\t", header=None)
+    edited = pd.concat([b[~b.apply(tuple, axis=1).isin(set(gone.apply(tuple, axis=1)))], new])
+    edited.to_csv(tmp_path / "b2.tsv", sep="\t", index=False, header=False)
+    upd = update(tmp_path / "run", remove_b=data / "rem_b.tsv", add_b=data / "add_b.tsv")
+    ref = aligner.align(data / "a.tsv", tmp_path / "b2.tsv", data / "p.tsv", **opts)
+    assert upd.summary["update"]["refine"] == {"mode": "full", "reason": "the run refines with beta 0"}
+    _agree(upd, ref)
