@@ -245,6 +245,7 @@ def _with_prior_diff(state, add, remove, cfg: AlignConfig):
     Raises InputFormatError naming the first pair to remove that the previous prior lacks."""
     import pandas as pd
 
+    from aligner.core.prior import check_scores
     from aligner.io.inputs import as_table
 
     if cfg.prior_columns is not None:
@@ -263,6 +264,8 @@ def _with_prior_diff(state, add, remove, cfg: AlignConfig):
                               "node_b": np.asarray(t.text(1), dtype=object).astype(str)})
         if cols == 3:
             frame["score"] = t.numeric(2, "score")
+            # the score kind's rules where the rows are read, so a refusal names the file and line
+            check_scores(frame["score"].to_numpy(), cfg.score_kind, source=t.source, origin=t.origin)
         return frame
 
     table = rows(source, 3, "prior table")

@@ -154,11 +154,18 @@ def write_state(fh, arrays: dict, meta: dict) -> None:
 def read_state(path) -> RunState:
     """Read and check a state file; InputFormatError (exit 2) naming what is wrong."""
     path = Path(path)
+    if not path.exists():
+        raise InputFormatError("no such run: give the output directory of a previous run of align, demo or update",
+                               path=str(path))
     if path.is_dir():
         path = path / STATE_FILE
     if not path.is_file():
         raise InputFormatError(f"no run state in {path.parent}: {path.name} is missing (runs of this version keep "
                                "it; align again to get one)", path=str(path))
+    if not zipfile.is_zipfile(path):
+        raise InputFormatError(f"{path.name} is not a readable run state (not a {STATE_FILE} written by a run, or "
+                               "a damaged one); give the output directory of a previous run of align, demo or "
+                               "update", path=str(path))
     try:
         with np.load(path, allow_pickle=False) as z:
             meta = json.loads(str(z["meta"]))

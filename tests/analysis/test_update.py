@@ -146,6 +146,13 @@ def test_a_damaged_state_or_another_option_is_refused(base, tmp_path):
         update(d / "run", alpha=0.5)
     with pytest.raises(InputFormatError, match="missing"):
         update(tmp_path)
+    # common practice: a wrong PREVIOUS says what is expected, not a library's internals
+    with pytest.raises(InputFormatError, match="no such run"):
+        update(tmp_path / "nowhere")
+    (tmp_path / "a.tsv").write_text("u\tv\n")
+    with pytest.raises(InputFormatError, match="not a readable run state .not a state.npz") as err:
+        update(tmp_path / "a.tsv")
+    assert "pickle" not in str(err.value)
 
 
 def test_the_command_writes_the_files_and_refuses_cleanly(base, tmp_path):
@@ -381,6 +388,11 @@ def test_prior_diffs_give_what_the_edited_prior_gives(base, tmp_path):
     assert got.exit_code == 2 and "nowhere / b0" in got.output and not (tmp_path / "u").exists()
     with pytest.raises(InvalidParameterError, match="not both"):
         update(d / "run", prior=d / "p.tsv", add_prior=tmp_path / "add.tsv")
+    # an added row with a score the run's score kind refuses: the message names its file and line
+    # (common practice, as for the prior file itself)
+    neg = _write(tmp_path, "neg.tsv", pd.DataFrame({"node_a": ["a1", "a2"], "node_b": ["b1", "b2"], "score": [1.0, -3.0]}))
+    with pytest.raises(InputFormatError, match=r"neg\.tsv, line 3: the score -3"):
+        update(d / "run", add_prior=neg)
 
 
 @pytest.mark.parametrize("keep_order", [True, False])
