@@ -10,16 +10,19 @@ directory before any work is done and tidies up after a killed run; :func:`write
 
 from __future__ import annotations
 
+import csv
 import io as _io
 import json
 import math
 import os
+import re
 import shutil
 import signal
 import stat
 import tempfile
 from contextlib import contextmanager, suppress
 from pathlib import Path
+from typing import Iterable, Mapping
 
 import numpy as np
 import pandas as pd
@@ -28,11 +31,12 @@ import pyarrow as pa
 from aligner.io.state import STATE_FILE, write_state
 from aligner.checks import warn
 from aligner.core import tsv
-from aligner.errors import InvalidParameterError
+from aligner.errors import InputFormatError, InvalidParameterError
 
 __all__ = ["OUTPUT_FILES", "SWEEP_TABLE", "PRIOR_COLUMNS", "TRANSFER_TABLE", "TRANSFER_SELECTION", "check_outdir",
            "write_outputs", "write_sweep_outputs", "write_prior_table", "read_transferred", "write_transfer_selection",
-           "write_text_atomic", "publish_outputs", "recover_interrupted", "table_text", "json_text"]
+           "write_text_atomic", "publish_outputs", "recover_interrupted", "table_text", "json_text", "read_run_table",
+           "read_summary", "damaged_output", "RERUN_ALIGN", "RERUN_SWEEP"]
 
 #: The table of interactions carried across the alignment, one of :data:`OUTPUT_FILES`.
 TRANSFER_TABLE = "transferred_edges.tsv"
@@ -498,21 +502,180 @@ def write_prior_table(df: pd.DataFrame, path: str | os.PathLike, *, force: bool 
                                     "another path with --out.") from None
 
 
+#: what a run's output that cannot be read back says to do (``{dir}``: the run's directory)
+RERUN_ALIGN = "rerun the alignment into {dir} (aligner align ... -o {dir} --force)"
+RERUN_SWEEP = "rerun the sweep into {dir} (aligner sweep ... -o {dir} --force)"
+#: the columns of transferred_edges.tsv as :func:`read_run_table` checks them (docs/formats.md)
+TRANSFER_COLUMNS = {"direction": ("A->B", "B->A"), "node_a1": "name", "node_a2": "name", "node_b1": "name",
+                    "node_b2": "name", "support": "number", "confidence_1": "number", "confidence_2": "number",
+                    "score_1": "number", "score_2": "number", "triangles": "number", "common_neighbours": "number",
+                    "weight": "number"}
+#: the columns of transferred_edges.tsv that ``aligner transfer`` and the report need
+TRANSFER_REQUIRED = ("direction", "node_a1", "node_a2", "node_b1", "node_b2", "support", "triangles",
+                     "common_neighbours")
+
+
+def damaged_output(path: str | os.PathLike, problem: str, *, line: int | None = None,
+                   rerun: str = RERUN_ALIGN) -> InputFormatError:
+    """The error for an output of a run that cannot be read back: ``problem``, then what to do."""
+    path = Path(path)
+    return InputFormatError(f"{problem}; the run's outputs look damaged: {rerun.format(dir=path.parent)}",
+                            path=str(path), line=line)
+
+
+def _raw_line(path: Path, number: int) -> str | None:
+    """Line ``number`` (1-based) of the file, without its line end; None past the end."""
+    with open(path, encoding="utf-8", errors="replace", newline="") as fh:
+        for i, line in enumerate(fh, 1):
+            if i == number:
+                return line.rstrip("\r\n")
+    return None
+
+
+def _is_number(col: pd.Series, na: bool) -> np.ndarray:
+    """Per field: whether it reads as a number (with ``na``, an empty field or NA also passes)."""
+    if pd.api.types.is_numeric_dtype(col):
+        return np.ones(len(col), dtype=bool)
+    ok = pd.to_numeric(col, errors="coerce").notna().to_numpy() | (col.str.strip().str.lower() == "nan").to_numpy()
+    if na:
+        ok |= col.isin(("", "NA")).to_numpy()
+    return ok
+
+
+def _field_problem(df: pd.DataFrame, row: int, columns: Mapping[str, object]) -> str:
+    """What is wrong with the first bad field of ``row``."""
+    for name, kind in columns.items():
+        if name not in df:
+            continue
+        value = df[name].iat[row]
+        if kind == "name" and value == "":
+            return f"the {name} field is empty"
+        if isinstance(kind, tuple) and value not in kind:
+            return f"the {name} field {value!r} is not one of {', '.join(kind)}"
+        if kind in ("number", "number?") and not _is_number(df[name].iloc[row:row + 1], kind == "number?")[0]:
+            return f"the {name} field {value!r} is not a number" if value else f"the {name} field is empty"
+    return "the row is malformed"
+
+
+def read_run_table(path: str | os.PathLike, columns: Mapping[str, object], *, required: Iterable[str] = (),
+                   rerun: str = RERUN_ALIGN) -> pd.DataFrame:
+    """A tab-separated table a run wrote (alignment.tsv, conserved_edges.tsv, ...), read back and checked.
+
+    ``columns`` says what each column the caller uses must hold: ``"name"`` (non-empty text),
+    ``"text"`` (any text), ``"number"``, ``"number?"`` (a number, or empty or NA for a missing
+    value) or a tuple of the allowed values; ``required`` are those that must be in the header
+    (the others are checked when present). Text columns come back as text, number columns as
+    numbers, other columns as pandas reads them. Blank lines are skipped.
+
+    Raises
+    ------
+    InputFormatError
+        The file cannot be read, is empty, lacks a required column, or has a row with too few or
+        too many fields or a field that is not what its column holds: the message names the file
+        and the line, and says to rerun the run (``rerun``, with ``{dir}`` its directory).
+    """
+    path = Path(path)
+    try:
+        df = pd.read_csv(path, sep="\t", dtype={c: str for c, k in columns.items() if k not in ("number", "number?")},
+                         keep_default_na=False, skip_blank_lines=False, encoding="utf-8")
+    except pd.errors.EmptyDataError:
+        raise damaged_output(path, "the file is empty", rerun=rerun) from None
+    except pd.errors.ParserError as exc:
+        found = re.search(r"Expected (\d+) fields in line (\d+), saw (\d+)", str(exc))
+        if found is None:
+            raise damaged_output(path, "the file cannot be parsed as a tab-separated table", rerun=rerun) from None
+        want, line, saw = (int(g) for g in found.groups())
+        raise damaged_output(path, f"the row has {saw} fields where the header has {want}", line=line,
+                             rerun=rerun) from None
+    except UnicodeDecodeError:
+        raise damaged_output(path, "the file is not UTF-8 text", rerun=rerun) from None
+    except OSError as exc:
+        raise InputFormatError(f"the file cannot be read ({exc.strerror or exc})", path=str(path)) from None
+    if not isinstance(df.index, pd.RangeIndex):  # pandas took the first column as an index: line 2 is too long
+        raise damaged_output(path, f"the row has more fields than the header's {df.shape[1]}", line=2, rerun=rerun)
+    missing = [c for c in required if c not in df.columns]
+    if missing:
+        raise damaged_output(path, f"the header lacks the column{'s' if len(missing) > 1 else ''} "
+                             f"{', '.join(missing)}", line=1, rerun=rerun)
+    bad = np.zeros(len(df), dtype=bool)
+    for name, kind in columns.items():
+        if name not in df:
+            continue
+        col = df[name]
+        if kind == "name":
+            bad |= (col == "").to_numpy()
+        elif isinstance(kind, tuple):
+            bad |= ~col.isin(kind).to_numpy()
+        elif kind in ("number", "number?"):
+            bad |= ~_is_number(col, kind == "number?")
+    if bad.any():  # a blank line is a row of empty fields (so line numbers hold): skipped, as a reader would
+        blank = np.ones(len(df), dtype=bool)
+        for _, col in df.items():
+            blank &= (col == "").to_numpy() if not pd.api.types.is_numeric_dtype(col) else False
+        bad &= ~blank
+        df = df.loc[~blank] if blank.any() else df
+    if bad.any():
+        row = int(np.flatnonzero(bad)[0])
+        line = row + 2  # the header is line 1; blank lines were read as rows, so the count holds
+        raw = _raw_line(path, line)
+        fields = None if raw is None else len(next(csv.reader([raw], delimiter="\t"), [""]))
+        if fields is not None and fields != df.shape[1]:
+            problem = f"the row has {fields} field{'s' if fields != 1 else ''} where the header has {df.shape[1]}"
+        else:
+            problem = _field_problem(df, df.index.get_loc(row), columns)
+        raise damaged_output(path, problem, line=line, rerun=rerun)
+    df = df.reset_index(drop=True)
+    for name, kind in columns.items():
+        if kind in ("number", "number?") and name in df and not pd.api.types.is_numeric_dtype(df[name]):
+            df[name] = pd.to_numeric(df[name], errors="coerce")  # numbers, nan/inf or (checked) missing values
+    return df
+
+
+def read_summary(outdir: str | os.PathLike, *, rerun: str = RERUN_ALIGN) -> dict:
+    """``outdir/summary.json`` of a finished run, as a dict.
+
+    Raises
+    ------
+    InputFormatError
+        The file cannot be read or is not a JSON object (naming the line of a JSON syntax error).
+    """
+    path = Path(outdir) / "summary.json"
+    try:
+        text = path.read_text(encoding="utf-8")
+    except UnicodeDecodeError:
+        raise damaged_output(path, "the file is not UTF-8 text", rerun=rerun) from None
+    except OSError as exc:
+        raise InputFormatError(f"the file cannot be read ({exc.strerror or exc})", path=str(path)) from None
+    try:
+        summary = json.loads(text)
+    except json.JSONDecodeError as exc:
+        raise damaged_output(path, f"the file is not valid JSON ({exc.msg} at column {exc.colno})",
+                             line=exc.lineno, rerun=rerun) from None
+    except RecursionError:
+        raise damaged_output(path, "the file is not valid JSON (nested too deeply)", rerun=rerun) from None
+    if not isinstance(summary, dict):
+        raise damaged_output(path, "the file does not hold a JSON object", rerun=rerun)
+    return summary
+
+
 def read_transferred(outdir: str | os.PathLike) -> pd.DataFrame:
-    """The table ``outdir/transferred_edges.tsv`` of a finished run, node names as text.
+    """The table ``outdir/transferred_edges.tsv`` of a finished run, node names as text, checked
+    by :func:`read_run_table`.
 
     Raises
     ------
     InvalidParameterError
         When ``outdir`` holds no such file (not a run's directory, or a run from before the
         file was written).
+    InputFormatError
+        When the file is damaged: empty, a column missing, a row too short or too long, a field
+        that is not what its column holds (naming the line).
     """
     path = Path(outdir) / TRANSFER_TABLE
     if not path.is_file():
         raise InvalidParameterError(f"'{outdir}' holds no {TRANSFER_TABLE} (not a run's output directory, or "
                                     "written before aligner wrote that file); run aligner align -o there again.")
-    names = {c: str for c in ("direction", "node_a1", "node_a2", "node_b1", "node_b2")}
-    return pd.read_csv(path, sep="\t", keep_default_na=False, dtype=names)
+    return read_run_table(path, TRANSFER_COLUMNS, required=TRANSFER_REQUIRED)
 
 
 def write_transfer_selection(outdir: str | os.PathLike, table: pd.DataFrame) -> Path:

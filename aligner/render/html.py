@@ -12,7 +12,8 @@ import numpy as np
 import pandas as pd
 
 from aligner.errors import AlignerError, InvalidParameterError
-from aligner.io.outputs import TRANSFER_TABLE, read_transferred
+from aligner.io.outputs import (RERUN_SWEEP, TRANSFER_TABLE, damaged_output, read_run_table, read_summary,
+                                read_transferred)
 from aligner.io.readers import read_network, read_table
 from aligner.render import explorer
 from aligner.render.figures import (LABEL_ALL_UP_TO, LABELLED_HUBS, degree_plot, figure_bytes, histogram,
@@ -221,15 +222,69 @@ def _truth_flags(pairs: pd.DataFrame, summary: dict, truth, delimiter, header) -
                    "of A that it names; — : the node is not in the table).")
 
 
+#: what the report reads from summary.json by name, parents before children: (key, what it must
+#: be, whether it may be absent or null); a child is looked at only when its parent is there
+_SUMMARY_SHAPE = (
+    ("inputs", dict, False), ("inputs.network_a", dict, False), ("inputs.network_a.source", str, False),
+    ("inputs.network_a.nodes", int, False), ("inputs.network_a.edges", int, False),
+    ("inputs.network_b", dict, False), ("inputs.network_b.source", str, False),
+    ("inputs.network_b.nodes", int, False), ("inputs.network_b.edges", int, False),
+    ("inputs.prior", dict, True), ("inputs.prior.source", str, False), ("inputs.prior.rows", int, False),
+    ("inputs.prior.pairs", int, False), ("inputs.truth", dict, True), ("inputs.truth.source", str, False),
+    ("parameters", dict, True), ("sizes", dict, True), ("scores", dict, False),
+    ("significance", dict, True), ("significance.random_bijection", dict, True),
+    ("significance.candidate_maps", dict, True), ("seeds", dict, True),
+    ("seeds.scores_without_seed_edges", dict, True), ("seeds.expansion", dict, True),
+    ("seeds.expansion.accepted_per_round", list, True), ("refine", dict, True), ("refine.starts", list, True),
+    ("ambiguity", dict, True),
+    *((f"ambiguity.{k}", float, False) for k in ("groups", "nodes_in_groups", "largest_group",
+                                                  "neutral_exchanges", "indistinguishable_pairs",
+                                                  "prior_tolerance")),
+)
+_KIND_TEXT = {dict: "an object", list: "a list", str: "text", int: "a whole number", float: "a number"}
+
+
+def _summary_problem(summary: dict) -> str | None:
+    """What in ``summary`` is not as the report reads it (:data:`_SUMMARY_SHAPE`), or None."""
+    for key, kind, optional in _SUMMARY_SHAPE:
+        holder: object = summary
+        for part in key.split(".")[:-1]:
+            holder = holder.get(part) if isinstance(holder, dict) else None
+        if not isinstance(holder, dict):
+            continue  # an optional parent left out (a bad one was named before)
+        value = holder.get(key.rsplit(".", 1)[-1])
+        if value is None:
+            if optional:
+                continue
+            return f"'{key}' is missing"
+        ok = (isinstance(value, (int, float)) if kind is float else isinstance(value, kind)) \
+            and not (kind in (int, float) and isinstance(value, bool))
+        if not ok:
+            return f"'{key}' is not {_KIND_TEXT[kind]}: {json.dumps(value)[:40]}"
+    return None
+
+
+#: alignment.tsv's and conserved_edges.tsv's columns as the report reads them (docs/formats.md)
+_ALIGNMENT_COLUMNS = {"node_a": "name", "node_b": "name", "score": "number", "prior": "number",
+                      "conserved": "number", "confidence": "number", "alternatives": "text"}
+_CONSERVED_COLUMNS = {"node_a1": "name", "node_a2": "name", "node_b1": "name", "node_b2": "name"}
+#: sweep.tsv's columns as the report reads them (nc is NA without a truth table)
+_SWEEP_COLUMNS = {"alpha": "number", "conserved_edges": "number", "prior_weight": "number", "ec": "number?",
+                  "ics": "number?", "s3": "number?", "nc": "number?", "matched_pairs": "number?"}
+
+
 def _load_run(out: Path, network_a, network_b, delimiter: str | None, header: str, truth=None) -> _Run:
     need = [out / "summary.json", out / "alignment.tsv", out / "conserved_edges.tsv"]
     missing = [p.name for p in need if not p.is_file()]
     if missing:
         raise InvalidParameterError(f"'{out}' does not hold a finished run: {', '.join(missing)} missing; run "
                                     "aligner align -o there first.")
-    summary = json.loads((out / "summary.json").read_text(encoding="utf-8"))
-    pairs = pd.read_csv(out / "alignment.tsv", sep="\t", keep_default_na=False, dtype={"node_a": str, "node_b": str})
-    cons = pd.read_csv(out / "conserved_edges.tsv", sep="\t", keep_default_na=False, dtype=str)
+    summary = read_summary(out)
+    problem = _summary_problem(summary)
+    if problem is not None:
+        raise damaged_output(out / "summary.json", problem)
+    pairs = read_run_table(out / "alignment.tsv", _ALIGNMENT_COLUMNS, required=("node_a", "node_b", "score"))
+    cons = read_run_table(out / "conserved_edges.tsv", _CONSERVED_COLUMNS, required=("node_a1", "node_a2"))
     src_a = network_a if network_a is not None else summary["inputs"]["network_a"]["source"]
     if network_b is not None and not Path(network_b).exists():
         raise InvalidParameterError(f"network B '{network_b}' does not exist")
@@ -342,7 +397,8 @@ def _sweep_section(out: Path) -> str:
         return ""
     from aligner.analysis.sweep import KNEE_RULE, knee_index
 
-    tab = pd.read_csv(out / "sweep.tsv", sep="\t")
+    tab = read_run_table(out / "sweep.tsv", _SWEEP_COLUMNS, required=("alpha", "conserved_edges", "prior_weight"),
+                         rerun=RERUN_SWEEP)
     knee = knee_index(tab["prior_weight"], tab["conserved_edges"])
     cap = f"One point per α from sweep.tsv. Knee: {KNEE_RULE}."
     if knee is not None:
@@ -444,13 +500,12 @@ def _ambiguity_section(summary: dict, pairs: pd.DataFrame) -> str:
 SUPPORT_QUANTILES = (0.0, 0.25, 0.5, 0.75, 0.9, 0.99, 1.0)
 
 
-def _transfer_section(out: Path) -> str:
-    """Counts per direction, the support distribution and the best rows of transferred_edges.tsv;
-    a note when the run predates that file."""
-    if not (out / TRANSFER_TABLE).is_file():
+def _transfer_section(tab: pd.DataFrame | None) -> str:
+    """Counts per direction, the support distribution and the best rows of transferred_edges.tsv
+    (``tab``, as read with the run); a note when the run predates that file (``tab`` None)."""
+    if tab is None:
         return (f"<section><h2>Transferred interactions</h2><p class='note'>This run has no {TRANSFER_TABLE} "
                 "(written by align since the file was introduced); align again to see this section.</p></section>")
-    tab = read_transferred(out)
     head = "<tr><th>direction</th><th>edges</th>" + "".join(f"<th>q{q:g}</th>" for q in SUPPORT_QUANTILES) + "</tr>"
     body = ""
     for d, meaning in (("A->B", "edges of A whose image is not an edge of B"),
@@ -507,7 +562,8 @@ def build_report(outdir, *, network_a=None, network_b=None, delimiter: str | Non
     sections = [_inputs_section(run.summary), _scores_section(run.summary), _weighted_section(run.summary),
                 _seeds_section(run.summary), _sweep_section(run.out), explorer.explorer_section(data, truth_note),
                 _distributions_section(run), _subgraph_section(run), _pairs_sections(run.pairs, run.truth),
-                _refine_section(run.summary), _ambiguity_section(run.summary, run.pairs), _transfer_section(run.out)]
+                _refine_section(run.summary), _ambiguity_section(run.summary, run.pairs),
+                _transfer_section(run.transferred)]
     path = run.out / REPORT_FILE
     write_text_atomic(path, _page(run.out, run.summary.get("version", ""), [s for s in sections if s]))
     return path

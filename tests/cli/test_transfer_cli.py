@@ -80,3 +80,40 @@ def test_transfer_refuses_a_run_without_the_file(run_dir, tmp_path):
 def test_transfer_refuses_a_bad_option(run_dir):
     res = runner.invoke(app, ["transfer", str(run_dir), "--min-support", "-1"])
     assert res.exit_code == 2 and "--min-support" in res.output
+
+
+def _damage_short_row(path):
+    lines = path.read_text().splitlines(keepends=True)
+    lines.insert(2, "A->B\tx\ty\n")  # line 3: three fields under a header of twelve
+    path.write_text("".join(lines))
+
+
+def _damage_bad_number(path):
+    lines = path.read_text().splitlines(keepends=True)
+    fields = lines[3].split("\t")
+    fields[5] = "high"  # line 4: the support is not a number
+    lines[3] = "\t".join(fields)
+    path.write_text("".join(lines))
+
+
+@pytest.mark.parametrize("damage, where, what", [
+    (lambda p: p.write_text(""), "transferred_edges.tsv:", "the file is empty"),
+    (_damage_short_row, "transferred_edges.tsv, line 3:", "the row has 3 fields where the header has 12"),
+    (_damage_bad_number, "transferred_edges.tsv, line 4:", "the support field 'high' is not a number"),
+    (lambda p: p.write_text("direction\tnode_a1\n"), "transferred_edges.tsv, line 1:", "the header lacks"),
+], ids=["empty", "short-row", "bad-number", "header"])
+def test_transfer_refuses_a_damaged_table(run_dir, tmp_path, damage, where, what):
+    # common practice: bad input gives exit 2 and one line naming the file and the line, no traceback
+    # and nothing written (docs/errors.md); found by fuzzing, where pandas' EmptyDataError and a
+    # TypeError on a short row escaped as tracebacks
+    bad = tmp_path / "bad"
+    shutil.copytree(run_dir, bad)
+    (bad / "transferred_selected.tsv").unlink(missing_ok=True)
+    damage(bad / "transferred_edges.tsv")
+    res = runner.invoke(app, ["transfer", str(bad)])
+    assert res.exit_code == 2, res.output
+    text = " ".join(res.output.split())
+    assert "Traceback" not in res.output and text.count("error:") == 1
+    assert f"error: {bad / where}" in text and what in text, text
+    assert "the run's outputs look damaged" in text and f"-o {bad} --force" in text
+    assert not (bad / "transferred_selected.tsv").exists()

@@ -102,6 +102,66 @@ def test_report_needs_a_finished_run(tmp_path):
     assert r.exit_code == 2 and "summary.json" in r.output
 
 
+def _rewrite_line(path, number, text):
+    lines = path.read_text(encoding="utf-8").splitlines(keepends=True)
+    lines[number - 1] = text
+    path.write_text("".join(lines), encoding="utf-8")
+
+
+def _drop_key(path, *keys):
+    summary = json.loads(path.read_text())
+    holder = summary
+    for key in keys[:-1]:
+        holder = holder[key]
+    del holder[keys[-1]]
+    path.write_text(json.dumps(summary, indent=2))
+
+
+@pytest.mark.parametrize("file, damage, where, what", [
+    ("summary.json", lambda p: p.write_text('{\n  "version": "0.1.0",\n  not json\n'), "summary.json, line 3:",
+     "the file is not valid JSON"),
+    ("summary.json", lambda p: _drop_key(p, "inputs", "network_a", "nodes"), "summary.json:",
+     "'inputs.network_a.nodes' is missing"),
+    ("transferred_edges.tsv", lambda p: p.write_text(""), "transferred_edges.tsv:", "the file is empty"),
+    ("transferred_edges.tsv", lambda p: _rewrite_line(p, 3, "A->B\tx\ty\n"), "transferred_edges.tsv, line 3:",
+     "the row has 3 fields where the header has 12"),
+    ("alignment.tsv", lambda p: _rewrite_line(p, 5, "a1\tb1\t?\t1\t2\t0.5\t\n"), "alignment.tsv, line 5:",
+     "the score field '?' is not a number"),
+    ("conserved_edges.tsv", lambda p: _rewrite_line(p, 2, "a1\n"), "conserved_edges.tsv, line 2:",
+     "the row has 1 field where the header has 4"),
+    ("sweep.tsv", lambda p: _rewrite_line(p, 4, "0.8\t12\n"), "sweep.tsv, line 4:", "the row has 2 fields"),
+], ids=["json", "summary-key", "transfer-empty", "transfer-short", "alignment-number", "conserved-short", "sweep"])
+def test_report_refuses_a_damaged_run(run_dir, tmp_path, file, damage, where, what):
+    # common practice: bad input gives exit 2 and one line naming the file and the line, no traceback
+    # and nothing written (docs/errors.md); found by fuzzing, where an empty or short
+    # transferred_edges.tsv and a summary.json that is not JSON escaped as tracebacks
+    bad = tmp_path / "bad"
+    shutil.copytree(run_dir, bad)
+    (bad / "report.html").unlink()
+    damage(bad / file)
+    r = CliRunner().invoke(app, ["report", str(bad)])
+    assert r.exit_code == 2, r.output
+    text = " ".join(r.output.split())
+    assert "Traceback" not in r.output and text.count("error:") == 1
+    assert f"error: {bad / where}" in text and what in text, text
+    rerun = "sweep" if file == "sweep.tsv" else "align"
+    assert "the run's outputs look damaged" in text and f"aligner {rerun} ... -o {bad} --force" in text
+    assert not (bad / "report.html").exists()
+
+
+def test_report_skips_blank_lines_of_a_run_table(run_dir, tmp_path):
+    # a blank line carries no row (as pandas' reader skipped it before the run's tables were
+    # checked); a damaged line after it is still named by its own number
+    copy = tmp_path / "copy"
+    shutil.copytree(run_dir, copy)
+    lines = (copy / "alignment.tsv").read_text().splitlines(keepends=True)
+    (copy / "alignment.tsv").write_text("".join(lines[:3] + ["\n"] + lines[3:]))
+    assert build_report(copy).is_file()
+    (copy / "alignment.tsv").write_text("".join(lines[:3] + ["\n"] + lines[3:5] + ["a1\n"] + lines[5:]))
+    r = CliRunner().invoke(app, ["report", str(copy)])
+    assert r.exit_code == 2 and "alignment.tsv, line 7: the row has 1 field" in " ".join(r.output.split())
+
+
 def test_report_network_override(run_dir, tmp_path):
     # the input networks moved: --a points to them
     summary = json.loads((run_dir / "summary.json").read_text())
