@@ -44,14 +44,21 @@ def interval_text(low: float | None, high: float | None, closed: str = "both") -
 
 def check_real(value: object, name: str, *, low: float | None = None, high: float | None = None,
                closed: str = "both") -> float:
-    """Return ``value`` as a float after checking it is a number in the stated interval.
+    """Return ``value`` as a float after checking it is a finite number in the stated interval.
 
-    ``closed`` is one of "both", "left", "right", "neither" and says which ends belong to it.
+    ``closed`` is one of "both", "left", "right", "neither" and says which ends belong to it. An
+    end left out is unbounded, and infinity itself is refused (as NaN is): ``[0, inf)`` is open at
+    infinity, and no option gives infinity a meaning.
     """
-    must = "a number" if low is None and high is None else f"a number in {interval_text(low, high, closed)}"
-    if isinstance(value, bool) or not isinstance(value, Real) or math.isnan(float(value)):
+    must = "a finite number" if low is None and high is None else f"a number in {interval_text(low, high, closed)}"
+    if isinstance(value, bool) or not isinstance(value, Real):
         raise bad_parameter(name, must, value)
-    v = float(value)
+    try:
+        v = float(value)
+    except OverflowError:  # an int too large for a float
+        raise bad_parameter(name, must, value) from None
+    if not math.isfinite(v):
+        raise bad_parameter(name, must, value)
     if low is not None and (v < low or (v == low and closed in ("right", "neither"))):
         raise bad_parameter(name, must, value)
     if high is not None and (v > high or (v == high and closed in ("left", "neither"))):

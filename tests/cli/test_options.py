@@ -287,3 +287,50 @@ def test_command_reference_page_is_current():
     out = subprocess.run([sys.executable, str(root / "scripts" / "dev" / "cli_reference.py"), "--check"],
                          capture_output=True, text=True, cwd=root)
     assert out.returncode == 0, out.stdout + out.stderr
+
+
+# --------------------------------------------------------------------------- no option takes infinity
+
+def _real_options():
+    """Every real-valued option: (class, field, spec, command line without the option)."""
+    from aligner.config import ClassConfig, TransferConfig
+
+    a, b, p = str(A), str(B), str(PRIOR)
+    commands = [(AlignConfig, ["align", a, b, "-p", p, "-o", "{out}"]),
+                (QueryConfig, ["query", a, b, "-p", p, "-n", "a1"]),
+                (LabelConfig, ["prior-from-labels", a, b, "-o", "{out}"]),
+                (ClassConfig, ["prior-from-classes", a, b, "-o", "{out}"]),
+                (TransferConfig, ["transfer", "{out}"])]
+    return [(cls, name, spec, argv) for cls, argv in commands for name, (_, spec) in specs(cls).items()
+            if spec.kind == "real"]
+
+
+REALS = _real_options()
+
+
+@pytest.mark.parametrize("typed", ["inf", "-inf"])
+@pytest.mark.parametrize("cls, name, spec, argv", REALS, ids=[f"{r[0].__name__}.{r[1]}" for r in REALS])
+def test_no_real_option_takes_infinity(tmp_path, cls, name, spec, argv, typed):
+    # Found by fuzzing: options with no upper bound took 'inf' (help "[0, inf)": open at infinity),
+    # and align --beta inf died in the assignment kernel, query --seed-weight inf printed "score": null,
+    # prior-from-classes --score inf wrote a prior that align then refused. Common practice (as for
+    # NaN): a value outside the documented interval is refused before any work, exit 2, naming the option.
+    out = tmp_path / "out"
+    res = runner.invoke(app, [t.replace("{out}", str(out)) for t in argv] + [spec.flag, typed])
+    assert res.exit_code == 2, res.output
+    text = " ".join(res.output.split())
+    assert "Traceback" not in res.output and f"error: {spec.flag} must be a " in text and f"got {typed}" in text, text
+    assert not out.exists()
+    with pytest.raises(InvalidParameterError, match=rf"^{name} must be a .*; got -?inf$"):
+        cls(**{name: float(typed)})  # the same check from Python, naming the keyword
+
+
+def test_check_real_refuses_what_is_not_a_finite_number():
+    # the check behind every real option: a number outside the floats (an int too large for one)
+    # is refused like infinity, not left to raise OverflowError
+    from aligner.checks import check_real
+
+    assert check_real(2.5, "x") == 2.5 and check_real(3, "x", low=0.0) == 3.0
+    for value in (float("inf"), float("-inf"), float("nan"), 10**400):
+        with pytest.raises(InvalidParameterError, match=r"^x must be a finite number; got "):
+            check_real(value, "x")
