@@ -22,7 +22,7 @@ from aligner.errors import ConvergenceError
 from aligner.core.network import row_sums
 from aligner.core.product import ProductGraph
 
-__all__ = ["DiffusionResult", "diffuse", "column_scale", "prior_vector", "default_work_cap"]
+__all__ = ["DiffusionResult", "diffuse", "column_scale", "prior_vector", "default_work_cap", "MAX_WORK_CAP"]
 
 SOLVERS = ("push", "power")
 #: the push solver hands over from passes in index order to its work queue when a pass pushes
@@ -168,12 +168,21 @@ def diffuse(
                            time.perf_counter() - t0)
 
 
+#: the most work a cap allows: the default caps grow as 1 / (1 - alpha), past what an int64 holds
+#: (the compiled push kernels take the cap as one) once 1 - alpha is below about 2e-17 m
+MAX_WORK_CAP = 2**62
+
+
 def default_work_cap(solver: str, m: int, alpha: float, tol: float) -> int:
     """The default cap on the work of a solve: 200 m / (1 - alpha) + 10^6 pushes (push), or
-    100 ln(1 / min(tol, 0.5)) / (1 - alpha) + 10 iterations (power)."""
+    100 ln(1 / min(tol, 0.5)) / (1 - alpha) + 10 iterations (power); at most
+    :data:`MAX_WORK_CAP`."""
     if solver == "push":
-        return int(200 * m / (1 - alpha)) + 10**6
-    return int(100 * np.log(1 / min(tol, 0.5)) / (1 - alpha)) + 10
+        work, extra = 200 * m / (1 - alpha), 10**6
+    else:
+        work, extra = 100 * float(np.log(1 / min(tol, 0.5))) / (1 - alpha), 10
+    # clipped as a float, before int(): past 2**63 the int would not fit the kernels' int64 arguments
+    return min(int(min(work, MAX_WORK_CAP)) + extra, MAX_WORK_CAP)
 
 
 def _exact_residual(graph: ProductGraph, scale, alpha: float, x, b, out) -> float:
@@ -222,7 +231,8 @@ def _solve_push(graph: ProductGraph, scale, alpha: float, tol: float, x, r, b, m
     total = thresh.sum()
     thresh *= tol
     thresh /= total
-    cap = check_int(default_work_cap("push", m, alpha, tol) if max_work is None else max_work, "max_work", low=0)
+    cap = min(check_int(default_work_cap("push", m, alpha, tol) if max_work is None else max_work, "max_work", low=0),
+              MAX_WORK_CAP)  # the compiled kernels count in int64
     wts = np.empty(0) if graph.weights is None else graph.weights
     active = np.abs(r) > thresh
     if np.count_nonzero(active) < QUEUE_FRACTION * m:

@@ -372,3 +372,28 @@ def test_scores_are_floats_whatever_the_input_type():
     res = diffuse(prod, h, column_scale(prod), alpha=0.0)
     assert res.x.dtype == np.float64 and res.x.tolist() == h.tolist()
     assert prior_vector(np.array([], dtype=np.int64)).dtype == np.float64
+
+
+def test_default_work_caps_saturate_below_int64():
+    # Found by fuzzing: alpha = 0.9999999999999999 passes the [0, 1) check, and the push cap
+    # 200 m / (1 - alpha) overflowed the compiled kernels' int64 ("Int value is too large").
+    # Common practice: a count handed to int64 code is clipped below 2**63 (here at 2**62).
+    alpha = float(np.nextafter(1.0, 0.0))
+    assert alpha == 0.9999999999999999
+    for solver in ("push", "power"):
+        assert default_work_cap(solver, 10**9, alpha, 1e-300) == 2**62 < np.iinfo(np.int64).max
+    assert default_work_cap("push", 50, 1 - 2**-20, 1e-6) == int(200 * 50 * 2**20) + 10**6  # unclipped where it fits
+
+
+def test_alpha_next_to_one_solves_where_the_mass_drains():
+    # the same alpha through the push kernel: pairs without neighbours pass nothing on, so the solve
+    # ends at once, x = (1 - alpha) h (the definition x = alpha P x + (1 - alpha) h with P = 0); it
+    # failed while compiling the call, the default cap too large for int64
+    alpha, n = float(np.nextafter(1.0, 0.0)), 12  # 200 n / (1 - alpha) > 2**63 from n = 6
+    cand = build_candidates(np.repeat(np.arange(n), 2).reshape(n, 2), np.arange(1.0, n + 1), n, n, top_k=None)
+    bare = np.zeros(n + 1, dtype=np.int64), np.zeros(0, dtype=np.int32)  # n nodes, no edges
+    prod = build_product(*bare, *bare, cand)
+    h = prior_vector(cand.prior)
+    for solver in ("push", "power"):
+        res = diffuse(prod, h, column_scale(prod), alpha=alpha, tol=1e-20, solver=solver)
+        np.testing.assert_allclose(res.x, (1 - alpha) * h, rtol=1e-12)
