@@ -1,5 +1,9 @@
 """The package's exceptions: one base class, each subclass also a built-in error."""
 
+from __future__ import annotations
+
+from collections.abc import Mapping
+
 __all__ = [
     "AlignerError",
     "InputFormatError",
@@ -56,12 +60,39 @@ class NoCandidatesError(AlignerError, ValueError):
 
 
 class ConvergenceError(AlignerError, RuntimeError):
-    """A solver stopped at its work cap before reaching the requested residual."""
+    """A solver stopped at its work cap before reaching the requested residual.
 
-    def __init__(self, message: str, *, iterations: int, residual: float):
+    ``advice`` lists the ways out as ``(verb, keyword, value)``: ``("raise {}", "tol", None)``,
+    ``("try {}", "solver", "power")``; the keyword may be a tuple of those that set the same thing
+    in different places (``("alpha", "alphas")``). The message names the Python keywords (``raise
+    tol``, ``try solver='power'``; the first of a tuple); :meth:`shown` names the command-line
+    options instead and leaves out a keyword that has none.
+    """
+
+    def __init__(self, message: str, *, iterations: int, residual: float,
+                 advice: tuple[tuple[str, str | tuple[str, ...], object], ...] = ()):
         self.iterations = iterations
         self.residual = residual
-        super().__init__(f"{message} (stopped after {iterations} steps with 1-norm residual {residual:.3e})")
+        self.bare = message
+        self.advice = tuple(advice)
+        super().__init__(self.shown())
+
+    def shown(self, flags: Mapping[str, str] | None = None) -> str:
+        """The message, its advice naming the Python keywords, or with ``flags`` (keyword -> option
+        as typed) the options, leaving out the keywords ``flags`` lacks."""
+        ways = []
+        for verb, keywords, value in self.advice:
+            keywords = (keywords,) if isinstance(keywords, str) else tuple(keywords)
+            if flags is None:
+                ways.append(verb.format(keywords[0] if value is None else f"{keywords[0]}={value!r}"))
+                continue
+            flag = next((flags[k] for k in keywords if k in flags), None)
+            if flag is not None:
+                ways.append(verb.format(flag if value is None else f"{flag} {value}"))
+        text = self.bare
+        if ways:
+            text += "; " + (ways[0] if len(ways) == 1 else ", ".join(ways[:-1]) + " or " + ways[-1])
+        return f"{text} (stopped after {self.iterations} steps with 1-norm residual {self.residual:.3e})"
 
 
 class AlignerWarning(UserWarning):

@@ -17,7 +17,7 @@ import typer
 from rich.console import Console
 from rich.markup import escape
 
-from aligner.errors import AlignerError, AlignerWarning, InputFormatError
+from aligner.errors import AlignerError, AlignerWarning, ConvergenceError, InputFormatError
 
 __all__ = ["out", "err", "say", "message", "user_errors", "progress", "check_inputs"]
 
@@ -31,8 +31,9 @@ def say(text: str, *, console: Console | None = None) -> None:
 
 
 def message(exc: AlignerError, flags: Mapping[str, str]) -> str:
-    """The error's text, with the option as the user typed it in place of the keyword it starts with."""
-    text = str(exc)
+    """The error's text, with the option as the user typed it in place of the keyword it starts with
+    (and in the advice of an error that gives some: :meth:`ConvergenceError.shown`)."""
+    text = exc.shown(flags) if isinstance(exc, ConvergenceError) else str(exc)
     param = getattr(exc, "param", None)
     if param and param in flags and (text == param or text.startswith(param + " ")):
         text = flags[param] + text[len(param):]

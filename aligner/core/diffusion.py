@@ -163,7 +163,7 @@ def diffuse(
     solve = _solve_push if solver == "push" else _solve_power
     x, steps, touches = solve(graph, scale, alpha, tol, x, r, b, max_work)
     resid = _exact_residual(graph, scale, alpha, x, b, r)
-    _check_converged(solver, tol, x, resid, steps)
+    _check_converged(solver, tol, x, resid, steps, capped=max_work is not None and steps >= max_work)
     return DiffusionResult(x, solver, alpha, tol, int(steps), int(touches), resid, resid / (1 - alpha),
                            time.perf_counter() - t0)
 
@@ -191,16 +191,25 @@ def _exact_residual(graph: ProductGraph, scale, alpha: float, x, b, out) -> floa
     return float(_residual(graph.indptr, graph.indices, wts, scale, alpha, x, b, out))
 
 
-def _check_converged(solver: str, tol: float, x: npt.NDArray[np.float64], resid: float, steps: int) -> None:
-    """Raise ConvergenceError unless the exact residual is finite and within ``tol`` and x is finite."""
+def _check_converged(solver: str, tol: float, x: npt.NDArray[np.float64], resid: float, steps: int, *,
+                     capped: bool = False) -> None:
+    """Raise ConvergenceError unless the exact residual is finite and within ``tol`` and x is finite.
+
+    The advice names what the caller can change: ``max_work`` when it gave one and the solver
+    stopped there (a keyword of this function only), then ``tol``, ``alpha`` (``alphas`` of a
+    sweep) and the other solver (keywords of :func:`aligner.align` too; the command line shows
+    its options instead).
+    """
     if not np.isfinite(resid) or not np.isfinite(x).all():
         raise ConvergenceError(f"the {solver} solver produced a score or residual that is not a finite "
                                "number; check the prior and the edge weights for inf or NaN",
                                iterations=steps, residual=resid)
     if resid > tol:
-        raise ConvergenceError(f"the {solver} solver stopped before the residual tolerance {tol:g}; "
-                               "raise max_work or the tolerance, or lower alpha",
-                               iterations=steps, residual=resid)
+        other = SOLVERS[1 - SOLVERS.index(solver)]
+        advice = ((("raise {}", "max_work", None),) if capped else ()) + (
+            ("raise {}", "tol", None), ("lower {}", ("alpha", "alphas"), None), ("try {}", "solver", other))
+        raise ConvergenceError(f"the {solver} solver stopped before the residual tolerance {tol:g}",
+                               iterations=steps, residual=resid, advice=advice)
 
 
 def _solve_push(graph: ProductGraph, scale, alpha: float, tol: float, x, r, b, max_work: int | None):

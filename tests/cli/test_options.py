@@ -334,3 +334,25 @@ def test_check_real_refuses_what_is_not_a_finite_number():
     for value in (float("inf"), float("-inf"), float("nan"), 10**400):
         with pytest.raises(InvalidParameterError, match=r"^x must be a finite number; got "):
             check_real(value, "x")
+
+
+@pytest.mark.parametrize("cmd, extra, advice", [
+    ("align", [], "raise --tol, lower --alpha or try --solver power"),
+    ("sweep", ["--alphas", "0.5"], "raise --tol, lower --alphas or try --solver power"),
+    ("align", ["--solver", "power"], "raise --tol, lower --alpha or try --solver push"),
+])
+def test_convergence_advice_names_the_options_of_the_command(tmp_path, monkeypatch, cmd, extra, advice):
+    # Found by fuzzing: a solve that stopped short said "raise max_work", which no command takes
+    # (a keyword of aligner.core.diffusion.diffuse only). Common practice (docs/errors.md): from
+    # the command line a message names the options as typed. The work cap is made tiny so the
+    # solve stops short at once.
+    import aligner.core.diffusion as diffusion
+
+    monkeypatch.setattr(diffusion, "default_work_cap", lambda *args: 3)
+    out = tmp_path / "out"
+    res = runner.invoke(app, [cmd, str(A), str(B), "-p", str(PRIOR), "-o", str(out), "-q", *extra])
+    assert res.exit_code == 2, res.output
+    text = " ".join(res.output.split())
+    assert "Traceback" not in res.output and text.count("error:") == 1
+    assert "stopped before the residual tolerance 1e-06; " + advice + " (stopped after 3 steps" in text, text
+    assert "max_work" not in text and not out.exists()

@@ -339,8 +339,10 @@ def test_convergence_messages_name_the_cause_and_the_way_out(monkeypatch):
     h = prior_vector(cand.prior)
     with pytest.raises(ConvergenceError) as info:
         diffuse(prod, h, column_scale(prod), alpha=0.9, tol=1e-12, max_work=5)
+    # max_work is named only to a caller who gave one (it is a keyword of diffuse, not of align)
     assert str(info.value).startswith("the push solver stopped before the residual tolerance 1e-12; raise "
-                                      "max_work or the tolerance, or lower alpha (stopped after 5 steps")
+                                      "max_work, raise tol, lower alpha or try solver='power' (stopped after 5 "
+                                      "steps")
     monkeypatch.setattr(diffusion, "_push", _nan_push)
     monkeypatch.setattr(diffusion, "QUEUE_FRACTION", 2.0)
     with pytest.raises(ConvergenceError) as info:
@@ -372,6 +374,26 @@ def test_scores_are_floats_whatever_the_input_type():
     res = diffuse(prod, h, column_scale(prod), alpha=0.0)
     assert res.x.dtype == np.float64 and res.x.tolist() == h.tolist()
     assert prior_vector(np.array([], dtype=np.int64)).dtype == np.float64
+
+
+def test_convergence_advice_names_only_what_the_caller_can_change(monkeypatch):
+    # Found by fuzzing: the message said "raise max_work" to callers who cannot give it (aligner.align
+    # and the command line have no such option). Common practice (docs/errors.md): a message says
+    # what to do in the caller's terms. The default cap here is hit without a max_work given.
+    import aligner.core.diffusion as diffusion
+
+    *_, cand, prod = _instance(3)
+    h = prior_vector(cand.prior)
+    monkeypatch.setattr(diffusion, "default_work_cap", lambda *args: 5)
+    for solver, other in (("push", "power"), ("power", "push")):
+        with pytest.raises(ConvergenceError) as info:
+            diffuse(prod, h, column_scale(prod), alpha=0.9, tol=1e-12, solver=solver)
+        assert str(info.value).startswith(f"the {solver} solver stopped before the residual tolerance 1e-12; "
+                                          f"raise tol, lower alpha or try solver='{other}' (stopped after 5 steps")
+        # the command line's options in place of the keywords; a keyword without one is left out
+        flags = {"tol": "--tol", "solver": "--solver"}
+        assert info.value.shown(flags).startswith(f"the {solver} solver stopped before the residual tolerance "
+                                                  f"1e-12; raise --tol or try --solver {other} (stopped after 5")
 
 
 def test_default_work_caps_saturate_below_int64():
