@@ -22,14 +22,14 @@ import sys
 import threading
 from pathlib import Path
 
-import aligner
 from aligner.kernels import ahead
 
 
 class CompileAhead:
-    """Context manager; call :meth:`reach` as each stage starts."""
+    """Context manager; call :meth:`reach` as each stage starts (``stages``: the pipeline's, in order,
+    by default those of :data:`aligner.kernels.ahead.KERNEL_STAGES`)."""
 
-    def __init__(self, stages, enabled: bool | None = None):
+    def __init__(self, stages=ahead.KERNEL_STAGES, enabled: bool | None = None):
         if enabled is None:
             # (POSIX: the helper polls its input with select, which Windows offers for sockets only)
             enabled = os.environ.get("ALIGNER_COMPILE_AHEAD", "1") != "0" and os.name == "posix"
@@ -68,7 +68,7 @@ class CompileAhead:
         # ``python -m`` looks in its working directory first: started from the directory above this
         # package, the helper compiles this very package (from a source checkout beside an
         # installed copy, it would otherwise fill the cache of the other one)
-        home = Path(aligner.__file__).resolve().parent.parent
+        home = Path(__file__).resolve().parents[2]  # .../aligner/engines/ahead.py
         try:
             self._proc = subprocess.Popen(self._command(queue), cwd=home,
                                           stdin=subprocess.PIPE, stdout=subprocess.PIPE,

@@ -49,11 +49,10 @@ def run_align(network_a: Path, network_b: Path, prior: Path | None, outdir: Path
         helper = None
         if engine.engine == "local":
             from aligner.engines.ahead import CompileAhead
-            from aligner.kernels.ahead import KERNEL_STAGES
 
             # a first run: a second process compiles the later stages' kernels meanwhile, started
             # before this process imports the pipeline and pandas, so that it begins at once
-            helper = stack.enter_context(CompileAhead(KERNEL_STAGES))
+            helper = stack.enter_context(CompileAhead())
         from aligner.io.outputs import check_outdir, output_files, write_outputs
         from aligner.pipeline import STAGES, Clock, align
         from aligner.render.console import summary_table
