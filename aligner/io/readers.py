@@ -49,6 +49,7 @@ __all__ = [
     "check_readable",
     "data_lines",
     "DELIMITERS",
+    "FIELD_BLANKS",
 ]
 
 HEADER_WORDS = {
@@ -63,6 +64,10 @@ HEADER_WORDS = {
 _COLUMN_NAME_SHAPE = re.compile(r"^[A-Za-z]+(?:[ _.-]?[A-Za-z]+)*[ _.-]?(?:[0-9]|[A-Za-z])$|^[A-Za-z]$")
 #: The names ``delimiter`` / ``--delimiter`` accepts besides a single character.
 DELIMITERS = {"tab": "\t", "comma": ",", "semicolon": ";", "space": " ", "whitespace": None}
+#: What is stripped from both ends of every field of a delimited file (both readers, and the
+#: header line): spaces and tabs, so that ``a1\t b1  `` names ``a1`` and ``b1``. Spaces inside an
+#: identifier stay; other white space (a no-break space, a form feed) is data.
+FIELD_BLANKS = " \t"
 
 
 # --------------------------------------------------------------------------- lines of a file
@@ -498,7 +503,7 @@ def _read_table(path: str, *, min_cols: int, max_cols: int, delimiter, header: s
         raise _NoRows(f"is empty: expected {_a(what)} with {expect} columns (blank lines and lines "
                       "starting with # are skipped)", path=path)
     sep = _detect_delimiter(first[1]) if delimiter is None else DELIMITERS.get(delimiter, delimiter)
-    fields = _split(first[1], sep)
+    fields = [f.strip(FIELD_BLANKS) for f in _split(first[1], sep)]
     numeric = 2
     if pick is not None:  # the header test looks at the score (the last picked column) when it is a position
         numeric = pick.items[-1] if isinstance(pick.items[-1], int) and len(pick.items) > text_cols else None
@@ -608,7 +613,9 @@ def _read_careful(path: str, sep: str | None, ncols: int, start_no: int, min_col
     except UnicodeDecodeError as exc:
         raise InputFormatError(f"is not UTF-8 text ({exc.reason}); save it as UTF-8", path=path) from None
     use = list(range(ncols)) if use is None else use
-    cols = [df[c].to_numpy(dtype=object) for c in use]
+    # spaces and tabs around a field are not part of it (see FIELD_BLANKS); white-space
+    # delimited fields have none
+    cols = [(df[c] if sep is None else df[c].str.strip(FIELD_BLANKS)).to_numpy(dtype=object) for c in use]
     if any(df[c].str.contains("[\r\n]", regex=True).any() for c in use):
         # a quoted field running over a line break: one record per line is the format
         no, text = next(((no, t) for no, t in data_lines(path, sep) if no >= start_no and t.count('"') % 2),
@@ -692,13 +699,18 @@ def _read_arrow(path: str, sep: str | None, ncols: int, skip: int, use: list[int
     for k, name in enumerate(names[p] for p in use):
         col = table.column(name)
         col = col.combine_chunks() if isinstance(col, pa.ChunkedArray) else col
+        raw = None
+        if pa.types.is_string(col.type):  # trimmed before the checks: a field of spaces is an empty field
+            raw = _value_bytes(col)
+            trimmed = _trim(col, raw)
+            col, raw = (col, raw) if trimmed is col else (trimmed, None)
         if k < text_cols:
-            if _needs_care(col, first=use[k] == 0):
+            if _needs_care(col, first=use[k] == 0, raw=raw):
                 return None  # a comment line, an empty field, a quote, a byte-order mark: the careful reader
             cols.append(col)
         else:
             values = None
-            if pa.types.is_string(col.type) and _needs_care(col, first=False, comment=False):
+            if pa.types.is_string(col.type) and _needs_care(col, first=False, comment=False, raw=raw):
                 return None  # a quote or an empty field
             if pa.types.is_floating(col.type) or pa.types.is_integer(col.type):
                 values = col.to_numpy(zero_copy_only=False).astype(np.float64, copy=False)
@@ -708,13 +720,33 @@ def _read_arrow(path: str, sep: str | None, ncols: int, skip: int, use: list[int
     return cols
 
 
-def _needs_care(col: pa.Array, *, first: bool, comment: bool = True) -> bool:
+def _value_bytes(col: pa.Array) -> bytes:
+    """The UTF-8 bytes of a string column's values, end to end (one copy, searched at C speed)."""
+    _, offsets, data = col.buffers()
+    if len(col) == 0 or data is None:
+        return b""
+    offsets = np.frombuffer(offsets, dtype=np.int32)[col.offset:col.offset + len(col) + 1]
+    return np.frombuffer(data, dtype=np.uint8)[int(offsets[0]):int(offsets[-1])].tobytes()
+
+
+def _trim(col: pa.Array, raw: bytes | None = None) -> pa.Array:
+    """``col`` with the spaces and tabs around each value removed (:data:`FIELD_BLANKS`), as the
+    careful reader does; the column itself when it holds neither byte (a byte search, memchr: these
+    ASCII bytes are never part of another UTF-8 character). ``raw``: its :func:`_value_bytes`."""
+    raw = _value_bytes(col) if raw is None else raw
+    if b" " not in raw and b"\t" not in raw:
+        return col
+    return pac.utf8_trim(col, characters=FIELD_BLANKS)
+
+
+def _needs_care(col: pa.Array, *, first: bool, comment: bool = True, raw: bytes | None = None) -> bool:
     """Whether a string column read by pyarrow holds what only the careful reader handles.
 
     An empty value, a line break or a quote in a value, a value that starts with '#' after
     spaces and tabs (``comment``: a comment line further down), a byte-order mark at the start
     (``first``: the first column). One look at the column's offsets and bytes: the values of
-    a UTF-8 column hold these ASCII bytes only as those characters.
+    a UTF-8 column hold these ASCII bytes only as those characters. ``raw``: the column's
+    :func:`_value_bytes` when already at hand.
     """
     if len(col) == 0:
         return False
@@ -724,7 +756,7 @@ def _needs_care(col: pa.Array, *, first: bool, comment: bool = True) -> bool:
     text = np.frombuffer(data, dtype=np.uint8)[lo:hi] if data is not None else np.empty(0, np.uint8)
     if (offsets[1:] == offsets[:-1]).any():
         return True
-    raw = text.tobytes()  # searched for a byte at C speed (memchr)
+    raw = text.tobytes() if raw is None else raw  # searched for a byte at C speed (memchr)
     if b"\n" in raw or b"\r" in raw or b'"' in raw:
         return True
     if first and bytes(text[:3]) == "\ufeff".encode():

@@ -55,3 +55,17 @@ def test_files_the_fast_reader_hands_over_are_read_alike(tmp_path):
     tricky.write_text("a\tb\n  # note\n\"b\"\tc\n")
     p, t = read_network(str(plain)), read_network(str(tricky))
     assert p.names.tolist() == t.names.tolist() == ["a", "b", "c"] and p.edges.tolist() == t.edges.tolist()
+
+
+@pytest.mark.parametrize("seed", range(3))
+def test_trim_agrees_with_pyarrow_utf8_trim(seed):
+    # the fast reader strips the spaces and tabs around fields only when a value starts or ends with
+    # one (a look at the bytes); the reference is pyarrow's own utf8_trim on every column
+    from aligner.io.readers import _trim
+
+    rng = np.random.default_rng(seed)
+    for _ in range(200):
+        n = int(rng.integers(0, 6))
+        values = ["".join(rng.choice(PIECES, size=int(rng.integers(0, 4)))) for _ in range(n)]
+        col = pa.array(["pad"] + values + [" pad "], type=pa.string()).slice(1, n)  # offset != 0
+        assert _trim(col).to_pylist() == pac.utf8_trim(col, characters=" \t").to_pylist(), values

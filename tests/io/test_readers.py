@@ -209,3 +209,77 @@ def test_a_missing_score_is_not_answered_with_a_score_kind_hint(tmp_path):
     assert "score-kind" not in str(nan.value)
     with pytest.raises(InputFormatError, match=r"is negative; .*--score-kind distance, score_kind='distance'"):
         check_scores(np.array([1.0, -2.0]), "similarity", source="<DataFrame prior>")
+
+
+# --------------------------------------------------------------------------- spaces around fields
+
+def _both_paths(monkeypatch, read):
+    """What ``read()`` gives on the fast (pyarrow) path and on the careful (pandas) path: the
+    careful one alone when the fast one is switched off, as the fuzzer's differential check does."""
+    import aligner.io.readers as readers
+
+    fast = read()
+    with monkeypatch.context() as m:
+        m.setattr(readers, "_read_arrow", lambda *a, **k: None)
+        careful = read()
+    return fast, careful
+
+
+def _net_record(net):
+    return net.names.tolist(), net.edges.tolist(), None if net.weights is None else net.weights.tolist()
+
+
+@pytest.mark.parametrize("sep", ["\t", ",", ";"])
+def test_spaces_around_fields_are_not_part_of_them_on_both_paths(tmp_path, monkeypatch, sep):
+    # Found by fuzzing: two trailing spaces on every line of a TSV made "a1  " a node besides "a1"
+    # (62 nodes instead of 40, no conserved edge). Common practice (what a reader of hand-edited
+    # tables does; docs/formats.md): spaces and tabs around a field are dropped, inner spaces kept,
+    # numbers with spaces around them still parse. Reference: the same rows written without them.
+    import aligner.io.readers as readers
+
+    rows = [("a1", "node two", "1.5"), ("node two", "a3", "2"), ("a3", "a1", "0.25")]
+    clean = _w(tmp_path, "clean.txt", "".join(sep.join(r) + "\n" for r in rows))
+    spaced = _w(tmp_path, "spaced.txt", "".join(sep.join(f"  {f}  " if k != 1 else f"{f} " for k, f in
+                                                          enumerate(r)) + "  \n" for r in rows))
+    want = _net_record(read_network(clean))
+    assert want[0] == ["a1", "a3", "node two"]
+    # a regression guard on the fast path: it stays in use for such a file
+    assert readers._read_arrow(str(spaced), sep, 3, 0) is not None
+    fast, careful = _both_paths(monkeypatch, lambda: _net_record(read_network(spaced)))
+    assert fast == careful == want
+    if sep != "\t":  # tabs around a field, in a file whose delimiter is given (else a tab would be taken for it)
+        tabbed = _w(tmp_path, "tabbed.txt", "".join(sep.join(f"\t{f} \t" for f in r) + "\n" for r in rows))
+        fast, careful = _both_paths(monkeypatch, lambda: _net_record(read_network(tabbed, delimiter=sep)))
+        assert fast == careful == want
+    # the prior (a score column with spaces around) and a pair table, on both paths
+    a = read_network(clean)
+    prior = lambda p: (lambda t: (t.pairs.tolist(), t.scores.tolist()))(read_prior(p, a, a))  # noqa: E731
+    fast, careful = _both_paths(monkeypatch, lambda: prior(spaced))
+    assert fast == careful == prior(clean)
+    pairs = lambda p: (lambda t: (t.pairs.tolist(), t.n_unknown))(read_pairs(p, a, a))  # noqa: E731
+    fast, careful = _both_paths(monkeypatch, lambda: pairs(spaced))
+    assert fast == careful == pairs(clean) and careful[1] == 0
+
+
+def test_spaces_around_picked_columns_and_header_names(tmp_path, monkeypatch):
+    # the columns an option picks from a wider table, by header name: the names and the fields are
+    # stripped alike, on both paths (hand-worked)
+    a = read_network(_w(tmp_path, "a.tsv", "q1\tq2\n"))
+    p = _w(tmp_path, "hits.tsv", " query \t subject\tidentity \t evalue \n q1 \tq2  \t 99\t 1e-5 \nq2\t q1\t98\t0.5 \n")
+    got = _both_paths(monkeypatch, lambda: (lambda t: (t.pairs.tolist(), t.scores.tolist()))(
+        read_prior(p, a, a, kind="evalue", columns="query,subject,evalue")))
+    assert got[0] == got[1] == ([[0, 1], [1, 0]], [5.0, pytest.approx(-np.log10(0.5))])
+
+
+@pytest.mark.parametrize("text", ["a\tb\n  \tc\n", "a,b\nc, \t\n"])
+def test_a_field_of_spaces_is_an_empty_field_on_both_paths(tmp_path, monkeypatch, text):
+    # a field with nothing but spaces and tabs is an empty field, as "" is (docs/formats.md)
+    p = _w(tmp_path, "e.txt", text)
+
+    def read():
+        with pytest.raises(InputFormatError) as info:
+            read_network(p)
+        return str(info.value)
+
+    fast, careful = _both_paths(monkeypatch, read)
+    assert fast == careful and "line 2: has an empty field" in fast
