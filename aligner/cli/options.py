@@ -25,10 +25,11 @@ from typing import Annotated, Any, Callable, Optional, get_args, get_origin, get
 import typer
 
 from aligner.config import Spec, specs
+from aligner.errors import InvalidParameterError
 from aligner.cli.runtime import user_errors
 
 __all__ = ["Use", "command", "config_parameters", "Prior", "Truth", "Seeds", "Force", "Quiet", "Json", "Out",
-           "OptionalOut", "Alphas", "Nodes", "NodeFile"]
+           "OptionalOut", "Alphas", "Nodes", "NodeFile", "EmptyPath", "output_path", "out_option"]
 
 # --------------------------------------------------------------------------- options that are not configuration
 
@@ -45,10 +46,35 @@ FLAG = ""
 Force = Annotated[bool, typer.Option("--force", help="Replace the outputs of an earlier run at --out.", metavar=FLAG)]
 Quiet = Annotated[bool, typer.Option("--quiet", "-q", help="Print nothing but errors.", metavar=FLAG)]
 Json = Annotated[bool, typer.Option("--json", help="Print the result as JSON instead of tables.", metavar=FLAG)]
-Out = Annotated[Path, typer.Option("--out", "-o", help="Where to write the outputs (the command's description "
-                                   "lists them).")]
-OptionalOut = Annotated[Optional[Path], typer.Option("--out", "-o", help="Where to write the outputs. Default: a "
-                                                     "new temporary directory.")]
+
+
+class EmptyPath:
+    """What an output path typed as an empty string (``-o ""``, ``-o "$UNSET"``) parses to.
+
+    A plain ``Path("")`` is ``Path(".")``: the working directory, which is never what an empty
+    value meant. :func:`command` refuses it, naming the option, before the command runs.
+    """
+
+    def __repr__(self) -> str:
+        return "''"
+
+
+def output_path(value: Any) -> Any:
+    """The parser of every output path option and argument: a Path, or :class:`EmptyPath` for ''."""
+    if isinstance(value, str):
+        return EmptyPath() if value == "" else Path(value)
+    return value
+
+
+def out_option(*decls: str, help: str) -> Any:
+    """A typer option for an output path (``--out``), parsed by :func:`output_path`."""
+    return typer.Option(*decls, help=help, parser=output_path, metavar="PATH")
+
+
+Out = Annotated[Path, out_option("--out", "-o", help="Where to write the outputs (the command's description lists "
+                                 "them).")]
+OptionalOut = Annotated[Optional[Path], out_option("--out", "-o", help="Where to write the outputs. Default: a new "
+                                                   "temporary directory.")]
 Alphas = Annotated[Optional[str], typer.Option("--alphas", help="Comma-separated values of alpha in [0, 1), run in "
                                      "ascending order. Default: the sweep's own grid.")]
 Nodes = Annotated[Optional[list[str]], typer.Option("--node", "-n", metavar="NODE",
@@ -201,6 +227,7 @@ def command(*uses: Use) -> Callable[[Callable[..., Any]], Callable[..., Any]]:
         @functools.wraps(func)
         def run(**values: Any) -> Any:
             with user_errors(quiet=bool(values.get("quiet", False)), flags=flags):
+                _refuse_empty_paths(values)
                 for use in uses:
                     values[use.into] = use.cls(**{n: values.pop(n) for n in use.fields()})
                 return func(**values)
@@ -210,3 +237,13 @@ def command(*uses: Use) -> Callable[[Callable[..., Any]], Callable[..., Any]]:
         run.flags = flags
         return run
     return decorate
+
+
+def _refuse_empty_paths(values: dict[str, Any]) -> None:
+    """Refuse an output path given as an empty string (an unset shell variable in ``-o "$OUT"``,
+    which would otherwise write into the working directory); the message names the keyword, shown
+    as the option the user typed."""
+    for name, value in values.items():
+        if isinstance(value, EmptyPath):
+            raise InvalidParameterError(f"{name} must be a path; got '' (the output path is empty: is a shell "
+                                        "variable unset?)", param=name)

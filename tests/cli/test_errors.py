@@ -329,6 +329,32 @@ def test_output_in_a_read_only_directory(tmp_path):
         ro.chmod(0o755)
 
 
+EMPTY_OUTPUT_CASES = [
+    # every command that writes: its arguments with an empty output path in place, the option named
+    ("align", ["align", str(A), str(B), "-p", str(PRIOR), "-o", ""], "--out"),
+    ("sweep", ["sweep", str(A), str(B), "-p", str(PRIOR), "--alphas", "0.5", "-o", ""], "--out"),
+    ("update", ["update", "previous_run", "-o", ""], "--out"),
+    ("demo", ["demo", "-o", ""], "--out"),
+    ("prior-from-labels", ["prior-from-labels", str(A), str(B), "--from-networks", "-o", ""], "--out"),
+    ("prior-from-classes", ["prior-from-classes", str(A), str(B), "-o", ""], "--out"),
+    ("report", ["report", ""], "OUTDIR"),
+    ("transfer", ["transfer", ""], "OUTDIR"),
+]
+
+
+@pytest.mark.parametrize("case, args, flag", EMPTY_OUTPUT_CASES, ids=[c[0] for c in EMPTY_OUTPUT_CASES])
+def test_an_empty_output_path_is_refused(tmp_path, monkeypatch, case, args, flag):
+    # Found by fuzzing: -o "" (an unset shell variable in -o "$OUT") wrote align's and sweep's outputs
+    # into the working directory, as Path("") is Path("."). Common practice (what cp, tar -f or
+    # curl -o do with an empty path: refuse it): exit 2, one line naming the option, nothing written.
+    monkeypatch.chdir(tmp_path)
+    res = runner.invoke(app, args)
+    assert res.exit_code == 2, res.output
+    _no_traceback(res)
+    assert f"error: {flag} must be a path; got '' (the output path is empty" in res.output
+    assert os.listdir(tmp_path) == []
+
+
 # --------------------------------------------------------------------------- options
 
 OPTION_CASES = [

@@ -7,7 +7,7 @@ from typing import Annotated
 
 import typer
 
-from aligner.cli.options import Force, Quiet, Use, command
+from aligner.cli.options import Force, Quiet, Use, command, out_option
 from aligner.cli.runtime import check_inputs, say
 from aligner.config import AlignConfig, LabelConfig
 from aligner.errors import InvalidParameterError
@@ -16,7 +16,7 @@ Labels = Annotated[Path, typer.Argument(help="Labels of one network's nodes: ide
                                         "line without a tab: the identifier is its own label); with "
                                         "--label-columns, a CSV/TSV table of records (identifier first); with "
                                         "--from-networks, an edge list.")]
-OutFile = Annotated[Path, typer.Option("--out", "-o", help="Prior table to write (TSV: node_a, node_b, score).")]
+OutFile = Annotated[Path, out_option("--out", "-o", help="Prior table to write (TSV: node_a, node_b, score).")]
 FromNetworks = Annotated[bool, typer.Option("--from-networks", help="The two arguments are edge lists: the node "
                                             "identifiers themselves are the labels.", metavar="")]
 

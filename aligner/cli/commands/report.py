@@ -7,12 +7,13 @@ from typing import Annotated, Optional
 
 import typer
 
-from aligner.cli.options import Quiet, Use, command
+from aligner.cli.options import Quiet, Use, command, output_path
 from aligner.cli.runtime import check_inputs, say
 from aligner.config import AlignConfig
 
 RunDir = Annotated[Path, typer.Argument(help="Directory of a finished run (summary.json, alignment.tsv, "
-                                        "conserved_edges.tsv; sweep.tsv if a sweep was written there).")]
+                                        "conserved_edges.tsv; sweep.tsv if a sweep was written there).",
+                                        parser=output_path)]
 
 
 @command(Use(AlignConfig, ("delimiter", "header")))

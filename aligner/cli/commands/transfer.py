@@ -7,12 +7,12 @@ from typing import Annotated
 
 import typer
 
-from aligner.cli.options import Quiet, Use, command
+from aligner.cli.options import Quiet, Use, command, output_path
 from aligner.cli.runtime import out, say
 from aligner.config import TransferConfig
 
 RunDir = Annotated[Path, typer.Argument(help="Directory of a finished run of align or demo (it holds "
-                                        "transferred_edges.tsv).")]
+                                        "transferred_edges.tsv).", parser=output_path)]
 
 
 @command(Use(TransferConfig, into="selection"))
