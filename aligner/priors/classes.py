@@ -16,7 +16,7 @@ import pandas as pd
 
 from aligner.checks import check_real
 from aligner.config import ClassConfig
-from aligner.errors import InvalidParameterError
+from aligner.errors import InputFormatError, InvalidParameterError
 from aligner.io.inputs import as_table
 
 __all__ = ["prior_from_classes", "read_classes"]
@@ -75,6 +75,10 @@ def _as_classes(obj, name: str, *, separator: str | None, delimiter: str | None 
         if isinstance(obj, (str, os.PathLike)) and header == "auto" and table.header is None and nodes and \
                 str(nodes[0]).strip().lower() in _NODE_WORDS and str(classes[0]).strip().lower() in _CLASS_WORDS:
             nodes, classes = nodes[1:], classes[1:]  # a header line: node, class
+            if not nodes:  # as read_table refuses a table without data rows
+                path, line = table.origin(0)
+                raise InputFormatError("has a header line but no data rows: expected a class table below it",
+                                       path=path, line=line)
     df = pd.DataFrame({"node": pd.Series(nodes, dtype=object).astype(str).str.strip(),
                        "cls": pd.Series(classes, dtype=object).astype(str)})
     if separator is not None:

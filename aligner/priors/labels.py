@@ -113,8 +113,9 @@ def read_labels(path: str | os.PathLike) -> pd.Series:
     Raises
     ------
     InputFormatError
-        The file is missing, unreadable or not UTF-8, an identifier is empty, or an
-        identifier is repeated; the message names the file and the line.
+        The file is missing, unreadable or not UTF-8, holds no data line (empty, comments
+        only, or a header line only), an identifier is empty, or an identifier is repeated;
+        the message names the file and the line.
 
     Examples
     --------
@@ -130,8 +131,9 @@ def read_labels(path: str | os.PathLike) -> pd.Series:
     ids: list[str] = []
     texts: list[str] = []
     seen: dict[str, int] = {}
+    header: list[int] = []
     try:
-        for no, text, node, label in _label_lines(path):
+        for no, text, node, label in _label_lines(path, header):
             if not node:
                 raise InputFormatError(f"has an empty node identifier: {text[:80]!r}; give each node an "
                                        "identifier before the tab", path=path, line=no)
@@ -147,13 +149,20 @@ def read_labels(path: str | os.PathLike) -> pd.Series:
     except (OSError, EOFError, zlib.error) as exc:  # gzip.BadGzipFile is an OSError
         raise InputFormatError(f"cannot be read ({exc}); check that the file is complete and not damaged",
                                path=path) from None
+    if not ids:  # as read_table refuses a table without data rows
+        if header:
+            raise InputFormatError("has a header line but no data rows: expected a label file below it (one node "
+                                   "per line: its identifier, a tab, its label)", path=path, line=header[0])
+        raise InputFormatError("is empty: expected a label file (one node per line: its identifier, a tab, its "
+                               "label; blank lines and lines starting with # are skipped)", path=path)
     return pd.Series(texts, index=pd.Index(ids, dtype=object, name="node"), dtype=object, name="label")
 
 
-def _label_lines(path: str):
+def _label_lines(path: str, header: list[int]):
     """Yield (line number, text, identifier, label) of the data lines of a label file.
 
-    Blank and comment lines are skipped, and so is a first data line ``node<TAB>label``.
+    Blank and comment lines are skipped, and so is a first data line ``node<TAB>label`` (its
+    line number is appended to ``header``).
     """
     first = True
     for no, line in enumerate(open_text(path), 1):
@@ -166,6 +175,7 @@ def _label_lines(path: str):
         if first:
             first = False
             if tab and (node.lower(), label.lower()) == _HEADER:
+                header.append(no)
                 continue
         yield no, text, node, label
 

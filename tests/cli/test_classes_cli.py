@@ -33,3 +33,19 @@ def test_errors_exit_2(tmp_path):
     a.write_text("x1\tAVA\n")
     r = runner.invoke(app, ["prior-from-classes", str(a), str(a), "-o", str(out), "--score", "0"])
     assert r.exit_code == 2 and "--score must be" in r.output and not out.exists()
+
+
+def test_a_header_only_table_and_no_shared_class_write_nothing(tmp_path):
+    # Found by fuzzing: tables sharing no class wrote a header-only prior (exit 0) that align refuses.
+    # Decided (docs/commands.md): no pair to write is an error, exit 2, nothing written, as in
+    # prior-from-labels; a header line without rows is refused like an empty table, naming its line.
+    a, b, out = tmp_path / "a.tsv", tmp_path / "b.tsv", tmp_path / "prior.tsv"
+    a.write_text("x1\tAVA\n")
+    b.write_text("y1\tDD\ny2\tAVB\n")
+    r = runner.invoke(app, ["prior-from-classes", str(a), str(b), "-o", str(out)])
+    assert r.exit_code == 2 and "no class is shared: the 1 class of" in r.output, r.output
+    assert "the 2 classes of" in r.output and "was not written" in r.output and not out.exists()
+    a.write_text("neuron\tclass\n")
+    r = runner.invoke(app, ["prior-from-classes", str(a), str(b), "-o", str(out)])
+    assert r.exit_code == 2 and f"{a}, line 1: has a header line but no data rows" in r.output, r.output
+    assert not out.exists()

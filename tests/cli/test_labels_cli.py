@@ -51,3 +51,30 @@ def test_errors_exit_2_and_write_nothing(tmp_path):
     out.write_text("keep\n")
     r = runner.invoke(app, ["prior-from-labels", str(lb), str(lb), "-o", str(out)])
     assert r.exit_code == 2 and "--force" in r.output and out.read_text() == "keep\n"
+
+
+def test_a_label_file_without_data_lines_is_refused(tmp_path):
+    # Found by fuzzing: an empty, comment-only or header-only label file exited 0 and wrote a
+    # header-only prior that align then refuses. prior-from-classes refuses an empty table (exit 2,
+    # naming the file); common practice (docs/errors.md): the same here, nothing written.
+    lb = _write(tmp_path / "b.tsv", [("b1", "Quorvel Shipping")])
+    out = tmp_path / "p.tsv"
+    for name, text, where in (("empty.tsv", "", "empty.tsv: is empty"),
+                              ("comments.tsv", "# none yet\n\n", "comments.tsv: is empty"),
+                              ("header.tsv", "node\tlabel\n", "header.tsv, line 1: has a header line but no data")):
+        (tmp_path / name).write_text(text, encoding="utf-8")
+        r = runner.invoke(app, ["prior-from-labels", str(tmp_path / name), str(lb), "-o", str(out)])
+        assert r.exit_code == 2 and where in r.output and "expected a label file" in r.output, r.output
+        assert "Traceback" not in r.output and not out.exists()
+
+
+def test_labels_of_which_no_pair_is_similar_write_nothing(tmp_path):
+    # Found by fuzzing: no pair at all was written as a header-only prior (exit 0) that align refuses.
+    # Decided (docs/commands.md): a result of no pair is an error, exit 2, nothing written, the same
+    # in prior-from-classes; the message names the option that would give pairs.
+    la = _write(tmp_path / "a.tsv", [("a1", "Quorvel Shipping")])
+    lb = _write(tmp_path / "b.tsv", [("b1", "Tessaly Glassworks")])
+    out = tmp_path / "p.tsv"
+    r = runner.invoke(app, ["prior-from-labels", str(la), str(lb), "-o", str(out), "--min-similarity", "0.9"])
+    assert r.exit_code == 2 and "no pair of labels is similar enough" in r.output, r.output
+    assert "--min-similarity 0.9" in r.output and "was not written" in r.output and not out.exists()

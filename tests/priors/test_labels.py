@@ -164,6 +164,7 @@ def test_identifiers_are_their_own_labels(tmp_path):
     ("a\tx\nb\ty\na\tz\n", 3, "repeats the node identifier 'a' \\(first on line 1\\)"),
     ("# c\n\tno identifier\n", 2, "empty node identifier"),
     ("node\tlabel\na\tx\n  \tx\n", 3, "empty node identifier"),
+    ("# c\nNode\tLabel\n\n", 2, "has a header line but no data rows"),  # as read_table says it
 ])
 def test_read_labels_errors_name_file_and_line(tmp_path, text, line, match):
     p = tmp_path / "bad.tsv"

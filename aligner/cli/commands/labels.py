@@ -10,7 +10,7 @@ import typer
 from aligner.cli.options import Force, Quiet, Use, command, out_option
 from aligner.cli.runtime import check_inputs, say
 from aligner.config import AlignConfig, LabelConfig
-from aligner.errors import InvalidParameterError
+from aligner.errors import InvalidParameterError, NoCandidatesError
 
 Labels = Annotated[Path, typer.Argument(help="Labels of one network's nodes: identifier, a tab, the label text (a "
                                         "line without a tab: the identifier is its own label); with "
@@ -45,7 +45,10 @@ def _labels(path: Path, from_networks: bool, config: AlignConfig, labels: LabelC
 def prior_from_labels(labels_a: Labels, labels_b: Labels, output: OutFile, from_networks: FromNetworks = False,
                       force: Force = False, quiet: Quiet = False, *, labels: LabelConfig, config: AlignConfig):
     """Build a prior from node names or attribute text (or records' fields joined, --label-columns): character
-    n-gram TF-IDF cosine similarity."""
+    n-gram TF-IDF cosine similarity.
+
+    A label file without data lines, and labels of which no pair reaches --min-similarity (no pair
+    to write), are errors: exit status 2, nothing written."""
     check_inputs(labels_a, labels_b)
     from aligner.io.outputs import write_prior_table
     from aligner.priors.labels import label_prior
@@ -53,6 +56,12 @@ def prior_from_labels(labels_a: Labels, labels_b: Labels, output: OutFile, from_
 
     la, lb = _labels(labels_a, from_networks, config, labels), _labels(labels_b, from_networks, config, labels)
     table = label_prior(la, lb, top_k=labels.top_k, min_similarity=labels.min_similarity)
+    if len(table) == 0:  # a prior of no pair: align would refuse it, so it is not written
+        raise NoCandidatesError(f"no pair of labels is similar enough: none of the {len(la)} labels of {labels_a} "
+                                f"reaches --min-similarity {labels.min_similarity:g} with any of the {len(lb)} "
+                                f"labels of {labels_b}, so there is no pair to write and {output} was not "
+                                "written; lower --min-similarity, or check that the two files label the same "
+                                "things")
     path = write_prior_table(table, output, force=force)
     if not quiet:
         say(prior_message(len(table), len(la), len(lb), labels.top_k, labels.min_similarity, path))
