@@ -42,8 +42,8 @@ from aligner.core.scoring import Scores, conserved_image, conserved_per_node, sc
 from aligner.core.significance import significance
 from aligner.core.transfer import DIRECTIONS, transfer_counts, transferred_edges
 from aligner.core.weights import AGREEMENT_FLOOR, walk_degree, walk_weights
-from aligner.errors import InputFormatError, InvalidParameterError, MemoryBudgetError, NoCandidatesError
-from aligner.io.inputs import as_network, as_pairs, as_prior, known_pairs
+from aligner.errors import InvalidParameterError, MemoryBudgetError, NoCandidatesError
+from aligner.io.inputs import as_alignment, as_network, as_pairs, as_prior, known_pairs
 from aligner.io.readers import release_unused_memory
 from aligner.core.identifiers import PairTable
 from aligner.core.prior import PriorTable
@@ -989,15 +989,8 @@ def score(network_a, network_b, alignment, *, truth=None, config: AlignConfig | 
     """
     cfg = from_options(AlignConfig, config, options)
     inputs = read_inputs(network_a, network_b, None, truth=truth, config=cfg)
-    tab = known_pairs(as_pairs(alignment, inputs.network_a, inputs.network_b, "alignment", cfg.delimiter,
-                               cfg.header), "alignment")
+    tab = as_alignment(alignment, inputs.network_a, inputs.network_b, cfg.delimiter, cfg.header)
     _warn_unknown(tab, "alignment")
     p = tab.pairs.astype(np.int64)
-    for side, name in ((0, "A"), (1, "B")):
-        u, c = np.unique(p[:, side], return_counts=True)
-        if (c > 1).any():
-            node = (inputs.network_a if side == 0 else inputs.network_b).names[u[np.argmax(c > 1)]]
-            raise InputFormatError(f"node {node!r} of network {name} is in more than one pair; an alignment "
-                                   "must be one-to-one", path=str(tab.source))
     sc, cons, _ = _score(inputs, p, cfg)
     return sc, conserved_frame(inputs.network_a, inputs.network_b, p, cons, cfg.directed)

@@ -21,11 +21,11 @@ import pandas as pd
 from aligner.checks import warn
 from aligner.core.network import Network, network_from_edges
 from aligner.errors import InputFormatError, InvalidParameterError, NoCandidatesError
-from aligner.core.identifiers import PairTable, pairs_from_columns
+from aligner.core.identifiers import PairTable, lookup, pairs_from_columns
 from aligner.io.readers import Columns, Table, network_from_table, prior_pick, read_network, read_table
 from aligner.core.prior import PriorTable, prior_from_columns
 
-__all__ = ["as_table", "as_network", "as_prior", "as_pairs", "known_pairs", "prior_notes"]
+__all__ = ["as_table", "as_network", "as_prior", "as_pairs", "as_alignment", "known_pairs", "prior_notes"]
 
 
 def as_table(obj, *, name: str, layout: str, min_cols: int, max_cols: int, what: str = "table",
@@ -231,6 +231,53 @@ def known_pairs(t: PairTable, what: str) -> PairTable:
                                f"a node of network B in the second, so the {what} is of no use; are the columns "
                                "swapped, or are these the wrong networks?", path=str(t.source))
     return t
+
+
+def as_alignment(obj, net_a: Network, net_b: Network, delimiter, header) -> PairTable:
+    """The alignment ``aligner score`` scores: a path, a DataFrame (first two columns), rows or a mapping a -> b.
+
+    Refuses a table none of whose rows names known nodes (:func:`known_pairs`), and a node in two
+    pairs, naming the file and both lines (an object's rows), as the seed reader does; rows naming
+    an unknown node are left out (counted in the PairTable).
+    """
+    if isinstance(obj, PairTable):
+        return _one_to_one(known_pairs(obj, "alignment"), net_a, net_b, None)
+    table = as_table(obj, name="alignment", layout="node_a, node_b", min_cols=2, max_cols=64, what="alignment",
+                     delimiter=delimiter, header=header, source="<alignment>")
+    t = known_pairs(pairs_from_columns(table.text(0), table.text(1), net_a, net_b, source=table.source), "alignment")
+    return _one_to_one(t, net_a, net_b, table)
+
+
+def _one_to_one(t: PairTable, net_a: Network, net_b: Network, table: Table | None) -> PairTable:
+    """Refuse a node in two pairs of ``t``: the earliest row that repeats a node, and the row before it
+    with that node, named in ``table`` (None: no rows to name)."""
+    found = None  # (row among the known pairs, the earlier row, side)
+    for side in (0, 1):
+        v = t.pairs[:, side]
+        order = np.argsort(v, kind="stable")
+        dup = np.flatnonzero(v[order][1:] == v[order][:-1]) + 1
+        if len(dup):
+            k = dup[np.argmin(order[dup])]
+            if found is None or order[k] < found[0]:
+                found = (int(order[k]), int(order[k - 1]), side)
+    if found is None:
+        return t
+    r2, r1, side = found
+    net, name = (net_a, "A") if side == 0 else (net_b, "B")
+    node = net.names[t.pairs[r2, side]]
+    if table is None:
+        raise InputFormatError(f"node {node!r} of network {name} is in more than one pair; an alignment must be "
+                               "one-to-one", path=str(t.source))
+    # the known pairs are the rows naming a node of A and a node of B, in row order
+    rows = np.flatnonzero((lookup(net_a.names, table.text(0)) >= 0) & (lookup(net_b.names, table.text(1)) >= 0))
+    row2, row1 = int(rows[r2]), int(rows[r1])
+    keep = "keep one of the two " + ("lines" if table.first_line is not None else "rows")
+    if (t.pairs[r2] == t.pairs[r1]).all():
+        pair = (str(net_a.names[t.pairs[r2, 0]]), str(net_b.names[t.pairs[r2, 1]]))
+        raise table.error(row2, f"repeats the pair {pair!r} of {table.where(row1)}; an alignment lists each pair "
+                                f"once: {keep}")
+    raise table.error(row2, f"node {node!r} of network {name} is already in the pair of {table.where(row1)}; an "
+                            f"alignment must be one-to-one (a node in one pair only): {keep}")
 
 
 def as_pairs(obj, net_a: Network, net_b: Network, what: str, delimiter, header) -> PairTable:

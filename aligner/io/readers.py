@@ -312,6 +312,14 @@ class Table:
             return f"{path}, line {line}"
         return f"row {row + 1}" if self.first_line is None else f"line {self.line_of(row)}"
 
+    def error(self, row: int, message: str) -> InputFormatError:
+        """The error about data row ``row``, in the documented form: ``file, line 7: message`` for a
+        file (the part file of a pattern), ``<seeds>: row 3: message`` for an object."""
+        path, line = self.origin(row)
+        if line is None and self.first_line is None:
+            return InputFormatError(f"{self.where(row)}: {message}", path=path)
+        return InputFormatError(message, path=path, line=line)
+
     def text(self, col: int):
         """Column ``col`` as identifiers: pyarrow strings as read, else a numpy array of str."""
         c = self.columns[col]

@@ -29,7 +29,7 @@ from aligner.errors import InputFormatError, InvalidParameterError
 from aligner.core.network import Network
 from aligner.core.identifiers import lookup, text_at
 from aligner.io.inputs import as_table
-from aligner.io.readers import data_lines, read_table
+from aligner.io.readers import Table, data_lines, read_table
 from aligner.core.rounding import Matching, round_matching
 from aligner.core.scoring import score_matching
 
@@ -71,11 +71,13 @@ class SeedTable:
 
 # --------------------------------------------------------------------------- reading
 
-def _check_seed_columns(a, b, net_a: Network, net_b: Network, source: str, where) -> SeedTable:
-    """Map identifier columns onto node indices; refuse unknown nodes and nodes in two pairs.
+def _check_seed_columns(table: Table, net_a: Network, net_b: Network) -> SeedTable:
+    """Map a table's first two columns onto node indices; refuse unknown nodes and nodes in two pairs.
 
-    ``where(r)`` names data row r for a message ("line 7" in a file, "row 3" in a table).
+    A message names the file and line of the row at fault (``seeds.tsv, line 7: ...``), or an
+    object's row (``<seeds>: row 3: ...``).
     """
+    a, b, source, where = table.text(0), table.text(1), table.source, table.where
     hint = "fix or remove it (every seed must name a node of A, then a node of B)"
     if len(a) == 0:
         raise InputFormatError("holds no seed pairs; give a table of known pairs node_a, node_b (one pair per "
@@ -92,8 +94,7 @@ def _check_seed_columns(a, b, net_a: Network, net_b: Network, source: str, where
                 extra = f"; it is a node of network {'B' if col == 0 else 'A'}: are the columns swapped?"
             elif r == 0:
                 extra = "; if this line is a header, give --header yes"
-            raise InputFormatError(f"{where(r)}: {value!r} in column {col + 1} is not a node of network {name}"
-                                   f"{extra}; {hint}", path=source)
+            raise table.error(r, f"{value!r} in column {col + 1} is not a node of network {name}{extra}; {hint}")
     pairs = np.stack([ia, ib], axis=1).astype(np.int64)
     # repeated identical rows are merged; a node in two different pairs is an error
     key = pairs[:, 0] * max(net_b.n, 1) + pairs[:, 1]
@@ -108,10 +109,9 @@ def _check_seed_columns(a, b, net_a: Network, net_b: Network, source: str, where
         if len(dup):
             r1, r2 = sorted((int(rows[order[dup[0]]]), int(rows[order[dup[0] + 1]])))
             node = (net_a if col == 0 else net_b).names[sv[dup[0]]]
-            raise InputFormatError(
-                f"{where(r2)}: node {node!r} of network {name} is already in the seed pair of {where(r1)}; "
-                "a node can be in one seed pair only (seeds are one-to-one): keep one of the two lines",
-                path=source)
+            raise table.error(r2, f"node {node!r} of network {name} is already in the seed pair of {where(r1)}; "
+                              "a node can be in one seed pair only (seeds are one-to-one): keep one of the two "
+                              + ("lines" if table.first_line is not None else "rows"))
     pairs = pairs[rows]
     pairs = pairs[np.lexsort((pairs[:, 1], pairs[:, 0]))].astype(np.int32)
     return SeedTable(pairs=pairs, n_rows=len(a), n_repeated=int(n_rep), source=source)
@@ -138,7 +138,7 @@ def read_seeds(path: str | os.PathLike, net_a: Network, net_b: Network, *, delim
         raise InputFormatError("is empty: it holds no seed pairs; give a table of known pairs node_a, node_b "
                                "(one pair per line), or leave out --seeds", path=path)
     table = read_table(path, min_cols=2, max_cols=64, delimiter=delimiter, header=header, what="seed table")
-    return _check_seed_columns(table.text(0), table.text(1), net_a, net_b, table.source, table.where)
+    return _check_seed_columns(table, net_a, net_b)
 
 
 def as_seeds(obj, net_a: Network, net_b: Network, *, delimiter: str | None = None,
@@ -153,7 +153,7 @@ def as_seeds(obj, net_a: Network, net_b: Network, *, delimiter: str | None = Non
     if isinstance(obj, (str, os.PathLike)):
         return read_seeds(obj, net_a, net_b, delimiter=delimiter, header=header)
     table = as_table(obj, name="seeds", layout="node_a, node_b", min_cols=2, max_cols=64, source="<seeds>")
-    return _check_seed_columns(table.text(0), table.text(1), net_a, net_b, table.source, table.where)
+    return _check_seed_columns(table, net_a, net_b)
 
 
 # --------------------------------------------------------------------------- candidates and h

@@ -417,9 +417,18 @@ def test_score_command_refuses_an_alignment_of_unknown_nodes(tmp_path):
 
 
 def test_score_command_refuses_a_map_that_is_not_one_to_one(tmp_path):
-    al = _write(tmp_path, "al.tsv", "a1\tb1\na2\tb1\n")
+    # Found by fuzzing: the message named no line, where the seed reader names both lines of the same
+    # problem. The documented form (docs/errors.md): "<file>, line <n>: ...", naming the earlier line
+    # too; a comment line and a row naming an unknown node do not shift the lines named.
+    al = _write(tmp_path, "al.tsv", "# map\na1\tb1\nzz\tb2\na2\tb1\n")
     res = runner.invoke(app, ["score", str(A), str(B), str(al)])
-    assert res.exit_code == 2 and "node 'b1' of network B is in more than one pair" in res.output
+    assert res.exit_code == 2, res.output
+    assert f"{al}, line 4: node 'b1' of network B is already in the pair of line 2" in res.output
+    assert "one-to-one" in res.output and "keep one of the two lines" in res.output
+    _no_traceback(res)
+    al = _write(tmp_path, "al2.tsv", "a1\tb1\na2\tb2\na1\tb1\n")  # the same row twice
+    res = runner.invoke(app, ["score", str(A), str(B), str(al)])
+    assert res.exit_code == 2 and f"{al}, line 3: repeats the pair ('a1', 'b1') of line 1" in res.output
     _no_traceback(res)
 
 

@@ -161,15 +161,17 @@ def test_bad_seed_files_name_the_line(tmp_path):
     # Common practice: each refused seed table names its file and line and what to do.
     a = network_from_edges(np.array(["a1", "a2", "a3"], dtype=object), np.array([0, 1]), np.array([1, 2]))
     b = network_from_edges(np.array(["b1", "b2", "b3"], dtype=object), np.array([0, 1]), np.array([1, 2]))
+    # the documented form (docs/errors.md): "<file>, line <n>: <what is wrong>", the line also in .line
     p = _write(tmp_path, "a1\tb1\na2\tb2\na1\tb3\n")
-    with pytest.raises(InputFormatError, match=r"line 3: node 'a1' of network A is already in the seed pair of "
-                                               r"line 1.*one-to-one"):
+    with pytest.raises(InputFormatError, match=r"seeds.tsv, line 3: node 'a1' of network A is already in the seed "
+                                               r"pair of line 1.*one-to-one") as info:
         read_seeds(p, a, b)
+    assert (info.value.path, info.value.line) == (str(p), 3)
     p = _write(tmp_path, "a1\tb1\na3\tb1\n")
-    with pytest.raises(InputFormatError, match=r"line 2: node 'b1' of network B .* line 1"):
+    with pytest.raises(InputFormatError, match=r"seeds.tsv, line 2: node 'b1' of network B .* line 1"):
         read_seeds(p, a, b)
     p = _write(tmp_path, "# known pairs\na1\tb1\na9\tb2\n")
-    with pytest.raises(InputFormatError, match=r"seeds.tsv: line 3: 'a9' in column 1 is not a node of network A"):
+    with pytest.raises(InputFormatError, match=r"seeds.tsv, line 3: 'a9' in column 1 is not a node of network A"):
         read_seeds(p, a, b)
     p = _write(tmp_path, "b1\ta1\n")
     with pytest.raises(InputFormatError, match="columns swapped"):
