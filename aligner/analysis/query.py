@@ -24,9 +24,10 @@ import pandas as pd
 from aligner.kernels.query import _local_push, _reset_slots
 from aligner.checks import check_choice, check_int, check_real, warn
 from aligner.core.candidates import CandidateSet
-from aligner.errors import ConvergenceError, InvalidParameterError
+from aligner.errors import ConvergenceError, InputFormatError, InvalidParameterError
 from aligner.core.network import Network
 from aligner.config import NORMALIZATIONS, SIDES, AlignConfig, QueryConfig, describe, from_options, specs, with_options
+from aligner.io.readers import read_node_list
 from aligner.pipeline import prepare
 from aligner.priors.seeds import SeedTable, seed_index, seed_vector
 
@@ -365,24 +366,41 @@ class QueryResult:
         return self.summary
 
 
-def _node_index(net: Network, name: str, side: str) -> int:
+def _node_index(net: Network, name: str, side: str, origin: tuple[str, int] | None = None) -> int:
+    """The index of an asked node; ``origin`` (file, line) is where a node file names it, for the message."""
     from aligner.core.identifiers import lookup
 
     i = int(lookup(net.names, np.array([str(name)], dtype=object))[0])
     if i < 0:
         here, there = ("A", "b") if side == "a" else ("B", "a")
-        raise InvalidParameterError(f"{name!r} is not a node of network {here}; check the name (for a node of "
-                                    f"network {'B' if there == 'b' else 'A'}, ask with --side {there}).")
+        text = (f"{name!r} is not a node of network {here}; check the name (for a node of network "
+                f"{'B' if there == 'b' else 'A'}, ask with --side {there}).")
+        if origin is not None:
+            raise InputFormatError(text, path=origin[0], line=origin[1])
+        raise InvalidParameterError(text)
     return i
 
 
-def _node_list(nodes) -> list[str]:
-    if isinstance(nodes, (str, os.PathLike)) or not hasattr(nodes, "__iter__"):
+def _node_list(nodes, node_file=None) -> tuple[list[str], list[tuple[str, int] | None]]:
+    """The asked nodes (``nodes``, then those of ``node_file``) and where each was named: None for
+    ``nodes``, (file, line) for a node file's."""
+    if nodes is None:
+        nodes = []
+    elif isinstance(nodes, (str, os.PathLike)) or not hasattr(nodes, "__iter__"):
         nodes = [nodes]
     nodes = [str(v) for v in nodes]
+    origins: list[tuple[str, int] | None] = [None] * len(nodes)
+    if node_file is not None:
+        path = os.fspath(node_file)
+        names, lines = read_node_list(path)
+        if not names and not nodes:
+            raise InputFormatError("holds no node: give one node identifier per line (blank lines and lines "
+                                   "starting with # are skipped)", path=path)
+        nodes += names
+        origins += [(path, line) for line in lines]
     if not nodes:
         raise InvalidParameterError("nodes must name at least one node; got none", param="nodes")
-    return nodes
+    return nodes, origins
 
 
 def _split_options(config, query_config, options: dict) -> tuple[AlignConfig, QueryConfig]:
@@ -428,8 +446,8 @@ def _answer(engine: QueryEngine, name: str, node: int, qcfg: QueryConfig, other_
 @with_options(QueryConfig, AlignConfig, names=("side", "top", "tol", "max_pushes", "answer", "max_region_pairs",
                                                "alpha", "top_k", "min_score", "score_kind", "normalization",
                                                "seed_weight", "delimiter", "header"))
-def query(network_a, network_b, prior=None, *, nodes, seeds=None, config: AlignConfig | None = None,
-          query: QueryConfig | None = None, **options: Any) -> QueryResult:
+def query(network_a, network_b, prior=None, *, nodes=None, node_file=None, seeds=None,
+          config: AlignConfig | None = None, query: QueryConfig | None = None, **options: Any) -> QueryResult:
     """Which nodes of B best correspond to these nodes of A (or the reverse), without a global solve.
 
     Parameters
@@ -439,6 +457,10 @@ def query(network_a, network_b, prior=None, *, nodes, seeds=None, config: AlignC
         candidates are then grown from the seeds, a global step).
     nodes : str or iterable of str
         The asked nodes (of A for side "a", of B for side "b").
+    node_file : path, optional
+        A file of further nodes to ask about, one per line (``#`` comments and blank lines
+        skipped, gzip allowed; :func:`aligner.io.readers.read_node_list`), asked after ``nodes``.
+        A node it names that is not in the network is an error naming the file and line.
     query : QueryConfig, optional
         The query's own options; keyword options override it.
 {options}
@@ -457,14 +479,15 @@ def query(network_a, network_b, prior=None, *, nodes, seeds=None, config: AlignC
     the certified bound; the product graph is not built.
     """
     cfg, qcfg = _split_options(config, query, options)
-    nodes = _node_list(nodes)
+    nodes, origins = _node_list(nodes, node_file)
     if prior is None and seeds is None:
         raise InvalidParameterError("query needs a prior or seeds: give a prior similarity table (--prior), or "
                                     "anchor pairs (--seeds)", param="prior")
     t0 = time.perf_counter()
     problem = prepare(network_a, network_b, prior, seeds=seeds, config=cfg, with_product=False)
     net_a, net_b = problem.network_a, problem.network_b
-    asked = [_node_index(net_a if qcfg.side == "a" else net_b, v, qcfg.side) for v in nodes]
+    asked = [_node_index(net_a if qcfg.side == "a" else net_b, v, qcfg.side, origin)
+             for v, origin in zip(nodes, origins)]
     engine = QueryEngine.from_problem(problem, qcfg)
     engine.warm_up()
     prep = time.perf_counter() - t0

@@ -81,7 +81,7 @@ Nodes = Annotated[Optional[list[str]], typer.Option("--node", "-n", metavar="NOD
                                                     help="A node to ask about (repeat for several).")]
 NodeFile = Annotated[Optional[Path], typer.Option(
     "--node-file", metavar="FILE", help="A file of nodes to ask about, one per line (blank lines and lines "
-    "starting with # skipped); with --node, both are asked.")]
+    "starting with # skipped; may be gzip-compressed); with --node, both are asked.")]
 
 
 # --------------------------------------------------------------------------- options from the declarations

@@ -48,6 +48,7 @@ __all__ = [
     "open_text",
     "check_readable",
     "data_lines",
+    "read_node_list",
     "DELIMITERS",
     "FIELD_BLANKS",
 ]
@@ -113,6 +114,38 @@ def data_lines(path: str, sep: str | None = None) -> Iterator[tuple[int, str]]:
         stripped = text.lstrip(blank)
         if stripped and not stripped.startswith("#"):
             yield no, text
+
+
+def read_node_list(path: str | os.PathLike) -> tuple[list[str], list[int]]:
+    """The nodes of a node file (``aligner query --node-file``): one identifier per line.
+
+    Read as every input (gzip by content, a UTF-8 byte-order mark removed); blank lines and lines
+    starting with ``#`` are skipped, and the spaces and tabs around an identifier removed.
+
+    Returns
+    -------
+    names, lines : list of str, list of int
+        The identifiers in file order and the line each is on, for messages.
+
+    Raises
+    ------
+    InputFormatError
+        The file is missing, unreadable, not UTF-8 or damaged; the message names it.
+    """
+    path = os.fspath(path)
+    check_readable(path)
+    names, lines = [], []
+    try:
+        for no, text in data_lines(path):
+            names.append(text.strip(FIELD_BLANKS))
+            lines.append(no)
+    except UnicodeDecodeError as exc:
+        raise InputFormatError(f"is not UTF-8 text ({exc.reason} at byte {exc.start}); save it as UTF-8",
+                               path=path) from None
+    except (OSError, EOFError, zlib.error) as exc:  # gzip.BadGzipFile is an OSError
+        raise InputFormatError(f"cannot be read ({exc}); check that the file is complete and not "
+                               "damaged", path=path) from None
+    return names, lines
 
 
 def _detect_delimiter(first: str) -> str | None:

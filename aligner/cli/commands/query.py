@@ -23,33 +23,21 @@ def query(network_a: NetworkA, network_b: NetworkB, nodes: Nodes = None, node_fi
           config: AlignConfig, query_config: QueryConfig):
     """Rank the best counterparts of a few nodes by a local diffusion, and give the counterpart the global
     assignment would choose, without aligning everything."""
-    nodes = list(nodes or []) + (_read_nodes(node_file) if node_file is not None else [])
-    if not nodes:
+    if not nodes and node_file is None:
         raise InvalidParameterError("name at least one node to ask about: --node NODE (repeat for several) or "
                                     "--node-file FILE", param="nodes")
     if prior is None and seeds is None:
         raise InvalidParameterError("a query needs a prior similarity table (--prior) or anchor pairs (--seeds)",
                                     param="prior")
-    check_inputs(network_a, network_b, prior, seeds)
+    check_inputs(network_a, network_b, prior, seeds, node_file)
     from aligner.analysis.query import query as run_query
     from aligner.render.console import query_tables
 
-    res = run_query(network_a, network_b, prior, nodes=nodes, seeds=seeds, config=config, query=query_config)
+    res = run_query(network_a, network_b, prior, nodes=nodes, node_file=node_file, seeds=seeds, config=config,
+                    query=query_config)
     if as_json:
         typer.echo(json.dumps(res.as_dict(), indent=2))
     elif not quiet:
         for table, work in query_tables(res.summary, side=query_config.side):
             out.print(table)
             say(work)
-
-
-def _read_nodes(path) -> list[str]:
-    """The nodes of a --node-file: one per line, blank lines and # comments skipped."""
-    try:
-        with open(path, encoding="utf-8-sig") as fh:
-            return [line.strip() for line in fh if line.strip() and not line.lstrip().startswith("#")]
-    except OSError as exc:
-        raise InvalidParameterError(f"cannot read the node file {str(path)!r}: {exc.strerror or exc}",
-                                    param="node_file") from None
-    except UnicodeDecodeError:
-        raise InvalidParameterError(f"the node file {str(path)!r} is not UTF-8 text", param="node_file") from None
