@@ -79,3 +79,23 @@ def test_dask_options_need_the_dask_engine(folder, tmp_path):
     assert res.exit_code == 2 and "--partitions is an option of the dask engine" in res.output
     res = runner.invoke(app, _args(folder, tmp_path / "o", "--engine", "spark"))
     assert res.exit_code == 2 and "--engine must be one of" in res.output
+
+
+def test_far_more_partitions_than_nodes_are_cut_down(folder, tmp_path):
+    # Found by differential testing: tens of thousands of partitions asked for on a small pair made
+    # the run take minutes and gigabytes (empty blocks and dataframe partitions are tasks of every
+    # step all the same). Common practice: clamp to what the data can fill and say so; the result
+    # is the local engine's (reference: the local run on the same files).
+    pytest.importorskip("distributed")
+    local = runner.invoke(app, _args(folder, tmp_path / "local"))
+    dask = runner.invoke(app, _args(folder, tmp_path / "dask", "--engine", "dask", "--workers", "2",
+                                    "--partitions", "100000"))
+    assert local.exit_code == 0 and dask.exit_code == 0, dask.output
+    a = pd.read_csv(tmp_path / "local" / "alignment.tsv", sep="\t")
+    b = pd.read_csv(tmp_path / "dask" / "alignment.tsv", sep="\t")
+    assert (a[["node_a", "node_b"]].values == b[["node_a", "node_b"]].values).all()
+    summary = json.loads((tmp_path / "dask" / "summary.json").read_text())
+    eng = summary["engine"]
+    assert eng["partitions_asked"] == 100000 and 1 <= eng["partitions"] <= 600  # at most one block per node of A
+    rows = summary["inputs"]["prior"]["rows"]
+    assert eng["reading"]["partitions"] <= max(1, -(-rows // 1000))

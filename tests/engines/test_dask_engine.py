@@ -419,3 +419,50 @@ def test_directed_networks_as_on_one_machine(client):
         assert got >= exact - res.summary["engine"]["auction"]["gap_bound"] - 1e-12
         pairs = res.candidates.pairs[res.matching.index]
         assert len(set(pairs[:, 0])) == len(pairs) == len(set(pairs[:, 1]))
+
+
+def test_alpha_zero_on_tied_prior_matches_like_one_machine(client):
+    # Found by differential testing: a prior used as it is (alpha 0) full of exact ties left a
+    # price war whose tail, matched among its own rows, fell short of the optimum (one pair fewer,
+    # 9 differing). Reference: the single-machine rounding (exact Jonker-Volgenant-type
+    # assignment, itself checked against scipy elsewhere); the engine falls back to it when the
+    # auction's duality gap is above the scores' certified error (0 at alpha 0).
+    import pandas as pd
+
+    import aligner
+    from aligner.engines.dask.engine import align as dask_align
+
+    from pathlib import Path
+
+    data = Path(__file__).parents[1] / "data" / "dask_alpha0"  # tests/data/dask_alpha0/README.md
+    ring_a, ring_b, prior = (pd.read_csv(data / f, sep="\t", header=None) for f in ("A.tsv", "B.tsv", "P.tsv"))
+    single = aligner.align(ring_a, ring_b, prior, alpha=0.0)
+    ref = {tuple(p) for p in single.candidates.pairs[single.matching.index].tolist()}
+    for k in (1, 2):
+        res = dask_align(ring_a, ring_b, prior, alpha=0.0, client=client, partitions=k)
+        got = {tuple(p) for p in res.candidates.pairs[res.matching.index].tolist()}
+        assert np.isclose(res.diffusion.x[res.matching.index].sum(), single.matching.weight, rtol=0, atol=1e-12), k
+        assert got == ref, k
+        eng = res.summary["engine"]["auction"]
+        assert eng["exact_on_client"] == (eng["gap_bound"] > res.diffusion.error_bound), k
+
+
+def test_certified_or_exact_keeps_a_certified_matching_and_replaces_another():
+    # Weak duality (the auction's gap_bound) against the scores' certified error: common practice
+    # for an a-posteriori check. A deliberately poor matching with a large gap is replaced by the
+    # exact one (scipy's linear_sum_assignment on the same weights as the reference).
+    from scipy.optimize import linear_sum_assignment
+
+    from aligner.core.candidates import CandidateSet
+
+    w = np.array([[3.0, 1.0], [1.0, 3.0]])
+    pairs = np.array([[0, 0], [0, 1], [1, 0], [1, 1]], dtype=np.int32)
+    cand = CandidateSet(pairs=pairs, prior=w.ravel(), a_indptr=np.array([0, 2, 4]), n1=2, n2=2)
+    poor = np.array([1, 2])  # (0, 1) and (1, 0): weight 2 against the optimum 6
+    rep = auction.AuctionReport(gap_bound=4.0)
+    assert np.array_equal(auction.certified_or_exact(cand, w.ravel(), poor, rep, resolved=5.0), poor)
+    assert not rep.exact_on_client
+    got = auction.certified_or_exact(cand, w.ravel(), poor, rep, resolved=1e-6)
+    r, c = linear_sum_assignment(-w)
+    assert sorted(map(tuple, pairs[got].tolist())) == sorted(zip(r.tolist(), c.tolist()))
+    assert rep.exact_on_client

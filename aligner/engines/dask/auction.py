@@ -38,6 +38,11 @@ distance to the optimum is bounded a posteriori by weak duality: for prices p >=
 profits pi_i = max(0, max_j w_ij - p_j), every matching weighs at most sum pi + sum p, and the
 report gives that bound minus the matching's weight (``gap_bound``).
 
+The tail's rows are matched among themselves only, so on weights full of exact ties (a prior
+used as it is, alpha 0) the result can fall short of the optimum. When ``gap_bound`` is above
+the diffusion's own certified error (what the scores resolve at all), the engine matches exactly
+on the client instead, which holds the candidates and x (:func:`certified_or_exact`).
+
 References
 ----------
 .. [1] D. P. Bertsekas, "A distributed algorithm for the assignment problem", Lab. for Information
@@ -60,7 +65,7 @@ from aligner.core.candidates import CandidateSet
 from aligner.core.rounding import round_matching
 
 __all__ = ["EPS_RELATIVE", "TAIL_ROWS", "TAIL_HOPS", "AuctionState", "Tally", "start", "step", "outbox", "figures",
-           "tally", "assignment", "prices", "tail_match", "run_auction", "dual_gap"]
+           "tally", "assignment", "prices", "tail_match", "run_auction", "dual_gap", "certified_or_exact"]
 
 #: eps as a share of the mean positive weight
 EPS_RELATIVE = 1e-9
@@ -314,12 +319,14 @@ class AuctionReport:
     tail_free: int = 0
     tail_rows: int = 0
     gap_bound: float = float("nan")
+    exact_on_client: bool = False
     seconds: float = 0.0
 
     def as_dict(self) -> dict:
         return {"rounds": self.rounds, "bids": self.bids, "messages": self.messages,
                 "message_entries": self.message_entries, "eps": self.eps, "tail_free_rows": self.tail_free,
-                "tail_rows": self.tail_rows, "gap_bound": self.gap_bound, "seconds": round(self.seconds, 4)}
+                "tail_rows": self.tail_rows, "gap_bound": self.gap_bound, "exact_on_client": self.exact_on_client,
+                "seconds": round(self.seconds, 4)}
 
 
 def run_auction(cluster, x_parts, cand: CandidateSet, x: np.ndarray, *, method: str = "auto",
@@ -358,6 +365,21 @@ def run_auction(cluster, x_parts, cand: CandidateSet, x: np.ndarray, *, method: 
     rep.gap_bound = dual_gap(cand, x, price, index)
     rep.seconds = time.perf_counter() - t0
     return index, rep
+
+
+def certified_or_exact(cand: CandidateSet, w: np.ndarray, index: np.ndarray, rep: AuctionReport, resolved: float,
+                       method: str = "auto") -> np.ndarray:
+    """The auction's matching ``index`` when its duality gap is at most ``resolved`` (the scores'
+    own certified error: no matching closer to the optimum can be told apart), else the exact
+    maximum-weight matching of ``w`` (:func:`aligner.core.rounding.round_matching`, the single
+    machine's), computed here; ``rep`` records which."""
+    if rep.gap_bound <= resolved:
+        return index
+    t0 = time.perf_counter()
+    exact = round_matching(cand, w, method=method).index
+    rep.exact_on_client = True
+    rep.seconds += time.perf_counter() - t0
+    return np.sort(exact)
 
 
 def _rounds(cluster, states, rep: AuctionReport, max_rounds: int, params: tuple, talk, tail_limit: float):

@@ -28,6 +28,7 @@ from typing import Any
 
 import numpy as np
 
+from aligner.checks import warn
 from aligner.config import DASK_READING, AlignConfig, from_options
 from aligner.core.diffusion import DiffusionResult
 from aligner.core.product import ProductGraph, estimate_product_edges
@@ -485,8 +486,17 @@ def _run(client, inputs, found: Candidates, cfg: AlignConfig, parts: int, mode: 
     a_ip, a_ix, _ = inputs.network_a.walk_adjacency(cfg.directed, cfg.weighted)
     b_ip, b_ix, _ = inputs.network_b.walk_adjacency(cfg.directed, cfg.weighted)
     estimate = estimate_product_edges(a_ip, a_ix, b_ip, cand)
-    engine: dict[str, Any] = {"partitions": parts, "workers": len(worker_addresses(client)),
+    # a block owns at least one node of A with candidates: more blocks would be empty ones, each
+    # still a task of every round and a table of every block's bounds (thousands of them made a
+    # small run take minutes and gigabytes)
+    busy = int(np.count_nonzero(np.diff(cand.a_indptr)))
+    engine: dict[str, Any] = {"partitions": min(parts, max(busy, 1)), "workers": len(worker_addresses(client)),
                               "reading": read_report}
+    if engine["partitions"] < parts:
+        engine["partitions_asked"] = parts
+        warn(f"{parts} partitions asked for, but only {busy} nodes of A have candidate pairs: the blocks are "
+             f"{engine['partitions']}, one node or more each")
+        parts = engine["partitions"]
     with clock.stage("product"):
         where[0] = "the product graph's build"
         t0 = time.perf_counter()
@@ -535,6 +545,7 @@ def _run(client, inputs, found: Candidates, cfg: AlignConfig, parts: int, mode: 
             x_parts = cluster.run(auction.without_fixed, x_parts, busy_a, busy_b)
             x_match = np.where(busy_a[cand.pairs[:, 0]] | busy_b[cand.pairs[:, 1]], 0.0, x)
         index, arep = auction.run_auction(cluster, x_parts, cand, x_match, method=cfg.rounding)
+        index = auction.certified_or_exact(cand, x_match, index, arep, diff.error_bound, method=cfg.rounding)
         if seed_idx is not None:
             index = np.sort(np.concatenate([index, seed_idx]))
         rounded = Matching(index=index, method="auction", weight=float(x[index].sum()),

@@ -51,6 +51,8 @@ _STRING = "string[pyarrow]"
 #: its numbering sent whole to every worker (about 40 bytes per node) for look-ups, rather than
 #: sorted on the cluster and joined by shuffles
 BROADCAST_NAMES = 5_000_000
+#: the dataframe steps use at most one partition per this many rows of the prior
+FRAME_ROWS = 1_000
 
 
 def on_cluster(network_a, network_b, prior, cfg: AlignConfig) -> bool:
@@ -382,6 +384,10 @@ def read_on_cluster(client, network_a, network_b, prior, cfg: AlignConfig, *, pa
     fp, rows_p, _, files_p = _read_parts(client, prior, _read_prior, "prior table", *read, cfg.prior_columns,
                                          cfg.score_kind)
     t1 = time.perf_counter()
+    # at least FRAME_ROWS rows of the prior per dataframe partition: more partitions than that
+    # are tasks and shuffle outputs with nothing in them (tens of thousands asked for on a small
+    # pair took minutes and gigabytes)
+    parts = max(1, min(parts, -(-int(sum(rows_p)) // FRAME_ROWS)))
     numbered = []
     for files, rows, cols in ((fa, rows_a, cols_a), (fb, rows_b, cols_b)):
         names = _names_of(client, files)
@@ -425,6 +431,7 @@ def select_on_cluster(client, read: ClusterRead, cfg: AlignConfig, *, parts: int
     import dask
     import dask.dataframe as dd
 
+    parts = min(parts, read.report["partitions"])  # as few as the reading chose (FRAME_ROWS)
     t0 = time.perf_counter()
     prior_meta = pd.DataFrame({"a": pd.Series([], dtype=_STRING), "b": pd.Series([], dtype=_STRING),
                                "s": np.empty(0), "keep": np.empty(0, dtype=bool)})
