@@ -23,6 +23,7 @@ from pathlib import Path
 from typing import Annotated, Any, Callable, Optional, get_args, get_origin, get_type_hints
 
 import typer
+from rich.markup import escape
 
 from aligner.config import Spec, specs
 from aligner.errors import InvalidParameterError
@@ -140,7 +141,8 @@ def _option(spec: Spec) -> Any:
         help_text += f" Choices: {', '.join(spec.choices)}."
     if spec.optional and spec.kind in ("real", "int"):
         help_text += " Give 'none' for None."
-    common = dict(help=help_text, rich_help_panel=spec.group, metavar=_metavar(spec))
+    # the help is rich markup: brackets of the text ('aligner[dask]') are escaped, not taken as tags
+    common = dict(help=escape(help_text), rich_help_panel=spec.group, metavar=_metavar(spec))
     if spec.kind == "bool":
         return Annotated[bool, typer.Option(spec.flag, **(common | {"metavar": FLAG}))]
     if spec.kind in ("real", "int"):

@@ -41,7 +41,8 @@ to the method is explained in [method.md](method.md).
 
 def _cell(text: object) -> str:
     """``text`` made safe for one Markdown table cell."""
-    return " ".join(str(text).split()).replace("|", "\\|")
+    # (option help is escaped for rich markup: "\\[" shows as "[")
+    return " ".join(str(text).split()).replace("\\[", "[").replace("|", "\\|")
 
 
 def _is_option(param) -> bool:

@@ -356,3 +356,10 @@ def test_convergence_advice_names_the_options_of_the_command(tmp_path, monkeypat
     assert "Traceback" not in res.output and text.count("error:") == 1
     assert "stopped before the residual tolerance 1e-06; " + advice + " (stopped after 3 steps" in text, text
     assert "max_work" not in text and not out.exists()
+
+
+def test_brackets_in_option_help_are_shown():
+    # Found by testing: the help is rich markup, which took "[dask]" of "pip install 'aligner[dask]'"
+    # for a tag and dropped it (common practice: escape text put into markup)
+    got = CliRunner().invoke(app, ["align", "--help"], env={"COLUMNS": "250"})
+    assert got.exit_code == 0 and "pip install 'aligner[dask]'" in got.output
