@@ -99,3 +99,14 @@ def test_far_more_partitions_than_nodes_are_cut_down(folder, tmp_path):
     assert eng["partitions_asked"] == 100000 and 1 <= eng["partitions"] <= 600  # at most one block per node of A
     rows = summary["inputs"]["prior"]["rows"]
     assert eng["reading"]["partitions"] <= max(1, -(-rows // 1000))
+
+
+def test_two_local_clusters_side_by_side_do_not_warn(recwarn):
+    # Found by testing: two runs at once warned "Port 8787 is already in use" on standard error,
+    # -q or not (each LocalCluster took dask's default web port). Common practice: a free port.
+    pytest.importorskip("distributed")
+    from aligner.engines.dask.engine import connect
+
+    with connect(workers=1) as first, connect(workers=1) as second:
+        assert first is not second
+    assert not [w for w in recwarn if "already in use" in str(w.message)]

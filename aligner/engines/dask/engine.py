@@ -316,7 +316,9 @@ def connect(client=None, *, scheduler: str | None = None, workers: int = 2):
         finally:
             c.close()
         return
-    cluster = LocalCluster(n_workers=workers, threads_per_worker=1, processes=True, dashboard_address=None)
+    # the scheduler's web server on a free port (None means dask's default port, 8787: a second run
+    # beside the first warned that it was taken)
+    cluster = LocalCluster(n_workers=workers, threads_per_worker=1, processes=True, dashboard_address=":0")
     c = Client(cluster)
     try:
         yield c
