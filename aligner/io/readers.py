@@ -15,6 +15,7 @@ import io as _io
 import os
 import re
 import zlib
+from contextlib import contextmanager
 from dataclasses import dataclass
 from typing import Iterator
 
@@ -135,17 +136,25 @@ def read_node_list(path: str | os.PathLike) -> tuple[list[str], list[int]]:
     path = os.fspath(path)
     check_readable(path)
     names, lines = [], []
-    try:
+    with _reading(path):
         for no, text in data_lines(path):
             names.append(text.strip(FIELD_BLANKS))
             lines.append(no)
+    return names, lines
+
+
+@contextmanager
+def _reading(path: str):
+    """Within this block, a file's bytes that are not UTF-8 text, or cannot be read or
+    decompressed, raise InputFormatError naming the file."""
+    try:
+        yield
     except UnicodeDecodeError as exc:
         raise InputFormatError(f"is not UTF-8 text ({exc.reason} at byte {exc.start}); save it as UTF-8",
                                path=path) from None
     except (OSError, EOFError, zlib.error) as exc:  # gzip.BadGzipFile is an OSError
         raise InputFormatError(f"cannot be read ({exc}); check that the file is complete and not "
                                "damaged", path=path) from None
-    return names, lines
 
 
 def _detect_delimiter(first: str) -> str | None:
@@ -447,14 +456,9 @@ def read_table(path: str | os.PathLike, *, min_cols: int, max_cols: int, delimit
             raise all_parts_empty(path, len(files), what)
         return _joined(path, parts, what)
     try:
-        return _read_table(path, min_cols=min_cols, max_cols=max_cols, delimiter=delimiter, header=header,
-                           what=what, pick=pick, required=required, text_cols=text_cols)
-    except UnicodeDecodeError as exc:
-        raise InputFormatError(f"is not UTF-8 text ({exc.reason} at byte {exc.start}); save it as UTF-8",
-                               path=path) from None
-    except (OSError, EOFError, zlib.error) as exc:  # gzip.BadGzipFile is an OSError
-        raise InputFormatError(f"cannot be read ({exc}); check that the file is complete and not "
-                               "damaged", path=path) from None
+        with _reading(path):
+            return _read_table(path, min_cols=min_cols, max_cols=max_cols, delimiter=delimiter, header=header,
+                               what=what, pick=pick, required=required, text_cols=text_cols)
     except csv.Error as exc:
         raise InputFormatError(f"cannot be parsed ({exc}); check the quoting and the delimiter (give "
                                "--delimiter)", path=path) from None

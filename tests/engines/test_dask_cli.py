@@ -23,16 +23,22 @@ def _args(folder, out, *extra):
             "--truth", str(folder / "truth.tsv"), "-o", str(out), "-q", *extra]
 
 
-def test_dask_engine_writes_the_local_engines_alignment(folder, tmp_path):
+def _local_and_dask(folder, tmp_path, partitions: str) -> dict:
+    """Run the local engine and the dask engine (2 workers, ``partitions``) on ``folder``; check they
+    write the same alignment; the dask run's summary."""
     pytest.importorskip("distributed")
     local = runner.invoke(app, _args(folder, tmp_path / "local"))
     dask = runner.invoke(app, _args(folder, tmp_path / "dask", "--engine", "dask", "--workers", "2",
-                                    "--partitions", "3"))
+                                    "--partitions", partitions))
     assert local.exit_code == 0 and dask.exit_code == 0, dask.output
     a = pd.read_csv(tmp_path / "local" / "alignment.tsv", sep="\t")
     b = pd.read_csv(tmp_path / "dask" / "alignment.tsv", sep="\t")
     assert (a[["node_a", "node_b"]].values == b[["node_a", "node_b"]].values).all()
-    summary = json.loads((tmp_path / "dask" / "summary.json").read_text())
+    return json.loads((tmp_path / "dask" / "summary.json").read_text())
+
+
+def test_dask_engine_writes_the_local_engines_alignment(folder, tmp_path):
+    summary = _local_and_dask(folder, tmp_path, "3")
     eng = summary["engine"]
     assert eng["partitions"] == 3 and eng["workers"] == 2 and 0 < eng["cut_fraction"] < 1
     assert {"rounds", "messages", "edge_touches", "ghost_pairs", "seconds"} <= set(eng)
@@ -86,15 +92,7 @@ def test_far_more_partitions_than_nodes_are_cut_down(folder, tmp_path):
     # the run take minutes and gigabytes (empty blocks and dataframe partitions are tasks of every
     # step all the same). Common practice: clamp to what the data can fill and say so; the result
     # is the local engine's (reference: the local run on the same files).
-    pytest.importorskip("distributed")
-    local = runner.invoke(app, _args(folder, tmp_path / "local"))
-    dask = runner.invoke(app, _args(folder, tmp_path / "dask", "--engine", "dask", "--workers", "2",
-                                    "--partitions", "100000"))
-    assert local.exit_code == 0 and dask.exit_code == 0, dask.output
-    a = pd.read_csv(tmp_path / "local" / "alignment.tsv", sep="\t")
-    b = pd.read_csv(tmp_path / "dask" / "alignment.tsv", sep="\t")
-    assert (a[["node_a", "node_b"]].values == b[["node_a", "node_b"]].values).all()
-    summary = json.loads((tmp_path / "dask" / "summary.json").read_text())
+    summary = _local_and_dask(folder, tmp_path, "100000")
     eng = summary["engine"]
     assert eng["partitions_asked"] == 100000 and 1 <= eng["partitions"] <= 600  # at most one block per node of A
     rows = summary["inputs"]["prior"]["rows"]
