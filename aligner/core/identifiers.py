@@ -16,7 +16,8 @@ import numpy as np
 import pyarrow as pa
 import pyarrow.compute as pac
 
-__all__ = ["as_arrow_strings", "intern", "names_from_arrow", "lookup", "text_at", "PairTable", "pairs_from_columns"]
+__all__ = ["as_arrow_strings", "intern", "names_from_arrow", "lookup", "text_at", "PairTable", "pairs_from_columns",
+           "first_shared_node"]
 
 
 def as_arrow_strings(values) -> pa.Array:
@@ -145,6 +146,22 @@ class PairTable:
     n_unknown: int
     unknown_examples: list[str] = field(default_factory=list)
     source: str = "<memory>"
+
+
+def first_shared_node(pairs: np.ndarray) -> tuple[int, int, int] | None:
+    """Where a one-to-one table of pairs (k x 2 node indices, in row order) first breaks: the
+    earliest row whose node of A (side 0) or of B (side 1) an earlier row already has, as (that
+    row, the earlier row, side); None when every node is in one row only."""
+    found = None
+    for side in (0, 1):
+        v = pairs[:, side]
+        order = np.argsort(v, kind="stable")
+        dup = np.flatnonzero(v[order][1:] == v[order][:-1]) + 1
+        if len(dup):
+            k = dup[np.argmin(order[dup])]  # the stable sort puts the earlier row with that node just before
+            if found is None or order[k] < found[0]:
+                found = (int(order[k]), int(order[k - 1]), side)
+    return found
 
 
 def pairs_from_columns(a, b, net_a, net_b, *, source: str = "<memory>") -> PairTable:

@@ -21,7 +21,7 @@ import pandas as pd
 from aligner.checks import warn
 from aligner.core.network import Network, network_from_edges
 from aligner.errors import InputFormatError, InvalidParameterError, NoCandidatesError
-from aligner.core.identifiers import PairTable, lookup, pairs_from_columns
+from aligner.core.identifiers import PairTable, first_shared_node, lookup, pairs_from_columns
 from aligner.io.readers import Columns, Table, network_from_table, prior_pick, read_network, read_table
 from aligner.core.prior import PriorTable, prior_from_columns
 
@@ -251,15 +251,7 @@ def as_alignment(obj, net_a: Network, net_b: Network, delimiter, header) -> Pair
 def _one_to_one(t: PairTable, net_a: Network, net_b: Network, table: Table | None) -> PairTable:
     """Refuse a node in two pairs of ``t``: the earliest row that repeats a node, and the row before it
     with that node, named in ``table`` (None: no rows to name)."""
-    found = None  # (row among the known pairs, the earlier row, side)
-    for side in (0, 1):
-        v = t.pairs[:, side]
-        order = np.argsort(v, kind="stable")
-        dup = np.flatnonzero(v[order][1:] == v[order][:-1]) + 1
-        if len(dup):
-            k = dup[np.argmin(order[dup])]
-            if found is None or order[k] < found[0]:
-                found = (int(order[k]), int(order[k - 1]), side)
+    found = first_shared_node(t.pairs)  # (row among the known pairs, the earlier row, side)
     if found is None:
         return t
     r2, r1, side = found

@@ -542,18 +542,26 @@ def _is_number(col: pd.Series, na: bool) -> np.ndarray:
     return ok
 
 
+def _bad_fields(col: pd.Series, kind: object) -> np.ndarray:
+    """Per field of ``col``: whether it is not what a column of ``kind`` holds (see :func:`read_run_table`)."""
+    if kind == "name":
+        return (col == "").to_numpy()
+    if isinstance(kind, tuple):
+        return ~col.isin(kind).to_numpy()
+    if kind in ("number", "number?"):
+        return ~_is_number(col, kind == "number?")
+    return np.zeros(len(col), dtype=bool)
+
+
 def _field_problem(df: pd.DataFrame, row: int, columns: Mapping[str, object]) -> str:
     """What is wrong with the first bad field of ``row``."""
     for name, kind in columns.items():
-        if name not in df:
+        if name not in df or not _bad_fields(df[name].iloc[row:row + 1], kind)[0]:
             continue
         value = df[name].iat[row]
-        if kind == "name" and value == "":
-            return f"the {name} field is empty"
-        if isinstance(kind, tuple) and value not in kind:
+        if isinstance(kind, tuple):
             return f"the {name} field {value!r} is not one of {', '.join(kind)}"
-        if kind in ("number", "number?") and not _is_number(df[name].iloc[row:row + 1], kind == "number?")[0]:
-            return f"the {name} field {value!r} is not a number" if value else f"the {name} field is empty"
+        return f"the {name} field {value!r} is not a number" if value != "" else f"the {name} field is empty"
     return "the row is malformed"
 
 
@@ -599,15 +607,8 @@ def read_run_table(path: str | os.PathLike, columns: Mapping[str, object], *, re
                              f"{', '.join(missing)}", line=1, rerun=rerun)
     bad = np.zeros(len(df), dtype=bool)
     for name, kind in columns.items():
-        if name not in df:
-            continue
-        col = df[name]
-        if kind == "name":
-            bad |= (col == "").to_numpy()
-        elif isinstance(kind, tuple):
-            bad |= ~col.isin(kind).to_numpy()
-        elif kind in ("number", "number?"):
-            bad |= ~_is_number(col, kind == "number?")
+        if name in df:
+            bad |= _bad_fields(df[name], kind)
     if bad.any():  # a blank line is a row of empty fields (so line numbers hold): skipped, as a reader would
         blank = np.ones(len(df), dtype=bool)
         for _, col in df.items():

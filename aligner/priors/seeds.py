@@ -27,7 +27,7 @@ from aligner.config import AlignConfig
 from aligner.core.candidates import CandidateSet, build_candidates
 from aligner.errors import InputFormatError, InvalidParameterError
 from aligner.core.network import Network
-from aligner.core.identifiers import lookup, text_at
+from aligner.core.identifiers import first_shared_node, lookup, text_at
 from aligner.io.inputs import as_table
 from aligner.io.readers import Table, data_lines, read_table
 from aligner.core.rounding import Matching, round_matching
@@ -101,17 +101,15 @@ def _check_seed_columns(table: Table, net_a: Network, net_b: Network) -> SeedTab
     _, first = np.unique(key, return_index=True)
     rows = np.sort(first)
     n_rep = len(pairs) - len(rows)
-    for col, name in ((0, "A"), (1, "B")):
-        v = pairs[rows, col]
-        order = np.argsort(v, kind="stable")
-        sv = v[order]
-        dup = np.flatnonzero(sv[1:] == sv[:-1])
-        if len(dup):
-            r1, r2 = sorted((int(rows[order[dup[0]]]), int(rows[order[dup[0] + 1]])))
-            node = (net_a if col == 0 else net_b).names[sv[dup[0]]]
-            raise table.error(r2, f"node {node!r} of network {name} is already in the seed pair of {where(r1)}; "
-                              "a node can be in one seed pair only (seeds are one-to-one): keep one of the two "
-                              + ("lines" if table.first_line is not None else "rows"))
+    found = first_shared_node(pairs[rows])
+    if found is not None:
+        k2, k1, col = found
+        r1, r2 = int(rows[k1]), int(rows[k2])
+        name = "A" if col == 0 else "B"
+        node = (net_a if col == 0 else net_b).names[pairs[r2, col]]
+        raise table.error(r2, f"node {node!r} of network {name} is already in the seed pair of {where(r1)}; "
+                          "a node can be in one seed pair only (seeds are one-to-one): keep one of the two "
+                          + ("lines" if table.first_line is not None else "rows"))
     pairs = pairs[rows]
     pairs = pairs[np.lexsort((pairs[:, 1], pairs[:, 0]))].astype(np.int32)
     return SeedTable(pairs=pairs, n_rows=len(a), n_repeated=int(n_rep), source=source)
