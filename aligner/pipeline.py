@@ -36,9 +36,10 @@ from aligner.core.confidence import matching_confidence
 from aligner.core.diffusion import DiffusionResult, column_scale, diffuse, prior_vector
 from aligner.core.network import Network
 from aligner.core.product import ProductGraph, build_product, estimate_product_edges
-from aligner.core.refine import RefineResult, perturbed_scores, refine_from_starts
+from aligner.core.refine import RefineResult, matched_counts, perturbed_scores, refine_from_starts
 from aligner.core.rounding import Matching, round_matching
-from aligner.core.scoring import Scores, conserved_image, conserved_per_node, score_matching, share_correct
+from aligner.core.scoring import (Scores, conserved_image, conserved_per_node, image_after_moves, partner_map,
+                                  score_matching, share_correct)
 from aligner.core.significance import significance
 from aligner.core.transfer import DIRECTIONS, transfer_counts, transferred_edges
 from aligner.core.weights import AGREEMENT_FLOOR, walk_degree, walk_weights
@@ -538,14 +539,19 @@ class Evaluation:
     ambiguity: Ambiguity | None = None
 
 
-def _score(inputs: Inputs, matched: np.ndarray, cfg: AlignConfig) -> tuple[Scores, np.ndarray, np.ndarray]:
-    """Scores, the conserved-edge mask and the image rows of A's scored edges under ``matched``."""
+def _score(inputs: Inputs, matched: np.ndarray, cfg: AlignConfig, near: tuple | None = None
+           ) -> tuple[Scores, np.ndarray, np.ndarray]:
+    """Scores, the conserved-edge mask and the image rows of A's scored edges under ``matched``.
+
+    ``near``: (image, matched) of another matching already scored, from which the image is
+    carried over where no end's partner differs (:func:`aligner.core.scoring.image_after_moves`)."""
     ea, wa = inputs.network_a.scored_edges(cfg.directed)
     eb, wb = inputs.network_b.scored_edges(cfg.directed)
     truth = None if inputs.truth is None else inputs.truth.pairs
-    f = np.full(inputs.network_a.n, -1, dtype=np.int64)
-    f[matched[:, 0]] = matched[:, 1]
-    image = conserved_image(ea, eb, f, inputs.network_b.n, cfg.directed)
+    n1, n2 = inputs.network_a.n, inputs.network_b.n
+    f = partner_map(matched, n1)
+    image = (conserved_image(ea, eb, f, n2, cfg.directed) if near is None
+             else image_after_moves(ea, eb, near[0], partner_map(near[1], n1), f, n2, cfg.directed))
     scores, cons = score_matching(ea, eb, matched, inputs.network_a.n, inputs.network_b.n, truth=truth,
                                   directed=cfg.directed, weights_a=wa if cfg.weighted else None,
                                   weights_b=wb if cfg.weighted else None, image=image)
@@ -577,30 +583,37 @@ def _conserved_table(names_a, names_b, edges_a: np.ndarray, f: np.ndarray, cons:
 def conserved_frame(net_a: Network, net_b: Network, matched: np.ndarray, cons: np.ndarray,
                     directed: bool = False) -> pd.DataFrame:
     """The conserved edges of A with their images in B, by name."""
-    f = np.full(net_a.n, -1, dtype=np.int64)
-    f[matched[:, 0]] = matched[:, 1]
+    f = partner_map(matched, net_a.n)
     return _conserved_table(_name_column(net_a), _name_column(net_b), net_a.scored_edges(directed)[0],
                             f, cons)
 
 
-def _confidence(problem: Problem, diffusion: DiffusionResult, index: np.ndarray) -> np.ndarray:
+def _confidence(problem: Problem, diffusion: DiffusionResult, index: np.ndarray, counts=None) -> np.ndarray:
     """The confidence of the matched pairs (:func:`aligner.core.confidence.matching_confidence`):
-    the loss of the refinement's objective at the pair's best 2-exchange, as L / (1 + L)."""
+    the loss of the refinement's objective at the pair's best 2-exchange, as L / (1 + L).
+    ``counts``: :func:`_unit_counts` of ``index``, when computed already."""
     cfg = problem.config
     prod = problem.product.symmetrised()  # S + S^T when directed (built once), else S
-    return matching_confidence(prod, problem.candidates, diffusion.x, index, beta=cfg.beta,
-                               edge_weights=_counted_weights(cfg, prod))
+    weights = _counted_weights(cfg, prod)
+    return matching_confidence(prod, problem.candidates, diffusion.x, index, beta=cfg.beta, edge_weights=weights,
+                               counts=counts if weights is None else None)
+
+
+def _unit_counts(problem: Problem, index: np.ndarray) -> np.ndarray | None:
+    """g = S 1_M, each entry of the (symmetrised) product graph counting 1: what the confidence
+    (in an unweighted run) and the ambiguity both start from, made once; None for no pair."""
+    return matched_counts(problem.product.symmetrised(), index) if len(index) else None
 
 
 def _pairs_frame(problem: Problem, diffusion: DiffusionResult, index: np.ndarray, cons: np.ndarray,
-                 names_a, names_b, ambiguity: Ambiguity) -> pd.DataFrame:
+                 names_a, names_b, ambiguity: Ambiguity, counts=None) -> pd.DataFrame:
     net_a, cand = problem.network_a, problem.candidates
     matched = cand.pairs[index].astype(np.int64)
     per_node = conserved_per_node(net_a.scored_edges(problem.config.directed)[0], cons, net_a.n)
     return pd.DataFrame({"node_a": _names_at(names_a, matched[:, 0]), "node_b": _names_at(names_b, matched[:, 1]),
                          "score": diffusion.x[index], "prior": cand.prior[index],
                          "conserved": per_node[matched[:, 0]],
-                         "confidence": _confidence(problem, diffusion, index),
+                         "confidence": _confidence(problem, diffusion, index, counts),
                          "alternatives": _alternatives_column(problem.network_b, ambiguity)})
 
 
@@ -614,11 +627,11 @@ def _alternatives_column(net_b: Network, ambiguity: Ambiguity) -> np.ndarray:
     return out
 
 
-def _ambiguity(problem: Problem, index: np.ndarray, optima=()) -> Ambiguity:
+def _ambiguity(problem: Problem, index: np.ndarray, optima=(), counts=None) -> Ambiguity:
     prod = problem.product.symmetrised()  # S + S^T when directed (built once), else S
     a, b = problem.network_a, problem.network_b
     return find_ambiguity(prod, problem.candidates, index, walk_a=(a.indptr, a.indices),
-                          walk_b=(b.indptr, b.indices), optima=optima)
+                          walk_b=(b.indptr, b.indices), optima=optima, counts=counts)
 
 
 def _nc_up_to_ambiguity(inputs: Inputs, matched: np.ndarray, ambiguity: Ambiguity) -> float | None:
@@ -649,7 +662,7 @@ def evaluate(problem: Problem, diffusion: DiffusionResult, improvement: Improvem
     if improvement.refined is not None:
         rounded = improvement.rounded.index
         before = (scores if np.array_equal(rounded, index)  # the refinement moved nothing
-                  else _score(inputs, cand.pairs[rounded].astype(np.int64), cfg)[0])
+                  else _score(inputs, cand.pairs[rounded].astype(np.int64), cfg, near=(image, matched))[0])
     if cfg.directed:
         sig = {"skipped": "not computed for directed networks: its null model counts undirected edges"}
     else:
@@ -663,13 +676,13 @@ def evaluate(problem: Problem, diffusion: DiffusionResult, improvement: Improvem
         expansion = problem.origin.expansion
         seeds["expansion"] = None if expansion is None else expansion.report()
     names_a, names_b = _name_column(inputs.network_a), _name_column(inputs.network_b)
-    f = np.full(inputs.network_a.n, -1, dtype=np.int64)
-    f[matched[:, 0]] = matched[:, 1]
+    f = partner_map(matched, inputs.network_a.n)
     edges_a = inputs.network_a.scored_edges(cfg.directed)[0]
     counts = transfer_counts(edges_a, inputs.network_b.scored_edges(cfg.directed)[0], matched, inputs.network_a.n,
                              inputs.network_b.n, scores.conserved_edges)
-    ambiguity = _ambiguity(problem, index, () if improvement.refined is None else improvement.refined.near_optima)
-    return Evaluation(scores, before, _pairs_frame(problem, diffusion, index, cons, names_a, names_b, ambiguity),
+    g = _unit_counts(problem, index)
+    ambiguity = _ambiguity(problem, index, () if improvement.refined is None else improvement.refined.near_optima, g)
+    return Evaluation(scores, before, _pairs_frame(problem, diffusion, index, cons, names_a, names_b, ambiguity, g),
                       _conserved_table(names_a, names_b, edges_a, f, cons), sig, seeds, counts, image, ambiguity)
 
 

@@ -42,7 +42,7 @@ from scipy.sparse.csgraph import connected_components
 from aligner.core.arrays import unique
 from aligner.core.candidates import CandidateSet
 from aligner.core.product import ProductGraph
-from aligner.core.refine import _matched_counts
+from aligner.core.refine import matched_counts
 from aligner.kernels.refine import neutral_exchanges
 
 __all__ = ["Ambiguity", "colour_classes", "find_ambiguity", "PRIOR_TOL", "MAX_ALTERNATIVES"]
@@ -177,12 +177,14 @@ def _from_optima(cand: CandidateSet, index: npt.NDArray[np.int64], optima, prior
 
 
 def find_ambiguity(prod: ProductGraph, cand: CandidateSet, index: npt.ArrayLike, *, walk_a, walk_b,
-                   prior_tol: float = PRIOR_TOL, optima=()) -> Ambiguity:
+                   prior_tol: float = PRIOR_TOL, optima=(), counts: npt.NDArray[np.float64] | None = None
+                   ) -> Ambiguity:
     """Alternatives and groups of the matching ``index`` (candidate indices), see the module.
 
     ``prod`` is the (symmetrised, for directed networks) product graph; ``walk_a``, ``walk_b``
     the (indptr, indices) adjacencies colour refinement runs on; ``optima`` other matchings
-    (candidate indices) that conserve nearly as many edges.
+    (candidate indices) that conserve nearly as many edges; ``counts`` g = S 1_M (each entry
+    counting 1) when the caller has it already.
     """
     index = np.asarray(index, dtype=np.int64)
     n1, n2 = cand.n1, cand.n2
@@ -192,7 +194,7 @@ def find_ambiguity(prod: ProductGraph, cand: CandidateSet, index: npt.ArrayLike,
     mate_b = np.full(n2, -1, dtype=np.int64)
     mate_a[pa[index]] = index
     mate_b[pb[index]] = index
-    g = _matched_counts(prod, index) if len(index) else np.zeros(cand.m)
+    g = counts if counts is not None else matched_counts(prod, index) if len(index) else np.zeros(cand.m)
     rows = neutral_exchanges(prod.indptr, prod.indices, cand.a_indptr, pa, pb, np.ascontiguousarray(g),
                              np.ascontiguousarray(cand.prior, dtype=np.float64), mate_a, mate_b, float(prior_tol))
     rows = rows.reshape(-1, 5)

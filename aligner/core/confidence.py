@@ -15,7 +15,7 @@ import numpy.typing as npt
 
 from aligner.core.candidates import CandidateSet
 from aligner.core.product import ProductGraph
-from aligner.core.refine import _matched_counts, normalise_weights
+from aligner.core.refine import matched_counts, normalise_weights
 from aligner.kernels.product import thread_count
 from aligner.kernels.refine import exchange_losses
 from aligner.kernels.scoring import best_two
@@ -76,7 +76,8 @@ def pair_confidence(cand: CandidateSet, x: npt.ArrayLike, index: npt.ArrayLike) 
 
 
 def exchange_loss(prod: ProductGraph, cand: CandidateSet, w: npt.ArrayLike, index: npt.ArrayLike, *,
-                  beta: float, edge_weights: npt.ArrayLike | None = None) -> npt.NDArray[np.float64]:
+                  beta: float, edge_weights: npt.ArrayLike | None = None,
+                  counts: npt.NDArray[np.float64] | None = None) -> npt.NDArray[np.float64]:
     r"""For each matched pair, the least the refinement's objective falls by a 2-exchange that
     removes it (``inf`` when no such move exists).
 
@@ -101,14 +102,15 @@ def exchange_loss(prod: ProductGraph, cand: CandidateSet, w: npt.ArrayLike, inde
     weight, as the refinement does under the agreement weight model; None counts each 1.
     One compiled pass over the m candidates (:func:`aligner.kernels.refine.exchange_losses`):
     O(m log d) with d the largest row of the product graph or of the candidates, and no array
-    of m entries beyond f.
+    of m entries beyond f. ``counts``: g = S 1_M (with the ``edge_weights``) when the caller
+    has it already (computed here otherwise).
     """
     index = np.asarray(index, dtype=np.int64)
     if not len(index):
         return np.zeros(0)
     s_w = np.empty(0) if edge_weights is None else np.ascontiguousarray(edge_weights, dtype=np.float64)
     f = beta * normalise_weights(w)[0]
-    f += _matched_counts(prod, index, s_w)
+    f += matched_counts(prod, index, s_w) if counts is None else counts
     pa = np.ascontiguousarray(cand.pairs[:, 0], dtype=np.int64)
     pb = np.ascontiguousarray(cand.pairs[:, 1], dtype=np.int64)
     mate_a = np.full(cand.n1, -1, dtype=np.int64)
@@ -134,7 +136,8 @@ def exchange_loss(prod: ProductGraph, cand: CandidateSet, w: npt.ArrayLike, inde
 
 
 def matching_confidence(prod: ProductGraph, cand: CandidateSet, w: npt.ArrayLike, index: npt.ArrayLike, *,
-                        beta: float, edge_weights: npt.ArrayLike | None = None) -> npt.NDArray[np.float64]:
+                        beta: float, edge_weights: npt.ArrayLike | None = None,
+                        counts: npt.NDArray[np.float64] | None = None) -> npt.NDArray[np.float64]:
     """Confidence of each pair of the final matching, in [0, 1]: L / (1 + L), with L >= 0 the
     pair's :func:`exchange_loss` (clipped at 0; 1 when the pair has no alternative at all).
 
@@ -155,7 +158,7 @@ def matching_confidence(prod: ProductGraph, cand: CandidateSet, w: npt.ArrayLike
     with errors, the default demo and the connectome pair in docs/results.md
     (``scripts/bench/calibration.py``). Deterministic: a fixed sequence of vector operations.
     """
-    loss = exchange_loss(prod, cand, w, index, beta=beta, edge_weights=edge_weights)
+    loss = exchange_loss(prod, cand, w, index, beta=beta, edge_weights=edge_weights, counts=counts)
     out = np.ones(len(loss))
     fin = np.isfinite(loss)
     lf = np.maximum(loss[fin], 0.0)

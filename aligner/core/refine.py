@@ -77,7 +77,7 @@ from aligner.core.product import ProductGraph
 from aligner.core.rounding import METHODS, round_matching
 
 __all__ = ["RefineResult", "refine_matching", "refine_from_starts", "continue_local_search", "perturbed_scores",
-           "refine_objective", "normalise_weights",
+           "refine_objective", "normalise_weights", "matched_counts",
            "DEFAULT_BETA", "DEFAULT_MAX_ITER", "DEFAULT_PATIENCE", "STEPS"]
 
 #: Default weight of the normalised matched weight against one conserved edge (the ``beta``
@@ -180,7 +180,7 @@ def normalise_weights(w: npt.ArrayLike) -> tuple[npt.NDArray[np.float64], float]
 _UNIT = np.empty(0, dtype=np.float64)  # no entry weights: every entry of S counts 1
 
 
-def _matched_counts(prod: ProductGraph, index: npt.NDArray[np.int64],
+def matched_counts(prod: ProductGraph, index: npt.NDArray[np.int64],
                     s_w: npt.NDArray[np.float64] = _UNIT) -> npt.NDArray[np.float64]:
     """S @ 1_index: matched product-graph neighbours of every pair (summed entry weights with ``s_w``)."""
     g = np.empty(prod.m, dtype=np.float64)
@@ -203,10 +203,10 @@ def refine_objective(prod: ProductGraph, bw: npt.NDArray[np.float64], index: npt
     """F(M) = sum_{k in M} bw_k + C(M) and the conserved edges, with C(M) = 1/2 sum_{k in M} (S 1_M)_k
     (S's entries the ``edge_weights`` when given, else 1)."""
     index = np.asarray(index, dtype=np.int64)
-    g = _matched_counts(prod, index)
+    g = matched_counts(prod, index)
     if edge_weights is None:
         return _objective(bw, g, index), _conserved(g, index)
-    gw = _matched_counts(prod, index, np.ascontiguousarray(edge_weights, dtype=np.float64))
+    gw = matched_counts(prod, index, np.ascontiguousarray(edge_weights, dtype=np.float64))
     return _objective(bw, gw, index), _conserved(g, index)
 
 
@@ -453,7 +453,7 @@ def _start(prod: ProductGraph, cand: CandidateSet, w, index, opts: _Options, edg
         opts = opts._replace(s_w=s_w, s_max=_max_entry(prod.indptr, prod.indices) * float(s_w.max(initial=0.0)))
     wn, scale = normalise_weights(w)
     bw = opts.beta * wn
-    return opts, w, index, bw, scale, _matched_counts(prod, index, opts.s_w)
+    return opts, w, index, bw, scale, matched_counts(prod, index, opts.s_w)
 
 
 def refine_matching(prod: ProductGraph, cand: CandidateSet, w: npt.ArrayLike, index: npt.ArrayLike, *,
@@ -533,7 +533,7 @@ def refine_matching(prod: ProductGraph, cand: CandidateSet, w: npt.ArrayLike, in
     inc.record()
     iters, moves, n_rounds, hit_cap = _run_rounds(prod, cand, bw, inc, opts)
     if edge_weights is not None:  # the reported figures count edges
-        g, inc.g = _matched_counts(prod, index), _matched_counts(prod, inc.index)
+        g, inc.g = matched_counts(prod, index), matched_counts(prod, inc.index)
     return RefineResult(index=inc.index, iterations=iters, objective=inc.history,
                         conserved_before=_conserved(g, index), conserved_after=_conserved(inc.g, inc.index),
                         weight_before=float(w[index].sum()), weight_after=float(w[inc.index].sum()),
@@ -576,7 +576,7 @@ def continue_local_search(prod: ProductGraph, cand: CandidateSet, w: npt.ArrayLi
                  ids(touched), ids(freed_a), ids(freed_b))
     marked = int(np.count_nonzero(dirty))
     # the reported figures count edges
-    c0 = _conserved(g if edge_weights is None else _matched_counts(prod, index), index)
+    c0 = _conserved(g if edge_weights is None else matched_counts(prod, index), index)
     moves = 0
     if marked and opts.local_sweeps:  # g follows the matching in place
         moves, _, _ = _local_search(prod.indptr, prod.indices, opts.s_w, cand.a_indptr, lookup.col_ptr,
@@ -584,7 +584,7 @@ def continue_local_search(prod: ProductGraph, cand: CandidateSet, w: npt.ArrayLi
                                     opts.local_sweeps, opts.rotations, RISE_TOL, opts.s_max, dirty)
     final = np.sort(mate_a[mate_a >= 0]) if moves else index
     f1 = _objective(bw, g, final) if moves else f0
-    c1 = _conserved(g if edge_weights is None else _matched_counts(prod, final), final)
+    c1 = _conserved(g if edge_weights is None else matched_counts(prod, final), final)
     res = RefineResult(index=final, iterations=0, objective=[f0, f1], conserved_before=c0,
                        conserved_after=c1, weight_before=float(w[index].sum()),
                        weight_after=float(w[final].sum()), local_moves=int(moves), rounds=1, hit_cap=False,

@@ -168,6 +168,25 @@ def conserved_image(
     return pos if order is None else np.where(pos >= 0, order[np.maximum(pos, 0)], -1)
 
 
+def image_after_moves(
+    edges_a: npt.NDArray[np.integer], edges_b: npt.NDArray[np.integer], image: npt.NDArray[np.int64],
+    f_from: npt.NDArray[np.int64], f_to: npt.NDArray[np.int64], n2: int, directed: bool = False,
+) -> npt.NDArray[np.int64]:
+    """:func:`conserved_image` of ``edges_a`` under the map ``f_to``, from ``image``, the same
+    edges' image under ``f_from``: an edge's image depends only on its ends' partners, so only
+    the edges with an end whose partner differs are looked up again (a matching and its refined
+    or updated successor differ at few nodes). Both maps are arrays over the nodes of A
+    (-1 = unmapped)."""
+    ea = np.asarray(edges_a, dtype=np.int64).reshape(-1, 2)
+    moved = np.asarray(f_from) != np.asarray(f_to)
+    out = np.array(image, dtype=np.int64)
+    if not moved.any() or len(ea) == 0:
+        return out
+    rows = np.flatnonzero(moved[ea[:, 0]] | moved[ea[:, 1]])
+    out[rows] = conserved_image(ea[rows], edges_b, f_to, n2, directed)
+    return out
+
+
 def conserved_mask(
     edges_a: npt.NDArray[np.integer], edges_b: npt.NDArray[np.integer], f: npt.NDArray[np.int64], n2: int,
     directed: bool = False,
@@ -176,7 +195,7 @@ def conserved_mask(
     return conserved_image(edges_a, edges_b, f, n2, directed) >= 0
 
 
-def _map_of(matched: npt.NDArray[np.int64], n1: int) -> npt.NDArray[np.int64]:
+def partner_map(matched: npt.NDArray[np.int64], n1: int) -> npt.NDArray[np.int64]:
     """The map f as an array over the nodes of A: f[i] = partner of i, -1 when unmatched."""
     f = np.full(n1, -1, dtype=np.int64)
     f[matched[:, 0]] = matched[:, 1]
@@ -198,7 +217,7 @@ def node_correctness(matched: npt.NDArray[np.integer], truth: npt.NDArray[np.int
     truth = np.asarray(truth, dtype=np.int64).reshape(-1, 2)
     if len(truth) == 0:
         return float("nan"), {"truth_nodes": 0, "correct": 0}
-    f = _map_of(np.asarray(matched, dtype=np.int64).reshape(-1, 2), n1)
+    f = partner_map(np.asarray(matched, dtype=np.int64).reshape(-1, 2), n1)
     return share_correct(truth, f[truth[:, 0]] == truth[:, 1], n1)
 
 
@@ -319,7 +338,7 @@ def score_matching(
     edges_a = np.asarray(edges_a, dtype=np.int64).reshape(-1, 2)
     edges_b = np.asarray(edges_b, dtype=np.int64).reshape(-1, 2)
     matched = np.asarray(matched, dtype=np.int64).reshape(-1, 2)
-    image_row = conserved_image(edges_a, edges_b, _map_of(matched, n1), n2, directed) if image is None else image
+    image_row = conserved_image(edges_a, edges_b, partner_map(matched, n1), n2, directed) if image is None else image
     cons = image_row >= 0
     c = int(cons.sum())
     cw, wec = (None, None) if weights_a is None else conserved_weight(weights_a, weights_b, image_row)

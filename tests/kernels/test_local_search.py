@@ -106,10 +106,10 @@ def test_local_search_stops_at_a_local_optimum(seed, directed):
 # above): with the work list the moves, sweeps and gain must be the same, not just as good.
 
 def _kernel_args(cand, prod, bw, index):
-    from aligner.core.refine import _lookup, _matched_counts, _mates
+    from aligner.core.refine import _lookup, matched_counts, _mates
     lk = _lookup(cand)
     mate_a, mate_b = _mates(cand, np.asarray(index, dtype=np.int64))
-    g = _matched_counts(prod, np.asarray(index, dtype=np.int64))
+    g = matched_counts(prod, np.asarray(index, dtype=np.int64))
     return lk, mate_a, mate_b, g
 
 
