@@ -85,8 +85,9 @@ def _with_diff(state, side: str, add, remove, cfg: AlignConfig):
     node of the previous run without edges (its file listed it in self-loops only) stays unless
     the diff removes such a line of it, and a self-loop among the added edges brings its node.
     The counts of self-loops and of repeated edges are the previous file's, plus those of the
-    added lines, less the self-loops removed. Returns the network and whether its nodes are the
-    previous run's, name for name.
+    added lines, less the self-loops removed. Returns the network, whether its nodes are the
+    previous run's, name for name, and what :func:`_edge_changes` would find, known here from
+    the diff (edges added, edges removed, the nodes at their ends that remain, new indices).
 
     Raises InputFormatError naming the first edge to remove that the previous network lacks, or
     to add that it already has (a diff that does not fit the run it is applied to)."""
@@ -114,7 +115,7 @@ def _with_diff(state, side: str, add, remove, cfg: AlignConfig):
     # the state keeps each edge once, in order, and the numbering keeps the order: no sort then
     order = np.arange(len(have)) if _is_sorted(have) else np.argsort(have, kind="stable")
     keep = np.ones(len(have), dtype=bool)
-    extra = np.empty(0, dtype=np.int64)
+    extra = gone = np.empty(0, dtype=np.int64)
     for removing in (True, False):
         if removing not in diffs:
             continue
@@ -132,6 +133,7 @@ def _with_diff(state, side: str, add, remove, cfg: AlignConfig):
                                    "the diff does not fit that run", path=str(path))
         if removing:
             keep[order[pos]] = False
+            gone = dk
         else:
             extra = dk
     # the kept edges in order, the added ones put in their places: the network then needs no sort
@@ -158,7 +160,10 @@ def _with_diff(state, side: str, add, remove, cfg: AlignConfig):
     loops = counts.get("self_loops", 0) + sum(d[3].n_self_loops * (-1 if r else 1) for r, d in diffs.items())
     repeats = counts.get("duplicate_edges", 0) + (diffs[False][3].n_duplicate_edges if False in diffs else 0)
     net = dataclasses.replace(net, n_self_loops=max(loops, 0), n_duplicate_edges=repeats)
-    return net, every is names and bool(used.all())
+    moved = np.concatenate([gone, extra])
+    ends = unique(np.concatenate([moved // n, moved % n]))
+    changed = (len(np.unique(extra)), len(np.unique(gone)), new_id[ends[used[ends]]].astype(np.int64))
+    return net, every is names and bool(used.all()), changed
 
 
 def _is_sorted(a: np.ndarray, strict: bool = False) -> bool:
@@ -392,10 +397,12 @@ class _Maps(NamedTuple):
     same_pairs: bool  # the same nodes and candidate pairs, in the same numbering
 
 
-def _carry(state, problem, same_names: dict) -> tuple[np.ndarray, dict, _Maps]:
+def _carry(state, problem, same_names: dict, known: dict | None = None) -> tuple[np.ndarray, dict, _Maps]:
     """The previous scores on the new candidate pairs (0 on new pairs), what changed, and how the
     old problem maps onto the new one (``same_names``: the sides known to keep the previous run's
-    nodes, name for name, whose names are not compared again)."""
+    nodes, name for name, whose names are not compared again; ``known``: the sides given as edge
+    diffs, with :func:`_edge_changes`'s answer known from the diff, not found again)."""
+    known = known or {}
     net_a, net_b, cand = problem.network_a, problem.network_b, problem.candidates
     to_a = np.arange(net_a.n, dtype=np.int64) if same_names.get("a") else _renumber(state.names_a, net_a.names)
     to_b = np.arange(net_b.n, dtype=np.int64) if same_names.get("b") else _renumber(state.names_b, net_b.names)
@@ -408,8 +415,10 @@ def _carry(state, problem, same_names: dict) -> tuple[np.ndarray, dict, _Maps]:
     else:
         x0, kept, same_prior = _carried(old, to_a, to_b, cand, state.x, state.prior)
     directed = problem.config.directed
-    ea_add, ea_del, ends_a = _edge_changes(state.edges_a, net_a.scored_edges(directed)[0], to_a, net_a.n, directed)
-    eb_add, eb_del, ends_b = _edge_changes(state.edges_b, net_b.scored_edges(directed)[0], to_b, net_b.n, directed)
+    ea_add, ea_del, ends_a = known.get("a") or _edge_changes(state.edges_a, net_a.scored_edges(directed)[0], to_a,
+                                                             net_a.n, directed)
+    eb_add, eb_del, ends_b = known.get("b") or _edge_changes(state.edges_b, net_b.scored_edges(directed)[0], to_b,
+                                                             net_b.n, directed)
     changes = {
         "nodes_a_added": int(net_a.n - (to_a >= 0).sum()), "nodes_a_removed": int((to_a < 0).sum()),
         "nodes_b_added": int(net_b.n - (to_b >= 0).sum()), "nodes_b_removed": int((to_b < 0).sum()),
@@ -633,10 +642,11 @@ def update(previous, network_a=None, network_b=None, prior=None, *, seeds=None, 
                                     param="add_prior")
     clock = Clock(progress)
     same_names: dict[str, bool] = {}
+    known: dict[str, tuple] = {}  # the edge changes of a side given as a diff
     with clock.stage("read"):  # the diffs, the inputs given, and those kept in the state
         for side, (add, remove) in (("a", (add_a, remove_a)), ("b", (add_b, remove_b))):
             if add is not None or remove is not None:
-                given[f"network_{side}"], same_names[side] = _with_diff(state, side, add, remove, cfg)
+                given[f"network_{side}"], same_names[side], known[side] = _with_diff(state, side, add, remove, cfg)
         if add_prior is not None or remove_prior is not None:
             given["prior"] = _with_prior_diff(state, add_prior, remove_prior, cfg)
         files = _inputs(state, given)
@@ -644,7 +654,7 @@ def update(previous, network_a=None, network_b=None, prior=None, *, seeds=None, 
     problem = prepare(inputs["network_a"], inputs["network_b"], inputs["prior"], seeds=files["seeds"],
                       truth=files["truth"], config=cfg, clock=clock, with_product=False)
     t1 = time.perf_counter()
-    x0, changes, maps = _carry(state, problem, same_names)
+    x0, changes, maps = _carry(state, problem, same_names, known)
     carry_s = time.perf_counter() - t1
     product = {}
     problem = with_product_graph(problem, clock, build=_product_patch(state, problem, maps, product))

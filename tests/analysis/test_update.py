@@ -209,6 +209,13 @@ def _diff_against_edited_file(d, b, gone, new, tmp_path):
     ref = aligner.align(d / "a.tsv", _write(tmp_path, "b_edited.tsv", edited), d / "p.tsv")
     _agree(upd, ref)
     _same_network(upd.network_b, ref.network_b)
+    # the changes a diff names (taken from the diff) are those found by comparing the previous
+    # network with the edited file whole, and reach the same rows of the product graph and the
+    # same candidates of the continued search
+    whole = update(d / "run", network_b=tmp_path / "b_edited.tsv").summary["update"]
+    assert upd.summary["update"]["changes"] == whole["changes"]
+    assert upd.summary["update"]["product"] == whole["product"]
+    assert upd.summary["update"]["refine"] == whole["refine"]
     return upd
 
 
