@@ -7,7 +7,10 @@ for memory the system has not handed out yet), printing each one's stage seconds
 carry-over and how its product graph was made; then one more update under ``cProfile``, its
 ``--top`` functions by cumulative and by own time. With ``--solves K`` the diffusion of the
 updated problem is then solved K times from zero and K times from the carried scores,
-alternately (seconds, pushes, edge touches), and the warm solve profiled.
+alternately (seconds, pushes, edge touches), and the warm solve profiled. With ``--coarse
+2,4,8`` the warm solve is also run with push thresholds that many times coarser, then (when its
+exact residual is still above the tolerance) finished at the usual ones: how much of the warm
+solve's work a looser first pass could save (pushes of each pass, residual in units of tol).
 
     python scripts/bench/update_profile.py --size 1000000 --change diff --solves 3
 
@@ -44,6 +47,7 @@ def main(argv=None) -> int:
     ap.add_argument("--repeats", type=int, default=3, help="updates timed before the profiled one")
     ap.add_argument("--top", type=int, default=30, help="functions listed per ordering")
     ap.add_argument("--solves", type=int, default=0, help="cold/warm solve pairs after the update")
+    ap.add_argument("--coarse", default="", help="threshold factors for a first warm pass, comma-separated")
     args = ap.parse_args(argv)
 
     import numpy as np
@@ -86,6 +90,9 @@ def main(argv=None) -> int:
     for order in ("cumulative", "tottime"):
         pstats.Stats(prof).sort_stats(order).print_stats(args.top)
 
+    if args.coarse:
+        _coarse(res.problem, upd_module._carry(read_state(work / "run"), res.problem, {})[0],
+                [float(c) for c in args.coarse.split(",")])
     if args.solves:
         x0 = upd_module._carry(read_state(work / "run"), res.problem, {})[0]
         for _ in range(args.solves):
@@ -100,6 +107,39 @@ def main(argv=None) -> int:
         prof.runcall(solve, res.problem, x0=x0)
         pstats.Stats(prof).sort_stats("tottime").print_stats(15)
     return 0
+
+
+def _coarse(problem, x0, factors) -> None:
+    """The warm solve with thresholds ``factor`` times the usual for a first pass, then the usual
+    ones when the exact residual is still above tol: pushes of each pass and the residual."""
+    import numpy as np
+
+    from aligner.core import diffusion as dif
+
+    cfg, plain = problem.config, dif._solve_push
+    for factor in [1.0] + factors:
+        passes = []
+
+        def two_pass(graph, scale, alpha, tol, x, r, b, max_work):
+            x, first, t1 = plain(graph, scale, alpha, tol * factor, x, r, b, max_work)
+            resid = dif._exact_residual(graph, scale, alpha, x, b, r)
+            second = t2 = 0
+            if resid > tol:
+                x, second, t2 = plain(graph, scale, alpha, tol, x, r, b, max_work)
+            passes.append((first, resid / tol, second))
+            return x, first + second, t1 + t2
+
+        dif._solve_push = two_pass
+        try:
+            t0 = time.perf_counter()
+            d = dif.diffuse(problem.product, problem.h, problem.scale, alpha=cfg.alpha, tol=cfg.tol,
+                            x0=np.array(x0))
+        finally:
+            dif._solve_push = plain
+        first, resid, second = passes[0]
+        print(f"thresholds x{factor:g}: {time.perf_counter() - t0:.3f} s; first pass {first:,} pushes "
+              f"(residual {resid:.2f} tol), then {second:,}; in all {d.steps:,} pushes, residual "
+              f"{d.residual / cfg.tol:.2f} tol", flush=True)
 
 
 if __name__ == "__main__":
