@@ -181,7 +181,7 @@ _UNIT = np.empty(0, dtype=np.float64)  # no entry weights: every entry of S coun
 
 
 def matched_counts(prod: ProductGraph, index: npt.NDArray[np.int64],
-                    s_w: npt.NDArray[np.float64] = _UNIT) -> npt.NDArray[np.float64]:
+                   s_w: npt.NDArray[np.float64] = _UNIT) -> npt.NDArray[np.float64]:
     """S @ 1_index: matched product-graph neighbours of every pair (summed entry weights with ``s_w``)."""
     g = np.empty(prod.m, dtype=np.float64)
     _matched_neighbours(prod.indptr, prod.indices, s_w, np.ascontiguousarray(index, dtype=np.int64), g)
