@@ -36,10 +36,8 @@ from dataclasses import dataclass
 
 import numpy as np
 import numpy.typing as npt
-import scipy.sparse as sp
-from scipy.sparse.csgraph import connected_components
 
-from aligner.core.arrays import unique
+from aligner.core.arrays import components, unique
 from aligner.core.candidates import CandidateSet
 from aligner.core.product import ProductGraph
 from aligner.core.refine import matched_counts
@@ -242,8 +240,7 @@ def find_ambiguity(prod: ProductGraph, cand: CandidateSet, index: npt.ArrayLike,
     np.cumsum(np.bincount(owner, minlength=len(index)), out=alt_ptr[1:])
     # groups: components of the links among nodes of A
     u, v = np.concatenate(link_u), np.concatenate(link_v)
-    graph = sp.coo_matrix((np.ones(len(u)), (u, v)), shape=(n1, n1)).tocsr()
-    _, comp = connected_components(graph, directed=False)
+    comp = components(u, v, n1)  # labelled by the smallest node: groups numbered as before
     in_link = np.zeros(n1, dtype=bool)
     in_link[u] = True
     in_link[v] = True

@@ -3,7 +3,7 @@
 import numpy as np
 import pytest
 
-from aligner.core.arrays import TABLE_SPAN, positions, unique
+from aligner.core.arrays import TABLE_SPAN, components, positions, unique
 
 
 @pytest.mark.parametrize("dtype", [np.int64, np.int32, np.uint16, bool])
@@ -41,3 +41,33 @@ def test_positions_are_searchsorteds(rng, span):
 def test_positions_of_nothing():
     assert positions(np.array([1, 2]), np.empty(0, dtype=np.int64)).tolist() == []
     assert positions(np.empty(0, dtype=np.int64), np.array([3]), missing=-1).tolist() == [-1]
+
+
+@pytest.mark.parametrize("kind", ["sparse", "paths", "stars", "none"])
+def test_components_are_scipys(rng, kind):
+    # Reference: scipy.sparse.csgraph.connected_components (undirected), whose components come in
+    # the order of their smallest node: numbering components's labels in increasing order must
+    # give the same array. Graphs: random sparse ones, long paths and stars through randomly
+    # numbered nodes (the worst orders for hooking), and no edge at all.
+    import scipy.sparse as sp
+    from scipy.sparse.csgraph import connected_components
+
+    for _ in range(20):
+        n = int(rng.integers(1, 3000))
+        if kind == "sparse":
+            e = int(rng.integers(0, 2 * n))
+            u, v = rng.integers(0, n, e), rng.integers(0, n, e)
+        elif kind == "paths":
+            order = rng.permutation(n)
+            cut = rng.random(n - 1) < 0.01  # a few breaks: several long paths
+            u, v = order[:-1][~cut], order[1:][~cut]
+        elif kind == "stars":
+            hubs = rng.choice(n, max(1, n // 100))
+            u, v = hubs[rng.integers(0, len(hubs), n)], rng.permutation(n)
+        else:
+            u = v = np.zeros(0, dtype=np.int64)
+        graph = sp.coo_matrix((np.ones(len(u)), (u, v)), shape=(n, n)).tocsr()
+        count, want = connected_components(graph, directed=False)
+        got = components(u, v, n)
+        assert (got <= np.arange(n)).all() and (got[got] == got).all()  # each labelled by a node of its own
+        assert unique(got, return_inverse=True)[1].tolist() == want.tolist()
