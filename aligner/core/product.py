@@ -4,14 +4,17 @@ from __future__ import annotations
 
 from concurrent.futures import ThreadPoolExecutor
 from dataclasses import dataclass
+from typing import TYPE_CHECKING
 
 import numpy as np
 import numpy.typing as npt
-import scipy.sparse as sp
 
 from aligner.kernels.product import PRODUCT, product_bound, product_rows, splice_rows, thread_count
 from aligner.core.candidates import CandidateSet
 from aligner.errors import InvalidParameterError
+
+if TYPE_CHECKING:
+    import scipy.sparse as sp
 
 __all__ = ["ProductGraph", "build_product", "patch_product", "estimate_product_edges", "product_row_lengths",
            "COUNT_RANGE"]
@@ -51,6 +54,8 @@ class ProductGraph:
 
     def transition(self, scale: npt.NDArray[np.float64], alpha: float = 1.0) -> sp.csr_array:
         """alpha * P as a sparse matrix: P[k, l] = weight(l -> k) * scale[l] for every stored l -> k."""
+        import scipy.sparse as sp  # here, not at import: runs need no scipy matrix
+
         scale = alpha * np.asarray(scale, dtype=np.float64)
         if not self.directed:  # symmetric pattern and weights: row l holds P[l, k] = w(k, l) scale[k]
             data = scale[self.indices] if self.weights is None else scale[self.indices] * self.weights
@@ -95,6 +100,8 @@ class ProductGraph:
 
     def to_csr(self) -> sp.csr_array:
         """The adjacency as a scipy CSR array: row k holds k's (out-)neighbours, with weights."""
+        import scipy.sparse as sp
+
         return sp.csr_array((self.entry_weights(), self.indices, self.indptr), shape=(self.m, self.m))
 
 

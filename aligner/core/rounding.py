@@ -7,7 +7,6 @@ from dataclasses import dataclass
 
 import numpy as np
 import numpy.typing as npt
-import scipy.sparse as sp
 
 from aligner.checks import check_choice
 from aligner.core.candidates import CandidateSet
@@ -118,6 +117,7 @@ def round_matching(cand: CandidateSet, w: npt.ArrayLike, *, method: str = "auto"
 
 def _scipy_matching(indptr, cols, ww, nr, nc):
     """Reference path: scipy's sparse full matching on [W | dummy] with dummies of cost 0."""
+    import scipy.sparse as sp
     from scipy.sparse.csgraph import min_weight_full_bipartite_matching
 
     rows = np.repeat(np.arange(nr), np.diff(indptr))
