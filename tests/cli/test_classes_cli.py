@@ -49,3 +49,17 @@ def test_a_header_only_table_and_no_shared_class_write_nothing(tmp_path):
     r = runner.invoke(app, ["prior-from-classes", str(a), str(b), "-o", str(out)])
     assert r.exit_code == 2 and f"{a}, line 1: has a header line but no data rows" in r.output, r.output
     assert not out.exists()
+
+
+def test_message_counts_the_nodes_in_shared_classes_only(tmp_path):
+    # Found by differential testing: the line said "shared by N nodes" with N every node that has a
+    # class, also those whose classes the other table lacks. Reference: the pairs hand-counted from
+    # the definition in docs/commands.md (a pair per node of A and node of B sharing a class).
+    a, b, out = tmp_path / "a.tsv", tmp_path / "b.tsv", tmp_path / "prior.tsv"
+    a.write_text("x1\tAVB;DD\nx2\tAVB\nx3\tVD\n")  # x3: VD, which B lacks
+    b.write_text("y1\tDD\ny2\tAVB\ny3\tQQ\n")  # y3: QQ, which A lacks
+    r = runner.invoke(app, ["prior-from-classes", str(a), str(b), "-o", str(out), "--class-separator", ";"])
+    assert r.exit_code == 0, r.output
+    got = pd.read_csv(out, sep="\t", dtype=str)
+    assert list(zip(got.node_a, got.node_b)) == [("x1", "y1"), ("x1", "y2"), ("x2", "y2")]
+    assert "3 pairs from 2 classes shared by 2 nodes of A and 2 nodes of B" in " ".join(r.output.split())

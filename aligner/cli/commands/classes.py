@@ -44,5 +44,7 @@ def prior_from_classes(classes_a: Classes, classes_b: Classes, output: OutFile, 
         na, nb = ca.groupby("cls").size(), cb.groupby("cls").size()
         big = max(shared, key=lambda c: (na[c] * nb[c], c), default=None)
         largest = "" if big is None else f"; the largest, {big!r}, gives {na[big]} x {nb[big]} pairs"
-        say(f"{len(table)} pairs from {len(shared)} classes shared by {ca['node'].nunique()} nodes of A and "
-            f"{cb['node'].nunique()} nodes of B{largest}; wrote {path}")
+        # the nodes in a shared class (a node whose classes B lacks has no pair)
+        in_a, in_b = (t.loc[t["cls"].isin(shared), "node"].nunique() for t in (ca, cb))
+        say(f"{len(table)} pairs from {len(shared)} classes shared by {in_a} nodes of A and "
+            f"{in_b} nodes of B{largest}; wrote {path}")
