@@ -96,3 +96,15 @@ def test_the_command_line_starts_without_the_numerical_stack():
             "if m in sys.modules]; print(','.join(heavy))")
     out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, check=True)
     assert out.stdout.strip() == "", f"importing aligner.cli loads {out.stdout.strip()}"
+
+
+def test_the_pipeline_imports_no_scipy_matrices():
+    # Regression guard (measured: importing scipy.sparse and its graph module cost every run about
+    # 0.15 s): a run makes no scipy matrix (its kernels work on CSR arrays), so importing the
+    # pipeline must not import scipy.sparse; the paths that do make one import it where they do.
+    import subprocess
+    import sys
+
+    code = "import sys, aligner.pipeline; print('scipy.sparse' in sys.modules)"
+    out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, check=True)
+    assert out.stdout.strip() == "False", "importing aligner.pipeline loads scipy.sparse"
