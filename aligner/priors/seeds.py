@@ -408,23 +408,24 @@ def seed_summary(net_a: Network, net_b: Network, matched: npt.ArrayLike, seeds: 
     seeds carry onto edges of B. These are conserved whatever the aligner does, so
     ``scores_without_seed_edges`` recomputes every score on A and B with those edges
     removed (EC, ICS and S3 over the remaining edges), and NC over the truth nodes that are
-    not seeds.
+    not seeds. Networks read as directed are counted in arcs, as the run's own scores are.
     """
     matched = np.asarray(matched, dtype=np.int64).reshape(-1, 2)
     sa = np.zeros(net_a.n, dtype=bool)
     sb = np.zeros(net_b.n, dtype=bool)
     sa[seeds.pairs[:, 0]] = True
     sb[seeds.pairs[:, 1]] = True
-    ea, eb = net_a.edges, net_b.edges
+    directed = net_a.directed and net_b.directed
+    ea, eb = net_a.scored_edges(directed)[0], net_b.scored_edges(directed)[0]
     in_a = sa[ea[:, 0]] & sa[ea[:, 1]]
     in_b = sb[eb[:, 0]] & sb[eb[:, 1]]
     f = seeds.pairs.astype(np.int64)
-    sc_seed, _ = score_matching(ea[in_a], eb[in_b], f, net_a.n, net_b.n)
+    sc_seed, _ = score_matching(ea[in_a], eb[in_b], f, net_a.n, net_b.n, directed=directed)
     t = None
     if truth is not None:
         t = np.asarray(truth, dtype=np.int64).reshape(-1, 2)
         t = t[~sa[t[:, 0]]]
-    sc, _ = score_matching(ea[~in_a], eb[~in_b], matched, net_a.n, net_b.n, truth=t)
+    sc, _ = score_matching(ea[~in_a], eb[~in_b], matched, net_a.n, net_b.n, truth=t, directed=directed)
     out = {"source": str(seeds.source), "rows": seeds.n_rows, "pairs": seeds.n,
            "repeated_rows_merged": seeds.n_repeated, "seed_edges_a": int(in_a.sum()),
            "seed_edges_b": int(in_b.sum()), "conserved_among_seeds": sc_seed.conserved_edges,

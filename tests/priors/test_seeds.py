@@ -216,3 +216,33 @@ def test_cli_seeds_without_prior_and_errors(tmp_path):
     empty.write_text("")
     res = runner.invoke(app, ["align", *nets, "--seeds", str(empty), "-o", str(tmp_path / "o4")])
     assert res.exit_code == 2 and "empty" in res.output
+
+
+def test_scores_without_seed_edges_count_arcs_in_a_directed_run():
+    # Found by differential testing: in a directed run the seed-free scores counted undirected
+    # edges (a cycle of A against the reversed cycle in B: 0 arcs conserved, yet 5 edges "without
+    # seeds"). Reference: networkx DiGraphs with the arcs among seed nodes removed, recounted
+    # from the definitions of docs/method.md (an arc is conserved onto an arc pointing the same way).
+    rng = np.random.default_rng(3)
+    ga = nx.gnm_random_graph(30, 90, seed=4, directed=True)
+    gb = nx.DiGraph(ga)
+    for u, v in list(gb.edges())[::4]:  # reverse a quarter of B's arcs
+        gb.remove_edge(u, v)
+        gb.add_edge(v, u)
+    ea = pd.DataFrame([(f"a{u}", f"a{v}") for u, v in ga.edges()])
+    eb = pd.DataFrame([(f"b{u}", f"b{v}") for u, v in gb.edges()])
+    prior = pd.DataFrame([(f"a{i}", f"b{j}", 1.0 if i == j else 0.5) for i in range(30) for j in range(30)
+                          if i == j or rng.random() < 0.1], columns=["node_a", "node_b", "score"])
+    seeds = [(f"a{i}", f"b{i}") for i in range(8)]
+    res = aligner.align(ea, eb, prior, seeds=seeds, directed=True)
+    s = res.summary["seeds"]
+    f = dict(zip(res.pairs.node_a, res.pairs.node_b))
+    sa, sb = {u for u, _ in seeds}, {v for _, v in seeds}
+    da = nx.DiGraph([(u, v) for u, v in ea.itertuples(index=False) if not (u in sa and v in sa)])
+    db = nx.DiGraph([(u, v) for u, v in eb.itertuples(index=False) if not (u in sb and v in sb)])
+    cons = sum(1 for u, v in da.edges() if u in f and v in f and db.has_edge(f[u], f[v]))
+    free = s["scores_without_seed_edges"]
+    assert s["seed_edges_a"] == ga.subgraph(range(8)).number_of_edges()
+    assert free["edges_a"] == da.number_of_edges() and free["edges_b"] == db.number_of_edges()
+    assert free["conserved_edges"] == cons == res.scores.conserved_edges - s["conserved_among_seeds"]
+    assert free["ec"] == pytest.approx(cons / min(da.number_of_edges(), db.number_of_edges()))
