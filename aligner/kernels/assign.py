@@ -22,6 +22,8 @@ from llvmlite import ir
 from numba.core import cgutils, types
 from numba.core.extending import intrinsic
 
+from aligner.kernels.options import OUTER, inner
+
 __all__ = ["sparse_max_weight_matching", "max_weight_matching_dense"]
 
 #: significant bits kept in the costs handed to lapjv (see max_weight_matching_dense)
@@ -64,7 +66,7 @@ _ON_STACK = 4  # reached at a distance <= the current level: settled next
 # ---------------------------------------------------------------------------
 
 
-@numba.njit(cache=True)
+@inner
 def _sift_up(heap, hkey, pos, slot, col, key):
     """Place ``col`` with ``key`` at ``slot`` or above it, moving larger keys down."""
     while slot > 0:
@@ -84,20 +86,20 @@ def _sift_up(heap, hkey, pos, slot, col, key):
 
 # The heap functions take no literal flags or sizes: each constant argument would compile a
 # specialisation of its own (one signature each keeps the first run's compilation short).
-@numba.njit(cache=True)
+@inner
 def _heap_push(heap, hkey, pos, size, col, key):
     """Insert ``col`` with ``key``; return the new size."""
     _sift_up(heap, hkey, pos, size, col, key)
     return size + 1
 
 
-@numba.njit(cache=True)
+@inner
 def _heap_decrease(heap, hkey, pos, col, key):
     """Lower the key of ``col`` (in the heap) to ``key``."""
     _sift_up(heap, hkey, pos, pos[col], col, key)
 
 
-@numba.njit(cache=True)
+@inner
 def _heap_pop(heap, hkey, pos, size):
     """Remove the root; return the new size (the root was ``heap[0]``)."""
     size -= 1
@@ -130,7 +132,7 @@ def _heap_pop(heap, hkey, pos, size):
     return size
 
 
-@numba.njit(cache=True)
+@inner
 def _take(rec, rstart, row_to_col, row_cost, i, j, cost):
     """Match row ``i`` to column ``j`` through an entry of cost ``cost``."""
     rec[j, _OWNER] = i
@@ -178,7 +180,7 @@ else:
     _prefetch = intrinsic(_prefetch_typing)
 
 
-@numba.njit(cache=True)
+@inner
 def _prefetch_entries(ent, beg, end):
     for p in range(beg, end, 4):  # four 16-byte entries per 64-byte line
         _prefetch(ent, p)
@@ -186,7 +188,7 @@ def _prefetch_entries(ent, beg, end):
         _prefetch(ent, end - 1)
 
 
-@numba.njit(cache=True)
+@inner
 def _best_two(ent, beg, end, v):
     """Cheapest and second cheapest reduced option of a free row.
 
@@ -219,7 +221,7 @@ def _best_two(ent, beg, end, v):
     return u1, j1, c1, u2, j2, c2
 
 
-@numba.njit(cache=True)
+@numba.njit(cache=True, **OUTER)
 def _row_reduction_pass(rstart, ent, free, n_free, max_steps, v, rec,
                         row_to_col, row_cost):
     """One augmenting row reduction pass over ``free[:n_free]``.
@@ -358,7 +360,7 @@ def _row_reduction_pass(rstart, ent, free, n_free, max_steps, v, rec,
     return n_free, steps
 
 
-@numba.njit(cache=True)
+@numba.njit(cache=True, **OUTER)
 def _insert_rows(free, n_free, rstart, ent, v, rec, row_to_col, row_cost, state,
                  heap, hkey, pos, stack, touched, settled):
     """Assign each free row ``free[:n_free]`` by one shortest augmenting path.
@@ -513,7 +515,7 @@ def _insert_rows(free, n_free, rstart, ent, v, rec, row_to_col, row_cost, state,
             state[touched[t]] = _UNSEEN
 
 
-@numba.njit(cache=True)
+@numba.njit(cache=True, **OUTER)
 def _pack(indptr, indices, weights, n_cols):
     """Check the CSR arrays; return the positive entries packed by row.
 
@@ -775,7 +777,7 @@ def max_weight_matching_dense(weights_dense):
 # ---------------------------------------------------------------------------
 
 
-@numba.njit(cache=True)
+@numba.njit(cache=True, **OUTER)
 def compact_positive(pairs, w, n1, n2):
     """The candidate pairs with ``w > 0`` as a CSR over the A and B nodes that have any.
 
@@ -828,7 +830,7 @@ def compact_positive(pairs, w, n1, n2):
     return use, rows_u, cols_u, indptr, cols, ww
 
 
-@numba.njit(cache=True)
+@numba.njit(cache=True, **OUTER)
 def matched_entries(indptr, cols, row_to_col, use):
     """Candidate indices of the matched entries: for each row with a column, ``use`` at the
     row's stored entry in that column (rows ascending, as the candidates are sorted)."""

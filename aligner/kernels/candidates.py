@@ -3,8 +3,10 @@
 import numba
 import numpy as np
 
+from aligner.kernels.options import OUTER, inner
 
-@numba.njit(cache=True, nogil=True)
+
+@numba.njit(cache=True, nogil=True, **OUTER)
 def pairs_order(pairs, n1, n2):
     """How the rows of ``pairs`` (shape (K, 2)) stand: 0 sorted by (i, i') with no repeat,
     1 in another order or with repeats, -1 an index outside [0, n1) x [0, n2)."""
@@ -21,7 +23,7 @@ def pairs_order(pairs, n1, n2):
     return state
 
 
-@numba.njit(cache=True, nogil=True)
+@numba.njit(cache=True, nogil=True, **OUTER)
 def sort_merge_pairs(pairs, scores, n1, n2):
     """The unique rows of ``pairs`` sorted by (i, i'), each with its highest score.
 
@@ -49,7 +51,7 @@ def sort_merge_pairs(pairs, scores, n1, n2):
     return out[:n].copy(), out_s[:n].copy()
 
 
-@numba.njit(cache=True, nogil=True)
+@inner
 def _counting_order(pairs, side, n_keys, order):
     """``order`` (row numbers) stably sorted on the rows' node on ``side``."""
     ptr = np.zeros(n_keys + 1, dtype=np.int64)
@@ -66,7 +68,7 @@ def _counting_order(pairs, side, n_keys, order):
     return out
 
 
-@numba.njit(cache=True, nogil=True)
+@numba.njit(cache=True, nogil=True, **OUTER)
 def _kth_highest(vals, k):
     """The ``k``-th highest value of ``vals`` (1 <= k <= len), by quickselect; reorders ``vals``."""
     lo = 0
@@ -94,7 +96,7 @@ def _kth_highest(vals, k):
     return vals[want]
 
 
-@numba.njit(cache=True, nogil=True)
+@inner
 def _drop_below_top_k(scores, members, g0, g1, k, drop):
     """Mark in ``drop`` the group ``members[g0:g1]`` (ascending; positions g0..g1-1 themselves
     when ``members`` is empty) outside the group's ``k`` best scores, ties at the cut going to
@@ -120,7 +122,7 @@ def _drop_below_top_k(scores, members, g0, g1, k, drop):
         drop[g0 + x if identity else members[g0 + x]] = True
 
 
-@numba.njit(cache=True, nogil=True)
+@numba.njit(cache=True, nogil=True, **OUTER)
 def drop_below_top_k(scores, ptr, members, k, drop):
     """For every group g, set ``drop`` True on its members outside its ``k`` highest scores,
     ties going to the member listed first.
@@ -137,7 +139,7 @@ def drop_below_top_k(scores, ptr, members, k, drop):
             _drop_below_top_k(scores, members, g0, g1, k, drop)
 
 
-@numba.njit(cache=True, nogil=True)
+@numba.njit(cache=True, nogil=True, **OUTER)
 def large_groups(pairs, side, n_groups, k):
     """The rows of ``pairs`` grouped by their node on ``side`` (column 0 or 1, values in
     [0, n_groups)), for the groups of more than ``k`` rows only, ascending within each group:
@@ -165,7 +167,7 @@ def large_groups(pairs, side, n_groups, k):
     return ptr, members
 
 
-@numba.njit(cache=True, nogil=True)
+@numba.njit(cache=True, nogil=True, **OUTER)
 def row_pointer(pairs, n1):
     """The CSR row pointer (int64, length n1 + 1) of pairs sorted by their node of A."""
     ptr = np.zeros(n1 + 1, dtype=np.int64)

@@ -7,15 +7,17 @@ owner, which adds it to its own entry. Arrays in, arrays out; no checking.
 import numba
 import numpy as np
 
+from aligner.kernels.options import OUTER
 
-@numba.njit(cache=True, nogil=True)
+
+@numba.njit(cache=True, nogil=True, **OUTER)
 def add_messages(r, slots, mass):
     """``r[slots[t]] += mass[t]`` for every t, in order: what ``np.add.at(r, slots, mass)`` gives."""
     for t in range(slots.shape[0]):
         r[slots[t]] += mass[t]
 
 
-@numba.njit(cache=True, nogil=True)
+@numba.njit(cache=True, nogil=True, **OUTER)
 def take_ghosts(r, m_own, ghost_slot):
     """The non-zero ghost slots of ``r`` (entries ``m_own`` on), zeroed as they are taken.
 

@@ -7,12 +7,14 @@ positive data; ``bt_*`` is the transpose of the second matrix (its n-gram postin
 import numba
 import numpy as np
 
+from aligner.kernels.options import OUTER
+
 #: the tail's norm is kept below this share of tau: a longer tail skips more postings, a shorter
 #: one leaves fewer touched columns whose bound ``head + norm of tail`` reaches tau
 TAIL_SHARE = 0.5
 
 
-@numba.njit(cache=True, nogil=True)
+@numba.njit(cache=True, nogil=True, **OUTER)
 def _lower_bound(arr, lo, hi, value):
     """First position in the sorted slice ``arr[lo:hi]`` holding a value >= ``value``."""
     while lo < hi:
@@ -24,7 +26,7 @@ def _lower_bound(arr, lo, hi, value):
     return lo
 
 
-@numba.njit(cache=True, nogil=True)
+@numba.njit(cache=True, nogil=True, **OUTER)
 def _merge_dot(a_indices, a_data, p, pe, b_indices, b_data, q, qe):
     """Dot product of a_data[p:pe] and b_data[q:qe] over their common (sorted) indices."""
     s = 0.0
@@ -41,7 +43,7 @@ def _merge_dot(a_indices, a_data, p, pe, b_indices, b_data, q, qe):
     return s
 
 
-@numba.njit(cache=True, nogil=True, parallel=True)
+@numba.njit(cache=True, nogil=True, parallel=True, **OUTER)
 def top_k_rows(a_indptr, a_indices, a_data, b_indptr, b_indices, b_data, b_cum2, bt_indptr, bt_indices, bt_data,
                k, threshold, row0, row1, n_chunks, out_cols):
     """Rows row0..row1-1 of A in ``n_chunks`` chunks run in parallel; see :func:`_top_k_chunk`."""
@@ -52,7 +54,7 @@ def top_k_rows(a_indptr, a_indices, a_data, b_indptr, b_indices, b_data, b_cum2,
                      bt_data, k, threshold, lo, hi, row0, out_cols)
 
 
-@numba.njit(cache=True, nogil=True)
+@numba.njit(cache=True, nogil=True, **OUTER)
 def _top_k_chunk(a_indptr, a_indices, a_data, b_indptr, b_indices, b_data, b_cum2, bt_indptr, bt_indices,
                  bt_data, k, threshold, row0, row1, base, out_cols):
     """For rows row0..row1-1 of A: the k best columns of A @ B.T at or above ``threshold``.
@@ -162,7 +164,7 @@ def _top_k_chunk(a_indptr, a_indices, a_data, b_indptr, b_indices, b_data, b_cum
             out_cols[(i - base) * k + t] = cj[t]
 
 
-@numba.njit(cache=True, nogil=True)
+@numba.njit(cache=True, nogil=True, **OUTER)
 def pair_dots(a_indptr, a_indices, a_data, b_indptr, b_indices, b_data, ia, ib, out):
     """out[t] = A[ia[t]] . B[ib[t]], by merging the two sorted index lists (a fixed order)."""
     for t in range(ia.shape[0]):

@@ -3,6 +3,8 @@
 import numba
 import numpy as np
 
+from aligner.kernels.options import OUTER, inner
+
 
 _EMPTY = -1
 _MIX = 2654435761  # odd, about 2**32 / golden ratio
@@ -15,7 +17,7 @@ def thread_count() -> int:
     return numba.get_num_threads()
 
 
-@numba.njit(cache=True, nogil=True)
+@numba.njit(cache=True, nogil=True, **OUTER)
 def product_rows(nodes, a_indptr, a_indices, b_indptr, b_indices, c_indptr, c_b, r_indptr, r_b, a_w, b_w, floor,
                  counts):
     """The product-graph neighbours of candidate pairs of ``nodes`` of A (increasing), in one pass.
@@ -164,7 +166,7 @@ def product_rows(nodes, a_indptr, a_indices, b_indptr, b_indices, c_indptr, c_b,
     return out_ix[:total], out_w[:total] if weighted else out_w, touched
 
 
-@numba.njit(cache=True, nogil=True)
+@inner
 def _hits(i, a_indptr, a_indices, a_w, c_indptr, c_b, bits, tab_key, tab_head, ent_row, ent_next, ent_w, floor,
           hit_row, hit_u, hit_w):
     """Look up the partner j' of every candidate u = (j, j') of every neighbour j of i: one hit
@@ -199,7 +201,7 @@ def _hits(i, a_indptr, a_indices, a_w, c_indptr, c_b, bits, tab_key, tab_head, e
     return nh
 
 
-@numba.njit(cache=True, nogil=True)
+@numba.njit(cache=True, nogil=True, **OUTER)
 def product_bound(a_indptr, a_indices, c_indptr, c_b, b_indptr):
     """Sum over the candidate pairs (i, i') of min(sum over neighbours j of i of c_j,
     deg_A(i) * deg_B(i')), with c_j the number of candidates of j: an upper bound on the
@@ -222,7 +224,7 @@ def product_bound(a_indptr, a_indices, c_indptr, c_b, b_indptr):
     return total
 
 
-@numba.njit(cache=True, nogil=True)
+@inner
 def _conserved_at_matching(s_indptr, s_indices, matched):
     """For every pair, the number of its product-graph neighbours that are matched pairs."""
     m = s_indptr.shape[0] - 1
@@ -236,7 +238,7 @@ def _conserved_at_matching(s_indptr, s_indices, matched):
     return out
 
 
-@numba.njit(cache=True, nogil=True)
+@numba.njit(cache=True, nogil=True, **OUTER)
 def splice_rows(old_indptr, old_indices, redo, counts, rows):
     """CSR arrays with some rows replaced: row k is the old one where ``redo[k]`` is false, else
     the next of the new rows (``counts`` their lengths, ``rows`` their entries one after the

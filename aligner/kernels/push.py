@@ -3,8 +3,10 @@
 import numba
 import numpy as np
 
+from aligner.kernels.options import OUTER
 
-@numba.njit(cache=True, nogil=True)
+
+@numba.njit(cache=True, nogil=True, **OUTER)
 def _push(indptr, indices, weights, col_scale, alpha, x, r, thresh, max_pushes):
     """Gauss–Southwell relaxation of x = alpha * P x + b with a FIFO work queue.
 
@@ -61,7 +63,7 @@ def _push(indptr, indices, weights, col_scale, alpha, x, r, thresh, max_pushes):
     return pushes, touches, False
 
 
-@numba.njit(cache=True, nogil=True)
+@numba.njit(cache=True, nogil=True, **OUTER)
 def _residual(indptr, indices, weights, col_scale, alpha, x, b, out):
     """out = b - x + alpha * P x, computed exactly from the CSR pattern; returns its 1-norm."""
     m = x.shape[0]
@@ -82,7 +84,7 @@ def _residual(indptr, indices, weights, col_scale, alpha, x, b, out):
     return s
 
 
-@numba.njit(cache=True, nogil=True)
+@numba.njit(cache=True, nogil=True, **OUTER)
 def _push_pass(indptr, indices, weights, col_scale, alpha, x, r, thresh, order, pushes_left):
     """One pass of push in index order over the entries listed in ``order``.
 
@@ -117,7 +119,7 @@ def _push_pass(indptr, indices, weights, col_scale, alpha, x, r, thresh, order, 
     return pushes, touches
 
 
-@numba.njit(cache=True, nogil=True)
+@numba.njit(cache=True, nogil=True, **OUTER)
 def _sub_rows(indptr, indices, weights, rows, new_id):
     """The CSR rows ``rows`` of a graph, renumbered by ``new_id`` (every listed neighbour of a
     listed row must have new_id >= 0). Returns (indptr, indices, weights)."""

@@ -8,12 +8,13 @@ no checking (the callers check).
 import numba
 import numpy as np
 
+from aligner.kernels.options import OUTER, inner
 from aligner.kernels.utils import _find
 
 
 # --------------------------------------------------------------------------- small helpers
 
-@numba.njit(cache=True, nogil=True)
+@inner
 def _grow_int(a, need):
     cap = a.shape[0]
     if need <= cap:
@@ -25,7 +26,7 @@ def _grow_int(a, need):
     return out
 
 
-@numba.njit(cache=True, nogil=True)
+@inner
 def _grow_float(a, need):
     cap = a.shape[0]
     if need <= cap:
@@ -50,7 +51,7 @@ _GID, _START, _DEG, _INQ, _LB, _CPOS, _CNT = 0, 1, 2, 3, 4, 5, 6
 _X, _R, _H, _SCALE, _V = 0, 1, 2, 3, 4
 
 
-@numba.njit(cache=True, nogil=True)
+@inner
 def _hold(k, slot, ints, floats, n, c_a, c_b, deg_a, deg_b, restricted):
     """Local id of global candidate k, adding a row for it when it has none."""
     if slot[k] >= 0:
@@ -74,7 +75,7 @@ def _hold(k, slot, ints, floats, n, c_a, c_b, deg_a, deg_b, restricted):
     return n, ints, floats, n + 1
 
 
-@numba.njit(cache=True, nogil=True)
+@inner
 def _discover(l, a_indptr, a_indices, b_indptr, b_indices, c_indptr, c_a, c_b, deg_a, deg_b, restricted,
               slot, ints, floats, n, pool, npool):
     """Discover and keep the neighbour list of held pair l = (i, i'), holding every neighbour.
@@ -125,7 +126,7 @@ def _discover(l, a_indptr, a_indices, b_indptr, b_indices, c_indptr, c_a, c_b, d
     return ints, floats, n, pool, npool, probes
 
 
-@numba.njit(cache=True, nogil=True)
+@numba.njit(cache=True, nogil=True, **OUTER)
 def _count(l, limit, a_indptr, a_indices, b_indptr, b_indices, c_indptr, c_a, c_b, ints, floats, restricted):
     """Count the neighbours of held pair l, resuming a partial count, until the count reaches
     ``limit`` or all are counted (then deg_S is known). Returns the probes made.
@@ -171,7 +172,7 @@ def _count(l, limit, a_indptr, a_indices, b_indptr, b_indices, c_indptr, c_a, c_
     return probes
 
 
-@numba.njit(cache=True, nogil=True)
+@inner
 def _enqueue(queue, qhead, qtail, l):
     if qtail == queue.shape[0]:
         if qhead > 0:
@@ -183,7 +184,7 @@ def _enqueue(queue, qhead, qtail, l):
     return queue, qhead, qtail + 1
 
 
-@numba.njit(cache=True, nogil=True)
+@numba.njit(cache=True, nogil=True, **OUTER)
 def _weight(ints, floats, l, restricted):
     """The threshold weight of held pair l: v_l, or a lower bound on it while l is undiscovered."""
     if restricted and ints[l, _DEG] < 0:
@@ -191,7 +192,7 @@ def _weight(ints, floats, l, restricted):
     return floats[l, _V]
 
 
-@numba.njit(cache=True, nogil=True)
+@numba.njit(cache=True, nogil=True, **OUTER)
 def _local_push(a_indptr, a_indices, b_indptr, b_indices, c_indptr, c_a, c_b, deg_a, deg_b, restricted,
                 slot, seed_idx, seed_h, expand_idx, alpha, eps, max_pushes, force=True):
     """Push x = alpha P x + (1 - alpha) h from a sparse ``h``, discovering the product graph on demand.
@@ -317,7 +318,7 @@ def _local_push(a_indptr, a_indices, b_indptr, b_indices, c_indptr, c_a, c_b, de
     return ints[:n], floats[:n], pool[:npool], pushes, scanned, probes, rounds, res, capped
 
 
-@numba.njit(cache=True, nogil=True)
+@numba.njit(cache=True, nogil=True, **OUTER)
 def _reset_slots(slot, gids):
     for t in range(gids.shape[0]):
         slot[gids[t]] = -1
@@ -325,7 +326,7 @@ def _reset_slots(slot, gids):
 
 # --------------------------------------------------------------------------- seed expansion
 
-@numba.njit(cache=True, nogil=True)
+@numba.njit(cache=True, nogil=True, **OUTER)
 def witness_rows(a_indptr, a_indices, b_indptr, b_indices, mate_a, mate_b, rows, kcap, deg_a, deg_b,
                   skip_matched):
     """For every node j of A in ``rows``: its best ``kcap`` partners j' by witness count.

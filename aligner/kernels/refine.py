@@ -9,11 +9,12 @@ nodes of A.
 import numba
 import numpy as np
 
+from aligner.kernels.options import OUTER, inner
 from aligner.kernels.utils import _find
 
 
 
-@numba.njit(cache=True, nogil=True)
+@numba.njit(cache=True, nogil=True, **OUTER)
 def _matched_neighbours(s_indptr, s_indices, s_w, sel, out):
     """out = S @ 1_sel: for every pair, how many of its product-graph neighbours are in ``sel``
     (with non-empty entry weights ``s_w``: their summed entry weights).
@@ -28,7 +29,7 @@ def _matched_neighbours(s_indptr, s_indices, s_w, sel, out):
             out[s_indices[e]] += s_w[e] if weighted else 1.0
 
 
-@numba.njit(cache=True, nogil=True)
+@inner
 def _adjacent(s_indptr, s_indices, s_w, k, l):
     """S[k, l]: how many times l is stored among the neighbours of k (0, 1, or 2 in the
     symmetrised product graph of directed networks, where reciprocal arcs give two entries);
@@ -51,14 +52,14 @@ def _adjacent(s_indptr, s_indices, s_w, k, l):
     return c
 
 
-@numba.njit(cache=True, nogil=True)
+@inner
 def _toggle(s_indptr, s_indices, s_w, g, k, sign):
     weighted = s_w.shape[0] > 0
     for e in range(s_indptr[k], s_indptr[k + 1]):
         g[s_indices[e]] += sign * s_w[e] if weighted else sign
 
 
-@numba.njit(cache=True, nogil=True)
+@inner
 def _apply(s_indptr, s_indices, s_w, g, pair_a, pair_b, mate_a, mate_b, removed, added):
     """Take the pairs ``removed`` out of the matching and put ``added`` in (entries -1 skipped)."""
     for t in range(removed.shape[0]):
@@ -75,7 +76,7 @@ def _apply(s_indptr, s_indices, s_w, g, pair_a, pair_b, mate_a, mate_b, removed,
             mate_b[pair_b[k]] = k
 
 
-@numba.njit(cache=True, nogil=True)
+@numba.njit(cache=True, nogil=True, **OUTER)
 def _max_entry(s_indptr, s_indices):
     """The largest entry of S: the longest run of one neighbour in a sorted neighbour list
     (1 on undirected networks, 2 in the symmetrised product graph of directed ones); 0 if empty."""
@@ -89,7 +90,7 @@ def _max_entry(s_indptr, s_indices):
     return float(best)
 
 
-@numba.njit(cache=True, nogil=True)
+@inner
 def _row_bounds(c_indptr, bw, g, top1, top1_at, top2):
     """For every node i of A: the largest bw + g over its candidates (top1, at candidate top1_at)
     and the second largest (top2); 0 where there is none (every bw + g is >= 0)."""
@@ -110,7 +111,7 @@ def _row_bounds(c_indptr, bw, g, top1, top1_at, top2):
         top2[i] = b
 
 
-@numba.njit(cache=True, nogil=True)
+@inner
 def _col_bounds(col_ptr, col_idx, bw, g, top1, top1_at, top2):
     """:func:`_row_bounds` over the candidates of each node of B."""
     for j in range(col_ptr.shape[0] - 1):
@@ -131,7 +132,7 @@ def _col_bounds(col_ptr, col_idx, bw, g, top1, top1_at, top2):
         top2[j] = b
 
 
-@numba.njit(cache=True, nogil=True)
+@inner
 def _raise_bound(top1, top1_at, top2, node, t, v):
     """Keep top1 >= every value of the node's candidates and top2 >= every value but top1_at's,
     after candidate t's value rose to v (values that fall leave the bounds valid)."""
@@ -147,7 +148,7 @@ def _raise_bound(top1, top1_at, top2, node, t, v):
         top2[node] = v
 
 
-@numba.njit(cache=True, nogil=True)
+@inner
 def _raise_bounds(s_indptr, s_indices, pair_a, pair_b, bw, g, added, r1, r1_at, r2, c1, c1_at, c2):
     """After a move: the pairs whose g rose are the product-graph neighbours of the added pairs."""
     for u in range(added.shape[0]):
@@ -161,7 +162,7 @@ def _raise_bounds(s_indptr, s_indices, pair_a, pair_b, bw, g, added, r1, r1_at, 
             _raise_bound(c1, c1_at, c2, pair_b[t], t, v)
 
 
-@numba.njit(cache=True, nogil=True)
+@inner
 def _mark_row(c_indptr, dirty, i, bits):
     """Mark the candidates of node i of A with ``bits``; returns how many."""
     for t in range(c_indptr[i], c_indptr[i + 1]):
@@ -169,7 +170,7 @@ def _mark_row(c_indptr, dirty, i, bits):
     return c_indptr[i + 1] - c_indptr[i]
 
 
-@numba.njit(cache=True, nogil=True)
+@inner
 def _mark_col(col_ptr, col_idx, dirty, b, bits):
     """Mark the candidates of node b of B with ``bits``; returns how many."""
     for e in range(col_ptr[b], col_ptr[b + 1]):
@@ -177,7 +178,7 @@ def _mark_col(col_ptr, col_idx, dirty, b, bits):
     return col_ptr[b + 1] - col_ptr[b]
 
 
-@numba.njit(cache=True, nogil=True)
+@inner
 def _mark_rotations_through(c_indptr, col_ptr, col_idx, pair_a, pair_b, mate_a, mate_b, dirty, i, hb):
     """Mark (bit 2) the candidates p = (i, j') whose 3-rotations can end at node h' = ``hb`` of B:
     those with q = (j, h') a candidate, j the node of A matched at j' (that is, j' the partner
@@ -196,7 +197,7 @@ def _mark_rotations_through(c_indptr, col_ptr, col_idx, pair_a, pair_b, mate_a, 
     return work
 
 
-@numba.njit(cache=True, nogil=True)
+@numba.njit(cache=True, nogil=True, **OUTER)
 def mark_pair(c_indptr, col_ptr, col_idx, pair_a, pair_b, mate_a, mate_b, dirty, t):
     """Mark every candidate p whose moves in :func:`_local_search` read the value bw + g of pair
     t = (a, b'), under the current matching (both bits where a 2-exchange reads it, bit 2 where
@@ -249,7 +250,7 @@ def mark_pair(c_indptr, col_ptr, col_idx, pair_a, pair_b, mate_a, mate_b, dirty,
     return work
 
 
-@numba.njit(cache=True, nogil=True)
+@inner
 def _mark_partner_a(c_indptr, pair_a, pair_b, mate_b, dirty, a):
     """Mark the candidates whose moves read the partner of node a of A: its own (both bits) and,
     for every candidate s = (a, i'), those of the node matched at i' (bit 2: the rotations
@@ -262,7 +263,7 @@ def _mark_partner_a(c_indptr, pair_a, pair_b, mate_b, dirty, a):
     return work
 
 
-@numba.njit(cache=True, nogil=True)
+@inner
 def _mark_move(s_indptr, s_indices, c_indptr, col_ptr, col_idx, pair_a, pair_b, mate_a, mate_b, dirty, moved):
     """After a move (the pairs ``moved``, removed and added, -1 skipped): mark the candidates
     whose moves read a partner that changed (at the moved pairs' nodes) or a g that changed (of
@@ -279,7 +280,7 @@ def _mark_move(s_indptr, s_indices, c_indptr, col_ptr, col_idx, pair_a, pair_b, 
     return work
 
 
-@numba.njit(cache=True, nogil=True)
+@inner
 def _mark_after(s_indptr, s_indices, c_indptr, col_ptr, col_idx, pair_a, pair_b, mate_a, mate_b, dirty, removed, added,
                 both, marks, m):
     """After a move of the local search: its marks (:func:`_mark_move`) while the sweep's marks
@@ -295,7 +296,7 @@ def _mark_after(s_indptr, s_indices, c_indptr, col_ptr, col_idx, pair_a, pair_b,
     return marks
 
 
-@numba.njit(cache=True, nogil=True)
+@numba.njit(cache=True, nogil=True, **OUTER)
 def mark_changes(c_indptr, col_ptr, col_idx, pair_a, pair_b, mate_a, mate_b, dirty, pairs, nodes_a, nodes_b):
     """Mark for :func:`_local_search` the candidates whose moves read the value of one of
     ``pairs`` (:func:`mark_pair`) or the partner of one of ``nodes_a`` (of A) or ``nodes_b`` (of
@@ -310,7 +311,7 @@ def mark_changes(c_indptr, col_ptr, col_idx, pair_a, pair_b, mate_a, mate_b, dir
     return work
 
 
-@numba.njit(cache=True, nogil=True)
+@numba.njit(cache=True, nogil=True, **OUTER)
 def _local_search(s_indptr, s_indices, s_w, c_indptr, col_ptr, col_idx, pair_a, pair_b, bw, g, mate_a, mate_b,
                   max_sweeps, rotations, eps, s_max, dirty):
     """First-improvement search over 2-exchanges (and 3-rotations) of a matching, in place.
@@ -513,7 +514,7 @@ def _local_search(s_indptr, s_indices, s_w, c_indptr, col_ptr, col_idx, pair_a, 
     return moves, sweeps, gain
 
 
-@numba.njit(cache=True, nogil=True)
+@numba.njit(cache=True, nogil=True, **OUTER)
 def exchange_losses(s_indptr, s_indices, s_w, c_indptr, pair_a, pair_b, f, mate_a, mate_b, i0, i1, loss):
     """For each node i of A, the least -Delta F over the 2-exchanges that remove its matched pair,
     into ``loss[i]`` (left as it is, e.g. inf, when there is none), in one pass over the candidates
@@ -550,7 +551,7 @@ def exchange_losses(s_indptr, s_indices, s_w, c_indptr, pair_a, pair_b, f, mate_
                 loss[i] = -delta
 
 
-@numba.njit(cache=True, nogil=True)
+@numba.njit(cache=True, nogil=True, **OUTER)
 def neutral_exchanges(s_indptr, s_indices, c_indptr, pair_a, pair_b, g, prior, mate_a, mate_b, prior_tol):
     """The 2-exchanges of :func:`exchange_losses` (with f = g = S 1_M: conserved edges only) that
     replace each pair they give up by one with a prior within ``prior_tol`` of it (k by p; l by q,

@@ -7,8 +7,10 @@ Every kernel takes int64 node arrays and float64 scores (one compiled signature 
 import numba
 import numpy as np
 
+from aligner.kernels.options import OUTER, inner
 
-@numba.njit(cache=True, nogil=True)
+
+@numba.njit(cache=True, nogil=True, **OUTER)
 def mapped_edge_rows(u, v, f, indptr, col, directed):
     """For every edge (u[e], v[e]) of A, the first position p with ``col[p]`` = f(v) among
     ``col[indptr[a]:indptr[a + 1]]`` (ascending), a = f(u), or -1: the edges of B as keys
@@ -36,7 +38,7 @@ def mapped_edge_rows(u, v, f, indptr, col, directed):
     return out
 
 
-@numba.njit(cache=True, nogil=True)
+@inner
 def _root(parent, a):
     while parent[a] != a:
         parent[a] = parent[parent[a]]  # path halving
@@ -44,7 +46,7 @@ def _root(parent, a):
     return a
 
 
-@numba.njit(cache=True, nogil=True)
+@numba.njit(cache=True, nogil=True, **OUTER)
 def largest_component(u, v, keep, n):
     """Nodes and edges of the largest connected component of the edges (u[e], v[e]) with
     ``keep[e]``, on ``n`` nodes, by union-find. Ties go to the component whose smallest node is
@@ -78,7 +80,7 @@ def largest_component(u, v, keep, n):
     return best_size, edges
 
 
-@numba.njit(cache=True, nogil=True)
+@numba.njit(cache=True, nogil=True, **OUTER)
 def best_two(group, x, n):
     """Per group id in 0..n-1: the largest ``x``, the first entry holding it, and the second
     largest (equal to the largest when two entries tie for it); -inf (and -1) where missing."""
@@ -96,7 +98,7 @@ def best_two(group, x, n):
     return best, arg, second
 
 
-@numba.njit(cache=True, nogil=True)
+@numba.njit(cache=True, nogil=True, **OUTER)
 def induced_degrees(u, v, inside, n):
     """Edges (u[e], v[e]) with both ends ``inside``, and every node's degree among them (n)."""
     deg = np.zeros(n, dtype=np.int64)

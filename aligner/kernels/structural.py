@@ -7,8 +7,10 @@ and no self-loops.
 import numba
 import numpy as np
 
+from aligner.kernels.options import OUTER
 
-@numba.njit(cache=True, nogil=True)
+
+@numba.njit(cache=True, nogil=True, **OUTER)
 def _triangles_and_distance_two(indptr, indices):
     """Per node: the number of triangles through it and the number of nodes at distance exactly two.
 
@@ -43,7 +45,7 @@ def _triangles_and_distance_two(indptr, indices):
     return tri, two
 
 
-@numba.njit(cache=True, nogil=True)
+@numba.njit(cache=True, nogil=True, **OUTER)
 def _neighbour_stats(indptr, indices, values):
     """Per node: mean, minimum, maximum and population standard deviation of ``values`` over its
     neighbours (all 0 for a node without neighbours). Returns an (n, 4) float64 array."""
@@ -76,7 +78,7 @@ def _neighbour_stats(indptr, indices, values):
     return out
 
 
-@numba.njit(cache=True, nogil=True)
+@numba.njit(cache=True, nogil=True, **OUTER)
 def _neighbour_mean(indptr, indices, x):
     """Mean of the rows of ``x`` (n, F) over each node's neighbours (0 for no neighbours)."""
     n = len(indptr) - 1

@@ -8,6 +8,8 @@ input; the generators check their arguments first.
 import numba
 import numpy as np
 
+from aligner.kernels.options import OUTER, inner
+
 __all__ = ["holme_kim_kernel", "duplication_kernel", "lineage_kernel", "decoy_kernel", "sort_rows",
            "family_decoy_kernel"]
 
@@ -19,7 +21,7 @@ __all__ = ["holme_kim_kernel", "duplication_kernel", "lineage_kernel", "decoy_ke
 # share one 16-byte row, so touching a node costs one cache miss.
 
 
-@numba.njit(cache=True)
+@inner
 def _block_cap(count):  # pragma: no cover - compiled
     if count == 0:
         return 0
@@ -29,7 +31,7 @@ def _block_cap(count):  # pragma: no cover - compiled
     return c
 
 
-@numba.njit(cache=True)
+@inner
 def _arena_compact(pool, meta, grow_node):  # pragma: no cover - compiled
     n = meta.shape[0]
     live = 0
@@ -47,7 +49,7 @@ def _arena_compact(pool, meta, grow_node):  # pragma: no cover - compiled
     return new, pos
 
 
-@numba.njit(cache=True)
+@inner
 def _arena_append(pool, used, meta, u, v):  # pragma: no cover - compiled
     c = meta[u, 1]
     if c == _block_cap(c):  # block full (or absent)
@@ -65,7 +67,7 @@ def _arena_append(pool, used, meta, u, v):  # pragma: no cover - compiled
     return pool, used
 
 
-@numba.njit(cache=True)
+@inner
 def _arena_edges(pool, meta, n_edges):  # pragma: no cover - compiled
     """Edge list (u, v), u < v, of an arena holding each edge in both end points' lists."""
     out = np.empty((n_edges, 2), dtype=np.int64)
@@ -81,7 +83,7 @@ def _arena_edges(pool, meta, n_edges):  # pragma: no cover - compiled
     return out[:e]
 
 
-@numba.njit(cache=True)
+@inner
 def _linked(pool, meta, u, v):  # pragma: no cover - compiled
     s = meta[u, 0]
     for j in range(meta[u, 1]):
@@ -90,7 +92,7 @@ def _linked(pool, meta, u, v):  # pragma: no cover - compiled
     return False
 
 
-@numba.njit(cache=True)
+@numba.njit(cache=True, **OUTER)
 def holme_kim_kernel(n, m, p, rng):  # pragma: no cover - compiled
     meta = np.zeros((n, 2), dtype=np.int64)
     pool = np.empty(max(1024, 3 * m * n), dtype=np.int32)
@@ -166,7 +168,7 @@ def holme_kim_kernel(n, m, p, rng):  # pragma: no cover - compiled
     return _arena_edges(pool, meta, n_edges)
 
 
-@numba.njit(cache=True)
+@numba.njit(cache=True, **OUTER)
 def duplication_kernel(n_init, init_edges, n_final, p_retain, p_parent, max_redraws, rng):  # pragma: no cover
     meta = np.zeros((n_final, 2), dtype=np.int64)
     pool = np.empty(max(1024, 4 * init_edges.shape[0] + 12 * (n_final - n_init)), dtype=np.int32)
@@ -210,7 +212,7 @@ def duplication_kernel(n_init, init_edges, n_final, p_retain, p_parent, max_redr
     return _arena_edges(pool, meta, n_edges), parent
 
 
-@numba.njit(cache=True)
+@numba.njit(cache=True, **OUTER)
 def lineage_kernel(parent, n_root):  # pragma: no cover - compiled
     """Root (node < n_root) and duplication count of every node, replaying the duplications."""
     n = parent.shape[0]
@@ -226,7 +228,7 @@ def lineage_kernel(parent, n_root):  # pragma: no cover - compiled
     return root, dups
 
 
-@numba.njit(cache=True)
+@numba.njit(cache=True, **OUTER)
 def decoy_kernel(partner, n_b, k, near, indptr, indices, rng):  # pragma: no cover - compiled
     """``k`` distinct decoys per row, never the row's partner; near: by 1- or 2-step walks."""
     n = partner.shape[0]
@@ -269,7 +271,7 @@ def decoy_kernel(partner, n_b, k, near, indptr, indices, rng):  # pragma: no cov
     return out
 
 
-@numba.njit(cache=True)
+@numba.njit(cache=True, **OUTER)
 def sort_rows(keys, values):  # pragma: no cover - compiled
     """Sort each row of ``keys`` in place (insertion sort: rows are short), moving ``values``."""
     n, k = keys.shape
@@ -286,7 +288,7 @@ def sort_rows(keys, values):  # pragma: no cover - compiled
             values[i, h + 1] = y
 
 
-@numba.njit(cache=True)
+@numba.njit(cache=True, **OUTER)
 def family_decoy_kernel(anc_a, anc_b, family_size_b, k, rng):  # pragma: no cover - compiled
     """Up to ``k`` distinct nodes of B per node of A, each from a different ancestral family."""
     n_a = anc_a.shape[0]

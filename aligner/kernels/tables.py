@@ -12,11 +12,13 @@ import math
 import numba
 import numpy as np
 
+from aligner.kernels.options import OUTER
+
 #: the longest run of one first key sorted by insertion; beyond it the second key is counted too
 _SHORT = 32
 
 
-@numba.njit(cache=True, nogil=True)
+@numba.njit(cache=True, nogil=True, **OUTER)
 def sort_rows(k1, k2, n1):
     """The stable order of the rows with ``k1 >= 0`` by (k1, k2), as ``np.lexsort((k2, k1))``.
 
@@ -71,7 +73,7 @@ def sort_rows(k1, k2, n1):
     return order
 
 
-@numba.njit(cache=True, nogil=True)
+@numba.njit(cache=True, nogil=True, **OUTER)
 def merge_sorted(k1, k2, order, w, mode):
     """Unique rows (k1, k2) of the sorted view ``order`` and their merged values.
 
@@ -105,7 +107,7 @@ def merge_sorted(k1, k2, order, w, mode):
     return rows, val, m - k
 
 
-@numba.njit(cache=True, nogil=True)
+@numba.njit(cache=True, nogil=True, **OUTER)
 def fill_symmetric(a, b, n, w, weighted):
     """Symmetric CSR of edges (a, b) sorted by (a, b), unique, ``a < b``: one count, one fill.
 
@@ -135,7 +137,7 @@ def fill_symmetric(a, b, n, w, weighted):
     return indptr, indices, ew
 
 
-@numba.njit(cache=True, nogil=True)
+@numba.njit(cache=True, nogil=True, **OUTER)
 def carry_rows(old_a, old_b, to_a, to_b, new_a, new_b, old_x, old_prior, new_prior, x0, kept, same_prior):
     """Carry values from old rows to new rows by their renumbered keys, in one merge pass.
 

@@ -9,6 +9,8 @@ import math
 import numba
 import numpy as np
 
+from aligner.kernels.options import OUTER, inner
+
 _TAB = 9
 _NEWLINE = 10
 _ZERO = 48
@@ -20,7 +22,7 @@ _E = 101
 _POW10 = np.array([10.0 ** i for i in range(23)])
 
 
-@numba.njit(cache=True, nogil=True)
+@inner
 def _scaled(v, s):
     """v * 10**s for v > 0, in steps by exact powers of ten (at most 22 each): every step rounds
     once, so the relative error is at most (|s| // 22 + 1) half-units in the last place."""
@@ -36,7 +38,7 @@ def _scaled(v, s):
     return p / _POW10[-s]
 
 
-@numba.njit(cache=True, nogil=True)
+@inner
 def _digits(v, precision, tol):
     """The ``precision`` significant digits of v > 0 rounded to nearest, as an integer D in
     [10**(P-1), 10**P), and the decimal exponent X (v ~ D * 10**(X - P + 1)). X = -9999 when
@@ -65,7 +67,7 @@ def _digits(v, precision, tol):
     return d, x
 
 
-@numba.njit(cache=True, nogil=True)
+@inner
 def _put_g(out, v, precision, tol, digits):
     """Write ``'%.<precision>g' % v`` into ``out`` (a byte slot); return its length, or -1 when
     the value is left to the exact formatter (not finite, subnormal, or too close to call).
@@ -132,7 +134,7 @@ def _put_g(out, v, precision, tol, digits):
     return k + width
 
 
-@numba.njit(cache=True, nogil=True)
+@numba.njit(cache=True, nogil=True, **OUTER)
 def format_general(values, precision, width):
     """``'%.<precision>g' % v`` of every value, in slots of ``width`` bytes (precision in 1..15,
     width at least precision + 8).
@@ -151,7 +153,7 @@ def format_general(values, precision, width):
     return data, length
 
 
-@numba.njit(cache=True, nogil=True)
+@numba.njit(cache=True, nogil=True, **OUTER)
 def format_integers(values):
     """Decimal text of every int64, in slots of 20 bytes: ``data`` and ``length`` per value."""
     m = len(values)
@@ -183,7 +185,7 @@ def format_integers(values):
     return data, length
 
 
-@numba.njit(cache=True, nogil=True)
+@numba.njit(cache=True, nogil=True, **OUTER)
 def has_any_byte(data, start, length, forbidden):
     """Whether any field holds a byte with ``forbidden[byte]`` set."""
     for r in range(len(start)):
@@ -193,7 +195,7 @@ def has_any_byte(data, start, length, forbidden):
     return False
 
 
-@numba.njit(cache=True, nogil=True)
+@inner
 def _compare(data, s1, n1, s2, n2):
     """-1, 0 or 1 as the bytes data[s1:s1+n1] sort before, equal to or after data[s2:s2+n2]."""
     for i in range(min(n1, n2)):
@@ -206,7 +208,7 @@ def _compare(data, s1, n1, s2, n2):
     return -1 if n1 < n2 else 1
 
 
-@numba.njit(cache=True, nogil=True)
+@numba.njit(cache=True, nogil=True, **OUTER)
 def rows_in_order(data, start, length):
     """Whether the rows are non-decreasing by their fields compared as bytes, field 0 first
     (``start`` and ``length`` of shape (fields, rows))."""
@@ -220,7 +222,7 @@ def rows_in_order(data, start, length):
     return True
 
 
-@numba.njit(cache=True, nogil=True)
+@numba.njit(cache=True, nogil=True, **OUTER)
 def join_rows(data, start, length):
     """The rows as TSV bytes: fields (shape (fields, rows) ``start``, ``length`` into ``data``)
     joined by tabs, each row ended by a newline."""

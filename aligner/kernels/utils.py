@@ -3,8 +3,10 @@
 import numba
 import numpy as np
 
+from aligner.kernels.options import OUTER
 
-@numba.njit(cache=True, nogil=True)
+
+@numba.njit(cache=True, nogil=True, **OUTER)
 def _find(arr, lo, hi, value):
     """Position of ``value`` in the sorted slice ``arr[lo:hi]``, or -1 (binary search)."""
     while lo < hi:
@@ -19,7 +21,7 @@ def _find(arr, lo, hi, value):
     return -1
 
 
-@numba.njit(cache=True, nogil=True)
+@numba.njit(cache=True, nogil=True, **OUTER)
 def stable_order(keys, n):
     """The stable sort order of integer ``keys`` in [0, n) by counting sort: O(len(keys) + n),
     the same permutation as ``np.argsort(keys, kind="stable")``."""
