@@ -3,10 +3,10 @@
 import numba
 import numpy as np
 
-from aligner.kernels.options import OUTER
+from aligner.kernels.options import OUTER, inner
 
 
-@numba.njit(cache=True, nogil=True, **OUTER)
+@inner
 def _find(arr, lo, hi, value):
     """Position of ``value`` in the sorted slice ``arr[lo:hi]``, or -1 (binary search)."""
     while lo < hi:
