@@ -246,12 +246,16 @@ def _row_reduction_pass(rstart, ent, free, n_free, max_steps, v, rec,
     Returns ``(n_still_free, steps)``; the free rows are ``free[:n]``.
     """
     n_lanes = _LANES
-    lane_row = np.full(n_lanes, -1, dtype=np.int64)
-    lane_stage = np.zeros(n_lanes, dtype=np.int64)
-    lane_beg = np.zeros(n_lanes, dtype=np.int64)
-    lane_end = np.zeros(n_lanes, dtype=np.int64)
-    lane_j = np.zeros((n_lanes, 2), dtype=np.int64)
-    lane_f = np.zeros((n_lanes, 4), dtype=np.float64)  # u1, c1, u2, c2
+    lane_row = np.empty(n_lanes, dtype=np.int64)
+    lane_stage = np.empty(n_lanes, dtype=np.int64)
+    lane_beg = np.empty(n_lanes, dtype=np.int64)
+    lane_end = np.empty(n_lanes, dtype=np.int64)
+    lane_j = np.empty((n_lanes, 2), dtype=np.int64)
+    lane_f = np.empty((n_lanes, 4), dtype=np.float64)  # u1, c1, u2, c2
+    for _t in range(n_lanes):  # filled here, not by np.zeros / np.full (aligner.kernels.options)
+        lane_row[_t], lane_stage[_t], lane_beg[_t], lane_end[_t] = -1, 0, 0, 0
+        lane_j[_t, 0], lane_j[_t, 1] = 0, 0
+        lane_f[_t, 0], lane_f[_t, 1], lane_f[_t, 2], lane_f[_t, 3] = 0.0, 0.0, 0.0, 0.0
     k = 0
     prv = n_free
     n_free = 0
@@ -787,8 +791,12 @@ def compact_positive(pairs, w, n1, n2):
     Two passes over the pairs and one over the nodes (no sort); NaN weights are not kept.
     """
     m = pairs.shape[0]
-    pos_a = np.zeros(n1 + 1, dtype=np.int64)
-    pos_b = np.zeros(n2 + 1, dtype=np.int64)
+    pos_a = np.empty(n1 + 1, dtype=np.int64)
+    for _t in range(pos_a.shape[0]):
+        pos_a[_t] = 0
+    pos_b = np.empty(n2 + 1, dtype=np.int64)
+    for _t in range(pos_b.shape[0]):
+        pos_b[_t] = 0
     count = 0
     for k in range(m):
         if w[k] > 0:
@@ -810,7 +818,9 @@ def compact_positive(pairs, w, n1, n2):
     use = np.empty(count, dtype=np.int64)
     cols = np.empty(count, dtype=np.int64)
     ww = np.empty(count, dtype=np.float64)
-    indptr = np.zeros(nr + 1, dtype=np.int64)
+    indptr = np.empty(nr + 1, dtype=np.int64)
+    for _t in range(indptr.shape[0]):
+        indptr[_t] = 0
     t = 0
     for k in range(m):
         if w[k] > 0:

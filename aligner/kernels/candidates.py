@@ -54,7 +54,9 @@ def sort_merge_pairs(pairs, scores, n1, n2):
 @inner
 def _counting_order(pairs, side, n_keys, order):
     """``order`` (row numbers) stably sorted on the rows' node on ``side``."""
-    ptr = np.zeros(n_keys + 1, dtype=np.int64)
+    ptr = np.empty(n_keys + 1, dtype=np.int64)
+    for _t in range(ptr.shape[0]):
+        ptr[_t] = 0
     for t in range(pairs.shape[0]):
         ptr[pairs[t, side] + 1] += 1
     for g in range(n_keys):
@@ -170,7 +172,9 @@ def large_groups(pairs, side, n_groups, k):
 @numba.njit(cache=True, nogil=True, **OUTER)
 def row_pointer(pairs, n1):
     """The CSR row pointer (int64, length n1 + 1) of pairs sorted by their node of A."""
-    ptr = np.zeros(n1 + 1, dtype=np.int64)
+    ptr = np.empty(n1 + 1, dtype=np.int64)
+    for _t in range(ptr.shape[0]):
+        ptr[_t] = 0
     for t in range(pairs.shape[0]):
         ptr[pairs[t, 0] + 1] += 1
     for i in range(n1):

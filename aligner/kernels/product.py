@@ -58,7 +58,9 @@ def product_rows(nodes, a_indptr, a_indices, b_indptr, b_indices, c_indptr, c_b,
     out_w = np.empty(cap if weighted else 0, dtype=np.float64)
     total = 0
     touched = 0
-    tab_key = np.full(64, _EMPTY, dtype=np.int32)
+    tab_key = np.empty(64, dtype=np.int32)
+    for _t in range(tab_key.shape[0]):
+        tab_key[_t] = _EMPTY
     tab_head = np.empty(64, dtype=np.int32)
     ent_row = np.empty(64, dtype=np.int32)
     ent_next = np.empty(64, dtype=np.int32)
@@ -95,7 +97,9 @@ def product_rows(nodes, a_indptr, a_indices, b_indptr, b_indices, c_indptr, c_b,
         while (1 << bits) < 8 * ne:  # load at most 1/8: most look-ups miss, and miss at once
             bits += 1
         if (1 << bits) > tab_key.shape[0]:
-            tab_key = np.full(1 << bits, _EMPTY, dtype=np.int32)
+            tab_key = np.empty(1 << bits, dtype=np.int32)
+            for _t in range(tab_key.shape[0]):
+                tab_key[_t] = _EMPTY
             tab_head = np.empty(1 << bits, dtype=np.int32)
         if ne > ent_row.shape[0]:
             ent_row = np.empty(2 * ne, dtype=np.int32)

@@ -21,7 +21,9 @@ def _push(indptr, indices, weights, col_scale, alpha, x, r, thresh, max_pushes):
     m = x.shape[0]
     weighted = weights.shape[0] > 0
     queue = np.empty(m, dtype=np.int64)
-    inq = np.zeros(m, dtype=np.bool_)
+    inq = np.empty(m, dtype=np.bool_)
+    for _t in range(inq.shape[0]):
+        inq[_t] = False
     head = 0
     size = 0
     for l in range(m):
@@ -125,7 +127,9 @@ def _sub_rows(indptr, indices, weights, rows, new_id):
     listed row must have new_id >= 0). Returns (indptr, indices, weights)."""
     n = rows.shape[0]
     weighted = weights.shape[0] > 0
-    out_ptr = np.zeros(n + 1, dtype=np.int64)
+    out_ptr = np.empty(n + 1, dtype=np.int64)
+    for _t in range(out_ptr.shape[0]):
+        out_ptr[_t] = 0
     for q in range(n):
         l = rows[q]
         out_ptr[q + 1] = out_ptr[q] + indptr[l + 1] - indptr[l]

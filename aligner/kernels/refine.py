@@ -380,12 +380,14 @@ def _local_search(s_indptr, s_indices, s_w, c_indptr, col_ptr, col_idx, pair_a, 
     add = np.empty(3, dtype=np.int64)
     rotate = False  # rotation sweeps only once 2-exchange sweeps have stopped moving
     n2 = col_ptr.shape[0] - 1
-    r1 = np.zeros(n1)
-    r1_at = np.full(n1, -1, dtype=np.int64)
-    r2 = np.zeros(n1)
-    c1 = np.zeros(n2)
-    c1_at = np.full(n2, -1, dtype=np.int64)
-    c2 = np.zeros(n2)
+    # allocated empty and filled here (np.zeros and np.full would each compile numba's own
+    # implementation on a first run: see aligner.kernels.options)
+    r1, r1_at, r2 = np.empty(n1, dtype=np.float64), np.empty(n1, dtype=np.int64), np.empty(n1, dtype=np.float64)
+    for _t in range(n1):
+        r1[_t], r1_at[_t], r2[_t] = 0.0, -1, 0.0
+    c1, c1_at, c2 = np.empty(n2, dtype=np.float64), np.empty(n2, dtype=np.int64), np.empty(n2, dtype=np.float64)
+    for _t in range(n2):
+        c1[_t], c1_at[_t], c2[_t] = 0.0, -1, 0.0
     m = c_indptr[n1]
     marks = 0  # marks made in this sweep; past m the next sweep examines everything
     both = np.empty(6, dtype=np.int64)

@@ -17,7 +17,9 @@ def mapped_edge_rows(u, v, f, indptr, col, directed):
     (first end, second end) grouped by first end. Undirected, (f(u), f(v)) is looked up as
     (min, max); ``f`` = -1 marks an unmapped node."""
     m = len(u)
-    out = np.full(m, -1, dtype=np.int64)
+    out = np.empty(m, dtype=np.int64)
+    for _t in range(out.shape[0]):
+        out[_t] = -1
     for e in range(m):
         a = f[u[e]]
         b = f[v[e]]
@@ -51,9 +53,9 @@ def largest_component(u, v, keep, n):
     """Nodes and edges of the largest connected component of the edges (u[e], v[e]) with
     ``keep[e]``, on ``n`` nodes, by union-find. Ties go to the component whose smallest node is
     smallest. (0, 0) when no edge is kept."""
-    parent = np.arange(n)
-    size = np.ones(n, dtype=np.int64)
-    touched = np.zeros(n, dtype=np.bool_)
+    parent, size, touched = np.empty(n, dtype=np.int64), np.empty(n, dtype=np.int64), np.empty(n, dtype=np.bool_)
+    for _t in range(n):  # filled here, not by np.arange / np.ones / np.zeros (aligner.kernels.options)
+        parent[_t], size[_t], touched[_t] = _t, 1, False
     for e in range(len(u)):
         if not keep[e]:
             continue
@@ -101,7 +103,9 @@ def best_two(group, x, n):
 @numba.njit(cache=True, nogil=True, **OUTER)
 def induced_degrees(u, v, inside, n):
     """Edges (u[e], v[e]) with both ends ``inside``, and every node's degree among them (n)."""
-    deg = np.zeros(n, dtype=np.int64)
+    deg = np.empty(n, dtype=np.int64)
+    for _t in range(deg.shape[0]):
+        deg[_t] = 0
     m = 0
     for e in range(len(u)):
         if inside[u[e]] and inside[v[e]]:

@@ -26,7 +26,9 @@ def sort_rows(k1, k2, n1):
     Returns int64 row positions.
     """
     m = len(k1)
-    start = np.zeros(n1 + 1, np.int64)
+    start = np.empty(n1 + 1, dtype=np.int64)
+    for _t in range(start.shape[0]):
+        start[_t] = 0
     for i in range(m):
         if k1[i] >= 0:
             start[k1[i] + 1] += 1
@@ -55,7 +57,9 @@ def sort_rows(k1, k2, n1):
     for i in range(m):
         if k1[i] >= 0:
             n2 = max(n2, k2[i] + 1)
-    by2 = np.zeros(n2 + 1, np.int64)
+    by2 = np.empty(n2 + 1, dtype=np.int64)
+    for _t in range(by2.shape[0]):
+        by2[_t] = 0
     for i in range(m):
         if k1[i] >= 0:
             by2[k2[i] + 1] += 1
@@ -87,7 +91,9 @@ def merge_sorted(k1, k2, order, w, mode):
         if j == 0 or k1[order[j]] != k1[order[j - 1]] or k2[order[j]] != k2[order[j - 1]]:
             k += 1
     rows = np.empty((k, 2), np.int32)
-    val = np.zeros(k if mode else 0, np.float64)
+    val = np.empty(k if mode else 0, dtype=np.float64)
+    for _t in range(val.shape[0]):
+        val[_t] = 0.0
     r = -1
     for j in range(m):
         i = order[j]
@@ -116,7 +122,9 @@ def fill_symmetric(a, b, n, w, weighted):
     every list comes out sorted. Returns (indptr int64, indices int32, entry weights).
     """
     m = len(a)
-    indptr = np.zeros(n + 1, np.int64)
+    indptr = np.empty(n + 1, dtype=np.int64)
+    for _t in range(indptr.shape[0]):
+        indptr[_t] = 0
     for i in range(m):
         indptr[a[i] + 1] += 1
         indptr[b[i] + 1] += 1

@@ -25,7 +25,9 @@ def _find(arr, lo, hi, value):
 def stable_order(keys, n):
     """The stable sort order of integer ``keys`` in [0, n) by counting sort: O(len(keys) + n),
     the same permutation as ``np.argsort(keys, kind="stable")``."""
-    start = np.zeros(n + 1, dtype=np.int64)
+    start = np.empty(n + 1, dtype=np.int64)
+    for _t in range(start.shape[0]):
+        start[_t] = 0
     for t in range(keys.shape[0]):
         start[keys[t] + 1] += 1
     for v in range(n):
