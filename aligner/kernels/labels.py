@@ -82,7 +82,7 @@ def _top_k_chunk(a_indptr, a_indices, a_data, b_indptr, b_indices, b_data, b_cum
     acc = np.zeros(nb)
     touched = np.empty(nb, dtype=np.int64)
     cand_j = np.empty(nb, dtype=np.int64)
-    cand_v = np.empty(nb)
+    cand_v = np.empty(nb, dtype=np.float64)
     for i in range(row0, row1):
         lo, hi = a_indptr[i], a_indptr[i + 1]
         if lo == hi:

@@ -37,7 +37,7 @@ def sort_rows(k1, k2, n1):
         longest = max(longest, start[k + 1])
         start[k + 1] += start[k]
     kept = start[n1]
-    order = np.empty(kept, np.int64)
+    order = np.empty(kept, dtype=np.int64)
     fill = start[:n1].copy()
     if longest <= _SHORT:
         for i in range(m):
@@ -65,7 +65,7 @@ def sort_rows(k1, k2, n1):
             by2[k2[i] + 1] += 1
     for k in range(n2):
         by2[k + 1] += by2[k]
-    tmp = np.empty(kept, np.int64)
+    tmp = np.empty(kept, dtype=np.int64)
     for i in range(m):
         if k1[i] >= 0:
             tmp[by2[k2[i]]] = i
@@ -90,7 +90,7 @@ def merge_sorted(k1, k2, order, w, mode):
     for j in range(m):
         if j == 0 or k1[order[j]] != k1[order[j - 1]] or k2[order[j]] != k2[order[j - 1]]:
             k += 1
-    rows = np.empty((k, 2), np.int32)
+    rows = np.empty((k, 2), dtype=np.int32)
     val = np.empty(k if mode else 0, dtype=np.float64)
     for _t in range(val.shape[0]):
         val[_t] = 0.0
@@ -131,8 +131,8 @@ def fill_symmetric(a, b, n, w, weighted):
     for k in range(n):
         indptr[k + 1] += indptr[k]
     fill = indptr[:n].copy()
-    indices = np.empty(2 * m, np.int32)
-    ew = np.empty(2 * m if weighted else 0, np.float64)
+    indices = np.empty(2 * m, dtype=np.int32)
+    ew = np.empty(2 * m if weighted else 0, dtype=np.float64)
     for i in range(m):
         u, v = a[i], b[i]
         indices[fill[u]] = v
