@@ -283,6 +283,10 @@ def _load_run(out: Path, network_a, network_b, delimiter: str | None, header: st
     problem = _summary_problem(summary)
     if problem is not None:
         raise damaged_output(out / "summary.json", problem)
+    # left at their defaults, the inputs are re-read as the run read them (its own --header, --delimiter)
+    params = summary.get("parameters") or {}
+    delimiter = params.get("delimiter") if delimiter is None else delimiter
+    header = (params.get("header") or "auto") if header == "auto" else header
     pairs = read_run_table(out / "alignment.tsv", _ALIGNMENT_COLUMNS, required=("node_a", "node_b", "score"))
     cons = read_run_table(out / "conserved_edges.tsv", _CONSERVED_COLUMNS, required=("node_a1", "node_a2"))
     src_a = network_a if network_a is not None else summary["inputs"]["network_a"]["source"]
@@ -544,9 +548,10 @@ def build_report(outdir, *, network_a=None, network_b=None, delimiter: str | Non
 
     Reads summary.json, alignment.tsv and conserved_edges.tsv (and sweep.tsv when a sweep was
     written there, transferred_edges.tsv when the run wrote it), and re-reads network A from
-    ``summary["inputs"]["network_a"]["source"]`` unless ``network_a`` overrides it (network B is
-    only needed for its size, which the summary holds; ``network_b`` is accepted for symmetry and
-    checked to exist). With a truth table (``summary["inputs"]["truth"]["source"]``, or ``truth``)
+    ``summary["inputs"]["network_a"]["source"]`` unless ``network_a`` overrides it, read as the run
+    read its inputs (its ``delimiter`` and ``header`` parameters) unless ``delimiter`` or ``header``
+    is given (network B is only needed for its size, which the summary holds; ``network_b`` is
+    accepted for symmetry and checked to exist). With a truth table (``summary["inputs"]["truth"]["source"]``, or ``truth``)
     the pair tables get a true/false column; when it cannot be read the page says so. Figures are
     PNG, embedded as base64; every matched pair is embedded as JSON for the searchable table and
     the focus view (:mod:`aligner.render.explorer`); the page loads no external resource.

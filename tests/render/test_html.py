@@ -517,3 +517,30 @@ def test_pair_search_and_focus_in_headless_browser(run_dir, chromium, tmp_path):
     shot = tmp_path / "focus.png"  # pytest's tmp_path, never the repository
     chromium.screenshot(shot)
     assert shot.read_bytes()[:8] == b"\x89PNG\r\n\x1a\n"  # PNG signature (PNG specification)
+
+
+def test_report_rereads_the_inputs_as_the_run_read_them(tmp_path):
+    # Found by differential testing: a run read with --header no, whose files start with lines that
+    # look like header lines (node_a/node_b), was re-read by the report with --header auto, which
+    # dropped those lines: node 'node_a' lost an edge (degree 1 beside 2 conserved edges) and the
+    # truth table's first row was lost. Reference: the degrees and the truth rows hand-counted from
+    # the files as the run read them (every line is data).
+    nodes = ["node_a", "node_b", "x1", "x2", "x3"]
+    edges = [("node_a", "node_b"), ("node_a", "x1"), ("node_b", "x2"), ("x1", "x2"), ("x2", "x3")]
+    (tmp_path / "a.tsv").write_text("".join(f"{u}\t{v}\n" for u, v in edges))
+    (tmp_path / "b.tsv").write_text("".join(f"B{u}\tB{v}\n" for u, v in edges))
+    (tmp_path / "p.tsv").write_text("".join(f"{v}\tB{v}\t1\n" for v in nodes))
+    (tmp_path / "t.tsv").write_text("node_a\tBnode_a\nx1\tBx1\n")
+    out = tmp_path / "out"
+    runner = CliRunner()
+    r = runner.invoke(app, ["align", str(tmp_path / "a.tsv"), str(tmp_path / "b.tsv"), "-p", str(tmp_path / "p.tsv"),
+                            "--truth", str(tmp_path / "t.tsv"), "--header", "no", "-o", str(out), "-q"])
+    assert r.exit_code == 0, r.output
+    assert json.loads((out / "summary.json").read_text())["scores"]["conserved_edges"] == 5
+    r = runner.invoke(app, ["report", str(out), "-q"])
+    assert r.exit_code == 0, r.output
+    data, _ = _page_data(out / "report.html")
+    degree = dict(zip((row[0] for row in data["rows"]), data["degree_a"]))
+    assert degree == {"node_a": 2, "node_b": 2, "x1": 2, "x2": 3, "x3": 1}
+    flags = {row[0]: row[-1] for row in data["rows"]}
+    assert flags == {"node_a": True, "node_b": None, "x1": True, "x2": None, "x3": None}
