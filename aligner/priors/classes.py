@@ -72,6 +72,9 @@ def _as_classes(obj, name: str, *, separator: str | None, delimiter: str | None 
         table = as_table(obj, name=name, layout="node, class", min_cols=2, max_cols=64, what="class table",
                          delimiter=delimiter, header=header)
         nodes, classes = list(table.text(0)), list(table.text(1))
+        if not isinstance(obj, (str, os.PathLike)):  # an object's missing class (None, NaN) is none, as in a mapping
+            keep = [not _missing(v) for v in table.columns[1]]
+            nodes, classes = [v for v, k in zip(nodes, keep) if k], [c for c, k in zip(classes, keep) if k]
         if isinstance(obj, (str, os.PathLike)) and header == "auto" and table.header is None and nodes and \
                 str(nodes[0]).strip().lower() in _NODE_WORDS and str(classes[0]).strip().lower() in _CLASS_WORDS:
             nodes, classes = nodes[1:], classes[1:]  # a header line: node, class
@@ -92,9 +95,14 @@ def _as_classes(obj, name: str, *, separator: str | None, delimiter: str | None 
     return df.drop_duplicates(ignore_index=True)
 
 
+def _missing(value) -> bool:
+    """Whether a value stands for no class: None, NaN, pandas' NA."""
+    return value is None or value is pd.NA or (isinstance(value, float) and np.isnan(value))
+
+
 def _classes_of(value, name: str) -> list:
     """The classes of one node of a mapping: a label, a collection of labels, or none (None, NaN)."""
-    if value is None or (isinstance(value, float) and np.isnan(value)):
+    if _missing(value):
         return []
     if isinstance(value, (list, tuple, set, frozenset, np.ndarray, pd.Series)):
         return sorted({str(v) for v in value if v is not None}, key=str)
@@ -120,7 +128,8 @@ def prior_from_classes(classes_a, classes_b, *, score: float = ClassConfig.score
     classes_a, classes_b : mapping, Series, DataFrame, rows or path
         Node identifier -> class label, for the nodes of A and of B: a mapping or Series (a
         value may be a list of classes, or None for none), a table of (node, class) rows in
-        which a node may be repeated (a DataFrame's first two columns), or a class table file
+        which a node may be repeated (a DataFrame's first two columns; a missing class, None or
+        NaN, is none), or a class table file
         (:func:`read_classes`). Nodes without a class get no candidate.
     score : float > 0
         The prior score of every pair.

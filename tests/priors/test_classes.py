@@ -1,6 +1,7 @@
 """The class prior: every pair sharing a class, one score; several classes per node (rows, lists or a
 separator); class table files with a header line or without."""
 
+import numpy as np
 import pandas as pd
 import pytest
 
@@ -52,3 +53,16 @@ def test_errors_name_the_file_and_line(tmp_path):
         prior_from_classes(A, B, score=0)
     with pytest.raises(InvalidParameterError, match=r"classes_a must map each node to a class"):
         prior_from_classes({"x": 1.5}, B)
+
+
+def test_a_missing_class_in_a_dataframe_or_rows_is_no_class():
+    # Found by differential testing: a DataFrame's (or rows') missing class, None or NaN, was read as
+    # the class "nan" or "None", so every classless node of A was paired with every classless node
+    # of B. Reference: the definition in docs/method.md (pairs share a class; nodes without a class
+    # get no pair), and this function's mapping input, where None and NaN mean no class.
+    a = pd.DataFrame({"node": ["x1", "x2", "x3", "x4"], "cls": ["AVB", None, np.nan, pd.NA]})
+    b = pd.DataFrame({"node": ["y1", "y2", "y3"], "cls": [np.nan, "AVB", None]})
+    want = [["x1", "y2", 1.0]]
+    assert prior_from_classes(a, b).values.tolist() == want
+    assert prior_from_classes(dict(zip(a.node, a.cls)), dict(zip(b.node, b.cls))).values.tolist() == want
+    assert prior_from_classes([("x1", "AVB"), ("x2", None)], [("y1", None), ("y2", "AVB")]).values.tolist() == want
