@@ -248,8 +248,13 @@ def _record_labels(obj, columns: str, name: str, *, delimiter: str | None = None
     return pd.Series(texts[idx], index=pd.Index(ids[idx], dtype=object, name="node"), dtype=object, name="label")
 
 
+def _missing(v) -> bool:
+    """Whether a value stands for no text: None, NaN, pandas' NA (a nullable string column's gap)."""
+    return v is None or v is pd.NA or (isinstance(v, float) and np.isnan(v))
+
+
 def _field(v) -> str:
-    if v is None or (isinstance(v, float) and np.isnan(v)):
+    if _missing(v):
         return ""
     return str(v).strip()
 
@@ -258,8 +263,7 @@ def _as_labels(labels, name: str) -> pd.Series:
     """Series, dict, rows (identifier, label) or path -> Series of str indexed by str, sorted by identifier."""
     table = as_table(labels, name=name, layout="node, label", min_cols=2, max_cols=2, read=read_labels)
     ids = table.text(0)
-    values = np.array(["" if v is None or (isinstance(v, float) and np.isnan(v)) else str(v)
-                       for v in table.columns[1]], dtype=object)
+    values = np.array(["" if _missing(v) else str(v) for v in table.columns[1]], dtype=object)
     if len(set(ids)) != len(ids):
         raise InvalidParameterError(f"{name} must name each node once; got repeated identifiers", param=name)
     order = np.argsort(ids.astype(str), kind="stable") if len(ids) else np.empty(0, np.int64)

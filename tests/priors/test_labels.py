@@ -232,3 +232,19 @@ def test_registry_demo_files_are_current():
     for name, text in files.items():
         assert (root / "demo_pairs" / "registry" / name).read_bytes() == text.encode("utf-8")
         assert (scenario_dir("registry") / name).read_bytes() == text.encode("utf-8")
+
+
+def test_a_missing_label_in_a_nullable_string_column_is_no_label():
+    # Found by differential testing: a gap of a pandas nullable string column (pd.NA) was read as the
+    # text "<NA>", so two such nodes scored 1.0 together. Reference: docs/formats.md (an empty label
+    # makes the identifier its own label) and the same labels in a plain object column (None).
+    nullable = pd.Series(pd.array(["Quorvell Shipping", None, "Ombrin Dairy"], dtype="string"), index=["n1", "n2", "n3"])
+    other = pd.Series(pd.array(["Shipping Quorvel", None], dtype="string"), index=["m1", "m2"])
+    got = label_prior(nullable, other)
+    want = label_prior(nullable.astype(object).where(nullable.notna(), None), other.astype(object).where(other.notna(), None))
+    pd.testing.assert_frame_equal(got, want)
+    assert ("n2", "m2") not in set(zip(got.node_a, got.node_b))
+    records = lambda ids, names: pd.DataFrame({"id": ids, "name": pd.array(names, dtype="string")})  # noqa: E731
+    got = label_prior(records(["n1", "n2"], ["Quorvell Shipping", None]), records(["m1", "m2"], ["Shipping Quorvel", None]),
+                      label_columns="name", min_similarity=0.5)
+    assert list(zip(got.node_a, got.node_b)) == [("n1", "m1")]
