@@ -9,6 +9,7 @@ node of B of a shared class, all with one score (``aligner prior-from-classes`` 
 from __future__ import annotations
 
 import os
+import re
 from collections.abc import Mapping
 
 import numpy as np
@@ -25,6 +26,20 @@ __all__ = ["prior_from_classes", "read_classes"]
 #: ``gene<TAB>family`` is a header line (any case).
 _NODE_WORDS = {"node", "id", "name", "gene", "protein", "neuron", "cell", "identifier"}
 _CLASS_WORDS = {"class", "classes", "type", "cell_type", "celltype", "family", "group", "annotation", "label"}
+#: ... also a node word with a suffix such as node_id, node_a, gene_name (``_``, ``-``, a space or
+#: nothing between), and class words written with a space or a hyphen (cell type)
+_NODE_SUFFIXES = {"id", "ids", "name", "a", "b"}
+
+
+def _header_words(node: str, cls: str) -> bool:
+    """Whether a first row (node field, class field) is a header line such as node<TAB>class."""
+    node, cls = node.strip().lower(), re.sub(r"[\s-]+", "_", cls.strip().lower())
+    if cls not in _CLASS_WORDS:
+        return False
+    if node in _NODE_WORDS:
+        return True
+    m = re.fullmatch(r"([a-z]+)[_\s-]?([a-z]+)", node)
+    return m is not None and m.group(1) in _NODE_WORDS and m.group(2) in _NODE_SUFFIXES
 
 
 def read_classes(path: str | os.PathLike, *, separator: str | None = ClassConfig.class_separator,
@@ -76,7 +91,7 @@ def _as_classes(obj, name: str, *, separator: str | None, delimiter: str | None 
             keep = [not _missing(v) for v in table.columns[1]]
             nodes, classes = [v for v, k in zip(nodes, keep) if k], [c for c, k in zip(classes, keep) if k]
         if isinstance(obj, (str, os.PathLike)) and header == "auto" and table.header is None and nodes and \
-                str(nodes[0]).strip().lower() in _NODE_WORDS and str(classes[0]).strip().lower() in _CLASS_WORDS:
+                _header_words(str(nodes[0]), str(classes[0])):
             nodes, classes = nodes[1:], classes[1:]  # a header line: node, class
             if not nodes:  # as read_table refuses a table without data rows
                 path, line = table.origin(0)

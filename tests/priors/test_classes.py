@@ -66,3 +66,16 @@ def test_a_missing_class_in_a_dataframe_or_rows_is_no_class():
     assert prior_from_classes(a, b).values.tolist() == want
     assert prior_from_classes(dict(zip(a.node, a.cls)), dict(zip(b.node, b.cls))).values.tolist() == want
     assert prior_from_classes([("x1", "AVB"), ("x2", None)], [("y1", None), ("y2", "AVB")]).values.tolist() == want
+
+
+@pytest.mark.parametrize("head", ["node_id\tclass", "node_a\tclass", "gene_name\tfamily", "node\tcell type",
+                                  "Neuron ID\tType"])
+def test_header_lines_with_a_suffixed_node_word(tmp_path, head):
+    # Found by differential testing: a first line node_id<TAB>class was read as data, a node
+    # 'node_id' of class 'class', so two such tables gave the pair (node_id, node_id). Reference:
+    # docs/formats.md (a word for the node, then a class word, is a header line), hand-worked.
+    a, b = tmp_path / "a.tsv", tmp_path / "b.tsv"
+    a.write_text(f"{head}\nx1\tAVB\nx2\tDD\n")
+    b.write_text(f"{head}\ny1\tAVB\n")
+    assert _pairs(prior_from_classes(str(a), str(b))) == [("x1", "y1")]
+    assert read_classes(a)["node"].tolist() == ["x1", "x2"]
