@@ -13,6 +13,8 @@ Two nulls:
 from __future__ import annotations
 
 import math
+from collections import deque
+from concurrent.futures import ThreadPoolExecutor
 from typing import Callable
 
 import numpy as np
@@ -21,6 +23,7 @@ import numpy.typing as npt
 from aligner.core.candidates import CandidateSet
 from aligner.core.rounding import round_matching
 from aligner.core.scoring import conserved_mask
+from aligner.kernels.product import thread_count
 from aligner.kernels.scoring import induced_degrees
 
 __all__ = ["random_bijection_moments", "candidate_permutation_test", "significance"]
@@ -128,15 +131,33 @@ def candidate_permutation_test(
     edges_b = np.asarray(edges_b, dtype=np.int64).reshape(-1, 2)
     null = np.zeros(n, dtype=np.int64)
     sizes = np.zeros(n, dtype=np.int64)
-    for t in range(n):
-        match = round_matching(cand, 1.0 + rng.random(cand.m), method="sparse")
+
+    def null_map(w):  # conserved edges and matched pairs of one null map
+        match = round_matching(cand, w, method="sparse")
         p = cand.pairs[match.index].astype(np.int64)
         f = np.full(cand.n1, -1, dtype=np.int64)
         f[p[:, 0]] = p[:, 1]
-        null[t] = int(conserved_mask(edges_a, edges_b, f, cand.n2).sum())
-        sizes[t] = len(p)
+        return int(conserved_mask(edges_a, edges_b, f, cand.n2).sum()), len(p)
+
+    # the maps are independent: solved on every core (the kernels release the GIL), their weights
+    # drawn in order from the one generator, so the result is that of one thread; a few maps in
+    # flight at a time, so that memory stays a few weight vectors
+    workers = thread_count() if n > 1 else 1
+    flight: deque = deque()  # (map, its future), oldest first
+
+    def collect():
+        t, future = flight.popleft()
+        null[t], sizes[t] = future.result()
         if progress is not None:
             progress(t + 1, n)
+
+    with ThreadPoolExecutor(workers) as pool:
+        for t in range(n):
+            flight.append((t, pool.submit(null_map, 1.0 + rng.random(cand.m))))
+            if len(flight) > workers:
+                collect()
+        while flight:
+            collect()
     ge = int((null >= observed).sum())
     return {"permutations": n, "seed": seed, "observed": int(observed),
             "null_mean": float(null.mean()) if n else None, "null_sd": float(null.std(ddof=1)) if n > 1 else None,

@@ -221,7 +221,7 @@ def _best_two(ent, beg, end, v):
     return u1, j1, c1, u2, j2, c2
 
 
-@numba.njit(cache=True, **OUTER)
+@numba.njit(cache=True, nogil=True, **OUTER)
 def _row_reduction_pass(rstart, ent, free, n_free, max_steps, v, rec,
                         row_to_col, row_cost):
     """One augmenting row reduction pass over ``free[:n_free]``.
@@ -364,7 +364,7 @@ def _row_reduction_pass(rstart, ent, free, n_free, max_steps, v, rec,
     return n_free, steps
 
 
-@numba.njit(cache=True, **OUTER)
+@numba.njit(cache=True, nogil=True, **OUTER)
 def _insert_rows(free, n_free, rstart, ent, v, rec, row_to_col, row_cost, state,
                  heap, hkey, pos, stack, touched, settled):
     """Assign each free row ``free[:n_free]`` by one shortest augmenting path.
@@ -519,7 +519,7 @@ def _insert_rows(free, n_free, rstart, ent, v, rec, row_to_col, row_cost, state,
             state[touched[t]] = _UNSEEN
 
 
-@numba.njit(cache=True, **OUTER)
+@numba.njit(cache=True, nogil=True, **OUTER)
 def _pack(indptr, indices, weights, n_cols):
     """Check the CSR arrays; return the positive entries packed by row.
 
@@ -781,7 +781,7 @@ def max_weight_matching_dense(weights_dense):
 # ---------------------------------------------------------------------------
 
 
-@numba.njit(cache=True, **OUTER)
+@numba.njit(cache=True, nogil=True, **OUTER)
 def compact_positive(pairs, w, n1, n2):
     """The candidate pairs with ``w > 0`` as a CSR over the A and B nodes that have any.
 
@@ -840,7 +840,7 @@ def compact_positive(pairs, w, n1, n2):
     return use, rows_u, cols_u, indptr, cols, ww
 
 
-@numba.njit(cache=True, **OUTER)
+@numba.njit(cache=True, nogil=True, **OUTER)
 def matched_entries(indptr, cols, row_to_col, use):
     """Candidate indices of the matched entries: for each row with a column, ``use`` at the
     row's stored entry in that column (rows ascending, as the candidates are sorted)."""
