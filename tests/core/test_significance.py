@@ -214,3 +214,22 @@ def test_induced_counts_and_degrees_against_networkx(rng):
     assert m == sub.number_of_edges()
     assert deg.tolist() == [float(sub.degree(v)) for v in nodes.tolist()]
     assert _induced(np.empty((0, 2), np.int64), nodes, 40)[0] == 0
+
+
+@pytest.mark.parametrize("threads", [1, 3])
+def test_null_maps_on_several_threads_are_those_of_one(rng, threads, monkeypatch):
+    # Reference: the by-hand null (_null_by_hand, scipy's linear_sum_assignment) map by map; the
+    # maps are solved on `threads` threads, and progress still counts them off in order.
+    import aligner.core.significance as sig
+    monkeypatch.setattr(sig, "thread_count", lambda: threads)
+    n = 30
+    ea, eb = random_edges(n, 0.2, rng), random_edges(n, 0.2, rng)
+    pairs = np.array([(i, j) for i in range(n) for j in range(n) if abs(i - j) <= 3])
+    cand = build_candidates(pairs, np.ones(len(pairs)), n, n, top_k=None)
+    null, sizes = _null_by_hand(ea, eb, cand, 9, 2)
+    seen = []
+    got = candidate_permutation_test(ea, eb, cand, int(null[0]), permutations=9, seed=2,
+                                     progress=lambda done, total: seen.append((done, total)))
+    assert seen == [(t, 9) for t in range(1, 10)]
+    assert got["null_max"] == int(null.max()) and got["null_mean"] == pytest.approx(null.mean())
+    assert got["null_matched_mean"] == pytest.approx(sizes.mean())
