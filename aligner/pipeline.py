@@ -671,7 +671,7 @@ def evaluate(problem: Problem, diffusion: DiffusionResult, improvement: Improvem
     seeds = None
     if inputs.seeds is not None:
         seeds = seed_summary(inputs.network_a, inputs.network_b, matched, inputs.seeds,
-                             truth=None if inputs.truth is None else inputs.truth.pairs)
+                             truth=None if inputs.truth is None else inputs.truth.pairs, weighted=cfg.weighted)
         seeds["source"] = _source(seeds["source"])  # named absolutely, like the other inputs
         expansion = problem.origin.expansion
         seeds["expansion"] = None if expansion is None else expansion.report()

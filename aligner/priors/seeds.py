@@ -400,7 +400,7 @@ def round_with_fixed(cand: CandidateSet, w: npt.ArrayLike, fixed_idx: npt.ArrayL
 
 
 def seed_summary(net_a: Network, net_b: Network, matched: npt.ArrayLike, seeds: SeedTable, *,
-                 truth: npt.ArrayLike | None = None) -> dict:
+                 truth: npt.ArrayLike | None = None, weighted: bool = False) -> dict:
     """The seed figures of a run, and its scores with the edges among seed nodes left out.
 
     ``seed_edges_a`` / ``seed_edges_b`` count the edges of A among seed nodes of A and of B
@@ -408,7 +408,8 @@ def seed_summary(net_a: Network, net_b: Network, matched: npt.ArrayLike, seeds: 
     seeds carry onto edges of B. These are conserved whatever the aligner does, so
     ``scores_without_seed_edges`` recomputes every score on A and B with those edges
     removed (EC, ICS and S3 over the remaining edges), and NC over the truth nodes that are
-    not seeds. Networks read as directed are counted in arcs, as the run's own scores are.
+    not seeds. Networks read as directed are counted in arcs, as the run's own scores are; a
+    ``weighted`` run's scores also give the conserved weight and the weighted EC, as its own do.
     """
     matched = np.asarray(matched, dtype=np.int64).reshape(-1, 2)
     sa = np.zeros(net_a.n, dtype=bool)
@@ -416,7 +417,7 @@ def seed_summary(net_a: Network, net_b: Network, matched: npt.ArrayLike, seeds: 
     sa[seeds.pairs[:, 0]] = True
     sb[seeds.pairs[:, 1]] = True
     directed = net_a.directed and net_b.directed
-    ea, eb = net_a.scored_edges(directed)[0], net_b.scored_edges(directed)[0]
+    (ea, wa), (eb, wb) = net_a.scored_edges(directed), net_b.scored_edges(directed)
     in_a = sa[ea[:, 0]] & sa[ea[:, 1]]
     in_b = sb[eb[:, 0]] & sb[eb[:, 1]]
     f = seeds.pairs.astype(np.int64)
@@ -425,7 +426,11 @@ def seed_summary(net_a: Network, net_b: Network, matched: npt.ArrayLike, seeds: 
     if truth is not None:
         t = np.asarray(truth, dtype=np.int64).reshape(-1, 2)
         t = t[~sa[t[:, 0]]]
-    sc, _ = score_matching(ea[~in_a], eb[~in_b], matched, net_a.n, net_b.n, truth=t, directed=directed)
+    weights = {}
+    if weighted and wa is not None and wb is not None:
+        weights = {"weights_a": np.asarray(wa, dtype=np.float64)[~in_a],
+                   "weights_b": np.asarray(wb, dtype=np.float64)[~in_b]}
+    sc, _ = score_matching(ea[~in_a], eb[~in_b], matched, net_a.n, net_b.n, truth=t, directed=directed, **weights)
     out = {"source": str(seeds.source), "rows": seeds.n_rows, "pairs": seeds.n,
            "repeated_rows_merged": seeds.n_repeated, "seed_edges_a": int(in_a.sum()),
            "seed_edges_b": int(in_b.sum()), "conserved_among_seeds": sc_seed.conserved_edges,

@@ -246,3 +246,23 @@ def test_scores_without_seed_edges_count_arcs_in_a_directed_run():
     assert free["edges_a"] == da.number_of_edges() and free["edges_b"] == db.number_of_edges()
     assert free["conserved_edges"] == cons == res.scores.conserved_edges - s["conserved_among_seeds"]
     assert free["ec"] == pytest.approx(cons / min(da.number_of_edges(), db.number_of_edges()))
+
+
+def test_scores_without_seed_edges_give_the_weights_of_a_weighted_run():
+    # Found by differential testing: a weighted run's seed-free scores lacked the conserved
+    # weight and the weighted EC its own scores give. Reference: the definition of
+    # aligner.core.scoring.conserved_weight (the sum over conserved edges of min(w_A, w_B)),
+    # recounted by hand on a path a1-a2-a3-a4 (weights 2, 1, 5) against the path b1-b2-b3-b4
+    # (unit weights), identity prior, seeds (a1, b1) and (a2, b2): without the seed edge a1-a2
+    # the conserved edges a2-a3 and a3-a4 weigh min(1, 1) + min(5, 1) = 2 over min(1 + 5, 1 + 1) = 2.
+    ea = pd.DataFrame([("a1", "a2", 2.0), ("a2", "a3", 1.0), ("a3", "a4", 5.0)])
+    eb = pd.DataFrame([("b1", "b2", 1.0), ("b2", "b3", 1.0), ("b3", "b4", 1.0)])
+    prior = pd.DataFrame([(f"a{i}", f"b{i}", 1.0) for i in range(1, 5)], columns=["node_a", "node_b", "score"])
+    seeds = [("a1", "b1"), ("a2", "b2")]
+    res = aligner.align(ea, eb, prior, seeds=seeds, weighted=True)
+    free = res.summary["seeds"]["scores_without_seed_edges"]
+    assert res.scores.conserved_edges == 3 and res.scores.conserved_weight == pytest.approx(3.0)
+    assert free["conserved_edges"] == 2
+    assert free["conserved_weight"] == pytest.approx(2.0) and free["weighted_ec"] == pytest.approx(1.0)
+    unweighted = aligner.align(ea.iloc[:, :2], eb.iloc[:, :2], prior, seeds=seeds)
+    assert "conserved_weight" not in unweighted.summary["seeds"]["scores_without_seed_edges"]
