@@ -203,7 +203,7 @@ def as_prior(obj, net_a: Network, net_b: Network, kind: str, delimiter, header,
     table = as_table(obj, name="prior", layout="node_a, node_b, score", min_cols=3, max_cols=3,
                      what="prior table", delimiter=delimiter, header=header,
                      source="<DataFrame prior>" if isinstance(obj, pd.DataFrame) else None, pick=prior_pick(columns))
-    return prior_notes(prior_from_columns(table.text(0), table.text(1), table.numeric(2, "score"), net_a, net_b,
+    return prior_notes(prior_from_columns(table.names(0), table.names(1), table.numeric(2, "score"), net_a, net_b,
                                            kind=kind, source=table.source, origin=table.origin))
 
 
@@ -244,7 +244,7 @@ def as_alignment(obj, net_a: Network, net_b: Network, delimiter, header) -> Pair
         return _one_to_one(known_pairs(obj, "alignment"), net_a, net_b, None)
     table = as_table(obj, name="alignment", layout="node_a, node_b", min_cols=2, max_cols=64, what="alignment",
                      delimiter=delimiter, header=header, source="<alignment>")
-    t = known_pairs(pairs_from_columns(table.text(0), table.text(1), net_a, net_b, source=table.source), "alignment")
+    t = known_pairs(pairs_from_columns(table.names(0), table.names(1), net_a, net_b, source=table.source), "alignment")
     return _one_to_one(t, net_a, net_b, table)
 
 
@@ -261,7 +261,7 @@ def _one_to_one(t: PairTable, net_a: Network, net_b: Network, table: Table | Non
         raise InputFormatError(f"node {node!r} of network {name} is in more than one pair; an alignment must be "
                                "one-to-one", path=str(t.source))
     # the known pairs are the rows naming a node of A and a node of B, in row order
-    rows = np.flatnonzero((lookup(net_a.names, table.text(0)) >= 0) & (lookup(net_b.names, table.text(1)) >= 0))
+    rows = np.flatnonzero((lookup(net_a.names, table.names(0)) >= 0) & (lookup(net_b.names, table.names(1)) >= 0))
     row2, row1 = int(rows[r2]), int(rows[r1])
     keep = "keep one of the two " + ("lines" if table.first_line is not None else "rows")
     if (t.pairs[r2] == t.pairs[r1]).all():
@@ -282,4 +282,4 @@ def as_pairs(obj, net_a: Network, net_b: Network, what: str, delimiter, header) 
         return obj
     table = as_table(obj, name=what.split()[0], layout="node_a, node_b", min_cols=2, max_cols=64, what=what,
                      delimiter=delimiter, header=header, source=f"<{what}>")
-    return pairs_from_columns(table.text(0), table.text(1), net_a, net_b, source=table.source)
+    return pairs_from_columns(table.names(0), table.names(1), net_a, net_b, source=table.source)

@@ -362,6 +362,22 @@ class Table:
             return InputFormatError(f"{self.where(row)}: {message}", path=path)
         return InputFormatError(message, path=path, line=line)
 
+    def names(self, col: int):
+        """Column ``col`` as node identifiers (:meth:`text`). In a caller's object (a DataFrame,
+        rows) an entry that is missing (None, NaN, pd.NA) or text that is empty or only blanks is
+        an error naming its row, as an empty field of a file is; it would otherwise become a node
+        named "nan" or "None"."""
+        out = self.text(col)
+        raw = self.columns[col]
+        if self.first_line is None and self.parts is None and not isinstance(raw, (pa.Array, pa.ChunkedArray)):
+            bad = np.asarray(pd.isna(raw), dtype=bool).reshape(-1)
+            if out.dtype == object:
+                bad |= np.array([not v.strip() for v in out], dtype=bool).reshape(-1)
+            if bad.any():
+                row = int(np.argmax(bad))
+                raise self.error(row, f"column {col + 1} names no node ({raw[row]!r}); fill it in or remove the row")
+        return out
+
     def text(self, col: int):
         """Column ``col`` as identifiers: pyarrow strings as read, else a numpy array of str."""
         c = self.columns[col]
@@ -868,7 +884,7 @@ def network_from_table(table: Table, *, directed: bool = False) -> Network:
         A weight is not a finite number or is negative; the message names the line (the row).
     """
     weights = edge_weights(table)
-    a, b = table.text(0), table.text(1)
+    a, b = table.names(0), table.names(1)
     names, codes = intern(a, b)
     m = len(a)
     return network_from_edges(names, codes[:m], codes[m:], weights, source=table.source, directed=directed)
@@ -906,7 +922,7 @@ def read_prior(path: str | os.PathLike, net_a: Network, net_b: Network, *, kind:
     """
     table = read_table(path, min_cols=3, max_cols=3, delimiter=delimiter, header=header, what="prior table",
                        pick=prior_pick(columns))
-    return prior_from_columns(table.text(0), table.text(1), table.numeric(2, "score"), net_a, net_b, kind=kind,
+    return prior_from_columns(table.names(0), table.names(1), table.numeric(2, "score"), net_a, net_b, kind=kind,
                               source=table.source, origin=table.origin)
 
 
@@ -919,4 +935,4 @@ def read_pairs(path: str | os.PathLike, net_a: Network, net_b: Network, *, delim
                header: str = "auto", what: str = "pair table") -> PairTable:
     """Read a table whose first two columns are node pairs (extra columns are ignored)."""
     table = read_table(path, min_cols=2, max_cols=64, delimiter=delimiter, header=header, what=what)
-    return pairs_from_columns(table.text(0), table.text(1), net_a, net_b, source=table.source)
+    return pairs_from_columns(table.names(0), table.names(1), net_a, net_b, source=table.source)

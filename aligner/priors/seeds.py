@@ -77,7 +77,7 @@ def _check_seed_columns(table: Table, net_a: Network, net_b: Network) -> SeedTab
     A message names the file and line of the row at fault (``seeds.tsv, line 7: ...``), or an
     object's row (``<seeds>: row 3: ...``).
     """
-    a, b, source, where = table.text(0), table.text(1), table.source, table.where
+    a, b, source, where = table.names(0), table.names(1), table.source, table.where
     hint = "fix or remove it (every seed must name a node of A, then a node of B)"
     if len(a) == 0:
         raise InputFormatError("holds no seed pairs; give a table of known pairs node_a, node_b (one pair per "

@@ -125,3 +125,24 @@ def test_seeds_from_every_form(tmp_path, nets):
     with pytest.raises(InvalidParameterError, match=r"^seeds must hold rows of 2 to 64 values") as info:
         as_seeds([("a1",)], a, b)
     assert info.value.param == "seeds"
+
+
+@pytest.mark.parametrize("gap", [None, np.nan, pd.NA, "", "  "])
+def test_a_missing_node_in_an_object_is_refused_naming_its_row(nets, gap):
+    # Found by differential testing: an edge DataFrame whose node was None, NaN, pd.NA or blank
+    # text made a node named "nan" (or "None", "<NA>", ""), where a file refuses an empty field
+    # with its line. Common practice: a missing identifier is an error, not an identifier.
+    frame = pd.DataFrame({"u": ["a", "b", "c"], "v": ["b", "c", gap]}, dtype=object)
+    with pytest.raises(InputFormatError, match=r"row 3: column 2 names no node"):
+        as_network(frame, name="network_a")
+    rows = [("a", "b"), (gap, "c")]
+    with pytest.raises(InputFormatError, match=r"row 2: column 1 names no node"):
+        as_network(rows)
+    net_a, net_b = nets
+    with pytest.raises(InputFormatError, match=r"row 1: column 2 names no node"):
+        as_prior(pd.DataFrame({"a": [net_a.names[0]], "b": [gap], "s": [1.0]}, dtype=object), net_a, net_b,
+                 "similarity", None, "auto")
+    with pytest.raises(InputFormatError, match=r"row 1: column 1 names no node"):
+        as_seeds([(gap, net_b.names[0])], net_a, net_b)
+    # identifiers that are numbers stay identifiers
+    assert as_network(pd.DataFrame({"u": [1, 2], "v": [2, 3]})).n == 3
