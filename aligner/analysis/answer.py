@@ -367,6 +367,8 @@ def answer(engine, index: AnswerIndex, node: int, side: str = "a", *,
         other = int(sides.col_of[mate_self])
         return Answer(other, True, np.inf, float("nan"), -1, -1, True, 1, 1, 0, 0, 0, time.perf_counter() - t0)
     own = np.unique(sides.col_of[_free_pairs(sides, sides.pairs_of_rows(np.array([node], dtype=np.int64)))])
+    if not len(own):  # no free candidate: no assignment can match the node, certainly
+        return Answer(-1, True, np.inf, 0.0, -1, -1, False, 1, 0, 0, 0, 0, time.perf_counter() - t0)
     rows = np.union1d([node], _competitors(sides, own))
     pairs = _free_pairs(sides, sides.pairs_of_rows(rows))
     if len(pairs) > max_pairs:  # a hub's columns: their strongest claimants only

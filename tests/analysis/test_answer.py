@@ -6,6 +6,7 @@ diffusion scores x* the bounds must hold).
 """
 
 import numpy as np
+import pandas as pd
 import pytest
 import scipy.sparse as sp
 from scipy.optimize import linear_sum_assignment
@@ -235,6 +236,21 @@ def test_a_seed_node_answers_its_seed_partner():
     row = q.answers.iloc[0]
     assert row["fixed"] and row["certified"] and row["counterpart"] == seeds[0][1]
     assert dict(zip(res.pairs.node_a, res.pairs.node_b))[seeds[0][0]] == seeds[0][1]
+
+
+def test_a_node_without_a_free_candidate_is_certainly_unmatched():
+    # Found by differential testing: such a node was answered "unmatched, uncertified, margin
+    # -inf", though no assignment can match it. Reference: align leaves it unmatched (common
+    # practice: a node without candidate pairs has no partner in a matching of candidate pairs).
+    # Node x of A has candidates only with the seed partner of node a0, whose pair is fixed.
+    a, b, prior, truth = _instance(300, 3, noise=0.05, decoys=5)
+    seed = tuple(truth.to_numpy()[0])
+    a = pd.concat([a, pd.DataFrame([("x", a.iloc[0, 0])], columns=a.columns)], ignore_index=True)
+    prior = pd.concat([prior, pd.DataFrame([("x", seed[1], 1.0)], columns=prior.columns)], ignore_index=True)
+    res = aligner.align(a, b, prior, seeds=[seed])
+    assert "x" not in set(res.pairs.node_a)
+    row = query(a, b, prior, nodes=["x"], seeds=[seed]).answers.iloc[0]
+    assert row["counterpart"] is None and row["certified"] and row["margin"] == np.inf and not row["fixed"]
 
 
 def test_the_command_line_prints_the_answer_line(tmp_path):
