@@ -292,14 +292,17 @@ def _load_run(out: Path, network_a, network_b, delimiter: str | None, header: st
     src_a = network_a if network_a is not None else summary["inputs"]["network_a"]["source"]
     if network_b is not None and not Path(network_b).exists():
         raise InvalidParameterError(f"network B '{network_b}' does not exist")
+    directed = bool(params.get("directed"))
     try:
-        net_a = read_network(src_a, delimiter=delimiter, header=header)
+        net_a = read_network(src_a, delimiter=delimiter, header=header, directed=directed)
     except (OSError, AlignerError) as exc:
         raise InvalidParameterError(f"cannot re-read network A from '{src_a}' ({exc}); give it with --a") from None
     moved = read_transferred(out) if (out / TRANSFER_TABLE).is_file() else None
     flags, note = _truth_flags(pairs, summary, truth, delimiter, header)
-    return _Run(out, summary, pairs, cons, dict(zip(net_a.names.astype(str), net_a.degree.astype(int))),
-                moved, flags, note)
+    # the degree the pairs' conserved counts are measured against: arcs in and out of the node in a
+    # directed run (alignment.tsv counts conserved arcs), edges otherwise
+    degree = (np.bincount(np.asarray(net_a.arcs).reshape(-1), minlength=net_a.n) if directed else net_a.degree)
+    return _Run(out, summary, pairs, cons, dict(zip(net_a.names.astype(str), degree.astype(int))), moved, flags, note)
 
 
 def _inputs_section(summary: dict) -> str:

@@ -544,3 +544,28 @@ def test_report_rereads_the_inputs_as_the_run_read_them(tmp_path):
     assert degree == {"node_a": 2, "node_b": 2, "x1": 2, "x2": 3, "x3": 1}
     flags = {row[0]: row[-1] for row in data["rows"]}
     assert flags == {"node_a": True, "node_b": None, "x1": True, "x2": None, "x3": None}
+
+
+def test_report_of_a_directed_run_measures_conserved_arcs_against_arcs(tmp_path):
+    # Found by differential testing: in a directed run the report set each pair's conserved arcs
+    # (alignment.tsv counts arcs) against the node's undirected degree, so a node of two reciprocal
+    # arcs showed 2 conserved beside degree 1. Reference: networkx DiGraph in- plus out-degree.
+    import networkx as nx
+
+    arcs = [("u", "v"), ("v", "u"), ("v", "w"), ("w", "x"), ("x", "u")]
+    (tmp_path / "a.tsv").write_text("".join(f"{s}\t{t}\n" for s, t in arcs))
+    (tmp_path / "b.tsv").write_text("".join(f"B{s}\tB{t}\n" for s, t in arcs))
+    (tmp_path / "p.tsv").write_text("".join(f"{v}\tB{v}\t1\n" for v in "uvwx"))
+    out = tmp_path / "out"
+    runner = CliRunner()
+    r = runner.invoke(app, ["align", str(tmp_path / "a.tsv"), str(tmp_path / "b.tsv"), "-p", str(tmp_path / "p.tsv"),
+                            "--directed", "-o", str(out), "-q"])
+    assert r.exit_code == 0, r.output
+    r = runner.invoke(app, ["report", str(out), "-q"])
+    assert r.exit_code == 0, r.output
+    data, _ = _page_data(out / "report.html")
+    g = nx.DiGraph(arcs)
+    degree = dict(zip((row[0] for row in data["rows"]), data["degree_a"]))
+    assert degree == {v: g.in_degree(v) + g.out_degree(v) for v in g}
+    conserved = pd.read_csv(out / "alignment.tsv", sep="\t").set_index("node_a")["conserved"]
+    assert all(conserved[v] <= degree[v] for v in degree) and conserved["u"] == 3
