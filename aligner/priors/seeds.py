@@ -357,14 +357,18 @@ def _final_candidates(net_a: Network, net_b: Network, mate_a: np.ndarray, mate_b
     Returns the candidate set and the provisional pairs.
     """
     n1, n2 = net_a.n, net_b.n
-    rows = np.arange(n1, dtype=np.int64)
     k_final = top_k if top_k is not None else 50
-    p, c, d = witness_rows(net_a.indptr, net_a.indices, net_b.indptr, net_b.indices, mate_a, mate_b, rows,
-                            k_final, net_a.degree.astype(np.int64), net_b.degree.astype(np.int64), False)
+    deg_a, deg_b = net_a.degree.astype(np.int64), net_b.degree.astype(np.int64)
+    # each side's best k_final (the witness count is symmetric): a node of B must get its own
+    # best partners, not only those that some node of A ranked among its best
+    p, c, d = witness_rows(net_a.indptr, net_a.indices, net_b.indptr, net_b.indices, mate_a, mate_b,
+                            np.arange(n1, dtype=np.int64), k_final, deg_a, deg_b, False)
+    q, cq, dq = witness_rows(net_b.indptr, net_b.indices, net_a.indptr, net_a.indices, mate_b, mate_a,
+                             np.arange(n2, dtype=np.int64), k_final, deg_b, deg_a, False)
     prov_a = np.flatnonzero(mate_a >= 0)
     prov = np.stack([prov_a, mate_a[prov_a]], axis=1)
-    pairs = np.concatenate([p, prov])
-    score = np.concatenate([c + 0.5 * d, np.zeros(len(prov))])  # merging keeps a pair's best score
+    pairs = np.concatenate([p, q[:, ::-1], prov])
+    score = np.concatenate([c + 0.5 * d, cq + 0.5 * dq, np.zeros(len(prov))])  # merging keeps a pair's best score
     cand = build_candidates(pairs, score, n1, n2, top_k=top_k)
     missing = ~np.isin(_keys(prov, n2), _keys(cand.pairs, n2))
     if missing.any():  # a provisional pair cut by the top-k of its B node: keep it
