@@ -114,9 +114,35 @@ def _table_bytes(df: pd.DataFrame, *, float_format="%.10g", na_rep: str = "", so
     if not small and df.shape[1] >= 2 and not isinstance(df.columns, pd.MultiIndex):
         fields = [_field(col, float_format, na_rep) for _, col in df.items()]
     if fields is None or any(f is None for f in fields):
-        return _pandas_text(df, float_format, na_rep).encode("utf-8")
+        return _quote_comment_starts(_pandas_text(df, float_format, na_rep).encode("utf-8"))
     header = _pandas_text(df.iloc[:0], float_format, na_rep).encode("utf-8")
-    return header + tsv.rows_text(fields)
+    return _quote_comment_starts(header + tsv.rows_text(fields))
+
+
+def _quote_comment_starts(text: bytes) -> bytes:
+    """``text`` with every row's first field that starts with ``#`` put in quotes.
+
+    The readers skip lines starting with ``#`` as comments, so a row of a node named ``#x`` would
+    be lost when the table is read back (``aligner score`` on an alignment.tsv, a written prior):
+    ``"#x"`` is read as the name ``#x``. Such a field was written unquoted, so it holds no quote,
+    tab or line end; a line start inside a quoted field (after an odd number of quotes) is left
+    alone.
+    """
+    if not (text.startswith(b"#") or b"\n#" in text):
+        return text
+    a = np.frombuffer(text, dtype=np.uint8)
+    starts = np.concatenate([[0], np.flatnonzero(a[:-1] == ord("\n")) + 1])
+    starts = starts[a[starts] == ord("#")]
+    quotes_before = np.concatenate([[0], np.cumsum(a == ord('"'))])[starts]
+    starts = starts[quotes_before % 2 == 0]
+    pieces, last = [], 0
+    for start in starts.tolist():
+        ends = [i for i in (text.find(b"\t", start), text.find(b"\n", start)) if i >= 0]
+        end = min(ends) if ends else len(text)
+        pieces += [text[last:start], b'"', text[start:end], b'"']
+        last = end
+    pieces.append(text[last:])
+    return b"".join(pieces)
 
 
 def json_text(obj: object) -> str:
