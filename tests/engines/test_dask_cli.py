@@ -87,6 +87,18 @@ def test_dask_options_need_the_dask_engine(folder, tmp_path):
     assert res.exit_code == 2 and "--engine must be one of" in res.output
 
 
+def test_workers_needs_the_dask_engine_and_no_scheduler(folder, tmp_path):
+    # Common practice (an option that would be ignored is refused, as --partitions and --scheduler
+    # are): --workers on the local engine was accepted and ignored; with --scheduler it says
+    # nothing either, since the running cluster's workers are used. Exit 2, nothing written.
+    res = runner.invoke(app, _args(folder, tmp_path / "o", "--workers", "3"))
+    assert res.exit_code == 2 and "--workers is an option of the dask engine" in res.output
+    res = runner.invoke(app, _args(folder, tmp_path / "o", "--engine", "dask", "--scheduler", "tcp://127.0.0.1:1",
+                                   "--workers", "3"))
+    assert res.exit_code == 2 and "--scheduler names a running one" in res.output
+    assert not (tmp_path / "o").exists()
+
+
 def test_far_more_partitions_than_nodes_are_cut_down(folder, tmp_path):
     # Found by differential testing: tens of thousands of partitions asked for on a small pair made
     # the run take minutes and gigabytes (empty blocks and dataframe partitions are tasks of every

@@ -27,7 +27,12 @@ def check_engine(engine: EngineConfig) -> None:
                 raise InvalidParameterError(f"{name} is an option of the dask engine; add --engine dask", param=name)
         if engine.reading != "auto":
             raise InvalidParameterError("reading is an option of the dask engine; add --engine dask", param="reading")
+        if engine.workers != EngineConfig.workers:
+            raise InvalidParameterError("workers is an option of the dask engine; add --engine dask", param="workers")
         return
+    if engine.scheduler is not None and engine.workers != EngineConfig.workers:
+        raise InvalidParameterError("workers sets the size of a local cluster, and --scheduler names a running one; "
+                                    "give one of them", param="workers")
     from importlib.util import find_spec
 
     if find_spec("dask") is None or find_spec("distributed") is None:
