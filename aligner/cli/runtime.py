@@ -17,9 +17,9 @@ import typer
 from rich.console import Console
 from rich.markup import escape
 
-from aligner.errors import AlignerError, AlignerWarning, ConvergenceError, InputFormatError
+from aligner.errors import AlignerError, AlignerWarning, ConvergenceError, InputFormatError, InvalidParameterError
 
-__all__ = ["out", "err", "say", "message", "user_errors", "progress", "check_inputs"]
+__all__ = ["out", "err", "say", "message", "user_errors", "progress", "check_inputs", "check_prior_options"]
 
 out = Console()
 err = Console(stderr=True)
@@ -159,6 +159,13 @@ def progress(quiet: bool, total: int) -> Iterator[_Stages | _Silent | _Lines]:
     with Progress(SpinnerColumn(), TextColumn("[bold]{task.description:<12}"), BarColumn(), MofNCompleteColumn(),
                   TimeElapsedColumn(), console=err, transient=True) as bar:
         yield _Stages(bar, bar.add_task("starting", total=total))
+
+
+def check_prior_options(prior: Path | None, config) -> None:
+    """Refuse --prior-columns without --prior: there is no prior table for it to pick columns of."""
+    if prior is None and getattr(config, "prior_columns", None) is not None:
+        raise InvalidParameterError("prior_columns picks the columns of the prior table, and no prior is given; "
+                                    "add --prior or leave --prior-columns out", param="prior_columns")
 
 
 def check_inputs(*paths: Path | None) -> None:

@@ -363,3 +363,18 @@ def test_brackets_in_option_help_are_shown():
     # for a tag and dropped it (common practice: escape text put into markup)
     got = CliRunner().invoke(app, ["align", "--help"], env={"COLUMNS": "250"})
     assert got.exit_code == 0 and "pip install 'aligner[dask]'" in got.output
+
+
+@pytest.mark.parametrize("cmd", ["align", "sweep", "query"])
+def test_prior_columns_without_a_prior_is_refused(tmp_path, cmd):
+    # Common practice (an option with nothing to act on is refused, as the dask options are
+    # without --engine dask): --prior-columns without --prior was accepted and ignored, the
+    # candidates then coming from structure or seeds. Exit 2, one line, nothing written.
+    seeds = tmp_path / "seeds.tsv"
+    seeds.write_text("".join(line for line in TRUTH.read_text().splitlines(keepends=True)[:4]))
+    args = [cmd, str(A), str(B), "--prior-columns", "1,2,3"]
+    args += ["--node", "a2", "--seeds", str(seeds)] if cmd == "query" else ["-o", str(tmp_path / "out")]
+    res = runner.invoke(app, args)
+    assert res.exit_code == 2, res.output
+    assert "--prior-columns picks the columns of the prior table, and no prior is given" in res.output
+    assert len(res.output.strip().splitlines()) == 1 and not (tmp_path / "out").exists()
