@@ -8,6 +8,8 @@ function, so importing this module costs nothing.
 from __future__ import annotations
 
 import io
+import warnings
+from contextlib import contextmanager
 from typing import Iterable, Mapping
 
 __all__ = ["plot_sweep", "sweep_figure", "figure_bytes", "histogram", "degree_plot", "subgraph_drawing",
@@ -21,6 +23,16 @@ def _pyplot():
     import matplotlib.pyplot as plt
 
     return plt
+
+
+@contextmanager
+def _missing_glyphs_allowed():
+    """Leave out matplotlib's warning about a character its font lacks (a node name in another
+    script, or with a tab): the character is drawn as a box, and the warning would be printed under
+    --quiet, which prints nothing but errors."""
+    with warnings.catch_warnings():
+        warnings.filterwarnings("ignore", message=r"Glyph \d+ .*missing from (current )?font", category=UserWarning)
+        yield
 
 
 def _finish(fig, ax, xlabel: str, ylabel: str, *, legend: bool = False):
@@ -53,7 +65,8 @@ def figure_bytes(fig, formats: Iterable[str] = ("png",)) -> dict[str, bytes]:
     try:
         for fmt in formats:
             buf = io.BytesIO()
-            fig.savefig(buf, format=fmt)
+            with _missing_glyphs_allowed():
+                fig.savefig(buf, format=fmt)
             data[fmt] = buf.getvalue()
     finally:
         plt.close(fig)
@@ -269,5 +282,6 @@ def subgraph_drawing(sub, mapping: Mapping[str, str]):
                     fontsize=5.5, color="#1d232b", linespacing=0.95,
                     bbox={"boxstyle": "round,pad=0.12", "fc": "white", "ec": "none", "alpha": 0.7})
     ax.set_axis_off()
-    fig.tight_layout()
+    with _missing_glyphs_allowed():
+        fig.tight_layout()
     return fig

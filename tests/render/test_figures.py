@@ -80,3 +80,21 @@ def test_subgraph_drawing_labels():
     deg = sorted((d for _, d in big.degree), reverse=True)
     assert sorted((big.degree[v] for v in labels), reverse=True) == deg[:LABELLED_HUBS]
     assert all(text == v for v, text in labels.items())  # no partner known: the name of A alone
+
+
+def test_node_names_the_font_lacks_draw_without_a_warning():
+    # Common practice (--quiet prints nothing but errors, docs/commands.md): a node name in a
+    # script the default font lacks, or holding a tab, made matplotlib warn "Glyph ... missing
+    # from font(s)" on stderr while aligner report -q drew the conserved subgraph.
+    import warnings
+
+    import networkx as nx
+
+    from aligner.render.figures import subgraph_drawing
+
+    sub = nx.Graph([("ünï漢", "tab\tin"), ("tab\tin", "c"), ("c", "ünï漢")])
+    with warnings.catch_warnings(record=True) as caught:
+        warnings.simplefilter("always")
+        data = figure_bytes(subgraph_drawing(sub, {"ünï漢": "B漢", "tab\tin": "B\t", "c": "Bc"}), ("png", "svg"))
+    assert data["png"].startswith(b"\x89PNG") and b"<svg" in data["svg"]
+    assert [str(w.message) for w in caught if "Glyph" in str(w.message)] == []
