@@ -19,7 +19,7 @@ from rich.markup import escape
 
 from aligner.errors import AlignerError, AlignerWarning, ConvergenceError, InputFormatError, InvalidParameterError
 
-__all__ = ["out", "err", "say", "message", "user_errors", "progress", "check_inputs", "check_prior_options"]
+__all__ = ["out", "err", "say", "message", "user_errors", "progress", "check_inputs", "check_option_combinations"]
 
 out = Console()
 err = Console(stderr=True)
@@ -161,11 +161,41 @@ def progress(quiet: bool, total: int) -> Iterator[_Stages | _Silent | _Lines]:
         yield _Stages(bar, bar.add_task("starting", total=total))
 
 
-def check_prior_options(prior: Path | None, config) -> None:
-    """Refuse --prior-columns without --prior: there is no prior table for it to pick columns of."""
-    if prior is None and getattr(config, "prior_columns", None) is not None:
-        raise InvalidParameterError("prior_columns picks the columns of the prior table, and no prior is given; "
-                                    "add --prior or leave --prior-columns out", param="prior_columns")
+def check_option_combinations(config, *, prior: Path | None, seeds: Path | None = None, query=None) -> None:
+    """Refuse an option given where nothing uses it: the user expects an effect the run would not have.
+
+    An option counts as given when it differs from its default (``config`` an AlignConfig, ``query``
+    a QueryConfig); the message names it and says what it needs.
+    """
+    base = type(config)()
+    given = {f: getattr(config, f) != getattr(base, f) for f in ("weight_model", "seed_weight", "structural_weight",
+                                                                 "permutation_seed", "refine_starts", "beta",
+                                                                 "refine_iter")}
+    rules = [
+        ("prior_columns", config.prior_columns is not None and prior is None,
+         "picks the columns of the prior table, and no prior is given; add --prior or leave --prior-columns out"),
+        ("weight_model", given["weight_model"] and not config.weighted,
+         "says how edge weights enter the walk, and the run is not weighted; add --weighted or leave "
+         "--weight-model out"),
+        ("seed_weight", given["seed_weight"] and seeds is None,
+         "is the seeds' share of the diffusion's source, and no seeds are given; add --seeds or leave "
+         "--seed-weight out"),
+        ("structural_weight", given["structural_weight"] and not (config.structural and prior is not None),
+         "weighs structural candidates against a prior; it needs --structural-candidates and --prior"),
+        ("permutation_seed", given["permutation_seed"] and config.permutations == 0,
+         "seeds the random maps of --permutations, and none are drawn; add --permutations N or leave "
+         "--permutation-seed out"),
+    ]
+    rules += [(name, given[name] and not config.refine,
+               "is an option of the refinement, which --no-refine turns off; leave one of them out")
+              for name in ("refine_starts", "beta", "refine_iter")]
+    if query is not None:
+        rules.append(("max_region_pairs",
+                      query.max_region_pairs != type(query)().max_region_pairs and not query.answer,
+                      "caps the region of an answer, and --no-answer asks for none; leave one of them out"))
+    for name, bad, text in rules:
+        if bad:
+            raise InvalidParameterError(f"{name} {text}", param=name)
 
 
 def check_inputs(*paths: Path | None) -> None:

@@ -378,3 +378,25 @@ def test_prior_columns_without_a_prior_is_refused(tmp_path, cmd):
     assert res.exit_code == 2, res.output
     assert "--prior-columns picks the columns of the prior table, and no prior is given" in res.output
     assert len(res.output.strip().splitlines()) == 1 and not (tmp_path / "out").exists()
+
+
+@pytest.mark.parametrize("cmd, extra, said", [
+    ("align", ["--weight-model", "product"], "--weight-model says how edge weights enter the walk, and the run is not weighted"),
+    ("align", ["--seed-weight", "2"], "--seed-weight is the seeds' share of the diffusion's source, and no seeds are given"),
+    ("sweep", ["--structural-weight", "2"], "--structural-weight weighs structural candidates against a prior"),
+    ("align", ["--permutation-seed", "3"], "--permutation-seed seeds the random maps of --permutations, and none are drawn"),
+    ("align", ["--no-refine", "--refine-starts", "3"], "--refine-starts is an option of the refinement, which --no-refine"),
+    ("sweep", ["--no-refine", "--beta", "0.5"], "--beta is an option of the refinement, which --no-refine turns off"),
+    ("align", ["--no-refine", "--refine-iter", "5"], "--refine-iter is an option of the refinement, which --no-refine"),
+    ("query", ["--no-answer", "--max-region-pairs", "10"], "--max-region-pairs caps the region of an answer, and --no-answer"),
+])
+def test_an_option_nothing_would_use_is_refused(tmp_path, cmd, extra, said):
+    # Common practice (an option with nothing to act on is refused, as the dask options are
+    # without --engine dask): each of these was accepted and ignored, the run then doing what the
+    # user had not asked. Exit 2, one line, nothing written; with what it needs, it runs.
+    out = tmp_path / "out"
+    tail = ["-n", "a1"] if cmd == "query" else ["-o", str(out)]
+    res = runner.invoke(app, [cmd, str(A), str(B), "-p", str(PRIOR), *tail, *extra])
+    assert res.exit_code == 2, res.output
+    assert said in " ".join(res.output.split()) and len(res.output.strip().splitlines()) == 1, res.output
+    assert not out.exists()

@@ -10,7 +10,7 @@ from typing import Annotated
 import typer
 
 from aligner.cli.options import Force, Json, Out, Prior, Quiet, Seeds, Truth, Use, command
-from aligner.cli.runtime import check_inputs, check_prior_options, out, progress, say
+from aligner.cli.runtime import check_inputs, check_option_combinations, out, progress, say
 from aligner.config import AlignConfig, EngineConfig, OutputConfig
 from aligner.errors import InvalidParameterError
 
@@ -49,7 +49,7 @@ def run_align(network_a: Path, network_b: Path, prior: Path | None, outdir: Path
     """
     engine, output = engine or EngineConfig(), output or OutputConfig()
     check_inputs(network_a, network_b, prior, truth, seeds)
-    check_prior_options(prior, config)
+    check_option_combinations(config, prior=prior, seeds=seeds)
     check_engine(engine)
     with ExitStack() as stack:
         helper = None

@@ -8,7 +8,7 @@ import typer
 
 from aligner.cli.commands.align import NetworkA, NetworkB
 from aligner.cli.options import Json, NodeFile, Nodes, Prior, Quiet, Seeds, Use, command
-from aligner.cli.runtime import check_inputs, check_prior_options, out, say
+from aligner.cli.runtime import check_inputs, check_option_combinations, out, say
 from aligner.config import AlignConfig, QueryConfig
 from aligner.errors import InvalidParameterError
 
@@ -30,7 +30,7 @@ def query(network_a: NetworkA, network_b: NetworkB, nodes: Nodes = None, node_fi
         raise InvalidParameterError("a query needs a prior similarity table (--prior) or anchor pairs (--seeds)",
                                     param="prior")
     check_inputs(network_a, network_b, prior, seeds, node_file)
-    check_prior_options(prior, config)
+    check_option_combinations(config, prior=prior, seeds=seeds, query=query_config)
     from aligner.analysis.query import query as run_query
     from aligner.render.console import query_tables
 

@@ -4,7 +4,7 @@ from __future__ import annotations
 
 from aligner.cli.commands.align import NetworkA, NetworkB
 from aligner.cli.options import Alphas, Force, Out, Prior, Quiet, Seeds, Truth, Use, command
-from aligner.cli.runtime import check_inputs, check_prior_options, err, out, say
+from aligner.cli.runtime import check_inputs, check_option_combinations, err, out, say
 from aligner.config import AlignConfig
 from aligner.errors import InvalidParameterError
 
@@ -30,7 +30,7 @@ def sweep(network_a: NetworkA, network_b: NetworkB, outdir: Out, prior: Prior = 
     """
     values = alpha_list(alphas)
     check_inputs(network_a, network_b, prior, truth, seeds)
-    check_prior_options(prior, config)
+    check_option_combinations(config, prior=prior, seeds=seeds)
     from aligner.analysis.sweep import DEFAULT_ALPHAS, KNEE_RULE
     from aligner.analysis.sweep import sweep as run_sweep
     from aligner.io.outputs import SWEEP_TABLE, check_outdir, write_sweep_outputs
