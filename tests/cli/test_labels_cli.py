@@ -78,3 +78,22 @@ def test_labels_of_which_no_pair_is_similar_write_nothing(tmp_path):
     r = runner.invoke(app, ["prior-from-labels", str(la), str(lb), "-o", str(out), "--min-similarity", "0.9"])
     assert r.exit_code == 2 and "no pair of labels is similar enough" in r.output, r.output
     assert "--min-similarity 0.9" in r.output and "was not written" in r.output and not out.exists()
+
+
+def test_reading_options_on_plain_label_files_are_refused(tmp_path):
+    # Common practice (an option with nothing to act on is refused): a label file is read as
+    # identifier, tab, label whatever --delimiter says, so 'a1,Quorvel Shipping' with --delimiter
+    # comma became a node named 'a1,Quorvel Shipping' and a prior that names no node of the
+    # networks. Exit 2, nothing written; --label-columns 2 reads such a table.
+    la, lb = tmp_path / "a.csv", tmp_path / "b.csv"
+    la.write_text("a1,Quorvel Shipping Limited\na2,Ombrin Dairy\n", encoding="utf-8")
+    lb.write_text("b1,Quorvell Shipping Ltd\nb2,Dairy Ombrin\n", encoding="utf-8")
+    out = tmp_path / "p.tsv"
+    for extra in (["--delimiter", "comma"], ["--header", "no"]):
+        r = runner.invoke(app, ["prior-from-labels", str(la), str(lb), "-o", str(out), *extra])
+        assert r.exit_code == 2 and f"{extra[0]} applies to tables of records" in " ".join(r.output.split())
+        assert not out.exists()
+    r = runner.invoke(app, ["prior-from-labels", str(la), str(lb), "-o", str(out), "--delimiter", "comma",
+                            "--label-columns", "2", "-q"])
+    assert r.exit_code == 0, r.output
+    assert set(pd.read_csv(out, sep="\t").node_a) == {"a1", "a2"}

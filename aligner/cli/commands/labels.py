@@ -32,6 +32,12 @@ def _labels(path: Path, from_networks: bool, config: AlignConfig, labels: LabelC
                                         "reads edge lists; give one or the other", param="label_columns")
         return read_label_table(path, labels.label_columns, delimiter=config.delimiter, header=config.header)
     if not from_networks:
+        for name in ("delimiter", "header"):
+            if getattr(config, name) != getattr(AlignConfig(), name):  # read_labels has its own fixed format
+                raise InvalidParameterError(
+                    f"{name} applies to tables of records (--label-columns) and edge lists (--from-networks), and "
+                    "a label file is an identifier, a tab, then the label; for a table of identifier and label "
+                    "such as a CSV, give --label-columns 2", param=name)
         return read_labels(path)
     import pandas as pd
 
