@@ -364,15 +364,18 @@ class Table:
 
     def names(self, col: int):
         """Column ``col`` as node identifiers (:meth:`text`). In a caller's object (a DataFrame,
-        rows) an entry that is missing (None, NaN, pd.NA) or text that is empty or only blanks is
-        an error naming its row, as an empty field of a file is; it would otherwise become a node
-        named "nan" or "None"."""
+        rows) spaces and tabs around a name are trimmed (:data:`FIELD_BLANKS`, as a file's fields
+        are, so that a name means the same node in memory and once written and read back), and an
+        entry that is missing (None, NaN, pd.NA) or text that is empty or only blanks is an error
+        naming its row, as an empty field of a file is; it would otherwise become a node named
+        "nan" or "None"."""
         out = self.text(col)
         raw = self.columns[col]
         if self.first_line is None and self.parts is None and not isinstance(raw, (pa.Array, pa.ChunkedArray)):
             bad = np.asarray(pd.isna(raw), dtype=bool).reshape(-1)
             if out.dtype == object:
-                bad |= np.array([not v.strip() for v in out], dtype=bool).reshape(-1)
+                out = np.array([v.strip(FIELD_BLANKS) for v in out], dtype=object)
+                bad |= np.array([not v for v in out], dtype=bool).reshape(-1)
             if bad.any():
                 row = int(np.argmax(bad))
                 raise self.error(row, f"column {col + 1} names no node ({raw[row]!r}); fill it in or remove the row")

@@ -146,3 +146,15 @@ def test_a_missing_node_in_an_object_is_refused_naming_its_row(nets, gap):
         as_seeds([(gap, net_b.names[0])], net_a, net_b)
     # identifiers that are numbers stay identifiers
     assert as_network(pd.DataFrame({"u": [1, 2], "v": [2, 3]})).n == 3
+
+
+def test_blanks_around_a_node_in_an_object_are_trimmed_as_in_a_file(tmp_path):
+    # Found by differential testing: " n0" given in a DataFrame stayed " n0" while the same name
+    # read from a file is "n0" (the readers trim spaces and tabs around a field, docs/formats.md),
+    # so a network given in memory and the same network written and read back differed.
+    # Reference: the file reader on the same rows.
+    rows = [(" n0", "n1  "), ("n1", " n2 ")]
+    from_frame = as_network(pd.DataFrame(rows))
+    from_file = read_network(_w(tmp_path, "e.tsv", "".join(f"{u}\t{v}\n" for u, v in rows)))
+    assert from_frame.names.tolist() == from_file.names.tolist() == ["n0", "n1", "n2"]
+    assert from_frame.edges.tolist() == from_file.edges.tolist()
