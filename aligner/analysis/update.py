@@ -162,7 +162,7 @@ def _with_diff(state, side: str, add, remove, cfg: AlignConfig):
     net = dataclasses.replace(net, n_self_loops=max(loops, 0), n_duplicate_edges=repeats)
     moved = np.concatenate([gone, extra])
     ends = unique(np.concatenate([moved // n, moved % n]))
-    changed = (len(np.unique(extra)), len(np.unique(gone)), new_id[ends[used[ends]]].astype(np.int64))
+    changed = (len(extra), len(gone), new_id[ends[used[ends]]].astype(np.int64))  # each edge once in a diff
     return net, every is names and bool(used.all()), changed
 
 

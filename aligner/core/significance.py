@@ -22,7 +22,7 @@ import numpy.typing as npt
 
 from aligner.core.candidates import CandidateSet
 from aligner.core.rounding import round_matching
-from aligner.core.scoring import conserved_mask
+from aligner.core.scoring import conserved_mask, partner_map
 from aligner.kernels.product import thread_count
 from aligner.kernels.scoring import induced_degrees
 
@@ -135,9 +135,7 @@ def candidate_permutation_test(
     def null_map(w):  # conserved edges and matched pairs of one null map
         match = round_matching(cand, w, method="sparse")
         p = cand.pairs[match.index].astype(np.int64)
-        f = np.full(cand.n1, -1, dtype=np.int64)
-        f[p[:, 0]] = p[:, 1]
-        return int(conserved_mask(edges_a, edges_b, f, cand.n2).sum()), len(p)
+        return int(conserved_mask(edges_a, edges_b, partner_map(p, cand.n1), cand.n2).sum()), len(p)
 
     # the maps are independent: solved on every core (the kernels release the GIL), their weights
     # drawn in order from the one generator, so the result is that of one thread; a few maps in

@@ -39,7 +39,7 @@ from dataclasses import dataclass
 import numpy as np
 import numpy.typing as npt
 
-from aligner.core.scoring import conserved_image
+from aligner.core.scoring import conserved_image, partner_map
 from aligner.kernels.scoring import mapped_edge_rows
 
 __all__ = ["A_TO_B", "B_TO_A", "DIRECTIONS", "Transfer", "transferred_edges", "common_neighbours", "transfer_counts"]
@@ -246,10 +246,7 @@ def transferred_edges(
     eb = np.asarray(edges_b, dtype=np.int64).reshape(-1, 2)
     matched = np.asarray(matched, dtype=np.int64).reshape(-1, 2)
     adj_a, adj_b = (_i64(adj_a[0]), _i64(adj_a[1])), (_i64(adj_b[0]), _i64(adj_b[1]))
-    f = np.full(n1, -1, dtype=np.int64)
-    f[matched[:, 0]] = matched[:, 1]
-    g = np.full(n2, -1, dtype=np.int64)
-    g[matched[:, 1]] = matched[:, 0]
+    f, g = partner_map(matched, n1), partner_map(matched[:, ::-1], n2)  # A -> B and B -> A
     rows_a, rows_b = _carried(ea, eb, f, g, n2, directed, None if image is None else _i64(image))
     a1 = np.concatenate([ea[rows_a, 0], g[eb[rows_b, 0]]])
     a2 = np.concatenate([ea[rows_a, 1], g[eb[rows_b, 1]]])

@@ -50,6 +50,7 @@ __all__ = [
     "check_readable",
     "data_lines",
     "read_node_list",
+    "reading_errors",
     "DELIMITERS",
     "FIELD_BLANKS",
 ]
@@ -136,7 +137,7 @@ def read_node_list(path: str | os.PathLike) -> tuple[list[str], list[int]]:
     path = os.fspath(path)
     check_readable(path)
     names, lines = [], []
-    with _reading(path):
+    with reading_errors(path):
         for no, text in data_lines(path):
             names.append(text.strip(FIELD_BLANKS))
             lines.append(no)
@@ -144,7 +145,7 @@ def read_node_list(path: str | os.PathLike) -> tuple[list[str], list[int]]:
 
 
 @contextmanager
-def _reading(path: str):
+def reading_errors(path: str):
     """Within this block, a file's bytes that are not UTF-8 text, or cannot be read or
     decompressed, raise InputFormatError naming the file."""
     try:
@@ -475,7 +476,7 @@ def read_table(path: str | os.PathLike, *, min_cols: int, max_cols: int, delimit
             raise all_parts_empty(path, len(files), what)
         return _joined(path, parts, what)
     try:
-        with _reading(path):
+        with reading_errors(path):
             return _read_table(path, min_cols=min_cols, max_cols=max_cols, delimiter=delimiter, header=header,
                                what=what, pick=pick, required=required, text_cols=text_cols)
     except csv.Error as exc:

@@ -65,7 +65,6 @@ from __future__ import annotations
 import os
 import re
 import unicodedata
-import zlib
 from numbers import Integral
 
 import numba
@@ -79,7 +78,7 @@ from aligner.config import LabelConfig
 from aligner.core.arrays import unique
 from aligner.errors import InputFormatError, InvalidParameterError
 from aligner.io.inputs import as_table
-from aligner.io.readers import Columns, check_readable, open_text
+from aligner.io.readers import Columns, check_readable, open_text, reading_errors
 
 __all__ = ["read_labels", "read_label_table", "label_prior", "normalise_label", "tfidf_matrices"]
 
@@ -132,7 +131,7 @@ def read_labels(path: str | os.PathLike) -> pd.Series:
     texts: list[str] = []
     seen: dict[str, int] = {}
     header: list[int] = []
-    try:
+    with reading_errors(path):
         for no, text, node, label in _label_lines(path, header):
             if not node:
                 raise InputFormatError(f"has an empty node identifier: {text[:80]!r}; give each node an "
@@ -143,12 +142,6 @@ def read_labels(path: str | os.PathLike) -> pd.Series:
             seen[node] = no
             ids.append(node)
             texts.append(label if label else node)
-    except UnicodeDecodeError as exc:
-        raise InputFormatError(f"is not UTF-8 text ({exc.reason} at byte {exc.start}); save it as UTF-8",
-                               path=path) from None
-    except (OSError, EOFError, zlib.error) as exc:  # gzip.BadGzipFile is an OSError
-        raise InputFormatError(f"cannot be read ({exc}); check that the file is complete and not damaged",
-                               path=path) from None
     if not ids:  # as read_table refuses a table without data rows
         if header:
             raise InputFormatError("has a header line but no data rows: expected a label file below it (one node "

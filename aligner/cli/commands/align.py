@@ -22,13 +22,9 @@ NetworkB = Annotated[Path, typer.Argument(help="Edge list of network B, the same
 def check_engine(engine: EngineConfig) -> None:
     """Refuse engine options that do not fit, and the dask engine when dask is not installed, before any work."""
     if engine.engine == "local":
-        for name in ("scheduler", "partitions"):
-            if getattr(engine, name) is not None:
+        for name in ("scheduler", "partitions", "reading", "workers"):  # given: not at its default
+            if getattr(engine, name) != getattr(EngineConfig, name):
                 raise InvalidParameterError(f"{name} is an option of the dask engine; add --engine dask", param=name)
-        if engine.reading != "auto":
-            raise InvalidParameterError("reading is an option of the dask engine; add --engine dask", param="reading")
-        if engine.workers != EngineConfig.workers:
-            raise InvalidParameterError("workers is an option of the dask engine; add --engine dask", param="workers")
         return
     if engine.scheduler is not None and engine.workers != EngineConfig.workers:
         raise InvalidParameterError("workers sets the size of a local cluster, and --scheduler names a running one; "
