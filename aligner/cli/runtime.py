@@ -214,6 +214,8 @@ def check_inputs(*paths: Path | None) -> None:
         if not p.exists():
             raise InputFormatError("no such file; check the path", path=str(p))
         if p.is_dir():
-            raise InputFormatError("is a directory, not a file; give the path of a file", path=str(p))
+            # the command line turns an empty argument (an unset shell variable) into "."
+            empty = " (an empty argument names it too)" if str(p) == "." else ""
+            raise InputFormatError(f"is a directory{empty}, not a file; give the path of a file", path=str(p))
         if not os.access(p, os.R_OK):
             raise InputFormatError("the file cannot be read (permission denied); check its permissions", path=str(p))

@@ -145,6 +145,13 @@ def test_missing_path_and_directory_are_user_errors(tmp_path):
     _user_error(res, tmp_path / "out", r"is a directory, not a file; give the path of a file", where=d)
 
 
+def test_empty_path_says_it_names_the_current_directory(tmp_path):
+    # an unset shell variable gives an empty argument, which the command line reads as "."
+    # (common practice: pathlib.Path("") is Path(".")); the message says so
+    res = runner.invoke(app, ["align", "", str(B), "--prior", str(PRIOR), "-o", str(tmp_path / "out")])
+    _user_error(res, tmp_path / "out", r"is a directory \(an empty argument names it too\)")
+
+
 @pytest.mark.skipif(not hasattr(os, "geteuid") or os.geteuid() == 0,
                     reason="running as root: chmod 000 does not stop root reading the file (POSIX permissions)")
 def test_unreadable_file_is_a_user_error(tmp_path):
