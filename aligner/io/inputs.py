@@ -22,7 +22,7 @@ from aligner.checks import warn
 from aligner.core.network import Network, network_from_edges
 from aligner.errors import InputFormatError, InvalidParameterError, NoCandidatesError
 from aligner.core.identifiers import PairTable, first_shared_node, lookup, pairs_from_columns
-from aligner.io.readers import Columns, Table, network_from_table, prior_pick, read_network, read_table
+from aligner.io.readers import FIELD_BLANKS, Columns, Table, network_from_table, prior_pick, read_network, read_table
 from aligner.core.prior import PriorTable, prior_from_columns
 
 __all__ = ["as_table", "as_network", "as_prior", "as_pairs", "as_alignment", "known_pairs", "prior_notes"]
@@ -163,13 +163,21 @@ def _from_networkx(graph, *, name: str, directed: bool) -> Network:
             "direction, or use graph.to_undirected())" if not directed else
             f"{name} must be a directed graph when directed=True; got an undirected one (use "
             "graph.to_directed(), which gives each edge both directions)", param=name)
-    own = {str(v): v for v in graph.nodes()}
+    # a node's name is its string form with spaces and tabs around it trimmed, as a file's field
+    # and a DataFrame's entry are, so that it means the same node once written and read back
+    def key(v) -> str:
+        return str(v).strip(FIELD_BLANKS)
+
+    own = {key(v): v for v in graph.nodes()}
+    if "" in own:
+        raise InvalidParameterError(f"{name} has a node whose name is empty or only spaces ({own['']!r}); "
+                                    "rename it", param=name)
     if len(own) != graph.number_of_nodes():
-        raise InvalidParameterError(f"{name} must have nodes whose string forms differ; got two that clash",
-                                    param=name)
+        raise InvalidParameterError(f"{name} must have nodes whose string forms differ (spaces and tabs around "
+                                    "them not counted); got two that clash", param=name)
     names = np.array(sorted(own), dtype=object)
     pos = {v: i for i, v in enumerate(names)}
-    e = np.array([(pos[str(u)], pos[str(v)]) for u, v in graph.edges()], dtype=np.int64).reshape(-1, 2)
+    e = np.array([(pos[key(u)], pos[key(v)]) for u, v in graph.edges()], dtype=np.int64).reshape(-1, 2)
     w = None
     if graph.number_of_edges() and all("weight" in d for _, _, d in graph.edges(data=True)):
         w = np.array([float(d["weight"]) for _, _, d in graph.edges(data=True)])

@@ -158,3 +158,18 @@ def test_blanks_around_a_node_in_an_object_are_trimmed_as_in_a_file(tmp_path):
     from_file = read_network(_w(tmp_path, "e.tsv", "".join(f"{u}\t{v}\n" for u, v in rows)))
     assert from_frame.names.tolist() == from_file.names.tolist() == ["n0", "n1", "n2"]
     assert from_frame.edges.tolist() == from_file.edges.tolist()
+
+
+def test_blanks_around_a_node_of_a_networkx_graph_are_trimmed_as_in_a_file(tmp_path):
+    # A networkx graph's node " n0" stayed " n0" while a DataFrame's and a file's are trimmed to
+    # "n0". Reference: the file reader on the same edges (and networkx's own node list).
+    g = nx.Graph([(" n0", "n1  "), ("n1  ", " n2 ")])
+    from_graph = as_network(g)
+    from_file = read_network(_w(tmp_path, "e.tsv", "".join(f"{u}\t{v}\n" for u, v in g.edges())))
+    assert from_graph.names.tolist() == from_file.names.tolist() == ["n0", "n1", "n2"]
+    assert from_graph.edges.tolist() == from_file.edges.tolist()
+    # two nodes that only differ by blanks around them, or a blank one, are refused
+    with pytest.raises(InvalidParameterError, match="clash"):
+        as_network(nx.Graph([("n0", " n0"), ("n0", "n1")]))
+    with pytest.raises(InvalidParameterError, match="empty or only spaces"):
+        as_network(nx.Graph([("  ", "n1")]))
