@@ -40,8 +40,22 @@ FULL_SHARE = 0.25
 INPUTS = ("network_a", "network_b", "prior", "seeds", "truth")
 
 
+class _Kept(str):
+    """The recorded source of an input the previous run did not read from a file, where only the
+    state can stand for it: a network an earlier update built from an edge diff (the state keeps
+    its edges), or a prior not read from a file (the state keeps its candidates, which stand for
+    it while the nodes stay the same: :func:`_kept_inputs`)."""
+
+
+def _diff_source(side: str) -> str:
+    """The source of a network :func:`_with_diff` builds (recorded in the state it leads to)."""
+    return f"<network_{side}: the previous run's edges with the diff applied>"
+
+
 def _inputs(state, given: dict, names=INPUTS) -> dict:
-    """The update's inputs: those given, else the previous run's files, which must be unchanged."""
+    """The update's inputs: those given, else the previous run's files, which must be unchanged
+    (or, for an input the previous run did not read from a file, the state where it can stand for
+    it: a :class:`_Kept` source)."""
     out = {}
     for name in names:
         if given.get(name) is not None:
@@ -52,6 +66,13 @@ def _inputs(state, given: dict, names=INPUTS) -> dict:
             out[name] = None
             continue
         if rec["fingerprint"] is None:
+            side = name[-1] if name.startswith("network_") else None
+            counts = state.meta.get("networks", {}).get(side) if side else None
+            # an update's own diffed network, unweighted: the state holds it exactly
+            if (side and counts is not None and not counts["weighted"] and rec["source"] == _diff_source(side)) \
+                    or name == "prior":
+                out[name] = _Kept(rec["source"])
+                continue
             raise InvalidParameterError(f"the previous run read {name} from memory ({rec['source']}); give it to "
                                         "the update", param=name)
         if file_digest(rec["source"]) != rec["fingerprint"]:
@@ -153,7 +174,7 @@ def _with_diff(state, side: str, add, remove, cfg: AlignConfig):
             used[np.searchsorted(every, dnames[alone])] = not removing
     used[u] = used[v] = True
     new_id = np.cumsum(used) - 1  # the nodes left with an edge, in name order
-    source = f"<network_{side}: the previous run's edges with the diff applied>"
+    source = _diff_source(side)
     net = network_from_edges(every[used].astype(object), new_id[u], new_id[v], None, source=source,
                              directed=cfg.directed)
     counts = state.meta.get("networks", {}).get(side) or {}
@@ -238,6 +259,11 @@ def _kept_inputs(state, given: dict, files: dict, cfg: AlignConfig, same_names: 
                            n_dropped_kind=record["dropped_by_score_kind"], n_duplicates=record["duplicates"],
                            source=files["prior"], released_pairs=record["pairs"])
         out["prior"] = prior_notes(table)
+    elif isinstance(out["prior"], _Kept):
+        raise InvalidParameterError(f"the previous run's prior ({out['prior']}) was not read from a file, and the "
+                                    f"state keeps only its candidate pairs, which stand for it only while both "
+                                    "networks keep their nodes and the run has no seeds; give the whole new prior",
+                                    param="prior")
     return out
 
 
@@ -260,6 +286,10 @@ def _with_prior_diff(state, add, remove, cfg: AlignConfig):
     if rec is None:
         raise InvalidParameterError("the previous run had no prior to change; give a whole prior", param="add_prior")
     source = _inputs(state, {"prior": None}, names=("prior",))["prior"]
+    if isinstance(source, _Kept):
+        raise InvalidParameterError(f"prior diffs apply to a previous prior read from a file; the previous run's "
+                                    f"prior ({source}) was not (the state keeps only its candidate pairs): give "
+                                    "the whole new prior", param="add_prior")
     read = {"delimiter": cfg.delimiter, "header": cfg.header}
 
     def rows(obj, cols: int, what: str):

@@ -600,3 +600,42 @@ def test_beta_zero_refines_as_align(tmp_path):
     ref = aligner.align(data / "a.tsv", tmp_path / "b2.tsv", data / "p.tsv", **opts)
     assert upd.summary["update"]["refine"] == {"mode": "full", "reason": "the run refines with beta 0"}
     _agree(upd, ref)
+
+
+def test_an_update_of_a_diffed_update_takes_the_diffed_inputs_from_its_state(base, tmp_path):
+    # Reference: aligner.align on the files edited by hand. An update from edge diffs records its
+    # network as built from the diff (no file), and one from prior diffs its prior as a table in
+    # memory; a second update (through the command line, which can give no such object) must take
+    # them from the state, which holds the diffed network exactly and the diffed prior's
+    # candidates (found by differential testing of update: a second update was refused with
+    # "read network_b from memory; give it to the update").
+    d, a, b, prior = base
+    rng = np.random.default_rng(5)
+    gone = b.iloc[rng.choice(len(b), 6, replace=False)]
+    _write(tmp_path, "gone_b.tsv", gone)
+    b2 = b.drop(index=gone.index)
+    got = runner.invoke(app, ["update", str(d / "run"), "--remove-b", str(tmp_path / "gone_b.tsv"), "-o",
+                              str(tmp_path / "u1"), "--quiet"])
+    assert got.exit_code == 0, got.output
+    got = runner.invoke(app, ["update", str(tmp_path / "u1"), "-o", str(tmp_path / "u2"), "--quiet"])
+    assert got.exit_code == 0, got.output  # nothing changed since u1
+    gone_a = a.iloc[rng.choice(len(a), 6, replace=False)]
+    _write(tmp_path, "gone_a.tsv", gone_a)
+    upd = update(tmp_path / "u1", remove_a=tmp_path / "gone_a.tsv")
+    ref = aligner.align(_write(tmp_path, "a2.tsv", a.drop(index=gone_a.index)), _write(tmp_path, "b2.tsv", b2),
+                        d / "p.tsv")
+    _agree(upd, ref)
+    # a prior diff, then an update that keeps the nodes: the prior from the state's candidates
+    cols = list(prior.columns)
+    rescore = prior.iloc[rng.choice(len(prior), 10, replace=False)].copy()
+    rescore[cols[2]] = rescore[cols[2]] * 2.0
+    got = runner.invoke(app, ["update", str(d / "run"), "--add-prior", str(_write(tmp_path, "resc.tsv", rescore)),
+                              "-o", str(tmp_path / "p1"), "--quiet"])
+    assert got.exit_code == 0, got.output
+    p2 = pd.concat([prior.drop(index=rescore.index), rescore], ignore_index=True)
+    upd = update(tmp_path / "p1", remove_b=tmp_path / "gone_b.tsv")
+    _agree(upd, aligner.align(d / "a.tsv", tmp_path / "b2.tsv", _write(tmp_path, "p2.tsv", p2)))
+    # a second prior diff needs the previous prior whole, which no file holds: refused, saying so
+    got = runner.invoke(app, ["update", str(tmp_path / "p1"), "--add-prior", str(tmp_path / "resc.tsv"), "-o",
+                              str(tmp_path / "p3")])
+    assert got.exit_code == 2 and "give the whole new prior" in got.output and not (tmp_path / "p3").exists()
