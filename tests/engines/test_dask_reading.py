@@ -14,6 +14,7 @@ References:
 """
 
 import math
+import os
 import warnings
 
 import networkx as nx
@@ -229,6 +230,33 @@ def test_parts_with_other_columns_and_empty_patterns_are_refused(client, tmp_pat
         (empty / f"x-{i}.tsv").write_text("# nothing yet\n")
     with pytest.raises(InputFormatError, match="every one of the 2 files"):
         _on_cluster(client, str(empty / "x-*.tsv"), b, p, cfg, parts=2)
+
+
+def test_errors_name_relative_paths_as_given(client, tmp_path, monkeypatch):
+    """Files given by relative paths (a pattern, a single file): the message names them as the
+    single-machine reader does (the reference), not by the absolute paths the workers are sent
+    (found by differential testing)."""
+    a, b, p, *_ = _tricky(tmp_path, np.random.default_rng(8))
+    monkeypatch.chdir(tmp_path)
+    a, b, p = (str(os.path.relpath(x, tmp_path)) for x in (a, b, p))
+    bad = tmp_path / "a" / "edges-02.tsv"  # the third part of A: a row of one field
+    bad.write_text(bad.read_text() + "lonely\n")
+    (tmp_path / "one.tsv").write_text("")
+    cfg = AlignConfig()
+    for args in ((a, b, p), ("a/edges-00.tsv", b, "one.tsv")):
+        with pytest.raises(InputFormatError) as mine:
+            _on_cluster(client, *args, cfg, parts=2)
+        with pytest.raises(InputFormatError) as theirs:
+            _single(*args, cfg)
+        assert str(mine.value) == str(theirs.value)
+        assert mine.value.path == theirs.value.path and not os.path.isabs(mine.value.path)
+    (tmp_path / "a" / "edges-09.tsv").write_text("u\tv\nn1\tn2\n")  # two columns where the others have three
+    bad.write_text("\n".join(bad.read_text().splitlines()[:-1]) + "\n")
+    with pytest.raises(InputFormatError, match="columns where") as mine:
+        _on_cluster(client, a, b, p, cfg, parts=2)
+    with pytest.raises(InputFormatError) as theirs:
+        _single(a, b, p, cfg)
+    assert str(mine.value) == str(theirs.value)
 
 
 def test_no_pair_above_the_minimum_score(client, tmp_path):

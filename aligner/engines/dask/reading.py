@@ -203,12 +203,13 @@ def _either(frame: pd.DataFrame) -> pd.DataFrame:
 
 # --------------------------------------------------------------------------- on the client
 
-def _files(path) -> tuple[list[str], bool]:
-    """The files of an input (absolute, for the workers) and whether it was a pattern."""
+def _files(path) -> tuple[list[str], list[str], bool]:
+    """The files of an input as named here (as the single machine names them in its messages),
+    the same absolute (for the workers), and whether it was a pattern."""
     files = input_files(path)
-    if files is None:
-        return [os.path.abspath(os.fspath(path))], False
-    return [os.path.abspath(f) for f in files], True
+    pattern = files is not None
+    named = files if pattern else [os.fspath(path)]
+    return named, [os.path.abspath(f) for f in named], pattern
 
 
 def _read_parts(client, path, reader, what: str, *args):
@@ -216,28 +217,38 @@ def _read_parts(client, path, reader, what: str, *args):
     rows, their number of columns, the number of files); the first file's error is raised."""
     from distributed import wait
 
-    files, pattern = _files(path)
+    named, files, pattern = _files(path)
     futures = client.map(reader, files, *[[a] * len(files) for a in args], [pattern] * len(files), pure=False)
     wait(futures)
     facts = client.gather(client.map(_outcome, futures, pure=False))
-    for f, (_, _, err) in zip(files, facts):  # the first file's error, in name order
+    for f, shown, (_, _, err) in zip(files, named, facts):  # the first file's error, in name order
         if err is not None:
-            raise _unseen(err, f) or err
-    kept = [(f, fut, n, c) for f, fut, (n, c, _) in zip(files, futures, facts) if c]
+            raise _unseen(err, f, shown) or _named(err, f, shown)
+    # messages name the files as the user gave them, not as the workers were sent them
+    kept = [(f, fut, n, c) for f, fut, (n, c, _) in zip(named, futures, facts) if c]
     if not kept:
         raise all_parts_empty(os.fspath(path), len(files), what)
     same_columns([(f, c) for f, _, _, c in kept], what)
     return [fut for _, fut, _, _ in kept], [n for _, _, n, _ in kept], kept[0][3], len(files)
 
 
-def _unseen(err: InputFormatError, path: str) -> InputFormatError | None:
-    """The error to give when a worker finds no file at a path the client sees: the workers do not
-    share this file system (None when that is not the case)."""
+def _unseen(err: InputFormatError, path: str, shown: str) -> InputFormatError | None:
+    """The error to give when a worker finds no file at ``path`` (absolute), which the client sees:
+    the workers do not share this file system (None when that is not the case); it names the file
+    as ``shown``."""
     if err.path == path and err.bare.startswith("no such file") and os.path.isfile(path):
         return InputFormatError("the dask workers cannot open this file, which exists where aligner runs: give "
                                 "paths that every worker sees (a shared file system), or read the inputs here and "
-                                "ship them with --reading client (Python: reading='client')", path=path)
+                                "ship them with --reading client (Python: reading='client')", path=shown)
     return None
+
+
+def _named(err: InputFormatError, path: str, shown: str) -> InputFormatError:
+    """A worker's error about the file ``path`` (absolute, as the workers were sent it), naming the
+    file as ``shown`` (as given, as the single machine's reader names it)."""
+    if err.path != path or path == shown:
+        return err
+    return type(err)(err.bare, path=shown, line=err.line)
 
 
 def _frame(futures, rows, meta: pd.DataFrame):
