@@ -890,7 +890,8 @@ class AlignmentResult:
                 "inputs": {k: None if v is None else {"source": _source(v), "fingerprint": file_digest(v)}
                            for k, v in sources.items()},
                 "networks": {side: {"weighted": net.weights is not None, "self_loops": net.n_self_loops,
-                                    "duplicate_edges": net.n_duplicate_edges}
+                                    "duplicate_edges": net.n_duplicate_edges,
+                                    "loop_nodes": None if net.loop_nodes is None else net.loop_nodes.tolist()}
                              for side, net in (("a", p.network_a), ("b", p.network_b))},
                 "prior_table": None if inputs.prior is None else _prior_counts(inputs.prior),
                 "seconds": round(sum(self.summary["timings"].values()), 4),

@@ -103,8 +103,9 @@ def _with_diff(state, side: str, add, remove, cfg: AlignConfig):
     read. Nodes seen first in ``add`` join; a node left without edges goes, as it would from the
     edited file (a network is its edge list), so the result is the Network that reading the
     edited file gives. A self-loop line names its node although the readers drop the loop: a
-    node of the previous run without edges (its file listed it in self-loops only) stays unless
-    the diff removes such a line of it, and a self-loop among the added edges brings its node.
+    node the previous file named in a self-loop line (the state keeps which) stays, even when the
+    diff removes its last edge, unless the diff removes that line too, and a self-loop among the
+    added edges brings its node.
     The counts of self-loops and of repeated edges are the previous file's, plus those of the
     added lines, less the self-loops removed. Returns the network, whether its nodes are the
     previous run's, name for name, and what :func:`_edge_changes` would find, known here from
@@ -162,25 +163,34 @@ def _with_diff(state, side: str, add, remove, cfg: AlignConfig):
     extra = np.sort(extra)
     kept = np.insert(kept, np.searchsorted(kept, extra), extra)
     u, v = kept // n, kept % n
-    used = np.zeros(n, dtype=bool)
-    # nodes named by self-loop lines only (the readers keep a node a dropped loop names)
-    loops_only = np.ones(len(names), dtype=bool)
-    loops_only[edges.ravel()] = False
-    used[old_ids[loops_only]] = True
-    for removing, (_, dnames, de, dnet) in diffs.items():
-        if dnet.n_self_loops:
-            alone = np.ones(len(dnames), dtype=bool)
-            alone[de.ravel()] = False  # named in the diff by its self-loops only
-            used[np.searchsorted(every, dnames[alone])] = not removing
+    counts = state.meta.get("networks", {}).get(side) or {}
+    # the readers keep a node a dropped self-loop line names: the nodes named by loop lines are
+    # the previous file's (kept in the state), less those of the removed lines, plus the added's
+    known = counts.get("loop_nodes")
+    looped = np.zeros(n, dtype=bool)
+    if known is not None:
+        looped[old_ids[np.asarray(known, dtype=np.int64)]] = True
+        for removing, (_, dnames, de, dnet) in diffs.items():
+            looped[np.searchsorted(every, dnames[dnet.loop_nodes])] = not removing
+    else:  # a state that does not say: the nodes without edges were named by loops only
+        loops_only = np.ones(len(names), dtype=bool)
+        loops_only[edges.ravel()] = False
+        looped[old_ids[loops_only]] = True
+        for removing, (_, dnames, de, dnet) in diffs.items():
+            if dnet.n_self_loops:
+                alone = np.ones(len(dnames), dtype=bool)
+                alone[de.ravel()] = False  # named in the diff by its self-loops only
+                looped[np.searchsorted(every, dnames[alone])] = not removing
+    used = looped.copy()
     used[u] = used[v] = True
-    new_id = np.cumsum(used) - 1  # the nodes left with an edge, in name order
+    new_id = np.cumsum(used) - 1  # the nodes left with an edge or a loop line, in name order
     source = _diff_source(side)
     net = network_from_edges(every[used].astype(object), new_id[u], new_id[v], None, source=source,
                              directed=cfg.directed)
-    counts = state.meta.get("networks", {}).get(side) or {}
     loops = counts.get("self_loops", 0) + sum(d[3].n_self_loops * (-1 if r else 1) for r, d in diffs.items())
     repeats = counts.get("duplicate_edges", 0) + (diffs[False][3].n_duplicate_edges if False in diffs else 0)
-    net = dataclasses.replace(net, n_self_loops=max(loops, 0), n_duplicate_edges=repeats)
+    net = dataclasses.replace(net, n_self_loops=max(loops, 0), n_duplicate_edges=repeats,
+                              loop_nodes=new_id[looped].astype(np.int32) if known is not None else None)
     moved = np.concatenate([gone, extra])
     ends = unique(np.concatenate([moved // n, moved % n]))
     changed = (len(extra), len(gone), new_id[ends[used[ends]]].astype(np.int64))  # each edge once in a diff
@@ -241,8 +251,10 @@ def _kept_inputs(state, given: dict, files: dict, cfg: AlignConfig, same_names: 
             names = np.asarray(getattr(state, f"names_{side}"), dtype=object)
             e = getattr(state, f"edges_{side}")
             net = network_from_edges(names, e[:, 0], e[:, 1], None, source=files[key], directed=cfg.directed)
+            loops = counts.get("loop_nodes")
             nets[side] = dataclasses.replace(net, n_self_loops=counts["self_loops"],
-                                             n_duplicate_edges=counts["duplicate_edges"])
+                                             n_duplicate_edges=counts["duplicate_edges"],
+                                             loop_nodes=None if loops is None else np.asarray(loops, dtype=np.int32))
             same_names[side] = True
         else:
             nets[side] = as_network(files[key], name=key, **read)

@@ -52,6 +52,10 @@ class Network:
     labels : ndarray or None
         The input's own node objects, aligned with ``names``, when they are not all strings
         (a networkx graph with integer nodes): what the output tables show. None: the names.
+    loop_nodes : ndarray of int32 or None
+        The nodes named by a self-loop row (the loops are dropped, their nodes kept), sorted;
+        None when not known. ``aligner update`` keeps them in its state, so that a node whose
+        last edge an edge diff removes stays when the edited file still names it in a loop.
     """
 
     names: np.ndarray
@@ -70,6 +74,7 @@ class Network:
     out_indices: npt.NDArray[np.int32] | None = None
     out_weights: npt.NDArray[np.float64] | None = None
     labels: np.ndarray | None = None
+    loop_nodes: npt.NDArray[np.int32] | None = None
 
     @property
     def n(self) -> int:
@@ -225,6 +230,10 @@ def network_from_edges(
         edges, w, n_loops, n_dup = canonical_edges(u, v, weights)
     if len(edges) and int(edges[:, 1].max()) >= n:
         raise ValueError(f"edge endpoints must be in [0, {n})")
+    loop_nodes = np.empty(0, dtype=np.int32)
+    if n_loops:
+        u, v = np.asarray(u), np.asarray(v)
+        loop_nodes = np.unique(u[u == v]).astype(np.int32)
     # canonical edges are sorted, unique, u < v: placed without sorting
     indptr, indices, *rest = _csr(edges[:, 0].astype(np.int64), edges[:, 1].astype(np.int64), n, w, True, True)
     adj_w = rest[0] if rest else None
@@ -244,6 +253,7 @@ def network_from_edges(
         out_indptr=out_ip,
         out_indices=out_ix,
         out_weights=out_w,
+        loop_nodes=loop_nodes,
     )
 
 

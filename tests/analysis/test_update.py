@@ -639,3 +639,33 @@ def test_an_update_of_a_diffed_update_takes_the_diffed_inputs_from_its_state(bas
     got = runner.invoke(app, ["update", str(tmp_path / "p1"), "--add-prior", str(tmp_path / "resc.tsv"), "-o",
                               str(tmp_path / "p3")])
     assert got.exit_code == 2 and "give the whole new prior" in got.output and not (tmp_path / "p3").exists()
+
+
+def test_a_node_named_by_a_self_loop_line_stays_when_a_diff_removes_its_last_edge(tmp_path):
+    # Reference: aligner.align on the edited file. The readers keep a node a dropped self-loop
+    # line names (docs/formats.md); a node with edges and a loop line whose last edge a diff
+    # removes is still named by the edited file, so it stays, and goes once the loop line is
+    # removed too (found by differential testing of update: the diff dropped it, so the update
+    # matched one pair fewer than align).
+    a = pd.DataFrame([("a1", "a2"), ("a2", "a3"), ("a3", "a4"), ("a4", "a1"), ("a5", "a1"), ("a5", "a5")])
+    b = pd.DataFrame([("b1", "b2"), ("b2", "b3"), ("b3", "b4"), ("b4", "b1"), ("b5", "b1")])
+    p = pd.DataFrame([("a1", "b1", 1.0), ("a2", "b2", 1.0), ("a3", "b3", 1.0), ("a4", "b4", 1.0), ("a5", "b5", 1.0),
+                      ("a1", "b3", 0.5)])
+    for name, frame in (("a.tsv", a), ("b.tsv", b), ("p.tsv", p)):
+        frame.to_csv(tmp_path / name, sep="\t", index=False, header=False)
+    write_outputs(tmp_path / "run", aligner.align(tmp_path / "a.tsv", tmp_path / "b.tsv", tmp_path / "p.tsv"))
+    a.iloc[[4]].to_csv(tmp_path / "gone.tsv", sep="\t", index=False, header=False)
+    a.drop(index=4).to_csv(tmp_path / "a2.tsv", sep="\t", index=False, header=False)
+    upd = update(tmp_path / "run", remove_a=tmp_path / "gone.tsv")
+    ref = aligner.align(tmp_path / "a2.tsv", tmp_path / "b.tsv", tmp_path / "p.tsv")
+    assert list(upd.network_a.names) == list(ref.network_a.names) == ["a1", "a2", "a3", "a4", "a5"]
+    _agree(upd, ref)
+    assert ("a5", "b5") in _pairs(upd)
+    # the loop line removed in a second update (from the first's state): the node goes
+    write_outputs(tmp_path / "u1", upd)
+    a.iloc[[5]].to_csv(tmp_path / "loop.tsv", sep="\t", index=False, header=False)
+    a.drop(index=[4, 5]).to_csv(tmp_path / "a3.tsv", sep="\t", index=False, header=False)
+    upd = update(tmp_path / "u1", remove_a=tmp_path / "loop.tsv")
+    ref = aligner.align(tmp_path / "a3.tsv", tmp_path / "b.tsv", tmp_path / "p.tsv")
+    assert list(upd.network_a.names) == list(ref.network_a.names) == ["a1", "a2", "a3", "a4"]
+    _agree(upd, ref)
