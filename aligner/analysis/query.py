@@ -164,8 +164,7 @@ class QueryEngine:
         self.max_pushes = 10**8 if max_pushes is None else check_int(max_pushes, "max_pushes", low=0)
         self.net_a, self.net_b, self.cand = net_a, net_b, cand
         self.seeds = seeds
-        self._c_a = np.ascontiguousarray(cand.pairs[:, 0], dtype=np.int64)
-        self._c_b = np.ascontiguousarray(cand.pairs[:, 1], dtype=np.int64)
+        self._c_a, self._c_b = cand.ends
         self._b_order = np.argsort(self._c_b, kind="stable").astype(np.int64)
         self._b_indptr = np.zeros(cand.n2 + 1, dtype=np.int64)
         np.cumsum(np.bincount(self._c_b, minlength=cand.n2), out=self._b_indptr[1:])

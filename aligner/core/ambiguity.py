@@ -186,8 +186,7 @@ def find_ambiguity(prod: ProductGraph, cand: CandidateSet, index: npt.ArrayLike,
     """
     index = np.asarray(index, dtype=np.int64)
     n1, n2 = cand.n1, cand.n2
-    pa = np.ascontiguousarray(cand.pairs[:, 0], dtype=np.int64)
-    pb = np.ascontiguousarray(cand.pairs[:, 1], dtype=np.int64)
+    pa, pb = cand.ends
     mate_a = np.full(n1, -1, dtype=np.int64)
     mate_b = np.full(n2, -1, dtype=np.int64)
     mate_a[pa[index]] = index

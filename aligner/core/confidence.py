@@ -40,8 +40,7 @@ def best_competitor(cand: CandidateSet, x: npt.ArrayLike, index: npt.ArrayLike) 
     candidates of node i of A and of node i' of B (``-inf`` when there is none)."""
     x = np.asarray(x, dtype=np.float64)
     index = np.asarray(index, dtype=np.int64)
-    pa = cand.pairs[:, 0].astype(np.int64)
-    pb = cand.pairs[:, 1].astype(np.int64)
+    pa, pb = cand.ends
     best_a, arg_a, sec_a = _best_two(pa, x, cand.n1)
     best_b, arg_b, sec_b = _best_two(pb, x, cand.n2)
     i, j = pa[index], pb[index]
@@ -111,8 +110,7 @@ def exchange_loss(prod: ProductGraph, cand: CandidateSet, w: npt.ArrayLike, inde
     s_w = np.empty(0) if edge_weights is None else np.ascontiguousarray(edge_weights, dtype=np.float64)
     f = beta * normalise_weights(w)[0]
     f += matched_counts(prod, index, s_w) if counts is None else counts
-    pa = np.ascontiguousarray(cand.pairs[:, 0], dtype=np.int64)
-    pb = np.ascontiguousarray(cand.pairs[:, 1], dtype=np.int64)
+    pa, pb = cand.ends
     mate_a = np.full(cand.n1, -1, dtype=np.int64)
     mate_b = np.full(cand.n2, -1, dtype=np.int64)
     mate_a[pa[index]] = index

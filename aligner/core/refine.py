@@ -341,8 +341,7 @@ class _Lookup(NamedTuple):
 
 
 def _lookup(cand: CandidateSet) -> _Lookup:
-    pair_a = np.ascontiguousarray(cand.pairs[:, 0], dtype=np.int64)
-    pair_b = np.ascontiguousarray(cand.pairs[:, 1], dtype=np.int64)
+    pair_a, pair_b = cand.ends
     col_idx = stable_order(pair_b, cand.n2)  # candidates of each node of B, by node of A
     col_ptr = np.zeros(cand.n2 + 1, dtype=np.int64)
     np.cumsum(np.bincount(pair_b, minlength=cand.n2), out=col_ptr[1:])
