@@ -531,7 +531,9 @@ def _run(client, inputs, found: Candidates, cfg: AlignConfig, parts: int, mode: 
         else:
             chosen = "sweep" if cfg.solver == "power" else diffusion.choose_mode(mode, cluster.cut_fraction)
             x, rep, x_parts = diffusion.run_rounds(cluster, cfg.alpha, cfg.tol, chosen, power=cfg.solver == "power")
-        diff = DiffusionResult(x, "push", cfg.alpha, cfg.tol, 0 if rep is None else rep.pushes,
+        # the solver asked for, as one machine reports it: sweeps are the power iteration's (steps: rounds)
+        steps = 0 if rep is None else rep.rounds if cfg.solver == "power" else rep.pushes
+        diff = DiffusionResult(x, cfg.solver, cfg.alpha, cfg.tol, steps,
                                0 if rep is None else rep.edge_touches, 0.0 if rep is None else rep.residual,
                                0.0 if rep is None else rep.residual / (1 - cfg.alpha),
                                0.0 if rep is None else rep.seconds)
