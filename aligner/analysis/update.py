@@ -24,6 +24,7 @@ from pathlib import Path
 from typing import Any, Callable, NamedTuple
 
 import numpy as np
+import pyarrow as pa
 
 from aligner.config import AlignConfig, from_options
 from aligner.core.arrays import unique
@@ -279,14 +280,45 @@ def _kept_inputs(state, given: dict, files: dict, cfg: AlignConfig, same_names: 
     return out
 
 
-def _with_prior_diff(state, add, remove, cfg: AlignConfig):
+@dataclasses.dataclass(frozen=True)
+class _PriorRows:
+    """A prior table by name, as three columns (pyarrow strings and float64 scores), checked by
+    the score kind's rules; :meth:`table` maps it onto the networks once they are read."""
+
+    a: pa.ChunkedArray
+    b: pa.ChunkedArray
+    values: np.ndarray
+    source: str
+
+    def table(self, net_a, net_b, kind: str):
+        from aligner.core.prior import prior_from_columns
+        from aligner.io.inputs import prior_notes
+
+        return prior_notes(prior_from_columns(self.a, self.b, self.values, net_a, net_b, kind=kind,
+                                              source=self.source))
+
+
+def _chunked(column) -> pa.ChunkedArray:
+    """A column of identifiers as a pyarrow chunked array of strings (no copy when read from a file)."""
+    from aligner.core.identifiers import as_arrow_strings
+
+    if isinstance(column, pa.ChunkedArray):
+        return column
+    return pa.chunked_array([as_arrow_strings(column)])
+
+
+def _with_prior_diff(state, add, remove, cfg: AlignConfig) -> _PriorRows:
     """The previous run's prior table with the pairs of ``remove`` (node_a, node_b) taken out and
     the rows of ``add`` (node_a, node_b, score: a pair the prior has gets the new score, any
-    repeat of it included; another is added), as a table by name. The previous table is its file,
+    repeat of it included; another is added), as rows by name. The previous table is its file,
     which must be unchanged (the state keeps the candidates, not every prior row).
 
+    Pairs are compared by name among the rows of the nodes of A the diff names, found by one hash
+    probe over the previous table's first column (no Python string per row of it), so the diff
+    costs about one reading of the previous prior, as a whole new prior would.
+
     Raises InputFormatError naming the first pair to remove that the previous prior lacks."""
-    import pandas as pd
+    import pyarrow.compute as pac
 
     from aligner.core.prior import check_scores
     from aligner.io.inputs import as_table
@@ -307,32 +339,47 @@ def _with_prior_diff(state, add, remove, cfg: AlignConfig):
     def rows(obj, cols: int, what: str):
         t = as_table(obj, name=what, layout="node_a, node_b" + (", score" if cols == 3 else "[, score]"),
                      min_cols=cols, max_cols=3, what=what, **read)
-        frame = pd.DataFrame({"node_a": np.asarray(t.text(0), dtype=object).astype(str),
-                              "node_b": np.asarray(t.text(1), dtype=object).astype(str)})
+        a, b = (_chunked(t.names(c)) for c in (0, 1))
+        values = None
         if cols == 3:
-            frame["score"] = t.numeric(2, "score")
+            values = t.numeric(2, "score")
             # the score kind's rules where the rows are read, so a refusal names the file and line
-            check_scores(frame["score"].to_numpy(), cfg.score_kind, source=t.source, origin=t.origin)
-        return frame
+            check_scores(values, cfg.score_kind, source=t.source, origin=t.origin)
+        return a, b, values
 
-    table = rows(source, 3, "prior table")
-    keys = pd.MultiIndex.from_frame(table[["node_a", "node_b"]])
-    keep = np.ones(len(table), dtype=bool)
-    if remove is not None:
-        gone = rows(remove, 2, "prior pairs to remove")
-        hit = keys.isin(pd.MultiIndex.from_frame(gone[["node_a", "node_b"]]))
-        have = pd.MultiIndex.from_frame(gone[["node_a", "node_b"]]).isin(keys)
-        if not have.all():
-            u, v = gone.iloc[int(np.argmax(~have))][["node_a", "node_b"]]
-            raise InputFormatError(f"the diff asks the previous run's prior to remove a pair it does not have: "
-                                   f"{u} / {v}; the diff does not fit that run", path=str(remove))
-        keep &= ~hit
-    extra = []
-    if add is not None:
-        new = rows(add, 3, "prior rows to add")
-        keep &= ~keys.isin(pd.MultiIndex.from_frame(new[["node_a", "node_b"]]))
-        extra.append(new)
-    return pd.concat([table[keep], *extra], ignore_index=True)
+    old_a, old_b, old_v = rows(source, 3, "prior table")
+    gone = None if remove is None else rows(remove, 2, "prior pairs to remove")
+    new = None if add is None else rows(add, 3, "prior rows to add")
+    diff = [p for p in (gone, new) if p is not None]
+    # the rows of the previous prior whose node of A a diff names (one hash probe over the
+    # table), then pairs compared by name among those few
+    asked = pa.chunked_array([c for p in diff for c in p[0].cast(old_a.type).chunks], type=old_a.type)
+    near = np.flatnonzero(pac.is_in(old_a, value_set=pac.unique(asked)).to_numpy(zero_copy_only=False))
+    rows_of: dict[tuple[str, str], list[int]] = {}
+    for r, key in zip(near.tolist(), zip(old_a.take(near).to_pylist(), old_b.take(near).to_pylist())):
+        rows_of.setdefault(key, []).append(r)
+    drop: list[int] = []
+    if gone is not None:
+        for u, v in zip(gone[0].to_pylist(), gone[1].to_pylist()):
+            if (u, v) not in rows_of:
+                raise InputFormatError(f"the diff asks the previous run's prior to remove a pair it does not "
+                                       f"have: {u} / {v}; the diff does not fit that run", path=str(remove))
+            drop += rows_of[u, v]
+    if new is not None:
+        for key in zip(new[0].to_pylist(), new[1].to_pylist()):
+            drop += rows_of.get(key, [])
+    keep = np.ones(len(old_v), dtype=bool)
+    keep[np.asarray(drop, dtype=np.int64)] = False
+    cols = [old_a, old_b]
+    values = old_v
+    if not keep.all():
+        mask = pa.array(keep)
+        cols = [old_a.filter(mask), old_b.filter(mask)]
+        values = old_v[keep]
+    if new is not None:
+        cols = [pa.chunked_array(c.chunks + n.cast(c.type).chunks, type=c.type) for c, n in zip(cols, new[:2])]
+        values = np.concatenate([values, new[2]])
+    return _PriorRows(cols[0], cols[1], values, f"<prior: {source} with the diff applied>")
 
 
 def _check_options(state, config: AlignConfig | None, options: dict) -> AlignConfig:
@@ -693,6 +740,8 @@ def update(previous, network_a=None, network_b=None, prior=None, *, seeds=None, 
             given["prior"] = _with_prior_diff(state, add_prior, remove_prior, cfg)
         files = _inputs(state, given)
         inputs = _kept_inputs(state, given, files, cfg, same_names)
+        if isinstance(inputs["prior"], _PriorRows):  # a prior diff: by name until the networks are read
+            inputs["prior"] = inputs["prior"].table(inputs["network_a"], inputs["network_b"], cfg.score_kind)
     problem = prepare(inputs["network_a"], inputs["network_b"], inputs["prior"], seeds=files["seeds"],
                       truth=files["truth"], config=cfg, clock=clock, with_product=False)
     t1 = time.perf_counter()

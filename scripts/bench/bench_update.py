@@ -12,7 +12,9 @@ memory the system has not handed out yet, which would otherwise fall on whicheve
   the edges added and removed, ``--add-b`` / ``--remove-b``, in place of the whole new file);
 - ``edges-1%+nodes-1%``: 1 % of the edges of B rewired and 1 % new nodes of A, each with 4 edges
   and a prior row;
-- ``prior-1%``: the prior rows of 1 % of the nodes of A rescored (times 0.5 to 1.5).
+- ``prior-1%``: the prior rows of 1 % of the nodes of A rescored (times 0.5 to 1.5);
+- the last two again, given as diffs (``--add-a``, ``--add-b``, ``--remove-b``, ``--add-prior``:
+  the new edges and rows only), as a feed of daily changes would come.
 
 Recorded per change: seconds of the update and of the full run and their ratio, the update's
 stage seconds, how it refined (``update.refine`` of the summary: the local search continued
@@ -62,12 +64,18 @@ def changes(a: pd.DataFrame, b: pd.DataFrame, prior: pd.DataFrame, rng):
                    ignore_index=True)
     p2 = pd.concat([prior, pd.DataFrame({prior.columns[0]: new, prior.columns[1]: rng.choice(nodes_b, k),
                                          prior.columns[2]: rng.random(k) + 0.5})], ignore_index=True)
-    yield "edges-1%+nodes-1%", {"network_a": a2, "network_b": rewire(b, 0.01), "prior": p2}
+    b2 = rewire(b, 0.01)
+    yield "edges-1%+nodes-1%", {"network_a": a2, "network_b": b2, "prior": p2}
     p3 = prior.copy()
     asked = rng.choice(nodes_a, k, replace=False)
     rows = np.flatnonzero(p3.iloc[:, 0].isin(asked).to_numpy())
     p3.iloc[rows, 2] = p3.iloc[rows, 2] * rng.uniform(0.5, 1.5, len(rows))
     yield "prior-1%", {"prior": p3}
+    # the same two changes given as diffs (the new edges and prior rows, the edges of B removed),
+    # as a daily feed of changes would come: drawn above, so the cases before are unchanged
+    yield "edges-1%+nodes-1% as diffs", {"network_a": a2, "network_b": b2, "prior": p2,
+                                          "diff": {"add_a": a2.iloc[len(a):], "add_prior": p2.iloc[len(prior):]}}
+    yield "prior-1% as a diff", {"prior": p3, "diff": {"add_prior": p3.iloc[rows]}}
 
 
 def run(n: int, seed: int, repeats: int = 2) -> list[dict]:
@@ -96,11 +104,14 @@ def run(n: int, seed: int, repeats: int = 2) -> list[dict]:
             new[key] = work / f"{name}-{key}.tsv"
             frame.to_csv(new[key], sep="\t", index=False)
         given = {k: v for k, v in new.items() if k in changed}
-        if diff:  # the edges of B added and removed, in place of the whole new file
-            added, removed = _edge_diff(b, changed["network_b"])
-            given = {"add_b": work / f"{name}-added.tsv", "remove_b": work / f"{name}-removed.tsv"}
-            added.to_csv(given["add_b"], sep="\t", index=False)
-            removed.to_csv(given["remove_b"], sep="\t", index=False)
+        if diff:  # diffs in place of the whole new files: B's edges added and removed, and the
+            parts = dict(diff) if isinstance(diff, dict) else {}  # rows added to A and to the prior
+            if "network_b" in changed:
+                parts["add_b"], parts["remove_b"] = _edge_diff(b, changed["network_b"])
+            given = {}
+            for key, frame in parts.items():
+                given[key] = work / f"{name}-{key}.tsv"
+                frame.to_csv(given[key], sep="\t", index=False)
         upd_s = ref_s = np.inf
         for _ in range(repeats):  # alternately, best of each: the first of any run in a process
             t0 = time.perf_counter()  # pays for memory the system has not handed out yet

@@ -387,8 +387,22 @@ def test_prior_diffs_give_what_the_edited_prior_gives(base, tmp_path):
                  remove_prior=_write(tmp_path, "gone.tsv", gone))
     ref = aligner.align(d / "a.tsv", d / "b.tsv", _write(tmp_path, "edited.tsv", edited))
     _agree(upd, ref)
+    # the prior's record (rows read, unknown names, merged repeats) is the edited file's
+    got, want = upd.summary["inputs"]["prior"], ref.summary["inputs"]["prior"]
+    assert {k: v for k, v in got.items() if k != "source"} == {k: v for k, v in want.items() if k != "source"}
     c = upd.summary["update"]["changes"]
     assert c["candidates_rescored"] >= 15 and c["candidates_removed"] >= 10
+    # rows rescored lower, given as a DataFrame with names padded by blanks (trimmed as a file's
+    # fields are, so each still replaces its row), give what the same rows in a file give
+    lower = prior.iloc[rng.choice(len(prior), 20, replace=False)].copy()
+    lower[cols[2]] = lower[cols[2]] * 0.01
+    from_file = update(d / "run", add_prior=_write(tmp_path, "lower.tsv", lower))
+    padded = lower.copy()
+    padded[cols[0]] = " " + padded[cols[0]].astype(str) + "\t"
+    from_frame = update(d / "run", add_prior=padded)
+    assert np.array_equal(from_frame.candidates.pairs, from_file.candidates.pairs)
+    assert np.array_equal(from_frame.candidates.prior, from_file.candidates.prior)
+    assert from_file.summary["update"]["changes"]["candidates_rescored"] > 0
     # a pair to remove that the prior lacks is refused, naming it; nothing is written
     bad = _write(tmp_path, "bad.tsv", pd.DataFrame({"node_a": ["nowhere"], "node_b": ["b0"]}))
     got = runner.invoke(app, ["update", str(d / "run"), "--remove-prior", str(bad), "-o", str(tmp_path / "u")])
