@@ -313,9 +313,9 @@ def _with_prior_diff(state, add, remove, cfg: AlignConfig) -> _PriorRows:
     repeat of it included; another is added), as rows by name. The previous table is its file,
     which must be unchanged (the state keeps the candidates, not every prior row).
 
-    Pairs are compared by name among the rows of the nodes of A the diff names, found by one hash
-    probe over the previous table's first column (no Python string per row of it), so the diff
-    costs about one reading of the previous prior, as a whole new prior would.
+    Pairs are compared by name (dictionary-encoded, no Python string per row) among the rows of
+    the nodes of A the diff names, found by one hash probe over the previous table's first
+    column, so the diff costs about one reading of the previous prior, as a whole new prior would.
 
     Raises InputFormatError naming the first pair to remove that the previous prior lacks."""
     import pyarrow.compute as pac
@@ -352,24 +352,30 @@ def _with_prior_diff(state, add, remove, cfg: AlignConfig) -> _PriorRows:
     new = None if add is None else rows(add, 3, "prior rows to add")
     diff = [p for p in (gone, new) if p is not None]
     # the rows of the previous prior whose node of A a diff names (one hash probe over the
-    # table), then pairs compared by name among those few
+    # table): the only ones a diff can remove or rescore
     asked = pa.chunked_array([c for p in diff for c in p[0].cast(old_a.type).chunks], type=old_a.type)
     near = np.flatnonzero(pac.is_in(old_a, value_set=pac.unique(asked)).to_numpy(zero_copy_only=False))
-    rows_of: dict[tuple[str, str], list[int]] = {}
-    for r, key in zip(near.tolist(), zip(old_a.take(near).to_pylist(), old_b.take(near).to_pylist())):
-        rows_of.setdefault(key, []).append(r)
-    drop: list[int] = []
+    # each pair as one integer: the codes of its two names among the names of those rows and the
+    # diff's (a dictionary encoding per column)
+    parts = [(old_a.take(near), old_b.take(near))] + [p[:2] for p in diff]
+    codes = [pac.dictionary_encode(pa.concat_arrays([x[c].cast(old_a.type).combine_chunks() for x in parts]))
+             for c in (0, 1)]
+    n_b, keys, at = max(len(codes[1].dictionary), 1), [], 0
+    for a, _ in parts:
+        ca, cb = (codes[c].indices[at:at + len(a)].to_numpy(zero_copy_only=False).astype(np.int64) for c in (0, 1))
+        keys.append(ca * n_b + cb)
+        at += len(a)
+    near_keys = keys[0]
     if gone is not None:
-        for u, v in zip(gone[0].to_pylist(), gone[1].to_pylist()):
-            if (u, v) not in rows_of:
-                raise InputFormatError(f"the diff asks the previous run's prior to remove a pair it does not "
-                                       f"have: {u} / {v}; the diff does not fit that run", path=str(remove))
-            drop += rows_of[u, v]
-    if new is not None:
-        for key in zip(new[0].to_pylist(), new[1].to_pylist()):
-            drop += rows_of.get(key, [])
+        have = np.isin(keys[1], near_keys)
+        if not have.all():
+            r = int(np.argmax(~have))
+            u, v = gone[0][r].as_py(), gone[1][r].as_py()
+            raise InputFormatError(f"the diff asks the previous run's prior to remove a pair it does not "
+                                   f"have: {u} / {v}; the diff does not fit that run", path=str(remove))
+    drop = near[np.isin(near_keys, np.concatenate(keys[1:]))]
     keep = np.ones(len(old_v), dtype=bool)
-    keep[np.asarray(drop, dtype=np.int64)] = False
+    keep[drop] = False
     cols = [old_a, old_b]
     values = old_v
     if not keep.all():
