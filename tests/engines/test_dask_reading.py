@@ -259,6 +259,30 @@ def test_errors_name_relative_paths_as_given(client, tmp_path, monkeypatch):
     assert str(mine.value) == str(theirs.value)
 
 
+def test_reader_warnings_reach_the_caller_as_on_one_machine(client, tmp_path, monkeypatch):
+    """A reader's warning issued on a worker (a first row that looks like a header, in a part of A
+    and in B): the caller gets the single-machine path's warnings (the reference), in the same
+    order, naming the files as given (found by differential testing: they stayed on the workers)."""
+    monkeypatch.chdir(tmp_path)
+    (tmp_path / "a").mkdir()
+    (tmp_path / "a" / "e-0.tsv").write_text("x1\tx2\nx2\tx3\nx3\tx1\n")
+    (tmp_path / "a" / "e-1.tsv").write_text("colA\tcolB\nx1\tx4\nx4\tx2\nx3\tx4\n")
+    (tmp_path / "b.tsv").write_text("ua\tub\ny1\ty2\ny2\ty3\ny3\ty1\n")
+    (tmp_path / "p.tsv").write_text("".join(f"x{i}\ty{i}\t0.5\n" for i in range(1, 4)))
+    cfg = AlignConfig()
+
+    def caught(fn):
+        with warnings.catch_warnings(record=True) as seen:
+            warnings.simplefilter("always")
+            fn("a/e-*.tsv", "b.tsv", "p.tsv", cfg)
+        return [str(w.message) for w in seen]
+
+    theirs = caught(_single)
+    mine = caught(lambda *args: _on_cluster(client, *args, parts=2))
+    assert len(theirs) == 2 and theirs[0].startswith("a/e-1.tsv, line 1") and theirs[1].startswith("b.tsv, line 1")
+    assert mine == theirs
+
+
 def test_no_pair_above_the_minimum_score(client, tmp_path):
     folder = write_instance(noisy_relabelled(200, seed=2), tmp_path)
     cfg = AlignConfig(min_score=1e9)

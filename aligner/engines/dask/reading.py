@@ -25,8 +25,11 @@ at a time) and the sorted identifiers; no row of text is parsed on it.
 
 from __future__ import annotations
 
+import functools
 import os
+import threading
 import time
+import warnings
 from dataclasses import dataclass
 
 import numpy as np
@@ -34,12 +37,13 @@ import pandas as pd
 import pyarrow as pa
 import pyarrow.compute as pac
 
+from aligner.checks import warn
 from aligner.config import AlignConfig
 from aligner.core.candidates import build_candidates
 from aligner.core.identifiers import as_arrow_strings, lookup, names_from_arrow
 from aligner.core.network import Network, network_from_edges, unique_sorted
 from aligner.core.prior import PriorTable, check_scores, transform_scores
-from aligner.errors import InputFormatError
+from aligner.errors import AlignerWarning, InputFormatError
 from aligner.io.inputs import prior_notes
 from aligner.io.paths import input_files
 from aligner.io.readers import all_parts_empty, edge_weights, prior_pick, read_part, read_table, same_columns
@@ -74,6 +78,28 @@ def _arrow(col: pd.Series) -> pa.Array:
     return as_arrow_strings(pa.array(col.array)).cast(pa.string())
 
 
+#: one read at a time per worker process records its warnings (``warnings.catch_warnings`` swaps
+#: process-wide state, which threads of one worker would otherwise undo for each other)
+_WARNINGS_LOCK = threading.Lock()
+
+
+def _with_warnings(read):
+    """``read`` (a reader of one file) returning its result and, last, the messages of the
+    :class:`~aligner.errors.AlignerWarning` it issued, for the client to issue in file order as one
+    machine does (issued on a worker, they would reach neither the caller nor the command line)."""
+    @functools.wraps(read)
+    def reader(*args):
+        with _WARNINGS_LOCK, warnings.catch_warnings(record=True) as seen:
+            warnings.simplefilter("always")
+            got = read(*args)
+        for w in seen:  # anything else is the worker's, as it would have been
+            if not issubclass(w.category, AlignerWarning):
+                warnings.warn_explicit(w.message, w.category, w.filename, w.lineno)
+        return *got, [str(w.message) for w in seen if issubclass(w.category, AlignerWarning)]
+    return reader
+
+
+@_with_warnings
 def _read_edges(path: str, delimiter, header, part: bool):
     """One edge-list file as a frame (``u``, ``v``[, ``w``]); errors are returned, not raised, so
     the client reports the first file's in name order."""
@@ -95,6 +121,7 @@ def _read(path: str, part: bool, **options):
     return read_part(path, **options) if part else read_table(path, **options)
 
 
+@_with_warnings
 def _read_prior(path: str, delimiter, header, columns, kind: str, part: bool):
     """One prior file as a frame (``a``, ``b``, similarity ``s``, ``keep``: not dropped by the
     score kind); errors returned as by :func:`_read_edges`."""
@@ -113,9 +140,9 @@ def _read_prior(path: str, delimiter, header, columns, kind: str, part: bool):
 
 
 def _outcome(result):
-    """The small part of a read's result: (rows, columns, error)."""
-    frame, ncols, err = result
-    return (0 if frame is None else len(frame)), ncols, err
+    """The small part of a read's result: (rows, columns, error, warnings)."""
+    frame, ncols, err, warned = result
+    return (0 if frame is None else len(frame)), ncols, err, warned
 
 
 def _numbered(result, start: int) -> pd.DataFrame:
@@ -221,11 +248,13 @@ def _read_parts(client, path, reader, what: str, *args):
     futures = client.map(reader, files, *[[a] * len(files) for a in args], [pattern] * len(files), pure=False)
     wait(futures)
     facts = client.gather(client.map(_outcome, futures, pure=False))
-    for f, shown, (_, _, err) in zip(files, named, facts):  # the first file's error, in name order
-        if err is not None:
+    for f, shown, (_, _, err, warned) in zip(files, named, facts):  # in name order, as one machine reads
+        for message in warned:
+            warn(shown + message[len(f):] if message.startswith(f) else message)
+        if err is not None:  # the first file's error
             raise _unseen(err, f, shown) or _named(err, f, shown)
     # messages name the files as the user gave them, not as the workers were sent them
-    kept = [(f, fut, n, c) for f, fut, (n, c, _) in zip(named, futures, facts) if c]
+    kept = [(f, fut, n, c) for f, fut, (n, c, _, _) in zip(named, futures, facts) if c]
     if not kept:
         raise all_parts_empty(os.fspath(path), len(files), what)
     same_columns([(f, c) for f, _, _, c in kept], what)
