@@ -33,6 +33,16 @@ from aligner.checks import warn
 from aligner.core import tsv
 from aligner.errors import InputFormatError, InvalidParameterError
 
+
+def _read_umask() -> int:
+    """The process's umask (read once, at import: setting it back at once is the only portable way)."""
+    mask = os.umask(0o022)
+    os.umask(mask)
+    return mask
+
+
+_UMASK = _read_umask()
+
 __all__ = ["OUTPUT_FILES", "SWEEP_TABLE", "PRIOR_COLUMNS", "TRANSFER_TABLE", "TRANSFER_SELECTION", "check_outdir",
            "write_outputs", "write_sweep_outputs", "write_prior_table", "read_transferred", "write_transfer_selection",
            "write_text_atomic", "publish_outputs", "recover_interrupted", "table_text", "json_text", "read_run_table",
@@ -180,6 +190,13 @@ def write_text_atomic(path: str | os.PathLike, data: str | bytes) -> Path:
     fd, tmp = tempfile.mkstemp(prefix=f".{path.name}.", suffix=".part", dir=path.parent)
     try:
         with os.fdopen(fd, "wb") as fh:
+            # mkstemp makes the file private (0600); give it the mode a plain open() would (or
+            # the mode of the file it replaces), as the run's other outputs have
+            try:
+                mode = stat.S_IMODE(os.stat(path).st_mode)
+            except OSError:
+                mode = 0o666 & ~_UMASK
+            os.fchmod(fh.fileno(), mode)
             fh.write(_as_bytes(data))
             fh.flush()
             os.fsync(fh.fileno())

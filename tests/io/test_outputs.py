@@ -8,6 +8,7 @@ for reading back what was written.
 import json
 import math
 import os
+import stat
 from pathlib import Path
 
 import numpy as np
@@ -30,6 +31,19 @@ def test_write_text_atomic_text_and_bytes(tmp_path):
     write_text_atomic(p, b"\x89PNG\r\n")
     assert p.read_bytes() == b"\x89PNG\r\n"  # bytes as they are, replacing the file (POSIX rename)
     assert os.listdir(tmp_path) == ["f.txt"]  # no temporary file left
+
+
+def test_write_text_atomic_gives_the_mode_a_plain_open_gives(tmp_path):
+    # report.html and the prior tables were left 0600 (the mode of mkstemp's file) while the run's
+    # other outputs had the umask's. Reference: a file made by Python's own open() beside it.
+    plain = tmp_path / "plain.txt"
+    plain.write_text("x")
+    p = write_text_atomic(tmp_path / "atomic.txt", "x")
+    assert stat.S_IMODE(p.stat().st_mode) == stat.S_IMODE(plain.stat().st_mode)
+    # a file replaced keeps its own mode
+    p.chmod(0o640)
+    write_text_atomic(p, "y")
+    assert stat.S_IMODE(p.stat().st_mode) == 0o640 and p.read_text() == "y"
 
 
 def test_write_text_atomic_failure_leaves_nothing(tmp_path):
