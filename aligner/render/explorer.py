@@ -20,7 +20,7 @@ import math
 import numpy as np
 import pandas as pd
 
-__all__ = ["PAGE_ROWS", "FOCUS_NEIGHBOURS", "PAIR_COLUMNS", "pair_data", "explorer_section"]
+__all__ = ["PAGE_ROWS", "FOCUS_NEIGHBOURS", "PAIR_COLUMNS", "MAX_PAIRS", "pair_data", "explorer_section"]
 
 #: rows of the pair table drawn at once (and added by each "show more")
 PAGE_ROWS = 200
@@ -28,6 +28,9 @@ PAGE_ROWS = 200
 FOCUS_NEIGHBOURS = 40
 #: columns of alignment.tsv shown in the pair table, in this order, when present
 PAIR_COLUMNS = ("node_a", "node_b", "score", "prior", "conserved", "confidence")
+#: matched pairs embedded in the page at most: a run with more embeds the least confident ones
+#: (a page of a million pairs and their edges weighed over 100 MB); alignment.tsv has them all
+MAX_PAIRS = 20_000
 
 
 def _number(v):
@@ -44,15 +47,26 @@ def _number(v):
 
 
 def pair_data(pairs: pd.DataFrame, truth: list | None, conserved: pd.DataFrame,
-              transferred: pd.DataFrame | None, degree: dict | None, *, directed: bool = False) -> dict:
+              transferred: pd.DataFrame | None, degree: dict | None, *, directed: bool = False,
+              max_pairs: int = MAX_PAIRS) -> dict:
     """The JSON object embedded in the page.
 
     ``rows`` follow ``pairs`` (alignment.tsv's order); ``columns`` name their fields, ending with
     ``true`` when ``truth`` (one of True / False / None per row) is given. ``edges`` hold row
     indices, flattened (i1, j1, i2, j2, ...): ``conserved`` from conserved_edges.tsv, ``a_only``
     and ``b_only`` from the ``A->B`` and ``B->A`` rows of transferred_edges.tsv (None when that
-    file is missing). ``degree_a``: each row's node degree in A, when known.
+    file is missing), among the rows embedded. ``degree_a``: each row's node degree in A, when
+    known. With more than ``max_pairs`` pairs, the ``max_pairs`` least confident are embedded
+    (lowest ``confidence``, ties and runs without the column by row order), still in row order;
+    ``total`` counts all of them.
     """
+    total = len(pairs)
+    if total > max_pairs:
+        rank = (np.argsort(pairs["confidence"].to_numpy(dtype=np.float64), kind="stable")
+                if "confidence" in pairs else np.arange(total))
+        picked = np.sort(rank[:max_pairs])
+        pairs = pairs.iloc[picked].reset_index(drop=True)
+        truth = None if truth is None else [truth[i] for i in picked.tolist()]
     cols = [c for c in PAIR_COLUMNS if c in pairs]
     text = {"node_a", "node_b"}
     data = {c: (pairs[c].astype(str).tolist() if c in text else [_number(v) for v in pairs[c]]) for c in cols}
@@ -63,8 +77,11 @@ def pair_data(pairs: pd.DataFrame, truth: list | None, conserved: pd.DataFrame,
     row_of_a = {a: i for i, a in enumerate(pairs["node_a"].astype(str))}
 
     def flat(a1, a2) -> list[int]:
-        i = pd.Series(a1, dtype=object).map(row_of_a)
-        j = pd.Series(a2, dtype=object).map(row_of_a)
+        a1, a2 = pd.Series(a1, dtype=object), pd.Series(a2, dtype=object)
+        if len(pairs) < total:  # the edges among the embedded rows only
+            shown = a1.isin(row_of_a.keys()) & a2.isin(row_of_a.keys())
+            a1, a2 = a1[shown], a2[shown]
+        i, j = a1.map(row_of_a), a2.map(row_of_a)
         ok = i.notna() & j.notna()
         return np.column_stack([i[ok].astype(int), j[ok].astype(int)]).ravel().tolist()
 
@@ -76,7 +93,7 @@ def pair_data(pairs: pd.DataFrame, truth: list | None, conserved: pd.DataFrame,
             edges[key] = flat(t["node_a1"].astype(str), t["node_a2"].astype(str))
     deg = None if degree is None else [_number(degree.get(a)) for a in pairs["node_a"].astype(str)]
     return {"columns": cols, "rows": rows, "edges": edges, "degree_a": deg, "directed": bool(directed),
-            "page_rows": PAGE_ROWS, "focus_limit": FOCUS_NEIGHBOURS}
+            "page_rows": PAGE_ROWS, "focus_limit": FOCUS_NEIGHBOURS, "total": total}
 
 
 def _json_for_script(obj) -> str:
@@ -298,10 +315,17 @@ def explorer_section(data: dict, truth_note: str) -> str:
     head = "".join(f"<th title='{html.escape(titles.get(c, c))}'>{html.escape(c)}</th>" for c in data["columns"])
     missing = ("" if data["edges"]["a_only"] is not None else
                " This run has no transferred_edges.tsv, so only conserved edges are drawn.")
+    shown, total = len(data["rows"]), data.get("total", len(data["rows"]))
+    title, part = "All matched pairs", ""
+    if shown < total:
+        order = "least confident" if "confidence" in data["columns"] else "first"
+        title = f"The {shown:,} {order} of {total:,} matched pairs"
+        part = (f"This run has {total:,} matched pairs; the page holds the {shown:,} {order} of them (and the edges "
+                "among them), so that it stays light to open. alignment.tsv lists them all. ")
     return (
-        "<section class='explorer' id='pairs'><h2>All matched pairs</h2>"
-        "<p class='note'>Type part of a node name (of A or of B) to filter; click a column header to sort (again to "
-        f"reverse); click a row to see its neighbourhood below. {html.escape(truth_note)}</p>"
+        f"<section class='explorer' id='pairs'><h2>{title}</h2>"
+        f"<p class='note'>{part}Type part of a node name (of A or of B) to filter; click a column header to sort "
+        f"(again to reverse); click a row to see its neighbourhood below. {html.escape(truth_note)}</p>"
         "<div class='tools'><input type='search' id='pair-search' placeholder='search node names' "
         "aria-label='search node names' autocomplete='off'><span class='note' id='pair-count'></span></div>"
         f"<div class='scroll'><table id='pair-table'><thead><tr>{head}</tr></thead><tbody></tbody></table></div>"

@@ -569,3 +569,63 @@ def test_report_of_a_directed_run_measures_conserved_arcs_against_arcs(tmp_path)
     assert degree == {v: g.in_degree(v) + g.out_degree(v) for v in g}
     conserved = pd.read_csv(out / "alignment.tsv", sep="\t").set_index("node_a")["conserved"]
     assert all(conserved[v] <= degree[v] for v in degree) and conserved["u"] == 3
+
+
+@pytest.mark.parametrize("seed", range(4))
+def test_conserved_subgraph_is_networkx_ball_of_the_largest_component(seed):
+    # Reference: networkx on the same edges (connected_components; bfs_edges from the hub with
+    # neighbours in name order). The drawing's graph is the first `cap` nodes a breadth-first
+    # search reaches from the highest-degree node of the largest component, with their edges.
+    import networkx as nx
+    import numpy as np
+
+    from aligner.render.html import _conserved_subgraph
+
+    rng = np.random.default_rng(seed)
+    g = nx.union(nx.gnm_random_graph(120, 200, seed=seed), nx.gnm_random_graph(40, 60, seed=seed + 9),
+                 rename=("x", "y"))
+    edges = [(str(a), str(b)) for a, b in g.edges()]
+    rng.shuffle(edges)
+    cons = pd.DataFrame(edges, columns=["node_a1", "node_a2"])
+    ref = nx.Graph(edges)
+    comps = sorted(nx.connected_components(ref), key=lambda c: (-len(c), min(c)))
+    comp = ref.subgraph(comps[0])
+    for cap in (10, 60, 1000):
+        sub, full_n, full_e = _conserved_subgraph(cons, cap)
+        assert (full_n, full_e) == (comp.number_of_nodes(), comp.number_of_edges())
+        if cap >= full_n:
+            assert set(sub.nodes) == set(comp.nodes) and {frozenset(e) for e in sub.edges} == {
+                frozenset(e) for e in comp.edges}
+            continue
+        hub = max(comp.degree, key=lambda t: (t[1], t[0]))[0]
+        order = [hub] + [v for _, v in nx.bfs_edges(comp, hub, sort_neighbors=sorted)]
+        assert set(sub.nodes) == set(order[:cap])
+        assert {frozenset(e) for e in sub.edges} == {frozenset(e) for e in comp.subgraph(order[:cap]).edges}
+    empty, n0, e0 = _conserved_subgraph(pd.DataFrame({"node_a1": [], "node_a2": []}), 5)
+    assert (empty.number_of_nodes(), n0, e0) == (0, 0, 0)
+
+
+def test_a_large_run_embeds_its_least_confident_pairs(run_dir):
+    # Reference: the uncapped page data of the same tables (checked against networkx above) and a
+    # stable sort of alignment.tsv's confidence column: capped, the page holds the `cap` least
+    # confident pairs in row order, and exactly the edges among them.
+    from aligner.render import explorer
+    from aligner.render.html import _load_run
+
+    run = _load_run(run_dir, None, None, None, "auto", None)
+    full = explorer.pair_data(run.pairs, run.truth, run.conserved, run.transferred, run.degree)
+    cap = 50
+    part = explorer.pair_data(run.pairs, run.truth, run.conserved, run.transferred, run.degree, max_pairs=cap)
+    conf = run.pairs["confidence"].to_numpy()
+    picked = sorted(sorted(range(len(conf)), key=lambda i: (conf[i], i))[:cap])
+    assert part["total"] == full["total"] == len(run.pairs) > cap
+    assert part["rows"] == [full["rows"][i] for i in picked]
+    where = {i: k for k, i in enumerate(picked)}
+    for key in ("conserved", "a_only", "b_only"):
+        e = full["edges"][key]
+        expect = {(where[e[k]], where[e[k + 1]]) for k in range(0, len(e), 2) if e[k] in where and e[k + 1] in where}
+        got = part["edges"][key]
+        assert {(got[k], got[k + 1]) for k in range(0, len(got), 2)} == expect
+    page = explorer.explorer_section(part, "")
+    assert f"The {cap} least confident of {len(run.pairs):,} matched pairs" in page
+    assert "All matched pairs" in explorer.explorer_section(full, "")
