@@ -44,7 +44,7 @@ def _read_umask() -> int:
 _UMASK = _read_umask()
 
 __all__ = ["OUTPUT_FILES", "SWEEP_TABLE", "PRIOR_COLUMNS", "TRANSFER_TABLE", "TRANSFER_SELECTION", "check_outdir",
-           "write_outputs", "write_sweep_outputs", "write_prior_table", "read_transferred", "write_transfer_selection",
+           "write_outputs", "write_sweep_outputs", "write_prior_table", "check_output_file", "read_transferred", "write_transfer_selection",
            "write_text_atomic", "publish_outputs", "recover_interrupted", "table_text", "json_text", "read_run_table",
            "read_summary", "damaged_output", "RERUN_ALIGN", "RERUN_SWEEP"]
 
@@ -513,6 +513,21 @@ def write_sweep_outputs(outdir: str | os.PathLike, table: pd.DataFrame, figures:
     return _publish(out, files)
 
 
+def check_output_file(path: str | os.PathLike, *, force: bool = False) -> Path:
+    """Refuse an output file path before any work: a directory, an existing file (without
+    ``force``), or a path in a directory that does not exist. Returns it as a Path."""
+    path = Path(path)
+    if path.is_dir():
+        raise InvalidParameterError(f"The output '{path}' is a directory; give a file path with --out.")
+    if path.exists() and not force:
+        raise InvalidParameterError(f"The output '{path}' already exists; choose another path with --out or pass "
+                                    "--force (force=True in Python) to replace it.")
+    if not path.parent.is_dir():
+        raise InvalidParameterError(f"The output '{path}' cannot be written: '{path.parent}' is not a directory; "
+                                    "choose another path with --out.")
+    return path
+
+
 def write_prior_table(df: pd.DataFrame, path: str | os.PathLike, *, force: bool = False) -> Path:
     """Write a prior table as TSV with the header ``node_a, node_b, score``, atomically.
 
@@ -529,15 +544,7 @@ def write_prior_table(df: pd.DataFrame, path: str | os.PathLike, *, force: bool 
     if missing:
         raise InvalidParameterError(f"df must have the columns {', '.join(PRIOR_COLUMNS)}; got a table without "
                                     f"{', '.join(missing)}", param="df")
-    path = Path(path)
-    if path.is_dir():
-        raise InvalidParameterError(f"The output '{path}' is a directory; give a file path with --out.")
-    if path.exists() and not force:
-        raise InvalidParameterError(f"The output '{path}' already exists; choose another path with --out or pass "
-                                    "--force (force=True in Python) to replace it.")
-    if not path.parent.is_dir():
-        raise InvalidParameterError(f"The output '{path}' cannot be written: '{path.parent}' is not a directory; "
-                                    "choose another path with --out.")
+    path = check_output_file(path, force=force)
     try:
         return write_text_atomic(path, _table_bytes(df[list(PRIOR_COLUMNS)]))
     except OSError as exc:

@@ -348,7 +348,7 @@ def _csr(x) -> sp.csr_array:
 def label_prior(labels_a, labels_b, *, top_k: int = LabelConfig.top_k, min_similarity: float = LabelConfig.min_similarity,
                 ngram_range: tuple[int, int] = (2, 4), block_rows: int | None = None,
                 label_columns: str | None = LabelConfig.label_columns, delimiter: str | None = None,
-                header: str = "auto") -> pd.DataFrame:
+                header: str = "auto", progress=None) -> pd.DataFrame:
     """A prior table from two label sets: character n-gram TF-IDF cosine similarity.
 
     Parameters
@@ -373,6 +373,9 @@ def label_prior(labels_a, labels_b, *, top_k: int = LabelConfig.top_k, min_simil
         :func:`read_label_table`, and the module docstring for why joined rather than averaged).
     delimiter, header
         How to read record table files (with ``label_columns``).
+    progress : callable, optional
+        Called with the name of each step as it starts (``"n-grams"``, ``"A against B"``,
+        ``"B against A"``): the two searches are the long part on large label sets.
 
     Returns
     -------
@@ -411,8 +414,11 @@ def label_prior(labels_a, labels_b, *, top_k: int = LabelConfig.top_k, min_simil
         read = {"delimiter": delimiter, "header": header}
         sa = _record_labels(labels_a, label_columns, "labels_a", **read)
         sb = _record_labels(labels_b, label_columns, "labels_b", **read)
+    step = progress or (lambda name: None)
+    step("n-grams")
     xa, xb = tfidf_matrices(sa.to_numpy(), sb.to_numpy(), ngram_range=ngram_range)
-    ia, ib, score = _similar_pairs(xa, xb, top_k, min_similarity, BLOCK_ROWS if block_rows is None else block_rows)
+    ia, ib, score = _similar_pairs(xa, xb, top_k, min_similarity, BLOCK_ROWS if block_rows is None else block_rows,
+                                   step)
     return pd.DataFrame({
         "node_a": pd.Series(sa.index.to_numpy()[ia], dtype=object),
         "node_b": pd.Series(sb.index.to_numpy()[ib], dtype=object),
@@ -421,7 +427,7 @@ def label_prior(labels_a, labels_b, *, top_k: int = LabelConfig.top_k, min_simil
 
 
 def _similar_pairs(xa: sp.csr_array, xb: sp.csr_array, top_k: int, min_similarity: float,
-                   block_rows: int) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+                   block_rows: int, step=lambda name: None) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
     """Row of A, row of B and score of the union of both sides' top_k pairs, sorted by (a, b)."""
     # number the n-grams from the rarest to the most common (ties by vocabulary order), so
     # that each row's common n-grams come last (the kernel's prefix filter); the per-thread
@@ -430,7 +436,9 @@ def _similar_pairs(xa: sp.csr_array, xb: sp.csr_array, top_k: int, min_similarit
     rank = np.empty(len(df), dtype=np.int64)
     rank[np.argsort(df, kind="stable")] = np.arange(len(df))
     xa, xb = _renumber(xa, rank), _renumber(xb, rank)
+    step("A against B")
     ra, ca = _top_k(xa, xb, top_k, min_similarity, block_rows)
+    step("B against A")
     rb, cb = _top_k(xb, xa, top_k, min_similarity, block_rows)
     nb = xb.shape[0]
     key = unique(np.concatenate([ra * nb + ca, cb * nb + rb]))  # sorted by (a, b): by identifier

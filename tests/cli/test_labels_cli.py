@@ -97,3 +97,26 @@ def test_reading_options_on_plain_label_files_are_refused(tmp_path):
                             "--label-columns", "2", "-q"])
     assert r.exit_code == 0, r.output
     assert set(pd.read_csv(out, sep="\t").node_a) == {"a1", "a2"}
+
+
+def test_steps_are_reported_and_an_existing_output_is_refused_first(tmp_path):
+    # Progress on long work (common practice): off a terminal, each step is one line as it ends,
+    # with its time; -q silences it. An existing output is refused before the labels are even read
+    # (here a label file that does not parse would otherwise be the error).
+    import re
+
+    la = _write(tmp_path / "a.tsv", [("a1", "Quorvel Shipping Limited"), ("a2", "Ombrin Dairy")])
+    lb = _write(tmp_path / "b.tsv", [("b1", "Quorvell Shipping Ltd"), ("b2", "Dairy Ombrin")])
+    out = tmp_path / "p.tsv"
+    r = runner.invoke(app, ["prior-from-labels", str(la), str(lb), "-o", str(out)])
+    assert r.exit_code == 0, r.output
+    steps = re.findall(r"^stage (.+?) +\d+\.\d\d s$", r.output, flags=re.M)
+    assert steps == ["reading", "n-grams", "A against B", "B against A", "writing"]
+    assert "stage " not in runner.invoke(app, ["prior-from-labels", str(la), str(lb), "-o", str(out), "--force",
+                                               "-q"]).output
+    before = out.read_bytes()
+    bad = tmp_path / "bad.tsv"
+    bad.write_bytes(b"\xff\xfe not text")
+    r = runner.invoke(app, ["prior-from-labels", str(bad), str(lb), "-o", str(out)])
+    assert r.exit_code == 2 and "already exists" in r.output and "stage " not in r.output
+    assert out.read_bytes() == before

@@ -8,7 +8,7 @@ from typing import Annotated
 import typer
 
 from aligner.cli.options import Force, Quiet, Use, command, out_option
-from aligner.cli.runtime import check_inputs, say
+from aligner.cli.runtime import check_inputs, progress, say
 from aligner.config import AlignConfig, LabelConfig
 from aligner.errors import InvalidParameterError, NoCandidatesError
 
@@ -54,20 +54,26 @@ def prior_from_labels(labels_a: Labels, labels_b: Labels, output: OutFile, from_
     n-gram TF-IDF cosine similarity.
 
     A label file without data lines, and labels of which no pair reaches --min-similarity (no pair
-    to write), are errors: exit status 2, nothing written."""
+    to write), are errors: exit status 2, nothing written. The search takes time about in
+    proportion to the product of the two label counts (tens of seconds for 20,000 per side): its
+    steps are shown as they run (off a terminal, one line each as it ends)."""
     check_inputs(labels_a, labels_b)
-    from aligner.io.outputs import write_prior_table
+    from aligner.io.outputs import check_output_file, write_prior_table
     from aligner.priors.labels import label_prior
     from aligner.render.console import prior_message
 
-    la, lb = _labels(labels_a, from_networks, config, labels), _labels(labels_b, from_networks, config, labels)
-    table = label_prior(la, lb, top_k=labels.top_k, min_similarity=labels.min_similarity)
-    if len(table) == 0:  # a prior of no pair: align would refuse it, so it is not written
-        raise NoCandidatesError(f"no pair of labels is similar enough: none of the {len(la)} labels of {labels_a} "
-                                f"reaches --min-similarity {labels.min_similarity:g} with any of the {len(lb)} "
-                                f"labels of {labels_b}, so there is no pair to write and {output} was not "
-                                "written; lower --min-similarity, or check that the two files label the same "
-                                "things")
-    path = write_prior_table(table, output, force=force)
+    check_output_file(output, force=force)  # refused before the search, which can take minutes
+    with progress(quiet, 5) as bar:  # reading, n-grams, the two searches, writing
+        bar.stage("reading")
+        la, lb = _labels(labels_a, from_networks, config, labels), _labels(labels_b, from_networks, config, labels)
+        table = label_prior(la, lb, top_k=labels.top_k, min_similarity=labels.min_similarity, progress=bar.stage)
+        if len(table) == 0:  # a prior of no pair: align would refuse it, so it is not written
+            raise NoCandidatesError(f"no pair of labels is similar enough: none of the {len(la)} labels of "
+                                    f"{labels_a} reaches --min-similarity {labels.min_similarity:g} with any of the "
+                                    f"{len(lb)} labels of {labels_b}, so there is no pair to write and {output} was "
+                                    "not written; lower --min-similarity, or check that the two files label the "
+                                    "same things")
+        bar.stage("writing")
+        path = write_prior_table(table, output, force=force)
     if not quiet:
         say(prior_message(len(table), len(la), len(lb), labels.top_k, labels.min_similarity, path))
