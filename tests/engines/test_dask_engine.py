@@ -500,3 +500,19 @@ def test_workers_and_partitions_are_checked_as_on_the_command_line(tmp_path):
         with pytest.raises(InvalidParameterError, match=f"^{name} must be a whole number >= 1; got ") as err:
             dask_align(*args, **kw)
         assert err.value.param == name
+
+
+def test_memory_budget_is_enforced_as_on_one_machine(client):
+    # Reference: the single-machine engine's MemoryBudgetError for --max-memory (the budget check
+    # of aligner.pipeline.prepare); the dask engine ran on and wrote outputs (found by
+    # differential testing). The client gathers the whole product graph, so the same budget holds.
+    import aligner
+    from aligner.engines.dask.engine import align as dask_align
+    from aligner.errors import MemoryBudgetError
+
+    ea, eb, prior, _ = as_frames(noisy_relabelled(60, seed=5))
+    with pytest.raises(MemoryBudgetError) as theirs:
+        aligner.align(ea, eb, prior, max_memory=1e-7)
+    with pytest.raises(MemoryBudgetError) as mine:
+        dask_align(ea, eb, prior, client=client, partitions=2, max_memory=1e-7)
+    assert str(mine.value) == str(theirs.value)

@@ -31,14 +31,14 @@ import numpy as np
 from aligner.checks import check_int, warn
 from aligner.config import DASK_READING, AlignConfig, from_options
 from aligner.core.diffusion import DiffusionResult
-from aligner.core.product import ProductGraph, estimate_product_edges
+from aligner.core.product import ProductGraph
 from aligner.core.rounding import Matching
 from aligner.errors import ClusterError, InvalidParameterError
 from aligner.engines.dask import auction, blocks, diffusion, reading
 from aligner.engines.dask.reading import on_cluster  # align's own keyword ``reading`` hides the module
-from aligner.pipeline import (AlignmentResult, Candidates, Clock, Problem, check_networks, check_some_candidate,
-                              diffusion_source, evaluate, find_candidates, finish_inputs, improve, read_inputs,
-                              summarize, with_seed_pairs)
+from aligner.pipeline import (AlignmentResult, Candidates, Clock, Problem, _check_memory, check_networks,
+                              check_some_candidate, diffusion_source, evaluate, find_candidates, finish_inputs, improve,
+                              read_inputs, summarize, with_seed_pairs)
 
 __all__ = ["BlockCluster", "WorkerLost", "connect", "align", "CONNECT_TIMEOUT", "RECOVERY_ATTEMPTS", "POLL_SECONDS",
            "block_imbalance"]
@@ -487,7 +487,8 @@ def _run(client, inputs, found: Candidates, cfg: AlignConfig, parts: int, mode: 
     seed_idx, h = diffusion_source(cand, inputs.seeds, cfg)
     a_ip, a_ix, _ = inputs.network_a.walk_adjacency(cfg.directed, cfg.weighted)
     b_ip, b_ix, _ = inputs.network_b.walk_adjacency(cfg.directed, cfg.weighted)
-    estimate = estimate_product_edges(a_ip, a_ix, b_ip, cand)
+    # the memory budget of one machine (--max-memory): the client gathers the whole product graph back
+    estimate = _check_memory(inputs, cand, cfg)
     # a block owns at least one node of A with candidates: more blocks would be empty ones, each
     # still a task of every round and a table of every block's bounds (thousands of them made a
     # small run take minutes and gigabytes)
