@@ -164,3 +164,19 @@ def test_pairs_outside_the_networks_are_refused():
 def test_one_score_per_pair():
     with pytest.raises(InvalidParameterError, match=r"^scores must hold one score per pair; got 1 for 2 pairs$"):
         build_candidates([[0, 0], [1, 1]], [1.0], 2, 2)
+
+
+def test_shared_end_columns_survive_a_whole_run():
+    # CandidateSet.ends is one pair of arrays read by the refinement, the confidence, the ambiguity
+    # and the query kernels; none may write into it. Reference: the pairs' own columns, after a
+    # run that uses all of them (common practice: inputs of a stage are left unchanged).
+    from aligner.datasets.instances import as_frames, noisy_relabelled
+    from aligner.pipeline import align
+
+    a, b, prior, truth = as_frames(noisy_relabelled(300, seed=5))
+    res = align(a, b, prior, truth=truth)
+    cand = res.candidates
+    pa, pb = cand.ends
+    assert pa.dtype == pb.dtype == np.int64 and pa.flags.c_contiguous and pb.flags.c_contiguous
+    assert np.array_equal(pa, cand.pairs[:, 0]) and np.array_equal(pb, cand.pairs[:, 1])
+    assert cand.ends[0] is pa  # made once
