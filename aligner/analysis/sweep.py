@@ -46,8 +46,8 @@ class SweepResult:
         iterations, edge touches, final 1-norm residual, diffusion seconds, seconds for the
         whole alpha: diffusion, rounding, refinement and scoring).
     knee : int or None
-        Row of the knee (see :func:`knee_index`), None with fewer than three points or a
-        straight curve.
+        Row of the knee (see :func:`knee_index`), None with fewer than three distinct points or
+        points on a straight line.
     results : list of AlignmentResult
         The full result at each alpha, in the order of ``table``.
     problem : Problem

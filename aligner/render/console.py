@@ -163,7 +163,7 @@ def sweep_lines(knee_alpha: float | None, knee_rule: str, written: Iterable[Path
         The suggested alpha (or why there is none), then the files written.
     """
     if knee_alpha is None:
-        first = "no knee: fewer than three alphas or a straight curve"
+        first = "no knee: the alphas give fewer than three distinct points, or points on a straight line"
     else:
         first = f"suggested alpha = {knee_alpha:g} (knee rule: {knee_rule})"
     return [first, "wrote " + ", ".join(str(p) for p in written)]

@@ -32,6 +32,8 @@ def test_knee_of_known_curves():
     assert x[k] == pytest.approx(4 ** (-1 / 3), abs=0.011)
     assert knee_index([0, 1, 2], [0, 1, 2]) is None  # straight line: no knee
     assert knee_index([0, 1], [0, 5]) is None
+    # every alpha past the first lands on one point (a step): two distinct points, no knee
+    assert knee_index([1.0, 0.9, 0.9, 0.9], [0.0, 5.0, 5.0, 5.0]) is None
 
 
 def _same_or_certified_tie(cand, x_sweep, x_align, idx_sweep, idx_align, bound):

@@ -35,7 +35,7 @@ def test_sweep_table_rows():
 
 def test_sweep_lines():
     assert sweep_lines(None, "rule", [Path("o/sweep.tsv")]) == [
-        "no knee: fewer than three alphas or a straight curve", "wrote o/sweep.tsv"]
+        "no knee: the alphas give fewer than three distinct points, or points on a straight line", "wrote o/sweep.tsv"]
     assert sweep_lines(0.8, "farthest from the chord", [Path("o/sweep.tsv"), Path("o/sweep.png")]) == [
         "suggested alpha = 0.8 (knee rule: farthest from the chord)", "wrote o/sweep.tsv, o/sweep.png"]
 
