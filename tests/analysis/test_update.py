@@ -541,7 +541,12 @@ def test_the_command_says_how_it_refined(one_start, tmp_path, monkeypatch):
     _, new_b, _ = _changed_inputs(d, a, b, prior, "rewire-b", np.random.default_rng(9))
     got = runner.invoke(app, ["update", str(d / "run"), "--b", str(new_b), "-o", str(tmp_path / "u")])
     assert got.exit_code == 0, got.output
-    assert "refinement: continued from the previous matching over" in " ".join(got.output.split())
+    said = " ".join(got.output.split())
+    how = json.loads((tmp_path / "u" / "summary.json").read_text())["update"]["refine"]
+    if how["mode"] == "continued":
+        assert "refinement: continued from the previous matching over" in said
+    else:  # the assignment step from the continued matching raised F (the near-decoy pair)
+        assert f"refinement: {how['reason']}" in said, said
 
 
 @pytest.mark.parametrize("directed", [False, True])
@@ -613,6 +618,25 @@ def test_beta_zero_refines_as_align(tmp_path):
     upd = update(tmp_path / "run", remove_b=data / "rem_b.tsv", add_b=data / "add_b.tsv")
     ref = aligner.align(data / "a.tsv", tmp_path / "b2.tsv", data / "p.tsv", **opts)
     assert upd.summary["update"]["refine"] == {"mode": "full", "reason": "the run refines with beta 0"}
+    _agree(upd, ref)
+
+
+def test_an_assignment_step_from_the_continued_matching_catches_longer_chains(tmp_path):
+    # Reference: aligner.align on B with the two edges removed by hand. The search continued from
+    # the previous matching stopped one matched pair short of align's (found by differential
+    # testing; tests/data/update_chain/README.md); the update now takes one assignment step from
+    # its matching, sees F rise and refines as align does.
+    data = Path(__file__).parents[1] / "data" / "update_chain"
+    opts = {"normalization": "product", "refine_starts": 1}
+    write_outputs(tmp_path / "run", aligner.align(data / "a.tsv", data / "b.tsv", data / "p.tsv", **opts))
+    b = pd.read_csv(data / "b.tsv", sep="\t", header=None)
+    gone = pd.read_csv(data / "rem_b.tsv", sep="\t", header=None)
+    b[~b.apply(tuple, axis=1).isin(set(gone.apply(tuple, axis=1)))].to_csv(tmp_path / "b2.tsv", sep="\t",
+                                                                           index=False, header=False)
+    upd = update(tmp_path / "run", remove_b=data / "rem_b.tsv")
+    ref = aligner.align(data / "a.tsv", tmp_path / "b2.tsv", data / "p.tsv", **opts)
+    assert upd.summary["update"]["refine"]["mode"] == "full"
+    assert "assignment step" in upd.summary["update"]["refine"]["reason"]
     _agree(upd, ref)
 
 
