@@ -43,8 +43,8 @@ def test_ties_and_near_ties_in_double_precision():
     for method in ("sparse", "scipy"):
         m = round_matching(cand, w, method=method)
         assert sorted(m.index.tolist()) == [1, 2], method
-    # dense rounds costs to 36 significant bits (lapjv may not terminate on last-bit ties), so
-    # it resolves differences above 2**-36 relative only
+    # dense puts costs on a grid of 2**-40 of the largest weight (lapjv may not terminate on
+    # last-bit ties), so it resolves differences above that only
     w = np.array([1.0, 1.0 + 1e-9, 1.0 + 1e-9, 1.0 - 1e-9])
     assert sorted(round_matching(cand, w, method="dense").index.tolist()) == [1, 2]
 
@@ -169,3 +169,24 @@ def test_scipy_path_keeps_a_weight_one_below_the_largest():
     for w in (np.array([3.0, 2.0, 2.0]), np.array([1.0, 0.5, 0.75]), np.array([5.0, 4.0, 4.0])):
         m = round_matching(cand, w, method="scipy")
         assert m.weight == pytest.approx(_optimum(cand, w), rel=1e-15)
+
+
+def test_dense_ends_on_a_matrix_of_exact_ties():
+    # Found by differential testing (structural candidates, --rounding dense): lapjv 1.3.29 looped
+    # for ever on this 146 x 146 matrix (1,431 distinct weights, many exact ties among weights of
+    # different magnitudes). Run in a child process with a time limit, so that a regression fails
+    # instead of hanging the suite. Reference: scipy.optimize.linear_sum_assignment's total.
+    import subprocess
+    import sys
+    from pathlib import Path
+
+    data = Path(__file__).parents[1] / "data" / "dense_ties" / "weights.npz"
+    w = np.load(data)["weights"]
+    code = ("import numpy as np, sys; from aligner.kernels.assign import max_weight_matching_dense; "
+            f"w = np.load({str(data)!r})['weights']; x = max_weight_matching_dense(w); "
+            "r = np.flatnonzero(x >= 0); print(repr(float(w[r, x[r]].sum())))")
+    done = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, timeout=120)
+    assert done.returncode == 0, done.stderr
+    rows, cols = linear_sum_assignment(-np.where(w > 0, w, 0.0))
+    best = float(np.where(w > 0, w, 0.0)[rows, cols].sum())
+    assert float(done.stdout) == pytest.approx(best, rel=1e-9)
