@@ -47,6 +47,11 @@ class _Group(TyperGroup):
                 return super().main(args, prog_name, complete_var, standalone_mode=True, **extra)
             where = exc.ctx.command_path if exc.ctx is not None else "aligner"
             text = exc.format_message().rstrip(".")
+            if isinstance(exc, errors.NoSuchOption) and exc.ctx is not None and exc.ctx.command.name == "update" \
+                    and exc.option_name in _option_names(self.commands.get("align")):
+                # not a typo for an update option: an option of the run being updated
+                text = (f"{exc.option_name} is an option of align; an update keeps the previous run's options "
+                        "(run align again to change them)")
             say(f"error: {where}: {text[:1].lower()}{text[1:]}; see '{where} --help'", console=err)
             sys.exit(2)
         except errors.ClickException as exc:  # not a usage error: the framework's own words and status
@@ -57,6 +62,13 @@ class _Group(TyperGroup):
             sys.exit(130)
         # the command ran (None), or an exit was asked for with its status (an int)
         sys.exit(status if isinstance(status, int) else 0)
+
+
+def _option_names(command) -> set[str]:
+    """Every option spelling of ``command`` (None: no names)."""
+    if command is None:
+        return set()
+    return {name for param in command.params for name in (*param.opts, *param.secondary_opts)}
 
 
 app = typer.Typer(

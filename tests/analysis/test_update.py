@@ -707,3 +707,16 @@ def test_a_node_named_by_a_self_loop_line_stays_when_a_diff_removes_its_last_edg
     ref = aligner.align(tmp_path / "a3.tsv", tmp_path / "b.tsv", tmp_path / "p.tsv")
     assert list(upd.network_a.names) == list(ref.network_a.names) == ["a1", "a2", "a3", "a4"]
     _agree(upd, ref)
+
+
+def test_an_align_option_given_to_update_says_the_options_are_kept(tmp_path):
+    # An option of align given to update is not a typo for one of update's (the framework
+    # suggested "--a" for --alpha): the message says an update keeps the run's options. A real
+    # typo keeps the framework's suggestion. Common practice: one error line, exit status 2.
+    got = runner.invoke(app, ["update", str(tmp_path), "--alpha", "0.5", "-o", str(tmp_path / "u")])
+    assert got.exit_code == 2
+    said = " ".join(got.output.split())
+    assert "--alpha is an option of align; an update keeps the previous run's options" in said
+    assert "Possible options" not in said and not (tmp_path / "u").exists()
+    got = runner.invoke(app, ["update", str(tmp_path), "--alpah", "0.5", "-o", str(tmp_path / "u")])
+    assert got.exit_code == 2 and "no such option: --alpah" in " ".join(got.output.split())
