@@ -516,3 +516,23 @@ def test_memory_budget_is_enforced_as_on_one_machine(client):
     with pytest.raises(MemoryBudgetError) as mine:
         dask_align(ea, eb, prior, client=client, partitions=2, max_memory=1e-7)
     assert str(mine.value) == str(theirs.value)
+
+
+def test_a_price_war_among_ties_ends_and_matches_like_one_machine(client):
+    # Found by differential testing (tests/data/dask_ties/README.md): with nearly every weight tied
+    # the auction raised prices by eps a round and ran for minutes, its free persons too many for
+    # the tail rule. It now stops once their count falls by less than a tenth over SLOW_ROUNDS
+    # rounds and matches the rest exactly. Reference: the single-machine rounding (exact
+    # assignment, checked against scipy in tests/core) on the same scores.
+    from pathlib import Path
+
+    import aligner
+    from aligner.engines.dask.engine import align as dask_align
+
+    data = Path(__file__).parents[1] / "data" / "dask_ties"
+    opts = {"structural": True, "alpha": 0.0, "refine": False}
+    single = aligner.align(data / "A.tsv", data / "B.tsv", **opts)
+    res = dask_align(data / "A.tsv", data / "B.tsv", client=client, partitions=2, reading="client", **opts)
+    assert res.summary["engine"]["auction"]["rounds"] <= 2 * auction.SLOW_ROUNDS
+    assert np.isclose(res.diffusion.x[res.matching.index].sum(), single.matching.weight, rtol=0, atol=1e-12)
+    assert len(res.matching.index) == len(single.matching.index)

@@ -76,6 +76,10 @@ TAIL_SHARE = 1e-3
 TAIL_STALL = 6
 #: hops of the tail: free rows, the rows holding what they want, and so on
 TAIL_HOPS = 3
+#: a price war whatever the count of free persons: over this many rounds their count fell by less
+#: than a tenth (tied weights raise prices by eps a round: an 80-node path of ties ran for minutes)
+SLOW_ROUNDS = 30
+SLOW_SHARE = 0.9
 
 _NO_BIDS = (np.empty(0, dtype=np.int64), np.empty(0, dtype=np.int64), np.empty(0))
 _NO_REPLIES = (np.empty(0, dtype=np.int64), np.empty(0, dtype=np.int64), np.empty(0), np.empty(0, dtype=bool))
@@ -248,16 +252,19 @@ class Tally:
 
 def tally(figs: list, tail_limit: float, before: Tally | None = None) -> Tally:
     """The :class:`Tally` of a round (``before``: the previous round's, None for the first). The
-    rounds stop when no person is free and nothing is pending or in flight, or when at most
-    ``tail_limit`` persons are free and their count has not fallen for :data:`TAIL_STALL` rounds
-    (the tail is then matched exactly)."""
+    rounds stop when no person is free and nothing is pending or in flight, when at most
+    ``tail_limit`` persons are free and their count has not fallen for :data:`TAIL_STALL` rounds,
+    or, however many are free, when their count fell by less than a tenth over :data:`SLOW_ROUNDS`
+    rounds (a price war among tied weights); the free rows are then matched exactly (the tail, and
+    the client's exact matching when the duality bound is above the scores' certified error)."""
     ran = before is None or before.go
     free = sum(f[0] for f in figs)
     pending = sum(f[1] for f in figs)
     in_flight = sum(sum(f[3].values()) for f in figs)
     history = (() if before is None else before.history) + ((free,) if ran else ())
     stalled = len(history) > TAIL_STALL and history[-1] >= history[-1 - TAIL_STALL]
-    finished = (free == 0 and pending == 0 and in_flight == 0) or (free <= tail_limit and stalled)
+    slow = len(history) > SLOW_ROUNDS and history[-1] > SLOW_SHARE * history[-1 - SLOW_ROUNDS]
+    finished = (free == 0 and pending == 0 and in_flight == 0) or (free <= tail_limit and stalled) or slow
     return Tally(ran, ran and not finished, free, sum(f[2] for f in figs), sum(len(f[3]) for f in figs), in_flight,
                  history)
 
