@@ -288,7 +288,7 @@ def _gib(nbytes: float) -> str:
     return f"{g:.2f} GiB" if g >= 0.01 or g == 0 else f"{g:.2g} GiB"
 
 
-def _check_memory(inputs: Inputs, cand: CandidateSet, cfg: AlignConfig) -> int:
+def check_memory(inputs: Inputs, cand: CandidateSet, cfg: AlignConfig) -> int:
     """The product graph's estimated stored entries; MemoryBudgetError when over the budget."""
     a_ip, a_ix, _ = inputs.network_a.walk_adjacency(cfg.directed, cfg.weighted)
     b_ip, _, _ = inputs.network_b.walk_adjacency(cfg.directed, cfg.weighted)
@@ -408,7 +408,7 @@ def with_product_graph(problem: Problem, clock: Clock | None = None, *,
     ``build`` (an update's patch of the previous run's graph) makes the product graph in place of
     :func:`aligner.core.product.build_product`; it must give the same graph."""
     cfg, inputs, cand = problem.config, problem.inputs, problem.candidates
-    estimate = _check_memory(inputs, cand, cfg)
+    estimate = check_memory(inputs, cand, cfg)
     with (clock or Clock()).stage("product"):
         product = build() if build is not None else _build_product(inputs, cand, cfg)
         scale = column_scale(product, cfg.normalization, pairs=cand.pairs,

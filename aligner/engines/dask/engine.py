@@ -36,9 +36,9 @@ from aligner.core.rounding import Matching
 from aligner.errors import ClusterError, InvalidParameterError
 from aligner.engines.dask import auction, blocks, diffusion, reading
 from aligner.engines.dask.reading import on_cluster  # align's own keyword ``reading`` hides the module
-from aligner.pipeline import (AlignmentResult, Candidates, Clock, Problem, _check_memory, check_networks,
-                              check_some_candidate, diffusion_source, evaluate, find_candidates, finish_inputs, improve,
-                              read_inputs, summarize, with_seed_pairs)
+from aligner.pipeline import (AlignmentResult, Candidates, Clock, Problem, check_memory, check_networks,
+                              check_some_candidate, diffusion_source, evaluate, find_candidates, finish_inputs,
+                              improve, read_inputs, summarize, with_seed_pairs)
 
 __all__ = ["BlockCluster", "WorkerLost", "connect", "align", "CONNECT_TIMEOUT", "RECOVERY_ATTEMPTS", "POLL_SECONDS",
            "block_imbalance"]
@@ -488,7 +488,7 @@ def _run(client, inputs, found: Candidates, cfg: AlignConfig, parts: int, mode: 
     a_ip, a_ix, _ = inputs.network_a.walk_adjacency(cfg.directed, cfg.weighted)
     b_ip, b_ix, _ = inputs.network_b.walk_adjacency(cfg.directed, cfg.weighted)
     # the memory budget of one machine (--max-memory): the client gathers the whole product graph back
-    estimate = _check_memory(inputs, cand, cfg)
+    estimate = check_memory(inputs, cand, cfg)
     # a block owns at least one node of A with candidates: more blocks would be empty ones, each
     # still a task of every round and a table of every block's bounds (thousands of them made a
     # small run take minutes and gigabytes)
