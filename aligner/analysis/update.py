@@ -30,6 +30,7 @@ from aligner.config import AlignConfig, from_options
 from aligner.core.arrays import unique
 from aligner.core.identifiers import lookup
 from aligner.errors import InputFormatError, InvalidParameterError
+from aligner.io.readers import NoRows
 from aligner.io.state import STATE_FILE, file_digest, read_state
 from aligner.pipeline import AlignmentResult, Clock, prepare, run_stages, with_product_graph
 
@@ -126,8 +127,11 @@ def _with_diff(state, side: str, add, remove, cfg: AlignConfig):
     diffs = {}
     for path, removing in ((remove, True), (add, False)):
         if path is not None:
-            net = as_network(path, name=f"{'removed' if removing else 'added'} edges of {label}",
-                             directed=cfg.directed, delimiter=cfg.delimiter, header=cfg.header)
+            try:
+                net = as_network(path, name=f"{'removed' if removing else 'added'} edges of {label}",
+                                 directed=cfg.directed, delimiter=cfg.delimiter, header=cfg.header)
+            except NoRows:  # an empty diff (a feed's quiet day): nothing to add or remove
+                continue
             diffs[removing] = (path, net.names.astype(str), net.scored_edges(cfg.directed)[0].astype(np.int64),
                                net)
     # one numbering over the previous names and the diffs' (sorted, as the readers number nodes)
@@ -347,10 +351,20 @@ def _with_prior_diff(state, add, remove, cfg: AlignConfig) -> _PriorRows:
             check_scores(values, cfg.score_kind, source=t.source, origin=t.origin)
         return a, b, values
 
+    def diff_rows(obj, cols: int, what: str):
+        if obj is None:
+            return None
+        try:
+            return rows(obj, cols, what)
+        except NoRows:  # an empty diff (a feed's quiet day): nothing to add or remove
+            return None
+
     old_a, old_b, old_v = rows(source, 3, "prior table")
-    gone = None if remove is None else rows(remove, 2, "prior pairs to remove")
-    new = None if add is None else rows(add, 3, "prior rows to add")
+    gone = diff_rows(remove, 2, "prior pairs to remove")
+    new = diff_rows(add, 3, "prior rows to add")
     diff = [p for p in (gone, new) if p is not None]
+    if not diff:
+        return _PriorRows(old_a, old_b, old_v, f"<prior: {source} with the diff applied>")
     # the rows of the previous prior whose node of A a diff names (one hash probe over the
     # table): the only ones a diff can remove or rescore
     asked = pa.chunked_array([c for p in diff for c in p[0].cast(old_a.type).chunks], type=old_a.type)

@@ -33,6 +33,7 @@ from aligner.core.identifiers import intern, pairs_from_columns, PairTable
 from aligner.core.prior import PriorTable, prior_from_columns
 
 __all__ = [
+    "NoRows",
     "Table",
     "Columns",
     "read_table",
@@ -489,11 +490,11 @@ def read_part(path: str, **options) -> Table | None:
     data rows (a partition without rows, or its header only, adds nothing to the table)."""
     try:
         return read_table(path, **options)
-    except _NoRows:
+    except NoRows:
         return None
 
 
-class _NoRows(InputFormatError):
+class NoRows(InputFormatError):
     """A file without data rows (empty, or a header only): an error for a file, a part that adds
     nothing for a pattern."""
 
@@ -565,7 +566,7 @@ def _read_table(path: str, *, min_cols: int, max_cols: int, delimiter, header: s
     first, second = next(lines, None), next(lines, None)
     expect = f"{min_cols}" if min_cols == max_cols else f"{min_cols} to {max_cols}"
     if first is None:
-        raise _NoRows(f"is empty: expected {_a(what)} with {expect} columns (blank lines and lines "
+        raise NoRows(f"is empty: expected {_a(what)} with {expect} columns (blank lines and lines "
                       "starting with # are skipped)", path=path)
     sep = _detect_delimiter(first[1]) if delimiter is None else DELIMITERS.get(delimiter, delimiter)
     fields = [f.strip(FIELD_BLANKS) for f in _split(first[1], sep)]
@@ -575,7 +576,7 @@ def _read_table(path: str, *, min_cols: int, max_cols: int, delimiter, header: s
     has_header = header == "yes" or (pick is not None and pick.by_name) or (
         header == "auto" and _looks_like_header(fields, second, sep, numeric))
     if has_header and second is None:
-        raise _NoRows(f"has a header line but no data rows: expected {_a(what)} below it", path=path,
+        raise NoRows(f"has a header line but no data rows: expected {_a(what)} below it", path=path,
                       line=first[0])
     start_no, start_text = second if has_header else first
     ncols = len(_split(start_text, sep))

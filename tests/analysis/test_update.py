@@ -720,3 +720,25 @@ def test_an_align_option_given_to_update_says_the_options_are_kept(tmp_path):
     assert "Possible options" not in said and not (tmp_path / "u").exists()
     got = runner.invoke(app, ["update", str(tmp_path), "--alpah", "0.5", "-o", str(tmp_path / "u")])
     assert got.exit_code == 2 and "no such option: --alpah" in " ".join(got.output.split())
+
+
+def test_an_empty_diff_changes_nothing(base, tmp_path):
+    # A feed of changes has quiet days: a diff file without data rows (0 bytes, or a header only)
+    # adds or removes nothing, instead of stopping the update. Reference: aligner.align on the
+    # same inputs (an empty removal beside a real addition gives the addition's result).
+    d, a, b, prior = base
+    empty = tmp_path / "empty.tsv"
+    empty.write_text("")
+    header = tmp_path / "header.tsv"
+    header.write_text("node_a\tnode_b\n")
+    same = update(d / "run", remove_b=empty, add_b=header)
+    _agree(same, aligner.align(d / "a.tsv", d / "b.tsv", d / "p.tsv"))
+    assert sum(same.summary["update"]["changes"][k] for k in ("edges_b_added", "edges_b_removed")) == 0
+    got = runner.invoke(app, ["update", str(d / "run"), "--add-prior", str(empty), "--remove-prior", str(header),
+                              "-o", str(tmp_path / "u"), "-q"])
+    assert got.exit_code == 0, got.output
+    nodes = sorted(set(b.iloc[:, 0]) | set(b.iloc[:, 1]))
+    added = _write(tmp_path, "added.tsv", pd.DataFrame({"node_a": [nodes[0]], "node_b": [nodes[-1]]}))
+    one = update(d / "run", add_b=added, remove_b=empty)
+    b2 = pd.concat([b, pd.DataFrame({b.columns[0]: [nodes[0]], b.columns[1]: [nodes[-1]]})], ignore_index=True)
+    _agree(one, aligner.align(d / "a.tsv", _write(tmp_path, "b2.tsv", b2), d / "p.tsv"))
