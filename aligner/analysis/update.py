@@ -359,12 +359,13 @@ def _with_prior_diff(state, add, remove, cfg: AlignConfig) -> _PriorRows:
         except NoRows:  # an empty diff (a feed's quiet day): nothing to add or remove
             return None
 
+    named = f"<prior: {source} with the diff applied>"
     old_a, old_b, old_v = rows(source, 3, "prior table")
     gone = diff_rows(remove, 2, "prior pairs to remove")
     new = diff_rows(add, 3, "prior rows to add")
     diff = [p for p in (gone, new) if p is not None]
     if not diff:
-        return _PriorRows(old_a, old_b, old_v, f"<prior: {source} with the diff applied>")
+        return _PriorRows(old_a, old_b, old_v, named)
     # the rows of the previous prior whose node of A a diff names (one hash probe over the
     # table): the only ones a diff can remove or rescore
     asked = pa.chunked_array([c for p in diff for c in p[0].cast(old_a.type).chunks], type=old_a.type)
@@ -399,7 +400,7 @@ def _with_prior_diff(state, add, remove, cfg: AlignConfig) -> _PriorRows:
     if new is not None:
         cols = [pa.chunked_array(c.chunks + n.cast(c.type).chunks, type=c.type) for c, n in zip(cols, new[:2])]
         values = np.concatenate([values, new[2]])
-    return _PriorRows(cols[0], cols[1], values, f"<prior: {source} with the diff applied>")
+    return _PriorRows(cols[0], cols[1], values, named)
 
 
 def _check_options(state, config: AlignConfig | None, options: dict) -> AlignConfig:

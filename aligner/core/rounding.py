@@ -61,8 +61,9 @@ def round_matching(cand: CandidateSet, w: npt.ArrayLike, *, method: str = "auto"
         ``sparse``: the package's sparse shortest-augmenting-path kernel (double precision).
         ``dense``: lapjv (Jonker–Volgenant) on the zero-padded square matrix, in double
         precision, after putting the costs on a common integer grid of 2**-40 of the largest
-        weight (lapjv can fail to terminate on near-ties and inexact sums otherwise). ``scipy``: scipy.sparse.csgraph.min_weight_full_bipartite_matching
-        with a zero-cost dummy partner for every node. ``auto``: sparse.
+        weight (lapjv can fail to terminate on near-ties and inexact sums otherwise).
+        ``scipy``: scipy.sparse.csgraph.min_weight_full_bipartite_matching with a zero-cost dummy
+        partner for every node. ``auto``: sparse.
 
     Returns
     -------

@@ -44,7 +44,8 @@ def _read_umask() -> int:
 _UMASK = _read_umask()
 
 __all__ = ["OUTPUT_FILES", "SWEEP_TABLE", "PRIOR_COLUMNS", "TRANSFER_TABLE", "TRANSFER_SELECTION", "check_outdir",
-           "write_outputs", "write_sweep_outputs", "write_prior_table", "check_output_file", "read_transferred", "write_transfer_selection",
+           "write_outputs", "write_sweep_outputs", "write_prior_table", "check_output_file", "read_transferred",
+           "write_transfer_selection",
            "write_text_atomic", "publish_outputs", "recover_interrupted", "table_text", "json_text", "read_run_table",
            "read_summary", "damaged_output", "RERUN_ALIGN", "RERUN_SWEEP"]
 

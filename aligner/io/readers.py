@@ -567,7 +567,7 @@ def _read_table(path: str, *, min_cols: int, max_cols: int, delimiter, header: s
     expect = f"{min_cols}" if min_cols == max_cols else f"{min_cols} to {max_cols}"
     if first is None:
         raise NoRows(f"is empty: expected {_a(what)} with {expect} columns (blank lines and lines "
-                      "starting with # are skipped)", path=path)
+                     "starting with # are skipped)", path=path)
     sep = _detect_delimiter(first[1]) if delimiter is None else DELIMITERS.get(delimiter, delimiter)
     fields = [f.strip(FIELD_BLANKS) for f in _split(first[1], sep)]
     numeric = 2
@@ -577,7 +577,7 @@ def _read_table(path: str, *, min_cols: int, max_cols: int, delimiter, header: s
         header == "auto" and _looks_like_header(fields, second, sep, numeric))
     if has_header and second is None:
         raise NoRows(f"has a header line but no data rows: expected {_a(what)} below it", path=path,
-                      line=first[0])
+                     line=first[0])
     start_no, start_text = second if has_header else first
     ncols = len(_split(start_text, sep))
     if pick is not None:

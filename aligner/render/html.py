@@ -532,10 +532,12 @@ def build_report(outdir, *, network_a=None, network_b=None, delimiter: str | Non
     ``summary["inputs"]["network_a"]["source"]`` unless ``network_a`` overrides it, read as the run
     read its inputs (its ``delimiter`` and ``header`` parameters) unless ``delimiter`` or ``header``
     is given (network B is only needed for its size, which the summary holds; ``network_b`` is
-    accepted for symmetry and checked to exist). With a truth table (``summary["inputs"]["truth"]["source"]``, or ``truth``)
-    the pair tables get a true/false column; when it cannot be read the page says so. Figures are
-    PNG, embedded as base64; every matched pair is embedded as JSON for the searchable table and
-    the focus view (:mod:`aligner.render.explorer`); the page loads no external resource.
+    accepted for symmetry and checked to exist). With a truth table
+    (``summary["inputs"]["truth"]["source"]``, or ``truth``) the pair tables get a true/false
+    column; when it cannot be read the page says so. Figures are PNG, embedded as base64; the
+    matched pairs (at most :data:`aligner.render.explorer.MAX_PAIRS`, the least confident when
+    there are more) are embedded as JSON for the searchable table and the focus view
+    (:mod:`aligner.render.explorer`); the page loads no external resource.
     Returns the path of the page.
     """
     from aligner.io.outputs import write_text_atomic
