@@ -48,6 +48,8 @@ def main(argv=None) -> int:
     ap.add_argument("--top", type=int, default=30, help="functions listed per ordering")
     ap.add_argument("--solves", type=int, default=0, help="cold/warm solve pairs after the update")
     ap.add_argument("--coarse", default="", help="threshold factors for a first warm pass, comma-separated")
+    ap.add_argument("--dump", default="", help="also save the profiled update's statistics here (pstats)")
+    ap.add_argument("--work", default="", help="work folder (kept; its run is reused when present)")
     args = ap.parse_args(argv)
 
     import numpy as np
@@ -60,11 +62,13 @@ def main(argv=None) -> int:
     from aligner.pipeline import solve
 
     a, b, prior, _ = as_frames(noisy_relabelled(args.size, seed=args.seed, noise=0.05, decoys=10))
-    work = Path(tempfile.mkdtemp(prefix="update_profile_"))
+    work = Path(args.work) if args.work else Path(tempfile.mkdtemp(prefix="update_profile_"))
     files = [work / "a.tsv", work / "b.tsv", work / "p.tsv"]
-    for f, frame in zip(files, (a, b, prior)):
-        frame.to_csv(f, sep="\t", index=False)
-    write_outputs(work / "run", aligner.align(*files))
+    if not (work / "run" / "state.npz").exists():
+        work.mkdir(parents=True, exist_ok=True)
+        for f, frame in zip(files, (a, b, prior)):
+            frame.to_csv(f, sep="\t", index=False)
+        write_outputs(work / "run", aligner.align(*files))
     for name, changed in changes(a, b, prior, np.random.default_rng(args.seed)):
         if name == CHANGES[args.change]:
             break
@@ -89,6 +93,8 @@ def main(argv=None) -> int:
     res = prof.runcall(upd_module.update, work / "run", **given)
     for order in ("cumulative", "tottime"):
         pstats.Stats(prof).sort_stats(order).print_stats(args.top)
+    if args.dump:
+        prof.dump_stats(args.dump)
 
     if args.coarse:
         _coarse(res.problem, upd_module._carry(read_state(work / "run"), res.problem, {})[0],
