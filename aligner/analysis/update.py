@@ -140,7 +140,7 @@ def _with_diff(state, side: str, add, remove, cfg: AlignConfig):
 
     have = _edge_keys(old_ids[edges[:, 0]], old_ids[edges[:, 1]], n, cfg.directed)
     # the state keeps each edge once, in order, and the numbering keeps the order: no sort then
-    order = np.arange(len(have)) if _is_sorted(have) else np.argsort(have, kind="stable")
+    order = None if _is_sorted(have) else np.argsort(have, kind="stable")  # None: in order
     keep = np.ones(len(have), dtype=bool)
     extra = gone = np.empty(0, dtype=np.int64)
     for removing in (True, False):
@@ -150,7 +150,9 @@ def _with_diff(state, side: str, add, remove, cfg: AlignConfig):
         ids = np.searchsorted(every, dnames)
         dk = _edge_keys(ids[de[:, 0]], ids[de[:, 1]], n, cfg.directed)
         pos = np.minimum(np.searchsorted(have, dk, sorter=order), max(len(have) - 1, 0))
-        found = have[order[pos]] == dk if len(have) else np.zeros(len(dk), dtype=bool)
+        if order is not None:
+            pos = order[pos]
+        found = have[pos] == dk if len(have) else np.zeros(len(dk), dtype=bool)
         wrong = ~found if removing else found
         if wrong.any():
             t = int(np.argmax(wrong))
@@ -159,15 +161,15 @@ def _with_diff(state, side: str, add, remove, cfg: AlignConfig):
             raise InputFormatError(f"the diff asks network {label} of the previous run to {what}: {u} - {v}; "
                                    "the diff does not fit that run", path=str(path))
         if removing:
-            keep[order[pos]] = False
+            keep[pos] = False
             gone = dk
         else:
             extra = dk
     # the kept edges in order, the added ones put in their places: the network then needs no sort
-    kept = have[order[keep[order]]]
+    kept = have[keep] if order is None else have[order[keep[order]]]
     extra = np.sort(extra)
     kept = np.insert(kept, np.searchsorted(kept, extra), extra)
-    u, v = kept // n, kept % n
+    u, v = np.divmod(kept, n)
     counts = state.meta.get("networks", {}).get(side) or {}
     # the readers keep a node a dropped self-loop line names: the nodes named by loop lines are
     # the previous file's (kept in the state), less those of the removed lines, plus the added's
@@ -519,11 +521,14 @@ def _carry(state, problem, same_names: dict, known: dict | None = None) -> tuple
     old = state.pairs
     same_pairs = len(old) == cand.m and _is_identity(to_a) and _is_identity(to_b) and np.array_equal(old, cand.pairs)
     if same_pairs:  # the same nodes and candidates: no look-up
-        x0 = state.x.astype(np.float64)
+        from aligner.kernels.tables import carry_same
+
+        x0 = np.empty(cand.m)
         kept = np.ones(cand.m, dtype=bool)
-        same_prior = np.abs(cand.prior - state.prior) <= 1e-6 * np.abs(state.prior)
+        rescored = carry_same(state.x, state.prior, cand.prior, x0)
     else:
         x0, kept, same_prior = _carried(old, to_a, to_b, cand, state.x, state.prior)
+        rescored = int((kept & ~same_prior).sum())
     directed = problem.config.directed
     ea_add, ea_del, ends_a = known.get("a") or _edge_changes(state.edges_a, net_a.scored_edges(directed)[0], to_a,
                                                              net_a.n, directed)
@@ -534,7 +539,7 @@ def _carry(state, problem, same_names: dict, known: dict | None = None) -> tuple
         "nodes_b_added": int(net_b.n - (to_b >= 0).sum()), "nodes_b_removed": int((to_b < 0).sum()),
         "edges_a_added": ea_add, "edges_a_removed": ea_del, "edges_b_added": eb_add, "edges_b_removed": eb_del,
         "candidates_added": int(cand.m - kept.sum()), "candidates_removed": int(len(old) - kept.sum()),
-        "candidates_rescored": int((kept & ~same_prior).sum()),
+        "candidates_rescored": int(rescored),
     }
     return x0, changes, _Maps(to_a, to_b, kept, ends_a, ends_b, same_pairs)
 

@@ -171,3 +171,17 @@ def carry_rows(old_a, old_b, to_a, to_b, new_a, new_b, old_x, old_prior, new_pri
             kept[j] = True
             was = old_prior[i]
             same_prior[j] = abs(new_prior[j] - was) <= 1e-6 * abs(was)
+
+
+@numba.njit(cache=True, nogil=True, **OUTER)
+def carry_same(old_x, old_prior, new_prior, x0):
+    """:func:`carry_rows` where the old and new rows are the same (same nodes, same pairs):
+    x0[j] = old_x[j] for every row, and the count of rows whose prior moved by more than
+    1e-6 of the old one (the same test), in one pass with no temporary arrays."""
+    moved = 0
+    for j in range(old_x.shape[0]):
+        x0[j] = old_x[j]
+        was = old_prior[j]
+        if not (abs(new_prior[j] - was) <= 1e-6 * abs(was)):
+            moved += 1
+    return moved
