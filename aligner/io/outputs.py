@@ -35,13 +35,19 @@ from aligner.errors import InputFormatError, InvalidParameterError
 
 
 def _read_umask() -> int:
-    """The process's umask (read once, at import: setting it back at once is the only portable way)."""
+    """The process's umask as it is now: from /proc/self/status where the system gives it there
+    (Linux 4.7 on), which reads it without changing it (no other thread of a program that uses
+    aligner as a library can create a file in between); elsewhere set and at once set back."""
+    try:
+        with open("/proc/self/status", encoding="ascii", errors="replace") as status:
+            for line in status:
+                if line.startswith("Umask:"):
+                    return int(line.split()[1], 8)
+    except (OSError, ValueError, IndexError):
+        pass
     mask = os.umask(0o022)
     os.umask(mask)
     return mask
-
-
-_UMASK = _read_umask()
 
 __all__ = ["OUTPUT_FILES", "SWEEP_TABLE", "PRIOR_COLUMNS", "TRANSFER_TABLE", "TRANSFER_SELECTION", "check_outdir",
            "write_outputs", "write_sweep_outputs", "write_prior_table", "check_output_file", "read_transferred",
@@ -196,7 +202,7 @@ def write_text_atomic(path: str | os.PathLike, data: str | bytes) -> Path:
             try:
                 mode = stat.S_IMODE(os.stat(path).st_mode)
             except OSError:
-                mode = 0o666 & ~_UMASK
+                mode = 0o666 & ~_read_umask()
             os.fchmod(fh.fileno(), mode)
             fh.write(_as_bytes(data))
             fh.flush()

@@ -46,6 +46,21 @@ def test_write_text_atomic_gives_the_mode_a_plain_open_gives(tmp_path):
     assert stat.S_IMODE(p.stat().st_mode) == 0o640 and p.read_text() == "y"
 
 
+def test_write_text_atomic_follows_a_umask_set_after_import(tmp_path):
+    # the umask was read once when the module was imported, so a program that set another one
+    # later got files with the old mode. Reference: a file made by Python's own open() under the
+    # same umask.
+    old = os.umask(0o077)
+    try:
+        plain = tmp_path / "plain.txt"
+        plain.write_text("x")
+        p = write_text_atomic(tmp_path / "atomic.txt", "x")
+    finally:
+        os.umask(old)
+    assert stat.S_IMODE(plain.stat().st_mode) == 0o600
+    assert stat.S_IMODE(p.stat().st_mode) == 0o600
+
+
 def test_write_text_atomic_failure_leaves_nothing(tmp_path):
     with pytest.raises(OSError):
         write_text_atomic(tmp_path / "missing" / "f.txt", "x")
