@@ -799,6 +799,8 @@ def update(previous, network_a=None, network_b=None, prior=None, *, seeds=None, 
     res = run_stages(problem, clock, x0=None if full else x0,
                      improve_from=None if full else _continued_refinement(state, maps, x0, refined))
     bound = cfg.tol / (1.0 - cfg.alpha)
+    moved = np.subtract(res.diffusion.x, x0, out=x0)  # x0 is not read again: no array of m entries more
+    np.abs(moved, out=moved)
     prev = state.meta
     res.summary["update"] = {
         "previous": str(Path(state.path).resolve().parent),
@@ -806,7 +808,7 @@ def update(previous, network_a=None, network_b=None, prior=None, *, seeds=None, 
         "reason": (f"{max(share_pairs, share_edges):.0%} of the candidates or edges changed (more than "
                    f"{FULL_SHARE:.0%}): started from zero" if full else "started from the previous scores"),
         "changes": changes,
-        "scores_moved": int((np.abs(res.diffusion.x - x0) > bound).sum()),
+        "scores_moved": int(np.count_nonzero(moved > bound)),
         "score_bound": bound,
         "pushes": res.diffusion.steps, "edge_touches": res.diffusion.edge_touches,
         "previous_pushes": prev.get("diffusion", {}).get("steps"),
