@@ -742,3 +742,19 @@ def test_an_empty_diff_changes_nothing(base, tmp_path):
     one = update(d / "run", add_b=added, remove_b=empty)
     b2 = pd.concat([b, pd.DataFrame({b.columns[0]: [nodes[0]], b.columns[1]: [nodes[-1]]})], ignore_index=True)
     _agree(one, aligner.align(d / "a.tsv", _write(tmp_path, "b2.tsv", b2), d / "p.tsv"))
+
+
+def test_renumber_maps_old_nodes_by_name():
+    # reference: a Python dict from each new name to its position; gone nodes map to -1, and the
+    # new names need not be sorted (the look-up is by hash)
+    from aligner.analysis.update import _renumber
+
+    rng = np.random.default_rng(3)
+    old = np.array(sorted(f"n{i:04d}" for i in range(300)), dtype=str)
+    kept = [v for v in old.tolist() if rng.random() > 0.2]
+    new = np.array(kept + [f"added{i}" for i in range(40)], dtype=object)
+    rng.shuffle(new)
+    where = {v: i for i, v in enumerate(new.tolist())}
+    expected = [where.get(v, -1) for v in old.tolist()]
+    assert _renumber(old, new).tolist() == expected
+    assert _renumber(old, old.astype(object)).tolist() == list(range(len(old)))

@@ -32,3 +32,16 @@ def test_lookup_uses_the_interned_names_and_matches_a_dict():
     key = id(names)
     del names
     assert key not in _ARROW_NAMES  # forgotten with its array
+
+
+def test_as_arrow_strings_takes_fixed_width_text_as_it_is():
+    # names kept in a run's state come back as numpy fixed-width text; the fast conversion must
+    # give the same strings as going through Python objects (reference: the Python strings).
+    import pyarrow as pa
+
+    from aligner.core.identifiers import as_arrow_strings
+
+    names = np.array(["b7", "a", "zeta-12", "é ñ", ""], dtype=str)
+    got = as_arrow_strings(names)
+    assert got.type == pa.string()
+    assert got.to_pylist() == [str(v) for v in names.tolist()]
