@@ -34,7 +34,7 @@ from aligner.io.readers import NoRows
 from aligner.io.state import STATE_FILE, file_digest, read_state
 from aligner.pipeline import AlignmentResult, Clock, prepare, run_stages, with_product_graph
 
-__all__ = ["update", "FULL_SHARE", "INPUTS"]
+__all__ = ["update", "previous_inputs", "FULL_SHARE", "INPUTS"]
 
 #: above this share of changed candidate pairs or edges the update starts from zero
 FULL_SHARE = 0.25
@@ -54,10 +54,11 @@ def _diff_source(side: str) -> str:
     return f"<network_{side}: the previous run's edges with the diff applied>"
 
 
-def _inputs(state, given: dict, names=INPUTS) -> dict:
+def _inputs(state, given: dict, names=INPUTS, advice: str | None = None) -> dict:
     """The update's inputs: those given, else the previous run's files, which must be unchanged
     (or, for an input the previous run did not read from a file, the state where it can stand for
-    it: a :class:`_Kept` source)."""
+    it: a :class:`_Kept` source). ``advice`` ends the message about a changed file (default: give
+    the input to use)."""
     out = {}
     for name in names:
         if given.get(name) is not None:
@@ -79,8 +80,8 @@ def _inputs(state, given: dict, names=INPUTS) -> dict:
                                         "the update", param=name)
         if file_digest(rec["source"]) != rec["fingerprint"]:
             raise InputFormatError(f"{name} of the previous run, {rec['source']}, is missing or has changed since "
-                                   f"the run; give the {name} to use (the previous one is not kept in "
-                                   f"{STATE_FILE})", path=rec["source"])
+                                   "the run; " + (advice or f"give the {name} to use (the previous one is not kept "
+                                                            f"in {STATE_FILE})"), path=rec["source"])
         out[name] = rec["source"]
     return out
 
@@ -405,23 +406,58 @@ def _with_prior_diff(state, add, remove, cfg: AlignConfig) -> _PriorRows:
     return _PriorRows(cols[0], cols[1], values, named)
 
 
-def _check_options(state, config: AlignConfig | None, options: dict) -> AlignConfig:
-    """The previous run's options; any option given must agree with it."""
+def _check_options(state, config: AlignConfig | None, options: dict,
+                   keeps: str = "an update keeps the run's options (align again to change them)") -> AlignConfig:
+    """The previous run's options; any option given must agree with it (``keeps`` ends the
+    message that says one does not)."""
     previous = AlignConfig(**state.meta["options"])
     asked = from_options(AlignConfig, config, options) if (config is not None or options) else previous
     for name, value in asked.as_dict().items():
         if (name in options or config is not None) and value != getattr(previous, name):
             raise InvalidParameterError(f"{name} {value!r} differs from the previous run's {getattr(previous, name)!r}"
-                                        "; an update keeps the run's options (align again to change them)",
-                                        param=name)
+                                        f"; {keeps}", param=name)
     return previous
+
+
+def previous_inputs(previous, *, keeps: str = "asking about a run keeps its options (leave the option out)",
+                    **options: Any) -> tuple[dict, AlignConfig]:
+    """A finished run's inputs and options, for asking about the run without aligning again
+    (``aligner query --run``): the networks and the prior rebuilt from its state where the state
+    holds them, as an update with no new input rebuilds them (:func:`_kept_inputs`: unweighted
+    networks from their edges; the prior as the run's candidate pairs while the run has no seeds),
+    the rest read from the run's files, which must be unchanged. ``options`` given must agree with
+    the run's (``keeps`` ends the message that says one does not).
+
+    Returns ({"network_a", "network_b", "prior", "seeds", "truth"}, the run's AlignConfig).
+
+    Raises
+    ------
+    InputFormatError
+        The state is missing, damaged or of another version; an input it does not hold changed
+        since the run.
+    InvalidParameterError
+        An option differs from the run's.
+    """
+    state = read_state(previous)
+    cfg = _check_options(state, None, options, keeps)
+    meta = state.meta
+    # what the state holds exactly is not read again, so its file may have moved or changed since
+    held = {f"network_{side}" for side in ("a", "b")
+            if not (meta.get("networks", {}).get(side) or {"weighted": True})["weighted"]}
+    if meta.get("prior_table") is not None and meta["inputs"].get("seeds") is None and not cfg.structural:
+        held.add("prior")
+    files = {name: (meta["inputs"].get(name) or {}).get("source") for name in held}
+    files |= _inputs(state, {}, names=[name for name in INPUTS if name not in held],
+                     advice="the state does not hold it: align again")
+    return _kept_inputs(state, {}, files, cfg, {}), cfg
 
 
 def _renumber(names_old, names_new) -> np.ndarray:
     """For each old node, its index among the new names (-1 when gone), by one hash look-up of
-    the old names among the new (an unchanged node set gives the identity). A binary search of
-    the sorted names took 0.7-1.2 s a side at 10^6 nodes (string comparisons, and each name
-    converted to fixed-width text first); the look-up 0.3 s."""
+    the old names among the new (an unchanged node set gives the identity). At 10^6 nodes it
+    takes 0.4-0.5 s; a binary search of the names as fixed-width text took 0.8-1.3 s in a fresh
+    process (converting every name first), 0.3 s once the process's memory is warm
+    (docs/update_benchmark.md)."""
     return lookup(np.asarray(names_new, dtype=object), names_old)
 
 
