@@ -51,7 +51,7 @@ import scipy.sparse as sp
 from scipy.sparse.csgraph import NegativeCycleError, shortest_path
 
 from aligner.kernels.assign import sparse_max_weight_matching
-from aligner.kernels.product import PRODUCT, product_rows
+from aligner.core.product import product_row_lengths
 from aligner.kernels.query import _local_push, _reset_slots
 
 __all__ = ["AnswerIndex", "Answer", "answer", "certify", "score_bounds", "DEFAULT_MAX_PAIRS"]
@@ -88,8 +88,8 @@ class AnswerIndex:
     """What every answer of an engine shares: deg_S of each candidate pair and two constants.
 
     Built once per engine in one pass over the product graph's rows (counted, never stored:
-    :func:`aligner.kernels.product.product_rows` by blocks of nodes of A), O(product edges)
-    time and O(m) memory.
+    :func:`aligner.core.product.product_row_lengths`, ranges of nodes of A on the kernels'
+    threads), O(product edges) time and O(m) memory.
 
     Attributes
     ----------
@@ -109,18 +109,11 @@ class AnswerIndex:
         of pairs is found by walking it (:meth:`largest_ratio_outside`).
     """
 
-    def __init__(self, engine, block: int = 4096):
+    def __init__(self, engine):
         net_a, net_b, cand = engine.net_a, engine.net_b, engine.cand
-        counts = np.zeros(cand.m, dtype=np.int64)
-        pair_b = np.ascontiguousarray(cand.pairs[:, 1])
-        none = np.empty(0, dtype=np.float64)
-        a_indptr, b_indptr = (np.ascontiguousarray(n.indptr, dtype=np.int64) for n in (net_a, net_b))
-        a_indices, b_indices = (np.ascontiguousarray(n.indices, dtype=np.int32) for n in (net_a, net_b))
-        for i0 in range(0, cand.n1, block):  # the neighbour lists of a block are dropped at once
-            i1 = min(cand.n1, i0 + block)
-            product_rows(np.arange(i0, i1), a_indptr, a_indices, b_indptr, b_indices, cand.a_indptr, pair_b,
-                         cand.a_indptr, pair_b, none, none,
-                         PRODUCT, counts[cand.a_indptr[i0]:cand.a_indptr[i1]])
+        # deg_S of every pair: the product graph's row lengths, its rows built a range of nodes at
+        # a time on the kernels' threads and dropped once counted
+        counts = product_row_lengths(net_a.indptr, net_a.indices, net_b.indptr, net_b.indices, cand)
         self.degree = counts
         if engine.normalization == "restricted":
             self.v = counts.astype(np.float64)
@@ -133,7 +126,10 @@ class AnswerIndex:
         ratio = np.zeros(cand.m)
         np.divide(h, self.v, out=ratio, where=linked & (self.v > 0))
         self.ratio = ratio
-        self.order = np.argsort(-ratio, kind="stable")
+        # np.argsort(-ratio, kind="stable"), sorting only the positive ratios (pairs with a
+        # neighbour; most candidates have none): the zeros follow in index order, as there
+        some = np.flatnonzero(ratio > 0)
+        self.order = np.concatenate([some[np.argsort(-ratio[some], kind="stable")], np.flatnonzero(ratio <= 0)])
 
     def largest_ratio_outside(self, inside: npt.NDArray[np.int64]) -> float:
         """max h_l / v_l over the pairs l with a neighbour that are not in ``inside`` (sorted
