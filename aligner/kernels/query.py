@@ -173,6 +173,22 @@ def _count(l, limit, a_indptr, a_indices, b_indptr, b_indices, c_indptr, c_a, c_
 
 
 @inner
+def _least_count(r, eps):
+    """The least whole c with eps * c >= r as computed in floating point: the count at which
+    r is no longer above the threshold eps * c, the test the queue applies. (r / eps rounded can
+    land on a c with eps * c < r, and a count stopped there left the pair queued by every
+    round's check and never pushed.)"""
+    c = np.floor(r / eps)
+    if not c < 2.0**52:  # no count comes near (and steps of 1 would not move c)
+        return c
+    while eps * c < r:
+        c += 1.0
+    while c > 0.0 and eps * (c - 1.0) >= r:
+        c -= 1.0
+    return c
+
+
+@inner
 def _enqueue(queue, qhead, qtail, l):
     if qtail == queue.shape[0]:
         if qhead > 0:
@@ -268,7 +284,7 @@ def _local_push(a_indptr, a_indices, b_indptr, b_indices, c_indptr, c_a, c_b, de
             rl = floats[l, _R]
             if restricted and ints[l, _DEG] < 0:
                 # learn enough of deg_S (the threshold) to decide, without holding its neighbours
-                limit = np.inf if forced else abs(rl) / eps
+                limit = np.inf if forced or eps <= 0.0 else _least_count(abs(rl), eps)
                 probes += _count(l, limit, a_indptr, a_indices, b_indptr, b_indices, c_indptr, c_a, c_b,
                                  ints, floats, restricted)
                 if ints[l, _DEG] < 0:

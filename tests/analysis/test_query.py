@@ -295,3 +295,32 @@ def test_certificate_holds_entry_wise_across_alpha_tol_and_normalisation(alpha, 
         bound = np.full(cand.m, sol.residual_l1 / (1 - alpha))  # pairs never touched
         bound[sol.pairs] = sol.error_bound()
         assert np.all(np.abs(got - want) <= bound + 1e-10), (node, np.max(np.abs(got - want) - bound))
+
+
+def test_a_residual_on_the_threshold_does_not_stop_the_query():
+    # Reproducer found by differential fuzzing: K4 against K4, ten prior pairs with scores 1 to 3,
+    # alpha 0.5, tol 0.01. The mass of a0's h is 1 - 2^-53 in floating point, and a residual of
+    # 0.049999999999999996 gave |r| / eps = 5.0 while eps * 5 < |r|: the end-of-round check queued
+    # the pair (|r| > eps * its partial count of 5), the count stopped at once (count >= |r| / eps),
+    # and 50 such rounds raised "cap of 100,000,000 pushes" after 3 pushes. Reference:
+    # scipy.sparse.linalg.spsolve on the explicit system, which the scores must meet within bounds.
+    k4 = [(i, j) for i in range(4) for j in range(i + 1, 4)]
+    edges_a = pd.DataFrame([(f"a{i}", f"a{j}") for i, j in k4], columns=["u", "v"])
+    edges_b = pd.DataFrame([(f"b{i}", f"b{j}") for i, j in k4], columns=["u", "v"])
+    rows = [("a0", "b0", 1.0), ("a0", "b1", 2.0), ("a0", "b2", 3.0), ("a1", "b0", 2.0), ("a1", "b1", 1.0),
+            ("a2", "b0", 3.0), ("a2", "b1", 3.0), ("a2", "b2", 1.0), ("a3", "b2", 2.0), ("a3", "b3", 2.0)]
+    prior = pd.DataFrame(rows, columns=["node_a", "node_b", "score"])
+    alpha = 0.5
+    res = aligner.query(edges_a, edges_b, prior, nodes=["a0"], alpha=alpha, tol=0.01, top_k=None, top=None,
+                        answer=False)
+    a, b = _net(k4, 4), _net(k4, 4)
+    pairs = np.array([(int(x[1]), int(y[1])) for x, y, _ in rows])
+    cand = build_candidates(pairs, np.array([s for *_, s in rows]), 4, 4, top_k=None)
+    own = np.arange(cand.a_indptr[0], cand.a_indptr[1])
+    h = cand.prior[own] / cand.prior[own].sum()
+    want = _explicit_solution(a, b, cand, own, h, alpha, "restricted")
+    exact = dict(zip((f"b{j}" for j in cand.pairs[own, 1]), want[own]))
+    tab = res.table
+    assert len(tab) == 3
+    for cp, score, bound in zip(tab.counterpart, tab.score, tab.error_bound):
+        assert score - 1e-12 <= exact[cp] <= score + bound + 1e-12
