@@ -82,6 +82,11 @@ STABLE_STEPS = 1
 #: scripts/bench/bench_answer.py, near decoys, 10^4 and 10^5, 120 to 360 queries per setting:
 #: shares 0.1 to 0.25 agree as often (95 to 98 %), 0.5 and 1 less often, no price 88 to 92 %
 OUTSIDE_SHARE = 0.15
+#: a margin certifies only above this share of the largest bound, times the arcs a path may hold
+#: (one per row of the region, plus the source's and the sink's): the exchange costs are sums of differences of floating-point scores, and on an exact tie between
+#: two assignments (x* = (1 - alpha) h on pairs without neighbours, scores 3 = 2 + 1) the least
+#: cost came out 5.6e-17 instead of 0
+ROUNDING = 1e-12
 
 
 class AnswerIndex:
@@ -239,7 +244,8 @@ def certify(rows, cols, lo, hi, boundary, asked: int, mate_row, mate_col) -> tup
     -------
     (certified, margin)
         ``margin`` is the least cost of an alternating path or cycle through the asked row (see
-        Notes); certified when it is > 0 (-inf with a negative cycle).
+        Notes); certified when it is > 0 by more than the rounding of the sums, :data:`ROUNDING`
+        times the largest bound per row of the region (-inf with a negative cycle).
 
     Notes
     -----
@@ -272,7 +278,8 @@ def certify(rows, cols, lo, hi, boundary, asked: int, mate_row, mate_col) -> tup
     into = dst == asked
     cycle = float(np.min(dist[1, src[into]] + w[into])) if into.any() else np.inf
     margin = float(min(through, cycle))
-    return bool(margin > 0), margin
+    scale = float(max(np.abs(lo).max(), np.abs(hi).max())) if len(lo) else 0.0
+    return bool(margin > ROUNDING * (n_rows + 2) * scale), margin
 
 
 @dataclass(frozen=True)

@@ -253,6 +253,27 @@ def test_a_node_without_a_free_candidate_is_certainly_unmatched():
     assert row["counterpart"] is None and row["certified"] and row["margin"] == np.inf and not row["fixed"]
 
 
+
+@pytest.mark.parametrize("alpha", [0.0, 0.5, 0.9])
+@pytest.mark.parametrize("scores", [(3.0, 2.0, 1.0), (12.0, 5.0, 7.0)])
+def test_an_exact_tie_between_two_assignments_is_not_certified(alpha, scores):
+    # Found by differential testing: a1 has b1 (prior p) and b2 (prior q), a2 has b1 only (prior
+    # r = p - q), and no pair has a product-graph neighbour, so x* = (1 - alpha) h and the two
+    # assignments {a1-b1} and {a1-b2, a2-b1} weigh exactly the same. The certificate's least cost
+    # came out 5.6e-17 instead of 0 by rounding, and the answer was "certified" (for 12 = 5 + 7
+    # even naming b2). Reference: scipy.optimize.linear_sum_assignment on the exact weights, which
+    # finds both counterparts optimal, so no answer may be certified.
+    p, q, r = scores
+    a = pd.DataFrame([("a1", "x1"), ("a2", "x2")], columns=["u", "v"])
+    b = pd.DataFrame([("b1", "y1"), ("b2", "y2")], columns=["u", "v"])
+    prior = pd.DataFrame([("a1", "b1", p), ("a1", "b2", q), ("a2", "b1", r)], columns=["node_a", "node_b", "score"])
+    W = np.zeros((2, 2))  # rows a1, a2; columns b1, b2: x* = (1 - alpha) * prior / sum(prior)
+    W[0, 0], W[0, 1], W[1, 0] = (np.array([p, q, r]) / (p + q + r)) * (1 - alpha)
+    assert _optimal_columns(W, 0) == {0, 1}  # both counterparts of a1 are optimal
+    row = query(a, b, prior, nodes=["a1"], alpha=alpha).answers.iloc[0]
+    assert not row["certified"]
+
+
 def test_the_command_line_prints_the_answer_line(tmp_path):
     a, b, prior, pair = _instance(300, 4, noise=0.05, decoys=5)
     for name, frame in (("a.tsv", a), ("b.tsv", b), ("p.tsv", prior)):
