@@ -241,7 +241,8 @@ class QueryConfig(_Config):
     top: int | None = option(10, "Counterparts listed per node (None: all its candidates).", flag="--top",
                              group="Query", kind="int", low=1, optional=True)
     tol: float = option(1e-6, "Push tolerance relative to the query's mass: each score is certified within "
-                        "tol * support / (1 - alpha).", flag="--tol", group="Query", kind="real", low=0.0,
+                        "tol * support / (1 - alpha) (tol * deg_A * deg_B / (1 - alpha) with --normalization "
+                        "product).", flag="--tol", group="Query", kind="real", low=0.0,
                         closed="neither")
     max_pushes: int | None = option(None, "Cap on the pushes of one query (None: no cap).", flag="--max-pushes",
                                     group="Query", kind="int", low=0, optional=True)
