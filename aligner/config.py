@@ -244,7 +244,7 @@ class QueryConfig(_Config):
                         "tol * support / (1 - alpha) (tol * deg_A * deg_B / (1 - alpha) with --normalization "
                         "product).", flag="--tol", group="Query", kind="real", low=0.0,
                         closed="neither")
-    max_pushes: int | None = option(None, "Cap on the pushes of one query (None: no cap).", flag="--max-pushes",
+    max_pushes: int | None = option(None, "Cap on the pushes of one query (None: 10^8).", flag="--max-pushes",
                                     group="Query", kind="int", low=0, optional=True)
     answer: bool = option(
         True, "Also give the counterpart the global assignment would choose, solved on a region around the "
