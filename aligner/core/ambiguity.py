@@ -166,7 +166,8 @@ def _from_optima(cand: CandidateSet, index: npt.NDArray[np.int64], optima, prior
         i = cand.pairs[other, 0].astype(np.int64)
         k = own[i]
         moved = (k >= 0) & (k != other)
-        moved[moved] &= prior[other[moved]] >= (1.0 - prior_tol) * prior[k[moved]]
+        # within the tolerance both ways, as a neutral exchange's pairs are
+        moved[moved] &= np.abs(prior[other[moved]] - prior[k[moved]]) <= prior_tol * prior[k[moved]]
         alt_i.append(i[moved])
         alt_b.append(cand.pairs[other[moved], 1].astype(np.int64))
     if not alt_i:

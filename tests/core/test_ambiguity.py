@@ -127,6 +127,39 @@ def test_near_optimal_matchings_add_their_partners_within_the_prior_tolerance():
     assert amb.near_optimum_nodes == 2 and none.near_optimum_nodes == 0
 
 
+def test_near_optimal_partners_with_a_much_higher_prior_are_not_alternatives():
+    # Hand-worked from the documented rule (docs/method.md, "Interchangeable nodes": a partner
+    # from a near-optimal matching is an alternative when its prior is within 5 % of the kept
+    # pair's, the same two-sided test as a neutral exchange's). A 4-cycle in A and B, every pair a
+    # candidate; kept: identity at prior 1; the rotation i -> i + 1 at prior 1 for nodes 0, 1 and
+    # 2 (twice the kept pair's, far outside the tolerance) for nodes 2, 3. Only 0 and 1 gain the
+    # rotation's partner; before the fix a higher prior always passed (prior >= 0.95 x kept).
+    from aligner.core.ambiguity import PRIOR_TOL, find_ambiguity
+    from aligner.core.candidates import build_candidates
+    from aligner.core.network import adjacency
+    from aligner.core.product import build_product
+
+    ip, ix = adjacency(np.array([[0, 1], [1, 2], [2, 3], [0, 3]]), 4)
+    pairs = np.array([(i, j) for i in range(4) for j in range(4)])
+    prior = np.where(pairs[:, 0] == pairs[:, 1], 1.0, 0.2)
+    rotated = (pairs[:, 1] == (pairs[:, 0] + 1) % 4)
+    prior[rotated & (pairs[:, 0] >= 2)] = 2.0
+    prior[rotated & (pairs[:, 0] < 2)] = 1.0
+    assert 2.0 > (1 + PRIOR_TOL) * 1.0
+    cand = build_candidates(pairs, prior, 4, 4)
+    prod = build_product(ip, ix, ip, ix, cand)
+    at = {tuple(p): k for k, p in enumerate(cand.pairs.tolist())}
+    kept = np.array([at[(i, i)] for i in range(4)])
+    other = np.array([at[(i, (i + 1) % 4)] for i in range(4)])
+    amb = find_ambiguity(prod, cand, kept, walk_a=(ip, ix), walk_b=(ip, ix), optima=[other])
+    none = find_ambiguity(prod, cand, kept, walk_a=(ip, ix), walk_b=(ip, ix))
+    alts = {int(cand.pairs[kept[t], 0]): set(amb.alternatives(t).tolist()) for t in range(4)}
+    base = {int(cand.pairs[kept[t], 0]): set(none.alternatives(t).tolist()) for t in range(4)}
+    assert alts == {0: base[0] | {1}, 1: base[1] | {2}, 2: base[2], 3: base[3]}
+    assert 3 not in alts[2] and 0 not in alts[3]
+    assert amb.near_optimum_nodes == 2
+
+
 def test_a_noisy_mirror_is_named_by_the_near_optimal_matchings():
     # The adult connectome pair (Witvliet et al. 2021) with B's synapse counts Poisson-noised
     # (seed 18) and the class prior: the best matching found is the left-right mirror image of
