@@ -403,6 +403,12 @@ def _node_list(nodes, node_file=None) -> tuple[list[str], list[tuple[str, int] |
     return nodes, origins
 
 
+def _labels(net: Network):
+    """The node names to report: the input's own node objects where it had them (a graph's
+    integers, say), else the names."""
+    return net.names if net.labels is None else net.labels
+
+
 def _split_options(config, query_config, options: dict) -> tuple[AlignConfig, QueryConfig]:
     """Keyword options to the two configuration objects: the query's own first (its ``tol`` is
     relative to the query's mass), the alignment's for the rest."""
@@ -419,11 +425,11 @@ def _split_options(config, query_config, options: dict) -> tuple[AlignConfig, Qu
 def _answer_row(name: str, side: str, got, own_names, other_names) -> dict:
     """One row of the answers table from an :class:`aligner.analysis.answer.Answer`."""
     def other(i):
-        return str(other_names[i]) if i >= 0 else None
+        return other_names[i] if i >= 0 else None
 
     return {"query": name, "side": side, "counterpart": other(got.counterpart), "certified": got.certified,
             "margin": got.margin, "score": got.score, "runner_up": other(got.runner_up),
-            "rival": str(own_names[got.rival]) if got.rival >= 0 else None, "fixed": got.fixed,
+            "rival": own_names[got.rival] if got.rival >= 0 else None, "fixed": got.fixed,
             "region_rows": got.rows, "region_pairs": got.pairs, "layers": got.layers,
             "pairs_touched": got.pairs_touched, "pushes": got.pushes, "seconds": round(got.seconds, 6)}
 
@@ -491,11 +497,14 @@ def query(network_a, network_b, prior=None, *, nodes=None, node_file=None, seeds
     engine = QueryEngine.from_problem(problem, qcfg)
     engine.warm_up()
     prep = time.perf_counter() - t0
-    other_names = net_b.names if qcfg.side == "a" else net_a.names
+    # a graph's own node objects (integers, say) come back in the tables, as in align's
+    own_names, other_names = (_labels(net_a), _labels(net_b)) if qcfg.side == "a" else (_labels(net_b), _labels(net_a))
+    own_net = net_a if qcfg.side == "a" else net_b
+    if own_net.labels is not None:
+        nodes = [own_names[node] for node in asked]
     answers = [_answer(engine, name, node, qcfg, other_names) for name, node in zip(nodes, asked)]
     tables, works, records = zip(*answers)
     table = pd.concat(tables, ignore_index=True)[TABLE_COLUMNS]
-    own_names = net_a.names if qcfg.side == "a" else net_b.names
     index_seconds = None
     rows = []
     if qcfg.answer:
@@ -508,6 +517,8 @@ def query(network_a, network_b, prior=None, *, nodes=None, node_file=None, seeds
             record["answer"] = {k: v for k, v in row.items() if k not in ("query", "side")}
             rows.append(row)
     answer_table = pd.DataFrame(rows, columns=ANSWER_COLUMNS)
+    for col in ("query", "counterpart", "runner_up", "rival"):  # nodes, None where there is none
+        answer_table[col] = pd.Series([row[col] for row in rows], dtype=object)
     summary = {
         "parameters": {"side": qcfg.side, "top": qcfg.top, "alpha": cfg.alpha, "tol": qcfg.tol, "top_k": cfg.top_k,
                        "min_score": cfg.min_score, "score_kind": cfg.score_kind, "normalization": cfg.normalization,

@@ -324,3 +324,22 @@ def test_a_residual_on_the_threshold_does_not_stop_the_query():
     assert len(tab) == 3
     for cp, score, bound in zip(tab.counterpart, tab.score, tab.error_bound):
         assert score - 1e-12 <= exact[cp] <= score + bound + 1e-12
+
+
+def test_a_graphs_own_node_objects_come_back_in_the_query_tables():
+    # Found by differential testing: with networkx graphs whose nodes are integers, align's tables
+    # held the integers (README, formats.md: "a graph's own node objects come back in the result's
+    # tables") but a query's held their strings ('103'), and an answer table mixing a node with
+    # None turned None into NaN. Reference: the networkx graphs' own node objects.
+    g = nx.barabasi_albert_graph(40, 2, seed=1)
+    h = nx.relabel_nodes(g, {v: v + 100 for v in g})
+    rng = np.random.default_rng(0)
+    rows = [(v, v + 100, 1.0) for v in g] + [(v, int(rng.integers(100, 140)), float(rng.random())) for v in g]
+    prior = pd.DataFrame(rows, columns=["node_a", "node_b", "score"])
+    res = aligner.query(g, h, prior, nodes=[3, 7, 12], top=3)
+    assert list(dict.fromkeys(res.table["query"])) == [3, 7, 12]
+    assert all(v in h for v in res.table["counterpart"])  # B's integers, not their strings
+    for col, graph in (("query", g), ("counterpart", h), ("runner_up", h), ("rival", g)):
+        assert all(v is None or v in graph for v in res.answers[col]), col
+    assert res.answers["rival"].isna().sum() == sum(v is None for v in res.answers["rival"])
+    assert isinstance(aligner.align(g, h, prior).pairs.node_b[0], type(res.table["counterpart"][0]))
