@@ -94,12 +94,12 @@ def test_distinct_priors_make_no_alternatives():
     assert res.scores.nc == 1.0
 
 
-def test_near_optimal_matchings_add_their_partners_within_the_prior_tolerance():
-    # Hand-worked: a 4-cycle 0-1-2-3 in A and B, every pair a candidate. Kept matching: identity;
-    # a near-optimal one: the rotation i -> i + 1. Its pairs (i, i + 1) score 1 against 1 for
-    # nodes 0, 1 and 0.5 for nodes 2, 3 (more than PRIOR_TOL below the kept pair's prior), so
-    # only 0 and 1 get the rotation's partner as an alternative.
-    from aligner.core.ambiguity import PRIOR_TOL, find_ambiguity
+def _rotation_case(far: float):
+    """A 4-cycle 0-1-2-3 in A and B, every pair a candidate. Kept matching: identity at prior 1;
+    a near-optimal one: the rotation i -> i + 1, its pairs at prior 1 for nodes 0, 1 and ``far``
+    for nodes 2, 3 (the other pairs 0.2). Returns each node's alternatives with the near-optimal
+    matching and without it, and the ambiguity found with it."""
+    from aligner.core.ambiguity import find_ambiguity
     from aligner.core.candidates import build_candidates
     from aligner.core.network import adjacency
     from aligner.core.product import build_product
@@ -108,9 +108,8 @@ def test_near_optimal_matchings_add_their_partners_within_the_prior_tolerance():
     pairs = np.array([(i, j) for i in range(4) for j in range(4)])
     prior = np.where(pairs[:, 0] == pairs[:, 1], 1.0, 0.2)
     rotated = (pairs[:, 1] == (pairs[:, 0] + 1) % 4)
-    prior[rotated & (pairs[:, 0] >= 2)] = 0.5
+    prior[rotated & (pairs[:, 0] >= 2)] = far
     prior[rotated & (pairs[:, 0] < 2)] = 1.0
-    assert 0.5 < (1 - PRIOR_TOL) * 1.0
     cand = build_candidates(pairs, prior, 4, 4)
     prod = build_product(ip, ix, ip, ix, cand)
     at = {tuple(p): k for k, p in enumerate(cand.pairs.tolist())}
@@ -120,6 +119,17 @@ def test_near_optimal_matchings_add_their_partners_within_the_prior_tolerance():
     none = find_ambiguity(prod, cand, kept, walk_a=(ip, ix), walk_b=(ip, ix))
     alts = {int(cand.pairs[kept[t], 0]): set(amb.alternatives(t).tolist()) for t in range(4)}
     base = {int(cand.pairs[kept[t], 0]): set(none.alternatives(t).tolist()) for t in range(4)}
+    return alts, base, amb, none
+
+
+def test_near_optimal_matchings_add_their_partners_within_the_prior_tolerance():
+    # Hand-worked (_rotation_case): the rotation's pairs of nodes 2, 3 score 0.5, more than
+    # PRIOR_TOL below the kept pair's prior, so only 0 and 1 get the rotation's partner as an
+    # alternative.
+    from aligner.core.ambiguity import PRIOR_TOL
+
+    assert 0.5 < (1 - PRIOR_TOL) * 1.0
+    alts, base, amb, none = _rotation_case(0.5)
     # the other kinds (neutral exchanges, colour classes) may name some alternatives already;
     # the near-optimal matching adds exactly its partners of nodes 0 and 1
     assert alts == {0: base[0] | {1}, 1: base[1] | {2}, 2: base[2], 3: base[3]}
@@ -130,31 +140,13 @@ def test_near_optimal_matchings_add_their_partners_within_the_prior_tolerance():
 def test_near_optimal_partners_with_a_much_higher_prior_are_not_alternatives():
     # Hand-worked from the documented rule (docs/method.md, "Interchangeable nodes": a partner
     # from a near-optimal matching is an alternative when its prior is within 5 % of the kept
-    # pair's, the same two-sided test as a neutral exchange's). A 4-cycle in A and B, every pair a
-    # candidate; kept: identity at prior 1; the rotation i -> i + 1 at prior 1 for nodes 0, 1 and
-    # 2 (twice the kept pair's, far outside the tolerance) for nodes 2, 3. Only 0 and 1 gain the
-    # rotation's partner; before the fix a higher prior always passed (prior >= 0.95 x kept).
-    from aligner.core.ambiguity import PRIOR_TOL, find_ambiguity
-    from aligner.core.candidates import build_candidates
-    from aligner.core.network import adjacency
-    from aligner.core.product import build_product
+    # pair's, the same two-sided test as a neutral exchange's). In _rotation_case the rotation's
+    # pairs of nodes 2, 3 score 2 (twice the kept pair's, far outside the tolerance): only 0 and 1
+    # gain the rotation's partner; before the fix a higher prior always passed (prior >= 0.95 x kept).
+    from aligner.core.ambiguity import PRIOR_TOL
 
-    ip, ix = adjacency(np.array([[0, 1], [1, 2], [2, 3], [0, 3]]), 4)
-    pairs = np.array([(i, j) for i in range(4) for j in range(4)])
-    prior = np.where(pairs[:, 0] == pairs[:, 1], 1.0, 0.2)
-    rotated = (pairs[:, 1] == (pairs[:, 0] + 1) % 4)
-    prior[rotated & (pairs[:, 0] >= 2)] = 2.0
-    prior[rotated & (pairs[:, 0] < 2)] = 1.0
     assert 2.0 > (1 + PRIOR_TOL) * 1.0
-    cand = build_candidates(pairs, prior, 4, 4)
-    prod = build_product(ip, ix, ip, ix, cand)
-    at = {tuple(p): k for k, p in enumerate(cand.pairs.tolist())}
-    kept = np.array([at[(i, i)] for i in range(4)])
-    other = np.array([at[(i, (i + 1) % 4)] for i in range(4)])
-    amb = find_ambiguity(prod, cand, kept, walk_a=(ip, ix), walk_b=(ip, ix), optima=[other])
-    none = find_ambiguity(prod, cand, kept, walk_a=(ip, ix), walk_b=(ip, ix))
-    alts = {int(cand.pairs[kept[t], 0]): set(amb.alternatives(t).tolist()) for t in range(4)}
-    base = {int(cand.pairs[kept[t], 0]): set(none.alternatives(t).tolist()) for t in range(4)}
+    alts, base, amb, _ = _rotation_case(2.0)
     assert alts == {0: base[0] | {1}, 1: base[1] | {2}, 2: base[2], 3: base[3]}
     assert 3 not in alts[2] and 0 not in alts[3]
     assert amb.near_optimum_nodes == 2
