@@ -272,8 +272,9 @@ class QueryEngine:
         seconds = time.perf_counter() - t0
         if capped:
             raise ConvergenceError(f"the query's push reached its cap of {self.max_pushes:,} pushes before the "
-                                   "tolerance; raise the tolerance (--tol) or lower alpha", iterations=int(pushes),
-                                   residual=float(res))
+                                   "tolerance", iterations=int(pushes), residual=float(res),
+                                   advice=(("raise {}", "max_pushes", None), ("raise {}", "tol", None),
+                                           ("lower {}", "alpha", None)))
         return LocalSolution(pairs=ints[:, 0].copy(), x=floats[:, 0].copy(), r=floats[:, 1].copy(),
                              h=floats[:, 2].copy(), degree=ints[:, 2].copy(), expanded=ints[:, 1] >= 0,
                              weight=floats[:, 4].copy(),

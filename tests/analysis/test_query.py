@@ -343,3 +343,23 @@ def test_a_graphs_own_node_objects_come_back_in_the_query_tables():
         assert all(v is None or v in graph for v in res.answers[col]), col
     assert res.answers["rival"].isna().sum() == sum(v is None for v in res.answers["rival"])
     assert isinstance(aligner.align(g, h, prior).pairs.node_b[0], type(res.table["counterpart"][0]))
+
+
+def test_push_cap_advice_names_keywords_in_python_and_options_on_the_command_line(tmp_path):
+    # docs/errors.md ("In Python"): a ConvergenceError's advice names the keywords from Python
+    # and the options from the command line. The query's cap message named "--tol" from Python
+    # and left out the cap itself (max_pushes). Common practice: the message says what to change.
+    a = tmp_path / "a.tsv"
+    b = tmp_path / "b.tsv"
+    p = tmp_path / "p.tsv"
+    a.write_text("node_a\tnode_b\n" + "\n".join(f"a{u}\ta{v}" for u, v in ((0, 1), (1, 2), (2, 3), (3, 0), (0, 2))))
+    b.write_text("node_a\tnode_b\n" + "\n".join(f"b{u}\tb{v}" for u, v in ((0, 1), (1, 2), (2, 3), (3, 0), (0, 2))))
+    p.write_text("node_a\tnode_b\tscore\n" + "\n".join(f"a{i}\tb{j}\t{1.0 if i == j else 0.3}"
+                                                        for i in range(4) for j in range(4)))
+    with pytest.raises(aligner.ConvergenceError) as err:
+        aligner.query(a, b, p, nodes=["a0"], max_pushes=1)
+    text = str(err.value)
+    assert "raise max_pushes, raise tol or lower alpha" in text and "--" not in text
+    res = CliRunner().invoke(app, ["query", str(a), str(b), "-p", str(p), "-n", "a0", "--max-pushes", "1"])
+    assert res.exit_code != 0
+    assert "raise --max-pushes, raise --tol or lower --alpha" in res.output
