@@ -83,9 +83,10 @@ STABLE_STEPS = 1
 #: shares 0.1 to 0.25 agree as often (95 to 98 %), 0.5 and 1 less often, no price 88 to 92 %
 OUTSIDE_SHARE = 0.15
 #: a margin certifies only above this share of the largest bound, times the arcs a path may hold
-#: (one per row of the region, plus the source's and the sink's): the exchange costs are sums of differences of floating-point scores, and on an exact tie between
-#: two assignments (x* = (1 - alpha) h on pairs without neighbours, scores 3 = 2 + 1) the least
-#: cost came out 5.6e-17 instead of 0
+#: (one per row of the region, plus the source's and the sink's): the exchange costs are sums of
+#: differences of floating-point scores, and on an exact tie between two assignments
+#: (x* = (1 - alpha) h on pairs without neighbours, scores 3 = 2 + 1) the least cost came out
+#: 5.6e-17 instead of 0
 ROUNDING = 1e-12
 
 

@@ -70,9 +70,8 @@ def _inputs(state, given: dict, names=INPUTS, advice: str | None = None) -> dict
             continue
         if rec["fingerprint"] is None:
             side = name[-1] if name.startswith("network_") else None
-            counts = state.meta.get("networks", {}).get(side) if side else None
             # an update's own diffed network, unweighted: the state holds it exactly
-            if (side and counts is not None and not counts["weighted"] and rec["source"] == _diff_source(side)) \
+            if (side and _state_holds_network(state.meta, side) and rec["source"] == _diff_source(side)) \
                     or name == "prior":
                 out[name] = _Kept(rec["source"])
                 continue
@@ -230,6 +229,13 @@ def _joined_names(names: np.ndarray, more: list) -> tuple[np.ndarray, np.ndarray
     return np.insert(wide, at, new), np.arange(len(names), dtype=np.int64) + shift
 
 
+def _state_holds_network(meta: dict, side: str) -> bool:
+    """Whether a run's state holds its network of ``side`` exactly (an unweighted one: the state
+    keeps edges, not weights)."""
+    counts = meta.get("networks", {}).get(side)
+    return counts is not None and not counts["weighted"]
+
+
 def _kept_inputs(state, given: dict, files: dict, cfg: AlignConfig, same_names: dict) -> dict:
     """The networks and the prior for :func:`prepare`: an unchanged input rebuilt from the state
     where that gives exactly what reading its file again would, else the file (or what was given).
@@ -255,7 +261,7 @@ def _kept_inputs(state, given: dict, files: dict, cfg: AlignConfig, same_names: 
     nets = {}
     for side in ("a", "b"):
         key, counts = f"network_{side}", meta.get("networks", {}).get(side)
-        if given.get(key) is None and counts is not None and not counts["weighted"]:
+        if given.get(key) is None and _state_holds_network(meta, side):
             names = np.asarray(getattr(state, f"names_{side}"), dtype=object)
             e = getattr(state, f"edges_{side}")
             net = network_from_edges(names, e[:, 0], e[:, 1], None, source=files[key], directed=cfg.directed)
@@ -442,8 +448,7 @@ def previous_inputs(previous, *, keeps: str = "asking about a run keeps its opti
     cfg = _check_options(state, None, options, keeps)
     meta = state.meta
     # what the state holds exactly is not read again, so its file may have moved or changed since
-    held = {f"network_{side}" for side in ("a", "b")
-            if not (meta.get("networks", {}).get(side) or {"weighted": True})["weighted"]}
+    held = {f"network_{side}" for side in ("a", "b") if _state_holds_network(meta, side)}
     if meta.get("prior_table") is not None and meta["inputs"].get("seeds") is None and not cfg.structural:
         held.add("prior")
     files = {name: (meta["inputs"].get(name) or {}).get("source") for name in held}

@@ -51,9 +51,8 @@ def _read_umask() -> int:
 
 __all__ = ["OUTPUT_FILES", "SWEEP_TABLE", "PRIOR_COLUMNS", "TRANSFER_TABLE", "TRANSFER_SELECTION", "check_outdir",
            "write_outputs", "write_sweep_outputs", "write_prior_table", "check_output_file", "read_transferred",
-           "write_transfer_selection",
-           "write_text_atomic", "publish_outputs", "recover_interrupted", "table_text", "json_text", "read_run_table",
-           "read_summary", "damaged_output", "RERUN_ALIGN", "RERUN_SWEEP"]
+           "write_transfer_selection", "write_text_atomic", "publish_outputs", "recover_interrupted", "table_text",
+           "json_text", "read_run_table", "read_summary", "damaged_output", "RERUN_ALIGN", "RERUN_SWEEP"]
 
 #: The table of interactions carried across the alignment, one of :data:`OUTPUT_FILES`.
 TRANSFER_TABLE = "transferred_edges.tsv"

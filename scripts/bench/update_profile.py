@@ -50,6 +50,10 @@ def main(argv=None) -> int:
     ap.add_argument("--coarse", default="", help="threshold factors for a first warm pass, comma-separated")
     ap.add_argument("--dump", default="", help="also save the profiled update's statistics here (pstats)")
     ap.add_argument("--work", default="", help="work folder (kept; its run is reused when present)")
+    ap.add_argument("--no-profile", action="store_true",
+                    help="only the timed updates (one per fresh process with --repeats 1 and --work)")
+    ap.add_argument("--moved", action="store_true",
+                    help="after the updates: the share of pairs whose score moved, and of nodes of A with one")
     args = ap.parse_args(argv)
 
     import numpy as np
@@ -88,7 +92,12 @@ def main(argv=None) -> int:
         res = upd_module.update(work / "run", **given)
         u = res.summary["update"]
         print(f"update {time.perf_counter() - t0:.2f} s; stages {res.summary['timings']}; carry "
-              f"{u['carry_seconds']} s; product {u['product']}", flush=True)
+              f"{u['carry_seconds']} s; product {u['product']}; conserved {res.summary['scores']['conserved_edges']:,}",
+              flush=True)
+    if args.moved:  # what a warm-started assignment could skip: rows none of whose scores moved
+        _moved(read_state(work / "run"), res)
+    if args.no_profile:
+        return 0
     prof = cProfile.Profile()
     res = prof.runcall(upd_module.update, work / "run", **given)
     for order in ("cumulative", "tottime"):
@@ -148,5 +157,23 @@ def _coarse(problem, x0, factors) -> None:
               f"{d.residual / cfg.tol:.2f} tol", flush=True)
 
 
+def _moved(state, res) -> None:
+    """The pairs whose score moved against the previous run's (kept in single precision) and the
+    nodes of A with at least one such pair (same candidate pairs only)."""
+    import numpy as np
+
+    cand, x = res.candidates, res.diffusion.x
+    if len(state.x) != cand.m:
+        print("moved: the candidate pairs changed; not compared")
+        return
+    moved = np.abs(x - state.x.astype(np.float64)) > 0
+    bound = res.summary["update"]["score_bound"]
+    rows = np.zeros(cand.n1, dtype=bool)
+    rows[cand.pairs[moved, 0]] = True
+    print(f"moved: {moved.mean():.1%} of the pairs' scores, {rows.mean():.1%} of the nodes of A with one; "
+          f"beyond the bound {bound:.2g}: {int((np.abs(x - state.x) > bound).sum())} pairs")
+
+
 if __name__ == "__main__":
     sys.exit(main())
+
