@@ -160,10 +160,31 @@ def reading_errors(path: str):
 
 
 def _detect_delimiter(first: str) -> str | None:
+    """The delimiter of a file from its first data line: a tab, else a comma, else a semicolon,
+    else runs of white space (None); one inside a quoted field is part of a name, not a delimiter."""
+    bare = _outside_quotes(first)
     for sep in ("\t", ",", ";"):
-        if sep in first:
+        if sep in bare:
             return sep
     return None  # runs of white space
+
+
+def _outside_quotes(line: str) -> str:
+    """``line`` without its quoted fields: those that open with a quote at the start of the line or
+    right after a tab, a comma or a semicolon (a quote inside a field is text, as CSV readers take
+    it), up to the closing quote (a doubled quote inside stays part of the field)."""
+    out, i, n, at_start = [], 0, len(line), True
+    while i < n:
+        if line[i] == '"' and at_start:
+            j = i + 1
+            while j < n and not (line[j] == '"' and line[j + 1:j + 2] != '"'):
+                j += 2 if line[j] == '"' else 1
+            i, at_start = j + 1, False
+            continue
+        out.append(line[i])
+        at_start = line[i] in "\t,;"
+        i += 1
+    return "".join(out)
 
 
 def _split(line: str, sep: str | None) -> list[str]:
