@@ -21,8 +21,8 @@ from aligner.core.identifiers import lookup, text_at
 
 __all__ = ["EVALUE_CAP", "SCORE_KINDS", "PriorTable", "check_scores", "transform_scores", "prior_from_columns"]
 
-#: -log10 of an E-value of exactly 0 is taken as this value (the smallest positive double is
-#: about 1e-308, so no finite E-value gives more).
+#: -log10 of an E-value of exactly 0 is taken as this value, and so is any larger -log10 (the
+#: smallest normal double is about 1e-308; the subnormal ones below it, down to 5e-324, are capped).
 EVALUE_CAP = 310.0
 
 #: The kinds of prior score, as ``score_kind`` / ``--score-kind`` names them.
@@ -114,13 +114,15 @@ def transform_scores(values: np.ndarray, kind: str) -> tuple[np.ndarray, np.ndar
     ([30.0, 310.0, -0.69897], [True, True, False])
     """
     keep = np.ones(len(values), dtype=bool)
+    # ``+ 0.0`` turns -0.0 into 0.0: a similarity of 0 (E = 1 gives -log10(1) = -0.0, and a file may
+    # say -0) would otherwise be written as "-0" in the prior column of alignment.tsv
     if kind == "similarity":
-        return values.astype(np.float64), keep
+        return values.astype(np.float64) + 0.0, keep
     if kind == "evalue":
         keep = values <= 1.0
         with np.errstate(divide="ignore"):
             s = np.where(values > 0, -np.log10(np.where(values > 0, values, 1.0)), EVALUE_CAP)
-        return np.minimum(s, EVALUE_CAP), keep
+        return np.minimum(s, EVALUE_CAP) + 0.0, keep
     if kind == "distance":
         return 1.0 / (1.0 + values), keep
     raise ValueError(kind)
