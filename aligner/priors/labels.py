@@ -268,12 +268,20 @@ def _as_labels(labels, name: str) -> pd.Series:
 def normalise_label(text: str) -> str:
     """Lower case, accents removed (NFKD), punctuation replaced by spaces, spaces collapsed.
 
+    Letters, digits and the marks that are part of a letter in many scripts (the vowel signs of
+    Devanagari or Tamil, which NFKD leaves as they are) stay; every other character is a space.
+
     >>> normalise_label("Vântric-Freight & Co., Ltd.")
     'vantric freight co ltd'
+    >>> normalise_label("किताब घर")  # the vowel signs stay: not 'क त ब घर'
+    'किताब घर'
     """
     text = unicodedata.normalize("NFKD", text)
-    text = "".join(c for c in text if not unicodedata.combining(c))
-    return " ".join(_NON_WORD.sub(" ", text.lower()).split())
+    text = "".join(c for c in text if not unicodedata.combining(c)).lower()
+    if text.isascii():
+        return " ".join(_NON_WORD.sub(" ", text).split())
+    # \W also matches the marks (category M) that NFKD keeps, such as vowel signs: keep those
+    return " ".join("".join(c if c.isalnum() or unicodedata.category(c)[0] == "M" else " " for c in text).split())
 
 
 def _check_params(top_k, min_similarity, ngram_range, block_rows) -> None:

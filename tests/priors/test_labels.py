@@ -248,3 +248,20 @@ def test_a_missing_label_in_a_nullable_string_column_is_no_label():
     got = label_prior(records(["n1", "n2"], ["Quorvell Shipping", None]), records(["m1", "m2"], ["Shipping Quorvel", None]),
                       label_columns="name", min_similarity=0.5)
     assert list(zip(got.node_a, got.node_b)) == [("n1", "m1")]
+
+
+def test_vowel_signs_are_not_punctuation():
+    # docs/method.md: labels are lowercased, accents removed and punctuation turned into spaces. A
+    # Devanagari vowel sign (Unicode category Mc or Mn with combining class 0, so NFKD and the accent
+    # removal keep it) is part of its word, not punctuation; it was turned into a space, so "किताब"
+    # became the letters "क त ब" and scored 1.0 against "कौतुब" (noticed by differential testing).
+    # Reference: unicodedata's categories (L, N and M are text) and the documented steps.
+    import unicodedata
+
+    for text in ("किताब घर", "कौतुब", "தமிழ்நாடு"):
+        want = "".join(c for c in unicodedata.normalize("NFKD", text) if not unicodedata.combining(c)).lower()
+        want = " ".join("".join(c if unicodedata.category(c)[0] in "LNM" else " " for c in want).split())
+        assert normalise_label(text) == want
+    assert normalise_label("किताब घर") == "किताब घर"
+    got = label_prior({"a1": "किताब"}, {"b1": "कौतुब", "b2": "किताब"}, top_k=5)
+    assert list(zip(got.node_a, got.node_b)) == [("a1", "b2")]
