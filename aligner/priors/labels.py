@@ -84,6 +84,9 @@ __all__ = ["read_labels", "read_label_table", "label_prior", "normalise_label", 
 
 #: rows of one block of the similarity product (the output buffers hold BLOCK_ROWS * top_k pairs)
 BLOCK_ROWS = 8192
+#: how far a cosine summed in floating point may be from the exact one (far above the ~1e-15 seen on
+#: labels of a few hundred n-grams): a score within this of 1 is 1, and of min_similarity reaches it
+ROUNDING = 1e-12
 
 _HEADER = ("node", "label")
 _NON_WORD = re.compile(r"[\W_]+")
@@ -425,8 +428,10 @@ def label_prior(labels_a, labels_b, *, top_k: int = LabelConfig.top_k, min_simil
     step = progress or (lambda name: None)
     step("n-grams")
     xa, xb = tfidf_matrices(sa.to_numpy(), sb.to_numpy(), ngram_range=ngram_range)
-    ia, ib, score = _similar_pairs(xa, xb, top_k, min_similarity, BLOCK_ROWS if block_rows is None else block_rows,
-                                   step)
+    # the threshold is lowered by the rounding of a dot product (ROUNDING), so that a pair whose cosine
+    # is min_similarity exactly (two identical labels at min_similarity 1) is not lost to its last bits
+    ia, ib, score = _similar_pairs(xa, xb, top_k, max(min_similarity - ROUNDING, 0.5 * min_similarity),
+                                   BLOCK_ROWS if block_rows is None else block_rows, step)
     return pd.DataFrame({
         "node_a": pd.Series(sa.index.to_numpy()[ia], dtype=object),
         "node_b": pd.Series(sb.index.to_numpy()[ib], dtype=object),
@@ -454,4 +459,5 @@ def _similar_pairs(xa: sp.csr_array, xb: sp.csr_array, top_k: int, min_similarit
     # one score per pair however it was found: the dot product in the order of the n-grams
     score = np.empty(len(key))
     _k.pair_dots(xa.indptr, xa.indices, xa.data, xb.indptr, xb.indices, xb.data, ia, ib, score)
-    return ia, ib, np.minimum(score, 1.0)
+    # a cosine within rounding of 1 is 1: identical labels (0.9999999999999988 summed in floating point)
+    return ia, ib, np.where(score > 1.0 - ROUNDING, 1.0, score)

@@ -265,3 +265,19 @@ def test_vowel_signs_are_not_punctuation():
     assert normalise_label("किताब घर") == "किताब घर"
     got = label_prior({"a1": "किताब"}, {"b1": "कौतुब", "b2": "किताब"}, top_k=5)
     assert list(zip(got.node_a, got.node_b)) == [("a1", "b2")]
+
+
+def test_identical_labels_score_one_and_reach_min_similarity_one():
+    # The cosine of two identical TF-IDF vectors is 1 (mathematics; sklearn's cosine_similarity gives
+    # 1 up to rounding), and docs/commands.md allows --min-similarity 1: identical labels only. The
+    # summed dot product came out as 0.9999999999999988, so min_similarity=1 dropped such pairs (and
+    # the command refused the labels as having no pair) while "Cafe Muller" / "Café Müller" was kept
+    # (noticed by differential testing).
+    a = {"a1": "Vantric Freight Ltd", "a2": "Olmera Foods Coop", "a3": "Café Müller"}
+    b = {"b1": "Vantric Freight Ltd", "b2": "Olmera Foods Coop", "b3": "Cafe Muller", "b4": "Korvex"}
+    got = label_prior(a, b, min_similarity=1.0)
+    assert list(zip(got.node_a, got.node_b)) == [("a1", "b1"), ("a2", "b2"), ("a3", "b3")]
+    assert got["score"].tolist() == [1.0, 1.0, 1.0]
+    # the same pairs score exactly 1 at any threshold
+    low = label_prior(a, b, min_similarity=0.1)
+    assert low.set_index(["node_a", "node_b"]).loc[[("a1", "b1"), ("a2", "b2")], "score"].tolist() == [1.0, 1.0]
