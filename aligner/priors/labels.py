@@ -259,7 +259,9 @@ def _as_labels(labels, name: str) -> pd.Series:
     """Series, dict, rows (identifier, label) or path -> Series of str indexed by str, sorted by identifier."""
     table = as_table(labels, name=name, layout="node, label", min_cols=2, max_cols=2, read=read_labels)
     ids = table.text(0)
-    values = np.array(["" if _missing(v) else str(v) for v in table.columns[1]], dtype=object)
+    # as in a label file (docs/formats.md), an empty or missing label makes the identifier its own label
+    values = np.array([str(node) if _missing(v) or not str(v).strip() else str(v) for node, v in zip(ids, table.columns[1])],
+                      dtype=object)
     if len(set(ids)) != len(ids):
         raise InvalidParameterError(f"{name} must name each node once; got repeated identifiers", param=name)
     order = np.argsort(ids.astype(str), kind="stable") if len(ids) else np.empty(0, np.int64)
@@ -366,7 +368,8 @@ def label_prior(labels_a, labels_b, *, top_k: int = LabelConfig.top_k, min_simil
     ----------
     labels_a, labels_b : pandas.Series, dict, rows (node, label) or path
         Label text indexed (keyed) by node identifier, or a label file (see :func:`read_labels`).
-        Identifiers are compared as str.
+        Identifiers are compared as str. A label that is empty, blank or missing (None, NaN,
+        ``pd.NA``) makes the identifier its own label, as in a label file.
     top_k : int >= 1, default 10
         For every node of A its ``top_k`` most similar nodes of B are kept, and for every
         node of B its ``top_k`` most similar nodes of A; the table is the union.

@@ -243,7 +243,9 @@ def test_a_missing_label_in_a_nullable_string_column_is_no_label():
     got = label_prior(nullable, other)
     want = label_prior(nullable.astype(object).where(nullable.notna(), None), other.astype(object).where(other.notna(), None))
     pd.testing.assert_frame_equal(got, want)
-    assert ("n2", "m2") not in set(zip(got.node_a, got.node_b))
+    # not the text "<NA>" shared by both gaps: each gap is labelled by its identifier, as in a file
+    named = label_prior(nullable.astype(object).where(nullable.notna(), "n2"), other.astype(object).where(other.notna(), "m2"))
+    pd.testing.assert_frame_equal(got, named)
     records = lambda ids, names: pd.DataFrame({"id": ids, "name": pd.array(names, dtype="string")})  # noqa: E731
     got = label_prior(records(["n1", "n2"], ["Quorvell Shipping", None]), records(["m1", "m2"], ["Shipping Quorvel", None]),
                       label_columns="name", min_similarity=0.5)
@@ -281,3 +283,20 @@ def test_identical_labels_score_one_and_reach_min_similarity_one():
     # the same pairs score exactly 1 at any threshold
     low = label_prior(a, b, min_similarity=0.1)
     assert low.set_index(["node_a", "node_b"]).loc[[("a1", "b1"), ("a2", "b2")], "score"].tolist() == [1.0, 1.0]
+
+
+def test_an_empty_label_in_python_is_the_identifier_as_in_a_file(tmp_path):
+    # docs/formats.md: in a label file, a line without a tab or with an empty label makes the
+    # identifier its own label. The same labels given from Python (a dict, a Series, rows) kept an
+    # empty, blank or missing label empty, so those nodes got no pair, and the file and the dict gave
+    # different priors (noticed by differential testing). Reference: the file read by read_labels.
+    a = {"Korvex-7": "", "Olmera-2": "   ", "Dralune-1": None, "v1": "Vantric Freight"}
+    b = {"korvex 7": "Korvex 7", "olmera 2": "Olmera 2", "dralune 1": "Dralune-1", "w1": "Vantric Freight Ltd"}
+    pa = tmp_path / "a.tsv"
+    pa.write_text("Korvex-7\t\nOlmera-2\t   \nDralune-1\nv1\tVantric Freight\n", encoding="utf-8")
+    from_file = label_prior(pa, b)
+    assert {("Korvex-7", "korvex 7"), ("Olmera-2", "olmera 2"), ("Dralune-1", "dralune 1")} <= set(
+        zip(from_file.node_a, from_file.node_b))
+    pd.testing.assert_frame_equal(label_prior(a, b), from_file)
+    pd.testing.assert_frame_equal(label_prior(pd.Series(a), b), from_file)
+    pd.testing.assert_frame_equal(label_prior(list(a.items()), b), from_file)
