@@ -70,6 +70,11 @@ FEATURE_NAMES = BASE_FEATURES + tuple(f"nbr_mean_{f}" for f in BASE_FEATURES)
 """Names of the columns of :func:`node_features`, in order."""
 AGGREGATE_WEIGHT = 0.5
 """Factor on the z-scored neighbour-mean columns in the distance of :func:`structural_candidates`."""
+ZERO_DISTANCE = 1e-9
+"""A feature distance at or below this is rounding, not a difference: two nodes whose features are
+equal in exact arithmetic (a relabelled copy) come out about 1e-15 apart when their neighbours are
+summed in another order. A median nearest-node distance this small is taken as 0 (scale 1), not as
+the scale of the kernel, which would turn those rounding differences into scores anywhere in (0, 1]."""
 DEFAULT_K: int = specs(AlignConfig)["top_k"][0]
 """Default neighbours per node of :func:`structural_candidates` (the ``top_k`` of :class:`aligner.config.AlignConfig`)."""
 DEFAULT_WEIGHT: float = specs(AlignConfig)["structural_weight"][0]
@@ -183,10 +188,10 @@ def _search_space(net_a: Network, net_b: Network) -> tuple[np.ndarray, np.ndarra
 def _kernel_scores(d: np.ndarray, nearest: np.ndarray) -> np.ndarray:
     """Gaussian scores ``exp(-d^2 / (2 s^2))`` of distances ``d``, floored at the smallest normal float.
 
-    ``s`` is the median of ``nearest`` (1 if that is not positive).
+    ``s`` is the median of ``nearest`` (1 if that is 0, or no more than :data:`ZERO_DISTANCE`).
     """
     s = float(np.median(nearest))
-    if not s > 0:
+    if not s > ZERO_DISTANCE:
         s = 1.0
     return np.maximum(np.exp(-(d * d) / (2.0 * s * s)), np.finfo(np.float64).tiny)
 
@@ -217,7 +222,8 @@ def structural_candidates(
     scores : ndarray of float64, shape (K,)
         ``exp(-d^2 / (2 s^2))`` for feature distance ``d``, in (0, 1] (floored at the
         smallest normal float); ``s`` is the median distance of a node to its nearest node
-        of the other network over both directions (1 if that is 0).
+        of the other network over both directions (1 if that is 0, up to the rounding
+        :data:`ZERO_DISTANCE`).
 
     Notes
     -----
