@@ -172,13 +172,17 @@ def _detect_delimiter(first: str) -> str | None:
 def _outside_quotes(line: str) -> str:
     """``line`` without its quoted fields: those that open with a quote at the start of the line or
     right after a tab, a comma or a semicolon (a quote inside a field is text, as CSV readers take
-    it), up to the closing quote (a doubled quote inside stays part of the field)."""
+    it), up to the closing quote (a doubled quote inside stays part of the field). A quote that is
+    not closed on the line is kept with the rest of the line."""
     out, i, n, at_start = [], 0, len(line), True
     while i < n:
         if line[i] == '"' and at_start:
             j = i + 1
             while j < n and not (line[j] == '"' and line[j + 1:j + 2] != '"'):
                 j += 2 if line[j] == '"' else 1
+            if j >= n:  # a quote not closed on its line hides nothing (the readers then name the line)
+                out.append(line[i:])
+                break
             i, at_start = j + 1, False
             continue
         out.append(line[i])

@@ -300,3 +300,13 @@ def test_delimiter_inside_quotes_on_the_first_line_is_not_the_delimiter(tmp_path
         p = _w(tmp_path, "q.txt", text)
         want = sorted({f for row in pycsv.reader(text.splitlines(), delimiter=sep) for f in row})
         assert read_network(p).names.tolist() == want, text
+
+
+def test_a_quote_left_open_on_the_first_line_names_the_line(tmp_path):
+    # Found by fuzzing the input layer: when the delimiter came to be looked for outside quoted
+    # fields, a first line whose quote is never closed ('"x<TAB>a1') hid its tab, the file was
+    # read as white-space delimited and the error named no line ("EOF inside string"). As
+    # docs/errors.md asks: the message names the file and the line at fault.
+    p = _w(tmp_path, "open.tsv", '"x\ta1\na1\ta2\na2\ta3\n')
+    with pytest.raises(InputFormatError, match=r"open\.tsv, line 1: has 1 column"):
+        read_network(p)
