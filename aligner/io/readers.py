@@ -699,6 +699,7 @@ def _read_careful(path: str, sep: str | None, ncols: int, start_no: int, min_col
         )
     except pd.errors.ParserError as exc:
         _raise_bad_row(path, sep, ncols, start_no)
+        _raise_open_quote(path, sep, start_no)
         raise InputFormatError(f"cannot be parsed ({exc}); check the quoting and the delimiter",
                                path=path) from None
     except UnicodeDecodeError as exc:
@@ -709,10 +710,9 @@ def _read_careful(path: str, sep: str | None, ncols: int, start_no: int, min_col
     cols = [(df[c] if sep is None else df[c].str.strip(FIELD_BLANKS)).to_numpy(dtype=object) for c in use]
     if any(df[c].str.contains("[\r\n]", regex=True).any() for c in use):
         # a quoted field running over a line break: one record per line is the format
-        no, text = next(((no, t) for no, t in data_lines(path, sep) if no >= start_no and t.count('"') % 2),
-                        (None, ""))
-        raise InputFormatError(f"has a quote that is not closed on its line: {text[:80]!r}; close it or "
-                               "remove the quote", path=path, line=no)
+        _raise_open_quote(path, sep, start_no)
+        raise InputFormatError("has a quoted field running over a line break; one record per line is the format: "
+                               "close the quote on its line", path=path)
     # A short row shows up as empty strings in its last columns.
     bad = np.zeros(len(df), dtype=bool)
     for c in range(min_cols):
@@ -723,6 +723,34 @@ def _read_careful(path: str, sep: str | None, ncols: int, start_no: int, min_col
         raise InputFormatError(f"has an empty field: {text[:80]!r}; fill it in or remove the row", path=path,
                                line=no)
     return cols
+
+
+def _raise_open_quote(path: str, sep: str | None, start: int) -> None:
+    """Raise for the first data row (from line ``start`` on) with a field that opens a quote and does
+    not close it on its line, if any: a quoted field running over a line break, or to the end of
+    the file (a quote inside a field is text and opens nothing)."""
+    for no, text in data_lines(path, sep):
+        if no >= start and _opens_quote(text, sep):
+            raise InputFormatError(f"has a quote that is not closed on its line: {text[:80]!r}; close it or "
+                                   "remove the quote", path=path, line=no)
+
+
+def _opens_quote(line: str, sep: str | None) -> bool:
+    """Whether a field of ``line`` starts with a quote that the line does not close."""
+    seps = " \t" if sep is None else sep
+    i, n, at_start = 0, len(line), True
+    while i < n:
+        if line[i] == '"' and at_start:
+            j = i + 1
+            while j < n and not (line[j] == '"' and line[j + 1:j + 2] != '"'):
+                j += 2 if line[j] == '"' else 1
+            if j >= n:
+                return True
+            i, at_start = j + 1, False
+            continue
+        at_start = line[i] in seps
+        i += 1
+    return False
 
 
 def _raise_bad_row(path: str, sep: str | None, ncols: int, start: int) -> None:
