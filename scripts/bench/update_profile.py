@@ -36,7 +36,8 @@ import pstats  # noqa: E402
 sys.path.append(str(HERE))
 from bench_update import _edge_diff, changes  # noqa: E402
 
-CHANGES = {"diff": "rewire-0.1% as a diff", "file": "rewire-0.1%", "prior": "prior-1%"}
+CHANGES = {"diff": "rewire-0.1% as a diff", "file": "rewire-0.1%", "prior": "prior-1%",
+           "grow": "edges-1%+nodes-1%"}
 
 
 def main(argv=None) -> int:
@@ -81,6 +82,11 @@ def main(argv=None) -> int:
         given = {"add_b": work / "added.tsv", "remove_b": work / "removed.tsv"}
         added.to_csv(given["add_b"], sep="\t", index=False)
         removed.to_csv(given["remove_b"], sep="\t", index=False)
+    elif args.change == "grow":  # three whole new files
+        given = {}
+        for key in ("network_a", "network_b", "prior"):
+            changed[key].to_csv(work / f"changed_{key}.tsv", sep="\t", index=False)
+            given[key] = work / f"changed_{key}.tsv"
     else:
         key = "network_b" if args.change == "file" else "prior"
         changed[key].to_csv(work / "changed.tsv", sep="\t", index=False)
