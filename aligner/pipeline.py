@@ -882,6 +882,10 @@ class AlignmentResult:
         kept = prod is not None and prod.weights is None
         arrays["product_degree"] = prod.degree if kept else np.empty(0, dtype=np.int64)
         arrays["product_indices"] = prod.indices if kept else np.empty(0, dtype=np.int32)
+        rows = None if inputs.prior is None else inputs.prior.rows
+        if rows is not None:  # a prior no file holds (an update edited it): its rows, for the next update
+            arrays |= {"prior_a": rows.a, "prior_b": rows.b, "prior_values": rows.values,
+                       "prior_extra_a": rows.extra_a, "prior_extra_b": rows.extra_b}
         sources = {"network_a": p.network_a.source, "network_b": p.network_b.source,
                    "prior": None if inputs.prior is None else inputs.prior.source,
                    "seeds": None if inputs.seeds is None else inputs.seeds.source,

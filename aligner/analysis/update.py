@@ -29,6 +29,7 @@ import pyarrow as pa
 from aligner.config import AlignConfig, from_options
 from aligner.core.arrays import unique
 from aligner.core.identifiers import lookup
+from aligner.core.prior import PriorRows
 from aligner.errors import InputFormatError, InvalidParameterError
 from aligner.io.readers import NoRows
 from aligner.io.state import STATE_FILE, file_digest, read_state
@@ -278,19 +279,33 @@ def _kept_inputs(state, given: dict, files: dict, cfg: AlignConfig, same_names: 
             same_names[side] = len(nets[side].names) == len(old) and np.array_equal(nets[side].names.astype(str), old)
     record = meta.get("prior_table")
     same_nodes = same_names["a"] and same_names["b"]
+    rows = _state_prior_rows(state)
     if (given.get("prior") is None and record is not None and files["seeds"] is None and not cfg.structural
             and same_nodes):
         table = PriorTable(pairs=state.pairs, scores=state.prior.astype(np.float64), n_rows=record["rows"],
                            n_unknown=record["unknown"], unknown_examples=list(record["unknown_examples"]),
                            n_dropped_kind=record["dropped_by_score_kind"], n_duplicates=record["duplicates"],
-                           source=files["prior"], released_pairs=record["pairs"])
+                           source=files["prior"], released_pairs=record["pairs"],
+                           rows=rows if isinstance(out["prior"], _Kept) else None)  # the same nodes: the same codes
         out["prior"] = prior_notes(table)
+    elif isinstance(out["prior"], _Kept) and rows is not None:  # the rows the state keeps, by name
+        out["prior"] = _PriorRows(*(_chunked(c) for c in rows.columns(state.names_a, state.names_b)), rows.values,
+                                  str(out["prior"]))
     elif isinstance(out["prior"], _Kept):
         raise InvalidParameterError(f"the previous run's prior ({out['prior']}) was not read from a file, and the "
                                     f"state keeps only its candidate pairs, which stand for it only while both "
                                     "networks keep their nodes and the run has no seeds; give the whole new prior",
                                     param="prior")
+    if isinstance(out["prior"], _PriorRows):  # by name until the networks are read: now they are
+        out["prior"] = out["prior"].table(nets["a"], nets["b"], cfg.score_kind)
     return out
+
+
+def _state_prior_rows(state) -> PriorRows | None:
+    """The prior's rows a state keeps (a prior no file holds: one an update edited), or None."""
+    if "prior_a" not in state.arrays:
+        return None
+    return PriorRows(state.prior_a, state.prior_b, state.prior_values, state.prior_extra_a, state.prior_extra_b)
 
 
 @dataclasses.dataclass(frozen=True)
@@ -307,8 +322,9 @@ class _PriorRows:
         from aligner.core.prior import prior_from_columns
         from aligner.io.inputs import prior_notes
 
+        # no file holds these rows: the table keeps them, for the run's state
         return prior_notes(prior_from_columns(self.a, self.b, self.values, net_a, net_b, kind=kind,
-                                              source=self.source))
+                                              source=self.source, keep_rows=True))
 
 
 def _chunked(column) -> pa.ChunkedArray:
@@ -322,9 +338,11 @@ def _chunked(column) -> pa.ChunkedArray:
 
 def _with_prior_diff(state, add, remove, cfg: AlignConfig) -> _PriorRows:
     """The previous run's prior table with the pairs of ``remove`` (node_a, node_b) taken out and
-    the rows of ``add`` (node_a, node_b, score: a pair the prior has gets the new score, any
-    repeat of it included; another is added), as rows by name. The previous table is its file,
-    which must be unchanged (the state keeps the candidates, not every prior row).
+    the rows of ``add`` (node_a, node_b, score: every row of a pair the prior has takes the new
+    score, in its place, the last of the diff's rows for the pair when it repeats one; another
+    row is added at the end), as rows by name: the table of the file edited so. The previous
+    table is its file, which must be unchanged, or, for a prior an earlier update edited, the
+    rows the state keeps.
 
     Pairs are compared by name (dictionary-encoded, no Python string per row) among the rows of
     the nodes of A the diff names, found by one hash probe over the previous table's first
@@ -343,7 +361,8 @@ def _with_prior_diff(state, add, remove, cfg: AlignConfig) -> _PriorRows:
     if rec is None:
         raise InvalidParameterError("the previous run had no prior to change; give a whole prior", param="add_prior")
     source = _inputs(state, {"prior": None}, names=("prior",))["prior"]
-    if isinstance(source, _Kept):
+    kept_rows = _state_prior_rows(state) if isinstance(source, _Kept) else None
+    if isinstance(source, _Kept) and kept_rows is None:
         raise InvalidParameterError(f"prior diffs apply to a previous prior read from a file; the previous run's "
                                     f"prior ({source}) was not (the state keeps only its candidate pairs): give "
                                     "the whole new prior", param="add_prior")
@@ -368,8 +387,13 @@ def _with_prior_diff(state, add, remove, cfg: AlignConfig) -> _PriorRows:
         except NoRows:  # an empty diff (a feed's quiet day): nothing to add or remove
             return None
 
-    named = f"<prior: {source} with the diff applied>"
-    old_a, old_b, old_v = rows(source, 3, "prior table")
+    if kept_rows is None:  # the previous prior's file
+        named = f"<prior: {source} with the diff applied>"
+        old_a, old_b, old_v = rows(source, 3, "prior table")
+    else:  # a prior an earlier update edited: its rows, kept in the state
+        named = str(source)
+        old_a, old_b = (_chunked(c) for c in kept_rows.columns(state.names_a, state.names_b))
+        old_v = kept_rows.values
     gone = diff_rows(remove, 2, "prior pairs to remove")
     new = diff_rows(add, 3, "prior rows to add")
     diff = [p for p in (gone, new) if p is not None]
@@ -390,25 +414,44 @@ def _with_prior_diff(state, add, remove, cfg: AlignConfig) -> _PriorRows:
         keys.append(ca * n_b + cb)
         at += len(a)
     near_keys = keys[0]
+    none = np.empty(0, dtype=np.int64)
+    gone_keys = keys[1] if gone is not None else none
+    new_keys = keys[-1] if new is not None else none
     if gone is not None:
-        have = np.isin(keys[1], near_keys)
+        have = np.isin(gone_keys, near_keys)
         if not have.all():
             r = int(np.argmax(~have))
             u, v = gone[0][r].as_py(), gone[1][r].as_py()
             raise InputFormatError(f"the diff asks the previous run's prior to remove a pair it does not "
                                    f"have: {u} / {v}; the diff does not fit that run", path=str(remove))
-    drop = near[np.isin(near_keys, np.concatenate(keys[1:]))]
+    # the edited file: the removed pairs' rows out; every row of a pair the diff rescores takes
+    # its score (the last of the diff's rows for it) in its place; other rows of the diff added
     keep = np.ones(len(old_v), dtype=bool)
-    keep[drop] = False
+    keep[near[np.isin(near_keys, gone_keys)]] = False
+    values, appended = old_v, None
+    if new is not None:
+        live = keep[near]
+        rescores = np.isin(new_keys, near_keys[live])
+        if rescores.any():
+            flipped = new_keys[::-1]
+            uk, first = np.unique(flipped, return_index=True)
+            last = len(new_keys) - 1 - first  # each pair's last row in the diff
+            rows_at, rows_key = near[live], near_keys[live]
+            pos = np.minimum(np.searchsorted(uk, rows_key), len(uk) - 1)
+            hit = uk[pos] == rows_key
+            values = old_v.copy()
+            values[rows_at[hit]] = new[2][last[pos[hit]]]
+        appended = np.flatnonzero(~rescores)
     cols = [old_a, old_b]
-    values = old_v
     if not keep.all():
         mask = pa.array(keep)
         cols = [old_a.filter(mask), old_b.filter(mask)]
-        values = old_v[keep]
-    if new is not None:
-        cols = [pa.chunked_array(c.chunks + n.cast(c.type).chunks, type=c.type) for c, n in zip(cols, new[:2])]
-        values = np.concatenate([values, new[2]])
+        values = values[keep]
+    if appended is not None and len(appended):
+        at = pa.array(appended)
+        cols = [pa.chunked_array(c.chunks + n.take(at).cast(c.type).chunks, type=c.type)
+                for c, n in zip(cols, new[:2])]
+        values = np.concatenate([values, new[2][appended]])
     return _PriorRows(cols[0], cols[1], values, named)
 
 
@@ -815,8 +858,6 @@ def update(previous, network_a=None, network_b=None, prior=None, *, seeds=None, 
             given["prior"] = _with_prior_diff(state, add_prior, remove_prior, cfg)
         files = _inputs(state, given)
         inputs = _kept_inputs(state, given, files, cfg, same_names)
-        if isinstance(inputs["prior"], _PriorRows):  # a prior diff: by name until the networks are read
-            inputs["prior"] = inputs["prior"].table(inputs["network_a"], inputs["network_b"], cfg.score_kind)
     problem = prepare(inputs["network_a"], inputs["network_b"], inputs["prior"], seeds=files["seeds"],
                       truth=files["truth"], config=cfg, clock=clock, with_product=False)
     t1 = time.perf_counter()

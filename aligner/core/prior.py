@@ -14,12 +14,14 @@ from dataclasses import dataclass, field
 from typing import Callable
 
 import numpy as np
+import pyarrow as pa
 
 from aligner.core.network import Network, unique_sorted
 from aligner.errors import InputFormatError
-from aligner.core.identifiers import lookup, text_at
+from aligner.core.identifiers import as_arrow_strings, lookup, text_at
 
-__all__ = ["EVALUE_CAP", "SCORE_KINDS", "PriorTable", "check_scores", "transform_scores", "prior_from_columns"]
+__all__ = ["EVALUE_CAP", "SCORE_KINDS", "PriorRows", "PriorTable", "check_scores", "transform_scores",
+           "prior_from_columns"]
 
 #: -log10 of an E-value of exactly 0 is taken as this value, and so is any larger -log10 (the
 #: smallest normal double is about 1e-308; the subnormal ones below it, down to 5e-324, are capped).
@@ -31,6 +33,49 @@ SCORE_KINDS = ("similarity", "evalue", "distance")
 _NEED = {"similarity": "similarities must be >= 0 (use --score-kind distance, score_kind='distance' in "
                         "Python, for dissimilarities)",
          "distance": "distances must be >= 0", "evalue": "E-values must be >= 0"}
+
+
+@dataclass(frozen=True, eq=False)
+class PriorRows:
+    """A prior's rows, in order, by node: what the table was read from, kept where no file holds it
+    (a prior an update edited by a diff) so that a later update can read it again.
+
+    ``a[r]`` is row r's node of A, as its index among the network's names, or ``n1 + j`` for the
+    j-th name of ``extra_a`` (a name A does not have); ``b`` and ``extra_b`` the same for B;
+    ``values`` the scores as given (before the score kind's transformation).
+    """
+
+    a: np.ndarray
+    b: np.ndarray
+    values: np.ndarray
+    extra_a: np.ndarray
+    extra_b: np.ndarray
+
+    @classmethod
+    def encode(cls, a, b, values, ia: np.ndarray, ib: np.ndarray, n1: int, n2: int) -> "PriorRows":
+        """The rows with identifier columns ``a``, ``b`` whose look-ups among the networks' names
+        (-1 where absent) are ``ia``, ``ib``."""
+        def codes(col, idx, n):
+            idx = idx.astype(np.int32)
+            miss = np.flatnonzero(idx < 0)
+            if not len(miss):
+                return idx, np.empty(0, dtype=str)
+            named = as_arrow_strings(col).take(miss).to_numpy(zero_copy_only=False).astype(str)
+            extra, inv = np.unique(named, return_inverse=True)
+            idx[miss] = n + inv
+            return idx, extra
+
+        (ca, xa), (cb, xb) = codes(a, ia, n1), codes(b, ib, n2)
+        return cls(ca, cb, np.asarray(values, dtype=np.float64), xa, xb)
+
+    def columns(self, names_a: np.ndarray, names_b: np.ndarray) -> tuple:
+        """The two identifier columns, as pyarrow string arrays, given the networks' names."""
+        out = []
+        for names, extra, idx in ((names_a, self.extra_a, self.a), (names_b, self.extra_b, self.b)):
+            every = pa.concat_arrays([as_arrow_strings(np.asarray(names).astype(str)),
+                                      as_arrow_strings(np.asarray(extra).astype(str))])
+            out.append(every.take(pa.array(idx, type=pa.int32())))
+        return tuple(out)
 
 
 @dataclass(frozen=True)
@@ -50,6 +95,7 @@ class PriorTable:
     n_duplicates: int = 0
     source: str = "<memory>"
     released_pairs: int = -1  # set by without_rows: how many pairs the table held
+    rows: PriorRows | None = None  # the rows it was read from, where no file keeps them (keep_rows)
 
     @property
     def n_pairs(self) -> int:
@@ -131,7 +177,7 @@ def transform_scores(values: np.ndarray, kind: str) -> tuple[np.ndarray, np.ndar
 def prior_from_columns(
     a, b, values: np.ndarray, net_a: Network, net_b: Network, *,
     kind: str = "similarity", source: str = "<memory>", line_of: Callable[[int], int | None] | None = None,
-    origin: Callable[[int], tuple[str, int | None]] | None = None,
+    origin: Callable[[int], tuple[str, int | None]] | None = None, keep_rows: bool = False,
 ) -> PriorTable:
     """Map a prior given as three columns onto the node indices of two networks.
 
@@ -150,6 +196,9 @@ def prior_from_columns(
     origin : callable, optional
         ``origin(row)`` gives the file and line of data row ``row``, for messages (in place of
         ``source`` and ``line_of``: a table read from several files).
+    keep_rows : bool
+        Keep the rows in the table (``PriorTable.rows``), for a run state to hold a prior that no
+        file does.
 
     Returns
     -------
@@ -161,6 +210,7 @@ def prior_from_columns(
     scores, keep = transform_scores(values, kind)
     ia = lookup(net_a.names, a)
     ib = lookup(net_b.names, b)
+    rows = PriorRows.encode(a, b, values, ia, ib, net_a.n, net_b.n) if keep_rows else None
     known = (ia >= 0) & (ib >= 0)
     n_unknown = len(known) - int(np.count_nonzero(known))
     examples = [f"{text_at(a, r)} / {text_at(b, r)}" for r in np.flatnonzero(~known)[:3]] if n_unknown else []
@@ -173,4 +223,4 @@ def prior_from_columns(
     # duplicate pairs: the highest similarity wins
     pairs, sc, n_dup = unique_sorted(ia, ib, scores, largest=True)
     return PriorTable(pairs=pairs, scores=sc, n_rows=len(values), n_unknown=n_unknown, unknown_examples=examples,
-                      n_dropped_kind=n_dropped, n_duplicates=n_dup, source=source)
+                      n_dropped_kind=n_dropped, n_duplicates=n_dup, source=source, rows=rows)

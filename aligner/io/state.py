@@ -26,6 +26,21 @@ Arrays (node indices are those of the run's own numbering, names given beside th
 ``product_``   int32 (s)    the product graph's neighbour lists, one row after the other
 ``indices``                 (empty for a weighted run)
 =============  ===========  ===================================================================
+
+Optional arrays, present when the run's prior was not read from a file an update can read again
+(an update that applied a prior diff, and the updates after it): the prior's rows, in order, as
+reading the edited file would give them, so that a later update needs no file for them.
+
+=================  ==========  ================================================================
+``prior_a``        int32 (r)   each row's node of A: its index in ``names_a``, or ``n1 + j`` for
+                               the j-th name of ``prior_extra_a`` (a name A does not have)
+``prior_b``        int32 (r)   the same for B
+``prior_values``   float64 (r) the rows' scores as given (before the score-kind transformation)
+``prior_extra_a``  str         names the rows give that A does not have
+``prior_extra_b``  str         the same for B
+=================  ==========  ================================================================
+
+Version 3 files (without the optional arrays) are read as well.
 """
 
 from __future__ import annotations
@@ -44,10 +59,14 @@ from aligner.errors import InputFormatError
 __all__ = ["STATE_FILE", "STATE_VERSION", "RunState", "write_state", "read_state", "file_digest"]
 
 STATE_FILE = "state.npz"
-STATE_VERSION = 3
+STATE_VERSION = 4
+#: versions this one reads (3 lacks the optional arrays)
+READS = (3, 4)
 _FORMAT = "aligner run state"
 ARRAYS = ("names_a", "names_b", "edges_a", "edges_b", "pairs", "prior", "x", "matched", "product_degree",
           "product_indices")
+#: arrays a state holds or not (all or none): the prior's rows
+OPTIONAL = ("prior_a", "prior_b", "prior_values", "prior_extra_a", "prior_extra_b")
 
 
 @dataclass(frozen=True, eq=False)
@@ -102,12 +121,13 @@ def file_digest(path) -> str | None:
 
 
 _DTYPES = {"edges_a": np.int32, "edges_b": np.int32, "pairs": np.int32, "prior": np.float64, "x": np.float32,
-           "matched": np.int64, "product_indices": np.int32}
+           "matched": np.int64, "product_indices": np.int32, "prior_a": np.int32, "prior_b": np.int32,
+           "prior_values": np.float64}
 
 
 def _stored(name: str, value) -> np.ndarray:
     """An array as the state stores it."""
-    if name in ("names_a", "names_b"):
+    if name in ("names_a", "names_b", "prior_extra_a", "prior_extra_b"):
         return np.asarray(value).astype(str)
     if name == "product_degree":  # the smallest type for the longest row (16 bits on the benchmark's pairs)
         value = np.asarray(value)
@@ -124,10 +144,15 @@ def _digest_update(h, name: str, a: np.ndarray) -> None:
     h.update(np.ascontiguousarray(a))  # hashed in place: a copy of 10^8 bytes costs as much as the hash
 
 
+def _names(arrays: dict) -> tuple[str, ...]:
+    """The arrays a state holds, in the order they are written and hashed."""
+    return ARRAYS + (OPTIONAL if OPTIONAL[0] in arrays else ())
+
+
 def _checksum(arrays: dict, meta: dict) -> str:
     h = hashlib.sha256()
     h.update(json.dumps({k: v for k, v in meta.items() if k != "checksum"}, sort_keys=True).encode())
-    for name in ARRAYS:
+    for name in _names(arrays):
         _digest_update(h, name, arrays[name])
     return h.hexdigest()
 
@@ -140,7 +165,7 @@ def write_state(fh, arrays: dict, meta: dict) -> None:
     h = hashlib.sha256()
     h.update(json.dumps(meta, sort_keys=True).encode())
     with zipfile.ZipFile(fh, mode="w", compression=zipfile.ZIP_STORED, allowZip64=True) as z:
-        for name in ARRAYS:
+        for name in _names(arrays):
             a = _stored(name, arrays[name])
             _digest_update(h, name, a)
             with z.open(name + ".npy", "w", force_zip64=True) as member:
@@ -169,15 +194,17 @@ def read_state(path) -> RunState:
     try:
         with np.load(path, allow_pickle=False) as z:
             meta = json.loads(str(z["meta"]))
-            arrays = {name: z[name] for name in ARRAYS}
+            held = ARRAYS + (OPTIONAL if OPTIONAL[0] in z.files else ())
+            arrays = {name: z[name] for name in held}
     except (OSError, ValueError, KeyError, json.JSONDecodeError, EOFError, zipfile.BadZipFile) as exc:
         raise InputFormatError(f"{path.name} is not a readable run state ({type(exc).__name__}: {exc})",
                                path=str(path)) from None
     if meta.get("format") != _FORMAT:
         raise InputFormatError(f"{path.name} is not a run state of aligner", path=str(path))
-    if meta.get("version") != STATE_VERSION:
+    if meta.get("version") not in READS:
         raise InputFormatError(f"{path.name} has state format version {meta.get('version')}; this version reads "
-                               f"version {STATE_VERSION}: align again to get a current one", path=str(path))
+                               f"versions {READS[0]} to {READS[-1]}: align again to get a current one",
+                               path=str(path))
     if meta.get("checksum") != _checksum(arrays, meta):
         raise InputFormatError(f"{path.name} does not match its checksum: it was changed or damaged after the run "
                                "wrote it; align again", path=str(path))
