@@ -14,7 +14,9 @@ memory the system has not handed out yet, which would otherwise fall on whicheve
   and a prior row;
 - ``prior-1%``: the prior rows of 1 % of the nodes of A rescored (times 0.5 to 1.5);
 - the last two again, given as diffs (``--add-a``, ``--add-b``, ``--remove-b``, ``--add-prior``:
-  the new edges and rows only), as a feed of daily changes would come.
+  the new edges and rows only), as a feed of daily changes would come;
+- ``prior-1% as a diff, the next day``: the rows of 1 % more nodes rescored, as a diff to the
+  update of the case before (whose prior no file holds: its state keeps the rows).
 
 Recorded per change: seconds of the update and of the full run and their ratio, the update's
 stage seconds, how it refined (``update.refine`` of the summary: the local search continued
@@ -76,6 +78,14 @@ def changes(a: pd.DataFrame, b: pd.DataFrame, prior: pd.DataFrame, rng):
     yield "edges-1%+nodes-1% as diffs", {"network_a": a2, "network_b": b2, "prior": p2,
                                           "diff": {"add_a": a2.iloc[len(a):], "add_prior": p2.iloc[len(prior):]}}
     yield "prior-1% as a diff", {"prior": p3, "diff": {"add_prior": p3.iloc[rows]}}
+    # the next day's feed: 1 % more nodes' rows rescored, updating the update above, whose prior no
+    # file holds (its state keeps the rows)
+    p4 = p3.copy()
+    asked = rng.choice(nodes_a, k, replace=False)
+    rows = np.flatnonzero(p4.iloc[:, 0].isin(asked).to_numpy())
+    p4.iloc[rows, 2] = p4.iloc[rows, 2] * rng.uniform(0.5, 1.5, len(rows))
+    yield "prior-1% as a diff, the next day", {"prior": p4, "diff": {"add_prior": p4.iloc[rows]},
+                                                "after": "prior-1% as a diff"}
 
 
 def run(n: int, seed: int, repeats: int = 2) -> list[dict]:
@@ -97,8 +107,11 @@ def run(n: int, seed: int, repeats: int = 2) -> list[dict]:
     update(work / "run")  # untimed: the first update of a process also loads its kernels and memory
     rows = []
     rng = np.random.default_rng(seed)
-    for name, changed in changes(a, b, prior, rng):
+    cases = list(changes(a, b, prior, rng))
+    wanted = {changed.get("after") for _, changed in cases}  # updates a later case starts from
+    for name, changed in cases:
         diff = changed.pop("diff", False)
+        base = work / "run" if changed.get("after") is None else work / f"after-{changed.pop('after')}"
         new = dict(files)
         for key, frame in changed.items():
             new[key] = work / f"{name}-{key}.tsv"
@@ -115,11 +128,13 @@ def run(n: int, seed: int, repeats: int = 2) -> list[dict]:
         upd_s = ref_s = np.inf
         for _ in range(repeats):  # alternately, best of each: the first of any run in a process
             t0 = time.perf_counter()  # pays for memory the system has not handed out yet
-            upd = update(work / "run", **given)
+            upd = update(base, **given)
             upd_s = min(upd_s, time.perf_counter() - t0)
             t0 = time.perf_counter()
             ref = aligner.align(new["network_a"], new["network_b"], new["prior"])
             ref_s = min(ref_s, time.perf_counter() - t0)
+        if name in wanted:
+            write_outputs(work / f"after-{name}", upd)
         same = set(map(tuple, _named(upd))) == set(map(tuple, _named(ref)))
         gap = float(np.max(np.abs(upd.diffusion.x - ref.diffusion.x))) if upd.candidates.m == ref.candidates.m else None
         u = upd.summary["update"]
