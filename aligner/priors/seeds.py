@@ -367,13 +367,41 @@ def _final_candidates(net_a: Network, net_b: Network, mate_a: np.ndarray, mate_b
                              np.arange(n2, dtype=np.int64), k_final, deg_b, deg_a, False)
     prov_a = np.flatnonzero(mate_a >= 0)
     prov = np.stack([prov_a, mate_a[prov_a]], axis=1)
+    prov_score = _witness_scores(net_a, net_b, mate_a, prov)
     pairs = np.concatenate([p, q[:, ::-1], prov])
-    score = np.concatenate([c + 0.5 * d, cq + 0.5 * dq, np.zeros(len(prov))])  # merging keeps a pair's best score
+    score = np.concatenate([c + 0.5 * d, cq + 0.5 * dq, prov_score])  # merging keeps a pair's best score
     cand = build_candidates(pairs, score, n1, n2, top_k=top_k)
     missing = ~np.isin(_keys(prov, n2), _keys(cand.pairs, n2))
-    if missing.any():  # a provisional pair cut by the top-k of its B node: keep it
+    if missing.any():  # a provisional pair cut by the top-k of both its nodes: keep it, with its own score
         cand = add_seed_pairs(cand, SeedTable(prov[missing].astype(np.int32), int(missing.sum())))
+        prior = cand.prior.copy()
+        prior[np.searchsorted(_keys(cand.pairs, n2), _keys(prov[missing], n2))] = prov_score[missing]
+        cand = CandidateSet(pairs=cand.pairs, prior=prior, a_indptr=cand.a_indptr, n1=n1, n2=n2)
     return add_seed_pairs(cand, seeds), prov
+
+
+def _witness_scores(net_a: Network, net_b: Network, mate_a: np.ndarray, pairs: np.ndarray) -> np.ndarray:
+    """Witness count + 0.5 degree similarity of each pair (j, j') against the anchors ``mate_a``
+    (0 for a pair without witnesses), as :func:`witness_rows` scores the pairs it ranks."""
+    if len(pairs) == 0:
+        return np.zeros(0)
+    j, jp = pairs[:, 0].astype(np.int64), pairs[:, 1].astype(np.int64)
+    deg_a, deg_b = np.diff(net_a.indptr), np.diff(net_b.indptr)
+    row = np.repeat(np.arange(len(pairs)), deg_a[j])  # one entry per neighbour a of j
+    starts = np.repeat(net_a.indptr[j] - np.cumsum(np.r_[0, deg_a[j][:-1]]), deg_a[j])
+    a = net_a.indices[starts + np.arange(len(row))]
+    ap = mate_a[a]
+    row, ap = row[ap >= 0], ap[ap >= 0]
+    # is the anchor's partner a' a neighbour of j'? (the rows of B's adjacency are sorted)
+    b_keys = np.repeat(np.arange(net_b.n, dtype=np.int64), deg_b) * max(net_b.n, 1) + net_b.indices
+    want = jp[row] * max(net_b.n, 1) + ap
+    pos = np.minimum(np.searchsorted(b_keys, want), max(len(b_keys) - 1, 0))
+    hit = b_keys[pos] == want if len(b_keys) else np.zeros(len(want), dtype=bool)
+    count = np.bincount(row[hit], minlength=len(pairs)).astype(np.float64)
+    da, db = deg_a[j].astype(np.float64), deg_b[jp].astype(np.float64)
+    hi = np.maximum(da, db)
+    sim = np.divide(np.minimum(da, db), hi, out=np.ones(len(pairs)), where=hi > 0)
+    return np.where(count > 0, count + 0.5 * sim, 0.0)
 
 
 # --------------------------------------------------------------------------- rounding and scores

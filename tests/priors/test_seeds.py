@@ -305,3 +305,28 @@ def test_scores_without_seed_edges_give_the_weights_of_a_weighted_run():
     assert free["conserved_weight"] == pytest.approx(2.0) and free["weighted_ec"] == pytest.approx(1.0)
     unweighted = aligner.align(ea.iloc[:, :2], eb.iloc[:, :2], prior, seeds=seeds)
     assert "conserved_weight" not in unweighted.summary["seeds"]["scores_without_seed_edges"]
+
+
+def test_a_provisional_pair_outside_the_top_k_keeps_its_witness_score():
+    # docs/formats.md: for candidates grown from seeds the prior is the witness count + 0.5 x degree
+    # similarity (0 only for a seed pair the growth did not score). A provisional pair outside the
+    # top-k of both its nodes was added back with prior 0, so the growth's own matches got no mass in
+    # h (noticed by differential testing: 62 of 89 generated seed-only runs had one). Reference: the
+    # witness count recounted with networkx against the provisional matching.
+    ga = nx.Graph([(0, 8), (0, 2), (0, 3), (0, 4), (1, 5), (1, 3), (1, 2), (2, 6), (2, 7), (2, 3), (3, 7), (3, 8),
+                   (3, 6), (4, 5), (4, 6), (6, 8)])
+    gb = ga.copy()
+    gb.remove_edge(3, 7)
+    ea = pd.DataFrame([(f"a{u}", f"a{v}") for u, v in ga.edges])
+    eb = pd.DataFrame([(f"b{u}", f"b{v}") for u, v in gb.edges])
+    problem = aligner.prepare(ea, eb, None, seeds=[("a0", "b0"), ("a1", "b1")], top_k=1, with_product=False)
+    cand = problem.candidates
+    prior = {tuple(p): v for p, v in zip(cand.pairs.tolist(), cand.prior.tolist())}
+    prov = [tuple(p) for p in problem.origin.expansion.provisional.tolist()]
+    mate = dict(prov)
+    assert (6, 6) in prov  # a6 - b6, outside the top-1 of a6 and of b6
+    for j, jp in prov:
+        count = sum(1 for a in ga[j] if a in mate and gb.has_edge(jp, mate[a]))
+        d, dp = ga.degree(j), gb.degree(jp)
+        want = count + 0.5 * min(d, dp) / max(d, dp) if count else 0.0
+        assert prior[(j, jp)] == pytest.approx(want, rel=1e-12), (j, jp)
