@@ -12,6 +12,8 @@ from aligner.kernels.options import OUTER
 #: the tail's norm is kept below this share of tau: a longer tail skips more postings, a shorter
 #: one leaves fewer touched columns whose bound ``head + norm of tail`` reaches tau
 TAIL_SHARE = 0.5
+#: scores are ranked as round(score * TIE_GRID): closer than 1e-12 counts as a tie, broken by column
+TIE_GRID = 1e12
 
 
 @numba.njit(cache=True, nogil=True, **OUTER)
@@ -74,8 +76,8 @@ def _top_k_chunk(a_indptr, a_indices, a_data, b_indptr, b_indices, b_data, b_cum
     column j's part in the tail n-grams`` (``b_cum2``: running sums of squares along the rows of
     B) is below tau.
 
-    So the common n-grams, which touch most columns, are skipped. Ties are broken by the
-    smaller column. Row i's columns go to ``out_cols[(i - base) * k:]``, best first; unused
+    So the common n-grams, which touch most columns, are skipped. Ties (scores within 1e-12,
+    :data:`TIE_GRID`) are broken by the smaller column. Row i's columns go to ``out_cols[(i - base) * k:]``, best first; unused
     slots are left as they are (-1).
     """
     nb = b_indptr.shape[0] - 1
@@ -158,7 +160,10 @@ def _top_k_chunk(a_indptr, a_indices, a_data, b_indptr, b_indices, b_data, b_cum
             o1 = np.argsort(cj)
             cj = cj[o1]
             cv = cv[o1]
-            o2 = np.argsort(-cv, kind="mergesort")  # stable: equal scores stay in column order
+            # stable: equal scores stay in column order. Scores are ranked on a grid of 1e-12 (TIE_GRID):
+            # equal cosines summed in floating point differ in their last bits ("muller" and "muller
+            # muller" have the same unit vector), and the tie must go to the smaller column, not to rounding
+            o2 = np.argsort(-np.floor(cv * TIE_GRID + 0.5), kind="mergesort")
             cj = cj[o2[:k]]
         for t in range(cj.shape[0]):
             out_cols[(i - base) * k + t] = cj[t]

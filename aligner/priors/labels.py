@@ -41,8 +41,8 @@ takes each row x_a of A in turn:
    dense accumulator of length n_B (row-by-row sparse product); a touched column gets the
    tail's share by merging the two sorted rows, unless a Cauchy-Schwarz bound shows that it
    cannot reach tau;
-3. the columns at or above tau are sorted by score, then column, and the best ``top_k``
-   kept.
+3. the columns at or above tau are sorted by score (on a grid of 1e-12, so that scores equal
+   but for rounding tie), then column, and the best ``top_k`` kept.
 
 The same is then done for the rows of B against A, and the two sets are united. Ties are
 broken by node order (the identifiers sorted as strings), so the output does not depend on
