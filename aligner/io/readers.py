@@ -833,9 +833,12 @@ def _read_arrow(path: str, sep: str | None, ncols: int, skip: int, use: list[int
                 return None  # a quote or an empty field
             if pa.types.is_floating(col.type) or pa.types.is_integer(col.type):
                 values = col.to_numpy(zero_copy_only=False).astype(np.float64, copy=False)
-            # a column that is not all finite numbers stays as text for the careful checks
-            cols.append(values if values is not None and np.isfinite(values).all()
-                        else col.cast(pa.string()).to_numpy(zero_copy_only=False))
+                if not np.isfinite(values).all():
+                    # NaN, an infinity or an overflow ('1e400'): the careful reader keeps the file's
+                    # text for the message, where this column would give pyarrow's 'inf' or 'nan'
+                    return None
+            # a column that is not all numbers stays as text for the careful checks
+            cols.append(values if values is not None else col.cast(pa.string()).to_numpy(zero_copy_only=False))
     return cols
 
 

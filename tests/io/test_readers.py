@@ -322,3 +322,24 @@ def test_a_quote_left_open_in_a_white_space_delimited_file_names_the_line(tmp_pa
     p = _w(tmp_path, "ws.txt", text)
     with pytest.raises(InputFormatError, match=rf"ws\.txt, line {line}: has a quote that is not closed on its line"):
         read_network(p)
+
+
+@pytest.mark.parametrize("text", ["1e400", "NaN", "Infinity", "-1e999", "inf"])
+def test_a_non_finite_number_is_quoted_as_the_file_has_it_on_both_paths(tmp_path, monkeypatch, text):
+    # Found by fuzzing the input layer: the fast reader parsed a score of 1e400 to an infinity and the
+    # message quoted 'inf', a value the file does not hold ('nan' for NaN, 'inf' for Infinity); the
+    # careful reader quoted '1e400'. docs/errors.md: the message says what is wrong and where, so it
+    # quotes the field as written, on both paths alike (for a score and an edge weight).
+    a = read_network(_w(tmp_path, "a.tsv", "a1\ta2\na2\ta3\n"))
+    prior = _w(tmp_path, "p.tsv", f"a1\ta2\t1\na2\ta3\t{text}\n")
+    weights = _w(tmp_path, "w.tsv", f"a1\ta2\t1\na2\ta3\t{text}\n")
+
+    def message(read):
+        with pytest.raises(InputFormatError) as err:
+            read()
+        return str(err.value)
+
+    for read, label in ((lambda: read_prior(prior, a, a), "score"), (lambda: read_network(weights), "edge weight")):
+        fast, careful = _both_paths(monkeypatch, lambda: message(read))
+        assert fast == careful
+        assert f"line 2: the {label} '{text}' is not a finite number" in fast
