@@ -288,9 +288,8 @@ def _kept_inputs(state, given: dict, files: dict, cfg: AlignConfig, same_names: 
                            source=files["prior"], released_pairs=record["pairs"],
                            rows=rows if isinstance(out["prior"], _Kept) else None)  # the same nodes: the same codes
         out["prior"] = prior_notes(table)
-    elif isinstance(out["prior"], _Kept) and rows is not None:  # the rows the state keeps, by name
-        out["prior"] = _PriorRows(*(_chunked(c) for c in rows.columns(state.names_a, state.names_b)), rows.values,
-                                  str(out["prior"]))
+    elif isinstance(out["prior"], _Kept) and rows is not None:  # the rows the state keeps
+        out["prior"] = _KeptPrior(rows, None, None, str(out["prior"]))
     elif isinstance(out["prior"], _Kept):
         raise InvalidParameterError(f"the previous run's prior ({out['prior']}) was not read from a file, and the "
                                     f"state keeps only its candidate pairs, which stand for it only while both "
@@ -298,6 +297,8 @@ def _kept_inputs(state, given: dict, files: dict, cfg: AlignConfig, same_names: 
                                     param="prior")
     if isinstance(out["prior"], _PriorRows):  # by name until the networks are read: now they are
         out["prior"] = out["prior"].table(nets["a"], nets["b"], cfg.score_kind)
+    elif isinstance(out["prior"], _KeptPrior):
+        out["prior"] = _kept_prior_table(state, out["prior"], nets["a"], nets["b"], same_names, cfg.score_kind)
     return out
 
 
@@ -336,13 +337,14 @@ def _chunked(column) -> pa.ChunkedArray:
     return pa.chunked_array([as_arrow_strings(column)])
 
 
-def _with_prior_diff(state, add, remove, cfg: AlignConfig) -> _PriorRows:
+def _with_prior_diff(state, add, remove, cfg: AlignConfig) -> "_PriorRows | _KeptPrior":
     """The previous run's prior table with the pairs of ``remove`` (node_a, node_b) taken out and
     the rows of ``add`` (node_a, node_b, score: every row of a pair the prior has takes the new
     score, in its place, the last of the diff's rows for the pair when it repeats one; another
     row is added at the end), as rows by name: the table of the file edited so. The previous
     table is its file, which must be unchanged, or, for a prior an earlier update edited, the
-    rows the state keeps.
+    rows the state keeps (then the diff is returned as read, to be applied to those rows by node
+    once the networks are read: :class:`_KeptPrior`).
 
     Pairs are compared by name (dictionary-encoded, no Python string per row) among the rows of
     the nodes of A the diff names, found by one hash probe over the previous table's first
@@ -387,15 +389,12 @@ def _with_prior_diff(state, add, remove, cfg: AlignConfig) -> _PriorRows:
         except NoRows:  # an empty diff (a feed's quiet day): nothing to add or remove
             return None
 
-    if kept_rows is None:  # the previous prior's file
-        named = f"<prior: {source} with the diff applied>"
-        old_a, old_b, old_v = rows(source, 3, "prior table")
-    else:  # a prior an earlier update edited: its rows, kept in the state
-        named = str(source)
-        old_a, old_b = (_chunked(c) for c in kept_rows.columns(state.names_a, state.names_b))
-        old_v = kept_rows.values
     gone = diff_rows(remove, 2, "prior pairs to remove")
     new = diff_rows(add, 3, "prior rows to add")
+    if kept_rows is not None:  # a prior an earlier update edited: its rows, kept in the state by node
+        return _KeptPrior(kept_rows, gone, new, str(source), remove)
+    named = f"<prior: {source} with the diff applied>"
+    old_a, old_b, old_v = rows(source, 3, "prior table")
     diff = [p for p in (gone, new) if p is not None]
     if not diff:
         return _PriorRows(old_a, old_b, old_v, named)
@@ -413,28 +412,44 @@ def _with_prior_diff(state, add, remove, cfg: AlignConfig) -> _PriorRows:
         ca, cb = (codes[c].indices[at:at + len(a)].to_numpy(zero_copy_only=False).astype(np.int64) for c in (0, 1))
         keys.append(ca * n_b + cb)
         at += len(a)
-    near_keys = keys[0]
-    none = np.empty(0, dtype=np.int64)
-    gone_keys = keys[1] if gone is not None else none
-    new_keys = keys[-1] if new is not None else none
-    if gone is not None:
+    keep, values, appended = _edit_rows(old_v, near, keys[0], keys[1] if gone is not None else None,
+                                        keys[-1] if new is not None else None, new, gone, remove)
+    cols = [old_a, old_b]
+    if not keep.all():
+        mask = pa.array(keep)
+        cols = [old_a.filter(mask), old_b.filter(mask)]
+    if len(appended):
+        at = pa.array(appended)
+        cols = [pa.chunked_array(c.chunks + n.take(at).cast(c.type).chunks, type=c.type)
+                for c, n in zip(cols, new[:2])]
+        values = np.concatenate([values, new[2][appended]])
+    return _PriorRows(cols[0], cols[1], values, named)
+
+
+def _edit_rows(old_v: np.ndarray, near: np.ndarray, near_keys: np.ndarray, gone_keys, new_keys, new, gone, remove):
+    """A prior diff applied to a table's rows, each pair as one integer key: ``near`` are the rows
+    a diff can reach, with their keys; ``gone_keys`` the pairs to remove (None: none), ``new_keys``
+    the diff's rows (None: none; their values ``new[2]``). The removed pairs' rows go; every row of
+    a pair the diff rescores takes its score (the last of the diff's rows for it) in its place; the
+    diff's other rows come last. Returns the mask of rows kept, the kept rows' values and the
+    indices of the diff's rows appended. Raises InputFormatError naming the first pair to remove
+    that the table lacks (``gone``: its names, ``remove``: its file)."""
+    if gone_keys is not None:
         have = np.isin(gone_keys, near_keys)
         if not have.all():
             r = int(np.argmax(~have))
             u, v = gone[0][r].as_py(), gone[1][r].as_py()
             raise InputFormatError(f"the diff asks the previous run's prior to remove a pair it does not "
                                    f"have: {u} / {v}; the diff does not fit that run", path=str(remove))
-    # the edited file: the removed pairs' rows out; every row of a pair the diff rescores takes
-    # its score (the last of the diff's rows for it) in its place; other rows of the diff added
     keep = np.ones(len(old_v), dtype=bool)
-    keep[near[np.isin(near_keys, gone_keys)]] = False
-    values, appended = old_v, None
-    if new is not None:
+    if gone_keys is not None:
+        keep[near[np.isin(near_keys, gone_keys)]] = False
+    values, appended = old_v, np.empty(0, dtype=np.int64)
+    if new_keys is not None:
         live = keep[near]
         rescores = np.isin(new_keys, near_keys[live])
         if rescores.any():
-            flipped = new_keys[::-1]
-            uk, first = np.unique(flipped, return_index=True)
+            uk, first = np.unique(new_keys[::-1], return_index=True)
             last = len(new_keys) - 1 - first  # each pair's last row in the diff
             rows_at, rows_key = near[live], near_keys[live]
             pos = np.minimum(np.searchsorted(uk, rows_key), len(uk) - 1)
@@ -442,17 +457,115 @@ def _with_prior_diff(state, add, remove, cfg: AlignConfig) -> _PriorRows:
             values = old_v.copy()
             values[rows_at[hit]] = new[2][last[pos[hit]]]
         appended = np.flatnonzero(~rescores)
-    cols = [old_a, old_b]
-    if not keep.all():
-        mask = pa.array(keep)
-        cols = [old_a.filter(mask), old_b.filter(mask)]
-        values = values[keep]
-    if appended is not None and len(appended):
-        at = pa.array(appended)
-        cols = [pa.chunked_array(c.chunks + n.take(at).cast(c.type).chunks, type=c.type)
-                for c, n in zip(cols, new[:2])]
-        values = np.concatenate([values, new[2][appended]])
-    return _PriorRows(cols[0], cols[1], values, named)
+    return keep, values[keep] if not keep.all() else values, appended
+
+
+@dataclasses.dataclass(frozen=True)
+class _KeptPrior:
+    """A prior an earlier update edited, as the state keeps its rows (by node), and a diff to apply
+    to it (rows by name, as read: ``gone`` pairs to remove, ``new`` rows to add or rescore, each
+    None when not given): made into a table once the networks are read (:func:`_kept_prior_table`),
+    without turning the kept rows into names."""
+
+    rows: PriorRows
+    gone: tuple | None
+    new: tuple | None
+    source: str
+    remove: Any = None  # the file of ``gone``, for messages
+
+
+class _Names:
+    """One side's node names as a kept prior's codes number them: the previous run's names, then
+    the names the rows give that its network lacks, then names a diff brings."""
+
+    def __init__(self, names: np.ndarray, extra: np.ndarray):
+        self.names, self.n = names, len(names)
+        self.extra = np.asarray(extra).astype(object)
+
+    @property
+    def size(self) -> int:
+        return self.n + len(self.extra)
+
+    def codes(self, column) -> np.ndarray:
+        """The codes of a column of names (new names join the extra ones)."""
+        idx = lookup(self.names, column)
+        miss = np.flatnonzero(idx < 0)
+        if len(miss):
+            rest = _chunked(column).take(pa.array(miss))
+            at = lookup(self.extra, rest) if len(self.extra) else np.full(len(miss), -1, dtype=np.int64)
+            brand = at < 0
+            if brand.any():
+                fresh, inv = np.unique(rest.filter(pa.array(brand)).to_numpy(zero_copy_only=False).astype(str),
+                                       return_inverse=True)
+                at[brand] = len(self.extra) + inv
+                self.extra = np.concatenate([self.extra, fresh.astype(object)])
+            idx[miss] = self.n + at
+        return idx
+
+    def name(self, code: int) -> str:
+        return str(self.names[code] if code < self.n else self.extra[code - self.n])
+
+    def names_of(self, codes: np.ndarray) -> np.ndarray:
+        out = np.empty(len(codes), dtype=object)
+        low = codes < self.n
+        out[low] = self.names[codes[low]]
+        out[~low] = self.extra[codes[~low] - self.n]
+        return out.astype(str)
+
+    def onto(self, net, same: bool) -> np.ndarray:
+        """Each code's index among the nodes of ``net`` (-1: absent); ``same``: the network has the
+        previous run's names."""
+        base = np.arange(self.n, dtype=np.int64) if same else _renumber(self.names, net.names)
+        ext = lookup(net.names, self.extra) if len(self.extra) else np.empty(0, dtype=np.int64)
+        return np.concatenate([base, ext])
+
+
+def _kept_prior_table(state, kept: _KeptPrior, net_a, net_b, same_names: dict, kind: str):
+    """The prior table of kept rows with their diff applied, on the networks: the rows stay node
+    indices throughout (the diff's names are looked up, the rows' are not), so an update after one
+    that edited the prior costs no reading of its rows by name. The table keeps its rows for the
+    next state."""
+    from aligner.core.prior import prior_from_ids
+    from aligner.io.inputs import prior_notes
+
+    rows = kept.rows
+    side_a, side_b = _Names(state.names_a, rows.extra_a), _Names(state.names_b, rows.extra_b)
+    ca, cb, values = rows.a.astype(np.int64), rows.b.astype(np.int64), rows.values
+    diff = [d for d in (kept.gone, kept.new) if d is not None]
+    if diff:
+        coded = [(side_a.codes(d[0]), side_b.codes(d[1])) for d in diff]
+        n_b = side_b.size
+        asked = np.zeros(side_a.size, dtype=bool)
+        for da, _ in coded:
+            asked[da] = True
+        near = np.flatnonzero(asked[ca])
+        keys = [da * n_b + db for da, db in coded]
+        keep, values, appended = _edit_rows(values, near, ca[near] * n_b + cb[near],
+                                            keys[0] if kept.gone is not None else None,
+                                            keys[-1] if kept.new is not None else None, kept.new, kept.gone,
+                                            kept.remove)
+        if not keep.all():
+            ca, cb = ca[keep], cb[keep]
+        if len(appended):
+            ca = np.concatenate([ca, coded[-1][0][appended]])
+            cb = np.concatenate([cb, coded[-1][1][appended]])
+            values = np.concatenate([values, kept.new[2][appended]])
+    ia = side_a.onto(net_a, same_names.get("a", False))[ca]
+    ib = side_b.onto(net_b, same_names.get("b", False))[cb]
+
+    def recoded(idx, codes, side, n):  # the rows' nodes for the next state: unknown names last
+        out = idx.astype(np.int32)
+        miss = np.flatnonzero(idx < 0)
+        if not len(miss):
+            return out, np.empty(0, dtype=str)
+        gone_codes, inv = np.unique(codes[miss], return_inverse=True)
+        out[miss] = n + inv
+        return out, side.names_of(gone_codes)
+
+    (na, xa), (nb, xb) = recoded(ia, ca, side_a, net_a.n), recoded(ib, cb, side_b, net_b.n)
+    return prior_notes(prior_from_ids(ia, ib, values, kind=kind, source=kept.source,
+                                      rows=PriorRows(na, nb, values, xa, xb),
+                                      example=lambda r: f"{side_a.name(int(ca[r]))} / {side_b.name(int(cb[r]))}"))
 
 
 def _check_options(state, config: AlignConfig | None, options: dict,

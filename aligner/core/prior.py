@@ -14,14 +14,13 @@ from dataclasses import dataclass, field
 from typing import Callable
 
 import numpy as np
-import pyarrow as pa
 
 from aligner.core.network import Network, unique_sorted
 from aligner.errors import InputFormatError
 from aligner.core.identifiers import as_arrow_strings, lookup, text_at
 
 __all__ = ["EVALUE_CAP", "SCORE_KINDS", "PriorRows", "PriorTable", "check_scores", "transform_scores",
-           "prior_from_columns"]
+           "prior_from_columns", "prior_from_ids"]
 
 #: -log10 of an E-value of exactly 0 is taken as this value, and so is any larger -log10 (the
 #: smallest normal double is about 1e-308; the subnormal ones below it, down to 5e-324, are capped).
@@ -67,15 +66,6 @@ class PriorRows:
 
         (ca, xa), (cb, xb) = codes(a, ia, n1), codes(b, ib, n2)
         return cls(ca, cb, np.asarray(values, dtype=np.float64), xa, xb)
-
-    def columns(self, names_a: np.ndarray, names_b: np.ndarray) -> tuple:
-        """The two identifier columns, as pyarrow string arrays, given the networks' names."""
-        out = []
-        for names, extra, idx in ((names_a, self.extra_a, self.a), (names_b, self.extra_b, self.b)):
-            every = pa.concat_arrays([as_arrow_strings(np.asarray(names).astype(str)),
-                                      as_arrow_strings(np.asarray(extra).astype(str))])
-            out.append(every.take(pa.array(idx, type=pa.int32())))
-        return tuple(out)
 
 
 @dataclass(frozen=True)
@@ -207,13 +197,22 @@ def prior_from_columns(
     """
     values = np.asarray(values, dtype=np.float64)
     check_scores(values, kind, source=source, line_of=line_of, origin=origin)
-    scores, keep = transform_scores(values, kind)
     ia = lookup(net_a.names, a)
     ib = lookup(net_b.names, b)
     rows = PriorRows.encode(a, b, values, ia, ib, net_a.n, net_b.n) if keep_rows else None
+    return prior_from_ids(ia, ib, values, kind=kind, source=source, rows=rows,
+                          example=lambda r: f"{text_at(a, r)} / {text_at(b, r)}")
+
+
+def prior_from_ids(ia: np.ndarray, ib: np.ndarray, values: np.ndarray, *, kind: str, source: str,
+                   example: Callable[[int], str], rows: PriorRows | None = None) -> PriorTable:
+    """The :class:`PriorTable` of rows whose nodes are known by index (-1: a node the network
+    lacks), with checked raw ``values``; ``example(row)`` names a row's two nodes for the warning
+    about unknown nodes. ``ia`` is changed in place."""
+    scores, keep = transform_scores(values, kind)
     known = (ia >= 0) & (ib >= 0)
     n_unknown = len(known) - int(np.count_nonzero(known))
-    examples = [f"{text_at(a, r)} / {text_at(b, r)}" for r in np.flatnonzero(~known)[:3]] if n_unknown else []
+    examples = [example(int(r)) for r in np.flatnonzero(~known)[:3]] if n_unknown else []
     n_dropped = 0
     if n_unknown:
         ia[ib < 0] = -1  # rows with ia < 0 are left out below
