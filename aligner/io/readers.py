@@ -199,7 +199,16 @@ def _split(line: str, sep: str | None) -> list[str]:
     try:
         return next(csv.reader([line], delimiter=sep))
     except csv.Error:
-        if '"' not in line:  # e.g. a field over csv.field_size_limit(); csv would split as str.split
+        if len(line) > csv.field_size_limit():
+            # a field over the csv module's limit (131,072 characters unless raised), quoted or
+            # not: identifiers are arbitrary strings, so read this line with a limit it fits in
+            # (the limit is the process's own: put back at once)
+            old = csv.field_size_limit(len(line) + 1)
+            try:
+                return next(csv.reader([line], delimiter=sep))
+            finally:
+                csv.field_size_limit(old)
+        if '"' not in line:  # csv would split as str.split
             return line.split(sep)
         raise
 
