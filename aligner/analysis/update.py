@@ -365,9 +365,9 @@ def _with_prior_diff(state, add, remove, cfg: AlignConfig) -> "_PriorRows | _Kep
     source = _inputs(state, {"prior": None}, names=("prior",))["prior"]
     kept_rows = _state_prior_rows(state) if isinstance(source, _Kept) else None
     if isinstance(source, _Kept) and kept_rows is None:
-        raise InvalidParameterError(f"prior diffs apply to a previous prior read from a file; the previous run's "
-                                    f"prior ({source}) was not (the state keeps only its candidate pairs): give "
-                                    "the whole new prior", param="add_prior")
+        raise InvalidParameterError(f"prior diffs apply to a previous prior read from a file or kept in the run's "
+                                    f"state; the previous run's prior ({source}) was neither (its state keeps only "
+                                    "the candidate pairs): give the whole new prior", param="add_prior")
     read = {"delimiter": cfg.delimiter, "header": cfg.header}
 
     def rows(obj, cols: int, what: str):
@@ -391,8 +391,10 @@ def _with_prior_diff(state, add, remove, cfg: AlignConfig) -> "_PriorRows | _Kep
 
     gone = diff_rows(remove, 2, "prior pairs to remove")
     new = diff_rows(add, 3, "prior rows to add")
-    if kept_rows is not None:  # a prior an earlier update edited: its rows, kept in the state by node
-        return _KeptPrior(kept_rows, gone, new, str(source), remove)
+    if kept_rows is not None:  # a prior no file holds: its rows, kept in the state by node
+        named = str(source) if str(source).endswith(" with the diff applied>") else \
+            f"<prior: {source} with the diff applied>"
+        return _KeptPrior(kept_rows, gone, new, named, remove)
     named = f"<prior: {source} with the diff applied>"
     old_a, old_b, old_v = rows(source, 3, "prior table")
     diff = [p for p in (gone, new) if p is not None]

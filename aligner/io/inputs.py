@@ -211,8 +211,11 @@ def as_prior(obj, net_a: Network, net_b: Network, kind: str, delimiter, header,
     table = as_table(obj, name="prior", layout="node_a, node_b, score", min_cols=3, max_cols=3,
                      what="prior table", delimiter=delimiter, header=header,
                      source="<DataFrame prior>" if isinstance(obj, pd.DataFrame) else None, pick=prior_pick(columns))
+    # a prior no file holds (a DataFrame, rows): the table keeps its rows, for the run's state,
+    # so that an update can take them from there (a file is read again instead)
     return prior_notes(prior_from_columns(table.names(0), table.names(1), table.numeric(2, "score"), net_a, net_b,
-                                           kind=kind, source=table.source, origin=table.origin))
+                                           kind=kind, source=table.source, origin=table.origin,
+                                           keep_rows=not isinstance(obj, (str, os.PathLike))))
 
 
 def prior_notes(t: PriorTable) -> PriorTable:

@@ -28,8 +28,9 @@ Arrays (node indices are those of the run's own numbering, names given beside th
 =============  ===========  ===================================================================
 
 Optional arrays, present when the run's prior was not read from a file an update can read again
-(an update that applied a prior diff, and the updates after it): the prior's rows, in order, as
-reading the edited file would give them, so that a later update needs no file for them.
+(a prior given as a DataFrame or rows, an update that applied a prior diff, and the updates after
+it): the prior's rows, in order (as reading the edited file would give them), so that a later
+update needs no file for them.
 
 =================  ==========  ================================================================
 ``prior_a``        int32 (r)   each row's node of A: its index in ``names_a``, or ``n1 + j`` for

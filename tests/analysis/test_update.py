@@ -840,3 +840,19 @@ def test_a_state_of_the_previous_format_version_is_read(base, tmp_path, monkeypa
     monkeypatch.undo()
     assert state_module.read_state(tmp_path / "v3").meta["version"] == 3
     _agree(update(tmp_path / "v3"), aligner.align(d / "a.tsv", d / "b.tsv", d / "p.tsv"))
+
+
+def test_a_prior_given_as_a_dataframe_takes_diffs(base, tmp_path):
+    # Reference: aligner.align on the DataFrame edited by hand (pandas). A prior given in memory
+    # has no file to read again: the run's state keeps its rows, so an update can apply a diff
+    # to it (refused before: "prior diffs apply to a previous prior read from a file").
+    d, a, b, prior = base
+    cols = list(prior.columns)
+    write_outputs(tmp_path / "r", aligner.align(d / "a.tsv", d / "b.tsv", prior))
+    rows = prior.iloc[[3, 8, 40]].assign(**{cols[2]: [0.01, 5.0, 2.5]})
+    upd = update(tmp_path / "r", add_prior=rows)
+    edited = prior.copy()
+    edited.loc[rows.index, cols[2]] = rows[cols[2]]
+    _agree(upd, aligner.align(d / "a.tsv", d / "b.tsv", edited))
+    assert upd.summary["inputs"]["prior"]["source"] == "<prior: <DataFrame prior> with the diff applied>"
+    assert upd.summary["update"]["changes"]["candidates_rescored"] == 3
