@@ -957,7 +957,16 @@ def network_from_table(table: Table, *, directed: bool = False) -> Network:
     a, b = table.names(0), table.names(1)
     names, codes = intern(a, b)
     m = len(a)
-    return network_from_edges(names, codes[:m], codes[m:], weights, source=table.source, directed=directed)
+    net = network_from_edges(names, codes[:m], codes[m:], weights, source=table.source, directed=directed)
+    # each row's weight is finite (edge_weights), but the rows of a repeated edge are summed (with
+    # --directed, an arc's rows, then the two arcs of an edge in its undirected view)
+    for what, ends, merged in (("arc", net.arcs, net.arc_weights), ("edge", net.edges, net.weights)):
+        if merged is not None and not np.isfinite(merged).all():
+            u, v = ends[int(np.argmax(~np.isfinite(merged)))]
+            raise InputFormatError(f"the {what} {net.names[u]} - {net.names[v]} is given on several rows whose "
+                                   "weights sum to more than the largest number (about 1.8e308); give smaller "
+                                   "weights", path=table.source)
+    return net
 
 
 def edge_weights(table: Table) -> np.ndarray | None:
