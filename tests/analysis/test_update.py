@@ -823,10 +823,16 @@ def test_prior_diffs_chain_and_edit_the_rows_in_place(tmp_path):
     write_outputs(tmp_path / "r3", upd := update(tmp_path / "r2", network_a=fa3))
     check(upd, ref := aligner.align(fa3, fb, _write(tmp_path, "p3.tsv", p2)))
     assert ref.summary["inputs"]["prior"]["unknown_node_rows"] == upd.summary["inputs"]["prior"]["unknown_node_rows"] == 2
-    # 4. and a diff after that
-    rows4 = pd.DataFrame({cols[0]: ["late"], cols[1]: [nodes_b[2]], cols[2]: [0.2]})
+    # 4. and a diff after that, naming a pair twice (the last row counts) and a node of B that
+    # neither network has
+    pair = (prior[cols[0]][6], prior[cols[1]][6])
+    rows4 = pd.DataFrame({cols[0]: ["late", pair[0], pair[0], "late"], cols[1]: [nodes_b[2], pair[1], pair[1], "nobody"],
+                          cols[2]: [0.2, 7.0, 0.3, 1.0]})
     upd = update(tmp_path / "r3", add_prior=_write(tmp_path, "d4.tsv", rows4))
-    check(upd, aligner.align(fa3, fb, _write(tmp_path, "p4.tsv", edit(p2, rows4))))
+    check(upd, ref := aligner.align(fa3, fb, _write(tmp_path, "p4.tsv", edit(p2, rows4))))
+    assert dict(zip(map(tuple, ref.candidates.pairs.tolist()), ref.candidates.prior))[
+        (int(np.searchsorted(ref.network_a.names.astype(str), pair[0])),
+         int(np.searchsorted(ref.network_b.names.astype(str), pair[1])))] == 0.3
 
 
 def test_a_state_of_the_previous_format_version_is_read(base, tmp_path, monkeypatch):
