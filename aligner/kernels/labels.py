@@ -161,8 +161,8 @@ def _top_k_chunk(a_indptr, a_indices, a_data, b_indptr, b_indices, b_data, b_cum
             cj = cj[o1]
             cv = cv[o1]
             # stable: equal scores stay in column order. Scores are ranked on a grid of 1e-12 (TIE_GRID):
-            # equal cosines summed in floating point differ in their last bits ("muller" and "muller
-            # muller" have the same unit vector), and the tie must go to the smaller column, not to rounding
+            # equal cosines summed in floating point differ in their last bits ("tolvenk" and
+            # "tolvenk tolvenk" have the same unit vector), and the tie must go to the smaller column, not to rounding
             o2 = np.argsort(-np.floor(cv * TIE_GRID + 0.5), kind="mergesort")
             cj = cj[o2[:k]]
         for t in range(cj.shape[0]):

@@ -273,10 +273,10 @@ def test_identical_labels_score_one_and_reach_min_similarity_one():
     # The cosine of two identical TF-IDF vectors is 1 (mathematics; sklearn's cosine_similarity gives
     # 1 up to rounding), and docs/commands.md allows --min-similarity 1: identical labels only. The
     # summed dot product came out as 0.9999999999999988, so min_similarity=1 dropped such pairs (and
-    # the command refused the labels as having no pair) while "Cafe Muller" / "Café Müller" was kept
+    # the command refused the labels as having no pair) while "Cafe Tolvenk" / "Café Tölvenk" was kept
     # (noticed by differential testing).
-    a = {"a1": "Vantric Freight Ltd", "a2": "Olmera Foods Coop", "a3": "Café Müller"}
-    b = {"b1": "Vantric Freight Ltd", "b2": "Olmera Foods Coop", "b3": "Cafe Muller", "b4": "Korvex"}
+    a = {"a1": "Vantric Freight Ltd", "a2": "Olmera Foods Coop", "a3": "Café Tölvenk"}
+    b = {"b1": "Vantric Freight Ltd", "b2": "Olmera Foods Coop", "b3": "Cafe Tolvenk", "b4": "Korvex"}
     got = label_prior(a, b, min_similarity=1.0)
     assert list(zip(got.node_a, got.node_b)) == [("a1", "b1"), ("a2", "b2"), ("a3", "b3")]
     assert got["score"].tolist() == [1.0, 1.0, 1.0]
@@ -303,11 +303,11 @@ def test_an_empty_label_in_python_is_the_identifier_as_in_a_file(tmp_path):
 
 
 def test_equal_scores_that_differ_in_rounding_are_a_tie_broken_by_node_order():
-    # docs/method.md and label_prior: ties are broken by node order. "muller" and "muller muller" have
+    # docs/method.md and label_prior: ties are broken by node order. "tolvenk" and "tolvenk tolvenk" have
     # the same unit TF-IDF vector (sublinear tf scales every n-gram alike), so they score the same
     # against any label; summed in floating point the two scores differed in the last bits and the
     # rounding, not the identifier, chose a1's top-1 (noticed by differential testing). Reference:
     # the tie rule, in both orders of the two labels.
-    for l1, l2 in (("muller muller", "muller"), ("muller", "muller muller")):
-        got = label_prior({"a0": "muller", "a1": "Müller A x"}, {"b1": l1, "b2": l2}, top_k=1, min_similarity=0.01)
+    for l1, l2 in (("tolvenk tolvenk", "tolvenk"), ("tolvenk", "tolvenk tolvenk")):
+        got = label_prior({"a0": "tolvenk", "a1": "Tölvenk A x"}, {"b1": l1, "b2": l2}, top_k=1, min_similarity=0.01)
         assert ("a1", "b1") in set(zip(got.node_a, got.node_b)) and ("a1", "b2") not in set(zip(got.node_a, got.node_b))
