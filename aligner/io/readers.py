@@ -632,7 +632,26 @@ def _read_table(path: str, *, min_cols: int, max_cols: int, delimiter, header: s
         cols = _read_careful(path, sep, ncols, start_no, min_cols, what)
     if header == "auto" and not has_header:
         _warn_if_header_like(path, first[0], fields, cols)
+    elif header == "auto" and not all(f.strip().lower() in HEADER_WORDS for f in fields):
+        _warn_if_data_like(path, first[0], fields, cols)
     return Table(tuple(cols), path, start_no, sep, tuple(fields) if has_header else None)
+
+
+def _warn_if_data_like(path: str, line: int, fields: list[str], cols) -> None:
+    """Warn when a first line taken for a header by its text above a number (not by column names)
+    has names in its first two fields that are nodes of the file: most likely a data row whose
+    third field is not a number, which would otherwise be skipped without a word."""
+    names = [f.strip() for f in fields[:2]]
+    for col in cols[:2]:
+        arr = col if isinstance(col, (pa.Array, pa.ChunkedArray)) else pa.array(np.asarray(col, dtype=object))
+        if arr.type != pa.string() and arr.type != pa.large_string():
+            arr = pac.cast(arr, pa.string())
+        if pac.any(pac.is_in(arr, value_set=pa.array(names))).as_py():
+            warn(f"{path}, line {line}: the first row ({', '.join(repr(f) for f in fields[:3])}) was taken for a "
+                 f"header line (its third field is text above a number), but {names[0]!r} or {names[1]!r} is a "
+                 "node of the file's other rows; if it is a data row, fix its third field; give --header yes "
+                 "(header='yes') to skip it without this warning")
+            return
 
 
 def _read_picked(path: str, sep: str | None, ncols: int, start_no: int, pick: Columns, names: list[str] | None,
