@@ -151,8 +151,8 @@ class Inputs:
 
 def _warn_unknown(table, what: str) -> None:
     if table is not None and table.n_unknown:
-        warn(f"{table.n_unknown} of {table.n_rows} {what} rows name a node missing from its network and "
-             f"were skipped (for example {', '.join(table.unknown_examples)})")
+        warn(f"{table.source}: {table.n_unknown} of {table.n_rows} {what} rows name a node missing from its "
+             f"network and were skipped (for example {', '.join(table.unknown_examples)})")
 
 
 def _check_weighted(net_a: Network, net_b: Network, weighted: bool) -> None:

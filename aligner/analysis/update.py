@@ -159,8 +159,9 @@ def _with_diff(state, side: str, add, remove, cfg: AlignConfig):
             t = int(np.argmax(wrong))
             u, v = dnames[de[t, 0]], dnames[de[t, 1]]
             what = "remove an edge it does not have" if removing else "add an edge it already has"
+            where, line = _edge_line(path, u, v, cfg)
             raise InputFormatError(f"the diff asks network {label} of the previous run to {what}: {u} - {v}; "
-                                   "the diff does not fit that run", path=str(path))
+                                   "the diff does not fit that run", path=where, line=line)
         if removing:
             keep[pos] = False
             gone = dk
@@ -203,6 +204,20 @@ def _with_diff(state, side: str, add, remove, cfg: AlignConfig):
     ends = unique(np.concatenate([moved // n, moved % n]))
     changed = (len(extra), len(gone), new_id[ends[used[ends]]].astype(np.int64))  # each edge once in a diff
     return net, every is names and bool(used.all()), changed
+
+
+def _edge_line(path, u: str, v: str, cfg: AlignConfig) -> tuple[str, int | None]:
+    """The file and line of the first row of the edge list ``path`` naming the edge u - v (either
+    way round when undirected), for a message; read again, on the error path only."""
+    from aligner.io.inputs import as_table
+
+    t = as_table(path, name="edges", layout="node_a, node_b[, weight]", min_cols=2, max_cols=3, what="edge list",
+                 delimiter=cfg.delimiter, header=cfg.header)
+    a, b = (_chunked(t.names(c)).to_numpy().astype(str) for c in (0, 1))
+    hit = (a == u) & (b == v)
+    if not cfg.directed:
+        hit |= (a == v) & (b == u)
+    return t.origin(int(np.argmax(hit))) if hit.any() else (str(path), None)
 
 
 def _is_sorted(a: np.ndarray, strict: bool = False) -> bool:
@@ -379,7 +394,7 @@ def _with_prior_diff(state, add, remove, cfg: AlignConfig) -> "_PriorRows | _Kep
             values = t.numeric(2, "score")
             # the score kind's rules where the rows are read, so a refusal names the file and line
             check_scores(values, cfg.score_kind, source=t.source, origin=t.origin)
-        return a, b, values
+        return a, b, values, t.origin
 
     def diff_rows(obj, cols: int, what: str):
         if obj is None:
@@ -389,14 +404,14 @@ def _with_prior_diff(state, add, remove, cfg: AlignConfig) -> "_PriorRows | _Kep
         except NoRows:  # an empty diff (a feed's quiet day): nothing to add or remove
             return None
 
-    gone = diff_rows(remove, 2, "prior pairs to remove")
-    new = diff_rows(add, 3, "prior rows to add")
+    gone = diff_rows(remove, 2, "table of prior pairs to remove")
+    new = diff_rows(add, 3, "table of prior rows to add")
     if kept_rows is not None:  # a prior no file holds: its rows, kept in the state by node
         named = str(source) if str(source).endswith(" with the diff applied>") else \
             f"<prior: {source} with the diff applied>"
         return _KeptPrior(kept_rows, gone, new, named, remove)
     named = f"<prior: {source} with the diff applied>"
-    old_a, old_b, old_v = rows(source, 3, "prior table")
+    old_a, old_b, old_v, _ = rows(source, 3, "prior table")
     diff = [p for p in (gone, new) if p is not None]
     if not diff:
         return _PriorRows(old_a, old_b, old_v, named)
@@ -441,8 +456,10 @@ def _edit_rows(old_v: np.ndarray, near: np.ndarray, near_keys: np.ndarray, gone_
         if not have.all():
             r = int(np.argmax(~have))
             u, v = gone[0][r].as_py(), gone[1][r].as_py()
+            where, line = gone[3](r)
             raise InputFormatError(f"the diff asks the previous run's prior to remove a pair it does not "
-                                   f"have: {u} / {v}; the diff does not fit that run", path=str(remove))
+                                   f"have: {u} / {v}; the diff does not fit that run", path=where or str(remove),
+                                   line=line)
     keep = np.ones(len(old_v), dtype=bool)
     if gone_keys is not None:
         keep[near[np.isin(near_keys, gone_keys)]] = False

@@ -862,3 +862,24 @@ def test_a_prior_given_as_a_dataframe_takes_diffs(base, tmp_path):
     _agree(upd, aligner.align(d / "a.tsv", d / "b.tsv", edited))
     assert upd.summary["inputs"]["prior"]["source"] == "<prior: <DataFrame prior> with the diff applied>"
     assert upd.summary["update"]["changes"]["candidates_rescored"] == 3
+
+
+def test_a_diff_that_does_not_fit_names_its_line(base, tmp_path):
+    # Common practice (docs/errors.md): a refused row is named by its file and line. An edge to add
+    # that B has, an edge to remove that A lacks and a prior pair to remove that the prior lacks
+    # were named by file only (noticed by fuzzing the input layer); a two-column file of prior rows
+    # to add said "expected 3 for a prior rows to add".
+    d, a, b, prior = base
+    have = b.iloc[7]
+    (tmp_path / "add_b.tsv").write_text(f"u\tv\nfresh1\tfresh2\n{have.iloc[1]}\t{have.iloc[0]}\n")
+    got = runner.invoke(app, ["update", str(d / "run"), "--add-b", str(tmp_path / "add_b.tsv"), "-o", str(tmp_path / "u")])
+    assert got.exit_code == 2 and "add_b.tsv, line 3" in " ".join(got.output.split()) and not (tmp_path / "u").exists()
+    (tmp_path / "rm_a.tsv").write_text(f"{a.iloc[0, 0]}\t{a.iloc[0, 1]}\nnobody1\tnobody2\n")
+    with pytest.raises(InputFormatError, match=r"rm_a\.tsv, line 2: the diff asks network A .* nobody1 - nobody2"):
+        update(d / "run", remove_a=tmp_path / "rm_a.tsv")
+    (tmp_path / "rm_p.tsv").write_text(f"node_a\tnode_b\n{prior.iloc[0, 0]}\t{prior.iloc[0, 1]}\nnowhere\tb0\n")
+    with pytest.raises(InputFormatError, match=r"rm_p\.tsv, line 3: .*nowhere / b0"):
+        update(d / "run", remove_prior=tmp_path / "rm_p.tsv")
+    (tmp_path / "add_p.tsv").write_text("x\ty\n")
+    with pytest.raises(InputFormatError, match="expected 3 for a table of prior rows to add"):
+        update(d / "run", add_prior=tmp_path / "add_p.tsv")
