@@ -985,6 +985,10 @@ def network_from_table(table: Table, *, directed: bool = False) -> Network:
             raise InputFormatError(f"the {what} {net.names[u]} - {net.names[v]} is given on several rows whose "
                                    "weights sum to more than the largest number (about 1.8e308); give smaller "
                                    "weights", path=table.source)
+    if net.weights is not None and not np.isfinite(net.weights.sum()):
+        # every weight finite, their total not (summary.json reports it, the solver divides by sums)
+        raise InputFormatError("the edge weights sum to more than the largest number (about 1.8e308); give "
+                               "smaller weights", path=table.source)
     return net
 
 

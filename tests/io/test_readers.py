@@ -376,6 +376,16 @@ def test_weights_of_a_repeated_edge_that_sum_past_the_largest_number(tmp_path, d
                         directed=directed).weights.max() == pytest.approx(2e307)
 
 
+def test_edge_weights_whose_total_passes_the_largest_number_are_refused(tmp_path):
+    # Found by fuzzing the input layer: five distinct edges of weight 1e308 each passed the
+    # readers, and the run wrote total_weight null (docs/summary.schema.json: a number >= 0).
+    # The total of finite weights is refused as the merged weight of a repeated edge is.
+    p = _w(tmp_path, "big.tsv", "".join(f"a{i}\ta{i + 1}\t1e308\n" for i in range(5)))
+    with pytest.raises(InputFormatError, match=r"big\.tsv: the edge weights sum to more than the largest number"):
+        read_network(p)
+    assert read_network(_w(tmp_path, "ok.tsv", "a0\ta1\t1e308\n")).weights.sum() == 1e308
+
+
 def test_a_first_row_taken_for_a_header_whose_names_are_nodes_is_reported(tmp_path):
     # Found by fuzzing the input layer: a prior whose first row has a score that is not a number
     # ('a1 b1 abc') over numeric rows was taken for a header line (docs/formats.md: "its third field
