@@ -498,7 +498,7 @@ class _Names:
     the names the rows give that its network lacks, then names a diff brings."""
 
     def __init__(self, names: np.ndarray, extra: np.ndarray):
-        self.names, self.n = names, len(names)
+        self.names, self.n = names, len(names)  # the network's own names when they are the previous run's
         self.extra = np.asarray(extra).astype(object)
 
     @property
@@ -548,8 +548,11 @@ def _kept_prior_table(state, kept: _KeptPrior, net_a, net_b, same_names: dict, k
     from aligner.io.inputs import prior_notes
 
     rows = kept.rows
-    side_a, side_b = _Names(state.names_a, rows.extra_a), _Names(state.names_b, rows.extra_b)
-    ca, cb, values = rows.a.astype(np.int64), rows.b.astype(np.int64), rows.values
+    # a network with the previous run's names looks names up in its own (kept in pyarrow form
+    # since it was made) rather than in the state's text
+    side_a, side_b = (_Names(net.names if same_names.get(side) else getattr(state, f"names_{side}"), extra)
+                      for side, net, extra in (("a", net_a, rows.extra_a), ("b", net_b, rows.extra_b)))
+    ca, cb, values = rows.a, rows.b, rows.values  # int32 codes: int64 only where keys are made
     diff = [d for d in (kept.gone, kept.new) if d is not None]
     if diff:
         coded = [(side_a.codes(d[0]), side_b.codes(d[1])) for d in diff]
@@ -559,15 +562,15 @@ def _kept_prior_table(state, kept: _KeptPrior, net_a, net_b, same_names: dict, k
             asked[da] = True
         near = np.flatnonzero(asked[ca])
         keys = [da * n_b + db for da, db in coded]
-        keep, values, appended = _edit_rows(values, near, ca[near] * n_b + cb[near],
+        keep, values, appended = _edit_rows(values, near, ca[near].astype(np.int64) * n_b + cb[near],
                                             keys[0] if kept.gone is not None else None,
                                             keys[-1] if kept.new is not None else None, kept.new, kept.gone,
                                             kept.remove)
         if not keep.all():
             ca, cb = ca[keep], cb[keep]
         if len(appended):
-            ca = np.concatenate([ca, coded[-1][0][appended]])
-            cb = np.concatenate([cb, coded[-1][1][appended]])
+            ca = np.concatenate([ca, coded[-1][0][appended].astype(ca.dtype)])
+            cb = np.concatenate([cb, coded[-1][1][appended].astype(cb.dtype)])
             values = np.concatenate([values, kept.new[2][appended]])
     ia = side_a.onto(net_a, same_names.get("a", False))[ca]
     ib = side_b.onto(net_b, same_names.get("b", False))[cb]
