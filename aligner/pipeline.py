@@ -155,12 +155,22 @@ def _warn_unknown(table, what: str) -> None:
              f"network and were skipped (for example {', '.join(table.unknown_examples)})")
 
 
-def _check_weighted(net_a: Network, net_b: Network, weighted: bool) -> None:
-    """Refuse weighted mode when a network has no weight column."""
+def _check_weighted(net_a: Network, net_b: Network, weighted: bool, model: str = "agreement",
+                    directed: bool = False) -> None:
+    """Refuse weighted mode when a network has no weight column, and the ``product`` weight model
+    when the product of the two networks' largest node strengths passes the largest number (the
+    walk divides each entry w_A w_B by such a product: inf / inf would be NaN)."""
     for net, side in ((net_a, "A"), (net_b, "B")):
         if weighted and net.weights is None:
             raise InvalidParameterError(f"weighted needs edge weights, but network {side} ({net.source}) has no "
                                         "third column of weights", param="weighted")
+    if weighted and model == "product" and net_a.n and net_b.n:
+        with np.errstate(over="ignore"):
+            top = float(np.max(net_a.strength(directed, True))) * float(np.max(net_b.strength(directed, True)))
+        if not np.isfinite(top):
+            raise InvalidParameterError("weight model product multiplies the edge weights of A and B, and with "
+                                        "these weights the products pass the largest number (about 1.8e308); give "
+                                        "smaller weights or use the agreement weight model", param="weight_model")
 
 
 def read_inputs(network_a, network_b, prior=None, *, seeds=None, truth=None,
@@ -187,7 +197,7 @@ def check_networks(net_a: Network, net_b: Network, cfg: AlignConfig) -> None:
         if net.n == 0:  # an empty graph or frame (an empty file is refused by the reader)
             raise InvalidParameterError(f"{key} has no nodes ({net.source}): there is nothing to align; check "
                                         "that the right graph or table was given", param=key)
-    _check_weighted(net_a, net_b, cfg.weighted)
+    _check_weighted(net_a, net_b, cfg.weighted, cfg.weight_model, cfg.directed)
 
 
 def finish_inputs(net_a: Network, net_b: Network, prior_t: PriorTable | None, *, seeds=None, truth=None,

@@ -552,3 +552,20 @@ def test_an_interrupt_wrapped_by_a_library_is_still_an_interruption():
     with pytest.raises(SystemError):  # any other SystemError is not swallowed
         with user_errors():
             raise SystemError("something else")
+
+
+def test_product_weights_past_the_largest_number_are_refused(tmp_path):
+    # Found by fuzzing the input layer: with --weight-model product the walk divides w_A * w_B by
+    # strength products, and weights near 1e200 on both sides made them inf (inf / inf: the solver
+    # stopped with a message about inf or NaN in the inputs, which have none). Common practice:
+    # refuse before solving, naming the option; the agreement model uses only the weights' order.
+    def edges(path):  # the asset's edge rows (a comment line and a header line above them)
+        return [line.split("\t") for line in path.read_text().splitlines() if line[:1] not in ("#", "n")]
+
+    rows = edges(A)
+    a = _write(tmp_path, "aw.tsv", "".join(f"{u}\t{v.strip()}\t1e200\n" for u, v, *_ in rows))
+    rows = edges(B)
+    b = _write(tmp_path, "bw.tsv", "".join(f"{u}\t{v.strip()}\t1e200\n" for u, v, *_ in rows))
+    res = _align(tmp_path, "--weighted", "--weight-model", "product", a=a, b=b)
+    _user_error(res, tmp_path / "out", r"weight model product .* pass the largest number")
+    _ok(_align(tmp_path, "--weighted", "--weight-model", "agreement", a=a, b=b, out="ok"), tmp_path / "ok")
