@@ -451,8 +451,24 @@ def _start(prod: ProductGraph, cand: CandidateSet, w, index, opts: _Options, edg
         s_w = _check_edge_weights(prod, edge_weights)
         opts = opts._replace(s_w=s_w, s_max=_max_entry(prod.indptr, prod.indices) * float(s_w.max(initial=0.0)))
     wn, scale = normalise_weights(w)
+    _check_beta_scale(opts.beta, wn)
     bw = opts.beta * wn
     return opts, w, index, bw, scale, matched_counts(prod, index, opts.s_w)
+
+
+#: F and the Frank-Wolfe arithmetic add a few sums of beta * w~ over the candidates: beta is
+#: refused when such a sum, times this margin, would not be a finite float
+_BETA_MARGIN = 16.0
+
+
+def _check_beta_scale(beta: float, wn: npt.NDArray[np.float64]) -> None:
+    """Refuse a beta so large that beta times the summed normalised weights overflows (every
+    objective value would be inf or nan, and the assignment solvers refuse such weights)."""
+    total = float(wn.sum()) if len(wn) else 0.0
+    if total > 0 and not np.isfinite(beta * total * _BETA_MARGIN):
+        limit = np.finfo(np.float64).max / (total * _BETA_MARGIN)
+        raise bad_parameter("beta", f"a number in [0, {limit:.3g}] for these scores (beta times the summed "
+                            "normalised diffusion scores must stay a finite number)", beta)
 
 
 def refine_matching(prod: ProductGraph, cand: CandidateSet, w: npt.ArrayLike, index: npt.ArrayLike, *,

@@ -379,6 +379,10 @@ OPTION_CASES = [
     ("header", ["--header", "maybe"], [r"--header must be one of auto, yes, no; got 'maybe'"]),
     ("max-memory 0", ["--max-memory", "0"], [r"--max-memory must be a number in \(0, inf\); got 0.0"]),
     ("max-memory negative", ["--max-memory", "-2"], [r"--max-memory must be a number in \(0, inf\); got -2.0"]),
+    # a beta whose product with the summed normalised scores overflows: was a traceback ("weights must be
+    # finite") from the assignment solver (noticed by differential testing)
+    ("beta overflowing", ["--beta", "1e308"], [r"error: --beta must be a number in \[0, .*\] for these scores",
+                                               r"got 1e\+308"]),
 ]
 
 

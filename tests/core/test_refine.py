@@ -259,6 +259,22 @@ def test_rejects_bad_arguments():
     assert sorted(res.index.tolist()) == [0, 2] and res.conserved_after == 1
 
 
+def test_a_beta_too_large_for_the_scores_is_a_parameter_error():
+    # Checked against the docs' promise (docs/errors.md): a bad parameter value is an
+    # InvalidParameterError naming the keyword, not a ValueError from the assignment solver.
+    # beta * w~ overflowing to inf made every objective value inf (noticed by differential testing).
+    cand = build_candidates([[0, 0], [0, 1], [1, 1]], np.ones(3), 2, 2, top_k=None)
+    e = np.array([[0, 1]])
+    net = network_from_edges(np.arange(2), e[:, 0], e[:, 1])
+    prod = build_product(net.indptr, net.indices, net.indptr, net.indices, cand)
+    w = np.array([1.0, 2.0, 3.0])
+    with pytest.raises(InvalidParameterError, match=r"beta must be a number in \[0, .*\] for these scores") as err:
+        refine_matching(prod, cand, w, [0], beta=1e308)
+    assert err.value.param == "beta"
+    res = refine_matching(prod, cand, w, [0], beta=1e300)  # large but finite in sum: still refines
+    assert np.isfinite(res.objective[-1]) and sorted(res.index.tolist()) == [0, 2]
+
+
 # --------------------------------------------------------------------------- contract details (from mutants)
 
 def _path_problem():
