@@ -224,7 +224,8 @@ class AlignConfig(_Config):
         0, "Random one-to-one maps over the candidate pairs for the empirical p-value of the conserved edges "
         "(0: the closed-form null only).", flag="--permutations", group=ANALYSIS, kind="int", low=0)
     permutation_seed: int = option(
-        0, "Seed of the random maps of --permutations.", flag="--permutation-seed", group=ANALYSIS, kind="int")
+        0, "Seed of the random maps of --permutations.", flag="--permutation-seed", group=ANALYSIS, kind="int",
+        low=0)
     max_memory: float | None = option(
         None, "Memory budget for the product graph, in GiB. Default: half the machine's memory.",
         flag="--max-memory", group=LIMITS, kind="real", low=0.0, closed="neither", optional=True)

@@ -383,6 +383,10 @@ OPTION_CASES = [
     # finite") from the assignment solver (noticed by differential testing)
     ("beta overflowing", ["--beta", "1e308"], [r"error: --beta must be a number in \[0, .*\] for these scores",
                                                r"got 1e\+308"]),
+    # numpy's generators take seeds >= 0 only: a negative seed was a traceback ("expected non-negative
+    # integer") after the whole alignment had run (noticed by differential testing)
+    ("permutation-seed negative", ["--permutations", "2", "--permutation-seed", "-1"],
+     [r"error: --permutation-seed must be a whole number >= 0; got -1"]),
 ]
 
 
@@ -391,6 +395,15 @@ def test_bad_option_is_a_user_error_naming_the_option(tmp_path, case, args, patt
     res = _align(tmp_path, *args)
     _user_error(res, tmp_path / "out", *patterns)
     assert not (tmp_path / "out").exists()
+
+
+def test_negative_permutation_seed_is_refused_in_python_too():
+    # docs/errors.md: the Python API refuses the value the command line refuses, with
+    # InvalidParameterError naming the keyword (noticed by differential testing)
+    import aligner
+    from aligner.errors import InvalidParameterError
+    with pytest.raises(InvalidParameterError, match=r"permutation_seed must be a whole number >= 0; got -1"):
+        aligner.align(str(A), str(B), prior=str(PRIOR), permutations=2, permutation_seed=-1)
 
 
 def test_memory_budget_too_small(tmp_path):
