@@ -413,6 +413,12 @@ def _competitors(sides: _Sides, cols, h=None, exclude=None, top: int | None = No
     return np.unique(sides.row_of[pairs[rank < top]])
 
 
+def _push_cap(max_pairs: int) -> int:
+    """The push cap of a region of at most ``max_pairs`` pairs, held to the largest int64 (the compiled
+    push's counter): a cap past it is never reached."""
+    return int(min(PUSHES_PER_PAIR * int(max_pairs), np.iinfo(np.int64).max))
+
+
 def _solve_region(engine, index: AnswerIndex, sides: _Sides, node, rows, pairs, tol, max_pairs, reach):
     alpha = engine.alpha
     if not len(pairs):
@@ -424,7 +430,7 @@ def _solve_region(engine, index: AnswerIndex, sides: _Sides, node, rows, pairs, 
     ints, floats, _, pushes, *_rest = _local_push(
         engine.net_a.indptr, engine.net_a.indices, engine.net_b.indptr, engine.net_b.indices, engine.cand.a_indptr,
         engine._c_a, engine._c_b, engine._deg_a, engine._deg_b, engine.normalization == "restricted", engine._slot,
-        pairs, np.ascontiguousarray(h[pairs]), none_i, alpha, eps, PUSHES_PER_PAIR * max_pairs, False)
+        pairs, np.ascontiguousarray(h[pairs]), none_i, alpha, eps, _push_cap(max_pairs), False)
     _reset_slots(engine._slot, ints[:, 0])
     held = ints[:, 0]
     outside_ratio = index.largest_ratio_outside(pairs)  # pairs are sorted

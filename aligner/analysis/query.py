@@ -47,6 +47,10 @@ WORK_COLUMNS = ["query", "side", "candidates", "seeds_near", "excluded_by_seeds"
                 "seconds"]
 
 
+#: the largest push count the compiled kernels hold (an int64)
+_INT64_MAX = int(np.iinfo(np.int64).max)
+
+
 @dataclass(frozen=True, eq=False)
 class LocalSolution:
     """A local solve of x = alpha P x + (1 - alpha) h over the pairs it reached.
@@ -162,7 +166,8 @@ class QueryEngine:
         self.tol = check_real(tol, "tol", low=0.0, closed="neither")
         self.normalization = check_choice(normalization, "normalization", NORMALIZATIONS)
         self.seed_weight = check_real(seed_weight, "seed_weight", low=0.0)
-        self.max_pushes = 10**8 if max_pushes is None else check_int(max_pushes, "max_pushes", low=0)
+        # a cap past the largest int64 is never reached: held as that largest value, which the compiled push takes
+        self.max_pushes = 10**8 if max_pushes is None else min(check_int(max_pushes, "max_pushes", low=0), _INT64_MAX)
         self.net_a, self.net_b, self.cand = net_a, net_b, cand
         self.seeds = seeds
         self._c_a, self._c_b = cand.ends

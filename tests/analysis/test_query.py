@@ -363,3 +363,28 @@ def test_push_cap_advice_names_keywords_in_python_and_options_on_the_command_lin
     res = CliRunner().invoke(app, ["query", str(a), str(b), "-p", str(p), "-n", "a0", "--max-pushes", "1"])
     assert res.exit_code != 0
     assert "raise --max-pushes, raise --tol or lower --alpha" in res.output
+
+
+def test_caps_past_the_largest_int64_are_never_reached_rather_than_a_traceback():
+    # Checked against docs/commands.md (--max-pushes "whole number >= 0", --max-region-pairs "whole
+    # number >= 1", no upper bound) and the promise of docs/errors.md (no traceback): a cap no push
+    # count can reach answers as the default cap does. --max-pushes 10**23 was an OverflowError and
+    # --max-region-pairs 10**23 a numba int64 overflow (noticed by differential testing).
+    A, B, P, T = _relabelled_frames()
+    base = aligner.query(A, B, P, nodes=["a3"], top=4)
+    for kw in ("max_pushes", "max_region_pairs"):
+        for cap in (10**23, 2**63 - 1):
+            res = aligner.query(A, B, P, nodes=["a3"], top=4, **{kw: cap})
+            pd.testing.assert_frame_equal(res.table, base.table)
+            assert res.answers["counterpart"].tolist() == base.answers["counterpart"].tolist()
+    import os
+    import tempfile
+    with tempfile.TemporaryDirectory() as d:  # the command line takes the same values
+        paths = []
+        for name, df in (("a", A), ("b", B), ("p", P)):
+            paths.append(os.path.join(d, f"{name}.tsv"))
+            df.to_csv(paths[-1], sep="\t", index=False)
+        for flag in ("--max-pushes", "--max-region-pairs"):
+            res = runner.invoke(app, ["query", paths[0], paths[1], "-p", paths[2], "-n", "a3", flag, str(10**23)])
+            assert res.exit_code == 0, res.output
+            assert "Traceback" not in res.output
