@@ -27,7 +27,7 @@ import numpy.typing as npt
 import pandas as pd
 
 from aligner import __version__
-from aligner.checks import warn
+from aligner.checks import bad_parameter, warn
 from aligner.config import AlignConfig, describe, from_options, with_options
 from aligner.core.arrays import unique
 from aligner.core.candidates import CandidateSet, build_candidates
@@ -233,6 +233,17 @@ class Candidates:
     expansion: SeedExpansion | None = None
 
 
+def _check_combined_total(scores: np.ndarray, n_pairs: int, weight: float) -> None:
+    """Refuse a structural weight so large that the combined prior's scores no longer sum to a finite
+    number: the diffusion's h (the prior over its sum) would be all zero, every score 0 and the matching
+    arbitrary. Each rescaled score is at most 1, so a weight up to the limit stated keeps the sum finite."""
+    limit = np.finfo(np.float64).max / (4.0 * max(n_pairs, 1))
+    if weight <= limit and np.isfinite(scores.sum()):
+        return
+    raise bad_parameter("structural_weight", f"a number in [0, {limit:.3g}] for these candidates (the combined "
+                        "prior's scores must sum to a finite number)", weight)
+
+
 def _structural(inputs: Inputs, cfg: AlignConfig) -> Candidates:
     net_a, net_b, prior_t = inputs.network_a, inputs.network_b, inputs.prior
     k = cfg.top_k or DEFAULT_K
@@ -243,6 +254,7 @@ def _structural(inputs: Inputs, cfg: AlignConfig) -> Candidates:
         ok = prior_t.scores >= cfg.min_score
         pairs, scores = combine_priors(prior_t.pairs[ok], prior_t.scores[ok], pairs, scores, net_b.n,
                                        weight=cfg.structural_weight)
+        _check_combined_total(scores, len(pairs), cfg.structural_weight)
     cand = build_candidates(pairs, scores, net_a.n, net_b.n, top_k=cfg.top_k)
     if cand.m == 0:
         raise NoCandidatesError("no structural candidate pair: one of the networks has no node with an edge")

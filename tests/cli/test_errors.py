@@ -387,6 +387,10 @@ OPTION_CASES = [
     # integer") after the whole alignment had run (noticed by differential testing)
     ("permutation-seed negative", ["--permutations", "2", "--permutation-seed", "-1"],
      [r"error: --permutation-seed must be a whole number >= 0; got -1"]),
+    # a structural weight whose combined prior sums past the largest float: h was all zero, every diffusion
+    # score 0 and the matching arbitrary, with exit 0 (noticed by differential testing)
+    ("structural-weight overflowing", ["--structural-candidates", "--structural-weight", "1e308"],
+     [r"error: --structural-weight must be a number in \[0, .*\] for these candidates", r"got 1e\+308"]),
 ]
 
 
@@ -404,6 +408,19 @@ def test_negative_permutation_seed_is_refused_in_python_too():
     from aligner.errors import InvalidParameterError
     with pytest.raises(InvalidParameterError, match=r"permutation_seed must be a whole number >= 0; got -1"):
         aligner.align(str(A), str(B), prior=str(PRIOR), permutations=2, permutation_seed=-1)
+
+
+def test_overflowing_structural_weight_is_refused_in_python_too():
+    # docs/errors.md: InvalidParameterError naming the keyword, as the command line names the option; a
+    # large weight that keeps the sum finite still aligns (noticed by differential testing)
+    import aligner
+    from aligner.errors import InvalidParameterError
+    with pytest.raises(InvalidParameterError, match=r"structural_weight must be a number in \[0, ") as err:
+        aligner.align(str(A), str(B), prior=str(PRIOR), structural=True, structural_weight=1e308)
+    assert err.value.param == "structural_weight"
+    res = aligner.align(str(A), str(B), prior=str(PRIOR), structural=True, structural_weight=1e300)
+    assert res.summary["solver"]["residual_l1"] <= res.summary["solver"]["tol"]
+    assert (res.pairs["score"] > 0).all()
 
 
 def test_memory_budget_too_small(tmp_path):
