@@ -141,8 +141,9 @@ class AlignConfig(_Config):
     """
 
     delimiter: str | None = option(
-        None, "Column delimiter of the input files: tab, comma, semicolon, whitespace, or one character. "
-        "Default: detected from the first data line.", flag="--delimiter", group=READ, kind="text", optional=True)
+        None, "Column delimiter of the input files: tab, comma, semicolon, space, whitespace (runs of spaces and "
+        "tabs), or one other character (not a quote, '#' or a line break). Default: detected from the first data "
+        "line.", flag="--delimiter", group=READ, kind="text", optional=True)
     header: str = option(
         "auto", "Whether input files start with a header line: auto, yes or no. 'auto' takes the first line as a "
         "header when its fields are column names such as node_a/source/target.", flag="--header", group=READ,

@@ -400,3 +400,15 @@ def test_an_option_nothing_would_use_is_refused(tmp_path, cmd, extra, said):
     assert res.exit_code == 2, res.output
     assert said in " ".join(res.output.split()) and len(res.output.strip().splitlines()) == 1, res.output
     assert not out.exists()
+
+
+def test_delimiter_help_says_what_the_readers_accept():
+    # Checked against the readers' own check (aligner.io): 'space' is accepted, and a quote, '#' and a line
+    # break are refused; the help said only "one character" (noticed by differential testing).
+    from aligner.errors import InvalidParameterError
+    import aligner
+    help_text = specs(AlignConfig)["delimiter"][1].help
+    assert "space" in help_text and "'#'" in help_text and "quote" in help_text and "line break" in help_text
+    for refused in ("#", '"', "\n"):
+        with pytest.raises(InvalidParameterError, match="delimiter must be"):
+            aligner.align(str(A), str(B), prior=str(PRIOR), delimiter=refused)
