@@ -107,16 +107,18 @@ class Use:
 
 
 def _parser(spec: Spec) -> Callable[[Any], Any]:
-    """Text to number (or None for an optional option given "none" or nothing).
+    """Text to number (or None for an optional option given "none").
 
     Text that is not a number is passed on unchanged, so the configuration's own check names
-    the option and the value in the project's words.
+    the option and the value in the project's words. An empty value is refused that way too,
+    not read as None: ``--top-k "$K"`` with K unset must not quietly keep every candidate (as
+    ``-o ""`` is refused rather than taken as the working directory).
     """
     def parse(value: Any) -> Any:
         if not isinstance(value, str):
             return value  # the default, already typed
         text = value.strip()
-        if spec.optional and text.lower() in ("", "none"):
+        if spec.optional and text.lower() == "none":
             return None
         try:
             return int(text) if spec.kind == "int" else float(text)

@@ -412,3 +412,15 @@ def test_delimiter_help_says_what_the_readers_accept():
     for refused in ("#", '"', "\n"):
         with pytest.raises(InvalidParameterError, match="delimiter must be"):
             aligner.align(str(A), str(B), prior=str(PRIOR), delimiter=refused)
+
+
+@pytest.mark.parametrize("flag", ["--top-k", "--refine-starts", "--max-memory"])
+def test_an_empty_value_of_an_optional_number_is_refused_not_taken_as_none(tmp_path, flag):
+    # Checked against the help ("Give 'none' for None") and docs/errors.md (an empty value, such as an
+    # unset shell variable, is refused as -o "" is): "" was read as None, so --top-k "$K" with K unset
+    # silently kept every candidate (noticed by differential testing).
+    res = runner.invoke(app, ["align", str(A), str(B), "-p", str(PRIOR), "-o", str(tmp_path / "out"), flag, ""])
+    assert res.exit_code == 2, res.output
+    assert "Traceback" not in res.output
+    assert f"error: {flag} must be " in " ".join(res.output.split()) and "got ''" in res.output
+    assert not (tmp_path / "out").exists()
