@@ -64,13 +64,21 @@ class DiffusionResult:
 
 
 def prior_vector(prior: npt.NDArray[np.float64]) -> npt.NDArray[np.float64]:
-    """h: the prior normalised to sum 1 (uniform when every prior score is 0)."""
+    """h: the prior normalised to sum 1 (uniform when every prior score is 0).
+
+    Scores whose sum passes the largest float (each finite, such as many scores near 1e308) are
+    divided by their maximum first: h is the same, where ``prior / inf`` would be all zero.
+    """
     prior = np.asarray(prior, dtype=np.float64)
-    total = prior.sum()
     if len(prior) == 0:
         return prior.copy()
+    with np.errstate(over="ignore"):  # an overflowing sum is handled below
+        total = prior.sum()
     if total <= 0:
         return np.full(len(prior), 1.0 / len(prior))
+    if not np.isfinite(total):
+        prior = prior / prior.max()
+        total = prior.sum()
     return prior / total
 
 

@@ -419,3 +419,27 @@ def test_alpha_next_to_one_solves_where_the_mass_drains():
     for solver in ("push", "power"):
         res = diffuse(prod, h, column_scale(prod), alpha=alpha, tol=1e-20, solver=solver)
         np.testing.assert_allclose(res.x, (1 - alpha) * h, rtol=1e-12)
+
+
+def test_prior_vector_of_scores_summing_past_the_largest_float():
+    # Checked against the definition (docs/method.md: h is the prior normalised to sum 1, so it does not
+    # depend on the prior's scale): finite scores near 1e308 summed to inf, and h = prior / inf was all
+    # zero, so the diffusion made 0 pushes and every score was 0, with exit status 0 (noticed by
+    # differential testing).
+    big = np.array([1e308, 5e307, 1e308, 2.5e307])
+    h = prior_vector(big)
+    np.testing.assert_allclose(h, big / 1e308 / (big / 1e308).sum(), rtol=1e-15)
+    assert np.isclose(h.sum(), 1.0)
+
+
+def test_alignment_does_not_depend_on_the_prior_scale_up_to_the_largest_float(tmp_path):
+    # Scale invariance (h is the prior over its sum): a prior of 1e308 everywhere aligns as a prior of 1
+    # everywhere does (noticed by differential testing: the first gave all-zero scores).
+    import aligner
+    from aligner.datasets.instances import as_frames, noisy_relabelled
+    a, b, prior, _ = as_frames(noisy_relabelled(25, seed=2))
+    one = aligner.align(a, b, prior=prior.assign(score=1.0))
+    big = aligner.align(a, b, prior=prior.assign(score=1e308))
+    assert big.summary["solver"]["pushes"] > 0
+    np.testing.assert_allclose(big.pairs["score"].to_numpy(), one.pairs["score"].to_numpy(), rtol=1e-9)
+    assert big.pairs[["node_a", "node_b"]].equals(one.pairs[["node_a", "node_b"]])
