@@ -575,18 +575,10 @@ def _kept_prior_table(state, kept: _KeptPrior, net_a, net_b, same_names: dict, k
     ia = side_a.onto(net_a, same_names.get("a", False))[ca]
     ib = side_b.onto(net_b, same_names.get("b", False))[cb]
 
-    def recoded(idx, codes, side, n):  # the rows' nodes for the next state: unknown names last
-        out = idx.astype(np.int32)
-        miss = np.flatnonzero(idx < 0)
-        if not len(miss):
-            return out, np.empty(0, dtype=str)
-        gone_codes, inv = np.unique(codes[miss], return_inverse=True)
-        out[miss] = n + inv
-        return out, side.names_of(gone_codes)
-
-    (na, xa), (nb, xb) = recoded(ia, ca, side_a, net_a.n), recoded(ib, cb, side_b, net_b.n)
-    return prior_notes(prior_from_ids(ia, ib, values, kind=kind, source=kept.source,
-                                      rows=PriorRows(na, nb, values, xa, xb),
+    # the rows for the next state, on the new networks' names (read before ia is changed below)
+    kept_rows = PriorRows.from_ids(ia, ib, values, net_a.n, net_b.n, lambda r: side_a.names_of(ca[r]),
+                                   lambda r: side_b.names_of(cb[r]))
+    return prior_notes(prior_from_ids(ia, ib, values, kind=kind, source=kept.source, rows=kept_rows,
                                       example=lambda r: f"{side_a.name(int(ca[r]))} / {side_b.name(int(cb[r]))}"))
 
 

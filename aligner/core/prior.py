@@ -51,21 +51,32 @@ class PriorRows:
     extra_b: np.ndarray
 
     @classmethod
+    def from_ids(cls, ia: np.ndarray, ib: np.ndarray, values, n1: int, n2: int,
+                 names_a: Callable[[np.ndarray], np.ndarray],
+                 names_b: Callable[[np.ndarray], np.ndarray]) -> "PriorRows":
+        """The rows whose nodes' indices among the networks' n1 and n2 names are ``ia``, ``ib`` (-1
+        where absent); ``names_a(rows)`` gives the names of those rows' nodes of A (called for the
+        rows naming a node A lacks only), ``names_b`` those of B."""
+        def codes(idx, n, names_of):
+            out = idx.astype(np.int32)
+            miss = np.flatnonzero(idx < 0)
+            if not len(miss):
+                return out, np.empty(0, dtype=str)
+            extra, inv = np.unique(np.asarray(names_of(miss)).astype(str), return_inverse=True)
+            out[miss] = n + inv
+            return out, extra
+
+        (ca, xa), (cb, xb) = codes(ia, n1, names_a), codes(ib, n2, names_b)
+        return cls(ca, cb, np.asarray(values, dtype=np.float64), xa, xb)
+
+    @classmethod
     def encode(cls, a, b, values, ia: np.ndarray, ib: np.ndarray, n1: int, n2: int) -> "PriorRows":
         """The rows with identifier columns ``a``, ``b`` whose look-ups among the networks' names
         (-1 where absent) are ``ia``, ``ib``."""
-        def codes(col, idx, n):
-            idx = idx.astype(np.int32)
-            miss = np.flatnonzero(idx < 0)
-            if not len(miss):
-                return idx, np.empty(0, dtype=str)
-            named = as_arrow_strings(col).take(miss).to_numpy(zero_copy_only=False).astype(str)
-            extra, inv = np.unique(named, return_inverse=True)
-            idx[miss] = n + inv
-            return idx, extra
+        def names_in(col):
+            return lambda rows: as_arrow_strings(col).take(rows).to_numpy(zero_copy_only=False)
 
-        (ca, xa), (cb, xb) = codes(a, ia, n1), codes(b, ib, n2)
-        return cls(ca, cb, np.asarray(values, dtype=np.float64), xa, xb)
+        return cls.from_ids(ia, ib, values, n1, n2, names_in(a), names_in(b))
 
 
 @dataclass(frozen=True)
