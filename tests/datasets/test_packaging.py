@@ -29,3 +29,16 @@ def test_demo_pairs_is_shipped_from_the_top_level_directory():
                for p in (ROOT / "demo_pairs" / s).glob(g)}
     every = {p for p in (ROOT / "demo_pairs").rglob("*") if p.is_file()}
     assert shipped == every
+
+
+def test_the_version_has_one_source():
+    # the package's metadata takes its version from aligner.__version__ (what `aligner --version`
+    # and summary.json print), so the two cannot drift apart
+    from importlib.metadata import version
+
+    import aligner
+
+    project = tomllib.loads((ROOT / "pyproject.toml").read_text())["project"]
+    assert "version" not in project and "version" in project["dynamic"]
+    assert _setuptools()["dynamic"]["version"] == {"attr": "aligner.__version__"}
+    assert version("aligner") == aligner.__version__
