@@ -54,8 +54,8 @@ from aligner.priors.structural import DEFAULT_K, FEATURE_NAMES, combine_priors, 
 
 __all__ = ["STAGES", "Inputs", "Problem", "Improvement", "Evaluation", "AlignmentResult", "read_inputs",
            "check_networks", "finish_inputs", "find_candidates", "check_some_candidate", "with_seed_pairs",
-           "prepare", "with_product_graph", "solve", "match", "improve", "evaluate", "transfer", "summarize", "align", "score",
-           "TRANSFER_COLUMNS"]
+           "prepare", "with_product_graph", "solve", "match", "counted_weights", "improve", "evaluate", "transfer",
+           "summarize", "align", "score", "TRANSFER_COLUMNS"]
 
 #: the stages of a run, in order, as named to the ``progress`` callback of :func:`align`
 STAGES = ("read", "candidates", "product", "diffusion", "rounding", "refine", "scoring", "writing")
@@ -509,7 +509,7 @@ def _starts(problem: Problem, diffusion: DiffusionResult, rounded: Matching, cou
     return starts
 
 
-def _counted_weights(cfg: AlignConfig, prod: ProductGraph):
+def counted_weights(cfg: AlignConfig, prod: ProductGraph):
     """The entry weights the refinement's objective (and the confidence, in its units) counts
     conserved edge pairs by: a weighted run under the agreement model counts each pair (each arc
     pair, when directed: S + S^T keeps each arc's weight) by its agreement, as the walk does;
@@ -531,7 +531,7 @@ def improve(problem: Problem, diffusion: DiffusionResult, rounded: Matching) -> 
     starts = _starts(problem, diffusion, rounded, refine_starts(problem))
     refined = refine_from_starts(prod, problem.candidates, diffusion.x, starts, keep=problem.seed_index,
                                  beta=cfg.beta, max_iter=cfg.refine_iter, method=cfg.rounding,
-                                 edge_weights=_counted_weights(cfg, prod))
+                                 edge_weights=counted_weights(cfg, prod))
     if refined is None:
         return Improvement(rounded, rounded, None, "refinement moved a seed pair, so its matching was not used")
     final = Matching(index=refined.index, method=rounded.method, weight=float(diffusion.x[refined.index].sum()),
@@ -616,7 +616,7 @@ def _confidence(problem: Problem, diffusion: DiffusionResult, index: np.ndarray,
     ``counts``: :func:`_unit_counts` of ``index``, when computed already."""
     cfg = problem.config
     prod = problem.product.symmetrised()  # S + S^T when directed (built once), else S
-    weights = _counted_weights(cfg, prod)
+    weights = counted_weights(cfg, prod)
     return matching_confidence(prod, problem.candidates, diffusion.x, index, beta=cfg.beta, edge_weights=weights,
                                counts=counts if weights is None else None)
 

@@ -837,14 +837,14 @@ def _continued_refinement(state, maps: _Maps, x0: np.ndarray, record: dict):
     from aligner.core.refine import (RISE_TOL, continue_local_search, matched_counts, normalise_weights,
                                      refine_objective)
     from aligner.core.rounding import round_matching
-    from aligner.pipeline import Improvement, _counted_weights, refine_starts
+    from aligner.pipeline import Improvement, counted_weights, refine_starts
 
     def run(problem, diffusion, rounded):
         cfg, cand = problem.config, problem.candidates
         prod = problem.product.symmetrised()
         why = ("the run refines from several starts" if refine_starts(problem) > 1 else
                "the run has seed pairs" if problem.seed_index is not None else
-               "the run counts edges by agreement" if _counted_weights(cfg, prod) is not None else
+               "the run counts edges by agreement" if counted_weights(cfg, prod) is not None else
                # F then counts conserved edges alone: a matched pair that conserves none is a tie
                # the search keeps and align's assignment leaves unmatched
                "the run refines with beta 0" if cfg.beta == 0 else None)
