@@ -702,7 +702,9 @@ def evaluate(problem: Problem, diffusion: DiffusionResult, improvement: Improvem
     edges_a = inputs.network_a.scored_edges(cfg.directed)[0]
     counts = transfer_counts(edges_a, inputs.network_b.scored_edges(cfg.directed)[0], matched, inputs.network_a.n,
                              inputs.network_b.n, scores.conserved_edges)
-    g = _unit_counts(problem, index)
+    refined = improvement.refined
+    g = (refined.neighbours if refined is not None and refined.neighbours is not None and refined.index is index
+         else _unit_counts(problem, index))  # the refinement made S 1_M already
     ambiguity = _ambiguity(problem, index, () if improvement.refined is None else improvement.refined.near_optima, g)
     return Evaluation(scores, before, _pairs_frame(problem, diffusion, index, cons, names_a, names_b, ambiguity, g),
                       _conserved_table(names_a, names_b, edges_a, f, cons), sig, seeds, counts, image, ambiguity)

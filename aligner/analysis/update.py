@@ -834,8 +834,7 @@ def _continued_refinement(state, maps: _Maps, x0: np.ndarray, record: dict):
     problems), seed pairs, or a weighted run counting agreement (whose entry weights can change
     where no edge did), and when the continued search ends below the new rounded matching's F
     (``align`` never ends below it). ``record`` receives what was done, for the summary."""
-    from aligner.core.refine import (RISE_TOL, continue_local_search, matched_counts, normalise_weights,
-                                     refine_objective)
+    from aligner.core.refine import RISE_TOL, continue_local_search, normalise_weights, refine_objective
     from aligner.core.rounding import round_matching
     from aligner.pipeline import Improvement, counted_weights, refine_starts
 
@@ -886,11 +885,11 @@ def _continued_refinement(state, maps: _Maps, x0: np.ndarray, record: dict):
         # assignment on F's gradient beta w~ + S 1_M. The search moves pairs two or three at a
         # time; an assignment also finds longer chains (a partner moved to a free node so that an
         # unmatched node takes its place), and where one raises F align's result can differ
-        grad = matched_counts(prod, res.index)
-        grad += bw_new
+        grad = np.add(res.neighbours, bw_new)  # S 1_M from the search, which keeps it
         step = round_matching(cand, grad, method=cfg.rounding)
         del grad
-        f_step = refine_objective(prod, bw_new, step.index)[0]
+        f_step = (res.objective[-1] if np.array_equal(step.index, res.index)
+                  else refine_objective(prod, bw_new, step.index)[0])
         if f_step > res.objective[-1] + RISE_TOL * (1.0 + abs(res.objective[-1])):
             record.update(mode="full", reason="an assignment step from the continued matching raised F: refined as "
                                               "align")

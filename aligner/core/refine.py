@@ -136,6 +136,10 @@ class RefineResult:
     counts : {"edges", "agreement"}
         What C(M) in the objective summed: conserved edges, or their entry weights
         (``edge_weights``).
+    neighbours : ndarray of float64, shape (m,), or None
+        S 1_index, each stored entry of S counting 1: the matched product-graph neighbours of
+        every candidate pair under the final matching (what the confidence and the ambiguity
+        start from; made by the refinement anyway, so they need not make it again).
     """
 
     index: npt.NDArray[np.int64]
@@ -154,6 +158,7 @@ class RefineResult:
     starts: tuple = ()
     near_optima: tuple = ()
     counts: str = "edges"
+    neighbours: npt.NDArray[np.float64] | None = field(default=None, repr=False, compare=False)
 
     def report(self) -> dict:
         """The figures as a JSON-ready dict (for a run summary)."""
@@ -554,7 +559,7 @@ def refine_matching(prod: ProductGraph, cand: CandidateSet, w: npt.ArrayLike, in
                         weight_before=float(w[index].sum()), weight_after=float(w[inc.index].sum()),
                         local_moves=moves, rounds=n_rounds, hit_cap=hit_cap, beta=opts.beta, w_scale=scale,
                         counts="edges" if edge_weights is None else "agreement",
-                        seconds=time.perf_counter() - t0)
+                        seconds=time.perf_counter() - t0, neighbours=inc.g)
 
 
 def continue_local_search(prod: ProductGraph, cand: CandidateSet, w: npt.ArrayLike, index: npt.ArrayLike,
@@ -604,7 +609,7 @@ def continue_local_search(prod: ProductGraph, cand: CandidateSet, w: npt.ArrayLi
                        conserved_after=c1, weight_before=float(w[index].sum()),
                        weight_after=float(w[final].sum()), local_moves=int(moves), rounds=1, hit_cap=False,
                        beta=opts.beta, w_scale=scale, counts="edges" if edge_weights is None else "agreement",
-                       seconds=time.perf_counter() - t0)
+                       seconds=time.perf_counter() - t0, neighbours=g if edge_weights is None else None)
     return res, marked
 
 

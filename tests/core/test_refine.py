@@ -97,6 +97,37 @@ def test_conserves_at_least_as_many_edges_as_faq(n, noise, seed):
     assert c_ref > res.conserved_before
 
 
+
+def _nx_matched_neighbours(ga, gb, cand, index):
+    """For every candidate (i, i'): the matched pairs (j, j') with j ~ i in A and j' ~ i' in B,
+    counted from the networkx graphs (not from the product graph)."""
+    f = {int(a): int(b) for a, b in cand.pairs[index]}
+    return np.array([sum(1 for j in ga[int(i)] if j in f and gb.has_edge(ip, f[j])) for i, ip in cand.pairs],
+                    dtype=np.float64)
+
+
+@pytest.mark.parametrize("seed", range(3))
+def test_the_result_carries_the_matched_neighbours_of_its_matching(seed):
+    # Reference: the definition of g = S 1_M (the product graph's entry (i,i')-(j,j') is an edge
+    # i~j of A and i'~j' of B), counted with networkx; whatever the run did (Frank-Wolfe, local
+    # search, several starts, weighted objective, the continued search of an update), the
+    # neighbours handed on to the scoring are those of the final matching
+    from aligner.core.refine import continue_local_search
+
+    rng = np.random.default_rng(seed)
+    sp = _pair(int(rng.integers(60, 150)), 0.15, seed, decoys=6)
+    ga, gb = _graphs(sp)
+    cand, prod, x, idx = _stages(sp)
+    starts = [("rounded", idx), ("random", round_matching(cand, rng.random(cand.m)).index)]
+    results = [refine_matching(prod, cand, x, idx), refine_matching(prod, cand, x, idx, max_iter=0),
+               refine_matching(prod, cand, x, idx, local_sweeps=0),
+               refine_matching(prod, cand, x, idx, edge_weights=rng.random(prod.indptr[-1])),
+               refine_from_starts(prod, cand, x, starts)]
+    results.append(continue_local_search(prod, cand, x, starts[1][1], np.arange(cand.m))[0])
+    for res in results:
+        assert np.array_equal(res.neighbours, _nx_matched_neighbours(ga, gb, cand, res.index))
+
+
 # --------------------------------------------------------------------------- objective
 
 @pytest.mark.parametrize("seed", range(6))
