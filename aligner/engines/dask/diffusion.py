@@ -284,8 +284,8 @@ def run_rounds(cluster, alpha: float, tol: float, mode: str, power: bool = False
         raise ConvergenceError("the distributed diffusion produced a score or residual that is not a finite number; "
                                "check the prior and the edge weights for inf or NaN", iterations=rep.rounds,
                                residual=rep.residual)
-    if rep.residual > tol:
-        raise ConvergenceError(f"the distributed diffusion stopped after {rep.rounds} rounds before the residual "
-                               f"tolerance {tol:g}; raise the tolerance or lower alpha", iterations=rep.rounds,
-                               residual=rep.residual)
+    if rep.residual > tol:  # the advice names the keywords, or on the command line the options, as one machine's
+        raise ConvergenceError(f"the distributed diffusion stopped before the residual tolerance {tol:g}",
+                               iterations=rep.rounds, residual=rep.residual,
+                               advice=(("raise {}", "tol", None), ("lower {}", "alpha", None)))
     return x, rep, x_parts
