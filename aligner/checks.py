@@ -37,9 +37,20 @@ def interval_text(low: float | None, high: float | None, closed: str = "both") -
     """``[0, 1)``-style text of an interval; ``closed`` says which ends belong to it."""
     left = "[" if closed in ("both", "left") and low is not None else "("
     right = "]" if closed in ("both", "right") and high is not None else ")"
-    lo = "-inf" if low is None else f"{low:g}"
-    hi = "inf" if high is None else f"{high:g}"
+    lo = "-inf" if low is None else _number_text(low)
+    hi = "inf" if high is None else _number_text(high)
     return f"{left}{lo}, {hi}{right}"
+
+
+def _number_text(value: float) -> str:
+    """A bound as the messages show it: ``0.5``, ``1024``, and a whole power of ten from 10,000 up as
+    ``10^9`` (not ``1e+09``, nor ten digits to count)."""
+    if isinstance(value, Integral) and not isinstance(value, bool):
+        v = int(value)
+        if v >= 10_000 and str(v).rstrip("0") == "1":
+            return f"10^{len(str(v)) - 1}"
+        return str(v)
+    return f"{value:g}"
 
 
 def check_real(value: object, name: str, *, low: float | None = None, high: float | None = None,
@@ -66,12 +77,16 @@ def check_real(value: object, name: str, *, low: float | None = None, high: floa
     return v
 
 
-def check_int(value: object, name: str, *, low: int | None = None) -> int:
-    """Return ``value`` as an int after checking it is a whole number of at least ``low``."""
-    must = "a whole number" if low is None else f"a whole number >= {low}"
+def check_int(value: object, name: str, *, low: int | None = None, high: int | None = None) -> int:
+    """Return ``value`` as an int after checking it is a whole number of at least ``low`` and at
+    most ``high`` (both ends belong to the range; one left out is unbounded)."""
+    if high is None:
+        must = "a whole number" if low is None else f"a whole number >= {low}"
+    else:
+        must = f"a whole number in {interval_text(low, high)}"
     if isinstance(value, bool) or not isinstance(value, Integral):
         raise bad_parameter(name, must, value)
-    if low is not None and value < low:
+    if (low is not None and value < low) or (high is not None and value > high):
         raise bad_parameter(name, must, value)
     return int(value)
 

@@ -57,6 +57,17 @@ PRIOR_COLUMNS = rf"{_COLUMN},{_COLUMN},{_COLUMN}"
 #: ``--label-columns``: one or more columns, comma-separated.
 LABEL_COLUMNS = rf"{_COLUMN}(?:,{_COLUMN})*"
 
+#: The largest counts the options take. Random maps: each is one assignment over every candidate
+#: pair, and the count of each is kept (16 bytes a map), so 10^9 is already days of work and 16 GB;
+#: 10**23 was a numpy error ("maximum allowed dimension exceeded") after the whole alignment.
+MAX_PERMUTATIONS = 10**9
+#: Refinement starts: each is one more assignment and refinement, every start's matching is held
+#: until the best is kept, and summary.json records each; 10**23 ran for ever.
+MAX_REFINE_STARTS = 10**4
+#: Worker processes of the dask engine's local cluster, all on this machine (more hardware threads
+#: than one machine has); a larger cluster is started apart and named with ``--scheduler``.
+MAX_WORKERS = 1024
+
 
 @dataclass(frozen=True)
 class Spec:
@@ -87,7 +98,8 @@ class Spec:
         if self.kind == "real":
             return check_real(value, name, low=self.low, high=self.high, closed=self.closed)
         if self.kind == "int":
-            return check_int(value, name, low=None if self.low is None else int(self.low))
+            return check_int(value, name, low=None if self.low is None else int(self.low),
+                             high=None if self.high is None else int(self.high))
         if self.kind == "choice":
             return check_choice(value, name, self.choices)
         if self.kind == "bool":
@@ -216,14 +228,16 @@ class AlignConfig(_Config):
     refine_starts: int | None = option(
         None, "Refinement: how many starts to refine from, the best result kept (the diffusion's matching, "
         "then the prior's, then matchings of randomly perturbed scores, seeded). Default: as many as fit in "
-        "1,000,000 candidate pairs refined in all, at most 8 (8 up to 125,000 candidates, 1 from 1,000,000).",
-        flag="--refine-starts", group=MATCHING, kind="int", low=1, optional=True)
+        "1,000,000 candidate pairs refined in all, at most 8 (8 up to 125,000 candidates, 1 from 1,000,000). "
+        "At most 10^4.", flag="--refine-starts", group=MATCHING, kind="int", low=1, high=MAX_REFINE_STARTS,
+        optional=True)
     refine_iter: int = option(
         30, "Refinement: cap on iterations (each one sparse product and one assignment).", flag="--refine-iter",
         group=MATCHING, kind="int", low=0)
     permutations: int = option(
         0, "Random one-to-one maps over the candidate pairs for the empirical p-value of the conserved edges "
-        "(0: the closed-form null only).", flag="--permutations", group=ANALYSIS, kind="int", low=0)
+        "(0: the closed-form null only; at most 10^9).", flag="--permutations", group=ANALYSIS, kind="int", low=0,
+        high=MAX_PERMUTATIONS)
     permutation_seed: int = option(
         0, "Seed of the random maps of --permutations.", flag="--permutation-seed", group=ANALYSIS, kind="int",
         low=0)
@@ -299,8 +313,9 @@ class EngineConfig(_Config):
         None, "With --engine dask: address of a running dask scheduler (such as tcp://host:8786). Default: start "
         "a local cluster of --workers processes.", flag="--scheduler", group="Engine", kind="text", optional=True)
     workers: int = option(
-        2, "With --engine dask and no --scheduler: worker processes of the local cluster.", flag="--workers",
-        group="Engine", kind="int", low=1)
+        2, "With --engine dask and no --scheduler: worker processes of the local cluster, all on this machine, "
+        "at most 1024 (for more, start a dask cluster and give its --scheduler).", flag="--workers",
+        group="Engine", kind="int", low=1, high=MAX_WORKERS)
     partitions: int | None = option(
         None, "With --engine dask: blocks of nodes of A (default: the number of workers).", flag="--partitions",
         group="Engine", kind="int", low=1, optional=True)

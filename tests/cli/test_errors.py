@@ -391,6 +391,19 @@ OPTION_CASES = [
     # score 0 and the matching arbitrary, with exit 0 (noticed by differential testing)
     ("structural-weight overflowing", ["--structural-candidates", "--structural-weight", "1e308"],
      [r"error: --structural-weight must be a number in \[0, .*\] for these candidates", r"got 1e\+308"]),
+    # counts past what can be held: 10**23 random maps was a numpy traceback ("maximum allowed dimension
+    # exceeded") after the whole alignment, 10**23 refinement starts and a local cluster of 10**23 workers
+    # ran for ever (noticed by differential testing)
+    ("permutations past the cap", ["--permutations", str(10**23)],
+     [r"error: --permutations must be a whole number in \[0, 10\^9\]; got 100000000000000000000000"]),
+    ("permutations one past the cap", ["--permutations", str(10**9 + 1)],
+     [r"error: --permutations must be a whole number in \[0, 10\^9\]; got 1000000001"]),
+    ("refine-starts past the cap", ["--refine-starts", str(10**23)],
+     [r"error: --refine-starts must be a whole number in \[1, 10\^4\]; got 100000000000000000000000"]),
+    ("workers past the cap", ["--engine", "dask", "--workers", str(10**23)],
+     [r"error: --workers must be a whole number in \[1, 1024\]; got 100000000000000000000000"]),
+    ("workers one past the cap", ["--engine", "dask", "--workers", "1025"],
+     [r"error: --workers must be a whole number in \[1, 1024\]; got 1025"]),
 ]
 
 
@@ -408,6 +421,27 @@ def test_negative_permutation_seed_is_refused_in_python_too():
     from aligner.errors import InvalidParameterError
     with pytest.raises(InvalidParameterError, match=r"permutation_seed must be a whole number >= 0; got -1"):
         aligner.align(str(A), str(B), prior=str(PRIOR), permutations=2, permutation_seed=-1)
+
+
+def test_counts_past_their_caps_are_refused_in_python_too(tmp_path):
+    # docs/errors.md and the help: --permutations at most 10^9, --refine-starts at most 10^4; the Python
+    # keywords are refused the same way, before any work (10**23 random maps was a numpy traceback after the
+    # whole alignment, 10**23 starts ran for ever); the largest allowed values are still taken, and 10,000
+    # random maps still run (noticed by differential testing)
+    import aligner
+    from aligner.config import AlignConfig
+    from aligner.errors import InvalidParameterError
+    for name, bad, low, high in (("permutations", 10**23, 0, "10\\^9"), ("refine_starts", 10**23, 1, "10\\^4"),
+                                 ("permutations", 10**9 + 1, 0, "10\\^9"), ("refine_starts", 10_001, 1, "10\\^4")):
+        with pytest.raises(InvalidParameterError, match=rf"^{name} must be a whole number in \[{low}, {high}\]; "
+                                                        rf"got {bad}$") as err:
+            aligner.align(str(A), str(B), prior=str(PRIOR), **{name: bad})
+        assert err.value.param == name
+    assert AlignConfig(permutations=10**9, refine_starts=10**4).permutations == 10**9
+    res = _align(tmp_path, "--permutations", "10000", "-q")
+    assert res.exit_code == 0, res.output
+    summary = json.loads((tmp_path / "out" / "summary.json").read_text())
+    assert summary["significance"]["candidate_maps"]["permutations"] == 10_000
 
 
 def test_overflowing_structural_weight_is_refused_in_python_too():

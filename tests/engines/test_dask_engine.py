@@ -486,18 +486,22 @@ def test_power_solver_is_reported_as_on_one_machine(client):
 
 def test_workers_and_partitions_are_checked_as_on_the_command_line(tmp_path):
     # Reference: the command line's own checks of --workers and --partitions (tests/engines/
-    # test_dask_cli.py; "a whole number >= 1"). From Python, workers=0 started a LocalCluster of no
-    # worker, and with partitions given the run waited for ever (found by differential testing).
+    # test_dask_cli.py; "a whole number in [1, 1024]" and "a whole number >= 1"). From Python, workers=0
+    # started a LocalCluster of no worker, and with partitions given the run waited for ever (found by
+    # differential testing); workers=10**23 waited for ever too (noticed by differential testing).
     from aligner.engines.dask.engine import align as dask_align
     from aligner.errors import InvalidParameterError
 
     for f, text in (("a.tsv", "x1\tx2\n"), ("b.tsv", "y1\ty2\n"), ("p.tsv", "x1\ty1\t1\n")):
         (tmp_path / f).write_text(text)
     args = [str(tmp_path / f) for f in ("a.tsv", "b.tsv", "p.tsv")]
-    for kw, name in (({"workers": 0}, "workers"), ({"workers": 0, "partitions": 2}, "workers"),
-                     ({"workers": 1.5}, "workers"), ({"partitions": 0}, "partitions"),
-                     ({"partitions": True}, "partitions"), ({"partitions": "2"}, "partitions")):
-        with pytest.raises(InvalidParameterError, match=f"^{name} must be a whole number >= 1; got ") as err:
+    workers, partitions = r"a whole number in \[1, 1024\]", "a whole number >= 1"
+    for kw, name, must in (({"workers": 0}, "workers", workers), ({"workers": 0, "partitions": 2}, "workers", workers),
+                           ({"workers": 1.5}, "workers", workers), ({"workers": 10**23}, "workers", workers),
+                           ({"workers": 1025}, "workers", workers), ({"partitions": 0}, "partitions", partitions),
+                           ({"partitions": True}, "partitions", partitions),
+                           ({"partitions": "2"}, "partitions", partitions)):
+        with pytest.raises(InvalidParameterError, match=f"^{name} must be {must}; got ") as err:
             dask_align(*args, **kw)
         assert err.value.param == name
 

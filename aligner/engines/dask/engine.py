@@ -28,8 +28,8 @@ from typing import Any
 
 import numpy as np
 
-from aligner.checks import check_int, warn
-from aligner.config import DASK_READING, AlignConfig, from_options
+from aligner.checks import warn
+from aligner.config import DASK_READING, AlignConfig, EngineConfig, from_options
 from aligner.core.diffusion import DiffusionResult
 from aligner.core.product import ProductGraph
 from aligner.core.rounding import Matching
@@ -365,9 +365,11 @@ def align(network_a, network_b, prior=None, *, truth=None, seeds=None, client=No
     if diffusion_mode not in diffusion.MODES:
         raise InvalidParameterError(f"diffusion_mode must be one of {', '.join(diffusion.MODES)}; got "
                                     f"{diffusion_mode!r}", param="diffusion_mode")
-    # as the command line checks --workers and --partitions: a LocalCluster of no worker waited for ever
-    workers = check_int(workers, "workers", low=1)
-    parts = workers if partitions is None else check_int(partitions, "partitions", low=1)
+    # checked by their declarations, as the command line checks --workers and --partitions: a LocalCluster
+    # of no worker waited for ever, and one of 10**23 workers never started
+    sizes = EngineConfig(workers=workers, partitions=partitions)
+    workers = sizes.workers
+    parts = workers if sizes.partitions is None else sizes.partitions
     if reading not in DASK_READING:
         raise InvalidParameterError(f"reading must be one of {', '.join(DASK_READING)}; got {reading!r}",
                                     param="reading")
