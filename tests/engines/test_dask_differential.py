@@ -46,3 +46,46 @@ def test_a_tolerance_out_of_reach_says_what_to_change_as_on_one_machine(client, 
         assert "raise --tol" in err.shown(flags) and "lower --alpha" in err.shown(flags)
     assert str(mine.value).count("stopped after") == 1
     assert mine.value.iterations >= 1 and mine.value.residual > 1e-18
+
+
+def test_every_block_holds_a_node_with_candidates_when_one_node_has_most_of_the_work(client):
+    # docs/engine.md: "A block holds at least one node of A with candidate pairs". A star's hub with
+    # a candidate pair to every node of B carried most of the work, and the cut by cumulative work
+    # left the blocks after it empty (pairs_per_block [41, 0, 0, 4] at K = 4 with 5 such nodes).
+    # Reference: the single-machine run on the same star (the same matching, x within the bound).
+    import pandas as pd
+
+    n = 40
+    ea = pd.DataFrame({"u": ["h"] * n, "v": [f"l{i:02d}" for i in range(n)]})
+    eb = pd.DataFrame({"u": ["H"] * n, "v": [f"L{i:02d}" for i in range(n)]})
+    prior = pd.DataFrame([("h", "H", 2.0)] + [("h", f"L{i:02d}", 1.0) for i in range(n)]
+                         + [(f"l{i:02d}", f"L{i:02d}", 1.0) for i in range(4)], columns=["a", "b", "s"])
+    single = aligner.align(ea, eb, prior, top_k=None, refine=False)
+    for k in (2, 4, 5):
+        res = dask_align(ea, eb, prior, client=client, partitions=k, top_k=None, refine=False)
+        eng = res.summary["engine"]
+        assert eng["partitions"] == k and len(eng["pairs_per_block"]) == k
+        assert min(eng["pairs_per_block"]) > 0, (k, eng["pairs_per_block"])
+        assert np.abs(res.diffusion.x - single.diffusion.x).sum() <= 2 * 1e-6 / (1 - 0.9)
+        assert np.array_equal(res.matching.index, single.matching.index)
+
+
+def test_cut_by_cost_leaves_no_range_without_work_when_it_can():
+    # The property the engine's blocks rely on (common practice for a balanced contiguous cut):
+    # with at most as many parts as nodes of positive cost, every range gets one, and no range
+    # costs more than the mean plus the costliest node. Costs drawn with numpy's generator, half
+    # of them zero and the rest heavy-tailed (Pareto).
+    from aligner.engines.dask.blocks import cut_by_cost
+
+    assert cut_by_cost(np.array([100.0, 1, 1, 1, 1]), 4).tolist() == [0, 1, 2, 3, 5]
+    rng = np.random.default_rng(1)
+    for _ in range(500):
+        n = int(rng.integers(1, 30))
+        cost = np.where(rng.random(n) < 0.5, 0.0, np.floor(rng.pareto(1.0, size=n) * 10) + 1)
+        k = int(rng.integers(1, n + 2))
+        bounds = cut_by_cost(cost, k)
+        assert bounds[0] == 0 and bounds[-1] == n and (np.diff(bounds) >= 0).all()
+        per = np.array([cost[bounds[b]:bounds[b + 1]].sum() for b in range(k)])
+        if k <= np.count_nonzero(cost):
+            assert (per > 0).all(), (cost.tolist(), k)
+        assert per.max() <= cost.sum() / k + cost.max()

@@ -44,20 +44,38 @@ def node_costs(a_indptr, a_indices, b_indptr, b_indices, cand: CandidateSet) -> 
 
 def partition(a_indptr, a_indices, b_indptr, b_indices, cand: CandidateSet, parts: int) -> npt.NDArray[np.int64]:
     """Bounds ``0 = n_0 <= n_1 <= ... <= n_parts = n1`` of ``parts`` contiguous ranges of nodes of A
-    of about equal work (:func:`node_costs`). A range may be empty when there are more parts than
-    nodes with work."""
+    of about equal work (:func:`node_costs`). Every range holds a node with work (candidate pairs)
+    unless there are more parts than such nodes."""
     return cut_by_cost(node_costs(a_indptr, a_indices, b_indptr, b_indices, cand), parts)
 
 
 def cut_by_cost(cost: np.ndarray, parts: int) -> npt.NDArray[np.int64]:
     """Bounds of ``parts`` contiguous ranges of nodes by cumulative ``cost`` (one number per node):
     range b ends at the node where the running sum reaches (b + 1) / parts of the total, so no
-    range costs more than the mean plus the costliest single node."""
+    range costs more than the mean plus the costliest single node.
+
+    When at most ``parts`` nodes have a positive cost, every range gets at least one of them: a
+    node carrying most of the work would otherwise leave the ranges after it empty (a star's hub:
+    blocks of no pair, each still a task of every round). A bound moved for that leaves the range
+    that grew with exactly one costly node, so the bound above still holds."""
     cum = np.cumsum(cost)
     total = cum[-1] if len(cum) else 0.0
     cuts = np.searchsorted(cum, total * np.arange(1, parts) / parts, side="left") + 1
     bounds = np.concatenate([[0], np.minimum(cuts, len(cost)), [len(cost)]]).astype(np.int64)
-    return np.maximum.accumulate(bounds)
+    bounds = np.maximum.accumulate(bounds)
+    busy = np.flatnonzero(np.asarray(cost) > 0)
+    if parts > len(busy):
+        return bounds
+    # the costly nodes before each bound, made strictly increasing from 0 to all of them
+    held = np.searchsorted(busy, bounds, side="left")
+    for b in range(1, parts + 1):
+        held[b] = max(held[b], held[b - 1] + 1)
+    held[parts] = len(busy)
+    for b in range(parts - 1, 0, -1):
+        held[b] = min(held[b], held[b + 1] - 1)
+    moved = held != np.searchsorted(busy, bounds, side="left")
+    bounds[moved] = busy[held[moved]]  # the range starts at its first costly node
+    return bounds
 
 
 def _gather_rows(indptr: np.ndarray, rows: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
