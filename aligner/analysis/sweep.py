@@ -19,7 +19,7 @@ from typing import Any, Callable, Sequence
 import numpy as np
 import pandas as pd
 
-from aligner.checks import check_real
+from aligner.checks import check_real, warn
 from aligner.config import AlignConfig, from_options, with_options
 from aligner.errors import InvalidParameterError
 from aligner.pipeline import AlignmentResult, Clock, Problem, prepare, run_stages
@@ -41,7 +41,8 @@ class SweepResult:
     ----------
     table : DataFrame
         One row per alpha, ascending, with the columns of :data:`SWEEP_COLUMNS`: conserved
-        edges, EC, S3, ``prior_weight`` (sum of the prior similarity of the matched pairs), NC
+        edges, EC, S3, ``prior_weight`` (sum of the prior similarity of the matched pairs; inf,
+        with a warning, when it passes the largest float), NC
         (NaN without a truth table), matched pairs, and the solve figures (pushes or
         iterations, edge touches, final 1-norm residual, diffusion seconds, seconds for the
         whole alpha: diffusion, rounding, refinement and scoring).
@@ -73,12 +74,13 @@ def knee_index(x: Sequence[float], y: Sequence[float]) -> int | None:
     Both coordinates are min-max scaled to [0, 1] first (a flat axis stays 0), then the
     distance of each point to the straight line through the first and the last point is
     |(p_n - p_1) x (p_i - p_1)| / |p_n - p_1| (Satopää et al. 2011, "Finding a 'kneedle' in a
-    haystack", ICDCS workshops). None with fewer than three points, coinciding end points, or
-    every distance below 1e-12.
+    haystack", ICDCS workshops). None with fewer than three points, coinciding end points, every
+    distance below 1e-12, or a coordinate that is not finite (a prior weight past the largest float:
+    the curve has no known extent to scale).
     """
     x = np.asarray(x, dtype=np.float64)
     y = np.asarray(y, dtype=np.float64)
-    if len(x) < 3:
+    if len(x) < 3 or not (np.isfinite(x).all() and np.isfinite(y).all()):
         return None
 
     def scale(v):
@@ -103,10 +105,28 @@ def _check_alphas(alphas) -> list[float]:
     return vals
 
 
+def _prior_weight(res: AlignmentResult) -> float:
+    """The sum of the prior scores of the matched pairs: inf when it passes the largest float (scores
+    near 1e308; the diffusion divides such a prior by its largest score, so the alignment is sound)."""
+    with np.errstate(over="ignore"):
+        return float(res.candidates.prior[res.matching.index].sum())
+
+
+def _warn_infinite_weights(table: pd.DataFrame) -> None:
+    """Say which rows' prior weight passed the largest float, what the table holds there, and what to do."""
+    over = table.loc[~np.isfinite(table["prior_weight"].to_numpy(dtype=np.float64)), "alpha"]
+    if len(over):
+        where = "every alpha" if len(over) == len(table) else "alpha " + ", ".join(f"{a:g}" for a in over)
+        warn(f"the prior scores of the matched pairs sum past the largest float ({np.finfo(np.float64).max:.4g}) "
+             f"at {where}: prior_weight is given as inf there and the sweep has no knee (the alignments are not "
+             "affected: the diffusion divides such a prior by its largest score); divide the prior's scores by a "
+             "constant, such as their largest, for finite weights")
+
+
 def _row(res: AlignmentResult, seconds: float) -> dict:
-    sc, diff, cand = res.scores, res.diffusion, res.candidates
+    sc, diff = res.scores, res.diffusion
     return {"alpha": res.config.alpha, "conserved_edges": sc.conserved_edges, "ec": sc.ec, "s3": sc.s3,
-            "prior_weight": float(cand.prior[res.matching.index].sum()),
+            "prior_weight": _prior_weight(res),
             "nc": np.nan if sc.nc is None else sc.nc, "matched_pairs": sc.n_matched,
             "solver_steps": diff.steps, "edge_touches": diff.edge_touches, "residual_l1": diff.residual,
             "solve_seconds": diff.seconds, "seconds": seconds}
@@ -139,4 +159,5 @@ def sweep(network_a, network_b, prior=None, *, alphas: Sequence[float] = DEFAULT
         results.append(res)
         x = res.diffusion.x
     table = pd.DataFrame(rows, columns=list(SWEEP_COLUMNS))
+    _warn_infinite_weights(table)
     return SweepResult(table, knee_index(table["prior_weight"], table["conserved_edges"]), results, problem, setup)

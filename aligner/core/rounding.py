@@ -113,7 +113,9 @@ def round_matching(cand: CandidateSet, w: npt.ArrayLike, *, method: str = "auto"
     from aligner.kernels.assign import matched_entries
 
     index = matched_entries(indptr, cols, np.ascontiguousarray(row_to_col, dtype=np.int64), use)
-    return Matching(index=index, method=method, weight=float(w[index].sum()), seconds=time.perf_counter() - t0)
+    with np.errstate(over="ignore"):  # scores whose sum passes the largest float (a prior near 1e308): inf
+        weight = float(w[index].sum())
+    return Matching(index=index, method=method, weight=weight, seconds=time.perf_counter() - t0)
 
 
 def _scipy_matching(indptr, cols, ww, nr, nc):

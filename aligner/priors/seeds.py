@@ -204,7 +204,7 @@ def seed_vector(prior: npt.ArrayLike, seed_idx: npt.ArrayLike, weight: float = D
     seed_idx = np.asarray(seed_idx, dtype=np.int64)
     if len(seed_idx) == 0 or weight == 0 or len(h) == 0:
         return h
-    if np.asarray(prior).sum() <= 0:  # no prior evidence at all: the seeds alone
+    if not np.any(np.asarray(prior) > 0):  # no prior evidence at all (scores are >= 0): the seeds alone
         h = np.zeros(len(h))
         h[seed_idx] = 1.0 / len(seed_idx)
         return h
@@ -428,7 +428,9 @@ def round_with_fixed(cand: CandidateSet, w: npt.ArrayLike, fixed_idx: npt.ArrayL
     free[busy_a[cand.pairs[:, 0]] | busy_b[cand.pairs[:, 1]]] = 0.0
     m = round_matching(cand, free, method=method)
     index = np.sort(np.concatenate([m.index, fixed_idx]))
-    return Matching(index=index, method=m.method, weight=float(w[index].sum()), seconds=time.perf_counter() - t0)
+    with np.errstate(over="ignore"):  # scores whose sum passes the largest float (a prior near 1e308): inf
+        weight = float(w[index].sum())
+    return Matching(index=index, method=m.method, weight=weight, seconds=time.perf_counter() - t0)
 
 
 def seed_summary(net_a: Network, net_b: Network, matched: npt.ArrayLike, seeds: SeedTable, *,

@@ -145,7 +145,8 @@ def sweep_table(table) -> Table:
     return t
 
 
-def sweep_lines(knee_alpha: float | None, knee_rule: str, written: Iterable[Path]) -> list[str]:
+def sweep_lines(knee_alpha: float | None, knee_rule: str, written: Iterable[Path], *,
+                weights_finite: bool = True) -> list[str]:
     """The lines printed after a sweep's table.
 
     Parameters
@@ -156,13 +157,17 @@ def sweep_lines(knee_alpha: float | None, knee_rule: str, written: Iterable[Path
         How the knee was chosen, shown beside it.
     written : iterable of Path
         The files written.
+    weights_finite : bool
+        False when a prior weight of the table passed the largest float (no knee is sought then).
 
     Returns
     -------
     list of str
         The suggested alpha (or why there is none), then the files written.
     """
-    if knee_alpha is None:
+    if knee_alpha is None and not weights_finite:
+        first = "no knee: a prior weight passed the largest float (see the warning above)"
+    elif knee_alpha is None:
         first = "no knee: the alphas give fewer than three distinct points, or points on a straight line"
     else:
         first = f"suggested alpha = {knee_alpha:g} (knee rule: {knee_rule})"

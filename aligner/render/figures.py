@@ -157,12 +157,22 @@ def sweep_figure(table, knee: int | None, *, title: str | None = None):
     ``table`` has the columns ``alpha``, ``prior_weight`` and ``conserved_edges`` (a sweep table);
     ``knee`` is its row of the knee or None. Points that coincide on the page share one label
     (``α=0.3–0.95 (6)``); each label is placed where it overlaps no other label, point or the
-    legend and stays inside the axes. Returns the matplotlib figure (the caller closes it).
+    legend and stays inside the axes. A point whose prior weight is not finite (past the largest
+    float) cannot be placed: it is left out, and the figure says so. Returns the matplotlib figure
+    (the caller closes it).
     """
+    import numpy as np
+
     plt = _pyplot()
     fig, ax = plt.subplots(figsize=(6.4, 4.4), dpi=110)
     xs, ys = table["prior_weight"].to_numpy(dtype=float), table["conserved_edges"].to_numpy(dtype=float)
     alphas = table["alpha"].to_numpy(dtype=float)
+    finite, note = np.isfinite(xs) & np.isfinite(ys), None
+    if not finite.all():  # and no knee (aligner.analysis.sweep.knee_index): the curve's extent is unknown
+        left_out = "every α" if not finite.any() else "α=" + ", ".join(f"{a:g}" for a in alphas[~finite])
+        xs, ys, alphas, knee = xs[finite], ys[finite], alphas[finite], None
+        note = ax.text(0.5, 0.02, f"not drawn: {left_out} (prior weight past the largest float)",
+                       transform=ax.transAxes, ha="center", va="bottom", fontsize=8, color="#a33a1f")
     ax.plot(xs, ys, "-", color="#7a8ca3", lw=1.2, zorder=1)
     ax.scatter(xs, ys, s=28, color="#1f5f8b", zorder=2)
     if knee is not None:
@@ -173,7 +183,7 @@ def sweep_figure(table, knee: int | None, *, title: str | None = None):
     ax.set_title(title or "Wiring against prior across α", fontsize=10)
     _finish(fig, ax, "total prior similarity of the matched pairs", "conserved edges", legend=knee is not None)
     fig.canvas.draw()  # lay out the axes and the legend before measuring where labels fit
-    obstacles = []
+    obstacles = [] if note is None else [note.get_window_extent(fig.canvas.get_renderer())]
     if knee is not None:  # the ring around the knee (190 points² of marker area: a radius near 8 points)
         kx, ky = ax.transData.transform((xs[knee], ys[knee]))
         r = 8.5 * fig.dpi / 72

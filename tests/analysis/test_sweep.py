@@ -128,3 +128,61 @@ def test_cli_sweep_writes_table_and_figures(tmp_path):
     assert b"<svg" in (out / "sweep.svg").read_bytes()[:2000]
     again = CliRunner().invoke(app, ["sweep", str(a), str(b), "-p", str(p), "-o", str(out)])
     assert again.exit_code == 2 and "--force" in again.output
+
+
+def test_a_prior_summing_past_the_largest_float_sweeps_without_numpy_warnings(tmp_path):
+    # Reference: the same sweep on the prior divided by its largest score (the diffusion divides such a prior
+    # by its maximum first, so every alignment is the same). The sum of the matched pairs' scores passes the
+    # largest float: numpy printed RuntimeWarnings (overflow in the rounding's weight, invalid values in the
+    # knee and the figure) and sweep.tsv held prior_weight inf with nothing said; now no numpy warning, the
+    # weight is inf with an AlignerWarning saying so, and there is no knee (noticed by differential testing).
+    import warnings
+
+    from aligner.errors import AlignerWarning
+
+    a, b, p, _ = _write(tmp_path)
+    table = pd.read_csv(p, sep="\t", header=None)
+    huge, scaled = tmp_path / "huge.tsv", tmp_path / "scaled.tsv"
+    top = table[2].max()
+    table.assign(s=table[2] / top * 1e308)[[0, 1, "s"]].to_csv(huge, sep="\t", index=False, header=False)
+    table.assign(s=table[2] / top)[[0, 1, "s"]].to_csv(scaled, sep="\t", index=False, header=False)
+    with warnings.catch_warnings(record=True) as seen:
+        warnings.simplefilter("always")
+        warnings.simplefilter("error", RuntimeWarning)
+        res = sweep(a, b, huge, alphas=[0.0, 0.5, 0.9])
+    ours = [str(w.message) for w in seen if issubclass(w.category, AlignerWarning)]
+    assert any("sum past the largest float" in m and "prior_weight is given as inf" in m for m in ours), ours
+    assert np.isinf(res.table["prior_weight"]).all() and res.knee is None
+    ref = sweep(a, b, scaled, alphas=[0.0, 0.5, 0.9])
+    for got, want in zip(res.results, ref.results):
+        pd.testing.assert_frame_equal(got.pairs[["node_a", "node_b"]], want.pairs[["node_a", "node_b"]])
+    assert knee_index([np.inf, 1.0, 0.5], [0, 5, 6]) is None
+
+
+def test_cli_sweep_and_report_of_a_prior_summing_past_the_largest_float(tmp_path):
+    # docs/errors.md: what a sweep says when the prior weight passes the largest float; no numpy warning
+    # reaches the user (as errors here: the command fails with one), the figure and the report are drawn
+    # (noticed by differential testing)
+    import warnings
+
+    a, b, p, _ = _write(tmp_path)
+    table = pd.read_csv(p, sep="\t", header=None)
+    huge = tmp_path / "huge.tsv"
+    table.assign(s=1e308)[[0, 1, "s"]].to_csv(huge, sep="\t", index=False, header=False)
+    out = tmp_path / "out"
+    with warnings.catch_warnings():
+        warnings.simplefilter("error", RuntimeWarning)
+        r = CliRunner().invoke(app, ["sweep", str(a), str(b), "-p", str(huge), "-o", str(out), "--alphas", "0,0.5,0.9"])
+        assert r.exit_code == 0, (r.output, r.exception)
+        text = " ".join(r.output.split())
+        assert "warning: the prior scores of the matched pairs sum past the largest float" in text
+        assert "no knee: a prior weight passed the largest float" in text
+        assert "RuntimeWarning" not in text
+        tab = pd.read_csv(out / "sweep.tsv", sep="\t")
+        assert np.isinf(tab["prior_weight"]).all()
+        r = CliRunner().invoke(app, ["align", str(a), str(b), "-p", str(huge), "-o", str(tmp_path / "run")])
+        assert r.exit_code == 0, (r.output, r.exception)
+        for f in ("sweep.tsv", "sweep.png", "sweep.svg"):
+            (tmp_path / "run" / f).write_bytes((out / f).read_bytes())
+        r = CliRunner().invoke(app, ["report", str(tmp_path / "run"), "-q"])
+        assert r.exit_code == 0, (r.output, r.exception)

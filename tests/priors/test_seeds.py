@@ -330,3 +330,21 @@ def test_a_provisional_pair_outside_the_top_k_keeps_its_witness_score():
         d, dp = ga.degree(j), gb.degree(jp)
         want = count + 0.5 * min(d, dp) / max(d, dp) if count else 0.0
         assert prior[(j, jp)] == pytest.approx(want, rel=1e-12), (j, jp)
+
+
+def test_seeds_with_a_prior_summing_past_the_largest_float_warn_nothing():
+    # Reference: the same seeds over the prior divided by its largest score (the diffusion divides such a
+    # prior by its maximum first: the same h). seed_vector's test for a prior without evidence summed the
+    # scores, and round_with_fixed summed the matched ones: numpy printed an overflow RuntimeWarning
+    # (noticed by differential testing)
+    import warnings
+
+    cand = build_candidates([[0, 0], [0, 1], [1, 1], [2, 2]], [1e308, 5e307, 1e308, 1e308], 3, 3, top_k=None)
+    seeds = SeedTable(np.array([[1, 1]], dtype=np.int32), 1)
+    idx = seed_index(cand, seeds)
+    with warnings.catch_warnings():
+        warnings.simplefilter("error", RuntimeWarning)
+        h = seed_vector(cand.prior, idx, 1.0)
+        m = round_with_fixed(cand, cand.prior, idx)
+    assert np.allclose(h, seed_vector(cand.prior / 1e308, idx, 1.0))
+    assert sorted(cand.pairs[m.index].tolist()) == [[0, 0], [1, 1], [2, 2]] and m.weight == np.inf

@@ -98,3 +98,19 @@ def test_node_names_the_font_lacks_draw_without_a_warning():
         data = figure_bytes(subgraph_drawing(sub, {"ünï漢": "B漢", "tab\tin": "B\t", "c": "Bc"}), ("png", "svg"))
     assert data["png"].startswith(b"\x89PNG") and b"<svg" in data["svg"]
     assert [str(w.message) for w in caught if "Glyph" in str(w.message)] == []
+
+
+def test_sweep_figure_leaves_out_points_past_the_largest_float():
+    # A sweep of a prior whose matched scores sum past the largest float has prior weight inf there
+    # (aligner.analysis.sweep): numpy's "invalid value" RuntimeWarning came out of the label placement;
+    # now those points are left out, the figure saying which (noticed by differential testing)
+    import warnings
+
+    table = _table().assign(prior_weight=[float("inf"), 9.5, 7.0])
+    with warnings.catch_warnings():
+        warnings.simplefilter("error", RuntimeWarning)
+        texts = [t.get_text() for t in sweep_figure(table, None).axes[0].texts]
+        assert "not drawn: α=0 (prior weight past the largest float)" in texts and "α=0.5" in texts
+        texts = [t.get_text() for t in sweep_figure(table.assign(prior_weight=float("inf")), None).axes[0].texts]
+        assert texts == ["not drawn: every α (prior weight past the largest float)"]
+        assert list(plot_sweep(table, None, ("png",))) == ["png"]

@@ -2,6 +2,8 @@
 
 from __future__ import annotations
 
+import math
+
 from aligner.cli.commands.align import NetworkA, NetworkB
 from aligner.cli.options import Alphas, Force, Out, Prior, Quiet, Seeds, Truth, Use, command
 from aligner.cli.runtime import check_inputs, check_option_combinations, err, out, say
@@ -45,5 +47,6 @@ def sweep(network_a: NetworkA, network_b: NetworkB, outdir: Out, prior: Prior = 
     written = write_sweep_outputs(outdir, res.table, figures, force=force)
     if not quiet:
         out.print(sweep_table(res.table))
-        for line in sweep_lines(res.knee_alpha, KNEE_RULE, written):
+        finite = all(math.isfinite(w) for w in res.table["prior_weight"])
+        for line in sweep_lines(res.knee_alpha, KNEE_RULE, written, weights_finite=finite):
             say(line)
