@@ -205,9 +205,9 @@ class AlignConfig(_Config):
         0.9, "Weight of the wiring against the prior, in [0, 1); 0 returns the prior's own best matching.",
         flag="--alpha", group=DIFFUSION, kind="real", low=0.0, high=1.0, closed="left")
     tol: float = option(
-        1e-6, "1-norm residual tolerance of the diffusion (h sums to 1); every score is then within "
-        "tol / (1 - alpha) of the exact solution.", flag="--tol", group=DIFFUSION, kind="real", low=0.0,
-        closed="neither")
+        1e-6, "1-norm residual tolerance of the diffusion (h sums to 1), in (0, 1): the residual starts below 1, "
+        "so 1 or more would ask for no work; every score is then within tol / (1 - alpha) of the exact solution.",
+        flag="--tol", group=DIFFUSION, kind="real", low=0.0, high=1.0, closed="neither")
     solver: str = option(
         "push", "Diffusion solver: push (Gauss-Southwell) or power (power iteration, the reference).",
         flag="--solver", group=DIFFUSION, kind="choice", choices=SOLVERS)
@@ -256,9 +256,9 @@ class QueryConfig(_Config):
                        flag="--side", group="Query", kind="choice", choices=SIDES)
     top: int | None = option(10, "Counterparts listed per node (None: all its candidates).", flag="--top",
                              group="Query", kind="int", low=1, optional=True)
-    tol: float = option(1e-6, "Push tolerance relative to the query's mass: each score is certified within "
-                        "tol * support / (1 - alpha) (tol * deg_A * deg_B / (1 - alpha) with --normalization "
-                        "product).", flag="--tol", group="Query", kind="real", low=0.0,
+    tol: float = option(1e-6, "Push tolerance relative to the query's mass (1), in (0, 1): each score is certified "
+                        "within tol * support / (1 - alpha) (tol * deg_A * deg_B / (1 - alpha) with "
+                        "--normalization product).", flag="--tol", group="Query", kind="real", low=0.0, high=1.0,
                         closed="neither")
     max_pushes: int | None = option(None, "Cap on the pushes of one query (None: 10^8).", flag="--max-pushes",
                                     group="Query", kind="int", low=0, optional=True)

@@ -113,7 +113,7 @@ def test_min_score_leaving_nothing():
 @pytest.mark.parametrize("kw, pattern", [
     ({"alpha": 1.0}, r"^alpha must be a number in \[0, 1\); got 1\.0$"),
     ({"top_k": 0}, r"^top_k must be a whole number >= 1; got 0$"),
-    ({"tol": 0.0}, r"^tol must be a number in \(0, inf\); got 0\.0$"),
+    ({"tol": 0.0}, r"^tol must be a number in \(0, 1\); got 0\.0$"),
     ({"solver": "magic"}, r"^solver must be one of push, power; got 'magic'$"),
     ({"score_kind": "pvalue"}, r"^score_kind must be one of similarity, evalue, distance; got 'pvalue'$"),
     ({"refine": "yes"}, r"^refine must be True or False; got 'yes'$"),

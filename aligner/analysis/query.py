@@ -149,7 +149,7 @@ class QueryEngine:
         The candidate pairs; with seeds, they must include the seed pairs
         (:func:`aligner.priors.seeds.add_seed_pairs`).
     alpha : float in [0, 1)
-    tol : float > 0
+    tol : float in (0, 1)
         Push tolerance relative to the mass of h (see :data:`DEFAULT_QUERY_TOL`).
     normalization : {"restricted", "product"}
     seeds : SeedTable, optional
@@ -163,7 +163,7 @@ class QueryEngine:
                  seeds: SeedTable | None = None, seed_weight: float = AlignConfig.seed_weight,
                  max_pushes: int | None = None):
         self.alpha = check_real(alpha, "alpha", low=0.0, high=1.0, closed="left")
-        self.tol = check_real(tol, "tol", low=0.0, closed="neither")
+        self.tol = check_real(tol, "tol", low=0.0, high=1.0, closed="neither")  # as QueryConfig.tol
         self.normalization = check_choice(normalization, "normalization", NORMALIZATIONS)
         self.seed_weight = check_real(seed_weight, "seed_weight", low=0.0)
         # a cap past the largest int64 is never reached: held as that largest value, which the compiled push takes

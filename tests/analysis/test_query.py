@@ -388,3 +388,36 @@ def test_caps_past_the_largest_int64_are_never_reached_rather_than_a_traceback()
             res = runner.invoke(app, ["query", paths[0], paths[1], "-p", paths[2], "-n", "a3", flag, str(10**23)])
             assert res.exit_code == 0, res.output
             assert "Traceback" not in res.output
+
+
+def test_a_tolerance_of_one_or_more_is_refused_naming_the_option(tmp_path):
+    # Checked against docs/commands.md (--tol of query and align: "number in (0, 1)") and docs/errors.md (one
+    # line, exit 2, no numpy warning): the query's h has mass 1 and the alignment's h sums to 1, so the residual
+    # starts below 1 and a tol of 1 or more asks for no work; --tol 1e308 printed a numpy overflow
+    # RuntimeWarning (query: eps times the degree in the error bound; align: the push thresholds) and went on
+    # (noticed by differential testing). Values below 1 still run.
+    import warnings
+
+    A, B, P, _ = _relabelled_frames()
+    for tol in (1e308, 1.0):
+        with pytest.raises(aligner.InvalidParameterError, match=r"^tol must be a number in \(0, 1\); got ") as err:
+            aligner.query(A, B, P, nodes=["a3"], tol=tol)
+        assert err.value.param == "tol"
+        with pytest.raises(aligner.InvalidParameterError, match=r"^tol must be a number in \(0, 1\)"):
+            aligner.align(A, B, P, tol=tol)
+    with warnings.catch_warnings():
+        warnings.simplefilter("error", RuntimeWarning)
+        assert len(aligner.query(A, B, P, nodes=["a3"], top=2, tol=0.99).table) == 2
+    folder = tmp_path / "in"
+    folder.mkdir()
+    paths = []
+    for name, frame in (("a", A), ("b", B), ("p", P)):
+        frame.to_csv(folder / f"{name}.tsv", sep="\t", index=False, header=False)
+        paths.append(str(folder / f"{name}.tsv"))
+    for cmd in (["query", *paths[:2], "-p", paths[2], "-n", "a3"],
+                ["align", *paths[:2], "-p", paths[2], "-o", str(tmp_path / "out")]):
+        res = CliRunner().invoke(app, [*cmd, "--tol", "1e308"])
+        assert res.exit_code == 2, res.output
+        assert "error: --tol must be a number in (0, 1); got 1e+308" in res.output
+        assert "Warning" not in res.output and "Traceback" not in res.output
+    assert not (tmp_path / "out").exists()

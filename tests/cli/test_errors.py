@@ -371,8 +371,12 @@ OPTION_CASES = [
     ("alpha text", ["--alpha", "high"], [r"--alpha must be a number in \[0, 1\); got 'high'"]),
     ("top-k 0", ["--top-k", "0"], [r"--top-k must be a whole number >= 1; got 0"]),
     ("top-k negative", ["--top-k", "-3"], [r"--top-k must be a whole number >= 1; got -3"]),
-    ("tol 0", ["--tol", "0"], [r"--tol must be a number in \(0, inf\); got 0.0"]),
-    ("tol negative", ["--tol", "-1e-6"], [r"--tol must be a number in \(0, inf\); got -1e-06"]),
+    ("tol 0", ["--tol", "0"], [r"--tol must be a number in \(0, 1\); got 0.0"]),
+    ("tol negative", ["--tol", "-1e-6"], [r"--tol must be a number in \(0, 1\); got -1e-06"]),
+    # the residual starts below 1 (h sums to 1): 1 or more asks for no work, and 1e308 overflowed the push
+    # thresholds with a numpy RuntimeWarning (noticed by differential testing)
+    ("tol 1", ["--tol", "1"], [r"--tol must be a number in \(0, 1\); got 1.0"]),
+    ("tol overflowing", ["--tol", "1e308"], [r"--tol must be a number in \(0, 1\); got 1e\+308"]),
     ("score kind", ["--score-kind", "pvalue"], [r"--score-kind must be one of similarity, evalue, distance; "
                                                r"got 'pvalue'"]),
     ("delimiter", ["--delimiter", "ab"], [r"--delimiter must be tab, comma, semicolon", r"got 'ab'"]),
