@@ -333,10 +333,26 @@ def _ids_frame(names: pa.Array, parts: int):
     return dd.from_pandas(frame, npartitions=parts, sort=False)
 
 
+#: how many times a scatter is tried when the worker it went to has just been lost
+SHARE_ATTEMPTS = 3
+
+
 def _share(client, value):
     """``value`` placed on the cluster once; the workers whose tasks use it fetch it from there (a
-    scatter to every worker would wait for ever on a worker that has just been lost)."""
-    return client.scatter(value, hash=False)
+    scatter to every worker would wait for ever on a worker that has just been lost).
+
+    A worker lost just before the scatter may still be listed by the scheduler and be the one
+    chosen: the connection to it closes, and the scatter is tried again (the scheduler drops the
+    worker meanwhile), as dask runs a lost worker's reading tasks again elsewhere."""
+    from distributed.comm.core import CommClosedError
+
+    for attempt in range(SHARE_ATTEMPTS):
+        try:
+            return client.scatter(value, hash=False)
+        except (CommClosedError, OSError):
+            if attempt == SHARE_ATTEMPTS - 1:
+                raise
+            time.sleep(0.5 * (attempt + 1))
 
 
 def _merge(frame, ids, on: str, to: str, how: str):
