@@ -311,7 +311,9 @@ class EngineConfig(_Config):
         flag="--engine", group="Engine", kind="choice", choices=ENGINES)
     scheduler: str | None = option(
         None, "With --engine dask: address of a running dask scheduler (such as tcp://host:8786). Default: start "
-        "a local cluster of --workers processes.", flag="--scheduler", group="Engine", kind="text", optional=True)
+        "a local cluster of --workers processes.", flag="--scheduler", group="Engine", kind="text", optional=True,
+        # an empty address (an unset shell variable in --scheduler "$ADDR") is refused, not taken for no address
+        pattern=r".*\S.*", shape="the address of a running dask scheduler, such as tcp://host:8786")
     workers: int = option(
         2, "With --engine dask and no --scheduler: worker processes of the local cluster, all on this machine, "
         "at most 1024 (for more, start a dask cluster and give its --scheduler).", flag="--workers",

@@ -424,3 +424,44 @@ def test_an_empty_value_of_an_optional_number_is_refused_not_taken_as_none(tmp_p
     assert "Traceback" not in res.output
     assert f"error: {flag} must be " in " ".join(res.output.split()) and "got ''" in res.output
     assert not (tmp_path / "out").exists()
+
+
+@pytest.mark.parametrize("cmd, args, flag, must", [
+    ("sweep", ["--alphas", ""], "--alphas", "comma-separated numbers such as 0,0.5,0.9"),
+    ("sweep", ["--alphas", " , "], "--alphas", "comma-separated numbers such as 0,0.5,0.9"),
+    ("align", ["--engine", "dask", "--scheduler", ""], "--scheduler",
+     "the address of a running dask scheduler, such as tcp://host:8786"),
+    ("align", ["--engine", "dask", "--scheduler", " "], "--scheduler",
+     "the address of a running dask scheduler, such as tcp://host:8786"),
+])
+def test_an_empty_value_of_alphas_or_scheduler_is_refused_not_taken_for_the_default(tmp_path, monkeypatch, cmd,
+                                                                                     args, flag, must):
+    # Checked against docs/errors.md (an empty value, such as an unset shell variable, is refused naming the
+    # option, as -o "" and --top-k "" are): --alphas "" ran the default grid of eleven alphas and --scheduler ""
+    # started a local cluster instead of reaching a scheduler (noticed by differential testing). The pipeline
+    # must not even start.
+    import aligner.analysis.sweep as sweep_module
+    import aligner.pipeline as pipeline
+
+    def refuse(*a, **k):
+        raise AssertionError("the run started")
+
+    monkeypatch.setattr(sweep_module, "sweep", refuse)
+    monkeypatch.setattr(pipeline, "read_inputs", refuse)
+    out = tmp_path / "out"
+    res = runner.invoke(app, [cmd, str(A), str(B), "-p", str(PRIOR), "-o", str(out), *args])
+    assert res.exit_code == 2, res.output
+    assert "Traceback" not in res.output and (res.exception is None or isinstance(res.exception, SystemExit))
+    assert f"error: {flag} must be {must}; got {args[-1]!r}" in " ".join(res.output.split())
+    assert not out.exists()
+
+
+def test_an_empty_scheduler_is_refused_in_python_too():
+    # docs/errors.md: the Python API refuses what the command line refuses, naming the keyword
+    from aligner.config import EngineConfig
+
+    with pytest.raises(InvalidParameterError, match=r"^scheduler must be the address of a running dask scheduler, "
+                                                    r"such as tcp://host:8786; got ''$") as err:
+        EngineConfig(scheduler="")
+    assert err.value.param == "scheduler"
+    assert EngineConfig(scheduler="tcp://host:8786").scheduler == "tcp://host:8786"

@@ -500,7 +500,9 @@ def test_workers_and_partitions_are_checked_as_on_the_command_line(tmp_path):
                            ({"workers": 1.5}, "workers", workers), ({"workers": 10**23}, "workers", workers),
                            ({"workers": 1025}, "workers", workers), ({"partitions": 0}, "partitions", partitions),
                            ({"partitions": True}, "partitions", partitions),
-                           ({"partitions": "2"}, "partitions", partitions)):
+                           ({"partitions": "2"}, "partitions", partitions),
+                           # an empty address started a LocalCluster (noticed by differential testing)
+                           ({"scheduler": ""}, "scheduler", "the address of a running dask scheduler, such as tcp://host:8786")):
         with pytest.raises(InvalidParameterError, match=f"^{name} must be {must}; got ") as err:
             dask_align(*args, **kw)
         assert err.value.param == name

@@ -12,14 +12,22 @@ from aligner.errors import InvalidParameterError
 
 
 def alpha_list(text: str | None) -> list[float] | None:
-    """The values of ``--alphas`` (None: the sweep's default grid)."""
-    if text is None or not text.strip():
+    """The values of ``--alphas`` (None: the sweep's default grid, when the option is left out).
+
+    A value holding no number (``--alphas ""``, an unset shell variable in ``--alphas "$A"``) is
+    refused, not taken for the default grid: the option is left out for that.
+    """
+    if text is None:
         return None
+    bad = InvalidParameterError(f"alphas must be comma-separated numbers such as 0,0.5,0.9; got {text!r}",
+                                param="alphas")
     try:
-        return [float(t) for t in text.replace(" ", "").split(",") if t]
+        values = [float(t) for t in text.replace(" ", "").split(",") if t]
     except ValueError:
-        raise InvalidParameterError(f"alphas must be comma-separated numbers such as 0,0.5,0.9; got {text!r}",
-                                    param="alphas") from None
+        raise bad from None
+    if not values:
+        raise bad
+    return values
 
 
 @command(Use(AlignConfig, exclude=("alpha",)))
@@ -41,8 +49,8 @@ def sweep(network_a: NetworkA, network_b: NetworkB, outdir: Out, prior: Prior = 
 
     check_outdir(outdir, force=force, files=(SWEEP_TABLE,))  # refuse before any work, not after it
     report = (lambda a: None) if quiet else (lambda a: say(f"alpha {a:g}", console=err))
-    res = run_sweep(network_a, network_b, prior, alphas=values or DEFAULT_ALPHAS, seeds=seeds, truth=truth,
-                    config=config, progress=report)
+    res = run_sweep(network_a, network_b, prior, alphas=DEFAULT_ALPHAS if values is None else values, seeds=seeds,
+                    truth=truth, config=config, progress=report)
     figures = {f"sweep.{fmt}": data for fmt, data in plot_sweep(res.table, res.knee).items()}
     written = write_sweep_outputs(outdir, res.table, figures, force=force)
     if not quiet:

@@ -365,9 +365,10 @@ def align(network_a, network_b, prior=None, *, truth=None, seeds=None, client=No
     if diffusion_mode not in diffusion.MODES:
         raise InvalidParameterError(f"diffusion_mode must be one of {', '.join(diffusion.MODES)}; got "
                                     f"{diffusion_mode!r}", param="diffusion_mode")
-    # checked by their declarations, as the command line checks --workers and --partitions: a LocalCluster
-    # of no worker waited for ever, and one of 10**23 workers never started
-    sizes = EngineConfig(workers=workers, partitions=partitions)
+    # checked by their declarations, as the command line checks --scheduler, --workers and --partitions: a
+    # LocalCluster of no worker waited for ever, one of 10**23 workers never started, and an empty address
+    # started a LocalCluster instead of reaching a scheduler
+    sizes = EngineConfig(scheduler=scheduler, workers=workers, partitions=partitions)
     workers = sizes.workers
     parts = workers if sizes.partitions is None else sizes.partitions
     if reading not in DASK_READING:
