@@ -26,6 +26,7 @@ import pyarrow.compute as pac
 import pyarrow.csv as pacsv
 
 from aligner.checks import bad_parameter, check_choice, warn
+from aligner.config import DELIMITER, DELIMITER_NAMES, DELIMITER_SHAPE, HEADERS
 from aligner.core.network import Network, network_from_edges
 from aligner.errors import InputFormatError, InvalidParameterError
 from aligner.io.paths import input_files
@@ -66,8 +67,9 @@ HEADER_WORDS = {
 #: HEADER_WORDS is read as data; when neither field occurs again in the file it is also reported
 #: (see :func:`_warn_if_header_like`).
 _COLUMN_NAME_SHAPE = re.compile(r"^[A-Za-z]+(?:[ _.-]?[A-Za-z]+)*[ _.-]?(?:[0-9]|[A-Za-z])$|^[A-Za-z]$")
-#: The names ``delimiter`` / ``--delimiter`` accepts besides a single character.
-DELIMITERS = {"tab": "\t", "comma": ",", "semicolon": ";", "space": " ", "whitespace": None}
+#: The names ``delimiter`` / ``--delimiter`` accepts besides a single character (declared in
+#: :data:`aligner.config.DELIMITER_NAMES`), and what each stands for.
+DELIMITERS = dict(zip(DELIMITER_NAMES, ("\t", ",", ";", " ", None)))
 #: What is stripped from both ends of every field of a delimited file (both readers, and the
 #: header line): spaces and tabs, so that ``a1\t b1  `` names ``a1`` and ``b1``. Spaces inside an
 #: identifier stay; other white space (a no-break space, a form feed) is data.
@@ -577,11 +579,10 @@ def _concat(cols: list):
 
 
 def _check_options(delimiter, header) -> None:
-    check_choice(header, "header", ("auto", "yes", "no"))
-    if delimiter is not None and delimiter not in DELIMITERS and (
-            not isinstance(delimiter, str) or len(delimiter) != 1 or delimiter in '"#\r\n'):
-        raise bad_parameter("delimiter", "tab, comma, semicolon, space, whitespace or one character other "
-                            "than a quote, '#' or a line break", delimiter)
+    """The rule of ``AlignConfig``'s declarations, for a caller of the readers that passes no config."""
+    check_choice(header, "header", HEADERS)
+    if delimiter is not None and (not isinstance(delimiter, str) or not re.fullmatch(DELIMITER, delimiter)):
+        raise bad_parameter("delimiter", DELIMITER_SHAPE, delimiter)
 
 
 def _a(what: str) -> str:

@@ -426,6 +426,51 @@ def test_an_empty_value_of_an_optional_number_is_refused_not_taken_as_none(tmp_p
     assert not (tmp_path / "out").exists()
 
 
+DELIMITER_VALUES = ["tab", "comma", "semicolon", "space", "whitespace", ",", ";", "|", " ", "\t", ":",
+                    "ab", "", "Tab", "#", '"', "\n", "\r", "\r\n", "tabs", 7, b","]
+
+
+@pytest.mark.parametrize("value", DELIMITER_VALUES, ids=[repr(v) for v in DELIMITER_VALUES])
+def test_delimiter_is_checked_when_the_config_is_made_by_the_readers_rule(tmp_path, value):
+    # Reference: the readers' own check (aligner.io.readers.read_table on a real file, with no config): the
+    # configuration accepts and refuses exactly what they do, with the same message. AlignConfig(delimiter='ab')
+    # was accepted and refused only once a file was read (noticed by differential testing).
+    from aligner.io.readers import read_table
+
+    f = tmp_path / "t.tsv"
+    f.write_text("x1\tx2\n")
+    try:
+        read_table(f, min_cols=1, max_cols=3, delimiter=value)
+        readers = None
+    except InvalidParameterError as exc:
+        readers = str(exc)
+    try:
+        AlignConfig(delimiter=value)
+        config = None
+    except InvalidParameterError as exc:
+        config = str(exc)
+    assert config == readers
+    assert (readers is None) == (value in DELIMITER_VALUES[:DELIMITER_VALUES.index("ab")])
+
+
+def test_a_bad_delimiter_is_refused_before_any_file_is_read(tmp_path):
+    # The check runs when the options are made: the message is the delimiter's even where the files are
+    # missing, and nothing is written (noticed by differential testing)
+    import aligner
+
+    with pytest.raises(InvalidParameterError, match=r"^delimiter must be tab, comma, semicolon, space, whitespace "
+                                                    r"or one character other than a quote, '#' or a line break; "
+                                                    r"got 'ab'$") as err:
+        AlignConfig(delimiter="ab")
+    assert err.value.param == "delimiter"
+    with pytest.raises(InvalidParameterError, match=r"^delimiter must be "):
+        aligner.align(str(tmp_path / "missing_a.tsv"), str(tmp_path / "missing_b.tsv"), delimiter="ab")
+    res = runner.invoke(app, ["align", str(tmp_path / "missing_a.tsv"), str(tmp_path / "missing_b.tsv"),
+                              "-o", str(tmp_path / "out"), "--delimiter", "ab"])
+    assert res.exit_code == 2 and "error: --delimiter must be tab, comma" in " ".join(res.output.split())
+    assert not (tmp_path / "out").exists()
+
+
 @pytest.mark.parametrize("cmd, args, flag, must", [
     ("sweep", ["--alphas", ""], "--alphas", "comma-separated numbers such as 0,0.5,0.9"),
     ("sweep", ["--alphas", " , "], "--alphas", "comma-separated numbers such as 0,0.5,0.9"),
