@@ -57,11 +57,13 @@ PRIOR_COLUMNS = rf"{_COLUMN},{_COLUMN},{_COLUMN}"
 #: ``--label-columns``: one or more columns, comma-separated.
 LABEL_COLUMNS = rf"{_COLUMN}(?:,{_COLUMN})*"
 #: ``--delimiter``: a name (the readers' ``DELIMITERS`` map each to its character, whitespace to runs of
-#: blanks) or one character other than a quote, '#' (comments) or a line break; the readers apply the
-#: same rule (:mod:`aligner.io.readers`), so a bad delimiter is refused when the options are made
+#: blanks) or one ASCII character other than a quote, '#' (comments) or a line break (both readers, pyarrow's
+#: and pandas', split at one byte); the readers apply the same rule (:mod:`aligner.io.readers`), so a bad
+#: delimiter is refused when the options are made
 DELIMITER_NAMES = ("tab", "comma", "semicolon", "space", "whitespace")
-DELIMITER = rf"(?:{'|'.join(DELIMITER_NAMES)}|[^\"#\r\n])"
-DELIMITER_SHAPE = "tab, comma, semicolon, space, whitespace or one character other than a quote, '#' or a line break"
+DELIMITER = rf"(?:{'|'.join(DELIMITER_NAMES)}|(?![\"#\r\n])[\x00-\x7f])"
+DELIMITER_SHAPE = ("tab, comma, semicolon, space, whitespace or one ASCII character other than a quote, '#' or a "
+                   "line break")
 
 #: The largest counts the options take. Random maps: each is one assignment over every candidate
 #: pair, and the count of each is kept (16 bytes a map), so 10^9 is already days of work and 16 GB;
@@ -160,8 +162,9 @@ class AlignConfig(_Config):
 
     delimiter: str | None = option(
         None, "Column delimiter of the input files: tab, comma, semicolon, space, whitespace (runs of spaces and "
-        "tabs), or one other character (not a quote, '#' or a line break). Default: detected from the first data "
-        "line.", flag="--delimiter", group=READ, kind="text", optional=True, pattern=DELIMITER, shape=DELIMITER_SHAPE)
+        "tabs), or one other ASCII character (not a quote, '#' or a line break). Default: detected from the first "
+        "data line.", flag="--delimiter", group=READ, kind="text", optional=True, pattern=DELIMITER,
+        shape=DELIMITER_SHAPE)
     header: str = option(
         "auto", "Whether input files start with a header line: auto, yes or no. 'auto' takes the first line as a "
         "header when its fields are column names such as node_a/source/target.", flag="--header", group=READ,

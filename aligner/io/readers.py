@@ -471,7 +471,7 @@ def read_table(path: str | os.PathLike, *, min_cols: int, max_cols: int, delimit
     min_cols, max_cols : int
         The number of columns allowed (taken from the first data row).
     delimiter : str, optional
-        A name of :data:`DELIMITERS` or one character; detected from the first data line
+        A name of :data:`DELIMITERS` or one ASCII character; detected from the first data line
         when omitted (tab, comma, semicolon, else runs of white space).
     header : {"auto", "yes", "no"}
         Whether the first data line is a header (see :func:`read_network`).

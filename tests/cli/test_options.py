@@ -427,7 +427,7 @@ def test_an_empty_value_of_an_optional_number_is_refused_not_taken_as_none(tmp_p
 
 
 DELIMITER_VALUES = ["tab", "comma", "semicolon", "space", "whitespace", ",", ";", "|", " ", "\t", ":",
-                    "ab", "", "Tab", "#", '"', "\n", "\r", "\r\n", "tabs", 7, b","]
+                    "ab", "", "Tab", "#", '"', "\n", "\r", "\r\n", "tabs", 7, b",", "\u00e9", "\u2009"]
 
 
 @pytest.mark.parametrize("value", DELIMITER_VALUES, ids=[repr(v) for v in DELIMITER_VALUES])
@@ -453,14 +453,34 @@ def test_delimiter_is_checked_when_the_config_is_made_by_the_readers_rule(tmp_pa
     assert (readers is None) == (value in DELIMITER_VALUES[:DELIMITER_VALUES.index("ab")])
 
 
+def test_a_delimiter_outside_ascii_is_refused_naming_the_option(tmp_path):
+    # Both readers split at one byte (pyarrow: "Expecting an ASCII character"; pandas' C engine: "the separator
+    # encoded in utf-8 is > 1 char long"): --delimiter é passed the check and a file delimited by it ended in
+    # that ValueError's traceback (exit 1); now exit 2 naming the option, nothing written (noticed by
+    # differential testing)
+    files = []
+    for name, text in (("a", "a1\u00e9a2\na2\u00e9a3\n"), ("b", "b1\u00e9b2\nb2\u00e9b3\n"),
+                       ("p", "a1\u00e9b1\u00e91\na2\u00e9b2\u00e91\n")):
+        (tmp_path / f"{name}.txt").write_text(text, encoding="utf-8")
+        files.append(str(tmp_path / f"{name}.txt"))
+    res = runner.invoke(app, ["align", files[0], files[1], "-p", files[2], "-o", str(tmp_path / "out"),
+                              "--delimiter", "\u00e9"])
+    assert res.exit_code == 2, res.output
+    assert "Traceback" not in res.output and isinstance(res.exception, SystemExit)
+    assert "error: --delimiter must be tab, comma, semicolon, space, whitespace or one ASCII character" in \
+        " ".join(res.output.split())
+    assert not (tmp_path / "out").exists()
+    assert "ASCII" in specs(AlignConfig)["delimiter"][1].help
+
+
 def test_a_bad_delimiter_is_refused_before_any_file_is_read(tmp_path):
     # The check runs when the options are made: the message is the delimiter's even where the files are
     # missing, and nothing is written (noticed by differential testing)
     import aligner
 
     with pytest.raises(InvalidParameterError, match=r"^delimiter must be tab, comma, semicolon, space, whitespace "
-                                                    r"or one character other than a quote, '#' or a line break; "
-                                                    r"got 'ab'$") as err:
+                                                    r"or one ASCII character other than a quote, '#' or a line "
+                                                    r"break; got 'ab'$") as err:
         AlignConfig(delimiter="ab")
     assert err.value.param == "delimiter"
     with pytest.raises(InvalidParameterError, match=r"^delimiter must be "):
