@@ -12,7 +12,7 @@ import numpy as np
 import pandas as pd
 
 from aligner.analysis.subgraph import conserved_ball
-from aligner.errors import AlignerError, InvalidParameterError
+from aligner.errors import AlignerError, InputFormatError, InvalidParameterError
 from aligner.io.outputs import (RERUN_SWEEP, TRANSFER_TABLE, damaged_output, read_run_table, read_summary,
                                 read_transferred)
 from aligner.io.readers import read_network, read_table
@@ -275,12 +275,36 @@ def _load_run(out: Path, network_a, network_b, delimiter: str | None, header: st
         net_a = read_network(src_a, delimiter=delimiter, header=header, directed=directed)
     except (OSError, AlignerError) as exc:
         raise InvalidParameterError(f"cannot re-read network A from '{src_a}' ({exc}); give it with --a") from None
+    _check_run_network(net_a, "a", src_a, out, summary, pairs)
+    if network_b is not None:  # B is not drawn (its size is in summary.json), but one given is the run's
+        _check_run_network(read_network(network_b, delimiter=delimiter, header=header, directed=directed), "b",
+                           network_b, out, summary, pairs)
     moved = read_transferred(out) if (out / TRANSFER_TABLE).is_file() else None
     flags, note = _truth_flags(pairs, summary, truth, delimiter, header)
     # the degree the pairs' conserved counts are measured against: arcs in and out of the node in a
     # directed run (alignment.tsv counts conserved arcs), edges otherwise
     degree = (np.bincount(np.asarray(net_a.arcs).reshape(-1), minlength=net_a.n) if directed else net_a.degree)
     return _Run(out, summary, pairs, cons, dict(zip(net_a.names.astype(str), degree.astype(int))), moved, flags, note)
+
+
+def _check_run_network(net, side: str, source, out: Path, summary: dict, pairs: pd.DataFrame) -> None:
+    """Refuse a network that is not the run's network of ``side`` ("a" or "b"): one lacking a matched
+    node of that side in alignment.tsv, or whose nodes and edges are not the numbers summary.json
+    gives (the degrees and the drawing of the page would be another network's, read as the run's)."""
+    name, flag = side.upper(), f"--{side}"
+    advice = f"give the run's network {name} with {flag}"
+    names = pairs[f"node_{side}"].astype(str)
+    missing = names[~names.isin(pd.Index(net.names.astype(str)))]
+    if len(missing):
+        examples = ", ".join(repr(v) for v in missing.iloc[:3])
+        raise InputFormatError(f"is not network {name} of the run in {out}: {len(missing):,} of the {len(names):,} "
+                               f"matched nodes of {name} in alignment.tsv are missing from it (for example "
+                               f"{examples}); {advice}", path=str(source))
+    rec = summary["inputs"][f"network_{side}"]
+    if (net.n, net.n_edges) != (rec["nodes"], rec["edges"]):
+        raise InputFormatError(f"is not network {name} of the run in {out}: it has {net.n:,} nodes and "
+                               f"{net.n_edges:,} edges where the run's had {rec['nodes']:,} and {rec['edges']:,} "
+                               f"(summary.json); {advice}", path=str(source))
 
 
 def _inputs_section(summary: dict) -> str:
@@ -532,7 +556,9 @@ def build_report(outdir, *, network_a=None, network_b=None, delimiter: str | Non
     ``summary["inputs"]["network_a"]["source"]`` unless ``network_a`` overrides it, read as the run
     read its inputs (its ``delimiter`` and ``header`` parameters) unless ``delimiter`` or ``header``
     is given (network B is only needed for its size, which the summary holds; ``network_b`` is
-    accepted for symmetry and checked to exist). With a truth table
+    accepted for symmetry, and read only to check it). A network that is not the run's (a matched
+    node of alignment.tsv missing from it, or other numbers of nodes and edges than the summary's)
+    is refused with an InputFormatError naming it. With a truth table
     (``summary["inputs"]["truth"]["source"]``, or ``truth``) the pair tables get a true/false
     column; when it cannot be read the page says so. Figures are PNG, embedded as base64; the
     matched pairs (at most :data:`aligner.render.explorer.MAX_PAIRS`, the least confident when

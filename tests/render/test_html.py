@@ -170,6 +170,37 @@ def test_report_network_override(run_dir, tmp_path):
     assert build_report(run_dir, network_a=moved).is_file()
 
 
+def test_report_refuses_a_network_that_is_not_the_runs(run_dir, tmp_path):
+    # Checked against the run's own records: alignment.tsv names every matched node, and summary.json the
+    # networks' numbers of nodes and edges. --a (or --b) naming another network was accepted, and the page
+    # drew that network's degrees and neighbourhoods as the run's; now exit 2 naming the file and the
+    # mismatch, nothing written (noticed by differential testing). The run's network itself, moved or not,
+    # is still taken.
+    summary = json.loads((run_dir / "summary.json").read_text())
+    src_a, src_b = summary["inputs"]["network_a"]["source"], summary["inputs"]["network_b"]["source"]
+    other_a, other_b = _write(tmp_path, n=120, seed=9)[:2]  # another pair, named as the run's (a0, b0, ...)
+    edges = pd.read_csv(src_a, sep="\t", header=None, dtype=str)
+    plus = tmp_path / "plus_a.tsv"  # the run's network A and one edge more
+    pd.concat([edges, pd.DataFrame([[edges.iloc[0, 0], "a_new"]])]).to_csv(plus, sep="\t", index=False, header=False)
+    report = run_dir / "report.html"
+    before = report.read_bytes()
+    runner = CliRunner()
+    for args, where, said in (
+            (["--a", str(other_a)], other_a, "is not network A of the run in"),
+            (["--a", src_b], src_b, "matched nodes of A in alignment.tsv are missing from it"),
+            (["--a", str(plus)], plus, "it has 201 nodes and"),
+            (["--a", src_a, "--b", str(other_b)], other_b, "is not network B of the run in")):
+        r = runner.invoke(app, ["report", str(run_dir), *args])
+        text = " ".join(r.output.split())
+        assert r.exit_code == 2, r.output
+        assert f"error: {where}: is not network" in text and said in text, text
+        assert f"give the run's network {'B with --b' if '--b' in args else 'A with --a'}" in text
+        assert "Traceback" not in r.output
+    assert report.read_bytes() == before
+    r = runner.invoke(app, ["report", str(run_dir), "--a", src_a, "--b", src_b, "-q"])
+    assert r.exit_code == 0, r.output
+
+
 def test_report_renders_in_headless_browser(run_dir):
     # reference: a real browser engine (Chromium) loads the page and decodes every figure
     exe = _browser()
