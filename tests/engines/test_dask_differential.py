@@ -120,3 +120,21 @@ def test_a_scatter_to_a_worker_lost_a_moment_before_is_tried_again(monkeypatch):
 
     with pytest.raises(CommClosedError):  # lost for good: raised, for the engine to report the lost worker
         reading._share(Dead(), "names")
+
+
+def test_more_partitions_than_nodes_with_candidates_warns_in_plain_words(client):
+    # docs/engine.md: K above the nodes of A with candidate pairs is cut down to them, with a
+    # warning. With one such node it read "only 1 nodes of A have candidate pairs: the blocks are
+    # 1". Reference: the single-machine run on the same inputs (the same matching).
+    import pandas as pd
+
+    ea, eb = pd.DataFrame({"u": ["p1", "p2"], "v": ["p2", "p3"]}), pd.DataFrame({"u": ["r1", "r2"], "v": ["r2", "r3"]})
+    for a, k, text in ((["p2", "p2"], 4, "only 1 node of A has candidate pairs: the run uses 1 block"),
+                       (["p2", "p3"], 5, "only 2 nodes of A have candidate pairs: the run uses 2 blocks")):
+        prior = pd.DataFrame({"a": a, "b": ["r2", "r3"], "s": [2.0, 1.0]})
+        single = aligner.align(ea, eb, prior, refine=False)
+        with pytest.warns(aligner.AlignerWarning) as seen:
+            res = dask_align(ea, eb, prior, client=client, partitions=k, refine=False)
+        assert [str(w.message) for w in seen] == [f"{k} partitions asked for, but {text}, one node or more each"]
+        assert res.summary["engine"]["partitions"] == len(set(a))
+        assert np.array_equal(res.matching.index, single.matching.index)

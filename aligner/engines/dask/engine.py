@@ -500,8 +500,9 @@ def _run(client, inputs, found: Candidates, cfg: AlignConfig, parts: int, mode: 
                               "reading": read_report}
     if engine["partitions"] < parts:
         engine["partitions_asked"] = parts
-        warn(f"{parts} partitions asked for, but only {busy} nodes of A have candidate pairs: the blocks are "
-             f"{engine['partitions']}, one node or more each")
+        nodes = "1 node of A has" if busy == 1 else f"{busy} nodes of A have"
+        warn(f"{parts} partitions asked for, but only {nodes} candidate pairs: the run uses {engine['partitions']} "
+             f"block{'s' if engine['partitions'] != 1 else ''}, one node or more each")
         parts = engine["partitions"]
     with clock.stage("product"):
         where[0] = "the product graph's build"
