@@ -1,7 +1,8 @@
 """Findings of differential testing of the dask engine against the single-machine pipeline: each
 test pins one difference that was a defect, against the single machine's behaviour as reference.
 
-The cluster tests run on one 2-worker LocalCluster (threads, so it starts in a second).
+The cluster tests run on one 2-worker LocalCluster (threads, so it starts in a second; the
+`client` fixture of tests/engines/conftest.py).
 """
 
 import numpy as np
@@ -13,17 +14,6 @@ import aligner  # noqa: E402
 from aligner.datasets.instances import as_frames, noisy_relabelled  # noqa: E402
 from aligner.engines.dask.engine import align as dask_align  # noqa: E402
 from aligner.errors import ConvergenceError  # noqa: E402
-
-
-@pytest.fixture(scope="module")
-def client():
-    from dask.distributed import Client, LocalCluster
-
-    cluster = LocalCluster(n_workers=2, threads_per_worker=1, processes=False, dashboard_address=":0")
-    c = Client(cluster)
-    yield c
-    c.close()
-    cluster.close()
 
 
 @pytest.fixture(scope="module")

@@ -9,7 +9,8 @@
   dense cases the weight of ``scipy.optimize.linear_sum_assignment`` within n * eps;
 - two runs with the same number of blocks give identical results.
 
-The cluster tests run on one 2-worker LocalCluster (threads, so they start in a second).
+The cluster tests run on one 2-worker LocalCluster (threads, so they start in a second; the
+`client` fixture of tests/engines/conftest.py).
 """
 
 import numpy as np
@@ -25,17 +26,6 @@ from aligner.engines.dask import auction, blocks  # noqa: E402
 
 KS = (1, 2, 4, 16)
 MODES = ("uniform", "near")
-
-
-@pytest.fixture(scope="module")
-def client():
-    from dask.distributed import Client, LocalCluster
-
-    cluster = LocalCluster(n_workers=2, threads_per_worker=1, processes=False, dashboard_address=None)
-    c = Client(cluster)
-    yield c
-    c.close()
-    cluster.close()
 
 
 @pytest.fixture(scope="module")

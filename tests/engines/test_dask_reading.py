@@ -31,20 +31,6 @@ from aligner.errors import InputFormatError, NoCandidatesError  # noqa: E402
 from aligner.pipeline import find_candidates, read_inputs  # noqa: E402
 
 
-@pytest.fixture(scope="module")
-def client():
-    import logging
-
-    from dask.distributed import Client, LocalCluster
-
-    logging.getLogger("distributed.shuffle").setLevel(logging.ERROR)  # a note per shuffle
-    cluster = LocalCluster(n_workers=2, threads_per_worker=1, processes=False, dashboard_address=None)
-    c = Client(cluster)
-    yield c
-    c.close()
-    cluster.close()
-
-
 def _on_cluster(client, a, b, p, cfg, parts):
     got = reading.read_on_cluster(client, str(a), str(b), str(p), cfg, parts=parts)
     table, best, cand = reading.select_on_cluster(client, got, cfg, parts=parts)
