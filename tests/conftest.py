@@ -25,3 +25,20 @@ def all_pairs_candidates(n1, n2, rng):
 @pytest.fixture
 def rng():
     return np.random.default_rng(12345)
+
+
+@pytest.fixture(scope="module")
+def client():
+    """A dask client on 2 single-threaded workers as threads of the test process (they start in a
+    second), one cluster per test module that asks for it (the dask engine's tests)."""
+    pytest.importorskip("distributed")
+    import logging
+
+    from dask.distributed import Client, LocalCluster
+
+    logging.getLogger("distributed.shuffle").setLevel(logging.ERROR)  # a note per shuffle
+    cluster = LocalCluster(n_workers=2, threads_per_worker=1, processes=False, dashboard_address=None)
+    c = Client(cluster)
+    yield c
+    c.close()
+    cluster.close()

@@ -2,7 +2,7 @@
 test pins one difference that was a defect, against the single machine's behaviour as reference.
 
 The cluster tests run on one 2-worker LocalCluster (threads, so it starts in a second; the
-`client` fixture of tests/engines/conftest.py).
+`client` fixture of tests/conftest.py).
 """
 
 import numpy as np

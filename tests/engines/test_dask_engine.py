@@ -10,7 +10,7 @@
 - two runs with the same number of blocks give identical results.
 
 The cluster tests run on one 2-worker LocalCluster (threads, so they start in a second; the
-`client` fixture of tests/engines/conftest.py).
+`client` fixture of tests/conftest.py).
 """
 
 import numpy as np
