@@ -135,7 +135,7 @@ def test_read_table_columns_and_lines(tmp_path):
 
 
 @pytest.mark.parametrize("kw, message", [
-    ({"delimiter": "ab"}, "delimiter must be tab, comma, semicolon, space, whitespace or one character other "
+    ({"delimiter": "ab"}, "delimiter must be tab, comma, semicolon, space, whitespace or one ASCII character other "
                           "than a quote, '#' or a line break; got 'ab'"),
     ({"header": "maybe"}, "header must be one of auto, yes, no; got 'maybe'"),
 ])
