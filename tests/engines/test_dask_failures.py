@@ -17,6 +17,7 @@ engine code path as ``--workers 2`` after the connection.
 """
 
 import json
+import logging
 import os
 import signal
 
@@ -239,3 +240,44 @@ def test_unreachable_scheduler_exits_2_in_one_line(folder, tmp_path, monkeypatch
     assert lines == ["error: cannot reach the dask scheduler at tcp://127.0.0.1:1 within 1s; check the address and "
                      "that the scheduler is running"]
     assert not out.exists() or not any(out.iterdir())
+
+
+class _Lines(logging.Handler):
+    def __init__(self):
+        super().__init__(logging.DEBUG)
+        self.lines = []
+
+    def emit(self, record):
+        self.lines.append(record.getMessage())
+
+
+def test_quiet_keeps_dask_log_lines_below_errors_unprinted(cluster, folder, tmp_path, monkeypatch):
+    # docs/commands.md: --quiet prints nothing but errors. Dask's own warnings during a run (a
+    # task rescheduled after a worker was lost, a worker restarted) come through its loggers, so
+    # one is logged the way dask logs it, mid-run: with -q no handler sees it, without -q it is
+    # printed as before (errors are still printed either way)
+    lc, c = cluster
+    _two_workers(c)
+    real = engine.reading.select_on_cluster
+
+    def noisy(*args, **kw):
+        logging.getLogger("distributed.scheduler").warning("probe: rescheduling 1 key")
+        logging.getLogger("distributed.scheduler").error("probe: an error")
+        return real(*args, **kw)
+
+    monkeypatch.setattr(engine.reading, "select_on_cluster", noisy)
+    seen = _Lines()
+    logging.getLogger("distributed.scheduler").addHandler(seen)
+    try:
+        for quiet in (True, False):
+            args = _args(folder, tmp_path / f"o{quiet}", "--scheduler", lc.scheduler_address)
+            if not quiet:
+                args.remove("-q")
+            seen.lines.clear()
+            res = runner.invoke(app, args)
+            assert res.exit_code == 0, res.output
+            assert ("probe: rescheduling 1 key" in seen.lines) != quiet
+            assert "probe: an error" in seen.lines
+    finally:
+        logging.getLogger("distributed.scheduler").removeHandler(seen)
+    assert logging.getLogger("distributed").level < logging.ERROR  # the levels are restored after the run

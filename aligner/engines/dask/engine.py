@@ -292,44 +292,66 @@ def _missing_dask() -> InvalidParameterError:
 
 
 @contextmanager
-def connect(client=None, *, scheduler: str | None = None, workers: int = 2):
-    """A dask client: ``client`` as it is, or one connected to ``scheduler`` (an address), or a new
-    LocalCluster of ``workers`` single-threaded worker processes, closed on exit."""
-    if client is not None:
-        yield client
-        return
+def _dask_logs(level: int):
+    """Dask's own log lines below ``level`` not printed by this process meanwhile (its scheduler
+    and nannies when it started a LocalCluster, its client): the ``distributed`` logger and those
+    of its children that set a level of their own, restored on exit."""
+    names = ["distributed"] + [n for n, lg in logging.Logger.manager.loggerDict.items()
+                               if n.startswith("distributed.") and isinstance(lg, logging.Logger)
+                               and lg.level != logging.NOTSET]
+    before = {n: logging.getLogger(n).level for n in names}
+    for n in names:
+        logging.getLogger(n).setLevel(max(level, before[n]))
     try:
-        from dask.distributed import Client, LocalCluster
-    except ImportError:
-        raise _missing_dask() from None
-    # the scheduler's note on every shuffle of the reading (a LocalCluster's scheduler runs here)
-    logging.getLogger("distributed.shuffle").setLevel(logging.ERROR)
-    if scheduler:
+        yield
+    finally:
+        for n, lvl in before.items():
+            logging.getLogger(n).setLevel(lvl)
+
+
+@contextmanager
+def connect(client=None, *, scheduler: str | None = None, workers: int = 2, quiet: bool = False):
+    """A dask client: ``client`` as it is, or one connected to ``scheduler`` (an address), or a new
+    LocalCluster of ``workers`` single-threaded worker processes, closed on exit. ``quiet``: dask's
+    own log lines below errors are not printed meanwhile, by this process (its client, and the
+    scheduler and nannies of a LocalCluster started here) nor by that LocalCluster's workers."""
+    with _dask_logs(logging.ERROR if quiet else logging.NOTSET):
+        if client is not None:
+            yield client
+            return
         try:
-            c = Client(scheduler, timeout=CONNECT_TIMEOUT)
-        except (OSError, TimeoutError):
-            raise InvalidParameterError(f"cannot reach the dask scheduler at {scheduler} within {CONNECT_TIMEOUT}; "
-                                        "check the address and that the scheduler is running", param="scheduler") \
-                from None
+            from dask.distributed import Client, LocalCluster
+        except ImportError:
+            raise _missing_dask() from None
+        # the scheduler's note on every shuffle of the reading (a LocalCluster's scheduler runs here)
+        logging.getLogger("distributed.shuffle").setLevel(logging.ERROR)
+        if scheduler:
+            try:
+                c = Client(scheduler, timeout=CONNECT_TIMEOUT)
+            except (OSError, TimeoutError):
+                raise InvalidParameterError(f"cannot reach the dask scheduler at {scheduler} within "
+                                            f"{CONNECT_TIMEOUT}; check the address and that the scheduler is "
+                                            "running", param="scheduler") from None
+            try:
+                yield c
+            finally:
+                c.close()
+            return
+        # the scheduler's web server on a free port (None means dask's default port, 8787: a second run
+        # beside the first warned that it was taken); silence_logs: the workers' own level
+        cluster = LocalCluster(n_workers=workers, threads_per_worker=1, processes=True, dashboard_address=":0",
+                               silence_logs=logging.ERROR if quiet else logging.WARNING)
+        c = Client(cluster)
         try:
             yield c
         finally:
             c.close()
-        return
-    # the scheduler's web server on a free port (None means dask's default port, 8787: a second run
-    # beside the first warned that it was taken)
-    cluster = LocalCluster(n_workers=workers, threads_per_worker=1, processes=True, dashboard_address=":0")
-    c = Client(cluster)
-    try:
-        yield c
-    finally:
-        c.close()
-        cluster.close()
+            cluster.close()
 
 
 def align(network_a, network_b, prior=None, *, truth=None, seeds=None, client=None, scheduler: str | None = None,
           workers: int = 2, partitions: int | None = None, diffusion_mode: str = "auto", reading: str = "auto",
-          config: AlignConfig | None = None, progress=None, **options: Any) -> AlignmentResult:
+          config: AlignConfig | None = None, progress=None, quiet: bool = False, **options: Any) -> AlignmentResult:
     """Align two networks with the product graph, the diffusion and the matching on a dask cluster.
 
     Parameters
@@ -343,6 +365,9 @@ def align(network_a, network_b, prior=None, *, truth=None, seeds=None, client=No
         Blocks of nodes of A (default: ``workers``).
     diffusion_mode : {"auto", "block", "sweep"}
         Block push, sweeps, or the choice by cut fraction (see :mod:`aligner.engines.dask.diffusion`).
+    quiet : bool, default False
+        Dask's own log lines below errors (a task rescheduled after a worker was lost, a worker
+        restarted) are not printed during the run (the command line's ``--quiet``).
     reading : {"auto", "client"}
         ``"auto"``: when both networks and the prior are files (or glob patterns of part files)
         and the candidates come from the prior, read them and select the candidates on the
@@ -375,7 +400,7 @@ def align(network_a, network_b, prior=None, *, truth=None, seeds=None, client=No
         raise InvalidParameterError(f"reading must be one of {', '.join(DASK_READING)}; got {reading!r}",
                                     param="reading")
     clock = Clock(progress)
-    with connect(client, scheduler=scheduler, workers=workers) as c:
+    with connect(client, scheduler=scheduler, workers=workers, quiet=quiet) as c:
         if reading != "client" and on_cluster(network_a, network_b, prior, cfg):
             inputs, found, read_report = _read_on_cluster(c, network_a, network_b, prior, seeds, truth, cfg, parts,
                                                           clock)
