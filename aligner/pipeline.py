@@ -705,7 +705,7 @@ def evaluate(problem: Problem, diffusion: DiffusionResult, improvement: Improvem
     refined = improvement.refined
     g = (refined.neighbours if refined is not None and refined.neighbours is not None and refined.index is index
          else _unit_counts(problem, index))  # the refinement made S 1_M already
-    ambiguity = _ambiguity(problem, index, () if improvement.refined is None else improvement.refined.near_optima, g)
+    ambiguity = _ambiguity(problem, index, () if refined is None else refined.near_optima, g)
     return Evaluation(scores, before, _pairs_frame(problem, diffusion, index, cons, names_a, names_b, ambiguity, g),
                       _conserved_table(names_a, names_b, edges_a, f, cons), sig, seeds, counts, image, ambiguity)
 

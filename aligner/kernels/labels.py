@@ -77,8 +77,8 @@ def _top_k_chunk(a_indptr, a_indices, a_data, b_indptr, b_indices, b_data, b_cum
     B) is below tau.
 
     So the common n-grams, which touch most columns, are skipped. Ties (scores within 1e-12,
-    :data:`TIE_GRID`) are broken by the smaller column. Row i's columns go to ``out_cols[(i - base) * k:]``, best first; unused
-    slots are left as they are (-1).
+    :data:`TIE_GRID`) are broken by the smaller column. Row i's columns go to
+    ``out_cols[(i - base) * k:]``, best first; unused slots are left as they are (-1).
     """
     nb = b_indptr.shape[0] - 1
     acc = np.zeros(nb)
