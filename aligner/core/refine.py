@@ -224,8 +224,9 @@ def _rises(new: float, old: float) -> bool:
 SNAP_BITS = 36
 
 
-def _snap(v: npt.NDArray[np.float64]) -> npt.NDArray[np.float64]:
-    """``v`` rounded to multiples of 2**(e - SNAP_BITS), 2**e >= max |v|.
+def _snap(v: npt.NDArray[np.float64], out: npt.NDArray[np.float64] | None = None) -> npt.NDArray[np.float64]:
+    """``v`` rounded to multiples of 2**(e - SNAP_BITS), 2**e >= max |v| (into ``out`` when
+    given; ``v`` itself when there is nothing to round).
 
     The assignment solver then adds and subtracts numbers of at most ~36 + log2(n) bits, which
     double precision does exactly: near-ties that differ in the last bits (left by the line
@@ -237,7 +238,7 @@ def _snap(v: npt.NDArray[np.float64]) -> npt.NDArray[np.float64]:
     if top <= 0 or not np.isfinite(top):
         return v
     step = 2.0 ** (int(np.ceil(np.log2(top))) - SNAP_BITS)
-    out = np.divide(v, step)  # one array, rounded and scaled in place (the same values)
+    out = np.divide(v, step, out=out)  # one array, rounded and scaled in place (the same values)
     np.round(out, out=out)
     out *= step
     return out
@@ -379,7 +380,8 @@ def _frank_wolfe(prod: ProductGraph, cand: CandidateSet, bw: npt.NDArray[np.floa
     iters = stall = 0
     while iters < budget and stall < opts.patience:
         np.add(bw, sx, out=grad)
-        q = round_matching(cand, _snap(grad), method=opts.method).index
+        # the snapped gradient in sq's place: S 1_q is written there only after the assignment
+        q = round_matching(cand, _snap(grad, out=sq), method=opts.method).index
         iters += 1
         _matched_neighbours(prod.indptr, prod.indices, opts.s_w, q, sq)
         fq = _objective(bw, sq, q)
@@ -550,12 +552,14 @@ def refine_matching(prod: ProductGraph, cand: CandidateSet, w: npt.ArrayLike, in
     opts = _check_options(beta, max_iter, step, patience, rounds, local_sweeps, rotations, method)
     opts, w, index, bw, scale, g = _start(prod, cand, w, index, opts, edge_weights)
     inc = _Incumbent(index, g, _objective(bw, g, index))
+    before = _conserved(g, index)
+    del g  # the incumbent's until a better matching is found: not held beside the rounds' arrays
     inc.record()
     iters, moves, n_rounds, hit_cap = _run_rounds(prod, cand, bw, inc, opts)
     if edge_weights is not None:  # the reported figures count edges
-        g, inc.g = matched_counts(prod, index), matched_counts(prod, inc.index)
+        before, inc.g = _conserved(matched_counts(prod, index), index), matched_counts(prod, inc.index)
     return RefineResult(index=inc.index, iterations=iters, objective=inc.history,
-                        conserved_before=_conserved(g, index), conserved_after=_conserved(inc.g, inc.index),
+                        conserved_before=before, conserved_after=_conserved(inc.g, inc.index),
                         weight_before=float(w[index].sum()), weight_after=float(w[inc.index].sum()),
                         local_moves=moves, rounds=n_rounds, hit_cap=hit_cap, beta=opts.beta, w_scale=scale,
                         counts="edges" if edge_weights is None else "agreement",

@@ -91,17 +91,34 @@ def round_matching(cand: CandidateSet, w: npt.ArrayLike, *, method: str = "auto"
     method = check_choice(method, "method", METHODS)
     t0 = time.perf_counter()
     w = np.asarray(w, dtype=np.float64)
+    index = _sparse(cand, w) if method in ("auto", "sparse") else _reference(cand, w, method)
+    if method == "auto" and len(index):  # (no pair with evidence: no solver ran)
+        method = "sparse"
+    with np.errstate(over="ignore"):  # scores whose sum passes the largest float (a prior near 1e308): inf
+        weight = float(w[index].sum())
+    return Matching(index=index, method=method, weight=weight, seconds=time.perf_counter() - t0)
+
+
+def _sparse(cand: CandidateSet, w: npt.NDArray[np.float64]) -> npt.NDArray[np.int64]:
+    """The sparse solver on the pairs with positive weight, packed for it in one compiled pass
+    (the compaction of :func:`_compact`, without its CSR columns and weights)."""
+    from aligner.kernels.assign import matched_packed, pack_positive, solve_packed
+
+    pairs = np.ascontiguousarray(cand.pairs, dtype=np.int32)
+    use, rstart, ent, nc = pack_positive(pairs, np.ascontiguousarray(w, dtype=np.float64), cand.n1, cand.n2)
+    if len(rstart) == 1:
+        return np.empty(0, dtype=np.int64)
+    row_to_col = solve_packed(rstart, ent, int(nc))
+    return matched_packed(rstart, ent, row_to_col, use)
+
+
+def _reference(cand: CandidateSet, w: npt.NDArray[np.float64], method: str) -> npt.NDArray[np.int64]:
+    """The dense and scipy paths, on :func:`_compact`'s CSR."""
     use, rows_u, cols_u, indptr, cols, ww = _compact(cand, w)
     nr, nc = len(rows_u), len(cols_u)
     if nr == 0:
-        return Matching(np.empty(0, dtype=np.int64), method, 0.0, time.perf_counter() - t0)
-    if method == "auto":
-        method = "sparse"
-    if method == "sparse":
-        from aligner.kernels.assign import sparse_max_weight_matching
-
-        row_to_col = sparse_max_weight_matching(indptr, cols, ww, nc)
-    elif method == "dense":
+        return np.empty(0, dtype=np.int64)
+    if method == "dense":
         from aligner.kernels.assign import max_weight_matching_dense
 
         dense = np.zeros((nr, nc), dtype=np.float64)
@@ -112,10 +129,7 @@ def round_matching(cand: CandidateSet, w: npt.ArrayLike, *, method: str = "auto"
     # back from (row, col) to candidate index: the one stored entry of each row at its column
     from aligner.kernels.assign import matched_entries
 
-    index = matched_entries(indptr, cols, np.ascontiguousarray(row_to_col, dtype=np.int64), use)
-    with np.errstate(over="ignore"):  # scores whose sum passes the largest float (a prior near 1e308): inf
-        weight = float(w[index].sum())
-    return Matching(index=index, method=method, weight=weight, seconds=time.perf_counter() - t0)
+    return matched_entries(indptr, cols, np.ascontiguousarray(row_to_col, dtype=np.int64), use)
 
 
 def _scipy_matching(indptr, cols, ww, nr, nc):

@@ -49,13 +49,12 @@ STAGE_KERNELS: dict[str, list[tuple[str, str, str]]] = {
         ("push", "_push", f"{_I64}, {_I32}, {_F64}, {_F64}, float64, {_F64}, {_F64}, {_F64}, int64"),
     ],
     "rounding": [
-        ("assign", "compact_positive", f"int32[:, ::1], {_F64}, int64, int64"),
-        ("assign", "_pack", f"{_I64}, {_I64}, {_F64}, int64"),
+        ("assign", "pack_positive", f"int32[:, ::1], {_F64}, int64, int64"),
         ("assign", "_row_reduction_pass", f"{_I64}, float64[:, ::1], {_I64}, int64, int64, {_F64}, float64[:, ::1], "
                                           f"{_I64}, {_F64}"),
         ("assign", "_insert_rows", f"{_I64}, int64, {_I64}, float64[:, ::1], {_F64}, float64[:, ::1], {_I64}, {_F64}, "
                                    f"int8[::1], {_I64}, {_F64}, {_I64}, {_I64}, {_I64}, {_I64}"),
-        ("assign", "matched_entries", f"{_I64}, {_I64}, {_I64}, {_I64}"),
+        ("assign", "matched_packed", f"{_I64}, float64[:, ::1], {_I64}, {_I64}"),
     ],
     "refine": [
         ("utils", "stable_order", f"{_I64}, int64"),

@@ -578,6 +578,13 @@ def _solve(indptr, indices, weights, n_cols, arr_budget):
     compilation is shorter), and the arrays are allocated by numpy.
     """
     rstart, ent = _pack(indptr, indices, weights, n_cols)
+    return solve_packed(rstart, ent, n_cols, arr_budget)
+
+
+def solve_packed(rstart, ent, n_cols, arr_budget=_ARR_BUDGET):
+    """:func:`_solve` on entries already packed by row as :func:`_pack` packs them
+    (``rstart``, and ``ent`` rows of (column as a float, cost = -weight), every weight positive
+    and finite): the row each row's column, or -1."""
     n_rows = rstart.shape[0] - 1
     m = ent.shape[0]
     row_to_col = np.full(n_rows, -1, dtype=np.int64)
@@ -854,6 +861,88 @@ def compact_positive(pairs, w, n1, n2):
     for r in range(nr):
         indptr[r + 1] += indptr[r]
     return use, rows_u, cols_u, indptr, cols, ww
+
+
+@numba.njit(cache=True, nogil=True, **OUTER)
+def pack_positive(pairs, w, n1, n2):
+    """:func:`compact_positive` packed for the sparse solver as :func:`_pack` packs its CSR,
+    without the CSR's columns and weights in between (16 bytes a kept pair fewer at the
+    solver's peak; the rounding's, and each Frank–Wolfe step's).
+
+    Returns (use, rstart, ent, nc): the kept candidate indices ascending (empty when every pair
+    is kept: the identity), the row pointer over the A nodes with a kept pair, each kept pair's
+    (column as a float, -weight) with columns numbered as :func:`compact_positive` numbers them,
+    and the number of columns. Raises ValueError on an infinite weight, as :func:`_pack` does.
+    """
+    m = pairs.shape[0]
+    pos_a = np.empty(n1 + 1, dtype=np.int64)
+    for _t in range(pos_a.shape[0]):
+        pos_a[_t] = 0
+    pos_b = np.empty(n2 + 1, dtype=np.int64)
+    for _t in range(pos_b.shape[0]):
+        pos_b[_t] = 0
+    count = 0
+    for k in range(m):
+        wk = w[k]
+        if wk > 0:
+            if wk == np.inf:
+                raise ValueError("weights must be finite")
+            count += 1
+            pos_a[pairs[k, 0]] = 1
+            pos_b[pairs[k, 1]] = 1
+    r = 0
+    for i in range(n1):  # present nodes numbered in increasing order
+        present = pos_a[i]
+        pos_a[i] = r
+        r += present
+    c = 0
+    for j in range(n2):
+        present = pos_b[j]
+        pos_b[j] = c
+        c += present
+    every = count == m
+    use = np.empty(0 if every else count, dtype=np.int64)
+    ent = np.empty((count, 2), dtype=np.float64)
+    rstart = np.empty(r + 1, dtype=np.int64)
+    for _t in range(rstart.shape[0]):
+        rstart[_t] = 0
+    t = 0
+    for k in range(m):
+        wk = w[k]
+        if wk > 0:
+            rstart[pos_a[pairs[k, 0]] + 1] += 1
+            if not every:
+                use[t] = k
+            ent[t, 0] = pos_b[pairs[k, 1]]
+            ent[t, 1] = -wk
+            t += 1
+    for i in range(r):
+        rstart[i + 1] += rstart[i]
+    return use, rstart, ent, c
+
+
+@numba.njit(cache=True, nogil=True, **OUTER)
+def matched_packed(rstart, ent, row_to_col, use):
+    """:func:`matched_entries` of :func:`pack_positive`'s packing: the candidate index of each
+    matched row's entry in its column (``use`` empty: the entry's own position)."""
+    nr = rstart.shape[0] - 1
+    n = 0
+    for r in range(nr):
+        if row_to_col[r] >= 0:
+            n += 1
+    out = np.empty(n, dtype=np.int64)
+    every = use.shape[0] == 0
+    t = 0
+    for r in range(nr):
+        c = row_to_col[r]
+        if c < 0:
+            continue
+        for p in range(rstart[r], rstart[r + 1]):
+            if ent[p, 0] == c:
+                out[t] = p if every else use[p]
+                t += 1
+                break
+    return out[:t]
 
 
 @numba.njit(cache=True, nogil=True, **OUTER)

@@ -137,7 +137,7 @@ def test_method_selects_the_solver_and_is_reported(method, solver, monkeypatch):
     import aligner.kernels.assign as assign
 
     ran = []
-    for mod, name, tag in ((assign, "sparse_max_weight_matching", "sparse"),
+    for mod, name, tag in ((assign, "solve_packed", "sparse"),
                            (assign, "max_weight_matching_dense", "dense"), (rounding, "_scipy_matching", "scipy")):
         real = getattr(mod, name)
         monkeypatch.setattr(mod, name, lambda *a, _real=real, _tag=tag: ran.append(_tag) or _real(*a))

@@ -230,3 +230,44 @@ def test_compact_positive_equals_numpy_unique_layout(seed):
     row_of = np.repeat(np.arange(len(ru)), np.diff(indptr))
     want = use[np.flatnonzero(row_to_col[row_of] == cols)]
     assert np.array_equal(matched_entries(indptr, cols, row_to_col, use), want)
+
+
+@pytest.mark.parametrize("seed", range(6))
+@pytest.mark.parametrize("drop", [0.0, 0.1])
+def test_pack_positive_equals_numpy_unique_layout(seed, drop):
+    # Reference: numpy.unique(..., return_inverse=True) renumbering of the pairs with w > 0, a
+    # numpy.bincount row pointer, and the (column, -weight) rows the solver's own packing makes of
+    # that CSR; with nothing dropped the kept indices are the identity (an empty ``use``).
+    from aligner.kernels.assign import _pack, matched_packed, pack_positive
+
+    rng = np.random.default_rng(seed)
+    n1, n2 = 30, 25
+    pairs = np.unique(np.stack([rng.integers(0, n1, 200), rng.integers(0, n2, 200)], 1), axis=0).astype(np.int32)
+    w = rng.random(len(pairs)) + 0.01
+    if drop:
+        w[rng.random(len(pairs)) < drop] = np.nan
+        w[rng.random(len(pairs)) < drop] = -1.0
+    use, rstart, ent, nc = pack_positive(np.ascontiguousarray(pairs), w, n1, n2)
+    keep = np.flatnonzero(w > 0)
+    ru, rows = np.unique(pairs[keep, 0], return_inverse=True)
+    cu, cc = np.unique(pairs[keep, 1], return_inverse=True)
+    indptr = np.concatenate([[0], np.cumsum(np.bincount(rows, minlength=len(ru)))])
+    assert nc == len(cu) and np.array_equal(rstart, indptr)
+    assert np.array_equal(use, keep if drop else np.empty(0, dtype=np.int64))
+    want_start, want_ent = _pack(indptr.astype(np.int64), cc.astype(np.int64), w[keep], len(cu))
+    assert np.array_equal(rstart, want_start) and np.array_equal(ent, want_ent)
+    row_to_col = np.full(len(ru), -1, dtype=np.int64)
+    for r in np.flatnonzero(rng.random(len(ru)) < 0.7):
+        row_to_col[r] = cc[rng.integers(indptr[r], indptr[r + 1])]
+    row_of = np.repeat(np.arange(len(ru)), np.diff(indptr))
+    assert np.array_equal(matched_packed(rstart, ent, row_to_col, use),
+                          keep[np.flatnonzero(row_to_col[row_of] == cc)])
+
+
+def test_pack_positive_refuses_an_infinite_weight():
+    # Common practice: an infinite weight has no optimum to match against; the solver's own
+    # packing refuses it with the same message.
+    from aligner.kernels.assign import pack_positive
+
+    with pytest.raises(ValueError, match="finite"):
+        pack_positive(np.array([[0, 0], [1, 1]], dtype=np.int32), np.array([1.0, np.inf]), 2, 2)
