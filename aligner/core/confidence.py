@@ -108,7 +108,8 @@ def exchange_loss(prod: ProductGraph, cand: CandidateSet, w: npt.ArrayLike, inde
     if not len(index):
         return np.zeros(0)
     s_w = np.empty(0) if edge_weights is None else np.ascontiguousarray(edge_weights, dtype=np.float64)
-    f = beta * normalise_weights(w)[0]
+    f = normalise_weights(w)[0]
+    f *= beta  # in place: no second array of m entries
     f += matched_counts(prod, index, s_w) if counts is None else counts
     pa, pb = cand.ends
     mate_a = np.full(cand.n1, -1, dtype=np.int64)

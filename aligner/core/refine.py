@@ -459,7 +459,7 @@ def _start(prod: ProductGraph, cand: CandidateSet, w, index, opts: _Options, edg
         opts = opts._replace(s_w=s_w, s_max=_max_entry(prod.indptr, prod.indices) * float(s_w.max(initial=0.0)))
     wn, scale = normalise_weights(w)
     _check_beta_scale(opts.beta, wn)
-    bw = opts.beta * wn
+    bw = np.multiply(wn, opts.beta, out=wn)  # in place: no second array of m entries
     return opts, w, index, bw, scale, matched_counts(prod, index, opts.s_w)
 
 
