@@ -17,15 +17,17 @@ import numpy as np
 import numpy.typing as npt
 import pyarrow as pa
 
-from aligner.kernels.tsv import format_general, format_integers, has_any_byte, join_rows, rows_in_order
+from aligner.kernels.tsv import (add_widths, format_general, format_integers, has_any_byte, place_field,
+                                 row_offsets, rows_in_order)
 
-__all__ = ["Field", "text_field", "quoted", "float_field", "int_field", "rows_text", "rows_in_order_of"]
+__all__ = ["Field", "text_field", "quoted", "float_field", "int_field", "rows_text", "rows_in_order_of", "starts_with"]
 
 #: float formats rendered by the compiled formatter: %.<P>g
 _GENERAL = re.compile(r"%\.(\d{1,2})g")
 #: bytes that make the csv module quote a field (tab delimiter, '"' quote, '\n' line end) and '\r'
 _QUOTED = np.zeros(256, dtype=np.bool_)
 _QUOTED[[9, 10, 13, 34]] = True
+_TAB, _NEWLINE = 9, 10
 
 
 @dataclass(frozen=True)
@@ -98,6 +100,27 @@ def rows_in_order_of(fields: list[Field]) -> bool:
     return bool(rows_in_order(*_stacked(fields)))
 
 
-def rows_text(fields: list[Field]) -> bytes:
-    """The rows of these fields (equal lengths, at least one), tab-separated, each ended by ``\\n``."""
-    return join_rows(*_stacked(fields)).tobytes()
+def rows_text(fields: list[Field], prefix: bytes = b"") -> npt.NDArray[np.uint8]:
+    """``prefix`` then the rows of these fields (equal lengths, at least one), tab-separated,
+    each ended by ``\\n``, as one array of bytes.
+
+    Written a column at a time into the one array (the only other one is a cursor per row):
+    at 3.8 million rows of four names, about 0.4 GB less at the peak than joining the fields'
+    stacked starts and lengths and copying the result into ``bytes`` and after the prefix.
+    """
+    cursor = np.zeros(len(fields[0].length), dtype=np.int64)
+    for f in fields:
+        add_widths(cursor, np.ascontiguousarray(f.length, dtype=np.int64))
+    end = row_offsets(cursor, len(prefix))
+    out = np.empty(end, dtype=np.uint8)
+    out[:len(prefix)] = np.frombuffer(prefix, dtype=np.uint8)
+    for c, f in enumerate(fields):
+        place_field(out, cursor, f.data, np.ascontiguousarray(f.start, dtype=np.int64),
+                    np.ascontiguousarray(f.length, dtype=np.int64), _TAB if c < len(fields) - 1 else _NEWLINE)
+    return out
+
+
+def starts_with(field: Field, byte: int) -> bool:
+    """Whether some row's text starts with ``byte``."""
+    first = field.start[field.length > 0]
+    return bool(len(first)) and bool((field.data[first] == byte).any())

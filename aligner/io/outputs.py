@@ -123,6 +123,12 @@ def _in_order(df: pd.DataFrame, keys) -> bool:
 
 def _table_bytes(df: pd.DataFrame, *, float_format="%.10g", na_rep: str = "", sort_by=None) -> bytes:
     """:func:`table_text` as UTF-8 bytes, after a stable sort by the columns ``sort_by``."""
+    return bytes(_table_buffer(df, float_format=float_format, na_rep=na_rep, sort_by=sort_by))
+
+
+def _table_buffer(df: pd.DataFrame, *, float_format="%.10g", na_rep: str = "", sort_by=None) -> bytes | memoryview:
+    """:func:`_table_bytes`, or for a large table the compiled rows' own array of bytes (a view
+    of it: written to a file as it is, not copied into ``bytes`` first)."""
     small = len(df) < _COMPILED_FROM_ROWS
     if sort_by is not None and (small or not _in_order(df, sort_by)):
         df = df.sort_values(list(sort_by), kind="stable")
@@ -132,7 +138,10 @@ def _table_bytes(df: pd.DataFrame, *, float_format="%.10g", na_rep: str = "", so
     if fields is None or any(f is None for f in fields):
         return _quote_comment_starts(_pandas_text(df, float_format, na_rep).encode("utf-8"))
     header = _pandas_text(df.iloc[:0], float_format, na_rep).encode("utf-8")
-    return _quote_comment_starts(header + tsv.rows_text(fields))
+    text = tsv.rows_text(fields, prefix=header)
+    if tsv.starts_with(fields[0], ord("#")):  # (no field holds a line end: a row starts each line)
+        return _quote_comment_starts(text.tobytes())
+    return memoryview(text)
 
 
 def _quote_comment_starts(text: bytes) -> bytes:
@@ -178,8 +187,8 @@ def _finite(obj):
     return obj
 
 
-def _as_bytes(data: str | bytes) -> bytes:
-    return data if isinstance(data, bytes) else data.encode("utf-8")
+def _as_bytes(data: str | bytes | memoryview) -> bytes | memoryview:
+    return data.encode("utf-8") if isinstance(data, str) else data
 
 
 # --------------------------------------------------------------------------- one file
@@ -475,9 +484,11 @@ def write_outputs(outdir: str | os.PathLike, result, *, force: bool = False,
     leaves the run state out.
     """
     out = check_outdir(outdir, force=force, files=output_files(parquet))
-    pairs = _table_bytes(result.pairs, sort_by=("node_a", "node_b"))
-    cons = _table_bytes(result.conserved_edges, sort_by=("node_a1", "node_a2"))
-    moved = _table_bytes(result.transferred_edges())
+    # the transferred edges first: they are found now, and their arrays of edges then do not
+    # meet the other tables' text in memory
+    moved = _table_buffer(result.transferred_edges())
+    pairs = _table_buffer(result.pairs, sort_by=("node_a", "node_b"))
+    cons = _table_buffer(result.conserved_edges, sort_by=("node_a1", "node_a2"))
     files = {"alignment.tsv": pairs, "conserved_edges.tsv": cons, TRANSFER_TABLE: moved,
              "summary.json": json_text(result.summary)}
     if state and hasattr(result, "state"):  # a result of the pipeline (not a bare table holder)

@@ -223,22 +223,34 @@ def rows_in_order(data, start, length):
 
 
 @numba.njit(cache=True, nogil=True, **OUTER)
-def join_rows(data, start, length):
-    """The rows as TSV bytes: fields (shape (fields, rows) ``start``, ``length`` into ``data``)
-    joined by tabs, each row ended by a newline."""
-    ncol, m = start.shape
-    total = m * ncol
-    for c in range(ncol):
-        for r in range(m):
-            total += length[c, r]
-    out = np.empty(total, dtype=np.uint8)
-    p = 0
-    for r in range(m):
-        for c in range(ncol):
-            s = start[c, r]
-            for i in range(length[c, r]):
-                out[p + i] = data[s + i]
-            p += length[c, r]
-            out[p] = _TAB if c < ncol - 1 else _NEWLINE
-            p += 1
-    return out
+def add_widths(width, length):
+    """``width[r] += length[r] + 1``: a field of each row and the tab or newline after it."""
+    for r in range(width.shape[0]):
+        width[r] += length[r] + 1
+
+
+@numba.njit(cache=True, nogil=True, **OUTER)
+def row_offsets(width, first):
+    """``width`` turned in place into each row's offset: ``first`` plus the widths of the rows
+    before it; returns the end of the last row."""
+    p = first
+    for r in range(width.shape[0]):
+        w = width[r]
+        width[r] = p
+        p += w
+    return p
+
+
+@numba.njit(cache=True, nogil=True, **OUTER)
+def place_field(out, cursor, data, start, length, sep):
+    """Copy each row's field to ``out[cursor[r]:]`` followed by the byte ``sep``, and move the
+    row's cursor past them (one column of the rows at a time: no table of all the fields'
+    starts and lengths is made)."""
+    for r in range(cursor.shape[0]):
+        p = cursor[r]
+        s = start[r]
+        n = length[r]
+        for i in range(n):
+            out[p + i] = data[s + i]
+        out[p + n] = sep
+        cursor[r] = p + n + 1
