@@ -955,6 +955,7 @@ def run_stages(problem: Problem, clock: Clock, *, x0=None, permutation_progress=
             improvement = improve(problem, diffusion, rounded)
     with clock.stage("scoring"):
         evaluation = evaluate(problem, diffusion, improvement, permutation_progress=permutation_progress)
+    problem.candidates.release_ends()  # the last stage that reads them is done
     return AlignmentResult(problem, diffusion, improvement, evaluation,
                            summarize(problem, diffusion, improvement, evaluation, clock))
 
