@@ -176,7 +176,8 @@ def test_shared_end_columns_survive_a_whole_run(monkeypatch):
     from aligner.pipeline import align
 
     held, release = [], CandidateSet.release_ends
-    monkeypatch.setattr(CandidateSet, "release_ends", lambda self: held.append(self.__dict__.get("ends")) or release(self))
+    monkeypatch.setattr(CandidateSet, "release_ends",
+                        lambda self: held.append(self.__dict__.get("ends")) or release(self))
     a, b, prior, truth = as_frames(noisy_relabelled(300, seed=5))
     res = align(a, b, prior, truth=truth)
     cand = res.candidates
