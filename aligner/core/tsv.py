@@ -50,7 +50,8 @@ def text_field(values: pa.Array | pa.ChunkedArray) -> Field | None:
         return Field(np.zeros(0, dtype=np.uint8), np.zeros(0, dtype=np.int64), np.zeros(0, dtype=np.int64))
     width = np.int64 if pa.types.is_large_string(values.type) else np.int32
     _, offsets_buf, data_buf = values.buffers()
-    offsets = np.frombuffer(offsets_buf, dtype=width)[values.offset:values.offset + len(values) + 1].astype(np.int64)
+    offsets = np.frombuffer(offsets_buf, dtype=width)[values.offset:values.offset + len(values) + 1]
+    offsets = offsets.astype(np.int64, copy=False)  # a large string's own offsets: not copied
     data = np.frombuffer(data_buf, dtype=np.uint8) if data_buf is not None else np.zeros(0, dtype=np.uint8)
     return Field(data, offsets[:-1], np.diff(offsets))
 
