@@ -946,6 +946,8 @@ def run_stages(problem: Problem, clock: Clock, *, x0=None, permutation_progress=
     given, :func:`improve` refines."""
     with clock.stage("diffusion"):
         diffusion = solve(problem, x0=x0)
+    if problem.product is not None:
+        problem.product.release_degree()  # the later stages read the rows' pointers instead
     with clock.stage("rounding"):
         rounded = match(problem, diffusion)
     refining = problem.config.refine and problem.config.alpha > 0
@@ -956,6 +958,8 @@ def run_stages(problem: Problem, clock: Clock, *, x0=None, permutation_progress=
     with clock.stage("scoring"):
         evaluation = evaluate(problem, diffusion, improvement, permutation_progress=permutation_progress)
     problem.candidates.release_ends()  # the last stage that reads them is done
+    if problem.product is not None:
+        problem.product.release_degree()  # (made again where a directed run's S + S^T was built)
     return AlignmentResult(problem, diffusion, improvement, evaluation,
                            summarize(problem, diffusion, improvement, evaluation, clock))
 

@@ -321,3 +321,18 @@ def test_prepare_shows_the_options_and_the_stage_helpers_do_not():
 
     assert {"alpha", "weight_model", "refine_starts"} <= set(inspect.signature(prepare).parameters)
     assert list(inspect.signature(diffusion_source).parameters) == ["cand", "seeds", "cfg"]
+
+
+@pytest.mark.parametrize("directed", [False, True])
+def test_a_run_lets_go_of_its_caches_and_they_are_made_again_alike(directed):
+    # The product graph's row sizes and the candidates' end columns are caches the run drops
+    # once their last reader is done; made again on use they are what numpy makes of the arrays
+    # they come from (numpy.diff of the row pointer, the pairs' two columns: common practice).
+    from aligner.datasets.instances import as_frames, noisy_relabelled
+
+    a, b, prior, _ = as_frames(noisy_relabelled(300, seed=2))
+    res = aligner.align(a, b, prior, directed=directed)
+    prod, cand = res.product, res.candidates
+    assert "_degree" not in prod.__dict__ and "ends" not in cand.__dict__
+    assert np.array_equal(prod.degree, np.diff(prod.indptr))
+    assert np.array_equal(cand.ends[0], cand.pairs[:, 0]) and np.array_equal(cand.ends[1], cand.pairs[:, 1])
