@@ -35,17 +35,18 @@ class Matching:
         return cand.pairs[self.index]
 
 
-def _compact(cand: CandidateSet, w: npt.NDArray[np.float64]):
-    """Candidate pairs with positive weight, as a CSR over the A and B nodes that have any.
+def _packed(cand: CandidateSet, w: npt.NDArray[np.float64]):
+    """Candidate pairs with positive weight, packed by node of A for the sparse solver:
+    (use, rstart, ent, nc), :func:`aligner.kernels.assign.pack_positive`.
 
     The one place where pairs without evidence (weight 0, negative or NaN) are dropped. Nodes
     are renumbered in increasing order (the same numbering as ``np.unique(...,
     return_inverse=True)``) by a compiled pass, O(m + n), no sort.
     """
-    from aligner.kernels.assign import compact_positive
+    from aligner.kernels.assign import pack_positive
 
     pairs = np.ascontiguousarray(cand.pairs, dtype=np.int32)
-    return compact_positive(pairs, np.ascontiguousarray(w, dtype=np.float64), cand.n1, cand.n2)
+    return pack_positive(pairs, np.ascontiguousarray(w, dtype=np.float64), cand.n1, cand.n2)
 
 
 def round_matching(cand: CandidateSet, w: npt.ArrayLike, *, method: str = "auto") -> Matching:
@@ -100,24 +101,24 @@ def round_matching(cand: CandidateSet, w: npt.ArrayLike, *, method: str = "auto"
 
 
 def _sparse(cand: CandidateSet, w: npt.NDArray[np.float64]) -> npt.NDArray[np.int64]:
-    """The sparse solver on the pairs with positive weight, packed for it in one compiled pass
-    (the compaction of :func:`_compact`, without its CSR columns and weights)."""
-    from aligner.kernels.assign import matched_packed, pack_positive, solve_packed
+    """The sparse solver on :func:`_packed`'s entries (no CSR columns and weights in between)."""
+    from aligner.kernels.assign import matched_packed, solve_packed
 
-    pairs = np.ascontiguousarray(cand.pairs, dtype=np.int32)
-    use, rstart, ent, nc = pack_positive(pairs, np.ascontiguousarray(w, dtype=np.float64), cand.n1, cand.n2)
+    use, rstart, ent, nc = _packed(cand, w)
     if len(rstart) == 1:
         return np.empty(0, dtype=np.int64)
-    row_to_col = solve_packed(rstart, ent, int(nc))
-    return matched_packed(rstart, ent, row_to_col, use)
+    return matched_packed(rstart, ent, solve_packed(rstart, ent, int(nc)), use)
 
 
 def _reference(cand: CandidateSet, w: npt.NDArray[np.float64], method: str) -> npt.NDArray[np.int64]:
-    """The dense and scipy paths, on :func:`_compact`'s CSR."""
-    use, rows_u, cols_u, indptr, cols, ww = _compact(cand, w)
-    nr, nc = len(rows_u), len(cols_u)
+    """The dense and scipy paths, on the CSR of :func:`_packed`'s entries."""
+    from aligner.kernels.assign import matched_packed
+
+    use, indptr, ent, nc = _packed(cand, w)
+    nr = len(indptr) - 1
     if nr == 0:
         return np.empty(0, dtype=np.int64)
+    cols, ww = ent[:, 0].astype(np.int64), -ent[:, 1]  # exact: small integers, and a sign
     if method == "dense":
         from aligner.kernels.assign import max_weight_matching_dense
 
@@ -127,9 +128,7 @@ def _reference(cand: CandidateSet, w: npt.NDArray[np.float64], method: str) -> n
     else:
         row_to_col = _scipy_matching(indptr, cols, ww, nr, nc)
     # back from (row, col) to candidate index: the one stored entry of each row at its column
-    from aligner.kernels.assign import matched_entries
-
-    return matched_entries(indptr, cols, np.ascontiguousarray(row_to_col, dtype=np.int64), use)
+    return matched_packed(indptr, ent, np.ascontiguousarray(row_to_col, dtype=np.int64), use)
 
 
 def _scipy_matching(indptr, cols, ww, nr, nc):

@@ -204,35 +204,6 @@ def test_property_small_instances(inst, budget):
 
 
 @pytest.mark.parametrize("seed", range(6))
-def test_compact_positive_equals_numpy_unique_layout(seed):
-    # Reference: numpy.unique(..., return_inverse=True) renumbering and numpy.bincount row
-    # pointer over the pairs with w > 0 (NaN, 0 and negative dropped), as the rounding had it.
-    from aligner.kernels.assign import compact_positive, matched_entries
-
-    rng = np.random.default_rng(seed)
-    n1, n2 = 30, 25
-    pairs = np.unique(np.stack([rng.integers(0, n1, 200), rng.integers(0, n2, 200)], 1), axis=0).astype(np.int32)
-    w = rng.normal(size=len(pairs))
-    w[rng.random(len(pairs)) < 0.1] = np.nan
-    use, rows_u, cols_u, indptr, cols, ww = compact_positive(np.ascontiguousarray(pairs), w, n1, n2)
-    keep = np.flatnonzero(w > 0)
-    ru, rows = np.unique(pairs[keep, 0], return_inverse=True)
-    cu, cc = np.unique(pairs[keep, 1], return_inverse=True)
-    assert np.array_equal(use, keep) and np.array_equal(rows_u, ru) and np.array_equal(cols_u, cu)
-    assert np.array_equal(cols, cc) and np.array_equal(ww, w[keep])
-    assert np.array_equal(indptr, np.concatenate([[0], np.cumsum(np.bincount(rows, minlength=len(ru)))]))
-    # the way back: each matched row's stored entry at its column (rows with -1 or a column
-    # they do not store give nothing)
-    row_to_col = np.full(len(ru), -1, dtype=np.int64)
-    pick = rng.random(len(ru)) < 0.7
-    for r in np.flatnonzero(pick):
-        row_to_col[r] = cols[rng.integers(indptr[r], indptr[r + 1])]
-    row_of = np.repeat(np.arange(len(ru)), np.diff(indptr))
-    want = use[np.flatnonzero(row_to_col[row_of] == cols)]
-    assert np.array_equal(matched_entries(indptr, cols, row_to_col, use), want)
-
-
-@pytest.mark.parametrize("seed", range(6))
 @pytest.mark.parametrize("drop", [0.0, 0.1])
 def test_pack_positive_equals_numpy_unique_layout(seed, drop):
     # Reference: numpy.unique(..., return_inverse=True) renumbering of the pairs with w > 0, a
