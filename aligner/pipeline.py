@@ -958,8 +958,6 @@ def run_stages(problem: Problem, clock: Clock, *, x0=None, permutation_progress=
     with clock.stage("scoring"):
         evaluation = evaluate(problem, diffusion, improvement, permutation_progress=permutation_progress)
     problem.candidates.release_ends()  # the last stage that reads them is done
-    if problem.product is not None:
-        problem.product.release_degree()  # (made again where a directed run's S + S^T was built)
     return AlignmentResult(problem, diffusion, improvement, evaluation,
                            summarize(problem, diffusion, improvement, evaluation, clock))
 

@@ -238,8 +238,8 @@ def _solve_push(graph: ProductGraph, scale, alpha: float, tol: float, x, r, b, m
     passes in index order beat the queue's random order: at 10^6 nodes, 0.1 % of B's edges
     rewired, 0.30 s against 1.22 s for 6 % more pushes). Each push of r_l lowers ||r||_1 by at
     least (1 - alpha) |r_l| when residuals share a sign (they do without a warm start), which
-    bounds the work by O(log(1/tol) * |product edges| / (1 - alpha)). ``max_work`` caps the pushes of the passes and the queue together. Returns (x,
-    pushes, edge touches).
+    bounds the work by O(log(1/tol) * |product edges| / (1 - alpha)). ``max_work`` caps the
+    pushes of the passes and the queue together. Returns (x, pushes, edge touches).
     """
     m = graph.m
     # thresh = tol * (deg + 1) / sum(deg + 1), made in place: every array of m entries this machine

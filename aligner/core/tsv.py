@@ -17,8 +17,7 @@ import numpy as np
 import numpy.typing as npt
 import pyarrow as pa
 
-from aligner.kernels.tsv import (add_widths, format_general, format_integers, has_any_byte, place_field,
-                                 row_offsets, rows_in_order)
+from aligner.kernels.tsv import format_general, format_integers, has_any_byte, place_field, row_offsets, rows_in_order
 
 __all__ = ["Field", "text_field", "quoted", "float_field", "int_field", "rows_text", "rows_in_order_of", "starts_with"]
 
@@ -109,9 +108,9 @@ def rows_text(fields: list[Field], prefix: bytes = b"") -> npt.NDArray[np.uint8]
     at 3.8 million rows of four names, about 0.4 GB less at the peak than joining the fields'
     stacked starts and lengths and copying the result into ``bytes`` and after the prefix.
     """
-    cursor = np.zeros(len(fields[0].length), dtype=np.int64)
+    cursor = np.full(len(fields[0].length), len(fields), dtype=np.int64)  # a tab or newline after each field
     for f in fields:
-        add_widths(cursor, np.ascontiguousarray(f.length, dtype=np.int64))
+        cursor += f.length  # each row's width, in place
     end = row_offsets(cursor, len(prefix))
     out = np.empty(end, dtype=np.uint8)
     out[:len(prefix)] = np.frombuffer(prefix, dtype=np.uint8)

@@ -223,13 +223,6 @@ def rows_in_order(data, start, length):
 
 
 @numba.njit(cache=True, nogil=True, **OUTER)
-def add_widths(width, length):
-    """``width[r] += length[r] + 1``: a field of each row and the tab or newline after it."""
-    for r in range(width.shape[0]):
-        width[r] += length[r] + 1
-
-
-@numba.njit(cache=True, nogil=True, **OUTER)
 def row_offsets(width, first):
     """``width`` turned in place into each row's offset: ``first`` plus the widths of the rows
     before it; returns the end of the last row."""
