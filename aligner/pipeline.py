@@ -923,7 +923,10 @@ class AlignmentResult:
                              for side, net in (("a", p.network_a), ("b", p.network_b))},
                 "prior_table": None if inputs.prior is None else _prior_counts(inputs.prior),
                 "seconds": round(sum(self.summary["timings"].values()), 4),
-                "diffusion": {"steps": self.diffusion.steps, "edge_touches": self.diffusion.edge_touches}}
+                "diffusion": {"steps": self.diffusion.steps, "edge_touches": self.diffusion.edge_touches},
+                # the other matchings the refinement's starts reached that name alternatives: an
+                # update continues the search from this run's matching only where there were none
+                "near_optima": 0 if self.improvement.refined is None else len(self.improvement.refined.near_optima)}
         return arrays, meta
 
     def transferred_edges(self) -> pd.DataFrame:

@@ -824,6 +824,18 @@ def _previous_matching(state, maps: _Maps, cand) -> tuple[np.ndarray, np.ndarray
     return pos[hit], freed_a, freed_b, lost_a
 
 
+def _several_starts(near: int | None) -> str:
+    """Why an update of a run refining from several starts refines as ``align``: the previous
+    run's starts reached other matchings nearly as good (``near``, None when its state does not
+    say), which name alternatives (:mod:`aligner.core.ambiguity`) a search from one matching
+    would not find again."""
+    if near is None:
+        return "the run refines from several starts, and the previous run's state does not say whether they reached " \
+               "near-optimal matchings"
+    return f"the run refines from several starts, and the previous run's reached {near} near-optimal " \
+           f"matching{'' if near == 1 else 's'}"
+
+
 def _continued_refinement(state, maps: _Maps, x0: np.ndarray, record: dict):
     """An incremental update's refinement, for :func:`aligner.pipeline.run_stages`: the local
     search continued from the previous run's final matching, examining the candidates the change
@@ -831,9 +843,11 @@ def _continued_refinement(state, maps: _Maps, x0: np.ndarray, record: dict):
     new rounded matching and a search over every candidate.
 
     Returns None (so ``align``'s refinement runs) with several refinement starts (small
-    problems), seed pairs, or a weighted run counting agreement (whose entry weights can change
-    where no edge did), and when the continued search ends below the new rounded matching's F
-    (``align`` never ends below it). ``record`` receives what was done, for the summary."""
+    problems) when the previous run's reached near-optimal matchings (:func:`_several_starts`),
+    seed pairs, or a weighted run counting agreement (whose entry weights can change where no
+    edge did), and when the continued search ends below the new rounded matching's F (``align``
+    never ends below it). With several starts and no near-optimal matching the search continues
+    from the previous run's matching, the best of its starts. ``record`` receives what was done, for the summary."""
     from aligner.core.refine import RISE_TOL, continue_local_search, normalise_weights, refine_objective
     from aligner.core.rounding import round_matching
     from aligner.pipeline import Improvement, counted_weights, refine_starts
@@ -841,7 +855,8 @@ def _continued_refinement(state, maps: _Maps, x0: np.ndarray, record: dict):
     def run(problem, diffusion, rounded):
         cfg, cand = problem.config, problem.candidates
         prod = problem.product.symmetrised()
-        why = ("the run refines from several starts" if refine_starts(problem) > 1 else
+        near = state.meta.get("near_optima")  # None: a state written before it was kept
+        why = (_several_starts(near) if refine_starts(problem) > 1 and near != 0 else
                "the run has seed pairs" if problem.seed_index is not None else
                "the run counts edges by agreement" if counted_weights(cfg, prod) is not None else
                # F then counts conserved edges alone: a matched pair that conserves none is a tie

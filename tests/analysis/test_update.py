@@ -883,3 +883,90 @@ def test_a_diff_that_does_not_fit_names_its_line(base, tmp_path):
     (tmp_path / "add_p.tsv").write_text("x\ty\n")
     with pytest.raises(InputFormatError, match="expected 3 for a table of prior rows to add"):
         update(d / "run", add_prior=tmp_path / "add_p.tsv")
+
+
+# --------------------------------------------------------------------------- several starts
+# A small run refines from several starts and keeps the best (docs/method.md, "Several
+# starts"); the other matchings they reach that conserve nearly as many edges name alternatives
+# (docs/method.md, "Interchangeable nodes", (iii)). An update continues the search from the
+# previous run's matching, the best of its starts, when they reached no such matching, and
+# refines as align otherwise: a search from one matching would not find the others again.
+# Reference: align on the new inputs with the same (default) options.
+
+def _inputs_in(d, a, b, prior):
+    for name, frame in (("a.tsv", a), ("b.tsv", b), ("p.tsv", prior)):
+        _write(d, name, frame)
+    return d
+
+
+def _alternatives(res) -> dict:
+    return dict(zip(zip(res.pairs.node_a, res.pairs.node_b), res.pairs.alternatives))
+
+
+@pytest.mark.parametrize("change", ["rewire-b", "prior"])
+def test_several_starts_continue_from_the_best_when_none_came_near(one_start, change, tmp_path, monkeypatch):
+    import aligner.analysis.update as upd_module
+    monkeypatch.setattr(upd_module, "CONTINUE_SHARE", 1.0)  # these small changes touch a few % at 1,500 nodes
+    _, a, b, prior = one_start
+    d = _inputs_in(tmp_path, a, b, prior)
+    first = aligner.align(d / "a.tsv", d / "b.tsv", d / "p.tsv")
+    assert len(first.summary["refine"]["starts"]) > 1  # the size rule: several starts at 1,500 nodes
+    write_outputs(d / "run", first)
+    new_a, new_b, new_p = _changed_inputs(d, a, b, prior, change, np.random.default_rng(12))
+    upd = update(d / "run", network_a=new_a, network_b=new_b, prior=new_p)
+    ref = aligner.align(new_a, new_b, new_p)
+    _agree(upd, ref)
+    assert upd.evaluation.scores.conserved_edges == ref.evaluation.scores.conserved_edges
+    assert _alternatives(upd) == _alternatives(ref)
+    assert first.summary["ambiguity"]["near_optima"] == 0  # (this pair's starts reach no other near matching)
+    assert upd.summary["update"]["refine"]["mode"] == "continued"
+
+
+def test_several_starts_that_came_near_refine_as_align_and_name_the_same_alternatives(tmp_path):
+    # a noisy pair with near decoys whose starts end at two matchings of nearly as many edges
+    pair = noisy_relabelled(1000, graph="dupdiv", seed=2060, noise=0.25, decoys=10, decoy_mode="near")
+    a, b, prior, _ = as_frames(pair)
+    d = _inputs_in(tmp_path, a, b, prior)
+    first = aligner.align(d / "a.tsv", d / "b.tsv", d / "p.tsv")
+    near = first.summary["ambiguity"]["near_optima"]
+    assert near >= 1
+    write_outputs(d / "run", first)
+    _, new_b, _ = _changed_inputs(d, a, b, prior, "rewire-b", np.random.default_rng(14))
+    upd = update(d / "run", network_b=new_b)
+    ref = aligner.align(d / "a.tsv", new_b, d / "p.tsv")
+    _agree(upd, ref)
+    assert _alternatives(upd) == _alternatives(ref)
+    assert upd.summary["ambiguity"]["near_optima"] == ref.summary["ambiguity"]["near_optima"]
+    assert upd.summary["update"]["refine"] == {
+        "mode": "full", "reason": "the run refines from several starts, and the previous run's reached "
+                                  f"{near} near-optimal matching{'' if near == 1 else 's'}"}
+
+
+@pytest.mark.parametrize("near", [0, 2, None])
+def test_several_starts_refine_as_align_when_the_previous_run_came_near(one_start, near, tmp_path, monkeypatch):
+    # the state's record of the previous run's near-optimal matchings decides (None: a state
+    # written before it was kept); here it is set by hand on the same run
+    import aligner.analysis.update as upd_module
+    monkeypatch.setattr(upd_module, "CONTINUE_SHARE", 1.0)
+    _, a, b, prior = one_start
+    d = _inputs_in(tmp_path, a, b, prior)
+    first = aligner.align(d / "a.tsv", d / "b.tsv", d / "p.tsv")
+    arrays, meta = first.state()
+    assert meta["near_optima"] == first.summary["ambiguity"]["near_optima"]
+    if near is None:
+        del meta["near_optima"]
+    else:
+        meta["near_optima"] = near
+    monkeypatch.setattr(type(first), "state", lambda self: (arrays, meta))
+    write_outputs(d / "run", first)
+    _, new_b, _ = _changed_inputs(d, a, b, prior, "rewire-b", np.random.default_rng(13))
+    upd = update(d / "run", network_b=new_b)
+    _agree(upd, aligner.align(d / "a.tsv", new_b, d / "p.tsv"))
+    how = upd.summary["update"]["refine"]
+    if near == 0:
+        assert how["mode"] == "continued"
+    elif near is None:
+        assert how["mode"] == "full" and "does not say whether" in how["reason"]
+    else:
+        assert how["mode"] == "full" and "reached 2 near-optimal matchings" in how["reason"]
+        assert len(upd.summary["refine"]["starts"]) > 1  # align's refinement, from its starts
