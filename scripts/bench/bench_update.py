@@ -1,8 +1,8 @@
 """Benchmark ``aligner update`` against a full run on the changed inputs.
 
 A generated pair (power-law graph ``powerlaw_graph(n, m=4, p=0.3)``, relabelled copy with 5 % of
-the edges moved, true partner + 10 uniform decoys; seeded) is aligned and its outputs written
-(with the run state). Each change is then applied to the input files and both
+the edges moved, true partner + 10 uniform decoys; seeded; ``--graph dupdiv``, ``--decoys near``
+and ``--noise`` draw other families) is aligned and its outputs written (with the run state). Each change is then applied to the input files and both
 ``aligner.analysis.update.update`` (from the state) and ``aligner.align`` (from zero) run on the
 new inputs, in this process, each timed whole (reading included, writing excluded), ``--repeats``
 times alternately, the best of each kept (the first run of anything in a process also pays for
@@ -88,13 +88,14 @@ def changes(a: pd.DataFrame, b: pd.DataFrame, prior: pd.DataFrame, rng):
                                                 "after": "prior-1% as a diff"}
 
 
-def run(n: int, seed: int, repeats: int = 2) -> list[dict]:
+def run(n: int, seed: int, repeats: int = 2, graph: str = "powerlaw", decoy_mode: str = "uniform",
+        noise: float = 0.05) -> list[dict]:
     import aligner
     from aligner.analysis.update import update
     from aligner.datasets.instances import as_frames, noisy_relabelled
     from aligner.io.outputs import write_outputs
 
-    pair = noisy_relabelled(n, seed=seed, noise=0.05, decoys=10)
+    pair = noisy_relabelled(n, seed=seed, noise=noise, decoys=10, graph=graph, decoy_mode=decoy_mode)
     a, b, prior, _ = as_frames(pair)
     work = Path(tempfile.mkdtemp(prefix="bench_update_"))
     files = {"network_a": work / "a.tsv", "network_b": work / "b.tsv", "prior": work / "p.tsv"}
@@ -139,7 +140,7 @@ def run(n: int, seed: int, repeats: int = 2) -> list[dict]:
         gap = float(np.max(np.abs(upd.diffusion.x - ref.diffusion.x))) if upd.candidates.m == ref.candidates.m else None
         u = upd.summary["update"]
         t = upd.summary["timings"]
-        rows.append({"nodes": n, "change": name, "mode": u["mode"], "update_s": round(upd_s, 3),
+        rows.append({"nodes": n, "instance": f"{graph}, {decoy_mode} decoys, noise {noise:g}", "change": name, "mode": u["mode"], "update_s": round(upd_s, 3),
                      "full_s": round(ref_s, 3), "ratio": round(upd_s / ref_s, 3), "first_run_s": round(first_s, 3),
                      "read_s": t.get("read"), "product_s": t.get("product"), "diffusion_s": t.get("diffusion"),
                      "rounding_s": t.get("rounding"), "refine_s": t.get("refine"), "scoring_s": t.get("scoring"), "candidates_s": t.get("candidates"),
@@ -198,10 +199,16 @@ def main(argv=None) -> int:
     ap.add_argument("--repeats", type=int, default=2, help="runs of each, alternately; the best is kept")
     ap.add_argument("--out", default="bench_out")
     ap.add_argument("--markdown", default=None)
+    ap.add_argument("--graph", choices=("powerlaw", "dupdiv"), default="powerlaw",
+                    help="base graph model (aligner.datasets.instances.GRAPHS)")
+    ap.add_argument("--decoys", choices=("uniform", "near"), default="uniform",
+                    help="the prior's 10 decoys per node: uniform over B, or near the true partner")
+    ap.add_argument("--noise", type=float, default=0.05, help="share of B's edges moved against A")
     args = ap.parse_args(argv)
     global MEMORY
     MEMORY = memory_pages()
-    rows = [r for n in (int(s) for s in args.sizes.split(",")) for r in run(n, args.seed, args.repeats)]
+    rows = [r for n in (int(s) for s in args.sizes.split(",")) for r in run(n, args.seed, args.repeats, args.graph, args.decoys,
+                                                                            args.noise)]
     return finish(rows, "bench_update", argv, markdown, args.out, args.markdown)
 
 
