@@ -794,9 +794,10 @@ def _product_patch(state, problem, maps: _Maps, record: dict):
 #: update's refinement; a move the search skips elsewhere gains at most six such changes (plus the
 #: single-precision rounding of the kept scores, 2^-24 of a pair's weight).
 VALUE_TOL = 1e-3
-#: Above this share of candidates touched the continued search costs as much as align's
-#: refinement (its marking and look-ups cost more per candidate than a sweep; measured at 10^5
-#: nodes: docs/update_benchmark.md), so the update refines as align does.
+#: Above this share of candidates touched, times the refinement's starts, the continued search
+#: costs as much as align's refinement (its marking and look-ups cost more per candidate than a
+#: sweep, and align refines once per start; measured at 10^5 nodes with one start and at 2 x 10^4
+#: with eight: docs/update_benchmark.md), so the update refines as align does.
 CONTINUE_SHARE = 0.05
 
 
@@ -884,9 +885,12 @@ def _continued_refinement(state, maps: _Maps, x0: np.ndarray, record: dict):
         cols[maps.ends_b] = True
         touched |= rows[cand.pairs[:, 0]] | cols[cand.pairs[:, 1]]
         share = float(touched.mean()) if cand.m else 0.0
-        if share > CONTINUE_SHARE:
+        starts = refine_starts(problem)
+        limit = min(1.0, CONTINUE_SHARE * starts)
+        if share > limit:
+            per = f", {CONTINUE_SHARE:.0%} for each of the {starts} refinement starts" if starts > 1 else ""
             record.update(mode="full", reason=f"the change touched {share:.1%} of the candidates (more than "
-                                              f"{CONTINUE_SHARE:.0%}): refined as align",
+                                              f"{limit:.0%}{per}): refined as align",
                           pairs_touched=int(touched.sum()))
             return None
         res, marked = continue_local_search(prod, cand, diffusion.x, start, np.flatnonzero(touched), freed_a,

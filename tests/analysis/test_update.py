@@ -970,3 +970,29 @@ def test_several_starts_refine_as_align_when_the_previous_run_came_near(one_star
     else:
         assert how["mode"] == "full" and "reached 2 near-optimal matchings" in how["reason"]
         assert len(upd.summary["refine"]["starts"]) > 1  # align's refinement, from its starts
+
+
+def test_several_starts_let_the_search_continue_over_more_of_the_candidates(tmp_path):
+    # align refines once per start, so the share of candidates a change may touch before the
+    # update refines as align grows with the starts: 5 % per start (CONTINUE_SHARE); the same
+    # change on a one-start run of the same pair refines as align
+    from aligner.analysis.update import CONTINUE_SHARE
+    a, b, prior, _ = as_frames(noisy_relabelled(1500, seed=23, noise=0.05, decoys=8))
+    d = _inputs_in(tmp_path, a, b, prior)
+    rng = np.random.default_rng(15)
+    b2 = b.copy()
+    rows = rng.choice(len(b2), 3 * len(b2) // 100, replace=False)  # 3 % of B's edges rewired
+    b2.iloc[rows, 1] = rng.choice(b2.iloc[:, 0].unique(), len(rows))
+    new_b = _write(d, "b_rw3.tsv", b2)
+    for starts in (None, 1):
+        run = d / f"run{starts}"
+        write_outputs(run, aligner.align(d / "a.tsv", d / "b.tsv", d / "p.tsv", refine_starts=starts))
+        upd = update(run, network_b=new_b)
+        ref = aligner.align(d / "a.tsv", new_b, d / "p.tsv", refine_starts=starts)
+        _agree(upd, ref)
+        how = upd.summary["update"]["refine"]
+        assert how["pairs_touched"] > CONTINUE_SHARE * ref.candidates.m  # more than one start's share
+        if starts is None:
+            assert len(ref.summary["refine"]["starts"]) == 8 and how["mode"] == "continued"
+        else:
+            assert how["mode"] == "full" and "(more than 5%): refined as align" in how["reason"]
