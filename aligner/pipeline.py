@@ -926,7 +926,10 @@ class AlignmentResult:
                 "diffusion": {"steps": self.diffusion.steps, "edge_touches": self.diffusion.edge_touches},
                 # the other matchings the refinement's starts reached that name alternatives: an
                 # update continues the search from this run's matching only where there were none
-                "near_optima": 0 if self.improvement.refined is None else len(self.improvement.refined.near_optima)}
+                "near_optima": 0 if self.improvement.refined is None else len(self.improvement.refined.near_optima),
+                # whether the final matching is the refinement's (with seed pairs, one that moved
+                # a seed pair is not used): an update continues the search only from such a matching
+                "refined": self.improvement.refined is not None}
         return arrays, meta
 
     def transferred_edges(self) -> pd.DataFrame:

@@ -845,9 +845,10 @@ def _continued_refinement(state, maps: _Maps, x0: np.ndarray, record: dict):
 
     Returns None (so ``align``'s refinement runs) with several refinement starts (small
     problems) when the previous run's reached near-optimal matchings (:func:`_several_starts`),
-    seed pairs, or a weighted run counting agreement (whose entry weights can change where no
-    edge did), and when the continued search ends below the new rounded matching's F (``align``
-    never ends below it). With several starts and no near-optimal matching the search continues
+    seed pairs when the previous run's final matching was not its refinement's (one that moved a
+    seed pair is not used), or a weighted run counting agreement (whose entry weights can change
+    where no edge did), and when the continued search ends below the new rounded matching's F
+    (``align`` never ends below it) or without a seed pair. With several starts and no near-optimal matching the search continues
     from the previous run's matching, the best of its starts. ``record`` receives what was done, for the summary."""
     from aligner.core.refine import RISE_TOL, continue_local_search, normalise_weights, refine_objective
     from aligner.core.rounding import round_matching
@@ -858,7 +859,12 @@ def _continued_refinement(state, maps: _Maps, x0: np.ndarray, record: dict):
         prod = problem.product.symmetrised()
         near = state.meta.get("near_optima")  # None: a state written before it was kept
         why = (_several_starts(near) if refine_starts(problem) > 1 and near != 0 else
-               "the run has seed pairs" if problem.seed_index is not None else
+               # the search continues from a local optimum of its own; the rounded matching a
+               # run with seed pairs keeps when its refinement moved one is none
+               "the run has seed pairs, and the previous run's refinement was not used (it moved a seed pair)"
+               if problem.seed_index is not None and state.meta.get("refined") is False else
+               "the run has seed pairs, and the previous run's state does not say whether its refinement was used"
+               if problem.seed_index is not None and state.meta.get("refined") is None else
                "the run counts edges by agreement" if counted_weights(cfg, prod) is not None else
                # F then counts conserved edges alone: a matched pair that conserves none is a tie
                # the search keeps and align's assignment leaves unmatched
@@ -897,6 +903,10 @@ def _continued_refinement(state, maps: _Maps, x0: np.ndarray, record: dict):
                                             freed_b, beta=cfg.beta)
         f_rounded, c_rounded = refine_objective(prod, bw_new, rounded.index)
         record.update(pairs_touched=int(touched.sum()), candidates_marked=marked, moves=res.local_moves)
+        if problem.seed_index is not None and not np.isin(problem.seed_index, res.index).all():
+            # align keeps no refined matching without every seed pair (refine_from_starts' keep)
+            record.update(mode="full", reason="the continued search ended without a seed pair: refined as align")
+            return None
         if res.objective[-1] < f_rounded - RISE_TOL * (1.0 + abs(f_rounded)):
             record.update(mode="full", reason="the continued search ended below the new rounded matching")
             return None

@@ -5,6 +5,7 @@ networkx elsewhere); two runs agree when their matchings are the same pairs and 
 diffusion scores differ by at most the sum of their certified bounds (summary error_bound_l1).
 """
 
+import dataclasses
 import json
 from pathlib import Path
 
@@ -996,3 +997,95 @@ def test_several_starts_let_the_search_continue_over_more_of_the_candidates(tmp_
             assert len(ref.summary["refine"]["starts"]) == 8 and how["mode"] == "continued"
         else:
             assert how["mode"] == "full" and "(more than 5%): refined as align" in how["reason"]
+
+
+# --------------------------------------------------------------------------- seed pairs
+# align keeps no refined matching that drops a seed pair (its rounded matching then stands);
+# an update continues the search from the previous matching when it was the refinement's, and
+# refines as align when the continued search drops a seed pair (new seeds, say). Reference:
+# align on the new inputs with the same seeds.
+
+@pytest.fixture(scope="module")
+def seeded(tmp_path_factory):
+    d = tmp_path_factory.mktemp("update_seeded")
+    a, b, prior, truth = as_frames(noisy_relabelled(1500, seed=31, noise=0.1, decoys=8))
+    _inputs_in(d, a, b, prior)
+    _write(d, "s.tsv", truth.iloc[::20])  # 75 seed pairs
+    _write(d, "s2.tsv", truth.iloc[5::20])  # 75 others
+    return d, a, b, prior
+
+
+@pytest.mark.parametrize("starts", [1, None])
+def test_seed_pairs_continue_the_search_and_agree_with_align(seeded, starts, tmp_path):
+    d, a, b, prior = seeded
+    run = tmp_path / "run"
+    first = aligner.align(d / "a.tsv", d / "b.tsv", d / "p.tsv", seeds=d / "s.tsv", refine_starts=starts)
+    assert first.improvement.refined is not None and first.state()[1]["refined"] is True
+    write_outputs(run, first)
+    rng = np.random.default_rng(16)
+    b2 = b.copy()
+    rows = rng.choice(len(b2), len(b2) // 1000 + 1, replace=False)
+    b2.iloc[rows, 1] = rng.choice(b2.iloc[:, 0].unique(), len(rows))
+    new_b = _write(tmp_path, "b2.tsv", b2)
+    upd = update(run, network_b=new_b)
+    ref = aligner.align(d / "a.tsv", new_b, d / "p.tsv", seeds=d / "s.tsv", refine_starts=starts)
+    _agree(upd, ref)
+    assert upd.summary["update"]["refine"]["mode"] == "continued"
+    assert np.isin(upd.problem.seed_index, upd.matching.index).all()
+
+
+def _rotated_seeds(first, path):
+    """Seeds that rotate the partners of three matched nodes: pairs the previous matching lacks."""
+    matched = sorted(_pairs(first))[100:103]
+    rotated = [(matched[k][0], matched[(k + 1) % 3][1]) for k in range(3)]
+    return _write(path.parent, path.name, pd.DataFrame(rotated, columns=["node_a", "node_b"]))
+
+
+@pytest.mark.parametrize("drop", [False, True])
+def test_new_seed_pairs_keep_the_update_with_align(seeded, drop, tmp_path, monkeypatch):
+    # drop: the continued search is made to end without one seed pair (a stand-in for a search
+    # that does not reach them), and the update then refines as align
+    import aligner.analysis.update as upd_module
+    import aligner.core.refine as refine_module
+    monkeypatch.setattr(upd_module, "CONTINUE_SHARE", 1.0)  # new seeds move the scores of a tenth of the pairs
+    d, a, b, prior = seeded
+    first = aligner.align(d / "a.tsv", d / "b.tsv", d / "p.tsv", seeds=d / "s.tsv", refine_starts=1)
+    write_outputs(tmp_path / "run", first)
+    new_seeds = _rotated_seeds(first, tmp_path / "s3.tsv")
+    if drop:
+        real = refine_module.continue_local_search
+        node = int(np.searchsorted(first.network_a.names, pd.read_csv(new_seeds, sep="\t", dtype=str).iloc[0, 0]))
+
+        def without_a_seed(prod, cand, w, index, *args, **kwargs):
+            res, marked = real(prod, cand, w, index, *args, **kwargs)
+            return dataclasses.replace(res, index=res.index[cand.pairs[res.index, 0] != node]), marked
+
+        monkeypatch.setattr(refine_module, "continue_local_search", without_a_seed)
+    upd = update(tmp_path / "run", seeds=new_seeds)
+    ref = aligner.align(d / "a.tsv", d / "b.tsv", d / "p.tsv", seeds=new_seeds, refine_starts=1)
+    _agree(upd, ref)
+    assert np.isin(upd.problem.seed_index, upd.matching.index).all()
+    how = upd.summary["update"]["refine"]
+    if drop:
+        assert how["mode"] == "full" and how["reason"] == "the continued search ended without a seed pair: refined as align"
+    else:  # the search reached the rotation itself
+        assert how["mode"] == "continued"
+
+
+@pytest.mark.parametrize("refined", [False, None])
+def test_seed_pairs_refine_as_align_when_the_previous_refinement_was_not_used(seeded, refined, tmp_path, monkeypatch):
+    # the state's record decides (None: a state written before it was kept); set by hand here
+    d, a, b, prior = seeded
+    first = aligner.align(d / "a.tsv", d / "b.tsv", d / "p.tsv", seeds=d / "s.tsv", refine_starts=1)
+    arrays, meta = first.state()
+    if refined is None:
+        del meta["refined"]
+    else:
+        meta["refined"] = refined
+    monkeypatch.setattr(type(first), "state", lambda self: (arrays, meta))
+    write_outputs(tmp_path / "run", first)
+    upd = update(tmp_path / "run", seeds=d / "s.tsv")
+    _agree(upd, aligner.align(d / "a.tsv", d / "b.tsv", d / "p.tsv", seeds=d / "s.tsv", refine_starts=1))
+    how = upd.summary["update"]["refine"]
+    assert how["mode"] == "full" and how["reason"].startswith("the run has seed pairs, and the previous run's")
+    assert ("was not used" if refined is False else "does not say") in how["reason"]
