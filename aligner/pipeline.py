@@ -231,6 +231,8 @@ class Candidates:
     candidates: CandidateSet
     structural: dict | None = None
     expansion: SeedExpansion | None = None
+    #: the candidates there only as seed pairs (indices; None without seeds)
+    seed_added: np.ndarray | None = None
 
 
 def _check_combined_total(scores: np.ndarray, n_pairs: int, weight: float) -> None:
@@ -289,7 +291,8 @@ def with_seed_pairs(found: Candidates, inputs: Inputs) -> Candidates:
     """The candidates with every seed pair among them."""
     if inputs.seeds is None:
         return found
-    return dataclasses.replace(found, candidates=add_seed_pairs(found.candidates, inputs.seeds))
+    cand, added = add_seed_pairs(found.candidates, inputs.seeds, added=True)
+    return dataclasses.replace(found, candidates=cand, seed_added=added)
 
 
 # --------------------------------------------------------------------------- the prepared problem
@@ -906,6 +909,8 @@ class AlignmentResult:
         kept = prod is not None and prod.weights is None
         arrays["product_degree"] = prod.degree if kept else np.empty(0, dtype=np.int64)
         arrays["product_indices"] = prod.indices if kept else np.empty(0, dtype=np.int32)
+        if p.origin.seed_added is not None and inputs.prior is not None:  # the prior's candidates told apart
+            arrays["seed_added"] = p.origin.seed_added
         rows = None if inputs.prior is None else inputs.prior.rows
         if rows is not None:  # a prior no file holds (an update edited it): its rows, for the next update
             arrays |= {"prior_a": rows.a, "prior_b": rows.b, "prior_values": rows.values,

@@ -261,8 +261,10 @@ def _kept_inputs(state, given: dict, files: dict, cfg: AlignConfig, same_names: 
     - A network not given, unweighted in the file (the state keeps its edges, not weights): from
       the state's names and edges; the reader's counts of self-loops and repeated edges from
       ``meta``.
-    - The prior not given, both networks with the same node names as before, no seeds, candidates
-      from the prior: the previous candidate pairs with their prior, as a prior table. Choosing
+    - The prior not given, both networks with the same node names as before, candidates from the
+      prior: the previous candidate pairs with their prior, as a prior table (less the pairs there
+      only as seed pairs, which the state marks; a state that does not, of a run with seeds, reads
+      the prior's file). Choosing
       the candidates again from them gives the same set (the top-k cut of a top-k cut is itself,
       ties broken alike), and the table's record (rows, unknown names, merged repeats) comes from
       ``meta``, so warnings and ``summary.json`` say what reading the file said.
@@ -295,9 +297,15 @@ def _kept_inputs(state, given: dict, files: dict, cfg: AlignConfig, same_names: 
     record = meta.get("prior_table")
     same_nodes = same_names["a"] and same_names["b"]
     rows = _state_prior_rows(state)
-    if (given.get("prior") is None and record is not None and files["seeds"] is None and not cfg.structural
+    # the previous candidates less those there only as seed pairs (which the state marks from
+    # version 5 on): the prior's top-k candidates; the seeds, old or new, are added to them again
+    prior_only = _prior_candidates(state)
+    if (given.get("prior") is None and record is not None and prior_only is not None and not cfg.structural
             and same_nodes):
-        table = PriorTable(pairs=state.pairs, scores=state.prior.astype(np.float64), n_rows=record["rows"],
+        pairs, scores = state.pairs, state.prior.astype(np.float64)
+        if len(prior_only) < len(pairs):
+            pairs, scores = pairs[prior_only], scores[prior_only]
+        table = PriorTable(pairs=pairs, scores=scores, n_rows=record["rows"],
                            n_unknown=record["unknown"], unknown_examples=list(record["unknown_examples"]),
                            n_dropped_kind=record["dropped_by_score_kind"], n_duplicates=record["duplicates"],
                            source=files["prior"], released_pairs=record["pairs"],
@@ -308,13 +316,27 @@ def _kept_inputs(state, given: dict, files: dict, cfg: AlignConfig, same_names: 
     elif isinstance(out["prior"], _Kept):
         raise InvalidParameterError(f"the previous run's prior ({out['prior']}) was not read from a file, and the "
                                     f"state keeps only its candidate pairs, which stand for it only while both "
-                                    "networks keep their nodes and the run has no seeds; give the whole new prior",
+                                    "networks keep their nodes (and, in a run with seeds, in a state of version 5 "
+                                    "or later); give the whole new prior",
                                     param="prior")
     if isinstance(out["prior"], _PriorRows):  # by name until the networks are read: now they are
         out["prior"] = out["prior"].table(nets["a"], nets["b"], cfg.score_kind)
     elif isinstance(out["prior"], _KeptPrior):
         out["prior"] = _kept_prior_table(state, out["prior"], nets["a"], nets["b"], same_names, cfg.score_kind)
     return out
+
+
+def _prior_candidates(state) -> np.ndarray | None:
+    """Indices of the previous candidates that came from the prior (all of them in a run without
+    seed pairs), or None when the state cannot tell (seed pairs and a state of version 4 or less)."""
+    m = len(state.pairs)
+    if state.meta["inputs"].get("seeds") is None:
+        return np.arange(m)
+    if "seed_added" not in state.arrays:
+        return None
+    keep = np.ones(m, dtype=bool)
+    keep[state.seed_added] = False
+    return np.flatnonzero(keep)
 
 
 def _state_prior_rows(state) -> PriorRows | None:

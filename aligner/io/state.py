@@ -41,7 +41,11 @@ update needs no file for them.
 ``prior_extra_b``  str         the same for B
 =================  ==========  ================================================================
 
-Version 3 files (without the optional arrays) are read as well.
+A run with seed pairs and a prior also holds ``seed_added`` (int64, candidate indices): the
+candidates that are there only as seed pairs (prior 0, not among the prior's top-k), so that an
+update can tell the prior's candidates from them and take the prior from here as well.
+
+Versions 3 (without the optional arrays) and 4 (without ``seed_added``) are read as well.
 """
 
 from __future__ import annotations
@@ -60,14 +64,16 @@ from aligner.errors import InputFormatError
 __all__ = ["STATE_FILE", "STATE_VERSION", "RunState", "write_state", "read_state", "file_digest"]
 
 STATE_FILE = "state.npz"
-STATE_VERSION = 4
-#: versions this one reads (3 lacks the optional arrays)
-READS = (3, 4)
+STATE_VERSION = 5
+#: versions this one reads (3 lacks the optional arrays, 3 and 4 the seed pairs added)
+READS = (3, 4, 5)
 _FORMAT = "aligner run state"
 ARRAYS = ("names_a", "names_b", "edges_a", "edges_b", "pairs", "prior", "x", "matched", "product_degree",
           "product_indices")
 #: arrays a state holds or not (all or none): the prior's rows
 OPTIONAL = ("prior_a", "prior_b", "prior_values", "prior_extra_a", "prior_extra_b")
+#: and the candidates there only as seed pairs
+SEEDS_ADDED = ("seed_added",)
 
 
 @dataclass(frozen=True, eq=False)
@@ -123,7 +129,7 @@ def file_digest(path) -> str | None:
 
 _DTYPES = {"edges_a": np.int32, "edges_b": np.int32, "pairs": np.int32, "prior": np.float64, "x": np.float32,
            "matched": np.int64, "product_indices": np.int32, "prior_a": np.int32, "prior_b": np.int32,
-           "prior_values": np.float64}
+           "prior_values": np.float64, "seed_added": np.int64}
 
 
 def _stored(name: str, value) -> np.ndarray:
@@ -145,9 +151,10 @@ def _digest_update(h, name: str, a: np.ndarray) -> None:
     h.update(np.ascontiguousarray(a))  # hashed in place: a copy of 10^8 bytes costs as much as the hash
 
 
-def _names(arrays: dict) -> tuple[str, ...]:
-    """The arrays a state holds, in the order they are written and hashed."""
-    return ARRAYS + (OPTIONAL if OPTIONAL[0] in arrays else ())
+def _names(arrays) -> tuple[str, ...]:
+    """The arrays a state holds (``arrays``: a mapping or the names in a file), in the order they
+    are written and hashed."""
+    return ARRAYS + sum((group for group in (OPTIONAL, SEEDS_ADDED) if group[0] in arrays), ())
 
 
 def _checksum(arrays: dict, meta: dict) -> str:
@@ -195,8 +202,7 @@ def read_state(path) -> RunState:
     try:
         with np.load(path, allow_pickle=False) as z:
             meta = json.loads(str(z["meta"]))
-            held = ARRAYS + (OPTIONAL if OPTIONAL[0] in z.files else ())
-            arrays = {name: z[name] for name in held}
+            arrays = {name: z[name] for name in _names(z.files)}
     except (OSError, ValueError, KeyError, json.JSONDecodeError, EOFError, zipfile.BadZipFile) as exc:
         raise InputFormatError(f"{path.name} is not a readable run state ({type(exc).__name__}: {exc})",
                                path=str(path)) from None

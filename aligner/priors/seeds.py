@@ -172,22 +172,35 @@ def seed_index(cand: CandidateSet, seeds: SeedTable) -> npt.NDArray[np.int64]:
     return pos.astype(np.int64)
 
 
-def add_seed_pairs(cand: CandidateSet, seeds: SeedTable) -> CandidateSet:
-    """The candidate set with the seed pairs added (a seed pair missing from it gets prior 0)."""
+def _among(key: npt.NDArray[np.int64], want: npt.NDArray[np.int64]) -> npt.NDArray[np.bool_]:
+    """Whether each of ``want`` is in ``key`` (sorted, as a candidate set's keys are)."""
+    if len(key) == 0:
+        return np.zeros(len(want), dtype=bool)
+    return key[np.minimum(np.searchsorted(key, want), len(key) - 1)] == want
+
+
+def add_seed_pairs(cand: CandidateSet, seeds: SeedTable, *, added: bool = False):
+    """The candidate set with the seed pairs added (a seed pair missing from it gets prior 0);
+    with ``added``, also the indices of the added pairs in the new set (sorted)."""
+    none = np.empty(0, dtype=np.int64)
     if seeds.n == 0:
-        return cand
+        return (cand, none) if added else cand
     key = _keys(cand.pairs, cand.n2)
     want = _keys(seeds.pairs, cand.n2)
-    new = ~np.isin(want, key)
+    new = ~_among(key, want)
     if not new.any():
-        return cand
+        return (cand, none) if added else cand
     pairs = np.concatenate([cand.pairs.astype(np.int64), seeds.pairs[new].astype(np.int64)])
     prior = np.concatenate([cand.prior, np.zeros(int(new.sum()))])
-    order = np.argsort(_keys(pairs, cand.n2), kind="stable")
+    keys = _keys(pairs, cand.n2)
+    order = np.argsort(keys, kind="stable")
     pairs, prior = pairs[order].astype(np.int32), prior[order]
     a_indptr = np.zeros(cand.n1 + 1, dtype=np.int64)
     np.cumsum(np.bincount(pairs[:, 0], minlength=cand.n1), out=a_indptr[1:])
-    return CandidateSet(pairs=pairs, prior=prior, a_indptr=a_indptr, n1=cand.n1, n2=cand.n2)
+    out = CandidateSet(pairs=pairs, prior=prior, a_indptr=a_indptr, n1=cand.n1, n2=cand.n2)
+    if not added:
+        return out
+    return out, np.unique(np.searchsorted(keys[order], want[new]))
 
 
 def seed_vector(prior: npt.ArrayLike, seed_idx: npt.ArrayLike, weight: float = DEFAULT_SEED_WEIGHT

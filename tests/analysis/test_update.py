@@ -1089,3 +1089,43 @@ def test_seed_pairs_refine_as_align_when_the_previous_refinement_was_not_used(se
     how = upd.summary["update"]["refine"]
     assert how["mode"] == "full" and how["reason"].startswith("the run has seed pairs, and the previous run's")
     assert ("was not used" if refined is False else "does not say") in how["reason"]
+
+
+@pytest.mark.parametrize("marked", [True, False])
+def test_a_run_with_seeds_takes_the_prior_from_its_candidates(seeded, marked, tmp_path, monkeypatch):
+    # Reference: aligner.align reading the prior file. The state marks the candidates there only
+    # as seed pairs (prior 0), so the update takes the prior's candidates from the state and adds
+    # the seed pairs again: the same candidates with the same prior as align's, and the prior file
+    # is not read again (the reader is watched). A state that does not mark them (written before
+    # it did; here the array is left out by hand) has the file read.
+    import aligner.io.inputs as inputs_module
+
+    d, a, b, prior = seeded
+    truth = pd.read_csv(d / "s.tsv", sep="\t", dtype=str)
+    seeds = truth.iloc[:20].copy()
+    seeds.iloc[:3, 1] = truth.iloc[20:23, 1].to_numpy()  # three seed pairs the prior hardly names
+    seeds = _write(tmp_path, "s.tsv", seeds)
+    first = aligner.align(d / "a.tsv", d / "b.tsv", d / "p.tsv", seeds=seeds)
+    arrays, meta = first.state()
+    added = arrays["seed_added"]
+    assert len(added) and (first.candidates.prior[added] == 0).all()  # seed pairs the prior's top-k lacked
+    if not marked:
+        arrays = {k: v for k, v in arrays.items() if k != "seed_added"}
+    monkeypatch.setattr(type(first), "state", lambda self: (arrays, meta))
+    write_outputs(tmp_path / "run", first)
+    monkeypatch.undo()
+    b2 = b.copy()
+    b2.iloc[[3, 30, 300], 1] = b2.iloc[[4, 31, 301], 1].to_numpy()
+    new_b = _write(tmp_path, "b2.tsv", b2)
+    read = []
+    real_table = inputs_module.as_table
+    monkeypatch.setattr(inputs_module, "as_table", lambda obj, **kw: read.append(kw.get("name")) or
+                        real_table(obj, **kw))
+    upd = update(tmp_path / "run", network_b=new_b)
+    monkeypatch.undo()
+    assert ("prior" in read) == (not marked)
+    ref = aligner.align(d / "a.tsv", new_b, d / "p.tsv", seeds=seeds)
+    np.testing.assert_array_equal(upd.candidates.pairs, ref.candidates.pairs)
+    np.testing.assert_array_equal(upd.candidates.prior, ref.candidates.prior)
+    assert upd.summary["inputs"]["prior"] == ref.summary["inputs"]["prior"]
+    _agree(upd, ref)

@@ -348,3 +348,17 @@ def test_seeds_with_a_prior_summing_past_the_largest_float_warn_nothing():
         m = round_with_fixed(cand, cand.prior, idx)
     assert np.allclose(h, seed_vector(cand.prior / 1e308, idx, 1.0))
     assert sorted(cand.pairs[m.index].tolist()) == [[0, 0], [1, 1], [2, 2]] and m.weight == np.inf
+
+
+def test_add_seed_pairs_names_the_pairs_it_added():
+    # Reference: numpy.isin of the new set's pairs against the old set's (common practice: a
+    # set difference by keys)
+    rng = np.random.default_rng(3)
+    pairs = np.unique(rng.integers(0, 40, size=(120, 2)), axis=0)
+    cand = build_candidates(pairs, rng.random(len(pairs)), 40, 40)
+    seeds = SeedTable(np.array([[0, 0], [5, 7], [39, 39], [12, 3]], dtype=np.int32), 4)
+    out, added = add_seed_pairs(cand, seeds, added=True)
+    key = lambda c: c.pairs[:, 0].astype(np.int64) * 40 + c.pairs[:, 1]  # noqa: E731
+    np.testing.assert_array_equal(added, np.flatnonzero(~np.isin(key(out), key(cand))))
+    assert (out.prior[added] == 0).all() and len(added) == out.m - cand.m
+    assert add_seed_pairs(cand, SeedTable(cand.pairs[:2].astype(np.int32), 2), added=True)[1].size == 0
