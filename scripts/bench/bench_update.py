@@ -2,7 +2,7 @@
 
 A generated pair (power-law graph ``powerlaw_graph(n, m=4, p=0.3)``, relabelled copy with 5 % of
 the edges moved, true partner + 10 uniform decoys; seeded; ``--graph dupdiv``, ``--decoys near``
-and ``--noise`` draw other families) is aligned and its outputs written (with the run state). Each change is then applied to the input files and both
+and ``--noise`` draw other families, ``--seeds 0.05`` gives 5 % of the true pairs as seed pairs) is aligned and its outputs written (with the run state). Each change is then applied to the input files and both
 ``aligner.analysis.update.update`` (from the state) and ``aligner.align`` (from zero) run on the
 new inputs, in this process, each timed whole (reading included, writing excluded), ``--repeats``
 times alternately, the best of each kept (the first run of anything in a process also pays for
@@ -89,20 +89,29 @@ def changes(a: pd.DataFrame, b: pd.DataFrame, prior: pd.DataFrame, rng):
 
 
 def run(n: int, seed: int, repeats: int = 2, graph: str = "powerlaw", decoy_mode: str = "uniform",
-        noise: float = 0.05) -> list[dict]:
+        noise: float = 0.05, seeds: float = 0.0) -> list[dict]:
     import aligner
     from aligner.analysis.update import update
     from aligner.datasets.instances import as_frames, noisy_relabelled
     from aligner.io.outputs import write_outputs
 
     pair = noisy_relabelled(n, seed=seed, noise=noise, decoys=10, graph=graph, decoy_mode=decoy_mode)
-    a, b, prior, _ = as_frames(pair)
+    a, b, prior, truth = as_frames(pair)
     work = Path(tempfile.mkdtemp(prefix="bench_update_"))
     files = {"network_a": work / "a.tsv", "network_b": work / "b.tsv", "prior": work / "p.tsv"}
     for key, frame in zip(files, (a, b, prior)):
         frame.to_csv(files[key], sep="\t", index=False)
+    opts, instance = {}, f"{graph}, {decoy_mode} decoys, noise {noise:g}"
+    if seeds > 0:  # true pairs as seeds, on nodes of degree 3 or more (which the changes leave in the networks)
+        degree = [pd.concat([f.iloc[:, 0], f.iloc[:, 1]]).value_counts() for f in (a, b)]
+        sure = truth[truth.iloc[:, 0].map(degree[0]).fillna(0).ge(3).to_numpy()
+                     & truth.iloc[:, 1].map(degree[1]).fillna(0).ge(3).to_numpy()]
+        sure = sure.iloc[::max(1, round(1 / seeds))]
+        sure.to_csv(work / "s.tsv", sep="\t", index=False)
+        opts["seeds"] = work / "s.tsv"
+        instance += f", {len(sure)} seed pairs"
     t0 = time.perf_counter()
-    first = aligner.align(files["network_a"], files["network_b"], files["prior"])
+    first = aligner.align(files["network_a"], files["network_b"], files["prior"], **opts)
     first_s = time.perf_counter() - t0
     write_outputs(work / "run", first)
     update(work / "run")  # untimed: the first update of a process also loads its kernels and memory
@@ -132,7 +141,7 @@ def run(n: int, seed: int, repeats: int = 2, graph: str = "powerlaw", decoy_mode
             upd = update(base, **given)
             upd_s = min(upd_s, time.perf_counter() - t0)
             t0 = time.perf_counter()
-            ref = aligner.align(new["network_a"], new["network_b"], new["prior"])
+            ref = aligner.align(new["network_a"], new["network_b"], new["prior"], **opts)
             ref_s = min(ref_s, time.perf_counter() - t0)
         if name in wanted:
             write_outputs(work / f"after-{name}", upd)
@@ -140,7 +149,7 @@ def run(n: int, seed: int, repeats: int = 2, graph: str = "powerlaw", decoy_mode
         gap = float(np.max(np.abs(upd.diffusion.x - ref.diffusion.x))) if upd.candidates.m == ref.candidates.m else None
         u = upd.summary["update"]
         t = upd.summary["timings"]
-        rows.append({"nodes": n, "instance": f"{graph}, {decoy_mode} decoys, noise {noise:g}", "change": name, "mode": u["mode"], "update_s": round(upd_s, 3),
+        rows.append({"nodes": n, "instance": instance, "change": name, "mode": u["mode"], "update_s": round(upd_s, 3),
                      "full_s": round(ref_s, 3), "ratio": round(upd_s / ref_s, 3), "first_run_s": round(first_s, 3),
                      "read_s": t.get("read"), "product_s": t.get("product"), "diffusion_s": t.get("diffusion"),
                      "rounding_s": t.get("rounding"), "refine_s": t.get("refine"), "scoring_s": t.get("scoring"), "candidates_s": t.get("candidates"),
@@ -204,11 +213,13 @@ def main(argv=None) -> int:
     ap.add_argument("--decoys", choices=("uniform", "near"), default="uniform",
                     help="the prior's 10 decoys per node: uniform over B, or near the true partner")
     ap.add_argument("--noise", type=float, default=0.05, help="share of B's edges moved against A")
+    ap.add_argument("--seeds", type=float, default=0.0,
+                    help="share of the true pairs given as seed pairs (on nodes of degree 3 or more)")
     args = ap.parse_args(argv)
     global MEMORY
     MEMORY = memory_pages()
     rows = [r for n in (int(s) for s in args.sizes.split(",")) for r in run(n, args.seed, args.repeats, args.graph, args.decoys,
-                                                                            args.noise)]
+                                                                            args.noise, args.seeds)]
     return finish(rows, "bench_update", argv, markdown, args.out, args.markdown)
 
 
