@@ -525,7 +525,8 @@ def improve(problem: Problem, diffusion: DiffusionResult, rounded: Matching) -> 
     from :func:`refine_starts` starts, the best kept (:func:`aligner.core.refine.refine_from_starts`).
 
     Off when ``config.refine`` is false or alpha is 0 (which asks for the prior's own matching).
-    A refined matching that moves a seed pair is not used.
+    A refined matching that moves a seed pair is not used; when every start's does, the starts
+    are refined again with the seed pairs held (:func:`aligner.core.refine.refine_from_starts`).
     """
     cfg = problem.config
     if not cfg.refine or cfg.alpha == 0:

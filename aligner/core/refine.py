@@ -463,6 +463,15 @@ def _start(prod: ProductGraph, cand: CandidateSet, w, index, opts: _Options, edg
     return opts, w, index, bw, scale, matched_counts(prod, index, opts.s_w)
 
 
+def _held_weight(prod: ProductGraph, bw: npt.NDArray[np.float64], s_max: float) -> float:
+    """A weight no move of the refinement can make up for: with f = bw + S 1_M every entry is at
+    most max(bw) + s_max * (longest row of S), a 2-exchange or 3-rotation gains at most three
+    such terms plus three entries of S, and an assignment that drops a held pair gains at most
+    two; four times the bound, plus one, is more than any of them."""
+    longest = int(np.diff(prod.indptr).max(initial=0))
+    return 4.0 * (float(bw.max(initial=0.0)) + s_max * (longest + 1)) + 1.0
+
+
 #: F and the Frank-Wolfe arithmetic add a few sums of beta * w~ over the candidates: beta is
 #: refused when such a sum, times this margin, would not be a finite float
 _BETA_MARGIN = 16.0
@@ -482,7 +491,7 @@ def refine_matching(prod: ProductGraph, cand: CandidateSet, w: npt.ArrayLike, in
                     beta: float = DEFAULT_BETA, max_iter: int = DEFAULT_MAX_ITER, step: str = "line",
                     patience: int = DEFAULT_PATIENCE, rounds: int = 1, local_sweeps: int = 50,
                     rotations: bool = True, method: str = "auto",
-                    edge_weights: npt.ArrayLike | None = None) -> RefineResult:
+                    edge_weights: npt.ArrayLike | None = None, hold: npt.ArrayLike | None = None) -> RefineResult:
     """Raise beta * W~(M) + C(M) over one-to-one matchings of candidate pairs, from a start.
 
     Frank–Wolfe rounds then a local search; the method is described in :mod:`aligner.core.refine`.
@@ -520,6 +529,11 @@ def refine_matching(prod: ProductGraph, cand: CandidateSet, w: npt.ArrayLike, in
         One weight per stored entry of ``prod`` (``prod.indices``): C(M) then sums the weights
         of the conserved edge pairs instead of counting them (the agreement of a weighted run,
         :mod:`aligner.core.weights`). The reported ``conserved_*`` still count edges.
+    hold : array_like of int, optional
+        Candidate indices every matching keeps (fixed seed pairs; the start must hold them):
+        each gets a weight in F larger than any move can gain (:func:`_held_weight`), so every
+        Frank–Wolfe assignment takes them and no local move gives one up. The reported
+        ``objective`` leaves that weight out.
 
     Returns
     -------
@@ -551,6 +565,14 @@ def refine_matching(prod: ProductGraph, cand: CandidateSet, w: npt.ArrayLike, in
     t0 = time.perf_counter()
     opts = _check_options(beta, max_iter, step, patience, rounds, local_sweeps, rotations, method)
     opts, w, index, bw, scale, g = _start(prod, cand, w, index, opts, edge_weights)
+    held = 0.0  # the weight F gains from the held pairs, left out of the reported objective
+    if hold is not None and len(hold):
+        hold = np.unique(np.asarray(hold, dtype=np.int64))
+        if not np.isin(hold, index).all():
+            raise InvalidParameterError("the start of a refinement must hold every pair it is to keep", param="hold")
+        big = _held_weight(prod, bw, opts.s_max)
+        bw[hold] += big
+        held = big * len(hold)
     inc = _Incumbent(index, g, _objective(bw, g, index))
     before = _conserved(g, index)
     del g  # the incumbent's until a better matching is found: not held beside the rounds' arrays
@@ -558,7 +580,7 @@ def refine_matching(prod: ProductGraph, cand: CandidateSet, w: npt.ArrayLike, in
     iters, moves, n_rounds, hit_cap = _run_rounds(prod, cand, bw, inc, opts)
     if edge_weights is not None:  # the reported figures count edges
         before, inc.g = _conserved(matched_counts(prod, index), index), matched_counts(prod, inc.index)
-    return RefineResult(index=inc.index, iterations=iters, objective=inc.history,
+    return RefineResult(index=inc.index, iterations=iters, objective=[f - held for f in inc.history],
                         conserved_before=before, conserved_after=_conserved(inc.g, inc.index),
                         weight_before=float(w[index].sum()), weight_after=float(w[inc.index].sum()),
                         local_moves=moves, rounds=n_rounds, hit_cap=hit_cap, beta=opts.beta, w_scale=scale,
@@ -650,7 +672,9 @@ def refine_from_starts(prod: ProductGraph, cand: CandidateSet, w: npt.ArrayLike,
         reference (ties in F keep the earliest start).
     keep : array_like of int, optional
         Candidate indices every accepted result must hold (fixed seed pairs); a result that
-        drops one is not accepted. None when no result holds them all.
+        drops one is not accepted. When none is, the starts that hold them all are refined again
+        with them held (:func:`refine_matching`'s ``hold``; their records say ``seeds_held``).
+        None when no start holds them all.
     options
         As for :func:`refine_matching`.
 
@@ -665,6 +689,7 @@ def refine_from_starts(prod: ProductGraph, cand: CandidateSet, w: npt.ArrayLike,
     """
     t0 = time.perf_counter()
     keep = None if keep is None else np.asarray(keep, dtype=np.int64)
+    starts = list(starts)
     first = None
     records, accepted = [], []
     for label, index in starts:
@@ -677,6 +702,20 @@ def refine_from_starts(prod: ProductGraph, cand: CandidateSet, w: npt.ArrayLike,
             accepted.append(res)
         if first is None:
             first = res
+    if not accepted and keep is not None and len(keep):
+        # every result gave up a seed pair (one the wiring contradicts, say): again from the
+        # starts that hold them all, with the seed pairs held, so the rest is still refined
+        first = None
+        for label, index in starts:
+            if not np.isin(keep, index).all():
+                continue
+            res = refine_matching(prod, cand, w, index, hold=keep, **options)
+            records.append({"start": label, "conserved_before": res.conserved_before,
+                            "conserved_after": res.conserved_after, "objective_after": res.objective[-1],
+                            "accepted": True, "seeds_held": True})
+            accepted.append(res)
+            if first is None:
+                first = res
     if not accepted:
         return None
     best = accepted[0]

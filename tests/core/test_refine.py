@@ -812,6 +812,83 @@ def test_several_starts_reject_results_without_the_kept_pairs():
     assert res is None or np.isin(kept, res.index).all()
 
 
+def _f(prod, x, index, beta=DEFAULT_BETA):
+    """F = beta * w~(M) + C(M) from its definition (refine_objective on the unmodified weights)."""
+    return refine_objective(prod, normalise_weights(x)[0] * beta, np.sort(index))[0]
+
+
+def _wrong_pairs(cand, start, count=2):
+    """A start in which ``count`` disjoint pairs of matched nodes of A swap partners (each crossed
+    pair a candidate), and the crossed pairs."""
+    key = {tuple(p): i for i, p in enumerate(cand.pairs.tolist())}
+    mate_b = {int(cand.pairs[t, 1]): int(t) for t in start}
+    out, used, crossed = set(map(int, start)), set(), []
+    for k in map(int, start):
+        i, ib = map(int, cand.pairs[k])
+        for p in range(cand.a_indptr[i], cand.a_indptr[i + 1]):
+            l = mate_b.get(int(cand.pairs[p, 1]))
+            if l is None or l == k or {k, l} & used:
+                continue
+            q = key.get((int(cand.pairs[l, 0]), ib))
+            if q is not None:
+                out -= {k, l}
+                out |= {p, q}
+                used |= {k, l}
+                crossed += [p, q]
+                break
+        if len(crossed) == 2 * count:
+            return np.array(sorted(out)), np.array(sorted(crossed))
+    raise AssertionError("too few swaps among candidates")
+
+
+def test_held_pairs_stay_and_no_two_exchange_elsewhere_raises_f():
+    # Definition (docs/method.md, "Refinement"): F = beta * w~(M) + C(M); a held pair stays in
+    # every matching, and at the result no 2-exchange (p = (i, j') in, the pairs of M at i and j'
+    # out, (j, i') in when it is a candidate) among the other nodes raises F: checked by
+    # enumerating every such exchange and scoring it from the definition
+    sp = _pair(120, 0.1, 3)
+    cand, prod, x, start = _stages(sp)
+    start, hold = _wrong_pairs(cand, start)
+    res = refine_matching(prod, cand, x, start, hold=hold)
+    assert np.isin(hold, res.index).all()
+    f = _f(prod, x, res.index)
+    assert res.objective[-1] == pytest.approx(f, rel=1e-9)  # the held weight is left out
+    assert f >= _f(prod, x, start) - 1e-9
+    mate_a = {int(cand.pairs[i, 0]): int(i) for i in res.index}
+    mate_b = {int(cand.pairs[i, 1]): int(i) for i in res.index}
+    key = {tuple(p): i for i, p in enumerate(cand.pairs.tolist())}
+    held_a, held_b = set(cand.pairs[hold, 0].tolist()), set(cand.pairs[hold, 1].tolist())
+    for p in range(cand.m):
+        i, jb = map(int, cand.pairs[p])
+        if p in res.index or i in held_a or jb in held_b:
+            continue
+        k, l = mate_a.get(i), mate_b.get(jb)
+        if (k is not None and k in hold) or (l is not None and l in hold):
+            continue
+        new = [t for t in res.index if t not in (k, l)] + [p]
+        if k is not None and l is not None:
+            q = key.get((int(cand.pairs[l, 0]), int(cand.pairs[k, 1])))
+            if q is not None:
+                new.append(q)
+        assert _f(prod, x, np.array(new)) <= f + 1e-9
+
+
+def test_several_starts_hold_the_kept_pairs_when_every_result_gives_one_up():
+    # before: no result was accepted and the refinement was not used; now the starts that hold
+    # the kept pairs are refined again with them held (refine_matching's hold)
+    sp = _pair(200, 0.1, 7)
+    cand, prod, x, start = _stages(sp)
+    start, wrong = _wrong_pairs(cand, start)
+    free = refine_matching(prod, cand, x, start)
+    assert not np.isin(wrong, free.index).all()  # the wiring undoes the rotation
+    res = refine_from_starts(prod, cand, x, [("rounded", start)], keep=wrong)
+    assert np.isin(wrong, res.index).all()
+    assert [r.get("seeds_held", False) for r in res.starts] == [False, True]
+    assert [r["accepted"] for r in res.starts] == [False, True]
+    held = refine_matching(prod, cand, x, start, hold=wrong)
+    assert np.array_equal(res.index, held.index) and res.conserved_after >= res.conserved_before
+
+
 def test_perturbed_scores_are_seeded_and_small():
     w = np.linspace(1, 2, 1000)
     a, b = list(perturbed_scores(w, 2, seed=4)), list(perturbed_scores(w, 2, seed=4))
