@@ -900,6 +900,21 @@ def _inputs_in(d, a, b, prior):
     return d
 
 
+def _written_with(first, out, monkeypatch, meta=None, without=None):
+    """write_outputs of ``first`` with entries of its state's meta replaced (a value of None
+    removes the entry, as in a state written before it was kept) and the array ``without`` left out."""
+    arrays, record = first.state()
+    for key, value in (meta or {}).items():
+        if value is None:
+            del record[key]
+        else:
+            record[key] = value
+    arrays = {k: v for k, v in arrays.items() if k != without}
+    with monkeypatch.context() as m:
+        m.setattr(type(first), "state", lambda self: (arrays, record))
+        write_outputs(out, first)
+
+
 def _alternatives(res) -> dict:
     return dict(zip(zip(res.pairs.node_a, res.pairs.node_b), res.pairs.alternatives))
 
@@ -952,14 +967,8 @@ def test_several_starts_refine_as_align_when_the_previous_run_came_near(one_star
     _, a, b, prior = one_start
     d = _inputs_in(tmp_path, a, b, prior)
     first = aligner.align(d / "a.tsv", d / "b.tsv", d / "p.tsv")
-    arrays, meta = first.state()
-    assert meta["near_optima"] == first.summary["ambiguity"]["near_optima"]
-    if near is None:
-        del meta["near_optima"]
-    else:
-        meta["near_optima"] = near
-    monkeypatch.setattr(type(first), "state", lambda self: (arrays, meta))
-    write_outputs(d / "run", first)
+    assert first.state()[1]["near_optima"] == first.summary["ambiguity"]["near_optima"]
+    _written_with(first, d / "run", monkeypatch, {"near_optima": near})
     _, new_b, _ = _changed_inputs(d, a, b, prior, "rewire-b", np.random.default_rng(13))
     upd = update(d / "run", network_b=new_b)
     _agree(upd, aligner.align(d / "a.tsv", new_b, d / "p.tsv"))
@@ -1077,13 +1086,7 @@ def test_seed_pairs_refine_as_align_when_the_previous_refinement_was_not_used(se
     # the state's record decides (None: a state written before it was kept); set by hand here
     d, a, b, prior = seeded
     first = aligner.align(d / "a.tsv", d / "b.tsv", d / "p.tsv", seeds=d / "s.tsv", refine_starts=1)
-    arrays, meta = first.state()
-    if refined is None:
-        del meta["refined"]
-    else:
-        meta["refined"] = refined
-    monkeypatch.setattr(type(first), "state", lambda self: (arrays, meta))
-    write_outputs(tmp_path / "run", first)
+    _written_with(first, tmp_path / "run", monkeypatch, {"refined": refined})
     upd = update(tmp_path / "run", seeds=d / "s.tsv")
     _agree(upd, aligner.align(d / "a.tsv", d / "b.tsv", d / "p.tsv", seeds=d / "s.tsv", refine_starts=1))
     how = upd.summary["update"]["refine"]
@@ -1106,14 +1109,9 @@ def test_a_run_with_seeds_takes_the_prior_from_its_candidates(seeded, marked, tm
     seeds.iloc[:3, 1] = truth.iloc[20:23, 1].to_numpy()  # three seed pairs the prior hardly names
     seeds = _write(tmp_path, "s.tsv", seeds)
     first = aligner.align(d / "a.tsv", d / "b.tsv", d / "p.tsv", seeds=seeds)
-    arrays, meta = first.state()
-    added = arrays["seed_added"]
+    added = first.state()[0]["seed_added"]
     assert len(added) and (first.candidates.prior[added] == 0).all()  # seed pairs the prior's top-k lacked
-    if not marked:
-        arrays = {k: v for k, v in arrays.items() if k != "seed_added"}
-    monkeypatch.setattr(type(first), "state", lambda self: (arrays, meta))
-    write_outputs(tmp_path / "run", first)
-    monkeypatch.undo()
+    _written_with(first, tmp_path / "run", monkeypatch, without=None if marked else "seed_added")
     b2 = b.copy()
     b2.iloc[[3, 30, 300], 1] = b2.iloc[[4, 31, 301], 1].to_numpy()
     new_b = _write(tmp_path, "b2.tsv", b2)
