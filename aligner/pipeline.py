@@ -935,7 +935,11 @@ class AlignmentResult:
                 "near_optima": 0 if self.improvement.refined is None else len(self.improvement.refined.near_optima),
                 # whether the final matching is the refinement's (with seed pairs, one that moved
                 # a seed pair is not used): an update continues the search only from such a matching
-                "refined": self.improvement.refined is not None}
+                "refined": self.improvement.refined is not None,
+                # whether it was refined with the seed pairs held (every free start gave one up):
+                # an update's continued search then holds them too
+                "seeds_held": self.improvement.refined is not None and any(
+                    r.get("seeds_held", False) for r in self.improvement.refined.starts or ())}
         return arrays, meta
 
     def transferred_edges(self) -> pd.DataFrame:

@@ -872,7 +872,7 @@ def _continued_refinement(state, maps: _Maps, x0: np.ndarray, record: dict):
     where no edge did), and when the continued search ends below the new rounded matching's F
     (``align`` never ends below it) or without a seed pair. With several starts and no near-optimal matching the search continues
     from the previous run's matching, the best of its starts. ``record`` receives what was done, for the summary."""
-    from aligner.core.refine import RISE_TOL, continue_local_search, normalise_weights, refine_objective
+    from aligner.core.refine import RISE_TOL, continue_local_search, held_weight, normalise_weights, refine_objective
     from aligner.core.rounding import round_matching
     from aligner.pipeline import Improvement, counted_weights, refine_starts
 
@@ -921,8 +921,15 @@ def _continued_refinement(state, maps: _Maps, x0: np.ndarray, record: dict):
                                               f"{limit:.0%}{per}): refined as align",
                           pairs_touched=int(touched.sum()))
             return None
+        # after a run that refined with its seed pairs held (every free start gave one up), the
+        # search holds them too: its start is then a local optimum of the search with them held
+        hold = problem.seed_index if problem.seed_index is not None and state.meta.get("seeds_held") else None
+        if hold is not None and not np.isin(hold, start).all():
+            record.update(mode="full", reason="the previous run held its seed pairs, and its matching lacks one of "
+                                              "the seed pairs: refined as align")
+            return None
         res, marked = continue_local_search(prod, cand, diffusion.x, start, np.flatnonzero(touched), freed_a,
-                                            freed_b, beta=cfg.beta)
+                                            freed_b, beta=cfg.beta, hold=hold)
         f_rounded, c_rounded = refine_objective(prod, bw_new, rounded.index)
         record.update(pairs_touched=int(touched.sum()), candidates_marked=marked, moves=res.local_moves)
         if problem.seed_index is not None and not np.isin(problem.seed_index, res.index).all():
@@ -937,6 +944,8 @@ def _continued_refinement(state, maps: _Maps, x0: np.ndarray, record: dict):
         # time; an assignment also finds longer chains (a partner moved to a free node so that an
         # unmatched node takes its place), and where one raises F align's result can differ
         grad = np.add(res.neighbours, bw_new)  # S 1_M from the search, which keeps it
+        if hold is not None:  # as align's refinement with the seed pairs held takes its steps
+            grad[hold] += held_weight(prod, bw_new)
         step = round_matching(cand, grad, method=cfg.rounding)
         del grad
         f_step = (res.objective[-1] if np.array_equal(step.index, res.index)
@@ -945,10 +954,15 @@ def _continued_refinement(state, maps: _Maps, x0: np.ndarray, record: dict):
             record.update(mode="full", reason="an assignment step from the continued matching raised F: refined as "
                                               "align")
             return None
-        record.update(mode="continued", reason="local search from the previous matching")
+        record.update(mode="continued", reason="local search from the previous matching" +
+                      (", the seed pairs held" if hold is not None else ""))
+        held = () if hold is None else ({"start": "previous matching", "conserved_before": res.conserved_before,
+                                         "conserved_after": res.conserved_after,
+                                         "objective_after": res.objective[-1], "accepted": True,
+                                         "seeds_held": True},)  # (kept in the state for the next update)
         res = dataclasses.replace(res, objective=[f_rounded, *res.objective],
                                   conserved_before=c_rounded,
-                                  weight_before=float(diffusion.x[rounded.index].sum()))
+                                  weight_before=float(diffusion.x[rounded.index].sum()), starts=held)
         final = dataclasses.replace(rounded, index=res.index, weight=float(diffusion.x[res.index].sum()))
         return Improvement(final, rounded, res)
 

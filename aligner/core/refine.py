@@ -77,6 +77,7 @@ from aligner.core.product import ProductGraph
 from aligner.core.rounding import METHODS, round_matching
 
 __all__ = ["RefineResult", "refine_matching", "refine_from_starts", "continue_local_search", "perturbed_scores",
+           "held_weight",
            "refine_objective", "normalise_weights", "matched_counts",
            "DEFAULT_BETA", "DEFAULT_MAX_ITER", "DEFAULT_PATIENCE", "STEPS"]
 
@@ -463,13 +464,30 @@ def _start(prod: ProductGraph, cand: CandidateSet, w, index, opts: _Options, edg
     return opts, w, index, bw, scale, matched_counts(prod, index, opts.s_w)
 
 
-def _held_weight(prod: ProductGraph, bw: npt.NDArray[np.float64], s_max: float) -> float:
+def held_weight(prod: ProductGraph, bw: npt.NDArray[np.float64], s_max: float | None = None) -> float:
     """A weight no move of the refinement can make up for: with f = bw + S 1_M every entry is at
     most max(bw) + s_max * (longest row of S), a 2-exchange or 3-rotation gains at most three
     such terms plus three entries of S, and an assignment that drops a held pair gains at most
-    two; four times the bound, plus one, is more than any of them."""
+    two; four times the bound, plus one, is more than any of them. ``s_max``: the largest entry
+    of S (found when not given)."""
+    if s_max is None:
+        s_max = float(_max_entry(prod.indptr, prod.indices))
     longest = int(np.diff(prod.indptr).max(initial=0))
     return 4.0 * (float(bw.max(initial=0.0)) + s_max * (longest + 1)) + 1.0
+
+
+def _hold(prod: ProductGraph, bw: npt.NDArray[np.float64], s_max: float, index: npt.NDArray[np.int64],
+          hold) -> float:
+    """Give the ``hold`` pairs (all in the start ``index``) :func:`held_weight` in ``bw``, in
+    place; returns what that adds to F (0 without pairs to hold)."""
+    if hold is None or not len(hold):
+        return 0.0
+    hold = np.unique(np.asarray(hold, dtype=np.int64))
+    if not np.isin(hold, index).all():
+        raise InvalidParameterError("the start of a refinement must hold every pair it is to keep", param="hold")
+    big = held_weight(prod, bw, s_max)
+    bw[hold] += big
+    return big * len(hold)
 
 
 #: F and the Frank-Wolfe arithmetic add a few sums of beta * w~ over the candidates: beta is
@@ -531,7 +549,7 @@ def refine_matching(prod: ProductGraph, cand: CandidateSet, w: npt.ArrayLike, in
         :mod:`aligner.core.weights`). The reported ``conserved_*`` still count edges.
     hold : array_like of int, optional
         Candidate indices every matching keeps (fixed seed pairs; the start must hold them):
-        each gets a weight in F larger than any move can gain (:func:`_held_weight`), so every
+        each gets a weight in F larger than any move can gain (:func:`held_weight`), so every
         Frank–Wolfe assignment takes them and no local move gives one up. The reported
         ``objective`` leaves that weight out.
 
@@ -565,14 +583,7 @@ def refine_matching(prod: ProductGraph, cand: CandidateSet, w: npt.ArrayLike, in
     t0 = time.perf_counter()
     opts = _check_options(beta, max_iter, step, patience, rounds, local_sweeps, rotations, method)
     opts, w, index, bw, scale, g = _start(prod, cand, w, index, opts, edge_weights)
-    held = 0.0  # the weight F gains from the held pairs, left out of the reported objective
-    if hold is not None and len(hold):
-        hold = np.unique(np.asarray(hold, dtype=np.int64))
-        if not np.isin(hold, index).all():
-            raise InvalidParameterError("the start of a refinement must hold every pair it is to keep", param="hold")
-        big = _held_weight(prod, bw, opts.s_max)
-        bw[hold] += big
-        held = big * len(hold)
+    held = _hold(prod, bw, opts.s_max, index, hold)
     inc = _Incumbent(index, g, _objective(bw, g, index))
     before = _conserved(g, index)
     del g  # the incumbent's until a better matching is found: not held beside the rounds' arrays
@@ -591,7 +602,8 @@ def refine_matching(prod: ProductGraph, cand: CandidateSet, w: npt.ArrayLike, in
 def continue_local_search(prod: ProductGraph, cand: CandidateSet, w: npt.ArrayLike, index: npt.ArrayLike,
                           touched: npt.ArrayLike, freed_a: npt.ArrayLike = (), freed_b: npt.ArrayLike = (), *,
                           beta: float = DEFAULT_BETA, local_sweeps: int = 50, rotations: bool = True,
-                          edge_weights: npt.ArrayLike | None = None) -> tuple[RefineResult, int]:
+                          edge_weights: npt.ArrayLike | None = None,
+                          hold: npt.ArrayLike | None = None) -> tuple[RefineResult, int]:
     """The local search of :func:`refine_matching` from ``index``, examining first only the
     candidates that a change of the problem can have given an improving move.
 
@@ -604,12 +616,16 @@ def continue_local_search(prod: ProductGraph, cand: CandidateSet, w: npt.ArrayLi
     after each move only what the move changed: the result is the search's from ``index`` over
     every candidate, at a cost that follows the change. No Frank–Wolfe step is made.
 
+    ``hold``: pairs no move gives up, as in :func:`refine_matching` (``index`` must then have
+    been a local optimum of the search with them held).
+
     Returns the result (``iterations`` 0, ``objective`` [F(index), F(result)]) and how many
     candidates were marked at the start.
     """
     t0 = time.perf_counter()
     opts = _check_options(beta, 0, "line", DEFAULT_PATIENCE, 1, local_sweeps, rotations, "auto")
     opts, w, index, bw, scale, g = _start(prod, cand, w, index, opts, edge_weights)
+    held = _hold(prod, bw, opts.s_max, index, hold)
     f0 = _objective(bw, g, index)
     lookup = _lookup(cand)
     mate_a, mate_b = _mates(cand, index)
@@ -631,7 +647,7 @@ def continue_local_search(prod: ProductGraph, cand: CandidateSet, w: npt.ArrayLi
     final = np.sort(mate_a[mate_a >= 0]) if moves else index
     f1 = _objective(bw, g, final) if moves else f0
     c1 = _conserved(g if edge_weights is None else matched_counts(prod, final), final)
-    res = RefineResult(index=final, iterations=0, objective=[f0, f1], conserved_before=c0,
+    res = RefineResult(index=final, iterations=0, objective=[f0 - held, f1 - held], conserved_before=c0,
                        conserved_after=c1, weight_before=float(w[index].sum()),
                        weight_after=float(w[final].sum()), local_moves=int(moves), rounds=1, hit_cap=False,
                        beta=opts.beta, w_scale=scale, counts="edges" if edge_weights is None else "agreement",

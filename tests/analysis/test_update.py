@@ -1127,3 +1127,30 @@ def test_a_run_with_seeds_takes_the_prior_from_its_candidates(seeded, marked, tm
     np.testing.assert_array_equal(upd.candidates.prior, ref.candidates.prior)
     assert upd.summary["inputs"]["prior"] == ref.summary["inputs"]["prior"]
     _agree(upd, ref)
+
+
+@pytest.mark.parametrize("starts", [1, None])
+def test_seed_pairs_the_run_held_stay_held_in_the_continued_search(seeded, starts, tmp_path):
+    # two swapped seed pairs: align's free refinement gives one up, so it refines again with them
+    # held (aligner.core.refine.refine_from_starts); the update's search then holds them too and
+    # continues. Reference: align on the new inputs with the same seeds.
+    d, a, b, prior = seeded
+    truth = pd.read_csv(d / "s.tsv", sep="\t", dtype=str)
+    seeds = truth.copy()
+    seeds.iloc[[0, 1], 1] = truth.iloc[[1, 0], 1].to_numpy()
+    seeds = _write(tmp_path, "s_swapped.tsv", seeds)
+    first = aligner.align(d / "a.tsv", d / "b.tsv", d / "p.tsv", seeds=seeds, refine_starts=starts)
+    assert first.state()[1]["seeds_held"] is True
+    write_outputs(tmp_path / "run", first)
+    rng = np.random.default_rng(17)
+    b2 = b.copy()
+    rows = rng.choice(len(b2), len(b2) // 1000 + 1, replace=False)
+    b2.iloc[rows, 1] = rng.choice(b2.iloc[:, 0].unique(), len(rows))
+    new_b = _write(tmp_path, "b2.tsv", b2)
+    upd = update(tmp_path / "run", network_b=new_b)
+    ref = aligner.align(d / "a.tsv", new_b, d / "p.tsv", seeds=seeds, refine_starts=starts)
+    _agree(upd, ref)
+    assert np.isin(upd.problem.seed_index, upd.matching.index).all()
+    how = upd.summary["update"]["refine"]
+    assert how["mode"] == "continued" and how["reason"].endswith("the seed pairs held")
+    assert upd.state()[1]["seeds_held"] is True  # and so will the next update's
