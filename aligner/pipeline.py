@@ -933,8 +933,8 @@ class AlignmentResult:
                 # the other matchings the refinement's starts reached that name alternatives: an
                 # update continues the search from this run's matching only where there were none
                 "near_optima": 0 if self.improvement.refined is None else len(self.improvement.refined.near_optima),
-                # whether the final matching is the refinement's (with seed pairs, one that moved
-                # a seed pair is not used): an update continues the search only from such a matching
+                # whether the final matching is the refinement's (not when no start held every seed
+                # pair): an update of a run with seeds continues the search only from such a matching
                 "refined": self.improvement.refined is not None,
                 # whether it was refined with the seed pairs held (every free start gave one up):
                 # an update's continued search then holds them too

@@ -867,12 +867,15 @@ def _continued_refinement(state, maps: _Maps, x0: np.ndarray, record: dict):
 
     Returns None (so ``align``'s refinement runs) with several refinement starts (small
     problems) when the previous run's reached near-optimal matchings (:func:`_several_starts`),
-    seed pairs when the previous run's final matching was not its refinement's (one that moved a
-    seed pair is not used), or a weighted run counting agreement (whose entry weights can change
-    where no edge did), and when the continued search ends below the new rounded matching's F
-    (``align`` never ends below it) or without a seed pair. With several starts and no near-optimal matching the search continues
-    from the previous run's matching, the best of its starts. ``record`` receives what was done, for the summary."""
-    from aligner.core.refine import RISE_TOL, continue_local_search, held_weight, normalise_weights, refine_objective
+    seed pairs when the previous run's final matching was not its refinement's (a rounded
+    matching is no local optimum), or a weighted run counting agreement (whose entry weights can
+    change where no edge did), and when the continued search ends below the new rounded
+    matching's F (``align`` never ends below it) or without a seed pair. With several starts and
+    no near-optimal matching the search continues from the previous run's matching, the best of
+    its starts; after a run that held its seed pairs, it holds them too. ``record`` receives what
+    was done, for the summary."""
+    from aligner.core.refine import (RISE_TOL, continue_local_search, held_weight, normalise_weights,
+                                     refine_objective, start_record)
     from aligner.core.rounding import round_matching
     from aligner.pipeline import Improvement, counted_weights, refine_starts
 
@@ -882,8 +885,8 @@ def _continued_refinement(state, maps: _Maps, x0: np.ndarray, record: dict):
         near = state.meta.get("near_optima")  # None: a state written before it was kept
         why = (_several_starts(near) if refine_starts(problem) > 1 and near != 0 else
                # the search continues from a local optimum of its own; the rounded matching a
-               # run with seed pairs keeps when its refinement moved one is none
-               "the run has seed pairs, and the previous run's refinement was not used (it moved a seed pair)"
+               # run keeps when its refinement's result was not used is none
+               "the run has seed pairs, and the previous run's refinement was not used"
                if problem.seed_index is not None and state.meta.get("refined") is False else
                "the run has seed pairs, and the previous run's state does not say whether its refinement was used"
                if problem.seed_index is not None and state.meta.get("refined") is None else
@@ -956,10 +959,8 @@ def _continued_refinement(state, maps: _Maps, x0: np.ndarray, record: dict):
             return None
         record.update(mode="continued", reason="local search from the previous matching" +
                       (", the seed pairs held" if hold is not None else ""))
-        held = () if hold is None else ({"start": "previous matching", "conserved_before": res.conserved_before,
-                                         "conserved_after": res.conserved_after,
-                                         "objective_after": res.objective[-1], "accepted": True,
-                                         "seeds_held": True},)  # (kept in the state for the next update)
+        # (the record says the seed pairs were held, and the state keeps it for the next update)
+        held = () if hold is None else (start_record("previous matching", res, True, seeds_held=True),)
         res = dataclasses.replace(res, objective=[f_rounded, *res.objective],
                                   conserved_before=c_rounded,
                                   weight_before=float(diffusion.x[rounded.index].sum()), starts=held)

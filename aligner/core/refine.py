@@ -77,7 +77,7 @@ from aligner.core.product import ProductGraph
 from aligner.core.rounding import METHODS, round_matching
 
 __all__ = ["RefineResult", "refine_matching", "refine_from_starts", "continue_local_search", "perturbed_scores",
-           "held_weight",
+           "held_weight", "start_record",
            "refine_objective", "normalise_weights", "matched_counts",
            "DEFAULT_BETA", "DEFAULT_MAX_ITER", "DEFAULT_PATIENCE", "STEPS"]
 
@@ -711,9 +711,7 @@ def refine_from_starts(prod: ProductGraph, cand: CandidateSet, w: npt.ArrayLike,
     for label, index in starts:
         res = refine_matching(prod, cand, w, index, **options)
         ok = keep is None or bool(np.isin(keep, res.index).all())
-        records.append({"start": label, "conserved_before": res.conserved_before,
-                        "conserved_after": res.conserved_after, "objective_after": res.objective[-1],
-                        "accepted": ok})
+        records.append(start_record(label, res, ok))
         if ok:
             accepted.append(res)
         if first is None:
@@ -726,9 +724,7 @@ def refine_from_starts(prod: ProductGraph, cand: CandidateSet, w: npt.ArrayLike,
             if not np.isin(keep, index).all():
                 continue
             res = refine_matching(prod, cand, w, index, hold=keep, **options)
-            records.append({"start": label, "conserved_before": res.conserved_before,
-                            "conserved_after": res.conserved_after, "objective_after": res.objective[-1],
-                            "accepted": True, "seeds_held": True})
+            records.append(start_record(label, res, True, seeds_held=True))
             accepted.append(res)
             if first is None:
                 first = res
@@ -741,6 +737,13 @@ def refine_from_starts(prod: ProductGraph, cand: CandidateSet, w: npt.ArrayLike,
     near = _near_optima(best, accepted)
     return dataclasses.replace(best, conserved_before=first.conserved_before, weight_before=first.weight_before,
                                starts=tuple(records), near_optima=near, seconds=time.perf_counter() - t0)
+
+
+def start_record(label: str, res: RefineResult, accepted: bool, *, seeds_held: bool = False) -> dict:
+    """One start's record in :attr:`RefineResult.starts` (``seeds_held`` only when true)."""
+    rec = {"start": label, "conserved_before": res.conserved_before, "conserved_after": res.conserved_after,
+           "objective_after": res.objective[-1], "accepted": accepted}
+    return rec | ({"seeds_held": True} if seeds_held else {})
 
 
 def _near_optima(best: RefineResult, results: list) -> tuple:

@@ -2,8 +2,9 @@
 
 A generated pair (power-law graph ``powerlaw_graph(n, m=4, p=0.3)``, relabelled copy with 5 % of
 the edges moved, true partner + 10 uniform decoys; seeded; ``--graph dupdiv``, ``--decoys near``
-and ``--noise`` draw other families, ``--seeds 0.05`` gives 5 % of the true pairs as seed pairs) is aligned and its outputs written (with the run state). Each change is then applied to the input files and both
-``aligner.analysis.update.update`` (from the state) and ``aligner.align`` (from zero) run on the
+and ``--noise`` draw other families, ``--seeds 0.05`` gives every 20th true pair as a seed pair)
+is aligned and its outputs written (with the run state). Each change is then applied to the
+input files and both ``aligner.analysis.update.update`` (from the state) and ``aligner.align`` (from zero) run on the
 new inputs, in this process, each timed whole (reading included, writing excluded), ``--repeats``
 times alternately, the best of each kept (the first run of anything in a process also pays for
 memory the system has not handed out yet, which would otherwise fall on whichever runs first):
@@ -218,8 +219,8 @@ def main(argv=None) -> int:
     args = ap.parse_args(argv)
     global MEMORY
     MEMORY = memory_pages()
-    rows = [r for n in (int(s) for s in args.sizes.split(",")) for r in run(n, args.seed, args.repeats, args.graph, args.decoys,
-                                                                            args.noise, args.seeds)]
+    rows = [r for n in (int(s) for s in args.sizes.split(","))
+            for r in run(n, args.seed, args.repeats, args.graph, args.decoys, args.noise, args.seeds)]
     return finish(rows, "bench_update", argv, markdown, args.out, args.markdown)
 
 
