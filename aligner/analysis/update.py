@@ -19,6 +19,7 @@ starts from zero like ``align`` and says so in ``summary["update"]["mode"]``.
 from __future__ import annotations
 
 import dataclasses
+import os
 import time
 from pathlib import Path
 from typing import Any, Callable, NamedTuple
@@ -32,7 +33,7 @@ from aligner.core.identifiers import lookup
 from aligner.core.prior import PriorRows
 from aligner.errors import InputFormatError, InvalidParameterError
 from aligner.io.readers import NoRows
-from aligner.io.state import STATE_FILE, file_digest, read_state
+from aligner.io.state import file_digest, read_state
 from aligner.pipeline import AlignmentResult, Clock, prepare, run_stages, with_product_graph
 
 __all__ = ["update", "previous_inputs", "FULL_SHARE", "INPUTS"]
@@ -80,8 +81,7 @@ def _inputs(state, given: dict, names=INPUTS, advice: str | None = None) -> dict
                                         "the update", param=name)
         if file_digest(rec["source"]) != rec["fingerprint"]:
             raise InputFormatError(f"{name} of the previous run, {rec['source']}, is missing or has changed since "
-                                   "the run; " + (advice or f"give the {name} to use (the previous one is not kept "
-                                                            f"in {STATE_FILE})"), path=rec["source"])
+                                   "the run; " + (advice or f"give the {name} to use"), path=rec["source"])
         out[name] = rec["source"]
     return out
 
@@ -118,6 +118,7 @@ def _with_diff(state, side: str, add, remove, cfg: AlignConfig):
     to add that it already has (a diff that does not fit the run it is applied to)."""
     from aligner.core.network import network_from_edges
     from aligner.io.inputs import as_network
+    from aligner.io.readers import network_from_table, read_table
 
     if cfg.weighted:
         raise InvalidParameterError("edge diffs apply to unweighted runs; give the whole new network file of a "
@@ -129,12 +130,32 @@ def _with_diff(state, side: str, add, remove, cfg: AlignConfig):
     for path, removing in ((remove, True), (add, False)):
         if path is not None:
             try:
-                net = as_network(path, name=f"{'removed' if removing else 'added'} edges of {label}",
-                                 directed=cfg.directed, delimiter=cfg.delimiter, header=cfg.header)
-            except NoRows:  # an empty diff (a feed's quiet day): nothing to add or remove
+                if isinstance(path, (str, os.PathLike)):
+                    table = read_table(path, min_cols=2, max_cols=3, delimiter=cfg.delimiter, header=cfg.header,
+                                       what="edge list")
+                    _check_diff_header(table.header, path, None, cfg, ((names, f"network {label}"),))
+                    net = network_from_table(table, directed=cfg.directed)
+                else:
+                    net = as_network(path, name=f"{'removed' if removing else 'added'} edges of {label}",
+                                     directed=cfg.directed, delimiter=cfg.delimiter, header=cfg.header)
+            except NoRows as empty:  # an empty diff (a feed's quiet day): nothing to add or remove
+                _check_diff_header(empty.header, path, empty.line, cfg, ((names, f"network {label}"),))
                 continue
             diffs[removing] = (path, net.names.astype(str), net.scored_edges(cfg.directed)[0].astype(np.int64),
                                net)
+    counts = state.meta.get("networks", {}).get(side) or {}
+    known = counts.get("loop_nodes")
+    if True in diffs and known is not None:  # a self-loop line to remove must be the previous file's
+        path, dnames, _, dnet = diffs[True]
+        had = names[np.asarray(known, dtype=np.int64)]
+        asked = dnames[dnet.loop_nodes]
+        absent = ~np.isin(asked, had)
+        if absent.any():
+            u = str(asked[int(np.argmax(absent))])
+            where, line = _edge_line(path, u, u, cfg)
+            raise InputFormatError(f"the diff asks network {label} of the previous run to remove a self-loop line "
+                                   f"it does not have: {u} - {u}; the diff does not fit that run", path=where,
+                                   line=line)
     # one numbering over the previous names and the diffs' (sorted, as the readers number nodes)
     every, old_ids = _joined_names(names, [d[1] for d in diffs.values()])
     n = len(every)
@@ -172,10 +193,8 @@ def _with_diff(state, side: str, add, remove, cfg: AlignConfig):
     extra = np.sort(extra)
     kept = np.insert(kept, np.searchsorted(kept, extra), extra)
     u, v = np.divmod(kept, n)
-    counts = state.meta.get("networks", {}).get(side) or {}
     # the readers keep a node a dropped self-loop line names: the nodes named by loop lines are
     # the previous file's (kept in the state), less those of the removed lines, plus the added's
-    known = counts.get("loop_nodes")
     looped = np.zeros(n, dtype=bool)
     if known is not None:
         looped[old_ids[np.asarray(known, dtype=np.int64)]] = True
@@ -196,7 +215,9 @@ def _with_diff(state, side: str, add, remove, cfg: AlignConfig):
     source = _diff_source(side)
     net = network_from_edges(every[used].astype(object), new_id[u], new_id[v], None, source=source,
                              directed=cfg.directed)
-    loops = counts.get("self_loops", 0) + sum(d[3].n_self_loops * (-1 if r else 1) for r, d in diffs.items())
+    # a removed self-loop takes its line out (its node's, counted once however often the diff names it)
+    loops = counts.get("self_loops", 0) + sum(-len(d[3].loop_nodes) if r and d[3].loop_nodes is not None
+                                              else d[3].n_self_loops * (-1 if r else 1) for r, d in diffs.items())
     repeats = counts.get("duplicate_edges", 0) + (diffs[False][3].n_duplicate_edges if False in diffs else 0)
     net = dataclasses.replace(net, n_self_loops=max(loops, 0), n_duplicate_edges=repeats,
                               loop_nodes=new_id[looped].astype(np.int32) if known is not None else None)
@@ -204,6 +225,22 @@ def _with_diff(state, side: str, add, remove, cfg: AlignConfig):
     ends = unique(np.concatenate([moved // n, moved % n]))
     changed = (len(extra), len(gone), new_id[ends[used[ends]]].astype(np.int64))  # each edge once in a diff
     return net, every is names and bool(used.all()), changed
+
+
+def _check_diff_header(fields, path, line: int | None, cfg: AlignConfig, columns) -> None:
+    """Refuse a diff file whose first line, taken for a header because the previous run read its
+    files with ``header="yes"``, names a node of the run in one of its columns (``columns``: the
+    names of each column's network, sorted, with a label): most likely a diff written without the
+    header line the run's files have, whose first row would otherwise be dropped without a word."""
+    if cfg.header != "yes" or not fields:
+        return
+    for value, (names, label) in zip(fields, columns):
+        at = int(np.searchsorted(names, value))
+        if at < len(names) and names[at] == value:
+            raise InputFormatError(
+                f"its first line was taken for a header line, as the previous run read its files with --header "
+                f"yes, but it names {value!r}, a node of {label}: give the diff a header line too, so that its "
+                "first row is not dropped", path=str(path), line=line)
 
 
 def _edge_line(path, u: str, v: str, cfg: AlignConfig) -> tuple[str, int | None]:
@@ -407,9 +444,14 @@ def _with_prior_diff(state, add, remove, cfg: AlignConfig) -> "_PriorRows | _Kep
                                     "the candidate pairs): give the whole new prior", param="add_prior")
     read = {"delimiter": cfg.delimiter, "header": cfg.header}
 
-    def rows(obj, cols: int, what: str):
+    def node_columns():
+        return ((np.asarray(state.names_a, dtype=str), "network A"), (np.asarray(state.names_b, dtype=str), "network B"))
+
+    def rows(obj, cols: int, what: str, diff: bool = False):
         t = as_table(obj, name=what, layout="node_a, node_b" + (", score" if cols == 3 else "[, score]"),
                      min_cols=cols, max_cols=3, what=what, **read)
+        if diff:
+            _check_diff_header(t.header, obj, None, cfg, node_columns())
         a, b = (_chunked(t.names(c)) for c in (0, 1))
         values = None
         if cols == 3:
@@ -422,8 +464,9 @@ def _with_prior_diff(state, add, remove, cfg: AlignConfig) -> "_PriorRows | _Kep
         if obj is None:
             return None
         try:
-            return rows(obj, cols, what)
-        except NoRows:  # an empty diff (a feed's quiet day): nothing to add or remove
+            return rows(obj, cols, what, diff=True)
+        except NoRows as empty:  # an empty diff (a feed's quiet day): nothing to add or remove
+            _check_diff_header(empty.header, obj, empty.line, cfg, node_columns())
             return None
 
     gone = diff_rows(remove, 2, "table of prior pairs to remove")

@@ -532,7 +532,12 @@ def read_part(path: str, **options) -> Table | None:
 
 class NoRows(InputFormatError):
     """A file without data rows (empty, or a header only): an error for a file, a part that adds
-    nothing for a pattern."""
+    nothing for a pattern. ``header``: the fields of the line taken for a header, if any."""
+
+    def __init__(self, message: str, *, path: str | None = None, line: int | None = None,
+                 header: tuple | None = None):
+        super().__init__(message, path=path, line=line)
+        self.header = header
 
 
 def _joined(pattern: str, parts: list[Table], what: str) -> Table:
@@ -612,7 +617,7 @@ def _read_table(path: str, *, min_cols: int, max_cols: int, delimiter, header: s
         header == "auto" and _looks_like_header(fields, second, sep, numeric))
     if has_header and second is None:
         raise NoRows(f"has a header line but no data rows: expected {_a(what)} below it", path=path,
-                     line=first[0])
+                     line=first[0], header=tuple(fields))
     start_no, start_text = second if has_header else first
     ncols = len(_split(start_text, sep))
     if pick is not None:

@@ -716,6 +716,64 @@ def test_a_node_named_by_a_self_loop_line_stays_when_a_diff_removes_its_last_edg
     _agree(upd, ref)
 
 
+def test_a_diff_removing_a_self_loop_line_the_run_lacks_is_refused(tmp_path):
+    # Common practice for diffs (docs/formats.md: each edge to remove must be there). The readers
+    # drop self-loops, so the check on the state's edges never saw them: removing a loop the file
+    # never had was accepted and lowered the count of self-loops (found by differential testing
+    # of update). Reference for the counts: aligner.align on the edited file.
+    a = pd.DataFrame([("a1", "a2"), ("a2", "a3"), ("a3", "a4"), ("a4", "a1"), ("a1", "a3")])
+    b = pd.DataFrame([("b1", "b2"), ("b2", "b3"), ("b3", "b4"), ("b4", "b1"), ("b1", "b3"), ("b2", "b2"),
+                      ("b3", "b3")])
+    p = pd.DataFrame([(f"a{i}", f"b{i}", 0.9) for i in range(1, 5)])
+    for name, frame in (("a.tsv", a), ("b.tsv", b), ("p.tsv", p)):
+        frame.to_csv(tmp_path / name, sep="\t", index=False, header=False)
+    write_outputs(tmp_path / "run", aligner.align(tmp_path / "a.tsv", tmp_path / "b.tsv", tmp_path / "p.tsv"))
+    for loop in ("b4", "zz"):  # a node of B without a loop line, and no node of B
+        (tmp_path / "rm.tsv").write_text(f"{loop}\t{loop}\n")
+        got = runner.invoke(app, ["update", str(tmp_path / "run"), "--remove-b", str(tmp_path / "rm.tsv"), "-o",
+                                  str(tmp_path / "out")])
+        assert got.exit_code == 2, got.output
+        assert f"remove a self-loop line it does not have: {loop} - {loop}" in " ".join(got.output.split())
+        assert not (tmp_path / "out").exists()
+    # a loop the file has, named twice in the diff: one line goes, as from the edited file
+    (tmp_path / "rm.tsv").write_text("b2\tb2\nb2\tb2\n")
+    upd = update(tmp_path / "run", remove_b=tmp_path / "rm.tsv")
+    b.drop(index=5).to_csv(tmp_path / "b2.tsv", sep="\t", index=False, header=False)
+    ref = aligner.align(tmp_path / "a.tsv", tmp_path / "b2.tsv", tmp_path / "p.tsv")
+    assert upd.summary["inputs"]["network_b"]["self_loops_dropped"] == \
+        ref.summary["inputs"]["network_b"]["self_loops_dropped"] == 1
+    _agree(upd, ref)
+
+
+def test_a_diff_without_the_header_line_of_a_header_yes_run_is_refused(tmp_path):
+    # Common practice: a run read with --header yes reads its diffs so too; a diff written
+    # without a header line would lose its first row without a word (found by differential
+    # testing of update: an added edge vanished). A first line naming a node of the run is
+    # refused; a diff with its own header line applies. Reference: aligner.align on the edited file.
+    a = pd.DataFrame([("a1", "a2"), ("a2", "a3"), ("a3", "a4"), ("a4", "a1")], columns=["source", "target"])
+    b = pd.DataFrame([("b1", "b2"), ("b2", "b3"), ("b3", "b4"), ("b4", "b1")], columns=["source", "target"])
+    p = pd.DataFrame([(f"a{i}", f"b{i}", 0.9) for i in range(1, 5)], columns=["node_a", "node_b", "score"])
+    for name, frame in (("a.tsv", a), ("b.tsv", b), ("p.tsv", p)):
+        frame.to_csv(tmp_path / name, sep="\t", index=False)
+    write_outputs(tmp_path / "run", aligner.align(tmp_path / "a.tsv", tmp_path / "b.tsv", tmp_path / "p.tsv",
+                                                  header="yes"))
+    (tmp_path / "add.tsv").write_text("a1\ta3\n")  # a header line only, as --header yes reads it
+    (tmp_path / "two.tsv").write_text("a1\ta3\nb1\tb3\t0.5\n")
+    for option, path in (("--add-a", "add.tsv"), ("--add-prior", "two.tsv")):
+        got = runner.invoke(app, ["update", str(tmp_path / "run"), option, str(tmp_path / path), "-o",
+                                  str(tmp_path / "out")])
+        assert got.exit_code == 2, got.output
+        assert "taken for a header line" in got.output and "'a1', a node of network A" in " ".join(got.output.split())
+        assert not (tmp_path / "out").exists()
+    (tmp_path / "add.tsv").write_text("source\ttarget\na1\ta3\n")
+    upd = update(tmp_path / "run", add_a=tmp_path / "add.tsv")
+    edited = pd.concat([a, pd.DataFrame([("a1", "a3")], columns=a.columns)])
+    edited.to_csv(tmp_path / "a2.tsv", sep="\t", index=False)
+    ref = aligner.align(tmp_path / "a2.tsv", tmp_path / "b.tsv", tmp_path / "p.tsv", header="yes")
+    assert upd.network_a.n_edges == ref.network_a.n_edges == 5
+    _agree(upd, ref)
+
+
 def test_an_align_option_given_to_update_says_the_options_are_kept(tmp_path):
     # An option of align given to update is not a typo for one of update's (the framework
     # suggested "--a" for --alpha): the message says an update keeps the run's options. A real
