@@ -323,10 +323,10 @@ class EngineConfig(_Config):
         "a local cluster of --workers processes.", flag="--scheduler", group="Engine", kind="text", optional=True,
         # an empty address (an unset shell variable in --scheduler "$ADDR") is refused, not taken for no address
         pattern=r".*\S.*", shape="the address of a running dask scheduler, such as tcp://host:8786")
-    workers: int = option(
-        2, "With --engine dask and no --scheduler: worker processes of the local cluster, all on this machine, "
-        "at most 1024 (for more, start a dask cluster and give its --scheduler).", flag="--workers",
-        group="Engine", kind="int", low=1, high=MAX_WORKERS)
+    workers: int | None = option(
+        None, "With --engine dask and no --scheduler: worker processes of the local cluster, all on this machine, "
+        "at most 1024 (for more, start a dask cluster and give its --scheduler). Default: 2.", flag="--workers",
+        group="Engine", kind="int", low=1, high=MAX_WORKERS, optional=True)
     partitions: int | None = option(
         None, "With --engine dask: blocks of nodes of A (default: the number of workers).", flag="--partitions",
         group="Engine", kind="int", low=1, optional=True)

@@ -41,6 +41,7 @@ __all__ = [
     "read_network",
     "network_from_table",
     "edge_weights",
+    "check_weight_sums",
     "same_columns",
     "read_part",
     "all_parts_empty",
@@ -982,20 +983,27 @@ def network_from_table(table: Table, *, directed: bool = False) -> Network:
     a, b = table.names(0), table.names(1)
     names, codes = intern(a, b)
     m = len(a)
-    net = network_from_edges(names, codes[:m], codes[m:], weights, source=table.source, directed=directed)
-    # each row's weight is finite (edge_weights), but the rows of a repeated edge are summed (with
-    # --directed, an arc's rows, then the two arcs of an edge in its undirected view)
+    with np.errstate(over="ignore"):  # a total past the largest float is refused, without numpy's warning
+        net = network_from_edges(names, codes[:m], codes[m:], weights, source=table.source, directed=directed)
+    check_weight_sums(net, table.source)
+    return net
+
+
+def check_weight_sums(net: Network, source: str) -> None:
+    """Refuse a network whose weights, each finite, sum past the largest float: the rows of a
+    repeated edge (with --directed, an arc's rows, then the two arcs of an edge in its undirected
+    view) are summed, and summary.json reports the total, which the solver divides by."""
     for what, ends, merged in (("arc", net.arcs, net.arc_weights), ("edge", net.edges, net.weights)):
         if merged is not None and not np.isfinite(merged).all():
             u, v = ends[int(np.argmax(~np.isfinite(merged)))]
             raise InputFormatError(f"the {what} {net.names[u]} - {net.names[v]} is given on several rows whose "
                                    "weights sum to more than the largest number (about 1.8e308); give smaller "
-                                   "weights", path=table.source)
-    if net.weights is not None and not np.isfinite(net.weights.sum()):
-        # every weight finite, their total not (summary.json reports it, the solver divides by sums)
+                                   "weights", path=source)
+    with np.errstate(over="ignore"):
+        total = None if net.weights is None else net.weights.sum()
+    if total is not None and not np.isfinite(total):
         raise InputFormatError("the edge weights sum to more than the largest number (about 1.8e308); give "
-                               "smaller weights", path=table.source)
-    return net
+                               "smaller weights", path=source)
 
 
 def edge_weights(table: Table) -> np.ndarray | None:

@@ -218,6 +218,38 @@ def test_parts_with_other_columns_and_empty_patterns_are_refused(client, tmp_pat
         _on_cluster(client, str(empty / "x-*.tsv"), b, p, cfg, parts=2)
 
 
+def test_errors_of_several_parts_and_summed_weights_are_refused_as_on_one_machine(client, tmp_path):
+    # Common practice (the engine's promise, docs/engine.md: bad inputs get the same exit status
+    # and message): one machine reads every file's table, then checks that the files' columns
+    # agree, then reads the values. Found by differential testing of the engines: a bad weight
+    # in one part and a part of other columns after it gave two different messages; a repeated
+    # edge whose weights sum past the largest float was refused on one machine only.
+    a, b, p, *_ = _tricky(tmp_path, np.random.default_rng(10))
+    bad = tmp_path / "a" / "edges-01.tsv"
+    lines = bad.read_text().splitlines()
+    lines[3] = lines[3].rsplit("\t", 1)[0] + "\theavy"
+    bad.write_text("\n".join(lines) + "\n")
+    (tmp_path / "a" / "edges-02.tsv").write_text("u\tv\nn1\tn2\n")  # two columns where the others have three
+    cfg = AlignConfig(weighted=True)
+    for fix in (None, "columns"):
+        if fix == "columns":  # with the columns put right, the bad weight is the first error
+            (tmp_path / "a" / "edges-02.tsv").write_text("u\tv\tw\nn1\tn2\t1\n")
+        with pytest.raises(InputFormatError) as mine:
+            _on_cluster(client, a, b, p, cfg, parts=2)
+        with pytest.raises(InputFormatError) as theirs:
+            _single(a, b, p, cfg)
+        assert str(mine.value) == str(theirs.value)
+        assert ("edges-02.tsv: has 2 columns" if fix is None else "'heavy'") in str(mine.value)
+    bad.write_text("u\tv\tw\nn1\tn2\t1e308\nn2\tn1\t1e308\n")
+    with warnings.catch_warnings():
+        warnings.simplefilter("error", RuntimeWarning)  # and no numpy warning on the way
+        with pytest.raises(InputFormatError, match="several rows whose weights sum") as mine:
+            _on_cluster(client, a, b, p, cfg, parts=2)
+        with pytest.raises(InputFormatError) as theirs:
+            _single(a, b, p, cfg)
+    assert str(mine.value) == str(theirs.value)
+
+
 def test_errors_name_relative_paths_as_given(client, tmp_path, monkeypatch):
     """Files given by relative paths (a pattern, a single file): the message names them as the
     single-machine reader does (the reference), not by the absolute paths the workers are sent

@@ -26,7 +26,7 @@ def check_engine(engine: EngineConfig) -> None:
             if getattr(engine, name) != getattr(EngineConfig, name):
                 raise InvalidParameterError(f"{name} is an option of the dask engine; add --engine dask", param=name)
         return
-    if engine.scheduler is not None and engine.workers != EngineConfig.workers:
+    if engine.scheduler is not None and engine.workers is not None:
         raise InvalidParameterError("workers sets the size of a local cluster, and --scheduler names a running one; "
                                     "give one of them", param="workers")
     from importlib.util import find_spec
@@ -69,7 +69,7 @@ def run_align(network_a: Path, network_b: Path, prior: Path | None, outdir: Path
 
             # a lost cluster raises ClusterError: one line and exit 1 (runtime.user_errors)
             res = dask_align(network_a, network_b, prior, seeds=seeds, truth=truth, config=config,
-                             progress=bar.stage, scheduler=engine.scheduler, workers=engine.workers,
+                             progress=bar.stage, scheduler=engine.scheduler, workers=engine.workers or 2,
                              partitions=engine.partitions, reading=engine.reading, quiet=quiet)
         else:
             def on_stage(name: str) -> None:

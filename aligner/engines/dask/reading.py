@@ -46,7 +46,8 @@ from aligner.core.prior import PriorTable, check_scores, transform_scores
 from aligner.errors import AlignerWarning, InputFormatError
 from aligner.io.inputs import prior_notes
 from aligner.io.paths import input_files
-from aligner.io.readers import all_parts_empty, edge_weights, prior_pick, read_part, read_table, same_columns
+from aligner.io.readers import (all_parts_empty, check_weight_sums, edge_weights, prior_pick, read_part, read_table,
+                                same_columns)
 
 __all__ = ["on_cluster", "ClusterRead", "read_on_cluster", "select_on_cluster"]
 
@@ -101,19 +102,23 @@ def _with_warnings(read):
 
 @_with_warnings
 def _read_edges(path: str, delimiter, header, part: bool):
-    """One edge-list file as a frame (``u``, ``v``[, ``w``]); errors are returned, not raised, so
-    the client reports the first file's in name order."""
+    """One edge-list file as a frame (``u``, ``v``[, ``w``]), its number of columns and its error;
+    errors are returned, not raised, so the client reports them in the single machine's order
+    (:func:`_read_parts`): an error in a value (a weight) comes with the file's columns."""
     try:
         t = _read(path, part, min_cols=2, max_cols=3, delimiter=delimiter, header=header, what="edge list")
-        if t is None:
-            return None, 0, None
+    except InputFormatError as exc:
+        return None, 0, exc
+    if t is None:
+        return None, 0, None
+    try:
         frame = pd.DataFrame({"u": _strings(t.text(0)), "v": _strings(t.text(1))})
         w = edge_weights(t)
         if w is not None:
             frame["w"] = w
         return frame, len(t.columns), None
     except InputFormatError as exc:
-        return None, 0, exc
+        return None, len(t.columns), exc
 
 
 def _read(path: str, part: bool, **options):
@@ -128,15 +133,18 @@ def _read_prior(path: str, delimiter, header, columns, kind: str, part: bool):
     try:
         t = _read(path, part, min_cols=3, max_cols=3, delimiter=delimiter, header=header, what="prior table",
                   pick=prior_pick(columns))
-        if t is None:
-            return None, 0, None
+    except InputFormatError as exc:
+        return None, 0, exc
+    if t is None:
+        return None, 0, None
+    try:
         values = t.numeric(2, "score")
         check_scores(values, kind, source=t.source, origin=t.origin)
         scores, keep = transform_scores(values, kind)
         frame = pd.DataFrame({"a": _strings(t.text(0)), "b": _strings(t.text(1)), "s": scores, "keep": keep})
         return frame, len(t.columns), None
     except InputFormatError as exc:
-        return None, 0, exc
+        return None, len(t.columns), exc
 
 
 def _outcome(result):
@@ -248,16 +256,21 @@ def _read_parts(client, path, reader, what: str, *args):
     futures = client.map(reader, files, *[[a] * len(files) for a in args], [pattern] * len(files), pure=False)
     wait(futures)
     facts = client.gather(client.map(_outcome, futures, pure=False))
-    for f, shown, (_, _, err, warned) in zip(files, named, facts):  # in name order, as one machine reads
+    # in the single machine's order: each file's table in name order, then whether the files'
+    # columns agree, then the values (an error in a value comes with the file's columns)
+    for f, shown, (_, c, err, warned) in zip(files, named, facts):
         for message in warned:
             warn(shown + message[len(f):] if message.startswith(f) else message)
-        if err is not None:  # the first file's error
+        if err is not None and not c:  # the first file whose table cannot be read
             raise _unseen(err, f, shown) or _named(err, f, shown)
     # messages name the files as the user gave them, not as the workers were sent them
     kept = [(f, fut, n, c) for f, fut, (n, c, _, _) in zip(named, futures, facts) if c]
     if not kept:
         raise all_parts_empty(os.fspath(path), len(files), what)
     same_columns([(f, c) for f, _, _, c in kept], what)
+    for f, shown, (_, _, err, _) in zip(files, named, facts):
+        if err is not None:  # the first file with a value that is refused
+            raise _named(err, f, shown)
     return [fut for _, fut, _, _ in kept], [n for _, _, n, _ in kept], kept[0][3], len(files)
 
 
@@ -399,7 +412,10 @@ def _network(client, parts, rows, ids, names, n_edges: int, weighted_file: bool,
         u[row], v[row] = got["ui"].to_numpy(), got["vi"].to_numpy()
         if w is not None:
             w[row] = got["w"].to_numpy()
-    return network_from_edges(names[0], u, v, w, source=source, directed=directed)
+    with np.errstate(over="ignore"):  # a total past the largest float is refused, as on one machine
+        net = network_from_edges(names[0], u, v, w, source=source, directed=directed)
+    check_weight_sums(net, source)
+    return net
 
 
 def _edge_meta(weighted: bool) -> pd.DataFrame:
