@@ -276,7 +276,8 @@ class QueryConfig(_Config):
         "node, with whether it is certified.", flag="--answer/--no-answer", group="Query", kind="bool")
     max_region_pairs: int = option(
         6_000, "Cap on the candidate pairs of an answer's region: it grows a layer at a time until the answer "
-        "is certified or the next layer would pass the cap.", flag="--max-region-pairs", group="Query",
+        "is certified or the next layer would pass the cap. The first region (the node and the strongest "
+        "claimants of its candidates) is solved whatever its size.", flag="--max-region-pairs", group="Query",
         kind="int", low=1)
 
 
