@@ -510,8 +510,9 @@ def write_sweep_outputs(outdir: str | os.PathLike, table: pd.DataFrame, figures:
     outdir : path
         The output directory (made if missing); other files in it are kept.
     table : DataFrame
-        One row per alpha; written as TSV, floats with 6 significant digits (``%.6g``),
-        missing values as ``NA``.
+        One row per alpha; written as TSV, floats with 6 significant digits (``%.6g``) but
+        ``alpha`` in full (the shortest text that reads back as the same number, so that two
+        alphas never share a label), missing values as ``NA``.
     figures : dict of str to bytes
         File name -> content of each figure (``sweep.png``, ``sweep.svg``).
     force : bool
@@ -522,6 +523,8 @@ def write_sweep_outputs(outdir: str | os.PathLike, table: pd.DataFrame, figures:
     list of Path
         The files written, sweep.tsv first.
     """
+    if "alpha" in table.columns:  # -0.0 + 0.0 is 0.0: no alpha written as -0
+        table = table.assign(alpha=[np.format_float_positional(float(a) + 0.0, trim="-") for a in table["alpha"]])
     files = {SWEEP_TABLE: _table_bytes(table, float_format="%.6g", na_rep="NA"), **figures}
     if SWEEP_TABLE in figures:
         raise InvalidParameterError(f"figures must not hold a file named {SWEEP_TABLE}; got {sorted(figures)}",

@@ -110,6 +110,18 @@ def test_write_sweep_outputs(tmp_path):
     assert {f: (out / f).read_bytes() for f in figures} == figures
 
 
+def test_sweep_alphas_are_written_in_full(tmp_path):
+    # Found by testing the commands: with %.6g, 0.1234567 and 0.1234568 both became 0.123457
+    # (two rows, one label) and 0.999999999 became 1 (outside [0, 1)); -0 was written as -0.
+    # Reference: Python's float() reads each label back as the alpha given (round trip).
+    alphas = [-0.0, 0.1234567, 0.1234568, 0.5, 0.999999999]
+    table = pd.DataFrame({"alpha": alphas, "ec": [0.1] * 5})
+    write_sweep_outputs(tmp_path / "out", table, {})
+    labels = [line.split("\t")[0] for line in (tmp_path / "out" / SWEEP_TABLE).read_text().splitlines()[1:]]
+    assert labels == ["0", "0.1234567", "0.1234568", "0.5", "0.999999999"]
+    assert [float(x) for x in labels] == [a + 0.0 for a in alphas]
+
+
 def test_write_sweep_outputs_refuses_an_existing_sweep_without_force(tmp_path):
     out = tmp_path / "out"
     publish_outputs(out, {f: "x\n" for f in OUTPUT_FILES})  # an alignment there is no obstacle
