@@ -227,7 +227,7 @@ def _record_labels(obj, columns: str, name: str, *, delimiter: str | None = None
     fields = [[_field(v) for v in table.columns[k]] for k in range(1, len(table.columns))]
     texts = np.array([" ".join(f for f in row if f) for row in zip(*fields)] if fields else [""] * len(ids),
                      dtype=object)
-    texts = np.where(texts == "", ids, texts)
+    texts = np.array([node if _void(t) else t for node, t in zip(ids, texts)], dtype=object)
     first: dict[str, int] = {}
     for row, node in enumerate(ids):
         if node in first:
@@ -255,12 +255,19 @@ def _field(v) -> str:
     return str(v).strip()
 
 
+def _void(text: str) -> bool:
+    """Whether a label leaves nothing to compare once normalised (:func:`normalise_label`): empty,
+    blank, or punctuation only."""
+    return not text.strip() or (_NON_WORD.fullmatch(text) is not None and not normalise_label(text))
+
+
 def _as_labels(labels, name: str) -> pd.Series:
     """Series, dict, rows (identifier, label) or path -> Series of str indexed by str, sorted by identifier."""
     table = as_table(labels, name=name, layout="node, label", min_cols=2, max_cols=2, read=read_labels)
     ids = table.text(0)
-    # as in a label file (docs/formats.md), an empty or missing label makes the identifier its own label
-    values = np.array([str(node) if _missing(v) or not str(v).strip() else str(v) for node, v in zip(ids, table.columns[1])],
+    # as in a label file (docs/formats.md), an empty or missing label (or one of punctuation only, which
+    # normalising empties) makes the identifier its own label
+    values = np.array([str(node) if _missing(v) or _void(str(v)) else str(v) for node, v in zip(ids, table.columns[1])],
                       dtype=object)
     if len(set(ids)) != len(ids):
         raise InvalidParameterError(f"{name} must name each node once; got repeated identifiers", param=name)

@@ -302,6 +302,24 @@ def test_an_empty_label_in_python_is_the_identifier_as_in_a_file(tmp_path):
     pd.testing.assert_frame_equal(label_prior(list(a.items()), b), from_file)
 
 
+def test_a_label_of_punctuation_only_is_the_identifier(tmp_path):
+    # docs/formats.md: an empty label makes the identifier its own label. A label of punctuation
+    # only is empty once normalised (normalise_label), so it compared with nothing, not even the
+    # same label (found by testing the commands: two such labels gave "no pair"). Reference: the
+    # same nodes with the identifier written as their label, in a file and in records.
+    a = {"Korvex-7": " !!! ", "Olmera-2": "...", "v1": "Vantric Freight"}
+    b = {"korvex 7": "-", "olmera 2": "Olmera 2", "w1": "Vantric Freight Ltd"}
+    same_a = {k: (k if k != "v1" else v) for k, v in a.items()}
+    same_b = {k: (k if k != "w1" and k != "olmera 2" else v) for k, v in b.items()}
+    got = label_prior(a, b)
+    pd.testing.assert_frame_equal(got, label_prior(same_a, same_b))
+    assert {("Korvex-7", "korvex 7"), ("Olmera-2", "olmera 2")} <= set(zip(got.node_a, got.node_b))
+    pa = tmp_path / "a.csv"
+    pa.write_text("id,name,city\nKorvex-7,!!!,?\nOlmera-2,...,\nv1,Vantric Freight,\n", encoding="utf-8")
+    recs = label_prior(pa, pa, label_columns="name,city")
+    assert {("Korvex-7", "Korvex-7"), ("Olmera-2", "Olmera-2")} <= set(zip(recs.node_a, recs.node_b))
+
+
 def test_equal_scores_that_differ_in_rounding_are_a_tie_broken_by_node_order():
     # docs/method.md and label_prior: ties are broken by node order. "tolvenk" and "tolvenk tolvenk" have
     # the same unit TF-IDF vector (sublinear tf scales every n-gram alike), so they score the same
