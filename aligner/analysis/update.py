@@ -445,7 +445,8 @@ def _with_prior_diff(state, add, remove, cfg: AlignConfig) -> "_PriorRows | _Kep
     read = {"delimiter": cfg.delimiter, "header": cfg.header}
 
     def node_columns():
-        return ((np.asarray(state.names_a, dtype=str), "network A"), (np.asarray(state.names_b, dtype=str), "network B"))
+        return ((np.asarray(state.names_a, dtype=str), "network A"),
+                (np.asarray(state.names_b, dtype=str), "network B"))
 
     def rows(obj, cols: int, what: str, diff: bool = False):
         t = as_table(obj, name=what, layout="node_a, node_b" + (", score" if cols == 3 else "[, score]"),

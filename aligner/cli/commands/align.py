@@ -69,7 +69,7 @@ def run_align(network_a: Path, network_b: Path, prior: Path | None, outdir: Path
 
             # a lost cluster raises ClusterError: one line and exit 1 (runtime.user_errors)
             res = dask_align(network_a, network_b, prior, seeds=seeds, truth=truth, config=config,
-                             progress=bar.stage, scheduler=engine.scheduler, workers=engine.workers or 2,
+                             progress=bar.stage, scheduler=engine.scheduler, workers=engine.workers,
                              partitions=engine.partitions, reading=engine.reading, quiet=quiet)
         else:
             def on_stage(name: str) -> None:

@@ -47,6 +47,8 @@ __all__ = ["BlockCluster", "WorkerLost", "connect", "align", "CONNECT_TIMEOUT", 
 CONNECT_TIMEOUT = "10s"
 #: how many times a run whose worker was lost starts its distributed stages again
 RECOVERY_ATTEMPTS = 1
+#: worker processes of a LocalCluster started when no number is given (``--workers``)
+LOCAL_WORKERS = 2
 #: how often a wait checks that the blocks' workers are still in the cluster
 POLL_SECONDS = 1.0
 #: rounds (of the diffusion, of the auction) the client sends ahead of the last one whose tally it has seen
@@ -310,7 +312,7 @@ def _dask_logs(level: int):
 
 
 @contextmanager
-def connect(client=None, *, scheduler: str | None = None, workers: int = 2, quiet: bool = False):
+def connect(client=None, *, scheduler: str | None = None, workers: int = LOCAL_WORKERS, quiet: bool = False):
     """A dask client: ``client`` as it is, or one connected to ``scheduler`` (an address), or a new
     LocalCluster of ``workers`` single-threaded worker processes, closed on exit. ``quiet``: dask's
     own log lines below errors are not printed meanwhile, by this process (its client, and the
@@ -350,8 +352,8 @@ def connect(client=None, *, scheduler: str | None = None, workers: int = 2, quie
 
 
 def align(network_a, network_b, prior=None, *, truth=None, seeds=None, client=None, scheduler: str | None = None,
-          workers: int = 2, partitions: int | None = None, diffusion_mode: str = "auto", reading: str = "auto",
-          config: AlignConfig | None = None, progress=None, quiet: bool = False, **options: Any) -> AlignmentResult:
+          workers: int | None = LOCAL_WORKERS, partitions: int | None = None, diffusion_mode: str = "auto",
+          reading: str = "auto", config: AlignConfig | None = None, progress=None, quiet: bool = False, **options: Any) -> AlignmentResult:
     """Align two networks with the product graph, the diffusion and the matching on a dask cluster.
 
     Parameters
@@ -394,7 +396,7 @@ def align(network_a, network_b, prior=None, *, truth=None, seeds=None, client=No
     # LocalCluster of no worker waited for ever, one of 10**23 workers never started, and an empty address
     # started a LocalCluster instead of reaching a scheduler
     sizes = EngineConfig(scheduler=scheduler, workers=workers, partitions=partitions)
-    workers = sizes.workers
+    workers = LOCAL_WORKERS if sizes.workers is None else sizes.workers
     parts = workers if sizes.partitions is None else sizes.partitions
     if reading not in DASK_READING:
         raise InvalidParameterError(f"reading must be one of {', '.join(DASK_READING)}; got {reading!r}",
