@@ -259,7 +259,8 @@ def induced_edges(edges_b: npt.NDArray[np.int64], image: npt.NDArray[np.int64], 
 def largest_common_component(edges_a: npt.NDArray[np.int64], cons: npt.NDArray[np.bool_], n1: int) -> tuple[int, int]:
     """Nodes and edges of the largest (weakly) connected component of the conserved edges of A.
 
-    Of components of equal size, the one holding the lowest-numbered node is taken.
+    Of components of as many nodes, the one with the most edges is taken (the subgraph is the
+    largest by nodes, then by edges); of those, the one holding the lowest-numbered node.
     """
     nodes, edges = largest_component(*_ends(edges_a), np.ascontiguousarray(cons, dtype=np.bool_), n1)
     return int(nodes), int(edges)

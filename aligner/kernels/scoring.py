@@ -51,8 +51,9 @@ def _root(parent, a):
 @numba.njit(cache=True, nogil=True, **OUTER)
 def largest_component(u, v, keep, n):
     """Nodes and edges of the largest connected component of the edges (u[e], v[e]) with
-    ``keep[e]``, on ``n`` nodes, by union-find. Ties go to the component whose smallest node is
-    smallest. (0, 0) when no edge is kept."""
+    ``keep[e]``, on ``n`` nodes, by union-find. Of components of as many nodes, the one with the
+    most edges; ties of both go to the component whose smallest node is smallest. (0, 0) when no
+    edge is kept."""
     parent, size, touched = np.empty(n, dtype=np.int64), np.empty(n, dtype=np.int64), np.empty(n, dtype=np.bool_)
     for _t in range(n):  # filled here, not by np.arange / np.ones / np.zeros (aligner.kernels.options)
         parent[_t], size[_t], touched[_t] = _t, 1, False
@@ -69,17 +70,19 @@ def largest_component(u, v, keep, n):
             a, b = b, a
         parent[b] = a
         size[a] += size[b]
-    best, best_size = -1, 0
+    count = np.empty(n, dtype=np.int64)  # kept edges per component, at its root
+    for _t in range(n):
+        count[_t] = 0
+    for e in range(len(u)):
+        if keep[e]:
+            count[_root(parent, u[e])] += 1
+    best_size, best_edges = 0, 0
     for a in range(n):  # in node order: the first component reached is the one with the smallest node
         if touched[a]:
             r = _root(parent, a)
-            if size[r] > best_size:
-                best, best_size = r, size[r]
-    edges = 0
-    for e in range(len(u)):
-        if keep[e] and _root(parent, u[e]) == best:
-            edges += 1
-    return best_size, edges
+            if size[r] > best_size or (size[r] == best_size and count[r] > best_edges):
+                best_size, best_edges = size[r], count[r]
+    return best_size, best_edges
 
 
 @numba.njit(cache=True, nogil=True, **OUTER)

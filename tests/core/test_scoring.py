@@ -246,6 +246,28 @@ def test_image_after_moves_against_networkx(rng, directed):
         assert (got >= 0).tolist() == want
 
 
+def test_of_components_of_as_many_nodes_the_one_with_more_edges_is_the_largest():
+    # Found by recomputing the scores independently: a path 0-1-2 and a triangle 3-4-5, both
+    # conserved, gave LCCS (3 nodes, 2 edges) by the lowest node, though a common connected
+    # subgraph of 3 nodes and 3 edges exists, and renaming the nodes changed the count. Reference:
+    # the largest by nodes, then by edges (the subgraph of most nodes and, of those, most edges),
+    # from networkx.connected_components on the conserved subgraph.
+    rng = np.random.default_rng(11)
+    ea = np.array([[0, 1], [1, 2], [3, 4], [4, 5], [3, 5]])
+    for order in ([0, 1, 2, 3, 4, 5], [3, 4, 5, 0, 1, 2]):  # the triangle on the low nodes, then the high
+        relabel = np.array(order)[ea]
+        assert largest_common_component(relabel, np.ones(len(ea), bool), 6) == (3, 3)
+    for _ in range(30):  # many ties: small random forests with chords
+        n = 24
+        g = nx.gnm_random_graph(n, 22, seed=int(rng.integers(1 << 30)))
+        e = np.array(g.edges()).reshape(-1, 2)
+        cons = rng.random(len(e)) < 0.7
+        sub = nx.Graph([tuple(x) for x in e[cons]])
+        comps = list(nx.connected_components(sub)) if sub.number_of_nodes() else []
+        want = max(((len(c), sub.subgraph(c).number_of_edges()) for c in comps), default=(0, 0))
+        assert largest_common_component(e, cons, n) == want
+
+
 def test_largest_component_ties_go_to_the_lowest_node():
     # hand-worked: conserved edges form two triangles, {5, 6, 7} (listed first) and {1, 2, 3}
     # plus a path 8-9. Both triangles have 3 nodes and 3 edges; the one holding node 1 is taken.
