@@ -217,5 +217,8 @@ def check_inputs(*paths: Path | None) -> None:
             # the command line turns an empty argument (an unset shell variable) into "."
             empty = " (an empty argument names it too)" if str(p) == "." else ""
             raise InputFormatError(f"is a directory{empty}, not a file; give the path of a file", path=str(p))
+        if not p.is_file():  # the readers' NOT_A_FILE, in the same words
+            raise InputFormatError("is a pipe or a device, not a file (a shell's <(...) gives a pipe): an input is "
+                                   "read more than once; write it to a file and give that", path=str(p))
         if not os.access(p, os.R_OK):
             raise InputFormatError("the file cannot be read (permission denied); check its permissions", path=str(p))

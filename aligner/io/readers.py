@@ -91,6 +91,12 @@ def open_text(path: str) -> Iterator[str]:
         yield from fh
 
 
+#: why a path that is no regular file is refused: every input is read more than once (a first
+#: look for the delimiter and header, then the whole table), and a pipe gives its text once
+NOT_A_FILE = ("is a pipe or a device, not a file (a shell's <(...) gives a pipe): an input is read more than once; "
+              "write it to a file and give that")
+
+
 def check_readable(path: str) -> None:
     """Refuse a path that is missing, a directory or unreadable, saying what to do.
 
@@ -103,6 +109,8 @@ def check_readable(path: str) -> None:
         raise InputFormatError("no such file; check the path", path=path)
     if os.path.isdir(path):
         raise InputFormatError("is a directory, not a file; give the path of a file", path=path)
+    if not os.path.isfile(path):  # a pipe (a shell's <(...), a FIFO) or a device: its text can be read once
+        raise InputFormatError(NOT_A_FILE, path=path)
     if not os.access(path, os.R_OK):
         raise InputFormatError("the file cannot be read (permission denied); check its permissions", path=path)
 

@@ -7,6 +7,9 @@ diffusion scores differ by at most the sum of their certified bounds (summary er
 
 import dataclasses
 import json
+import os
+import subprocess
+import sys
 from pathlib import Path
 
 import numpy as np
@@ -772,6 +775,27 @@ def test_a_diff_without_the_header_line_of_a_header_yes_run_is_refused(tmp_path)
     ref = aligner.align(tmp_path / "a2.tsv", tmp_path / "b.tsv", tmp_path / "p.tsv", header="yes")
     assert upd.network_a.n_edges == ref.network_a.n_edges == 5
     _agree(upd, ref)
+
+
+@pytest.mark.skipif(not hasattr(os, "mkfifo"), reason="named pipes are POSIX")
+def test_a_pipe_is_refused_not_read_as_empty(base, tmp_path):
+    # Found by testing the commands together: a diff given as a shell's <(...) was read once to
+    # look for gzip's magic bytes, then found empty, so the update applied nothing and said so
+    # (exit 0); align named the pipe "empty". Every input is read more than once, so a pipe is
+    # refused (common practice: exit 2, the path named, nothing written), before anything opens
+    # it. Each command runs in its own process with a time limit: code that opened the pipe would
+    # wait for a writer for ever.
+    d, *_ = base
+    fifo = tmp_path / "pipe.tsv"
+    os.mkfifo(fifo)
+    cli = "import sys; from aligner.cli.app import app; sys.argv[0] = 'aligner'; app()"
+    for args in (["update", str(d / "run"), "--add-b", str(fifo)],
+                 ["align", str(fifo), str(d / "b.tsv"), "-p", str(d / "p.tsv")]):
+        got = subprocess.run([sys.executable, "-c", cli, *args, "-o", str(tmp_path / "out")], capture_output=True,
+                             text=True, timeout=120)
+        assert got.returncode == 2, got.stderr
+        assert "is a pipe or a device, not a file" in " ".join(got.stderr.split())
+        assert not (tmp_path / "out").exists()
 
 
 def test_an_align_option_given_to_update_says_the_options_are_kept(tmp_path):
