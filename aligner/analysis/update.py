@@ -33,7 +33,7 @@ from aligner.core.identifiers import lookup
 from aligner.core.prior import PriorRows
 from aligner.errors import InputFormatError, InvalidParameterError
 from aligner.io.readers import NoRows
-from aligner.io.state import file_digest, read_state
+from aligner.io.state import file_digest, held_network, read_state
 from aligner.pipeline import AlignmentResult, Clock, prepare, run_stages, with_product_graph
 
 __all__ = ["update", "previous_inputs", "FULL_SHARE", "INPUTS"]
@@ -306,7 +306,6 @@ def _kept_inputs(state, given: dict, files: dict, cfg: AlignConfig, same_names: 
       ties broken alike), and the table's record (rows, unknown names, merged repeats) comes from
       ``meta``, so warnings and ``summary.json`` say what reading the file said.
     """
-    from aligner.core.network import network_from_edges
     from aligner.core.prior import PriorTable
     from aligner.io.inputs import as_network, prior_notes
 
@@ -315,15 +314,9 @@ def _kept_inputs(state, given: dict, files: dict, cfg: AlignConfig, same_names: 
     read = {"delimiter": cfg.delimiter, "header": cfg.header, "directed": cfg.directed}
     nets = {}
     for side in ("a", "b"):
-        key, counts = f"network_{side}", meta.get("networks", {}).get(side)
+        key = f"network_{side}"
         if given.get(key) is None and _state_holds_network(meta, side):
-            names = np.asarray(getattr(state, f"names_{side}"), dtype=object)
-            e = getattr(state, f"edges_{side}")
-            net = network_from_edges(names, e[:, 0], e[:, 1], None, source=files[key], directed=cfg.directed)
-            loops = counts.get("loop_nodes")
-            nets[side] = dataclasses.replace(net, n_self_loops=counts["self_loops"],
-                                             n_duplicate_edges=counts["duplicate_edges"],
-                                             loop_nodes=None if loops is None else np.asarray(loops, dtype=np.int32))
+            nets[side] = held_network(state, side, directed=cfg.directed, source=files[key])
             same_names[side] = True
         else:
             nets[side] = as_network(files[key], name=key, **read)

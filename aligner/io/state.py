@@ -61,7 +61,7 @@ import numpy as np
 
 from aligner.errors import InputFormatError
 
-__all__ = ["STATE_FILE", "STATE_VERSION", "RunState", "write_state", "read_state", "file_digest"]
+__all__ = ["STATE_FILE", "STATE_VERSION", "RunState", "write_state", "read_state", "file_digest", "held_network"]
 
 STATE_FILE = "state.npz"
 STATE_VERSION = 5
@@ -216,3 +216,25 @@ def read_state(path) -> RunState:
         raise InputFormatError(f"{path.name} does not match its checksum: it was changed or damaged after the run "
                                "wrote it; align again", path=str(path))
     return RunState(arrays, meta, path)
+
+
+def held_network(state: RunState, side: str, *, directed: bool, source: str | None = None):
+    """The run's network of ``side`` ("a" or "b") rebuilt from its state, exactly as reading its
+    file gave it (node names, edges, the reader's counts of self-loops and repeated edges), or
+    None when the state does not hold it (a weighted network: the state keeps edges, not
+    weights). ``source`` names it (default: the run's record of it)."""
+    import dataclasses
+
+    from aligner.core.network import network_from_edges
+
+    counts = state.meta.get("networks", {}).get(side)
+    if counts is None or counts["weighted"]:
+        return None
+    if source is None:
+        source = (state.meta["inputs"].get(f"network_{side}") or {}).get("source") or f"<network_{side}>"
+    names = np.asarray(getattr(state, f"names_{side}"), dtype=object)
+    e = getattr(state, f"edges_{side}")
+    net = network_from_edges(names, e[:, 0], e[:, 1], None, source=source, directed=directed)
+    loops = counts.get("loop_nodes")
+    return dataclasses.replace(net, n_self_loops=counts["self_loops"], n_duplicate_edges=counts["duplicate_edges"],
+                               loop_nodes=None if loops is None else np.asarray(loops, dtype=np.int32))

@@ -16,6 +16,7 @@ from aligner.errors import AlignerError, InputFormatError, InvalidParameterError
 from aligner.io.outputs import (RERUN_SWEEP, TRANSFER_TABLE, damaged_output, read_run_table, read_summary,
                                 read_transferred)
 from aligner.io.readers import read_network, read_table
+from aligner.io.state import STATE_FILE, held_network, read_state
 from aligner.render import explorer
 from aligner.render.figures import (LABEL_ALL_UP_TO, LABELLED_HUBS, degree_plot, figure_bytes, histogram,
                                     subgraph_drawing, sweep_figure)
@@ -271,10 +272,13 @@ def _load_run(out: Path, network_a, network_b, delimiter: str | None, header: st
     if network_b is not None and not Path(network_b).exists():
         raise InvalidParameterError(f"network B '{network_b}' does not exist")
     directed = bool(params.get("directed"))
-    try:
-        net_a = read_network(src_a, delimiter=delimiter, header=header, directed=directed)
-    except (OSError, AlignerError) as exc:
-        raise InvalidParameterError(f"cannot re-read network A from '{src_a}' ({exc}); give it with --a") from None
+    # the run's state holds an unweighted A exactly, even one no file holds (an update's edge diff)
+    net_a = _held_network_a(out, directed) if network_a is None else None
+    if net_a is None:
+        try:
+            net_a = read_network(src_a, delimiter=delimiter, header=header, directed=directed)
+        except (OSError, AlignerError) as exc:
+            raise InvalidParameterError(f"cannot re-read network A from '{src_a}' ({exc}); give it with --a") from None
     _check_run_network(net_a, "a", src_a, out, summary, pairs)
     if network_b is not None:  # B is not drawn (its size is in summary.json), but one given is the run's
         _check_run_network(read_network(network_b, delimiter=delimiter, header=header, directed=directed), "b",
@@ -285,6 +289,17 @@ def _load_run(out: Path, network_a, network_b, delimiter: str | None, header: st
     # directed run (alignment.tsv counts conserved arcs), edges otherwise
     degree = (np.bincount(np.asarray(net_a.arcs).reshape(-1), minlength=net_a.n) if directed else net_a.degree)
     return _Run(out, summary, pairs, cons, dict(zip(net_a.names.astype(str), degree.astype(int))), moved, flags, note)
+
+
+def _held_network_a(out: Path, directed: bool):
+    """Network A of the run in ``out`` from its state (:func:`aligner.io.state.held_network`), or
+    None when the run kept no state, a damaged one, or one that does not hold A (weighted)."""
+    if not (out / STATE_FILE).is_file():
+        return None
+    try:
+        return held_network(read_state(out), "a", directed=directed)
+    except InputFormatError:  # not readable as a state: A is read from its file, as without one
+        return None
 
 
 def _check_run_network(net, side: str, source, out: Path, summary: dict, pairs: pd.DataFrame) -> None:

@@ -364,6 +364,30 @@ def test_report_lists_the_refinement_starts(run_dir, tmp_path):
     assert "Refinement starts" not in build_report(other).read_text(encoding="utf-8")
 
 
+def test_report_of_an_update_whose_network_a_no_file_holds(run_dir, tmp_path):
+    # Found by testing the commands together: after `update --add-a`, network A is the previous
+    # edges with the diff applied, which no file holds, so the report asked for --a and refused
+    # the only file there is (the one before the diff). The run's state holds A exactly (as
+    # query --run and update read it). Reference: degrees recounted by networkx on the edited file.
+    import networkx as nx
+
+    summary = json.loads((run_dir / "summary.json").read_text())
+    a_file = summary["inputs"]["network_a"]["source"]
+    edges = pd.read_csv(a_file, sep="\t", header=None, dtype=str)
+    added = pd.DataFrame([(edges.iloc[0, 0], "fresh_node")])
+    added.to_csv(tmp_path / "add.tsv", sep="\t", index=False, header=False)
+    out = tmp_path / "upd"
+    r = CliRunner().invoke(app, ["update", str(run_dir), "--add-a", str(tmp_path / "add.tsv"), "-o", str(out), "-q"])
+    assert r.exit_code == 0, r.output
+    r = CliRunner().invoke(app, ["report", str(out), "-q"])
+    assert r.exit_code == 0, r.output
+    assert (out / "report.html").is_file()
+    from aligner.render.html import _load_run
+
+    g = nx.Graph([tuple(e) for e in pd.concat([edges, added]).itertuples(index=False) if e[0] != e[1]])
+    assert _load_run(out, None, None, None, "auto").degree == dict(g.degree())
+
+
 def test_report_without_its_truth_file(run_dir, tmp_path):
     # the truth table named in summary.json is gone: no true/false column, and the page says why
     other = tmp_path / "moved"
