@@ -49,7 +49,8 @@ def _read_umask() -> int:
     os.umask(mask)
     return mask
 
-__all__ = ["OUTPUT_FILES", "SWEEP_TABLE", "PRIOR_COLUMNS", "TRANSFER_TABLE", "TRANSFER_SELECTION", "check_outdir",
+__all__ = ["OUTPUT_FILES", "RUN_FILES", "REPORT_FILE", "SWEEP_TABLE", "PRIOR_COLUMNS", "TRANSFER_TABLE",
+           "TRANSFER_SELECTION", "check_outdir",
            "write_outputs", "write_sweep_outputs", "write_prior_table", "check_output_file", "read_transferred",
            "write_transfer_selection", "write_text_atomic", "publish_outputs", "recover_interrupted", "table_text",
            "json_text", "read_run_table", "read_summary", "damaged_output", "RERUN_ALIGN", "RERUN_SWEEP"]
@@ -62,6 +63,12 @@ OUTPUT_FILES = ("alignment.tsv", "conserved_edges.tsv", TRANSFER_TABLE, "summary
 PARQUET_FILES = ("alignment.parquet", "conserved_edges.parquet", "transferred_edges.parquet")
 #: What ``aligner transfer`` writes into a run's directory: the rows it selected and printed.
 TRANSFER_SELECTION = "transferred_selected.tsv"
+#: The page ``aligner report`` writes into a run's directory.
+REPORT_FILE = "report.html"
+#: A run's files besides those one write may give (state, Parquet copies) and the files other
+#: commands make from the run (the report, the transfer's selection): when a run replaces another
+#: in its directory, those the new run does not write go with the old run, which they describe
+RUN_FILES = (*OUTPUT_FILES, *PARQUET_FILES, REPORT_FILE, TRANSFER_SELECTION)
 #: The table :func:`write_sweep_outputs` writes beside its figures.
 SWEEP_TABLE = "sweep.tsv"
 #: The columns of a prior table, in the order they are written.
@@ -266,9 +273,10 @@ def _can_swap(out: Path) -> bool:
     return not inside and not os.path.ismount(out) and os.access(out.parent, os.W_OK | os.X_OK)
 
 
-def publish_outputs(outdir: str | os.PathLike, files: dict) -> None:
+def publish_outputs(outdir: str | os.PathLike, files: dict, drop=()) -> None:
     """Make the files ``files`` (name -> text, bytes, or a function writing into an open binary
-    file) appear in the directory ``outdir`` as one set.
+    file) appear in the directory ``outdir`` as one set, and the files named in ``drop`` that
+    ``outdir`` holds go with the old set.
 
     A reader, or a run killed at any moment (Ctrl-C, SIGKILL), sees either the previous
     outputs or the new ones, never a mix; other files in ``outdir`` are kept. The scheme
@@ -302,10 +310,13 @@ def publish_outputs(outdir: str | os.PathLike, files: dict) -> None:
             os.chmod(new, stat.S_IMODE(os.stat(out).st_mode))
         with _signals_deferred():
             if swap:
-                _swap_in(new, out, files)
+                _swap_in(new, out, files, drop)
             else:
                 for name in sorted(files, key=lambda n: n == "summary.json"):
                     os.replace(new / name, out / name)
+                for name in set(drop) - set(files):
+                    with suppress(FileNotFoundError):
+                        os.unlink(out / name)
                 os.rmdir(new)
         _fsync_dir(parent if swap else out)
     except BaseException:
@@ -326,8 +337,9 @@ def _write_new(new: Path, files: dict[str, str | bytes]) -> None:
     _fsync_dir(new)
 
 
-def _swap_in(new: Path, out: Path, files) -> None:
-    """Steps 2 and 3 of :func:`publish_outputs`: rename the staging directory to ``out``."""
+def _swap_in(new: Path, out: Path, files, drop=()) -> None:
+    """Steps 2 and 3 of :func:`publish_outputs`: rename the staging directory to ``out`` (the old
+    directory's entries not in ``files`` nor ``drop`` moved into it)."""
     if not out.exists():
         os.rename(new, out)
         return
@@ -339,9 +351,9 @@ def _swap_in(new: Path, out: Path, files) -> None:
         os.rename(old, out)
         raise
     for entry in os.listdir(old):
-        if entry not in files:
+        if entry not in files and entry not in drop:
             os.rename(old / entry, out / entry)
-    for name in files:
+    for name in {*files, *drop}:
         with suppress(FileNotFoundError):
             os.unlink(old / name)
     os.rmdir(old)
@@ -442,9 +454,9 @@ def check_outdir(outdir: str | os.PathLike, *, force: bool = False, files=OUTPUT
     return out
 
 
-def _publish(out: Path, files: dict[str, str | bytes]) -> list[Path]:
+def _publish(out: Path, files: dict[str, str | bytes], drop=()) -> list[Path]:
     try:
-        publish_outputs(out, files)
+        publish_outputs(out, files, drop)
     except OSError as exc:
         raise InvalidParameterError(f"The output directory '{out}' cannot be written: "
                                     f"{exc.strerror or exc}; choose another directory with --out.") from None
@@ -480,8 +492,10 @@ def write_outputs(outdir: str | os.PathLike, result, *, force: bool = False,
     ``.conserved_edges``, ``.transferred_edges()``, ``.summary``); the transferred edges are
     written in the order given (best first). The files appear together or not at all (see
     :func:`publish_outputs`), so an interrupted run (Ctrl-C, a killed process) leaves the
-    previous outputs or none, never a mix. Other files in ``outdir`` are kept. ``state=False``
-    leaves the run state out.
+    previous outputs or none, never a mix. Other files in ``outdir`` are kept, but not those of
+    a run replaced there (``force``) that this one does not write (:data:`RUN_FILES`: its state
+    or Parquet copies, the report and the transfer's selection made from it), which would
+    describe the old run beside the new. ``state=False`` leaves the run state out.
     """
     out = check_outdir(outdir, force=force, files=output_files(parquet))
     # the transferred edges first: they are found now, and their arrays of edges then do not
@@ -498,7 +512,7 @@ def write_outputs(outdir: str | os.PathLike, result, *, force: bool = False,
         files |= dict(zip(PARQUET_FILES, (_parquet_bytes(result.pairs, ("node_a", "node_b")),
                                           _parquet_bytes(result.conserved_edges, ("node_a1", "node_a2")),
                                           _parquet_bytes(result.transferred_edges()))))
-    return _publish(out, files)
+    return _publish(out, files, drop=RUN_FILES)
 
 
 def write_sweep_outputs(outdir: str | os.PathLike, table: pd.DataFrame, figures: dict[str, bytes], *,

@@ -13,8 +13,8 @@ import pandas as pd
 
 from aligner.analysis.subgraph import conserved_ball
 from aligner.errors import AlignerError, InputFormatError, InvalidParameterError
-from aligner.io.outputs import (RERUN_SWEEP, TRANSFER_TABLE, damaged_output, read_run_table, read_summary,
-                                read_transferred)
+from aligner.io.outputs import (REPORT_FILE, RERUN_SWEEP, TRANSFER_TABLE, damaged_output, read_run_table,
+                                read_summary, read_transferred)
 from aligner.io.readers import read_network, read_table
 from aligner.io.state import STATE_FILE, held_network, read_state
 from aligner.render import explorer
@@ -23,7 +23,6 @@ from aligner.render.figures import (LABEL_ALL_UP_TO, LABELLED_HUBS, degree_plot,
 
 __all__ = ["build_report", "REPORT_FILE", "MAX_DRAWN_NODES"]
 
-REPORT_FILE = "report.html"
 #: the conserved subgraph drawing keeps at most this many nodes (a breadth-first ball around its
 #: best-connected node), so the picture stays readable
 MAX_DRAWN_NODES = 150

@@ -78,6 +78,29 @@ def test_publish_outputs_replaces_the_set_and_keeps_other_files(tmp_path):
     assert not _staging(tmp_path, out)
 
 
+def test_a_run_replaced_takes_the_files_that_describe_it_along(tmp_path):
+    # Found by testing the commands together: `update RUN -o RUN --force` (or align --force) kept
+    # the old run's report.html and the transfer's selection, and a replacing run written without
+    # state or Parquet left the old run's state.npz (which a later update would start from) and
+    # Parquet copies beside the new tables. Common practice: what describes the replaced run goes
+    # with it; the user's own files and a sweep's (made from the inputs) stay.
+    import aligner
+    from aligner.datasets.instances import as_frames, noisy_relabelled
+    from aligner.io.outputs import PARQUET_FILES, REPORT_FILE, TRANSFER_SELECTION, write_outputs
+
+    a, b, prior, _ = as_frames(noisy_relabelled(120, seed=3, noise=0.05, decoys=3))
+    res = aligner.align(a, b, prior)
+    out = tmp_path / "run"
+    write_outputs(out, res, parquet=True)
+    for name in (REPORT_FILE, TRANSFER_SELECTION, SWEEP_TABLE, "mine.txt"):
+        (out / name).write_text("made from the first run\n")
+    write_outputs(out, res, force=True, parquet=False, state=False)
+    kept = set(os.listdir(out))
+    assert kept == {*OUTPUT_FILES, SWEEP_TABLE, "mine.txt"} - {"state.npz"}
+    assert not kept & {*PARQUET_FILES, REPORT_FILE, TRANSFER_SELECTION, "state.npz"}
+    assert not _staging(tmp_path, out)
+
+
 def test_publish_outputs_failing_midway_changes_nothing(tmp_path):
     out = tmp_path / "out"
     publish_outputs(out, {"a.tsv": "one\n"})
