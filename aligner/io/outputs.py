@@ -49,7 +49,7 @@ def _read_umask() -> int:
     os.umask(mask)
     return mask
 
-__all__ = ["OUTPUT_FILES", "RUN_FILES", "REPORT_FILE", "SWEEP_TABLE", "PRIOR_COLUMNS", "TRANSFER_TABLE",
+__all__ = ["OUTPUT_FILES", "PARQUET_FILES", "RUN_FILES", "REPORT_FILE", "SWEEP_TABLE", "PRIOR_COLUMNS", "TRANSFER_TABLE",
            "TRANSFER_SELECTION", "check_outdir",
            "write_outputs", "write_sweep_outputs", "write_prior_table", "check_output_file", "read_transferred",
            "write_transfer_selection", "write_text_atomic", "publish_outputs", "recover_interrupted", "table_text",

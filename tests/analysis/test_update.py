@@ -798,6 +798,25 @@ def test_a_pipe_is_refused_not_read_as_empty(base, tmp_path):
         assert not (tmp_path / "out").exists()
 
 
+def test_an_update_of_a_run_with_parquet_copies_writes_them_too(base, tmp_path):
+    # Found by testing the commands together: an update of an `align --parquet` run wrote no
+    # Parquet copies (update keeps the run's options; it has no --parquet of its own). Reference:
+    # the update's own TSV tables, read by pandas, against its Parquet copies read by pandas.
+    d, *_ = base
+    got = runner.invoke(app, ["align", str(d / "a.tsv"), str(d / "b.tsv"), "-p", str(d / "p.tsv"), "--parquet",
+                              "-o", str(tmp_path / "run"), "-q"])
+    assert got.exit_code == 0, got.output
+    for previous, out in (("run", "u1"), ("u1", "u2")):  # and an update of the update
+        got = runner.invoke(app, ["update", str(tmp_path / previous), "-o", str(tmp_path / out), "-q"])
+        assert got.exit_code == 0, got.output
+        tsv = pd.read_csv(tmp_path / out / "alignment.tsv", sep="\t", dtype={"node_a": str, "node_b": str})
+        pq = pd.read_parquet(tmp_path / out / "alignment.parquet")
+        assert pq[["node_a", "node_b"]].astype(str).values.tolist() == tsv[["node_a", "node_b"]].values.tolist()
+    got = runner.invoke(app, ["update", str(d / "run"), "-o", str(tmp_path / "u3"), "-q"])  # a run without them
+    assert got.exit_code == 0, got.output
+    assert not (tmp_path / "u3" / "alignment.parquet").exists()
+
+
 def test_an_align_option_given_to_update_says_the_options_are_kept(tmp_path):
     # An option of align given to update is not a typo for one of update's (the framework
     # suggested "--a" for --alpha): the message says an update keeps the run's options. A real

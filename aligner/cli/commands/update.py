@@ -38,21 +38,24 @@ def update(previous: Previous, outdir: Out, a: NewA = None, b: NewB = None, prio
            add_b: AddB = None, remove_b: RemoveB = None, add_prior: AddPrior = None,
            remove_prior: RemovePrior = None, force: Force = False, quiet: Quiet = False):
     """Align the new inputs starting from a previous run (its options, its scores as the start); write the
-    same files as align to --out, with an update section in summary.json."""
+    same files as align to --out (the Parquet copies too when the previous run has them), with an update
+    section in summary.json."""
     check_inputs(*(p for p in (a, b, prior, seeds, truth, add_a, remove_a, add_b, remove_b, add_prior,
                                remove_prior) if p is not None))
     from aligner.analysis.update import update as run_update
-    from aligner.io.outputs import check_outdir, output_files, write_outputs
+    from aligner.io.outputs import PARQUET_FILES, check_outdir, output_files, write_outputs
     from aligner.pipeline import STAGES, Clock
     from aligner.render.console import summary_table
 
-    check_outdir(outdir, force=force, files=output_files())  # refuse before any work
+    # the previous run's choice of Parquet copies is kept, as its options are
+    parquet = previous.is_dir() and all((previous / name).is_file() for name in PARQUET_FILES)
+    check_outdir(outdir, force=force, files=output_files(parquet))  # refuse before any work
     with Clock.owning_process(), progress(quiet, len(STAGES) + 1) as bar:
         res = run_update(previous, a, b, prior, seeds=seeds, truth=truth, add_a=add_a, remove_a=remove_a,
                          add_b=add_b, remove_b=remove_b, add_prior=add_prior, remove_prior=remove_prior,
                          progress=bar.stage)
         bar.stage("writing")
-        written = write_outputs(outdir, res, force=force)
+        written = write_outputs(outdir, res, force=force, parquet=parquet)
     if not quiet:
         out.print(summary_table(res.summary))
         u = res.summary["update"]
