@@ -198,6 +198,18 @@ def transfer_counts(edges_a: npt.ArrayLike, edges_b: npt.ArrayLike, matched: npt
     return out
 
 
+#: supports that agree to this many significant bits (relative 1.5e-11) are ties in the order:
+#: confidences equal in exact arithmetic come out of sums in different orders a few units in
+#: the last place apart, and rows written with the same support were otherwise ordered by that
+TIE_BITS = 36
+
+
+def _significant(v: np.ndarray) -> np.ndarray:
+    """``v`` (finite) rounded to :data:`TIE_BITS` significant bits."""
+    m, e = np.frexp(v)
+    return np.ldexp(np.round(m * 2.0 ** TIE_BITS), e - TIE_BITS)
+
+
 def transferred_edges(
     edges_a: npt.ArrayLike, edges_b: npt.ArrayLike, adj_a: tuple, adj_b: tuple, matched: npt.ArrayLike,
     confidence: npt.ArrayLike, score: npt.ArrayLike, n1: int, n2: int, *, directed: bool = False,
@@ -228,9 +240,10 @@ def transferred_edges(
     Returns
     -------
     Transfer
-        Ordered by support (highest first), then conserved triangles (more first: among rows of
-        equal support, more evidence), then the smaller diffusion score of the two pairs (highest
-        first), then direction, a1, a2, b1, b2 (ascending).
+        Ordered by support (highest first; supports equal to :data:`TIE_BITS` significant bits
+        are equal, so that two supports apart by rounding alone tie), then conserved triangles
+        (more first: among rows of equal support, more evidence), then the smaller diffusion
+        score of the two pairs (highest first), then direction, a1, a2, b1, b2 (ascending).
 
     Examples
     --------
@@ -263,7 +276,7 @@ def transferred_edges(
     common[ab] = common_neighbours(*adj_b, b1[ab], b2[ab], keep=g >= 0)
     common[~ab] = common_neighbours(*adj_a, a1[~ab], a2[~ab], keep=f >= 0)
     support = c1 * c2 * (1 + tri)
-    order = np.lexsort((b2, b1, a2, a1, direction, -np.minimum(x1, x2), -tri, -support))
+    order = np.lexsort((b2, b1, a2, a1, direction, -np.minimum(x1, x2), -tri, -_significant(support)))
     return Transfer(direction[order], a1[order], a2[order], b1[order], b2[order],
                     np.concatenate([rows_a, rows_b])[order], c1[order], c2[order], x1[order], x2[order],
                     tri[order], common[order], support[order])

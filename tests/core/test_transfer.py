@@ -164,3 +164,24 @@ def test_equal_support_goes_to_more_conserved_triangles_first():
     t = _run(ea, eb, matched, np.zeros(5), np.array([0.1, 0.1, 0.1, 0.5, 0.5]), 5, 5)
     assert t.support.tolist() == [0.0, 0.0] and t.triangles.tolist() == [1, 0]
     assert list(zip(t.a1.tolist(), t.a2.tolist())) == [(0, 1), (3, 4)]
+
+
+def test_supports_apart_by_rounding_alone_tie():
+    # Found by recomputing the outputs independently: two rows written with the same support
+    # (0.01424668293) were ordered by a difference of 1e-17 between confidences equal in exact
+    # arithmetic, against the documented tie rule (then the smaller diffusion score, higher
+    # first). Hand-worked: A's edges 0-1 and 2-3 are carried to an edgeless B (no triangles); the
+    # supports are 0.1 * 0.3 and 0.3 * nextafter(0.1), one unit in the last place apart; the
+    # first row has the higher smaller score, so it comes first.
+    ea = np.array([[0, 1], [2, 3]])
+    eb = np.empty((0, 2), dtype=np.int64)
+    matched = np.array([[0, 0], [1, 1], [2, 2], [3, 3]])
+    conf = np.array([0.1, 0.3, 0.3, np.nextafter(0.1, 1.0)])
+    score = np.array([0.5, 0.5, 0.2, 0.2])
+    t = transferred_edges(ea, eb, adjacency(ea, 4)[:2], adjacency(eb, 4)[:2], matched, conf, score, 4, 4)
+    assert t.support[1] > t.support[0]  # not equal in floating point...
+    assert t.a1.tolist() == [0, 2]  # ...but a tie, broken by the smaller diffusion score
+    # supports apart by more than rounding keep their order
+    conf[3] = 0.1 * (1 + 1e-9)
+    t = transferred_edges(ea, eb, adjacency(ea, 4)[:2], adjacency(eb, 4)[:2], matched, conf, score, 4, 4)
+    assert t.a1.tolist() == [2, 0]
