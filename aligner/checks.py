@@ -33,6 +33,13 @@ def bad_parameter(name: str, must: str, value: object) -> InvalidParameterError:
     return InvalidParameterError(f"{name} must be {must}; got {value!r}", param=name)
 
 
+def check_callable(value: object, name: str):
+    """Return ``value`` (None or a callable) after checking it is one of those."""
+    if value is not None and not callable(value):
+        raise bad_parameter(name, "a function (or None)", value)
+    return value
+
+
 def interval_text(low: float | None, high: float | None, closed: str = "both") -> str:
     """``[0, 1)``-style text of an interval; ``closed`` says which ends belong to it."""
     left = "[" if closed in ("both", "left") and low is not None else "("
@@ -94,6 +101,7 @@ def check_int(value: object, name: str, *, low: int | None = None, high: int | N
 def check_choice(value: object, name: str, options: Iterable[str]) -> str:
     """Return ``value`` after checking it is one of ``options``."""
     opts = list(options)
-    if value not in opts:
+    # a str only: `in` compares with ==, which a one-element array answers element-wise (truthy)
+    if not isinstance(value, str) or value not in opts:
         raise bad_parameter(name, "one of " + ", ".join(opts), value)
     return str(value)

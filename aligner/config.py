@@ -130,7 +130,19 @@ def option(default: Any, help: str, *, flag: str, group: str, kind: str, **spec:
     return field(default=default, metadata={"spec": Spec(kind=kind, help=help, flag=flag, group=group, **spec)})
 
 
-class _Config:
+class _Named(type):
+    """Makes a configuration class refuse an unknown option by name, with the list of known ones
+    (the dataclass's own constructor would raise a bare TypeError), and options not given by name."""
+
+    def __call__(cls, *args, **options):
+        if args:
+            raise InvalidParameterError(f"{cls.__name__} takes its options by name, such as "
+                                        f"{cls.__name__}({next(iter(specs(cls)))}=...)", param=cls.__name__)
+        _refuse_unknown(cls, options)
+        return super().__call__(**options)
+
+
+class _Config(metaclass=_Named):
     """Checks every field against its declaration; shared by the configuration classes."""
 
     def __post_init__(self) -> None:

@@ -27,8 +27,8 @@ import numpy.typing as npt
 import pandas as pd
 
 from aligner import __version__
-from aligner.checks import bad_parameter, warn
-from aligner.config import AlignConfig, describe, from_options, with_options
+from aligner.checks import bad_parameter, check_callable, warn
+from aligner.config import AlignConfig, describe, from_options, specs, with_options
 from aligner.core.arrays import unique
 from aligner.core.candidates import CandidateSet, build_candidates
 from aligner.core.ambiguity import Ambiguity, find_ambiguity
@@ -79,7 +79,7 @@ class Clock:
     reset_peaks: bool = False
 
     def __init__(self, progress: Callable[[str], None] | None = None):
-        self.progress = progress or (lambda stage: None)
+        self.progress = check_callable(progress, "progress") or (lambda stage: None)
         self.timings: dict[str, float] = {}
         self.memory: dict[str, float] = {}
         self.per_stage = False
@@ -162,8 +162,10 @@ def _check_weighted(net_a: Network, net_b: Network, weighted: bool, model: str =
     walk divides each entry w_A w_B by such a product: inf / inf would be NaN)."""
     for net, side in ((net_a, "A"), (net_b, "B")):
         if weighted and net.weights is None:
-            raise InvalidParameterError(f"weighted needs edge weights, but network {side} ({net.source}) has no "
-                                        "third column of weights", param="weighted")
+            lacks = ("edges without a 'weight' attribute (every edge needs one)" if net.source.startswith("<networkx")
+                     else "third column of weights")
+            raise InvalidParameterError(f"weighted needs edge weights, but network {side} ({net.source}) has "
+                                        f"{'no ' if lacks.startswith('third') else ''}{lacks}", param="weighted")
     if weighted and model == "product" and net_a.n and net_b.n:
         with np.errstate(over="ignore"):
             top = float(np.max(net_a.strength(directed, True))) * float(np.max(net_b.strength(directed, True)))
@@ -984,6 +986,7 @@ def align(network_a, network_b, prior=None, *, seeds=None, truth=None, config: A
           permutation_progress: Callable[[int, int], None] | None = None, **options: Any) -> AlignmentResult:
     """Align two networks: a one-to-one map between their nodes."""
     clock = Clock(progress)
+    check_callable(permutation_progress, "permutation_progress")
     problem = prepare(network_a, network_b, prior, seeds=seeds, truth=truth, config=config, clock=clock, **options)
     return run_stages(problem, clock, permutation_progress=permutation_progress)
 
@@ -1039,15 +1042,23 @@ align.__doc__ += f"""
     """
 
 
-@with_options(AlignConfig, names=("directed", "weighted", "delimiter", "header"))
+#: the options :func:`score` uses: how the inputs are read and what the scores count
+SCORE_OPTIONS = ("directed", "weighted", "weight_model", "delimiter", "header")
+
+
+@with_options(AlignConfig, names=SCORE_OPTIONS)
 def score(network_a, network_b, alignment, *, truth=None, config: AlignConfig | None = None,
           **options: Any) -> tuple[Scores, pd.DataFrame]:
     """Score an existing alignment (a table whose first two columns are node_a, node_b).
 
     Returns the scores and the conserved edges. Raises InputFormatError when a node is in two
-    pairs (the map must be one-to-one). Options (``directed``, ``weighted``, ``delimiter``,
-    ``header``) as for :func:`align`.
+    pairs (the map must be one-to-one). Options (``directed``, ``weighted``, ``weight_model``,
+    ``delimiter``, ``header``) as for :func:`align`; the others, which no scoring uses, are refused.
     """
+    unused = sorted(set(options) & set(specs(AlignConfig)) - set(SCORE_OPTIONS))
+    if unused:
+        raise InvalidParameterError(f"{unused[0]} is an option of the alignment, which score does not run; score "
+                                    f"takes {', '.join(SCORE_OPTIONS)}", param=unused[0])
     cfg = from_options(AlignConfig, config, options)
     inputs = read_inputs(network_a, network_b, None, truth=truth, config=cfg)
     tab = as_alignment(alignment, inputs.network_a, inputs.network_b, cfg.delimiter, cfg.header)

@@ -336,3 +336,55 @@ def test_a_run_lets_go_of_its_caches_and_they_are_made_again_alike(directed):
     assert "_degree" not in prod.__dict__ and "ends" not in cand.__dict__
     assert np.array_equal(prod.degree, np.diff(prod.indptr))
     assert np.array_equal(cand.ends[0], cand.pairs[:, 0]) and np.array_equal(cand.ends[1], cand.pairs[:, 1])
+
+
+def test_integer_nodes_of_a_graph_are_written_in_the_same_order_as_from_a_file(tmp_path):
+    # Found by fuzzing the Python API: a networkx graph with integer nodes wrote alignment.tsv in
+    # numeric order (1, 2, 3, 9, 10), the same network from a file in text order (1, 10, 2, ...).
+    # Reference: the command line's files on the same edges (one network, one order).
+    import networkx as nx
+    from typer.testing import CliRunner
+
+    from aligner.cli.app import app
+    from aligner.io.outputs import write_outputs
+
+    g = nx.Graph([(1, 2), (2, 3), (3, 9), (9, 10), (10, 11), (11, 1), (2, 10)])
+    pd.DataFrame(list(g.edges())).to_csv(tmp_path / "g.tsv", sep="\t", index=False, header=False)
+    prior = pd.DataFrame({"a": [str(v) for v in g], "b": [str(v) for v in g], "s": 1.0})
+    prior.to_csv(tmp_path / "p.tsv", sep="\t", index=False, header=False)
+    write_outputs(tmp_path / "api", aligner.align(g, g, prior))
+    got = CliRunner().invoke(app, ["align", str(tmp_path / "g.tsv"), str(tmp_path / "g.tsv"), "-p",
+                                   str(tmp_path / "p.tsv"), "-o", str(tmp_path / "cli"), "-q"])
+    assert got.exit_code == 0, got.output
+    for name in ("alignment.tsv", "conserved_edges.tsv", "transferred_edges.tsv"):
+        assert (tmp_path / "api" / name).read_bytes() == (tmp_path / "cli" / name).read_bytes(), name
+
+
+def test_api_arguments_of_the_wrong_kind_are_refused_by_name():
+    # Found by fuzzing the Python API; common practice: a bad argument is refused before any work
+    # with an error naming it, not a bare TypeError from inside. A one-element array passed the
+    # choice check as the text "['product']"; AlignConfig(alpah=...) was the dataclass's own
+    # TypeError; progress=5 failed inside the pipeline; sweep(alphas=0.5) iterated a float; score
+    # took and ignored alignment options such as alpha.
+    from aligner.config import AlignConfig
+
+    a, b, prior, truth = _relabelled(20, seed=8)
+    with pytest.raises(InvalidParameterError, match=r"^normalization must be one of .*; got array") as info:
+        AlignConfig(normalization=np.array(["product"]))
+    assert info.value.param == "normalization"
+    with pytest.raises(InvalidParameterError, match=r"^unknown option 'alpah'; the options are delimiter, "):
+        AlignConfig(alpah=0.5)
+    with pytest.raises(InvalidParameterError, match=r"^AlignConfig takes its options by name"):
+        AlignConfig(0.5)
+    for kw in ({"progress": 5}, {"permutation_progress": "x"}):
+        with pytest.raises(InvalidParameterError, match=r"must be a function \(or None\); got") as info:
+            aligner.align(a, b, prior, **kw)
+        assert info.value.param == next(iter(kw))
+    one = aligner.sweep(a, b, prior, alphas=0.5)  # one alpha is a sweep of one row
+    assert one.table["alpha"].tolist() == [0.5]
+    with pytest.raises(InvalidParameterError, match=r"^alphas must be numbers in \[0, 1\)"):
+        aligner.sweep(a, b, prior, alphas="0.5")
+    res = aligner.align(a, b, prior)
+    with pytest.raises(InvalidParameterError, match=r"^alpha is an option of the alignment, which score does not run"):
+        aligner.score(a, b, res.pairs[["node_a", "node_b"]], alpha=0.3)
+    assert aligner.score(a, b, res.pairs[["node_a", "node_b"]], directed=False)[0].ec == res.scores.ec

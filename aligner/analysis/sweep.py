@@ -12,7 +12,9 @@ Albrecht, Irwin & Raghavan (2011).
 
 from __future__ import annotations
 
+import numbers
 import time
+from collections.abc import Iterable
 from dataclasses import dataclass
 from typing import Any, Callable, Sequence
 
@@ -99,6 +101,11 @@ def knee_index(x: Sequence[float], y: Sequence[float]) -> int | None:
 
 
 def _check_alphas(alphas) -> list[float]:
+    if isinstance(alphas, numbers.Real):  # one alpha
+        alphas = [alphas]
+    if isinstance(alphas, (str, bytes)) or not isinstance(alphas, Iterable):
+        raise InvalidParameterError(f"alphas must be numbers in [0, 1), such as [0.5, 0.9]; got {alphas!r}",
+                                    param="alphas")
     vals = sorted({check_real(a, "alphas", low=0.0, high=1.0, closed="left") for a in alphas})
     if not vals:
         raise InvalidParameterError("alphas must hold at least one value in [0, 1); got none", param="alphas")

@@ -22,7 +22,8 @@ from aligner.checks import warn
 from aligner.core.network import Network, network_from_edges
 from aligner.errors import InputFormatError, InvalidParameterError, NoCandidatesError
 from aligner.core.identifiers import PairTable, first_shared_node, lookup, pairs_from_columns
-from aligner.io.readers import FIELD_BLANKS, Columns, Table, network_from_table, prior_pick, read_network, read_table
+from aligner.io.readers import (FIELD_BLANKS, Columns, Table, check_weight_sums, network_from_table, prior_pick,
+                                read_network, read_table)
 from aligner.core.prior import PriorTable, prior_from_columns
 
 __all__ = ["as_table", "as_network", "as_prior", "as_pairs", "as_alignment", "known_pairs", "prior_notes"]
@@ -180,15 +181,39 @@ def _from_networkx(graph, *, name: str, directed: bool) -> Network:
     e = np.array([(pos[key(u)], pos[key(v)]) for u, v in graph.edges()], dtype=np.int64).reshape(-1, 2)
     w = None
     if graph.number_of_edges() and all("weight" in d for _, _, d in graph.edges(data=True)):
-        w = np.array([float(d["weight"]) for _, _, d in graph.edges(data=True)])
-    net = network_from_edges(names, e[:, 0], e[:, 1], w, source=f"<networkx {name}>", directed=directed)
+        w = _graph_weights(graph, name)
+    source = f"<networkx {name}>"
+    with np.errstate(over="ignore"):  # a total past the largest float is refused below
+        net = network_from_edges(names, e[:, 0], e[:, 1], w, source=source, directed=directed)
+    check_weight_sums(net, source)
     if all(isinstance(v, str) for v in own.values()):
         return net
     # the graph's own node objects (integers, say) come back in the output tables; numpy infers
-    # one dtype for them when it can (int64 for integers), else keeps objects
-    labels = np.array([own[s] for s in names] or [], dtype=None if len({type(v) for v in own.values()}) == 1
-                      else object)
+    # one dtype for them when it can (int64 for integers), else keeps objects, one per node (a
+    # tuple, as a grid graph's nodes are, stays one object, not a row of a 2-D array)
+    values = [own[s] for s in names]
+    labels = np.array(values or [], dtype=None if len({type(v) for v in values}) == 1 else object)
+    if labels.ndim != 1:
+        labels = np.empty(len(values), dtype=object)
+        for i, v in enumerate(values):
+            labels[i] = v
     return dataclasses.replace(net, labels=labels)
+
+
+def _graph_weights(graph, name: str) -> np.ndarray:
+    """The ``weight`` attribute of every edge of a networkx graph, in edge order, each a finite
+    number >= 0 (as a table's weight column must hold), else an error naming the edge."""
+    out = np.empty(graph.number_of_edges())
+    for k, (u, v, d) in enumerate(graph.edges(data=True)):
+        value = d["weight"]
+        try:
+            out[k] = float(value) if not isinstance(value, (str, bytes, bool)) else np.nan
+        except (TypeError, ValueError):
+            out[k] = np.nan
+        if not np.isfinite(out[k]) or out[k] < 0:
+            raise InvalidParameterError(f"{name}: the edge {u!r} - {v!r} has the weight {value!r}; a weight must be a "
+                                        "finite number >= 0", param=name)
+    return out
 
 
 def as_prior(obj, net_a: Network, net_b: Network, kind: str, delimiter, header,

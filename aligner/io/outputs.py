@@ -122,6 +122,15 @@ def _field(col: pd.Series, float_format, na_rep: str) -> tsv.Field | None:
     return None if text is None or tsv.quoted(text) else text
 
 
+def _as_text(col: pd.Series) -> pd.Series:
+    """A sort key ordering a column of node names as text (code points), whatever the names'
+    type (a networkx graph's integers, say): the order in which the readers number nodes, and
+    so the order the same network gives from a file or a table of strings."""
+    if pd.api.types.infer_dtype(col, skipna=True) in ("string", "empty"):
+        return col
+    return col.map(str)
+
+
 def _in_order(df: pd.DataFrame, keys) -> bool:
     """Whether ``df`` is already sorted by the text columns ``keys`` (so a stable sort keeps it)."""
     fields = [_text_of(df[k]) for k in keys]
@@ -138,7 +147,7 @@ def _table_buffer(df: pd.DataFrame, *, float_format="%.10g", na_rep: str = "", s
     of it: written to a file as it is, not copied into ``bytes`` first)."""
     small = len(df) < _COMPILED_FROM_ROWS
     if sort_by is not None and (small or not _in_order(df, sort_by)):
-        df = df.sort_values(list(sort_by), kind="stable")
+        df = df.sort_values(list(sort_by), kind="stable", key=_as_text)
     fields = None
     if not small and df.shape[1] >= 2 and not isinstance(df.columns, pd.MultiIndex):
         fields = [_field(col, float_format, na_rep) for _, col in df.items()]
@@ -475,7 +484,7 @@ def _parquet_bytes(df: pd.DataFrame, sort_by=None) -> bytes:
     import pyarrow.parquet as pq
 
     if sort_by is not None and not _in_order(df, sort_by):
-        df = df.sort_values(list(sort_by), kind="stable")
+        df = df.sort_values(list(sort_by), kind="stable", key=_as_text)
     buf = io.BytesIO()
     pq.write_table(pa.Table.from_pandas(df, preserve_index=False), buf)
     return buf.getvalue()

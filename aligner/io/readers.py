@@ -451,7 +451,8 @@ class Table:
             which = "the column" if self.pick is None else f"column {self.picked[col] + 1}, picked by " + (
                 self.pick.named if self.first_line is not None else f"{self.pick.keyword}={self.pick.text!r}") + ","
             path, line = self.origin(row)
-            raise InputFormatError(f"{where}the {label} {c[row]!r} is not a finite number; {which} must hold "
+            shown = c[row].item() if isinstance(c[row], np.generic) else c[row]  # nan, not np.float64(nan)
+            raise InputFormatError(f"{where}the {label} {shown!r} is not a finite number; {which} must hold "
                                    "numbers such as 0.5 or 1e-3", path=path, line=line)
         return values
 

@@ -173,3 +173,33 @@ def test_blanks_around_a_node_of_a_networkx_graph_are_trimmed_as_in_a_file(tmp_p
         as_network(nx.Graph([("n0", " n0"), ("n0", "n1")]))
     with pytest.raises(InvalidParameterError, match="empty or only spaces"):
         as_network(nx.Graph([("  ", "n1")]))
+
+
+def test_a_networkx_graph_with_tuple_nodes_aligns_and_keeps_its_nodes():
+    # Found by fuzzing the Python API: a grid graph's nodes are tuples, which became a 2-D array
+    # of labels, and the run failed in its scoring after all the work. Reference: networkx's own
+    # node objects (each tuple comes back as one node), and the identity map of a graph onto itself.
+    import aligner
+
+    g = nx.grid_2d_graph(4, 4)
+    net = as_network(g)
+    assert net.labels.shape == (16,) and set(net.labels) == set(g.nodes())
+    prior = pd.DataFrame({"a": [str(v) for v in g], "b": [str(v) for v in g], "s": 1.0})
+    res = aligner.align(g, g, prior)
+    assert set(res.pairs["node_a"]) == set(g.nodes())
+    assert res.scores.conserved_edges == g.number_of_edges()  # 16 pairs, each its own: every edge kept
+
+
+@pytest.mark.parametrize("weight", [-1.0, float("nan"), float("inf"), None, "heavy"])
+def test_networkx_edge_weights_are_checked_as_a_table_s_are(weight):
+    # Found by fuzzing the Python API: a graph's weights skipped the checks a table's weight
+    # column gets (finite numbers >= 0: docs/formats.md), so NaN gave conserved_weight nan, and
+    # None or text a bare TypeError. Reference: the same weights in a DataFrame are refused too.
+    g = nx.cycle_graph(5)
+    nx.set_edge_attributes(g, 1.0, "weight")
+    g[0][1]["weight"] = weight
+    with pytest.raises(InvalidParameterError, match=r"the edge 0 - 1 has the weight .* must be a finite number >= 0"):
+        as_network(g)
+    frame = nx.to_pandas_edgelist(g)[["source", "target", "weight"]]
+    with pytest.raises(InputFormatError):
+        as_network(frame)
