@@ -20,6 +20,7 @@ import shutil
 import signal
 import stat
 import tempfile
+import threading
 from contextlib import contextmanager, suppress
 from pathlib import Path
 from typing import Iterable, Mapping
@@ -243,16 +244,37 @@ def write_text_atomic(path: str | os.PathLike, data: str | bytes) -> Path:
 
 @contextmanager
 def _signals_deferred():
-    """Hold back SIGINT, SIGTERM and SIGHUP (delivered on exit) around a few renames."""
-    sigs = {getattr(signal, s) for s in ("SIGINT", "SIGTERM", "SIGHUP") if hasattr(signal, s)}
+    """Hold back SIGINT, SIGTERM and SIGHUP around a few renames, and deliver one that came
+    meanwhile once they are done.
+
+    In the main thread the signals' Python handlers are swapped for one that only notes the
+    signal: a process-wide signal may reach any of the process's threads (numba's among them),
+    whose C handler then has the main thread run the Python handler, so masking the signals in
+    the main thread alone (``pthread_sigmask``) did not hold them back. Elsewhere (handlers can be
+    set in the main thread only) the signals are masked in the calling thread, as before."""
+    sigs = [getattr(signal, s) for s in ("SIGINT", "SIGTERM", "SIGHUP") if hasattr(signal, s)]
+    # (a handler not set from Python, which getsignal gives as None, could not be put back)
+    if threading.current_thread() is threading.main_thread() and all(signal.getsignal(s) is not None for s in sigs):
+        came: list[int] = []
+        old = {}
+        try:
+            for sig in sigs:
+                old[sig] = signal.signal(sig, lambda signum, frame: came.append(signum))
+            yield
+        finally:
+            for sig, handler in old.items():
+                signal.signal(sig, handler)
+            if came:  # the renames are done (or failed): the signal now does what it would have done
+                signal.raise_signal(came[0])
+        return
     if not hasattr(signal, "pthread_sigmask"):  # pragma: no cover - not POSIX
         yield
         return
-    old = signal.pthread_sigmask(signal.SIG_BLOCK, sigs)
+    mask = signal.pthread_sigmask(signal.SIG_BLOCK, set(sigs))
     try:
         yield
     finally:
-        signal.pthread_sigmask(signal.SIG_SETMASK, old)
+        signal.pthread_sigmask(signal.SIG_SETMASK, mask)
 
 
 def _fsync_dir(path: Path) -> None:
