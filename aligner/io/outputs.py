@@ -210,16 +210,34 @@ def _as_bytes(data: str | bytes | memoryview) -> bytes | memoryview:
 
 # --------------------------------------------------------------------------- one file
 
+def _remove_dead_parts(path: Path) -> None:
+    """Remove the temporary files that writers of ``path`` killed outright (SIGKILL, a power cut)
+    left beside it: ``.<name>.<pid>-<random>.part`` of a process no longer running."""
+    try:
+        entries = os.listdir(path.parent)
+    except OSError:
+        return
+    head = f".{path.name}."
+    for entry in entries:
+        if entry.startswith(head) and entry.endswith(".part"):
+            pid = entry[len(head):].split("-", 1)[0]
+            if _dead(pid):
+                with suppress(OSError):
+                    os.unlink(path.parent / entry)
+
+
 def write_text_atomic(path: str | os.PathLike, data: str | bytes) -> Path:
     """Write ``data`` (text as UTF-8, or bytes) to ``path`` atomically; return the path.
 
     The data goes to a temporary file beside ``path`` (same directory, so the same file
     system), is flushed and fsynced, and the file is renamed into place: a reader, or a run
     killed at any moment, sees the old file or the new one, never a part (``rename`` is
-    atomic on POSIX). The temporary file is removed if anything fails.
+    atomic on POSIX). The temporary file is removed if anything fails, and one that a writer
+    killed outright left (its name holds the writer's process id) by the next write of ``path``.
     """
     path = Path(path)
-    fd, tmp = tempfile.mkstemp(prefix=f".{path.name}.", suffix=".part", dir=path.parent)
+    _remove_dead_parts(path)
+    fd, tmp = tempfile.mkstemp(prefix=f".{path.name}.{os.getpid()}-", suffix=".part", dir=path.parent)
     try:
         with os.fdopen(fd, "wb") as fh:
             # mkstemp makes the file private (0600); give it the mode a plain open() would (or

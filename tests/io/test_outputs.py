@@ -249,3 +249,24 @@ def test_a_signal_that_reaches_another_thread_waits_for_the_renames():
     stop.set()
     assert done == ["renamed"]
     assert signal.getsignal(signal.SIGINT) is signal.default_int_handler  # put back
+
+
+def test_a_part_file_a_killed_writer_left_goes_with_the_next_write(tmp_path):
+    # Found by killing runs: write_text_atomic's temporary file, left by a writer killed outright
+    # (SIGKILL), stayed beside the output for ever (77 MB beside a prior table). Common practice
+    # (as for the staging folders): the next write removes the leftovers of writers no longer
+    # running, and no one else's.
+    import subprocess
+    import sys
+
+    gone = subprocess.run([sys.executable, "-c", "import os; print(os.getpid())"], capture_output=True,
+                          text=True, check=True).stdout.strip()  # a process id no longer running
+    dead = tmp_path / f".prior.tsv.{gone}-abc123.part"
+    alive = tmp_path / f".prior.tsv.{os.getpid()}-def456.part"  # a writer still running (this one)
+    other = tmp_path / f".other.tsv.{gone}-abc123.part"
+    for p in (dead, alive, other):
+        p.write_text("partial")
+    write_text_atomic(tmp_path / "prior.tsv", "node_a\tnode_b\tscore\n")
+    assert not dead.exists() and alive.exists() and other.exists()
+    assert (tmp_path / "prior.tsv").read_text() == "node_a\tnode_b\tscore\n"
+    assert sorted(p.name for p in tmp_path.iterdir()) == sorted([alive.name, other.name, "prior.tsv"])
