@@ -593,5 +593,9 @@ def build_report(outdir, *, network_a=None, network_b=None, delimiter: str | Non
                 _refine_section(run.summary), _ambiguity_section(run.summary, run.pairs),
                 _transfer_section(run.transferred)]
     path = run.out / REPORT_FILE
-    write_text_atomic(path, _page(run.out, run.summary.get("version", ""), [s for s in sections if s]))
+    page = _page(run.out, run.summary.get("version", ""), [s for s in sections if s])
+    try:
+        write_text_atomic(path, page)
+    except OSError as exc:  # a read-only or full file system: one line and exit 2, as the other writers
+        raise InvalidParameterError(f"The report '{path}' cannot be written: {exc.strerror or exc}.") from None
     return path

@@ -650,3 +650,23 @@ def test_a_large_run_embeds_its_least_confident_pairs(run_dir):
     page = explorer.explorer_section(part, "")
     assert f"The {cap} least confident of {len(run.pairs):,} matched pairs" in page
     assert "All matched pairs" in explorer.explorer_section(full, "")
+
+
+def test_a_report_that_cannot_be_written_is_one_line_and_exit_2(run_dir, tmp_path, monkeypatch):
+    # Found by running on a read-only and a full file system: the report printed a traceback and
+    # exited 1 where align, sweep and transfer give one line and exit 2 (docs/errors.md).
+    import errno
+
+    import aligner.io.outputs as outputs
+
+    def refuse(path, data):
+        raise OSError(errno.EROFS, "Read-only file system", str(path))
+
+    monkeypatch.setattr(outputs, "write_text_atomic", refuse)
+    other = tmp_path / "copy"
+    shutil.copytree(run_dir, other)
+    (other / "report.html").unlink(missing_ok=True)
+    r = CliRunner().invoke(app, ["report", str(other), "-q"])
+    assert r.exit_code == 2, r.output
+    assert "cannot be written: Read-only file system" in r.output and "Traceback" not in r.output
+    assert not (other / "report.html").exists()
