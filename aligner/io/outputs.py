@@ -50,11 +50,11 @@ def _read_umask() -> int:
     os.umask(mask)
     return mask
 
-__all__ = ["OUTPUT_FILES", "PARQUET_FILES", "RUN_FILES", "REPORT_FILE", "SWEEP_TABLE", "PRIOR_COLUMNS", "TRANSFER_TABLE",
-           "TRANSFER_SELECTION", "check_outdir",
-           "write_outputs", "write_sweep_outputs", "write_prior_table", "check_output_file", "read_transferred",
-           "write_transfer_selection", "write_text_atomic", "publish_outputs", "recover_interrupted", "table_text",
-           "json_text", "read_run_table", "read_summary", "damaged_output", "RERUN_ALIGN", "RERUN_SWEEP"]
+__all__ = ["OUTPUT_FILES", "PARQUET_FILES", "RUN_FILES", "REPORT_FILE", "SWEEP_TABLE", "PRIOR_COLUMNS",
+           "TRANSFER_TABLE", "TRANSFER_SELECTION", "check_outdir", "write_outputs", "write_sweep_outputs",
+           "write_prior_table", "check_output_file", "read_transferred", "write_transfer_selection",
+           "write_text_atomic", "publish_outputs", "recover_interrupted", "table_text", "json_text",
+           "read_run_table", "read_summary", "damaged_output", "RERUN_ALIGN", "RERUN_SWEEP"]
 
 #: The table of interactions carried across the alignment, one of :data:`OUTPUT_FILES`.
 TRANSFER_TABLE = "transferred_edges.tsv"
@@ -596,12 +596,18 @@ def write_sweep_outputs(outdir: str | os.PathLike, table: pd.DataFrame, figures:
     return _publish(out, files)
 
 
-def check_output_file(path: str | os.PathLike, *, force: bool = False) -> Path:
-    """Refuse an output file path before any work: a directory, an existing file (without
+def check_output_file(path: str | os.PathLike, *, force: bool = False, inputs=()) -> Path:
+    """Refuse an output file path before any work: a directory, one of the command's ``inputs``
+    (even with ``force``, which replaces outputs, not inputs), an existing file (without
     ``force``), or a path in a directory that does not exist. Returns it as a Path."""
     path = Path(path)
     if path.is_dir():
         raise InvalidParameterError(f"The output '{path}' is a directory; give a file path with --out.")
+    for given in inputs:
+        with suppress(OSError):  # an input that is no file (a pattern, gone) cannot be the output
+            if path.is_file() and os.path.samefile(path, given):
+                raise InvalidParameterError(f"The output '{path}' is one of the inputs ({given}); choose another "
+                                            "path with --out.")
     if path.exists() and not force:
         raise InvalidParameterError(f"The output '{path}' already exists; choose another path with --out or pass "
                                     "--force (force=True in Python) to replace it.")

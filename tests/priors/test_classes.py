@@ -79,3 +79,21 @@ def test_header_lines_with_a_suffixed_node_word(tmp_path, head):
     b.write_text(f"{head}\ny1\tAVB\n")
     assert _pairs(prior_from_classes(str(a), str(b))) == [("x1", "y1")]
     assert read_classes(a)["node"].tolist() == ["x1", "x2"]
+
+
+def test_an_output_that_is_an_input_is_refused_even_with_force(tmp_path):
+    # Found by testing the outputs: `prior-from-classes A B -o A --force` (and prior-from-labels)
+    # replaced the input with the prior; --force replaces earlier outputs, not inputs (common
+    # practice: exit 2, the input untouched), as align refuses -o naming an input file.
+    from typer.testing import CliRunner
+
+    from aligner.cli.app import app
+
+    ca, cb = tmp_path / "ca.tsv", tmp_path / "cb.tsv"
+    ca.write_text("node\tclass\na1\tx\na2\ty\n")
+    cb.write_text("node\tclass\nb1\tx\nb2\ty\n")
+    for args in (["prior-from-classes", str(ca), str(cb)], ["prior-from-labels", str(ca), str(cb)]):
+        got = CliRunner().invoke(app, [*args, "-o", str(tmp_path / "." / "ca.tsv"), "--force"])
+        assert got.exit_code == 2, got.output
+        assert "is one of the inputs" in " ".join(got.output.split())
+        assert ca.read_text() == "node\tclass\na1\tx\na2\ty\n"

@@ -29,7 +29,7 @@ def prior_from_classes(classes_a: Classes, classes_b: Classes, output: OutFile, 
     from aligner.io.outputs import check_output_file, write_prior_table
     from aligner.priors.classes import prior_from_classes as build, read_classes
 
-    check_output_file(output, force=force)  # refused before any reading, as prior-from-labels does
+    check_output_file(output, force=force, inputs=(classes_a, classes_b))  # before any reading, as prior-from-labels
     read = {"separator": classes.class_separator, "delimiter": config.delimiter, "header": config.header}
     ca, cb = read_classes(classes_a, **read), read_classes(classes_b, **read)
     table = build(ca, cb, score=classes.score)

@@ -62,7 +62,7 @@ def prior_from_labels(labels_a: Labels, labels_b: Labels, output: OutFile, from_
     from aligner.priors.labels import label_prior
     from aligner.render.console import prior_message
 
-    check_output_file(output, force=force)  # refused before the search, which can take minutes
+    check_output_file(output, force=force, inputs=(labels_a, labels_b))  # before the search, which can take minutes
     with progress(quiet, 5) as bar:  # reading, n-grams, the two searches, writing
         bar.stage("reading")
         la, lb = _labels(labels_a, from_networks, config, labels), _labels(labels_b, from_networks, config, labels)
