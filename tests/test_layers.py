@@ -28,6 +28,7 @@ ALLOWED = {
     "engines": BASE | {"core", "kernels", "io", "pipeline"},
     "render": BASE | {"io", "analysis"},
     "cli": BASE | {"core", "io", "priors", "datasets", "pipeline", "analysis", "render", "engines"},
+    "__main__": {"cli"},  # the command's entry point: it loads the command line, nothing else
 }
 
 

@@ -135,3 +135,24 @@ def test_summary_names_inputs_absolutely_so_report_works_from_elsewhere(tmp_path
     monkeypatch.chdir(tmp_path)
     rep = runner.invoke(app, ["report", str(tmp_path / "out")])
     assert rep.exit_code == 0, rep.output
+
+
+def test_ctrl_c_while_the_command_line_loads_is_one_line_and_130():
+    # Found by interrupting runs: Ctrl-C in the first tenth of a second, while typer and rich are
+    # imported, printed a traceback (docs/errors.md: exit 130, one line). The interrupt is made to
+    # land inside that import, in a separate process, by an import hook.
+    import subprocess
+    import sys
+
+    code = ("import builtins\n"
+            "real = builtins.__import__\n"
+            "def hook(name, *args, **kwargs):\n"
+            "    if name == 'aligner.cli.app':\n"
+            "        raise KeyboardInterrupt\n"
+            "    return real(name, *args, **kwargs)\n"
+            "builtins.__import__ = hook\n"
+            "from aligner.__main__ import main\n"
+            "main()\n")
+    got = subprocess.run([sys.executable, "-c", code, "--version"], capture_output=True, text=True, timeout=120)
+    assert got.returncode == 130, got.stderr
+    assert got.stderr == "interrupted; no output was left half-written\n"
