@@ -457,7 +457,7 @@ def _answer(engine: QueryEngine, name: str, node: int, qcfg: QueryConfig, other_
 
 @with_options(QueryConfig, AlignConfig, names=("side", "top", "tol", "max_pushes", "answer", "max_region_pairs",
                                                "alpha", "top_k", "min_score", "score_kind", "normalization",
-                                               "seed_weight", "delimiter", "header"))
+                                               "seed_weight", "delimiter", "header", "prior_columns"))
 def query(network_a, network_b, prior=None, *, nodes=None, node_file=None, seeds=None,
           config: AlignConfig | None = None, query: QueryConfig | None = None, **options: Any) -> QueryResult:
     """Which nodes of B best correspond to these nodes of A (or the reverse), without a global solve.

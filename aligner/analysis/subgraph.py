@@ -15,9 +15,9 @@ def conserved_ball(cons: pd.DataFrame, cap: int):
 
     Found on integer ids (components by :func:`aligner.core.arrays.components`, then a
     breadth-first search that stops at ``cap`` nodes), so a run with millions of conserved edges
-    costs a few array passes: only the drawn ball becomes a networkx graph. Ties: the largest
-    component whose smallest name comes first, the hub with the largest name, neighbours visited
-    in name order.
+    costs a few array passes: only the drawn ball becomes a networkx graph. Ties: of the
+    components of most nodes, the one with most edges (as the scores' LCCS), then the one whose
+    smallest name comes first; the hub with the largest name, neighbours visited in name order.
     """
     import networkx as nx
 
@@ -33,7 +33,10 @@ def conserved_ball(cons: pd.DataFrame, cap: int):
     u, v = codes[:m], codes[m:]
     label = components(u, v, n)
     sizes = np.bincount(label, minlength=n)
-    big = int(np.argmax(sizes))  # labels are smallest members: ties go to the smallest name
+    edges = np.bincount(label[u], minlength=n)
+    # of the components of most nodes, the one with most edges (the scores' LCCS rule); labels are
+    # smallest members, so argmax leaves the remaining ties to the smallest name
+    big = int(np.argmax(np.where(sizes == sizes.max(), edges, -1)))
     inside = label[u] == big
     u, v = u[inside], v[inside]
     full_n, full_e = int(sizes[big]), len(u)

@@ -35,3 +35,12 @@ def test_conserved_subgraph_is_networkx_ball_of_the_largest_component(seed):
         assert {frozenset(e) for e in sub.edges} == {frozenset(e) for e in comp.subgraph(order[:cap]).edges}
     empty, n0, e0 = conserved_ball(pd.DataFrame({"node_a1": [], "node_a2": []}), 5)
     assert (empty.number_of_nodes(), n0, e0) == (0, 0, 0)
+
+
+def test_the_drawn_component_is_the_scores_largest_common_connected_subgraph():
+    # The scores' LCCS takes, of components of as many nodes, the one with most edges
+    # (aligner.core.scoring.largest_common_component); the drawing must show that one. Hand-worked:
+    # a path a-b-c (names first in order) and a triangle x-y-z: the triangle is drawn.
+    cons = pd.DataFrame([("a", "b"), ("b", "c"), ("x", "y"), ("y", "z"), ("x", "z")], columns=["node_a1", "node_a2"])
+    sub, full_n, full_e = conserved_ball(cons, 10)
+    assert (full_n, full_e) == (3, 3) and set(sub.nodes) == {"x", "y", "z"}

@@ -93,8 +93,8 @@ def run_align(network_a: Path, network_b: Path, prior: Path | None, outdir: Path
 def align(network_a: NetworkA, network_b: NetworkB, outdir: Out, prior: Prior = None, truth: Truth = None,
           seeds: Seeds = None, force: Force = False, quiet: Quiet = False, *, config: AlignConfig,
           engine: EngineConfig, output: OutputConfig):
-    """Align network A to network B; write alignment.tsv, conserved_edges.tsv, transferred_edges.tsv and
-    summary.json to --out."""
+    """Align network A to network B; write alignment.tsv, conserved_edges.tsv, transferred_edges.tsv,
+    summary.json and the run's state.npz (what update starts from; --no-state leaves it out) to --out."""
     run_align(network_a, network_b, prior, outdir, config=config, truth=truth, seeds=seeds, force=force, quiet=quiet,
               engine=engine, output=output)
 
