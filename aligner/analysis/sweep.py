@@ -101,6 +101,8 @@ def knee_index(x: Sequence[float], y: Sequence[float]) -> int | None:
 
 
 def _check_alphas(alphas) -> list[float]:
+    if isinstance(alphas, np.ndarray) and alphas.ndim == 0:
+        alphas = alphas.item()
     if isinstance(alphas, numbers.Real):  # one alpha
         alphas = [alphas]
     if isinstance(alphas, (str, bytes)) or not isinstance(alphas, Iterable):

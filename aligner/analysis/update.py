@@ -133,13 +133,13 @@ def _with_diff(state, side: str, add, remove, cfg: AlignConfig):
                 if isinstance(path, (str, os.PathLike)):
                     table = read_table(path, min_cols=2, max_cols=3, delimiter=cfg.delimiter, header=cfg.header,
                                        what="edge list")
-                    _check_diff_header(table.header, path, None, cfg, ((names, f"network {label}"),))
+                    _check_diff_header(table.header, path, None, cfg, ((names, f"network {label}"),) * 2)
                     net = network_from_table(table, directed=cfg.directed)
                 else:
                     net = as_network(path, name=f"{'removed' if removing else 'added'} edges of {label}",
                                      directed=cfg.directed, delimiter=cfg.delimiter, header=cfg.header)
             except NoRows as empty:  # an empty diff (a feed's quiet day): nothing to add or remove
-                _check_diff_header(empty.header, path, empty.line, cfg, ((names, f"network {label}"),))
+                _check_diff_header(empty.header, path, empty.line, cfg, ((names, f"network {label}"),) * 2)
                 continue
             diffs[removing] = (path, net.names.astype(str), net.scored_edges(cfg.directed)[0].astype(np.int64),
                                net)

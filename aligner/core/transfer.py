@@ -240,8 +240,8 @@ def transferred_edges(
     Returns
     -------
     Transfer
-        Ordered by support (highest first; supports equal to :data:`TIE_BITS` significant bits
-        are equal, so that two supports apart by rounding alone tie), then conserved triangles
+        Ordered by support (highest first; compared rounded to :data:`TIE_BITS` significant bits,
+        so that two supports apart by rounding alone tie), then conserved triangles
         (more first: among rows of equal support, more evidence), then the smaller diffusion
         score of the two pairs (highest first), then direction, a1, a2, b1, b2 (ascending).
 

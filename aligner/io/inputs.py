@@ -207,8 +207,8 @@ def _graph_weights(graph, name: str) -> np.ndarray:
     for k, (u, v, d) in enumerate(graph.edges(data=True)):
         value = d["weight"]
         try:
-            out[k] = float(value) if not isinstance(value, (str, bytes, bool)) else np.nan
-        except (TypeError, ValueError):
+            out[k] = float(value) if not isinstance(value, (str, bytes, bool, np.bool_)) else np.nan
+        except (TypeError, ValueError, OverflowError):
             out[k] = np.nan
         if not np.isfinite(out[k]) or out[k] < 0:
             raise InvalidParameterError(f"{name}: the edge {u!r} - {v!r} has the weight {value!r}; a weight must be a "

@@ -210,6 +210,10 @@ def _as_bytes(data: str | bytes | memoryview) -> bytes | memoryview:
 
 # --------------------------------------------------------------------------- one file
 
+#: what follows ``.<name>.`` in the name of write_text_atomic's temporary file
+_PART = re.compile(r"(\d+)-[a-z0-9_]{8}\.part")
+
+
 def _remove_dead_parts(path: Path) -> None:
     """Remove the temporary files that writers of ``path`` killed outright (SIGKILL, a power cut)
     left beside it: ``.<name>.<pid>-<random>.part`` of a process no longer running."""
@@ -219,11 +223,12 @@ def _remove_dead_parts(path: Path) -> None:
         return
     head = f".{path.name}."
     for entry in entries:
-        if entry.startswith(head) and entry.endswith(".part"):
-            pid = entry[len(head):].split("-", 1)[0]
-            if _dead(pid):
-                with suppress(OSError):
-                    os.unlink(path.parent / entry)
+        # exactly <pid>-<mkstemp's 8 characters>.part after the name: not another file's part whose
+        # name merely starts with this one's (.prior.2024-06-01.tsv.<pid>-....part)
+        ours = _PART.fullmatch(entry[len(head):]) if entry.startswith(head) else None
+        if ours is not None and _dead(ours.group(1)):
+            with suppress(OSError):
+                os.unlink(path.parent / entry)
 
 
 def write_text_atomic(path: str | os.PathLike, data: str | bytes) -> Path:
@@ -271,19 +276,23 @@ def _signals_deferred():
     the main thread alone (``pthread_sigmask``) did not hold them back. Elsewhere (handlers can be
     set in the main thread only) the signals are masked in the calling thread, as before."""
     sigs = [getattr(signal, s) for s in ("SIGINT", "SIGTERM", "SIGHUP") if hasattr(signal, s)]
-    # (a handler not set from Python, which getsignal gives as None, could not be put back)
+    # (a handler not set from Python, which getsignal gives as None, could not be put back; an
+    # ignored signal stays ignored)
     if threading.current_thread() is threading.main_thread() and all(signal.getsignal(s) is not None for s in sigs):
         came: list[int] = []
         old = {}
         try:
             for sig in sigs:
-                old[sig] = signal.signal(sig, lambda signum, frame: came.append(signum))
+                if signal.getsignal(sig) is not signal.SIG_IGN:
+                    old[sig] = signal.signal(sig, lambda signum, frame: came.append(signum))
             yield
         finally:
             for sig, handler in old.items():
                 signal.signal(sig, handler)
-            if came:  # the renames are done (or failed): the signal now does what it would have done
-                signal.raise_signal(came[0])
+            # the renames are done (or failed): each signal that came now does what it would have
+            # done, in the order they came (the first that raises or ends the process ends it)
+            for sig in dict.fromkeys(came):
+                signal.raise_signal(sig)
         return
     if not hasattr(signal, "pthread_sigmask"):  # pragma: no cover - not POSIX
         yield
@@ -364,7 +373,7 @@ def publish_outputs(outdir: str | os.PathLike, files: dict, drop=()) -> None:
                 for name in sorted(files, key=lambda n: n == "summary.json"):
                     os.replace(new / name, out / name)
                 for name in set(drop) - set(files):
-                    with suppress(FileNotFoundError):
+                    if (out / name).is_file():  # a folder of such a name is the user's
                         os.unlink(out / name)
                 os.rmdir(new)
         _fsync_dir(parent if swap else out)
@@ -399,6 +408,7 @@ def _swap_in(new: Path, out: Path, files, drop=()) -> None:
     except OSError:
         os.rename(old, out)
         raise
+    drop = {name for name in drop if (old / name).is_file()}  # a folder of such a name is the user's
     for entry in os.listdir(old):
         if entry not in files and entry not in drop:
             os.rename(old / entry, out / entry)
@@ -561,7 +571,8 @@ def write_outputs(outdir: str | os.PathLike, result, *, force: bool = False,
         files |= dict(zip(PARQUET_FILES, (_parquet_bytes(result.pairs, ("node_a", "node_b")),
                                           _parquet_bytes(result.conserved_edges, ("node_a1", "node_a2")),
                                           _parquet_bytes(result.transferred_edges()))))
-    return _publish(out, files, drop=RUN_FILES)
+    # a run replaced here (its summary.json is there) takes its other files along; else none go
+    return _publish(out, files, drop=RUN_FILES if (out / "summary.json").is_file() else ())
 
 
 def write_sweep_outputs(outdir: str | os.PathLike, table: pd.DataFrame, figures: dict[str, bytes], *,
@@ -603,11 +614,14 @@ def check_output_file(path: str | os.PathLike, *, force: bool = False, inputs=()
     path = Path(path)
     if path.is_dir():
         raise InvalidParameterError(f"The output '{path}' is a directory; give a file path with --out.")
+    from aligner.io.paths import input_files
+
     for given in inputs:
-        with suppress(OSError):  # an input that is no file (a pattern, gone) cannot be the output
-            if path.is_file() and os.path.samefile(path, given):
-                raise InvalidParameterError(f"The output '{path}' is one of the inputs ({given}); choose another "
-                                            "path with --out.")
+        for one in input_files(given) or [given]:  # a pattern's files, each
+            with suppress(OSError):  # an input that is not there cannot be the output
+                if path.is_file() and os.path.samefile(path, one):
+                    raise InvalidParameterError(f"The output '{path}' is one of the inputs ({one}); choose another "
+                                                "path with --out.")
     if path.exists() and not force:
         raise InvalidParameterError(f"The output '{path}' already exists; choose another path with --out or pass "
                                     "--force (force=True in Python) to replace it.")

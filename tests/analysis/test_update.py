@@ -761,12 +761,14 @@ def test_a_diff_without_the_header_line_of_a_header_yes_run_is_refused(tmp_path)
     write_outputs(tmp_path / "run", aligner.align(tmp_path / "a.tsv", tmp_path / "b.tsv", tmp_path / "p.tsv",
                                                   header="yes"))
     (tmp_path / "add.tsv").write_text("a1\ta3\n")  # a header line only, as --header yes reads it
+    (tmp_path / "new.tsv").write_text("a9\ta1\na2\ta4\n")  # a new node first: its second field names a node
     (tmp_path / "two.tsv").write_text("a1\ta3\nb1\tb3\t0.5\n")
-    for option, path in (("--add-a", "add.tsv"), ("--add-prior", "two.tsv")):
+    for option, path in (("--add-a", "add.tsv"), ("--add-a", "new.tsv"), ("--add-prior", "two.tsv")):
         got = runner.invoke(app, ["update", str(tmp_path / "run"), option, str(tmp_path / path), "-o",
                                   str(tmp_path / "out")])
         assert got.exit_code == 2, got.output
         assert "taken for a header line" in got.output and "'a1', a node of network A" in " ".join(got.output.split())
+        assert not (tmp_path / "out").exists()
         assert not (tmp_path / "out").exists()
     (tmp_path / "add.tsv").write_text("source\ttarget\na1\ta3\n")
     upd = update(tmp_path / "run", add_a=tmp_path / "add.tsv")

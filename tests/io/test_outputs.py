@@ -102,6 +102,17 @@ def test_a_run_replaced_takes_the_files_that_describe_it_along(tmp_path):
     assert kept == {*OUTPUT_FILES, SWEEP_TABLE, "mine.txt"} - {"state.npz"}
     assert not kept & {*PARQUET_FILES, REPORT_FILE, TRANSFER_SELECTION, "state.npz"}
     assert not _staging(tmp_path, out)
+    # a folder that held no run (no summary.json) keeps every file of those names, which are the
+    # user's, and a folder named like one is never taken (found by reviewing the change)
+    mine = tmp_path / "mine"
+    mine.mkdir()
+    (mine / REPORT_FILE).write_text("the user's page\n")
+    (mine / PARQUET_FILES[0]).mkdir()
+    write_outputs(mine, res, state=False)
+    assert (mine / REPORT_FILE).read_text() == "the user's page\n" and (mine / PARQUET_FILES[0]).is_dir()
+    (out / PARQUET_FILES[0]).mkdir()  # a replaced run's folder of a dropped name stays too
+    write_outputs(out, res, force=True, state=False)
+    assert (out / PARQUET_FILES[0]).is_dir() and not _staging(tmp_path, out)
 
 
 def test_publish_outputs_failing_midway_changes_nothing(tmp_path):
@@ -261,12 +272,33 @@ def test_a_part_file_a_killed_writer_left_goes_with_the_next_write(tmp_path):
 
     gone = subprocess.run([sys.executable, "-c", "import os; print(os.getpid())"], capture_output=True,
                           text=True, check=True).stdout.strip()  # a process id no longer running
-    dead = tmp_path / f".prior.tsv.{gone}-abc123.part"
-    alive = tmp_path / f".prior.tsv.{os.getpid()}-def456.part"  # a writer still running (this one)
+    dead = tmp_path / f".prior.tsv.{gone}-abcd1234.part"
+    alive = tmp_path / f".prior.tsv.{os.getpid()}-def45678.part"  # a writer still running (this one)
     other = tmp_path / f".other.tsv.{gone}-abc123.part"
-    for p in (dead, alive, other):
+    longer = tmp_path / f".prior.tsv.2024-06-01.tsv.{gone}-abcdefgh.part"  # another file's, whose name starts alike
+    for p in (dead, alive, other, longer):
         p.write_text("partial")
     write_text_atomic(tmp_path / "prior.tsv", "node_a\tnode_b\tscore\n")
-    assert not dead.exists() and alive.exists() and other.exists()
+    assert not dead.exists() and alive.exists() and other.exists() and longer.exists()
     assert (tmp_path / "prior.tsv").read_text() == "node_a\tnode_b\tscore\n"
-    assert sorted(p.name for p in tmp_path.iterdir()) == sorted([alive.name, other.name, "prior.tsv"])
+    assert sorted(p.name for p in tmp_path.iterdir()) == sorted([alive.name, other.name, longer.name, "prior.tsv"])
+
+
+def test_signals_that_came_during_the_renames_each_do_what_they_would_have():
+    # Found by reviewing the change: with SIGINT ignored (a background job) and SIGINT then SIGTERM
+    # arriving during the renames, only the first was delivered afterwards, so SIGTERM was lost and
+    # the process ran on. Common practice: each held signal is delivered once the renames are done
+    # (an ignored one stays ignored). In a separate process, which SIGTERM ends.
+    import subprocess
+    import sys
+
+    code = ("import os, signal\n"
+            "from aligner.io.outputs import _signals_deferred\n"
+            "signal.signal(signal.SIGINT, signal.SIG_IGN)\n"
+            "with _signals_deferred():\n"
+            "    os.kill(os.getpid(), signal.SIGINT)\n"
+            "    os.kill(os.getpid(), signal.SIGTERM)\n"
+            "    print('renamed', flush=True)\n"
+            "print('still running', flush=True)\n")
+    got = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, timeout=120)
+    assert got.returncode == -signal.SIGTERM and got.stdout == "renamed\n", (got.returncode, got.stdout, got.stderr)

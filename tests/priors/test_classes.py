@@ -97,3 +97,10 @@ def test_an_output_that_is_an_input_is_refused_even_with_force(tmp_path):
         assert got.exit_code == 2, got.output
         assert "is one of the inputs" in " ".join(got.output.split())
         assert ca.read_text() == "node\tclass\na1\tx\na2\ty\n"
+    # an output among a pattern's files (found by reviewing the change: samefile of the pattern failed quietly)
+    parts = tmp_path / "parts"
+    parts.mkdir()
+    (parts / "p1.tsv").write_text("node\tclass\na1\tx\n")
+    got = CliRunner().invoke(app, ["prior-from-classes", str(parts / "*.tsv"), str(cb), "-o", str(parts / "p1.tsv"),
+                                   "--force"])
+    assert got.exit_code == 2 and "is one of the inputs" in " ".join(got.output.split()), got.output

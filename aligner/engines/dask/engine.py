@@ -353,7 +353,8 @@ def connect(client=None, *, scheduler: str | None = None, workers: int = LOCAL_W
 
 def align(network_a, network_b, prior=None, *, truth=None, seeds=None, client=None, scheduler: str | None = None,
           workers: int | None = LOCAL_WORKERS, partitions: int | None = None, diffusion_mode: str = "auto",
-          reading: str = "auto", config: AlignConfig | None = None, progress=None, quiet: bool = False, **options: Any) -> AlignmentResult:
+          reading: str = "auto", config: AlignConfig | None = None, progress=None, quiet: bool = False,
+          **options: Any) -> AlignmentResult:
     """Align two networks with the product graph, the diffusion and the matching on a dask cluster.
 
     Parameters
