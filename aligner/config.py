@@ -213,7 +213,8 @@ class AlignConfig(_Config):
         kind="choice", choices=SCORE_KINDS)
     structural: bool = option(
         False, "Add each node's top-k nearest nodes in structural-feature space to the prior's candidates (for a "
-        "weak prior); used alone when there is neither prior nor seeds.", flag="--structural-candidates",
+        "weak prior); without a prior they are the candidates (with seeds, in place of those grown from the "
+        "seeds; the seed pairs are added to them).", flag="--structural-candidates",
         group=CANDIDATES, kind="bool")
     structural_weight: float = option(
         0.5, "With structural candidates and a prior: weight of the structural similarity against the prior's "
