@@ -163,9 +163,9 @@ def _check_weighted(net_a: Network, net_b: Network, weighted: bool, model: str =
     for net, side in ((net_a, "A"), (net_b, "B")):
         if weighted and net.weights is None:
             lacks = ("edges without a 'weight' attribute (every edge needs one)" if net.source.startswith("<networkx")
-                     else "third column of weights")
-            raise InvalidParameterError(f"weighted needs edge weights, but network {side} ({net.source}) has "
-                                        f"{'no ' if lacks.startswith('third') else ''}{lacks}", param="weighted")
+                     else "no third column of weights")
+            raise InvalidParameterError(f"weighted needs edge weights, but network {side} ({net.source}) has {lacks}",
+                                        param="weighted")
     if weighted and model == "product" and net_a.n and net_b.n:
         with np.errstate(over="ignore"):
             top = float(np.max(net_a.strength(directed, True))) * float(np.max(net_b.strength(directed, True)))

@@ -33,7 +33,7 @@ from aligner.core.identifiers import lookup
 from aligner.core.prior import PriorRows
 from aligner.errors import InputFormatError, InvalidParameterError
 from aligner.io.readers import NoRows
-from aligner.io.state import file_digest, held_network, read_state
+from aligner.io.state import file_digest, held_network, holds_network, read_state
 from aligner.pipeline import AlignmentResult, Clock, prepare, run_stages, with_product_graph
 
 __all__ = ["update", "previous_inputs", "FULL_SHARE", "INPUTS"]
@@ -73,7 +73,7 @@ def _inputs(state, given: dict, names=INPUTS, advice: str | None = None) -> dict
         if rec["fingerprint"] is None:
             side = name[-1] if name.startswith("network_") else None
             # an update's own diffed network, unweighted: the state holds it exactly
-            if (side and _state_holds_network(state.meta, side) and rec["source"] == _diff_source(side)) \
+            if (side and holds_network(state.meta, side) and rec["source"] == _diff_source(side)) \
                     or name == "prior":
                 out[name] = _Kept(rec["source"])
                 continue
@@ -127,19 +127,20 @@ def _with_diff(state, side: str, add, remove, cfg: AlignConfig):
     edges = (state.edges_a if side == "a" else state.edges_b).astype(np.int64)
     label = "A" if side == "a" else "B"
     diffs = {}
+    columns = ((names, f"network {label}"),) * 2  # both fields of a diff's first line name nodes of this network
     for path, removing in ((remove, True), (add, False)):
         if path is not None:
             try:
                 if isinstance(path, (str, os.PathLike)):
                     table = read_table(path, min_cols=2, max_cols=3, delimiter=cfg.delimiter, header=cfg.header,
                                        what="edge list")
-                    _check_diff_header(table.header, path, None, cfg, ((names, f"network {label}"),) * 2)
+                    _check_diff_header(table.header, path, None, cfg, columns)
                     net = network_from_table(table, directed=cfg.directed)
                 else:
                     net = as_network(path, name=f"{'removed' if removing else 'added'} edges of {label}",
                                      directed=cfg.directed, delimiter=cfg.delimiter, header=cfg.header)
             except NoRows as empty:  # an empty diff (a feed's quiet day): nothing to add or remove
-                _check_diff_header(empty.header, path, empty.line, cfg, ((names, f"network {label}"),) * 2)
+                _check_diff_header(empty.header, path, empty.line, cfg, columns)
                 continue
             diffs[removing] = (path, net.names.astype(str), net.scored_edges(cfg.directed)[0].astype(np.int64),
                                net)
@@ -282,13 +283,6 @@ def _joined_names(names: np.ndarray, more: list) -> tuple[np.ndarray, np.ndarray
     return np.insert(wide, at, new), np.arange(len(names), dtype=np.int64) + shift
 
 
-def _state_holds_network(meta: dict, side: str) -> bool:
-    """Whether a run's state holds its network of ``side`` exactly (an unweighted one: the state
-    keeps edges, not weights)."""
-    counts = meta.get("networks", {}).get(side)
-    return counts is not None and not counts["weighted"]
-
-
 def _kept_inputs(state, given: dict, files: dict, cfg: AlignConfig, same_names: dict) -> dict:
     """The networks and the prior for :func:`prepare`: an unchanged input rebuilt from the state
     where that gives exactly what reading its file again would, else the file (or what was given).
@@ -315,7 +309,7 @@ def _kept_inputs(state, given: dict, files: dict, cfg: AlignConfig, same_names: 
     nets = {}
     for side in ("a", "b"):
         key = f"network_{side}"
-        if given.get(key) is None and _state_holds_network(meta, side):
+        if given.get(key) is None and holds_network(meta, side):
             nets[side] = held_network(state, side, directed=cfg.directed, source=files[key])
             same_names[side] = True
         else:
@@ -677,7 +671,7 @@ def previous_inputs(previous, *, keeps: str = "asking about a run keeps its opti
     cfg = _check_options(state, None, options, keeps)
     meta = state.meta
     # what the state holds exactly is not read again, so its file may have moved or changed since
-    held = {f"network_{side}" for side in ("a", "b") if _state_holds_network(meta, side)}
+    held = {f"network_{side}" for side in ("a", "b") if holds_network(meta, side)}
     if meta.get("prior_table") is not None and meta["inputs"].get("seeds") is None and not cfg.structural:
         held.add("prior")
     files = {name: (meta["inputs"].get(name) or {}).get("source") for name in held}

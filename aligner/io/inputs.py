@@ -19,10 +19,10 @@ import numpy as np
 import pandas as pd
 
 from aligner.checks import warn
-from aligner.core.network import Network, network_from_edges
+from aligner.core.network import Network
 from aligner.errors import InputFormatError, InvalidParameterError, NoCandidatesError
 from aligner.core.identifiers import PairTable, first_shared_node, lookup, pairs_from_columns
-from aligner.io.readers import (FIELD_BLANKS, Columns, Table, check_weight_sums, network_from_table, prior_pick,
+from aligner.io.readers import (FIELD_BLANKS, Columns, Table, checked_network, network_from_table, prior_pick,
                                 read_network, read_table)
 from aligner.core.prior import PriorTable, prior_from_columns
 
@@ -182,10 +182,7 @@ def _from_networkx(graph, *, name: str, directed: bool) -> Network:
     w = None
     if graph.number_of_edges() and all("weight" in d for _, _, d in graph.edges(data=True)):
         w = _graph_weights(graph, name)
-    source = f"<networkx {name}>"
-    with np.errstate(over="ignore"):  # a total past the largest float is refused below
-        net = network_from_edges(names, e[:, 0], e[:, 1], w, source=source, directed=directed)
-    check_weight_sums(net, source)
+    net = checked_network(names, e[:, 0], e[:, 1], w, source=f"<networkx {name}>", directed=directed)
     if all(isinstance(v, str) for v in own.values()):
         return net
     # the graph's own node objects (integers, say) come back in the output tables; numpy infers

@@ -41,7 +41,7 @@ __all__ = [
     "read_network",
     "network_from_table",
     "edge_weights",
-    "check_weight_sums",
+    "checked_network",
     "same_columns",
     "read_part",
     "all_parts_empty",
@@ -992,27 +992,28 @@ def network_from_table(table: Table, *, directed: bool = False) -> Network:
     a, b = table.names(0), table.names(1)
     names, codes = intern(a, b)
     m = len(a)
-    with np.errstate(over="ignore"):  # a total past the largest float is refused, without numpy's warning
-        net = network_from_edges(names, codes[:m], codes[m:], weights, source=table.source, directed=directed)
-    check_weight_sums(net, table.source)
-    return net
+    return checked_network(names, codes[:m], codes[m:], weights, source=table.source, directed=directed)
 
 
-def check_weight_sums(net: Network, source: str) -> None:
-    """Refuse a network whose weights, each finite, sum past the largest float: the rows of a
-    repeated edge (with --directed, an arc's rows, then the two arcs of an edge in its undirected
-    view) are summed, and summary.json reports the total, which the solver divides by."""
+def checked_network(names, u, v, weights, *, source: str, directed: bool) -> Network:
+    """:func:`aligner.core.network.network_from_edges`, refusing weights, each finite, that sum
+    past the largest float (without numpy's overflow warning): the rows of a repeated edge (with
+    --directed, an arc's rows, then the two arcs of an edge in its undirected view) are summed,
+    and summary.json reports the total, which the solver divides by. Every reader of weights
+    builds its network here (files, tables, networkx graphs, the dask engine's frames)."""
+    with np.errstate(over="ignore"):
+        net = network_from_edges(names, u, v, weights, source=source, directed=directed)
+        total = None if net.weights is None else net.weights.sum()
     for what, ends, merged in (("arc", net.arcs, net.arc_weights), ("edge", net.edges, net.weights)):
         if merged is not None and not np.isfinite(merged).all():
             u, v = ends[int(np.argmax(~np.isfinite(merged)))]
             raise InputFormatError(f"the {what} {net.names[u]} - {net.names[v]} is given on several rows whose "
                                    "weights sum to more than the largest number (about 1.8e308); give smaller "
                                    "weights", path=source)
-    with np.errstate(over="ignore"):
-        total = None if net.weights is None else net.weights.sum()
     if total is not None and not np.isfinite(total):
         raise InputFormatError("the edge weights sum to more than the largest number (about 1.8e308); give "
                                "smaller weights", path=source)
+    return net
 
 
 def edge_weights(table: Table) -> np.ndarray | None:

@@ -61,7 +61,8 @@ import numpy as np
 
 from aligner.errors import InputFormatError
 
-__all__ = ["STATE_FILE", "STATE_VERSION", "RunState", "write_state", "read_state", "file_digest", "held_network"]
+__all__ = ["STATE_FILE", "STATE_VERSION", "RunState", "write_state", "read_state", "file_digest", "holds_network",
+           "held_network"]
 
 STATE_FILE = "state.npz"
 STATE_VERSION = 5
@@ -218,6 +219,13 @@ def read_state(path) -> RunState:
     return RunState(arrays, meta, path)
 
 
+def holds_network(meta: dict, side: str) -> bool:
+    """Whether a run's state (its ``meta``) holds its network of ``side`` ("a" or "b") exactly: an
+    unweighted one (the state keeps edges, not weights)."""
+    counts = meta.get("networks", {}).get(side)
+    return counts is not None and not counts["weighted"]
+
+
 def held_network(state: RunState, side: str, *, directed: bool, source: str | None = None):
     """The run's network of ``side`` ("a" or "b") rebuilt from its state, exactly as reading its
     file gave it (node names, edges, the reader's counts of self-loops and repeated edges), or
@@ -227,9 +235,9 @@ def held_network(state: RunState, side: str, *, directed: bool, source: str | No
 
     from aligner.core.network import network_from_edges
 
-    counts = state.meta.get("networks", {}).get(side)
-    if counts is None or counts["weighted"]:
+    if not holds_network(state.meta, side):
         return None
+    counts = state.meta["networks"][side]
     if source is None:
         source = (state.meta["inputs"].get(f"network_{side}") or {}).get("source") or f"<network_{side}>"
     names = np.asarray(getattr(state, f"names_{side}"), dtype=object)

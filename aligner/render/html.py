@@ -271,8 +271,9 @@ def _load_run(out: Path, network_a, network_b, delimiter: str | None, header: st
     if network_b is not None and not Path(network_b).exists():
         raise InvalidParameterError(f"network B '{network_b}' does not exist")
     directed = bool(params.get("directed"))
-    # the run's state holds an unweighted A exactly, even one no file holds (an update's edge diff)
-    net_a = _held_network_a(out, directed) if network_a is None else None
+    # A from its file; where no file is there (an update's edge diff, which no file holds, or a
+    # file moved) from the run's state, which holds an unweighted A exactly
+    net_a = _held_network_a(out, directed) if network_a is None and not Path(src_a).is_file() else None
     if net_a is None:
         try:
             net_a = read_network(src_a, delimiter=delimiter, header=header, directed=directed)

@@ -41,12 +41,12 @@ from aligner.checks import warn
 from aligner.config import AlignConfig
 from aligner.core.candidates import build_candidates
 from aligner.core.identifiers import as_arrow_strings, lookup, names_from_arrow
-from aligner.core.network import Network, network_from_edges, unique_sorted
+from aligner.core.network import Network, unique_sorted
 from aligner.core.prior import PriorTable, check_scores, transform_scores
 from aligner.errors import AlignerWarning, InputFormatError
 from aligner.io.inputs import prior_notes
 from aligner.io.paths import input_files
-from aligner.io.readers import (all_parts_empty, check_weight_sums, edge_weights, prior_pick, read_part, read_table,
+from aligner.io.readers import (all_parts_empty, checked_network, edge_weights, prior_pick, read_part, read_table,
                                 same_columns)
 
 __all__ = ["on_cluster", "ClusterRead", "read_on_cluster", "select_on_cluster"]
@@ -412,10 +412,7 @@ def _network(client, parts, rows, ids, names, n_edges: int, weighted_file: bool,
         u[row], v[row] = got["ui"].to_numpy(), got["vi"].to_numpy()
         if w is not None:
             w[row] = got["w"].to_numpy()
-    with np.errstate(over="ignore"):  # a total past the largest float is refused, as on one machine
-        net = network_from_edges(names[0], u, v, w, source=source, directed=directed)
-    check_weight_sums(net, source)
-    return net
+    return checked_network(names[0], u, v, w, source=source, directed=directed)  # refused as on one machine
 
 
 def _edge_meta(weighted: bool) -> pd.DataFrame:
