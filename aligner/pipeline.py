@@ -272,7 +272,8 @@ def find_candidates(inputs: Inputs, config: AlignConfig) -> Candidates:
     if cfg.structural or (prior_t is None and inputs.seeds is None):
         found = _structural(inputs, cfg)
     elif prior_t is None:
-        expansion = expand_from_seeds(inputs.network_a, inputs.network_b, inputs.seeds, top_k=cfg.top_k)
+        expansion = expand_from_seeds(inputs.network_a, inputs.network_b, inputs.seeds, top_k=cfg.top_k,
+                                      directed=cfg.directed)
         found = Candidates(expansion.candidates, expansion=expansion)
     else:
         cand = build_candidates(prior_t.pairs, prior_t.scores, inputs.network_a.n, inputs.network_b.n,

@@ -17,6 +17,7 @@ from __future__ import annotations
 import os
 import time
 from dataclasses import dataclass, field
+from typing import NamedTuple
 
 import numpy as np
 import numpy.typing as npt
@@ -26,7 +27,7 @@ from aligner.checks import check_int, check_real
 from aligner.config import AlignConfig
 from aligner.core.candidates import CandidateSet, build_candidates
 from aligner.errors import InputFormatError, InvalidParameterError
-from aligner.core.network import Network
+from aligner.core.network import Network, adjacency
 from aligner.core.identifiers import first_shared_node, lookup, text_at
 from aligner.io.inputs import as_table
 from aligner.io.readers import Table, data_lines, read_table
@@ -258,6 +259,56 @@ class SeedExpansion:
                 "seconds": round(self.seconds, 4)}
 
 
+class _Wiring(NamedTuple):
+    """A network as the witness counts read it (:func:`_wiring`). Its links are numbered as
+    *channels*: undirected, channel a is the edge to node a; directed, channel a is an arc to
+    a (a successor) and channel a + n an arc from a (a predecessor)."""
+
+    rows_ptr: np.ndarray  # for each node j, its links as channels (sorted)
+    rows_idx: np.ndarray
+    ends_ptr: np.ndarray  # for each channel of a node a', the nodes j' linked to a' that way
+    ends_idx: np.ndarray
+    degree: np.ndarray  # links per node (int64): edges, or arcs out and in
+    n: int
+    directed: bool
+
+
+def _wiring(net: Network, directed: bool) -> _Wiring:
+    """The witness counts' view of ``net``: its undirected adjacency, or with ``directed`` its
+    arcs split by direction, so that an anchor (a, a') witnesses (j, j') only where the arc
+    between j and a points as the arc between j' and a' does."""
+    if not directed:
+        return _Wiring(net.indptr, net.indices, net.indptr, net.indices, net.degree.astype(np.int64), net.n, False)
+    if not net.directed:
+        raise ValueError("an undirected network has no arcs")
+    n = net.n
+    u, v = net.arcs[:, 0].astype(np.int64), net.arcs[:, 1].astype(np.int64)
+    # node j's row: its successors a (channel a), then its predecessors a (channel a + n)
+    rows_ptr, rows_idx = adjacency(np.concatenate([np.stack([u, v], axis=1), np.stack([v, u + n], axis=1)]),
+                                   2 * n, symmetric=False)
+    rows_ptr = rows_ptr[:n + 1]
+    # channel a' (< n): the nodes j' with an arc j' -> a'; channel a' + n: those with a' -> j'
+    ends_ptr, ends_idx = adjacency(np.concatenate([np.stack([v, u], axis=1), np.stack([u + n, v], axis=1)]),
+                                   2 * n, symmetric=False)
+    return _Wiring(rows_ptr, rows_idx, ends_ptr, ends_idx, np.diff(rows_ptr), n, True)
+
+
+def _channel_mates(mate: np.ndarray, other: _Wiring) -> np.ndarray:
+    """Each channel of one network mapped through the anchors ``mate`` onto the channel of the
+    ``other`` network that runs the same way (-1 where the node is not anchored)."""
+    if not other.directed:
+        return mate
+    return np.concatenate([mate, np.where(mate >= 0, mate + other.n, -1)])
+
+
+def _witnesses(wa: _Wiring, wb: _Wiring, mate_a: np.ndarray, mate_b: np.ndarray, rows: np.ndarray, kcap: int,
+               skip_matched: bool):
+    """:func:`aligner.kernels.query.witness_rows` on the wiring ``wa`` (the nodes ``rows``)
+    against ``wb``, anchors ``mate_a`` (and ``mate_b`` back)."""
+    return witness_rows(wa.rows_ptr, wa.rows_idx, wb.ends_ptr, wb.ends_idx, _channel_mates(mate_a, wb), mate_b,
+                        rows.astype(np.int64), kcap, wa.degree, wb.degree, skip_matched)
+
+
 def _frontier(net_a: Network, anchored: np.ndarray) -> np.ndarray:
     """Nodes of A that are not anchored and have an anchored neighbour."""
     src = np.repeat(np.arange(net_a.n), np.diff(net_a.indptr))
@@ -267,7 +318,7 @@ def _frontier(net_a: Network, anchored: np.ndarray) -> np.ndarray:
 
 
 def expand_from_seeds(net_a: Network, net_b: Network, seeds: SeedTable, *, top_k: int | None = 25,
-                      max_rounds: int = DEFAULT_MAX_ROUNDS) -> SeedExpansion:
+                      max_rounds: int = DEFAULT_MAX_ROUNDS, directed: bool = False) -> SeedExpansion:
     """Candidate pairs without a prior: grown outward from the seeds through the wiring.
 
     Parameters
@@ -279,6 +330,9 @@ def expand_from_seeds(net_a: Network, net_b: Network, seeds: SeedTable, *, top_k
         Candidates per node on each side in the final set (as for a prior); None keeps 50.
     max_rounds : int
         Cap on the growing rounds.
+    directed : bool
+        Count arcs (both networks directed): an anchor (a, a') witnesses (j, j') where j -> a
+        and j' -> a', or a -> j and a' -> j', and the degree similarity compares arcs in and out.
 
     Returns
     -------
@@ -288,8 +342,9 @@ def expand_from_seeds(net_a: Network, net_b: Network, seeds: SeedTable, *, top_k
     -----
     The **witness count** of a pair (j, j') against a one-to-one set of anchor pairs M is
     the number of anchors (a, a') with a in N_A(j) and a' in N_B(j'): the edges at j that
-    matching j to j' would conserve with the anchors. Starting from M = the seeds, each
-    round
+    matching j to j' would conserve with the anchors (with ``directed``, the arcs: a
+    successor a of j counts where a' is a successor of j', a predecessor where a' is a
+    predecessor of j'). Starting from M = the seeds, each round
 
     1. takes every unanchored node j of A next to an anchor, and its best 2 top_k
        unanchored partners j' by witness count (ties: degree similarity
@@ -317,24 +372,24 @@ def expand_from_seeds(net_a: Network, net_b: Network, seeds: SeedTable, *, top_k
         raise InvalidParameterError("seeds must hold at least one seed pair to grow candidates from; got none",
                                     param="seeds")
     t0 = time.perf_counter()
+    wa, wb = _wiring(net_a, directed), _wiring(net_b, directed)
     mate_a = np.full(net_a.n, -1, dtype=np.int64)
     mate_b = np.full(net_b.n, -1, dtype=np.int64)
     mate_a[seeds.pairs[:, 0]] = seeds.pairs[:, 1]
     mate_b[seeds.pairs[:, 1]] = seeds.pairs[:, 0]
-    rounds, accepted = _grow(net_a, net_b, mate_a, mate_b, kcap=2 * (top_k if top_k is not None else 25),
+    rounds, accepted = _grow(net_a, wa, wb, mate_a, mate_b, kcap=2 * (top_k if top_k is not None else 25),
                              max_rounds=max_rounds)
-    cand, prov = _final_candidates(net_a, net_b, mate_a, mate_b, seeds, top_k)
+    cand, prov = _final_candidates(wa, wb, mate_a, mate_b, seeds, top_k)
     return SeedExpansion(cand, prov, rounds, accepted, time.perf_counter() - t0)
 
 
-def _grow(net_a: Network, net_b: Network, mate_a: np.ndarray, mate_b: np.ndarray, *, kcap: int,
+def _grow(net_a: Network, wa: _Wiring, wb: _Wiring, mate_a: np.ndarray, mate_b: np.ndarray, *, kcap: int,
           max_rounds: int) -> tuple[int, list[int]]:
-    """The rounds of :func:`expand_from_seeds`: extend the matching ``mate_a``/``mate_b`` in place.
+    """The rounds of :func:`expand_from_seeds`: extend the matching ``mate_a``/``mate_b`` in place
+    (the frontier on A's undirected adjacency, the witnesses on the wirings ``wa``, ``wb``).
 
     Returns the rounds run and the pairs accepted in each.
     """
-    deg_a = net_a.degree.astype(np.int64)
-    deg_b = net_b.degree.astype(np.int64)
     floor = 2
     accepted: list[int] = []
     rounds = 0
@@ -342,8 +397,7 @@ def _grow(net_a: Network, net_b: Network, mate_a: np.ndarray, mate_b: np.ndarray
         rows = _frontier(net_a, mate_a >= 0)
         if len(rows) == 0:
             break
-        p, c, d = witness_rows(net_a.indptr, net_a.indices, net_b.indptr, net_b.indices, mate_a, mate_b,
-                                rows.astype(np.int64), kcap, deg_a, deg_b, True)
+        p, c, d = _witnesses(wa, wb, mate_a, mate_b, rows, kcap, True)
         keep = c >= floor
         if not keep.any():
             if floor > 1:
@@ -352,7 +406,7 @@ def _grow(net_a: Network, net_b: Network, mate_a: np.ndarray, mate_b: np.ndarray
             break
         rounds += 1
         p, c, d = p[keep], c[keep], d[keep]
-        cs = build_candidates(p, c + 0.5 * d, net_a.n, net_b.n, top_k=None)
+        cs = build_candidates(p, c + 0.5 * d, wa.n, wb.n, top_k=None)
         match = round_matching(cs, cs.prior)
         got = cs.pairs[match.index].astype(np.int64)
         count = np.floor(cs.prior[match.index])
@@ -363,24 +417,21 @@ def _grow(net_a: Network, net_b: Network, mate_a: np.ndarray, mate_b: np.ndarray
     return rounds, accepted
 
 
-def _final_candidates(net_a: Network, net_b: Network, mate_a: np.ndarray, mate_b: np.ndarray,
+def _final_candidates(wa: _Wiring, wb: _Wiring, mate_a: np.ndarray, mate_b: np.ndarray,
                       seeds: SeedTable, top_k: int | None) -> tuple[CandidateSet, np.ndarray]:
     """Candidates by witness count against the provisional matching, with its pairs and the seeds.
 
     Returns the candidate set and the provisional pairs.
     """
-    n1, n2 = net_a.n, net_b.n
+    n1, n2 = wa.n, wb.n
     k_final = top_k if top_k is not None else 50
-    deg_a, deg_b = net_a.degree.astype(np.int64), net_b.degree.astype(np.int64)
     # each side's best k_final (the witness count is symmetric): a node of B must get its own
     # best partners, not only those that some node of A ranked among its best
-    p, c, d = witness_rows(net_a.indptr, net_a.indices, net_b.indptr, net_b.indices, mate_a, mate_b,
-                            np.arange(n1, dtype=np.int64), k_final, deg_a, deg_b, False)
-    q, cq, dq = witness_rows(net_b.indptr, net_b.indices, net_a.indptr, net_a.indices, mate_b, mate_a,
-                             np.arange(n2, dtype=np.int64), k_final, deg_b, deg_a, False)
+    p, c, d = _witnesses(wa, wb, mate_a, mate_b, np.arange(n1, dtype=np.int64), k_final, False)
+    q, cq, dq = _witnesses(wb, wa, mate_b, mate_a, np.arange(n2, dtype=np.int64), k_final, False)
     prov_a = np.flatnonzero(mate_a >= 0)
     prov = np.stack([prov_a, mate_a[prov_a]], axis=1)
-    prov_score = _witness_scores(net_a, net_b, mate_a, prov)
+    prov_score = _witness_scores(wa, wb, mate_a, prov)
     pairs = np.concatenate([p, q[:, ::-1], prov])
     score = np.concatenate([c + 0.5 * d, cq + 0.5 * dq, prov_score])  # merging keeps a pair's best score
     cand = build_candidates(pairs, score, n1, n2, top_k=top_k)
@@ -393,21 +444,21 @@ def _final_candidates(net_a: Network, net_b: Network, mate_a: np.ndarray, mate_b
     return add_seed_pairs(cand, seeds), prov
 
 
-def _witness_scores(net_a: Network, net_b: Network, mate_a: np.ndarray, pairs: np.ndarray) -> np.ndarray:
+def _witness_scores(wa: _Wiring, wb: _Wiring, mate_a: np.ndarray, pairs: np.ndarray) -> np.ndarray:
     """Witness count + 0.5 degree similarity of each pair (j, j') against the anchors ``mate_a``
     (0 for a pair without witnesses), as :func:`witness_rows` scores the pairs it ranks."""
     if len(pairs) == 0:
         return np.zeros(0)
     j, jp = pairs[:, 0].astype(np.int64), pairs[:, 1].astype(np.int64)
-    deg_a, deg_b = np.diff(net_a.indptr), np.diff(net_b.indptr)
-    row = np.repeat(np.arange(len(pairs)), deg_a[j])  # one entry per neighbour a of j
-    starts = np.repeat(net_a.indptr[j] - np.cumsum(np.r_[0, deg_a[j][:-1]]), deg_a[j])
-    a = net_a.indices[starts + np.arange(len(row))]
-    ap = mate_a[a]
+    deg_a, deg_b = wa.degree, wb.degree
+    row = np.repeat(np.arange(len(pairs)), deg_a[j])  # one entry per link (channel) of j
+    starts = np.repeat(wa.rows_ptr[j] - np.cumsum(np.r_[0, deg_a[j][:-1]]), deg_a[j])
+    ap = _channel_mates(mate_a, wb)[wa.rows_idx[starts + np.arange(len(row))]]
     row, ap = row[ap >= 0], ap[ap >= 0]
-    # is the anchor's partner a' a neighbour of j'? (the rows of B's adjacency are sorted)
-    b_keys = np.repeat(np.arange(net_b.n, dtype=np.int64), deg_b) * max(net_b.n, 1) + net_b.indices
-    want = jp[row] * max(net_b.n, 1) + ap
+    # is the anchor's partner a' linked to j' the same way? (the rows of B's wiring are sorted)
+    width = max(2 * wb.n if wb.directed else wb.n, 1)  # channels of B
+    b_keys = np.repeat(np.arange(wb.n, dtype=np.int64), deg_b) * width + wb.rows_idx
+    want = jp[row] * width + ap
     pos = np.minimum(np.searchsorted(b_keys, want), max(len(b_keys) - 1, 0))
     hit = b_keys[pos] == want if len(b_keys) else np.zeros(len(want), dtype=bool)
     count = np.bincount(row[hit], minlength=len(pairs)).astype(np.float64)

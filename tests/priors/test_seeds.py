@@ -185,39 +185,104 @@ def test_expansion_stays_near_the_seeds():
     assert ex.candidates.m <= 10 * (len(live_a) + len(live_b)) + len(ex.provisional)
 
 
+def _reference_candidates(ga, gb, mate, seeds, k):
+    """The final candidates docs/method.md describes, recounted with networkx: against the
+    provisional matching ``mate``, every pair (j, j') with a witness scores count + 0.5 * min(d,
+    d') / max(d, d'); each node of A's top-k, united with each node of B's (ties: the smaller
+    index), plus the matching and the seeds. Undirected: a witness is an anchor (a, a') with a
+    in N_A(j), a' in N_B(j'). Directed (DiGraphs): a successor a of j whose a' is a successor of
+    j', or a predecessor whose a' is a predecessor of j'; d counts arcs in and out."""
+    if ga.is_directed():
+        ways = [(ga.successors, gb.predecessors), (ga.predecessors, gb.successors)]
+    else:
+        ways = [(ga.neighbors, gb.neighbors)]
+    score = {}
+    for j in ga:
+        count = {}
+        for near_a, back_b in ways:
+            for x in near_a(j):
+                if x in mate:
+                    for jp in back_b(mate[x]):
+                        count[jp] = count.get(jp, 0) + 1
+        for jp, c in count.items():
+            da, db = ga.degree(j), gb.degree(jp)
+            score[(j, jp)] = c + 0.5 * min(da, db) / max(da, db)
+    by_a, by_b = {}, {}
+    for (j, jp), v in score.items():
+        by_a.setdefault(j, []).append((-v, jp))
+        by_b.setdefault(jp, []).append((-v, j))
+    want = {(j, jp) for j, rows in by_a.items() for _, jp in sorted(rows)[:k]}
+    want |= {(j, jp) for jp, rows in by_b.items() for _, j in sorted(rows)[:k]}
+    return want | set(mate.items()) | {(int(u), int(v)) for u, v in seeds.pairs}
+
+
 def test_final_candidates_are_each_sides_best_by_witness_count():
-    # Reference: networkx neighbour sets. Against the provisional matching M the expansion
-    # reports, every pair (j, j') with a witness (an anchor (a, a') of M, a in N_A(j), a' in
-    # N_B(j')) scores count + 0.5 * min(d, d') / max(d, d'); the candidates are every node of A's
-    # top-k, united with every node of B's top-k (ties: the smaller name), plus M and the seeds,
-    # as docs/method.md says. A node of B used to get only the pairs some node of A ranked
-    # among its own best.
+    # Reference: networkx neighbour sets (_reference_candidates). A node of B used to get only
+    # the pairs some node of A ranked among its own best.
     for seed, k in ((3, 1), (5, 2), (8, 3)):
         a, b, truth, _ = _pair(150, 0.1, seed=seed, m=2)
         seeds = as_seeds(_sample(truth, 0.1, seed=seed), a, b)
         ex = expand_from_seeds(a, b, seeds, top_k=k)
-        ga = nx.Graph(a.edges.tolist())
-        gb = nx.Graph(b.edges.tolist())
         mate = {int(u): int(v) for u, v in ex.provisional}
-        score = {}
-        for j in ga:
-            count = {}
-            for x in ga[j]:
-                if x in mate:
-                    for jp in gb[mate[x]]:
-                        count[jp] = count.get(jp, 0) + 1
-            for jp, c in count.items():
-                da, db = ga.degree(j), gb.degree(jp)
-                score[(j, jp)] = c + 0.5 * min(da, db) / max(da, db)
-        by_a, by_b = {}, {}
-        for (j, jp), v in score.items():
-            by_a.setdefault(j, []).append((-v, jp))
-            by_b.setdefault(jp, []).append((-v, j))
-        want = {(j, jp) for j, rows in by_a.items() for _, jp in sorted(rows)[:k]}
-        want |= {(j, jp) for jp, rows in by_b.items() for _, j in sorted(rows)[:k]}
-        want |= set(mate.items()) | {(int(u), int(v)) for u, v in seeds.pairs}
+        want = _reference_candidates(nx.Graph(a.edges.tolist()), nx.Graph(b.edges.tolist()), mate, seeds, k)
         got = {(int(u), int(v)) for u, v in ex.candidates.pairs}
         assert got == want, (seed, k, sorted(want - got)[:5], sorted(got - want)[:5])
+
+
+def _directed_pair(n, arcs, seed):
+    """A random directed graph and a relabelled copy with a fifth of its arcs reversed and a
+    tenth moved, as directed Networks over zero-padded names; the truth as names."""
+    rng = np.random.default_rng(seed)
+    ga = nx.gnm_random_graph(n, arcs, seed=seed, directed=True)
+    perm = rng.permutation(n)
+    ea = np.array(ga.edges(), dtype=np.int64)
+    eb = perm[ea]
+    flip = rng.random(len(eb)) < 0.2
+    eb[flip] = eb[flip][:, ::-1]
+    moved = rng.random(len(eb)) < 0.1
+    eb[moved] = rng.integers(0, n, (int(moved.sum()), 2))
+    names = np.array([f"{i:05d}" for i in range(n)], dtype=object)
+    a = network_from_edges(names, ea[:, 0], ea[:, 1], directed=True)
+    b = network_from_edges(names, eb[:, 0], eb[:, 1], directed=True)
+    return a, b, [(names[u], names[perm[u]]) for u in range(n)]
+
+
+def test_directed_witnesses_count_arcs_pointing_the_same_way():
+    # Reference: networkx DiGraphs (_reference_candidates with successors and predecessors).
+    # The growth used to count witnesses on the undirected views also in a directed run.
+    for seed, k in ((2, 1), (4, 3)):
+        a, b, truth = _directed_pair(120, 360, seed)
+        seeds = as_seeds(_sample(truth, 0.1, seed=seed), a, b)
+        ex = expand_from_seeds(a, b, seeds, top_k=k, directed=True)
+        mate = {int(u): int(v) for u, v in ex.provisional}
+        ga, gb = nx.DiGraph(), nx.DiGraph()
+        ga.add_nodes_from(range(a.n))
+        gb.add_nodes_from(range(b.n))
+        ga.add_edges_from(a.arcs.tolist())
+        gb.add_edges_from(b.arcs.tolist())
+        want = _reference_candidates(ga, gb, mate, seeds, k)
+        got = {(int(u), int(v)) for u, v in ex.candidates.pairs}
+        assert got == want, (seed, k, sorted(want - got)[:5], sorted(got - want)[:5])
+    a, b, truth, _ = _pair(50, 0.1, seed=1)
+    with pytest.raises(ValueError, match="no arcs"):  # undirected networks
+        expand_from_seeds(a, b, as_seeds(truth[:3], a, b), directed=True)
+
+
+def test_a_reversed_directed_cycle_is_grown_the_right_way_round():
+    # Definition (an arc is conserved onto an arc pointing the same way, docs/method.md): A is
+    # the directed 7-cycle i -> i+1, B the cycle k -> k-1, one seed pair (a0, b0). The map
+    # i -> -i (mod 7) carries all 7 arcs; undirected witnesses tied both orientations and the
+    # growth took the wrong one (4 of 7 arcs conserved). Checked with networkx: the conserved
+    # arcs of the result are counted on DiGraphs.
+    n = 7
+    u = np.arange(n)
+    a = network_from_edges(np.array([f"a{i}" for i in u], dtype=object), u, (u + 1) % n, directed=True)
+    b = network_from_edges(np.array([f"b{i}" for i in u], dtype=object), u, (u - 1) % n, directed=True)
+    res = aligner.align(a, b, None, seeds=[("a0", "b0")], directed=True, permutations=0)
+    f = dict(zip(res.pairs["node_a"], res.pairs["node_b"]))
+    gb = nx.DiGraph([(f"b{k}", f"b{(k - 1) % n}") for k in u])
+    assert sum(gb.has_edge(f[f"a{i}"], f[f"a{(i + 1) % n}"]) for i in u) == n == res.scores.conserved_edges
+    assert all(f[f"a{i}"] == f"b{(-i) % n}" for i in u)
 
 
 def _write(tmp_path, text, name="seeds.tsv"):
