@@ -179,7 +179,8 @@ class AlignConfig(_Config):
         shape=DELIMITER_SHAPE)
     header: str = option(
         "auto", "Whether input files start with a header line: auto, yes or no. 'auto' takes the first line as a "
-        "header when its fields are column names such as node_a/source/target.", flag="--header", group=READ,
+        "header when its fields are column names such as node_a/source/target/pre/post, or when its third field is "
+        "text above a number. It applies to every input file.", flag="--header", group=READ,
         kind="choice", choices=HEADERS)
     prior_columns: str | None = option(
         None, "The prior's columns node of A, node of B and score, by 1-based position (1,2,11) or header name "

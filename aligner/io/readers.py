@@ -62,7 +62,20 @@ HEADER_WORDS = {
     "node", "node_a", "node_b", "node1", "node2", "source", "target", "src", "dst", "from", "to",
     "id1", "id2", "protein1", "protein2", "weight", "score", "similarity",
     "evalue", "e_value", "distance", "gene1", "gene2", "neuron1", "neuron2", "left", "right",
+    "pre", "post", "presynaptic", "postsynaptic", "sender", "receiver", "synapses", "count",
 }
+#: Further column names: a word naming one end of a link, with a suffix (``source_id``,
+#: ``from_node``, ``pre_neuron``, ``postsynaptic_cell``, ``receiver-name``).
+_END_NAME = re.compile(r"^(?:source|target|src|dst|from|to|pre|post|presynaptic|postsynaptic|sender|receiver|"
+                       r"start|end|head|tail)[ _.-]?(?:id|node|name|neuron|cell)$")
+
+
+def _header_word(field: str) -> bool:
+    """Whether ``field`` is a common column name (:data:`HEADER_WORDS`, or an end of a link
+    with a suffix, :data:`_END_NAME`), ignoring case and the blanks around it."""
+    f = field.strip().lower()
+    return f in HEADER_WORDS or _END_NAME.match(f) is not None
+
 #: A first line whose first two fields both look like column names by their shape (a word and a
 #: side marker: ``geneA``/``geneB``, ``interactor_1``/``interactor_2``, ``a``/``b``) but are not in
 #: HEADER_WORDS is read as data; when neither field occurs again in the file it is also reported
@@ -648,7 +661,7 @@ def _read_table(path: str, *, min_cols: int, max_cols: int, delimiter, header: s
         cols = _read_careful(path, sep, ncols, start_no, min_cols, what)
     if header == "auto" and not has_header:
         _warn_if_header_like(path, first[0], fields, cols)
-    elif header == "auto" and not all(f.strip().lower() in HEADER_WORDS for f in fields):
+    elif header == "auto" and not all(_header_word(f) for f in fields):
         _warn_if_data_like(path, first[0], fields, cols)
     return Table(tuple(cols), path, start_no, sep, tuple(fields) if has_header else None)
 
@@ -713,7 +726,7 @@ def _warn_if_header_like(path: str, line: int, fields: list[str], cols) -> None:
 def _looks_like_header(fields: list[str], second, sep: str | None, numeric: int | None = 2) -> bool:
     """``header="auto"``: every field a common column name, or a text field above a number in column
     ``numeric`` (0-based: the third by default, a prior's score; None: no such test)."""
-    if all(f.strip().lower() in HEADER_WORDS for f in fields):
+    if all(_header_word(f) for f in fields):
         return True
     if numeric is None or len(fields) <= numeric or _is_number(fields[numeric]) or second is None:
         return False

@@ -165,6 +165,20 @@ def test_header_like_first_row_is_read_as_data_with_a_warning(tmp_path, text, se
     assert net.names.tolist() == ["p1", "p2", "p3"] and net.edges.shape[0] == 3
 
 
+@pytest.mark.parametrize("first", ["pre\tpost", "presynaptic\tpostsynaptic", "pre_neuron\tpost_neuron",
+                                   "sender\treceiver", "from_id\tto_id", "Source_ID\tTarget_ID",
+                                   "pre\tpost\tsynapses"])
+def test_common_names_of_a_links_two_ends_are_a_header(tmp_path, first):
+    # Found by a user trial: connectome and message tables headed pre/post, sender/receiver or
+    # source_id/target_id were read as an extra edge between two extra nodes, silently. Common
+    # practice (column names of edge lists): such a first line is a header.
+    weights = first.count("\t") == 2
+    rows = "".join(f"x{i}\tx{i + 1}" + ("\t3" if weights else "") + "\n" for i in range(5))
+    p = _w(tmp_path, "a.tsv", first + "\n" + rows)
+    net = read_network(p)
+    assert net.names.tolist() == [f"x{i}" for i in range(6)] and net.n_edges == 5
+
+
 def test_truth_table_header_of_single_letters_warns(tmp_path):
     p = _w(tmp_path, "truth.tsv", "a\tb\nx1\ty1\nx2\ty2\n")
     with pytest.warns(AlignerWarning, match="truth.tsv, line 1"):
