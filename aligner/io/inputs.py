@@ -22,8 +22,8 @@ from aligner.checks import warn
 from aligner.core.network import Network
 from aligner.errors import InputFormatError, InvalidParameterError, NoCandidatesError
 from aligner.core.identifiers import PairTable, first_shared_node, lookup, pairs_from_columns
-from aligner.io.readers import (FIELD_BLANKS, Columns, Table, checked_network, network_from_table, prior_pick,
-                                read_network, read_table)
+from aligner.io.readers import (FIELD_BLANKS, Columns, Table, check_skipped_header, checked_network, network_from_table,
+                                prior_pick, read_network, read_table)
 from aligner.core.prior import PriorTable, prior_from_columns
 
 __all__ = ["as_table", "as_network", "as_prior", "as_pairs", "as_alignment", "known_pairs", "prior_notes"]
@@ -233,6 +233,7 @@ def as_prior(obj, net_a: Network, net_b: Network, kind: str, delimiter, header,
     table = as_table(obj, name="prior", layout="node_a, node_b, score", min_cols=3, max_cols=3,
                      what="prior table", delimiter=delimiter, header=header,
                      source="<DataFrame prior>" if isinstance(obj, pd.DataFrame) else None, pick=prior_pick(columns))
+    check_skipped_header(table, net_a, net_b, header)
     # a prior no file holds (a DataFrame, rows): the table keeps its rows, for the run's state,
     # so that an update can take them from there (a file is read again instead)
     return prior_notes(prior_from_columns(table.names(0), table.names(1), table.numeric(2, "score"), net_a, net_b,
@@ -277,6 +278,7 @@ def as_alignment(obj, net_a: Network, net_b: Network, delimiter, header) -> Pair
         return _one_to_one(known_pairs(obj, "alignment"), net_a, net_b, None)
     table = as_table(obj, name="alignment", layout="node_a, node_b", min_cols=2, max_cols=64, what="alignment",
                      delimiter=delimiter, header=header, source="<alignment>")
+    check_skipped_header(table, net_a, net_b, header)
     t = known_pairs(pairs_from_columns(table.names(0), table.names(1), net_a, net_b, source=table.source), "alignment")
     return _one_to_one(t, net_a, net_b, table)
 
@@ -315,4 +317,5 @@ def as_pairs(obj, net_a: Network, net_b: Network, what: str, delimiter, header) 
         return obj
     table = as_table(obj, name=what.split()[0], layout="node_a, node_b", min_cols=2, max_cols=64, what=what,
                      delimiter=delimiter, header=header, source=f"<{what}>")
+    check_skipped_header(table, net_a, net_b, header)
     return pairs_from_columns(table.names(0), table.names(1), net_a, net_b, source=table.source)

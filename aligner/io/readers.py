@@ -30,7 +30,7 @@ from aligner.config import DELIMITER, DELIMITER_NAMES, DELIMITER_SHAPE, HEADERS
 from aligner.core.network import Network, network_from_edges
 from aligner.errors import InputFormatError, InvalidParameterError
 from aligner.io.paths import input_files
-from aligner.core.identifiers import intern, pairs_from_columns, PairTable
+from aligner.core.identifiers import intern, lookup, pairs_from_columns, PairTable
 from aligner.core.prior import PriorTable, prior_from_columns
 
 __all__ = [
@@ -1044,6 +1044,24 @@ def edge_weights(table: Table) -> np.ndarray | None:
     return weights
 
 
+def check_skipped_header(table: Table, net_a: Network, net_b: Network, header: str) -> None:
+    """Refuse a table of pairs whose line skipped as a header by ``header="yes"`` names a node
+    of A and a node of B in the pair's columns: a data row of a file without a header line,
+    which the option (given for every input at once) would drop without a word."""
+    if header != "yes" or table.header is None:
+        return
+    at = table.picked[:2] if table.picked is not None else (0, 1)
+    if len(table.header) <= max(at):
+        return
+    a, b = (table.header[k].strip() for k in at)
+    if lookup(net_a.names, np.array([a], dtype=object))[0] >= 0 and \
+            lookup(net_b.names, np.array([b], dtype=object))[0] >= 0:
+        raise InputFormatError(f"its first line was skipped as a header line (--header yes, header='yes', applies to "
+                               f"every input), but it names {a!r}, a node of A, and {b!r}, a node of B: it is a data "
+                               "row; give this file a header line too, or leave --header at auto (a header line is "
+                               "then found by its column names)", path=str(table.source))
+
+
 def read_prior(path: str | os.PathLike, net_a: Network, net_b: Network, *, kind: str = "similarity",
                delimiter: str | None = None, header: str = "auto", columns: str | None = None) -> PriorTable:
     """Read a prior similarity table ``node_a, node_b, score`` and map it onto two networks.
@@ -1061,6 +1079,7 @@ def read_prior(path: str | os.PathLike, net_a: Network, net_b: Network, *, kind:
     """
     table = read_table(path, min_cols=3, max_cols=3, delimiter=delimiter, header=header, what="prior table",
                        pick=prior_pick(columns))
+    check_skipped_header(table, net_a, net_b, header)
     return prior_from_columns(table.names(0), table.names(1), table.numeric(2, "score"), net_a, net_b, kind=kind,
                               source=table.source, origin=table.origin)
 
@@ -1074,4 +1093,5 @@ def read_pairs(path: str | os.PathLike, net_a: Network, net_b: Network, *, delim
                header: str = "auto", what: str = "pair table") -> PairTable:
     """Read a table whose first two columns are node pairs (extra columns are ignored)."""
     table = read_table(path, min_cols=2, max_cols=64, delimiter=delimiter, header=header, what=what)
+    check_skipped_header(table, net_a, net_b, header)
     return pairs_from_columns(table.names(0), table.names(1), net_a, net_b, source=table.source)

@@ -30,7 +30,7 @@ from aligner.errors import InputFormatError, InvalidParameterError
 from aligner.core.network import Network, adjacency
 from aligner.core.identifiers import first_shared_node, lookup, text_at
 from aligner.io.inputs import as_table
-from aligner.io.readers import Table, data_lines, read_table
+from aligner.io.readers import Table, check_skipped_header, data_lines, read_table
 from aligner.core.rounding import Matching, round_matching
 from aligner.core.scoring import score_matching
 
@@ -137,6 +137,7 @@ def read_seeds(path: str | os.PathLike, net_a: Network, net_b: Network, *, delim
         raise InputFormatError("is empty: it holds no seed pairs; give a table of known pairs node_a, node_b "
                                "(one pair per line), or leave out --seeds", path=path)
     table = read_table(path, min_cols=2, max_cols=64, delimiter=delimiter, header=header, what="seed table")
+    check_skipped_header(table, net_a, net_b, header)
     return _check_seed_columns(table, net_a, net_b)
 
 
@@ -152,6 +153,7 @@ def as_seeds(obj, net_a: Network, net_b: Network, *, delimiter: str | None = Non
     if isinstance(obj, (str, os.PathLike)):
         return read_seeds(obj, net_a, net_b, delimiter=delimiter, header=header)
     table = as_table(obj, name="seeds", layout="node_a, node_b", min_cols=2, max_cols=64, source="<seeds>")
+    check_skipped_header(table, net_a, net_b, header)
     return _check_seed_columns(table, net_a, net_b)
 
 

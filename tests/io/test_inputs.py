@@ -204,3 +204,31 @@ def test_networkx_edge_weights_are_checked_as_a_table_s_are(weight):
         frame = nx.to_pandas_edgelist(g)[["source", "target", "weight"]]
         with pytest.raises(InputFormatError):
             as_network(frame)
+
+
+@pytest.mark.parametrize("table", ["prior", "seeds", "truth", "alignment"])
+def test_header_yes_refuses_a_pair_table_whose_skipped_line_is_data(tmp_path, table):
+    # Found by a user trial: --header yes (given because the networks' header was not found)
+    # applies to every input, and dropped the first row of a prior or seed table that had no
+    # header line, without a word. Common practice: a skipped line naming a node of A and a
+    # node of B in the pair's columns is data; refuse (exit 2 from the command line), naming the file.
+    import aligner
+    from aligner.io.inputs import as_alignment
+
+    a = read_network(_w(tmp_path, "a.tsv", "pre\tpost\nx0\tx1\nx1\tx2\nx2\tx3\n"), header="yes")
+    b = read_network(_w(tmp_path, "b.tsv", "pre\tpost\ny0\ty1\ny1\ty2\ny2\ty3\n"), header="yes")
+    rows = "".join(f"x{i}\ty{i}" + ("\t1" if table == "prior" else "") + "\n" for i in range(4))
+    head = "node_a\tnode_b" + ("\tscore" if table == "prior" else "") + "\n"
+    read = {"prior": lambda p: as_prior(p, a, b, "similarity", None, "yes"),
+            "seeds": lambda p: as_seeds(p, a, b, header="yes"),
+            "truth": lambda p: as_pairs(p, a, b, "truth", None, "yes"),
+            "alignment": lambda p: as_alignment(p, a, b, None, "yes")}[table]
+    bad = _w(tmp_path, f"{table}.tsv", rows)
+    with pytest.raises(InputFormatError, match=rf"{table}\.tsv: its first line was skipped as a header line "
+                                               r"\(--header yes.*'x0', a node of A, and 'y0', a node of B"):
+        read(bad)
+    good = read(_w(tmp_path, f"{table}_head.tsv", head + rows))  # with its own header line: read, 4 rows
+    assert len(good.pairs) == 4
+    if table == "prior":  # and the whole run refuses it before writing anything
+        with pytest.raises(InputFormatError, match="skipped as a header line"):
+            aligner.align(tmp_path / "a.tsv", tmp_path / "b.tsv", bad, header="yes")
