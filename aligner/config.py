@@ -206,7 +206,8 @@ class AlignConfig(_Config):
         25, "Candidates: every node's top-k prior pairs on each side (their union); None keeps all.",
         flag="--top-k", group=CANDIDATES, kind="int", low=1, optional=True)
     min_score: float = option(
-        0.0, "Drop prior pairs scoring below this (after the score-kind transformation).", flag="--min-score",
+        0.0, "Drop prior pairs scoring below this, after the score-kind transformation: with evalue a "
+        "-log10 value (5 keeps E <= 1e-5), with distance 1/(1+d).", flag="--min-score",
         group=CANDIDATES, kind="real")
     score_kind: str = option(
         "similarity", "How to read the prior's scores: similarity (higher is better), evalue (-log10, 0 capped "

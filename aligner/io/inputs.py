@@ -23,7 +23,8 @@ from aligner.core.network import Network
 from aligner.errors import InputFormatError, InvalidParameterError, NoCandidatesError
 from aligner.core.identifiers import PairTable, first_shared_node, lookup, pairs_from_columns
 from aligner.io.readers import (FIELD_BLANKS, Columns, Table, check_skipped_header, checked_network, network_from_table,
-                                prior_pick, read_network, read_table)
+                                prior_pick, read_network, read_table, score_column_name,
+                                warn_score_kind)
 from aligner.core.prior import PriorTable, prior_from_columns
 
 __all__ = ["as_table", "as_network", "as_prior", "as_pairs", "as_alignment", "known_pairs", "prior_notes"]
@@ -234,6 +235,8 @@ def as_prior(obj, net_a: Network, net_b: Network, kind: str, delimiter, header,
                      what="prior table", delimiter=delimiter, header=header,
                      source="<DataFrame prior>" if isinstance(obj, pd.DataFrame) else None, pick=prior_pick(columns))
     check_skipped_header(table, net_a, net_b, header)
+    names = obj.columns if isinstance(obj, pd.DataFrame) else None  # a DataFrame's own column names
+    warn_score_kind(table.source, score_column_name(table, names), kind)
     # a prior no file holds (a DataFrame, rows): the table keeps its rows, for the run's state,
     # so that an update can take them from there (a file is read again instead)
     return prior_notes(prior_from_columns(table.names(0), table.names(1), table.numeric(2, "score"), net_a, net_b,

@@ -648,13 +648,17 @@ def _read_table(path: str, *, min_cols: int, max_cols: int, delimiter, header: s
                             first[0] if has_header else start_no, len(pick.items) if required is None else required,
                             text_cols, check_header=header == "auto" and not has_header, first=first)
     if ncols < min_cols:
+        given = f" (the delimiter was given as {delimiter!r} with --delimiter, which applies to every input file)"
         raise InputFormatError(
             f"has {ncols} column{'s' if ncols != 1 else ''}, expected {expect} for {_a(what)}"
-            + ("" if sep is not None else " (the delimiter was taken to be white space; give --delimiter)"),
+            + (given if delimiter is not None else "" if sep is not None
+               else " (the delimiter was taken to be white space; give --delimiter)"),
             path=path, line=start_no)
     if ncols > max_cols:
+        pick_hint = (" or pick its node of A, node of B and score columns with --prior-columns (by position, such as "
+                     "1,2,11, or by header name)") if what == "prior table" else ""
         raise InputFormatError(f"has {ncols} columns, expected at most {max_cols} for {_a(what)}; "
-                               "remove the extra columns", path=path, line=start_no)
+                               f"remove the extra columns{pick_hint}", path=path, line=start_no)
     # both readers skip every line before the first data row (comments, blanks, the header)
     cols = _read_arrow(path, sep, ncols, start_no - 1)
     if cols is None:
@@ -1062,6 +1066,33 @@ def check_skipped_header(table: Table, net_a: Network, net_b: Network, header: s
                                "then found by its column names)", path=str(table.source))
 
 
+#: Names of a score column whose low values are the good ones, by the score kind they suggest
+#: (matched ignoring case, blanks, '_', '-' and '.').
+_SCORE_NAMES = {"evalue": "evalue", "expect": "evalue", "expectvalue": "evalue", "distance": "distance",
+                "dist": "distance"}
+
+
+def score_column_name(table: Table, columns=None) -> str | None:
+    """The name of a prior table's score column: its header's (a file), or ``columns``' (a
+    DataFrame's column names), at the position read (picked, or the third); None: no names."""
+    names = table.header if columns is None else [str(c) for c in columns]
+    at = table.picked[2] if table.picked is not None else 2
+    return names[at].strip() if names is not None and len(names) > at else None
+
+
+def warn_score_kind(source, name: str | None, kind: str) -> None:
+    """Warn when a prior's score column ``name``, read as a similarity (``kind``), is named as a
+    score whose low values are the good ones (``evalue``, ``distance``): the best pairs would
+    then count as the worst."""
+    if name is None or kind != "similarity":
+        return
+    suggested = _SCORE_NAMES.get(re.sub(r"[\s_.-]", "", name.lower()))
+    if suggested is not None:
+        warn(f"{source}: the score column is named {name!r} but is read as a similarity (higher is "
+             f"better); if its low values are the good ones, give --score-kind {suggested} "
+             f"(score_kind={suggested!r})")
+
+
 def read_prior(path: str | os.PathLike, net_a: Network, net_b: Network, *, kind: str = "similarity",
                delimiter: str | None = None, header: str = "auto", columns: str | None = None) -> PriorTable:
     """Read a prior similarity table ``node_a, node_b, score`` and map it onto two networks.
@@ -1080,6 +1111,7 @@ def read_prior(path: str | os.PathLike, net_a: Network, net_b: Network, *, kind:
     table = read_table(path, min_cols=3, max_cols=3, delimiter=delimiter, header=header, what="prior table",
                        pick=prior_pick(columns))
     check_skipped_header(table, net_a, net_b, header)
+    warn_score_kind(table.source, score_column_name(table), kind)
     return prior_from_columns(table.names(0), table.names(1), table.numeric(2, "score"), net_a, net_b, kind=kind,
                               source=table.source, origin=table.origin)
 
