@@ -498,6 +498,10 @@ def query(network_a, network_b, prior=None, *, nodes=None, node_file=None, seeds
     t0 = time.perf_counter()
     problem = prepare(network_a, network_b, prior, seeds=seeds, config=cfg, with_product=False)
     net_a, net_b = problem.network_a, problem.network_b
+    for net in (net_a, net_b):
+        if net.weighted:
+            warn(f"{net.source}: counterpart queries read networks undirected and unweighted; its weight column is "
+                 "not used (aligner align --weighted uses it)")
     asked = [_node_index(net_a if qcfg.side == "a" else net_b, v, qcfg.side, origin)
              for v, origin in zip(nodes, origins)]
     engine = QueryEngine.from_problem(problem, qcfg)

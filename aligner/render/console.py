@@ -192,14 +192,19 @@ def query_tables(summary: Mapping, *, side: str) -> list[tuple[Table, str]]:
     other = "B" if side == "a" else "A"
     shown = []
     for rec in summary["queries"]:
-        t = Table(title=f"Counterparts in {other} of {escape(str(rec['query']))}", header_style="bold")
+        t = Table(title=f"Counterparts in {other} of {escape(str(rec['query']))}, by diffusion score",
+                  header_style="bold")
         for col, just in (("rank", "right"), ("counterpart", "left"), ("score", "right"), ("± bound", "right"),
-                          ("prior", "right"), ("support", "right"), ("seed", "left")):
+                          ("prior", "right"), ("support", "right"), ("note", "left")):
             t.add_column(col, justify=just)
+        # the global assignment's counterpart, marked: the diffusion score alone also ranks high the
+        # pairs with few product-graph neighbours (docs/method.md, what the score is not)
+        chosen = (rec.get("answer") or {}).get("counterpart")
         for row in rec["counterparts"]:
+            note = "seed pair" if row["fixed"] else "assigned" if chosen is not None and \
+                str(row["counterpart"]) == str(chosen) else ""
             t.add_row(str(row["rank"]), escape(str(row["counterpart"])), f"{row['score']:.6f}",
-                      f"{row['error_bound']:.1e}", f"{row['prior']:.4g}", f"{row['support']:,}",
-                      "fixed" if row["fixed"] else "")
+                      f"{row['error_bound']:.1e}", f"{row['prior']:.4g}", f"{row['support']:,}", note)
         if rec.get("answer"):
             t.caption = _answer_line(rec["answer"])
         w = rec["work"]

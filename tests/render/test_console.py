@@ -47,14 +47,21 @@ def test_query_tables_one_per_node():
             {"rank": 1, "counterpart": "y1", "score": 0.5, "error_bound": 1e-5, "prior": 2.0, "support": 1500,
              "fixed": True},
             {"rank": 2, "counterpart": "[red]y2", "score": 0.25, "error_bound": 2e-5, "prior": 1.0, "support": 3,
+             "fixed": False},
+            {"rank": 3, "counterpart": "y3", "score": 0.2, "error_bound": 2e-5, "prior": 1.0, "support": 30,
              "fixed": False}],
+         "answer": {"counterpart": "y3", "fixed": False, "certified": True, "margin": 0.1, "runner_up": "y2",
+                    "rival": None, "region_rows": 10, "region_pairs": 30},
          "work": work}]}
     (table, line), = query_tables(summary, side="b")
     text = _text(table)
-    assert "Counterparts in A of [bold]x" in text  # side b: the counterparts are in A; markup shown as typed
+    assert "Counterparts in A of [bold]x, by diffusion score" in text  # side b; markup shown as typed
     rows = [" ".join(r.replace("│", " ").split()) for r in text.splitlines()]
-    assert "1 y1 0.500000 1.0e-05 2 1,500 fixed" in rows
+    assert "1 y1 0.500000 1.0e-05 2 1,500 seed pair" in rows
     assert "2 [red]y2 0.250000 2.0e-05 1 3" in rows
+    # the global assignment's pick is marked where the diffusion score ranks it (found by a user
+    # trial: the top-ranked counterpart was often not the one align chooses)
+    assert "3 y3 0.200000 2.0e-05 1 30 assigned" in rows
     assert line == "  3 candidates · 1,200 pairs touched · 45,000 product edges scanned · 9,876 pushes · 12.3 ms"
 
 

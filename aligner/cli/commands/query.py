@@ -32,7 +32,7 @@ def query(network_a: QueryA = None, network_b: QueryB = None, nodes: Nodes = Non
           prior: Prior = None, seeds: Seeds = None, run: Run = None, as_json: Json = False, quiet: Quiet = False,
           *, config: AlignConfig, query_config: QueryConfig):
     """Rank the best counterparts of a few nodes by a local diffusion, and give the counterpart the global
-    assignment would choose, without aligning everything."""
+    assignment would choose, without aligning everything. Networks are read undirected and unweighted."""
     if not nodes and node_file is None:
         raise InvalidParameterError("name at least one node to ask about: --node NODE (repeat for several) or "
                                     "--node-file FILE", param="nodes")
@@ -66,7 +66,8 @@ def _query_run(run: Path, nodes, node_file, given: tuple, config: AlignConfig, q
     for name in ("directed", "weighted"):
         if getattr(cfg, name):
             raise InvalidParameterError(f"the run is {name}; counterpart queries read undirected, unweighted "
-                                        "networks", param="run")
+                                        "networks: the run's alignment.tsv gives each matched node's partner with "
+                                        "its confidence and alternatives", param="run")
     if inputs["prior"] is None and inputs["seeds"] is None:
         raise InvalidParameterError("the run had neither a prior nor seeds (its candidates came from the networks' "
                                     "structure); a query needs one of them", param="run")
