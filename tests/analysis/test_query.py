@@ -421,3 +421,19 @@ def test_a_tolerance_of_one_or_more_is_refused_naming_the_option(tmp_path):
         assert "error: --tol must be a number in (0, 1); got 1e+308" in res.output
         assert "Warning" not in res.output and "Traceback" not in res.output
     assert not (tmp_path / "out").exists()
+
+
+def test_a_weighted_network_file_is_warned_about(tmp_path):
+    # Found by a user trial: a query read a weighted (three-column) edge list unweighted without a
+    # word. Queries read networks undirected and unweighted (docs/method.md); common practice:
+    # say so where input is not used.
+    from aligner.errors import AlignerWarning
+
+    a, b, p = tmp_path / "a.tsv", tmp_path / "b.tsv", tmp_path / "p.tsv"
+    a.write_text("x0\tx1\t3\nx1\tx2\t1\nx2\tx0\t2\n")
+    b.write_text("y0\ty1\ny1\ty2\ny2\ty0\n")
+    p.write_text("x0\ty0\t1\nx1\ty1\t1\nx2\ty2\t1\n")
+    with pytest.warns(AlignerWarning, match=r"a\.tsv: counterpart queries read networks undirected and unweighted; "
+                                            r"its weight column is not used"):
+        q = aligner.query(a, b, p, nodes=["x0"])
+    assert q.answers.counterpart.tolist() == ["y0"]
