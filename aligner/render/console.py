@@ -53,14 +53,22 @@ def scores_table(scores: dict, title: str = "Scores") -> Table:
     return t
 
 
+def network_size(tag: str, net: dict) -> tuple[str, str]:
+    """A network's size as a (label, value) row: nodes and edges, and in a directed run the arcs
+    first (what its scores count), from a ``summary.json`` network record."""
+    if net.get("arcs") is None:
+        return f"network {tag}: nodes / edges", f"{net['nodes']:,} / {net['edges']:,}"
+    return f"network {tag}: nodes / arcs / edges", f"{net['nodes']:,} / {net['arcs']:,} / {net['edges']:,}"
+
+
 def summary_table(summary: dict) -> Table:
     """The run summary: sizes, solver figures and scores in one table."""
     t = Table(title="aligner run", show_header=True, header_style="bold")
     t.add_column("item")
     t.add_column("value", justify="right")
     ia, ib = summary["inputs"]["network_a"], summary["inputs"]["network_b"]
-    t.add_row("network A: nodes / edges", f"{ia['nodes']:,} / {ia['edges']:,}")
-    t.add_row("network B: nodes / edges", f"{ib['nodes']:,} / {ib['edges']:,}")
+    t.add_row(*network_size("A", ia))
+    t.add_row(*network_size("B", ib))
     for tag, net in (("A", ia), ("B", ib)):
         if net["self_loops_dropped"] or net["duplicate_edges_merged"]:
             t.add_row(f"network {tag}: self-loops dropped / duplicates merged",

@@ -18,6 +18,7 @@ from aligner.io.outputs import (REPORT_FILE, RERUN_SWEEP, TRANSFER_TABLE, damage
 from aligner.io.readers import read_network, read_table
 from aligner.io.state import STATE_FILE, held_network, read_state
 from aligner.render import explorer
+from aligner.render.console import network_size
 from aligner.render.figures import (LABEL_ALL_UP_TO, LABELLED_HUBS, degree_plot, figure_bytes, histogram,
                                     subgraph_drawing, sweep_figure)
 
@@ -324,10 +325,8 @@ def _check_run_network(net, side: str, source, out: Path, summary: dict, pairs: 
 
 def _inputs_section(summary: dict) -> str:
     ins = summary["inputs"]
-    rows = [("network A", ins["network_a"]["source"]),
-            ("network A: nodes / edges", f"{ins['network_a']['nodes']:,} / {ins['network_a']['edges']:,}"),
-            ("network B", ins["network_b"]["source"]),
-            ("network B: nodes / edges", f"{ins['network_b']['nodes']:,} / {ins['network_b']['edges']:,}")]
+    rows = [("network A", ins["network_a"]["source"]), network_size("A", ins["network_a"]),
+            ("network B", ins["network_b"]["source"]), network_size("B", ins["network_b"])]
     if ins.get("prior"):
         rows += [("prior", ins["prior"]["source"]),
                  ("prior rows / usable pairs", f"{ins['prior']['rows']:,} / {ins['prior']['pairs']:,}")]

@@ -7,6 +7,7 @@ diffusion scores differ by at most the sum of their certified bounds (summary er
 
 import dataclasses
 import json
+import re
 import os
 import subprocess
 import sys
@@ -166,6 +167,10 @@ def test_the_command_writes_the_files_and_refuses_cleanly(base, tmp_path):
     summary = json.loads((tmp_path / "u" / "summary.json").read_text())
     assert summary["update"]["matches_changed"] == 0 and summary["update"]["changes"]["edges_b_added"] == 0
     assert (tmp_path / "u" / "state.npz").is_file()  # an update keeps a state for the next one
+    # the line says what changed, candidates removed too, each noun with its number (a user trial
+    # read "1 edges", and "0 ... added" where the change removed candidates)
+    assert re.search(r"update \(\w+\): 0 edges of A and 0 of B changed, 0 candidate pairs added, 0 removed, "
+                     r"0 rescored; [\d,]+ push(es)? against [\d,]+; 0 matches changed", got.output), got.output
     # a previous input that changed since the run, and not given: exit 2, nothing written
     run2 = tmp_path / "run2"
     src = tmp_path / "a_moving.tsv"

@@ -60,13 +60,21 @@ def update(previous: Previous, outdir: Out, a: NewA = None, b: NewB = None, prio
         out.print(summary_table(res.summary))
         u = res.summary["update"]
         c = u["changes"]
-        say(f"update ({u['mode']}): {c['edges_a_added'] + c['edges_a_removed']:,} edges of A and "
-            f"{c['edges_b_added'] + c['edges_b_removed']:,} of B changed, {c['candidates_added']:,} candidate pairs "
-            f"added, {c['candidates_rescored']:,} rescored; {u['pushes']:,} pushes against {u['previous_pushes']:,}; "
-            f"{u['matches_changed']:,} matches changed; {u['seconds']:.2f} s against {u['previous_seconds']:.2f} s")
+        edges_a, edges_b = c["edges_a_added"] + c["edges_a_removed"], c["edges_b_added"] + c["edges_b_removed"]
+        weights = " (their weights are not compared)" if res.problem.config.weighted else ""
+        say(f"update ({u['mode']}): {_count(edges_a, 'edge')} of A and {edges_b:,} of B changed{weights}, "
+            f"{_count(c['candidates_added'], 'candidate pair')} added, {c['candidates_removed']:,} removed, "
+            f"{c['candidates_rescored']:,} rescored; {_count(u['pushes'], 'push', 'pushes')} against "
+            f"{u['previous_pushes']:,}; {_count(u['matches_changed'], 'match', 'matches')} changed; "
+            f"{u['seconds']:.2f} s against {u['previous_seconds']:.2f} s")
         r = u.get("refine")
         if r:
             say("refinement: " + (f"continued from the previous matching over {r['candidates_marked']:,} candidates "
                                   f"the change reached, {r['moves']:,} moves" if r["mode"] == "continued"
                                   else r["reason"]))
         say(f"wrote {', '.join(str(p) for p in written)}")
+
+
+def _count(n: int, one: str, many: str | None = None) -> str:
+    """``n`` with its noun, singular or plural (``1 edge``, ``2 edges``)."""
+    return f"{n:,} {one if n == 1 else many or one + 's'}"
