@@ -73,7 +73,7 @@ import pandas as pd
 import scipy.sparse as sp
 
 import aligner.kernels.labels as _k
-from aligner.checks import bad_parameter, check_int, check_real
+from aligner.checks import bad_parameter, check_int, check_real, warn
 from aligner.config import LabelConfig
 from aligner.core.arrays import unique
 from aligner.errors import InputFormatError, InvalidParameterError
@@ -89,6 +89,10 @@ BLOCK_ROWS = 8192
 ROUNDING = 1e-12
 
 _HEADER = ("node", "label")
+#: A first line is a header when its two fields are column names: an identifier's (``id``,
+#: ``record_id``, ``node``) and a label's (``name``, ``company_name``, ``label``).
+_ID_NAME = re.compile(r"^(?:node|id|identifier|key|record|entity|entry)$|^[a-z][a-z0-9]*[ _.-]?(?:id|key)$")
+_LABEL_NAME = re.compile(r"^(?:label|name|title|text|description)$|^[a-z][a-z0-9]*[ _.-](?:label|name|title)$")
 _NON_WORD = re.compile(r"[\W_]+")
 
 
@@ -104,7 +108,10 @@ def read_labels(path: str | os.PathLike) -> pd.Series:
         identifier, a TAB and the label text, which may contain spaces, commas and further
         tabs (everything after the first tab is the label). A line without a tab, or with an
         empty label, gives a node whose identifier is its own label. Blank lines and lines
-        starting with ``#`` are skipped, and so is a first line ``node<TAB>label`` (any case).
+        starting with ``#`` are skipped, and so is a first line of two column names
+        (``node<TAB>label``, ``id<TAB>name``, ``record_id<TAB>company_name``; any case). A
+        file with no tab whose lines each hold two commas or semicolons or more (a table of
+        records read as a label file) is warned about.
         Spaces around the identifier and the label are removed.
 
     Returns
@@ -134,8 +141,10 @@ def read_labels(path: str | os.PathLike) -> pd.Series:
     texts: list[str] = []
     seen: dict[str, int] = {}
     header: list[int] = []
+    tabbed = False
     with reading_errors(path):
         for no, text, node, label in _label_lines(path, header):
+            tabbed = tabbed or "\t" in text
             if not node:
                 raise InputFormatError(f"has an empty node identifier: {text[:80]!r}; give each node an "
                                        "identifier before the tab", path=path, line=no)
@@ -145,6 +154,10 @@ def read_labels(path: str | os.PathLike) -> pd.Series:
             seen[node] = no
             ids.append(node)
             texts.append(label if label else node)
+    if ids and not tabbed and all(t.count(",") >= 2 or t.count(";") >= 2 for t in texts[:100]):
+        warn(f"{path}: no line holds a tab, so each whole line is taken for a node identifier (and its label), "
+             f"such as {ids[0][:60]!r}; if this is a table of records, give --label-columns (label_columns) to "
+             "pick its identifier and label fields")
     if not ids:  # as read_table refuses a table without data rows
         if header:
             raise InputFormatError("has a header line but no data rows: expected a label file below it (one node "
@@ -157,8 +170,8 @@ def read_labels(path: str | os.PathLike) -> pd.Series:
 def _label_lines(path: str, header: list[int]):
     """Yield (line number, text, identifier, label) of the data lines of a label file.
 
-    Blank and comment lines are skipped, and so is a first data line ``node<TAB>label`` (its
-    line number is appended to ``header``).
+    Blank and comment lines are skipped, and so is a first data line of two column names
+    (``node<TAB>label``, ``id<TAB>name``: its line number is appended to ``header``).
     """
     first = True
     for no, line in enumerate(open_text(path), 1):
@@ -170,7 +183,7 @@ def _label_lines(path: str, header: list[int]):
         node, label = node.strip(), label.strip()
         if first:
             first = False
-            if tab and (node.lower(), label.lower()) == _HEADER:
+            if tab and (_ID_NAME.match(node.lower()) and _LABEL_NAME.match(label.lower())):
                 header.append(no)
                 continue
         yield no, text, node, label

@@ -160,6 +160,29 @@ def test_identifiers_are_their_own_labels(tmp_path):
     assert s.to_dict() == {"Vantric Freight": "Vantric Freight", "Olmera Foods": "Olmera Foods"}
 
 
+def test_column_names_and_a_table_of_records_in_a_label_file(tmp_path):
+    # Found by a user trial: a first line "id<TAB>name" became a node, and a CSV of records given
+    # without --label-columns became whole-line identifiers without a word. Common practice
+    # (column names of record tables): such a first line is a header; the CSV is warned about.
+    import warnings
+
+    from aligner.errors import AlignerWarning
+
+    p = tmp_path / "labels.tsv"
+    for head in ("id\tname", "Record_ID\tcompany_name", "node\tlabel", "key\ttitle"):
+        p.write_text(f"{head}\nR1\tVantric Freight\n", encoding="utf-8")
+        assert read_labels(p).to_dict() == {"R1": "Vantric Freight"}, head
+    p.write_text("rec_1\tname\n", encoding="utf-8")  # a node whose label is the word "name": data
+    assert read_labels(p).to_dict() == {"rec_1": "name"}
+    p.write_text("id,name,town\nrec_0,Vantric Freight,Tarvel\nrec_1,Olmera Foods,Sund\n", encoding="utf-8")
+    with pytest.warns(AlignerWarning, match=r"labels\.tsv: no line holds a tab.*'id,name,town'.*--label-columns"):
+        read_labels(p)
+    p.write_text("Vantric Freight, Ltd\nOlmera Foods, Inc\n", encoding="utf-8")  # names with a comma: fine
+    with warnings.catch_warnings():
+        warnings.simplefilter("error", AlignerWarning)
+        assert read_labels(p).index.tolist() == ["Vantric Freight, Ltd", "Olmera Foods, Inc"]
+
+
 @pytest.mark.parametrize("text, line, match", [
     ("a\tx\nb\ty\na\tz\n", 3, "repeats the node identifier 'a' \\(first on line 1\\)"),
     ("# c\n\tno identifier\n", 2, "empty node identifier"),
