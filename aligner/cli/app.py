@@ -88,7 +88,7 @@ def _version(value: bool) -> None:
 
 
 @app.callback()
-def main(version: Annotated[bool, typer.Option("--version", callback=_version, is_eager=True,
+def main(version: Annotated[bool, typer.Option("--version", callback=_version, is_eager=True, metavar="",
                                                help="Print the version and exit.")] = False) -> None:
     """One-to-one alignment of two networks from a prior similarity table and their wiring."""
 
