@@ -319,8 +319,8 @@ def _gib(nbytes: float) -> str:
 def check_memory(inputs: Inputs, cand: CandidateSet, cfg: AlignConfig) -> int:
     """The product graph's estimated stored entries; MemoryBudgetError when over the budget."""
     a_ip, a_ix, _ = inputs.network_a.walk_adjacency(cfg.directed, cfg.weighted)
-    b_ip, _, _ = inputs.network_b.walk_adjacency(cfg.directed, cfg.weighted)
-    estimate = estimate_product_edges(a_ip, a_ix, b_ip, cand)
+    b_ip, b_ix, _ = inputs.network_b.walk_adjacency(cfg.directed, cfg.weighted)
+    estimate = estimate_product_edges(a_ip, a_ix, b_ip, b_ix, cand)
     budget = _memory_budget(cfg.max_memory)
     need = estimate * BYTES_PER_PRODUCT_ENTRY + cand.m * 64
     if need > budget:

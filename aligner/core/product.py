@@ -324,17 +324,23 @@ def estimate_product_edges(
     a_indptr: npt.NDArray[np.int64],
     a_indices: npt.NDArray[np.int32],
     b_indptr: npt.NDArray[np.int64],
+    b_indices: npt.NDArray[np.int32],
     cand: CandidateSet,
 ) -> int:
     """An upper bound on the stored product-graph entries, from degrees and candidate counts.
 
-    For pair (i, i') the bound is min(sum over neighbours j of i of c_j, deg_A(i) * deg_B(i')),
-    with c_j the number of candidates of j. Cost O(m + |E_A|); used to refuse a build that
-    would not fit in memory before any of it is allocated.
+    For pair (i, i') the bound is min(sum over neighbours j of i of c_j, sum over neighbours j'
+    of i' of c'_j', deg_A(i) * deg_B(i')), with c_j and c'_j' the numbers of candidates of node
+    j of A and of node j' of B (the first two count the candidate pairs a row could reach from
+    either side, so a hub of either network with many candidates is bounded alike). Cost O(m +
+    |E_A| + |E_B|); used to refuse a build that would not fit in memory before any of it is
+    allocated.
     """
     if cand.m == 0:
         return 0
     a_indptr = np.ascontiguousarray(a_indptr, dtype=np.int64)
     b_indptr = np.ascontiguousarray(b_indptr, dtype=np.int64)
     a_indices = np.ascontiguousarray(a_indices, dtype=np.int32)
-    return int(product_bound(a_indptr, a_indices, cand.a_indptr, np.ascontiguousarray(cand.pairs[:, 1]), b_indptr))
+    b_indices = np.ascontiguousarray(b_indices, dtype=np.int32)
+    return int(product_bound(a_indptr, a_indices, cand.a_indptr, np.ascontiguousarray(cand.pairs[:, 1]), b_indptr,
+                             b_indices))

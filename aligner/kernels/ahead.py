@@ -38,7 +38,7 @@ STAGE_KERNELS: dict[str, list[tuple[str, str, str]]] = {
         ("candidates", "pairs_order", "int32[:, ::1], int64, int64"),
     ],
     "product": [
-        ("product", "product_bound", f"{_I64}, {_I32}, {_I64}, {_I32}, {_I64}"),
+        ("product", "product_bound", f"{_I64}, {_I32}, {_I64}, {_I32}, {_I64}, {_I32}"),
         ("product", "product_rows",
          f"{_I64}, {_I64}, {_I32}, {_I64}, {_I32}, {_I64}, {_I32}, {_I64}, {_I32}, {_F64}, {_F64}, float64, {_I64}"),
     ],

@@ -4,6 +4,7 @@ import numba
 import numpy as np
 
 from aligner.kernels.options import OUTER, inner
+from aligner.kernels.utils import _find
 
 
 _EMPTY = -1
@@ -31,7 +32,10 @@ def product_rows(nodes, a_indptr, a_indices, b_indptr, b_indices, c_indptr, c_b,
     look up j' in it. The hits are collected, then written row by row
     (a counting sort on the row): since candidates are sorted by (j, j') and A's neighbour
     lists are sorted, each row comes out sorted. Work per i: sum of deg_B(i') over its
-    candidates, plus the candidates of its neighbours, plus the output.
+    candidates, plus the candidates of its neighbours, plus the output. A candidate partner i'
+    of high degree (a hub of B, :func:`_by_search`) is not put in the table: each looked-up j'
+    is searched for in its sorted neighbour list instead, so that a hub that is a candidate of
+    many nodes of A costs their few look-ups each, not its whole neighbourhood each time.
 
     The candidates (the pairs a row may hold) are ``c_indptr`` (by node of A) and ``c_b`` (their
     nodes of B); the rows built are those of the pairs ``r_indptr[i] .. r_indptr[i+1]-1`` of
@@ -68,6 +72,7 @@ def product_rows(nodes, a_indptr, a_indices, b_indptr, b_indices, c_indptr, c_b,
     hit_row = np.empty(256, dtype=np.int32)
     hit_u = np.empty(256, dtype=np.int32)
     hit_w = np.empty(256 if weighted else 0, dtype=np.float64)
+    big = np.empty(16, dtype=np.int32)  # the rows of the node's candidates looked up by search
     slot = 0  # the slot in ``counts`` of the next node's first pair
     for i in nodes:
         k0 = r_indptr[i]
@@ -77,22 +82,51 @@ def product_rows(nodes, a_indptr, a_indices, b_indptr, b_indices, c_indptr, c_b,
         slot = r1
         if k1 == k0 or a_indptr[i + 1] == a_indptr[i]:
             continue
-        ne = 0
-        for k in range(k0, k1):
-            ne += b_indptr[r_b[k] + 1] - b_indptr[r_b[k]]
-        if ne == 0:
-            continue
         # read the first entry of every row about to be used, in one simple loop: the loads do
         # not wait for each other, so their cache misses overlap (the loops below, full of
-        # unpredictable branches, would otherwise take them one at a time)
+        # unpredictable branches, would otherwise take them one at a time); and count the
+        # look-ups to come, the candidates of i's neighbours
+        looks = 0
+        for s in range(a_indptr[i], a_indptr[i + 1]):
+            j = a_indices[s]
+            c0 = c_indptr[j]
+            c1 = c_indptr[j + 1]
+            looks += c1 - c0
+            if c1 > c0:
+                touched ^= c_b[c0]
+        if k1 - k0 > big.shape[0]:
+            big = np.empty(2 * (k1 - k0), dtype=np.int32)
+        # which lists are searched rather than tabled or scanned (hubs, :func:`_by_search`): the
+        # rows whose partner has many neighbours against the look-ups, then the neighbours j
+        # with many candidates against the table those rows leave (``full``), then the rows
+        # again against the look-ups those neighbours leave
+        full = 0
         for k in range(k0, k1):
+            d = b_indptr[r_b[k] + 1] - b_indptr[r_b[k]]
+            if not _by_search(d, looks):
+                full += d
+        if full < looks:  # a neighbour searched leaves fewer look-ups
+            left = 0
+            for s in range(a_indptr[i], a_indptr[i + 1]):
+                d = c_indptr[a_indices[s] + 1] - c_indptr[a_indices[s]]
+                if not _by_search(d, full):
+                    left += d
+            looks = left
+        ne = 0
+        nbig = 0
+        for k in range(k0, k1):
+            d = b_indptr[r_b[k] + 1] - b_indptr[r_b[k]]
+            if _by_search(d, looks):
+                big[nbig] = k - k0
+                nbig += 1
+            else:
+                ne += d
+        if ne == 0 and nbig == 0:
+            continue
+        for k in range(k0, k1):  # (the same for B's rows)
             ip = r_b[k]
             if b_indptr[ip + 1] > b_indptr[ip]:
                 touched ^= b_indices[b_indptr[ip]]
-        for s in range(a_indptr[i], a_indptr[i + 1]):
-            j = a_indices[s]
-            if c_indptr[j + 1] > c_indptr[j]:
-                touched ^= c_b[c_indptr[j]]
         bits = 4
         while (1 << bits) < 8 * ne:  # load at most 1/8: most look-ups miss, and miss at once
             bits += 1
@@ -109,6 +143,8 @@ def product_rows(nodes, a_indptr, a_indices, b_indptr, b_indices, c_indptr, c_b,
         e = 0
         for k in range(k0, k1):  # the table: key b -> its entries (row k - k0, w_B(i', b)), last first
             ip = r_b[k]
+            if _by_search(b_indptr[ip + 1] - b_indptr[ip], looks):
+                continue
             for t in range(b_indptr[ip], b_indptr[ip + 1]):
                 b = b_indices[t]
                 h = ((b * _MIX) & 0xFFFFFFFF) >> (32 - bits)  # multiplicative hashing: the top bits
@@ -125,13 +161,15 @@ def product_rows(nodes, a_indptr, a_indices, b_indptr, b_indices, c_indptr, c_b,
                     ent_w[e] = b_w[t]
                 e += 1
         nh = _hits(i, a_indptr, a_indices, a_w, c_indptr, c_b, bits, tab_key, tab_head, ent_row, ent_next, ent_w,
-                   floor, hit_row, hit_u, hit_w)
+                   floor, hit_row, hit_u, hit_w, big[:nbig], k0, k1 - k0, r_b, b_indptr, b_indices, b_w,
+                   full, looks)
         while nh < 0:  # out of room: grow and look again
             hit_row = np.empty(2 * hit_row.shape[0], dtype=np.int32)
             hit_u = np.empty(hit_row.shape[0], dtype=np.int32)
             hit_w = np.empty(hit_row.shape[0] if weighted else 0, dtype=np.float64)
             nh = _hits(i, a_indptr, a_indices, a_w, c_indptr, c_b, bits, tab_key, tab_head, ent_row, ent_next, ent_w,
-                       floor, hit_row, hit_u, hit_w)
+                       floor, hit_row, hit_u, hit_w, big[:nbig], k0, k1 - k0, r_b, b_indptr, b_indices, b_w,
+                       full, looks)
         tab_key[: 1 << bits] = _EMPTY
         if nh == 0:
             continue
@@ -171,19 +209,81 @@ def product_rows(nodes, a_indptr, a_indices, b_indptr, b_indices, c_indptr, c_b,
 
 
 @inner
+def _by_search(degree, looks):
+    """Whether a candidate partner of B with ``degree`` neighbours is looked up by binary search
+    in its neighbour list (``looks`` searches of about log2(degree) steps each) rather than put
+    in the node's table (``degree`` insertions): when the searches cost less."""
+    if degree <= 2 * looks:  # the usual answer, found at once
+        return False
+    steps = 1
+    while (1 << steps) < degree:
+        steps += 1
+    return degree > 2 * looks * steps
+
+
+@inner
 def _hits(i, a_indptr, a_indices, a_w, c_indptr, c_b, bits, tab_key, tab_head, ent_row, ent_next, ent_w, floor,
-          hit_row, hit_u, hit_w):
+          hit_row, hit_u, hit_w, big, k0, ntab, r_b, b_indptr, b_indices, b_w, full, looks):
     """Look up the partner j' of every candidate u = (j, j') of every neighbour j of i: one hit
-    (row, u, weight) per table entry of key j' (the weight as in :func:`product_rows`). The
-    number of hits, or -1 when they do not fit."""
+    (row, u, weight) per table entry of key j', and per row of ``big`` (rows k - ``k0`` left out
+    of the table) whose partner r_b[k] has j' as a neighbour (a binary search); the weight as in
+    :func:`product_rows`. A neighbour j with many more candidates than ``full`` (the table's
+    entries before the last choice of rows) is met the other way round: the neighbours of each
+    tabled row (of the ``ntab`` rows from ``k0``, those :func:`_by_search` keeps for the table
+    against ``looks``) are searched for among j's candidates. The number of hits, or -1 when
+    they do not fit."""
     mask = (1 << bits) - 1
     weighted = hit_w.shape[0] > 0
     room = hit_row.shape[0]
     nh = 0
     for s in range(a_indptr[i], a_indptr[i + 1]):
         j = a_indices[s]
-        for u in range(c_indptr[j], c_indptr[j + 1]):
+        c0 = c_indptr[j]
+        c1 = c_indptr[j + 1]
+        searched = _by_search(c1 - c0, full)
+        if searched:
+            # a neighbour with more candidates than the table has entries (a hub of A that is a
+            # candidate of many nodes of B): each table row's neighbours b are searched for among
+            # j's candidates (sorted by node of B, so a row's hits still come in order of u)
+            for k in range(k0, k0 + ntab):
+                if _by_search(b_indptr[r_b[k] + 1] - b_indptr[r_b[k]], looks):
+                    continue
+                ip = r_b[k]
+                for t in range(b_indptr[ip], b_indptr[ip + 1]):
+                    u = _find(c_b, c0, c1, b_indices[t])
+                    if u < 0:
+                        continue
+                    if nh == room:
+                        return -1
+                    hit_row[nh] = k - k0
+                    hit_u[nh] = u
+                    if weighted:
+                        if floor < 0:
+                            hit_w[nh] = a_w[s] * b_w[t]
+                        else:
+                            hit_w[nh] = floor + (1.0 - floor) * (1.0 - abs(a_w[s] - b_w[t]))
+                    nh += 1
+            if big.shape[0] == 0:
+                continue
+        for u in range(c0, c1):
             b = c_b[u]
+            for x in range(big.shape[0]):
+                ip = r_b[k0 + big[x]]
+                t = _find(b_indices, b_indptr[ip], b_indptr[ip + 1], b)
+                if t < 0:
+                    continue
+                if nh == room:
+                    return -1
+                hit_row[nh] = big[x]
+                hit_u[nh] = u
+                if weighted:
+                    if floor < 0:
+                        hit_w[nh] = a_w[s] * b_w[t]
+                    else:
+                        hit_w[nh] = floor + (1.0 - floor) * (1.0 - abs(a_w[s] - b_w[t]))
+                nh += 1
+            if searched:  # the table's rows were searched for above
+                continue
             h = ((b * _MIX) & 0xFFFFFFFF) >> (32 - bits)  # multiplicative hashing: the top bits
             while tab_key[h] != _EMPTY and tab_key[h] != b:
                 h = (h + 1) & mask
@@ -206,11 +306,24 @@ def _hits(i, a_indptr, a_indices, a_w, c_indptr, c_b, bits, tab_key, tab_head, e
 
 
 @numba.njit(cache=True, nogil=True, **OUTER)
-def product_bound(a_indptr, a_indices, c_indptr, c_b, b_indptr):
-    """Sum over the candidate pairs (i, i') of min(sum over neighbours j of i of c_j,
-    deg_A(i) * deg_B(i')), with c_j the number of candidates of j: an upper bound on the
-    product graph's stored entries. One pass over A's adjacency and one over the pairs."""
+def product_bound(a_indptr, a_indices, c_indptr, c_b, b_indptr, b_indices):
+    """Sum over the candidate pairs (i, i') of min(sum over neighbours j of i of c_j, sum over
+    neighbours j' of i' of c'_j', deg_A(i) * deg_B(i')), with c_j and c'_j' the numbers of
+    candidates of node j of A and of node j' of B: an upper bound on the product graph's stored
+    entries, the same whichever network is A. One pass over each adjacency and one over the pairs."""
     n1 = c_indptr.shape[0] - 1
+    n2 = b_indptr.shape[0] - 1
+    per_b = np.empty(n2, dtype=np.int64)  # candidates of each node of B
+    for t in range(n2):
+        per_b[t] = 0
+    for k in range(c_b.shape[0]):
+        per_b[c_b[k]] += 1
+    reach_b = np.empty(n2, dtype=np.int64)
+    for t in range(n2):
+        r = 0
+        for e in range(b_indptr[t], b_indptr[t + 1]):
+            r += per_b[b_indices[e]]
+        reach_b[t] = r
     total = 0
     for i in range(n1):
         k0 = c_indptr[i]
@@ -224,7 +337,7 @@ def product_bound(a_indptr, a_indices, c_indptr, c_b, b_indptr):
         deg = a_indptr[i + 1] - a_indptr[i]
         for k in range(k0, k1):
             ip = c_b[k]
-            total += min(reach, deg * (b_indptr[ip + 1] - b_indptr[ip]))
+            total += min(reach, reach_b[ip], deg * (b_indptr[ip + 1] - b_indptr[ip]))
     return total
 
 

@@ -36,7 +36,7 @@ def test_matches_networkx_tensor_product_restricted(seed):
     for k in range(prod.m):
         row = prod.indices[prod.indptr[k]:prod.indptr[k + 1]]
         assert np.all(np.diff(row) > 0)
-    assert estimate_product_edges(ia, xa, ib, cand) >= 2 * prod.n_edges
+    assert estimate_product_edges(ia, xa, ib, xb, cand) >= 2 * prod.n_edges
 
 
 def test_empty_candidates():
@@ -72,7 +72,7 @@ def test_empty_product_has_empty_int32_lists():
         prod = build_product(ia, xa, ia, xa, cand, **kw)
         assert prod.indices.shape == (0,) and prod.indices.dtype == np.int32 and prod.indptr.tolist() == [0]
         assert prod.to_csr().shape == (0, 0)
-    assert estimate_product_edges(ia, xa, ia, cand) == 0
+    assert estimate_product_edges(ia, xa, ia, xa, cand) == 0
 
 
 def _last_pair_isolated(directed):
@@ -105,7 +105,7 @@ def test_shapes_and_defaults_when_the_last_pair_has_no_neighbour(directed):
     assert sym.m == 3 and sym.indptr.tolist() == [0, 1, 2, 2] and sym.indices.tolist() == [1, 0]
     assert not sym.directed
     # A's last node (3) has no edge: the estimate must still cover it (bound 0 there)
-    assert estimate_product_edges(ip, ix, ip, cand) >= prod.indptr[-1]
+    assert estimate_product_edges(ip, ix, ip, ix, cand) >= prod.indptr[-1]
 
 
 def test_empty_product_keeps_direction_and_weights():
@@ -167,12 +167,69 @@ def test_equals_scipy_kron_restricted_to_the_candidates(directed, weighted, seed
         else:
             assert prod.weights is None
     # the memory estimate is an upper bound on the stored entries
-    assert estimate_product_edges(adj_a[0], adj_a[1], adj_b[0], cand) >= want.nnz
+    assert estimate_product_edges(adj_a[0], adj_a[1], adj_b[0], adj_b[1], cand) >= want.nnz
     # the row lengths counted without keeping the rows: those of the reference, in a few ranges
     # or in about one range per node of A
     np.testing.assert_array_equal(product_row_lengths(adj_a[0], adj_a[1], adj_b[0], adj_b[1], cand), np.diff(want.indptr))
     monkeypatch.setattr(product_module, "COUNT_RANGE", 1)
     np.testing.assert_array_equal(product_row_lengths(adj_a[0], adj_a[1], adj_b[0], adj_b[1], cand), np.diff(want.indptr))
+
+
+@pytest.mark.parametrize("directed", [False, True])
+@pytest.mark.parametrize("weighted", [False, True])
+@pytest.mark.parametrize("sides", ["b", "a", "ab"])
+def test_hubs_looked_up_by_search_give_the_kron_entries(directed, weighted, sides):
+    # Reference: scipy.sparse.kron restricted to the candidates, as above, on a pair whose
+    # networks both have hubs (nodes joined to most others) that are candidates of nearly every
+    # node of the other network: the kernel searches a hub's sorted lists instead of tabling or
+    # scanning them (found by a trial on hub graphs: the product stage grew with hub degree
+    # squared, 111 s at degree 30,000 on 10^5 nodes), with the same rows.
+    from aligner.core.network import adjacency
+    from aligner.kernels.product import _by_search
+
+    rng = np.random.default_rng(7)
+    n, hubs = 300, np.array([0, 1, 2])
+    nets = []
+    for side in ("a", "b"):
+        e = np.argwhere(rng.random((n, n)) < 0.01)
+        spokes = np.array([(h, v) for h in hubs for v in range(3, n) if rng.random() < 0.9])
+        if directed:  # arcs both ways round at the hubs
+            spokes = np.concatenate([spokes, spokes[::3, ::-1]])
+        if side in sides:
+            e = np.concatenate([e, spokes])
+        e = np.unique(e[e[:, 0] != e[:, 1]] if directed else np.sort(e[e[:, 0] != e[:, 1]], axis=1), axis=0)
+        w = rng.random(len(e)) + 0.5 if weighted else None
+        nets.append((e, w, adjacency(e, n, w, symmetric=not directed)))
+    (ea, wa, adj_a), (eb, wb, adj_b) = nets
+    every = np.arange(n)
+    pairs = [np.argwhere(rng.random((n, n)) < 0.01)]
+    if "b" in sides:  # the hubs of B: everyone's candidates
+        pairs += [np.stack([every, np.full(n, h)], axis=1) for h in hubs]
+    if "a" in sides:
+        pairs += [np.stack([np.full(n, h), every], axis=1) for h in hubs]
+    cand = build_candidates(np.concatenate(pairs), rng.random(sum(map(len, pairs))), n, n, top_k=None)
+    # with the hubs on one side, that side's search is reached (else this test would not cover
+    # it): a hub of B for a node of A with few look-ups, a hub of A for a neighbour whose table is
+    # small (the predicates of aligner.kernels.product.product_rows)
+    c, deg_b = np.diff(cand.a_indptr), np.diff(adj_b[0])
+    at = [i for i in range(n) if adj_a[0][i + 1] > adj_a[0][i]]
+    looks = {i: int(c[adj_a[1][adj_a[0][i]:adj_a[0][i + 1]]].sum()) for i in at}
+    table = {i: int(deg_b[cand.pairs[cand.a_indptr[i]:cand.a_indptr[i + 1], 1]].sum()) for i in at}
+    if sides == "b":
+        assert any(_by_search(int(deg_b[hubs].min()), looks[i]) for i in at)
+    if sides == "a":
+        near_hub = [i for i in at if np.isin(hubs, adj_a[1][adj_a[0][i]:adj_a[0][i + 1]]).any()]
+        assert any(_by_search(int(c[hubs].min()), table[i]) for i in near_hub)
+    kw = {"directed": directed, "a_weights": adj_a[2] if weighted else None, "b_weights": adj_b[2] if weighted else None}
+    want = _kron_restricted(n, ea, wa, n, eb, wb, cand, directed)
+    got = build_product(adj_a[0], adj_a[1], adj_b[0], adj_b[1], cand, **kw)
+    assert want.nnz > 0
+    np.testing.assert_array_equal(got.indptr, want.indptr)
+    np.testing.assert_array_equal(got.indices, want.indices)
+    if weighted:
+        np.testing.assert_array_equal(got.weights, want.data)
+    np.testing.assert_array_equal(product_row_lengths(adj_a[0], adj_a[1], adj_b[0], adj_b[1], cand), np.diff(want.indptr))
+    assert estimate_product_edges(adj_a[0], adj_a[1], adj_b[0], adj_b[1], cand) >= want.nnz
 
 
 @pytest.mark.parametrize("directed", [False, True])
@@ -235,8 +292,9 @@ def test_patching_a_weighted_product_graph_is_refused():
 
 
 def test_estimate_equals_its_formula():
-    # Reference: the documented bound computed with numpy: for pair (i, i'),
-    # min(sum over neighbours j of i of c_j, deg_A(i) * deg_B(i')), summed over the pairs.
+    # Reference: the documented bound computed with numpy: for pair (i, i'), min(sum over
+    # neighbours j of i of c_j, sum over neighbours j' of i' of c'_j', deg_A(i) * deg_B(i')),
+    # summed over the pairs (c_j, c'_j': candidates of node j of A, of node j' of B).
     rng = np.random.default_rng(3)
     n1, n2 = 30, 25
     _, ia, xa = csr(random_edges(n1, 0.2, rng), n1)
@@ -244,10 +302,36 @@ def test_estimate_equals_its_formula():
     pairs = np.argwhere(rng.random((n1, n2)) < 0.2)
     cand = build_candidates(pairs, np.ones(len(pairs)), n1, n2, top_k=None)
     c = np.diff(cand.a_indptr)
+    cb = np.bincount(cand.pairs[:, 1], minlength=n2)
     reach = np.array([c[xa[ia[i]:ia[i + 1]]].sum() for i in range(n1)])
+    reach_b = np.array([cb[xb[ib[t]:ib[t + 1]]].sum() for t in range(n2)])
     i, ip = cand.pairs[:, 0], cand.pairs[:, 1]
-    want = np.minimum(reach[i], np.diff(ia)[i] * np.diff(ib)[ip]).sum()
-    assert estimate_product_edges(ia, xa, ib, cand) == want > 0
+    want = np.minimum(np.minimum(reach[i], reach_b[ip]), np.diff(ia)[i] * np.diff(ib)[ip]).sum()
+    assert estimate_product_edges(ia, xa, ib, xb, cand) == want > 0
+
+
+def test_the_estimate_of_a_hub_with_many_candidates_is_the_same_either_way_round():
+    # Found by a trial on hub graphs: with a hub of A that is a candidate of thousands of nodes
+    # of B, the bound counted deg_A * deg_B per pair (7.6e9 entries against 7.4e6 built) and
+    # refused a run needing under 1 GB, while the same pair with A and B swapped ran. Reference:
+    # the entries built, and the bound of the swapped pair (the product graph of the swapped
+    # pair is the same graph).
+    from aligner.core.network import adjacency
+
+    rng = np.random.default_rng(5)
+    n = 3000
+    e = np.argwhere(rng.random((n, n)) < 0.002)
+    e = e[e[:, 0] < e[:, 1]]
+    e = np.unique(np.concatenate([e, [(0, v) for v in range(1, n)]]), axis=0)  # node 0: a hub
+    ip, ix = adjacency(e, n)[:2]
+    pairs = np.concatenate([np.stack([np.arange(n), np.arange(n)], axis=1),
+                            np.stack([np.zeros(n, dtype=int), np.arange(n)], axis=1)])  # the hub: every node
+    cand = build_candidates(pairs, np.ones(len(pairs)), n, n, top_k=None)
+    swapped = build_candidates(pairs[:, ::-1], np.ones(len(pairs)), n, n, top_k=None)
+    built = build_product(ip, ix, ip, ix, cand).indptr[-1]
+    one, other = estimate_product_edges(ip, ix, ip, ix, cand), estimate_product_edges(ip, ix, ip, ix, swapped)
+    assert one == other >= built
+    assert one < 20 * built  # the pair-by-pair product deg_A * deg_B alone gives about n * n for the hub
 
 
 def test_symmetrised_pattern_is_built_once():
