@@ -42,7 +42,7 @@ import numpy as np
 import numpy.typing as npt
 
 from aligner.kernels.structural import _neighbour_mean, _neighbour_stats, _triangles_and_distance_two
-from aligner.checks import bad_parameter, check_int, check_real
+from aligner.checks import bad_parameter, check_int, check_real, warn
 from aligner.config import AlignConfig, specs
 from aligner.core.network import Network, merge_duplicate_pairs
 from aligner.errors import InvalidParameterError
@@ -177,6 +177,39 @@ def _knn(tree_pts: np.ndarray, query_pts: np.ndarray, k: int) -> tuple[np.ndarra
     return d.reshape(len(query_pts), k), j.reshape(len(query_pts), k)
 
 
+#: Above this share of a network's nodes with more than k others of identical features, the
+#: structural candidates are reported as unable to tell the nodes apart.
+TIED_SHARE = 0.1
+_MIX = 2654435761  # odd, about 2**32 / golden ratio: spreads a node's start among equals
+
+
+def _nearest(tree_pts: np.ndarray, query_pts: np.ndarray, k: int) -> tuple[np.ndarray, np.ndarray, float]:
+    """:func:`_knn`, with points of identical features (a regular graph's nodes, say) shared out
+    among the queries instead of the same few going to every query: each query takes its
+    nearest groups of identical points in order, and within a group its members from a start
+    set by the query's own index (a fixed rule, so runs repeat). Also returns the share of
+    ``tree_pts`` in a group of more than ``k``."""
+    uniq, inv, counts = np.unique(tree_pts, axis=0, return_inverse=True, return_counts=True)
+    inv = inv.reshape(-1)
+    tied = float(counts[inv].__gt__(k).mean()) if len(inv) else 0.0
+    if len(uniq) == len(tree_pts):
+        return (*_knn(tree_pts, query_pts, k), tied)
+    k = min(k, len(tree_pts))
+    d, g = _knn(uniq, query_pts, k)  # each group holds a point at least: k groups give k points
+    members = np.argsort(inv, kind="stable")  # the points of each group, in index order
+    first = np.concatenate([[0], np.cumsum(counts)[:-1]])
+    size = counts[g]
+    before = np.cumsum(size, axis=1) - size  # points taken by the query's nearer groups
+    take = np.clip(k - before, 0, size)
+    q, t = np.nonzero(take)
+    n = take[q, t]
+    q, t, g_at, size_at = np.repeat(q, n), np.repeat(t, n), np.repeat(g[q, t], n), np.repeat(size[q, t], n)
+    r = np.arange(len(q)) - np.repeat(np.cumsum(n) - n, n)  # 0, 1, ... within each (query, group)
+    start = (q.astype(np.uint64) * np.uint64(_MIX) % size_at.astype(np.uint64)).astype(np.int64)
+    j = members[first[g_at] + (start + r) % size_at]
+    return d[q, t].reshape(len(query_pts), k), j.reshape(len(query_pts), k), tied
+
+
 def _search_space(net_a: Network, net_b: Network) -> tuple[np.ndarray, np.ndarray]:
     """Both networks' features, z-scored together, neighbour-mean columns times :data:`AGGREGATE_WEIGHT`."""
     za, zb = standardise(node_features(net_a), node_features(net_b))
@@ -227,6 +260,11 @@ def structural_candidates(
 
     Notes
     -----
+    Nodes of identical features (every node of a regular graph without triangles, say) are
+    shared out among the nodes asking for them (:func:`_nearest`) rather than the same ``k``
+    going to everyone, and a network with more than :data:`TIED_SHARE` of its nodes in such
+    groups of more than ``k`` is warned about.
+
     Nodes without edges get no candidate: all their features are 0, so structure cannot
     tell them apart, and pairing every isolated node of A with ``k`` arbitrary isolated
     nodes of B would only add guesses. They are left out of both searches.
@@ -250,8 +288,13 @@ def structural_candidates(
         return np.empty((0, 2), dtype=np.int64), np.empty(0, dtype=np.float64)
     za, zb = _search_space(net_a, net_b)
     za, zb = za[live_a], zb[live_b]
-    d_ab, j_ab = _knn(zb, za, k)  # for each node of A, its nearest of B
-    d_ba, j_ba = _knn(za, zb, k)  # for each node of B, its nearest of A
+    d_ab, j_ab, tied_b = _nearest(zb, za, k)  # for each node of A, its nearest of B
+    d_ba, j_ba, tied_a = _nearest(za, zb, k)  # for each node of B, its nearest of A
+    if max(tied_a, tied_b) > TIED_SHARE:
+        warn(f"{tied_a:.0%} of the nodes of A and {tied_b:.0%} of B have the same structural features as more than "
+             f"{k} others: structure alone cannot tell them apart (a regular or lattice-like network), so their "
+             "candidates among equals are drawn by a fixed rule and the alignment there is a guess; give a prior or "
+             "seed pairs")
     pa = np.concatenate([np.repeat(live_a, d_ab.shape[1]), live_a[j_ba.ravel()]])
     pb = np.concatenate([live_b[j_ab.ravel()], np.repeat(live_b, d_ba.shape[1])])
     d = np.concatenate([d_ab.ravel(), d_ba.ravel()])
