@@ -87,40 +87,50 @@ def product_rows(nodes, a_indptr, a_indices, b_indptr, b_indices, c_indptr, c_b,
         # unpredictable branches, would otherwise take them one at a time); and count the
         # look-ups to come, the candidates of i's neighbours
         looks = 0
+        cmax = 0
         for s in range(a_indptr[i], a_indptr[i + 1]):
             j = a_indices[s]
             c0 = c_indptr[j]
             c1 = c_indptr[j + 1]
             looks += c1 - c0
+            cmax = max(cmax, c1 - c0)
             if c1 > c0:
                 touched ^= c_b[c0]
-        if k1 - k0 > big.shape[0]:
-            big = np.empty(2 * (k1 - k0), dtype=np.int32)
-        # which lists are searched rather than tabled or scanned (hubs, :func:`_by_search`): the
-        # rows whose partner has many neighbours against the look-ups, then the neighbours j
-        # with many candidates against the table those rows leave (``full``), then the rows
-        # again against the look-ups those neighbours leave
-        full = 0
-        for k in range(k0, k1):
-            d = b_indptr[r_b[k] + 1] - b_indptr[r_b[k]]
-            if not _by_search(d, looks):
-                full += d
-        if full < looks:  # a neighbour searched leaves fewer look-ups
-            left = 0
-            for s in range(a_indptr[i], a_indptr[i + 1]):
-                d = c_indptr[a_indices[s] + 1] - c_indptr[a_indices[s]]
-                if not _by_search(d, full):
-                    left += d
-            looks = left
         ne = 0
-        nbig = 0
+        dmax = 0
         for k in range(k0, k1):
             d = b_indptr[r_b[k] + 1] - b_indptr[r_b[k]]
-            if _by_search(d, looks):
-                big[nbig] = k - k0
-                nbig += 1
-            else:
-                ne += d
+            ne += d
+            dmax = max(dmax, d)
+        full = ne
+        nbig = 0
+        if dmax > 2 * looks or cmax > 2 * ne:  # a hub may be searched (else no list is)
+            if k1 - k0 > big.shape[0]:
+                big = np.empty(2 * (k1 - k0), dtype=np.int32)
+            # which lists are searched rather than tabled or scanned (:func:`_by_search`): the
+            # rows whose partner has many neighbours against the look-ups, then the neighbours j
+            # with many candidates against the table those rows leave (``full``), then the rows
+            # again against the look-ups those neighbours leave
+            full = 0
+            for k in range(k0, k1):
+                d = b_indptr[r_b[k] + 1] - b_indptr[r_b[k]]
+                if not _by_search(d, looks):
+                    full += d
+            if cmax > 2 * full:  # a neighbour searched leaves fewer look-ups
+                left = 0
+                for s in range(a_indptr[i], a_indptr[i + 1]):
+                    d = c_indptr[a_indices[s] + 1] - c_indptr[a_indices[s]]
+                    if not _by_search(d, full):
+                        left += d
+                looks = left
+            ne = 0
+            for k in range(k0, k1):
+                d = b_indptr[r_b[k] + 1] - b_indptr[r_b[k]]
+                if _by_search(d, looks):
+                    big[nbig] = k - k0
+                    nbig += 1
+                else:
+                    ne += d
         if ne == 0 and nbig == 0:
             continue
         for k in range(k0, k1):  # (the same for B's rows)
@@ -143,7 +153,7 @@ def product_rows(nodes, a_indptr, a_indices, b_indptr, b_indices, c_indptr, c_b,
         e = 0
         for k in range(k0, k1):  # the table: key b -> its entries (row k - k0, w_B(i', b)), last first
             ip = r_b[k]
-            if _by_search(b_indptr[ip + 1] - b_indptr[ip], looks):
+            if nbig > 0 and _by_search(b_indptr[ip + 1] - b_indptr[ip], looks):
                 continue
             for t in range(b_indptr[ip], b_indptr[ip + 1]):
                 b = b_indices[t]
