@@ -219,6 +219,25 @@ def product_rows(nodes, a_indptr, a_indices, b_indptr, b_indices, c_indptr, c_b,
 
 
 @inner
+def _entry_weight(wa, wb, floor):
+    """The weight of a product entry from its two edges' weights, as :func:`product_rows` says:
+    w_A * w_B when ``floor`` < 0 (:data:`PRODUCT`), else the agreement of two levels in [0, 1]."""
+    if floor < 0:
+        return wa * wb
+    return floor + (1.0 - floor) * (1.0 - abs(wa - wb))
+
+
+@inner
+def _put(hit_row, hit_u, hit_w, nh, row, u, w):
+    """Record hit ``nh`` (row, u and, when weighted, its weight ``w``); returns the next slot."""
+    hit_row[nh] = row
+    hit_u[nh] = u
+    if hit_w.shape[0] > 0:
+        hit_w[nh] = w
+    return nh + 1
+
+
+@inner
 def _by_search(degree, looks):
     """Whether a candidate partner of B with ``degree`` neighbours is looked up by binary search
     in its neighbour list (``looks`` searches of about log2(degree) steps each) rather than put
@@ -265,14 +284,8 @@ def _hits(i, a_indptr, a_indices, a_w, c_indptr, c_b, bits, tab_key, tab_head, e
                         continue
                     if nh == room:
                         return -1
-                    hit_row[nh] = k - k0
-                    hit_u[nh] = u
-                    if weighted:
-                        if floor < 0:
-                            hit_w[nh] = a_w[s] * b_w[t]
-                        else:
-                            hit_w[nh] = floor + (1.0 - floor) * (1.0 - abs(a_w[s] - b_w[t]))
-                    nh += 1
+                    nh = _put(hit_row, hit_u, hit_w, nh, k - k0, u, _entry_weight(a_w[s], b_w[t], floor)
+                              if weighted else 0.0)
             if big.shape[0] == 0:
                 continue
         for u in range(c0, c1):
@@ -284,14 +297,8 @@ def _hits(i, a_indptr, a_indices, a_w, c_indptr, c_b, bits, tab_key, tab_head, e
                     continue
                 if nh == room:
                     return -1
-                hit_row[nh] = big[x]
-                hit_u[nh] = u
-                if weighted:
-                    if floor < 0:
-                        hit_w[nh] = a_w[s] * b_w[t]
-                    else:
-                        hit_w[nh] = floor + (1.0 - floor) * (1.0 - abs(a_w[s] - b_w[t]))
-                nh += 1
+                nh = _put(hit_row, hit_u, hit_w, nh, big[x], u, _entry_weight(a_w[s], b_w[t], floor)
+                          if weighted else 0.0)
             if searched:  # the table's rows were searched for above
                 continue
             h = ((b * _MIX) & 0xFFFFFFFF) >> (32 - bits)  # multiplicative hashing: the top bits
@@ -303,14 +310,8 @@ def _hits(i, a_indptr, a_indices, a_w, c_indptr, c_b, bits, tab_key, tab_head, e
             while e != _EMPTY:
                 if nh == room:
                     return -1
-                hit_row[nh] = ent_row[e]
-                hit_u[nh] = u
-                if weighted:
-                    if floor < 0:
-                        hit_w[nh] = a_w[s] * ent_w[e]
-                    else:
-                        hit_w[nh] = floor + (1.0 - floor) * (1.0 - abs(a_w[s] - ent_w[e]))
-                nh += 1
+                nh = _put(hit_row, hit_u, hit_w, nh, ent_row[e], u, _entry_weight(a_w[s], ent_w[e], floor)
+                          if weighted else 0.0)
                 e = ent_next[e]
     return nh
 
